@@ -1,0 +1,49 @@
+"""Reading a site folder: :func:`read_site`."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from .errors import SiteError
+from .model import Site
+from .sources import locate_layers, read_config, read_layer
+from .validate import build_site
+
+
+def read_site(path: Path | str) -> Site:
+    """Read and validate the site folder at ``path``.
+
+    Opens ``site.toml`` and each layer file (any format pyogrio reads), reprojects to one metric
+    working CRS and validates everything. Raises :class:`~layers.errors.SiteError` listing every
+    problem (file, layer, feature id, what is wrong) — never only the first.
+    """
+    root = Path(path)
+    config, problems = read_config(root)
+    if problems and not root.is_dir():
+        raise SiteError(problems)
+    sources, p = locate_layers(root, config)
+    problems += p
+    frames = {}
+    for name, spec in sources.items():
+        frame, p = read_layer(root, name, spec)
+        problems += p
+        if frame is not None:
+            frames[name] = frame
+    try:
+        site = build_site(frames, config, root=root, sources=sources)
+    except SiteError as exc:
+        # a layer already reported missing/unreadable is not reported again
+        reported = {p.layer for p in problems}
+        later = [
+            q
+            for q in exc.problems
+            if not (
+                q.feature_id is None
+                and q.layer in reported
+                and q.message == "required layer missing"
+            )
+        ]
+        raise SiteError(problems + later) from None
+    if problems:
+        raise SiteError(problems)
+    return site

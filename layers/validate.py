@@ -1,0 +1,475 @@
+"""Validation of in-memory site frames and of the site-format parts of ``site.toml``.
+
+Every problem is collected — never only the first — each naming the layer, the feature id
+(or ``#n``, the feature's 1-based position, where the id itself is missing) and what is wrong.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import shapely
+
+from .crs import choose_working_crs, parse_crs
+from .errors import Problem, SiteError
+from .model import LAYER_NAMES, REQUIRED_LAYERS, Module, Site
+from .sources import SITE_TOML
+from .units import to_number
+
+
+@dataclass(frozen=True)
+class Field:
+    """One attribute of a layer: its type, whether it is required, and its allowed range."""
+
+    name: str
+    kind: str  # "int" | "float" | "str" | "choice" | "ref"
+    required: bool = False
+    low: float | None = None  # inclusive lower bound
+    high: float | None = None  # inclusive upper bound
+    low_open: bool = False  # True: value must be > low
+    choices: tuple[str, ...] = ()
+    targets: tuple[str, ...] = ()  # for "ref": layers the id must belong to
+    default: Any = None
+
+
+#: geometry types allowed per layer (single-part Multi* geometries are accepted and unpacked)
+GEOMETRY_TYPES: dict[str, tuple[str, ...]] = {
+    "rows": ("LineString", "Polygon"),
+    "combiners": ("Point",),
+    "inverters": ("Point", "Polygon"),
+    "trenches": ("LineString", "MultiLineString"),
+    "grid": ("Point",),
+}
+
+#: attributes per layer — the site format (README, "Site format")
+FIELDS: dict[str, tuple[Field, ...]] = {
+    "rows": (
+        Field("strings", "int", required=True, low=1),
+        Field("module", "str", required=True),
+        Field("to", "ref", targets=("combiners", "inverters")),
+    ),
+    "combiners": (
+        Field("to", "ref", targets=("inverters",)),
+        Field("max_strings", "int", low=1),
+        Field("fuse_a", "float", low=0, low_open=True),
+    ),
+    "inverters": (
+        Field("ac_kva", "float", required=True, low=0, low_open=True),
+        Field("ac_v", "float", required=True, low=0, low_open=True, high=36000),
+        Field("phases", "int", choices=("1", "3"), default=3),
+        Field("pf", "float", low=0, low_open=True, high=1),
+        Field("to", "ref", targets=("grid",)),
+    ),
+    "trenches": (
+        Field("depth_m", "float", low=0, low_open=True, high=10),
+        Field("laying", "choice", choices=("direct", "duct")),
+        Field("spacing_m", "float", low=0, high=5),
+        Field("soil_k_m_w", "float", low=0, low_open=True, high=10),
+        Field("max_circuits", "int", low=1),
+    ),
+    "grid": (),
+}
+
+#: shapely type ids → names
+TYPE_NAMES: dict[int, str] = {
+    0: "Point",
+    1: "LineString",
+    2: "LinearRing",
+    3: "Polygon",
+    4: "MultiPoint",
+    5: "MultiLineString",
+    6: "MultiPolygon",
+    7: "GeometryCollection",
+}
+
+#: a feature of each layer, in words
+SINGULAR: dict[str, str] = {
+    "rows": "row",
+    "combiners": "combiner",
+    "inverters": "inverter",
+    "trenches": "trench",
+    "grid": "grid point",
+}
+
+
+def _a(noun: str) -> str:
+    return ("an " if noun[:1] in "aeiou" else "a ") + noun
+
+
+MODULE_KEYS_REQUIRED: tuple[str, ...] = ("isc_a", "imp_a", "voc_v", "vmp_v", "per_string")
+
+
+def build_site(
+    frames: dict[str, gpd.GeoDataFrame],
+    config: dict[str, Any],
+    root: Path | str = ".",
+    sources: dict[str, str] | None = None,
+) -> Site:
+    """Validate in-memory layer frames and a parsed site.toml; return a :class:`Site`.
+
+    Raises :class:`~layers.errors.SiteError` with every problem found.
+    """
+    problems: list[Problem] = []
+    root = Path(root)
+    site_cfg = config.get("site", {}) or {}
+    if not isinstance(site_cfg, dict):
+        problems.append(Problem(SITE_TOML, "site", "[site] must be a table"))
+        site_cfg = {}
+    modules, module_problems = parse_modules(config)
+    problems += module_problems
+
+    for name in REQUIRED_LAYERS:
+        if name not in frames:
+            problems.append(Problem(name, None, "required layer missing"))
+    site_crs = source_crs = None
+    if site_cfg.get("crs"):
+        site_crs, p = parse_crs(str(site_cfg["crs"]), "site.crs")
+        problems += p
+    if site_cfg.get("source_crs"):
+        source_crs, p = parse_crs(str(site_cfg["source_crs"]), "site.source_crs")
+        problems += p
+
+    clean: dict[str, gpd.GeoDataFrame] = {}
+    for name in LAYER_NAMES:
+        if name in frames:
+            frame, p = _check_geometry(name, frames[name])
+            problems += p
+            clean[name] = frame
+    crs, crs_note, projected, p = choose_working_crs(clean, site_crs, source_crs)
+    problems += p
+
+    typed: dict[str, gpd.GeoDataFrame] = {}
+    for name, frame in projected.items():
+        frame, p = _check_attributes(name, frame)
+        problems += p
+        typed[name] = frame
+    problems += _check_ids_and_refs(typed, modules)
+    if problems:
+        raise SiteError(sorted(set(problems), key=_problem_order))
+
+    if "grid" not in typed:
+        typed["grid"] = gpd.GeoDataFrame({"id": pd.Series([], dtype=object)}, geometry=[], crs=crs)
+    name = str(site_cfg.get("name") or root.resolve().name)
+    return Site(
+        root=root,
+        name=name,
+        crs=crs,
+        crs_note=crs_note,
+        rows=typed["rows"],
+        combiners=typed["combiners"],
+        inverters=typed["inverters"],
+        trenches=typed["trenches"],
+        grid=typed["grid"],
+        modules=modules,
+        config=config,
+        sources=dict(sources or {}),
+    )
+
+
+def _problem_order(p: Problem) -> tuple:
+    layer_rank = LAYER_NAMES.index(p.layer) if p.layer in LAYER_NAMES else -1
+    return (layer_rank, p.layer, p.feature_id or "", p.message)
+
+
+def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Problem]]:
+    """The ``[modules.<key>]`` tables as :class:`Module` objects, with every problem found."""
+    problems: list[Problem] = []
+    raw = config.get("modules")
+    if not isinstance(raw, dict) or not raw:
+        return {}, [
+            Problem(
+                SITE_TOML, "modules", "no [modules.<key>] table: at least one module type is needed"
+            )
+        ]
+    modules: dict[str, Module] = {}
+    for key, table in raw.items():
+        where = f"modules.{key}"
+        if not isinstance(table, dict):
+            problems.append(Problem(SITE_TOML, where, "must be a table"))
+            continue
+        values: dict[str, float] = {}
+        for k in (*MODULE_KEYS_REQUIRED, "max_fuse_a"):
+            if k not in table:
+                if k != "max_fuse_a":
+                    problems.append(Problem(SITE_TOML, where, f"missing {k}"))
+                continue
+            try:
+                v = to_number(table[k], k)
+            except ValueError as exc:
+                problems.append(Problem(SITE_TOML, where, f"{k}: {exc}"))
+                continue
+            if v <= 0:
+                problems.append(Problem(SITE_TOML, where, f"{k} = {v:g} must be > 0"))
+                continue
+            if k == "per_string" and v != int(v):
+                problems.append(
+                    Problem(SITE_TOML, where, f"per_string = {v:g} must be a whole number")
+                )
+                continue
+            values[k] = v
+        if "imp_a" in values and "isc_a" in values and values["imp_a"] > values["isc_a"]:
+            problems.append(
+                Problem(
+                    SITE_TOML, where, f"imp_a {values['imp_a']:g} exceeds isc_a {values['isc_a']:g}"
+                )
+            )
+        if "vmp_v" in values and "voc_v" in values and values["vmp_v"] > values["voc_v"]:
+            problems.append(
+                Problem(
+                    SITE_TOML, where, f"vmp_v {values['vmp_v']:g} exceeds voc_v {values['voc_v']:g}"
+                )
+            )
+        if all(k in values for k in MODULE_KEYS_REQUIRED):
+            extra = {
+                k: v for k, v in table.items() if k not in (*MODULE_KEYS_REQUIRED, "max_fuse_a")
+            }
+            modules[str(key)] = Module(
+                key=str(key),
+                isc_a=values["isc_a"],
+                imp_a=values["imp_a"],
+                voc_v=values["voc_v"],
+                vmp_v=values["vmp_v"],
+                per_string=int(values["per_string"]),
+                max_fuse_a=values.get("max_fuse_a", math.nan),
+                extra=extra,
+            )
+    return modules, problems
+
+
+def _label(frame: pd.DataFrame, i: int) -> str:
+    """The feature's id for messages, or ``#n`` (1-based position) when it has none."""
+    if "id" in frame.columns:
+        v = frame["id"].iloc[i]
+        s = _id_text(v)
+        if s:
+            return s
+    return f"#{i + 1}"
+
+
+def _id_text(v: Any) -> str:
+    if v is None or (isinstance(v, float) and math.isnan(v)):
+        return ""
+    if isinstance(v, float) and v.is_integer():
+        return str(int(v))
+    return str(v).strip()
+
+
+def _check_geometry(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFrame, list[Problem]]:
+    """Geometry presence, type and validity; single-part Multi* unpacked; Z dropped."""
+    problems: list[Problem] = []
+    frame = _normalise_columns(name, frame.reset_index(drop=True).copy())
+    if "id" not in frame.columns:
+        problems.append(Problem(name, None, "no 'id' column"))
+    geoms = np.asarray(frame.geometry.values, dtype=object)
+    missing = shapely.is_missing(geoms) | shapely.is_empty(geoms)
+    allowed = GEOMETRY_TYPES[name]
+    geoms = shapely.force_2d(geoms)
+    # unpack single-part multi-geometries (common in GeoPackage exports)
+    types = shapely.get_type_id(geoms)
+    multi = np.isin(types, (4, 5, 6)) & ~missing
+    if "MultiLineString" not in allowed:
+        single = multi & (shapely.get_num_geometries(geoms) == 1)
+        geoms[single] = shapely.get_geometry(geoms[single], 0)
+    tid = shapely.get_type_id(geoms)
+    valid = shapely.is_valid(geoms)
+    for i in range(len(frame)):
+        label = _label(frame, i)
+        if missing[i]:
+            problems.append(Problem(name, label, "empty or missing geometry"))
+            continue
+        tname = TYPE_NAMES.get(int(tid[i]), "unknown")
+        if tname not in allowed:
+            problems.append(
+                Problem(name, label, f"geometry is {tname}; expected {' or '.join(allowed)}")
+            )
+            continue
+        if not valid[i]:
+            reason = shapely.is_valid_reason(geoms[i])
+            problems.append(Problem(name, label, f"invalid geometry: {reason}"))
+            continue
+        if tname in ("LineString", "MultiLineString") and shapely.length(geoms[i]) <= 0:
+            problems.append(Problem(name, label, "line has zero length"))
+    frame = frame.set_geometry(gpd.GeoSeries(geoms, crs=frame.crs), crs=frame.crs)
+    return frame, problems
+
+
+def _normalise_columns(name: str, frame: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
+    """Match attribute names case-insensitively and undo the Shapefile format's 10-character
+    truncation (``max_strings`` is stored as ``max_string``), so no attribute is silently lost."""
+    wanted = ["id", *(f.name for f in FIELDS[name])]
+    present = {str(c).lower(): c for c in frame.columns if c != frame.geometry.name}
+    renames = {}
+    for key in wanted:
+        if key in frame.columns:
+            continue
+        for alias in (key, key[:10]):
+            col = present.get(alias)
+            if col is not None and col not in renames and col not in wanted:
+                renames[col] = key
+                break
+    return frame.rename(columns=renames) if renames else frame
+
+
+def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFrame, list[Problem]]:
+    """Type and range of each attribute; returns a frame with typed columns."""
+    problems: list[Problem] = []
+    n = len(frame)
+    if "id" in frame.columns:
+        ids = [_id_text(v) for v in frame["id"]]
+        for i, s in enumerate(ids):
+            if not s:
+                problems.append(Problem(name, f"#{i + 1}", "missing or empty id"))
+        frame["id"] = pd.Series(ids, index=frame.index, dtype=object)
+    for fld in FIELDS[name]:
+        if fld.name not in frame.columns:
+            if fld.required:
+                problems.append(Problem(name, None, f"no {fld.name!r} column (required)"))
+            frame[fld.name] = _default_column(fld, n)
+            continue
+        col = frame[fld.name]
+        out: list[Any] = []
+        for i, v in enumerate(col):
+            value, message = _parse_value(fld, v)
+            if message:
+                problems.append(Problem(name, _label(frame, i), message))
+            out.append(value)
+        if fld.kind in ("int", "float"):
+            frame[fld.name] = pd.Series(out, index=frame.index, dtype=float)
+            if fld.kind == "int" and fld.required and not frame[fld.name].isna().any():
+                frame[fld.name] = frame[fld.name].astype(int)
+        else:
+            frame[fld.name] = pd.Series(out, index=frame.index, dtype=object)
+    if name == "inverters" and "phases" in frame.columns:
+        frame["phases"] = frame["phases"].fillna(3).astype(int)
+    return frame, problems
+
+
+def _default_column(fld: Field, n: int) -> pd.Series:
+    if fld.kind in ("int", "float"):
+        default = math.nan if fld.default is None else float(fld.default)
+        return pd.Series(np.full(n, default), dtype=float)
+    return pd.Series([fld.default] * n, dtype=object)
+
+
+def _is_blank(v: Any) -> bool:
+    return (
+        v is None
+        or (isinstance(v, float) and math.isnan(v))
+        or (isinstance(v, str) and not v.strip())
+    )
+
+
+def _parse_value(fld: Field, v: Any) -> tuple[Any, str]:
+    """(typed value, problem message or '')."""
+    if _is_blank(v) or v is pd.NA:
+        if fld.required:
+            return (math.nan if fld.kind in ("int", "float") else None), f"{fld.name} is missing"
+        if fld.kind in ("int", "float"):
+            return (math.nan if fld.default is None else float(fld.default)), ""
+        return fld.default, ""
+    if fld.kind in ("int", "float"):
+        try:
+            x = to_number(v.strip() if isinstance(v, str) else v, fld.name)
+        except ValueError:
+            want = "an integer" if fld.kind == "int" else "a number"
+            return math.nan, f"{fld.name} is {v!r}, expected {want}"
+        if fld.kind == "int" and x != int(x):
+            return math.nan, f"{fld.name} is {v!r}, expected a whole number"
+        if fld.choices and str(int(x)) not in fld.choices:
+            return math.nan, f"{fld.name} is {v!r}, expected one of {', '.join(fld.choices)}"
+        if fld.low is not None and (x < fld.low or (fld.low_open and x == fld.low)):
+            op = ">" if fld.low_open else "≥"
+            return math.nan, f"{fld.name} is {x:g}, must be {op} {fld.low:g}"
+        if fld.high is not None and x > fld.high:
+            return math.nan, f"{fld.name} is {x:g}, must be ≤ {fld.high:g}"
+        return x, ""
+    s = _id_text(v)
+    if fld.kind == "choice" and s.lower() not in fld.choices:
+        return None, f"{fld.name} is {s!r}, expected one of {', '.join(fld.choices)}"
+    return (s.lower() if fld.kind == "choice" else s), ""
+
+
+def _check_ids_and_refs(
+    frames: dict[str, gpd.GeoDataFrame], modules: dict[str, Module]
+) -> list[Problem]:
+    """Ids unique across layers; ``to`` points at an existing feature of the right kind;
+    module keys exist; a combiner's ``max_strings`` is not exceeded by the rows assigned to it."""
+    problems: list[Problem] = []
+    owner: dict[str, str] = {}
+    for name in LAYER_NAMES:
+        frame = frames.get(name)
+        if frame is None or "id" not in frame.columns:
+            continue
+        for s in frame["id"]:
+            if not s:
+                continue
+            if s in owner:
+                other = owner[s]
+                where = "in this layer" if other == name else f"in layer {other!r}"
+                problems.append(
+                    Problem(
+                        name,
+                        s,
+                        f"duplicate id: already used {where} (ids are unique across layers)",
+                    )
+                )
+            else:
+                owner[s] = name
+    for name, frame in frames.items():
+        for fld in FIELDS[name]:
+            if fld.kind != "ref" or fld.name not in frame.columns:
+                continue
+            for i, target in enumerate(frame[fld.name]):
+                if not target:
+                    continue
+                kind = owner.get(target)
+                if kind is None:
+                    problems.append(
+                        Problem(
+                            name,
+                            _label(frame, i),
+                            f"{fld.name} = {target!r}: no feature has that id",
+                        )
+                    )
+                elif kind not in fld.targets:
+                    want = " or ".join(SINGULAR[t] for t in fld.targets)
+                    problems.append(
+                        Problem(
+                            name,
+                            _label(frame, i),
+                            f"{fld.name} = {target!r} is {_a(SINGULAR[kind])}; expected {_a(want)}",
+                        )
+                    )
+    rows = frames.get("rows")
+    if rows is not None and "module" in rows.columns and modules is not None:
+        known = ", ".join(sorted(modules)) or "none"
+        for i, key in enumerate(rows["module"]):
+            if key and key not in modules:
+                problems.append(
+                    Problem(
+                        "rows",
+                        _label(rows, i),
+                        f"module {key!r} is not in site.toml [modules] (known: {known})",
+                    )
+                )
+    combiners = frames.get("combiners")
+    if rows is not None and combiners is not None and "to" in rows.columns and len(combiners):
+        strings = pd.to_numeric(rows["strings"], errors="coerce").fillna(0)
+        per_target = strings.groupby(rows["to"]).sum()
+        for i, (cid, cap) in enumerate(zip(combiners["id"], combiners["max_strings"], strict=True)):
+            n = float(per_target.get(cid, 0.0))
+            if np.isfinite(cap) and n > cap:
+                problems.append(
+                    Problem(
+                        "combiners",
+                        _label(combiners, i),
+                        f"{n:g} strings are assigned to it but max_strings is {cap:g}",
+                    )
+                )
+    return problems

@@ -1,0 +1,81 @@
+"""``routeplan check``: read and validate a site, then summarise what will be planned.
+
+The library never prints; :func:`check_site` returns a :class:`CheckReport` that the CLI
+renders, or raises :class:`layers.SiteError` listing every problem.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import shapely
+
+import layers
+from layers import Problem, Site, SiteError
+
+from .config import DesignConfig, parse_design
+
+
+@dataclass(frozen=True)
+class CheckReport:
+    """What ``check`` found: the site, its design settings and summary figures (SI)."""
+
+    site: Site
+    design: DesignConfig
+    counts: dict[str, int]
+    strings: int
+    trench_m: float
+    dc_kw: float
+    ac_kva: float
+    notes: tuple[str, ...] = ()
+
+
+def load(path: Path | str) -> tuple[Site, DesignConfig]:
+    """Read the site and its design settings; raise :class:`SiteError` with every problem."""
+    problems: list[Problem] = []
+    site: Site | None = None
+    try:
+        site = layers.read_site(path)
+    except SiteError as exc:
+        problems += exc.problems
+    config = site.config if site is not None else _config_only(Path(path))
+    design, p = parse_design(config)
+    problems += p
+    if problems or site is None:
+        raise SiteError(problems)
+    return site, design
+
+
+def _config_only(root: Path) -> dict:
+    from layers.sources import read_config
+
+    config, _ = read_config(root)
+    return config
+
+
+def check_site(path: Path | str) -> CheckReport:
+    """Validate the site at ``path`` (files, geometry, attributes, design settings)."""
+    site, design = load(path)
+    counts = {name: len(site.layer(name)) for name in layers.LAYER_NAMES}
+    strings = int(site.rows["strings"].sum())
+    per_string_kw = {
+        k: m.per_string * m.extra.get("pmax_w", m.imp_a * m.vmp_v) / 1000.0
+        for k, m in site.modules.items()
+    }
+    dc_kw = float(
+        sum(
+            per_string_kw[m] * n
+            for m, n in zip(site.rows["module"], site.rows["strings"], strict=True)
+        )
+    )
+    trench_m = float(shapely.length(site.trenches.geometry.values).sum())
+    return CheckReport(
+        site=site,
+        design=design,
+        counts=counts,
+        strings=strings,
+        trench_m=trench_m,
+        dc_kw=dc_kw,
+        ac_kva=float(site.inverters["ac_kva"].sum()),
+    )

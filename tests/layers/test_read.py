@@ -1,0 +1,108 @@
+"""Reading sites in each format, and CRS handling."""
+
+from __future__ import annotations
+
+import numpy as np
+import pyproj
+import pytest
+import shapely
+
+import layers
+from tests.conftest import UTM33, base_frames, write_site
+
+
+@pytest.mark.filterwarnings("ignore:.*(truncated|Normalized).*")
+@pytest.mark.parametrize("fmt", ["geojson", "gpkg", "shp", "site.gpkg"])
+def test_reads_every_format(tmp_path, fmt):
+    # GeoJSON, GeoPackage (one file per layer), Shapefile, one GeoPackage holding every layer
+    frames = base_frames()
+    if fmt == "geojson":  # RFC 7946: GeoJSON is WGS 84 lon/lat
+        frames = {k: v.to_crs("EPSG:4326") for k, v in frames.items()}
+    root = write_site(tmp_path / fmt, frames, fmt=fmt)
+    site = layers.read_site(root)
+    assert [len(site.layer(n)) for n in layers.LAYER_NAMES] == [2, 1, 1, 2, 1]
+    assert site.rows["id"].tolist() == ["R1", "R2"]
+    assert site.rows["strings"].tolist() == [2, 3]
+    assert site.inverters["phases"].tolist() == [3]
+    # the Shapefile format truncates names to 10 characters (max_strings -> max_string)
+    assert site.combiners["max_strings"].tolist() == [12]
+    assert site.crs.equals(pyproj.CRS(UTM33))  # UTM 33N is the zone of these coordinates
+    # metric lengths survive the round trip (within GeoJSON's 7-decimal rounding, ~1 cm)
+    lengths = shapely.length(site.trenches.geometry.values)
+    np.testing.assert_allclose(lengths, [30.0, 108.0], atol=0.02)
+    assert np.isnan(site.trenches["depth_m"].iloc[1])  # missing optional attribute stays NaN
+
+
+def test_layer_named_in_toml(tmp_path):
+    frames = base_frames()
+    root = write_site(tmp_path / "s", {k: v for k, v in frames.items() if k != "grid"})
+    frames["grid"].to_file(root / "poc.gpkg", layer="points", engine="pyogrio")
+    (root / "site.toml").write_text(
+        (root / "site.toml").read_text() + '\n[layers]\ngrid = "poc.gpkg:points"\n'
+    )
+    site = layers.read_site(root)
+    assert site.grid["id"].tolist() == ["G1"]
+    assert site.sources["grid"] == "poc.gpkg:points"
+
+
+def test_grid_is_optional(tmp_path):
+    frames = {k: v for k, v in base_frames().items() if k != "grid"}
+    frames["inverters"] = frames["inverters"].assign(to=[None])
+    site = layers.read_site(write_site(tmp_path / "s", frames))
+    assert len(site.grid) == 0
+
+
+def test_geographic_data_goes_to_local_utm_with_geodesic_lengths(tmp_path):
+    # Reference: pyproj.Geod (WGS 84 ellipsoid) geodesic lengths of the lon/lat lines.
+    frames = {k: v.to_crs("EPSG:4326") for k, v in base_frames().items()}
+    site = layers.read_site(write_site(tmp_path / "s", frames))
+    assert site.crs.to_epsg() == 32633
+    assert "UTM" in site.crs_note
+    geod = pyproj.Geod(ellps="WGS84")
+    geodesic = [geod.geometry_length(g) for g in frames["trenches"].geometry]
+    projected = shapely.length(site.trenches.geometry.values)
+    np.testing.assert_allclose(projected, geodesic, rtol=1e-3)
+
+
+def test_geographic_site_far_from_meridian_still_within_0p1pct(tmp_path):
+    # Reference: pyproj.Geod. A 2 km trench at 62° N, 2.9° from its zone's central meridian.
+    from shapely.geometry import LineString
+
+    frames = base_frames()
+    lon0, lat0 = 17.9, 62.0
+    trench = LineString([(lon0, lat0), (lon0 + 0.03, lat0 + 0.005), (lon0 + 0.035, lat0 + 0.015)])
+    geo = {k: v.to_crs("EPSG:4326") for k, v in frames.items()}
+    shift = lambda g: shapely.transform(g, lambda c: c - [15.0, 47.83] + [lon0, lat0])  # noqa: E731
+    for k in geo:
+        geo[k] = geo[k].set_geometry(shift(geo[k].geometry.values), crs="EPSG:4326")
+    geo["trenches"] = geo["trenches"].set_geometry(
+        [trench, geo["trenches"].geometry.iloc[1]], crs="EPSG:4326"
+    )
+    site = layers.read_site(write_site(tmp_path / "s", geo))
+    assert site.crs.to_epsg() == 32633  # 17.9° E lies in zone 33 (12°–18° E)
+    geod = pyproj.Geod(ellps="WGS84")
+    assert shapely.length(site.trenches.geometry.iloc[0]) == pytest.approx(
+        geod.geometry_length(trench), rel=1e-3
+    )
+
+
+def test_site_crs_overrides_and_mixed_crs_layers_are_reprojected(tmp_path):
+    frames = base_frames()
+    frames["grid"] = frames["grid"].to_crs("EPSG:4326")  # one layer in another CRS
+    toml = "[site]\ncrs = 'EPSG:3035'\n" + "\n".join(
+        line
+        for line in __import__("tests.conftest", fromlist=["SITE_TOML"]).SITE_TOML.splitlines()
+        if not line.startswith("[site]")
+    )
+    site = layers.read_site(write_site(tmp_path / "s", frames, fmt="gpkg", toml=toml))
+    assert site.crs.to_epsg() == 3035
+    assert all(site.layer(n).crs.equals(site.crs) for n in layers.LAYER_NAMES)
+
+
+def test_units_in_values_are_converted():
+    from layers.units import to_number
+
+    assert to_number("800 mm", "depth_m") == 0.8
+    assert to_number("2.5 MVA", "ac_kva") == 2500.0
+    with pytest.raises(ValueError, match="not a quantity in A"):
+        to_number("3 m", "isc_a")

@@ -1,0 +1,226 @@
+"""One test per validation rule: each names the layer and the exact feature id."""
+
+from __future__ import annotations
+
+import pytest
+from shapely.geometry import LineString, Point, Polygon
+
+import layers
+from tests.conftest import E0, N0, SITE_TOML, base_frames, write_site
+
+
+def problems_of(root) -> list[str]:
+    with pytest.raises(layers.SiteError) as info:
+        layers.read_site(root)
+    return [str(p) for p in info.value.problems]
+
+
+def write(tmp_path, frames=None, **kw):
+    return write_site(tmp_path / "site", frames if frames is not None else base_frames(), **kw)
+
+
+def test_valid_site_has_no_problems(tmp_path):
+    layers.read_site(write(tmp_path))
+
+
+def test_missing_site_toml(tmp_path):
+    root = write(tmp_path)
+    (root / "site.toml").unlink()
+    assert any(p.startswith("site.toml: missing") for p in problems_of(root))
+
+
+def test_unparsable_site_toml(tmp_path):
+    root = write(tmp_path, toml="[site\nname = 1")
+    assert any(p.startswith("site.toml: cannot be parsed") for p in problems_of(root))
+
+
+def test_missing_required_layer(tmp_path):
+    frames = base_frames()
+    del frames["trenches"]
+    msgs = problems_of(write(tmp_path, frames))
+    assert any(p.startswith("trenches: required layer missing") for p in msgs)
+
+
+def test_unreadable_file(tmp_path):
+    root = write(tmp_path)
+    (root / "combiners.geojson").write_text("this is not GeoJSON")
+    msgs = problems_of(root)
+    assert any(p.startswith("combiners: cannot read combiners.geojson") for p in msgs)
+
+
+def test_truncated_file(tmp_path):
+    root = write(tmp_path, fmt="gpkg")
+    path = root / "rows.gpkg"
+    data = path.read_bytes()
+    path.write_bytes(data[: len(data) // 3])
+    msgs = problems_of(root)
+    assert any(p.startswith("rows: cannot read rows.gpkg") for p in msgs)
+
+
+def test_two_candidate_files_for_one_layer(tmp_path):
+    root = write(tmp_path)
+    base_frames()["grid"].to_file(root / "grid.gpkg", engine="pyogrio")
+    assert any("several files could be this layer" in p for p in problems_of(root))
+
+
+def test_missing_and_empty_ids(tmp_path):
+    frames = base_frames()
+    frames["rows"].loc[1, "id"] = ""
+    frames["trenches"] = frames["trenches"].drop(columns="id")
+    msgs = problems_of(write(tmp_path, frames, fmt="gpkg"))
+    assert "rows '#2': missing or empty id" in msgs
+    assert "trenches: no 'id' column" in msgs
+
+
+def test_duplicate_ids_across_layers(tmp_path):
+    frames = base_frames()
+    frames["grid"].loc[0, "id"] = "CB1"  # same id as the combiner
+    frames["inverters"].loc[0, "to"] = None
+    msgs = problems_of(write(tmp_path, frames))
+    assert (
+        "grid 'CB1': duplicate id: already used in layer 'combiners' (ids are unique across layers)"
+        in msgs
+    )
+
+
+def test_duplicate_ids_within_a_layer(tmp_path):
+    frames = base_frames()
+    frames["rows"].loc[1, "id"] = "R1"
+    msgs = problems_of(write(tmp_path, frames))
+    assert any(p.startswith("rows 'R1': duplicate id: already used in this layer") for p in msgs)
+
+
+def test_wrong_geometry_type(tmp_path):
+    frames = base_frames()
+    frames["combiners"] = frames["combiners"].set_geometry(
+        [LineString([(E0 + 45, N0), (E0 + 46, N0)])], crs=frames["combiners"].crs
+    )
+    msgs = problems_of(write(tmp_path, frames, fmt="gpkg"))
+    assert "combiners 'CB1': geometry is LineString; expected Point" in msgs
+
+
+def test_empty_geometry(tmp_path):
+    frames = base_frames()
+    frames["grid"] = frames["grid"].set_geometry([None], crs=frames["grid"].crs)
+    msgs = problems_of(write(tmp_path, frames, fmt="gpkg"))
+    assert "grid 'G1': empty or missing geometry" in msgs
+
+
+def test_self_intersecting_polygon(tmp_path):
+    frames = base_frames()
+    bowtie = Polygon([(E0, N0 + 20), (E0 + 40, N0 + 24), (E0 + 40, N0 + 20), (E0, N0 + 24)])
+    frames["rows"] = frames["rows"].set_geometry(
+        [frames["rows"].geometry.iloc[0], bowtie], crs=frames["rows"].crs
+    )
+    msgs = problems_of(write(tmp_path, frames, fmt="gpkg"))
+    assert any(p.startswith("rows 'R2': invalid geometry: Self-intersection") for p in msgs)
+
+
+def test_non_numeric_attribute(tmp_path):
+    frames = base_frames()
+    frames["rows"]["strings"] = frames["rows"]["strings"].astype(object)
+    frames["rows"].loc[0, "strings"] = "three"
+    msgs = problems_of(write(tmp_path, frames))
+    assert "rows 'R1': strings is 'three', expected an integer" in msgs
+
+
+def test_out_of_range_attributes(tmp_path):
+    frames = base_frames()
+    frames["trenches"].loc[0, "depth_m"] = -0.5
+    frames["rows"].loc[1, "strings"] = 0
+    frames["inverters"].loc[0, "phases"] = 2
+    msgs = problems_of(write(tmp_path, frames))
+    assert "trenches 'T1': depth_m is -0.5, must be > 0" in msgs
+    assert "rows 'R2': strings is 0, must be ≥ 1" in msgs
+    assert "inverters 'INV1': phases is 2, expected one of 1, 3" in msgs
+
+
+def test_unknown_choice(tmp_path):
+    frames = base_frames()
+    frames["trenches"].loc[1, "laying"] = "tray"
+    msgs = problems_of(write(tmp_path, frames))
+    assert "trenches 'T2': laying is 'tray', expected one of direct, duct" in msgs
+
+
+def test_missing_required_attribute(tmp_path):
+    frames = base_frames()
+    frames["inverters"] = frames["inverters"].drop(columns="ac_kva")
+    msgs = problems_of(write(tmp_path, frames))
+    assert "inverters: no 'ac_kva' column (required)" in msgs
+
+
+def test_unknown_module_key(tmp_path):
+    frames = base_frames()
+    frames["rows"].loc[1, "module"] = "mod9"
+    msgs = problems_of(write(tmp_path, frames))
+    assert "rows 'R2': module 'mod9' is not in site.toml [modules] (known: mod1)" in msgs
+
+
+def test_bad_module_table(tmp_path):
+    toml = SITE_TOML.replace("imp_a = 12.3", "imp_a = 14.0").replace("per_string = 26\n", "")
+    msgs = problems_of(write(tmp_path, toml=toml))
+    assert "site.toml 'modules.mod1': missing per_string" in msgs
+    assert "site.toml 'modules.mod1': imp_a 14 exceeds isc_a 13" in msgs
+
+
+def test_to_points_at_missing_id(tmp_path):
+    frames = base_frames()
+    frames["rows"].loc[0, "to"] = "CB9"
+    msgs = problems_of(write(tmp_path, frames))
+    assert "rows 'R1': to = 'CB9': no feature has that id" in msgs
+
+
+def test_to_points_at_wrong_kind(tmp_path):
+    frames = base_frames()
+    frames["combiners"].loc[0, "to"] = "T1"  # a trench, not an inverter
+    msgs = problems_of(write(tmp_path, frames))
+    assert "combiners 'CB1': to = 'T1' is a trench; expected an inverter" in msgs
+
+
+def test_combiner_over_max_strings(tmp_path):
+    frames = base_frames()
+    frames["combiners"].loc[0, "max_strings"] = 4  # rows carry 2 + 3 strings
+    msgs = problems_of(write(tmp_path, frames))
+    assert "combiners 'CB1': 5 strings are assigned to it but max_strings is 4" in msgs
+
+
+def test_missing_crs_is_refused(tmp_path):
+    frames = base_frames()
+    root = write(tmp_path, frames, fmt="shp")
+    (root / "grid.prj").unlink()
+    msgs = problems_of(root)
+    assert any(p.startswith("grid: has no CRS") for p in msgs)
+
+
+def test_missing_crs_with_declared_source_crs_is_assumed(tmp_path):
+    root = write(
+        tmp_path,
+        fmt="shp",
+        toml=SITE_TOML.replace("[site]\n", '[site]\nsource_crs = "EPSG:32633"\n'),
+    )
+    (root / "grid.prj").unlink()
+    site = layers.read_site(root)
+    assert "grid: no CRS in file, assumed EPSG:32633" in site.crs_note
+
+
+def test_unknown_crs(tmp_path):
+    root = write(tmp_path, toml=SITE_TOML.replace("[site]\n", '[site]\ncrs = "EPSG:999999"\n'))
+    assert any(
+        p.startswith("site.toml 'site.crs': unknown CRS 'EPSG:999999'") for p in problems_of(root)
+    )
+
+
+def test_geographic_working_crs_is_refused(tmp_path):
+    root = write(tmp_path, toml=SITE_TOML.replace("[site]\n", '[site]\ncrs = "EPSG:4326"\n'))
+    assert any("is not a projected CRS in metres" in p for p in problems_of(root))
+
+
+def test_every_problem_at_once(tmp_path):
+    frames = base_frames()
+    frames["rows"].loc[0, "to"] = "CB9"
+    frames["rows"].loc[1, "module"] = "nope"
+    frames["trenches"].loc[1, "depth_m"] = -1
+    frames["combiners"] = frames["combiners"].set_geometry([Point()], crs=frames["combiners"].crs)
+    msgs = problems_of(write(tmp_path, frames, fmt="gpkg"))
+    ids = {m.split(":")[0] for m in msgs}
+    assert {"rows 'R1'", "rows 'R2'", "trenches 'T2'", "combiners 'CB1'"} <= ids
