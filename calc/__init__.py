@@ -1,0 +1,77 @@
+"""calc — electrical engine of routeplan: PV cable sizing, voltage drop, losses.
+
+**Safety.** Wrong cable sizing starts fires. Every result of this package is a design aid: it does
+not replace the standards themselves, local codes and regulations, the cable and equipment makers'
+data, or the review and sign-off of the design by a qualified (where required, licensed) person.
+Several tabulated values were recalled rather than read from the standards; they are tagged
+``memory`` in the data files (``calc/data/*.csv``) and must be checked against the editions in force
+before use.
+
+Interface (stable; the routing/pipeline side calls only this)::
+
+    from calc import SizingInput, DesignParams, SizingResult, size_circuits
+    from calc import KIND_STRING, KIND_ARRAY, KIND_AC, KIND_NAMES
+    result = size_circuits(inp: SizingInput, design: DesignParams = DesignParams(),
+                           rules: str = "iec") -> SizingResult
+
+* ``SizingInput`` — numpy arrays per circuit (``kind``, ``cable_m``, ``air_m``, ``parent``,
+  ``isc_a``, ``imp_a``, ``vmp_v``, ``n_strings``, ``strings_in_parallel``, ``max_fuse_a``,
+  ``fuse_a``, ``ac_kva``, ``ac_v``, ``phases``, ``pf``), per trench segment (``seg_depth_m``,
+  ``seg_laying``, ``seg_spacing_m``, ``seg_soil_k_m_w``, ``seg_count``) and the incidence pairs
+  ``inc_circuit`` / ``inc_segment``.
+* ``DesignParams`` — temperatures, materials, insulation, drop limits, size lists, parallel limit,
+  conductor-temperature mode, power factor, loss hours, fault level, marking convention.
+* ``SizingResult`` — per circuit: size, parallel sets, currents, capacities and every factor at the
+  governing environment, drops, losses, fuse, status ``ok`` and ``note``, marking; per segment the
+  factors and final counts; per kind the loss totals.
+* ``calc.rules.get_rules(name)`` — rule sets (``"iec"``); an unknown name lists the valid ones.
+
+Units: SI floats, the unit in every name (``_m``, ``_a``, ``_v``, ``_mm2``, ``_pct``, ``_k_m_w``,
+``_c``, ``_kva``, ``_w``, ``_kwh``). No geometry, no file I/O beyond the packaged tables, no
+printing.
+
+Modules: :mod:`calc.resistance` (IEC 60228, IEC 60287-1-1, BS 7671 reactance), :mod:`calc.ampacity`
+(IEC 60364-5-52:2009 Annex B, EN 50618, IEC 60287-2-1 depth), :mod:`calc.pv` (IEC 62548:2016),
+:mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortcircuit` (IEC 60364-4-43, IEC 60949),
+:mod:`calc.marking` (IEC 60445, NEC), :mod:`calc.engine`, :mod:`calc.rules`, :mod:`calc.tables`,
+:mod:`calc.errors` (``CalcError`` and its subclasses).
+"""
+
+from calc.engine import (
+    KIND_AC,
+    KIND_ARRAY,
+    KIND_NAMES,
+    KIND_STRING,
+    DesignParams,
+    SizingInput,
+    SizingResult,
+    size_circuits,
+)
+from calc.errors import (
+    CalcError,
+    ConvergenceError,
+    DataFileError,
+    InputError,
+    TableRangeError,
+    UnknownOptionError,
+)
+from calc.rules import get_rules, rule_names
+
+__all__ = [
+    "KIND_AC",
+    "KIND_ARRAY",
+    "KIND_NAMES",
+    "KIND_STRING",
+    "CalcError",
+    "ConvergenceError",
+    "DataFileError",
+    "DesignParams",
+    "InputError",
+    "SizingInput",
+    "SizingResult",
+    "TableRangeError",
+    "UnknownOptionError",
+    "get_rules",
+    "rule_names",
+    "size_circuits",
+]

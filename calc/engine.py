@@ -1,0 +1,1050 @@
+"""Sizing engine: design currents, capacity per route environment, voltage drop, size selection.
+
+Entry point: :func:`size_circuits` (``SizingInput`` + ``DesignParams`` → ``SizingResult``). Every
+input and output is a numpy array with one element per circuit (or per trench segment for
+``seg_*``). The results are a design aid, subject to local codes and to review by a qualified
+person.
+
+Method (all steps vectorised over circuits × sizes):
+
+1. Design currents (IEC 62548:2016, from memory): string protection and fuse; string cables
+   ≥ fuse or 1.25·Isc·(S−1), ≥ 1.25·Isc; array cables 1.25·Isc·N; a.c. = rated inverter current.
+2. Capacity per environment of the route: air (``air_m`` > 0: PV cable Table A.3 for strings, method
+   F/E for feeders) × air temperature factor × ``air_group_factor``; each trench segment (D1 duct /
+   D2 direct) × ground temperature × soil × depth × grouping factor. The governing capacity is the
+   minimum over the environments; per circuit the governing buried segment is the one with the
+   smallest product of segment factors for its laying.
+3. Voltage drop (Ohm's law, R at conductor temperature by IEC 60287) at operating current.
+4. Size selection: walk each kind's ascending size list; the first size meeting capacity, voltage
+   drop and (a.c., when a fault level is given) adiabatic withstand is taken. Array and a.c.
+   circuits that no single conductor can serve get 2…``max_parallel`` conductors per pole/phase;
+   each extra set counts as one more circuit in each trench segment on its route, so all circuits
+   are re-evaluated until the parallel counts stop changing (counts only grow, so this ends).
+
+DC voltage-drop budget (decision): strings are sized first against min(drop_string_pct,
+drop_dc_total_pct); each array cable then gets min(drop_array_pct, drop_dc_total_pct − the largest
+drop of its own strings). So every string path meets ``drop_dc_total_pct`` by construction; the
+array cable, which has the longer size ladder and parallel conductors, takes up what the strings
+leave.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from calc.errors import ConvergenceError, InputError, check_option
+from calc.marking import MARKING_CONVENTIONS, conductor_marking
+from calc.rules import RuleSet, get_rules
+from calc.vdrop import CONDUCTOR_TEMP_MODES, conductor_temp_c, vdrop_v
+
+__all__ = [
+    "KIND_AC",
+    "KIND_ARRAY",
+    "KIND_NAMES",
+    "KIND_STRING",
+    "DesignParams",
+    "SizingInput",
+    "SizingResult",
+    "size_circuits",
+]
+
+KIND_STRING = 0
+KIND_ARRAY = 1
+KIND_AC = 2
+KIND_NAMES = ("string", "array", "ac")
+
+ENV_NAMES = ("air", "D1", "D2")  # governing environment codes 0, 1, 2
+_LAYING_OF_ENV = {"D1": 1, "D2": 0}  # D1 = in duct (laying 1), D2 = direct (laying 0)
+_MAX_ITERATIONS = 100
+_EPS = 1e-9
+
+
+@dataclass
+class SizingInput:
+    """Circuits and trench segments to size (numpy arrays; n circuits, m segments, q incidences).
+
+    Per circuit (length n). Fields marked *DC* apply to kinds 0/1, *AC* to kind 2; others may be
+    nan.
+
+    kind : int8 — 0 string, 1 array, 2 ac (``KIND_STRING``, ``KIND_ARRAY``, ``KIND_AC``).
+    cable_m : route length for voltage drop and losses, allowances included [m].
+    air_m : length in air (stubs + run along the row) [m]; > 0 means the air environment applies.
+        Default 0.
+    parent : for a string, index of its array circuit, or −1 if it goes straight to an inverter;
+        −1 otherwise. Default −1.
+    isc_a, imp_a : *DC* module (= string) Isc and Imp at STC [A].
+    vmp_v : *DC* string Vmp (module Vmp × modules in series) [V].
+    n_strings : *DC* strings carried (1 for a string, N for an array). Default 1.
+    strings_in_parallel : *DC* strings paralleled without an overcurrent device at the string's
+        destination (IEC 62548 S). Default 1.
+    max_fuse_a : *DC* module maximum series fuse rating [A]; nan = not given. Default nan.
+    fuse_a : *DC* string fuse fixed by the combiner [A]; nan = calc picks. Default nan.
+    ac_kva : *AC* inverter rated apparent power [kVA].
+    ac_v : *AC* voltage [V]: line-to-line for 3-phase, inverter output line-to-neutral for 1-phase.
+    phases : *AC* 1 or 3. Default 3.
+    pf : *AC* power factor cos φ; nan = ``DesignParams.power_factor``. Default nan.
+
+    Per trench segment (length m): ``seg_depth_m`` depth to the cable/duct axis [m]; ``seg_laying``
+    0 direct in ground (method D2) / 1 in duct (D1); ``seg_spacing_m`` clear distance between
+    circuits (0 touching) [m]; ``seg_soil_k_m_w`` soil thermal resistivity [K·m/W]; ``seg_count``
+    circuits routed through it as counted by routing (calc uses at least the number of incident
+    circuits given).
+
+    Incidence (length q): ``inc_circuit[k]`` passes ``inc_segment[k]``.
+    """
+
+    kind: np.ndarray
+    cable_m: np.ndarray
+    air_m: np.ndarray | None = None
+    parent: np.ndarray | None = None
+    isc_a: np.ndarray | None = None
+    imp_a: np.ndarray | None = None
+    vmp_v: np.ndarray | None = None
+    n_strings: np.ndarray | None = None
+    strings_in_parallel: np.ndarray | None = None
+    max_fuse_a: np.ndarray | None = None
+    fuse_a: np.ndarray | None = None
+    ac_kva: np.ndarray | None = None
+    ac_v: np.ndarray | None = None
+    phases: np.ndarray | None = None
+    pf: np.ndarray | None = None
+    seg_depth_m: np.ndarray | None = None
+    seg_laying: np.ndarray | None = None
+    seg_spacing_m: np.ndarray | None = None
+    seg_soil_k_m_w: np.ndarray | None = None
+    seg_count: np.ndarray | None = None
+    inc_circuit: np.ndarray | None = None
+    inc_segment: np.ndarray | None = None
+
+
+@dataclass(frozen=True)
+class DesignParams:
+    """Design settings (SI units; defaults with their source).
+
+    ground_temp_c : ground temperature [°C]; 20 = IEC 60364-5-52 reference (set from site data).
+    air_temp_c : design ambient air temperature [°C]; 40 = common practice for outdoor runs (set the
+        site maximum; PV cable ratings need no correction up to 60 °C, EN 50618 Table A.4).
+    material_array, material_ac : "Cu" or "Al" (class 2). Strings are always EN 50618 PV cable
+        (class 5 tinned Cu).
+    insulation_array, insulation_ac : "XLPE" (90 °C) or "PVC" (70 °C).
+    drop_string_pct, drop_array_pct, drop_dc_total_pct, drop_ac_pct : voltage-drop limits [%];
+        1.0 / 1.5 / 2.0 / 1.0 are common practice (no standard sets a PV d.c. limit; ≤ 2 % d.c. and
+        ≤ 1 % a.c. is common practice). See the module docstring for how the d.c. budget is shared.
+    sizes_string_mm2, sizes_array_mm2, sizes_ac_mm2 : ascending candidate sizes [mm²]; None = the
+        rule set's default (iec: string 4, 6, 10 — PV cable ≥ 4 mm² is common practice; feeders
+        16–300).
+    max_parallel : most conductors per pole/phase for array and a.c. circuits (common practice 4).
+    conductor_temp : "max" (resistance at the rating temperature, conservative) or "loading"
+        (θ = θamb + (θmax − θamb)(I/Iz)²).
+    power_factor : cos φ of a.c. circuits whose ``pf`` is nan; 0.9 = common practice (reactive-power
+        capability often required by grid connection rules; gives a larger drop than 1.0).
+    loss_hours_h : equivalent full-load loss hours per year [h] for the energy-loss estimate; 1000
+        is an order-of-magnitude placeholder (common practice), to be replaced by Σ(I/I_op)²Δt of
+        the site.
+    fault_ka, clear_s : prospective a.c. fault current [kA] and clearing time [s]; None = no check.
+    marking : conductor identification convention, "iec" (IEC 60445) or "us" (NEC).
+    pv_installation : EN 50618 Table A.3 column for string cables in air: "two_adjacent_surface"
+        (default, conservative: + and − touching along the racking), "on_surface" or "free_air".
+    air_group_factor : grouping factor applied in air [1]; 1.0 assumes cables in air are not bunched
+        — set it from IEC 60364-5-52 Table B.52.17 where they are.
+    cable_od_m, duct_od_m : outer diameter of a direct-buried circuit and of a duct [m] used by the
+        IEC 60287 depth factor; 0.04 and 0.11 are common practice (the factor changes < 1 % for
+        0.03–0.06).
+    fuse_ratings_a : standard fuse ratings to pick from [A]; None = IEC 60269-1 preferred values.
+    """
+
+    ground_temp_c: float = 20.0
+    air_temp_c: float = 40.0
+    material_array: str = "Cu"
+    material_ac: str = "Cu"
+    insulation_array: str = "XLPE"
+    insulation_ac: str = "XLPE"
+    drop_string_pct: float = 1.0
+    drop_array_pct: float = 1.5
+    drop_dc_total_pct: float = 2.0
+    drop_ac_pct: float = 1.0
+    sizes_string_mm2: tuple[float, ...] | None = None
+    sizes_array_mm2: tuple[float, ...] | None = None
+    sizes_ac_mm2: tuple[float, ...] | None = None
+    max_parallel: int = 4
+    conductor_temp: str = "max"
+    power_factor: float = 0.9
+    loss_hours_h: float = 1000.0
+    fault_ka: float | None = None
+    clear_s: float | None = None
+    marking: str = "iec"
+    pv_installation: str = "two_adjacent_surface"
+    air_group_factor: float = 1.0
+    cable_od_m: float = 0.04
+    duct_od_m: float = 0.11
+    fuse_ratings_a: tuple[float, ...] | None = None
+
+
+@dataclass
+class SizingResult:
+    """Sizing results, one element per circuit unless noted.
+
+    size_mm2, parallel (conductors per pole/phase), material, insulation ("PV" = EN 50618 cable);
+    design_current_a (minimum capacity required), operating_current_a (Imp·N or rated a.c. current);
+    ampacity_base_a (tabulated, at the governing environment, one conductor set); derating (product
+    of all factors there); ampacity_a = base × derating × parallel; utilisation = design / ampacity;
+    governing_segment (−1 = air) and governing_env ("air", "D1", "D2"); factor_temp, factor_soil,
+    factor_depth, factor_group, group_count (circuits incl. parallel sets, 0 in air) at the
+    governing environment; conductor_temp_c used for R; vdrop_v, vdrop_pct (own circuit),
+    vdrop_limit_pct
+    (budget applied), vdrop_total_pct (string: own + its array; array: own + its worst string; a.c.:
+    own); loss_w, loss_pct (of circuit power at operating point), energy_loss_kwh (estimate);
+    sc_min_mm2 (adiabatic minimum, nan if not checked); fuse_required, fuse_a; ok; note (reason or
+    assumption, "" if none) and marking (conductor identification) as object arrays of str.
+
+    Per segment: seg_soil_factor, seg_depth_factor, seg_group_factor (in force with the final
+    counts), seg_count_final (routing count incl. extra parallel sets).
+    Per kind (index = kind): total_loss_w, total_loss_pct, total_energy_loss_kwh.
+    """
+
+    size_mm2: np.ndarray
+    parallel: np.ndarray
+    material: np.ndarray
+    insulation: np.ndarray
+    design_current_a: np.ndarray
+    operating_current_a: np.ndarray
+    ampacity_base_a: np.ndarray
+    derating: np.ndarray
+    ampacity_a: np.ndarray
+    utilisation: np.ndarray
+    governing_segment: np.ndarray
+    governing_env: np.ndarray
+    factor_temp: np.ndarray
+    factor_soil: np.ndarray
+    factor_depth: np.ndarray
+    factor_group: np.ndarray
+    group_count: np.ndarray
+    conductor_temp_c: np.ndarray
+    vdrop_v: np.ndarray
+    vdrop_pct: np.ndarray
+    vdrop_limit_pct: np.ndarray
+    vdrop_total_pct: np.ndarray
+    loss_w: np.ndarray
+    loss_pct: np.ndarray
+    energy_loss_kwh: np.ndarray
+    sc_min_mm2: np.ndarray
+    fuse_required: np.ndarray
+    fuse_a: np.ndarray
+    ok: np.ndarray
+    note: np.ndarray
+    marking: np.ndarray
+    seg_soil_factor: np.ndarray
+    seg_depth_factor: np.ndarray
+    seg_group_factor: np.ndarray
+    seg_count_final: np.ndarray
+    total_loss_w: np.ndarray
+    total_loss_pct: np.ndarray
+    total_energy_loss_kwh: np.ndarray
+    iterations: int = 0
+    rules: str = "iec"
+
+
+# --------------------------------------------------------------------------------------------
+# input preparation
+
+
+def _arr(value, n: int, default: float, dtype=float) -> np.ndarray:
+    if value is None:
+        return np.full(n, default, dtype=dtype)
+    a = np.asarray(value, dtype=dtype)
+    return np.broadcast_to(a, (n,)).copy() if a.ndim == 0 else a.copy()
+
+
+def _where(mask: np.ndarray) -> str:
+    idx = np.flatnonzero(mask)
+    more = f" and {len(idx) - 5} more" if len(idx) > 5 else ""
+    return f"{idx[:5].tolist()}{more}"
+
+
+def _prepare(inp: SizingInput, design: DesignParams) -> dict:
+    problems: list[str] = []
+    kind = np.asarray(inp.kind)
+    if kind.ndim != 1:
+        raise InputError("kind must be a 1-d array")
+    n = kind.size
+    a: dict[str, np.ndarray] = {"kind": kind.astype(np.int8)}
+    a["cable_m"] = _arr(inp.cable_m, n, np.nan)
+    a["air_m"] = _arr(inp.air_m, n, 0.0)
+    a["parent"] = _arr(inp.parent, n, -1, np.int64)
+    for name, default in (
+        ("isc_a", np.nan),
+        ("imp_a", np.nan),
+        ("vmp_v", np.nan),
+        ("n_strings", 1.0),
+        ("strings_in_parallel", 1.0),
+        ("max_fuse_a", np.nan),
+        ("fuse_a", np.nan),
+        ("ac_kva", np.nan),
+        ("ac_v", np.nan),
+        ("pf", np.nan),
+    ):
+        a[name] = _arr(getattr(inp, name), n, default)
+    a["phases"] = _arr(inp.phases, n, 3, np.int64)
+    for name, arr in a.items():
+        if arr.shape != (n,):
+            problems.append(f"{name} must have length {n} (one per circuit)")
+    if problems:
+        raise InputError("; ".join(problems))
+
+    dc = kind != KIND_AC
+    ac = ~dc
+    if np.any((kind < 0) | (kind > 2)):
+        problems.append(f"kind must be 0, 1 or 2 at circuits {_where((kind < 0) | (kind > 2))}")
+    for name, mask in (("cable_m", np.ones(n, bool)), ("air_m", np.ones(n, bool))):
+        bad = mask & ~(a[name] >= 0)
+        if np.any(bad):
+            problems.append(f"{name} must be >= 0 m at circuits {_where(bad)}")
+    for name in ("isc_a", "imp_a", "vmp_v"):
+        bad = dc & ~(a[name] > 0)
+        if np.any(bad):
+            problems.append(f"{name} must be > 0 for d.c. circuits {_where(bad)}")
+    for name in ("n_strings", "strings_in_parallel"):
+        bad = dc & ~(a[name] >= 1)
+        if np.any(bad):
+            problems.append(f"{name} must be >= 1 for d.c. circuits {_where(bad)}")
+    for name in ("ac_kva", "ac_v"):
+        bad = ac & ~(a[name] > 0)
+        if np.any(bad):
+            problems.append(f"{name} must be > 0 for a.c. circuits {_where(bad)}")
+    bad = ac & (a["phases"] != 1) & (a["phases"] != 3)
+    if np.any(bad):
+        problems.append(f"phases must be 1 or 3 at a.c. circuits {_where(bad)}")
+    bad = ac & ~np.isnan(a["pf"]) & ~((a["pf"] > 0) & (a["pf"] <= 1))
+    if np.any(bad):
+        problems.append(f"pf must be in (0, 1] at a.c. circuits {_where(bad)}")
+    par = a["parent"]
+    is_str = kind == KIND_STRING
+    bad = (par >= n) | (par < -1) | (~is_str & (par != -1))
+    ok_idx = (par >= 0) & (par < n)
+    bad |= ok_idx & (kind[np.clip(par, 0, n - 1)] != KIND_ARRAY)
+    if np.any(bad):
+        problems.append(
+            f"parent must be -1 or the index of an array circuit (strings only) "
+            f"at circuits {_where(bad)}"
+        )
+
+    m = 0 if inp.seg_depth_m is None else np.asarray(inp.seg_depth_m).size
+    a["seg_depth_m"] = _arr(inp.seg_depth_m, m, 0.7)
+    a["seg_laying"] = _arr(inp.seg_laying, m, 0, np.int64)
+    a["seg_spacing_m"] = _arr(inp.seg_spacing_m, m, 0.0)
+    a["seg_soil_k_m_w"] = _arr(inp.seg_soil_k_m_w, m, 2.5)
+    a["seg_count"] = _arr(inp.seg_count, m, 1.0)
+    for name in ("inc_circuit", "inc_segment"):
+        value = getattr(inp, name)
+        a[name] = np.zeros(0, np.int64) if value is None else np.asarray(value, np.int64).ravel()
+    for name in ("seg_depth_m", "seg_laying", "seg_spacing_m", "seg_soil_k_m_w", "seg_count"):
+        if a[name].shape != (m,):
+            problems.append(f"{name} must have length {m} (one per segment)")
+    if a["inc_circuit"].shape != a["inc_segment"].shape:
+        problems.append("inc_circuit and inc_segment must have the same length")
+    if problems:
+        raise InputError("; ".join(problems))
+    lay = a["seg_laying"]
+    for name, bad in (
+        ("seg_laying must be 0 (direct) or 1 (duct)", (lay != 0) & (lay != 1)),
+        ("seg_spacing_m must be >= 0", ~(a["seg_spacing_m"] >= 0)),
+        ("seg_soil_k_m_w must be > 0", ~(a["seg_soil_k_m_w"] > 0)),
+        ("seg_count must be >= 1", ~(a["seg_count"] >= 1)),
+        (
+            "seg_depth_m must exceed half the cable/duct diameter",
+            ~(a["seg_depth_m"] > np.where(lay == 1, design.duct_od_m, design.cable_od_m) / 2),
+        ),
+    ):
+        if np.any(bad):
+            problems.append(f"{name} at segments {_where(bad)}")
+    ic, js = a["inc_circuit"], a["inc_segment"]
+    bad = (ic < 0) | (ic >= n) | (js < 0) | (js >= m)
+    if np.any(bad):
+        problems.append(f"incidence pairs out of range at positions {_where(bad)}")
+    if problems:
+        raise InputError("; ".join(problems))
+    # sort by circuit (the engine relies on it); duplicate pairs count once
+    key = ic * max(m, 1) + js
+    if key.size and not np.all(key[1:] > key[:-1]):
+        key = np.sort(key)
+        key = key[np.r_[True, key[1:] != key[:-1]]]
+    a["inc_circuit"], a["inc_segment"] = key // max(m, 1), key % max(m, 1)
+    incident = np.bincount(a["inc_segment"], minlength=m)
+    a["seg_count"] = np.maximum(a["seg_count"], incident).astype(float)
+    a["pf"] = np.where(np.isnan(a["pf"]), design.power_factor, a["pf"])
+    return a
+
+
+def _check_design(design: DesignParams, rs: RuleSet) -> None:
+    check_option("material_array", design.material_array, rs.materials)
+    check_option("material_ac", design.material_ac, rs.materials)
+    check_option("insulation_array", design.insulation_array, rs.insulations)
+    check_option("insulation_ac", design.insulation_ac, rs.insulations)
+    check_option("conductor_temp", design.conductor_temp, CONDUCTOR_TEMP_MODES)
+    check_option("marking", design.marking, MARKING_CONVENTIONS)
+    problems = []
+    for f in (
+        "drop_string_pct",
+        "drop_array_pct",
+        "drop_dc_total_pct",
+        "drop_ac_pct",
+        "loss_hours_h",
+        "cable_od_m",
+        "duct_od_m",
+        "air_group_factor",
+    ):
+        if not getattr(design, f) > 0:
+            problems.append(f"{f} must be > 0")
+    if not (0 < design.power_factor <= 1):
+        problems.append("power_factor must be in (0, 1]")
+    if int(design.max_parallel) < 1:
+        problems.append("max_parallel must be >= 1")
+    if (design.fault_ka is None) != (design.clear_s is None):
+        problems.append("fault_ka and clear_s must be given together")
+    elif design.fault_ka is not None and not (design.fault_ka > 0 and design.clear_s > 0):
+        problems.append("fault_ka and clear_s must be > 0")
+    if problems:
+        raise InputError("; ".join(problems))
+
+
+# --------------------------------------------------------------------------------------------
+# per-kind cable data
+
+
+@dataclass
+class _KindData:
+    kind: int
+    idx: np.ndarray  # global circuit indices of this kind
+    material: str
+    insulation: str
+    sizes: np.ndarray  # [S]
+    r20: np.ndarray  # [S]
+    alpha: float
+    theta_air: float
+    theta_bur: float
+    base: dict  # (env, loaded) -> [S]
+    x: dict  # phases -> [S]
+    k_sc: np.ndarray | None  # [S]
+    p_max: int
+
+
+def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) -> _KindData:
+    if kind == KIND_STRING:
+        material, insulation, sizes = "Cu", "PV", design.sizes_string_mm2
+    elif kind == KIND_ARRAY:
+        material, insulation = design.material_array, design.insulation_array
+        sizes = design.sizes_array_mm2
+    else:
+        material, insulation, sizes = design.material_ac, design.insulation_ac, design.sizes_ac_mm2
+    if sizes is None:
+        sizes = rs.default_sizes_mm2(kind, material)
+    s = np.asarray(sizes, dtype=float)
+    name = KIND_NAMES[kind]
+    if s.ndim != 1 or s.size == 0 or np.any(np.diff(s) <= 0):
+        raise InputError(f"sizes for {name} circuits must be a non-empty ascending list")
+    r20 = rs.r20_ohm_km(kind, material, s)
+    loaded_set = (2, 3) if kind == KIND_AC else (2,)
+    base = {}
+    for env in ENV_NAMES:
+        for loaded in loaded_set:
+            b = rs.base_capacity_a(
+                kind, material, insulation, loaded, env, s, design.pv_installation
+            )
+            if np.any(np.isnan(b)):
+                miss = s[np.isnan(b)].tolist()
+                raise InputError(
+                    f"{name} sizes {miss} mm² {material}/{insulation} have no tabulated capacity "
+                    f"for environment {env} with {loaded} loaded conductors ({rs.name} rules); "
+                    "remove them from the size list"
+                )
+            base[(env, loaded)] = b
+    x = {ph: rs.reactance_ohm_km(s, insulation, ph) for ph in (1, 3)}
+    k_sc = None
+    if kind == KIND_AC and design.fault_ka is not None:
+        k_sc = rs.k_adiabatic(material, insulation, s)
+    return _KindData(
+        kind=kind,
+        idx=idx,
+        material=material,
+        insulation=insulation,
+        sizes=s,
+        r20=r20,
+        alpha=rs.alpha20_per_k(material),
+        theta_air=rs.theta_max_c(insulation, "air"),
+        theta_bur=rs.theta_max_c(insulation, "buried"),
+        base=base,
+        x=x,
+        k_sc=k_sc,
+        p_max=1 if kind == KIND_STRING else int(design.max_parallel),
+    )
+
+
+# --------------------------------------------------------------------------------------------
+# governing buried segment per circuit
+
+
+def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> dict:
+    """Per circuit and laying, the incident segment with the smallest soil·depth·group product.
+
+    Only incidences of circuits with ``rows_mask_c`` are evaluated; ``delta`` (per circuit) is added
+    to the counts of that circuit's own segments (its candidate extra parallel sets). The incidence
+    is sorted by circuit (see ``_prepare``), so minima are taken with ``reduceat`` over circuit
+    runs.
+    """
+    n = rows_mask_c.size
+    ic, js = a["inc_circuit"], a["inc_segment"]
+    sel = rows_mask_c[ic]
+    c, s = ic[sel], js[sel]
+    cnt = counts[s] + delta[c]
+    g = rs.group_factor(cnt, a["seg_spacing_m"][s], a["seg_laying"][s])
+    prod = seg_fixed[s] * g
+    out = {}
+    for env, lay in _LAYING_OF_ENV.items():
+        minp = np.full(n, np.inf)
+        seg = np.full(n, -1, dtype=np.int64)
+        grp = np.ones(n)
+        gcnt = np.zeros(n)
+        r = a["seg_laying"][s] == lay
+        if np.any(r):
+            cr, pr = c[r], prod[r]
+            starts = np.flatnonzero(np.r_[True, cr[1:] != cr[:-1]])
+            lo = np.minimum.reduceat(pr, starts)
+            rep = np.repeat(lo, np.diff(np.r_[starts, cr.size]))
+            pos = np.where(pr == rep, np.arange(cr.size), cr.size)
+            keep = np.minimum.reduceat(pos, starts)
+            who = cr[keep]
+            minp[who] = pr[keep]
+            seg[who] = s[r][keep]
+            grp[who] = g[r][keep]
+            gcnt[who] = cnt[r][keep]
+        out[env] = (minp, seg, grp, gcnt)
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# selection for one kind
+
+
+def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) -> dict:
+    """Pick (parallel, size) for the circuits ``kd.idx[sub]``; per-circuit details in that order."""
+    idx = kd.idx[sub]
+    k = idx.size
+    n_sizes = kd.sizes.size
+    n = a["kind"].size
+    chosen = np.zeros(k, dtype=bool)
+    out_pp = np.full(k, kd.p_max, dtype=np.int64)
+    out_s = np.full(k, n_sizes - 1, dtype=np.int64)
+    det: dict[str, np.ndarray] = {}
+    p_loc = p_cur[idx]
+    for pp in range(1, kd.p_max + 1):
+        last = pp == kd.p_max
+        act = ~chosen & (p_loc <= pp)
+        if not np.any(act):
+            continue
+        li = np.flatnonzero(act)
+        gi = idx[li]
+        mask_c = np.zeros(n, dtype=bool)
+        mask_c[gi] = True
+        delta = np.zeros(n)
+        delta[gi] = pp - p_cur[gi]
+        bur = _governing_buried(a, seg["fixed"], counts, mask_c, delta, rs)
+        ev = _evaluate(kd, a, c, gi, pp, bur, budget[li], design)
+        ok = ev["ok"]
+        anyok = ok.any(axis=1)
+        first = np.argmax(ok, axis=1)
+        take = anyok | last
+        s_idx = np.where(anyok, first, n_sizes - 1)
+        rows = np.flatnonzero(take)
+        out_pp[li[rows]] = pp
+        out_s[li[rows]] = s_idx[rows]
+        chosen[li[rows]] = True
+        picked = {key: mat[rows, s_idx[rows]] for key, mat in ev.items() if key != "ok"}
+        picked.update(_details(picked["env"], gi[rows], bur, c, kd, design))
+        for key, vec in picked.items():
+            if key not in det:
+                det[key] = np.zeros(k, dtype=vec.dtype)
+            det[key][li[rows]] = vec
+        if chosen.all():
+            break
+    det["pp"] = out_pp
+    det["s_idx"] = out_s
+    det["size"] = kd.sizes[out_s]
+    return det
+
+
+def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
+    """Matrices [circuits, sizes] of capacity, drop and pass flags at ``pp`` parallel sets."""
+    loaded = c["loaded"][gi]
+    has_air = a["air_m"][gi] > 0
+    no_env = ~has_air & ~np.isfinite(bur["D1"][0][gi]) & ~np.isfinite(bur["D2"][0][gi])
+    has_air |= no_env
+    t_air = c["t_air"][kd.kind]
+    t_gnd = c["t_gnd"][kd.kind]
+    f_env = np.stack(
+        [
+            np.where(has_air, t_air * design.air_group_factor, np.inf),
+            t_gnd * bur["D1"][0][gi],
+            t_gnd * bur["D2"][0][gi],
+        ]
+    )  # [3, k]; inf = environment absent
+    base = np.stack(
+        [
+            np.where(
+                (loaded == 3)[:, None],
+                kd.base.get((env, 3), kd.base[(env, 2)])[None, :],
+                kd.base[(env, 2)][None, :],
+            )
+            for env in ENV_NAMES
+        ]
+    )  # [3, k, S]
+    with np.errstate(invalid="ignore"):
+        cap_env = np.where(np.isfinite(f_env)[:, :, None], base * f_env[:, :, None], np.inf)
+    env = np.argmin(cap_env, axis=0)  # [k, S]
+    cap = np.take_along_axis(cap_env, env[None], axis=0)[0]  # per conductor set, derated
+    base_g = np.take_along_axis(base, env[None], axis=0)[0]
+    cap_tot = cap * pp
+
+    i_op = c["i_op"][gi][:, None]
+    i_des = c["i_design"][gi][:, None]
+    theta_max = np.where(env == 0, kd.theta_air, kd.theta_bur)
+    amb = np.where(env == 0, design.air_temp_c, design.ground_temp_c)
+    theta = conductor_temp_c(design.conductor_temp, theta_max, amb, i_op, cap_tot)
+    r = kd.r20[None, :] * (1.0 + kd.alpha * (theta - 20.0))
+    ph = c["phases_eff"][gi]
+    x = np.where((ph == 1)[:, None], kd.x[1][None, :], kd.x[3][None, :])
+    dv = vdrop_v(a["cable_m"][gi][:, None], i_op, r, x, a["pf"][gi][:, None], ph[:, None], pp)
+    pct = 100.0 * dv / c["u_ref"][gi][:, None]
+
+    ok_cap = cap_tot >= i_des * (1.0 - _EPS)
+    ok_vd = pct <= budget[:, None] + _EPS
+    ok = ok_cap & ok_vd
+    if kd.k_sc is not None:
+        smin = design.fault_ka * 1e3 * np.sqrt(design.clear_s) / kd.k_sc  # [S], per conductor
+        ok_sc = np.broadcast_to(kd.sizes >= smin * (1.0 - _EPS), ok.shape)
+        ok = ok & ok_sc
+        smin_m = np.broadcast_to(smin, ok.shape)
+    else:
+        ok_sc = np.ones_like(ok)
+        smin_m = np.full(ok.shape, np.nan)
+
+    return {
+        "ok": ok,
+        "ok_cap": ok_cap,
+        "ok_vd": ok_vd,
+        "ok_sc": ok_sc,
+        "cap_tot": cap_tot,
+        "base": base_g,
+        "env": env,
+        "theta": theta,
+        "r": r,
+        "dv": dv,
+        "pct": pct,
+        "smin": smin_m,
+        "no_env": np.broadcast_to(no_env[:, None], env.shape),
+    }
+
+
+def _details(env: np.ndarray, gi: np.ndarray, bur: dict, c: dict, kd: _KindData, design) -> dict:
+    """Factors at the governing environment of the chosen size (vectors over circuits ``gi``)."""
+    air = env == 0
+    temp_f = np.where(air, c["t_air"][kd.kind], c["t_gnd"][kd.kind])
+    seg_i = np.full(env.shape, -1, dtype=np.int64)
+    group = np.where(air, design.air_group_factor, 1.0)
+    gcount = np.zeros(env.shape)
+    for e, name in ((1, "D1"), (2, "D2")):
+        sel = env == e
+        _, sg, gr, gc = bur[name]
+        seg_i = np.where(sel, sg[gi], seg_i)
+        group = np.where(sel, gr[gi], group)
+        gcount = np.where(sel, gc[gi], gcount)
+    has = seg_i >= 0
+    safe = np.maximum(seg_i, 0)
+    soil = np.where(has, c["seg_soil"][safe] if c["seg_soil"].size else 1.0, 1.0)
+    depth = np.where(has, c["seg_depth"][safe] if c["seg_depth"].size else 1.0, 1.0)
+    return {
+        "temp_f": temp_f,
+        "soil_f": soil,
+        "depth_f": depth,
+        "group_f": group,
+        "group_count": gcount,
+        "seg": seg_i,
+    }
+
+
+# --------------------------------------------------------------------------------------------
+# main entry
+
+
+def size_circuits(
+    inp: SizingInput, design: DesignParams | None = None, rules: str = "iec"
+) -> SizingResult:
+    """Size every circuit of ``inp`` (see the module docstring for the method).
+
+    Parameters
+    ----------
+    inp : SizingInput
+        Circuits, trench segments and their incidence (SI units).
+    design : DesignParams, optional
+        Design settings; default ``DesignParams()``.
+    rules : str
+        Rule set name (``calc.rules.rule_names()``); "iec" by default.
+
+    Returns
+    -------
+    SizingResult
+        Per-circuit sizes, capacities, factors, drops, losses, status and notes. A circuit that
+        cannot be sized has ``ok = False`` and a note with the numbers; invalid input raises
+        :class:`~calc.errors.InputError`.
+
+    Examples
+    --------
+    One string (10 A Isc, 9.5 A Imp, 1000 V) on a 100 m route, 20 m of it in air and the rest in one
+    direct-buried trench segment at the reference conditions, shared by 4 circuits touching:
+
+    >>> inp = SizingInput(kind=np.array([0]), cable_m=np.array([100.0]), air_m=np.array([20.0]),
+    ...     isc_a=np.array([10.0]), imp_a=np.array([9.5]), vmp_v=np.array([1000.0]),
+    ...     seg_depth_m=np.array([0.7]), seg_laying=np.array([0]), seg_spacing_m=np.array([0.0]),
+    ...     seg_soil_k_m_w=np.array([2.5]), seg_count=np.array([4]),
+    ...     inc_circuit=np.array([0]), inc_segment=np.array([0]))
+    >>> r = size_circuits(inp)
+    >>> float(r.size_mm2[0]), str(r.governing_env[0]), float(r.factor_group[0]), bool(r.ok[0])
+    (6.0, 'D2', 0.6, True)
+    >>> round(float(r.vdrop_pct[0]), 2)  # 4 mm² would give 1.35 % > 1 % (R at 120 °C)
+    0.82
+    """
+    design = DesignParams() if design is None else design
+    rs = get_rules(rules)
+    _check_design(design, rs)
+    a = _prepare(inp, design)
+    n = a["kind"].size
+    m = a["seg_depth_m"].size
+    kind = a["kind"]
+    dc = kind != KIND_AC
+    is_str = kind == KIND_STRING
+    is_arr = kind == KIND_ARRAY
+    is_ac = kind == KIND_AC
+
+    kinds = {k: np.flatnonzero(kind == k) for k in (KIND_STRING, KIND_ARRAY, KIND_AC)}
+    kd = {k: _kind_data(k, idx, design, rs) for k, idx in kinds.items() if idx.size}
+
+    # ---- design and operating currents
+    prot = rs.string_protection(
+        a["isc_a"],
+        a["strings_in_parallel"],
+        a["max_fuse_a"],
+        a["fuse_a"],
+        design.fuse_ratings_a,
+    )
+    fuse_required = prot.required & is_str
+    fuse_a = np.where(is_str, prot.fuse_a, np.nan)
+    i_ac = np.where(
+        is_ac,
+        rs.ac_current_a(
+            np.where(is_ac, a["ac_kva"], 1.0),
+            np.where(is_ac, a["ac_v"], 1.0),
+            np.where(is_ac, a["phases"], 3),
+        ),
+        np.nan,
+    )
+    i_design = np.select(
+        [is_str, is_arr],
+        [
+            rs.string_design_current_a(a["isc_a"], a["strings_in_parallel"], fuse_a),
+            rs.array_design_current_a(a["isc_a"], a["n_strings"]),
+        ],
+        default=i_ac,
+    )
+    i_op = np.where(dc, a["imp_a"] * a["n_strings"], i_ac)
+    u_ref = np.where(dc, a["vmp_v"], a["ac_v"])
+    p_w = np.where(dc, a["vmp_v"] * i_op, a["ac_kva"] * 1e3 * a["pf"])
+    phases_eff = np.where(is_ac, a["phases"], 0)
+
+    c = {
+        "i_design": i_design,
+        "i_op": i_op,
+        "u_ref": u_ref,
+        "phases_eff": phases_eff,
+        "loaded": np.where(is_ac & (a["phases"] == 3), 3, 2),
+        "t_air": {k: rs.air_temp_factor(design.air_temp_c, d.insulation) for k, d in kd.items()},
+        "t_gnd": {
+            k: rs.ground_temp_factor(design.ground_temp_c, d.insulation) for k, d in kd.items()
+        },
+    }
+
+    # ---- fixed per-segment factors
+    lay = a["seg_laying"]
+    seg_soil = rs.soil_factor(a["seg_soil_k_m_w"], lay) if m else np.zeros(0)
+    seg_depth = (
+        rs.depth_factor(a["seg_depth_m"], np.where(lay == 1, design.duct_od_m, design.cable_od_m))
+        if m
+        else np.zeros(0)
+    )
+    c["seg_soil"], c["seg_depth"] = seg_soil, seg_depth
+    seg = {"fixed": seg_soil * seg_depth}
+
+    # ---- iterate parallel sets <-> grouping; after the first pass only circuits on segments whose
+    # count changed (and the arrays of such strings) are re-evaluated
+    p = np.ones(n, dtype=np.int64)
+    budgets = np.full(n, np.nan)
+    budgets[is_str] = min(design.drop_string_pct, design.drop_dc_total_pct)
+    budgets[is_ac] = design.drop_ac_pct
+    det: dict[int, dict] = {}
+    counts = prev = None
+    affected = np.ones(n, dtype=bool)
+    iterations = 0
+    for iteration in range(1, _MAX_ITERATIONS + 1):
+        iterations = iteration
+        counts = a["seg_count"] + np.bincount(
+            a["inc_segment"], weights=(p - 1)[a["inc_circuit"]].astype(float), minlength=m
+        )
+        if prev is not None:
+            changed = counts != prev
+            affected = np.zeros(n, dtype=bool)
+            affected[a["inc_circuit"][changed[a["inc_segment"]]]] = True
+            up = a["parent"][affected & is_str]
+            affected[up[up >= 0]] = True
+        prev = counts
+        for k in (KIND_STRING, KIND_ARRAY, KIND_AC):
+            if k not in kd:
+                continue
+            if k == KIND_ARRAY:
+                child_max = _child_max_pct(a, det.get(KIND_STRING), kinds[KIND_STRING], n)
+                budgets[is_arr] = np.minimum(
+                    design.drop_array_pct, design.drop_dc_total_pct - child_max[is_arr]
+                )
+            sub = np.flatnonzero(affected[kinds[k]])
+            if sub.size == 0:
+                continue
+            new = _select(kd[k], sub, a, c, seg, counts, p, budgets[kinds[k][sub]], design, rs)
+            if k not in det:
+                det[k] = new
+            else:
+                for key, val in new.items():
+                    det[k][key][sub] = val
+        new_p = p.copy()
+        for k, d in det.items():
+            new_p[kinds[k]] = d["pp"]
+        if np.array_equal(new_p, p):
+            break
+        p = new_p
+    else:  # pragma: no cover - counts only grow, bounded by max_parallel
+        raise ConvergenceError(f"parallel/grouping iteration did not settle in {_MAX_ITERATIONS}")
+    child_max = _child_max_pct(a, det.get(KIND_STRING), kinds[KIND_STRING], n)
+
+    return _assemble(
+        a,
+        c,
+        kd,
+        det,
+        kinds,
+        counts,
+        seg_soil,
+        seg_depth,
+        p,
+        budgets,
+        fuse_required,
+        fuse_a,
+        prot,
+        p_w,
+        child_max,
+        design,
+        rs,
+        iterations,
+    )
+
+
+def _child_max_pct(a, det_s, idx_s, n) -> np.ndarray:
+    """Largest own voltage drop [%] among the strings of each array circuit (0 if none)."""
+    child_max = np.zeros(n)
+    if det_s is not None and idx_s.size:
+        par = a["parent"][idx_s]
+        has = par >= 0
+        np.maximum.at(child_max, par[has], det_s["pct"][has])
+    return child_max
+
+
+def _fmt_size(pp: int, size: float, material: str) -> str:
+    return f"{pp}×{size:g} mm² {material}" if pp > 1 else f"{size:g} mm² {material}"
+
+
+def _assemble(
+    a,
+    c,
+    kd,
+    det,
+    kinds,
+    counts,
+    seg_soil,
+    seg_depth,
+    p,
+    budgets,
+    fuse_required,
+    fuse_a,
+    prot,
+    p_w,
+    child_max,
+    design,
+    rs,
+    iterations,
+) -> SizingResult:
+    n = a["kind"].size
+    m = a["seg_depth_m"].size
+    kind = a["kind"]
+    out = {
+        "size_mm2": np.full(n, np.nan),
+        "parallel": np.ones(n, dtype=np.int64),
+        "material": np.full(n, "", dtype="U4"),
+        "insulation": np.full(n, "", dtype="U4"),
+        "ampacity_base_a": np.full(n, np.nan),
+        "derating": np.full(n, np.nan),
+        "ampacity_a": np.full(n, np.nan),
+        "governing_segment": np.full(n, -1, dtype=np.int64),
+        "governing_env": np.full(n, "air", dtype="U3"),
+        "factor_temp": np.full(n, np.nan),
+        "factor_soil": np.full(n, np.nan),
+        "factor_depth": np.full(n, np.nan),
+        "factor_group": np.full(n, np.nan),
+        "group_count": np.zeros(n),
+        "conductor_temp_c": np.full(n, np.nan),
+        "vdrop_v": np.full(n, np.nan),
+        "vdrop_pct": np.full(n, np.nan),
+        "sc_min_mm2": np.full(n, np.nan),
+        "r_ohm_km": np.full(n, np.nan),
+    }
+    fail_cap = np.zeros(n, bool)
+    fail_vd = np.zeros(n, bool)
+    fail_sc = np.zeros(n, bool)
+    no_env = np.zeros(n, bool)
+    for k, d in det.items():
+        idx = kinds[k]
+        out["size_mm2"][idx] = d["size"]
+        out["parallel"][idx] = d["pp"]
+        out["material"][idx] = kd[k].material
+        out["insulation"][idx] = kd[k].insulation
+        out["ampacity_base_a"][idx] = d["base"]
+        out["ampacity_a"][idx] = d["cap_tot"]
+        out["governing_segment"][idx] = d["seg"]
+        out["governing_env"][idx] = np.asarray(ENV_NAMES)[d["env"]]
+        out["factor_temp"][idx] = d["temp_f"]
+        out["factor_soil"][idx] = d["soil_f"]
+        out["factor_depth"][idx] = d["depth_f"]
+        out["factor_group"][idx] = d["group_f"]
+        out["group_count"][idx] = d["group_count"]
+        out["conductor_temp_c"][idx] = d["theta"]
+        out["vdrop_v"][idx] = d["dv"]
+        out["vdrop_pct"][idx] = d["pct"]
+        out["sc_min_mm2"][idx] = d["smin"]
+        out["r_ohm_km"][idx] = d["r"]
+        fail_cap[idx] = ~d["ok_cap"]
+        fail_vd[idx] = ~d["ok_vd"]
+        fail_sc[idx] = ~d["ok_sc"]
+        no_env[idx] = d["no_env"]
+    out["derating"] = (
+        out["factor_temp"] * out["factor_soil"] * out["factor_depth"] * out["factor_group"]
+    )
+    i_design, i_op = c["i_design"], c["i_op"]
+    utilisation = i_design / out["ampacity_a"]
+
+    # cumulative d.c. drop
+    is_str = kind == KIND_STRING
+    is_arr = kind == KIND_ARRAY
+    par = a["parent"]
+    own = out["vdrop_pct"]
+    parent_pct = np.where(par >= 0, own[np.clip(par, 0, max(n - 1, 0))], 0.0) if n else own
+    total = np.where(is_str, own + parent_pct, np.where(is_arr, own + child_max, own))
+    fail_path = is_str & (total > design.drop_dc_total_pct + 1e-9)
+
+    # losses
+    loss = (
+        np.where(c["phases_eff"] == 3, 3.0, 2.0)
+        * i_op**2
+        * out["r_ohm_km"]
+        * a["cable_m"]
+        / 1e3
+        / out["parallel"]
+    )
+    loss_pct = 100.0 * loss / p_w
+    energy = loss * design.loss_hours_h / 1e3
+    tot_loss = np.array([loss[kind == k].sum() for k in range(3)])
+    tot_p = np.array([p_w[kind == k].sum() for k in range(3)])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tot_pct = np.where(tot_p > 0, 100.0 * tot_loss / tot_p, 0.0)
+
+    ok = ~(fail_cap | fail_vd | fail_sc | fail_path) & np.where(is_str, prot.ok, True)
+    notes = np.where(is_str, prot.note, "").astype(object)
+    _add_notes(notes, no_env, lambda i: "no route environment given: in air assumed")
+    deriv = out["derating"]
+
+    def cap_note(i):
+        return (
+            f"needs {i_design[i]:.0f} A after derating {deriv[i]:.2f}; largest allowed "
+            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i])} "
+            f"carries {out['ampacity_a'][i]:.0f} A"
+        )
+
+    def vd_note(i):
+        extra = ""
+        if is_arr[i] and child_max[i] > 0:
+            extra = (
+                f" (d.c. total {design.drop_dc_total_pct:g} % less its strings' "
+                f"{child_max[i]:.2f} %)"
+            )
+        return (
+            f"voltage drop {own[i]:.2f} % exceeds {budgets[i]:.2f} %{extra} with largest "
+            f"allowed {_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i])}"
+        )
+
+    def sc_note(i):
+        return (
+            f"short circuit {design.fault_ka:g} kA for {design.clear_s:g} s needs "
+            f"{out['sc_min_mm2'][i]:.0f} mm² per conductor (adiabatic, IEC 60364-4-43)"
+        )
+
+    def path_note(i):
+        return (
+            f"cumulative d.c. drop {total[i]:.2f} % exceeds {design.drop_dc_total_pct:g} % "
+            f"(array circuit {par[i]})"
+        )
+
+    _add_notes(notes, fail_cap, cap_note)
+    _add_notes(notes, fail_vd, vd_note)
+    _add_notes(notes, fail_sc, sc_note)
+    _add_notes(notes, fail_path, path_note)
+
+    seg_cnt = counts
+    seg_group = rs.group_factor(seg_cnt, a["seg_spacing_m"], a["seg_laying"]) if m else np.zeros(0)
+    marking = conductor_marking(kind, c["phases_eff"], a["ac_v"], design.marking)
+    out.pop("r_ohm_km")
+    return SizingResult(
+        **out,
+        design_current_a=i_design,
+        operating_current_a=i_op,
+        utilisation=utilisation,
+        vdrop_limit_pct=budgets,
+        vdrop_total_pct=total,
+        loss_w=loss,
+        loss_pct=loss_pct,
+        energy_loss_kwh=energy,
+        fuse_required=fuse_required,
+        fuse_a=fuse_a,
+        ok=ok,
+        note=notes,
+        marking=marking,
+        seg_soil_factor=seg_soil,
+        seg_depth_factor=seg_depth,
+        seg_group_factor=seg_group,
+        seg_count_final=seg_cnt,
+        total_loss_w=tot_loss,
+        total_loss_pct=tot_pct,
+        total_energy_loss_kwh=tot_loss * design.loss_hours_h / 1e3,
+        iterations=iterations,
+        rules=rs.name,
+    )
+
+
+def _add_notes(notes: np.ndarray, mask: np.ndarray, text) -> None:
+    """Append a note to each circuit in ``mask`` (formatting only the flagged circuits)."""
+    for i in np.flatnonzero(mask):
+        notes[i] = f"{notes[i]}; {text(i)}" if notes[i] else text(i)

@@ -1,0 +1,209 @@
+"""PV design currents and string overcurrent protection, IEC 62548:2016; inverter a.c. output
+current.
+
+The clause text of IEC 62548:2016 was not at hand: the rules and multipliers below are from memory
+(file ``iec62548_2016_pv_dc_rules.csv``, tags memory / memory-low) and must be checked against the
+standard before use.
+
+Rules implemented (I_SC = module short-circuit current at STC, S = strings in parallel at the point
+where the string is connected, I_SC MAX = 1.25 · I_SC):
+
+* string overcurrent protection is required when (S − 1) · I_SC MAX > I_MOD_MAX_OCPR (module maximum
+  series fuse rating). IEC 60364-7-712:2017 puts a factor 1.35 on I_MOD_MAX_OCPR; calc uses the
+  stricter 1.0. When I_MOD_MAX_OCPR is not given (nan), calc assumes protection is required for S ≥
+  3 and not for S ≤ 2 (one parallel string cannot drive more than I_SC MAX backwards) — an
+  assumption, flagged in the note;
+* the string fuse rating I_n satisfies 1.5 · I_SC ≤ I_n ≤ 2.4 · I_SC and I_n ≤ I_MOD_MAX_OCPR; calc
+  picks the smallest standard rating (IEC 60269-1 preferred values, file
+  ``iec60269_1_fuse_ratings.csv``) at or above the lower bound;
+* minimum current-carrying capacity of a string cable: with a string fuse, I_n; without,
+  1.25 · I_SC · (S − 1); never below 1.25 · I_SC;
+* array (sub-array) cable without its own overcurrent device: 1.25 · I_SC · N_strings.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from calc.errors import InputError, check_option
+from calc.tables import load_table
+
+__all__ = [
+    "StringProtection",
+    "ac_current_a",
+    "array_design_current_a",
+    "fuse_ratings_a",
+    "pv_rule",
+    "string_design_current_a",
+    "string_protection",
+]
+
+_RULES = "iec62548_2016_pv_dc_rules.csv"
+_FUSES = "iec60269_1_fuse_ratings.csv"
+_UNFUSED_MAX_STRINGS_NO_OCPR = 2  # assumption when the module maximum series fuse is not given
+
+
+def pv_rule(name: str) -> float:
+    """A multiplier of the IEC 62548:2016 rules (from memory), e.g. ``isc_factor``.
+
+    >>> pv_rule("isc_factor"), pv_rule("fuse_min_x_isc"), pv_rule("fuse_max_x_isc")
+    (1.25, 1.5, 2.4)
+    """
+    t = load_table(_RULES)
+    check_option("IEC 62548 rule", name, tuple(t["name"].tolist()))
+    return float(t["value"][t.where(name=name)][0])
+
+
+def fuse_ratings_a() -> np.ndarray:
+    """Standard fuse-link rated currents [A], IEC 60269-1:2006 cl.5.3.1 (memory), ascending.
+
+    >>> fuse_ratings_a()[:6]
+    array([ 2.,  4.,  6.,  8., 10., 12.])
+    """
+    return np.sort(load_table(_FUSES)["rating_a"])
+
+
+def ac_current_a(ac_kva: ArrayLike, ac_v: ArrayLike, phases: ArrayLike) -> np.ndarray:
+    """Rated a.c. output current [A] of an inverter.
+
+    Three-phase: I = S / (√3 · U_LL) with ``ac_v`` the line-to-line voltage. Single-phase:
+    I = S / U with ``ac_v`` the inverter's output voltage line-to-neutral.
+
+    Examples
+    --------
+    >>> np.round(ac_current_a([100.0, 5.0], [400.0, 230.0], [3, 1]), 2)
+    array([144.34,  21.74])
+    """
+    s_va = np.asarray(ac_kva, dtype=float) * 1e3
+    u = np.asarray(ac_v, dtype=float)
+    ph = np.asarray(phases)
+    if np.any((ph != 1) & (ph != 3)):
+        raise InputError("phases must be 1 or 3")
+    return np.where(ph == 3, s_va / (np.sqrt(3.0) * u), s_va / u)
+
+
+@dataclass(frozen=True)
+class StringProtection:
+    """String overcurrent protection per circuit (arrays of one length).
+
+    Attributes
+    ----------
+    required : bool array — protection required by the IEC 62548 rule (or by the stated assumption).
+    fuse_a : float array — fuse rating fitted [A] (selected or fixed by the combiner); nan = none.
+    lower_a, upper_a : float arrays — permitted range of the rating [A].
+    ok : bool array — False where a fixed fuse is outside the range or no standard rating fits.
+    note : str array — reason or assumption, "" if none.
+    """
+
+    required: np.ndarray
+    fuse_a: np.ndarray
+    lower_a: np.ndarray
+    upper_a: np.ndarray
+    ok: np.ndarray
+    note: np.ndarray
+
+
+def string_protection(
+    isc_a: ArrayLike,
+    strings_in_parallel: ArrayLike,
+    max_fuse_a: ArrayLike,
+    fuse_a: ArrayLike,
+    ratings_a: ArrayLike | None = None,
+) -> StringProtection:
+    """Decide string overcurrent protection and pick the fuse rating (IEC 62548:2016, from memory).
+
+    Parameters
+    ----------
+    isc_a : array_like
+        Module (= string) short-circuit current at STC [A].
+    strings_in_parallel : array_like
+        Strings paralleled at the string's destination without an intermediate overcurrent device.
+    max_fuse_a : array_like
+        Module maximum series fuse rating I_MOD_MAX_OCPR [A]; nan = not given.
+    fuse_a : array_like
+        Fuse rating fixed by the combiner [A]; nan = let calc pick.
+    ratings_a : array_like, optional
+        Standard ratings to pick from [A]; default :func:`fuse_ratings_a`.
+
+    Examples
+    --------
+    >>> p = string_protection([10.0, 10.0], [2, 12], [20.0, 20.0], [np.nan, np.nan])
+    >>> p.required.tolist(), p.fuse_a.tolist()  # 2 strings: no fuse; 12 strings: 16 A in 15..20 A
+    ([False, True], [nan, 16.0])
+    """
+    isc = np.asarray(isc_a, dtype=float)
+    s = np.asarray(strings_in_parallel, dtype=float)
+    ocpr = np.asarray(max_fuse_a, dtype=float)
+    fixed = np.asarray(fuse_a, dtype=float)
+    isc, s, ocpr, fixed = np.broadcast_arrays(isc, s, ocpr, fixed)
+    ratings = np.sort(np.asarray(fuse_ratings_a() if ratings_a is None else ratings_a, float))
+
+    k = pv_rule("isc_factor")
+    no_ocpr = np.isnan(ocpr)
+    required = np.where(
+        no_ocpr,
+        s > _UNFUSED_MAX_STRINGS_NO_OCPR,
+        (s - 1.0) * k * isc > pv_rule("ocpr_threshold") * np.where(no_ocpr, 0.0, ocpr),
+    )
+    lower = pv_rule("fuse_min_x_isc") * isc
+    upper = pv_rule("fuse_max_x_isc") * isc
+    upper = np.where(no_ocpr, upper, np.minimum(upper, ocpr))
+
+    idx = np.searchsorted(ratings, lower * (1.0 - 1e-9), side="left")
+    pick = np.where(idx < len(ratings), ratings[np.minimum(idx, len(ratings) - 1)], np.nan)
+    pick_ok = pick <= upper * (1.0 + 1e-9)
+    has_fixed = ~np.isnan(fixed)
+    fixed_ok = (fixed >= lower * (1.0 - 1e-9)) & (fixed <= upper * (1.0 + 1e-9))
+
+    fuse = np.where(has_fixed, fixed, np.where(required & pick_ok, pick, np.nan))
+    ok = np.where(has_fixed, fixed_ok, ~required | pick_ok)
+
+    note = np.full(isc.shape, "", dtype=object)
+    assumed = no_ocpr & (required | has_fixed)
+    note[assumed] = (
+        "max_fuse_a not given: string fuses assumed required for 3 or more parallel strings; "
+        "check the fuse against the module maximum series fuse rating"
+    )
+    for i in np.flatnonzero(has_fixed & ~fixed_ok):
+        note[i] = (
+            f"fixed string fuse {fixed[i]:g} A outside the IEC 62548 range "
+            f"{lower[i]:.1f}-{upper[i]:.1f} A"
+        )
+    for i in np.flatnonzero(~has_fixed & required & ~pick_ok):
+        note[i] = (
+            f"no standard fuse rating within the IEC 62548 range {lower[i]:.1f}-{upper[i]:.1f} A"
+        )
+    return StringProtection(required, fuse, lower, upper, ok, note.astype(str))
+
+
+def string_design_current_a(
+    isc_a: ArrayLike, strings_in_parallel: ArrayLike, fuse_a: ArrayLike
+) -> np.ndarray:
+    """Minimum current-carrying capacity of a string cable [A] (IEC 62548:2016, from memory).
+
+    With a string fuse (``fuse_a`` finite): max(I_n, 1.25 · I_SC). Without: 1.25 · I_SC · (S − 1),
+    not less than 1.25 · I_SC.
+
+    >>> string_design_current_a([10.0, 10.0, 10.0], [1, 4, 12], [np.nan, np.nan, 16.0])
+    array([12.5, 37.5, 16. ])
+    """
+    isc = np.asarray(isc_a, dtype=float)
+    s = np.asarray(strings_in_parallel, dtype=float)
+    fuse = np.asarray(fuse_a, dtype=float)
+    base = pv_rule("isc_factor") * isc
+    unfused = base * np.maximum(s - 1.0, 1.0)
+    return np.where(np.isnan(fuse), unfused, np.maximum(np.nan_to_num(fuse), base))
+
+
+def array_design_current_a(isc_a: ArrayLike, n_strings: ArrayLike) -> np.ndarray:
+    """Minimum capacity of an array cable without its own overcurrent device [A]: 1.25 · I_SC · N.
+
+    IEC 62548:2016 (from memory); the cable then withstands the array's own maximum current.
+
+    >>> array_design_current_a([10.0], [16])
+    array([200.])
+    """
+    return pv_rule("isc_factor") * np.asarray(isc_a, float) * np.asarray(n_strings, float)

@@ -1,0 +1,97 @@
+"""IEC rule set ``"iec"``.
+
+* IEC 60364-5-52:2009 (Ed.3) Annex B: capacities (B.52.2–B.52.5, B.52.10, B.52.12) and correction
+  factors (B.52.14–B.52.16, B.52.18, B.52.19) — see :mod:`calc.ampacity`;
+* IEC 62548:2016: PV design currents and string protection (from memory) — see :mod:`calc.pv`;
+* IEC 60228:2004: conductor resistance (class 2 Cu/Al for feeders; class 5 tinned Cu for PV cable);
+* IEC 60287-1-1 / -2-1: resistance at temperature, and T4 for the depth factor;
+* EN 50618:2014 / IEC 62930:2017: PV string cable, in-air ratings Table A.3 (from memory);
+* IEC 60364-4-43:2008 Table 43A: adiabatic k; BS 7671 Appendix 4: reactance.
+"""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+import numpy as np
+
+from calc import ampacity, pv, resistance, shortcircuit
+from calc.errors import check_option
+from calc.rules import RuleSet
+from calc.tables import load_table
+
+_FEEDER_SIZES_MM2 = (16.0, 25.0, 35.0, 50.0, 70.0, 95.0, 120.0, 150.0, 185.0, 240.0, 300.0)
+
+
+class IecRules(RuleSet):
+    """IEC 60364-5-52:2009 / IEC 62548:2016 / IEC 60228:2004 / IEC 60287 rule set."""
+
+    name: ClassVar[str] = "iec"
+    description: ClassVar[str] = (
+        "IEC 60364-5-52:2009 Annex B, IEC 62548:2016, IEC 60228:2004, IEC 60287, EN 50618:2014"
+    )
+    materials: ClassVar[tuple[str, ...]] = ("Cu", "Al")
+    insulations: ClassVar[tuple[str, ...]] = ("XLPE", "PVC")
+
+    def default_sizes_mm2(self, kind: int, material: str) -> tuple[float, ...]:
+        """String: 4, 6, 10 mm² (PV cable ≥ 4 mm² is common practice); feeders: IEC 60228 16–300 mm²
+        (the sizes for which Cu and Al are tabulated in every environment)."""
+        return (4.0, 6.0, 10.0) if kind == 0 else _FEEDER_SIZES_MM2
+
+    def r20_ohm_km(self, kind: int, material: str, sizes_mm2: np.ndarray) -> np.ndarray:
+        if kind == 0:
+            return resistance.r20_ohm_km(sizes_mm2, "Cu", 5, tinned=True)
+        return resistance.r20_ohm_km(sizes_mm2, material, 2)
+
+    def alpha20_per_k(self, material: str) -> float:
+        return resistance.alpha20_per_k(material)
+
+    def theta_max_c(self, insulation: str, env: str) -> float:
+        t = load_table("insulation_temperatures.csv")
+        col = "theta_air_c" if env == "air" else "theta_buried_c"
+        return float(t[col][t.where(insulation=insulation)][0])
+
+    def base_capacity_a(
+        self, kind, material, insulation, loaded, env, sizes_mm2, pv_installation
+    ) -> np.ndarray:
+        check_option("environment", env, ("air", "D1", "D2"))
+        if kind == 0:
+            if env == "air":
+                return ampacity.pv_cable_capacity_a(sizes_mm2, pv_installation)
+            return ampacity.pv_cable_buried_capacity_a(sizes_mm2, env)
+        if env == "air":
+            return ampacity.free_air_capacity_a(sizes_mm2, material, insulation, loaded)
+        return ampacity.buried_capacity_a(sizes_mm2, material, insulation, loaded, env)
+
+    def air_temp_factor(self, temp_c, insulation):
+        return float(ampacity.air_temp_factor(temp_c, insulation))
+
+    def ground_temp_factor(self, temp_c, insulation):
+        return float(ampacity.ground_temp_factor(temp_c, insulation))
+
+    def soil_factor(self, soil_k_m_w, laying):
+        return ampacity.soil_factor(soil_k_m_w, laying)
+
+    def depth_factor(self, depth_m, diameter_m):
+        return ampacity.depth_factor(depth_m, diameter_m, ampacity.reference_condition("depth_m"))
+
+    def group_factor(self, count, spacing_m, laying):
+        return ampacity.group_factor(count, spacing_m, laying)
+
+    def reactance_ohm_km(self, sizes_mm2, insulation, phases):
+        return resistance.reactance_ohm_km(sizes_mm2, insulation, phases)
+
+    def k_adiabatic(self, material, insulation, sizes_mm2):
+        return shortcircuit.k_table_43a(material, insulation, sizes_mm2)
+
+    def string_protection(self, isc_a, strings_in_parallel, max_fuse_a, fuse_a, ratings_a):
+        return pv.string_protection(isc_a, strings_in_parallel, max_fuse_a, fuse_a, ratings_a)
+
+    def string_design_current_a(self, isc_a, strings_in_parallel, fuse_a):
+        return pv.string_design_current_a(isc_a, strings_in_parallel, fuse_a)
+
+    def array_design_current_a(self, isc_a, n_strings):
+        return pv.array_design_current_a(isc_a, n_strings)
+
+    def ac_current_a(self, ac_kva, ac_v, phases):
+        return pv.ac_current_a(ac_kva, ac_v, phases)

@@ -1,0 +1,66 @@
+"""PV design currents and string protection, IEC 62548:2016 (rules from memory; see calc.pv)."""
+
+import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from numpy.testing import assert_allclose
+
+from calc.pv import (
+    ac_current_a,
+    array_design_current_a,
+    string_design_current_a,
+    string_protection,
+)
+
+
+def test_two_strings_in_parallel_need_no_fuse():
+    # IEC 62548:2016 (memory): (S − 1)·1.25·Isc = 12.5 A ≤ I_MOD_MAX_OCPR 20 A -> no protection
+    p = string_protection([10.0], [2], [20.0], [np.nan])
+    assert not p.required[0] and np.isnan(p.fuse_a[0]) and p.ok[0]
+    # module maximum series fuse not given: 2 strings assumed safe unfused (stated assumption)
+    p = string_protection([10.0], [2], [np.nan], [np.nan])
+    assert not p.required[0]
+
+
+def test_many_strings_get_a_fuse_within_the_bounds():
+    # IEC 62548:2016 (memory): 1.5·Isc ≤ In ≤ 2.4·Isc and In ≤ I_MOD_MAX_OCPR
+    p = string_protection([10.0, 13.0], [12, 24], [20.0, 30.0], [np.nan, np.nan])
+    assert p.required.all() and p.ok.all()
+    assert p.fuse_a.tolist() == [16.0, 20.0]  # smallest IEC 60269-1 rating ≥ 15 A and ≥ 19.5 A
+    assert np.all((p.fuse_a >= 1.5 * np.array([10.0, 13.0])) & (p.fuse_a <= [20.0, 30.0]))
+
+
+@settings(max_examples=200, deadline=None)
+@given(isc=st.floats(1.0, 20.0), s=st.integers(1, 40), ocpr_x=st.floats(1.0, 4.0))
+def test_fuse_is_always_within_bounds_or_reported(isc, s, ocpr_x):
+    p = string_protection([isc], [s], [isc * ocpr_x], [np.nan])
+    if p.required[0] and p.ok[0]:
+        assert 1.5 * isc - 1e-9 <= p.fuse_a[0] <= min(2.4 * isc, isc * ocpr_x) + 1e-9
+    if not p.ok[0]:
+        assert "no standard fuse rating" in p.note[0]
+
+
+def test_fixed_fuse_outside_bounds_is_a_failure_reason():
+    p = string_protection([10.0, 10.0], [12, 12], [20.0, 20.0], [32.0, 16.0])
+    assert p.ok.tolist() == [False, True]
+    assert "fixed string fuse 32 A outside" in p.note[0]
+
+
+@settings(max_examples=200, deadline=None)
+@given(isc=st.floats(0.5, 25.0), s=st.integers(1, 50), fused=st.booleans())
+def test_string_design_current_never_below_125_isc(isc, s, fused):
+    # IEC 62548:2016 (memory): string cable rating never below 1.25 · I_SC STC
+    fuse = 1.5 * isc if fused else np.nan
+    assert string_design_current_a([isc], [s], [fuse])[0] >= 1.25 * isc - 1e-12
+
+
+def test_string_and_array_design_currents():
+    # unfused: 1.25·Isc·(S−1); fused: In; array without own device: 1.25·Isc·N
+    assert_allclose(string_design_current_a([10.0, 10.0], [4, 4], [np.nan, 20.0]), [37.5, 20.0])
+    assert_allclose(array_design_current_a([10.0], [20]), [250.0])
+
+
+def test_ac_output_current():
+    # 3-phase I = S/(√3·U_LL); 1-phase I = S/U_LN
+    assert_allclose(ac_current_a([250.0], [800.0], [3]), [250e3 / (np.sqrt(3) * 800.0)])
+    assert_allclose(ac_current_a([4.6], [230.0], [1]), [20.0])

@@ -1,0 +1,42 @@
+"""Packaged data tables: headers, tags, row counts and known cells."""
+
+import numpy as np
+import pytest
+
+from calc.tables import load_table, parse_table, table_names
+
+ALLOWED_TAGS = {"confirmed", "memory", "memory-low", "common practice"}
+
+
+@pytest.mark.parametrize("name", table_names())
+def test_every_table_names_its_source_and_tags_each_row(name):
+    t = load_table(name)
+    assert any(line.startswith("# source:") for line in t.header), name
+    assert any("tag" in line for line in t.header), name
+    assert set(t["tag"].tolist()) <= ALLOWED_TAGS, name
+    assert len(t) > 0
+
+
+def test_iec60228_loader_row_count_and_known_cell():
+    # IEC 60228:2004 Tables 2/3: Cu class 2 and 5, plain and tinned, 1.5-400 mm² (17 sizes each);
+    # Al class 2, 10-400 mm² (13 sizes)
+    t = load_table("iec60228_2004_conductor_resistance.csv")
+    assert len(t) == 4 * 17 + 13
+    row = (
+        t.where(material="Cu", coating="plain")
+        & (t["conductor_class"] == 2)
+        & (t["size_mm2"] == 240)
+    )
+    assert t["r20_ohm_km"][row].tolist() == [0.0754]  # IEC 60228:2004 Table 2, 240 mm² Cu
+
+
+def test_tables_are_read_only_and_cached():
+    t = load_table("iec60269_1_fuse_ratings.csv")
+    assert t is load_table("iec60269_1_fuse_ratings.csv")
+    with pytest.raises(ValueError):
+        t["rating_a"][0] = 1.0
+
+
+def test_parse_table_empty_cell_is_nan():
+    t = parse_table("# source: x\na,tag\n1,memory\n,memory\n")
+    assert np.isnan(t["a"][1])
