@@ -1,0 +1,856 @@
+"""Synthetic ground-mount PV plants written in routeplan's site format.
+
+:func:`generate_site` writes a complete site folder (``site.toml`` plus the layers ``rows``,
+``combiners``, ``inverters``, ``trenches`` and ``grid``) for a plant of a requested DC
+capacity; :func:`synth_site` builds the same site in memory, so tests need no files. The
+plant is deterministic for a given seed.
+
+Every site made here is an invented scenario: it describes no real place, project or
+product. All numbers are invented demo values; where a comment calls one *typical*, it is
+common practice, not a value taken from a standard. A design made with routeplan — from a
+synthetic site or a real one — is a design aid, subject to local codes and to review by a
+qualified, licensed person.
+
+Plant layout
+------------
+The plant is built in a local frame (``a`` along the module rows, ``c`` across them) and
+mapped to map axes at the end: tracker rows run north-south (``x = c, y = a``), fixed-tilt
+tables east-west (``x = a, y = c``). Coordinates are metres of a UTM zone, offset to an
+invented origin.
+
+- **Block** (one inverter pad; typical 3.6-5 MWdc): ``n_lat`` (1 or 2) *laterals* across
+  the block; each lateral has a band of rows on either side whose near ends stop
+  ``STUB_M`` short of it. A *corridor* (internal track) splits the block into a left and a
+  right half; the block *branch* trench runs along it and the inverter pad stands beside it.
+  One band-half is a *group*; a group's rows, counted outward from the corridor, are split
+  into contiguous chunks of at most ``max_strings`` strings, one combiner per chunk, which
+  stands between the rows' near ends and the lateral.
+- **Plant**: columns of blocks; a main road (the *spine* trench) crosses every column, with
+  blocks north and south of it; each column's branch runs from the ring on one side to the
+  ring on the other, crossing the spine; a *ring* trench along the perimeter road joins the
+  branch ends and the spine's ends, so every route has a competing path. A lead from the
+  spine's west (or south) end reaches the substation, the grid point.
+- Trenches are drawn split at every junction (crossings and T-junctions are shared end
+  points); the rows and the equipment are not: the router taps them onto the laterals and
+  the branches, which splits those into many segments.
+- Ducts (``laying = "duct"``, with ``max_circuits``) where a lateral crosses its block's
+  track and where a branch crosses the main road; the ring leaves every optional attribute
+  empty, so the ``[design]`` defaults apply there.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import itertools
+import json
+import math
+import numbers
+import tomllib
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import pyproj
+import shapely
+
+__all__ = [
+    "FORMATS",
+    "LAYERS",
+    "MOUNTS",
+    "SynthInfo",
+    "SynthSite",
+    "generate_site",
+    "synth_site",
+]
+
+#: layer names written, in writing order (the site format's names).
+LAYERS: tuple[str, ...] = ("rows", "combiners", "inverters", "trenches", "grid")
+#: output formats: one ``site.gpkg`` holding every layer, or one ``<layer>.geojson`` per layer.
+FORMATS: tuple[str, ...] = ("gpkg", "geojson")
+#: mounting structures: single-axis trackers (1 module in portrait) or fixed-tilt tables (2P).
+MOUNTS: tuple[str, ...] = ("tracker", "fixed")
+
+#: projected CRS of every synthetic site: WGS 84 / UTM zone 33N. The origin is invented.
+PROJECTED_CRS = "EPSG:32633"
+GEOGRAPHIC_CRS = "EPSG:4326"
+
+# --- geometry of the layout [m]; typical, common practice values, invented for the demo ---
+STUB_M = 3.0  # row near end to lateral trench (the row's tap stub)
+COMBINER_OFFSET_M = 1.5  # combiner box to lateral trench, on the rows' side
+CORRIDOR_M = 12.0  # internal block track: branch trench and inverter pad
+PAIR_GAP_M = 6.0  # track between back-to-back bands of two laterals in one block
+BLOCK_GAP_M = 8.0  # road between blocks stacked along the rows
+COLUMN_GAP_M = 10.0  # road between block columns
+ROAD_HALF_M = 8.0  # half width of the main road strip; the spine runs on its centre line
+RING_MARGIN_M = 10.0  # perimeter road: ring trench to the outermost rows
+LEAD_M = 50.0  # spine end to the substation fence
+GRID_OFFSET_M = 5.0  # lead end to the grid point
+PAD_LENGTH_M, PAD_WIDTH_M = 12.0, 2.5  # inverter skid pad footprint
+PAD_OFFSET_M = 3.5  # pad centre line to the branch trench
+MODULE_GAP_M = 0.02  # clearance between neighbouring modules on a row
+DRIVE_GAP_M = 1.0  # tracker drive/slew gap in a row
+
+#: invented module types (STC datasheet values), typical of large-format crystalline modules.
+#: ``per_string`` keeps the string's open-circuit voltage near 1360 V at STC, leaving margin
+#: under a 1500 V DC system limit at cold temperatures (typical, common practice).
+MODULE_TYPES: dict[str, dict[str, float | int]] = {
+    "m580": {
+        "pmax_w": 580.0,
+        "isc_a": 14.62,
+        "imp_a": 13.72,
+        "voc_v": 50.4,
+        "vmp_v": 42.3,
+        "per_string": 27,
+        "max_fuse_a": 25.0,
+    },
+    "m600": {
+        "pmax_w": 600.0,
+        "isc_a": 14.38,
+        "imp_a": 13.61,
+        "voc_v": 52.4,
+        "vmp_v": 44.1,
+        "per_string": 26,
+        "max_fuse_a": 30.0,
+    },
+}
+#: module outline [m] (length, width) per module type; invented, typical sizes.
+MODULE_SIZE_M: dict[str, tuple[float, float]] = {"m580": (2.278, 1.134), "m600": (2.382, 1.134)}
+
+#: duct bank sizes offered at road crossings (2x2 ... 6x8 ways); typical, common practice.
+DUCT_BANKS: tuple[int, ...] = (4, 6, 9, 12, 16, 24, 32, 48)
+#: soil thermal resistivities drawn per soil zone [K·m/W]; typical range of site surveys.
+SOIL_K_CHOICES: tuple[float, ...] = (1.0, 1.2, 1.5, 2.0, 2.5)
+
+#: trench kinds: id prefix, depth_m, laying, spacing_m (typical, common practice; NaN/None =
+#: left empty so the ``[design]`` default applies).
+TRENCH_KINDS: dict[str, tuple[str, float, str | None, float]] = {
+    "spine": ("TS", 1.0, "direct", 0.2),  # inverter AC circuits along the main road
+    "lead": ("TSS", 1.0, "duct", 0.2),  # into the substation
+    "branch": ("TB", 0.8, "direct", 0.1),  # block column: array and AC circuits
+    "branch_duct": ("TBD", 1.0, "duct", 0.1),  # branch under the main road
+    "lateral": ("TL", 0.6, "direct", 0.0),  # string and array circuits, bunched
+    "lateral_duct": ("TLD", 0.8, "duct", 0.0),  # lateral under the block's track
+    "ring": ("TR", math.nan, None, math.nan),  # perimeter road: design defaults
+}
+
+#: site.toml [design] and [allowances]: the site format's example values.
+DESIGN: dict[str, Any] = {
+    "rules": "iec",
+    "ground_temp_c": 25.0,
+    "air_temp_c": 35.0,
+    "soil_k_m_w": 1.5,
+    "depth_m": 0.8,
+    "laying": "direct",
+    "spacing_m": 0.0,
+    "snap_m": 30.0,
+    "power_factor": 1.0,
+    "material": {"string": "Cu", "array": "Al", "ac": "Al"},
+    "drop_pct": {"string": 1.0, "array": 1.5, "dc_total": 2.0, "ac": 1.0},
+}
+ALLOWANCES: dict[str, float] = {"termination_m": 1.5, "slack_pct": 3.0}
+
+
+@dataclass(frozen=True)
+class SynthInfo:
+    """What :func:`synth_site` / :func:`generate_site` made.
+
+    ``mwdc`` is the DC capacity actually generated [MW] (strings x modules per string x
+    module ``pmax_w``); it differs from the request by the rounding to whole strings and
+    identical blocks. ``trenches`` counts trench features (not noded segments). ``files``
+    lists the files written (empty for an in-memory site).
+    """
+
+    mwdc: float
+    crs: str
+    rows: int
+    strings: int
+    combiners: int
+    inverters: int
+    trenches: int
+    blocks: int
+    mount: str
+    module: str
+    unassigned_rows: int
+    files: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class SynthSite:
+    """An in-memory synthetic site: ``frames`` (layer name -> GeoDataFrame, in :data:`LAYERS`
+    order), the ``site.toml`` text, and its :class:`SynthInfo`."""
+
+    frames: dict[str, gpd.GeoDataFrame]
+    toml: str
+    info: SynthInfo
+
+
+@dataclass(frozen=True)
+class _Design:
+    """The seeded choices of one plant (see :func:`_draw_design`)."""
+
+    mount: str
+    module: str
+    pitch_m: float  # row to row, across the rows
+    row_depth_m: float  # fixed tables: footprint depth across the row (0 for trackers)
+    strings_per_row: int  # full rows
+    max_strings: int  # combiner inputs
+    block_mw: float  # target block size [MWdc]
+    dc_ac: float  # DC/AC ratio of a block
+    ac_v: float  # inverter output, line to line [V]
+    aspect: float  # plant extent across / along the rows
+    soil_k: tuple[float, ...]  # per soil zone, in order along the spine [K·m/W]
+    origin: tuple[float, float]  # easting, northing of the local frame's origin [m]
+
+
+@dataclass(frozen=True)
+class _Block:
+    """One block in its local frame (``a`` along rows, ``c`` across, origin at a corner)."""
+
+    a_len: float
+    c_len: float
+    corridor_c: float  # branch centre line
+    lateral_a: np.ndarray  # (n_lat,)
+    row_a_near: np.ndarray  # row end next to its lateral
+    row_a_far: np.ndarray
+    row_c: np.ndarray
+    row_strings: np.ndarray
+    row_combiner: np.ndarray  # index into the block's combiners
+    row_central: np.ndarray  # bool: the row nearest its combiner (one per combiner)
+    comb_a: np.ndarray
+    comb_c: np.ndarray
+    comb_strings: np.ndarray
+    comb_half: np.ndarray  # index of the lateral half (2 * lateral + right) it is on
+    pad_a: float
+    pad_c: float
+
+
+def _check_option(name: str, value: Any, choices: Sequence[str]) -> str:
+    """``value`` if it is one of ``choices``, else ValueError listing the valid choices."""
+    if value not in choices:
+        raise ValueError(f"{name} is {value!r}; expected one of {', '.join(choices)}")
+    return value
+
+
+def _draw_design(rng: np.random.Generator, mount: str | None) -> _Design:
+    """Draw a plant's design choices; always the same draws in the same order."""
+    drawn_mount = str(rng.choice(MOUNTS, p=[0.6, 0.4]))
+    module = str(rng.choice(sorted(MODULE_TYPES)))
+    tracker_pitch = round(float(rng.uniform(5.5, 7.0)), 1)  # 1P trackers, GCR ~0.35-0.4
+    tracker_spr = int(rng.choice([2, 3], p=[0.25, 0.75]))
+    fixed_pitch = round(float(rng.uniform(8.5, 11.0)), 1)  # 2P portrait tables
+    fixed_spr = int(rng.choice([3, 4]))
+    tilt_deg = float(rng.uniform(20.0, 30.0))
+    max_strings = int(rng.choice([16, 20, 24], p=[0.2, 0.3, 0.5]))  # combiner inputs
+    block_mw = float(rng.uniform(3.6, 5.0))
+    dc_ac = round(float(rng.uniform(1.15, 1.25)), 2)
+    ac_v = float(rng.choice([630.0, 660.0, 690.0, 800.0]))
+    aspect = float(rng.uniform(0.7, 1.6))
+    n_zones = int(rng.integers(1, 4))
+    soil_k = tuple(float(k) for k in rng.choice(SOIL_K_CHOICES, size=n_zones))
+    origin = (float(rng.integers(420, 580) * 1000), float(rng.integers(4300, 4700) * 1000))
+    mount = drawn_mount if mount is None else mount
+    length_m, _ = MODULE_SIZE_M[module]
+    fixed = mount == "fixed"
+    return _Design(
+        mount=mount,
+        module=module,
+        pitch_m=fixed_pitch if fixed else tracker_pitch,
+        row_depth_m=round((2 * length_m + MODULE_GAP_M) * math.cos(math.radians(tilt_deg)), 2)
+        if fixed
+        else 0.0,
+        strings_per_row=fixed_spr if fixed else tracker_spr,
+        max_strings=max_strings,
+        block_mw=block_mw,
+        dc_ac=dc_ac,
+        ac_v=ac_v,
+        aspect=aspect,
+        soil_k=soil_k,
+        origin=origin,
+    )
+
+
+def _row_length_m(d: _Design, strings: np.ndarray) -> np.ndarray:
+    """Row length along its axis [m]: modules side by side (tracker 1P, fixed 2P)."""
+    n = np.asarray(strings) * int(MODULE_TYPES[d.module]["per_string"])
+    pitch = MODULE_SIZE_M[d.module][1] + MODULE_GAP_M
+    if d.mount == "tracker":
+        return np.where(n > 0, n * pitch + DRIVE_GAP_M, 0.0)
+    return np.ceil(n / 2) * pitch
+
+
+def _split_group(strings: int, per_row: int) -> np.ndarray:
+    """Strings per row of a group: fewest rows, near-equal, longer rows first (inner)."""
+    if strings <= 0:
+        return np.zeros(0, dtype=int)
+    n = -(-strings // per_row)
+    base, extra = divmod(strings, n)
+    return np.array([base + 1] * extra + [base] * (n - extra), dtype=int)
+
+
+def _chunks(strings: np.ndarray, max_strings: int) -> np.ndarray:
+    """Combiner index of each row: contiguous chunks of at most ``max_strings`` strings."""
+    total = int(strings.sum())
+    n = -(-total // max_strings)
+    while n < len(strings):
+        mid = np.cumsum(strings) - strings / 2
+        labels = np.minimum(n - 1, np.floor(mid * n / total)).astype(int)
+        sums = np.bincount(labels, weights=strings, minlength=n)
+        if sums.max() <= max_strings and (sums > 0).all():
+            return labels
+        n += 1
+    return np.arange(len(strings))
+
+
+def _block(d: _Design, strings: int, n_lat: int) -> _Block:
+    """The block template holding ``strings`` strings on ``n_lat`` laterals."""
+    groups = 4 * n_lat  # lateral x band (before/after) x half (left/right)
+    unit = 2 if d.strings_per_row == 2 else 1  # 2-string rows: share out whole rows
+    per_group = np.full(groups, strings // unit // groups)
+    per_group[: strings // unit % groups] += 1
+    per_group *= unit
+    per_group[0] += strings - per_group.sum()
+    splits = [_split_group(int(g), d.strings_per_row) for g in per_group]
+    row_len_max = float(_row_length_m(d, np.concatenate(splits)).max())
+    n_rows_max = max(1, max(len(s) for s in splits))
+    band = row_len_max + STUB_M
+    lateral_a = band + np.arange(n_lat) * (2 * band + PAIR_GAP_M)
+    half_w = n_rows_max * d.pitch_m
+    cc = half_w + CORRIDOR_M / 2
+    rows: list[tuple[np.ndarray, ...]] = []
+    combs: list[tuple[np.ndarray, ...]] = []
+    n_comb = 0
+    for k, s in enumerate(splits):
+        if not len(s):
+            continue
+        lat, side, half = k // 4, (-1, 1)[(k // 2) % 2], (-1, 1)[k % 2]
+        i = np.arange(len(s))
+        c = cc + half * (CORRIDOR_M / 2 + (i + 0.5) * d.pitch_m)
+        a_near = np.full(len(s), lateral_a[lat] + side * STUB_M)
+        a_far = a_near + side * _row_length_m(d, s)
+        labels = _chunks(s, d.max_strings)
+        n = int(labels.max()) + 1
+        comb_c = np.bincount(labels, weights=c, minlength=n) / np.bincount(labels, minlength=n)
+        central = np.zeros(len(s), dtype=bool)
+        for j in range(n):
+            members = np.flatnonzero(labels == j)
+            central[members[np.argmin(np.abs(c[members] - comb_c[j]))]] = True
+        rows.append((a_near, a_far, c, s, labels + n_comb, central))
+        combs.append(
+            (
+                np.full(n, lateral_a[lat] + side * COMBINER_OFFSET_M),
+                comb_c,
+                np.bincount(labels, weights=s, minlength=n).astype(int),
+                np.full(n, 2 * lat + (half > 0)),
+            )
+        )
+        n_comb += n
+    r = [np.concatenate(x) for x in zip(*rows, strict=True)]
+    cb = [np.concatenate(x) for x in zip(*combs, strict=True)]
+    a_len = n_lat * 2 * band + (n_lat - 1) * PAIR_GAP_M
+    # pad on the corridor: between two laterals, or clear of the middle lateral's crossing
+    pad_a = a_len / 2 if n_lat % 2 == 0 else float(lateral_a[n_lat // 2]) + PAD_LENGTH_M / 2 + 4.0
+    return _Block(
+        a_len=a_len,
+        c_len=2 * half_w + CORRIDOR_M,
+        corridor_c=cc,
+        lateral_a=lateral_a,
+        row_a_near=r[0],
+        row_a_far=r[1],
+        row_c=r[2],
+        row_strings=r[3].astype(int),
+        row_combiner=r[4].astype(int),
+        row_central=r[5].astype(bool),
+        comb_a=cb[0],
+        comb_c=cb[1],
+        comb_strings=cb[2],
+        comb_half=cb[3].astype(int),
+        pad_a=pad_a,
+        pad_c=cc + PAD_OFFSET_M,
+    )
+
+
+def _duct_bank(circuits: np.ndarray) -> np.ndarray:
+    """Smallest duct bank holding ``circuits`` plus spare ways (25 %, at least 2)."""
+    need = circuits + np.maximum(2, np.ceil(0.25 * circuits)).astype(int)
+    banks = np.asarray(DUCT_BANKS)
+    i = np.searchsorted(banks, need)
+    return np.where(i < len(banks), banks[np.minimum(i, len(banks) - 1)], need)
+
+
+@dataclass(frozen=True)
+class _Plant:
+    """Where the blocks stand, in the local frame: columns of equal blocks north (``a > 0``)
+    and south of the main road, whose centre line is ``a = 0``."""
+
+    blk: _Block
+    per_block: int  # strings per block
+    north: np.ndarray  # blocks per column north of the main road
+    south: np.ndarray
+    col_x: np.ndarray  # c of each column's left edge
+    block_col: np.ndarray  # column of each block
+    block_a: np.ndarray  # each block's local origin (its lowest a and c corner)
+    block_c: np.ndarray
+
+    @property
+    def col_c(self) -> np.ndarray:
+        """Branch centre line of each column."""
+        return self.col_x + self.blk.corridor_c
+
+    @property
+    def left(self) -> float:
+        """Ring trench on the first column's outer side; the spine and the lead meet it."""
+        return float(self.col_x[0] - RING_MARGIN_M)
+
+    @property
+    def right(self) -> float:
+        return float(self.col_x[-1] + self.blk.c_len + RING_MARGIN_M)
+
+
+def _plant(d: _Design, mw: float, rng: np.random.Generator) -> _Plant:
+    """Equal blocks (the squarer of 1 or 2 laterals) in columns with an irregular outline."""
+    mod = MODULE_TYPES[d.module]
+    total = max(1, round(mw * 1e6 / (float(mod["pmax_w"]) * int(mod["per_string"]))))
+    n_blocks = max(1, round(mw / d.block_mw))
+    unit = 2 if d.strings_per_row == 2 else 1  # whole 2-string rows
+    per_block = max(1, round(total / n_blocks / unit) * unit)
+    blk = min(
+        (_block(d, per_block, n) for n in (1, 2)),
+        key=lambda b: abs(math.log(b.a_len / b.c_len)),
+    )
+    step_a, step_c = blk.a_len + BLOCK_GAP_M, blk.c_len + COLUMN_GAP_M
+    n_cols = int(np.clip(round(math.sqrt(d.aspect * n_blocks * step_a / step_c)), 1, n_blocks))
+    heights = np.full(n_cols, n_blocks // n_cols)
+    heights[: n_blocks % n_cols] += 1
+    heights = rng.permutation(heights)
+    for _ in range(n_cols):  # move single blocks between columns
+        i, j = rng.integers(n_cols, size=2)
+        if i != j and heights[i] > 1:
+            heights[i] -= 1
+            heights[j] += 1
+    north = (heights + rng.integers(0, 2, n_cols)) // 2
+    south = heights - north
+    col_x = np.arange(n_cols) * step_c
+    block_col = np.repeat(np.arange(n_cols), heights)
+    block_a = np.concatenate(
+        [
+            np.concatenate(
+                [
+                    ROAD_HALF_M + np.arange(n) * step_a,
+                    -ROAD_HALF_M - blk.a_len - np.arange(s) * step_a,
+                ]
+            )
+            for n, s in zip(north, south, strict=True)
+        ]
+    )
+    return _Plant(blk, per_block, north, south, col_x, block_col, block_a, col_x[block_col])
+
+
+def _segments(a0, c0, a1, c1) -> np.ndarray:
+    """(n, 4) array of 2-point segments (a0, c0, a1, c1) in the local frame; broadcasts."""
+    parts = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (a0, c0, a1, c1)))
+    return np.column_stack([np.ravel(v) for v in parts])
+
+
+def _trenches(p: _Plant) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Trench segments split at every junction: (segments (n, 4), kind (n,), max_circuits
+    (n,), 0 where not set). Shared junctions are computed once, so ends match exactly."""
+    blk, nb, n_cols = p.blk, len(p.block_a), len(p.north)
+    step_a = blk.a_len + BLOCK_GAP_M
+    col_c = p.col_c
+    # laterals: block edge | track crossing (duct) | branch | track crossing (duct) | block edge
+    lat_a = p.block_a[:, None] + blk.lateral_a  # (blocks, laterals): shared with the branches
+    n_lat = len(blk.lateral_a)
+    cc = blk.corridor_c
+    stops = np.array([0.0, cc - CORRIDOR_M / 2, cc, cc + CORRIDOR_M / 2, blk.c_len])
+    lat_c = np.repeat(p.block_c[:, None] + stops, n_lat, axis=0)  # (blocks * laterals, 5)
+    la = lat_a.reshape(-1, 1)
+    seg_lat = _segments(la, lat_c[:, :-1], la, lat_c[:, 1:])
+    kind_lat = np.tile(["lateral", "lateral_duct", "lateral_duct", "lateral"], nb * n_lat)
+    half_comb = np.bincount(blk.comb_half, minlength=2 * n_lat)  # combiners per lateral half
+    mc_lat = np.zeros((nb * n_lat, 4), dtype=int)
+    mc_lat[:, 1] = np.tile(_duct_bank(half_comb[0::2]), nb)
+    mc_lat[:, 2] = np.tile(_duct_bank(half_comb[1::2]), nb)
+    # branches: ring | laterals | main road crossing (duct) | spine | ... | ring
+    top = ROAD_HALF_M + np.maximum(p.north * step_a - BLOCK_GAP_M, 0) + RING_MARGIN_M
+    bottom = -(ROAD_HALF_M + np.maximum(p.south * step_a - BLOCK_GAP_M, 0) + RING_MARGIN_M)
+    branch: list[np.ndarray] = []
+    kind_branch: list[str] = []
+    mc_branch: list[int] = []
+    for j in range(n_cols):
+        cuts = [bottom[j], -ROAD_HALF_M, 0.0, ROAD_HALF_M, top[j]]
+        a = np.unique(np.concatenate([cuts, lat_a[p.block_col == j].ravel()]))
+        branch.append(_segments(a[:-1], col_c[j], a[1:], col_c[j]))
+        for a0, a1 in itertools.pairwise(a):
+            duct = a0 >= -ROAD_HALF_M and a1 <= ROAD_HALF_M
+            kind_branch.append("branch_duct" if duct else "branch")
+            inverters = p.north[j] if a0 >= 0 else p.south[j]  # AC circuits through the duct
+            mc_branch.append(int(_duct_bank(np.array([inverters]))[0]) if duct else 0)
+    # spine along the main road, lead to the substation, ring along the perimeter road
+    left, right = p.left, p.right
+    spine_c = np.concatenate([[left], col_c, [right]])
+    seg_spine = _segments(0.0, spine_c[:-1], 0.0, spine_c[1:])
+    seg_lead = _segments(0.0, left, 0.0, left - LEAD_M)
+    bounds = np.concatenate([[left], p.col_x[1:] - COLUMN_GAP_M / 2, [right]])
+    ring = [(top[j], c) for j in range(n_cols) for c in (bounds[j], col_c[j], bounds[j + 1])]
+    ring += [(0.0, right)]
+    ring += [
+        (bottom[j], c)
+        for j in reversed(range(n_cols))
+        for c in (bounds[j + 1], col_c[j], bounds[j])
+    ]
+    ring += [(0.0, left), ring[0]]
+    pts = np.array([q for q, r in itertools.pairwise(ring) if q != r] + [ring[-1]])
+    seg_ring = _segments(pts[:-1, 0], pts[:-1, 1], pts[1:, 0], pts[1:, 1])
+
+    segs = np.concatenate([seg_spine, seg_lead, *branch, seg_lat, seg_ring])
+    kinds = np.concatenate(
+        [
+            np.repeat("spine", len(seg_spine)),
+            ["lead"],
+            kind_branch,
+            kind_lat,
+            np.repeat("ring", len(seg_ring)),
+        ]
+    )
+    max_circuits = np.concatenate(
+        [np.zeros(len(seg_spine) + 1, int), mc_branch, mc_lat.ravel(), np.zeros(len(seg_ring), int)]
+    )
+    return segs, kinds, max_circuits
+
+
+def _lines(x0, y0, x1, y1) -> np.ndarray:
+    """2-point LineStrings from coordinate arrays."""
+    return shapely.linestrings(np.stack([np.column_stack([x0, y0]), np.column_stack([x1, y1])], 1))
+
+
+def _rects(x0, y0, x1, y1) -> np.ndarray:
+    """Axis-aligned rectangles (exterior counter-clockwise) spanning two corners."""
+    xmin, xmax = np.minimum(x0, x1), np.maximum(x0, x1)
+    ymin, ymax = np.minimum(y0, y1), np.maximum(y0, y1)
+    corners = ((xmin, ymin), (xmax, ymin), (xmax, ymax), (xmin, ymax), (xmin, ymin))
+    return shapely.polygons(np.stack([np.column_stack(c) for c in corners], axis=1))
+
+
+def _ids(prefix: str, numbers: np.ndarray, width: int) -> list[str]:
+    return [f"{prefix}{n:0{width}d}" for n in numbers]
+
+
+def synth_site(
+    mw: float,
+    seed: int,
+    *,
+    geographic: bool = False,
+    mount: str | None = None,
+    unassigned_rows: int = 0,
+) -> SynthSite:
+    """Build a synthetic ground-mount PV plant in memory.
+
+    Parameters
+    ----------
+    mw : float
+        Requested DC capacity [MWdc], > 0.
+    seed : int
+        Seed of every random choice (≥ 0); the same seed gives the same site.
+    geographic : bool
+        True: layers in WGS 84 lon/lat (EPSG:4326), converted from the projected frame with
+        pyproj; False: layers in the projected CRS (:data:`PROJECTED_CRS`).
+    mount : {None, 'tracker', 'fixed'}
+        Mounting structure; None lets the seed choose.
+    unassigned_rows : int
+        Rows left without a ``to`` (for the router's automatic assignment), at most one per
+        combiner: the row nearest its combiner, so the combiner keeps room for it.
+
+    Returns
+    -------
+    SynthSite
+        Frames, site.toml text and counts. The layout (and site.toml) does not depend on
+        ``geographic`` or ``unassigned_rows``.
+
+    Raises
+    ------
+    ValueError
+        For a non-positive or non-finite ``mw``, a negative or non-integer ``seed``, an
+        unknown ``mount``, or ``unassigned_rows`` out of range.
+    """
+    if isinstance(mw, bool) or not isinstance(mw, numbers.Real) or not math.isfinite(mw) or mw <= 0:
+        raise ValueError(f"mw is {mw!r}; expected a capacity > 0 [MWdc]")
+    if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
+        raise ValueError(f"seed is {seed!r}; expected an integer ≥ 0")
+    if mount is not None:
+        _check_option("mount", mount, MOUNTS)
+    if (
+        isinstance(unassigned_rows, bool)
+        or not isinstance(unassigned_rows, int | np.integer)
+        or unassigned_rows < 0
+    ):
+        raise ValueError(f"unassigned_rows is {unassigned_rows!r}; expected an integer ≥ 0")
+    rng = np.random.default_rng(seed)
+    d = _draw_design(rng, mount)
+    p = _plant(d, mw, rng)
+    blk, nb = p.blk, len(p.block_a)
+    segs, kinds, max_circuits = _trenches(p)
+
+    # map to x/y: round in the local frame (shared points stay equal), then place at the origin
+    e0, n0 = d.origin
+    tracker = d.mount == "tracker"
+
+    def xy(a, c) -> tuple[np.ndarray, np.ndarray]:
+        a, c = np.round(np.asarray(a, float), 3), np.round(np.asarray(c, float), 3)
+        return (c + e0, a + n0) if tracker else (a + e0, c + n0)
+
+    def tile(block_a: np.ndarray | float, block_c: np.ndarray | float):
+        return xy((p.block_a[:, None] + block_a).ravel(), (p.block_c[:, None] + block_c).ravel())
+
+    if tracker:
+        row_geom = _lines(*tile(blk.row_a_near, blk.row_c), *tile(blk.row_a_far, blk.row_c))
+    else:
+        half = d.row_depth_m / 2
+        row_geom = _rects(
+            *tile(blk.row_a_near, blk.row_c - half), *tile(blk.row_a_far, blk.row_c + half)
+        )
+    comb_geom = shapely.points(np.column_stack(tile(blk.comb_a, blk.comb_c)))
+    pad = (PAD_LENGTH_M / 2, PAD_WIDTH_M / 2)
+    pad_geom = _rects(
+        *tile(blk.pad_a - pad[0], blk.pad_c - pad[1]), *tile(blk.pad_a + pad[0], blk.pad_c + pad[1])
+    )
+    trench_geom = _lines(*xy(segs[:, 0], segs[:, 1]), *xy(segs[:, 2], segs[:, 3]))
+    grid_geom = shapely.points(*xy([0.0], [p.left - LEAD_M - GRID_OFFSET_M]))
+
+    # ids and references: R<block>-<row>, CB<block>-<n>, INV<block>, SUB1, T<kind><n>
+    nr, nc = len(blk.row_c), len(blk.comb_c)
+    wb = max(3, len(str(nb)))
+    inv_ids = _ids("INV", np.arange(1, nb + 1), wb)
+    block_ids = [i[3:] for i in inv_ids]
+    comb_ids = [
+        f"CB{b}-{k}" for b in block_ids for k in _ids("", np.arange(1, nc + 1), len(str(nc)))
+    ]
+    row_ids = [f"R{b}-{r}" for b in block_ids for r in _ids("", np.arange(1, nr + 1), len(str(nr)))]
+    row_to = np.array(comb_ids, dtype=object)[
+        (np.arange(nb)[:, None] * nc + blk.row_combiner).ravel()
+    ]
+    central = np.flatnonzero(np.tile(blk.row_central, nb))
+    if unassigned_rows > len(central):
+        raise ValueError(
+            f"unassigned_rows is {unassigned_rows}; this site has {len(central)} combiners and "
+            "leaves at most one row per combiner unassigned"
+        )
+    if unassigned_rows:  # own stream: the layout does not depend on it
+        pick = np.random.default_rng([seed, 1]).choice(central, unassigned_rows, replace=False)
+        row_to[pick] = None
+    trench_ids = []
+    counters: dict[str, int] = {}
+    for k in kinds:
+        counters[k] = counters.get(k, 0) + 1
+        trench_ids.append(f"{TRENCH_KINDS[k][0]}{counters[k]:05d}")
+    attrs = np.array([TRENCH_KINDS[k][1:] for k in kinds], dtype=object)
+    # soil zones along the spine, by segment midpoint; the ring is left to the defaults
+    edges = np.linspace(p.left, p.right, len(d.soil_k) + 1)[1:-1]
+    soil = np.asarray(d.soil_k)[np.searchsorted(edges, (segs[:, 1] + segs[:, 3]) / 2)]
+    soil[kinds == "ring"] = np.nan
+    mod = MODULE_TYPES[d.module]
+    block_kw = p.per_block * float(mod["pmax_w"]) * int(mod["per_string"]) / 1e3
+    ac_kva = math.ceil(block_kw / d.dc_ac / 50.0) * 50.0  # skid rating in 50 kVA steps
+
+    crs = PROJECTED_CRS
+    strings = np.tile(blk.row_strings, nb)
+    frames = {
+        "rows": gpd.GeoDataFrame(
+            {"id": row_ids, "strings": strings, "module": d.module, "to": row_to},
+            geometry=row_geom,
+            crs=crs,
+        ),
+        "combiners": gpd.GeoDataFrame(
+            {
+                "id": comb_ids,
+                "to": np.repeat(inv_ids, nc),
+                "max_strings": np.full(nb * nc, d.max_strings),
+            },
+            geometry=comb_geom,
+            crs=crs,
+        ),
+        "inverters": gpd.GeoDataFrame(
+            {
+                "id": inv_ids,
+                "ac_kva": np.full(nb, ac_kva),
+                "ac_v": np.full(nb, d.ac_v),
+                "phases": np.full(nb, 3),
+                "to": "SUB1",
+            },
+            geometry=pad_geom,
+            crs=crs,
+        ),
+        "trenches": gpd.GeoDataFrame(
+            {
+                "id": trench_ids,
+                "depth_m": attrs[:, 0].astype(float),
+                "laying": attrs[:, 1],
+                "spacing_m": attrs[:, 2].astype(float),
+                "soil_k_m_w": soil,
+                "max_circuits": pd.array(
+                    [int(n) if n > 0 else None for n in max_circuits], dtype="Int64"
+                ),
+            },
+            geometry=trench_geom,
+            crs=crs,
+        ),
+        "grid": gpd.GeoDataFrame({"id": ["SUB1"]}, geometry=grid_geom, crs=crs),
+    }
+    if geographic:
+        to_geo = pyproj.Transformer.from_crs(PROJECTED_CRS, GEOGRAPHIC_CRS, always_xy=True)
+
+        def convert(coords: np.ndarray) -> np.ndarray:
+            return np.column_stack(to_geo.transform(coords[:, 0], coords[:, 1]))
+
+        for name, frame in frames.items():
+            geoms = shapely.transform(frame.geometry.values, convert)
+            frames[name] = frame.set_geometry(gpd.GeoSeries(geoms, crs=GEOGRAPHIC_CRS))
+        crs = GEOGRAPHIC_CRS
+
+    info = SynthInfo(
+        mwdc=round(nb * block_kw / 1e3, 6),
+        crs=crs,
+        rows=nb * nr,
+        strings=int(strings.sum()),
+        combiners=nb * nc,
+        inverters=nb,
+        trenches=len(segs),
+        blocks=nb,
+        mount=d.mount,
+        module=d.module,
+        unassigned_rows=int(unassigned_rows),
+    )
+    return SynthSite(frames=frames, toml=_site_toml(mw, seed, d, blk, info, ac_kva), info=info)
+
+
+def generate_site(
+    mw: float,
+    seed: int,
+    out: Path | str,
+    *,
+    geographic: bool = False,
+    fmt: str = "gpkg",
+    mount: str | None = None,
+    unassigned_rows: int = 0,
+) -> SynthInfo:
+    """Write a synthetic ground-mount PV plant as a site folder.
+
+    Parameters
+    ----------
+    mw, seed, geographic, mount, unassigned_rows
+        As for :func:`synth_site`.
+    out : path
+        Site folder; created when missing. Files this function writes (``site.toml``,
+        ``site.gpkg``, ``<layer>.geojson``) are replaced, including those of the other
+        format, so the folder never holds two candidates for a layer; other files are kept.
+    fmt : {'gpkg', 'geojson'}
+        ``gpkg``: one ``site.gpkg`` holding every layer; ``geojson``: one file per layer.
+
+    Returns
+    -------
+    SynthInfo
+        Counts, the DC capacity generated, the CRS and the files written.
+
+    Raises
+    ------
+    ValueError
+        For an unknown ``fmt`` or any argument :func:`synth_site` refuses.
+    """
+    _check_option("fmt", fmt, FORMATS)
+    site = synth_site(mw, seed, geographic=geographic, mount=mount, unassigned_rows=unassigned_rows)
+    root = Path(out)
+    root.mkdir(parents=True, exist_ok=True)
+    stale = [root / "site.gpkg", *(root / f"{name}.geojson" for name in LAYERS)]
+    for path in stale:
+        path.unlink(missing_ok=True)
+    (root / "site.toml").write_text(site.toml, encoding="utf-8")
+    files = ["site.toml"]
+    for name, frame in site.frames.items():
+        if fmt == "gpkg":
+            pyogrio.write_dataframe(frame, root / "site.gpkg", layer=name, driver="GPKG")
+        else:
+            pyogrio.write_dataframe(frame, root / f"{name}.geojson", driver="GeoJSON")
+            files.append(f"{name}.geojson")
+    if fmt == "gpkg":
+        files.append("site.gpkg")
+    return dataclasses.replace(site.info, files=tuple(files))
+
+
+def _site_toml(
+    mw: float, seed: int, d: _Design, blk: _Block, info: SynthInfo, ac_kva: float
+) -> str:
+    """site.toml of a synthetic plant: the site format's tables, a header saying what it is."""
+    mod = MODULE_TYPES[d.module]
+    strings = blk.row_strings
+    header = [
+        "Synthetic PV plant: an invented scenario written by routeplan.synth; it describes no",
+        "real place, project or product. Every value is an invented demo value; values called",
+        "typical are common practice, not taken from a standard. routeplan is a design aid:",
+        "any design must follow local codes and be reviewed by a qualified, licensed person.",
+        "",
+        f"requested {mw:g} MWdc, seed {seed}; generated {info.mwdc:.3f} MWdc",
+        f"{info.blocks} blocks of {blk.row_strings.sum()} strings "
+        f"({blk.row_strings.sum() * float(mod['pmax_w']) * int(mod['per_string']) / 1e6:.3f} MWdc),"
+        f" one {ac_kva:g} kVA inverter skid each (DC/AC {d.dc_ac:g})",
+        f"mount: {d.mount}, pitch {d.pitch_m:g} m, {strings.min()}-{strings.max()} strings per row",
+        f"combiners: max_strings {d.max_strings}, "
+        f"{blk.comb_strings.min()}-{blk.comb_strings.max()} strings each",
+    ]
+    doc: dict[str, Any] = {
+        "site": {"name": f"Synthetic plant {mw:g} MWdc, seed {seed}", "crs": PROJECTED_CRS},
+        "modules": {d.module: dict(mod)},
+        "design": DESIGN,
+        "allowances": ALLOWANCES,
+    }
+    comments = {
+        ("site",): "working CRS: WGS 84 / UTM zone 33N; the site's origin in it is invented",
+        ("modules", d.module): "invented module, STC datasheet values (typical of its class)",
+        ("design",): "demo design inputs (typical, common practice)",
+    }
+    text = "".join(f"# {line}".rstrip() + "\n" for line in header)
+    text += _toml_tables(doc, (), comments)
+    tomllib.loads(text)  # the emitter's output must parse
+    return text
+
+
+def _toml_tables(table: dict[str, Any], path: tuple[str, ...], comments: dict) -> str:
+    """TOML text of nested tables: scalars first, then each sub-table as ``[a.b]``."""
+    scalars = {k: v for k, v in table.items() if not isinstance(v, dict)}
+    subs = {k: v for k, v in table.items() if isinstance(v, dict)}
+    text = ""
+    if path and (scalars or not subs):
+        text += "\n" + (f"# {comments[path]}\n" if path in comments else "")
+        text += "[" + ".".join(_toml_key(p) for p in path) + "]\n"
+    text += "".join(f"{_toml_key(k)} = {_toml_value(v)}\n" for k, v in scalars.items())
+    for k, v in subs.items():
+        text += _toml_tables(v, (*path, k), comments)
+    return text
+
+
+def _toml_key(key: str) -> str:
+    bare = key and all(ch.isascii() and (ch.isalnum() or ch in "_-") for ch in key)
+    return key if bare else json.dumps(key, ensure_ascii=False)
+
+
+def _toml_value(v: Any) -> str:
+    """A TOML literal for a bool, int, float, str or list of those."""
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, int | np.integer):
+        return str(int(v))
+    if isinstance(v, float | np.floating):
+        v = float(v)
+        if math.isnan(v):
+            return "nan"
+        if math.isinf(v):
+            return "inf" if v > 0 else "-inf"
+        return repr(v)
+    if isinstance(v, str):
+        return json.dumps(v, ensure_ascii=False)
+    if isinstance(v, list | tuple):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    raise TypeError(f"no TOML literal for {type(v).__name__}")
