@@ -126,6 +126,9 @@ class DesignParams:
     ground_temp_c : ground temperature [°C]; 20 = IEC 60364-5-52 reference (set from site data).
     air_temp_c : design ambient air temperature [°C]; 40 = common practice for outdoor runs (set the
         site maximum; PV cable ratings need no correction up to 60 °C, EN 50618 Table A.4).
+    row_air_temp_c : air temperature around string cables in air [°C] — they run along the racking,
+        behind the modules, hotter than the shade air; None = ``air_temp_c``. 70 °C is common
+        practice for cables behind modules.
     material_array, material_ac : "Cu" or "Al" (class 2). Strings are always EN 50618 PV cable
         (class 5 tinned Cu).
     insulation_array, insulation_ac : "XLPE" (90 °C) or "PVC" (70 °C).
@@ -157,6 +160,7 @@ class DesignParams:
 
     ground_temp_c: float = 20.0
     air_temp_c: float = 40.0
+    row_air_temp_c: float | None = None
     material_array: str = "Cu"
     material_ac: str = "Cu"
     insulation_array: str = "XLPE"
@@ -574,6 +578,13 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
     return det
 
 
+def _air_temp_c(design: DesignParams, kind: int) -> float:
+    """Air temperature of a kind's air environment [°C]: strings run behind the modules."""
+    if kind == KIND_STRING and design.row_air_temp_c is not None:
+        return design.row_air_temp_c
+    return design.air_temp_c
+
+
 def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
     """Matrices [circuits, sizes] of capacity, drop and pass flags at ``pp`` parallel sets."""
     loaded = c["loaded"][gi]
@@ -609,7 +620,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
     i_op = c["i_op"][gi][:, None]
     i_des = c["i_design"][gi][:, None]
     theta_max = np.where(env == 0, kd.theta_air, kd.theta_bur)
-    amb = np.where(env == 0, design.air_temp_c, design.ground_temp_c)
+    amb = np.where(env == 0, _air_temp_c(design, kd.kind), design.ground_temp_c)
     theta = conductor_temp_c(design.conductor_temp, theta_max, amb, i_op, cap_tot)
     r = kd.r20[None, :] * (1.0 + kd.alpha * (theta - 20.0))
     ph = c["phases_eff"][gi]
@@ -767,7 +778,9 @@ def size_circuits(
         "u_ref": u_ref,
         "phases_eff": phases_eff,
         "loaded": np.where(is_ac & (a["phases"] == 3), 3, 2),
-        "t_air": {k: rs.air_temp_factor(design.air_temp_c, d.insulation) for k, d in kd.items()},
+        "t_air": {
+            k: rs.air_temp_factor(_air_temp_c(design, k), d.insulation) for k, d in kd.items()
+        },
         "t_gnd": {
             k: rs.ground_temp_factor(design.ground_temp_c, d.insulation) for k, d in kd.items()
         },

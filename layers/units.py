@@ -8,6 +8,7 @@ which pint converts. Nothing downstream sees pint.
 from __future__ import annotations
 
 import math
+import numbers
 from functools import lru_cache
 from typing import Any
 
@@ -58,7 +59,7 @@ def to_number(value: Any, key: str) -> float:
     """
     if isinstance(value, bool):
         raise ValueError(f"{value!r} is not a number")
-    if isinstance(value, int | float):
+    if isinstance(value, numbers.Real):  # int, float and numpy scalars
         x = float(value)
     elif isinstance(value, str):
         unit = unit_of(key)

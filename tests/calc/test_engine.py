@@ -286,3 +286,21 @@ def test_selection_is_minimal(inp):
             pct = 100 * 2 * length * r.operating_current_a[i] * rr / p / inp.vmp_v[i]
         drop_ok = pct <= r.vdrop_limit_pct[i] + 1e-9
         assert not (cap_ok and drop_ok), (i, kind, r.size_mm2[i], cap, pct)
+
+
+def test_row_air_temperature_applies_to_strings_only():
+    # EN 50618:2014 Annex A Table A.4 (from memory): factor 0.91 at 70 °C ambient, 1.00 up to
+    # 60 °C; derived: sqrt((120 - 70) / 60) = 0.913.
+    inp = SizingInput(
+        kind=np.array([KIND_STRING]),
+        cable_m=np.array([60.0]),
+        air_m=np.array([30.0]),
+        isc_a=np.array([14.0]),
+        imp_a=np.array([13.0]),
+        vmp_v=np.array([1100.0]),
+    )
+    cool = size_circuits(inp, DesignParams(air_temp_c=40.0))
+    hot = size_circuits(inp, DesignParams(air_temp_c=40.0, row_air_temp_c=70.0))
+    assert cool.size_mm2[0] == hot.size_mm2[0]
+    assert hot.ampacity_a[0] / cool.ampacity_a[0] == pytest.approx(0.91, abs=0.005)
+    assert hot.factor_temp[0] == pytest.approx(0.91, abs=0.005)
