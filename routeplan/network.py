@@ -1,0 +1,594 @@
+"""Trench network: trench corridors noded into segments, with equipment tapped onto them.
+
+A *segment* is a stretch of one trench between two *nodes*. Nodes are trench ends,
+crossings, T-junctions, vertices shared by two trenches and *taps* (the points where
+equipment joins the network). Ends closer than ``node_tol_m`` to another trench, or to
+another node, join it. Segments never merge across two trenches, even where one trench
+continues another, so each keeps its trench's attributes (depth, laying, soil, capacity).
+
+Equipment joins the network by a straight *stub* from the feature (for a row: its point
+nearest to the network) to the nearest point on any trench; the stub is part of a route's
+length but is not a trench segment.
+
+Everything here is geometry and graph; nothing is electrical. Coordinates are metres of
+the site's projected CRS.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyproj
+import shapely
+from scipy import sparse
+from scipy.sparse import csgraph
+
+from layers.errors import Problem
+from layers.model import Site
+from routeplan.errors import ParameterError
+
+__all__ = [
+    "EQUIPMENT_LAYERS",
+    "LAYINGS",
+    "MIN_TOL_M",
+    "TRENCH_ATTRIBUTES",
+    "TrenchDefaults",
+    "TrenchNetwork",
+    "build_network",
+    "check_choice",
+    "check_metric_crs",
+    "far_problems",
+    "site_equipment",
+]
+
+#: valid values of a trench's ``laying`` attribute.
+LAYINGS: tuple[str, ...] = ("direct", "duct")
+
+#: equipment layers that join the network, in the order they are tapped.
+EQUIPMENT_LAYERS: tuple[str, ...] = ("rows", "combiners", "inverters", "grid")
+
+#: floor of every geometric tolerance [m]: absorbs floating-point noise of computed points.
+MIN_TOL_M = 1e-6
+
+#: trench attributes carried by every segment, in column order.
+TRENCH_ATTRIBUTES: tuple[str, ...] = (
+    "depth_m",
+    "laying",
+    "spacing_m",
+    "soil_k_m_w",
+    "max_circuits",
+)
+
+
+def check_choice(name: str, value: str, choices: Sequence[str]) -> str:
+    """Return ``value`` if it is one of ``choices``, else raise naming the valid ones.
+
+    Raises
+    ------
+    ParameterError
+        ``value`` is not one of ``choices``.
+    """
+    if value not in choices:
+        valid = ", ".join(repr(c) for c in choices)
+        raise ParameterError([Problem("params", name, f"{value!r} is not one of {valid}")])
+    return value
+
+
+@dataclass(frozen=True)
+class TrenchDefaults:
+    """Trench attributes used where a trench does not give its own.
+
+    Common design practice, chosen to be on the safe side when the survey says nothing;
+    the designer should set them for the site.
+
+    Attributes
+    ----------
+    depth_m : float
+        Depth of laying [m]. Default 0.7 m, the reference depth of the buried-cable
+        current ratings of IEC 60364-5-52 (from memory), so no depth correction applies.
+    laying : str
+        ``'direct'`` (cables laid directly in the ground) or ``'duct'``. Default ``'direct'``.
+    spacing_m : float
+        Clear spacing between neighbouring circuits in the trench [m]. Default 0.0
+        (touching), the most onerous arrangement of the grouping tables.
+    soil_k_m_w : float
+        Thermal resistivity of the soil [K·m/W]. Default 2.5 K·m/W, the reference soil of
+        the buried-cable ratings of IEC 60364-5-52 (from memory); drier soils are worse.
+    max_circuits : float
+        Largest number of circuits the trench may carry. Default NaN: no capacity limit.
+    """
+
+    depth_m: float = 0.7
+    laying: str = "direct"
+    spacing_m: float = 0.0
+    soil_k_m_w: float = 2.5
+    max_circuits: float = math.nan
+
+    def __post_init__(self) -> None:
+        check_choice("laying", self.laying, LAYINGS)
+        bad = []
+        if not self.depth_m > 0:
+            bad.append(("depth_m", f"must be > 0 m, got {self.depth_m}"))
+        if not self.spacing_m >= 0:
+            bad.append(("spacing_m", f"must be >= 0 m, got {self.spacing_m}"))
+        if not self.soil_k_m_w > 0:
+            bad.append(("soil_k_m_w", f"must be > 0 K·m/W, got {self.soil_k_m_w}"))
+        if not (math.isnan(self.max_circuits) or self.max_circuits >= 1):
+            bad.append(("max_circuits", f"must be >= 1 or NaN, got {self.max_circuits}"))
+        if bad:
+            raise ParameterError([Problem("params", k, m) for k, m in bad])
+
+
+@dataclass(frozen=True, eq=False)
+class TrenchNetwork:
+    """The noded trench network with its equipment taps.
+
+    Attributes
+    ----------
+    crs : pyproj.CRS
+        The site's projected CRS (metres).
+    node_xy : numpy.ndarray
+        ``(n_nodes, 2)`` node coordinates [m].
+    segments : geopandas.GeoDataFrame
+        One row per segment, ordered by trench then along it: ``segment_id``
+        (``<trench id>#<n>``), ``trench_id``, ``trench_index`` (row of the trenches frame),
+        ``node_u``, ``node_v`` (node at the start and end of the geometry), ``start_m``,
+        ``end_m`` (chainage along the trench part), ``length_m``, the trench attributes
+        ``depth_m``, ``laying``, ``spacing_m``, ``soil_k_m_w``, ``max_circuits`` (defaults
+        filled in), and the LineString ``geometry`` from node_u to node_v.
+    taps : geopandas.GeoDataFrame
+        One row per equipment feature: ``layer``, ``feature_id``, ``connected`` (bool),
+        ``node`` (-1 when not connected), ``distance_m`` (to the nearest trench),
+        ``trench_id`` (the nearest trench), ``stub_m``, and the stub ``geometry`` from the
+        feature to its node (None when not connected).
+    node_tol_m, snap_m : float
+        The tolerances the network was built with [m].
+    """
+
+    crs: pyproj.CRS | None
+    node_xy: np.ndarray
+    segments: gpd.GeoDataFrame
+    taps: gpd.GeoDataFrame
+    node_tol_m: float
+    snap_m: float
+    _index: dict[tuple[str, str], int] = field(default_factory=dict, repr=False)
+
+    @property
+    def n_nodes(self) -> int:
+        """Number of nodes."""
+        return len(self.node_xy)
+
+    @cached_property
+    def seg_u(self) -> np.ndarray:
+        """Start node of each segment."""
+        return self.segments["node_u"].to_numpy(np.int64)
+
+    @cached_property
+    def seg_v(self) -> np.ndarray:
+        """End node of each segment."""
+        return self.segments["node_v"].to_numpy(np.int64)
+
+    @cached_property
+    def seg_length_m(self) -> np.ndarray:
+        """Length of each segment [m]."""
+        return self.segments["length_m"].to_numpy(float)
+
+    @cached_property
+    def _edges(self) -> tuple[np.ndarray, np.ndarray]:
+        """Sorted undirected edge keys and, for each, the shortest segment joining the pair."""
+        u, v, w = self.seg_u, self.seg_v, self.seg_length_m
+        ok = np.flatnonzero(u != v)  # a loop never lies on a shortest path
+        lo, hi = np.minimum(u[ok], v[ok]), np.maximum(u[ok], v[ok])
+        key = lo * self.n_nodes + hi
+        order = np.lexsort((ok, w[ok], key))  # parallel segments: the shortest, then the first
+        key, seg = key[order], ok[order]
+        first = np.r_[True, key[1:] != key[:-1]]
+        return key[first], seg[first]
+
+    @cached_property
+    def graph(self) -> sparse.csr_matrix:
+        """Symmetric sparse weight matrix [m] for :mod:`scipy.sparse.csgraph`.
+
+        Parallel segments between one pair of nodes keep only the shortest (the others can
+        never lie on a shortest path); loops are left out.
+        """
+        key, seg = self._edges
+        n = self.n_nodes
+        a, b, w = key // n, key % n, self.seg_length_m[seg]
+        return sparse.csr_matrix(
+            (np.r_[w, w], (np.r_[a, b], np.r_[b, a])), shape=(n, n), dtype=float
+        )
+
+    def segment_between(self, u: np.ndarray, v: np.ndarray) -> np.ndarray:
+        """Index of the segment a shortest path uses between nodes ``u[i]`` and ``v[i]``.
+
+        Parameters
+        ----------
+        u, v : numpy.ndarray of int
+            Node pairs joined by at least one segment.
+        """
+        key, seg = self._edges
+        k = np.minimum(u, v) * self.n_nodes + np.maximum(u, v)
+        pos = np.searchsorted(key, k)
+        if len(k) and (pos.max(initial=0) >= len(key) or np.any(key[pos] != k)):
+            raise ValueError("a node pair is not joined by any segment")
+        return seg[pos]
+
+    @cached_property
+    def node_island(self) -> np.ndarray:
+        """Island (connected component) label of each node."""
+        if self.n_nodes == 0:
+            return np.zeros(0, dtype=np.int64)
+        _, labels = csgraph.connected_components(self.graph, directed=False)
+        return labels.astype(np.int64)
+
+    def island_trenches(self, node: int) -> list[str]:
+        """Sorted ids of the trenches that have a segment in the island of ``node``."""
+        label = self.node_island[node]
+        mask = self.node_island[self.seg_u] == label
+        return sorted(set(self.segments["trench_id"].to_numpy()[mask]))
+
+    def tap(self, layer: str, feature_id: str) -> int:
+        """Row of :attr:`taps` of the feature ``feature_id`` of ``layer``."""
+        return self._index[(layer, feature_id)]
+
+
+def check_metric_crs(crs: pyproj.CRS | None) -> list[Problem]:
+    """Problems if ``crs`` is not a projected CRS in metres (routing measures lengths in it)."""
+    if crs is None:
+        return [Problem("site", None, "no CRS: lengths cannot be measured")]
+    crs = pyproj.CRS(crs)
+    units = {ax.unit_name for ax in crs.axis_info[:2]}
+    if not crs.is_projected or not units <= {"metre", "meter", "m"}:
+        name = crs.to_string()
+        return [
+            Problem("site", None, f"CRS {name} is not projected in metres ({', '.join(units)})")
+        ]
+    return []
+
+
+def site_equipment(site: Site) -> gpd.GeoDataFrame:
+    """Every equipment feature of ``site`` that joins the network (:data:`EQUIPMENT_LAYERS` order).
+
+    Returns
+    -------
+    geopandas.GeoDataFrame
+        ``layer``, ``feature_id`` (str), ``geometry``; index 0..n-1.
+    """
+    layers, ids, geoms = [], [], []
+    for name in EQUIPMENT_LAYERS:
+        frame = site.layer(name)
+        layers += [name] * len(frame)
+        ids += [str(v) for v in frame["id"].to_numpy(dtype=object).tolist()]
+        geoms.append(np.asarray(frame.geometry.array, dtype=object))
+    return gpd.GeoDataFrame(
+        {"layer": layers, "feature_id": ids},
+        geometry=np.concatenate(geoms) if geoms else [],
+        crs=site.crs,
+    )
+
+
+def _fill(trenches: gpd.GeoDataFrame, defaults: TrenchDefaults) -> pd.DataFrame:
+    """Trench attributes with missing values (or missing columns) filled from ``defaults``."""
+    out = {}
+    for name in TRENCH_ATTRIBUTES:
+        default = getattr(defaults, name)
+        if name not in trenches:
+            col = pd.Series([default] * len(trenches), index=trenches.index)
+        elif name == "laying":
+            col = trenches[name].astype(object).where(trenches[name].notna(), default)
+            col = col.map(lambda v: v.strip().lower() if isinstance(v, str) else v)
+        else:
+            col = pd.to_numeric(trenches[name], errors="coerce").astype(float).fillna(default)
+        out[name] = col.to_numpy()
+    return pd.DataFrame(out)
+
+
+def _first_per(group: np.ndarray, n: int) -> np.ndarray:
+    """Index of the first element of each of ``n`` groups of a sorted ``group`` array."""
+    return np.searchsorted(group, np.arange(n))
+
+
+def build_network(
+    trenches: gpd.GeoDataFrame,
+    equipment: gpd.GeoDataFrame | None = None,
+    *,
+    node_tol_m: float = 0.1,
+    snap_m: float = 30.0,
+    defaults: TrenchDefaults | None = None,
+) -> TrenchNetwork:
+    """Node the trench corridors into segments and tap the equipment onto them.
+
+    Parameters
+    ----------
+    trenches : geopandas.GeoDataFrame
+        ``id`` and optional attributes (``depth_m``, ``laying``, ``spacing_m``,
+        ``soil_k_m_w``, ``max_circuits``; NaN/None where not given);
+        LineString/MultiLineString in a projected CRS [m].
+    equipment : geopandas.GeoDataFrame, optional
+        ``layer``, ``feature_id`` and any geometry (see :func:`site_equipment`).
+    node_tol_m : float
+        Ends and nodes closer than this join [m] (below :data:`MIN_TOL_M` it is raised to it).
+    snap_m : float
+        Longest stub [m]; farther equipment is left unconnected (see :func:`far_problems`).
+    defaults : TrenchDefaults, optional
+        Values for trench attributes not given.
+
+    Returns
+    -------
+    TrenchNetwork
+
+    Notes
+    -----
+    Candidate nodes are every part's two ends, every crossing or touching point of two
+    parts, every vertex of a part lying within ``node_tol_m`` of another part, and every
+    tap. A candidate splits each part within ``node_tol_m`` of it (a tap only its own part).
+    Candidates within ``node_tol_m`` of each other form one node (transitively); the node
+    sits at its first candidate, preferring crossings, then ends, vertices and taps.
+    Segment ends are moved onto their node, so a segment's length can differ from the
+    trench's stretch by up to ``node_tol_m`` at each end; a loop shorter than twice
+    ``node_tol_m`` that starts and ends at one node is dropped. A trench that crosses itself
+    is not noded at its own crossing.
+    """
+    defaults = TrenchDefaults() if defaults is None else defaults
+    if not node_tol_m >= 0:
+        raise ParameterError([Problem("params", "node_tol_m", f"must be >= 0 m, got {node_tol_m}")])
+    if not snap_m >= 0:
+        raise ParameterError([Problem("params", "snap_m", f"must be >= 0 m, got {snap_m}")])
+    tol = max(node_tol_m, MIN_TOL_M)
+    attrs = _fill(trenches, defaults)
+    trench_ids = np.array(
+        [str(v) for v in trenches["id"].to_numpy(dtype=object).tolist()], dtype=object
+    )
+
+    # --- simple parts of every trench, their vertices and chainage
+    geoms = np.asarray(trenches.geometry.array, dtype=object)
+    parts, owner = shapely.get_parts(geoms, return_index=True)
+    keep = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
+    parts, owner = parts[keep], owner[keep]
+    n_parts = len(parts)
+    xy, cidx = shapely.get_coordinates(parts, return_index=True)
+    step = np.hypot(*np.diff(xy, axis=0).T) if len(xy) else np.zeros(0)
+    step[cidx[1:] != cidx[:-1]] = 0.0
+    cum = np.r_[0.0, np.cumsum(step)]
+    first = _first_per(cidx, n_parts).astype(np.int64)
+    last = np.r_[first[1:], len(xy)][:n_parts].astype(np.int64) - 1
+    chain = cum - cum[first][cidx]  # chainage of each vertex along its part [m]
+    part_len = chain[last]
+    part_off = np.r_[0.0, np.cumsum(part_len + 1.0)][:-1]  # parts laid end to end, 1 m apart
+    gkey = part_off[cidx] + chain  # sorted: global position of each vertex
+
+    # --- equipment: nearest part, distance, tap point
+    equipment = _empty_equipment(trenches.crs) if equipment is None else equipment
+    eq_geoms = np.asarray(equipment.geometry.array, dtype=object)
+    n_eq = len(eq_geoms)
+    eq_part = np.full(n_eq, -1, dtype=np.int64)
+    eq_dist = np.full(n_eq, np.inf)
+    tree = shapely.STRtree(parts)
+    if n_eq and n_parts:
+        # within snap_m first (fast), then the far ones without a limit, for their distance
+        _nearest(tree, eq_geoms, np.arange(n_eq), max(snap_m, MIN_TOL_M), eq_part, eq_dist)
+        far = np.flatnonzero(eq_part < 0)
+        _nearest(tree, eq_geoms[far], far, None, eq_part, eq_dist)
+    connected = (eq_part >= 0) & (eq_dist <= snap_m)
+    ceq = np.flatnonzero(connected)
+    sl = shapely.shortest_line(eq_geoms[ceq], parts[eq_part[ceq]])
+    sl_xy = shapely.get_coordinates(sl).reshape(-1, 2, 2)  # shortest lines have 2 points
+    eq_near, tap_xy = sl_xy[:, 0], sl_xy[:, 1]
+
+    # --- candidate nodes: crossings (0), ends (1), vertices (2), taps (3)
+    ii, jj = tree.query(parts, predicate="intersects")
+    pair = ii < jj
+    cross = shapely.intersection(parts[ii[pair]], parts[jj[pair]])
+    cross_xy = shapely.get_coordinates(cross).reshape(-1, 2)
+    inner = np.ones(len(xy), dtype=bool)
+    inner[first], inner[last] = False, False
+    cand_xy = np.concatenate([cross_xy, xy[first], xy[last], xy[inner], tap_xy])
+    n_cross, n_ends, n_inner = len(cross_xy), 2 * n_parts, int(inner.sum())
+    kind = np.repeat([0, 1, 2, 3], [n_cross, n_ends, n_inner, len(ceq)])
+    cand_part = np.concatenate(
+        [np.full(n_cross, -1), np.arange(n_parts), np.arange(n_parts), cidx[inner], eq_part[ceq]]
+    )
+    cand_pts = shapely.points(cand_xy)
+
+    # which parts each candidate splits (taps split only their own part: added below)
+    q = np.flatnonzero(kind < 3)
+    ci, pj = tree.query(cand_pts[q], predicate="dwithin", distance=tol)
+    ci = q[ci]
+    own = cand_part[ci] == pj
+    ci, pj = ci[~own], pj[~own]
+    active = kind != 2
+    active[ci] = True
+    act = np.flatnonzero(active)
+
+    # --- cluster active candidates closer than tol into nodes
+    ptree = shapely.STRtree(cand_pts[act])
+    a, b = ptree.query(cand_pts[act], predicate="dwithin", distance=tol)
+    m = len(act)
+    adj = sparse.coo_matrix((np.ones(len(a), dtype=np.int8), (a, b)), shape=(m, m))
+    _, label = csgraph.connected_components(adj, directed=False)
+    _, rep = np.unique(label, return_index=True)  # first member of each cluster
+    order = np.argsort(rep, kind="stable")  # number nodes by their first member
+    node_of_label = np.empty(len(rep), dtype=np.int64)
+    node_of_label[order] = np.arange(len(rep))
+    node_xy = cand_xy[act[rep[order]]]
+    cand_node = np.full(len(cand_xy), -1, dtype=np.int64)
+    cand_node[act] = node_of_label[label]
+
+    # --- split points of every part: its ends, the candidates near it, its taps
+    ends0 = n_cross + np.arange(n_parts)
+    ends1 = n_cross + n_parts + np.arange(n_parts)
+    taps = n_cross + n_ends + n_inner + np.arange(len(ceq))
+    e_part = np.concatenate([np.arange(n_parts), np.arange(n_parts), pj, eq_part[ceq]])
+    e_pos = np.concatenate(
+        [
+            np.zeros(n_parts),
+            part_len,
+            shapely.line_locate_point(parts[pj], cand_pts[ci]),
+            shapely.line_locate_point(parts[eq_part[ceq]], cand_pts[taps]),
+        ]
+    )
+    e_node = cand_node[np.concatenate([ends0, ends1, ci, taps])]
+    order = np.lexsort((e_node, e_pos, e_part))
+    e_part, e_pos, e_node = e_part[order], e_pos[order], e_node[order]
+
+    # --- pieces between consecutive split points of one part
+    k = np.flatnonzero(e_part[1:] == e_part[:-1])
+    p_part, p_a, p_b = e_part[k], e_pos[k], e_pos[k + 1]
+    p_u, p_v = e_node[k], e_node[k + 1]
+    keep = (p_u != p_v) | (p_b - p_a > 2 * tol)
+    p_part, p_a, p_b, p_u, p_v = p_part[keep], p_a[keep], p_b[keep], p_u[keep], p_v[keep]
+    seg_geom = _pieces(xy, gkey, part_off, p_part, p_a, p_b, node_xy[p_u], node_xy[p_v])
+
+    # --- segment table
+    p_owner = owner[p_part]
+    n_seg = len(p_part)
+    grp_first = np.r_[True, p_owner[1:] != p_owner[:-1]] if n_seg else np.zeros(0, bool)
+    start = np.maximum.accumulate(np.where(grp_first, np.arange(n_seg), 0)) if n_seg else grp_first
+    number = np.arange(n_seg) - start + 1
+    count = np.bincount(p_owner, minlength=len(trenches))
+    width = np.array([len(str(c)) for c in count], dtype=np.int64)
+    seg_ids = [
+        f"{t}#{n:0{w}d}"
+        for t, n, w in zip(trench_ids[p_owner], number, width[p_owner], strict=True)
+    ]
+    segments = gpd.GeoDataFrame(
+        {
+            "segment_id": seg_ids,
+            "trench_id": trench_ids[p_owner],
+            "trench_index": p_owner.astype(np.int64),
+            "node_u": p_u,
+            "node_v": p_v,
+            "start_m": p_a,
+            "end_m": p_b,
+            "length_m": shapely.length(seg_geom),
+            **{name: attrs[name].to_numpy()[p_owner] for name in TRENCH_ATTRIBUTES},
+        },
+        geometry=seg_geom,
+        crs=trenches.crs,
+    )
+
+    # --- taps
+    eq_node = np.full(n_eq, -1, dtype=np.int64)
+    eq_node[ceq] = cand_node[taps]
+    stubs = np.full(n_eq, None, dtype=object)
+    stubs[ceq] = shapely.linestrings(
+        np.stack([eq_near, node_xy[eq_node[ceq]]], axis=1).reshape(-1, 2),
+        indices=np.repeat(np.arange(len(ceq)), 2),
+    )
+    stub_m = np.full(n_eq, np.nan)
+    stub_m[ceq] = shapely.length(stubs[ceq])
+    near_trench = np.full(n_eq, None, dtype=object)
+    has = eq_part >= 0
+    near_trench[has] = trench_ids[owner[eq_part[has]]]
+    taps_frame = gpd.GeoDataFrame(
+        {
+            "layer": equipment["layer"].to_numpy(dtype=object),
+            "feature_id": equipment["feature_id"].to_numpy(dtype=object),
+            "connected": connected,
+            "node": eq_node,
+            "distance_m": eq_dist,
+            "trench_id": near_trench,
+            "stub_m": stub_m,
+        },
+        geometry=stubs,
+        crs=trenches.crs,
+    )
+    pairs = zip(
+        equipment["layer"].to_numpy(dtype=object).tolist(),
+        equipment["feature_id"].to_numpy(dtype=object).tolist(),
+        strict=True,
+    )
+    index = {(str(la), str(fi)): i for i, (la, fi) in enumerate(pairs)}
+    return TrenchNetwork(
+        crs=trenches.crs,
+        node_xy=node_xy,
+        segments=segments,
+        taps=taps_frame,
+        node_tol_m=float(node_tol_m),
+        snap_m=float(snap_m),
+        _index=index,
+    )
+
+
+def _nearest(
+    tree: shapely.STRtree,
+    geoms: np.ndarray,
+    rows: np.ndarray,
+    max_distance: float | None,
+    part: np.ndarray,
+    dist: np.ndarray,
+) -> None:
+    """Fill ``part[rows]`` and ``dist[rows]`` with each geometry's nearest tree item.
+
+    Ties go to the lowest tree index, so the result does not depend on the tree's order.
+    """
+    if len(geoms) == 0:
+        return
+    if max_distance is None:
+        (qi, qj), qd = tree.query_nearest(geoms, return_distance=True, all_matches=True)
+    else:  # measured: ~4x faster than query_nearest(max_distance=...) on a comb site
+        qi, qj = tree.query(geoms, predicate="dwithin", distance=max_distance)
+        qd = shapely.distance(geoms[qi], tree.geometries[qj])
+    order = np.lexsort((qj, qd, qi))
+    qi, qj, qd = qi[order], qj[order], qd[order]
+    firsts = np.r_[True, qi[1:] != qi[:-1]]
+    part[rows[qi[firsts]]], dist[rows[qi[firsts]]] = qj[firsts], qd[firsts]
+
+
+def _empty_equipment(crs: pyproj.CRS | None) -> gpd.GeoDataFrame:
+    return gpd.GeoDataFrame({"layer": [], "feature_id": []}, geometry=[], crs=crs)
+
+
+def _pieces(
+    xy: np.ndarray,
+    gkey: np.ndarray,
+    part_off: np.ndarray,
+    part: np.ndarray,
+    a: np.ndarray,
+    b: np.ndarray,
+    start_xy: np.ndarray,
+    end_xy: np.ndarray,
+) -> np.ndarray:
+    """LineStrings of the stretches ``a``..``b`` [m] of parts, with the given end points.
+
+    Each piece is its start point, the part's vertices strictly inside the stretch (more than
+    :data:`MIN_TOL_M` from either end) and its end point: a vectorised substring.
+    """
+    lo = np.searchsorted(gkey, part_off[part] + a + MIN_TOL_M, side="right")
+    hi = np.searchsorted(gkey, part_off[part] + b - MIN_TOL_M, side="left")
+    n_in = np.maximum(hi - lo, 0)
+    size = n_in + 2
+    off = np.r_[0, np.cumsum(size)]
+    out = np.empty((off[-1], 2))
+    out[off[:-1]] = start_xy
+    out[off[1:] - 1] = end_xy
+    within = np.arange(n_in.sum()) - np.repeat(np.cumsum(n_in) - n_in, n_in)
+    out[np.repeat(off[:-1] + 1, n_in) + within] = xy[np.repeat(lo, n_in) + within]
+    if len(part) == 0:
+        return np.zeros(0, dtype=object)
+    return shapely.linestrings(out, indices=np.repeat(np.arange(len(part)), size))
+
+
+def far_problems(network: TrenchNetwork) -> list[Problem]:
+    """One problem per equipment feature not joined to the network, with its distance."""
+    taps = network.taps
+    problems = []
+    if len(network.segments) == 0:
+        problems.append(Problem("trenches", None, "no trench to route on"))
+    for row in taps.loc[~taps["connected"].to_numpy(bool)].itertuples():
+        if math.isinf(row.distance_m):
+            msg = "cannot join the network: no trench (or empty geometry)"
+        else:
+            msg = (
+                f"nearest trench {row.trench_id!r} is {row.distance_m:.2f} m away, "
+                f"more than snap_m {network.snap_m:g} m"
+            )
+        problems.append(Problem(row.layer, row.feature_id, msg))
+    return problems

@@ -1,0 +1,331 @@
+"""Trench network: noding, segment ids and attributes, equipment taps.
+
+References are named beside each check: "hand" (exact geometry worked out by hand from
+the invented coordinates), "shapely" (shapely's own noding/length as an outside
+implementation), "networkx" (graph algorithms).
+"""
+
+from __future__ import annotations
+
+import math
+
+import geopandas as gpd
+import networkx as nx
+import numpy as np
+import pyproj
+import pytest
+import shapely
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from numpy.testing import assert_allclose
+
+from routeplan.errors import ParameterError
+from routeplan.network import (
+    TrenchDefaults,
+    build_network,
+    check_metric_crs,
+    far_problems,
+)
+
+UTM = "EPSG:32633"
+
+
+def line(*xy):
+    return shapely.LineString(xy)
+
+
+def pt(x, y):
+    return shapely.Point(x, y)
+
+
+def trenches(*geoms, **attrs) -> gpd.GeoDataFrame:
+    """Trenches T1, T2, ... with the given geometries and optional attribute lists."""
+    data = {"id": [f"T{i + 1}" for i in range(len(geoms))], **attrs}
+    return gpd.GeoDataFrame(data, geometry=list(geoms), crs=UTM)
+
+
+def equipment(*items) -> gpd.GeoDataFrame:
+    """Equipment from ``(layer, id, geometry)`` triples."""
+    return gpd.GeoDataFrame(
+        {"layer": [i[0] for i in items], "feature_id": [i[1] for i in items]},
+        geometry=[i[2] for i in items],
+        crs=UTM,
+    )
+
+
+def seg(net, segment_id):
+    """The row of one segment."""
+    return net.segments.set_index("segment_id").loc[segment_id]
+
+
+def test_t_junction_splits_the_through_trench():
+    net = build_network(trenches(line((0, 0), (100, 0)), line((50, 0), (50, 40))))
+    # hand: T1 is cut at x = 50 where T2 ends on it
+    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T2#1"]
+    assert_allclose(net.segments["length_m"], [50.0, 50.0, 40.0], rtol=0, atol=1e-12)
+    assert net.n_nodes == 4
+    assert seg(net, "T1#1").node_v == seg(net, "T1#2").node_u == seg(net, "T2#1").node_u
+
+
+def test_crossing_splits_both_trenches():
+    net = build_network(trenches(line((0, 0), (100, 0)), line((30, -20), (30, 20))))
+    # hand: crossing at (30, 0)
+    assert_allclose(net.segments["length_m"], [30.0, 70.0, 20.0, 20.0], rtol=0, atol=1e-12)
+    assert net.n_nodes == 5
+    node = seg(net, "T1#2").node_u
+    assert_allclose(net.node_xy[node], [30.0, 0.0], atol=1e-12)
+
+
+def test_continuation_keeps_two_trenches_apart():
+    # T2 continues T1 in a straight line: still two segments, one per trench
+    net = build_network(trenches(line((0, 0), (50, 0)), line((50, 0), (100, 0))))
+    assert net.segments["segment_id"].tolist() == ["T1#1", "T2#1"]
+    assert net.n_nodes == 3  # hand: the shared end is one node
+
+
+def test_shared_interior_vertex_is_a_node():
+    # both trenches bend at (50, 0): they touch there without crossing
+    net = build_network(
+        trenches(line((0, 0), (50, 0), (100, 20)), line((50, -30), (50, 0), (80, -30)))
+    )
+    assert len(net.segments) == 4
+    assert_allclose(
+        net.segments["length_m"],
+        [50.0, math.hypot(50, 20), 30.0, math.hypot(30, 30)],  # hand
+        rtol=0,
+        atol=1e-9,
+    )
+
+
+def test_nearly_touching_end_joins_within_node_tol():
+    # T2 stops 5 cm short of T1
+    geoms = (line((0, 0), (100, 0)), line((50, 0.05), (50, 40)))
+    joined = build_network(trenches(*geoms), node_tol_m=0.1)
+    assert len(joined.segments) == 3
+    # hand: the node sits at T2's end, so T1's halves bend 5 cm up to it
+    assert_allclose(
+        joined.segments["length_m"], [math.hypot(50, 0.05)] * 2 + [39.95], rtol=0, atol=1e-9
+    )
+    assert len(set(joined.node_island)) == 1
+    apart = build_network(trenches(*geoms), node_tol_m=0.01)
+    assert len(apart.segments) == 2
+    assert len(set(apart.node_island)) == 2
+
+
+def test_overshooting_end_is_trimmed_to_the_crossing():
+    # T2 crosses T1 and ends 5 cm past it: the 5 cm stub is noise and is dropped
+    net = build_network(trenches(line((0, 0), (100, 0)), line((50, -0.05), (50, 40))))
+    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T2#1"]
+    assert_allclose(net.segments["length_m"], [50.0, 50.0, 40.0], rtol=0, atol=1e-9)  # hand
+
+
+def test_equipment_exactly_on_a_trench_vertex():
+    net = build_network(
+        trenches(line((0, 0), (30, 0), (30, 40))),
+        equipment(("combiners", "CB1", pt(30, 0))),
+    )
+    # hand: the tap at the bend splits the trench there, stub of zero length
+    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2"]
+    assert_allclose(net.segments["length_m"], [30.0, 40.0], rtol=0, atol=1e-12)
+    geoms = net.segments.geometry
+    assert [len(g.coords) for g in geoms] == [2, 2]  # the bend vertex is not repeated
+    tap = net.taps.iloc[0]
+    assert tap.connected and tap.stub_m == 0.0
+    assert_allclose(net.node_xy[tap.node], [30, 0])
+
+
+def test_several_taps_on_one_segment_and_a_tap_reusing_a_node():
+    net = build_network(
+        trenches(line((0, 0), (100, 0))),
+        equipment(
+            ("rows", "R1", pt(20, 3)),
+            ("combiners", "CB1", pt(60, -4)),
+            ("combiners", "CB2", pt(60.05, 2)),  # within node_tol of CB1's tap
+            ("inverters", "INV1", pt(100.02, 5)),  # within node_tol of the trench end
+        ),
+    )
+    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T1#3"]
+    assert_allclose(net.segments["length_m"], [20.0, 40.0, 40.0], rtol=0, atol=1e-12)  # hand
+    taps = net.taps.set_index("feature_id")
+    assert taps.loc["CB1", "node"] == taps.loc["CB2", "node"]
+    assert taps.loc["INV1", "node"] == seg(net, "T1#3").node_v
+    # hand: stubs end on the node, so CB2's and INV1's stubs lean to it
+    assert_allclose(
+        taps["stub_m"].to_numpy(),
+        [3.0, 4.0, math.hypot(0.05, 2), math.hypot(0.02, 5)],
+        rtol=0,
+        atol=1e-12,
+    )
+
+
+def test_row_stub_starts_at_the_rows_nearest_point():
+    row = line((5, 10), (45, 10))
+    net = build_network(trenches(line((0, 0), (0, 50))), equipment(("rows", "R1", row)))
+    stub = net.taps.geometry.iloc[0]
+    # hand: nearest point of the row is its west end (5, 10), tap at (0, 10)
+    assert list(stub.coords) == [(5.0, 10.0), (0.0, 10.0)]
+    assert net.taps["stub_m"].iloc[0] == 5.0
+
+
+def test_polygon_row_and_pad():
+    net = build_network(
+        trenches(line((0, 0), (0, 50))),
+        equipment(
+            ("rows", "R1", shapely.box(3, 10, 43, 14)),
+            ("inverters", "I1", shapely.box(-2, 40, 2, 44)),
+        ),
+    )
+    taps = net.taps.set_index("feature_id")
+    assert taps.loc["R1", "stub_m"] == 3.0  # hand: the box's west side is 3 m from x = 0
+    assert taps.loc["I1", "stub_m"] == 0.0  # the trench runs into the pad
+
+
+def test_far_feature_is_not_connected_and_reported_with_its_distance():
+    net = build_network(
+        trenches(line((0, 0), (100, 0))),
+        equipment(("rows", "R9", pt(50, 12.5)), ("combiners", "CB1", pt(10, 1))),
+        snap_m=10.0,
+    )
+    assert net.taps["connected"].tolist() == [False, True]
+    assert net.taps["node"].iloc[0] == -1
+    problems = far_problems(net)
+    assert [str(p) for p in problems] == [
+        "rows 'R9': nearest trench 'T1' is 12.50 m away, more than snap_m 10 m"  # hand
+    ]
+
+
+def test_no_trench_at_all():
+    net = build_network(trenches(), equipment(("rows", "R1", pt(0, 0))))
+    assert [str(p) for p in far_problems(net)] == [
+        "trenches: no trench to route on",
+        "rows 'R1': cannot join the network: no trench (or empty geometry)",
+    ]
+
+
+def test_multilinestring_trench_numbers_segments_across_parts():
+    mls = shapely.MultiLineString([[(0, 0), (10, 0)], [(20, 0), (30, 0)]])
+    net = build_network(trenches(mls, line((5, -5), (5, 5))))
+    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T1#3", "T2#1", "T2#2"]
+    assert_allclose(net.segments["length_m"], [5.0, 5.0, 10.0, 5.0, 5.0])  # hand
+
+
+def test_segment_ids_are_zero_padded_per_trench():
+    crossings = [line((x, -1), (x, 1)) for x in range(1, 11)]
+    net = build_network(trenches(line((0, 0), (11, 0)), *crossings))
+    ids = net.segments["segment_id"].tolist()
+    assert ids[:11] == [f"T1#{n:02d}" for n in range(1, 12)]
+    assert ids[11:13] == ["T2#1", "T2#2"]
+
+
+def test_attributes_filled_from_defaults():
+    tr = trenches(
+        line((0, 0), (10, 0)),
+        line((10, 0), (20, 0)),
+        depth_m=[1.2, np.nan],
+        laying=["Duct", None],
+        spacing_m=[np.nan, 0.25],
+        soil_k_m_w=[np.nan, 1.0],
+        max_circuits=[6.0, np.nan],
+    )
+    defaults = TrenchDefaults(depth_m=0.8, laying="direct", spacing_m=0.1, soil_k_m_w=1.5)
+    s = build_network(tr, defaults=defaults).segments
+    assert s["depth_m"].tolist() == [1.2, 0.8]
+    assert s["laying"].tolist() == ["duct", "direct"]
+    assert s["spacing_m"].tolist() == [0.1, 0.25]
+    assert s["soil_k_m_w"].tolist() == [1.5, 1.0]
+    assert s["max_circuits"].iloc[0] == 6.0 and math.isnan(s["max_circuits"].iloc[1])
+
+
+def test_missing_attribute_columns_use_defaults():
+    tr = gpd.GeoDataFrame({"id": ["A"]}, geometry=[line((0, 0), (1, 0))], crs=UTM)
+    s = build_network(tr).segments
+    assert (s["depth_m"].iloc[0], s["laying"].iloc[0], s["soil_k_m_w"].iloc[0]) == (
+        0.7,
+        "direct",
+        2.5,
+    )
+
+
+def test_invalid_defaults_list_valid_choices():
+    with pytest.raises(ParameterError, match="'buried' is not one of 'direct', 'duct'"):
+        TrenchDefaults(laying="buried")
+    with pytest.raises(ParameterError) as err:
+        TrenchDefaults(depth_m=0, soil_k_m_w=-1)
+    assert len(err.value.problems) == 2
+
+
+def test_parallel_trenches_graph_keeps_the_shorter():
+    # two trenches join the same two nodes: a straight one (10 m) and a detour (30 m)
+    net = build_network(trenches(line((0, 0), (10, 0)), line((0, 0), (0, 10), (10, 10), (10, 0))))
+    assert net.graph.nnz == 2  # one undirected edge
+    assert net.graph[0, 1] == 10.0
+    assert net.segment_between(np.array([1]), np.array([0])).tolist() == [0]
+
+
+def test_ring_trench_with_a_tap():
+    ring = line((0, 0), (10, 0), (10, 10), (0, 10), (0, 0))
+    net = build_network(trenches(ring), equipment(("rows", "R1", pt(10, 5))))
+    # hand: ring of 40 m cut at its start and at the tap (chainage 15 m)
+    assert_allclose(net.segments["length_m"], [15.0, 25.0])
+    assert net.seg_u[0] == net.seg_v[1]
+
+
+def test_crs_must_be_projected_metres():
+    assert check_metric_crs(pyproj.CRS(UTM)) == []
+    [problem] = check_metric_crs(pyproj.CRS("EPSG:4326"))
+    assert problem.layer == "site" and "not projected in metres" in problem.message
+
+
+# ---- property tests on random grid-like networks -------------------------------------------
+
+
+@st.composite
+def grid_trenches(draw):
+    """Horizontal and vertical trenches on a 10 m lattice, each on its own line."""
+    ys = draw(st.lists(st.integers(0, 8), min_size=1, max_size=6, unique=True))
+    xs = draw(st.lists(st.integers(0, 8), min_size=1, max_size=6, unique=True))
+    geoms = []
+    for y in ys:
+        a, b = sorted(draw(st.tuples(st.integers(0, 8), st.integers(0, 8))))
+        geoms.append(line((a * 10.0, y * 10.0), (b * 10.0 + 5.0, y * 10.0)))
+    for x in xs:
+        a, b = sorted(draw(st.tuples(st.integers(0, 8), st.integers(0, 8))))
+        geoms.append(line((x * 10.0, a * 10.0 - 3.0), (x * 10.0, b * 10.0)))
+    return geoms
+
+
+@settings(max_examples=60, deadline=None)
+@given(grid_trenches())
+def test_noding_matches_shapely_node(geoms):
+    net = build_network(trenches(*geoms))
+    # shapely: GEOS noding of the same lines is the outside reference
+    noded = shapely.get_parts(shapely.node(shapely.MultiLineString(geoms)))
+    assert len(net.segments) == len(noded)
+    assert_allclose(
+        np.sort(net.segments["length_m"]), np.sort(shapely.length(noded)), rtol=0, atol=1e-9
+    )
+    assert_allclose(net.segments["length_m"].sum(), sum(g.length for g in geoms), atol=1e-9)
+    # each segment's length is its geometry's, and its ends are its nodes
+    geo = np.asarray(net.segments.geometry.array)
+    assert_allclose(net.segments["length_m"], shapely.length(geo), rtol=0, atol=0)
+    start = shapely.get_coordinates(shapely.get_point(geo, 0))
+    assert_allclose(start, net.node_xy[net.seg_u], atol=0)
+
+
+@settings(max_examples=60, deadline=None)
+@given(grid_trenches())
+def test_islands_match_networkx(geoms):
+    net = build_network(trenches(*geoms))
+    g = nx.MultiGraph()
+    g.add_nodes_from(range(net.n_nodes))
+    g.add_edges_from(zip(net.seg_u.tolist(), net.seg_v.tolist(), strict=True))
+    # networkx: connected components of the same segments
+    assert len(set(net.node_island.tolist())) == nx.number_connected_components(g)
+    # shapely: lines that touch form the islands (union of lines, parts of the merged result)
+    merged = shapely.get_parts(shapely.line_merge(shapely.union_all(geoms)))
+    groups = nx.Graph()
+    groups.add_nodes_from(range(len(merged)))
+    tree = shapely.STRtree(merged)
+    i, j = tree.query(merged, predicate="intersects")
+    groups.add_edges_from(zip(i.tolist(), j.tolist(), strict=True))
+    assert nx.number_connected_components(groups) == len(set(net.node_island.tolist()))
