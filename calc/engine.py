@@ -355,7 +355,7 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
         ("seg_laying must be 0 (direct) or 1 (duct)", (lay != 0) & (lay != 1)),
         ("seg_spacing_m must be >= 0", ~(a["seg_spacing_m"] >= 0)),
         ("seg_soil_k_m_w must be > 0", ~(a["seg_soil_k_m_w"] > 0)),
-        ("seg_count must be >= 1", ~(a["seg_count"] >= 1)),
+        ("seg_count must be >= 0", ~(a["seg_count"] >= 0)),
         (
             "seg_depth_m must exceed half the cable/duct diameter",
             ~(a["seg_depth_m"] > np.where(lay == 1, design.duct_od_m, design.cable_od_m) / 2),

@@ -7,12 +7,13 @@ Layout (local metres, x east, y north, then converted to WGS 84 lon/lat GeoJSON)
 
 - two blocks (W, E), each 4 columns × 7 fixed-tilt tables; a table is a 2-in-portrait
   polygon 62 m × 4.6 m carrying 4 strings of 27 modules; pitch 9 m;
-- one combiner per column (7 tables = 28 strings, max_strings 32); two tables are left
-  without ``to`` so the planner assigns them;
-- a trench lateral along the east end of each column, joined at the south by a block branch
-  and at the north by a block ring (so routes have competing paths);
-- one inverter pad per block on its branch, a spine south of both blocks to the substation
-  (the grid point); the spine crosses an access road in duct.
+- one combiner per column, 1 m west of its lateral at mid-column (7 tables = 28 strings,
+  max_strings 32); two tables are left without ``to`` so the planner assigns them;
+- a trench lateral along the east end of each column, joined at the north by a block ring
+  (so routes have competing paths); the array cable leaves the combiner by its own trench
+  to the block branch;
+- one inverter pad per block on a drop trench south of its branch; the drop continues in duct
+  to the block's LV/MV transformer station (the grid point of that block's AC circuit).
 """
 
 from __future__ import annotations
@@ -36,9 +37,9 @@ LATERAL_OFFSET_M = 3.0  # lateral trench 3 m east of the tables' east edge
 BLOCK_X0_M = {"W": 0.0, "E": 300.0}
 BRANCH_Y_M = -8.0  # block branch trench, south of the first table
 RING_Y_M = (ROWS_PER_COLUMN - 1) * PITCH_M + ROW_DEPTH_M + 4.0  # block ring trench, north
-SPINE_Y_M = -40.0
-SUBSTATION = (640.0, -55.0)
-ROAD_X_M = (270.0, 285.0)  # access road crossed by the spine (duct)
+COMBINER_Y_M = 3.5 * PITCH_M  # combiners at mid-column, between tables 4 and 5
+LATERAL_SOUTH_Y_M = -2.0  # laterals stop south of the first table; arrays leave by their own trench
+DROP_END_Y_M = -28.0  # the drop trench ends at the transformer station
 UNASSIGNED = {"W2-R4", "E3-R6"}  # tables left for the planner to assign
 
 _to_lonlat = Transformer.from_crs(UTM, "EPSG:4326", always_xy=True)
@@ -71,7 +72,7 @@ def collection(name: str, feats: list[dict]) -> dict:
 
 
 def build() -> dict[str, dict]:
-    rows, combiners, trenches, inverters = [], [], [], []
+    rows, combiners, trenches, inverters, grid = [], [], [], [], []
     for block, bx in BLOCK_X0_M.items():
         lateral_xs = []
         for c in range(COLUMNS_PER_BLOCK):
@@ -88,11 +89,11 @@ def build() -> dict[str, dict]:
                     props["to"] = cb
                 rows.append(feature(polygon(x0, y0, x1, y0 + ROW_DEPTH_M), **props))
             combiners.append(
-                feature(point(lx + 1.5, BRANCH_Y_M + 2.0), id=cb, to=f"INV-{block}", max_strings=32)
+                feature(point(lx - 1.0, COMBINER_Y_M), id=cb, to=f"INV-{block}", max_strings=32)
             )
             trenches.append(
                 feature(
-                    line((lx, BRANCH_Y_M), (lx, RING_Y_M)),
+                    line((lx, LATERAL_SOUTH_Y_M), (lx, RING_Y_M)),
                     id=f"T-{block}{c + 1}",
                     depth_m=0.7,
                     laying="direct",
@@ -100,10 +101,19 @@ def build() -> dict[str, dict]:
                     max_circuits=32,
                 )
             )
+            trenches.append(
+                feature(
+                    line((lx, COMBINER_Y_M), (lx + 1.5, COMBINER_Y_M), (lx + 1.5, BRANCH_Y_M)),
+                    id=f"T-{block}{c + 1}-A",
+                    depth_m=0.8,
+                    laying="direct",
+                    spacing_m=0.07,
+                )
+            )
         first, last = lateral_xs[0], lateral_xs[-1]
         trenches.append(
             feature(
-                line((bx - 5.0, BRANCH_Y_M), (last, BRANCH_Y_M)),
+                line((bx - 5.0, BRANCH_Y_M), (last + 5.0, BRANCH_Y_M)),
                 id=f"T-{block}-BR",
                 depth_m=0.8,
                 laying="direct",
@@ -120,62 +130,39 @@ def build() -> dict[str, dict]:
                 polygon(pad_x - 3.0, BRANCH_Y_M - 9.0, pad_x + 3.0, BRANCH_Y_M - 5.5),
                 id=f"INV-{block}",
                 ac_kva=1600.0,
-                ac_v=630.0,
+                ac_v=800.0,
                 phases=3,
                 pf=1.0,
-                to="SUB-1",
+                to=f"TX-{block}",
             )
         )
         trenches.append(
             feature(
-                line((pad_x, BRANCH_Y_M), (pad_x, SPINE_Y_M)),
+                line((pad_x, BRANCH_Y_M), (pad_x, BRANCH_Y_M - 11.0)),
                 id=f"T-{block}-DROP",
                 depth_m=0.9,
                 laying="direct",
-                spacing_m=0.25,
+                spacing_m=0.07,
             )
         )
-    x_w = BLOCK_X0_M["W"] + 1.5 * COLUMN_STEP_M
-    sx, sy = SUBSTATION
-    trenches.append(
-        feature(
-            line((x_w, SPINE_Y_M), (ROAD_X_M[0], SPINE_Y_M)),
-            id="T-SPINE-1",
-            depth_m=1.0,
-            laying="direct",
-            spacing_m=0.25,
-            soil_k_m_w=1.2,
-            max_circuits=6,
+        trenches.append(
+            feature(
+                line((pad_x, BRANCH_Y_M - 11.0), (pad_x, DROP_END_Y_M)),
+                id=f"T-{block}-TX",
+                depth_m=0.9,
+                laying="duct",
+                spacing_m=0.25,
+                soil_k_m_w=1.2,
+                max_circuits=12,
+            )
         )
-    )
-    trenches.append(
-        feature(
-            line((ROAD_X_M[0], SPINE_Y_M), (ROAD_X_M[1], SPINE_Y_M)),
-            id="T-ROAD-X",
-            depth_m=1.2,
-            laying="duct",
-            spacing_m=0.25,
-            max_circuits=6,
-        )
-    )
-    trenches.append(
-        feature(
-            line((ROAD_X_M[1], SPINE_Y_M), (sx - 6.0, SPINE_Y_M), (sx - 6.0, sy + 4.0)),
-            id="T-SPINE-2",
-            depth_m=1.0,
-            laying="direct",
-            spacing_m=0.25,
-            soil_k_m_w=1.2,
-            max_circuits=6,
-        )
-    )
-    grid = [feature(point(sx, sy), id="SUB-1")]
+        grid.append(feature(point(pad_x + 1.0, DROP_END_Y_M - 2.0), id=f"TX-{block}"))
     return {
         "rows": collection("rows", rows),
         "combiners": collection("combiners", combiners),
         "inverters": collection("inverters", inverters),
         "trenches": collection("trenches", trenches),
-        "substation": collection("grid", grid),
+        "transformers": collection("grid", grid),
     }
 
 

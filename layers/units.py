@@ -33,9 +33,7 @@ SUFFIX_UNITS: dict[str, str] = {
 def _registry():  # pint is imported lazily: only config parsing needs it
     import pint
 
-    reg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
-    reg.define("VA = V * A")
-    return reg
+    return pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
 
 
 def unit_of(key: str) -> str | None:

@@ -15,6 +15,7 @@ import layers
 from layers import Problem, Site, SiteError
 
 from .config import DesignConfig, parse_design
+from .errors import RoutingError
 
 
 @dataclass(frozen=True)
@@ -55,8 +56,19 @@ def _config_only(root: Path) -> dict:
 
 
 def check_site(path: Path | str) -> CheckReport:
-    """Validate the site at ``path`` (files, geometry, attributes, design settings)."""
+    """Validate the site at ``path``: files, geometry, attributes, design settings, and the
+    trench network (far equipment, islands, unreachable destinations, assignment).
+
+    Raises :class:`layers.SiteError` or :class:`routeplan.errors.RoutingError` with every
+    problem found.
+    """
+    from .pipeline import route_params
+    from .routing import check_network
+
     site, design = load(path)
+    problems = check_network(site, route_params(design))
+    if problems:
+        raise RoutingError(problems)
     counts = {name: len(site.layer(name)) for name in layers.LAYER_NAMES}
     strings = int(site.rows["strings"].sum())
     per_string_kw = {

@@ -91,12 +91,6 @@ MATERIAL_DEFAULT: dict[str, str] = {"string": "Cu", "array": "Cu", "ac": "Al"}
 INSULATION_DEFAULT: dict[str, str] = {"string": "PV", "array": "XLPE", "ac": "XLPE"}
 #: voltage-drop limits, percent (common practice: ≤ 1 % string, ≤ 2 % DC total, ≤ 1 % AC LV)
 DROP_PCT_DEFAULT: dict[str, float] = {"string": 1.0, "array": 1.5, "dc_total": 2.0, "ac": 1.0}
-#: candidate sizes, mm² (PV string cable ≥ 4 mm² is common practice)
-SIZES_MM2_DEFAULT: dict[str, tuple[float, ...]] = {
-    "string": (4.0, 6.0, 10.0),
-    "array": (16, 25, 35, 50, 70, 95, 120, 150, 185, 240, 300, 400),
-    "ac": (16, 25, 35, 50, 70, 95, 120, 150, 185, 240, 300, 400),
-}
 
 ALLOWANCE_KEYS: tuple[Key, ...] = (
     Key("termination_m", 1.0, 0.0, 50.0, note="added per cable end (common practice)"),
@@ -119,7 +113,7 @@ class DesignConfig:
     material: dict[str, str]
     insulation: dict[str, str]
     drop_pct: dict[str, float]
-    sizes_mm2: dict[str, tuple[float, ...]]
+    sizes_mm2: dict[str, tuple[float, ...]]  # only kinds set in site.toml; else the rule set's
     allowances: dict[str, float]
     defaulted: tuple[str, ...] = field(default=())
 
@@ -186,7 +180,7 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
                 f"{drop['string']:g} % exceeds dc_total {drop['dc_total']:g} %",
             )
         )
-    sizes = dict(SIZES_MM2_DEFAULT)
+    sizes: dict[str, tuple[float, ...]] = {}
     for key, value in (design.get("sizes_mm2", {}) or {}).items():
         where = f"design.sizes_mm2.{key}"
         if key not in KINDS:

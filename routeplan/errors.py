@@ -6,7 +6,9 @@ Hierarchy::
     ├── NotConnectedError   equipment farther than ``snap_m`` from every trench, or no trench
     ├── UnreachableError    a circuit's two ends join separate islands of the trench network
     ├── AssignmentError     a missing ``to`` could not be filled, or a ``to`` names no feature
-    └── ParameterError      a routing parameter is out of range or not one of the valid choices
+    ├── ParameterError      a routing parameter is out of range or not one of the valid choices
+    └── DesignError         the design settings cannot be applied by the rule set (e.g. a
+                            candidate size its tables do not cover)
 
 Routing collects the problems of every step before raising, so one run reports all of them.
 When they are of several kinds, the base :class:`RoutingError` is raised with all of them.
@@ -22,6 +24,7 @@ from layers.errors import Problem
 
 __all__ = [
     "AssignmentError",
+    "DesignError",
     "NotConnectedError",
     "ParameterError",
     "Problem",
@@ -55,6 +58,10 @@ class AssignmentError(RoutingError):
 
 class ParameterError(RoutingError, ValueError):
     """A routing parameter is out of range or not one of the valid choices."""
+
+
+class DesignError(RoutingError):
+    """The design settings cannot be applied by the chosen rule set."""
 
 
 def raise_for(found: Sequence[tuple[type[RoutingError], Problem]]) -> None:

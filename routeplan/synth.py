@@ -29,7 +29,11 @@ invented origin.
   blocks north and south of it; each column's branch runs from the ring on one side to the
   ring on the other, crossing the spine; a *ring* trench along the perimeter road joins the
   branch ends and the spine's ends, so every route has a competing path. A lead from the
-  spine's west (or south) end reaches the substation, the grid point.
+  spine's west (or south) end reaches the substation (the medium-voltage collection that
+  would use it is outside the LV cable schedule).
+- **Grid points**: each inverter skid feeds its own LV/MV transformer station, a grid point
+  ``TX_GAP_M`` beyond the end of its pad along the corridor (typical, common practice: the
+  LV AC run from a central inverter to its transformer is short).
 - Trenches are drawn split at every junction (crossings and T-junctions are shared end
   points); the rows and the equipment are not: the router taps them onto the laterals and
   the branches, which splits those into many segments.
@@ -89,7 +93,7 @@ COLUMN_GAP_M = 10.0  # road between block columns
 ROAD_HALF_M = 8.0  # half width of the main road strip; the spine runs on its centre line
 RING_MARGIN_M = 10.0  # perimeter road: ring trench to the outermost rows
 LEAD_M = 50.0  # spine end to the substation fence
-GRID_OFFSET_M = 5.0  # lead end to the grid point
+TX_GAP_M = 5.0  # inverter pad end to its transformer station (the grid point)
 PAD_LENGTH_M, PAD_WIDTH_M = 12.0, 2.5  # inverter skid pad footprint
 PAD_OFFSET_M = 3.5  # pad centre line to the branch trench
 MODULE_GAP_M = 0.02  # clearance between neighbouring modules on a row
@@ -619,13 +623,16 @@ def synth_site(
         *tile(blk.pad_a - pad[0], blk.pad_c - pad[1]), *tile(blk.pad_a + pad[0], blk.pad_c + pad[1])
     )
     trench_geom = _lines(*xy(segs[:, 0], segs[:, 1]), *xy(segs[:, 2], segs[:, 3]))
-    grid_geom = shapely.points(*xy([0.0], [p.left - LEAD_M - GRID_OFFSET_M]))
+    grid_geom = shapely.points(
+        np.column_stack(tile(blk.pad_a + PAD_LENGTH_M / 2 + TX_GAP_M, blk.pad_c))
+    )
 
-    # ids and references: R<block>-<row>, CB<block>-<n>, INV<block>, SUB1, T<kind><n>
+    # ids and references: R<block>-<row>, CB<block>-<n>, INV<block>, TX<block>, T<kind><n>
     nr, nc = len(blk.row_c), len(blk.comb_c)
     wb = max(3, len(str(nb)))
     inv_ids = _ids("INV", np.arange(1, nb + 1), wb)
     block_ids = [i[3:] for i in inv_ids]
+    tx_ids = [f"TX{b}" for b in block_ids]
     comb_ids = [
         f"CB{b}-{k}" for b in block_ids for k in _ids("", np.arange(1, nc + 1), len(str(nc)))
     ]
@@ -679,7 +686,7 @@ def synth_site(
                 "ac_kva": np.full(nb, ac_kva),
                 "ac_v": np.full(nb, d.ac_v),
                 "phases": np.full(nb, 3),
-                "to": "SUB1",
+                "to": tx_ids,
             },
             geometry=pad_geom,
             crs=crs,
@@ -698,7 +705,7 @@ def synth_site(
             geometry=trench_geom,
             crs=crs,
         ),
-        "grid": gpd.GeoDataFrame({"id": ["SUB1"]}, geometry=grid_geom, crs=crs),
+        "grid": gpd.GeoDataFrame({"id": tx_ids}, geometry=grid_geom, crs=crs),
     }
     if geographic:
         to_geo = pyproj.Transformer.from_crs(PROJECTED_CRS, GEOGRAPHIC_CRS, always_xy=True)

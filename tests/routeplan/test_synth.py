@@ -72,6 +72,7 @@ def test_references_ids_and_combiner_capacity(site20):
     assert set(f["rows"]["to"]) <= set(f["combiners"]["id"])
     assert set(f["combiners"]["to"]) <= set(f["inverters"]["id"])
     assert set(f["inverters"]["to"]) == set(f["grid"]["id"])
+    assert f["inverters"]["to"].is_unique  # each skid feeds its own transformer station
     load = f["rows"].groupby("to")["strings"].sum()
     cap = f["combiners"].set_index("id")["max_strings"]
     assert (load <= cap[load.index]).all()
@@ -235,7 +236,7 @@ def test_read_site_accepts_the_synthetic_site(tmp_path, fmt, geographic, mount):
         info.combiners,
         info.inverters,
         info.trenches,
-        1,
+        info.inverters,  # one transformer station (grid point) per inverter skid
     ]
     assert int(site.rows["strings"].sum()) == info.strings
     assert site.rows["to"].isna().sum() == 2

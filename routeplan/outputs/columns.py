@@ -1,0 +1,107 @@
+"""Output columns: names (the contract), units, number formats and descriptions.
+
+One table serves the CSV writers (fixed decimals, so reruns are byte-identical), the XLSX
+writer (units in the column titles) and the docs. The first columns of each table are the
+contract (README, "Outputs"); more columns follow them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Col:
+    """One output column: name, unit (for titles), decimals (None = text/integer), meaning."""
+
+    name: str
+    unit: str = ""
+    decimals: int | None = None
+    doc: str = ""
+
+    @property
+    def title(self) -> str:
+        """Column title with its unit, for spreadsheets: ``route_m [m]``."""
+        return f"{self.name} [{self.unit}]" if self.unit else self.name
+
+
+CIRCUIT_COLUMNS: tuple[Col, ...] = (
+    Col("circuit_id", doc="stable circuit id: <row>/S<k>, A:<combiner>, AC:<inverter>"),
+    Col("kind", doc="string, array or ac"),
+    Col("from_id", doc="source feature id"),
+    Col("to_id", doc="destination feature id"),
+    Col("material", doc="conductor material, Cu or Al"),
+    Col("size_mm2", "mm²", 1, "conductor cross-section per conductor"),
+    Col("parallel", doc="conductors in parallel per pole/phase"),
+    Col("route_m", "m", 2, "routed length: stubs + trench segments"),
+    Col("cable_m", "m", 2, "cable length per conductor, allowances included"),
+    Col("trench_segments", doc="';'-separated trench segment ids, in route order"),
+    Col("group_max", doc="most circuits sharing one trench segment on the route"),
+    Col("design_current_a", "A", 2, "current the cable must carry (IEC 62548 / rated AC)"),
+    Col("ampacity_base_a", "A", 1, "tabulated capacity of one conductor at the governing stretch"),
+    Col("derating", "", 3, "product of the correction factors at the governing stretch"),
+    Col("ampacity_a", "A", 1, "governing derated capacity of the installed conductors"),
+    Col("utilisation", "", 3, "design_current_a / ampacity_a"),
+    Col("vdrop_v", "V", 2, "voltage drop at operating current"),
+    Col("vdrop_pct", "%", 3, "voltage drop, % of the circuit's operating voltage"),
+    Col("vdrop_total_pct", "%", 3, "cumulative DC drop string→inverter; the AC circuit's own"),
+    Col("loss_w", "W", 1, "I²R loss at operating current"),
+    Col("status", doc="ok or fail"),
+    Col("note", doc="why a circuit fails, and other remarks"),
+    # -- beyond the contract
+    Col("insulation", doc="insulation: PV (EN 50618), XLPE or PVC"),
+    Col("conductors", doc="conductors in the circuit (poles/phases × parallel)"),
+    Col("stub_m", "m", 2, "straight stubs from equipment to the trench network"),
+    Col("row_run_m", "m", 2, "string cable along its row (air)"),
+    Col("operating_current_a", "A", 2, "Imp × strings (DC) or rated current (AC)"),
+    Col("voltage_v", "V", 1, "reference voltage for vdrop_pct"),
+    Col("conductor_temp_c", "°C", 1, "conductor temperature used for resistance (drop, loss)"),
+    Col("power_factor", "", 3, "cos φ of AC circuits"),
+    Col("governing", doc="where capacity governs: a trench segment id, or air"),
+    Col("factor_temp", "", 3, "ambient/ground temperature factor at the governing stretch"),
+    Col("factor_soil", "", 3, "soil resistivity factor"),
+    Col("factor_depth", "", 3, "depth factor"),
+    Col("factor_group", "", 3, "grouping factor"),
+    Col("group_count", doc="circuits grouped at the governing stretch (parallels included)"),
+    Col("fuse_a", "A", 0, "string fuse rating where protection is required"),
+    Col("loss_pct", "%", 3, "loss, % of the circuit's power"),
+    Col("energy_loss_kwh", "kWh", 0, "annual energy-loss estimate (equivalent loss hours)"),
+    Col("marking", doc="conductor identification colours"),
+)
+
+SEGMENT_COLUMNS: tuple[Col, ...] = (
+    Col("segment_id", doc="<trench id>#<n>, numbered along the trench"),
+    Col("trench_id", doc="trench feature id"),
+    Col("length_m", "m", 2, "segment length"),
+    Col("circuits", doc="circuits in the segment (parallels counted)"),
+    Col("strings", doc="string circuits"),
+    Col("arrays", doc="array circuits"),
+    Col("ac", doc="AC circuits"),
+    Col("max_circuits", doc="capacity of the trench; empty = none set"),
+    Col("fill", "", 3, "cable_sets / max_circuits"),
+    Col("status", doc="ok or over (over capacity)"),
+    Col("circuit_ids", doc="';'-separated circuit ids"),
+    # -- beyond the contract
+    Col("depth_m", "m", 2, "laying depth"),
+    Col("laying", doc="direct or duct"),
+    Col("spacing_m", "m", 3, "clear distance between circuits"),
+    Col("soil_k_m_w", "K·m/W", 2, "soil thermal resistivity"),
+    Col("group_factor", "", 3, "grouping factor in force for the segment's cable sets"),
+    Col("cable_sets", doc="circuits counting each parallel set; used for grouping and fill"),
+)
+
+QUANTITY_COLUMNS: tuple[Col, ...] = (
+    Col("item", doc="cable, trench, termination or fuse"),
+    Col("kind", doc="circuit kind (cable, termination)"),
+    Col("material"),
+    Col("size_mm2", "mm²", 1),
+    Col("laying", doc="trench laying (trench)"),
+    Col("depth_m", "m", 2, "trench depth (trench)"),
+    Col("quantity", "", 2, "metres (cable, trench) or count"),
+    Col("unit", doc="m or pcs"),
+)
+
+
+def names(cols: tuple[Col, ...]) -> list[str]:
+    """The column names, in order."""
+    return [c.name for c in cols]

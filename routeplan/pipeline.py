@@ -1,0 +1,472 @@
+"""The plan pipeline: read → validate → route → size → tables.
+
+:func:`plan` returns a :class:`Plan` holding every result in memory; writers in
+:mod:`routeplan.outputs` turn it into files. The pipeline only moves data between the
+packages: geometry and graphs come from :mod:`routeplan.routing`, electrical rules from
+:mod:`calc` (which receives plain arrays), files from :mod:`layers`.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+
+import calc
+from layers import Site
+
+from . import CAUTION, __version__
+from .check import load
+from .config import DesignConfig
+from .errors import DesignError, Problem
+from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
+
+KIND_CODE = {"string": calc.KIND_STRING, "array": calc.KIND_ARRAY, "ac": calc.KIND_AC}
+#: current-carrying conductors of one circuit per parallel set: DC + and −; AC three-phase
+#: L1 L2 L3 (PV inverter outputs are commonly three-wire, no neutral — common practice);
+#: single-phase L and N. Protective conductors are not counted.
+POLES = {"dc": 2, "ac3": 3, "ac1": 2}
+_EPS = 1e-9
+
+
+@dataclass
+class Plan:
+    """Everything one run of the pipeline produced (SI units, unit in every column name)."""
+
+    site: Site
+    design: DesignConfig
+    routes: RoutePlan
+    sizing: calc.SizingResult
+    circuits: gpd.GeoDataFrame
+    segments: gpd.GeoDataFrame
+    quantities: pd.DataFrame
+    summary: dict[str, Any]
+    timings_s: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def ok(self) -> bool:
+        """True when every circuit and every trench segment meets its limits."""
+        return bool(
+            (self.circuits["status"] == "ok").all() and (self.segments["status"] == "ok").all()
+        )
+
+
+def route_params(design: DesignConfig) -> RouteParams:
+    """Routing parameters from the design settings."""
+    v = design.values
+    return RouteParams(
+        snap_m=v["snap_m"],
+        node_tol_m=v["node_tol_m"],
+        termination_m=design.allowances["termination_m"],
+        slack_pct=design.allowances["slack_pct"],
+        row_run_factor=design.allowances["row_run_factor"],
+        trench=TrenchDefaults(
+            depth_m=v["depth_m"],
+            laying=v["laying"],
+            spacing_m=v["spacing_m"],
+            soil_k_m_w=v["soil_k_m_w"],
+            max_circuits=v["max_circuits"],
+        ),
+    )
+
+
+def design_params(design: DesignConfig) -> calc.DesignParams:
+    """calc's design parameters from the design settings."""
+    v = design.values
+    unset = lambda x: None if isinstance(x, float) and math.isnan(x) else x  # noqa: E731
+    return calc.DesignParams(
+        ground_temp_c=v["ground_temp_c"],
+        air_temp_c=v["air_temp_c"],
+        row_air_temp_c=v["row_air_temp_c"],
+        material_array=design.material["array"],
+        material_ac=design.material["ac"],
+        insulation_array=design.insulation["array"],
+        insulation_ac=design.insulation["ac"],
+        drop_string_pct=design.drop_pct["string"],
+        drop_array_pct=design.drop_pct["array"],
+        drop_dc_total_pct=design.drop_pct["dc_total"],
+        drop_ac_pct=design.drop_pct["ac"],
+        sizes_string_mm2=design.sizes_mm2.get("string"),
+        sizes_array_mm2=design.sizes_mm2.get("array"),
+        sizes_ac_mm2=design.sizes_mm2.get("ac"),
+        max_parallel=int(v["max_parallel"]),
+        conductor_temp=v["conductor_temp"],
+        power_factor=v["power_factor"],
+        loss_hours_h=v["loss_hours_h"],
+        fault_ka=unset(v["fault_ka"]),
+        clear_s=unset(v["clear_s"]),
+        marking=v["marking"],
+    )
+
+
+def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
+    """The plain arrays calc needs, per circuit and per trench segment.
+
+    String circuits carry their module's data (Vmp × modules per string); an array circuit
+    carries the strings behind it: mean per-string Isc and Imp (so that × strings gives the
+    exact sum for mixed module types) and the lowest string Vmp (conservative for the drop in
+    percent). ``strings_in_parallel`` is the number of strings joined at a string's
+    destination (combiner or inverter input), the basis of the IEC 62548 protection rules.
+    """
+    c = routes.circuits
+    n = len(c)
+    kind = c["kind"].map(KIND_CODE).to_numpy(dtype=np.int8)
+    is_s, is_a, is_ac = kind == calc.KIND_STRING, kind == calc.KIND_ARRAY, kind == calc.KIND_AC
+    row_module = dict(zip(site.rows["id"], site.rows["module"], strict=True))
+    mods = site.modules
+
+    isc = np.full(n, np.nan)
+    imp = np.full(n, np.nan)
+    vmp = np.full(n, np.nan)
+    max_fuse = np.full(n, np.nan)
+    from_id = c["from_id"].to_numpy(dtype=object)
+    to_id = c["to_id"].to_numpy(dtype=object)
+    s_idx = np.flatnonzero(is_s)
+    for key, m in mods.items():
+        sel = s_idx[np.array([row_module[r] == key for r in from_id[s_idx]], dtype=bool)]
+        isc[sel], imp[sel] = m.isc_a, m.imp_a
+        vmp[sel], max_fuse[sel] = m.vmp_v * m.per_string, m.max_fuse_a
+
+    # strings joined at each destination, and each string's array circuit
+    strings_at = pd.Series(1, index=to_id[s_idx]).groupby(level=0).sum()
+    n_par = np.ones(n)
+    n_par[s_idx] = strings_at.reindex(to_id[s_idx]).to_numpy()
+    a_idx = np.flatnonzero(is_a)
+    array_of = pd.Series(a_idx, index=from_id[a_idx])
+    parent = np.full(n, -1, dtype=np.int64)
+    parent[s_idx] = array_of.reindex(to_id[s_idx]).fillna(-1).to_numpy(dtype=np.int64)
+
+    n_strings = np.where(is_s, 1, c["strings"].to_numpy(dtype=float))
+    if len(a_idx):
+        child = s_idx[parent[s_idx] >= 0]
+        par = parent[child]
+        sums = pd.DataFrame(
+            {
+                "p": par,
+                "isc": isc[child],
+                "imp": imp[child],
+                "vmp": vmp[child],
+                "fuse": max_fuse[child],
+            }
+        ).groupby("p")
+        agg = sums.agg({"isc": "mean", "imp": "mean", "vmp": "min", "fuse": "min"})
+        isc[agg.index], imp[agg.index] = agg["isc"].to_numpy(), agg["imp"].to_numpy()
+        vmp[agg.index], max_fuse[agg.index] = agg["vmp"].to_numpy(), agg["fuse"].to_numpy()
+        n_strings[agg.index] = sums.size().to_numpy()
+
+    fuse_fixed = np.full(n, np.nan)
+    comb_fuse = dict(zip(site.combiners["id"], site.combiners["fuse_a"], strict=True))
+    fuse_fixed[s_idx] = [comb_fuse.get(t, np.nan) for t in to_id[s_idx]]
+
+    inv = site.inverters.set_index("id")
+    ac_kva = np.full(n, np.nan)
+    ac_v = np.full(n, np.nan)
+    phases = np.full(n, 3, dtype=np.int64)
+    pf = np.full(n, np.nan)
+    ac_idx = np.flatnonzero(is_ac)
+    if len(ac_idx):
+        rows = inv.loc[from_id[ac_idx]]
+        ac_kva[ac_idx] = rows["ac_kva"].to_numpy(dtype=float)
+        ac_v[ac_idx] = rows["ac_v"].to_numpy(dtype=float)
+        phases[ac_idx] = rows["phases"].to_numpy(dtype=np.int64)
+        pf[ac_idx] = rows["pf"].to_numpy(dtype=float)
+
+    seg = routes.segments
+    return calc.SizingInput(
+        kind=kind,
+        cable_m=c["cable_m"].to_numpy(dtype=float),
+        air_m=(c["stub_m"] + c["row_run_m"]).to_numpy(dtype=float),
+        parent=parent,
+        isc_a=isc,
+        imp_a=imp,
+        vmp_v=vmp,
+        n_strings=n_strings,
+        strings_in_parallel=n_par,
+        max_fuse_a=max_fuse,
+        fuse_a=fuse_fixed,
+        ac_kva=ac_kva,
+        ac_v=ac_v,
+        phases=phases,
+        pf=pf,
+        seg_depth_m=seg["depth_m"].to_numpy(dtype=float),
+        seg_laying=(seg["laying"] == "duct").to_numpy(dtype=np.int8),
+        seg_spacing_m=seg["spacing_m"].to_numpy(dtype=float),
+        seg_soil_k_m_w=seg["soil_k_m_w"].to_numpy(dtype=float),
+        seg_count=seg["circuits"].to_numpy(dtype=np.int64),
+        inc_circuit=routes.incidence_circuit,
+        inc_segment=routes.incidence_segment,
+    )
+
+
+def plan(path: Path | str, progress: Callable[[str], None] | None = None) -> Plan:
+    """Run the whole pipeline on the site folder at ``path``.
+
+    ``progress(stage)`` is called as each stage starts (for the CLI's display). Raises
+    :class:`layers.SiteError` / :class:`routeplan.errors.RoutingError` on bad input.
+    """
+    say = progress or (lambda stage: None)
+    t: dict[str, float] = {}
+    t0 = time.perf_counter()
+    say("read and validate")
+    site, design = load(path)
+    t["read_validate"] = time.perf_counter() - t0
+    return plan_site(site, design, progress=say, timings=t)
+
+
+def plan_site(
+    site: Site,
+    design: DesignConfig,
+    progress: Callable[[str], None] | None = None,
+    timings: dict[str, float] | None = None,
+) -> Plan:
+    """Route and size a validated site (see :func:`plan`)."""
+    say = progress or (lambda stage: None)
+    t = timings if timings is not None else {}
+    say("route")
+    t0 = time.perf_counter()
+    routes = route_site(site, route_params(design))
+    t["route"] = time.perf_counter() - t0
+    for k, v in routes.timings_s.items():
+        t[f"route.{k}"] = v
+    say("size")
+    t0 = time.perf_counter()
+    inp = sizing_input(site, routes)
+    try:
+        result = calc.size_circuits(inp, design_params(design), rules=design.values["rules"])
+    except (calc.InputError, calc.UnknownOptionError, calc.TableRangeError) as exc:
+        raise DesignError([Problem("site.toml", "design", str(exc))]) from exc
+    t["size"] = time.perf_counter() - t0
+    say("tables")
+    t0 = time.perf_counter()
+    circuits = circuit_table(routes, result, inp, design)
+    segments = segment_table(routes, result)
+    quantities = quantity_table(circuits, segments, design)
+    summary = summarise(site, design, circuits, segments, result)
+    t["tables"] = time.perf_counter() - t0
+    return Plan(site, design, routes, result, circuits, segments, quantities, summary, t)
+
+
+def circuit_table(
+    routes: RoutePlan, r: calc.SizingResult, inp: calc.SizingInput, design: DesignConfig
+) -> gpd.GeoDataFrame:
+    """The cable schedule: contract columns first (see :mod:`routeplan.outputs.columns`)."""
+    c = routes.circuits
+    seg_ids = routes.segments["segment_id"].to_numpy(dtype=object)
+    final = np.asarray(r.seg_count_final)
+    group_max = np.zeros(len(c), dtype=np.int64)
+    if len(routes.incidence_circuit):
+        np.maximum.at(group_max, routes.incidence_circuit, final[routes.incidence_segment])
+    kind = inp.kind
+    poles = np.where(
+        kind != calc.KIND_AC, POLES["dc"], np.where(inp.phases == 3, POLES["ac3"], POLES["ac1"])
+    )
+    u_ref = np.where(kind == calc.KIND_AC, inp.ac_v, inp.vmp_v)
+    gov = np.asarray(r.governing_segment)
+    governing = np.where(gov >= 0, seg_ids[np.clip(gov, 0, None)] if len(seg_ids) else "", "air")
+    status = np.where(r.ok, "ok", "fail")
+    frame = pd.DataFrame(
+        {
+            "circuit_id": c["circuit_id"].to_numpy(),
+            "kind": c["kind"].to_numpy(),
+            "from_id": c["from_id"].to_numpy(),
+            "to_id": c["to_id"].to_numpy(),
+            "material": r.material,
+            "size_mm2": r.size_mm2,
+            "parallel": r.parallel,
+            "route_m": c["route_m"].to_numpy(),
+            "cable_m": c["cable_m"].to_numpy(),
+            "trench_segments": c["segment_ids"].to_numpy(),
+            "group_max": group_max,
+            "design_current_a": r.design_current_a,
+            "ampacity_base_a": r.ampacity_base_a,
+            "derating": r.derating,
+            "ampacity_a": r.ampacity_a,
+            "utilisation": r.utilisation,
+            "vdrop_v": r.vdrop_v,
+            "vdrop_pct": r.vdrop_pct,
+            "vdrop_total_pct": r.vdrop_total_pct,
+            "loss_w": r.loss_w,
+            "status": status,
+            "note": r.note,
+            "insulation": r.insulation,
+            "conductors": poles * np.asarray(r.parallel),
+            "stub_m": c["stub_m"].to_numpy(),
+            "row_run_m": c["row_run_m"].to_numpy(),
+            "operating_current_a": r.operating_current_a,
+            "voltage_v": u_ref,
+            "conductor_temp_c": r.conductor_temp_c,
+            "power_factor": np.where(kind == calc.KIND_AC, _pf(inp.pf, design), np.nan),
+            "governing": governing,
+            "factor_temp": r.factor_temp,
+            "factor_soil": r.factor_soil,
+            "factor_depth": r.factor_depth,
+            "factor_group": r.factor_group,
+            "group_count": r.group_count,
+            "fuse_a": np.where(r.fuse_required, r.fuse_a, np.nan),
+            "loss_pct": r.loss_pct,
+            "energy_loss_kwh": r.energy_loss_kwh,
+            "marking": r.marking,
+        }
+    )
+    return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
+
+
+def _pf(pf: np.ndarray, design: DesignConfig) -> np.ndarray:
+    return np.where(np.isnan(pf), design.values["power_factor"], pf)
+
+
+def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
+    """The trench schedule: one line per segment. ``cable_sets`` counts a circuit laid as n
+    parallel sets n times — it is the count the grouping factor uses and the one compared with
+    ``max_circuits`` (each set takes a place in the trench)."""
+    s = routes.segments
+    sets = np.asarray(r.seg_count_final, dtype=np.int64)
+    cap = s["max_circuits"].to_numpy(dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        fill = np.where(np.isfinite(cap), sets / cap, np.nan)
+    frame = pd.DataFrame(
+        {
+            "segment_id": s["segment_id"].to_numpy(),
+            "trench_id": s["trench_id"].to_numpy(),
+            "length_m": s["length_m"].to_numpy(),
+            "circuits": s["circuits"].to_numpy(),
+            "strings": s["strings"].to_numpy(),
+            "arrays": s["arrays"].to_numpy(),
+            "ac": s["ac"].to_numpy(),
+            "max_circuits": cap,
+            "fill": fill,
+            "status": np.where(np.isfinite(fill) & (fill > 1 + _EPS), "over", "ok"),
+            "circuit_ids": s["circuit_ids"].to_numpy(),
+            "depth_m": s["depth_m"].to_numpy(),
+            "laying": s["laying"].to_numpy(),
+            "spacing_m": s["spacing_m"].to_numpy(),
+            "soil_k_m_w": s["soil_k_m_w"].to_numpy(),
+            "group_factor": r.seg_group_factor,
+            "cable_sets": sets,
+        }
+    )
+    return gpd.GeoDataFrame(frame, geometry=s.geometry.values, crs=s.crs)
+
+
+def quantity_table(
+    circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignConfig
+) -> pd.DataFrame:
+    """Bill of quantities: cable metres by kind, material and size (× conductors, allowances
+    included), trench metres by laying and depth, terminations (one per conductor end) and
+    string fuses (one per pole of each protected string: unearthed PV arrays are protected in
+    both poles — IEC 62548, from memory)."""
+    c = circuits.assign(
+        cable_total_m=circuits["cable_m"] * circuits["conductors"],
+        ends=2 * circuits["conductors"],
+    )
+    keys = ["kind", "material", "size_mm2"]
+    cable = c.groupby(keys, sort=False)["cable_total_m"].sum().reset_index()
+    cable = cable.assign(item="cable", quantity=cable["cable_total_m"], unit="m")
+    ends = c.groupby(keys, sort=False)["ends"].sum().reset_index()
+    ends = ends.assign(item="termination", quantity=ends["ends"].astype(float), unit="pcs")
+    trench = segments.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
+    trench = trench.assign(item="trench", quantity=trench["length_m"], unit="m")
+    fused = c[np.isfinite(c["fuse_a"].to_numpy(dtype=float))]
+    fuses = fused.groupby("fuse_a").size().reset_index(name="n")
+    fuses = fuses.assign(
+        item="string fuse",
+        kind="string",
+        size_mm2=np.nan,
+        quantity=2.0 * fuses["n"],
+        unit="pcs",
+        material=fuses["fuse_a"].map(lambda a: f"{a:g} A gPV"),
+    )
+    cols = ["item", "kind", "material", "size_mm2", "laying", "depth_m", "quantity", "unit"]
+    out = pd.concat([cable, ends, trench, fuses], ignore_index=True).reindex(columns=cols)
+    order = {"cable": 0, "termination": 1, "trench": 2, "string fuse": 3}
+    kind_order = {"string": 0, "array": 1, "ac": 2}
+    out = out.assign(_i=out["item"].map(order), _k=out["kind"].map(kind_order).fillna(9))
+    out = out.sort_values(
+        ["_i", "_k", "material", "size_mm2", "laying", "depth_m"], na_position="last"
+    )
+    return out.drop(columns=["_i", "_k"]).reset_index(drop=True)
+
+
+def failure_reasons(circuits: pd.DataFrame, design: DesignConfig) -> pd.DataFrame:
+    """Which limit each failing circuit breaks (from the schedule's own numbers):
+    ``capacity`` (design current above derated capacity), ``drop`` (own drop above its kind's
+    limit, or DC total above ``dc_total``), ``other`` (e.g. short-circuit withstand, fuse)."""
+    fail = circuits["status"] == "fail"
+    cap = circuits["design_current_a"] > circuits["ampacity_a"] * (1 + 1e-6)
+    limit = circuits["kind"].map(design.drop_pct)
+    dc = circuits["kind"] != "ac"
+    drop = (circuits["vdrop_pct"] > limit + 1e-6) | (
+        dc & (circuits["vdrop_total_pct"] > design.drop_pct["dc_total"] + 1e-6)
+    )
+    return pd.DataFrame({"capacity": fail & cap, "drop": fail & drop, "other": fail & ~cap & ~drop})
+
+
+def summarise(
+    site: Site,
+    design: DesignConfig,
+    circuits: pd.DataFrame,
+    segments: pd.DataFrame,
+    r: calc.SizingResult,
+) -> dict[str, Any]:
+    """The closing summary as plain data (also written as summary.json)."""
+    kinds = ["string", "array", "ac"]
+    why = failure_reasons(circuits, design)
+    by_kind = {}
+    for k in kinds:
+        m = circuits["kind"] == k
+        by_kind[k] = {
+            "circuits": int(m.sum()),
+            "fail": int((m & (circuits["status"] == "fail")).sum()),
+            "fail_capacity": int((m & why["capacity"]).sum()),
+            "fail_drop": int((m & why["drop"]).sum()),
+            "fail_other": int((m & why["other"]).sum()),
+            "worst_vdrop_pct": _max(circuits.loc[m, "vdrop_pct"]),
+            "worst_utilisation": _max(circuits.loc[m, "utilisation"]),
+            "loss_w": float(circuits.loc[m, "loss_w"].sum()),
+            "energy_loss_kwh": float(circuits.loc[m, "energy_loss_kwh"].sum()),
+        }
+    dc = circuits["kind"] != "ac"
+    metres = (
+        circuits.assign(m=circuits["cable_m"] * circuits["conductors"])
+        .groupby(["material", "size_mm2"])["m"]
+        .sum()
+    )
+    return {
+        "tool": {"name": "routeplan", "version": __version__},
+        "site": {"name": site.name, "crs": site.crs.to_string(), "crs_note": site.crs_note},
+        "rules": design.values["rules"],
+        "ok": bool((circuits["status"] == "ok").all() and (segments["status"] == "ok").all()),
+        "circuits": by_kind,
+        "worst_vdrop_pct": {
+            "string": by_kind["string"]["worst_vdrop_pct"],
+            "array": by_kind["array"]["worst_vdrop_pct"],
+            "dc_total": _max(circuits.loc[dc, "vdrop_total_pct"]),
+            "ac": by_kind["ac"]["worst_vdrop_pct"],
+        },
+        "drop_limits_pct": dict(design.drop_pct),
+        "segments": {
+            "count": len(segments),
+            "over_capacity": int((segments["status"] == "over").sum()),
+            "trench_m": float(segments["length_m"].sum()),
+        },
+        "cable_m": [
+            {"material": mat, "size_mm2": float(size), "metres": round(float(v), 2)}
+            for (mat, size), v in metres.items()
+        ],
+        "cable_m_total": round(float(metres.sum()), 2),
+        "loss_w_total": float(circuits["loss_w"].sum()),
+        "energy_loss_kwh_total": float(circuits["energy_loss_kwh"].sum()),
+        "caution": CAUTION,
+    }
+
+
+def _max(s: pd.Series) -> float | None:
+    v = pd.to_numeric(s, errors="coerce")
+    return None if v.isna().all() else round(float(v.max()), 4)
