@@ -7,7 +7,7 @@ qualified, licensed person.
 __version__ = "0.1.0"
 
 CAUTION = (
-    "Design aid only: cable sizes, voltage drops and trench fills must be checked against "
-    "local codes and the manufacturers' data, and reviewed by a qualified, licensed person "
-    "before construction."
+    "Results are a design aid: cable sizes, voltage drops and trench fills must follow local "
+    "codes and manufacturer data and be checked by a qualified, licensed person before "
+    "construction."
 )

@@ -1,0 +1,99 @@
+"""Text shown on the HTML map: escaping and number formatting with units.
+
+Every string that reaches a tooltip, a label or the panel comes from users' files (ids, notes,
+site names) and is shown, never run. folium does not protect it: its GeoJSON tooltips put
+property values into ``innerHTML``, its plain tooltips and popups paste text into a JavaScript
+template literal, and branca reads rendered scripts again as Jinja templates.
+:func:`escape_text` therefore HTML-escapes, turns the three characters that are live inside a
+template literal (`` ` ``, ``$``, ``\\``) into entities, and the braces too, so that no text
+can open a Jinja ``{{ }}``, ``{% %}`` or ``{# #}``.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+import re
+from collections.abc import Iterable
+
+import numpy as np
+import pandas as pd
+
+#: Shown for a missing value.
+MISSING = "–"
+
+_TEMPLATE_LITERAL = str.maketrans(
+    {"`": "&#96;", "$": "&#36;", "\\": "&#92;", "{": "&#123;", "}": "&#125;"}
+)
+
+
+def escape_text(value: object) -> str:
+    """Text safe to show as HTML, in an attribute, or inside a JavaScript template literal.
+
+    ``None`` and NaN give ``""``; anything else is turned into ``str`` first.
+
+    Examples
+    --------
+    >>> escape_text("<img src=x onerror=alert(1)>")
+    '&lt;img src=x onerror=alert(1)&gt;'
+    >>> escape_text("${alert(1)}`\\\\")
+    '&#36;&#123;alert(1)&#125;&#96;&#92;'
+    >>> escape_text(None), escape_text(float("nan")), escape_text(3)
+    ('', '', '3')
+    """
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    return html.escape(str(value), quote=True).translate(_TEMPLATE_LITERAL)
+
+
+_SPECIAL = re.compile(r"[&<>\"'`$\\{}]")
+
+
+def escape_all(values: Iterable[object]) -> list[str]:
+    """:func:`escape_text` of each value (quicker for the many that need no escape)."""
+    out = []
+    for v in values:
+        if isinstance(v, str) and _SPECIAL.search(v) is None:
+            out.append(v)
+        else:
+            out.append(escape_text(v))
+    return out
+
+
+def fmt_number(values, decimals: int, unit: str = "", *, scale: float = 1.0) -> list[str]:
+    """Numbers as text with a unit; ``MISSING`` for NaN.
+
+    Parameters
+    ----------
+    values : array-like of float
+    decimals : int
+        Digits after the decimal point.
+    unit : str
+        Unit appended after a space (``%`` too, per SI usage); none if empty.
+    scale : float
+        Factor applied first, e.g. 100 to show a fraction in %.
+
+    Examples
+    --------
+    >>> fmt_number([0.873, float("nan")], 0, "%", scale=100)
+    ['87 %', '–']
+    >>> fmt_number([1234.5], 0, "m")
+    ['1,234 m']
+    """
+    v = pd.to_numeric(pd.Series(values), errors="coerce").to_numpy(dtype=float) * scale
+    suffix = f" {unit}" if unit else ""
+    return [MISSING if np.isnan(x) else f"{x:,.{decimals}f}{suffix}" for x in v]
+
+
+def join_limited(items: Iterable[object], limit: int = 8, sep: str = ", ") -> str:
+    """Join at most ``limit`` items, then ``… (+N more)``; items are not escaped.
+
+    Examples
+    --------
+    >>> join_limited(["a", "b", "c"], limit=2)
+    'a, b … (+1 more)'
+    """
+    items = [str(i) for i in items]
+    if len(items) <= limit:
+        return sep.join(items)
+    return sep.join(items[:limit]) + f" … (+{len(items) - limit} more)"

@@ -1,0 +1,536 @@
+"""Unit tests of the HTML map (no browser): colour scales, aggregation, escaping, offline page."""
+
+from __future__ import annotations
+
+import doctest
+import json
+import re
+from html.parser import HTMLParser
+from pathlib import Path
+
+import folium
+import numpy as np
+import pytest
+from branca.colormap import _schemes
+
+from routeplan.outputs import map as rpmap
+from routeplan.outputs import map_elements, map_features, map_panel, map_scales, map_text
+from routeplan.outputs.map import MapError, escape_text, read_output_folder, render_map, write_map
+from routeplan.outputs.map_assets import offline_header
+from routeplan.outputs.map_features import (
+    aggregate_strings,
+    circuit_layers,
+    segment_layers,
+    string_group_layers,
+)
+from routeplan.outputs.map_scales import (
+    FILL,
+    NAN_COLOUR,
+    PROBLEM_COLOUR,
+    UTILISATION,
+    VIRIDIS_20,
+    circuit_weight,
+)
+
+from .map_fixtures import HOSTILE, expected_counts, make_frames, synthetic_frames
+
+# the only URLs in the page without basemap: in Leaflet's code, never fetched
+# (the SVG namespace name and the "Leaflet" link of the attribution control)
+ALLOWED_URLS = {"http://www.w3.org/2000/svg", "https://leafletjs.com"}
+
+
+def lab_lightness(hex_colour: str) -> float:
+    """CIE L* of an sRGB colour (D65), from the sRGB and CIE 1976 formulas."""
+    c = np.array([int(hex_colour[i : i + 2], 16) for i in (1, 3, 5)]) / 255.0
+    lin = np.where(c <= 0.04045, c / 12.92, ((c + 0.055) / 1.055) ** 2.4)
+    y = float(lin @ [0.2126, 0.7152, 0.0722])
+    return 116 * np.cbrt(y) - 16 if y > (6 / 29) ** 3 else y * (29 / 3) ** 3
+
+
+def lab(hex_colour: str) -> np.ndarray:
+    """CIE L*a*b* (D65) of an sRGB colour."""
+    c = np.array([int(hex_colour[i : i + 2], 16) for i in (1, 3, 5)]) / 255.0
+    lin = np.where(c <= 0.04045, c / 12.92, ((c + 0.055) / 1.055) ** 2.4)
+    m = np.array([[0.4124, 0.3576, 0.1805], [0.2126, 0.7152, 0.0722], [0.0193, 0.1192, 0.9505]])
+    xyz = m @ lin / np.array([0.95047, 1.0, 1.08883])
+    f = np.where(xyz > (6 / 29) ** 3, np.cbrt(xyz), xyz * (29 / 6) ** 2 / 3 + 4 / 29)
+    return np.array([116 * f[1] - 16, 500 * (f[0] - f[1]), 200 * (f[1] - f[2])])
+
+
+def render(frames, site, **kwargs) -> str:
+    return render_map(
+        frames["circuits"],
+        frames["segments"],
+        frames["rows"],
+        frames["equipment"],
+        site_name=site,
+        **kwargs,
+    )
+
+
+def layer_data(html: str) -> list[dict]:
+    """The FeatureCollections embedded in the page, in drawing order, with their classes."""
+    out = []
+    pattern = re.compile(r"addData\(JSON\.parse\(\'(.*?)\'\)\);", re.S)
+    classes = re.findall(r'className: "([^"]+)",\s*interactive: (true|false)\n', html)
+    for m, (cls, interactive) in zip(pattern.finditer(html), classes, strict=True):
+        text = m.group(1).replace("\\'", "'").replace("\\\\", "\\")
+        fc = json.loads(text)
+        fc["class"] = cls
+        fc["interactive"] = interactive == "true"
+        out.append(fc)
+    return out
+
+
+def script_elements(html: str) -> tuple[int, int]:
+    """Numbers of <script> start and end tags, as an HTML parser sees them."""
+
+    class Counter(HTMLParser):
+        starts = ends = 0
+
+        def handle_starttag(self, tag, attrs):
+            self.starts += tag == "script"
+
+        def handle_endtag(self, tag):
+            self.ends += tag == "script"
+
+    counter = Counter()
+    counter.feed(html)
+    return counter.starts, counter.ends
+
+
+def data_text(html: str) -> str:
+    """The embedded features as JSON text, decoded."""
+    return json.dumps([fc["features"] for fc in layer_data(html)], ensure_ascii=False)
+
+
+# --------------------------------------------------------------------------------------------
+# colour scales
+
+
+def test_scale_tables_are_the_published_ones():
+    # traceability: the tables in code equal the samples branca ships
+    assert list(map_scales.VIRIDIS_20) == _schemes["viridis"]
+    assert [c.lower() for c in map_scales.BLUES_9] == _schemes["Blues_09"]
+
+
+def test_utilisation_endpoints():
+    assert UTILISATION.colour(0.0) == VIRIDIS_20[15].lower()  # light green
+    assert UTILISATION.colour(1.0) == VIRIDIS_20[0].lower()  # dark purple
+    assert FILL.colour(0.0) == map_scales.BLUES_9[1]
+    assert FILL.colour(1.0) == map_scales.BLUES_9[-1]
+
+
+@pytest.mark.parametrize("scale", [UTILISATION, FILL], ids=["utilisation", "fill"])
+def test_lightness_falls_monotonically(scale):
+    # darker always means more: readable in greyscale print and without hue
+    stops = [lab_lightness(c) for c in scale.stops]
+    assert np.all(np.diff(stops) < -3)  # each stop clearly darker than the one before
+    lightness = [lab_lightness(c) for c in scale.colours(np.linspace(0, 1, 201))]
+    # between stops: 8-bit rounding of the interpolated sRGB may add up to ~0.03 L*
+    assert np.all(np.diff(lightness) < 0.1)
+    assert lightness[0] - lightness[-1] > 50  # a wide range of grey levels
+
+
+@pytest.mark.parametrize("scale", [UTILISATION, FILL], ids=["utilisation", "fill"])
+def test_clamping_and_nan(scale):
+    assert scale.colour(1.7) == scale.colour(1.0)  # overloaded: clamped to the dark end
+    assert scale.colour(-0.3) == scale.colour(0.0)
+    assert scale.colour(float("nan")) == NAN_COLOUR.lower()
+    assert scale.colours([np.inf]).tolist() == [scale.colour(1.0)]
+
+
+def test_scale_is_continuous():
+    # halfway between two stops is the mean of the two
+    n = len(UTILISATION.stops) - 1
+    mid = UTILISATION.colour(0.5 / n)
+    a, b = UTILISATION.stops[0], UTILISATION.stops[1]
+    expected = [round((int(a[i : i + 2], 16) + int(b[i : i + 2], 16)) / 2) for i in (1, 3, 5)]
+    got = [int(mid[i : i + 2], 16) for i in (1, 3, 5)]
+    assert np.allclose(got, expected, atol=1)
+
+
+def test_problem_colour_is_far_from_both_scales():
+    # vermillion is never mistaken for a scale colour (CIE76 distance, "clearly different" > 30)
+    samples = list(UTILISATION.colours(np.linspace(0, 1, 50))) + list(
+        FILL.colours(np.linspace(0, 1, 50))
+    )
+    distances = [np.linalg.norm(lab(PROBLEM_COLOUR) - lab(c)) for c in samples]
+    assert min(distances) > 30
+
+
+def test_circuit_weight_grows_with_cross_section():
+    w = circuit_weight([4, 6, 16, 95, 240, 300, 630], [1, 1, 1, 1, 1, 2, 2])
+    assert np.all(np.diff(w) > 0)
+    assert w[0] == 2.0 and w[-1] == 8.0  # limits
+    assert circuit_weight([np.nan], [1])[0] == 2.0
+
+
+# --------------------------------------------------------------------------------------------
+# escaping
+
+
+@pytest.mark.parametrize(
+    ("raw", "escaped"),
+    [
+        ("<img src=x onerror=alert(1)>", "&lt;img src=x onerror=alert(1)&gt;"),
+        ("${alert(1)}", "&#36;&#123;alert(1)&#125;"),
+        ("a`b", "a&#96;b"),
+        ("a\\b", "a&#92;b"),
+        ("</script>", "&lt;/script&gt;"),
+        ("\"'&", "&quot;&#x27;&amp;"),
+        ("{{ 7*7 }}", "&#123;&#123; 7*7 &#125;&#125;"),
+        ("R1/S1 → CB1 6 mm²", "R1/S1 → CB1 6 mm²"),  # plain text unchanged
+        (None, ""),
+        (float("nan"), ""),
+        (12, "12"),
+    ],
+)
+def test_escape_text(raw, escaped):
+    assert escape_text(raw) == escaped
+    assert map_text.escape_all([raw]) == [escaped]
+
+
+def test_escaped_text_has_no_live_characters():
+    for raw in HOSTILE.values():
+        out = escape_text(raw)
+        assert not set(out) & set("<>\"'`$\\{}"), out
+
+
+def test_every_shown_string_is_escaped():
+    frames, site = make_frames(HOSTILE)
+    html = render(frames, site)
+    for fc in layer_data(html):
+        for feature in fc["features"]:
+            for key, value in feature["properties"].items():
+                if isinstance(value, str):
+                    assert not set(value) & set("<>`$\\{}"), (key, value)
+    # nothing hostile reaches the page raw: not in data, panel or title
+    for raw in HOSTILE.values():
+        assert raw not in html
+    assert "&lt;img src=x onerror=alert(1)&gt;" in data_text(html)  # in the data, escaped
+    assert escape_text(HOSTILE["site"]) in html  # in the panel and title, escaped
+    # the page has the same elements as a harmless one: no text ended a script early
+    plain = render(*make_frames())
+    assert script_elements(html) == script_elements(plain) == (5, 5)
+
+
+def test_template_syntax_in_data_is_not_evaluated():
+    # branca would evaluate Jinja syntax in rendered scripts; ids like these stay text
+    names = {"R1/S1": "{{ 7*7 }}", "CB1": "{% if true %}yes{% endif %}", "site": "{# x #}"}
+    frames, site = make_frames(names)
+    html = render(frames, site)
+    data = data_text(html)
+    assert '"circuit": "&#123;&#123; 7*7 &#125;&#125;"' in data
+    assert '"49"' not in data
+    assert "&#123;% if true %&#125;yes&#123;% endif %&#125;" in data
+    assert "<title>&#123;# x #&#125; – cable routes</title>" in html
+
+
+# --------------------------------------------------------------------------------------------
+# aggregation
+
+
+def test_strings_drawn_one_by_one_up_to_the_threshold(plan_frames):
+    frames, site = plan_frames
+    counts = expected_counts(frames)
+    html = render(frames, site, aggregate_strings_above=counts["strings"])  # 9 strings, not > 9
+    strings = [fc for fc in layer_data(html) if "rp-string" in fc["class"]]
+    assert sum(len(fc["features"]) for fc in strings) == counts["strings"]
+    assert rpmap.LAYER_NAMES["string"] in html
+    assert rpmap.LAYER_NAMES["string_grouped"] not in html
+
+
+def test_strings_aggregated_above_the_threshold(plan_frames):
+    frames, site = plan_frames
+    counts = expected_counts(frames)
+    html = render(frames, site, aggregate_strings_above=counts["strings"] - 1)
+    strings = [fc for fc in layer_data(html) if "rp-string" in fc["class"]]
+    feats = [f for fc in strings for f in fc["features"]]
+    assert len(feats) == counts["rows"]  # one per row (each row feeds one combiner)
+    assert rpmap.LAYER_NAMES["string_grouped"] in html
+    # arrays, AC circuits and segments stay individual
+    by_class = {fc["class"]: len(fc["features"]) for fc in layer_data(html)}
+    assert by_class["rp-circuit rp-array"] == 2
+    assert by_class["rp-circuit rp-ac"] == 1
+    assert by_class["rp-segment"] + by_class["rp-segment rp-over"] == counts["segments"]
+
+
+def test_aggregate_takes_worst_and_sums(plan_frames):
+    frames, _ = plan_frames
+    c = frames["circuits"]
+    agg = aggregate_strings(c[c["kind"] == "string"]).set_index("from_id")
+    assert list(agg.index) == ["R1", "R2", "R3", "R4"]
+    assert agg.loc["R1", "n_strings"] == 3
+    assert agg.loc["R4", "utilisation"] == pytest.approx(0.95)  # worst of the row
+    assert agg.loc["R2", "n_fail"] == 1
+    assert agg.loc["R2", "vdrop_total_pct"] == pytest.approx(3.4)
+    assert "R2/S2" in agg.loc["R2", "failing"]
+    r1 = c[c["from_id"] == "R1"]
+    assert agg.loc["R1", "cable_m"] == pytest.approx(r1["cable_m"].sum())
+    # the longest route of the row is drawn: R1/S1 starts farthest from the combiner
+    assert agg.loc["R1", "geometry"].equals(r1.geometry.iloc[0])
+    assert agg.loc["R1", "conductor"] == "6 mm² Cu"
+
+
+def test_aggregated_layers_colour_by_worst_string(plan_frames):
+    frames, _ = plan_frames
+    c = frames["circuits"]
+    layers = string_group_layers(c[c["kind"] == "string"])
+    assert layers.drawn == 4
+    assert len(layers.fail) == len(layers.casing) == 1  # row R2 holds the failing string
+    ok = layers.ok.features["features"]
+    r4 = next(i for i, f in enumerate(ok) if f["properties"]["row"] == "R4")
+    assert layers.ok.style_of(r4)["color"] == UTILISATION.colour(0.95)
+
+
+def test_large_plan_aggregates_and_switches_to_canvas():
+    frames, site = synthetic_frames(n_blocks=60, rows_per_block=6, strings_per_row=4)
+    n_strings = 60 * 6 * 4
+    html = render(frames, site, aggregate_strings_above=1000)
+    strings = [fc for fc in layer_data(html) if "rp-string" in fc["class"] and fc["interactive"]]
+    assert sum(len(fc["features"]) for fc in strings) == 60 * 6  # one per row
+    assert f"{n_strings:,} strings drawn as one line per row" in html
+    assert '"preferCanvas": false' in html  # few drawn features: SVG
+    big = synthetic_frames(n_blocks=600)[0]
+    html = render(big, site, aggregate_strings_above=1000)
+    assert '"preferCanvas": true' in html  # > CANVAS_ABOVE drawn features
+
+
+def test_size_per_drawn_feature_is_small():
+    # a 1 GW plant has ~55,000 drawn features once strings are aggregated; at < 450 bytes
+    # each the page stays far below 30 MB (measured: 18 MB)
+    frames, site = synthetic_frames(n_blocks=100)
+    html = render(frames, site, aggregate_strings_above=1000)
+    drawn = sum(len(fc["features"]) for fc in layer_data(html) if fc["interactive"])
+    libraries = len(offline_header().encode()) + len(map_elements.PAGE_SCRIPT) + 20_000
+    assert (len(html.encode()) - libraries) / drawn < 450
+
+
+# --------------------------------------------------------------------------------------------
+# layers and the page
+
+
+def test_one_feature_per_drawn_thing(plan_frames):
+    frames, site = plan_frames
+    counts = expected_counts(frames)
+    data = layer_data(render(frames, site))
+    interactive = sum(len(fc["features"]) for fc in data if fc["interactive"])
+    assert interactive == sum(counts[k] for k in ("circuits", "segments", "rows", "equipment"))
+    flags = {fc["class"]: len(fc["features"]) for fc in data if not fc["interactive"]}
+    assert flags == {"rp-fail-casing": counts["fail"], "rp-over-halo": counts["over"]}
+
+
+def test_fail_and_over_capacity_styles(plan_frames):
+    frames, _ = plan_frames
+    c = frames["circuits"]
+    layers = circuit_layers(c[c["kind"] == "string"])
+    fail = layers.fail.style_of(0)
+    assert fail["color"] == PROBLEM_COLOUR and "dashArray" not in fail  # solid: easy to hover
+    casing = layers.casing.style_of(0)
+    assert casing["weight"] > fail["weight"] and casing["dashArray"]
+    assert layers.fail.features["features"][0]["properties"]["note"].startswith("total DC")
+    seg = segment_layers(frames["segments"])
+    assert len(seg.over) == len(seg.halo) == 1
+    assert seg.over.features["features"][0]["properties"]["segment"] == "T1#3"
+    assert seg.halo.style_of(0)["color"] == PROBLEM_COLOUR
+    assert seg.halo.style_of(0)["weight"] > seg.over.style_of(0)["weight"]
+    assert seg.over.style_of(0)["color"] == FILL.colour(1.0)  # 5 / 3 clamped
+
+
+def test_passing_circuits_drawn_lightest_first(plan_frames):
+    frames, _ = plan_frames
+    c = frames["circuits"]
+    ok = circuit_layers(c[c["kind"] == "string"]).ok.features["features"]
+    util = [int(f["properties"]["utilisation"].rstrip(" %")) for f in ok]
+    assert util == sorted(util)  # the most loaded end on top
+
+
+def test_tooltips_carry_units(plan_frames):
+    frames, _ = plan_frames
+    c = frames["circuits"]
+    ok = circuit_layers(c[c["kind"] == "string"]).ok.features["features"]
+    p = next(f["properties"] for f in ok if f["properties"]["circuit"] == "R1/S1")
+    assert p["conductor"] == "6 mm² Cu"
+    assert p["utilisation"] == "15 %"
+    assert p["current"].endswith(" A") and p["ampacity"].endswith(" × 0.70)")
+    assert re.fullmatch(r"[\d.,]+ m / [\d.,]+ m", p["length"])
+    assert re.fullmatch(r"[\d.]+ V \([\d.]+ %\)", p["vdrop"])
+    assert p["loss"].endswith(" W") and p["vdrop_total"].endswith(" %")
+    ac = circuit_layers(c[c["kind"] == "ac"]).ok.features["features"][0]["properties"]
+    assert ac["conductor"] == "2 × 240 mm² Al"
+    seg = segment_layers(frames["segments"]).ok.features["features"]
+    s = next(f["properties"] for f in seg if f["properties"]["segment"] == "T4#1")
+    assert s["capacity"] == "not set" and s["fill"] == "–"
+    assert "circuit_ids" in s and "note" not in s  # empty values are left out
+    assert s["circuits"] == "1 (strings 0, arrays 0, AC 1)"
+    assert s["group_factor"] == "1.00" and s["depth"] == "0.80 m" and s["laying"] == "direct"
+
+
+def test_row_tooltip_shows_strings_and_worst_drop(plan_frames):
+    frames, _ = plan_frames
+    c = frames["circuits"]
+    layer = map_features.row_layer(frames["rows"], c[c["kind"] == "string"])
+    r2 = next(f["properties"] for f in layer.features["features"] if f["properties"]["row"] == "R2")
+    assert r2["strings"] == "2 (2 with a route)"
+    assert r2["worst_drop"] == "3.40 %"
+
+
+def test_coordinates_rounded_to_six_decimals(plan_frames):
+    frames, site = plan_frames
+    for fc in layer_data(render(frames, site)):
+        text = json.dumps(fc["features"])
+        for number in re.findall(r"-?\d+\.\d+", text):
+            assert len(number.split(".")[1]) <= 6, number
+
+
+def test_no_urls_without_basemap(plan_frames):
+    frames, site = plan_frames
+    html = render(frames, site)
+    urls = set(re.findall(r"https?://[^\s\"'<>)\\]+", html))
+    assert urls <= ALLOWED_URLS, urls - ALLOWED_URLS
+    assert "cdn." not in html.lower() and "jsdelivr" not in html
+    assert "L.tileLayer" not in html
+    assert html.count("Leaflet 1.9.3, a JS library") == 1  # inlined once
+    assert "jQuery v3.7.1" in html
+
+
+def test_basemap_adds_only_tiles(plan_frames):
+    frames, site = plan_frames
+    html = render(frames, site, basemap=True)
+    urls = set(re.findall(r"https?://[^\s\"'<>)\\]+", html)) - ALLOWED_URLS
+    assert urls and all("tile.openstreetmap.org" in u or "openstreetmap.org" in u for u in urls)
+    assert "L.tileLayer" in html
+
+
+def test_folium_defaults_untouched(plan_frames):
+    before = list(folium.Map.default_js)
+    frames, site = plan_frames
+    render(frames, site)
+    assert folium.Map.default_js == before
+    assert any("leaflet" in url for _, url in folium.Map.default_js)
+
+
+def test_panel_totals_and_caution(plan_frames):
+    frames, site = plan_frames
+    html = render(frames, site)
+    text = re.sub(r"<[^>]+>", " ", html)
+    text = re.sub(r"\s+", " ", text)
+    assert "9 string · 2 array · 1 AC" in text
+    assert "Failing 1 : R2/S2" in text
+    assert "Worst DC drop, total 3.40 % (R2/S2)" in text
+    assert "Worst AC drop 0.60 % (AC:INV1)" in text
+    assert "1 over capacity" in text
+    assert map_panel.CAUTION in text
+    assert "design aid" in map_panel.CAUTION and "qualified, licensed person" in map_panel.CAUTION
+
+
+def test_plan_totals(plan_frames):
+    frames, _ = plan_frames
+    _, over, _ = map_features.segment_values(frames["segments"])
+    t = map_panel.plan_totals(frames["circuits"], frames["segments"], over)
+    assert t.circuits_by_kind == {"string": 9, "array": 2, "ac": 1}
+    assert t.failing_ids == ["R2/S2"]
+    assert t.over_capacity == 1
+    c = frames["circuits"]
+    assert t.cable_m_by_kind["ac"] == pytest.approx(c.loc[c["kind"] == "ac", "cable_m"].sum())
+    assert t.trench_m == pytest.approx(frames["segments"]["length_m"].sum())
+
+
+def test_segment_without_capacity_scaled_by_busiest(plan_frames):
+    frames, _ = plan_frames
+    t, over, ref = map_features.segment_values(frames["segments"])
+    assert ref == 5  # T1#2 and T1#3 carry 5 circuits
+    i = list(frames["segments"]["segment_id"]).index("T4#1")
+    assert t[i] == pytest.approx(1 / 5)
+    assert over.tolist() == list(frames["segments"]["status"] == "over")
+
+
+# --------------------------------------------------------------------------------------------
+# the output folder
+
+
+def test_write_map_reads_the_folder(plan_dir: Path):
+    dest = write_map(plan_dir)
+    assert dest == plan_dir / "map.html"
+    html = dest.read_text(encoding="utf-8")
+    assert "Demo field" in html
+    assert html.startswith("<!DOCTYPE html>")
+    assert not list(plan_dir.glob(".map.html.*"))  # no temporary file left
+
+
+def test_write_map_dest(plan_dir: Path, tmp_path: Path):
+    dest = write_map(plan_dir, dest=tmp_path / "elsewhere" / "plan.html", basemap=True)
+    assert dest.is_file() and "L.tileLayer" in dest.read_text(encoding="utf-8")
+
+
+def test_read_output_folder(plan_dir: Path):
+    frames, site = read_output_folder(plan_dir)
+    assert site == "Demo field"
+    assert set(frames) == {"circuits", "segments", "rows", "equipment"}
+    assert len(frames["circuits"]) == 12 and frames["circuits"].crs.to_epsg() == 32633
+
+
+def test_missing_folder_or_layer(tmp_path: Path, plan_dir: Path):
+    with pytest.raises(MapError, match=r"routes\.gpkg: not found"):
+        write_map(tmp_path / "nothing")
+    (plan_dir / "summary.json").write_text("{}", encoding="utf-8")
+    with pytest.raises(MapError, match=r"site\.name"):
+        write_map(plan_dir)
+
+
+def test_missing_column_and_crs(plan_frames):
+    frames, site = plan_frames
+    broken = dict(frames, circuits=frames["circuits"].drop(columns="utilisation"))
+    with pytest.raises(MapError, match="circuits: missing column"):
+        render(broken, site)
+    no_crs = dict(frames, rows=frames["rows"].set_crs(None, allow_override=True))
+    with pytest.raises(MapError, match="rows: no CRS"):
+        render(no_crs, site)
+
+
+def test_features_without_geometry_are_counted_not_drawn(plan_frames):
+    frames, site = plan_frames
+    rows = frames["rows"].copy()
+    rows.loc[0, "geometry"] = None
+    html = render(dict(frames, rows=rows), site)
+    assert "1 features without geometry are not drawn" in html
+    rows_fc = next(fc for fc in layer_data(html) if fc["class"] == "rp-row")
+    assert len(rows_fc["features"]) == 3
+
+
+@pytest.mark.parametrize("module", [map_scales, map_text, map_elements, rpmap])
+def test_docstring_examples(module):
+    # routeplan is not in pytest's doctest paths; run the map modules' examples here
+    result = doctest.testmod(module, optionflags=doctest.ELLIPSIS)
+    assert result.failed == 0
+
+
+def test_empty_plan_renders():
+    frames, _ = make_frames()
+    empty = {k: v.iloc[0:0] for k, v in frames.items()}
+    html = render(empty, "Nothing yet")
+    assert "Nothing yet" in html and layer_data(html) == []
+    assert map_panel.CAUTION in html
+
+
+def test_missing_values_are_grey_and_dashes(plan_frames):
+    frames, _ = plan_frames
+    c = frames["circuits"].copy()
+    c.loc[c["circuit_id"] == "R1/S1", ["utilisation", "size_mm2", "ampacity_a"]] = np.nan
+    layers = circuit_layers(c[c["kind"] == "string"])
+    i, p = next(
+        (i, f["properties"])
+        for i, f in enumerate(layers.ok.features["features"])
+        if f["properties"]["circuit"] == "R1/S1"
+    )
+    assert layers.ok.style_of(i) == {"color": NAN_COLOUR.lower(), "weight": 2.0, "opacity": 0.95}
+    assert p["utilisation"] == "–" and p["conductor"] == "– Cu"
+
+
+def test_many_rows_start_hidden_and_lazy(plan_frames, monkeypatch):
+    frames, site = plan_frames
+    monkeypatch.setattr(rpmap, "ROWS_SHOWN_UP_TO", 2)
+    html = render(frames, site)
+    assert html.count('.once("add", function()') == 1  # only the rows wait to be switched on
+    assert "4 module rows: switch them on in the layer list" in html

@@ -1,0 +1,347 @@
+"""The HTML map in a real browser: headless Debian Chromium driven by playwright.
+
+Never ``playwright install``: the browser is Debian's ``chromium`` package. Without it these
+tests skip locally and fail when ``CI=true`` (so CI cannot pass them silently).
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+from pathlib import Path
+
+import pytest
+
+from routeplan.outputs import map as rpmap
+from routeplan.outputs.map import write_map
+from routeplan.outputs.map_scales import PROBLEM_COLOUR, UTILISATION
+from routeplan.outputs.map_text import escape_text
+
+from .map_fixtures import HOSTILE, expected_counts, make_frames, write_output_folder
+
+pytestmark = pytest.mark.browser
+
+ARTIFACTS = Path(__file__).resolve().parents[2] / "tests" / "artifacts"
+CHROMIUM_ARGS = [
+    "--headless",
+    "--no-sandbox",  # tests run as root
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+]
+VIEWPORT = {"width": 1280, "height": 800}
+
+# JavaScript run in the page ---------------------------------------------------------------
+
+MAP_READY = "window[document.querySelector('.folium-map').id] instanceof L.Map"
+
+#: The drawn layer whose property `key` equals `value`: where to point at, and how it is drawn.
+#: Lines: the middle of their first segment (a string's own stub); areas and points: centre.
+FIND_LAYER = """([key, value]) => {
+    const map = window[document.querySelector('.folium-map').id];
+    let found = null;
+    map.eachLayer(l => {
+        if (l.feature && l.feature.properties[key] === value) {
+            found = l;
+        }
+    });
+    if (!found) { return null; }
+    const box = map.getContainer().getBoundingClientRect();
+    let p;
+    if (found instanceof L.CircleMarker) {
+        p = map.latLngToContainerPoint(found.getLatLng());
+    } else if (found instanceof L.Polygon) {
+        p = map.latLngToContainerPoint(found.getBounds().getCenter());
+    } else {
+        const ll = found.getLatLngs();
+        const a = map.latLngToContainerPoint(ll[0]), b = map.latLngToContainerPoint(ll[1]);
+        p = L.point((a.x + b.x) / 2, (a.y + b.y) / 2);
+    }
+    const path = found._path;
+    return {
+        x: box.left + p.x, y: box.top + p.y,
+        stroke: path ? path.getAttribute('stroke') : null,
+        dash: path ? path.getAttribute('stroke-dasharray') : null,
+        d: path ? path.getAttribute('d') : null,
+        cls: path ? path.getAttribute('class') : null,
+    };
+}"""
+
+
+def _chromium() -> str:
+    path = shutil.which("chromium")
+    if path is None:
+        message = "Debian chromium is not installed (apt-get install -y chromium)"
+        if os.environ.get("CI", "").lower() == "true":
+            pytest.fail(message + "; CI must install it", pytrace=False)
+        pytest.skip(message)
+    return path
+
+
+@pytest.fixture(scope="module")
+def browser():
+    chromium = _chromium()
+    try:
+        from playwright.sync_api import sync_playwright
+    except ImportError:
+        if os.environ.get("CI", "").lower() == "true":
+            pytest.fail("the playwright package is not installed", pytrace=False)
+        pytest.skip("the playwright package is not installed")
+    with sync_playwright() as p:
+        b = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
+        yield b
+        b.close()
+
+
+class Page:
+    """A page of the map with everything it reported."""
+
+    def __init__(self, browser, html: Path):
+        self.errors: list[str] = []
+        self.requests: list[str] = []
+        self.failed: list[str] = []
+        self.dialogs: list[str] = []
+        self.page = browser.new_page(viewport=VIEWPORT)
+        pg = self.page
+        pg.on("console", lambda m: self.errors.append(m.text) if m.type == "error" else None)
+        pg.on("pageerror", lambda e: self.errors.append(str(e)))
+        pg.on("request", lambda r: self.requests.append(r.url))
+        pg.on("requestfailed", lambda r: self.failed.append(r.url))
+        pg.on("dialog", self._dialog)
+        pg.goto(html.as_uri())
+        pg.wait_for_function(MAP_READY, timeout=20_000)
+
+    def _dialog(self, dialog) -> None:
+        self.dialogs.append(dialog.message)
+        dialog.dismiss()
+
+    def find(self, key: str, value: str) -> dict:
+        found = self.page.evaluate(FIND_LAYER, [key, escape_text(value)])
+        assert found is not None, f"no drawn layer with {key} = {value!r}"
+        return found
+
+    def hover_tooltip(self, x: float, y: float) -> str:
+        """Point at (x, y) and return the text of the tooltip that opens."""
+        tip = self.page.locator(".leaflet-tooltip")
+        self.page.mouse.move(VIEWPORT["width"] / 2, VIEWPORT["height"] - 5)  # empty map
+        tip.wait_for(state="detached", timeout=5_000)
+        # Leaflet's canvas renderer ignores pointer moves for 32 ms after one it handled
+        self.page.wait_for_timeout(50)
+        self.page.mouse.move(x, y)
+        tip.wait_for(state="visible", timeout=5_000)
+        return tip.inner_text()
+
+    def assert_clean(self) -> None:
+        assert self.errors == []
+        assert self.failed == []
+        assert self.dialogs == []
+        assert all(u.startswith(("file:", "data:")) for u in self.requests), self.requests
+
+    def close(self) -> None:
+        self.page.close()
+
+
+@pytest.fixture(scope="module")
+def demo_html(tmp_path_factory) -> Path:
+    """map.html of the demo plan's output folder (written once for the module)."""
+    frames, site = make_frames()
+    return write_map(write_output_folder(tmp_path_factory.mktemp("demo"), frames, site))
+
+
+@pytest.fixture(scope="module")
+def hostile_html(tmp_path_factory) -> Path:
+    frames, site = make_frames(HOSTILE)
+    return write_map(write_output_folder(tmp_path_factory.mktemp("hostile"), frames, site))
+
+
+@pytest.fixture
+def demo(browser, demo_html: Path):
+    page = Page(browser, demo_html)
+    yield page
+    page.close()
+
+
+@pytest.fixture
+def hostile(browser, hostile_html: Path):
+    page = Page(browser, hostile_html)
+    yield page
+    page.close()
+
+
+def test_opens_offline_without_errors(demo: Page):
+    demo.assert_clean()
+    assert demo.requests and demo.requests[0].startswith("file:")
+    assert demo.page.locator(".leaflet-tile").count() == 0
+
+
+def test_one_interactive_path_per_drawn_thing(demo: Page):
+    frames, _ = make_frames()
+    n = expected_counts(frames)
+    drawn = n["circuits"] + n["segments"] + n["rows"] + n["equipment"]
+    assert demo.page.locator("path.leaflet-interactive").count() == drawn
+    # casings and halos are drawn but not interactive
+    assert demo.page.locator("path.rp-fail-casing").count() == n["fail"]
+    assert demo.page.locator("path.rp-over-halo").count() == n["over"]
+    assert demo.page.locator("path.rp-fail-casing.leaflet-interactive").count() == 0
+    assert demo.page.locator("path.rp-over-halo.leaflet-interactive").count() == 0
+    assert demo.page.locator("path.rp-circuit").count() == n["circuits"]
+    assert demo.page.locator("path.rp-segment").count() == n["segments"]
+    demo.assert_clean()
+
+
+def test_hover_circuit_shows_id_size_and_utilisation(demo: Page):
+    at = demo.find("circuit", "R1/S1")
+    text = demo.hover_tooltip(at["x"], at["y"])
+    assert "R1/S1" in text
+    assert "6 mm² Cu" in text
+    assert "15 %" in text
+    assert "R1 → CB1" in text
+    demo.assert_clean()
+
+
+def test_hover_failing_circuit_shows_reason(demo: Page):
+    at = demo.find("circuit", "R2/S2")
+    assert at["stroke"].lower() == PROBLEM_COLOUR.lower()
+    casing = demo.page.locator("path.rp-fail-casing")
+    assert casing.get_attribute("d") == at["d"]  # its dashed outline
+    assert casing.get_attribute("stroke-dasharray")
+    text = demo.hover_tooltip(at["x"], at["y"])
+    assert "FAIL" in text and "total DC drop 3.40 % > limit 3.00 %" in text
+
+
+def test_light_and_heavy_circuits_differ(demo: Page):
+    light = demo.find("circuit", "R1/S1")  # utilisation 0.15
+    heavy = demo.find("circuit", "R4/S2")  # utilisation 0.95
+    assert light["stroke"] != heavy["stroke"]
+    assert light["stroke"] == UTILISATION.colour(0.15)
+    assert heavy["stroke"] == UTILISATION.colour(0.95)
+
+
+def test_over_capacity_segment_is_flagged(demo: Page):
+    seg = demo.find("segment", "T1#3")
+    halo = demo.page.locator("path.rp-over-halo")
+    assert halo.count() == 1
+    assert halo.get_attribute("d") == seg["d"]  # the halo follows the over-capacity segment
+    assert halo.get_attribute("stroke").lower() == PROBLEM_COLOUR.lower()
+    width = float(halo.get_attribute("stroke-width"))
+    seg_path = demo.page.locator("path.rp-over")
+    assert width > 1.5 * float(seg_path.get_attribute("stroke-width"))
+    # hovering next to the circuits that run along it shows the segment
+    text = demo.hover_tooltip(seg["x"] + 4, seg["y"])
+    assert "T1#3" in text and "OVER CAPACITY" in text and "max 3 circuits" in text
+    assert "Grouping factor" in text and "0.73" in text
+
+
+def test_row_and_equipment_tooltips(demo: Page):
+    row = demo.find("row", "R2")
+    text = demo.hover_tooltip(row["x"], row["y"])
+    assert "R2" in text and "3.40 %" in text  # worst drop of its strings
+    cb = demo.find("equipment", "CB1")
+    text = demo.hover_tooltip(cb["x"], cb["y"])
+    assert "CB1" in text and "combiner" in text
+
+
+def test_panel_shows_totals_and_caution(demo: Page):
+    panel = demo.page.locator("#rp-panel").inner_text()
+    assert "Demo field" in panel
+    assert "9 string · 2 array · 1 AC" in panel
+    assert "design aid" in panel and "qualified, licensed person" in panel
+    legend = demo.page.locator("#rp-legend").inner_text()
+    assert "utilisation" in legend and "over capacity" in legend
+
+
+def test_layer_control_switches_circuit_kinds(demo: Page):
+    n = expected_counts(make_frames()[0])
+    total = demo.page.locator("path.leaflet-interactive").count()
+    demo.page.get_by_label("String circuits").uncheck()
+    assert demo.page.locator("path.leaflet-interactive").count() == total - n["strings"]
+    assert demo.page.locator("path.rp-fail-casing").count() == 0  # the casing goes with it
+    demo.page.get_by_label("String circuits").check()
+    assert demo.page.locator("path.leaflet-interactive").count() == total
+
+
+def test_hostile_text_is_shown_not_run(hostile: Page):
+    hostile.assert_clean()  # no dialog, no error: nothing ran, the map script is whole
+    n = expected_counts(make_frames(HOSTILE)[0])
+    drawn = n["circuits"] + n["segments"] + n["rows"] + n["equipment"]
+    assert hostile.page.locator("path.leaflet-interactive").count() == drawn
+
+    at = hostile.find("circuit", HOSTILE["R1/S1"])
+    text = hostile.hover_tooltip(at["x"], at["y"])
+    assert "<img src=x onerror=alert(1)>" in text
+    assert hostile.page.locator(".leaflet-container img").count() == 0
+
+    row = hostile.find("row", HOSTILE["R2"])
+    assert "${alert(1)}" in hostile.hover_tooltip(row["x"], row["y"])
+
+    cb = hostile.find("equipment", HOSTILE["CB2"])
+    assert "CB`2" in hostile.hover_tooltip(cb["x"], cb["y"])
+
+    seg = hostile.find("segment", HOSTILE["T1#2"])
+    assert HOSTILE["T1#2"] in hostile.hover_tooltip(seg["x"], seg["y"] + 4)
+
+    panel = hostile.page.locator("#rp-panel").inner_text()
+    assert HOSTILE["site"] in panel
+    assert hostile.page.title().startswith(HOSTILE["site"])
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    hostile.page.screenshot(path=str(ARTIFACTS / "map-hostile.png"), animations="disabled")
+    hostile.assert_clean()
+
+
+def test_screenshot(demo: Page):
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    path = ARTIFACTS / "map.png"
+    demo.page.screenshot(path=str(path), animations="disabled")
+    assert path.stat().st_size > 10_000
+
+
+def test_aggregated_strings_in_browser(browser, demo_html: Path, tmp_path: Path):
+    html = write_map(demo_html.parent, aggregate_strings_above=5, dest=tmp_path / "agg.html")
+    page = Page(browser, html)
+    try:
+        n = expected_counts(make_frames()[0])
+        # one line per row instead of one per string
+        drawn = (
+            n["circuits"] - n["strings"] + n["rows"] + n["segments"] + n["rows"] + n["equipment"]
+        )
+        assert page.page.locator("path.leaflet-interactive").count() == drawn
+        # the line of row R4's strings has the colour of its worst string
+        line = page.find("between", "R4 → CB2")
+        assert line["stroke"] == UTILISATION.colour(0.95)
+        assert "rp-string" in line["cls"]
+        page.assert_clean()
+    finally:
+        page.close()
+
+
+def test_hidden_rows_are_made_when_switched_on(browser, demo_html: Path, tmp_path, monkeypatch):
+    # large plants start with the rows switched off and make them only when asked
+    monkeypatch.setattr(rpmap, "ROWS_SHOWN_UP_TO", 2)
+    page = Page(browser, write_map(demo_html.parent, dest=tmp_path / "rows.html"))
+    try:
+        rows = page.page.locator("path.rp-row")
+        assert rows.count() == 0
+        page.page.get_by_label(rpmap.LAYER_NAMES["rows"]).check()
+        assert rows.count() == expected_counts(make_frames()[0])["rows"]
+        row = page.find("row", "R2")
+        assert "3.40 %" in page.hover_tooltip(row["x"], row["y"])
+        page.assert_clean()
+    finally:
+        page.close()
+
+
+def test_canvas_map_for_large_plants(browser, demo_html: Path, tmp_path, monkeypatch):
+    # above CANVAS_ABOVE drawn features the map draws on a canvas; tooltips still work
+    monkeypatch.setattr(rpmap, "CANVAS_ABOVE", 0)
+    page = Page(browser, write_map(demo_html.parent, dest=tmp_path / "canvas.html"))
+    try:
+        assert page.page.locator("path.leaflet-interactive").count() == 0
+        assert page.page.locator("canvas").count() >= 1
+        at = page.find("circuit", "R1/S1")
+        text = page.hover_tooltip(at["x"], at["y"])
+        assert "R1/S1" in text and "15 %" in text
+        page.assert_clean()
+    finally:
+        page.close()
