@@ -14,9 +14,12 @@ import typer
 from rich.console import Console
 from rich.table import Table
 
-from layers import LayerError, SiteError
+from layers import LayerError
 
 from . import CAUTION, __version__
+from .errors import RoutingError
+
+InputError = (LayerError, RoutingError)
 
 app = typer.Typer(
     add_completion=False,
@@ -27,7 +30,7 @@ out = Console(highlight=False, soft_wrap=True)
 err = Console(stderr=True, highlight=False, soft_wrap=True)
 
 
-def _fail_input(exc: LayerError) -> None:
+def _fail_input(exc: Exception) -> None:
     problems = getattr(exc, "problems", None) or [exc]
     for p in problems:
         err.print(f"error: {p}", markup=False)
@@ -54,7 +57,7 @@ def check(
 
     try:
         report = check_site(site)
-    except LayerError as exc:
+    except InputError as exc:
         _fail_input(exc)
         return
     s = report.site
@@ -100,6 +103,210 @@ def check(
     for note in report.notes:
         out.print(f"note     {note}", markup=False)
     out.print("ok: no problems found", markup=False)
+
+
+@app.command()
+def plan(
+    site: Annotated[Path, typer.Argument(help="Site folder holding site.toml and the layers.")],
+    out_dir: Annotated[Path, typer.Option("--out", "-o", help="Output folder (replaced).")] = Path(
+        "routeplan_out"
+    ),
+    quiet: Annotated[bool, typer.Option("--quiet", "-q", help="No progress or summary.")] = False,
+    basemap: Annotated[
+        bool, typer.Option("--basemap", help="Add an online basemap to map.html (needs internet).")
+    ] = False,
+    aggregate_above: Annotated[
+        int,
+        typer.Option(help="Draw string circuits per row on the map above this many strings."),
+    ] = 20000,
+) -> None:
+    """Route and size every circuit; write the cable and trench schedules, quantities, GIS
+    layers, workbook, summary and map. Exit 0 when every limit is met, 1 when something fails
+    a limit (outputs written), 2 on bad input (nothing written)."""
+    from .outputs.write import write_plan
+    from .pipeline import plan as run_plan
+
+    show = not quiet and out.is_terminal
+    status = out.status("starting", spinner="dots") if show else None
+    say = (lambda stage: status.update(stage)) if status else (lambda stage: None)
+    try:
+        if status:
+            status.start()
+        result = run_plan(site, progress=say)
+        write_plan(
+            result,
+            out_dir,
+            progress=say,
+            map_options={"basemap": basemap, "aggregate_strings_above": aggregate_above},
+        )
+    except InputError as exc:
+        if status:
+            status.stop()
+        _fail_input(exc)
+        return
+    finally:
+        if status:
+            status.stop()
+    if not quiet:
+        _print_summary(result.summary, out_dir)
+    raise typer.Exit(0 if result.ok else 1)
+
+
+def _print_summary(summary: dict, out_dir: Path) -> None:
+    table = Table(title=f"{summary['site']['name']} — plan", header_style="bold")
+    for col in (
+        "kind",
+        "circuits",
+        "fail",
+        "capacity",
+        "drop",
+        "other",
+        "worst drop %",
+        "worst utilisation",
+        "loss kW",
+    ):
+        table.add_column(col, justify="left" if col == "kind" else "right")
+    for kind, k in summary["circuits"].items():
+        table.add_row(
+            kind,
+            str(k["circuits"]),
+            str(k["fail"]),
+            str(k["fail_capacity"]),
+            str(k["fail_drop"]),
+            str(k["fail_other"]),
+            _num(k["worst_vdrop_pct"], 3),
+            _num(k["worst_utilisation"], 3),
+            _num(k["loss_w"] / 1000, 2),
+        )
+    out.print(table)
+    w = summary["worst_vdrop_pct"]
+    lim = summary["drop_limits_pct"]
+    out.print(
+        f"worst voltage drop: string {_num(w['string'], 3)} % (limit {lim['string']:g}), "
+        f"array {_num(w['array'], 3)} % ({lim['array']:g}), DC total {_num(w['dc_total'], 3)} % "
+        f"({lim['dc_total']:g}), AC {_num(w['ac'], 3)} % ({lim['ac']:g})",
+        markup=False,
+    )
+    seg = summary["segments"]
+    out.print(
+        f"trench segments: {seg['count']}, over capacity: {seg['over_capacity']}", markup=False
+    )
+    cables = ", ".join(
+        f"{c['material']} {c['size_mm2']:g} mm² {c['metres']:,.0f} m" for c in summary["cable_m"]
+    )
+    out.print(f"cable: {cables} (conductor metres, allowances included)", markup=False)
+    out.print(
+        f"losses: {summary['loss_w_total'] / 1000:,.2f} kW at operating current; "
+        f"≈ {summary['energy_loss_kwh_total'] / 1000:,.1f} MWh/year (estimate)",
+        markup=False,
+    )
+    out.print(f"outputs: {out_dir}", markup=False)
+    out.print(
+        "result: "
+        + (
+            "every circuit and trench segment within its limits"
+            if summary["ok"]
+            else "SOME CIRCUITS OR TRENCH SEGMENTS FAIL A LIMIT (see status/note)"
+        ),
+        markup=False,
+    )
+    out.print(CAUTION, markup=False)
+
+
+def _num(v: float | None, digits: int) -> str:
+    return "-" if v is None else f"{v:.{digits}f}"
+
+
+@app.command()
+def diff(
+    old_dir: Annotated[Path, typer.Argument(help="Output folder of the earlier plan.")],
+    new_dir: Annotated[Path, typer.Argument(help="Output folder of the later plan.")],
+    out_file: Annotated[
+        Path | None, typer.Option("--out", "-o", help="Also write the changes as CSV.")
+    ] = None,
+) -> None:
+    """Show circuits added, removed and changed, trench segments whose count changed, and the
+    quantities delta between two plans."""
+    from .diff import DiffError, diff_outputs, write_diff
+
+    try:
+        d = diff_outputs(old_dir, new_dir)
+    except DiffError as exc:
+        err.print(f"error: {exc}", markup=False)
+        raise typer.Exit(2) from None
+    if out_file is not None:
+        write_diff(d, out_file)
+    if d.empty:
+        out.print("no changes", markup=False)
+        return
+    for section, title in (
+        ("circuit", "circuits"),
+        ("segment", "trench segments"),
+        ("quantity", "quantities"),
+    ):
+        part = d.changes[d.changes["section"] == section]
+        if part.empty:
+            continue
+        counts = part.groupby("change")["id"].nunique().to_dict()
+        out.print(
+            f"{title}: " + ", ".join(f"{v} {k}" for k, v in sorted(counts.items())), markup=False
+        )
+        for rec in part.itertuples(index=False):
+            if rec.change == "changed":
+                out.print(f"  ~ {rec.id}: {rec.field} {rec.old} → {rec.new}", markup=False)
+            else:
+                sign = "+" if rec.change == "added" else "-"
+                out.print(f"  {sign} {rec.id}", markup=False)
+
+
+@app.command("map")
+def map_cmd(
+    out_dir: Annotated[Path, typer.Argument(help="Output folder of 'routeplan plan'.")],
+    basemap: Annotated[
+        bool, typer.Option("--basemap", help="Add an online basemap (needs internet).")
+    ] = False,
+    aggregate_above: Annotated[
+        int,
+        typer.Option(help="Draw string circuits per row above this many strings."),
+    ] = 20000,
+) -> None:
+    """Redraw map.html from an output folder, without planning again."""
+    from .outputs.map import write_map
+
+    if not (out_dir / "routes.gpkg").is_file():
+        err.print(
+            f"error: {out_dir}: no routes.gpkg (is it an output folder of 'routeplan plan'?)",
+            markup=False,
+        )
+        raise typer.Exit(2)
+    path = write_map(out_dir, basemap=basemap, aggregate_strings_above=aggregate_above)
+    out.print(f"map: {path}", markup=False)
+
+
+@app.command()
+def synth(
+    mw: Annotated[float, typer.Option("--mw", help="Plant size, MWdc.")],
+    out_dir: Annotated[Path, typer.Option("--out", "-o", help="Site folder to write.")],
+    seed: Annotated[int, typer.Option("--seed", help="Random seed (same seed, same site).")] = 1,
+    geographic: Annotated[
+        bool, typer.Option("--geographic", help="Write lon/lat (EPSG:4326) instead of UTM.")
+    ] = False,
+    fmt: Annotated[str, typer.Option("--format", help="gpkg (one site.gpkg) or geojson.")] = "gpkg",
+) -> None:
+    """Write an invented, valid utility-scale site folder for trials and benchmarks."""
+    from .synth import generate_site
+
+    try:
+        info = generate_site(mw, seed, out_dir, geographic=geographic, fmt=fmt)
+    except ValueError as exc:
+        err.print(f"error: {exc}", markup=False)
+        raise typer.Exit(2) from None
+    out.print(
+        f"site: {out_dir} — {info.mwdc:.1f} MWdc, {info.rows} rows, {info.strings} strings, "
+        f"{info.combiners} combiners, {info.inverters} inverters, {info.trenches} trenches "
+        f"({info.crs})",
+        markup=False,
+    )
 
 
 def _fmt(v: object) -> str:

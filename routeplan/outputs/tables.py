@@ -21,6 +21,19 @@ def ordered(frame: pd.DataFrame, cols: tuple[Col, ...]) -> pd.DataFrame:
     return frame[first + rest]
 
 
+def _fixed(values: np.ndarray, decimals: int) -> list[str]:
+    """Fixed-decimal text, '' for NaN; '-0.00' is written as '0.00'."""
+    fmt = f"%.{decimals}f"
+    out = list(map(fmt.__mod__, values.tolist()))
+    negzero, zero = "-" + fmt % 0.0, fmt % 0.0
+    return ["" if t == "nan" else zero if t == negzero else t for t in out]
+
+
+def _general(values: np.ndarray) -> list[str]:
+    """Whole numbers without decimals, others with up to 6 significant digits, '' for NaN."""
+    return ["" if v != v else (f"{int(v)}" if v == int(v) else f"{v:.6g}") for v in values.tolist()]
+
+
 def formatted(frame: pd.DataFrame, cols: tuple[Col, ...]) -> pd.DataFrame:
     """Numbers as text with fixed decimals (empty for NaN), so reruns give identical bytes."""
     spec = {c.name: c for c in cols}
@@ -28,23 +41,17 @@ def formatted(frame: pd.DataFrame, cols: tuple[Col, ...]) -> pd.DataFrame:
     for name in ordered(frame, cols).columns:
         col = frame[name]
         c = spec.get(name)
-        if c is not None and c.decimals is not None:
+        if pd.api.types.is_bool_dtype(col):
+            out[name] = np.where(col.to_numpy(), "true", "false").tolist()
+        elif pd.api.types.is_numeric_dtype(col):
             values = col.to_numpy(dtype=float)
-            text = np.char.mod(f"%.{c.decimals}f", np.nan_to_num(values, nan=0.0))
-            text = np.where(np.isfinite(values), text, "")
-            out[name] = np.char.replace(text, "-0.00", "0.00") if c.decimals else text
-        elif pd.api.types.is_float_dtype(col):
-            values = col.to_numpy(dtype=float)
-            whole = np.isfinite(values) & (values == np.round(values))
-            text = np.where(whole, np.char.mod("%d", np.nan_to_num(values).astype(np.int64)), "")
-            rest = np.isfinite(values) & ~whole
-            text = np.where(rest, np.char.mod("%.6g", values), text)
-            out[name] = text
-        elif pd.api.types.is_bool_dtype(col):
-            out[name] = np.where(col.to_numpy(), "true", "false")
+            if c is not None and c.decimals is not None:
+                out[name] = _fixed(values, c.decimals)
+            else:
+                out[name] = _general(values)
         else:
-            out[name] = col.astype(object).where(col.notna(), "").astype(str).to_numpy()
-    return pd.DataFrame(out, index=frame.index)
+            out[name] = ["" if v is None or v != v else str(v) for v in col.tolist()]
+    return pd.DataFrame(out, index=frame.index, dtype=object)
 
 
 def write_csv(frame: pd.DataFrame, cols: tuple[Col, ...], path: Path) -> None:
@@ -66,58 +73,26 @@ def write_xlsx(
     sheets: dict[str, tuple[pd.DataFrame, tuple[Col, ...] | None]], path: Path, caution: str
 ) -> None:
     """Write sheets with a bold, frozen header row, units in the titles and numbers as numbers
-    (rounded to each column's decimals). Streams rows (openpyxl write-only mode), so a
-    utility-scale schedule of 70,000 circuits stays fast and small in memory."""
-    from openpyxl import Workbook
-    from openpyxl.cell import WriteOnlyCell
-    from openpyxl.styles import Font
-    from openpyxl.utils import get_column_letter
+    (with each column's decimals as its number format), plus a ``caution`` sheet."""
+    from .xlsx import Column, write_workbook
 
-    wb = Workbook(write_only=True)
-    bold = Font(bold=True)
+    books: dict[str, list[Column]] = {}
     for sheet_name, (frame, cols) in sheets.items():
-        ws = wb.create_sheet(sheet_name)
-        data = ordered(frame, cols) if cols else frame
         spec = {c.name: c for c in cols} if cols else {}
-        titles = [spec[c].title if c in spec else str(c) for c in data.columns]
-        for j, title in enumerate(titles, start=1):
-            ws.column_dimensions[get_column_letter(j)].width = min(max(len(title), 8) + 2, 40)
-        ws.freeze_panes = "A2"
-        header = []
-        for title in titles:
-            cell = WriteOnlyCell(ws, value=title)
-            cell.font = bold
-            header.append(cell)
-        ws.append(header)
+        data = ordered(frame, cols) if cols else frame
+        text = formatted(data, cols or ())
         columns = []
         for name in data.columns:
-            col = data[name]
             c = spec.get(name)
-            if pd.api.types.is_numeric_dtype(col) and not pd.api.types.is_bool_dtype(col):
-                values = col.to_numpy(dtype=float)
-                if c is not None and c.decimals is not None:
-                    values = np.round(values, c.decimals)
-                whole = pd.api.types.is_integer_dtype(col)
+            title = c.title if c else str(name)
+            col = data[name]
+            numeric = pd.api.types.is_numeric_dtype(col) and not pd.api.types.is_bool_dtype(col)
+            if numeric:
                 columns.append(
-                    [
-                        None if not np.isfinite(v) else (int(v) if whole else v)
-                        for v in values.tolist()
-                    ]
+                    Column.numbers(title, text[name].tolist(), c.decimals if c else None)
                 )
             else:
-                columns.append([_cell(v) for v in col.tolist()])
-        for record in zip(*columns, strict=True):
-            ws.append(record)
-    ws = wb.create_sheet("caution")
-    ws.append([caution])
-    wb.save(path)
-
-
-def _cell(v):
-    if isinstance(v, float | np.floating):
-        return None if not np.isfinite(v) else float(v)
-    if isinstance(v, np.integer):
-        return int(v)
-    if isinstance(v, np.bool_):
-        return bool(v)
-    return v
+                columns.append(Column.text(title, text[name].tolist()))
+        books[sheet_name] = columns
+    books["caution"] = [Column.text("caution", [caution])]
+    write_workbook(books, path)

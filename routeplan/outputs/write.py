@@ -1,0 +1,202 @@
+"""Writing a plan's outputs into a folder — all or nothing.
+
+Files (the contract, see README "Outputs"): ``cable_schedule.csv``, ``trench_schedule.csv``,
+``quantities.csv``, ``routes.gpkg`` (layers ``circuits``, ``segments``, ``rows``,
+``equipment``), ``cable_schedule.xlsx``, ``summary.json`` and ``map.html``. Everything is
+written to a temporary folder beside the target, then moved into place, so a failed run
+never leaves a half-written folder.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import shutil
+import tempfile
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+import geopandas as gpd
+import pandas as pd
+
+from .. import CAUTION
+from ..pipeline import Plan
+from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
+from .tables import write_csv, write_gpkg, write_xlsx
+
+FILES: tuple[str, ...] = (
+    "cable_schedule.csv",
+    "trench_schedule.csv",
+    "quantities.csv",
+    "routes.gpkg",
+    "cable_schedule.xlsx",
+    "summary.json",
+    "map.html",
+)
+
+
+def input_digest(plan: Plan) -> dict[str, str]:
+    """SHA-256 of site.toml and of every layer file read (GeoPackage layers: the file)."""
+    root = plan.site.root
+    files = {"site.toml"}
+    for spec in plan.site.sources.values():
+        name = spec.rsplit(":", 1)[0] if spec.lower().rsplit(":", 1)[0].endswith(".gpkg") else spec
+        files.add(name)
+        if name.lower().endswith(".shp"):  # a Shapefile is several files
+            stem = Path(name).with_suffix("")
+            files.update(p.name for p in root.glob(f"{stem.name}.*"))
+    out = {}
+    for name in sorted(files):
+        path = root / name
+        if path.is_file():
+            out[name] = hashlib.sha256(path.read_bytes()).hexdigest()
+    return out
+
+
+def equipment_frame(plan: Plan) -> gpd.GeoDataFrame:
+    """Combiners, inverters and grid points in one layer with a ``kind`` column."""
+    parts = []
+    for layer, kind in (("combiners", "combiner"), ("inverters", "inverter"), ("grid", "grid")):
+        frame = plan.site.layer(layer)
+        if len(frame):
+            parts.append(
+                gpd.GeoDataFrame(
+                    {"id": frame["id"].to_numpy(), "kind": kind},
+                    geometry=frame.geometry.values,
+                    crs=plan.site.crs,
+                )
+            )
+    return gpd.GeoDataFrame(pd.concat(parts, ignore_index=True), crs=plan.site.crs)
+
+
+def rows_frame(plan: Plan) -> gpd.GeoDataFrame:
+    """Module rows with their destination as planned (``to`` filled where it was assigned)."""
+    rows = plan.site.rows
+    assigned = plan.routes.assignment
+    a = assigned[assigned["layer"] == "rows"].set_index("feature_id")["to_id"]
+    to = rows["id"].map(a).where(lambda s: s.notna(), rows["to"])
+    return gpd.GeoDataFrame(
+        {
+            "id": rows["id"].to_numpy(),
+            "strings": rows["strings"].to_numpy(),
+            "module": rows["module"].to_numpy(),
+            "to": to.to_numpy(),
+        },
+        geometry=rows.geometry.values,
+        crs=plan.site.crs,
+    )
+
+
+def write_plan(
+    plan: Plan,
+    out_dir: Path | str,
+    *,
+    map_options: dict | None = None,
+    progress: Callable[[str], None] | None = None,
+) -> dict[str, float]:
+    """Write every output of ``plan`` into ``out_dir`` (replacing it). Returns seconds per file."""
+    say = progress or (lambda stage: None)
+    out_dir = Path(out_dir)
+    out_dir.parent.mkdir(parents=True, exist_ok=True)
+    t: dict[str, float] = {}
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", dir=out_dir.parent))
+    try:
+        say("write schedules")
+        t0 = time.perf_counter()
+        write_csv(
+            plan.circuits.drop(columns="geometry"), CIRCUIT_COLUMNS, tmp / "cable_schedule.csv"
+        )
+        write_csv(
+            plan.segments.drop(columns="geometry"), SEGMENT_COLUMNS, tmp / "trench_schedule.csv"
+        )
+        write_csv(plan.quantities, QUANTITY_COLUMNS, tmp / "quantities.csv")
+        t["csv"] = time.perf_counter() - t0
+
+        say("write GeoPackage")
+        t0 = time.perf_counter()
+        rows, equipment = rows_frame(plan), equipment_frame(plan)
+        write_gpkg(
+            {
+                "circuits": (plan.circuits, CIRCUIT_COLUMNS),
+                "segments": (plan.segments, SEGMENT_COLUMNS),
+                "rows": (rows, None),
+                "equipment": (equipment, None),
+            },
+            tmp / "routes.gpkg",
+        )
+        t["gpkg"] = time.perf_counter() - t0
+
+        say("write workbook")
+        t0 = time.perf_counter()
+        summary = dict(plan.summary, inputs=input_digest(plan))
+        write_xlsx(
+            {
+                "circuits": (plan.circuits.drop(columns="geometry"), CIRCUIT_COLUMNS),
+                "trenches": (plan.segments.drop(columns="geometry"), SEGMENT_COLUMNS),
+                "quantities": (plan.quantities, QUANTITY_COLUMNS),
+                "summary": (_summary_rows(summary), None),
+            },
+            tmp / "cable_schedule.xlsx",
+            CAUTION,
+        )
+        t["xlsx"] = time.perf_counter() - t0
+        (tmp / "summary.json").write_text(
+            json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
+        )
+
+        say("draw map")
+        t0 = time.perf_counter()
+        from .map import render_map
+
+        html = render_map(
+            plan.circuits,
+            plan.segments,
+            rows,
+            equipment,
+            site_name=plan.site.name,
+            **(map_options or {}),
+        )
+        (tmp / "map.html").write_text(html, encoding="utf-8")
+        t["map"] = time.perf_counter() - t0
+        _replace(tmp, out_dir)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return t
+
+
+def _replace(tmp: Path, out_dir: Path) -> None:
+    """Move ``tmp`` into place as ``out_dir``; an existing folder is removed only afterwards."""
+    if out_dir.exists():
+        old = out_dir.with_name(f".{out_dir.name}.old")
+        shutil.rmtree(old, ignore_errors=True)
+        out_dir.rename(old)
+        tmp.rename(out_dir)
+        shutil.rmtree(old, ignore_errors=True)
+    else:
+        tmp.rename(out_dir)
+
+
+def _summary_rows(summary: dict) -> pd.DataFrame:
+    """The summary flattened to (item, value) rows for the workbook."""
+    rows = []
+
+    def walk(prefix: str, value) -> None:
+        if isinstance(value, dict):
+            for k, v in value.items():
+                walk(f"{prefix}.{k}" if prefix else str(k), v)
+        elif isinstance(value, list):
+            for i, v in enumerate(value):
+                walk(f"{prefix}[{i}]", v)
+        else:
+            rows.append((prefix, value))
+
+    walk("", summary)
+    return pd.DataFrame(rows, columns=["item", "value"])
+
+
+def _json(value):
+    if hasattr(value, "item"):
+        return value.item()
+    raise TypeError(f"not JSON serialisable: {type(value)}")

@@ -1,0 +1,297 @@
+"""`routeplan plan` end to end: file set and columns (the contract), GIS and workbook
+round trips, figures recomputed from the schedule's own columns and published tables,
+exit statuses, determinism, nothing lost, and `routeplan diff` after a pad move."""
+
+from __future__ import annotations
+
+import json
+import re
+import shutil
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import pytest
+import shapely
+from typer.testing import CliRunner
+
+import layers
+from routeplan.cli import app
+from routeplan.outputs.columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS, names
+from routeplan.outputs.write import FILES
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_site"
+runner = CliRunner()
+
+CONTRACT_CIRCUIT = [
+    "circuit_id", "kind", "from_id", "to_id", "material", "size_mm2", "parallel", "route_m",
+    "cable_m", "trench_segments", "group_max", "design_current_a", "ampacity_base_a", "derating",
+    "ampacity_a", "utilisation", "vdrop_v", "vdrop_pct", "vdrop_total_pct", "loss_w", "status",
+    "note",
+]  # fmt: skip
+CONTRACT_SEGMENT = [
+    "segment_id", "trench_id", "length_m", "circuits", "strings", "arrays", "ac", "max_circuits",
+    "fill", "status", "circuit_ids",
+]  # fmt: skip
+
+
+def run_plan(site: Path, out: Path, *extra: str):
+    return runner.invoke(app, ["plan", str(site), "--out", str(out), *extra])
+
+
+@pytest.fixture(scope="module")
+def demo_out(tmp_path_factory) -> Path:
+    out = tmp_path_factory.mktemp("plan") / "out"
+    result = run_plan(DEMO, out)
+    assert result.exit_code == 0, result.output
+    return out
+
+
+def test_file_set_and_contract_columns(demo_out):
+    assert sorted(p.name for p in demo_out.iterdir()) == sorted(FILES)
+    sched = pd.read_csv(demo_out / "cable_schedule.csv")
+    assert list(sched.columns[: len(CONTRACT_CIRCUIT)]) == CONTRACT_CIRCUIT
+    assert list(sched.columns) == names(CIRCUIT_COLUMNS)
+    trench = pd.read_csv(demo_out / "trench_schedule.csv")
+    assert list(trench.columns[: len(CONTRACT_SEGMENT)]) == CONTRACT_SEGMENT
+    assert list(trench.columns) == names(SEGMENT_COLUMNS)
+    q = pd.read_csv(demo_out / "quantities.csv")
+    assert list(q.columns) == names(QUANTITY_COLUMNS)
+    assert set(q["item"]) == {"cable", "termination", "trench", "string fuse"}
+    assert set(sched["kind"]) == {"string", "array", "ac"}
+    assert set(sched["status"]) <= {"ok", "fail"}
+
+
+def test_nothing_lost(demo_out):
+    site = layers.read_site(DEMO)
+    sched = pd.read_csv(demo_out / "cable_schedule.csv")
+    counts = sched["kind"].value_counts()
+    assert counts["string"] == site.rows["strings"].sum()
+    assert counts["array"] == len(site.combiners)
+    assert counts["ac"] == len(site.inverters)
+    per_row = sched[sched["kind"] == "string"].groupby("from_id").size()
+    assert per_row.to_dict() == dict(zip(site.rows["id"], site.rows["strings"], strict=True))
+    assert set(sched.loc[sched["kind"] == "array", "from_id"]) == set(site.combiners["id"])
+    # each trench is covered by its segments: lengths add up (shapely as the reference)
+    trench = pd.read_csv(demo_out / "trench_schedule.csv")
+    per_trench = trench.groupby("trench_id")["length_m"].sum()
+    expected = pd.Series(shapely.length(site.trenches.geometry.values), index=site.trenches["id"])
+    assert set(per_trench.index) == set(expected.index)
+    np.testing.assert_allclose(per_trench[expected.index], expected, atol=0.01 * 20)
+
+
+def test_geopackage_reopens_in_site_crs(demo_out):
+    site = layers.read_site(DEMO)
+    listed = {name for name, _ in pyogrio.list_layers(demo_out / "routes.gpkg")}
+    assert {"circuits", "segments", "rows", "equipment"} <= listed
+    circuits = gpd.read_file(demo_out / "routes.gpkg", layer="circuits")
+    segments = gpd.read_file(demo_out / "routes.gpkg", layer="segments")
+    assert circuits.crs.equals(site.crs) and segments.crs.equals(site.crs)
+    assert list(circuits.columns[: len(CONTRACT_CIRCUIT)]) == CONTRACT_CIRCUIT
+    # the route geometry's length is route_m (shapely as the reference)
+    np.testing.assert_allclose(
+        shapely.length(circuits.geometry.values), circuits["route_m"], rtol=1e-9
+    )
+
+
+def test_workbook_reopens_with_typed_numbers(demo_out):
+    from openpyxl import load_workbook
+
+    wb = load_workbook(demo_out / "cable_schedule.xlsx")
+    assert wb.sheetnames[:4] == ["circuits", "trenches", "quantities", "summary"]
+    ws = wb["circuits"]
+    header = [c.value for c in ws[1]]
+    assert header[0] == "circuit_id" and "route_m [m]" in header and "vdrop_pct [%]" in header
+    assert all(c.font.bold for c in ws[1]) and ws.freeze_panes == "A2"
+    j = header.index("route_m [m]")
+    assert isinstance(ws.cell(row=2, column=j + 1).value, float)
+    assert "qualified, licensed person" in wb["caution"]["A2"].value
+    q = wb["quantities"]
+    assert [c.value for c in q[1]][:3] == ["item", "kind", "material"]
+    assert ws.cell(row=2, column=j + 1).number_format == "0.00"  # route_m: 2 decimals
+
+
+def test_summary_json(demo_out):
+    s = json.loads((demo_out / "summary.json").read_text())
+    assert s["tool"]["name"] == "routeplan" and s["tool"]["version"]
+    assert set(s["inputs"]) >= {"site.toml", "rows.geojson", "transformers.geojson"}
+    assert all(len(h) == 64 for h in s["inputs"].values())
+    assert s["circuits"]["string"]["circuits"] == 224
+    assert s["ok"] is True and "licensed" in s["caution"]
+
+
+# IEC 60228:2004 Table 2 (class 2) and Table 3 (class 5 tinned), maximum resistance at 20 °C,
+# Ω/km — typed here from the standard's published values, independent of calc's data file.
+IEC60228_R20 = {
+    ("Cu5t", 4): 5.09,
+    ("Cu5t", 6): 3.39,
+    ("Cu5t", 10): 1.95,
+    ("Al", 240): 0.125,
+    ("Al", 300): 0.100,
+    ("Al", 185): 0.164,
+    ("Al", 150): 0.206,
+    ("Cu", 240): 0.0754,
+}
+# IEC 60287-1-1 Table 1: temperature coefficient at 20 °C, 1/K
+ALPHA = {"Cu": 3.93e-3, "Al": 4.03e-3}
+
+
+def test_figures_recompute_from_schedule_and_published_tables(demo_out):
+    s = pd.read_csv(demo_out / "cable_schedule.csv", keep_default_na=False, na_values=[""])
+    # cable_m = route_m × (1 + slack/100) + 2 × termination + row run (README, allowances)
+    slack, term = 3.0, 1.5  # demo_site/site.toml [allowances]
+    cable = s["route_m"] * (1 + slack / 100) + 2 * term + s["row_run_m"]
+    np.testing.assert_allclose(s["cable_m"], cable, atol=0.011)
+    key = [
+        ("Cu5t" if ins == "PV" else m, int(a))
+        for m, a, ins in zip(s["material"], s["size_mm2"], s["insulation"], strict=True)
+    ]
+    r20 = np.array([IEC60228_R20[k] for k in key]) / 1000.0  # Ω/m
+    alpha = s["material"].map(ALPHA).to_numpy()
+    r = r20 * (1 + alpha * (s["conductor_temp_c"] - 20.0)) / s["parallel"]  # IEC 60287-1-1
+    i = s["operating_current_a"]
+    dc = s["kind"] != "ac"
+    # Ohm's law: DC loop 2·L·I·R; three-phase √3·L·I·(R cosφ + X sinφ), demo pf = 1
+    vd = np.where(dc, 2 * s["cable_m"] * i * r, np.sqrt(3) * s["cable_m"] * i * r)
+    np.testing.assert_allclose(s["vdrop_v"], vd, rtol=2e-3, atol=0.006)  # CSV rounding
+    poles = np.where(dc, 2, 3)
+    np.testing.assert_allclose(s["loss_w"], poles * i**2 * r * s["cable_m"], rtol=2e-3, atol=0.06)
+    np.testing.assert_allclose(s["vdrop_pct"], 100 * s["vdrop_v"] / s["voltage_v"], atol=2e-3)
+    # vdrop_total_pct: string = own + its array's (README, outputs)
+    arrays = s[s["kind"] == "array"].set_index("from_id")
+    strings = s[(s["kind"] == "string")]
+    total = strings["vdrop_pct"] + arrays.loc[strings["to_id"], "vdrop_pct"].to_numpy()
+    np.testing.assert_allclose(strings["vdrop_total_pct"], total, atol=2e-3)
+    np.testing.assert_allclose(s["utilisation"], s["design_current_a"] / s["ampacity_a"], atol=2e-3)
+
+
+def test_determinism_byte_identical_csv(demo_out, tmp_path):
+    out = tmp_path / "again"
+    assert run_plan(DEMO, out).exit_code == 0
+    for name in ("cable_schedule.csv", "trench_schedule.csv", "quantities.csv"):
+        assert (out / name).read_bytes() == (demo_out / name).read_bytes(), name
+
+
+def test_exit_1_when_a_limit_fails_and_outputs_written(tmp_path):
+    site = tmp_path / "tight"
+    shutil.copytree(DEMO, site)
+    toml = (
+        (site / "site.toml")
+        .read_text()
+        .replace("dc_total = 2.0", "dc_total = 0.5")
+        .replace("string = 1.0\narray = 1.5", "string = 0.4\narray = 0.4")
+    )
+    (site / "site.toml").write_text(toml)
+    out = tmp_path / "out"
+    result = run_plan(site, out)
+    assert result.exit_code == 1, result.output
+    sched = pd.read_csv(out / "cable_schedule.csv", keep_default_na=False)
+    failing = sched[sched["status"] == "fail"]
+    assert len(failing) > 0 and (failing["note"] != "").all()
+
+
+def test_exit_2_on_bad_input_writes_nothing(tmp_path):
+    site = tmp_path / "bad"
+    shutil.copytree(DEMO, site)
+    rows = gpd.read_file(site / "rows.geojson")
+    rows.loc[3, "module"] = "nonexistent"
+    rows.to_file(site / "rows.geojson", driver="GeoJSON")
+    out = tmp_path / "out"
+    result = run_plan(site, out)
+    assert result.exit_code == 2
+    assert f"error: rows '{rows.loc[3, 'id']}': module 'nonexistent'" in result.stderr
+    assert "Traceback" not in result.output
+    assert not out.exists()
+    assert not list(tmp_path.glob(".out*"))  # no temporary folder left behind
+
+
+def test_far_equipment_exits_2_in_check_and_plan(tmp_path):
+    site = tmp_path / "far"
+    shutil.copytree(DEMO, site)
+    comb = gpd.read_file(site / "combiners.geojson")
+    comb = comb.to_crs(32630)
+    comb.loc[0, "geometry"] = shapely.affinity.translate(comb.geometry.iloc[0], xoff=-200.0)
+    comb.to_crs(4326).to_file(site / "combiners.geojson", driver="GeoJSON")
+    for cmd in (["check", str(site)], ["plan", str(site), "--out", str(tmp_path / "o")]):
+        result = runner.invoke(app, cmd)
+        assert result.exit_code == 2, result.output
+        assert f"'{comb.loc[0, 'id']}'" in result.stderr
+
+
+def move_pad(src: Path, dst: Path, pad: str, dx: float) -> None:
+    shutil.copytree(src, dst)
+    inv = gpd.read_file(dst / "inverters.geojson").to_crs(32630)
+    i = inv.index[inv["id"] == pad][0]
+    inv.loc[i, "geometry"] = shapely.affinity.translate(inv.geometry.iloc[i], xoff=dx)
+    inv.to_crs(4326).to_file(dst / "inverters.geojson", driver="GeoJSON")
+
+
+def test_diff_after_moving_a_pad_lists_exactly_its_circuits(demo_out, tmp_path):
+    move_pad(DEMO, tmp_path / "moved", "INV-E", dx=-6.0)  # 6 m west along the branch
+    out = tmp_path / "out_moved"
+    assert run_plan(tmp_path / "moved", out).exit_code in (0, 1)
+    result = runner.invoke(app, ["diff", str(demo_out), str(out), "--out", str(tmp_path / "d.csv")])
+    assert result.exit_code == 0, result.output
+    d = pd.read_csv(tmp_path / "d.csv", keep_default_na=False)
+    changed = set(d.loc[d["section"] == "circuit", "id"])
+    sched = pd.read_csv(demo_out / "cable_schedule.csv")
+    served_arrays = set(
+        sched.loc[(sched["kind"] == "array") & (sched["to_id"] == "INV-E"), "circuit_id"]
+    )
+    combiners = {c.split(":", 1)[1] for c in served_arrays}
+    served_strings = set(
+        sched.loc[(sched["kind"] == "string") & sched["to_id"].isin(combiners), "circuit_id"]
+    )
+    served = served_arrays | {"AC:INV-E"} | served_strings
+    assert served_arrays | {"AC:INV-E"} <= changed  # the pad's own circuits moved
+    assert changed <= served  # and nothing the pad does not serve
+    # strings behind the pad change only through their cumulative DC drop
+    string_fields = set(d.loc[d["id"].isin(served_strings), "field"])
+    assert string_fields <= {"vdrop_total_pct"}
+    assert "circuits: " in result.output
+
+
+def test_diff_of_identical_plans_is_empty(demo_out):
+    result = runner.invoke(app, ["diff", str(demo_out), str(demo_out)])
+    assert result.exit_code == 0 and "no changes" in result.output
+
+
+def test_plan_a_generated_site(tmp_path):
+    from routeplan.synth import generate_site
+
+    site = tmp_path / "gen"
+    info = generate_site(8.0, 3, site)
+    out = tmp_path / "out"
+    result = run_plan(site, out, "--quiet")
+    assert result.exit_code in (0, 1), result.output
+    sched = pd.read_csv(out / "cable_schedule.csv")
+    assert (sched["kind"] == "string").sum() == info.strings
+    assert (sched["kind"] == "array").sum() == info.combiners
+
+
+def test_map_command_redraws_from_output_folder(demo_out, tmp_path):
+    out = tmp_path / "copy"
+    shutil.copytree(demo_out, out)
+    (out / "map.html").unlink()
+    result = runner.invoke(app, ["map", str(out)])
+    assert result.exit_code == 0, result.output
+    html = (out / "map.html").read_text(encoding="utf-8")
+    assert "Cerro Pardo Solar" in html and "qualified, licensed person" in html
+    # offline: no script or stylesheet fetched from the network
+    assert re.search(r'<(script|link)[^>]+(src|href)="https?:', html) is None
+
+
+def test_map_command_on_a_folder_without_plan_exits_2(tmp_path):
+    result = runner.invoke(app, ["map", str(tmp_path)])
+    assert result.exit_code == 2
+    assert result.stderr.startswith("error: ")
+
+
+def test_synth_command_writes_a_valid_site(tmp_path):
+    result = runner.invoke(app, ["synth", "--mw", "5", "--seed", "2", "--out", str(tmp_path / "s")])
+    assert result.exit_code == 0, result.output
+    assert runner.invoke(app, ["check", str(tmp_path / "s")]).exit_code == 0
+    bad = runner.invoke(app, ["synth", "--mw", "-1", "--out", str(tmp_path / "t")])
+    assert bad.exit_code == 2 and "error: mw" in bad.stderr
