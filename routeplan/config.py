@@ -37,7 +37,13 @@ DESIGN_KEYS: tuple[Key, ...] = (
         "rules", "iec", choices=("iec",), note="rule set; 'iec' = IEC 60364-5-52/62548/60228/60287"
     ),
     Key("ground_temp_c", 20.0, -20, 60, note="IEC 60364-5-52 reference ground temperature"),
-    Key("air_temp_c", 30.0, -30, 80, note="IEC 60364-5-52 reference air temperature"),
+    Key(
+        "air_temp_c",
+        40.0,
+        -30,
+        80,
+        note="shade air temperature for stubs and exposed runs (common practice for outdoor sites)",
+    ),
     Key(
         "row_air_temp_c",
         70.0,
@@ -66,7 +72,14 @@ DESIGN_KEYS: tuple[Key, ...] = (
     ),
     Key("snap_m", 30.0, 0.0, 1_000.0, note="longest straight stub from equipment to a trench"),
     Key("node_tol_m", 0.1, 0.0, 5.0, note="trench ends and vertices closer than this are joined"),
-    Key("power_factor", 1.0, 0.1, 1.0, note="inverter power factor where a pad has no pf"),
+    Key(
+        "power_factor",
+        0.9,
+        0.1,
+        1.0,
+        note="inverter power factor where a pad has no pf (common practice: grid codes often "
+        "ask for reactive capability at rated apparent power)",
+    ),
     Key(
         "conductor_temp",
         "max",
