@@ -119,10 +119,19 @@ def plan(
         int,
         typer.Option(help="Draw string circuits per row on the map above this many strings."),
     ] = 20000,
+    use_cache: Annotated[
+        bool,
+        typer.Option(
+            "--cache/--no-cache",
+            help="Reuse what the inputs did not change since the last plan into the same "
+            "--out folder (its .routeplan-cache); --no-cache plans from scratch and keeps none.",
+        ),
+    ] = True,
 ) -> None:
     """Route and size every circuit; write the cable and trench schedules, quantities, GIS
     layers, workbook, summary and map. Exit 0 when every limit is met, 1 when something fails
     a limit (outputs written), 2 on bad input (nothing written)."""
+    from .cache import PlanCache
     from .outputs.write import write_plan
     from .pipeline import plan as run_plan
 
@@ -132,7 +141,8 @@ def plan(
     try:
         if status:
             status.start()
-        result = run_plan(site, progress=say)
+        cache = PlanCache(out_dir) if use_cache else None
+        result = run_plan(site, progress=say, cache=cache)
         write_plan(
             result,
             out_dir,
@@ -149,6 +159,12 @@ def plan(
             status.stop()
     if not quiet:
         _print_summary(result.summary, out_dir)
+        if result.reused:
+            kept = [k for k, v in result.reused.items() if v]
+            out.print(
+                "cache: reused " + (", ".join(kept) if kept else "nothing (inputs changed)"),
+                markup=False,
+            )
     raise typer.Exit(0 if result.ok else 1)
 
 

@@ -8,6 +8,7 @@ packages: geometry and graphs come from :mod:`routeplan.routing`, electrical rul
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from collections.abc import Callable
@@ -20,11 +21,12 @@ import numpy as np
 import pandas as pd
 
 import calc
-from layers import Site
+from layers import Site, SiteError
 
 from . import CAUTION, __version__
+from .cache import PlanCache, digest, site_key
 from .check import load
-from .config import DesignConfig
+from .config import DesignConfig, parse_design
 from .errors import DesignError, Problem
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
 
@@ -49,6 +51,13 @@ class Plan:
     quantities: pd.DataFrame
     summary: dict[str, Any]
     timings_s: dict[str, float] = field(default_factory=dict)
+    #: the output folder's cache this run used (None: a run without cache)
+    cache: PlanCache | None = field(default=None, repr=False)
+
+    @property
+    def reused(self) -> dict[str, bool]:
+        """Which cached stages this run reused (empty without a cache)."""
+        return dict(self.cache.reused) if self.cache is not None else {}
 
     @property
     def ok(self) -> bool:
@@ -205,19 +214,50 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
     )
 
 
-def plan(path: Path | str, progress: Callable[[str], None] | None = None) -> Plan:
+def plan(
+    path: Path | str,
+    progress: Callable[[str], None] | None = None,
+    cache: PlanCache | None = None,
+) -> Plan:
     """Run the whole pipeline on the site folder at ``path``.
 
-    ``progress(stage)`` is called as each stage starts (for the CLI's display). Raises
-    :class:`layers.SiteError` / :class:`routeplan.errors.RoutingError` on bad input.
+    ``progress(stage)`` is called as each stage starts (for the CLI's display). With
+    ``cache`` (the output folder's :class:`routeplan.cache.PlanCache`), stages whose inputs
+    did not change since the run that wrote it are reused, and the new results are kept for
+    the next run; the results are the same as without it. Raises :class:`layers.SiteError` /
+    :class:`routeplan.errors.RoutingError` on bad input.
     """
     say = progress or (lambda stage: None)
     t: dict[str, float] = {}
     t0 = time.perf_counter()
     say("read and validate")
-    site, design = load(path)
+    site, design = _load(Path(path), cache)
     t["read_validate"] = time.perf_counter() - t0
-    return plan_site(site, design, progress=say, timings=t)
+    return plan_site(site, design, progress=say, timings=t, cache=cache)
+
+
+def _load(root: Path, cache: PlanCache | None) -> tuple[Site, DesignConfig]:
+    """:func:`routeplan.check.load`, reusing the cached validated site when its key matches."""
+    if cache is None:
+        return load(root)
+    from layers.sources import locate_layers, read_config
+
+    config, problems = read_config(root)
+    sources, more = locate_layers(root, config) if not problems else ({}, [])
+    if problems or more:
+        return load(root)  # reports every problem
+    key = site_key(root, config, sources)
+    if key is None:  # inputs the cache cannot fingerprint: no cache for this run
+        return load(root)
+    cached = cache.get("site", key)
+    if cached is None:
+        site, design = load(root)
+        cache.put("site", key, dataclasses.replace(site, config={}))
+        return site, design
+    design, problems = parse_design(config)
+    if problems:
+        raise SiteError(problems)
+    return dataclasses.replace(cached, root=root, config=config, sources=dict(sources)), design
 
 
 def plan_site(
@@ -225,23 +265,44 @@ def plan_site(
     design: DesignConfig,
     progress: Callable[[str], None] | None = None,
     timings: dict[str, float] | None = None,
+    cache: PlanCache | None = None,
 ) -> Plan:
-    """Route and size a validated site (see :func:`plan`)."""
+    """Route and size a validated site (see :func:`plan`; ``cache`` only after its ``site``
+    stage, as :func:`plan` uses it)."""
     say = progress or (lambda stage: None)
     t = timings if timings is not None else {}
+    if cache is not None and "site" not in cache.keys:
+        cache = None
     say("route")
     t0 = time.perf_counter()
-    routes = route_site(site, route_params(design))
+    params = route_params(design)
+    routes = None
+    if cache is not None:
+        route_key = digest("route", cache.keys["site"], repr(params))
+        routes = cache.get("route", route_key)
+    if routes is None:
+        routes = route_site(site, params)
+        for k, v in routes.timings_s.items():
+            t[f"route.{k}"] = v
+        if cache is not None:
+            cache.put("route", route_key, routes)
     t["route"] = time.perf_counter() - t0
-    for k, v in routes.timings_s.items():
-        t[f"route.{k}"] = v
     say("size")
     t0 = time.perf_counter()
     inp = sizing_input(site, routes)
-    try:
-        result = calc.size_circuits(inp, design_params(design), rules=design.values["rules"])
-    except (calc.InputError, calc.UnknownOptionError, calc.TableRangeError) as exc:
-        raise DesignError([Problem("site.toml", "design", str(exc))]) from exc
+    dp = design_params(design)
+    rules = design.values["rules"]
+    result = None
+    if cache is not None:
+        size_key = digest("size", route_key, repr(dp), rules)
+        result = cache.get("size", size_key)
+    if result is None:
+        try:
+            result = calc.size_circuits(inp, dp, rules=rules)
+        except (calc.InputError, calc.UnknownOptionError, calc.TableRangeError) as exc:
+            raise DesignError([Problem("site.toml", "design", str(exc))]) from exc
+        if cache is not None:
+            cache.put("size", size_key, result)
     t["size"] = time.perf_counter() - t0
     say("tables")
     t0 = time.perf_counter()
@@ -250,7 +311,7 @@ def plan_site(
     quantities = quantity_table(circuits, segments, design)
     summary = summarise(site, design, circuits, segments, result)
     t["tables"] = time.perf_counter() - t0
-    return Plan(site, design, routes, result, circuits, segments, quantities, summary, t)
+    return Plan(site, design, routes, result, circuits, segments, quantities, summary, t, cache)
 
 
 def circuit_table(

@@ -9,7 +9,6 @@ never leaves a half-written folder.
 
 from __future__ import annotations
 
-import hashlib
 import json
 import shutil
 import tempfile
@@ -21,9 +20,10 @@ import geopandas as gpd
 import pandas as pd
 
 from .. import CAUTION
+from ..cache import STAGES, digest, input_files, link_or_copy
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
-from .tables import write_csv, write_gpkg, write_xlsx
+from .tables import TextTable, format_table, write_csv, write_gpkg, write_xlsx
 
 FILES: tuple[str, ...] = (
     "cable_schedule.csv",
@@ -34,24 +34,22 @@ FILES: tuple[str, ...] = (
     "summary.json",
     "map.html",
 )
+#: the CSV files, in the order of :func:`format_tables`
+CSV_FILES: tuple[str, ...] = ("cable_schedule.csv", "trench_schedule.csv", "quantities.csv")
+
+
+def format_tables(plan: Plan) -> dict[str, TextTable]:
+    """The schedules formatted once, for the CSVs and the workbook's sheets (by sheet name)."""
+    return {
+        "circuits": format_table(plan.circuits, CIRCUIT_COLUMNS),
+        "trenches": format_table(plan.segments, SEGMENT_COLUMNS),
+        "quantities": format_table(plan.quantities, QUANTITY_COLUMNS),
+    }
 
 
 def input_digest(plan: Plan) -> dict[str, str]:
     """SHA-256 of site.toml and of every layer file read (GeoPackage layers: the file)."""
-    root = plan.site.root
-    files = {"site.toml"}
-    for spec in plan.site.sources.values():
-        name = spec.rsplit(":", 1)[0] if spec.lower().rsplit(":", 1)[0].endswith(".gpkg") else spec
-        files.add(name)
-        if name.lower().endswith(".shp"):  # a Shapefile is several files
-            stem = Path(name).with_suffix("")
-            files.update(p.name for p in root.glob(f"{stem.name}.*"))
-    out = {}
-    for name in sorted(files):
-        path = root / name
-        if path.is_file():
-            out[name] = hashlib.sha256(path.read_bytes()).hexdigest()
-    return out
+    return input_files(plan.site.root, plan.site.sources)
 
 
 def equipment_frame(plan: Plan) -> gpd.GeoDataFrame:
@@ -95,75 +93,112 @@ def write_plan(
     map_options: dict | None = None,
     progress: Callable[[str], None] | None = None,
 ) -> dict[str, float]:
-    """Write every output of ``plan`` into ``out_dir`` (replacing it). Returns seconds per file."""
+    """Write every output of ``plan`` into ``out_dir`` (replacing it). Returns seconds per file.
+
+    When the plan ran with a cache (:mod:`routeplan.cache`), the cache is saved with the
+    outputs, and when nothing that the outputs depend on changed since the last run, the last
+    run's files are reused (if their bytes are still the ones written then).
+    """
     say = progress or (lambda stage: None)
     out_dir = Path(out_dir)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     t: dict[str, float] = {}
     tmp = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", dir=out_dir.parent))
     try:
-        say("write schedules")
-        t0 = time.perf_counter()
-        write_csv(
-            plan.circuits.drop(columns="geometry"), CIRCUIT_COLUMNS, tmp / "cable_schedule.csv"
-        )
-        write_csv(
-            plan.segments.drop(columns="geometry"), SEGMENT_COLUMNS, tmp / "trench_schedule.csv"
-        )
-        write_csv(plan.quantities, QUANTITY_COLUMNS, tmp / "quantities.csv")
-        t["csv"] = time.perf_counter() - t0
-
-        say("write GeoPackage")
-        t0 = time.perf_counter()
-        rows, equipment = rows_frame(plan), equipment_frame(plan)
-        write_gpkg(
-            {
-                "circuits": (plan.circuits, CIRCUIT_COLUMNS),
-                "segments": (plan.segments, SEGMENT_COLUMNS),
-                "rows": (rows, None),
-                "equipment": (equipment, None),
-            },
-            tmp / "routes.gpkg",
-        )
-        t["gpkg"] = time.perf_counter() - t0
-
-        say("write workbook")
-        t0 = time.perf_counter()
-        summary = dict(plan.summary, inputs=input_digest(plan))
-        write_xlsx(
-            {
-                "circuits": (plan.circuits.drop(columns="geometry"), CIRCUIT_COLUMNS),
-                "trenches": (plan.segments.drop(columns="geometry"), SEGMENT_COLUMNS),
-                "quantities": (plan.quantities, QUANTITY_COLUMNS),
-                "summary": (_summary_rows(summary), None),
-            },
-            tmp / "cable_schedule.xlsx",
-            CAUTION,
-        )
-        t["xlsx"] = time.perf_counter() - t0
-        (tmp / "summary.json").write_text(
-            json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
-        )
-
-        say("draw map")
-        t0 = time.perf_counter()
-        from .map import render_map
-
-        html = render_map(
-            plan.circuits,
-            plan.segments,
-            rows,
-            equipment,
-            site_name=plan.site.name,
-            **(map_options or {}),
-        )
-        (tmp / "map.html").write_text(html, encoding="utf-8")
-        t["map"] = time.perf_counter() - t0
+        cache = plan.cache
+        key = _outputs_key(plan, map_options)
+        old = cache.outputs_reusable(key, FILES) if cache is not None and key else {}
+        if old:
+            t0 = time.perf_counter()
+            for name, path in old.items():
+                link_or_copy(path, tmp / name)
+            t["reused_outputs"] = time.perf_counter() - t0
+        else:
+            _write_files(plan, tmp, map_options, say, t)
+        if cache is not None:
+            say("save cache")
+            t0 = time.perf_counter()
+            cache.reused["outputs"] = bool(old)
+            cache.save(tmp, key, FILES)
+            t["cache_save"] = time.perf_counter() - t0
         _replace(tmp, out_dir)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
     return t
+
+
+def _outputs_key(plan: Plan, map_options: dict | None) -> str | None:
+    """Key of the output files (see :mod:`routeplan.cache`); None without every stage key."""
+    keys = plan.cache.keys if plan.cache is not None else {}
+    if not all(k in keys for k in STAGES):
+        return None
+    return digest(
+        "outputs",
+        keys["size"],
+        plan.site.name,
+        plan.site.config,
+        input_digest(plan),
+        map_options or {},
+    )
+
+
+def _write_files(
+    plan: Plan,
+    tmp: Path,
+    map_options: dict | None,
+    say: Callable[[str], None],
+    t: dict[str, float],
+) -> None:
+    """Write every output file of ``plan`` into the folder ``tmp``."""
+    say("write schedules")
+    t0 = time.perf_counter()
+    tables = format_tables(plan)
+    for name, table in zip(CSV_FILES, tables.values(), strict=True):
+        write_csv(table, tmp / name)
+    t["csv"] = time.perf_counter() - t0
+
+    say("write GeoPackage")
+    t0 = time.perf_counter()
+    rows, equipment = rows_frame(plan), equipment_frame(plan)
+    write_gpkg(
+        {
+            "circuits": (plan.circuits, CIRCUIT_COLUMNS),
+            "segments": (plan.segments, SEGMENT_COLUMNS),
+            "rows": (rows, None),
+            "equipment": (equipment, None),
+        },
+        tmp / "routes.gpkg",
+    )
+    t["gpkg"] = time.perf_counter() - t0
+
+    say("write workbook")
+    t0 = time.perf_counter()
+    summary = dict(plan.summary, inputs=input_digest(plan))
+    write_xlsx(
+        {**tables, "summary": format_table(_summary_rows(summary))},
+        tmp / "cable_schedule.xlsx",
+        CAUTION,
+    )
+    t["xlsx"] = time.perf_counter() - t0
+    (tmp / "summary.json").write_text(
+        json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
+    )
+
+    say("draw map")
+    t0 = time.perf_counter()
+    from .map import render_map
+
+    html = render_map(
+        plan.circuits,
+        plan.segments,
+        rows,
+        equipment,
+        site_name=plan.site.name,
+        **(map_options or {}),
+    )
+    (tmp / "map.html").write_text(html, encoding="utf-8")
+    t["map"] = time.perf_counter() - t0
 
 
 def _replace(tmp: Path, out_dir: Path) -> None:

@@ -18,6 +18,7 @@ import shapely
 from typer.testing import CliRunner
 
 import layers
+from routeplan.cache import CACHE_DIR
 from routeplan.cli import app
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS, names
 from routeplan.outputs.write import FILES
@@ -50,7 +51,8 @@ def demo_out(tmp_path_factory) -> Path:
 
 
 def test_file_set_and_contract_columns(demo_out):
-    assert sorted(p.name for p in demo_out.iterdir()) == sorted(FILES)
+    files = sorted(p.name for p in demo_out.iterdir() if p.name != CACHE_DIR)  # + the cache
+    assert files == sorted(FILES)
     sched = pd.read_csv(demo_out / "cable_schedule.csv")
     assert list(sched.columns[: len(CONTRACT_CIRCUIT)]) == CONTRACT_CIRCUIT
     assert list(sched.columns) == names(CIRCUIT_COLUMNS)
@@ -295,3 +297,50 @@ def test_synth_command_writes_a_valid_site(tmp_path):
     assert runner.invoke(app, ["check", str(tmp_path / "s")]).exit_code == 0
     bad = runner.invoke(app, ["synth", "--mw", "-1", "--out", str(tmp_path / "t")])
     assert bad.exit_code == 2 and "error: mw" in bad.stderr
+
+
+# -- the fast writers give exactly what the reference formatting gives ---------------------
+
+
+def _reference_fixed(values: np.ndarray, decimals: int) -> list[str]:
+    """The reference: Python's own '%.Nf' (correctly rounded), '' for NaN, no '-0.00'."""
+    fmt = f"%.{decimals}f"
+    out = [fmt % v for v in values.tolist()]
+    zero, negzero = fmt % 0.0, "-" + fmt % 0.0
+    return ["" if t == "nan" else zero if t == negzero else t for t in out]
+
+
+def test_fixed_text_equals_python_formatting_including_ties():
+    from routeplan.outputs.tables import fixed_text
+
+    rng = np.random.default_rng(7)
+    edge = np.array(
+        [0.125, 0.375, 1.005, 2.675, -0.004, -0.0, 0.0, np.nan, np.inf, -np.inf, 1e20, -1e20,
+         0.5, 1.5, 2.5, -2.5, 5e-324, 4503599627370495.5, 1e15 + 0.3, 9.995, 99.995, -9.995]
+    )  # fmt: skip
+    samples = [
+        edge,
+        rng.normal(0, 100, 20000),
+        rng.uniform(0, 1, 20000) * 1e9,
+        np.round(rng.uniform(0, 100, 20000), 2) + 0.005,  # near ties at 2 decimals
+        np.round(rng.uniform(0, 100, 20000), 3) + 0.0005,
+        10.0 ** np.arange(-8, 17),
+        np.zeros(0),
+    ]
+    for values in samples:
+        for d in range(7):
+            got = [t.decode("ascii") for t in fixed_text(values, d).tolist()]
+            assert got == _reference_fixed(values, d)
+
+
+def test_csv_quoting_equals_the_csv_module():
+    from routeplan.outputs.columns import Col
+    from routeplan.outputs.tables import format_table
+
+    hostile = ["plain", "a,b", 'say "hi"', "line\nbreak", "cr\rhere", "", None, "ünï,cødé"]
+    frame = pd.DataFrame({"id": hostile, "x": np.linspace(-1, 1, len(hostile))})
+    cols = (Col("id"), Col("x", decimals=2))
+    expected = frame.assign(x=_reference_fixed(frame["x"].to_numpy(), 2)).to_csv(
+        index=False, lineterminator="\n"
+    )
+    assert format_table(frame, cols).csv_bytes() == expected.encode("utf-8")

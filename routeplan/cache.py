@@ -1,0 +1,566 @@
+"""The plan cache: re-planning into the same output folder reuses what the inputs did not change.
+
+Where it lives
+    ``OUT/.routeplan-cache/`` inside the output folder: ``manifest.json`` and one file per
+    stored stage result. It is written with the outputs, into the same temporary folder, and
+    moved into place with them (all or nothing, :func:`routeplan.outputs.write.write_plan`),
+    so a cache always belongs to the outputs beside it. ``routeplan plan --no-cache`` neither
+    reads nor writes it.
+
+What is reused, and when (every key is a SHA-256 of everything the stage's result depends on)
+    ``site``
+        The validated :class:`layers.Site`. Key: the environment (below); the resolved site
+        folder (the site's default name); which file each layer comes from (``[layers]``,
+        ``site.gpkg`` or ``<layer>.<ext>``, as :func:`layers.sources.locate_layers` finds them
+        now); the SHA-256 of every one of those files (a Shapefile's every side file); and
+        site.toml *without* its ``[design]`` and ``[allowances]`` tables. Those two are
+        routeplan's (``layers`` never reads them: :class:`layers.model.Site`), so a design
+        change keeps the validated layers; the cached Site then gets the new config.
+    ``route``
+        The :class:`routeplan.routing.RoutePlan`. Key: the ``site`` key and every routing
+        parameter (snap and node tolerances, allowances, trench defaults).
+    ``size``
+        calc's :class:`calc.SizingResult`. Key: the ``route`` key, calc's design parameters
+        and the rule set. (Sizing is coupled across the plant through trench grouping and the
+        shared DC drop budget, so it is reused whole or recomputed whole.)
+    ``outputs``
+        The files written last time. Key: the ``size`` key, the whole site.toml, the input
+        files' digest and the map options. On a hit, each file is reused only if its SHA-256
+        still matches the one recorded (a file edited by hand is written anew).
+
+    The tables (schedule, trench schedule, quantities, summary) are recomputed from the stage
+    results every time (well under a second at 1 GW).
+
+Never stale
+    The *environment* is part of every key: the cache format, routeplan's version, a digest
+    of the source and data files of ``layers``, ``routeplan`` and ``calc`` (an edited rule
+    table or function invalidates everything), and the versions of Python, numpy, scipy,
+    pandas, geopandas, shapely/GEOS, pyproj/PROJ and pyogrio/GDAL. A manifest that does not
+    parse, is of another format or environment, an entry whose file is missing, whose
+    SHA-256 differs from the manifest's (corrupt or truncated) or that does not decode, is a
+    miss: the stage is computed afresh. Nothing from the cache is ever trusted more than a
+    cold run.
+
+Safe to open
+    Entries are numpy ``.npz`` archives read with ``allow_pickle=False`` plus JSON: no
+    pickle, so a cache copied in from elsewhere cannot run code. Only the classes listed in
+    :data:`_CLASSES` are rebuilt, through their constructors.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import io
+import json
+import os
+import platform
+import shutil
+from collections.abc import Iterable
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyproj
+import shapely
+
+import calc
+from layers.model import Module, Site
+
+from . import __version__
+from .network import TrenchDefaults, TrenchNetwork
+from .routing import RouteParams, RoutePlan
+
+CACHE_DIR = ".routeplan-cache"
+MANIFEST = "manifest.json"
+#: bump when what is stored, or how, changes
+FORMAT = 1
+STAGES: tuple[str, ...] = ("site", "route", "size")
+
+#: the classes an entry may rebuild (by these names only)
+_CLASSES: dict[str, type] = {
+    "Site": Site,
+    "Module": Module,
+    "RoutePlan": RoutePlan,
+    "RouteParams": RouteParams,
+    "TrenchDefaults": TrenchDefaults,
+    "TrenchNetwork": TrenchNetwork,
+    "SizingResult": calc.SizingResult,
+}
+
+
+class UncacheableError(Exception):
+    """A value the cache cannot store exactly (it is then simply not stored)."""
+
+
+# ------------------------------------------------------------------------------------------
+# keys
+
+
+def digest(*parts: Any) -> str:
+    """SHA-256 of the JSON of ``parts`` (floats by their exact ``repr``)."""
+    text = json.dumps(parts, sort_keys=True, default=repr, allow_nan=True, ensure_ascii=True)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def file_sha256(path: Path) -> str:
+    """SHA-256 of a file's bytes."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 22), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+@lru_cache(maxsize=1)
+def environment() -> str:
+    """Digest of everything besides the inputs that a result depends on (see the module doc)."""
+    import geopandas
+    import pyogrio
+    import scipy
+
+    root = Path(__file__).resolve().parents[1]
+    sources = hashlib.sha256()
+    for package in ("layers", "routeplan", "calc"):
+        for path in sorted((root / package).rglob("*")):
+            if path.suffix in (".py", ".csv", ".txt", ".css") and path.is_file():
+                sources.update(str(path.relative_to(root)).encode())
+                sources.update(path.read_bytes())
+    versions = {
+        "format": FORMAT,
+        "routeplan": __version__,
+        "python": platform.python_version(),
+        "numpy": np.__version__,
+        "scipy": scipy.__version__,
+        "pandas": pd.__version__,
+        "geopandas": geopandas.__version__,
+        "shapely": shapely.__version__,
+        "geos": shapely.geos_version_string,
+        "pyproj": pyproj.__version__,
+        "proj": pyproj.proj_version_str,
+        "pyogrio": pyogrio.__version__,
+        "gdal": pyogrio.__gdal_version_string__,
+    }
+    return digest(versions, sources.hexdigest())
+
+
+def input_files(root: Path, sources: dict[str, str]) -> dict[str, str]:
+    """SHA-256 of site.toml and of every file the layers come from (a GeoPackage once, a
+    Shapefile with its side files), by file name — the ``inputs`` digest of summary.json."""
+    files = {"site.toml"}
+    for spec in sources.values():
+        name = spec.rsplit(":", 1)[0] if spec.lower().rsplit(":", 1)[0].endswith(".gpkg") else spec
+        files.add(name)
+        if name.lower().endswith(".shp"):  # a Shapefile is several files
+            stem = Path(name).with_suffix("")
+            files.update(p.name for p in root.glob(f"{stem.name}.*"))
+    out = {}
+    for name in sorted(files):
+        path = root / name
+        if path.is_file():
+            out[name] = file_sha256(path)
+    return out
+
+
+def site_key(root: Path, config: dict[str, Any], sources: dict[str, str]) -> str | None:
+    """Key of the validated site (see the module docstring); None when it cannot be made
+    safely: a layer that is not one regular file (a folder dataset, a missing file)."""
+    files = input_files(root, sources)
+    files.pop("site.toml", None)
+    for spec in sources.values():
+        name = spec.rsplit(":", 1)[0] if spec.lower().rsplit(":", 1)[0].endswith(".gpkg") else spec
+        if name not in files:
+            return None
+    # a GeoPackage edited with write-ahead logging keeps recent changes beside it
+    for name in list(files):
+        for side in (f"{name}-wal", f"{name}-journal"):
+            if (root / side).is_file():
+                files[side] = file_sha256(root / side)
+    layer_config = {k: v for k, v in config.items() if k not in ("design", "allowances")}
+    return digest("site", environment(), str(root.resolve()), sources, files, layer_config)
+
+
+# ------------------------------------------------------------------------------------------
+# packing: values ⇄ (JSON metadata, numpy arrays), no pickle
+
+
+class _Packer:
+    def __init__(self) -> None:
+        self.arrays: dict[str, np.ndarray] = {}
+
+    def array(self, a: np.ndarray) -> str:
+        name = f"a{len(self.arrays)}"
+        self.arrays[name] = np.ascontiguousarray(a)
+        return name
+
+    def objects(self, values: Iterable[Any]) -> dict:
+        """Strings, None, NaN and pd.NA (object arrays, string columns) as one UTF-8 blob with
+        each string's length in characters and a code per element (0 str, 1 None, 2 NaN,
+        3 pd.NA)."""
+        if isinstance(values, np.ndarray):
+            arr = values.astype(object, copy=False).ravel()
+        else:
+            items = list(values)
+            arr = np.empty(len(items), dtype=object)
+            arr[:] = items
+        missing = pd.isna(arr) if len(arr) else np.zeros(0, dtype=bool)
+        kind = np.zeros(len(arr), dtype=np.int8)
+        for i in np.flatnonzero(missing).tolist():
+            v = arr[i]
+            kind[i] = 1 if v is None else 3 if v is pd.NA else 2
+            if kind[i] == 2 and not (isinstance(v, float) and v != v):
+                raise UncacheableError(f"missing value of type {type(v).__name__}")
+        present = arr[~missing]
+        if len(present) and pd.api.types.infer_dtype(present, skipna=False) != "string":
+            raise UncacheableError("object values that are not all strings")
+        codes, uniques = pd.factorize(present)  # each distinct string once
+        parts = [str(u) for u in uniques]
+        lengths = np.fromiter(map(len, parts), dtype=np.int64, count=len(parts))
+        blob = np.frombuffer("".join(parts).encode("utf-8"), dtype=np.uint8)
+        code = np.full(len(arr), -1, dtype=np.int64)
+        code[~missing] = codes
+        return {
+            "blob": self.array(blob),
+            "len": self.array(lengths),
+            "code": self.array(code),
+            "kind": self.array(kind),
+        }
+
+    def pack(self, v: Any) -> Any:
+        if v is None or isinstance(v, bool | str):
+            return {"t": "v", "v": v}
+        if isinstance(v, int):
+            return {"t": "int", "v": str(v)}
+        if isinstance(v, float):
+            return {"t": "float", "v": float.hex(v)}
+        if isinstance(v, np.generic):
+            return {"t": "np", "dtype": v.dtype.str, "a": self.array(np.asarray(v).reshape(1))}
+        if isinstance(v, Path):
+            return {"t": "path", "v": str(v)}
+        if isinstance(v, pyproj.CRS):
+            return {"t": "crs", "v": v.srs or v.to_wkt()}
+        if isinstance(v, list | tuple):
+            return {"t": type(v).__name__, "v": [self.pack(x) for x in v]}
+        if isinstance(v, dict) and _is_str_tuple_index(v):
+            keys = list(v)
+            return {
+                "t": "tupleindex",
+                "k": [self.objects([k[j] for k in keys]) for j in range(len(keys[0]))],
+                "v": self.array(np.fromiter(v.values(), dtype=np.int64, count=len(v))),
+            }
+        if isinstance(v, dict):
+            return {
+                "t": "dict",
+                "k": [self.pack(k) for k in v],
+                "v": [self.pack(x) for x in v.values()],
+            }
+        if isinstance(v, np.ndarray):
+            if v.dtype == object:
+                return {"t": "ndobj", "shape": list(v.shape), **self.objects(v.ravel().tolist())}
+            if v.dtype.kind not in "biufUS":
+                raise UncacheableError(f"array of dtype {v.dtype}")
+            return {"t": "nd", "a": self.array(v)}
+        if isinstance(v, pd.DataFrame):
+            return self.frame(v)
+        if dataclasses.is_dataclass(v) and type(v).__name__ in _CLASSES:
+            if _CLASSES[type(v).__name__] is not type(v):
+                raise UncacheableError(f"class {type(v)}")
+            fields = {f.name: self.pack(getattr(v, f.name)) for f in dataclasses.fields(v)}
+            return {"t": "dc", "cls": type(v).__name__, "f": fields}
+        raise UncacheableError(f"value of type {type(v).__name__}")
+
+    def frame(self, f: pd.DataFrame) -> dict:
+        if not isinstance(f.index, pd.RangeIndex) or f.index.start != 0 or f.index.step != 1:
+            raise UncacheableError("frame index is not 0..n-1")
+        if f.columns.has_duplicates or not all(isinstance(c, str) for c in f.columns):
+            raise UncacheableError("frame columns")
+        geo = isinstance(f, gpd.GeoDataFrame)
+        geometry = getattr(f, "active_geometry_name", None) if geo else None
+        if geometry is not None and geometry not in f.columns:
+            geometry = None
+        cols = []
+        for name in f.columns:
+            s = f[name]
+            if isinstance(s.dtype, gpd.array.GeometryDtype):
+                g = np.asarray(s.array, dtype=object)
+                wkb = shapely.to_wkb(g, output_dimension=3, flavor="extended", include_srid=False)
+                col = {"col": "geometry", "crs": self.pack(s.crs), **self.objects_bytes(wkb)}
+            elif s.dtype == object or isinstance(s.dtype, pd.StringDtype):
+                col = {
+                    "col": "objects",
+                    "dtype": str(s.dtype),
+                    **self.objects(s.to_numpy(dtype=object)),
+                }
+                if isinstance(s.dtype, pd.StringDtype):
+                    col["storage"] = s.dtype.storage
+                    col["na"] = "nan" if s.dtype.na_value is not pd.NA else "NA"
+            elif s.dtype.kind in "biuf" and isinstance(s.dtype, np.dtype):
+                col = {"col": "nd", "a": self.array(s.to_numpy())}
+            else:
+                raise UncacheableError(f"column {name!r} of dtype {s.dtype}")
+            cols.append({"name": name, **col})
+        crs = self.pack(f.crs) if geo else None
+        return {"t": "frame", "n": len(f), "geo": geo, "geometry": geometry, "crs": crs, "c": cols}
+
+    def objects_bytes(self, values: np.ndarray) -> dict:
+        missing = np.array([v is None for v in values.tolist()], dtype=bool)
+        parts = [b"" if v is None else v for v in values.tolist()]
+        lengths = np.fromiter(map(len, parts), dtype=np.int64, count=len(parts))
+        blob = np.frombuffer(b"".join(parts), dtype=np.uint8)
+        return {
+            "blob": self.array(blob),
+            "len": self.array(lengths),
+            "missing": self.array(missing),
+        }
+
+
+class _Unpacker:
+    def __init__(self, arrays: dict[str, np.ndarray]) -> None:
+        self.arrays = arrays
+
+    def _pieces(self, meta: dict) -> list[bytes]:
+        blob = self.arrays[meta["blob"]].tobytes()
+        ends = np.cumsum(self.arrays[meta["len"]]).tolist()
+        starts = [0, *ends[:-1]]
+        return [blob[a:b] for a, b in zip(starts, ends, strict=True)]
+
+    def objects(self, meta: dict) -> list[Any]:
+        kind = self.arrays[meta["kind"]]
+        text = self.arrays[meta["blob"]].tobytes().decode("utf-8")
+        ends = np.cumsum(self.arrays[meta["len"]]).tolist()
+        starts = [0, *ends[:-1]]
+        uniques = np.empty(len(ends) + 1, dtype=object)
+        uniques[:-1] = [text[a:b] for a, b in zip(starts, ends, strict=True)]
+        out = uniques[self.arrays[meta["code"]]]  # code -1: the trailing slot, filled below
+        fill = {1: None, 2: float("nan"), 3: pd.NA}
+        for i in np.flatnonzero(kind).tolist():
+            out[i] = fill[int(kind[i])]
+        return out.tolist()
+
+    def unpack(self, m: Any) -> Any:
+        t = m["t"]
+        if t == "v":
+            return m["v"]
+        if t == "int":
+            return int(m["v"])
+        if t == "float":
+            return float.fromhex(m["v"])
+        if t == "np":
+            return self.arrays[m["a"]].astype(np.dtype(m["dtype"]), copy=False)[0]
+        if t == "path":
+            return Path(m["v"])
+        if t == "crs":
+            return pyproj.CRS.from_user_input(m["v"])
+        if t == "list":
+            return [self.unpack(x) for x in m["v"]]
+        if t == "tuple":
+            return tuple(self.unpack(x) for x in m["v"])
+        if t == "tupleindex":
+            columns = [self.objects(k) for k in m["k"]]
+            return dict(zip(zip(*columns, strict=True), self.arrays[m["v"]].tolist(), strict=True))
+        if t == "dict":
+            return {self.unpack(k): self.unpack(v) for k, v in zip(m["k"], m["v"], strict=True)}
+        if t == "nd":
+            return self.arrays[m["a"]]
+        if t == "ndobj":
+            return np.array([*self.objects(m), None], dtype=object)[:-1].reshape(m["shape"])
+        if t == "frame":
+            return self.frame(m)
+        if t == "dc":
+            cls = _CLASSES[m["cls"]]
+            return cls(**{k: self.unpack(v) for k, v in m["f"].items()})
+        raise ValueError(f"unknown packed type {t!r}")
+
+    def frame(self, m: dict) -> pd.DataFrame:
+        data: dict[str, Any] = {}
+        for c in m["c"]:
+            if c["col"] == "geometry":
+                missing = self.arrays[c["missing"]]
+                wkb = np.array([*self._pieces(c), None], dtype=object)[:-1]
+                wkb[missing] = None
+                data[c["name"]] = gpd.GeoSeries(
+                    shapely.from_wkb(wkb), crs=self.unpack(c["crs"]), name=c["name"]
+                )
+            elif c["col"] == "objects":
+                values = np.array([*self.objects(c), None], dtype=object)[:-1]
+                if c["dtype"] == "object":
+                    data[c["name"]] = pd.Series(values, dtype=object)
+                else:
+                    na = np.nan if c["na"] == "nan" else pd.NA
+                    dtype = pd.StringDtype(storage=c["storage"], na_value=na)
+                    data[c["name"]] = pd.Series(values, dtype=dtype)
+            else:
+                data[c["name"]] = pd.Series(self.arrays[c["a"]])
+        frame = pd.DataFrame(data, index=pd.RangeIndex(m["n"]))
+        if not m["geo"]:
+            return frame
+        if m["geometry"] is None:
+            crs = self.unpack(m["crs"]) if m["crs"] is not None else None
+            return gpd.GeoDataFrame(frame, crs=crs)
+        return gpd.GeoDataFrame(frame, geometry=m["geometry"])
+
+
+def _is_str_tuple_index(d: dict) -> bool:
+    """A large mapping of equal-length tuples of str to int (e.g. the network's tap index)."""
+    if len(d) < 64:
+        return False
+    first = next(iter(d))
+    if not isinstance(first, tuple) or not first:
+        return False
+    n = len(first)
+    return all(
+        isinstance(k, tuple) and len(k) == n and all(type(x) is str for x in k) for k in d
+    ) and all(type(x) is int for x in d.values())
+
+
+def dumps(value: Any) -> bytes:
+    """``value`` as the bytes of an ``.npz`` archive (no pickle).
+
+    Raises :class:`UncacheableError` for a value that cannot be stored exactly.
+    """
+    p = _Packer()
+    meta = json.dumps(p.pack(value)).encode("utf-8")
+    buf = io.BytesIO()
+    np.savez(buf, __meta__=np.frombuffer(meta, dtype=np.uint8), **p.arrays)
+    return buf.getvalue()
+
+
+def loads(data: bytes | Path) -> Any:
+    """The value of :func:`dumps`' bytes (or of a file holding them)."""
+    src = io.BytesIO(data) if isinstance(data, bytes) else data
+    with np.load(src, allow_pickle=False) as z:
+        arrays = {k: z[k] for k in z.files}
+    meta = json.loads(arrays.pop("__meta__").tobytes().decode("utf-8"))
+    return _Unpacker(arrays).unpack(meta)
+
+
+# ------------------------------------------------------------------------------------------
+# the cache of one output folder
+
+
+class PlanCache:
+    """The cache of the output folder ``out_dir`` for one run (see the module docstring).
+
+    ``get(stage, key)`` returns the stored value or None (a miss); ``put(stage, key, value)``
+    marks a value to store. :meth:`save` writes the manifest and the entries into a new
+    output folder (the temporary one of the all-or-nothing write); entries that were reused
+    are hard-linked from the old folder when possible, never copied through memory.
+    """
+
+    def __init__(self, out_dir: Path | str) -> None:
+        self.out_dir = Path(out_dir)
+        self.dir = self.out_dir / CACHE_DIR
+        self.reused: dict[str, bool] = {}
+        self.keys: dict[str, str] = {}
+        self._new: dict[str, Any] = {}
+        self._manifest = self._read_manifest()
+
+    def _read_manifest(self) -> dict:
+        try:
+            m = json.loads((self.dir / MANIFEST).read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            return {}
+        if not isinstance(m, dict) or m.get("format") != FORMAT:
+            return {}
+        if m.get("environment") != environment():
+            return {}
+        if not isinstance(m.get("entries"), dict):
+            return {}
+        return m
+
+    @property
+    def found(self) -> bool:
+        """Whether the output folder held a usable cache (same format and environment)."""
+        return bool(self._manifest)
+
+    def _entry(self, stage: str, key: str) -> Path | None:
+        e = self._manifest.get("entries", {}).get(stage)
+        if not isinstance(e, dict) or e.get("key") != key or not isinstance(e.get("file"), str):
+            return None
+        path = self.dir / Path(e["file"]).name
+        try:
+            if file_sha256(path) != e.get("sha256"):
+                return None
+        except OSError:
+            return None
+        return path
+
+    def get(self, stage: str, key: str) -> Any | None:
+        """The value stored for ``stage`` under ``key``, or None."""
+        self.keys[stage] = key
+        path = self._entry(stage, key)
+        value = None
+        if path is not None:
+            try:
+                value = loads(path)
+            except Exception:  # a damaged entry is a miss, never an error
+                value = None
+        self.reused[stage] = value is not None
+        return value
+
+    def put(self, stage: str, key: str, value: Any) -> None:
+        """Store ``value`` for ``stage`` under ``key`` when the outputs are saved."""
+        self.keys[stage] = key
+        self._new[stage] = value
+
+    # -- outputs
+    def outputs_reusable(self, key: str, names: Iterable[str]) -> dict[str, Path]:
+        """Output files of the last run that may be reused as they are: same outputs key and
+        unchanged bytes (SHA-256 as recorded). Empty unless every one of ``names`` qualifies."""
+        o = self._manifest.get("outputs")
+        if not isinstance(o, dict) or o.get("key") != key or not isinstance(o.get("files"), dict):
+            return {}
+        out = {}
+        for name in names:
+            path = self.out_dir / name
+            try:
+                ok = path.is_file() and file_sha256(path) == o["files"].get(name)
+            except OSError:
+                ok = False
+            if not ok:
+                return {}
+            out[name] = path
+        return out
+
+    def save(self, new_out: Path, outputs_key: str | None, outputs: Iterable[str]) -> None:
+        """Write the manifest and entries into ``new_out/.routeplan-cache`` (a folder about to
+        replace the output folder). Values that cannot be stored exactly are left out."""
+        target = Path(new_out) / CACHE_DIR
+        target.mkdir(parents=True, exist_ok=True)
+        entries = {}
+        for stage, key in self.keys.items():
+            name = f"{stage}-{key[:20]}.npz"
+            if stage in self._new:
+                try:
+                    data = dumps(self._new[stage])
+                except UncacheableError:
+                    continue
+                (target / name).write_bytes(data)
+                sha = hashlib.sha256(data).hexdigest()
+            elif self.reused.get(stage):
+                old = self._manifest["entries"][stage]
+                src = self.dir / Path(old["file"]).name
+                link_or_copy(src, target / name)
+                sha = old["sha256"]
+            else:
+                continue
+            entries[stage] = {"key": key, "file": name, "sha256": sha}
+        files = {n: file_sha256(Path(new_out) / n) for n in outputs}
+        manifest = {
+            "format": FORMAT,
+            "environment": environment(),
+            "entries": entries,
+            "outputs": {"key": outputs_key, "files": files} if outputs_key else None,
+        }
+        (target / MANIFEST).write_text(json.dumps(manifest, indent=1) + "\n", encoding="utf-8")
+
+
+def link_or_copy(src: Path, dst: Path) -> None:
+    """Hard-link ``src`` as ``dst`` (same file system: no copy), else copy it."""
+    try:
+        os.link(src, dst)
+    except OSError:
+        shutil.copyfile(src, dst)
