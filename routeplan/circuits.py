@@ -217,11 +217,12 @@ def assign_destinations(
     def given(layer: str) -> list[tuple[str, str] | None]:
         """Destinations named by ``to``; problems for unknown ones."""
         out: list[tuple[str, str] | None] = []
+        owner = {v: la for la in reversed(TO_LAYERS[layer]) for v in index[la]}  # first wins
         for fid, target in zip(ids[layer], _ids(site.layer(layer)["to"]), strict=True):
             if target is None:
                 out.append(None)
                 continue
-            hit = next((la for la in TO_LAYERS[layer] if target in index[la]), None)
+            hit = owner.get(target)
             if hit is None:
                 kinds = " or ".join(_SINGULAR[la] for la in TO_LAYERS[layer])
                 msg = f"to {target!r} is not the id of any {kinds}"
@@ -234,9 +235,9 @@ def assign_destinations(
     strings = np.asarray(rows["strings"], dtype=np.int64) if len(rows) else np.zeros(0, np.int64)
     to["rows"] = given("rows")
     has_to = [t is not None for t in to["rows"]]
-    for i, t in enumerate(to["rows"]):
+    for i, (t, fid, n) in enumerate(zip(to["rows"], ids["rows"], strings.tolist(), strict=True)):
         if t is not None:
-            report[(0, i)] = _entry("rows", ids["rows"][i], t, "given", math.nan, strings[i])
+            report[(0, i)] = _entry("rows", fid, t, "given", math.nan, n)
     dst_layer = "combiners" if len(site.combiners) else "inverters"
     dst_ids = [v for v in ids[dst_layer] if connected(dst_layer, v)]
     if dst_layer == "combiners":
@@ -317,9 +318,9 @@ def assign_destinations(
 
     # strings carried by each combiner and inverter
     carried = {(la, v): 0 for la in ("combiners", "inverters") for v in ids[la]}
-    for i, t in enumerate(to["rows"]):
+    for t, n in zip(to["rows"], strings.tolist(), strict=True):
         if t is not None:
-            carried[t] += int(strings[i])
+            carried[t] += n
     for i, t in enumerate(to["combiners"]):
         if t is not None:
             carried[t] += carried[("combiners", ids["combiners"][i])]
@@ -424,7 +425,14 @@ def derive_circuits(
     """
     to = destinations.to
     parts: list[dict[str, np.ndarray]] = []
-    carried = destinations.report.set_index(["layer", "feature_id"])["strings"].to_dict()
+    rep = destinations.report
+    carried = dict(
+        zip(
+            zip(rep["layer"].tolist(), rep["feature_id"].tolist(), strict=True),
+            rep["strings"].tolist(),
+            strict=True,
+        )
+    )
     position = {
         la: {v: i for i, v in reversed(list(enumerate(_ids(site.layer(la)["id"]))))}
         for la in ("combiners", "inverters", "grid")

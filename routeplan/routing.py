@@ -49,6 +49,7 @@ from routeplan.network import (
     build_network,
     check_metric_crs,
     far_problems,
+    paused_gc,
     site_equipment,
 )
 
@@ -64,6 +65,12 @@ __all__ = [
 
 #: most ``destinations × nodes`` entries one Dijkstra call may return (memory bound).
 _CHUNK_ENTRIES = 4_000_000
+#: first search radius of a destination: straight distance to its farthest source × _DETOUR
+#: + _DETOUR_M [m]. A guess that only saves work: a search that falls short is redone in full.
+_DETOUR = 2.0
+_DETOUR_M = 100.0
+#: destinations per search call on a part of the network (see :func:`_local_searches`)
+_LOCAL_CHUNK = 64
 
 
 @dataclass(frozen=True)
@@ -181,16 +188,27 @@ class Paths:
 
 
 def _searches(network: TrenchNetwork, dst_nodes: np.ndarray, predecessors: bool):
-    """Yield ``(chunk_positions, dist, pred)`` of Dijkstra searches from ``dst_nodes``, chunked."""
+    """Yield ``(chunk_positions, dist, pred)`` of Dijkstra searches from ``dst_nodes`` over
+    the whole network, chunked."""
     n = max(network.n_nodes, 1)
     size = max(1, _CHUNK_ENTRIES // n)
     for lo in range(0, len(dst_nodes), size):
-        idx = dst_nodes[lo : lo + size]
+        pos = np.arange(lo, min(lo + size, len(dst_nodes)))
         out = csgraph.dijkstra(
-            network.graph, directed=True, indices=idx, return_predecessors=predecessors
+            network.graph, directed=True, indices=dst_nodes[pos], return_predecessors=predecessors
         )
         dist, pred = out if predecessors else (out, None)
-        yield np.arange(lo, lo + len(idx)), dist, pred
+        yield pos, dist, pred
+
+
+def _search_radius(network: TrenchNetwork, src: np.ndarray, dst: np.ndarray, row: np.ndarray):
+    """A first search radius [m] per destination: its farthest source's straight distance,
+    times :data:`_DETOUR`, plus :data:`_DETOUR_M` (a guess, checked: see :func:`shortest_paths`)."""
+    xy = network.node_xy
+    straight = np.hypot(*(xy[src] - xy[dst]).T) if len(src) else np.zeros(0)
+    need = np.zeros(int(row.max()) + 1 if len(row) else 0)
+    np.maximum.at(need, row, straight)
+    return need * _DETOUR + _DETOUR_M
 
 
 def shortest_paths(network: TrenchNetwork, src_node: np.ndarray, dst_node: np.ndarray) -> Paths:
@@ -198,6 +216,13 @@ def shortest_paths(network: TrenchNetwork, src_node: np.ndarray, dst_node: np.nd
 
     One single-source search per distinct destination node; the paths of all pairs that
     share a destination are walked up its predecessor tree together.
+
+    Each search first stops at a radius guessed from the straight distance to the farthest
+    source of its destination (:func:`_search_radius`), on the part of the network within
+    that radius (:func:`_local_searches`): Dijkstra settles nodes in order of distance, so
+    every node within the radius gets its exact shortest distance and path. A destination
+    whose sources are not all reached within its radius is searched again over the whole
+    network without limit. The radius only saves work; it never changes a route.
 
     Parameters
     ----------
@@ -217,28 +242,45 @@ def shortest_paths(network: TrenchNetwork, src_node: np.ndarray, dst_node: np.nd
     src_node = np.asarray(src_node, dtype=np.int64)
     dst_node = np.asarray(dst_node, dtype=np.int64)
     n_pairs = len(src_node)
-    uniq, row = np.unique(dst_node, return_inverse=True)
-    steps_pair: list[np.ndarray] = []
-    steps_node: list[np.ndarray] = []
-    by_row = np.argsort(row, kind="stable")
-    bounds = np.searchsorted(row[by_row], np.arange(len(uniq) + 1))
-    for pos, dist, pred in _searches(network, uniq, predecessors=True):
-        pairs = by_row[bounds[pos[0]] : bounds[pos[-1] + 1]]
-        r = row[pairs] - pos[0]
-        cur = src_node[pairs]
-        if np.any(np.isinf(dist[r, cur])):
-            raise ValueError("a source cannot reach its destination")
-        steps_pair.append(pairs)
-        steps_node.append(cur)
-        live = cur != dst_node[pairs]
-        while live.any():
-            pairs, r, cur = pairs[live], r[live], pred[r[live], cur[live]]
-            steps_pair.append(pairs)
-            steps_node.append(cur)
-            live = cur != dst_node[pairs]
     if n_pairs == 0:
         empty = np.zeros(0, dtype=np.int64)
         return Paths(np.zeros(1, dtype=np.int64), empty, empty.astype(bool), np.zeros(0))
+    uniq, row = np.unique(dst_node, return_inverse=True)
+    row = row.reshape(-1)
+    by_row = np.argsort(row, kind="stable")
+    bounds = np.searchsorted(row[by_row], np.arange(len(uniq) + 1))
+    steps_pair: list[np.ndarray] = []
+    steps_node: list[np.ndarray] = []
+    radius = _search_radius(network, src_node, dst_node, row)
+    todo = np.arange(len(uniq))
+    for attempt in range(2):
+        missed: list[np.ndarray] = []
+        if attempt == 0:
+            searches = _local_searches(network, uniq[todo], radius[todo])
+        else:
+            searches = ((p, d, q, None) for p, d, q in _searches(network, uniq[todo], True))
+        for pos, dist, pred, sub in searches:
+            dests = todo[pos]
+            # pairs of these destinations, and the row of their search in dist / pred
+            counts = bounds[dests + 1] - bounds[dests]
+            pairs = by_row[np.repeat(bounds[dests], counts) + _within(counts)]
+            r = np.repeat(np.arange(len(dests)), counts)
+            cur, dst = src_node[pairs], dst_node[pairs]
+            if sub is not None:  # nodes of the searched part: numbered by their order in sub
+                cur, dst = _local(sub, cur), _local(sub, dst)
+            lost = cur < 0
+            lost[~lost] = np.isinf(dist[r[~lost], cur[~lost]])
+            if lost.any():
+                if attempt == 1:
+                    raise ValueError("a source cannot reach its destination")
+                bad = np.unique(r[lost])
+                missed.append(dests[bad])
+                keep = ~np.isin(r, bad)
+                pairs, r, cur, dst = pairs[keep], r[keep], cur[keep], dst[keep]
+            _walk(pairs, r, cur, dst, pred, sub, steps_pair, steps_node)
+        if not missed:
+            break
+        todo = np.sort(np.concatenate(missed))
     sp, sn = np.concatenate(steps_pair), np.concatenate(steps_node)
     order = np.argsort(sp, kind="stable")  # by pair; steps stay in walking order
     sp, sn = sp[order], sn[order]
@@ -250,6 +292,95 @@ def shortest_paths(network: TrenchNetwork, src_node: np.ndarray, dst_node: np.nd
     offset = np.r_[0, np.cumsum(per_pair)]
     trench_m = np.bincount(sp[step], weights=network.seg_length_m[seg], minlength=n_pairs)
     return Paths(offset, seg, forward, trench_m)
+
+
+def _within(counts: np.ndarray) -> np.ndarray:
+    """``0..counts[i]-1`` for each ``i``, concatenated."""
+    return np.arange(counts.sum()) - np.repeat(np.cumsum(counts) - counts, counts)
+
+
+def _walk(
+    pairs: np.ndarray,
+    r: np.ndarray,
+    cur: np.ndarray,
+    dst: np.ndarray,
+    pred: np.ndarray,
+    sub: np.ndarray | None,
+    steps_pair: list[np.ndarray],
+    steps_node: list[np.ndarray],
+) -> None:
+    """Walk the pairs up their destination's predecessor tree (row ``r`` of ``pred``) from
+    their source ``cur`` to ``dst``, all at once; append (pair, node) of every step.
+
+    ``sub``: the network nodes of a partial search, whose predecessors are numbered by their
+    position in ``sub`` (None: the whole network)."""
+    node = (lambda a: a) if sub is None else (lambda a: sub[a])
+    steps_pair.append(pairs)
+    steps_node.append(node(cur))
+    live = cur != dst
+    while live.any():
+        pairs, r, cur, dst = pairs[live], r[live], pred[r[live], cur[live]], dst[live]
+        steps_pair.append(pairs)
+        steps_node.append(node(cur))
+        live = cur != dst
+
+
+def _local(sub: np.ndarray, nodes: np.ndarray) -> np.ndarray:
+    """Position of each of ``nodes`` in the sorted ``sub``; -1 where it is not there."""
+    if len(sub) == 0:
+        return np.full(len(nodes), -1, dtype=np.int64)
+    pos = np.minimum(np.searchsorted(sub, nodes), len(sub) - 1)
+    return np.where(sub[pos] == nodes, pos, -1)
+
+
+def _local_searches(network: TrenchNetwork, dst_nodes: np.ndarray, limit: np.ndarray):
+    """Yield ``(chunk_positions, dist, pred, sub)`` of Dijkstra searches from ``dst_nodes``
+    no farther than their ``limit`` [m], each chunk on the part of the network around it.
+
+    A path no longer than the limit never leaves the disc of that radius around its
+    destination (a segment is never shorter than the straight line between its nodes), so
+    the nodes ``sub`` within the radius of the chunk's bounding box hold every path a search
+    can find: distances and predecessors are those of a search on the whole network.
+    Destinations are chunked by radius (powers of two) and then along a Z-order curve, so
+    that each chunk is compact and its part of the network small; results come by position
+    in ``sub``.
+    """
+    xy = network.node_xy
+    graph = network.graph
+    if len(dst_nodes) == 0:
+        return
+    dxy = xy[dst_nodes]
+    order = np.lexsort((_z_order(dxy), np.floor(np.log2(np.maximum(limit, 1.0)))))
+    for lo in range(0, len(order), _LOCAL_CHUNK):
+        pos = order[lo : lo + _LOCAL_CHUNK]
+        radius = float(limit[pos].max())
+        reach = radius + 1.0  # a margin over rounding: a node left out is searched again
+        (x0, y0), (x1, y1) = dxy[pos].min(axis=0) - reach, dxy[pos].max(axis=0) + reach
+        inside = (xy[:, 0] >= x0) & (xy[:, 0] <= x1) & (xy[:, 1] >= y0) & (xy[:, 1] <= y1)
+        sub = np.flatnonzero(inside)
+        dist, pred = csgraph.dijkstra(
+            graph[sub][:, sub],
+            directed=True,
+            indices=_local(sub, dst_nodes[pos]),
+            return_predecessors=True,
+            limit=radius,
+        )
+        yield pos, dist, pred, sub
+
+
+def _z_order(xy: np.ndarray) -> np.ndarray:
+    """Z-order (Morton) code of points: near points mostly get near codes."""
+    lo = xy.min(axis=0)
+    span = np.maximum(xy.max(axis=0) - lo, 1e-9)
+    q = ((xy - lo) / span * 65535).astype(np.uint64)
+
+    def spread(v: np.ndarray) -> np.ndarray:
+        v = (v | (v << np.uint64(8))) & np.uint64(0x00FF00FF)
+        v = (v | (v << np.uint64(4))) & np.uint64(0x0F0F0F0F)
+        v = (v | (v << np.uint64(2))) & np.uint64(0x33333333)
+        return (v | (v << np.uint64(1))) & np.uint64(0x55555555)
+
+    return spread(q[:, 0]) | (spread(q[:, 1]) << np.uint64(1))
 
 
 def _route_lengths_fn(network: TrenchNetwork):
@@ -506,6 +637,7 @@ def check_network(site: Site, params: RouteParams | None = None) -> list[Problem
     return [p for _, p in _prepare(site, params).problems]
 
 
+@paused_gc()
 def route_site(site: Site, params: RouteParams | None = None) -> RoutePlan:
     """Route every circuit of ``site`` along its trenches.
 

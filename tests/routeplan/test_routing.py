@@ -466,3 +466,37 @@ def test_routes_agree_with_networkx(make_site, drawn):
     gmax = np.zeros(len(c), dtype=int)
     np.maximum.at(gmax, plan.incidence_circuit, counts[plan.incidence_segment])
     assert (gmax == c["group_max"].to_numpy()).all()
+
+
+# ---- the first search radius is only a guess: routes are exact beyond it ---------------------
+
+
+def test_long_detour_beyond_the_first_search_radius(make_site):
+    """A hairpin trench: (0,0) → (1000,0) → (1000,5) → (0,5), 2005 m. Row R1 (x=0, y -3..-23)
+    taps (0,0) by 3 m; CB1 (0,7) taps (0,5) by 2 m: 5 m apart in a straight line, 2005 m
+    along the trench — far beyond the first radius (2 × 5 m + 100 m), so the search is redone
+    in full. INV1 (1002, 2.5) taps (1000, 2.5) by 2 m."""
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "CB1", "geometry": line((0, -3), (0, -23))}],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(0, 7)}],
+        inverters=[{"id": "INV1", "geometry": pt(1002, 2.5)}],
+        trenches=[{"id": "U", "geometry": line((0, 0), (1000, 0), (1000, 5), (0, 5))}],
+    )
+    c = route_site(site).circuits.set_index("circuit_id")
+    assert c.loc["R1/S1", "trench_m"] == pytest.approx(2005.0, abs=1e-9)  # hand
+    assert c.loc["R1/S1", "route_m"] == pytest.approx(2010.0, abs=1e-9)  # hand: + 3 + 2 m
+    assert c.loc["A:CB1", "trench_m"] == pytest.approx(1002.5, abs=1e-9)  # hand
+
+
+def test_search_radius_never_changes_a_route(comb, monkeypatch):
+    """Every destination searched again in full (radius 0) gives the same routes."""
+    from routeplan import routing
+
+    site = comb(6, 4, 3)
+    before = route_site(site)
+    monkeypatch.setattr(routing, "_DETOUR", 0.0)
+    monkeypatch.setattr(routing, "_DETOUR_M", 0.0)
+    after = route_site(site)
+    for col in ("route_m", "segment_ids", "group_max"):
+        assert before.circuits[col].tolist() == after.circuits[col].tolist()
+    assert before.segments["circuits"].tolist() == after.segments["circuits"].tolist()
