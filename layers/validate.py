@@ -88,6 +88,9 @@ TYPE_NAMES: dict[int, str] = {
     7: "GeometryCollection",
 }
 
+#: line geometry types (a line must have a length)
+LINE_TYPES: tuple[str, ...] = ("LineString", "MultiLineString")
+
 #: a feature of each layer, in words
 SINGULAR: dict[str, str] = {
     "rows": "row",
@@ -242,14 +245,16 @@ def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Probl
     return modules, problems
 
 
-def _label(frame: pd.DataFrame, i: int) -> str:
-    """The feature's id for messages, or ``#n`` (1-based position) when it has none."""
-    if "id" in frame.columns:
-        v = frame["id"].iloc[i]
-        s = _id_text(v)
-        if s:
-            return s
-    return f"#{i + 1}"
+def _labeller(frame: pd.DataFrame):
+    """``label(i)``: the id of feature ``i`` of ``frame`` for messages, or ``#n`` (1-based
+    position) when it has none. The ids are read once."""
+    ids = frame["id"].to_numpy(dtype=object) if "id" in frame.columns else None
+
+    def label(i: int) -> str:
+        s = _id_text(ids[i]) if ids is not None else ""
+        return s or f"#{i + 1}"
+
+    return label
 
 
 def _id_text(v: Any) -> str:
@@ -278,8 +283,15 @@ def _check_geometry(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFram
         geoms[single] = shapely.get_geometry(geoms[single], 0)
     tid = shapely.get_type_id(geoms)
     valid = shapely.is_valid(geoms)
-    for i in range(len(frame)):
-        label = _label(frame, i)
+    # only features with a problem are looked at one by one
+    allowed_ids = [k for k, v in TYPE_NAMES.items() if v in allowed]
+    lines = np.isin(tid, [k for k, v in TYPE_NAMES.items() if v in LINE_TYPES])
+    zero = np.zeros(len(geoms), dtype=bool)
+    zero[lines] = shapely.length(geoms[lines]) <= 0
+    bad = missing | ~np.isin(tid, allowed_ids) | ~valid | zero
+    labeller = _labeller(frame)
+    for i in np.flatnonzero(bad).tolist():
+        label = labeller(i)
         if missing[i]:
             problems.append(Problem(name, label, "empty or missing geometry"))
             continue
@@ -293,7 +305,7 @@ def _check_geometry(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFram
             reason = shapely.is_valid_reason(geoms[i])
             problems.append(Problem(name, label, f"invalid geometry: {reason}"))
             continue
-        if tname in ("LineString", "MultiLineString") and shapely.length(geoms[i]) <= 0:
+        if tname in LINE_TYPES and shapely.length(geoms[i]) <= 0:
             problems.append(Problem(name, label, "line has zero length"))
     frame = frame.set_geometry(gpd.GeoSeries(geoms, crs=frame.crs), crs=frame.crs)
     return frame, problems
@@ -321,7 +333,7 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
     problems: list[Problem] = []
     n = len(frame)
     if "id" in frame.columns:
-        ids = [_id_text(v) for v in frame["id"]]
+        ids = [_id_text(v) for v in frame["id"].tolist()]
         for i, s in enumerate(ids):
             if not s:
                 problems.append(Problem(name, f"#{i + 1}", "missing or empty id"))
@@ -332,13 +344,10 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
                 problems.append(Problem(name, None, f"no {fld.name!r} column (required)"))
             frame[fld.name] = _default_column(fld, n)
             continue
-        col = frame[fld.name]
-        out: list[Any] = []
-        for i, v in enumerate(col):
-            value, message = _parse_value(fld, v)
-            if message:
-                problems.append(Problem(name, _label(frame, i), message))
-            out.append(value)
+        out, bad = _parse_column(fld, frame[fld.name])
+        if bad:
+            labeller = _labeller(frame)
+            problems += [Problem(name, labeller(i), message) for i, message in bad]
         if fld.kind in ("int", "float"):
             frame[fld.name] = pd.Series(out, index=frame.index, dtype=float)
             if fld.kind == "int" and fld.required and not frame[fld.name].isna().any():
@@ -348,6 +357,30 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
     if name == "inverters" and "phases" in frame.columns:
         frame["phases"] = frame["phases"].fillna(3).astype(int)
     return frame, problems
+
+
+def _parse_column(fld: Field, col: pd.Series) -> tuple[list[Any], list[tuple[int, str]]]:
+    """:func:`_parse_value` of every value of ``col``: (typed values, [(position, message)]).
+
+    Each distinct value (of one type) is parsed once: a column holds few distinct values.
+    """
+    memo: dict[Any, tuple[Any, str]] = {}
+    out: list[Any] = []
+    bad: list[tuple[int, str]] = []
+    for i, v in enumerate(col.tolist()):
+        key = (type(v), "nan" if v != v else v) if type(v) is float else (type(v), v)
+        try:
+            hit = memo.get(key)
+        except TypeError:  # unhashable, or a value that refuses comparison (pd.NA)
+            key, hit = None, None
+        if hit is None:
+            hit = _parse_value(fld, v)
+            if key is not None:
+                memo[key] = hit
+        if hit[1]:
+            bad.append((i, hit[1]))
+        out.append(hit[0])
+    return out, bad
 
 
 def _default_column(fld: Field, n: int) -> pd.Series:
@@ -402,6 +435,7 @@ def _check_ids_and_refs(
     module keys exist; a combiner's ``max_strings`` is not exceeded by the rows assigned to it."""
     problems: list[Problem] = []
     owner: dict[str, str] = {}
+    labels = {name: _labeller(frame) for name, frame in frames.items()}
     for name in LAYER_NAMES:
         frame = frames.get(name)
         if frame is None or "id" not in frame.columns:
@@ -433,7 +467,7 @@ def _check_ids_and_refs(
                     problems.append(
                         Problem(
                             name,
-                            _label(frame, i),
+                            labels[name](i),
                             f"{fld.name} = {target!r}: no feature has that id",
                         )
                     )
@@ -442,7 +476,7 @@ def _check_ids_and_refs(
                     problems.append(
                         Problem(
                             name,
-                            _label(frame, i),
+                            labels[name](i),
                             f"{fld.name} = {target!r} is {_a(SINGULAR[kind])}; expected {_a(want)}",
                         )
                     )
@@ -454,7 +488,7 @@ def _check_ids_and_refs(
                 problems.append(
                     Problem(
                         "rows",
-                        _label(rows, i),
+                        labels["rows"](i),
                         f"module {key!r} is not in site.toml [modules] (known: {known})",
                     )
                 )
@@ -468,7 +502,7 @@ def _check_ids_and_refs(
                 problems.append(
                     Problem(
                         "combiners",
-                        _label(combiners, i),
+                        labels["combiners"](i),
                         f"{n:g} strings are assigned to it but max_strings is {cap:g}",
                     )
                 )
