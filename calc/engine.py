@@ -1021,10 +1021,11 @@ def _assemble(
             f"(array circuit {par[i]})"
         )
 
-    _add_notes(notes, fail_cap, cap_note)
-    _add_notes(notes, fail_vd, vd_note)
-    _add_notes(notes, fail_sc, sc_note)
-    _add_notes(notes, fail_path, path_note)
+    size_keys = (out["parallel"], out["size_mm2"], out["material"])
+    _add_notes(notes, fail_cap, cap_note, (i_design, deriv, out["ampacity_a"], *size_keys))
+    _add_notes(notes, fail_vd, vd_note, (is_arr, child_max, own, budgets, *size_keys))
+    _add_notes(notes, fail_sc, sc_note, (out["sc_min_mm2"],))
+    _add_notes(notes, fail_path, path_note, (total, par))
 
     seg_cnt = counts
     seg_group = rs.group_factor(seg_cnt, a["seg_spacing_m"], a["seg_laying"]) if m else np.zeros(0)
@@ -1057,7 +1058,25 @@ def _assemble(
     )
 
 
-def _add_notes(notes: np.ndarray, mask: np.ndarray, text) -> None:
-    """Append a note to each circuit in ``mask`` (formatting only the flagged circuits)."""
-    for i in np.flatnonzero(mask):
-        notes[i] = f"{notes[i]}; {text(i)}" if notes[i] else text(i)
+def _add_notes(notes: np.ndarray, mask: np.ndarray, text, keys: tuple = ()) -> None:
+    """Append a note to each circuit in ``mask`` (formatting only the flagged circuits).
+
+    ``keys``: the per-circuit arrays that ``text(i)`` depends on; a note is then formatted
+    once per distinct key (floats compared bit for bit) and reused for the others.
+    """
+    idx = np.flatnonzero(mask)
+    if not len(idx):
+        return
+    cols = []
+    for k in keys:
+        v = np.asarray(k)[idx]
+        cols.append((v.astype(np.float64).view(np.int64) if v.dtype.kind == "f" else v).tolist())
+    memo: dict = {}
+    for i, key in zip(idx.tolist(), zip(*cols, strict=True) if cols else [None] * len(idx),
+                      strict=True):  # fmt: skip
+        t = memo.get(key) if cols else None
+        if t is None:
+            t = text(i)
+            if cols:
+                memo[key] = t
+        notes[i] = f"{notes[i]}; {t}" if notes[i] else t
