@@ -37,7 +37,10 @@ from pathlib import Path
 import folium
 import geopandas as gpd
 import numpy as np
+import pyproj
+import shapely
 
+from routeplan.network import paused_gc
 from routeplan.outputs.map_assets import offline_header
 from routeplan.outputs.map_elements import PAGE_SCRIPT, GeoJsonLayer, MetricScale, RawHTML
 from routeplan.outputs.map_features import (
@@ -159,7 +162,7 @@ def _add_segments(m: folium.Map, layers: SegmentLayers) -> None:
 
 
 def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
-    boxes = [f.to_crs("EPSG:4326").total_bounds for f in frames if len(f) and f.crs is not None]
+    boxes = [_lonlat_bounds(f) for f in frames if len(f) and f.crs is not None]
     boxes = [b for b in boxes if np.isfinite(b).all()]
     if not boxes:
         return None
@@ -167,6 +170,18 @@ def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
     return [[b[:, 1].min(), b[:, 0].min()], [b[:, 3].max(), b[:, 2].max()]]
 
 
+def _lonlat_bounds(gdf: gpd.GeoDataFrame) -> np.ndarray:
+    """``gdf.to_crs("EPSG:4326").total_bounds`` from the coordinates alone (no new geometries)."""
+    xy = shapely.get_coordinates(gdf.geometry.to_numpy())
+    if len(xy) == 0:
+        return np.full(4, np.nan)
+    if not gdf.crs.equals("EPSG:4326"):
+        to_geo = pyproj.Transformer.from_crs(gdf.crs, "EPSG:4326", always_xy=True)
+        xy = np.column_stack(to_geo.transform(xy[:, 0], xy[:, 1]))
+    return np.r_[np.nanmin(xy, axis=0), np.nanmax(xy, axis=0)]
+
+
+@paused_gc()
 def render_map(
     circuits: gpd.GeoDataFrame,
     segments: gpd.GeoDataFrame,

@@ -7,6 +7,13 @@ Each drawn layer becomes one GeoJSON FeatureCollection (:class:`Layer`) whose fe
   small table of distinct styles, precomputed here; the page's style function is a table
   look-up, so it needs neither per-feature JavaScript nor folium's per-feature style map.
 
+The page carries each layer by column (:func:`columns_text`), not as GeoJSON text: the
+geometry type once, the coordinates of each feature, each property as one list (or, where it
+saves room, a list of its distinct values and each feature's index into it) and the style
+indices. The page's ``rpFeatures`` rebuilds the FeatureCollection in the browser
+(:func:`expand` does the same in Python). Property names are written once per layer instead
+of once per feature: a 1 GW plant's map is about a third of the size of the GeoJSON.
+
 Geometry is simplified lightly in the metric working CRS, reprojected to EPSG:4326 and rounded to
 6 decimals (about 0.1 m), which keeps a 1 GW plant's map small. Nothing here imports folium.
 """
@@ -14,12 +21,16 @@ Geometry is simplified lightly in the metric working CRS, reprojected to EPSG:43
 from __future__ import annotations
 
 import json
-from dataclasses import dataclass
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from functools import cached_property
 
 import geopandas as gpd
 import numpy as np
 import pandas as pd
 import shapely
+from numpy.dtypes import StringDType
 
 from routeplan.outputs.map_scales import (
     CASING_COLOUR,
@@ -144,21 +155,36 @@ EQUIPMENT_POLYGON_STYLE = {
 STYLE_KEY = "s"
 
 
-@dataclass
+@dataclass(eq=False)
 class Layer:
     """One drawn layer: a FeatureCollection, its style table, the tooltip fields (property,
-    label) of its features. Feature ``i`` is drawn with ``styles[properties["s"]]``."""
+    label) of its features. Feature ``i`` is drawn with ``styles[properties["s"]]``.
 
-    features: dict
+    ``text`` is the layer by column as compact JSON (what the page embeds, before the
+    escaping for ``<script>``; see :func:`columns_text`); :attr:`features` is the
+    FeatureCollection it stands for, for inspection.
+    """
+
+    text: str
     styles: list[dict]
     fields: tuple[tuple[str, str], ...] = ()
+    style_index: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
 
     def __len__(self) -> int:
-        return len(self.features["features"])
+        return len(self.style_index)
+
+    @cached_property
+    def features(self) -> dict:
+        """The FeatureCollection as a dict."""
+        return expand(json.loads(self.text))
 
     def style_of(self, i: int) -> dict:
         """The style of feature ``i``."""
-        return self.styles[self.features["features"][i]["properties"][STYLE_KEY]]
+        return self.styles[int(self.style_index[i])]
+
+
+#: A style per feature, as a table of distinct styles and each feature's index into it.
+StyleTable = tuple[list[dict], np.ndarray]
 
 
 # ---------------------------------------------------------------------------------------------
@@ -179,6 +205,36 @@ def _text(df: pd.DataFrame, name: str) -> pd.Series:
     """A column as raw text: NaN/None → ""."""
     s = _column(df, name, "")
     return s.astype(object).where(s.notna(), "").astype(str)
+
+
+def _codes(values) -> np.ndarray:
+    """Integer codes of equal values (floats bit for bit, so -0.0 is not 0.0; NaN is a value)."""
+    a = np.asarray(values)
+    if a.dtype.kind == "f":
+        bits = np.ascontiguousarray(a, dtype=np.float64).view(np.int64)
+        return np.unique(bits, return_inverse=True)[1].reshape(-1)
+    codes = pd.factorize(a, use_na_sentinel=False)[0]
+    if a.dtype == object:  # 1, 1.0 and True are equal keys but different values
+        types = pd.factorize(np.array([type(v).__name__ for v in a.tolist()], dtype=object))[0]
+        codes = pd.factorize(codes * (int(types.max()) + 1) + types)[0]
+    return codes
+
+
+def per_distinct(func, *columns) -> list:
+    """``[func(*row) for row in zip(*columns)]``, calling ``func`` once per distinct row."""
+    cols = [np.asarray(c) for c in columns]
+    n = len(cols[0]) if cols else 0
+    if n == 0:
+        return []
+    key = np.zeros(n, dtype=np.int64)
+    for c in cols:
+        code = _codes(c)
+        key = np.unique(key * (int(code.max()) + 1) + code, return_inverse=True)[1].reshape(-1)
+    _, first, inverse = np.unique(key, return_index=True, return_inverse=True)
+    values = [func(*(c[i] for c in cols)) for i in first.tolist()]
+    out = np.empty(len(values), dtype=object)
+    out[:] = values
+    return out[inverse.reshape(-1)].tolist()
 
 
 def drawable(gdf: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
@@ -204,83 +260,256 @@ def display_geometry(gdf: gpd.GeoDataFrame) -> np.ndarray:
 
 
 #: Text properties of a layer's features: property name -> one escaped string per feature.
-Props = dict[str, list[str]]
+Props = dict[str, Sequence[str]]
+
+_STR = StringDType()
+#: characters a JSON string must escape (quote, backslash, controls)
+_SPACE = re.compile(r"\s")
+_JSON_SPECIAL = re.compile(r'["\\\x00-\x1f]')
 
 
-def make_layer(geoms, props: Props | None, styles: list[dict], fields=()) -> Layer:
-    """A :class:`Layer` from geometries, text properties and one style per feature.
-
-    Equal styles share one entry of the layer's style table.
-    """
+def style_table(styles: Sequence[dict]) -> StyleTable:
+    """The table of distinct styles and each feature's index into it (first seen first)."""
     table: list[dict] = []
     seen: dict[tuple, int] = {}
-    index = []
-    for st in styles:
+    index = np.empty(len(styles), dtype=np.int64)
+    for i, st in enumerate(styles):
         key = tuple(sorted(st.items()))
         if key not in seen:
             seen[key] = len(table)
             table.append(st)
-        index.append(seen[key])
-    if props:
-        names = list(props)
-        rows = zip(*props.values(), strict=True)
-        # empty values are left out: the tooltip skips missing fields
-        records = [{k: v for k, v in zip(names, values, strict=True) if v} for values in rows]
+        index[i] = seen[key]
+    return table, index
+
+
+def _keyed_styles(keys: Sequence[np.ndarray], make) -> StyleTable:
+    """Styles of features described by parallel key arrays: ``make(*key)`` is called once per
+    distinct key, in order of first appearance."""
+    n = len(keys[0]) if keys else 0
+    if n == 0:
+        return [], np.zeros(0, dtype=np.int64)
+    codes = np.zeros(n, dtype=np.int64)
+    for k in keys:
+        c, u = pd.factorize(np.asarray(k), use_na_sentinel=False)
+        codes = codes * max(len(u), 1) + c
+    _, first, index = np.unique(codes, return_index=True, return_inverse=True)
+    # styles numbered by first appearance; keys that make equal styles share one
+    table: list[dict] = []
+    seen: dict[tuple, int] = {}
+    number = np.empty(len(first), dtype=np.int64)
+    for j in np.argsort(first, kind="stable").tolist():
+        st = make(*(np.asarray(k)[first[j]] for k in keys))
+        key = tuple(sorted(st.items()))
+        if key not in seen:
+            seen[key] = len(table)
+            table.append(st)
+        number[j] = seen[key]
+    return table, number[index.reshape(-1)]
+
+
+def _json_bodies(values: Sequence[str]) -> np.ndarray:
+    """JSON string literals of ``values`` without their quotes, as a StringDType array."""
+    values = values.tolist() if hasattr(values, "tolist") else list(values)
+    if set(map(type, values)) - {str}:
+        values = [str(v) for v in values]
+    if _JSON_SPECIAL.search("".join(values)) is not None:
+        values = [
+            json.dumps(v, ensure_ascii=False)[1:-1] if _JSON_SPECIAL.search(v) else v
+            for v in values
+        ]
+    return np.asarray(values, dtype=_STR)
+
+
+#: geometry types whose GeoJSON is ``{"type": …, "coordinates": …}``
+_COORDINATE_TYPES = ("Point", "LineString", "Polygon", "MultiPoint", "MultiLineString",
+                     "MultiPolygon")  # fmt: skip
+
+
+def _strings_json(bodies: np.ndarray) -> str:
+    """A JSON list of strings from their literal bodies."""
+    return '["' + '","'.join(np.asarray(bodies).tolist()) + '"]' if len(bodies) else "[]"
+
+
+def _ints_json(values) -> str:
+    return "[" + ",".join(np.asarray(values, dtype=np.int64).astype(str).tolist()) + "]"
+
+
+def _column_json(bodies: np.ndarray) -> str:
+    """One property column: a list of strings, or ``{"v": distinct values, "i": indices}``
+    (``{"v": [value]}`` when all are equal) where that is shorter."""
+    codes, uniques = pd.factorize(np.asarray(bodies, dtype=object))
+    if len(uniques) == 1:
+        return '{"v":' + _strings_json(uniques) + "}"
+    lengths = np.strings.str_len(bodies)
+    plain = int(lengths.sum()) + 3 * len(bodies)
+    digits = np.floor(np.log10(np.maximum(codes, 1))).astype(np.int64) + 2
+    coded = int(np.strings.str_len(np.asarray(uniques, dtype=_STR)).sum()) + 3 * len(uniques)
+    if coded + int(digits.sum()) + 12 >= plain:
+        return _strings_json(bodies)
+    return '{"v":' + _strings_json(uniques) + ',"i":' + _ints_json(codes) + "}"
+
+
+def columns_text(geoms: np.ndarray, props: Props | None, index: np.ndarray) -> str:
+    """A layer by column as compact JSON: ``n`` features; ``t`` the geometry type (one type),
+    or ``{"v": types, "i": indices}``; ``c`` each feature's GeoJSON ``coordinates`` (or ``g``
+    each whole geometry, for a layer holding geometry collections); ``s`` the style index
+    (one number when all are equal) and ``p`` each property's column (see
+    :func:`_column_json`), ``""`` where a feature has no value (the property is left out)."""
+    n = len(geoms)
+    if n and not np.isfinite(shapely.get_coordinates(geoms)).all():
+        raise ValueError("a geometry has a coordinate that is not a finite number")
+    geo = shapely.to_geojson(geoms).tolist() if n else []
+    types = shapely.get_type_id(geoms) if n else np.zeros(0, dtype=int)
+    names = np.array(["Point", "LineString", "LinearRing", "Polygon", "MultiPoint",
+                      "MultiLineString", "MultiPolygon", "GeometryCollection"],
+                     dtype=object)  # fmt: skip
+    type_names = names[types] if n else np.zeros(0, dtype=object)
+    parts = [f'"n":{n}']
+    if n and set(type_names.tolist()) <= set(_COORDINATE_TYPES):
+        codes, uniques = pd.factorize(type_names)
+        if len(uniques) == 1:
+            parts.append(f'"t":{json.dumps(uniques[0])}')
+        else:
+            parts.append(f'"t":{{"v":{json.dumps(list(uniques))},"i":{_ints_json(codes)}}}')
+        # '{"type":"<T>","coordinates":<X>}' -> <X>
+        start = np.array([len(f'{{"type":"{t}","coordinates":') for t in uniques])[codes]
+        coords = [g[k:-1] for g, k in zip(geo, start.tolist(), strict=True)]
+        parts.append('"c":[' + ",".join(coords) + "]")
     else:
-        records = [{} for _ in styles]
-    geometries = [json.loads(g) for g in shapely.to_geojson(np.asarray(geoms, dtype=object))]
+        parts.append('"g":[' + ",".join(geo) + "]")
+    index = np.asarray(index, dtype=np.int64)
+    if n and (index == index[0]).all():
+        parts.append(f'"s":{int(index[0])}')
+    else:
+        parts.append(f'"s":{_ints_json(index)}')
+    cols = [f"{json.dumps(k)}:{_column_json(_json_bodies(v))}" for k, v in (props or {}).items()]
+    parts.append('"p":{' + ",".join(cols) + "}")
+    return "{" + ",".join(parts) + "}"
+
+
+def expand(data: dict) -> dict:
+    """The FeatureCollection that a layer by column (:func:`columns_text`) stands for; the
+    page's ``rpFeatures`` does the same in the browser."""
+    n = data["n"]
+
+    def column(c) -> list:
+        if isinstance(c, list):
+            return c
+        if "i" in c:
+            return [c["v"][i] for i in c["i"]]
+        return [c["v"][0]] * n
+
+    props = {k: column(v) for k, v in data["p"].items()}
+    style = data["s"] if isinstance(data["s"], list) else [data["s"]] * n
+    if "g" in data:
+        geometries = data["g"]
+    else:
+        t = data["t"]
+        types = [t] * n if isinstance(t, str) else [t["v"][i] for i in t["i"]]
+        geometries = [
+            {"type": ty, "coordinates": c} for ty, c in zip(types, data["c"], strict=True)
+        ]
     features = []
-    for geom, rec, i in zip(geometries, records, index, strict=True):
-        rec[STYLE_KEY] = i
-        features.append({"type": "Feature", "geometry": geom, "properties": rec})
-    return Layer({"type": "FeatureCollection", "features": features}, table, tuple(fields))
+    for i in range(n):
+        p = {k: v[i] for k, v in props.items() if v[i] != ""}
+        p[STYLE_KEY] = style[i]
+        features.append({"type": "Feature", "geometry": geometries[i], "properties": p})
+    return {"type": "FeatureCollection", "features": features}
+
+
+def make_layer(geoms, props: Props | None, styles: Sequence[dict] | StyleTable, fields=()) -> Layer:
+    """A :class:`Layer` from geometries, text properties and a style per feature.
+
+    ``styles`` is one dict per feature (equal styles share one entry of the layer's style
+    table) or a :data:`StyleTable` already.
+    """
+    table, index = styles if isinstance(styles, tuple) else style_table(styles)
+    geoms = np.asarray(geoms, dtype=object)
+    text = columns_text(geoms, props, index)
+    return Layer(text, list(table), tuple(fields), np.asarray(index, dtype=np.int64))
 
 
 def _escaped(table: dict) -> Props:
-    return {k: escape_all(v) for k, v in table.items()}
+    return {k: np.asarray(escape_all(v), dtype=object) for k, v in table.items()}
 
 
-def _subset(geoms, props: Props, styles: list[dict], mask: np.ndarray, fields) -> Layer:
+def _subset(geoms, props: Props, styles: StyleTable, mask: np.ndarray, fields) -> Layer:
     idx = np.flatnonzero(mask)
-    sub = {k: [v[i] for i in idx] for k, v in props.items()}
-    return make_layer(geoms[idx], sub, [styles[i] for i in idx], fields)
+    sub = {k: np.asarray(v, dtype=object)[idx] for k, v in props.items()}
+    table, index = styles
+    return make_layer(geoms[idx], sub, _compact(table, index[idx]), fields)
+
+
+def _compact(table: list[dict], index: np.ndarray) -> StyleTable:
+    """The styles of ``table`` that ``index`` uses, renumbered by first use."""
+    if len(index) == 0:
+        return [], np.zeros(0, dtype=np.int64)
+    _, first, inv = np.unique(index, return_index=True, return_inverse=True)
+    order = np.argsort(first, kind="stable")
+    rank = np.empty(len(order), dtype=np.int64)
+    rank[order] = np.arange(len(order))
+    used = np.unique(index)
+    return [table[int(used[j])] for j in order], rank[inv.reshape(-1)]
 
 
 # ---------------------------------------------------------------------------------------------
 # circuits
 
 
+def _conductor_text(s, p, m) -> str:
+    if np.isnan(s):
+        text = MISSING
+    else:
+        text = f"{s:g} mm²"
+        if not np.isnan(p) and p > 1:
+            text = f"{p:g} × {text}"
+    return f"{text} {m}".strip()
+
+
 def _conductor(df: pd.DataFrame) -> list[str]:
     size = _num(df, "size_mm2")
     par = _num(df, "parallel")
     mat = _text(df, "material").to_numpy()
-    out = []
-    for s, p, m in zip(size, par, mat, strict=True):
-        if np.isnan(s):
-            text = MISSING
-        else:
-            text = f"{s:g} mm²"
-            if not np.isnan(p) and p > 1:
-                text = f"{p:g} × {text}"
-        out.append(f"{text} {m}".strip())
-    return out
+    return per_distinct(_conductor_text, size, par, mat)
+
+
+def _str_array(values) -> np.ndarray:
+    values = values.tolist() if hasattr(values, "tolist") else list(values)
+    return np.asarray(values, dtype=_STR)
+
+
+def _or_missing(values) -> np.ndarray:
+    a = _str_array(values)
+    return np.where(a == "", MISSING, a)
+
+
+def _join(*parts) -> list[str]:
+    """Element-wise concatenation of text arrays and constant strings."""
+    acc = parts[0] if isinstance(parts[0], str) else _str_array(parts[0])
+    for p in parts[1:]:
+        acc = np.strings.add(acc, p if isinstance(p, str) else _str_array(p))
+    return np.asarray(acc).tolist()
 
 
 def _between(df: pd.DataFrame) -> list[str]:
-    return [
-        f"{a or MISSING} → {b or MISSING}"
-        for a, b in zip(_text(df, "from_id"), _text(df, "to_id"), strict=True)
-    ]
+    return _join(_or_missing(_text(df, "from_id")), " → ", _or_missing(_text(df, "to_id")))
+
+
+def _normalised(df: pd.DataFrame, name: str) -> np.ndarray:
+    """A text column stripped and in lower case (each distinct value is converted once)."""
+    codes, uniques = pd.factorize(_text(df, name).to_numpy(dtype=object))
+    low = np.array([str(u).strip().lower() for u in uniques] + [""], dtype=object)
+    return low[codes]
 
 
 def is_fail(df: pd.DataFrame) -> np.ndarray:
     """True where a circuit's ``status`` is "fail" (any case)."""
-    return _text(df, "status").str.strip().str.lower().eq("fail").to_numpy()
+    return _normalised(df, "status") == "fail"
 
 
 def circuit_kind(df: pd.DataFrame) -> np.ndarray:
     """The ``kind`` column in lower case without spaces: "string", "array" or "ac"."""
-    return _text(df, "kind").str.strip().str.lower().to_numpy()
+    return _normalised(df, "kind")
 
 
 def circuit_props(df: pd.DataFrame) -> Props:
@@ -288,9 +517,8 @@ def circuit_props(df: pd.DataFrame) -> Props:
     amp = fmt_number(_num(df, "ampacity_a"), 1, "A")
     base = fmt_number(_num(df, "ampacity_base_a"), 1, "A")
     der = fmt_number(_num(df, "derating"), 2)
-    ampacity = [
-        a if b == MISSING else f"{a} ({b} × {d})" for a, b, d in zip(amp, base, der, strict=True)
-    ]
+    with_base = _join(amp, " (", base, " × ", der, ")")
+    ampacity = np.where(np.asarray(base, dtype=object) == MISSING, amp, with_base).tolist()
     vd_v = fmt_number(_num(df, "vdrop_v"), 2, "V")
     vd_p = fmt_number(_num(df, "vdrop_pct"), 2, "%")
     route = fmt_number(_num(df, "route_m"), 1, "m")
@@ -300,15 +528,15 @@ def circuit_props(df: pd.DataFrame) -> Props:
     status = np.where(is_fail(df), "FAIL", _text(df, "status").to_numpy())
     table = {
         "circuit": _text(df, "circuit_id"),
-        "kind": [KIND_LABEL.get(k, k) for k in kinds],
+        "kind": per_distinct(lambda k: KIND_LABEL.get(k, k), kinds),
         "between": _between(df),
         "conductor": _conductor(df),
         "current": fmt_number(_num(df, "design_current_a"), 1, "A"),
         "ampacity": ampacity,
         "utilisation": fmt_number(_num(df, "utilisation"), 0, "%", scale=100),
-        "length": [f"{r} / {c}" for r, c in zip(route, cable, strict=True)],
-        "grouping": [MISSING if np.isnan(g) else f"{g:g} circuits" for g in group],
-        "vdrop": [f"{v} ({p})" for v, p in zip(vd_v, vd_p, strict=True)],
+        "length": _join(route, " / ", cable),
+        "grouping": per_distinct(lambda g: MISSING if np.isnan(g) else f"{g:g} circuits", group),
+        "vdrop": _join(vd_v, " (", vd_p, ")"),
         "vdrop_total": fmt_number(_num(df, "vdrop_total_pct"), 2, "%"),
         "loss": fmt_number(_num(df, "loss_w"), 1, "W"),
         "status": status,
@@ -317,25 +545,29 @@ def circuit_props(df: pd.DataFrame) -> Props:
     return _escaped(table)
 
 
-def line_styles(colours, weights, fail: np.ndarray) -> list[dict]:
+def _line_style(colour, weight, fail) -> dict:
+    w = round(float(weight), 1)
+    if fail:
+        return {"color": PROBLEM_COLOUR, "weight": w, "opacity": 1}
+    return {"color": str(colour), "weight": w, "opacity": 0.95}
+
+
+def line_styles(colours, weights, fail: np.ndarray) -> StyleTable:
     """Leaflet styles of circuit lines: the scale colour, or vermillion if failing."""
-    styles = []
-    for c, w, f in zip(colours, weights, fail, strict=True):
-        w = round(float(w), 1)
-        if f:
-            styles.append({"color": PROBLEM_COLOUR, "weight": w, "opacity": 1})
-        else:
-            styles.append({"color": c, "weight": w, "opacity": 0.95})
-    return styles
+    weights = np.round(np.asarray(weights, dtype=float), 1)
+    return _keyed_styles(
+        [np.asarray(colours, dtype=object), weights, np.asarray(fail)], _line_style
+    )
 
 
-def casing_styles(weights) -> list[dict]:
+def _casing_style(weight) -> dict:
+    return {"color": CASING_COLOUR, "weight": round(float(weight) + CASING_EXTRA, 1), "opacity": 1,
+            "dashArray": FAIL_DASH, "lineCap": "butt"}  # fmt: skip
+
+
+def casing_styles(weights) -> StyleTable:
     """Dashed black outline (casing) drawn under failing circuits."""
-    return [
-        {"color": CASING_COLOUR, "weight": round(float(w) + CASING_EXTRA, 1), "opacity": 1,
-         "dashArray": FAIL_DASH, "lineCap": "butt"}
-        for w in weights
-    ]  # fmt: skip
+    return _keyed_styles([np.asarray(weights, dtype=float)], _casing_style)
 
 
 @dataclass
@@ -428,16 +660,31 @@ def aggregate_strings(strings: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
     bad = work[work["fail"]]
     ids = _text(df, "circuit_id").to_numpy()[bad["pos"]]
     notes = _text(df, "note").to_numpy()[bad["pos"]]
-    texts = [f"{c}: {n}" if n else c for c, n in zip(ids, notes, strict=True)]
-    failing = (
-        bad.assign(text=texts)
-        .groupby(keys)["text"]
-        .agg(lambda s: join_limited(s, limit=3, sep="; "))
-    )
-    out["failing"] = failing.reindex(out.index).fillna("").to_numpy()
+    texts = np.where(notes != "", np.asarray(_join(ids, ": ", notes), dtype=object), ids)
+    out["failing"] = _first_three(bad, keys, texts).reindex(out.index).fillna("").to_numpy()
     out = out.reset_index()
     geometry = df.geometry.to_numpy()[out["pos"].to_numpy()]
     return gpd.GeoDataFrame(out.drop(columns="pos"), geometry=geometry, crs=strings.crs)
+
+
+def _first_three(bad: pd.DataFrame, keys: list[str], texts: np.ndarray) -> pd.Series:
+    """Per group of ``bad`` (by ``keys``), its ``texts`` in order as ``join_limited(…, limit=3,
+    sep="; ")`` joins them, indexed by the group keys."""
+    grouped = bad.groupby(keys, sort=True)
+    group = grouped.ngroup().to_numpy()
+    index = grouped.size().index
+    if len(group) == 0:
+        return pd.Series([], index=index, dtype=object)
+    order = np.argsort(group, kind="stable")
+    t = np.asarray(texts, dtype=object)[order]
+    count = np.bincount(group, minlength=len(index))
+    first = np.r_[0, np.cumsum(count)[:-1]]
+    parts: list = [t[first]]
+    for k in (1, 2):
+        nxt = t[np.minimum(first + k, len(t) - 1)]
+        parts.append(np.where(count > k, np.asarray(_join("; ", nxt), dtype=object), ""))
+    more = per_distinct(lambda n: f" … (+{n - 3} more)" if n > 3 else "", count)
+    return pd.Series(_join(*parts, more), index=index, dtype=object)
 
 
 def string_group_layers(strings: gpd.GeoDataFrame) -> CircuitLayers:
@@ -453,7 +700,7 @@ def string_group_layers(strings: gpd.GeoDataFrame) -> CircuitLayers:
     table = {
         "row": agg["from_id"],
         "between": _between(agg),
-        "strings": [f"{a} ({b} failing)" if b else f"{a}" for a, b in zip(n, nf, strict=True)],
+        "strings": per_distinct(lambda a, b: f"{a} ({b} failing)" if b else f"{a}", n, nf),
         "conductor": agg["conductor"],
         "utilisation": fmt_number(util, 0, "%", scale=100),
         "vdrop_total": fmt_number(agg["vdrop_total_pct"], 2, "%"),
@@ -505,28 +752,39 @@ def segment_values(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, int]:
     return t, over, ref
 
 
+def _circuits_text(total, s, a, c) -> str:
+    head = MISSING if np.isnan(total) else f"{total:g}"
+    parts = [f"{lab} {v:g}" for lab, v in (("strings", s), ("arrays", a), ("AC", c))
+             if not np.isnan(v)]  # fmt: skip
+    if parts:
+        head += " (" + ", ".join(parts) + ")"
+    return head
+
+
+def _ids_text(ids: str, limit: int = 8) -> str:
+    """The ';'-joined ids as shown: at most ``limit`` (see :func:`join_limited`)."""
+    if ids and ";;" not in ids and ids[0] != ";" and ids[-1] != ";" and not _SPACE.search(ids):
+        n = ids.count(";") + 1  # no empty item: the quick way
+        if n <= limit:
+            return ids.replace(";", ", ")
+        return ", ".join(ids.split(";", limit)[:limit]) + f" … (+{n - limit} more)"
+    items = ids.split(";")
+    if any(not i.strip() for i in items):
+        items = [i for i in items if i.strip()]
+    return join_limited(items, limit=limit)
+
+
 def segment_props(df: pd.DataFrame, t: np.ndarray, over: np.ndarray) -> Props:
     """Escaped, formatted tooltip fields of trench segments (``SEGMENT_FIELDS``)."""
-    n = _num(df, "circuits")
-    by_kind = zip(_num(df, "strings"), _num(df, "arrays"), _num(df, "ac"), strict=True)
-    circuits = []
-    for total, (s, a, c) in zip(n, by_kind, strict=True):
-        head = MISSING if np.isnan(total) else f"{total:g}"
-        parts = [f"{lab} {v:g}" for lab, v in (("strings", s), ("arrays", a), ("AC", c))
-                 if not np.isnan(v)]  # fmt: skip
-        if parts:
-            head += " (" + ", ".join(parts) + ")"
-        circuits.append(head)
+    circuits = per_distinct(
+        _circuits_text, _num(df, "circuits"), _num(df, "strings"), _num(df, "arrays"),
+        _num(df, "ac"),
+    )  # fmt: skip
     cap = _num(df, "max_circuits")
     has_cap = ~np.isnan(cap) & (cap > 0)
-    capacity = [
-        f"max {c:g} circuits" if h else "not set" for c, h in zip(cap, has_cap, strict=True)
-    ]
+    capacity = per_distinct(lambda c, h: f"max {c:g} circuits" if h else "not set", cap, has_cap)
     fill = fmt_number(np.where(has_cap, t, np.nan), 0, "%", scale=100)
-    ids = [
-        join_limited([i for i in s.split(";") if i.strip()], limit=8)
-        for s in _text(df, "circuit_ids")
-    ]
+    ids = [_ids_text(s) for s in _text(df, "circuit_ids").tolist()]
     status = np.where(over, "OVER CAPACITY", _text(df, "status").to_numpy())
     table = {
         "segment": _text(df, "segment_id"),
@@ -566,14 +824,14 @@ def segment_layers(df: gpd.GeoDataFrame) -> SegmentLayers:
     df, t, over = df.iloc[order], t[order], over[order]
     geoms = display_geometry(df)
     props = segment_props(df, t, over)
-    styles = [
-        {"color": c, "weight": SEGMENT_WEIGHT, "opacity": 0.55, "lineCap": "butt"}
-        for c in FILL.colours(t)
-    ]
-    halo_styles = [
-        {"color": PROBLEM_COLOUR, "weight": SEGMENT_HALO_WEIGHT, "opacity": 0.9,
-         "dashArray": HALO_DASH, "lineCap": "butt"}
-    ] * int(over.sum())  # fmt: skip
+    styles = _keyed_styles(
+        [FILL.colours(t)],
+        lambda c: {"color": str(c), "weight": SEGMENT_WEIGHT, "opacity": 0.55, "lineCap": "butt"},
+    )
+    halo = {"color": PROBLEM_COLOUR, "weight": SEGMENT_HALO_WEIGHT, "opacity": 0.9,
+            "dashArray": HALO_DASH, "lineCap": "butt"}  # fmt: skip
+    n_over = int(over.sum())
+    halo_styles = ([halo] if n_over else [], np.zeros(n_over, dtype=np.int64))
     return SegmentLayers(
         ok=_subset(geoms, props, styles, ~over, SEGMENT_FIELDS),
         halo=make_layer(geoms[over], None, halo_styles),
@@ -584,6 +842,11 @@ def segment_layers(df: gpd.GeoDataFrame) -> SegmentLayers:
 
 # ---------------------------------------------------------------------------------------------
 # rows and equipment
+
+
+def _row_strings_text(declared, routed) -> str:
+    d = escape_text(declared) or MISSING
+    return d if np.isnan(routed) else f"{d} ({routed:g} with a route)"
 
 
 def row_layer(rows: gpd.GeoDataFrame, strings: pd.DataFrame) -> Layer:
@@ -597,11 +860,8 @@ def row_layer(rows: gpd.GeoDataFrame, strings: pd.DataFrame) -> Layer:
     )
     routed = pd.Series(1, index=_text(strings, "from_id").to_numpy()).groupby(level=0).sum()
     n_routed = routed.reindex(ids.to_numpy()).to_numpy()
-    declared = _column(rows, "strings", "")
-    strings_text = []
-    for d, r in zip(declared, n_routed, strict=True):
-        d = escape_text(d) or MISSING
-        strings_text.append(d if np.isnan(r) else f"{d} ({r:g} with a route)")
+    declared = _column(rows, "strings", "").to_numpy(dtype=object)
+    strings_text = per_distinct(_row_strings_text, declared, n_routed)
     table = {
         "row": ids,
         "strings": strings_text,
@@ -613,7 +873,9 @@ def row_layer(rows: gpd.GeoDataFrame, strings: pd.DataFrame) -> Layer:
     props["strings"] = strings_text  # escaped above
     kinds = shapely.get_type_id(rows.geometry.to_numpy())
     polygonal = np.isin(kinds, (3, 6))
-    styles = [dict(ROW_POLYGON_STYLE) if p else dict(ROW_LINE_STYLE) for p in polygonal]
+    styles = _keyed_styles(
+        [polygonal], lambda p: dict(ROW_POLYGON_STYLE) if p else dict(ROW_LINE_STYLE)
+    )
     return make_layer(display_geometry(rows), props, styles, ROW_FIELDS)
 
 

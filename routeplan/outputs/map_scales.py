@@ -94,7 +94,9 @@ class ColourScale:
         lo = np.minimum(np.floor(pos).astype(int), n - 1)
         frac = (pos - lo)[:, None]
         mixed = np.rint(rgb[lo] * (1.0 - frac) + rgb[lo + 1] * frac).astype(int)
-        out = np.array([f"#{r:02x}{g:02x}{b:02x}" for r, g, b in mixed], dtype=object)
+        packed = (mixed[:, 0] << 16) | (mixed[:, 1] << 8) | mixed[:, 2]
+        uniq, inverse = np.unique(packed, return_inverse=True)  # few distinct colours
+        out = np.array([f"#{c:06x}" for c in uniq.tolist()], dtype=object)[inverse.reshape(-1)]
         out[np.isnan(v)] = NAN_COLOUR.lower()
         return out
 

@@ -51,6 +51,12 @@ _SPECIAL = re.compile(r"[&<>\"'`$\\{}]")
 
 def escape_all(values: Iterable[object]) -> list[str]:
     """:func:`escape_text` of each value (quicker for the many that need no escape)."""
+    values = values.tolist() if hasattr(values, "tolist") else list(values)
+    try:
+        if _SPECIAL.search("".join(values)) is None:  # all text, nothing to escape
+            return values
+    except TypeError:  # not all text: one by one
+        pass
     out = []
     for v in values:
         if isinstance(v, str) and _SPECIAL.search(v) is None:
@@ -82,7 +88,10 @@ def fmt_number(values, decimals: int, unit: str = "", *, scale: float = 1.0) -> 
     """
     v = pd.to_numeric(pd.Series(values), errors="coerce").to_numpy(dtype=float) * scale
     suffix = f" {unit}" if unit else ""
-    return [MISSING if np.isnan(x) else f"{x:,.{decimals}f}{suffix}" for x in v]
+    # each distinct value (bit for bit: -0.0 is not 0.0) is formatted once
+    uniq, inverse = np.unique(v.view(np.int64), return_inverse=True)
+    text = [MISSING if np.isnan(x) else f"{x:,.{decimals}f}{suffix}" for x in uniq.view(np.float64)]
+    return np.asarray(text, dtype=object)[inverse.reshape(-1)].tolist()
 
 
 def join_limited(items: Iterable[object], limit: int = 8, sep: str = ", ") -> str:

@@ -5,12 +5,14 @@ from __future__ import annotations
 import doctest
 import json
 import re
+import warnings
 from html.parser import HTMLParser
 from pathlib import Path
 
 import folium
 import numpy as np
 import pytest
+import shapely
 from branca.colormap import _schemes
 
 from routeplan.outputs import map as rpmap
@@ -69,13 +71,15 @@ def render(frames, site, **kwargs) -> str:
 
 
 def layer_data(html: str) -> list[dict]:
-    """The FeatureCollections embedded in the page, in drawing order, with their classes."""
+    """The FeatureCollections embedded in the page (by column, rebuilt with
+    :func:`map_features.expand` as the page's rpFeatures does), in drawing order, with their
+    classes."""
     out = []
-    pattern = re.compile(r"addData\(JSON\.parse\(\'(.*?)\'\)\);", re.S)
+    pattern = re.compile(r"addData\(rpFeatures\(JSON\.parse\(\'(.*?)\'\)\)\);", re.S)
     classes = re.findall(r'className: "([^"]+)",\s*interactive: (true|false)\n', html)
     for m, (cls, interactive) in zip(pattern.finditer(html), classes, strict=True):
         text = m.group(1).replace("\\'", "'").replace("\\\\", "\\")
-        fc = json.loads(text)
+        fc = map_features.expand(json.loads(text))
         fc["class"] = cls
         fc["interactive"] = interactive == "true"
         out.append(fc)
@@ -298,13 +302,15 @@ def test_large_plan_aggregates_and_switches_to_canvas():
 
 
 def test_size_per_drawn_feature_is_small():
-    # a 1 GW plant has ~55,000 drawn features once strings are aggregated; at < 450 bytes
-    # each the page stays far below 30 MB (measured: 18 MB)
+    # a generated 1 GW plant has 55,000-110,000 drawn features once strings are aggregated
+    # (rows, trench segments, string groups); the layers go by column, property names once
+    # per layer, so at < 200 bytes each the page stays far below 30 MB (measured: 10.5 MB
+    # for bench/run.py's 1 GW plant, 84,000 drawn features; 138 bytes each here)
     frames, site = synthetic_frames(n_blocks=100)
     html = render(frames, site, aggregate_strings_above=1000)
     drawn = sum(len(fc["features"]) for fc in layer_data(html) if fc["interactive"])
     libraries = len(offline_header().encode()) + len(map_elements.PAGE_SCRIPT) + 20_000
-    assert (len(html.encode()) - libraries) / drawn < 450
+    assert (len(html.encode()) - libraries) / drawn < 200
 
 
 # --------------------------------------------------------------------------------------------
@@ -534,3 +540,61 @@ def test_many_rows_start_hidden_and_lazy(plan_frames, monkeypatch):
     html = render(frames, site)
     assert html.count('.once("add", function()') == 1  # only the rows wait to be switched on
     assert "4 module rows: switch them on in the layer list" in html
+
+
+# --------------------------------------------------------------------------------------------
+# layers by column: the page's data format
+
+
+def test_columns_round_trip_to_the_same_feature_collection():
+    # reference: the GeoJSON features written out one by one, as json would (shapely gives the
+    # geometry); empty values are left out, the style index comes last
+    geoms = np.array(
+        [
+            shapely.Point(15.0, 48.0),
+            shapely.box(15.0, 48.0, 15.001, 48.001),
+            shapely.LineString([(15.0, 48.0), (15.000001, 48.5)]),
+            shapely.Point(15.5, 48.25),
+        ],
+        dtype=object,
+    )
+    props = {
+        "same": ["a", "a", "a", "a"],
+        "mostly": ["x", "x", "", "x"],
+        "free": ['q"uote\\', "line\nbreak", "é → ü", ""],
+    }
+    index = np.array([0, 1, 1, 0])
+    text = map_features.columns_text(geoms, props, index)
+    data = json.loads(text)
+    assert data["t"]["v"] == ["Point", "Polygon", "LineString"]  # types by index
+    assert data["p"]["same"] == {"v": ["a"]}  # one value for all
+    expected = {
+        "type": "FeatureCollection",
+        "features": [
+            {
+                "type": "Feature",
+                "geometry": json.loads(shapely.to_geojson(g)),
+                "properties": {
+                    **{k: v[i] for k, v in props.items() if v[i]},
+                    map_features.STYLE_KEY: int(index[i]),
+                },
+            }
+            for i, g in enumerate(geoms)
+        ],
+    }
+    assert map_features.expand(data) == expected
+    # a layer holding geometry collections carries whole geometries
+    gc = np.array([shapely.GeometryCollection([shapely.Point(1, 2)])], dtype=object)
+    data = json.loads(map_features.columns_text(gc, None, np.array([0])))
+    assert "g" in data and map_features.expand(data)["features"][0]["properties"] == {"s": 0}
+    # an empty layer
+    empty = map_features.expand(json.loads(map_features.columns_text(geoms[:0], props, [])))
+    assert empty == {"type": "FeatureCollection", "features": []}
+
+
+def test_non_finite_coordinates_are_refused():
+    with np.errstate(invalid="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # shapely warns making it: intended
+        bad = np.array([shapely.LineString([(0, 0), (np.nan, 1)])], dtype=object)
+    with pytest.raises(ValueError, match="finite"):
+        map_features.columns_text(bad, None, np.array([0]))

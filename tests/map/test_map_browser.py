@@ -6,7 +6,9 @@ tests skip locally and fail when ``CI=true`` (so CI cannot pass them silently).
 
 from __future__ import annotations
 
+import json
 import os
+import re
 import shutil
 from pathlib import Path
 
@@ -14,6 +16,7 @@ import pytest
 
 from routeplan.outputs import map as rpmap
 from routeplan.outputs.map import write_map
+from routeplan.outputs.map_features import expand
 from routeplan.outputs.map_scales import PROBLEM_COLOUR, UTILISATION
 from routeplan.outputs.map_text import escape_text
 
@@ -345,3 +348,14 @@ def test_canvas_map_for_large_plants(browser, demo_html: Path, tmp_path, monkeyp
         page.assert_clean()
     finally:
         page.close()
+
+
+def test_page_rebuilds_the_layers_as_python_does(demo: Page, demo_html: Path):
+    # the page's rpFeatures and map_features.expand give the same FeatureCollection
+    html = demo_html.read_text(encoding="utf-8")
+    pattern = re.compile(r"addData\(rpFeatures\(JSON\.parse\('(.*?)'\)\)\);", re.S)
+    texts = [m.group(1).replace("\\'", "'").replace("\\\\", "\\") for m in pattern.finditer(html)]
+    assert texts
+    for text in texts:
+        built = demo.page.evaluate("(t) => JSON.stringify(rpFeatures(JSON.parse(t)))", text)
+        assert json.loads(built) == expand(json.loads(text))
