@@ -19,12 +19,24 @@ tables east-west (``x = a, y = c``). Coordinates are metres of a UTM zone, offse
 invented origin.
 
 - **Block** (one inverter pad; typical 3.6-5 MWdc): ``n_lat`` (1 or 2) *laterals* across
-  the block; each lateral has a band of rows on either side whose near ends stop
-  ``STUB_M`` short of it. A *corridor* (internal track) splits the block into a left and a
-  right half; the block *branch* trench runs along it and the inverter pad stands beside it.
-  One band-half is a *group*; a group's rows, counted outward from the corridor, are split
-  into contiguous chunks of at most ``max_strings`` strings, one combiner per chunk, which
-  stands between the rows' near ends and the lateral.
+  the block, each with a band of rows on either side. A *corridor* (internal track) splits
+  the block into a left and a right half; the block *branch* trench runs along it and the
+  inverter pad stands beside it. One band-half is a *group*; a group's rows, counted outward
+  from the corridor, are split into contiguous chunks of at most ``max_strings`` strings,
+  one combiner per chunk.
+- **Laterals** (typical, common practice: string cables never share a trench with the
+  feeders): a lateral is three parallel trenches. The *array lateral* on its centre line
+  reaches the branch and carries only array (combiner) circuits. ``BAND_M`` to either side,
+  one short *string lateral* per combiner runs along the near ends of its chunk's rows
+  (which stop ``STUB_M`` short of it); it joins nothing but its combiner's *link*, a
+  ``BAND_M`` cross trench to the array lateral. A string therefore shares its trench only
+  with the strings on the same side of its own combiner (at most ``max_strings``, about
+  half of them on any one stretch); the combiner stands between the rows' near ends and its
+  string lateral, where its link starts. One combiner per block, the *end combiner* (the
+  outermost of the first group), stands at the outer end of its chunk instead, as if kept
+  by the block's edge road: all its strings run one way along its string lateral, up to
+  ``max_strings`` on one stretch — the draft-layout shortcut that a design check should
+  catch, so generated plants are mostly, not entirely, buildable.
 - **Plant**: columns of blocks; a main road (the *spine* trench) crosses every column, with
   blocks north and south of it; each column's branch runs from the ring on one side to the
   ring on the other, crossing the spine; a *ring* trench along the perimeter road joins the
@@ -32,14 +44,24 @@ invented origin.
   spine's west (or south) end reaches the substation (the medium-voltage collection that
   would use it is outside the LV cable schedule).
 - **Grid points**: each inverter skid feeds its own LV/MV transformer station, a grid point
-  ``TX_GAP_M`` beyond the end of its pad along the corridor (typical, common practice: the
-  LV AC run from a central inverter to its transformer is short).
+  opposite its pad across the branch (typical, common practice: the LV AC link of a central
+  inverter to its transformer is a few metres of parallel cables in air, not a trench run).
+  The pad's outline has a *cable entry*, a vertex ``ENTRY_M`` proud of its side, facing the
+  branch, so the pad and its transformer join the branch at one point: the AC circuit is
+  its two stubs, sized in air, with ``max_parallel`` sets.
 - Trenches are drawn split at every junction (crossings and T-junctions are shared end
   points); the rows and the equipment are not: the router taps them onto the laterals and
   the branches, which splits those into many segments.
-- Ducts (``laying = "duct"``, with ``max_circuits``) where a lateral crosses its block's
-  track and where a branch crosses the main road; the ring leaves every optional attribute
-  empty, so the ``[design]`` defaults apply there.
+- Ducts (``laying = "duct"``, with ``max_circuits``) where an array lateral crosses its
+  block's track (sized for the cable sets of its array circuits, see ``FEEDER_SET_A``, plus
+  spare ways) and where a branch crosses the main road (spare ways only: no circuit of this
+  layout uses them); the ring leaves every optional attribute empty, so the ``[design]``
+  defaults apply there.
+- The plant is meant to be mostly buildable as generated: ``[design] max_parallel = 12``
+  (central-inverter LV links), string laterals spaced 0.1 m, feeder trenches 0.25 m. The
+  end combiners' strings fail where ``max_strings`` and the soil make their grouping too
+  tight (at 1 GW, seed 1: 4,800 strings, about 7 % of the circuits); other seeds plan with
+  no failure at all. Soil zones range up to dry sand (3.0 K·m/W, ``SOIL_K_CHOICES``).
 """
 
 from __future__ import annotations
@@ -84,8 +106,9 @@ PROJECTED_CRS = "EPSG:32633"
 GEOGRAPHIC_CRS = "EPSG:4326"
 
 # --- geometry of the layout [m]; typical, common practice values, invented for the demo ---
-STUB_M = 3.0  # row near end to lateral trench (the row's tap stub)
-COMBINER_OFFSET_M = 1.5  # combiner box to lateral trench, on the rows' side
+STUB_M = 3.0  # row near end to its string lateral (the row's tap stub)
+COMBINER_OFFSET_M = 1.5  # combiner box to its string lateral, on the rows' side
+BAND_M = 1.0  # array lateral (centre) to the string lateral of each band
 CORRIDOR_M = 12.0  # internal block track: branch trench and inverter pad
 PAIR_GAP_M = 6.0  # track between back-to-back bands of two laterals in one block
 BLOCK_GAP_M = 8.0  # road between blocks stacked along the rows
@@ -93,9 +116,10 @@ COLUMN_GAP_M = 10.0  # road between block columns
 ROAD_HALF_M = 8.0  # half width of the main road strip; the spine runs on its centre line
 RING_MARGIN_M = 10.0  # perimeter road: ring trench to the outermost rows
 LEAD_M = 50.0  # spine end to the substation fence
-TX_GAP_M = 5.0  # inverter pad end to its transformer station (the grid point)
 PAD_LENGTH_M, PAD_WIDTH_M = 12.0, 2.5  # inverter skid pad footprint
-PAD_OFFSET_M = 3.5  # pad centre line to the branch trench
+PAD_OFFSET_M = 3.5  # pad centre line to the branch trench; the transformer stands mirrored
+ENTRY_M = 0.25  # cable entry of the pad: a vertex of its outline that points at the branch
+STRING_LATERAL_OVERHANG_M = 1.0  # string lateral beyond its outermost rows' taps
 MODULE_GAP_M = 0.02  # clearance between neighbouring modules on a row
 DRIVE_GAP_M = 1.0  # tracker drive/slew gap in a row
 
@@ -127,18 +151,24 @@ MODULE_SIZE_M: dict[str, tuple[float, float]] = {"m580": (2.278, 1.134), "m600":
 
 #: duct bank sizes offered at road crossings (2x2 ... 6x8 ways); typical, common practice.
 DUCT_BANKS: tuple[int, ...] = (4, 6, 9, 12, 16, 24, 32, 48)
+#: derated capacity of one array cable set assumed when sizing duct banks [A]: a 240-300 mm²
+#: Al feeder in a spaced group (typical, common practice); an array circuit of n strings is
+#: given ceil(1.25 × Isc × n / FEEDER_SET_A) ways.
+FEEDER_SET_A = 180.0
 #: soil thermal resistivities drawn per soil zone [K·m/W]; typical range of site surveys.
-SOIL_K_CHOICES: tuple[float, ...] = (1.0, 1.2, 1.5, 2.0, 2.5)
+SOIL_K_CHOICES: tuple[float, ...] = (1.0, 1.2, 1.5, 2.0, 2.5, 3.0)
 
 #: trench kinds: id prefix, depth_m, laying, spacing_m (typical, common practice; NaN/None =
 #: left empty so the ``[design]`` default applies).
 TRENCH_KINDS: dict[str, tuple[str, float, str | None, float]] = {
     "spine": ("TS", 1.0, "direct", 0.2),  # inverter AC circuits along the main road
     "lead": ("TSS", 1.0, "duct", 0.2),  # into the substation
-    "branch": ("TB", 0.8, "direct", 0.1),  # block column: array and AC circuits
-    "branch_duct": ("TBD", 1.0, "duct", 0.1),  # branch under the main road
-    "lateral": ("TL", 0.6, "direct", 0.0),  # string and array circuits, bunched
-    "lateral_duct": ("TLD", 0.8, "duct", 0.0),  # lateral under the block's track
+    "branch": ("TB", 0.8, "direct", 0.25),  # block column: array circuits to the pad
+    "branch_duct": ("TBD", 1.0, "duct", 0.25),  # branch under the main road
+    "lateral": ("TL", 0.8, "direct", 0.25),  # array lateral: array circuits, spaced
+    "lateral_duct": ("TLD", 0.8, "duct", 0.25),  # array lateral under the block's track
+    "string_lateral": ("TSL", 0.6, "direct", 0.1),  # one combiner's strings, spaced
+    "link": ("TCL", 0.8, "direct", 0.25),  # combiner to its array lateral: one array circuit
     "ring": ("TR", math.nan, None, math.nan),  # perimeter road: design defaults
 }
 
@@ -153,6 +183,7 @@ DESIGN: dict[str, Any] = {
     "spacing_m": 0.0,
     "snap_m": 30.0,
     "power_factor": 1.0,
+    "max_parallel": 12,  # central-inverter LV links: many parallel sets (typical)
     "material": {"string": "Cu", "array": "Al", "ac": "Al"},
     "drop_pct": {"string": 1.0, "array": 1.5, "dc_total": 2.0, "ac": 1.0},
 }
@@ -229,6 +260,10 @@ class _Block:
     comb_c: np.ndarray
     comb_strings: np.ndarray
     comb_half: np.ndarray  # index of the lateral half (2 * lateral + right) it is on
+    comb_lat: np.ndarray  # index of its lateral
+    comb_side: np.ndarray  # its band: -1 before the lateral, +1 after
+    comb_c0: np.ndarray  # extent of its string lateral across the rows (c)
+    comb_c1: np.ndarray
     pad_a: float
     pad_c: float
 
@@ -321,7 +356,7 @@ def _block(d: _Design, strings: int, n_lat: int) -> _Block:
     splits = [_split_group(int(g), d.strings_per_row) for g in per_group]
     row_len_max = float(_row_length_m(d, np.concatenate(splits)).max())
     n_rows_max = max(1, max(len(s) for s in splits))
-    band = row_len_max + STUB_M
+    band = row_len_max + STUB_M + BAND_M
     lateral_a = band + np.arange(n_lat) * (2 * band + PAIR_GAP_M)
     half_w = n_rows_max * d.pitch_m
     cc = half_w + CORRIDOR_M / 2
@@ -334,22 +369,32 @@ def _block(d: _Design, strings: int, n_lat: int) -> _Block:
         lat, side, half = k // 4, (-1, 1)[(k // 2) % 2], (-1, 1)[k % 2]
         i = np.arange(len(s))
         c = cc + half * (CORRIDOR_M / 2 + (i + 0.5) * d.pitch_m)
-        a_near = np.full(len(s), lateral_a[lat] + side * STUB_M)
+        a_near = np.full(len(s), lateral_a[lat] + side * (BAND_M + STUB_M))
         a_far = a_near + side * _row_length_m(d, s)
         labels = _chunks(s, d.max_strings)
         n = int(labels.max()) + 1
         comb_c = np.bincount(labels, weights=c, minlength=n) / np.bincount(labels, minlength=n)
+        if k == 0:  # the block's end combiner: at the outer end of its chunk, by the road
+            comb_c[n - 1] = c[np.flatnonzero(labels == n - 1)[-1]]
         central = np.zeros(len(s), dtype=bool)
         for j in range(n):
             members = np.flatnonzero(labels == j)
             central[members[np.argmin(np.abs(c[members] - comb_c[j]))]] = True
         rows.append((a_near, a_far, c, s, labels + n_comb, central))
+        lo = np.full(n, np.inf)
+        hi = np.full(n, -np.inf)
+        np.minimum.at(lo, labels, c)
+        np.maximum.at(hi, labels, c)
         combs.append(
             (
-                np.full(n, lateral_a[lat] + side * COMBINER_OFFSET_M),
+                np.full(n, lateral_a[lat] + side * (BAND_M + COMBINER_OFFSET_M)),
                 comb_c,
                 np.bincount(labels, weights=s, minlength=n).astype(int),
                 np.full(n, 2 * lat + (half > 0)),
+                np.full(n, lat),
+                np.full(n, side),
+                lo - STRING_LATERAL_OVERHANG_M,
+                hi + STRING_LATERAL_OVERHANG_M,
             )
         )
         n_comb += n
@@ -373,6 +418,10 @@ def _block(d: _Design, strings: int, n_lat: int) -> _Block:
         comb_c=cb[1],
         comb_strings=cb[2],
         comb_half=cb[3].astype(int),
+        comb_lat=cb[4].astype(int),
+        comb_side=cb[5].astype(int),
+        comb_c0=cb[6],
+        comb_c1=cb[7],
         pad_a=pad_a,
         pad_c=cc + PAD_OFFSET_M,
     )
@@ -460,25 +509,54 @@ def _segments(a0, c0, a1, c1) -> np.ndarray:
     return np.column_stack([np.ravel(v) for v in parts])
 
 
-def _trenches(p: _Plant) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _lateral_template(blk: _Block, isc_a: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The laterals of one block in its local frame: (segments (n, 4), kind, max_circuits).
+
+    Per lateral: the array lateral on its centre line, from its outermost link to the
+    branch, split at every link and at the track's edges (ducts across the track); per
+    combiner, its string lateral (split where its link starts) and its link.
+    """
+    cc = blk.corridor_c
+    track = (cc - CORRIDOR_M / 2, cc, cc + CORRIDOR_M / 2)
+    sets = np.ceil(1.25 * isc_a * blk.comb_strings / FEEDER_SET_A)
+    segs: list[np.ndarray] = []
+    kinds: list[np.ndarray] = []
+    mcs: list[np.ndarray] = []
+    for lat, a in enumerate(blk.lateral_a):
+        mine = blk.comb_lat == lat
+        c = np.unique(np.concatenate([blk.comb_c[mine], track]))
+        duct = (c[:-1] >= track[0]) & (c[1:] <= track[2])
+        segs.append(_segments(a, c[:-1], a, c[1:]))
+        kinds.append(np.where(duct, "lateral_duct", "lateral"))
+        ways = np.bincount(blk.comb_half[mine] - 2 * lat, weights=sets[mine], minlength=2)
+        banks = _duct_bank(ways.astype(int))  # per half: the array cable sets crossing
+        mcs.append(np.where(duct, np.where(c[1:] <= cc, banks[0], banks[1]), 0))
+        band_a = a + blk.comb_side[mine] * BAND_M
+        cj = blk.comb_c[mine]
+        segs += [
+            _segments(band_a, blk.comb_c0[mine], band_a, cj),
+            _segments(band_a, cj, band_a, blk.comb_c1[mine]),
+            _segments(band_a, cj, a, cj),
+        ]
+        n = int(mine.sum())
+        kinds += [np.repeat("string_lateral", 2 * n), np.repeat("link", n)]
+        mcs.append(np.zeros(3 * n, dtype=int))
+    return np.concatenate(segs), np.concatenate(kinds), np.concatenate(mcs).astype(int)
+
+
+def _trenches(p: _Plant, isc_a: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Trench segments split at every junction: (segments (n, 4), kind (n,), max_circuits
     (n,), 0 where not set). Shared junctions are computed once, so ends match exactly."""
     blk, nb, n_cols = p.blk, len(p.block_a), len(p.north)
     step_a = blk.a_len + BLOCK_GAP_M
     col_c = p.col_c
-    # laterals: block edge | track crossing (duct) | branch | track crossing (duct) | block edge
+    # laterals of one block (its local frame), then tiled over the blocks
+    tpl, kind_tpl, mc_tpl = _lateral_template(blk, isc_a)
     lat_a = p.block_a[:, None] + blk.lateral_a  # (blocks, laterals): shared with the branches
-    n_lat = len(blk.lateral_a)
-    cc = blk.corridor_c
-    stops = np.array([0.0, cc - CORRIDOR_M / 2, cc, cc + CORRIDOR_M / 2, blk.c_len])
-    lat_c = np.repeat(p.block_c[:, None] + stops, n_lat, axis=0)  # (blocks * laterals, 5)
-    la = lat_a.reshape(-1, 1)
-    seg_lat = _segments(la, lat_c[:, :-1], la, lat_c[:, 1:])
-    kind_lat = np.tile(["lateral", "lateral_duct", "lateral_duct", "lateral"], nb * n_lat)
-    half_comb = np.bincount(blk.comb_half, minlength=2 * n_lat)  # combiners per lateral half
-    mc_lat = np.zeros((nb * n_lat, 4), dtype=int)
-    mc_lat[:, 1] = np.tile(_duct_bank(half_comb[0::2]), nb)
-    mc_lat[:, 2] = np.tile(_duct_bank(half_comb[1::2]), nb)
+    shift = np.column_stack([p.block_a, p.block_c, p.block_a, p.block_c])
+    seg_lat = (tpl[None, :, :] + shift[:, None, :]).reshape(-1, 4)
+    kind_lat = np.tile(kind_tpl, nb)
+    mc_lat = np.tile(mc_tpl, nb)
     # branches: ring | laterals | main road crossing (duct) | spine | ... | ring
     top = ROAD_HALF_M + np.maximum(p.north * step_a - BLOCK_GAP_M, 0) + RING_MARGIN_M
     bottom = -(ROAD_HALF_M + np.maximum(p.south * step_a - BLOCK_GAP_M, 0) + RING_MARGIN_M)
@@ -492,8 +570,7 @@ def _trenches(p: _Plant) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         for a0, a1 in itertools.pairwise(a):
             duct = a0 >= -ROAD_HALF_M and a1 <= ROAD_HALF_M
             kind_branch.append("branch_duct" if duct else "branch")
-            inverters = p.north[j] if a0 >= 0 else p.south[j]  # AC circuits through the duct
-            mc_branch.append(int(_duct_bank(np.array([inverters]))[0]) if duct else 0)
+            mc_branch.append(int(_duct_bank(np.array([0]))[0]) if duct else 0)  # spare ways
     # spine along the main road, lead to the substation, ring along the perimeter road
     left, right = p.left, p.right
     spine_c = np.concatenate([[left], col_c, [right]])
@@ -522,7 +599,7 @@ def _trenches(p: _Plant) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         ]
     )
     max_circuits = np.concatenate(
-        [np.zeros(len(seg_spine) + 1, int), mc_branch, mc_lat.ravel(), np.zeros(len(seg_ring), int)]
+        [np.zeros(len(seg_spine) + 1, int), mc_branch, mc_lat, np.zeros(len(seg_ring), int)]
     )
     return segs, kinds, max_circuits
 
@@ -597,7 +674,7 @@ def synth_site(
     d = _draw_design(rng, mount)
     p = _plant(d, mw, rng)
     blk, nb = p.blk, len(p.block_a)
-    segs, kinds, max_circuits = _trenches(p)
+    segs, kinds, max_circuits = _trenches(p, float(MODULE_TYPES[d.module]["isc_a"]))
 
     # map to x/y: round in the local frame (shared points stay equal), then place at the origin
     e0, n0 = d.origin
@@ -618,14 +695,22 @@ def synth_site(
             *tile(blk.row_a_near, blk.row_c - half), *tile(blk.row_a_far, blk.row_c + half)
         )
     comb_geom = shapely.points(np.column_stack(tile(blk.comb_a, blk.comb_c)))
-    pad = (PAD_LENGTH_M / 2, PAD_WIDTH_M / 2)
-    pad_geom = _rects(
-        *tile(blk.pad_a - pad[0], blk.pad_c - pad[1]), *tile(blk.pad_a + pad[0], blk.pad_c + pad[1])
-    )
+    # pad outline (a, c), counter-clockwise in the local frame, with its cable entry
+    pl, pw = PAD_LENGTH_M / 2, PAD_WIDTH_M / 2
+    near = blk.pad_c - pw  # the side facing the branch
+    outline = [
+        (-pl, near),
+        (0.0, near - ENTRY_M),
+        (pl, near),
+        (pl, blk.pad_c + pw),
+        (-pl, blk.pad_c + pw),
+        (-pl, near),
+    ]
+    ring = np.stack([np.column_stack(tile(blk.pad_a + da, c)) for da, c in outline], axis=1)
+    pad_geom = shapely.orient_polygons(shapely.polygons(ring))
     trench_geom = _lines(*xy(segs[:, 0], segs[:, 1]), *xy(segs[:, 2], segs[:, 3]))
-    grid_geom = shapely.points(
-        np.column_stack(tile(blk.pad_a + PAD_LENGTH_M / 2 + TX_GAP_M, blk.pad_c))
-    )
+    # the transformer station mirrors the pad across the branch
+    grid_geom = shapely.points(np.column_stack(tile(blk.pad_a, 2 * blk.corridor_c - blk.pad_c)))
 
     # ids and references: R<block>-<row>, CB<block>-<n>, INV<block>, TX<block>, T<kind><n>
     nr, nc = len(blk.row_c), len(blk.comb_c)

@@ -240,3 +240,49 @@ def test_read_site_accepts_the_synthetic_site(tmp_path, fmt, geographic, mount):
     ]
     assert int(site.rows["strings"].sum()) == info.strings
     assert site.rows["to"].isna().sum() == 2
+
+
+# ---- realism: a generated plant is mostly buildable ------------------------------------------
+
+
+def _plan(mw, seed, mount=None):
+    from routeplan.config import parse_design
+    from routeplan.pipeline import plan_site
+
+    s = synth_site(mw, seed, mount=mount)
+    config = tomllib.loads(s.toml)
+    design, problems = parse_design(config)
+    assert not problems
+    return s, plan_site(layers.build_site(s.frames, config), design)
+
+
+@pytest.mark.parametrize("seed, mount", [(9, "tracker"), (3, "fixed")])
+def test_generated_plant_is_mostly_buildable(seed, mount):
+    s, plan = _plan(20, seed, mount)
+    c, seg = plan.circuits, plan.segments
+    # string cables never share a trench with the feeders; arrays reach the pad on their own
+    assert not ((seg["strings"] > 0) & (seg["arrays"] + seg["ac"] > 0)).any()
+    # each skid's LV link to its transformer is in air: no trench, sized with parallel sets
+    ac = c[c["kind"] == "ac"]
+    assert (ac["trench_segments"].fillna("") == "").all()
+    assert (ac["parallel"] > 1).all()
+    assert (ac["status"] == "ok").all()
+    # a string lateral holds at most one combiner's strings (its end combiner: all one way)
+    assert seg["strings"].max() <= s.frames["combiners"]["max_strings"].max()
+    # duct banks hold what routes through them
+    assert (seg["status"] == "ok").all()
+    ok = (c["status"] == "ok").mean()
+    assert ok >= 0.9, ok  # mostly buildable …
+    assert (c.loc[c["kind"] == "array", "status"] == "ok").all()
+
+
+def test_end_combiners_give_genuine_failures():
+    # … with some genuine failures: only strings of the end combiners (one per block, all
+    # strings one way along their string lateral) fail, on their capacity after grouping
+    s, plan = _plan(20, 9, "tracker")
+    c = plan.circuits
+    fail = c[c["status"] == "fail"]
+    assert 0 < len(fail) < 0.1 * len(c)
+    assert (fail["kind"] == "string").all()
+    assert fail["note"].str.contains("after derating").all()
+    assert fail["to_id"].nunique() <= s.info.inverters  # at most one end combiner per block
