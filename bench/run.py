@@ -1,0 +1,565 @@
+"""Benchmark: plan generated PV plants of 100 MW, 300 MW and 1 GW end to end.
+
+    python bench/run.py [--sizes 100,300,1000] [--seed 1] [--out bench/results.md]
+
+Not part of the test suite. For each size it generates a plant with
+:func:`routeplan.synth.generate_site` (a GeoPackage site folder; an invented scenario), then
+runs the plan in a fresh Python process — :func:`routeplan.pipeline.plan` and
+:func:`routeplan.outputs.write.write_plan`, what ``routeplan plan`` runs — so that each
+plant's peak memory (``ru_maxrss``) is its own. It reports each stage's time, the peak
+memory, the size of ``map.html``, and three ratios measured in the same run:
+
+* **I/O floor**: routing + sizing compute ÷ (pyogrio read of the input layers + pyogrio
+  write of the ``circuits`` and ``segments`` layers to a GeoPackage + a CSV write of the
+  cable schedule), measured here (goal ≤ 3);
+* **graph-library baseline**: routing as the project does it (network build, one Dijkstra
+  search per destination, per-segment counts and tables) against a straightforward
+  networkx version on the same noded graph — one ``nx.shortest_path`` (bidirectional
+  Dijkstra, ``weight="length"``) per circuit, its edges mapped back to segments and counted
+  (goal ≥ 2× faster at 1 GW); also on two long-route variants of the largest plant of at
+  most 300 MW (rows sent to the combiners of the block half the plant away; every inverter
+  sent to one transformer station), where networkx is timed on a sample of the circuits;
+* **growth**: time(largest) ÷ time(next) against the ratio of their strings (goal: no worse
+  than linear + 15 %).
+
+It writes a Markdown report (``bench/results.md`` by default) with the machine's core count,
+CPU model, Python and library versions and the date. Every plant is invented; the results are
+timings of a design aid, not a design.
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime
+import itertools
+import json
+import os
+import platform
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+if str(ROOT) not in sys.path:  # run from a clone without installing
+    sys.path.insert(0, str(ROOT))
+
+#: networkx searches timed per long-route variant at most (the rest extrapolated per circuit)
+NX_SAMPLE = 3000
+#: runs of the project's routing and of the networkx version; the best of each is compared
+REPEAT, NX_REPEAT = 3, 2
+GOALS = {"io_floor": 3.0, "nx_speedup": 2.0, "growth_margin": 1.15}
+
+
+# --------------------------------------------------------------------------------------------
+# measurements (run in the worker process)
+
+
+def _peak_gib() -> float:
+    """Peak resident memory of this process [GiB] (Linux reports ru_maxrss in KiB)."""
+    scale = 1 if sys.platform == "darwin" else 1024
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * scale / 2**30
+
+
+def io_floor(site_dir: Path, plan, work: Path) -> dict[str, float]:
+    """Seconds to read the input layers and write the two big output layers and a CSV with
+    the plain library calls: what no planner of these files can go below."""
+    import pyogrio
+
+    t: dict[str, float] = {}
+    gpkg = site_dir / "site.gpkg"
+    t0 = time.perf_counter()
+    for name, _ in pyogrio.list_layers(gpkg):
+        pyogrio.read_dataframe(gpkg, layer=name)
+    t["read_layers"] = time.perf_counter() - t0
+    out = work / "floor.gpkg"
+    out.unlink(missing_ok=True)
+    t0 = time.perf_counter()
+    pyogrio.write_dataframe(plan.circuits, out, layer="circuits", driver="GPKG")
+    pyogrio.write_dataframe(plan.segments, out, layer="segments", driver="GPKG")
+    t["write_gpkg"] = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    plan.circuits.drop(columns="geometry").to_csv(work / "floor.csv", index=False)
+    t["write_csv"] = time.perf_counter() - t0
+    t["total"] = t["read_layers"] + t["write_gpkg"] + t["write_csv"]
+    return t
+
+
+def nx_routing(network, circuits, sample: int | None = None, seed: int = 0) -> dict:
+    """Route ``circuits`` with networkx on the noded ``network``: one bidirectional Dijkstra
+    (``nx.shortest_path``) per circuit, edges mapped back to segments and counted.
+
+    With ``sample``, only that many circuits (a seeded random choice) are searched and the
+    search time is extrapolated per circuit. Returns seconds and the largest difference of
+    a route's trench length from the project's (they must agree: both are shortest paths).
+    """
+    import networkx as nx
+
+    t0 = time.perf_counter()
+    u, v = network.seg_u.tolist(), network.seg_v.tolist()
+    w = network.seg_length_m.tolist()
+    graph = nx.Graph()
+    seg_of: dict[tuple[int, int], int] = {}
+    for k, (a, b, length) in enumerate(zip(u, v, w, strict=True)):
+        if a == b:
+            continue
+        key = (a, b) if a < b else (b, a)
+        if key not in seg_of or length < w[seg_of[key]]:  # parallel segments: the shortest
+            seg_of[key] = k
+            graph.add_edge(a, b, length=length)
+    build = time.perf_counter() - t0
+
+    node = network.taps.set_index(["layer", "feature_id"])["node"]
+    src = node.reindex(list(zip(circuits["from_layer"], circuits["from_id"], strict=True)))
+    dst = node.reindex(list(zip(circuits["to_layer"], circuits["to_id"], strict=True)))
+    src, dst = src.to_numpy(np.int64), dst.to_numpy(np.int64)
+    todo = np.arange(len(circuits))
+    if sample is not None and sample < len(todo):
+        todo = np.sort(np.random.default_rng(seed).choice(todo, sample, replace=False))
+    counts = np.zeros(len(network.segments), dtype=np.int64)
+    trench_m = np.zeros(len(todo))
+    t0 = time.perf_counter()
+    for i, c in enumerate(todo.tolist()):
+        s, d = int(src[c]), int(dst[c])
+        if s == d:
+            continue
+        path = nx.shortest_path(graph, s, d, weight="length")
+        segs = [seg_of[(a, b) if a < b else (b, a)] for a, b in itertools.pairwise(path)]
+        counts[segs] += 1
+        trench_m[i] = sum(w[k] for k in segs)
+    search = time.perf_counter() - t0
+    per = search / max(len(todo), 1)
+    diff = np.abs(trench_m - circuits["trench_m"].to_numpy(float)[todo])
+    return {
+        "graph_build_s": build,
+        "search_s": search,
+        "searched": len(todo),
+        "circuits": len(circuits),
+        "search_all_s": per * len(circuits),  # = search_s when nothing was sampled
+        "total_s": build + per * len(circuits),
+        "max_length_diff_m": float(diff.max()) if len(diff) else 0.0,
+    }
+
+
+def project_routing_s(timings: dict[str, float]) -> float:
+    """The project's routing as compared with networkx: network build + searches + the
+    per-segment counts and tables (the destination assignment is left out: networkx is
+    given the destinations)."""
+    return sum(timings.get(f"route.{k}", 0.0) for k in ("network", "search", "tables"))
+
+
+def worker_plan(site_dir: Path, work: Path, with_nx: bool) -> dict:
+    """Plan and write one generated site; measure; return the numbers."""
+    from routeplan.outputs.write import write_plan
+    from routeplan.pipeline import plan
+
+    t0 = time.perf_counter()
+    p = plan(site_dir)
+    plan_s = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    written = write_plan(p, work / "out")
+    write_s = time.perf_counter() - t0
+    peak = _peak_gib()
+    result = {
+        "plan_s": plan_s,
+        "write_s": write_s,
+        "timings": dict(p.timings_s),
+        "written": dict(written),
+        "peak_gib": peak,
+        "map_bytes": (work / "out" / "map.html").stat().st_size,
+        "circuits": {k: int((p.circuits["kind"] == k).sum()) for k in ("string", "array", "ac")},
+        "fail": {
+            k: int(((p.circuits["kind"] == k) & (p.circuits["status"] == "fail")).sum())
+            for k in ("string", "array", "ac")
+        },
+        "segments": len(p.segments),
+        "segments_over": int((p.segments["status"] != "ok").sum()),
+        "nodes": int(p.routes.network.n_nodes),
+        "io_floor": io_floor(site_dir, p, work),
+    }
+    if with_nx:
+        from routeplan.pipeline import route_params
+        from routeplan.routing import route_site
+
+        # best of a few runs on each side (the plan's own run is one of the project's)
+        runs = [result["timings"]]
+        for _ in range(REPEAT - 1):
+            r = route_site(p.site, route_params(p.design))
+            runs.append({f"route.{k}": v for k, v in r.timings_s.items()})
+        result["project_routing_runs_s"] = [project_routing_s(t) for t in runs]
+        nx_runs = [nx_routing(p.routes.network, p.routes.circuits) for _ in range(NX_REPEAT)]
+        result["nx"] = min(nx_runs, key=lambda x: x["total_s"])
+        result["nx"]["runs_s"] = [x["total_s"] for x in nx_runs]
+    return result
+
+
+def long_route_site(mw: float, seed: int, variant: str):
+    """A generated plant (in memory) whose circuits run far: ``rows_far`` sends each row to
+    the combiner in its place in the block half the plant away; ``ac_one_point`` sends every
+    inverter to the first transformer station."""
+    import tomllib
+
+    import layers
+    from routeplan.config import parse_design
+    from routeplan.synth import synth_site
+
+    s = synth_site(mw, seed)
+    frames = {k: f.copy() for k, f in s.frames.items()}
+    if variant == "rows_far":
+        to = frames["rows"]["to"].to_numpy(dtype=object)
+        block = np.array([t.split("-")[0][2:] for t in to])  # CB<block>-<n>
+        blocks = sorted(set(block))
+        far = {b: blocks[(i + len(blocks) // 2) % len(blocks)] for i, b in enumerate(blocks)}
+        frames["rows"]["to"] = [
+            f"CB{far[b]}-{t.split('-', 1)[1]}" for b, t in zip(block, to, strict=True)
+        ]
+    elif variant == "ac_one_point":
+        frames["inverters"]["to"] = frames["grid"]["id"].iloc[0]
+    config = tomllib.loads(s.toml)
+    design, problems = parse_design(config)
+    assert not problems, problems
+    return layers.build_site(frames, config), design
+
+
+def worker_long(mw: float, seed: int, variant: str) -> dict:
+    """Route a long-route variant; time the project's routing and networkx's."""
+    from routeplan.pipeline import route_params
+    from routeplan.routing import route_site
+
+    site, design = long_route_site(mw, seed, variant)
+    t0 = time.perf_counter()
+    r = route_site(site, route_params(design))
+    total = time.perf_counter() - t0
+    moved = r.circuits["kind"] == ("string" if variant == "rows_far" else "ac")
+    result = {
+        "variant": variant,
+        "mw": mw,
+        "route_total_s": total,
+        "timings": {f"route.{k}": v for k, v in r.timings_s.items()},
+        "circuits": len(r.circuits),
+        "moved": int(moved.sum()),
+        "mean_route_m": float(r.circuits.loc[moved, "route_m"].mean()),
+    }
+    result["project_s"] = project_routing_s(result["timings"])
+    sample = NX_SAMPLE if len(r.circuits) > NX_SAMPLE else None
+    result["nx"] = nx_routing(r.network, r.circuits, sample=sample, seed=seed)
+    return result
+
+
+# --------------------------------------------------------------------------------------------
+# orchestration (parent process)
+
+
+def _worker(args: list[str]) -> dict:
+    """Run this script as a worker in a fresh interpreter; return its JSON result."""
+    cmd = [sys.executable, str(Path(__file__).resolve()), *args]
+    done = subprocess.run(cmd, capture_output=True, text=True, check=False)
+    if done.returncode != 0:
+        sys.stderr.write(done.stdout + done.stderr)
+        raise SystemExit(f"worker failed: {' '.join(args)}")
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+def machine() -> dict[str, str]:
+    """What the numbers were measured on."""
+    import geopandas
+    import networkx
+    import pandas
+    import pyogrio
+    import pyproj
+    import scipy
+    import shapely
+
+    cpu = platform.processor() or "unknown"
+    try:
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.startswith("model name"):
+                cpu = line.split(":", 1)[1].strip()
+                break
+    except OSError:
+        pass
+    return {
+        "date": datetime.datetime.now(datetime.UTC).strftime("%Y-%m-%d %H:%M UTC"),
+        "cores": str(os.cpu_count()),
+        "cpu": cpu,
+        "memory": _memory(),
+        "os": f"{platform.system()} {platform.release()}",
+        "python": platform.python_version(),
+        "numpy": np.__version__,
+        "scipy": scipy.__version__,
+        "pandas": pandas.__version__,
+        "shapely": f"{shapely.__version__} (GEOS {shapely.geos_version_string})",
+        "geopandas": geopandas.__version__,
+        "pyogrio": f"{pyogrio.__version__} (GDAL {pyogrio.__gdal_version_string__})",
+        "pyproj": f"{pyproj.__version__} (PROJ {pyproj.proj_version_str})",
+        "networkx": networkx.__version__,
+    }
+
+
+def _memory() -> str:
+    try:
+        for line in Path("/proc/meminfo").read_text().splitlines():
+            if line.startswith("MemTotal"):
+                return f"{int(line.split()[1]) / 2**20:.1f} GiB"
+    except OSError:
+        pass
+    return "unknown"
+
+
+def run(sizes: list[float], seed: int, work: Path, with_nx: bool, long_routes: bool) -> dict:
+    from routeplan.synth import generate_site
+
+    plants = []
+    for mw in sizes:
+        site_dir = work / f"site_{mw:g}MW"
+        t0 = time.perf_counter()
+        info = generate_site(mw, seed, site_dir)
+        gen_s = time.perf_counter() - t0
+        print(f"{mw:g} MW: generated in {gen_s:.1f} s; planning …", file=sys.stderr)
+        r = _worker(["--worker-plan", str(site_dir), str(work / f"run_{mw:g}MW")]
+                    + (["--nx"] if with_nx else []))  # fmt: skip
+        r.update(
+            mw=mw,
+            mwdc=info.mwdc,
+            generate_s=gen_s,
+            strings=info.strings,
+            rows=info.rows,
+            combiners=info.combiners,
+            inverters=info.inverters,
+            trench_features=info.trenches,
+            mount=info.mount,
+        )
+        plants.append(r)
+        print(f"{mw:g} MW: plan {r['plan_s']:.1f} s, write {r['write_s']:.1f} s, "
+              f"peak {r['peak_gib']:.2f} GiB", file=sys.stderr)  # fmt: skip
+    variants = []
+    if long_routes and with_nx:
+        mw = max([m for m in sizes if m <= 300] or [min(sizes)])
+        for variant in ("rows_far", "ac_one_point"):
+            print(f"long routes ({variant}, {mw:g} MW) …", file=sys.stderr)
+            variants.append(_worker(["--worker-long", f"{mw:g}", str(seed), variant]))
+    return {"machine": machine(), "seed": seed, "plants": plants, "variants": variants}
+
+
+# --------------------------------------------------------------------------------------------
+# report
+
+
+def _s(x: float) -> str:
+    return f"{x:.2f}"
+
+
+def stage_rows(r: dict) -> list[tuple[str, float]]:
+    t, w = r["timings"], r["written"]
+    rows = [
+        ("read + validate", t.get("read_validate", np.nan)),
+        ("route (total)", t.get("route", np.nan)),
+        ("· network build", t.get("route.network", np.nan)),
+        ("· destinations, circuits", t.get("route.assign", np.nan)),
+        ("· Dijkstra searches", t.get("route.search", np.nan)),
+        ("· route tables, segment counts", t.get("route.tables", np.nan)),
+        ("size (calc)", t.get("size", np.nan)),
+        ("tables", t.get("tables", np.nan)),
+    ]
+    named = {"csv": "write CSV", "gpkg": "write GeoPackage", "xlsx": "write workbook",
+             "map": "write map.html"}  # fmt: skip
+    rows += [(named.get(k, f"write: {k}"), v) for k, v in w.items()]
+    rows += [("**plan + write, end to end**", r["plan_s"] + r["write_s"])]
+    return rows
+
+
+def growth(plants: list[dict]) -> dict | None:
+    if len(plants) < 2:
+        return None
+    a, b = sorted(plants, key=lambda r: r["strings"])[-2:]
+    size = b["strings"] / a["strings"]
+    e2e = (b["plan_s"] + b["write_s"]) / (a["plan_s"] + a["write_s"])
+    compute = b["plan_s"] / a["plan_s"]
+    return {"small": a["mw"], "large": b["mw"], "size": size, "end_to_end": e2e,
+            "plan": compute, "limit": size * GOALS["growth_margin"]}  # fmt: skip
+
+
+def report(res: dict) -> str:
+    m, plants = res["machine"], res["plants"]
+    out = [
+        "# routeplan benchmark",
+        "",
+        f"Generated by `python bench/run.py` on {m['date']}: plants from "
+        f"`routeplan.synth.generate_site` (seed {res['seed']}, GeoPackage), each planned and "
+        "written in a fresh process (`routeplan.pipeline.plan` + "
+        "`routeplan.outputs.write.write_plan`, as `routeplan plan` runs them, no cache). "
+        "Every plant is invented; the numbers are timings of a design aid, whose results must "
+        "be reviewed by a qualified, licensed person.",
+        "",
+        "## Machine",
+        "",
+        "| | |",
+        "|---|---|",
+        *[f"| {k} | {v} |" for k, v in m.items()],
+        "",
+        "## Plants",
+        "",
+        "| plant | strings | combiners | inverters | trench features | noded segments "
+        "| nodes | circuits failing | segments over |",
+        "|---|---:|---:|---:|---:|---:|---:|---:|---:|",
+    ]
+    for r in plants:
+        n = sum(r["circuits"].values())
+        f = sum(r["fail"].values())
+        out.append(
+            f"| {r['mw']:g} MW ({r['mwdc']:.1f} MWdc, {r['mount']}) | {r['strings']:,} "
+            f"| {r['combiners']:,} | {r['inverters']:,} | {r['trench_features']:,} "
+            f"| {r['segments']:,} | {r['nodes']:,} | {f:,} of {n:,} ({100 * f / n:.1f} %) "
+            f"| {r['segments_over']:,} |"
+        )
+    out += ["", "## Stages [s]", ""]
+    head = "| stage | " + " | ".join(f"{r['mw']:g} MW" for r in plants) + " |"
+    out += [head, "|---|" + "---:|" * len(plants)]
+    names = [n for n, _ in stage_rows(plants[-1])]
+    tables = [dict(stage_rows(r)) for r in plants]
+    for name in names:
+        out.append(f"| {name} | " + " | ".join(_s(t.get(name, np.nan)) for t in tables) + " |")
+    out.append(
+        "| peak memory (ru_maxrss) [GiB] | "
+        + " | ".join(f"{r['peak_gib']:.2f}" for r in plants)
+        + " |"
+    )
+    out.append(
+        "| map.html [MB] | " + " | ".join(f"{r['map_bytes'] / 1e6:.1f}" for r in plants) + " |"
+    )
+    out.append(
+        "| generate the site (not planned) | "
+        + " | ".join(_s(r["generate_s"]) for r in plants)
+        + " |"
+    )
+    out += ["", "## Ratios", ""]
+    out += ["### I/O floor (goal ≤ 3)", ""]
+    out += [
+        "Routing + sizing compute (`route` + `size` stages) ÷ the plain library calls on the "
+        "same data: pyogrio read of the five input layers, pyogrio write of the `circuits` and "
+        "`segments` layers to a GeoPackage, pandas CSV write of the cable schedule.",
+        "",
+        "| plant | route + size [s] | read [s] | write GPKG [s] | write CSV [s] | floor [s] "
+        "| ratio |",
+        "|---|---:|---:|---:|---:|---:|---:|",
+    ]
+    for r in plants:
+        f = r["io_floor"]
+        compute = r["timings"]["route"] + r["timings"]["size"]
+        out.append(
+            f"| {r['mw']:g} MW | {_s(compute)} | {_s(f['read_layers'])} | {_s(f['write_gpkg'])} "
+            f"| {_s(f['write_csv'])} | {_s(f['total'])} | **{compute / f['total']:.2f}** |"
+        )
+    if any("nx" in r for r in plants):
+        out += ["", "### Graph-library baseline (goal ≥ 2× faster at 1 GW)", ""]
+        out += [
+            "Project: network build (noding the trenches, tapping the equipment) + one Dijkstra "
+            "search per destination + per-segment counts and route tables. networkx 3: the "
+            "same noded graph (`nx.Graph`, the shortest of parallel segments), one "
+            "`nx.shortest_path(G, s, t, weight='length')` (bidirectional Dijkstra) per circuit, "
+            "edges mapped back to segments and counted. Both find the same route lengths "
+            f"(largest difference shown). Best of {REPEAT} runs of the project's routing and "
+            f"of {NX_REPEAT} of the networkx version (the long-route variants: one run each).",
+            "",
+            "| plant | circuits | project [s] | networkx: graph [s] | networkx: searches [s] "
+            "| networkx total [s] | project faster by | max length diff [m] |",
+            "|---|---:|---:|---:|---:|---:|---:|---:|",
+        ]
+        for r in [r for r in plants if "nx" in r] + res["variants"]:
+            nx_ = r["nx"]
+            proj = min(r.get("project_routing_runs_s") or [project_routing_s(r["timings"])])
+            name = f"{r['mw']:g} MW"
+            if "variant" in r:
+                label = {
+                    "rows_far": "strings: rows to combiners half the plant away",
+                    "ac_one_point": "AC: every inverter to one transformer station",
+                }
+                name += (f", long routes, {label[r['variant']]} ({r['moved']:,} circuits, "
+                         f"mean route {r['mean_route_m']:,.0f} m)")  # fmt: skip
+            searched = (
+                f" (timed {nx_['searched']:,}, extrapolated)"
+                if nx_["searched"] < nx_["circuits"]
+                else ""
+            )
+            out.append(
+                f"| {name} | {nx_['circuits']:,} | {_s(proj)} | {_s(nx_['graph_build_s'])} "
+                f"| {_s(nx_['search_all_s'])}{searched} | {_s(nx_['total_s'])} "
+                f"| **{nx_['total_s'] / proj:.1f}×** | {nx_['max_length_diff_m']:.1e} |"
+            )
+    g = growth(plants)
+    if g:
+        out += ["", "### Growth (goal: no worse than linear + 15 %)", ""]
+        out += [
+            f"{g['large']:g} MW ÷ {g['small']:g} MW: strings ×{g['size']:.2f}, so at most "
+            f"×{g['limit']:.2f}.",
+            "",
+            "| | ratio | within |",
+            "|---|---:|---|",
+            f"| plan + write, end to end | ×{g['end_to_end']:.2f} "
+            f"| {'yes' if g['end_to_end'] <= g['limit'] else 'no'} |",
+            f"| plan only (read … tables) | ×{g['plan']:.2f} "
+            f"| {'yes' if g['plan'] <= g['limit'] else 'no'} |",
+        ]
+    big = max(plants, key=lambda r: r["strings"])
+    e2e = big["plan_s"] + big["write_s"]
+    out += ["", "## Targets at the largest plant", ""]
+    out += [
+        "| target | measured | met |",
+        "|---|---:|---|",
+        f"| end to end ≤ 20 s | {e2e:.1f} s | {'yes' if e2e <= 20 else 'no'} |",
+        f"| peak memory ≤ 3 GiB | {big['peak_gib']:.2f} GiB | "
+        f"{'yes' if big['peak_gib'] <= 3 else 'no'} |",
+        f"| map.html < 30 MB | {big['map_bytes'] / 1e6:.1f} MB "
+        f"({_s(big['written'].get('map', np.nan))} s to write) | "
+        f"{'yes' if big['map_bytes'] < 30e6 else 'no'} |",
+        "",
+    ]
+    return "\n".join(out)
+
+
+def main(argv: list[str] | None = None) -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--sizes", default="100,300,1000", help="plant sizes [MWdc], comma list")
+    parser.add_argument("--seed", type=int, default=1, help="generator seed (1)")
+    parser.add_argument("--out", type=Path, default=Path(__file__).with_name("results.md"))
+    parser.add_argument("--work", type=Path, help="folder for the sites and outputs (temporary)")
+    parser.add_argument("--no-nx", action="store_true", help="skip the networkx baseline")
+    parser.add_argument("--no-long", action="store_true", help="skip the long-route variants")
+    parser.add_argument("--json", type=Path, help="also write the raw numbers as JSON")
+    parser.add_argument("--worker-plan", nargs=2, metavar=("SITE", "WORK"), help=argparse.SUPPRESS)
+    parser.add_argument(
+        "--worker-long", nargs=3, metavar=("MW", "SEED", "V"), help=argparse.SUPPRESS
+    )
+    parser.add_argument("--nx", action="store_true", help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+
+    if args.worker_plan:
+        site, work = map(Path, args.worker_plan)
+        work.mkdir(parents=True, exist_ok=True)
+        print(json.dumps(worker_plan(site, work, args.nx)))
+        return
+    if args.worker_long:
+        mw, seed, variant = args.worker_long
+        print(json.dumps(worker_long(float(mw), int(seed), variant)))
+        return
+
+    sizes = [float(s) for s in args.sizes.split(",") if s.strip()]
+    start = time.perf_counter()
+    with tempfile.TemporaryDirectory(prefix="routeplan-bench-") as tmp:
+        work = args.work or Path(tmp)
+        work.mkdir(parents=True, exist_ok=True)
+        res = run(sizes, args.seed, work, not args.no_nx, not args.no_long)
+    text = report(res)
+    text += f"Benchmark wall time: {time.perf_counter() - start:.0f} s.\n"
+    args.out.write_text(text, encoding="utf-8")
+    if args.json:
+        args.json.write_text(json.dumps(res, indent=1), encoding="utf-8")
+    print(text)
+
+
+if __name__ == "__main__":
+    main()
