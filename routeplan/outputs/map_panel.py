@@ -210,7 +210,7 @@ def legend_html(*, segment_reference: int, aggregated: bool) -> str:
     )
     parts += [
         "<b>Trench segments: fill</b>",
-        f'<div class="rp-note">circuits ÷ max circuits{"; " + no_cap if no_cap else ""}</div>',
+        f'<div class="rp-note">cable sets ÷ max circuits{"; " + no_cap if no_cap else ""}</div>',
         f'<div class="rp-bar" style="background:{FILL.css_gradient()};opacity:.55"></div>',
         '<div class="rp-ticks"><span>0 %</span><span>50 %</span><span>≥ 100 %</span></div>',
         _key(
@@ -268,7 +268,7 @@ def summary_html(site_name: str, totals: Totals, *, crs_name: str) -> str:
         _row("Failing", failing),
         _row("Worst DC drop, total", drop(totals.worst_dc_drop_pct, totals.worst_dc_drop_id)),
         _row("Worst AC drop", drop(totals.worst_ac_drop_pct, totals.worst_ac_drop_id)),
-        _row("Cable", cable or MISSING),
+        _row("Cable runs", cable or MISSING),
         _row("Cable losses", fmt_number([totals.loss_w], 0, "W")[0]),
         _row(
             "Trench segments",
