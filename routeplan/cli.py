@@ -21,6 +21,14 @@ from .errors import RoutingError
 
 InputError = (LayerError, RoutingError)
 
+#: map options shared by ``plan`` and ``map``
+BasemapOption = Annotated[
+    bool, typer.Option("--basemap", help="Add an online basemap to map.html (needs internet).")
+]
+AggregateOption = Annotated[
+    int, typer.Option(help="Draw string circuits per row on the map above this many strings.")
+]
+
 app = typer.Typer(
     add_completion=False,
     no_args_is_help=True,
@@ -112,13 +120,8 @@ def plan(
         "routeplan_out"
     ),
     quiet: Annotated[bool, typer.Option("--quiet", "-q", help="No progress or summary.")] = False,
-    basemap: Annotated[
-        bool, typer.Option("--basemap", help="Add an online basemap to map.html (needs internet).")
-    ] = False,
-    aggregate_above: Annotated[
-        int,
-        typer.Option(help="Draw string circuits per row on the map above this many strings."),
-    ] = 20000,
+    basemap: BasemapOption = False,
+    aggregate_above: AggregateOption = 20000,
     use_cache: Annotated[
         bool,
         typer.Option(
@@ -278,13 +281,8 @@ def diff(
 @app.command("map")
 def map_cmd(
     out_dir: Annotated[Path, typer.Argument(help="Output folder of 'routeplan plan'.")],
-    basemap: Annotated[
-        bool, typer.Option("--basemap", help="Add an online basemap (needs internet).")
-    ] = False,
-    aggregate_above: Annotated[
-        int,
-        typer.Option(help="Draw string circuits per row above this many strings."),
-    ] = 20000,
+    basemap: BasemapOption = False,
+    aggregate_above: AggregateOption = 20000,
 ) -> None:
     """Redraw map.html from an output folder, without planning again."""
     from .outputs.map import write_map
