@@ -9,6 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
+import pandas as pd
 import shapely
 
 import layers
@@ -29,7 +30,15 @@ class CheckReport:
     trench_m: float
     dc_kw: float
     ac_kva: float
+    assignment: pd.DataFrame | None = None
     notes: tuple[str, ...] = ()
+
+    def assigned(self) -> pd.DataFrame:
+        """Features whose destination the planner chose (their ``to`` was empty)."""
+        a = self.assignment
+        if a is None or a.empty:
+            return pd.DataFrame(columns=["layer", "feature_id", "to_id", "rule", "route_m"])
+        return a[a["rule"] != "given"]
 
 
 def load(path: Path | str) -> tuple[Site, DesignConfig]:
@@ -63,10 +72,10 @@ def check_site(path: Path | str) -> CheckReport:
     problem found.
     """
     from .pipeline import route_params
-    from .routing import check_network
+    from .routing import assignment_check
 
     site, design = load(path)
-    problems = check_network(site, route_params(design))
+    problems, assignment = assignment_check(site, route_params(design))
     if problems:
         raise RoutingError(problems)
     counts = {name: len(site.layer(name)) for name in layers.LAYER_NAMES}
@@ -90,4 +99,5 @@ def check_site(path: Path | str) -> CheckReport:
         trench_m=trench_m,
         dc_kw=dc_kw,
         ac_kva=float(site.inverters["ac_kva"].sum()),
+        assignment=assignment,
     )

@@ -108,6 +108,12 @@ def check(
     )
     if d.defaulted:
         out.print("defaults " + ", ".join(d.defaulted), markup=False)
+    for rec in report.assigned().itertuples(index=False):
+        out.print(
+            f"assigned {rec.layer[:-1] if rec.layer != 'grid' else rec.layer} {rec.feature_id} → "
+            f"{rec.to_id} ({rec.rule}, route {rec.route_m:.1f} m)",
+            markup=False,
+        )
     for note in report.notes:
         out.print(f"note     {note}", markup=False)
     out.print("ok: no problems found", markup=False)
@@ -219,6 +225,11 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
         f"≈ {summary['energy_loss_kwh_total'] / 1000:,.1f} MWh/year (estimate)",
         markup=False,
     )
+    for a in summary.get("assigned", []):
+        out.print(
+            f"assigned: {a['id']} → {a['to']} ({a['rule']}, route {a['route_m']:.1f} m)",
+            markup=False,
+        )
     out.print(f"outputs: {out_dir}", markup=False)
     out.print(
         "result: "

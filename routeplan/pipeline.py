@@ -310,6 +310,7 @@ def plan_site(
     segments = segment_table(routes, result)
     quantities = quantity_table(circuits, segments, design)
     summary = summarise(site, design, circuits, segments, result)
+    summary["assigned"] = assigned_destinations(routes)
     t["tables"] = time.perf_counter() - t0
     return Plan(site, design, routes, result, circuits, segments, quantities, summary, t, cache)
 
@@ -467,6 +468,24 @@ def failure_reasons(circuits: pd.DataFrame, design: DesignConfig) -> pd.DataFram
         dc & (circuits["vdrop_total_pct"] > design.drop_pct["dc_total"] + 1e-6)
     )
     return pd.DataFrame({"capacity": fail & cap, "drop": fail & drop, "other": fail & ~cap & ~drop})
+
+
+def assigned_destinations(routes: RoutePlan) -> list[dict[str, Any]]:
+    """Features whose empty ``to`` the planner filled, with the rule and the route length."""
+    a = routes.assignment
+    if a is None or a.empty:
+        return []
+    a = a[a["rule"] != "given"]
+    return [
+        {
+            "layer": r.layer,
+            "id": r.feature_id,
+            "to": r.to_id,
+            "rule": r.rule,
+            "route_m": round(float(r.route_m), 2),
+        }
+        for r in a.itertuples(index=False)
+    ]
 
 
 def summarise(

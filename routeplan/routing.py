@@ -633,8 +633,19 @@ def check_network(site: Site, params: RouteParams | None = None) -> list[Problem
     RoutingError
         The site's CRS is not metric (nothing can be measured).
     """
+    return assignment_check(site, params)[0]
+
+
+def assignment_check(
+    site: Site, params: RouteParams | None = None
+) -> tuple[list[Problem], pd.DataFrame]:
+    """:func:`check_network`'s problems and the destination of every row, combiner and
+    inverter with the rule that chose it (``Destinations.report``; empty when the
+    destinations could not be filled)."""
     params = RouteParams() if params is None else params
-    return [p for _, p in _prepare(site, params).problems]
+    prepared = _prepare(site, params)
+    report = prepared.destinations.report if prepared.destinations is not None else pd.DataFrame()
+    return [p for _, p in prepared.problems], report
 
 
 @paused_gc()

@@ -20,6 +20,8 @@ def test_check_demo_site_exits_0():
     assert "Cerro Pardo Solar" in result.output
     assert "EPSG:32630" in result.output
     assert "ok: no problems found" in result.output
+    # tables without `to` are reported with the destination the planner chose
+    assert "assigned row W2-R4 → CB-W2 (nearest" in result.output
 
 
 def test_every_command_has_help():

@@ -122,6 +122,9 @@ def test_summary_json(demo_out):
     assert all(len(h) == 64 for h in s["inputs"].values())
     assert s["circuits"]["string"]["circuits"] == 224
     assert s["ok"] is True and "licensed" in s["caution"]
+    # the two demo tables without `to` are assigned to the nearest combiner by route length
+    assigned = {a["id"]: a["to"] for a in s["assigned"]}
+    assert assigned == {"W2-R4": "CB-W2", "E3-R6": "CB-E3"}
 
 
 # IEC 60228:2004 Table 2 (class 2) and Table 3 (class 5 tinned), maximum resistance at 20 °C,
