@@ -45,6 +45,7 @@ from calc.engine import (
     DesignParams,
     SizingInput,
     SizingResult,
+    failure_causes,
     size_circuits,
 )
 from calc.errors import (
@@ -71,6 +72,7 @@ __all__ = [
     "SizingResult",
     "TableRangeError",
     "UnknownOptionError",
+    "failure_causes",
     "get_rules",
     "rule_names",
     "size_circuits",

@@ -222,6 +222,22 @@ def _by_spacing(nodes: np.ndarray, vals: np.ndarray, s: np.ndarray) -> np.ndarra
     return lo + w * (hi - lo)
 
 
+#: clearance columns of the grouping tables and their clearances [m]
+_B18_COLUMNS: dict[str, float] = {
+    "s_nil": 0.0,
+    "s_0_125_m": 0.125,
+    "s_0_25_m": 0.25,
+    "s_0_5_m": 0.5,
+}
+_B19_COLUMNS: dict[str, float] = {"s_nil": 0.0, "s_0_25_m": 0.25, "s_0_5_m": 0.5, "s_1_0_m": 1.0}
+
+
+def _group_by_spacing(t, columns: dict[str, float], count: np.ndarray, spacing: np.ndarray):
+    """Grouping factor interpolated by count in each clearance column, then by clearance."""
+    vals = np.stack([_by_count(t["circuits"], t[col], count) for col in columns])
+    return _by_spacing(np.array(list(columns.values())), vals, spacing)
+
+
 def group_factor(count: ArrayLike, spacing_m: ArrayLike, laying: ArrayLike) -> np.ndarray:
     """Reduction factor for grouped buried circuits [1], IEC 60364-5-52:2009 B.52.18 / B.52.19.
 
@@ -265,27 +281,16 @@ def group_factor(count: ArrayLike, spacing_m: ArrayLike, laying: ArrayLike) -> n
     d = lay == LAYING_DIRECT
     if np.any(d):
         t = load_table(_B18)
-        c = t["circuits"]
         nd, sd = n[d], s[d]
-        nodes = np.array([0.0, 0.125, 0.25, 0.5])
-        vals = np.stack(
-            [_by_count(c, t[col], nd) for col in ("s_nil", "s_0_125_m", "s_0_25_m")]
-            + [_by_count(c, t["s_0_5_m"], nd)]
-        )
-        f = _by_spacing(nodes, vals, sd)
-        one_d = _by_count(c, t["s_one_diameter"], nd)
+        f = _group_by_spacing(t, _B18_COLUMNS, nd, sd)
+        one_d = _by_count(t["circuits"], t["s_one_diameter"], nd)
         f = np.where((sd > 0) & (sd < 0.125), np.minimum(f, one_d), f)
         out[d] = np.where(nd <= 1, 1.0, f)
 
     u = lay == LAYING_DUCT
     if np.any(u):
-        t = load_table(_B19)
-        c = t["circuits"]
-        nu, su = n[u], s[u]
-        nodes = np.array([0.0, 0.25, 0.5, 1.0])
-        cols = ("s_nil", "s_0_25_m", "s_0_5_m", "s_1_0_m")
-        vals = np.stack([_by_count(c, t[col], nu) for col in cols])
-        out[u] = np.where(nu <= 1, 1.0, _by_spacing(nodes, vals, su))
+        nu = n[u]
+        out[u] = np.where(nu <= 1, 1.0, _group_by_spacing(load_table(_B19), _B19_COLUMNS, nu, s[u]))
 
     bad = ~(d | u)
     if np.any(bad):

@@ -47,6 +47,7 @@ __all__ = [
     "DesignParams",
     "SizingInput",
     "SizingResult",
+    "failure_causes",
     "size_circuits",
 ]
 
@@ -1080,3 +1081,19 @@ def _add_notes(notes: np.ndarray, mask: np.ndarray, text, keys: tuple = ()) -> N
             if cols:
                 memo[key] = t
         notes[i] = f"{notes[i]}; {t}" if notes[i] else t
+
+
+def failure_causes(result: SizingResult) -> dict[str, np.ndarray]:
+    """Which limit each failing circuit breaks, from the result's own numbers (bool arrays).
+
+    ``capacity``: design current above the governing derated capacity; ``drop``: voltage drop
+    above the budget applied to the circuit (``vdrop_limit_pct``: its kind's limit, shared with
+    the DC total as described in the module docstring); ``other``: failing for another reason
+    (short-circuit withstand, a fixed fuse outside its range, no standard fuse rating).
+    A circuit may fail on capacity and drop at once.
+    """
+    fail = ~np.asarray(result.ok, dtype=bool)
+    tol = 1e-6
+    cap = fail & (result.design_current_a > result.ampacity_a * (1.0 + tol))
+    drop = fail & (result.vdrop_pct > result.vdrop_limit_pct + tol)
+    return {"capacity": cap, "drop": drop, "other": fail & ~cap & ~drop}

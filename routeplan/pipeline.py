@@ -128,20 +128,24 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
     n = len(c)
     kind = c["kind"].map(KIND_CODE).to_numpy(dtype=np.int8)
     is_s, is_a, is_ac = kind == calc.KIND_STRING, kind == calc.KIND_ARRAY, kind == calc.KIND_AC
-    row_module = dict(zip(site.rows["id"], site.rows["module"], strict=True))
-    mods = site.modules
-
-    isc = np.full(n, np.nan)
-    imp = np.full(n, np.nan)
-    vmp = np.full(n, np.nan)
-    max_fuse = np.full(n, np.nan)
     from_id = c["from_id"].to_numpy(dtype=object)
     to_id = c["to_id"].to_numpy(dtype=object)
     s_idx = np.flatnonzero(is_s)
-    for key, m in mods.items():
-        sel = s_idx[np.array([row_module[r] == key for r in from_id[s_idx]], dtype=bool)]
-        isc[sel], imp[sel] = m.isc_a, m.imp_a
-        vmp[sel], max_fuse[sel] = m.vmp_v * m.per_string, m.max_fuse_a
+
+    # module data per string circuit: row → module key → module table (one lookup per column)
+    mods = pd.DataFrame(
+        {
+            "isc": {k: m.isc_a for k, m in site.modules.items()},
+            "imp": {k: m.imp_a for k, m in site.modules.items()},
+            "vmp": {k: m.vmp_v * m.per_string for k, m in site.modules.items()},
+            "fuse": {k: m.max_fuse_a for k, m in site.modules.items()},
+        }
+    )
+    module_of = pd.Series(site.rows["module"].to_numpy(), index=site.rows["id"].to_numpy())
+    per_string = mods.reindex(module_of.reindex(from_id[s_idx]).to_numpy())
+    isc, imp, vmp, max_fuse = (np.full(n, np.nan) for _ in range(4))
+    isc[s_idx], imp[s_idx] = per_string["isc"].to_numpy(), per_string["imp"].to_numpy()
+    vmp[s_idx], max_fuse[s_idx] = per_string["vmp"].to_numpy(), per_string["fuse"].to_numpy()
 
     # strings joined at each destination, and each string's array circuit
     strings_at = pd.Series(1, index=to_id[s_idx]).groupby(level=0).sum()
@@ -171,8 +175,10 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
         n_strings[agg.index] = sums.size().to_numpy()
 
     fuse_fixed = np.full(n, np.nan)
-    comb_fuse = dict(zip(site.combiners["id"], site.combiners["fuse_a"], strict=True))
-    fuse_fixed[s_idx] = [comb_fuse.get(t, np.nan) for t in to_id[s_idx]]
+    comb_fuse = pd.Series(
+        site.combiners["fuse_a"].to_numpy(dtype=float), index=site.combiners["id"].to_numpy()
+    )
+    fuse_fixed[s_idx] = comb_fuse.reindex(to_id[s_idx]).to_numpy(dtype=float)
 
     inv = site.inverters.set_index("id")
     ac_kva = np.full(n, np.nan)
@@ -456,20 +462,6 @@ def quantity_table(
     return out.drop(columns=["_i", "_k"]).reset_index(drop=True)
 
 
-def failure_reasons(circuits: pd.DataFrame, design: DesignConfig) -> pd.DataFrame:
-    """Which limit each failing circuit breaks (from the schedule's own numbers):
-    ``capacity`` (design current above derated capacity), ``drop`` (own drop above its kind's
-    limit, or DC total above ``dc_total``), ``other`` (e.g. short-circuit withstand, fuse)."""
-    fail = circuits["status"] == "fail"
-    cap = circuits["design_current_a"] > circuits["ampacity_a"] * (1 + 1e-6)
-    limit = circuits["kind"].map(design.drop_pct)
-    dc = circuits["kind"] != "ac"
-    drop = (circuits["vdrop_pct"] > limit + 1e-6) | (
-        dc & (circuits["vdrop_total_pct"] > design.drop_pct["dc_total"] + 1e-6)
-    )
-    return pd.DataFrame({"capacity": fail & cap, "drop": fail & drop, "other": fail & ~cap & ~drop})
-
-
 def assigned_destinations(routes: RoutePlan) -> list[dict[str, Any]]:
     """Features whose empty ``to`` the planner filled, with the rule and the route length."""
     a = routes.assignment
@@ -497,7 +489,7 @@ def summarise(
 ) -> dict[str, Any]:
     """The closing summary as plain data (also written as summary.json)."""
     kinds = ["string", "array", "ac"]
-    why = failure_reasons(circuits, design)
+    why = calc.failure_causes(r)
     by_kind = {}
     for k in kinds:
         m = circuits["kind"] == k

@@ -129,6 +129,19 @@ def test_failure_reports_the_numbers():
     assert r.note[3].startswith("needs 1155 A after derating ")
     assert "largest allowed 120 mm² Cu carries" in r.note[3]
     assert r.size_mm2[3] == 120.0
+    causes = calc.failure_causes(r)
+    assert causes["capacity"][3] and not causes["other"][3]
+    assert not any(v[r.ok].any() for v in causes.values())  # passing circuits have no cause
+
+
+def test_failure_cause_short_circuit_is_other():
+    # 25 kA for 0.5 s needs ≥ 123.6 mm² Cu XLPE (k = 143, IEC 60364-4-43 Table 43A); the size
+    # list stops at 95 mm², so the circuit fails for neither capacity nor drop
+    design = DesignParams(fault_ka=25.0, clear_s=0.5, sizes_ac_mm2=(70.0, 95.0))
+    r = size_circuits(_site(ac_kva=50.0), design)
+    causes = calc.failure_causes(r)
+    assert not r.ok[3] and causes["other"][3]
+    assert not causes["capacity"][3] and not causes["drop"][3]
 
 
 def test_short_circuit_withstand_drives_the_size():

@@ -25,7 +25,7 @@ def test_check_demo_site_exits_0():
 
 
 def test_every_command_has_help():
-    for cmd in ([], ["check"]):
+    for cmd in ([], ["check"], ["plan"], ["diff"], ["map"], ["synth"]):
         result = runner.invoke(app, [*cmd, "--help"])
         assert result.exit_code == 0
         assert "Usage" in result.output
