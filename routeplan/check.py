@@ -31,7 +31,6 @@ class CheckReport:
     dc_kw: float
     ac_kva: float
     assignment: pd.DataFrame | None = None
-    notes: tuple[str, ...] = ()
 
     def assigned(self) -> pd.DataFrame:
         """Features whose destination the planner chose (their ``to`` was empty)."""

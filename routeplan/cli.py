@@ -114,8 +114,6 @@ def check(
             f"{rec.to_id} ({rec.rule}, route {rec.route_m:.1f} m)",
             markup=False,
         )
-    for note in report.notes:
-        out.print(f"note     {note}", markup=False)
     out.print("ok: no problems found", markup=False)
 
 
