@@ -77,7 +77,7 @@ from .routing import RouteParams, RoutePlan
 CACHE_DIR = ".routeplan-cache"
 MANIFEST = "manifest.json"
 #: bump when what is stored, or how, changes
-FORMAT = 1
+FORMAT = 2
 STAGES: tuple[str, ...] = ("site", "route", "size")
 
 #: the classes an entry may rebuild (by these names only)
@@ -454,6 +454,8 @@ class PlanCache:
         self.out_dir = Path(out_dir)
         self.dir = self.out_dir / CACHE_DIR
         self.reused: dict[str, bool] = {}
+        #: how much of the last run's output files the writers copied (for reports)
+        self.output_reuse: dict[str, int] = {}
         self.keys: dict[str, str] = {}
         self._new: dict[str, Any] = {}
         self._manifest = self._read_manifest()
@@ -507,27 +509,59 @@ class PlanCache:
         self._new[stage] = value
 
     # -- outputs
+    def _outputs(self) -> dict:
+        o = self._manifest.get("outputs")
+        return o if isinstance(o, dict) and isinstance(o.get("files"), dict) else {}
+
+    def previous_output(self, name: str) -> Path | None:
+        """The last run's output file ``name`` if its bytes are still the ones written then."""
+        recorded = self._outputs().get("files", {}).get(name)
+        path = self.out_dir / name
+        try:
+            if recorded and path.is_file() and file_sha256(path) == recorded:
+                return path
+        except OSError:
+            pass
+        return None
+
+    def output_index(self) -> dict:
+        """What the last run's writers recorded to update their files row by row
+        (:mod:`routeplan.outputs.reuse`); empty when missing or damaged."""
+        e = self._outputs().get("index")
+        if not isinstance(e, dict) or not isinstance(e.get("file"), str):
+            return {}
+        path = self.dir / Path(e["file"]).name
+        try:
+            if file_sha256(path) != e.get("sha256"):
+                return {}
+            value = loads(path)
+        except Exception:  # a damaged entry is a miss, never an error
+            return {}
+        return value if isinstance(value, dict) else {}
+
     def outputs_reusable(self, key: str, names: Iterable[str]) -> dict[str, Path]:
         """Output files of the last run that may be reused as they are: same outputs key and
         unchanged bytes (SHA-256 as recorded). Empty unless every one of ``names`` qualifies."""
-        o = self._manifest.get("outputs")
-        if not isinstance(o, dict) or o.get("key") != key or not isinstance(o.get("files"), dict):
+        if self._outputs().get("key") != key:
             return {}
         out = {}
         for name in names:
-            path = self.out_dir / name
-            try:
-                ok = path.is_file() and file_sha256(path) == o["files"].get(name)
-            except OSError:
-                ok = False
-            if not ok:
+            path = self.previous_output(name)
+            if path is None:
                 return {}
             out[name] = path
         return out
 
-    def save(self, new_out: Path, outputs_key: str | None, outputs: Iterable[str]) -> None:
+    def save(
+        self,
+        new_out: Path,
+        outputs_key: str | None,
+        outputs: Iterable[str],
+        index: dict | None = None,
+    ) -> None:
         """Write the manifest and entries into ``new_out/.routeplan-cache`` (a folder about to
-        replace the output folder). Values that cannot be stored exactly are left out."""
+        replace the output folder), with the writers' ``index`` of the files ``outputs``.
+        Values that cannot be stored exactly are left out."""
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
         entries = {}
@@ -549,11 +583,21 @@ class PlanCache:
                 continue
             entries[stage] = {"key": key, "file": name, "sha256": sha}
         files = {n: file_sha256(Path(new_out) / n) for n in outputs}
+        o: dict[str, Any] = {"key": outputs_key, "files": files}
+        if index:
+            try:
+                data = dumps(index)
+            except UncacheableError:
+                data = None
+            if data is not None:
+                (target / "outputs-index.npz").write_bytes(data)
+                sha = hashlib.sha256(data).hexdigest()
+                o["index"] = {"file": "outputs-index.npz", "sha256": sha}
         manifest = {
             "format": FORMAT,
             "environment": environment(),
             "entries": entries,
-            "outputs": {"key": outputs_key, "files": files} if outputs_key else None,
+            "outputs": o,
         }
         (target / MANIFEST).write_text(json.dumps(manifest, indent=1) + "\n", encoding="utf-8")
 

@@ -16,7 +16,6 @@ import io
 from dataclasses import dataclass
 from pathlib import Path
 
-import geopandas as gpd
 import numpy as np
 import pandas as pd
 
@@ -145,18 +144,32 @@ class TextTable:
     columns: tuple[TextColumn, ...]
     n_rows: int
 
+    def csv_header(self) -> bytes:
+        """The CSV header line (column names), without its line end."""
+        if len(self.columns) == 1:
+            return self._lone_column_lines([self.columns[0].name.encode("utf-8")])[0]
+        return b",".join(_csv_quoted([c.name.encode("utf-8") for c in self.columns]))
+
+    def csv_lines(self) -> list[bytes]:
+        """Each row as a CSV line (minimal quoting), without its line end."""
+        if len(self.columns) == 1:
+            return self._lone_column_lines(self.columns[0].cells)
+        cells = [c.cells if c.numeric else _csv_quoted(c.cells) for c in self.columns]
+        return list(map(b",".join, zip(*cells, strict=True)))
+
     def csv_bytes(self) -> bytes:
         """The table as UTF-8 CSV with a header, Unix line ends and minimal quoting."""
-        if len(self.columns) == 1:  # the csv module quotes a lone empty field: let it decide
+        return b"\n".join([self.csv_header(), *self.csv_lines()]) + b"\n"
+
+    @staticmethod
+    def _lone_column_lines(cells: list[bytes]) -> list[bytes]:
+        # the csv module quotes a lone empty field: let it decide, line by line
+        out = []
+        for c in cells:
             buf = io.StringIO()
-            w = csv.writer(buf, lineterminator="\n")
-            w.writerow([self.columns[0].name])
-            w.writerows([c.decode("utf-8")] for c in self.columns[0].cells)
-            return buf.getvalue().encode("utf-8")
-        header = b",".join(_csv_quoted([c.name.encode("utf-8") for c in self.columns]))
-        cells = [c.cells if c.numeric else _csv_quoted(c.cells) for c in self.columns]
-        lines = [header, *map(b",".join, zip(*cells, strict=True))]
-        return b"\n".join(lines) + b"\n"
+            csv.writer(buf, lineterminator="\n").writerow([c.decode("utf-8")])
+            out.append(buf.getvalue()[:-1].encode("utf-8"))
+        return out
 
 
 def _csv_quoted(cells: list[bytes]) -> list[bytes]:
@@ -218,31 +231,3 @@ def format_table(frame: pd.DataFrame, cols: tuple[Col, ...] = ()) -> TextTable:
 def write_csv(table: TextTable, path: Path) -> None:
     """Write a formatted table as UTF-8 CSV with Unix line ends and fixed number formats."""
     Path(path).write_bytes(table.csv_bytes())
-
-
-def write_gpkg(
-    layers: dict[str, tuple[gpd.GeoDataFrame, tuple[Col, ...] | None]], path: Path
-) -> None:
-    """Write GeoDataFrames as layers of one GeoPackage (contract columns first).
-
-    Uses pyogrio (its Arrow path would be about twice as fast, but needs pyarrow, which is not
-    a dependency: installing it changes pandas' default string storage program-wide).
-    """
-    import pyogrio
-
-    for name, (frame, cols) in layers.items():
-        data = ordered(frame, cols) if cols else frame.drop(columns="geometry")
-        gdf = gpd.GeoDataFrame(data, geometry=frame.geometry.values, crs=frame.crs)
-        pyogrio.write_dataframe(gdf, path, layer=name, driver="GPKG")
-
-
-def write_xlsx(sheets: dict[str, TextTable], path: Path, caution: str) -> None:
-    """Write formatted tables as sheets with a bold, frozen header row, units in the titles
-    and numbers as numbers (with each column's decimals as its number format), plus a
-    ``caution`` sheet."""
-    from .xlsx import write_workbook
-
-    caution_sheet = TextTable(
-        (TextColumn.of("caution", "caution", False, None, [caution.encode("utf-8")]),), 1
-    )
-    write_workbook({**sheets, "caution": caution_sheet}, path)

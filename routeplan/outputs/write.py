@@ -23,7 +23,8 @@ from .. import CAUTION
 from ..cache import STAGES, digest, input_files, link_or_copy
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
-from .tables import TextTable, format_table, write_csv, write_gpkg, write_xlsx
+from .gpkg import GpkgLayer, gpkg_index, update_gpkg, write_gpkg
+from .schedules import Previous, Schedule, write_csv, write_workbook
 
 FILES: tuple[str, ...] = (
     "cable_schedule.csv",
@@ -34,16 +35,16 @@ FILES: tuple[str, ...] = (
     "summary.json",
     "map.html",
 )
-#: the CSV files, in the order of :func:`format_tables`
+#: the CSV files, in the order of :func:`schedules`
 CSV_FILES: tuple[str, ...] = ("cable_schedule.csv", "trench_schedule.csv", "quantities.csv")
 
 
-def format_tables(plan: Plan) -> dict[str, TextTable]:
-    """The schedules formatted once, for the CSVs and the workbook's sheets (by sheet name)."""
+def schedules(plan: Plan) -> dict[str, Schedule]:
+    """The schedules, for the CSVs and the workbook's sheets (by sheet name)."""
     return {
-        "circuits": format_table(plan.circuits, CIRCUIT_COLUMNS),
-        "trenches": format_table(plan.segments, SEGMENT_COLUMNS),
-        "quantities": format_table(plan.quantities, QUANTITY_COLUMNS),
+        "circuits": Schedule.of(plan.circuits, CIRCUIT_COLUMNS),
+        "trenches": Schedule.of(plan.segments, SEGMENT_COLUMNS),
+        "quantities": Schedule.of(plan.quantities, QUANTITY_COLUMNS),
     }
 
 
@@ -96,8 +97,10 @@ def write_plan(
     """Write every output of ``plan`` into ``out_dir`` (replacing it). Returns seconds per file.
 
     When the plan ran with a cache (:mod:`routeplan.cache`), the cache is saved with the
-    outputs, and when nothing that the outputs depend on changed since the last run, the last
-    run's files are reused (if their bytes are still the ones written then).
+    outputs. When nothing that the outputs depend on changed since the last run, the last
+    run's files are reused (if their bytes are still the ones written then); otherwise the
+    schedules and the GeoPackage reuse the last run's unchanged rows
+    (:mod:`routeplan.outputs.reuse`).
     """
     say = progress or (lambda stage: None)
     out_dir = Path(out_dir)
@@ -112,14 +115,15 @@ def write_plan(
             t0 = time.perf_counter()
             for name, path in old.items():
                 link_or_copy(path, tmp / name)
+            index = cache.output_index()
             t["reused_outputs"] = time.perf_counter() - t0
         else:
-            _write_files(plan, tmp, map_options, say, t)
+            index = _write_files(plan, tmp, map_options, say, t)
         if cache is not None:
             say("save cache")
             t0 = time.perf_counter()
             cache.reused["outputs"] = bool(old)
-            cache.save(tmp, key, FILES)
+            cache.save(tmp, key, FILES, index)
             t["cache_save"] = time.perf_counter() - t0
         _replace(tmp, out_dir)
     except BaseException:
@@ -143,43 +147,61 @@ def _outputs_key(plan: Plan, map_options: dict | None) -> str | None:
     )
 
 
+def _previous(plan: Plan, name: str, index: dict) -> Previous:
+    """The last run's file ``name`` and its index, when both are there and intact."""
+    cache = plan.cache
+    path = cache.previous_output(name) if cache is not None and name in index else None
+    if path is None:
+        return Previous()
+    return Previous(path.read_bytes(), index[name])
+
+
 def _write_files(
     plan: Plan,
     tmp: Path,
     map_options: dict | None,
     say: Callable[[str], None],
     t: dict[str, float],
-) -> None:
-    """Write every output file of ``plan`` into the folder ``tmp``."""
+) -> dict:
+    """Write every output file of ``plan`` into the folder ``tmp``. Returns the writers'
+    index of what they wrote (for the next run, :mod:`routeplan.outputs.reuse`)."""
+    last = plan.cache.output_index() if plan.cache is not None else {}
+    index: dict = {}
+    copied: dict[str, int] = {}
     say("write schedules")
     t0 = time.perf_counter()
-    tables = format_tables(plan)
+    tables = schedules(plan)
     for name, table in zip(CSV_FILES, tables.values(), strict=True):
-        write_csv(table, tmp / name)
+        index[name], copied[name] = write_csv(table, tmp / name, _previous(plan, name, last))
     t["csv"] = time.perf_counter() - t0
 
     say("write GeoPackage")
     t0 = time.perf_counter()
     rows, equipment = rows_frame(plan), equipment_frame(plan)
-    write_gpkg(
-        {
-            "circuits": (plan.circuits, CIRCUIT_COLUMNS),
-            "segments": (plan.segments, SEGMENT_COLUMNS),
-            "rows": (rows, None),
-            "equipment": (equipment, None),
-        },
-        tmp / "routes.gpkg",
-    )
+    layers = {
+        "circuits": GpkgLayer.of(plan.circuits, CIRCUIT_COLUMNS),
+        "segments": GpkgLayer.of(plan.segments, SEGMENT_COLUMNS),
+        "rows": GpkgLayer.of(rows, None),
+        "equipment": GpkgLayer.of(equipment, None),
+    }
+    gpkg = "routes.gpkg"
+    old = plan.cache.previous_output(gpkg) if plan.cache is not None and gpkg in last else None
+    updated = update_gpkg(old, tmp / gpkg, layers, last[gpkg]) if old is not None else None
+    if updated is None:
+        write_gpkg(layers, tmp / gpkg)
+    index[gpkg] = gpkg_index(layers)
     t["gpkg"] = time.perf_counter() - t0
 
     say("write workbook")
     t0 = time.perf_counter()
     summary = dict(plan.summary, inputs=input_digest(plan))
-    write_xlsx(
-        {**tables, "summary": format_table(_summary_rows(summary))},
-        tmp / "cable_schedule.xlsx",
-        CAUTION,
-    )
+    sheets = {
+        **tables,
+        "summary": Schedule.of(_summary_rows(summary)),
+        "caution": Schedule.of(pd.DataFrame({"caution": [CAUTION]})),
+    }
+    xlsx = "cable_schedule.xlsx"
+    index[xlsx], copied[xlsx] = write_workbook(sheets, tmp / xlsx, _previous(plan, xlsx, last))
     t["xlsx"] = time.perf_counter() - t0
     (tmp / "summary.json").write_text(
         json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
@@ -199,6 +221,12 @@ def _write_files(
     )
     (tmp / "map.html").write_text(html, encoding="utf-8")
     t["map"] = time.perf_counter() - t0
+    if plan.cache is not None:
+        plan.cache.output_reuse = {
+            "routes.gpkg rows rewritten": -1 if updated is None else updated,
+            **{f"{name} chunks copied": n for name, n in copied.items()},
+        }
+    return index
 
 
 def _replace(tmp: Path, out_dir: Path) -> None:

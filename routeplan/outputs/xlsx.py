@@ -4,7 +4,9 @@ General-purpose writers style cell by cell and take minutes for a utility-scale 
 (70,000 circuits × 40 columns); here each column arrives formatted once as text (a
 :class:`routeplan.outputs.tables.TextTable`, shared with the CSV writer), becomes cell XML
 bytes in one pass (text cells once per distinct value) and the rows are joined in one call,
-which takes about a second. What it writes: one sheet per
+which takes about a second. Each sheet is compressed in self-contained pieces (one per chunk
+of rows, :class:`Piece`), so an unchanged chunk's compressed bytes can be copied from the last
+run's file (:mod:`routeplan.outputs.schedules`). What it writes: one sheet per
 table, a bold header row frozen in place, numbers as numeric cells with a per-column number
 format (fixed decimals), text as inline strings. The package layout follows ECMA-376 Part 1
 (SpreadsheetML): ``[Content_Types].xml``, ``_rels/.rels``, ``xl/workbook.xml``,
@@ -14,8 +16,9 @@ Reading the result back with openpyxl is part of the test suite.
 
 from __future__ import annotations
 
-import itertools
-import zipfile
+import struct
+import zlib
+from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 from xml.sax.saxutils import escape
@@ -89,43 +92,142 @@ def _text_cells(cells: list[bytes]) -> list[bytes]:
     return made[codes].tolist()
 
 
-def _width(title: str, values: list[bytes]) -> float:
-    sample = values[:500]
-    longest = max((len(v.decode("utf-8")) for v in sample), default=0)
-    return float(min(max(len(title), longest, 6) + 2, 50))
-
-
-def _sheet_xml(table: TextTable) -> bytes:
-    cols = "".join(
-        f'<col min="{j}" max="{j}" width="{_width(c.title, c.cells):g}" customWidth="1"/>'
-        for j, c in enumerate(table.columns, start=1)
-    )
-    header = "".join(
-        f'<c s="1" t="inlineStr"><is><t>{escape(c.title)}</t></is></c>' for c in table.columns
-    )
+def row_xml(table: TextTable) -> list[bytes]:
+    """Each row of ``table`` as a ``<row>`` element (cells without references: in order)."""
     cells = [
         _number_cells(c.array, c.decimals) if c.numeric else _text_cells(c.cells)
         for c in table.columns
     ]
-    n = table.n_rows
-    body = b"".join(
-        itertools.chain.from_iterable(
-            zip(itertools.repeat(b"<row>", n), *cells, itertools.repeat(b"</row>", n), strict=True)
-        )
+    return [b"<row>" + b"".join(r) + b"</row>" for r in zip(*cells, strict=True)]
+
+
+def cell_lengths(table: TextTable) -> np.ndarray:
+    """Characters in each cell (rows × columns), for the column widths."""
+    out = np.zeros((table.n_rows, len(table.columns)), dtype=np.int64)
+    for j, c in enumerate(table.columns):
+        if c.numeric:
+            out[:, j] = np.strings.str_len(c.array)
+        elif table.n_rows:
+            codes, uniques = pd.factorize(np.array(c.cells, dtype=object))
+            out[:, j] = np.array([len(u.decode("utf-8")) for u in uniques], dtype=np.int64)[codes]
+    return out
+
+
+def sheet_head(titles: list[str], longest: np.ndarray) -> bytes:
+    """The sheet's XML up to and with its bold header row; column widths from the titles and
+    the longest cell of each column (``longest``), between 6 and 50 characters."""
+    widths = [min(max(len(t), int(n), 6) + 2, 50) for t, n in zip(titles, longest, strict=True)]
+    cols = "".join(
+        f'<col min="{j}" max="{j}" width="{w}" customWidth="1"/>'
+        for j, w in enumerate(widths, start=1)
     )
-    head = (
+    header = "".join(f'<c s="1" t="inlineStr"><is><t>{escape(t)}</t></is></c>' for t in titles)
+    return (
         '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
         '<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
         '<sheetViews><sheetView workbookViewId="0"><pane ySplit="1" topLeftCell="A2" '
         'activePane="bottomLeft" state="frozen"/></sheetView></sheetViews>'
         f"<cols>{cols}</cols><sheetData><row>{header}</row>"
-    )
-    return head.encode("utf-8") + body + b"</sheetData></worksheet>"
+    ).encode()
 
 
-def write_workbook(sheets: dict[str, TextTable], path: Path) -> None:
-    """Write ``sheets`` (name → formatted table, in order) as an .xlsx file."""
-    names = list(sheets)
+SHEET_TAIL = b"</sheetData></worksheet>"
+
+
+@dataclass(frozen=True)
+class Piece:
+    """Part of a ZIP entry compressed on its own: raw DEFLATE (RFC 1951) ending in a full
+    flush, so pieces concatenate into one stream; with the CRC-32 and length of its text."""
+
+    data: bytes
+    crc: int
+    size: int
+
+    @classmethod
+    def of(cls, text: bytes) -> Piece:
+        """Compress ``text`` (level 1: the sheets are large and repetitive)."""
+        c = zlib.compressobj(1, zlib.DEFLATED, -15)
+        return cls(c.compress(text) + c.flush(zlib.Z_FULL_FLUSH), zlib.crc32(text), len(text))
+
+
+#: the end of a DEFLATE stream: an empty final block
+_FINAL = zlib.compressobj(1, zlib.DEFLATED, -15).flush()
+_POLY = 0xEDB88320  # CRC-32 (ISO 3309 / ITU-T V.42), reflected
+
+
+def _multmodp(a: int, b: int) -> int:
+    """a × b modulo the CRC-32 polynomial (reflected bit order), as zlib's crc32.c."""
+    m, p = 1 << 31, 0
+    while True:
+        if a & m:
+            p ^= b
+            if (a & (m - 1)) == 0:
+                return p
+        m >>= 1
+        b = (b >> 1) ^ _POLY if b & 1 else b >> 1
+
+
+_X2N = [1 << 30]  # x^(2^k) modulo the polynomial
+for _ in range(31):
+    _X2N.append(_multmodp(_X2N[-1], _X2N[-1]))
+
+
+def crc32_combine(crc1: int, crc2: int, len2: int) -> int:
+    """CRC-32 of A + B from CRC-32(A), CRC-32(B) and len(B) (zlib's ``crc32_combine``)."""
+    p, k, n = 1 << 31, 3, len2  # x^(8 · len2): len2 bytes of zeros shift crc1
+    while n:
+        if n & 1:
+            p = _multmodp(_X2N[k & 31], p)
+        n >>= 1
+        k += 1
+    return _multmodp(p, crc1) ^ crc2
+
+
+_DOS_DATE = (0 << 9) | (1 << 5) | 1  # 1980-01-01: fixed, so equal content gives equal bytes
+
+
+def write_zip(path: Path, entries: list[tuple[str, list[Piece]]]) -> list[list[int]]:
+    """Write a ZIP archive (PKWARE APPNOTE 6.3: local headers, data, central directory) whose
+    entries are DEFLATE streams made of ``Piece``s. Returns each piece's offset in the file.
+    Entries must stay below 4 GiB (no ZIP64)."""
+    offsets: list[list[int]] = []
+    central = []
+    pos = 0
+    with open(path, "wb") as fh:
+        for name, pieces in entries:
+            crc, size = 0, 0
+            for p in pieces:
+                crc = crc32_combine(crc, p.crc, p.size)
+                size += p.size
+            csize = sum(len(p.data) for p in pieces) + len(_FINAL)
+            if size >= 0xFFFFFFFF or csize >= 0xFFFFFFFF:
+                raise ValueError(f"{name}: larger than a ZIP entry without ZIP64 can hold")
+            raw = name.encode("utf-8")
+            fixed = (20, 0, 8, 0, _DOS_DATE, crc, csize, size, len(raw))
+            local = struct.pack("<IHHHHHIIIHH", 0x04034B50, *fixed, 0) + raw
+            central.append(
+                struct.pack("<IH", 0x02014B50, 20) + struct.pack("<HHHHHIIIH", *fixed)
+                + struct.pack("<HHHHII", 0, 0, 0, 0, 0, pos) + raw
+            )  # fmt: skip
+            fh.write(local)
+            pos += len(local)
+            where = []
+            for p in pieces:
+                where.append(pos)
+                fh.write(p.data)
+                pos += len(p.data)
+            fh.write(_FINAL)
+            pos += len(_FINAL)
+            offsets.append(where)
+        cd = b"".join(central)
+        fh.write(cd)
+        fh.write(struct.pack("<IHHHHIIH", 0x06054B50, 0, 0, len(central), len(central),
+                             len(cd), pos, 0))  # fmt: skip
+    return offsets
+
+
+def package_parts(names: list[str]) -> list[tuple[str, bytes]]:
+    """The workbook's parts other than the sheets, for sheets called ``names`` (in order)."""
     ct_sheets = "".join(
         f'<Override PartName="/xl/worksheets/sheet{i}.xml" ContentType="application/'
         'vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
@@ -168,11 +270,10 @@ def write_workbook(sheets: dict[str, TextTable], path: Path) -> None:
         + f'<Relationship Id="rId{len(names) + 1}" Type="http://schemas.openxmlformats.org/'
         'officeDocument/2006/relationships/styles" Target="styles.xml"/></Relationships>'
     )
-    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_DEFLATED, compresslevel=1) as z:
-        z.writestr("[Content_Types].xml", content_types)
-        z.writestr("_rels/.rels", rels)
-        z.writestr("xl/workbook.xml", workbook)
-        z.writestr("xl/_rels/workbook.xml.rels", wb_rels)
-        z.writestr("xl/styles.xml", _styles_xml())
-        for i, name in enumerate(names, start=1):
-            z.writestr(f"xl/worksheets/sheet{i}.xml", _sheet_xml(sheets[name]))
+    return [
+        ("[Content_Types].xml", content_types.encode("utf-8")),
+        ("_rels/.rels", rels.encode("utf-8")),
+        ("xl/workbook.xml", workbook.encode("utf-8")),
+        ("xl/_rels/workbook.xml.rels", wb_rels.encode("utf-8")),
+        ("xl/styles.xml", _styles_xml().encode("utf-8")),
+    ]

@@ -8,6 +8,7 @@ from __future__ import annotations
 import json
 import re
 import shutil
+import sqlite3
 import tomllib
 from pathlib import Path
 
@@ -27,6 +28,7 @@ from routeplan.pipeline import plan
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 CSVS = ("cable_schedule.csv", "trench_schedule.csv", "quantities.csv")
+XLSX, GPKG = "cable_schedule.xlsx", "routes.gpkg"
 runner = CliRunner()
 
 
@@ -42,12 +44,41 @@ def same_csvs(a: Path, b: Path) -> None:
         assert (a / name).read_bytes() == (b / name).read_bytes(), name
 
 
+GPKG_LAYERS = ("circuits", "segments", "rows", "equipment")
+
+
+def same_gpkg(a: Path, b: Path) -> None:
+    """Two GeoPackages hold the same features row for row (fid, every value, the geometry
+    blob), the same R-tree index, feature counts and layer extents."""
+    ca, cb = sqlite3.connect(a), sqlite3.connect(b)
+    try:
+        for layer in GPKG_LAYERS:
+            for sql in (
+                f'SELECT * FROM "{layer}" ORDER BY fid',
+                f'SELECT * FROM "rtree_{layer}_geom" ORDER BY id',
+            ):
+                assert ca.execute(sql).fetchall() == cb.execute(sql).fetchall(), sql
+        for sql in (
+            "SELECT table_name, min_x, min_y, max_x, max_y FROM gpkg_contents ORDER BY 1",
+            "SELECT * FROM gpkg_ogr_contents ORDER BY 1",
+            "SELECT * FROM sqlite_sequence ORDER BY 1",
+        ):
+            assert ca.execute(sql).fetchall() == cb.execute(sql).fetchall(), sql
+        assert ca.execute("PRAGMA integrity_check").fetchall() == [("ok",)]
+    finally:
+        ca.close()
+        cb.close()
+
+
 def warm_equals_cold(site: Path, out: Path, tmp: Path, tag: str):
-    """Re-plan ``site`` into ``out`` using its cache, plan it cold elsewhere; same CSVs."""
+    """Re-plan ``site`` into ``out`` using its cache, plan it cold elsewhere: the same CSVs and
+    workbook byte for byte, the same GeoPackage row for row."""
     warm = run(site, out)
     cold_out = tmp / f"cold-{tag}"
     run(site, cold_out, cache=False)
     same_csvs(out, cold_out)
+    assert (out / XLSX).read_bytes() == (cold_out / XLSX).read_bytes()
+    same_gpkg(out / GPKG, cold_out / GPKG)
     return warm.reused
 
 
@@ -207,6 +238,23 @@ def test_generated_site_pad_move_trench_edit_and_config_change(gen, tmp_path):
     assert reused["site"] and not reused["route"]
 
 
+def test_an_edit_rewrites_only_the_rows_it_touches(gen, tmp_path):
+    """A moved pad changes a few routes: the GeoPackage gets those rows rewritten, and most
+    chunks of the schedules are copied from the last files (the equality with a cold run is
+    checked by the tests above)."""
+    out = tmp_path / "out"
+    first = run(gen, out)
+    assert first.cache.output_reuse["routes.gpkg rows rewritten"] == -1  # nothing to update
+    move_gpkg_pad(gen)
+    again = run(gen, out)
+    stats = again.cache.output_reuse
+    rows = len(again.circuits) + len(again.segments)
+    assert 0 < stats["routes.gpkg rows rewritten"] < 0.2 * rows
+    # (this small plant's schedule is a few chunks of about 512 rows, most of them touched)
+    assert stats["trench_schedule.csv chunks copied"] > 0
+    assert stats["cable_schedule.xlsx chunks copied"] > 0
+
+
 # -- never trust a cache that is not ours -------------------------------------------------------
 
 
@@ -233,7 +281,8 @@ def test_a_damaged_manifest_means_a_cold_run(demo, tmp_path, damage):
     elif damage == "truncated":
         manifest.write_text(text[: len(text) // 2], encoding="utf-8")
     elif damage == "other-format":
-        manifest.write_text(text.replace('"format": 1', '"format": 99'), encoding="utf-8")
+        other = text.replace(f'"format": {cache_mod.FORMAT}', '"format": 99')
+        manifest.write_text(other, encoding="utf-8")
     else:
         manifest.write_text(json.dumps({**json.loads(text), "entries": None}), encoding="utf-8")
     reused = warm_equals_cold(demo, out, tmp_path, damage)

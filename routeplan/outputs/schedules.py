@@ -1,0 +1,165 @@
+"""The schedules as CSV files and as the workbook's sheets, reusing the last run's chunks.
+
+Each table is cut into chunks of rows (:mod:`routeplan.outputs.reuse`). A chunk the last run
+wrote with the same key is copied from the last file: its CSV lines as they are, its sheet rows
+as the compressed piece they were (:class:`routeplan.outputs.xlsx.Piece`). The other chunks are
+formatted (:func:`routeplan.outputs.tables.format_table`, once for both files). Whether a chunk
+is copied or formatted, its bytes are the same, so a CSV file is byte for byte what a cold run
+writes, and so is the workbook.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .columns import Col
+from .reuse import chunk_bounds, chunk_keys, layout, row_hashes
+from .tables import format_table, ordered
+from .xlsx import SHEET_TAIL, Piece, cell_lengths, package_parts, row_xml, sheet_head, write_zip
+
+
+@dataclass(eq=False)
+class Schedule:
+    """One table to write: its rows in output order, hashed and cut into chunks."""
+
+    data: pd.DataFrame
+    cols: tuple[Col, ...]
+    layout: str
+    bounds: np.ndarray
+    keys: list[str]
+    titles: list[str]
+    _rendered: dict[int, tuple[bytes, bytes, np.ndarray]] = field(default_factory=dict)
+
+    @classmethod
+    def of(cls, frame: pd.DataFrame, cols: tuple[Col, ...] = ()) -> Schedule:
+        """The schedule of ``frame`` (contract columns ``cols`` first, when given)."""
+        data = ordered(frame, cols) if cols else frame.drop(columns="geometry", errors="ignore")
+        data = data.reset_index(drop=True)
+        spec = {c.name: c for c in cols}
+        titles = [spec[c].title if c in spec else str(c) for c in data.columns]
+        lay = layout(data, [(c.name, c.title, c.decimals) for c in cols])
+        hashes = row_hashes(data)
+        bounds = chunk_bounds(hashes)
+        return cls(data, cols, lay, bounds, chunk_keys(hashes, bounds, lay), titles)
+
+    @property
+    def names(self) -> list[str]:
+        return [str(c) for c in self.data.columns]
+
+    def render(self, chunks: Iterable[int]) -> None:
+        """Format the rows of ``chunks`` (those not formatted yet), all in one call."""
+        todo = sorted(set(chunks) - set(self._rendered))
+        if not todo:
+            return
+        starts, ends = self.bounds[todo], self.bounds[np.asarray(todo) + 1]
+        rows = np.concatenate([np.arange(a, b) for a, b in zip(starts, ends, strict=True)])
+        table = format_table(self.data.iloc[rows], self.cols)
+        lines, xml, lengths = table.csv_lines(), row_xml(table), cell_lengths(table)
+        at = 0
+        for j, a, b in zip(todo, starts.tolist(), ends.tolist(), strict=True):
+            k = b - a
+            csv = b"\n".join(lines[at : at + k]) + b"\n" if k else b""
+            longest = lengths[at : at + k].max(axis=0, initial=0)
+            self._rendered[j] = (csv, b"".join(xml[at : at + k]), longest)
+            at += k
+
+    def csv_header(self) -> bytes:
+        """The CSV header line with its line end."""
+        return format_table(self.data.iloc[:0], self.cols).csv_header() + b"\n"
+
+
+@dataclass
+class Previous:
+    """The last run's file (its bytes) and the index written with it (part → entry: ``"csv"``
+    for a CSV file, the sheet name for the workbook); empty when unusable."""
+
+    data: bytes = b""
+    index: dict = field(default_factory=dict)
+
+    def chunks(self, name: str, schedule: Schedule) -> dict[str, int]:
+        """Chunk key → position in the last index of table ``name``, when its layout matches."""
+        e = self.index.get(name)
+        if not isinstance(e, dict) or e.get("layout") != schedule.layout:
+            return {}
+        ends = np.asarray(e["offset"], dtype=np.int64) + np.asarray(e["length"], dtype=np.int64)
+        if len(ends) != len(e["keys"]) or (len(ends) and ends.max() > len(self.data)):
+            return {}
+        return {k: i for i, k in enumerate(e["keys"])}
+
+    def piece(self, name: str, i: int) -> bytes:
+        e = self.index[name]
+        a = int(e["offset"][i])
+        return self.data[a : a + int(e["length"][i])]
+
+
+def write_csv(schedule: Schedule, path: Path, previous: Previous) -> tuple[dict, int]:
+    """Write ``schedule`` as a CSV file. Returns its index and the number of chunks copied."""
+    old = previous.chunks("csv", schedule)
+    fresh = [j for j, k in enumerate(schedule.keys) if k not in old]
+    schedule.render(fresh)
+    header = schedule.csv_header()
+    parts, offset, length = [header], [], []
+    pos = len(header)
+    for j, k in enumerate(schedule.keys):
+        text = schedule._rendered[j][0] if k not in old else previous.piece("csv", old[k])
+        parts.append(text)
+        offset.append(pos)
+        length.append(len(text))
+        pos += len(text)
+    Path(path).write_bytes(b"".join(parts))
+    index = {
+        "layout": schedule.layout,
+        "keys": list(schedule.keys),
+        "offset": np.asarray(offset, dtype=np.int64),
+        "length": np.asarray(length, dtype=np.int64),
+    }
+    return {"csv": index}, len(schedule.keys) - len(fresh)
+
+
+def write_workbook(sheets: dict[str, Schedule], path: Path, previous: Previous) -> tuple[dict, int]:
+    """Write the sheets (name → schedule, in order) as an .xlsx workbook. Returns its index
+    (per sheet) and the number of chunks copied."""
+    entries = [(name, [Piece.of(data)]) for name, data in package_parts(list(sheets))]
+    plan: list[tuple[str, Schedule, list[Piece], list[np.ndarray]]] = []
+    copied = 0
+    for name, s in sheets.items():
+        old = previous.chunks(name, s)
+        fresh = [j for j, k in enumerate(s.keys) if k not in old]
+        s.render(fresh)
+        e = previous.index.get(name, {})
+        pieces, longest = [], []
+        for j, k in enumerate(s.keys):
+            if k in old:
+                i = old[k]
+                data = previous.piece(name, i)
+                pieces.append(Piece(data, int(e["crc"][i]), int(e["size"][i])))
+                longest.append(np.asarray(e["longest"][i], dtype=np.int64))
+            else:
+                _, xml, most = s._rendered[j]
+                pieces.append(Piece.of(xml))
+                longest.append(most)
+        copied += len(s.keys) - len(fresh)
+        widest = np.max(longest, axis=0) if longest else np.zeros(len(s.titles), dtype=np.int64)
+        head, tail = Piece.of(sheet_head(s.titles, widest)), Piece.of(SHEET_TAIL)
+        entries.append((f"xl/worksheets/sheet{len(plan) + 1}.xml", [head, *pieces, tail]))
+        plan.append((name, s, pieces, longest))
+    where = write_zip(path, entries)
+    index = {}
+    for (name, s, pieces, longest), offsets in zip(
+        plan, where[len(entries) - len(plan) :], strict=True
+    ):
+        index[name] = {
+            "layout": s.layout,
+            "keys": list(s.keys),
+            "offset": np.asarray(offsets[1:-1], dtype=np.int64),
+            "length": np.asarray([len(p.data) for p in pieces], dtype=np.int64),
+            "crc": np.asarray([p.crc for p in pieces], dtype=np.int64),
+            "size": np.asarray([p.size for p in pieces], dtype=np.int64),
+            "longest": np.asarray(longest, dtype=np.int64).reshape(len(pieces), len(s.titles)),
+        }
+    return index, copied

@@ -1,0 +1,193 @@
+"""Row-by-row reuse of the last run's outputs: hashes, chunks, the workbook's ZIP pieces and
+the GeoPackage update, each checked against an outside reference (zlib, Python's zipfile,
+GDAL through pyogrio, SQLite)."""
+
+from __future__ import annotations
+
+import sqlite3
+import zipfile
+import zlib
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pytest
+import shapely
+
+from routeplan.outputs.gpkg import GpkgLayer, encode_geometries, gpkg_index, update_gpkg, write_gpkg
+from routeplan.outputs.reuse import CHUNK_MAX, chunk_bounds, chunk_keys, layout, row_hashes
+from routeplan.outputs.xlsx import Piece, crc32_combine, write_zip
+
+
+def test_crc32_combine_matches_zlib_on_the_joined_text():
+    rng = np.random.default_rng(3)
+    for n1, n2 in [(0, 0), (1, 0), (0, 5), (1000, 777), (70_000, 1), (3, 200_000)]:
+        a = rng.integers(0, 256, n1, dtype=np.uint8).tobytes()
+        b = rng.integers(0, 256, n2, dtype=np.uint8).tobytes()
+        assert crc32_combine(zlib.crc32(a), zlib.crc32(b), len(b)) == zlib.crc32(a + b)
+
+
+def test_pieces_make_one_deflate_stream_that_zipfile_reads(tmp_path):
+    parts = [b"<row>" * 3000, b"", b"x" * 10, bytes(range(256)) * 50]
+    path = tmp_path / "t.zip"
+    offsets = write_zip(path, [("a.xml", [Piece.of(p) for p in parts]), ("b", [Piece.of(b"hi")])])
+    with zipfile.ZipFile(path) as z:
+        assert z.testzip() is None
+        assert z.read("a.xml") == b"".join(parts)
+        assert z.read("b") == b"hi"
+    data = path.read_bytes()
+    # the offsets returned are where each piece's compressed bytes lie in the file
+    for piece_bytes, at in zip([Piece.of(p).data for p in parts], offsets[0], strict=True):
+        assert data[at : at + len(piece_bytes)] == piece_bytes
+    # a piece copied out of the file is a valid piece again
+    again = tmp_path / "again.zip"
+    e = [
+        Piece(data[at : at + len(Piece.of(p).data)], zlib.crc32(p), len(p))
+        for p, at in zip(parts, offsets[0], strict=True)
+    ]
+    write_zip(again, [("a.xml", e), ("b", [Piece.of(b"hi")])])
+    assert again.read_bytes() == data
+
+
+def _frame(n: int, seed: int = 0) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
+    return pd.DataFrame(
+        {
+            "id": [f"C{i:05d}" for i in range(n)],
+            "size_mm2": rng.choice([4.0, 6.0, 10.0, np.nan], n),
+            "note": rng.choice(["", "ok", None, 'a "quoted", text'], n),
+            "n": rng.integers(0, 9, n),
+        }
+    )
+
+
+def test_row_hashes_see_every_value_and_the_geometry():
+    f = _frame(500)
+    h = row_hashes(f)
+    assert len(np.unique(h)) == len(f)  # ids differ, so rows differ
+    g = f.copy()
+    g.loc[7, "size_mm2"] = 16.0
+    g.loc[9, "note"] = "changed"
+    g.loc[11, "note"] = None if f.loc[11, "note"] is not None else "None"
+    changed = np.flatnonzero(row_hashes(g) != h)
+    assert changed.tolist() == [7, 9, 11]
+    lines = shapely.linestrings(np.arange(1000.0).reshape(500, 1, 2).repeat(2, axis=1))
+    moved = lines.copy()
+    moved[3] = shapely.affinity.translate(moved[3], xoff=0.001)
+    assert np.flatnonzero(row_hashes(f, lines) != row_hashes(f, moved)).tolist() == [3]
+    # layout covers what row hashes do not: names and dtypes
+    assert layout(f) != layout(f.rename(columns={"n": "m"}))
+    assert layout(f) != layout(f.astype({"n": float}))
+
+
+def test_chunk_bounds_are_content_defined():
+    f = _frame(20_000, seed=1)
+    h = row_hashes(f)
+    b = chunk_bounds(h)
+    assert b[0] == 0 and b[-1] == len(f) and (np.diff(b) > 0).all()
+    assert np.diff(b).max() <= CHUNK_MAX
+    keys = chunk_keys(h, b, layout(f))
+    # insert one row in the middle: only the chunk holding it gets a new key
+    g = pd.concat([f.iloc[:10_000], _frame(1, seed=9).assign(id="NEW"), f.iloc[10_000:]])
+    hg = row_hashes(g.reset_index(drop=True))
+    kg = chunk_keys(hg, chunk_bounds(hg), layout(g))
+    assert len(set(kg) - set(keys)) == 1
+    assert len(set(keys) - set(kg)) == 1
+
+
+@pytest.fixture
+def layers(tmp_path):
+    """A small line layer and a mixed point/polygon layer, written by GDAL."""
+    rng = np.random.default_rng(5)
+    n = 300
+    xy = rng.uniform(500_000, 501_000, (n, 3, 2))
+    lines = gpd.GeoDataFrame(_frame(n), geometry=shapely.linestrings(xy), crs=32633)
+    pts = shapely.points(rng.uniform(500_000, 501_000, (40, 2)))
+    pts[::4] = shapely.box(500_000, 4_600_000, 500_010.5, 4_600_020.25)
+    eq = gpd.GeoDataFrame({"id": [f"E{i}" for i in range(40)]}, geometry=pts, crs=32633)
+    return lines, eq
+
+
+def _as_layers(lines, eq):
+    return {"lines": GpkgLayer.of(lines, None), "equipment": GpkgLayer.of(eq, None)}
+
+
+def test_geometry_blobs_are_the_ones_gdal_writes(tmp_path, layers):
+    """GeoPackage 1.2 clause 2.1.3 (GeoPackageBinary), compared with GDAL's own encoding."""
+    lines, eq = layers
+    path = tmp_path / "a.gpkg"
+    write_gpkg(_as_layers(lines, eq), path)
+    con = sqlite3.connect(path)
+    for name, frame in (("lines", lines), ("equipment", eq)):
+        blobs = [r[0] for r in con.execute(f'SELECT geom FROM "{name}" ORDER BY fid')]
+        assert encode_geometries(frame.geometry.values, 32633) == blobs
+    con.close()
+
+
+def _rows(path, name):
+    con = sqlite3.connect(path)
+    try:
+        return (
+            con.execute(f'SELECT * FROM "{name}" ORDER BY fid').fetchall(),
+            con.execute(f'SELECT * FROM "rtree_{name}_geom" ORDER BY id').fetchall(),
+            con.execute("SELECT * FROM gpkg_ogr_contents ORDER BY 1").fetchall(),
+            con.execute(
+                "SELECT min_x, min_y, max_x, max_y FROM gpkg_contents ORDER BY table_name"
+            ).fetchall(),
+        )
+    finally:
+        con.close()
+
+
+@pytest.mark.parametrize("edit", ["values", "geometry", "fewer", "more"])
+def test_update_gives_what_gdal_writes_whole(tmp_path, layers, edit):
+    lines, eq = layers
+    old = tmp_path / "old.gpkg"
+    first = _as_layers(lines, eq)
+    write_gpkg(first, old)
+    new_lines = lines.copy()
+    if edit == "values":
+        new_lines.loc[[3, 150], "size_mm2"] = 25.0
+        new_lines.loc[4, "note"] = None
+    elif edit == "geometry":
+        new_lines.loc[10, "geometry"] = shapely.LineString([(499_000, 4_600_000), (502_000, 1)])
+    elif edit == "fewer":
+        new_lines = new_lines.iloc[:-17]
+    else:
+        extra = lines.iloc[:5].assign(id=[f"X{i}" for i in range(5)])
+        new_lines = pd.concat([new_lines, extra], ignore_index=True)
+    second = _as_layers(gpd.GeoDataFrame(new_lines, crs=32633), eq)
+    cold, warm = tmp_path / "cold.gpkg", tmp_path / "warm.gpkg"
+    write_gpkg(second, cold)
+    written = update_gpkg(old, warm, second, gpkg_index(first))
+    expected = {"values": 3, "geometry": 1, "fewer": 0, "more": 5}[edit]
+    assert written == expected
+    for name in ("lines", "equipment"):
+        assert _rows(warm, name) == _rows(cold, name)
+    # GDAL reads the updated file as it reads the whole write
+    got = gpd.read_file(warm, layer="lines")
+    pd.testing.assert_frame_equal(got, gpd.read_file(cold, layer="lines"))
+    assert old.read_bytes() != warm.read_bytes()  # and the last file is left as it was
+    assert _rows(old, "lines")[0][0][2] == lines["id"].iloc[0]
+
+
+def test_update_refuses_what_it_cannot_do(tmp_path, layers):
+    lines, eq = layers
+    old = tmp_path / "old.gpkg"
+    first = _as_layers(lines, eq)
+    write_gpkg(first, old)
+    # another column layout
+    renamed = _as_layers(lines.rename(columns={"note": "remark"}), eq)
+    assert update_gpkg(old, tmp_path / "a.gpkg", renamed, gpkg_index(first)) is None
+    assert not (tmp_path / "a.gpkg").exists()
+    # an empty geometry among the rows to write
+    empty = lines.copy()
+    empty.loc[0, "geometry"] = shapely.LineString()
+    again = _as_layers(gpd.GeoDataFrame(empty, crs=32633), eq)
+    assert update_gpkg(old, tmp_path / "b.gpkg", again, gpkg_index(first)) is None
+    # a file that does not hold what the index says (rows removed behind our back)
+    con = sqlite3.connect(old)
+    with con:
+        con.execute('DELETE FROM "lines" WHERE fid = 5')
+    con.close()
+    assert update_gpkg(old, tmp_path / "c.gpkg", first, gpkg_index(first)) is None
