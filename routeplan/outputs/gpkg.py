@@ -90,6 +90,9 @@ def update_gpkg(old: Path, new: Path, layers: dict[str, GpkgLayer], index: dict)
     try:
         shutil.copyfile(old, new)
         con = sqlite3.connect(new)
+        # a new file in the run's temporary folder: no fsync, the journal in memory
+        con.execute("PRAGMA synchronous = OFF")
+        con.execute("PRAGMA journal_mode = MEMORY")
     except (OSError, sqlite3.Error):
         Path(new).unlink(missing_ok=True)
         return None

@@ -34,30 +34,29 @@ import json
 import os
 from pathlib import Path
 
-import folium
 import geopandas as gpd
 import numpy as np
+import pandas as pd
 import pyproj
 import shapely
 
 from routeplan.network import paused_gc
-from routeplan.outputs.map_assets import offline_header
-from routeplan.outputs.map_elements import PAGE_SCRIPT, GeoJsonLayer, MetricScale, RawHTML
 from routeplan.outputs.map_features import (
     CircuitLayers,
-    Layer,
-    SegmentLayers,
     circuit_kind,
     circuit_layers,
-    drawable,
     equipment_layer,
+    equipment_stats,
     row_layer,
+    row_stats,
     segment_layers,
     segment_values,
     string_group_layers,
 )
 from routeplan.outputs.map_panel import legend_html, panel_html, plan_totals
 from routeplan.outputs.map_text import escape_text
+from routeplan.outputs.map_tiles import MapMemo, Role, mixed, tiles
+from routeplan.outputs.reuse import row_hashes
 
 __all__ = ["MapError", "escape_text", "read_output_folder", "render_map", "write_map"]
 
@@ -105,24 +104,59 @@ def _check_columns(name: str, gdf: gpd.GeoDataFrame) -> None:
         raise MapError(f"{name}: no CRS")
 
 
-def _new_map(basemap: bool, title: str, *, canvas: bool) -> folium.Map:
+#: Where the layers' scripts and the panel go in the page (text that escaped user text can
+#: never contain: it holds "<").
+_LAYERS_SLOT = "<!--rp:layers-->"
+_PANEL_SLOT = "<!--rp:panel-->"
+
+
+def _group_var(key: str) -> str:
+    """The script name of the layer group ``key`` (folium's name of a FeatureGroup whose id is
+    ``key``; checked when the page is made)."""
+    return f"feature_group_{key}"
+
+
+def _circuit_roles(css: str) -> tuple[Role, ...]:
+    return (
+        Role("ok", f"rp-circuit {css}"),
+        Role("casing", "rp-fail-casing", interactive=False),
+        Role("fail", f"rp-circuit rp-fail {css}"),
+    )
+
+
+_SEGMENT_ROLES = (
+    Role("ok", "rp-segment"),
+    Role("halo", "rp-over-halo", interactive=False),
+    Role("over", "rp-segment rp-over"),
+)
+
+
+def _page(spec: dict) -> list[str]:
+    """The page around the layers (folium), cut at the slots: [before the panel, between the
+    panel and the layers' scripts, after them]. Imports folium only here."""
+    import folium
+
+    from routeplan.outputs.map_assets import offline_header
+    from routeplan.outputs.map_elements import MetricScale, RawHTML, ScriptSlot
+    from routeplan.outputs.map_script import PAGE_SCRIPT
+
     m = folium.Map(
         location=None,
         tiles=None,
-        control_scale=False,  # metric only, added in render_map
+        control_scale=False,  # metric only, added below
         max_zoom=22,
         zoom_control=True,
-        prefer_canvas=canvas,
+        prefer_canvas=spec["canvas"],
     )
     # never the module-level lists (add_js_link/add_css_link mutate them for every map)
     m.default_js = []
     m.default_css = []
     root = m.get_root()
-    root.title = escape_text(title)
+    root.title = escape_text(spec["title"])
     # after branca's <meta charset>, which the Figure added first
     root.header.add_child(RawHTML(offline_header()), name="rp_offline_libraries")
     root.header.add_child(RawHTML(PAGE_SCRIPT), name="rp_page_script")
-    if basemap:
+    if spec["basemap"]:
         folium.TileLayer(
             "OpenStreetMap",
             name="Basemap (online)",
@@ -131,54 +165,60 @@ def _new_map(basemap: bool, title: str, *, canvas: bool) -> folium.Map:
             max_native_zoom=19,
             max_zoom=22,
         ).add_to(m)
-    return m
-
-
-def _add_geojson(parent, layer: Layer, *, class_name: str, interactive: bool = True) -> None:
-    """Add one GeoJSON layer to ``parent`` unless it is empty (lazily if it starts hidden)."""
-    if len(layer):
-        lazy = not getattr(parent, "show", True)
-        GeoJsonLayer(layer, class_name=class_name, interactive=interactive, lazy=lazy).add_to(
-            parent
-        )
-
-
-def _add_circuits(m: folium.Map, layers: CircuitLayers, name: str, css: str) -> None:
-    if not layers.drawn:
-        return
-    group = folium.FeatureGroup(name=name, show=True).add_to(m)
-    _add_geojson(group, layers.ok, class_name=f"rp-circuit {css}")
-    _add_geojson(group, layers.casing, class_name="rp-fail-casing", interactive=False)
-    _add_geojson(group, layers.fail, class_name=f"rp-circuit rp-fail {css}")
-
-
-def _add_segments(m: folium.Map, layers: SegmentLayers) -> None:
-    if not layers.drawn:
-        return
-    group = folium.FeatureGroup(name=LAYER_NAMES["segments"], show=True).add_to(m)
-    _add_geojson(group, layers.ok, class_name="rp-segment")
-    _add_geojson(group, layers.halo, class_name="rp-over-halo", interactive=False)
-    _add_geojson(group, layers.over, class_name="rp-segment rp-over")
+    # the view first: layers added later are projected and drawn once, at this view
+    if spec["bounds"] is not None:
+        m.fit_bounds(spec["bounds"], padding=(20, 20))
+    for key, name, show in spec["groups"]:
+        group = folium.FeatureGroup(name=name, show=show)
+        group._id = key  # a fixed name, known to the layers' scripts
+        if group.get_name() != _group_var(key):
+            raise RuntimeError(f"folium named a group {group.get_name()!r}: not {_group_var(key)}")
+        group.add_to(m)
+    ScriptSlot(_LAYERS_SLOT).add_to(m)
+    folium.LayerControl(collapsed=False, position="topright").add_to(m)
+    root.html.add_child(RawHTML(_PANEL_SLOT), name="rp_panel")
+    MetricScale().add_to(m)
+    head, rest = root.render().split(_PANEL_SLOT)  # the panel, in the body …
+    middle, tail = rest.split(_LAYERS_SLOT)  # … comes before the scripts
+    return [head, middle, tail]
 
 
 def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
-    boxes = [_lonlat_bounds(f) for f in frames if len(f) and f.crs is not None]
-    boxes = [b for b in boxes if np.isfinite(b).all()]
+    """The lon/lat box of the drawable features of ``frames`` ([[south, west], [north, east]]),
+    from each frame's box in its CRS with densified edges (pyproj ``transform_bounds``)."""
+    boxes = []
+    for f in frames:
+        if not len(f) or f.crs is None:
+            continue
+        g = f.geometry.to_numpy()
+        g = g[~shapely.is_missing(g) & ~shapely.is_empty(g)]
+        if not len(g):
+            continue
+        b = shapely.total_bounds(g)
+        if not f.crs.equals("EPSG:4326"):
+            to_geo = pyproj.Transformer.from_crs(f.crs, "EPSG:4326", always_xy=True)
+            b = np.array(to_geo.transform_bounds(*b, densify_pts=21))
+        if np.isfinite(b).all():
+            boxes.append(b)
     if not boxes:
         return None
     b = np.array(boxes)
     return [[b[:, 1].min(), b[:, 0].min()], [b[:, 3].max(), b[:, 2].max()]]
 
 
-def _lonlat_bounds(gdf: gpd.GeoDataFrame) -> np.ndarray:
-    """``gdf.to_crs("EPSG:4326").total_bounds`` from the coordinates alone (no new geometries)."""
-    xy = shapely.get_coordinates(gdf.geometry.to_numpy())
-    if len(xy) == 0:
-        return np.full(4, np.nan)
-    if not gdf.crs.equals("EPSG:4326"):
-        to_geo = pyproj.Transformer.from_crs(gdf.crs, "EPSG:4326", always_xy=True)
-        xy = np.column_stack(to_geo.transform(xy[:, 0], xy[:, 1]))
-    return np.r_[np.nanmin(xy, axis=0), np.nanmax(xy, axis=0)]
+def _drawable_mask(gdf: gpd.GeoDataFrame) -> np.ndarray:
+    g = gdf.geometry.to_numpy()
+    return ~shapely.is_missing(g) & ~shapely.is_empty(g)
+
+
+def _ids(gdf: pd.DataFrame, column: str) -> np.ndarray:
+    values = gdf[column] if column in gdf.columns else pd.Series("", index=gdf.index)
+    return values.astype(object).where(values.notna(), "").astype(str).to_numpy()
+
+
+def _parts(ids: np.ndarray, hashes: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
+    """Tiles of features (positions in the frame) with their rows' hashes."""
+    return [(p, hashes[p]) for p in tiles(ids)]
 
 
 @paused_gc()
@@ -191,6 +231,8 @@ def render_map(
     site_name: str,
     basemap: bool = False,
     aggregate_strings_above: int = 20000,
+    memo: MapMemo | None = None,
+    hashes: dict[str, np.ndarray] | None = None,
 ) -> str:
     """Draw a plan as one self-contained HTML page.
 
@@ -207,6 +249,12 @@ def render_map(
     aggregate_strings_above : int
         When there are more string circuits than this, draw one line per row and destination
         instead of one per string.
+    memo : MapMemo, optional
+        The last map's tiles and page (:mod:`routeplan.outputs.map_tiles`): tiles whose rows
+        did not change are reused; the memo then holds what this map used.
+    hashes : dict, optional
+        Content hashes of the frames' rows (:func:`routeplan.outputs.reuse.row_hashes` of
+        attributes and geometry, by layer name), when the caller has them already.
 
     Returns
     -------
@@ -221,59 +269,127 @@ def render_map(
     frames = {"circuits": circuits, "segments": segments, "rows": rows, "equipment": equipment}
     for name, gdf in frames.items():
         _check_columns(name, gdf)
+    memo = memo if memo is not None else MapMemo()
+    h = {}
+    for name, gdf in frames.items():
+        given = (hashes or {}).get(name)
+        if given is None or len(given) != len(gdf):
+            given = row_hashes(gdf.drop(columns=gdf.geometry.name), gdf.geometry.to_numpy())
+        h[name] = np.asarray(given, dtype=np.uint64)
+    ok = {name: _drawable_mask(gdf) for name, gdf in frames.items()}
 
     kinds = circuit_kind(circuits)
     strings = circuits[kinds == "string"]
     aggregated = len(strings) > aggregate_strings_above
-    row_l = row_layer(rows, strings)
-    seg_layers = segment_layers(segments)
-    string_layers = string_group_layers(strings) if aggregated else circuit_layers(strings)
-    array_layers = circuit_layers(circuits[kinds == "array"])
-    ac_layers = circuit_layers(circuits[~np.isin(kinds, ("string", "array"))])
-    eq_l = equipment_layer(equipment, circuits)
-    drawn = len(row_l) + seg_layers.drawn + len(eq_l)
-    drawn += string_layers.drawn + array_layers.drawn + ac_layers.drawn
+    groups: list[tuple[str, str, bool]] = []
+    scripts: list[str] = []
+    drawn = 0
 
-    m = _new_map(basemap, f"{site_name} – cable routes", canvas=drawn > CANVAS_ABOVE)
-    # the view first: layers added later are projected and drawn once, at this view
-    bounds = _bounds([drawable(f) for f in frames.values()])
-    if bounds is not None:
-        m.fit_bounds(bounds, padding=(20, 20))
-    rows_group = folium.FeatureGroup(
-        name=LAYER_NAMES["rows"], show=len(row_l) <= ROWS_SHOWN_UP_TO
-    ).add_to(m)
-    _add_geojson(rows_group, row_l, class_name="rp-row")
-    _add_segments(m, seg_layers)
-    strings_name = LAYER_NAMES["string_grouped" if aggregated else "string"]
-    _add_circuits(m, string_layers, strings_name, "rp-string")
-    _add_circuits(m, array_layers, LAYER_NAMES["array"], "rp-array")
-    _add_circuits(m, ac_layers, LAYER_NAMES["ac"], "rp-ac")
-    eq_group = folium.FeatureGroup(name=LAYER_NAMES["equipment"]).add_to(m)
-    _add_geojson(eq_group, eq_l, class_name="rp-equipment")
-    folium.LayerControl(collapsed=False, position="topright").add_to(m)
+    # module rows (hidden at first, and made when switched on, for very large plants)
+    row_pos = np.flatnonzero(ok["rows"])
+    row_ids = _ids(rows, "id")[row_pos]
+    show_rows = len(row_pos) <= ROWS_SHOWN_UP_TO
+    worst, routed = row_stats(row_ids, strings)
+    row_h = mixed(h["rows"][row_pos], worst, routed)
+    groups.append(("rows", LAYER_NAMES["rows"], show_rows))
 
-    _, over, _ = segment_values(segments)
-    totals = plan_totals(circuits, segments, over)
+    def draw_rows(p: np.ndarray) -> dict:
+        sub = rows.iloc[row_pos[p]]
+        return {"ok": row_layer(sub, stats=(worst[p], routed[p]))}
+
+    s, n = memo.group(
+        "rows", None, _group_var("rows"), (Role("ok", "rp-row"),),
+        _parts(row_ids, row_h), draw_rows, lazy=not show_rows,
+    )  # fmt: skip
+    scripts += s
+    n_rows = n["ok"]
+    drawn += n_rows
+
+    # trench segments, coloured against the whole plant's busiest segment
+    seg = segments[ok["segments"]]
+    _, _, reference = segment_values(seg)
+    seg_h = h["segments"][ok["segments"]]
+    s, n = memo.group(
+        "segments", reference, _group_var("segments"), _SEGMENT_ROLES,
+        _parts(_ids(seg, "segment_id"), seg_h),
+        lambda p: vars(segment_layers(seg.iloc[p], reference)),
+    )  # fmt: skip
+    if n["ok"] + n["over"]:
+        groups.append(("segments", LAYER_NAMES["segments"], True))
+        scripts += s
+        drawn += n["ok"] + n["over"]
+
+    # circuits by kind: strings (one per row and destination above the threshold), arrays, AC
+    circuit_ids = _ids(circuits, "circuit_id")
+    from_ids = _ids(circuits, "from_id")
+    for kind, label, css, mask in (
+        ("string", "string_grouped" if aggregated else "string", "rp-string", kinds == "string"),
+        ("array", "array", "rp-array", kinds == "array"),
+        ("ac", "ac", "rp-ac", ~np.isin(kinds, ("string", "array"))),
+    ):
+        pos = np.flatnonzero(mask & ok["circuits"])
+        sub = circuits.iloc[pos]
+        grouped = kind == "string" and aggregated
+
+        def draw_circuits(p: np.ndarray, sub=sub, grouped=grouped) -> dict:
+            layers: CircuitLayers = (string_group_layers if grouped else circuit_layers)(
+                sub.iloc[p]
+            )
+            return vars(layers)
+
+        keys = from_ids[pos] if grouped else circuit_ids[pos]
+        s, n = memo.group(
+            kind, grouped, _group_var(kind), _circuit_roles(css),
+            _parts(keys, h["circuits"][pos]), draw_circuits,
+        )  # fmt: skip
+        if n["ok"] + n["fail"]:
+            groups.append((kind, LAYER_NAMES[label], True))
+            scripts += s
+            drawn += n["ok"] + n["fail"]
+
+    # combiners, inverters, grid points
+    eq_pos = np.flatnonzero(ok["equipment"])
+    eq_ids = _ids(equipment, "id")[eq_pos]
+    incoming, outgoing = equipment_stats(eq_ids, circuits)
+    eq_h = mixed(h["equipment"][eq_pos], np.asarray(incoming), np.asarray(outgoing))
+    groups.append(("equipment", LAYER_NAMES["equipment"], True))
+
+    def draw_equipment(p: np.ndarray) -> dict:
+        stats = ([incoming[i] for i in p], [outgoing[i] for i in p])
+        return {"ok": equipment_layer(equipment.iloc[eq_pos[p]], stats=stats)}
+
+    s, n = memo.group(
+        "equipment", None, _group_var("equipment"), (Role("ok", "rp-equipment"),),
+        _parts(eq_ids, eq_h), draw_equipment,
+    )  # fmt: skip
+    scripts += s
+    drawn += n["ok"]
+
+    totals = plan_totals(circuits, segments, segment_values(segments)[1])
     if aggregated:
         totals.extra.append(
             f"{len(strings):,} strings drawn as one line per row "
             f"(more than {aggregate_strings_above:,})"
         )
-    if len(row_l) > ROWS_SHOWN_UP_TO:
-        totals.extra.append(f"{len(row_l):,} module rows: switch them on in the layer list")
-    not_drawn = sum(len(f) - len(drawable(f)) for f in frames.values())
+    if n_rows > ROWS_SHOWN_UP_TO:
+        totals.extra.append(f"{n_rows:,} module rows: switch them on in the layer list")
+    not_drawn = sum(int((~m).sum()) for m in ok.values())
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
     crs = circuits.crs or segments.crs
     crs_name = crs.to_string() if crs is not None else "unknown"
-    legend = legend_html(segment_reference=seg_layers.reference, aggregated=aggregated)
-    m.get_root().html.add_child(
-        RawHTML(panel_html(site_name, totals, crs_name=crs_name, legend=legend)),
-        name="rp_panel",
-    )
+    legend = legend_html(segment_reference=reference, aggregated=aggregated)
+    panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend)
 
-    MetricScale().add_to(m)
-    return m.get_root().render()
+    spec = {
+        "title": f"{site_name} – cable routes",
+        "basemap": bool(basemap),
+        "canvas": drawn > CANVAS_ABOVE,
+        "bounds": _bounds([frames[k][ok[k]] for k in frames]),
+        "groups": groups,
+    }
+    head, middle, tail = memo.page(json.dumps(spec, sort_keys=True), lambda: _page(spec))
+    return "".join([head, panel, middle, "\n".join(scripts), tail])
 
 
 def _read_layer(path: Path, layer: str) -> gpd.GeoDataFrame:

@@ -719,7 +719,9 @@ def string_group_layers(strings: gpd.GeoDataFrame) -> CircuitLayers:
 # trench segments
 
 
-def segment_values(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, int]:
+def segment_values(
+    df: pd.DataFrame, reference: int | None = None
+) -> tuple[np.ndarray, np.ndarray, int]:
     """Scale position, over-capacity flag and reference count of trench segments.
 
     Where a capacity is set, the position is the fill (``fill``, or circuits ÷ ``max_circuits``
@@ -735,7 +737,7 @@ def segment_values(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, int]:
     over : numpy.ndarray of bool
     reference : int
         Circuits that map to the dark end where no capacity is set (0 if every segment has a
-        capacity).
+        capacity); ``reference`` when given (the whole plant's, for a part of its segments).
     """
     circuits = _num(df, "circuits")
     cap = _num(df, "max_circuits")
@@ -743,8 +745,11 @@ def segment_values(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, int]:
     has_cap = ~np.isnan(cap) & (cap > 0)
     with np.errstate(divide="ignore", invalid="ignore"):
         fill = np.where(np.isnan(fill) & has_cap, circuits / cap, fill)
-    busiest = np.nanmax(circuits) if np.isfinite(circuits).any() else 0.0
-    ref = int(busiest) if (~has_cap).any() and busiest > 0 else 0
+    if reference is None:
+        busiest = np.nanmax(circuits) if np.isfinite(circuits).any() else 0.0
+        ref = int(busiest) if (~has_cap).any() and busiest > 0 else 0
+    else:
+        ref = int(reference)
     with np.errstate(divide="ignore", invalid="ignore"):
         t = np.where(has_cap, fill, circuits / ref if ref else np.nan)
     status_over = _text(df, "status").str.strip().str.lower().eq("over").to_numpy()
@@ -816,10 +821,11 @@ class SegmentLayers:
         return len(self.ok) + len(self.over)
 
 
-def segment_layers(df: gpd.GeoDataFrame) -> SegmentLayers:
-    """Layers of trench segments coloured by fill, over-capacity ones on a vermillion halo."""
+def segment_layers(df: gpd.GeoDataFrame, reference: int | None = None) -> SegmentLayers:
+    """Layers of trench segments coloured by fill, over-capacity ones on a vermillion halo
+    (``reference``: see :func:`segment_values`)."""
     df = drawable(df)
-    t, over, ref = segment_values(df)
+    t, over, ref = segment_values(df, reference)
     order = np.argsort(np.nan_to_num(t, nan=-1.0), kind="stable")
     df, t, over = df.iloc[order], t[order], over[order]
     geoms = display_geometry(df)
@@ -849,17 +855,32 @@ def _row_strings_text(declared, routed) -> str:
     return d if np.isnan(routed) else f"{d} ({routed:g} with a route)"
 
 
-def row_layer(rows: gpd.GeoDataFrame, strings: pd.DataFrame) -> Layer:
-    """Module rows; a row's tooltip shows its strings and the worst total drop of its strings."""
+def row_stats(ids: np.ndarray, strings: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Per row id: the worst total drop of its strings [%] and its number of routed strings
+    (NaN for a row without strings)."""
+    from_ids = _text(strings, "from_id").to_numpy()
+    worst = pd.Series(_num(strings, "vdrop_total_pct"), index=from_ids).groupby(level=0).max()
+    routed = pd.Series(1, index=from_ids).groupby(level=0).sum()
+    ids = np.asarray(ids, dtype=object)
+    return (
+        worst.reindex(ids).to_numpy(dtype=float),
+        routed.reindex(ids).to_numpy(dtype=float),
+    )
+
+
+def row_layer(
+    rows: gpd.GeoDataFrame,
+    strings: pd.DataFrame | None = None,
+    *,
+    stats: tuple[np.ndarray, np.ndarray] | None = None,
+) -> Layer:
+    """Module rows; a row's tooltip shows its strings and the worst total drop of its strings
+    (from ``strings``, or ``stats`` of :func:`row_stats` for the drawable rows, in order)."""
     rows = drawable(rows)
     ids = _text(rows, "id")
-    worst = (
-        pd.Series(_num(strings, "vdrop_total_pct"), index=_text(strings, "from_id").to_numpy())
-        .groupby(level=0)
-        .max()
-    )
-    routed = pd.Series(1, index=_text(strings, "from_id").to_numpy()).groupby(level=0).sum()
-    n_routed = routed.reindex(ids.to_numpy()).to_numpy()
+    if stats is None:
+        stats = row_stats(ids.to_numpy(), strings if strings is not None else pd.DataFrame())
+    worst, n_routed = stats
     declared = _column(rows, "strings", "").to_numpy(dtype=object)
     strings_text = per_distinct(_row_strings_text, declared, n_routed)
     table = {
@@ -867,7 +888,7 @@ def row_layer(rows: gpd.GeoDataFrame, strings: pd.DataFrame) -> Layer:
         "strings": strings_text,
         "module": _text(rows, "module"),
         "to": _text(rows, "to"),
-        "worst_drop": fmt_number(worst.reindex(ids.to_numpy()).to_numpy(), 2, "%"),
+        "worst_drop": fmt_number(worst, 2, "%"),
     }
     props = _escaped({k: v for k, v in table.items() if k != "strings"})
     props["strings"] = strings_text  # escaped above
@@ -879,24 +900,43 @@ def row_layer(rows: gpd.GeoDataFrame, strings: pd.DataFrame) -> Layer:
     return make_layer(display_geometry(rows), props, styles, ROW_FIELDS)
 
 
-def equipment_layer(equipment: gpd.GeoDataFrame, circuits: pd.DataFrame) -> Layer:
-    """Combiners, inverters (point or pad) and the grid point, with their circuits in and out."""
-    eq = drawable(equipment)
-    ids = _text(eq, "id")
-    kinds = _text(eq, "kind").str.strip().str.lower().to_numpy()
+def equipment_stats(ids: np.ndarray, circuits: pd.DataFrame) -> tuple[list[str], list[str]]:
+    """Per equipment id: the number of circuits arriving and the circuits leaving, as shown."""
     to_ids = _text(circuits, "to_id")
     from_ids = _text(circuits, "from_id")
     incoming = to_ids.value_counts()
+    ids = [str(i) for i in ids]
     mine = from_ids.isin(set(ids)).to_numpy()
     outgoing: dict[str, list[str]] = {}
     cids = _text(circuits, "circuit_id").to_numpy()[mine]
     for frm, cid in zip(from_ids.to_numpy()[mine], cids, strict=True):
         outgoing.setdefault(frm, []).append(cid)
+    return (
+        [f"{int(incoming.get(i, 0))}" for i in ids],
+        [join_limited(outgoing.get(i, []), limit=4) or "0" for i in ids],
+    )
+
+
+def equipment_layer(
+    equipment: gpd.GeoDataFrame,
+    circuits: pd.DataFrame | None = None,
+    *,
+    stats: tuple[list[str], list[str]] | None = None,
+) -> Layer:
+    """Combiners, inverters (point or pad) and the grid point, with their circuits in and out
+    (from ``circuits``, or ``stats`` of :func:`equipment_stats` for the drawable ones)."""
+    eq = drawable(equipment)
+    ids = _text(eq, "id")
+    kinds = _text(eq, "kind").str.strip().str.lower().to_numpy()
+    if stats is None:
+        circuits = circuits if circuits is not None else pd.DataFrame()
+        stats = equipment_stats(ids.to_numpy(), circuits)
+    incoming, outgoing = stats
     table = {
         "equipment": ids,
         "kind": [EQUIPMENT_LABEL.get(k, k) for k in kinds],
-        "incoming": [f"{int(incoming.get(i, 0))}" for i in ids],
-        "outgoing": [join_limited(outgoing.get(i, []), limit=4) or "0" for i in ids],
+        "incoming": list(incoming),
+        "outgoing": list(outgoing),
     }
     props = _escaped(table)
     types = shapely.get_type_id(eq.geometry.to_numpy())

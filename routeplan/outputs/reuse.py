@@ -32,18 +32,52 @@ CHUNK_MASK = np.uint64(511)
 CHUNK_MAX = 4096
 
 
+_GOLDEN = np.uint64(0x9E3779B97F4A7C15)
+
+
+def _mix(x: np.ndarray) -> np.ndarray:
+    """splitmix64's finaliser (a bijection of uint64)."""
+    x = x ^ (x >> np.uint64(30))
+    x = x * np.uint64(0xBF58476D1CE4E5B9)
+    x = x ^ (x >> np.uint64(27))
+    x = x * np.uint64(0x94D049BB133111EB)
+    return x ^ (x >> np.uint64(31))
+
+
+def geometry_hashes(geometry: np.ndarray) -> np.ndarray:
+    """A uint64 content hash per geometry (``None`` allowed): of the type and the exact
+    coordinates, in order, for points and line strings (vectorised); of the WKB for others."""
+    g = np.asarray(geometry, dtype=object)
+    types = shapely.get_type_id(g)  # -1 for None
+    out = _mix(types.astype(np.int64).astype(np.uint64) + _GOLDEN)
+    simple = np.isin(types, (0, 1))  # Point, LineString: their coordinates say everything
+    if simple.any():
+        xy, which = shapely.get_coordinates(g[simple], include_z=True, return_index=True)
+        xy = np.where(np.isnan(xy), np.nan, xy + 0.0)  # one NaN, and -0.0 as 0.0
+        bits = xy.view(np.uint64)
+        first = np.searchsorted(which, np.arange(int(simple.sum())))
+        position = np.arange(len(which), dtype=np.int64) - first[which]
+        c = _mix(bits[:, 0] ^ _mix(bits[:, 1] + _GOLDEN) ^ _mix(bits[:, 2] + np.uint64(7)))
+        c = _mix(c + _mix(position.astype(np.uint64) + np.uint64(1)))
+        total = np.zeros(int(simple.sum()), dtype=np.uint64)
+        np.add.at(total, which, c)
+        count = np.bincount(which, minlength=len(total)).astype(np.uint64)
+        out[simple] = _mix(out[simple] ^ total ^ _mix(count + np.uint64(3)))
+    other = np.flatnonzero(~simple & (types >= 0))
+    if len(other):
+        wkb = shapely.to_wkb(g[other], output_dimension=3)
+        text = np.array([w.decode("latin-1") for w in wkb.tolist()], dtype=object)
+        out[other] = _mix(out[other] ^ pd.util.hash_array(text, categorize=False))
+    return out
+
+
 def row_hashes(frame: pd.DataFrame, geometry: np.ndarray | None = None) -> np.ndarray:
     """A uint64 content hash per row of ``frame`` (every column, in order) and, when given,
-    of its geometry (``None`` allowed). Equal rows hash equal; column names and dtypes are not
-    part of it (see :func:`layout`)."""
+    of its geometry (:func:`geometry_hashes`). Equal rows hash equal; column names and dtypes
+    are not part of it (see :func:`layout`)."""
     h = pd.util.hash_pandas_object(frame, index=False, categorize=True).to_numpy(np.uint64)
     if geometry is not None:
-        wkb = shapely.to_wkb(np.asarray(geometry, dtype=object), output_dimension=3)
-        text = np.array(
-            [None if w is None else w.decode("latin-1") for w in wkb.tolist()], dtype=object
-        )
-        g = pd.util.hash_array(text, categorize=False)
-        h = h * np.uint64(0x9E3779B97F4A7C15) ^ g
+        h = h * _GOLDEN ^ geometry_hashes(geometry)
     return h
 
 

@@ -36,14 +36,19 @@ class Schedule:
     _rendered: dict[int, tuple[bytes, bytes, np.ndarray]] = field(default_factory=dict)
 
     @classmethod
-    def of(cls, frame: pd.DataFrame, cols: tuple[Col, ...] = ()) -> Schedule:
-        """The schedule of ``frame`` (contract columns ``cols`` first, when given)."""
+    def of(
+        cls, frame: pd.DataFrame, cols: tuple[Col, ...] = (), hashes: np.ndarray | None = None
+    ) -> Schedule:
+        """The schedule of ``frame`` (contract columns ``cols`` first, when given); ``hashes``
+        of its rows when known already (:func:`routeplan.outputs.reuse.row_hashes` of every
+        column, geometry included or not)."""
         data = ordered(frame, cols) if cols else frame.drop(columns="geometry", errors="ignore")
         data = data.reset_index(drop=True)
         spec = {c.name: c for c in cols}
         titles = [spec[c].title if c in spec else str(c) for c in data.columns]
         lay = layout(data, [(c.name, c.title, c.decimals) for c in cols])
-        hashes = row_hashes(data)
+        if hashes is None or len(hashes) != len(data):
+            hashes = row_hashes(data)
         bounds = chunk_bounds(hashes)
         return cls(data, cols, lay, bounds, chunk_keys(hashes, bounds, lay), titles)
 

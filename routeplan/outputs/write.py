@@ -17,6 +17,7 @@ from collections.abc import Callable
 from pathlib import Path
 
 import geopandas as gpd
+import numpy as np
 import pandas as pd
 
 from .. import CAUTION
@@ -39,11 +40,13 @@ FILES: tuple[str, ...] = (
 CSV_FILES: tuple[str, ...] = ("cable_schedule.csv", "trench_schedule.csv", "quantities.csv")
 
 
-def schedules(plan: Plan) -> dict[str, Schedule]:
-    """The schedules, for the CSVs and the workbook's sheets (by sheet name)."""
+def schedules(plan: Plan, hashes: dict[str, np.ndarray] | None = None) -> dict[str, Schedule]:
+    """The schedules, for the CSVs and the workbook's sheets (by sheet name); ``hashes`` of
+    the rows of ``circuits`` and ``segments`` when known (the GeoPackage's)."""
+    hashes = hashes or {}
     return {
-        "circuits": Schedule.of(plan.circuits, CIRCUIT_COLUMNS),
-        "trenches": Schedule.of(plan.segments, SEGMENT_COLUMNS),
+        "circuits": Schedule.of(plan.circuits, CIRCUIT_COLUMNS, hashes.get("circuits")),
+        "trenches": Schedule.of(plan.segments, SEGMENT_COLUMNS, hashes.get("segments")),
         "quantities": Schedule.of(plan.quantities, QUANTITY_COLUMNS),
     }
 
@@ -168,13 +171,6 @@ def _write_files(
     last = plan.cache.output_index() if plan.cache is not None else {}
     index: dict = {}
     copied: dict[str, int] = {}
-    say("write schedules")
-    t0 = time.perf_counter()
-    tables = schedules(plan)
-    for name, table in zip(CSV_FILES, tables.values(), strict=True):
-        index[name], copied[name] = write_csv(table, tmp / name, _previous(plan, name, last))
-    t["csv"] = time.perf_counter() - t0
-
     say("write GeoPackage")
     t0 = time.perf_counter()
     rows, equipment = rows_frame(plan), equipment_frame(plan)
@@ -191,6 +187,13 @@ def _write_files(
         write_gpkg(layers, tmp / gpkg)
     index[gpkg] = gpkg_index(layers)
     t["gpkg"] = time.perf_counter() - t0
+
+    say("write schedules")
+    t0 = time.perf_counter()
+    tables = schedules(plan, {name: layers[name].hashes for name in ("circuits", "segments")})
+    for name, table in zip(CSV_FILES, tables.values(), strict=True):
+        index[name], copied[name] = write_csv(table, tmp / name, _previous(plan, name, last))
+    t["csv"] = time.perf_counter() - t0
 
     say("write workbook")
     t0 = time.perf_counter()
@@ -210,21 +213,27 @@ def _write_files(
     say("draw map")
     t0 = time.perf_counter()
     from .map import render_map
+    from .map_tiles import MapMemo
 
+    memo = MapMemo.load(last.get("map.html")) if plan.cache is not None else MapMemo()
     html = render_map(
         plan.circuits,
         plan.segments,
         rows,
         equipment,
         site_name=plan.site.name,
+        memo=memo,
+        hashes={name: layer.hashes for name, layer in layers.items()},
         **(map_options or {}),
     )
     (tmp / "map.html").write_text(html, encoding="utf-8")
+    index["map.html"] = memo.export()
     t["map"] = time.perf_counter() - t0
     if plan.cache is not None:
         plan.cache.output_reuse = {
             "routes.gpkg rows rewritten": -1 if updated is None else updated,
             **{f"{name} chunks copied": n for name, n in copied.items()},
+            "map.html tiles reused": memo.reused_tiles,
         }
     return index
 

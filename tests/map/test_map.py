@@ -16,7 +16,14 @@ import shapely
 from branca.colormap import _schemes
 
 from routeplan.outputs import map as rpmap
-from routeplan.outputs import map_elements, map_features, map_panel, map_scales, map_text
+from routeplan.outputs import (
+    map_elements,
+    map_features,
+    map_panel,
+    map_scales,
+    map_script,
+    map_text,
+)
 from routeplan.outputs.map import MapError, escape_text, read_output_folder, render_map, write_map
 from routeplan.outputs.map_assets import offline_header
 from routeplan.outputs.map_features import (
@@ -309,7 +316,7 @@ def test_size_per_drawn_feature_is_small():
     frames, site = synthetic_frames(n_blocks=100)
     html = render(frames, site, aggregate_strings_above=1000)
     drawn = sum(len(fc["features"]) for fc in layer_data(html) if fc["interactive"])
-    libraries = len(offline_header().encode()) + len(map_elements.PAGE_SCRIPT) + 20_000
+    libraries = len(offline_header().encode()) + len(map_script.PAGE_SCRIPT) + 20_000
     assert (len(html.encode()) - libraries) / drawn < 200
 
 
@@ -505,7 +512,7 @@ def test_features_without_geometry_are_counted_not_drawn(plan_frames):
     assert len(rows_fc["features"]) == 3
 
 
-@pytest.mark.parametrize("module", [map_scales, map_text, map_elements, rpmap])
+@pytest.mark.parametrize("module", [map_scales, map_text, map_elements, map_script, rpmap])
 def test_docstring_examples(module):
     # routeplan is not in pytest's doctest paths; run the map modules' examples here
     result = doctest.testmod(module, optionflags=doctest.ELLIPSIS)
@@ -598,3 +605,64 @@ def test_non_finite_coordinates_are_refused():
         bad = np.array([shapely.LineString([(0, 0), (np.nan, 1)])], dtype=object)
     with pytest.raises(ValueError, match="finite"):
         map_features.columns_text(bad, None, np.array([0]))
+
+
+# --------------------------------------------------------------------------------------------
+# tiles and the memo of the last map (routeplan.outputs.map_tiles)
+
+
+def _features_by_class(html: str) -> dict[str, list]:
+    """Every drawn feature by CSS class, in drawing order (tiles merged)."""
+    out: dict[str, list] = {}
+    for fc in layer_data(html):
+        out.setdefault(fc["class"], []).extend(fc["features"])
+    return out
+
+
+def test_tiles_are_content_defined_and_keep_ids_together():
+    from routeplan.outputs.map_tiles import TILE_MAX, tiles
+
+    ids = np.array([f"R{i // 3:05d}" for i in range(30_000)], dtype=object)  # 3 per id
+    parts = tiles(ids[::-1])
+    assert sorted(np.concatenate(parts).tolist()) == list(range(30_000))
+    assert len(parts) > 3 and max(len(p) for p in parts) <= TILE_MAX
+    for p in parts:  # every id wholly in one tile
+        assert len(set(ids[::-1][p])) * 3 == len(p)
+    # one id more, in the middle: the other tiles are the same sets of ids
+    more = np.insert(ids, 15_000, "R05000x")
+    a = {tuple(sorted(set(ids[p]))) for p in tiles(ids)}
+    b = {tuple(sorted(set(more[p]))) for p in tiles(more)}
+    assert len(a - b) == 1 and len(b - a) == 1
+
+
+def test_a_memo_of_the_last_map_gives_the_same_page():
+    from routeplan.outputs.map_tiles import MapMemo
+
+    frames, site = synthetic_frames(n_blocks=600)
+    first = MapMemo()
+    html = render(frames, site, aggregate_strings_above=1000, memo=first)
+    assert first.drawn_tiles > 6 and first.reused_tiles == 0  # several tiles per large group
+    again = MapMemo.load(first.export())
+    assert render(frames, site, aggregate_strings_above=1000, memo=again) == html
+    assert again.drawn_tiles == 0 and again.reused_tiles == first.drawn_tiles
+
+
+def test_an_edit_draws_only_its_tiles_and_the_page_matches_a_fresh_one():
+    from routeplan.outputs.map_tiles import MapMemo
+
+    frames, site = synthetic_frames(n_blocks=600)
+    first = MapMemo()
+    render(frames, site, aggregate_strings_above=1000, memo=first)
+    c = frames["circuits"].copy()
+    i = int(np.flatnonzero(c["kind"].to_numpy() == "string")[123])
+    c.loc[c.index[i], "utilisation"] = 1.7  # one string over its capacity
+    c.loc[c.index[i], "status"] = "fail"
+    edited = {**frames, "circuits": c}
+    memo = MapMemo.load(first.export())
+    html = render(edited, site, aggregate_strings_above=1000, memo=memo)
+    assert memo.drawn_tiles == 1  # the string tile holding it (row ids: one tile)
+    fresh = render(edited, site, aggregate_strings_above=1000)
+    assert _features_by_class(html) == _features_by_class(fresh)
+    # an unusable memo is an empty one, never an error
+    assert MapMemo.load({"scripts": "garbage"}).last_scripts == {}
+    assert MapMemo.load(None).last_pages == {}

@@ -1,0 +1,198 @@
+"""The map's layers in tiles, and what a re-plan reuses of the last map (:class:`MapMemo`).
+
+A 1 GW plant's map holds about 100,000 drawn features; an edit (a pad moved) changes a few
+hundred. So every layer group is drawn as tiles of neighbouring features: features sorted by
+their id (a row, a circuit, a segment), cut at content-defined boundaries (a feature whose id
+hashes with its low bits zero ends a tile, about 2,000 features per tile; an inserted feature
+moves no other boundary). Each tile's scripts are kept in the memo under a key made of the
+tile's rows' content hashes and every plant-wide value its drawing depends on, so the next run
+draws only the tiles whose features changed. Within a tile, circuits are drawn in order of
+increasing utilisation (the most loaded on top); tiles follow one another by id, and failing
+circuits and over-capacity segments of every tile come after all passing ones.
+
+The page around the layers (folium's map, groups, layer control, scale, the inlined Leaflet)
+depends only on a few values (title, basemap, canvas, view, groups): the memo keeps it too, so
+a re-plan that does not change those does not even import folium.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import itertools
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from routeplan.outputs.map_features import Layer
+from routeplan.outputs.map_script import layer_script
+
+#: a feature whose id hashes with these low bits zero ends a tile (about 2,048 per tile) …
+TILE_MASK = np.uint64(2047)
+#: … and no tile is longer than this
+TILE_MAX = 8192
+
+
+def tiles(keys: np.ndarray) -> list[np.ndarray]:
+    """Positions of the features of each tile, tiles in order of their ids (``keys``: one id
+    per feature; features with equal ids always share a tile)."""
+    keys = np.asarray(keys, dtype=object)
+    if len(keys) == 0:
+        return []
+    order = np.argsort(keys.astype(str), kind="stable")
+    k = keys[order]
+    h = pd.util.hash_array(k.astype(str).astype(object), categorize=True)
+    last = np.r_[k[1:] != k[:-1], True]  # only after the last feature of an id
+    ends = np.flatnonzero(last & ((h & TILE_MASK) == 0)) + 1
+    bounds = [0]
+    cuts = np.flatnonzero(last) + 1
+    for end in [*ends.tolist(), len(k)]:
+        while end - bounds[-1] > TILE_MAX:  # too long: cut at the last id end in reach
+            reach = cuts[(cuts > bounds[-1]) & (cuts <= bounds[-1] + TILE_MAX)]
+            if len(reach) == 0:
+                break
+            bounds.append(int(reach[-1]))
+        if end > bounds[-1]:
+            bounds.append(int(end))
+    return [order[a:b] for a, b in itertools.pairwise(bounds)]
+
+
+def mixed(hashes: np.ndarray, *values: np.ndarray) -> np.ndarray:
+    """Row hashes with per-row ``values`` (numbers or text) folded in."""
+    h = np.asarray(hashes, dtype=np.uint64).copy()
+    for v in values:
+        v = np.asarray(v)
+        if v.dtype.kind in "fiub":
+            g = pd.util.hash_array(v.astype(float))
+        else:
+            g = pd.util.hash_array(v.astype(str).astype(object), categorize=True)
+        h = h * np.uint64(0x9E3779B97F4A7C15) ^ g
+    return h
+
+
+def tile_key(kind: str, params: object, hashes: np.ndarray) -> str:
+    """The memo key of a tile: its kind, the plant-wide values it depends on, its rows."""
+    data = repr((kind, params)).encode("utf-8") + np.ascontiguousarray(hashes, "<u8").tobytes()
+    return hashlib.blake2b(data, digest_size=16).hexdigest()
+
+
+@dataclass(frozen=True)
+class Role:
+    """One layer of each tile of a group: its part of the tile's layers, CSS classes and
+    whether it takes the pointer."""
+
+    part: str
+    class_name: str
+    interactive: bool = True
+
+
+@dataclass
+class MapMemo:
+    """Scripts of tiles and the page around them, by key: those of the last run (``last``)
+    and those used in this one (:meth:`export` gives them to the plan cache)."""
+
+    last_scripts: dict[str, tuple[str, int]] = field(default_factory=dict)
+    last_pages: dict[str, list[str]] = field(default_factory=dict)
+    scripts: dict[str, tuple[str, int]] = field(default_factory=dict)
+    pages: dict[str, list[str]] = field(default_factory=dict)
+    drawn_tiles: int = 0
+    reused_tiles: int = 0
+
+    @classmethod
+    def load(cls, stored: object) -> MapMemo:
+        """A memo from :meth:`export`'s value (anything else: an empty memo)."""
+        try:
+            s = stored["scripts"]  # type: ignore[index]
+            text = np.asarray(s["text"], dtype=np.uint8).tobytes().decode("utf-8")
+            ends = np.cumsum(np.asarray(s["length"], dtype=np.int64)).tolist()
+            starts = [0, *ends[:-1]]
+            counts = np.asarray(s["count"], dtype=np.int64).tolist()
+            keys = list(s["keys"])
+            if not (len(keys) == len(ends) == len(counts)):
+                return cls()
+            scripts = {
+                k: (text[a:b], n) for k, a, b, n in zip(keys, starts, ends, counts, strict=True)
+            }
+            pages = {
+                str(k): [str(p) for p in parts]
+                for k, parts in dict(stored["pages"]).items()  # type: ignore[index]
+            }
+        except (KeyError, TypeError, ValueError, UnicodeDecodeError):
+            return cls()
+        return cls(last_scripts=scripts, last_pages=pages)
+
+    def export(self) -> dict:
+        """What this run used, for the next one (arrays, no pickle: :mod:`routeplan.cache`)."""
+        keys = list(self.scripts)
+        texts = [self.scripts[k][0].encode("utf-8") for k in keys]
+        return {
+            "scripts": {
+                "keys": keys,
+                "text": np.frombuffer(b"".join(texts), dtype=np.uint8),
+                "length": np.array([len(self.scripts[k][0]) for k in keys], dtype=np.int64),
+                "count": np.array([self.scripts[k][1] for k in keys], dtype=np.int64),
+            },
+            "pages": dict(self.pages),
+        }
+
+    def page(self, key: str, make: Callable[[], list[str]]) -> list[str]:
+        """The page around the layers for ``key``, made when the last run had none."""
+        parts = self.last_pages.get(key)
+        if parts is None:
+            parts = make()
+        self.pages[key] = parts
+        return parts
+
+    def group(
+        self,
+        kind: str,
+        params: object,
+        parent: str,
+        roles: tuple[Role, ...],
+        parts: list[tuple[np.ndarray, np.ndarray]],
+        draw: Callable[[np.ndarray], dict[str, Layer]],
+        *,
+        lazy: bool = False,
+    ) -> tuple[list[str], dict[str, int]]:
+        """The scripts of one layer group drawn in tiles: for each tile (its rows' positions
+        and hashes, in ``parts``), ``draw(positions)`` gives its layers by part. Returns the
+        scripts in drawing order (each role over every tile in turn) and the number of features
+        of each part."""
+        per_role: list[list[str]] = [[] for _ in roles]
+        counts = {r.part: 0 for r in roles}
+        seen: set[str] = set()
+        for positions, hashes in parts:
+            key = tile_key(kind, (params, parent, lazy, roles), hashes)
+            while key in seen:  # two tiles alike: give each its own names
+                key = tile_key(kind, key, hashes)
+            seen.add(key)
+            made = [self.last_scripts.get(f"{key}:{r.part}") for r in roles]
+            if any(m is None for m in made):
+                layers = draw(positions)
+                made = []
+                for r in roles:
+                    layer = layers[r.part]
+                    name = f"rp_{kind}_{key[:16]}_{r.part}"
+                    script = (
+                        layer_script(
+                            name,
+                            parent,
+                            layer,
+                            class_name=r.class_name,
+                            interactive=r.interactive,
+                            lazy=lazy,
+                        )
+                        if len(layer)
+                        else ""
+                    )
+                    made.append((script, len(layer)))
+                self.drawn_tiles += 1
+            else:
+                self.reused_tiles += 1
+            for i, (r, m) in enumerate(zip(roles, made, strict=True)):
+                self.scripts[f"{key}:{r.part}"] = m
+                if m[0]:
+                    per_role[i].append(m[0])
+                counts[r.part] += m[1]
+        return [s for scripts in per_role for s in scripts], counts
