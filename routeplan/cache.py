@@ -76,6 +76,10 @@ from .routing import RouteParams, RoutePlan
 
 CACHE_DIR = ".routeplan-cache"
 MANIFEST = "manifest.json"
+#: the stage entries a (child) process wrote, until the manifest records them
+ENTRIES = "entries.json"
+#: the writers' records kept beside the output files (see PlanCache.output_aux)
+AUX: tuple[str, ...] = ("index", "map")
 #: bump when what is stored, or how, changes
 FORMAT = 2
 STAGES: tuple[str, ...] = ("site", "route", "size")
@@ -524,20 +528,26 @@ class PlanCache:
             pass
         return None
 
-    def output_index(self) -> dict:
-        """What the last run's writers recorded to update their files row by row
-        (:mod:`routeplan.outputs.reuse`); empty when missing or damaged."""
-        e = self._outputs().get("index")
+    def output_aux(self, name: str) -> Any:
+        """What the last run's writers recorded beside their files under ``name`` (``index``:
+        to update them row by row, :mod:`routeplan.outputs.reuse`; ``map``: the map's memo);
+        None when missing or damaged."""
+        path = self.output_aux_file(name)
+        try:
+            return loads(path) if path is not None else None
+        except Exception:  # a damaged entry is a miss, never an error
+            return None
+
+    def output_aux_file(self, name: str) -> Path | None:
+        """The file of :meth:`output_aux`, if it is the one recorded."""
+        e = self._outputs().get("aux", {}).get(name)
         if not isinstance(e, dict) or not isinstance(e.get("file"), str):
-            return {}
+            return None
         path = self.dir / Path(e["file"]).name
         try:
-            if file_sha256(path) != e.get("sha256"):
-                return {}
-            value = loads(path)
-        except Exception:  # a damaged entry is a miss, never an error
-            return {}
-        return value if isinstance(value, dict) else {}
+            return path if file_sha256(path) == e.get("sha256") else None
+        except OSError:
+            return None
 
     def outputs_reusable(self, key: str, names: Iterable[str]) -> dict[str, Path]:
         """Output files of the last run that may be reused as they are: same outputs key and
@@ -552,16 +562,11 @@ class PlanCache:
             out[name] = path
         return out
 
-    def save(
-        self,
-        new_out: Path,
-        outputs_key: str | None,
-        outputs: Iterable[str],
-        index: dict | None = None,
-    ) -> None:
-        """Write the manifest and entries into ``new_out/.routeplan-cache`` (a folder about to
-        replace the output folder), with the writers' ``index`` of the files ``outputs``.
-        Values that cannot be stored exactly are left out."""
+    def save_entries(self, new_out: Path) -> None:
+        """Write the stage entries into ``new_out/.routeplan-cache`` (a folder about to replace
+        the output folder) and the list of them (``entries.json``, for :meth:`save`). Values
+        that cannot be stored exactly are left out. Runs in a child process when it can
+        (:mod:`routeplan.parallel`): it only writes files."""
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
         entries = {}
@@ -582,22 +587,41 @@ class PlanCache:
             else:
                 continue
             entries[stage] = {"key": key, "file": name, "sha256": sha}
+        (target / ENTRIES).write_text(json.dumps(entries), encoding="utf-8")
+
+    @staticmethod
+    def save_aux(new_out: Path, name: str, value: Any) -> None:
+        """Store a writer's record ``value`` as ``name`` (see :meth:`output_aux`)."""
+        target = Path(new_out) / CACHE_DIR
+        target.mkdir(parents=True, exist_ok=True)
+        try:
+            data = dumps(value)
+        except UncacheableError:
+            return
+        (target / f"{name}.npz").write_bytes(data)
+
+    def save(self, new_out: Path, outputs_key: str | None, outputs: Iterable[str]) -> None:
+        """Write the manifest into ``new_out/.routeplan-cache``: the stage entries of
+        :meth:`save_entries`, the output files ``outputs`` (their SHA-256) and the writers'
+        records beside them (:meth:`save_aux`)."""
+        target = Path(new_out) / CACHE_DIR
+        target.mkdir(parents=True, exist_ok=True)
+        try:
+            entries = json.loads((target / ENTRIES).read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            entries = {}
+        (target / ENTRIES).unlink(missing_ok=True)
         files = {n: file_sha256(Path(new_out) / n) for n in outputs}
-        o: dict[str, Any] = {"key": outputs_key, "files": files}
-        if index:
-            try:
-                data = dumps(index)
-            except UncacheableError:
-                data = None
-            if data is not None:
-                (target / "outputs-index.npz").write_bytes(data)
-                sha = hashlib.sha256(data).hexdigest()
-                o["index"] = {"file": "outputs-index.npz", "sha256": sha}
+        aux = {
+            p.stem: {"file": p.name, "sha256": file_sha256(p)}
+            for p in sorted(target.glob("*.npz"))
+            if p.stem in AUX
+        }
         manifest = {
             "format": FORMAT,
             "environment": environment(),
             "entries": entries,
-            "outputs": o,
+            "outputs": {"key": outputs_key, "files": files, "aux": aux},
         }
         (target / MANIFEST).write_text(json.dumps(manifest, indent=1) + "\n", encoding="utf-8")
 

@@ -20,8 +20,8 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 
-from .. import CAUTION
-from ..cache import STAGES, digest, input_files, link_or_copy
+from .. import CAUTION, parallel
+from ..cache import AUX, CACHE_DIR, STAGES, digest, input_files, link_or_copy
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, gpkg_index, update_gpkg, write_gpkg
@@ -110,26 +110,37 @@ def write_plan(
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     t: dict[str, float] = {}
     tmp = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", dir=out_dir.parent))
+    jobs: list[parallel.Job] = []
     try:
         cache = plan.cache
         key = _outputs_key(plan, map_options)
         old = cache.outputs_reusable(key, FILES) if cache is not None and key else {}
+        if cache is not None:  # the stage entries, beside the writers
+            jobs.append(parallel.start(lambda: cache.save_entries(tmp)))
         if old:
             t0 = time.perf_counter()
             for name, path in old.items():
                 link_or_copy(path, tmp / name)
-            index = cache.output_index()
+            (tmp / CACHE_DIR).mkdir(exist_ok=True)
+            for name in AUX:
+                aux = cache.output_aux_file(name)
+                if aux is not None:
+                    link_or_copy(aux, tmp / CACHE_DIR / aux.name)
             t["reused_outputs"] = time.perf_counter() - t0
         else:
-            index = _write_files(plan, tmp, map_options, say, t)
+            _write_files(plan, tmp, map_options, say, t, jobs)
         if cache is not None:
             say("save cache")
             t0 = time.perf_counter()
+            for job in jobs:
+                job.wait()
             cache.reused["outputs"] = bool(old)
-            cache.save(tmp, key, FILES, index)
+            cache.save(tmp, key, FILES)
             t["cache_save"] = time.perf_counter() - t0
         _replace(tmp, out_dir)
     except BaseException:
+        for job in jobs:
+            job.cancel()
         shutil.rmtree(tmp, ignore_errors=True)
         raise
     return t
@@ -165,13 +176,16 @@ def _write_files(
     map_options: dict | None,
     say: Callable[[str], None],
     t: dict[str, float],
-) -> dict:
-    """Write every output file of ``plan`` into the folder ``tmp``. Returns the writers'
-    index of what they wrote (for the next run, :mod:`routeplan.outputs.reuse`)."""
-    last = plan.cache.output_index() if plan.cache is not None else {}
+    jobs: list[parallel.Job],
+) -> None:
+    """Write every output file of ``plan`` into the folder ``tmp`` (the map in a child process
+    when it can, added to ``jobs``), with the writers' records for the next run
+    (:mod:`routeplan.outputs.reuse`) when the plan has a cache."""
+    cache = plan.cache
+    last = cache.output_aux("index") if cache is not None else None
+    last = last if isinstance(last, dict) else {}
     index: dict = {}
     copied: dict[str, int] = {}
-    say("write GeoPackage")
     t0 = time.perf_counter()
     rows, equipment = rows_frame(plan), equipment_frame(plan)
     layers = {
@@ -180,8 +194,16 @@ def _write_files(
         "rows": GpkgLayer.of(rows, None),
         "equipment": GpkgLayer.of(equipment, None),
     }
+    t["hash rows"] = time.perf_counter() - t0
+
+    say("draw map")
+    job = parallel.start(lambda: _write_map(plan, tmp, map_options, rows, equipment, layers))
+    jobs.append(job)
+
+    say("write GeoPackage")
+    t0 = time.perf_counter()
     gpkg = "routes.gpkg"
-    old = plan.cache.previous_output(gpkg) if plan.cache is not None and gpkg in last else None
+    old = cache.previous_output(gpkg) if cache is not None and gpkg in last else None
     updated = update_gpkg(old, tmp / gpkg, layers, last[gpkg]) if old is not None else None
     if updated is None:
         write_gpkg(layers, tmp / gpkg)
@@ -209,13 +231,44 @@ def _write_files(
     (tmp / "summary.json").write_text(
         json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
     )
-
-    say("draw map")
     t0 = time.perf_counter()
+    job.wait()
+    t["map (wait)"] = time.perf_counter() - t0
+    stats_file = tmp / _MAP_STATS
+    try:
+        stats = json.loads(stats_file.read_text(encoding="utf-8"))
+        t["map"], reused = float(stats["seconds"]), int(stats["reused_tiles"])
+    except (OSError, ValueError, KeyError, TypeError):
+        reused = -1
+    stats_file.unlink(missing_ok=True)
+    if cache is not None:
+        cache.save_aux(tmp, "index", index)
+        cache.output_reuse = {
+            "routes.gpkg rows rewritten": -1 if updated is None else updated,
+            **{f"{name} chunks copied": n for name, n in copied.items()},
+            "map.html tiles reused": reused,
+        }
+
+
+#: the map job's time and count of reused tiles, for the parent (removed once read)
+_MAP_STATS = ".map-stats.json"
+
+
+def _write_map(
+    plan: Plan,
+    tmp: Path,
+    map_options: dict | None,
+    rows: gpd.GeoDataFrame,
+    equipment: gpd.GeoDataFrame,
+    layers: dict[str, GpkgLayer],
+) -> None:
+    """Write ``map.html`` (and, with a cache, the map's memo for the next run)."""
     from .map import render_map
     from .map_tiles import MapMemo
 
-    memo = MapMemo.load(last.get("map.html")) if plan.cache is not None else MapMemo()
+    t0 = time.perf_counter()
+    cache = plan.cache
+    memo = MapMemo.load(cache.output_aux("map")) if cache is not None else MapMemo()
     html = render_map(
         plan.circuits,
         plan.segments,
@@ -227,15 +280,10 @@ def _write_files(
         **(map_options or {}),
     )
     (tmp / "map.html").write_text(html, encoding="utf-8")
-    index["map.html"] = memo.export()
-    t["map"] = time.perf_counter() - t0
-    if plan.cache is not None:
-        plan.cache.output_reuse = {
-            "routes.gpkg rows rewritten": -1 if updated is None else updated,
-            **{f"{name} chunks copied": n for name, n in copied.items()},
-            "map.html tiles reused": memo.reused_tiles,
-        }
-    return index
+    if cache is not None:
+        cache.save_aux(tmp, "map", memo.export())
+    stats = {"seconds": time.perf_counter() - t0, "reused_tiles": memo.reused_tiles}
+    (tmp / _MAP_STATS).write_text(json.dumps(stats), encoding="utf-8")
 
 
 def _replace(tmp: Path, out_dir: Path) -> None:

@@ -1,0 +1,58 @@
+"""Jobs in forked children (routeplan.parallel): their files, failures and fallbacks."""
+
+from __future__ import annotations
+
+import os
+import time
+
+import pytest
+
+from routeplan import parallel
+
+pytestmark = pytest.mark.skipif(not hasattr(os, "fork"), reason="fork: POSIX only")
+
+
+def test_a_job_runs_in_a_child_and_its_file_is_there_after_wait(tmp_path):
+    out = tmp_path / "x.txt"
+    job = parallel.start(lambda: out.write_text(str(os.getpid())))
+    assert job.pid is not None and job.pid != os.getpid()
+    job.wait()
+    assert out.read_text() != str(os.getpid())  # written by the child
+
+
+def test_a_failed_child_runs_the_job_again_here_and_raises_here(tmp_path):
+    calls = tmp_path / "calls"
+
+    def work():
+        with open(calls, "a") as fh:
+            fh.write(f"{os.getpid()}\n")
+        raise ValueError("bad input")
+
+    job = parallel.start(work)
+    with pytest.raises(ValueError, match="bad input"):
+        job.wait()
+    pids = calls.read_text().split()
+    assert len(pids) == 2 and pids[1] == str(os.getpid()) and pids[0] != pids[1]
+
+
+def test_serial_when_asked(tmp_path, monkeypatch):
+    monkeypatch.setenv("ROUTEPLAN_SERIAL", "1")
+    out = tmp_path / "x.txt"
+    job = parallel.start(lambda: out.write_text(str(os.getpid())))
+    assert job.pid is None and not out.exists()  # runs at wait, here
+    job.wait()
+    assert out.read_text() == str(os.getpid())
+
+
+def test_cancel_stops_the_child(tmp_path):
+    out = tmp_path / "late.txt"
+
+    def slow():
+        time.sleep(5)
+        out.write_text("too late")
+
+    job = parallel.start(slow)
+    t0 = time.perf_counter()
+    job.cancel()
+    job.wait()  # nothing left to do
+    assert time.perf_counter() - t0 < 2 and not out.exists()
