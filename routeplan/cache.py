@@ -26,7 +26,11 @@ What is reused, and when (every key is a SHA-256 of everything the stage's resul
     ``outputs``
         The files written last time. Key: the ``size`` key, the whole site.toml, the input
         files' digest and the map options. On a hit, each file is reused only if its SHA-256
-        still matches the one recorded (a file edited by hand is written anew).
+        still matches the one recorded (a file edited by hand is written anew). On a miss the
+        writers still reuse the last files row by row (:mod:`routeplan.outputs.reuse`),
+        through the records they keep beside them (``index.npz``: row hashes and chunk
+        offsets; ``map.npz``: the map's tiles; :meth:`PlanCache.output_aux`), again only from
+        files whose SHA-256 is the one recorded.
 
     The tables (schedule, trench schedule, quantities, summary) are recomputed from the stage
     results every time (well under a second at 1 GW).
