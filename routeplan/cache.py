@@ -60,6 +60,8 @@ import json
 import os
 import platform
 import shutil
+import tempfile
+import weakref
 from collections.abc import Iterable
 from functools import lru_cache
 from pathlib import Path
@@ -74,14 +76,12 @@ import shapely
 import calc
 from layers.model import Module, Site
 
-from . import __version__
+from . import __version__, parallel
 from .network import TrenchDefaults, TrenchNetwork
 from .routing import RouteParams, RoutePlan
 
 CACHE_DIR = ".routeplan-cache"
 MANIFEST = "manifest.json"
-#: the stage entries a (child) process wrote, until the manifest records them
-ENTRIES = "entries.json"
 #: the writers' records kept beside the output files (see PlanCache.output_aux)
 AUX: tuple[str, ...] = ("index", "map")
 #: bump when what is stored, or how, changes
@@ -466,6 +466,8 @@ class PlanCache:
         self.output_reuse: dict[str, int] = {}
         self.keys: dict[str, str] = {}
         self._new: dict[str, Any] = {}
+        self._jobs: dict[str, parallel.Job] = {}
+        self._staging: Path | None = None
         self._manifest = self._read_manifest()
 
     def _read_manifest(self) -> dict:
@@ -512,9 +514,21 @@ class PlanCache:
         return value
 
     def put(self, stage: str, key: str, value: Any) -> None:
-        """Store ``value`` for ``stage`` under ``key`` when the outputs are saved."""
+        """Store ``value`` for ``stage`` under ``key`` when the outputs are saved. It is packed
+        at once, in a child process when it can (:mod:`routeplan.parallel`), while the plan
+        goes on, into a staging folder beside the output folder (removed with this object)."""
         self.keys[stage] = key
         self._new[stage] = value
+        path = self._staging_dir() / _entry_name(stage, key)
+        self._jobs[stage] = parallel.start(lambda: _dump_entry(value, path))
+
+    def _staging_dir(self) -> Path:
+        if self._staging is None:
+            self.out_dir.parent.mkdir(parents=True, exist_ok=True)
+            prefix = f".{self.out_dir.name}.entries."
+            self._staging = Path(tempfile.mkdtemp(prefix=prefix, dir=self.out_dir.parent))
+            weakref.finalize(self, _discard, self._staging, self._jobs)
+        return self._staging
 
     # -- outputs
     def _outputs(self) -> dict:
@@ -566,33 +580,6 @@ class PlanCache:
             out[name] = path
         return out
 
-    def save_entries(self, new_out: Path) -> None:
-        """Write the stage entries into ``new_out/.routeplan-cache`` (a folder about to replace
-        the output folder) and the list of them (``entries.json``, for :meth:`save`). Values
-        that cannot be stored exactly are left out. Runs in a child process when it can
-        (:mod:`routeplan.parallel`): it only writes files."""
-        target = Path(new_out) / CACHE_DIR
-        target.mkdir(parents=True, exist_ok=True)
-        entries = {}
-        for stage, key in self.keys.items():
-            name = f"{stage}-{key[:20]}.npz"
-            if stage in self._new:
-                try:
-                    data = dumps(self._new[stage])
-                except UncacheableError:
-                    continue
-                (target / name).write_bytes(data)
-                sha = hashlib.sha256(data).hexdigest()
-            elif self.reused.get(stage):
-                old = self._manifest["entries"][stage]
-                src = self.dir / Path(old["file"]).name
-                link_or_copy(src, target / name)
-                sha = old["sha256"]
-            else:
-                continue
-            entries[stage] = {"key": key, "file": name, "sha256": sha}
-        (target / ENTRIES).write_text(json.dumps(entries), encoding="utf-8")
-
     @staticmethod
     def save_aux(new_out: Path, name: str, value: Any) -> None:
         """Store a writer's record ``value`` as ``name`` (see :meth:`output_aux`)."""
@@ -605,16 +592,30 @@ class PlanCache:
         (target / f"{name}.npz").write_bytes(data)
 
     def save(self, new_out: Path, outputs_key: str | None, outputs: Iterable[str]) -> None:
-        """Write the manifest into ``new_out/.routeplan-cache``: the stage entries of
-        :meth:`save_entries`, the output files ``outputs`` (their SHA-256) and the writers'
-        records beside them (:meth:`save_aux`)."""
+        """Write the manifest and the stage entries into ``new_out/.routeplan-cache`` (a folder
+        about to replace the output folder), with the output files ``outputs`` (their SHA-256)
+        and the writers' records beside them (:meth:`save_aux`). New entries are moved in from
+        the staging folder (values that cannot be stored exactly are left out); entries that
+        were reused are hard-linked from the old folder when possible."""
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
-        try:
-            entries = json.loads((target / ENTRIES).read_text(encoding="utf-8"))
-        except (OSError, ValueError):
-            entries = {}
-        (target / ENTRIES).unlink(missing_ok=True)
+        entries = {}
+        for stage, key in self.keys.items():
+            name = _entry_name(stage, key)
+            if stage in self._new:
+                self._jobs[stage].wait()
+                src = self._staging_dir() / name
+                if not src.is_file():  # not storable
+                    continue
+                sha = file_sha256(src)
+                os.replace(src, target / name)
+            elif self.reused.get(stage):
+                old = self._manifest["entries"][stage]
+                link_or_copy(self.dir / Path(old["file"]).name, target / name)
+                sha = old["sha256"]
+            else:
+                continue
+            entries[stage] = {"key": key, "file": name, "sha256": sha}
         files = {n: file_sha256(Path(new_out) / n) for n in outputs}
         aux = {
             p.stem: {"file": p.name, "sha256": file_sha256(p)}
@@ -628,6 +629,28 @@ class PlanCache:
             "outputs": {"key": outputs_key, "files": files, "aux": aux},
         }
         (target / MANIFEST).write_text(json.dumps(manifest, indent=1) + "\n", encoding="utf-8")
+
+
+def _entry_name(stage: str, key: str) -> str:
+    return f"{stage}-{key[:20]}.npz"
+
+
+def _dump_entry(value: Any, path: Path) -> None:
+    """Pack ``value`` into ``path`` (nothing when it cannot be stored exactly)."""
+    try:
+        data = dumps(value)
+    except UncacheableError:
+        return
+    tmp = path.with_name(path.name + ".part")
+    tmp.write_bytes(data)
+    os.replace(tmp, path)
+
+
+def _discard(staging: Path, jobs: dict[str, parallel.Job]) -> None:
+    """Stop the packing jobs still running and remove the staging folder."""
+    for job in jobs.values():
+        job.cancel()
+    shutil.rmtree(staging, ignore_errors=True)
 
 
 def link_or_copy(src: Path, dst: Path) -> None:

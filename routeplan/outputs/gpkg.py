@@ -1,15 +1,18 @@
 """The GeoPackage output (``routes.gpkg``): written whole with pyogrio, or the last run's file
-updated row by row.
+updated feature by feature.
 
 A whole write goes through pyogrio (GDAL), which makes every table the GeoPackage standard
 asks for (OGC 12-128r18: contents, geometry columns, spatial reference systems, the R-tree
 spatial index extension with its triggers). An update copies the last run's file and, with
-Python's ``sqlite3``, rewrites only the rows whose content hash changed at their position
-(:func:`routeplan.outputs.reuse.row_hashes`), inserts rows past the old end and deletes rows
-past the new one, so every feature keeps the ``fid`` (its position + 1) a whole write would
-give it; then each layer's extent in ``gpkg_contents``. The R-tree follows through GDAL's own
-triggers, which call the standard's SQL functions ``ST_IsEmpty``/``ST_MinX``/… (GeoPackage
-1.2, Annex F.3): they are supplied here (:func:`_register_functions`). Geometry blobs are
+Python's ``sqlite3``, finds each feature by its key (the circuit's, segment's, row's or
+equipment's id): a feature still there keeps its ``fid`` and is rewritten only if its content
+hash changed (:func:`routeplan.outputs.reuse.row_hashes`); new features are added after the
+last fid, features gone are deleted; then each layer's extent in ``gpkg_contents``. Every
+feature then holds what a whole write gives it; only the fids of features added or removed
+since a whole write differ from it (and the table's order by fid). The R-tree follows
+through GDAL's own triggers, which call the standard's SQL functions ``ST_IsEmpty``,
+``ST_MinX`` … (GeoPackage 1.2, Annex F.3): they are supplied here
+(:func:`_register_functions`). Geometry blobs are
 encoded as GDAL encodes them (header ``GP``, version 0, little-endian, an XY envelope except
 for points, ISO WKB; OGC 12-128r18 clause 2.1.3); the tests compare them byte for byte.
 Anything unexpected (another schema, a column type not handled, an empty geometry, an SQLite
@@ -41,27 +44,36 @@ _TEXT = ("TEXT",)
 
 @dataclass(frozen=True, eq=False)
 class GpkgLayer:
-    """One layer as written: attribute columns in output order, geometries, CRS, and the
-    content hash of each row (attributes and geometry) with the layout they hold for."""
+    """One layer as written: attribute columns in output order, geometries, CRS, the content
+    hash of each row (attributes and geometry) with the layout they hold for, and a hash of
+    each row's key (the columns that name a feature)."""
 
     data: pd.DataFrame
     geometry: np.ndarray
     crs: object
     hashes: np.ndarray
     layout: str
+    keys: np.ndarray
 
     @classmethod
-    def of(cls, frame: gpd.GeoDataFrame, cols: tuple[Col, ...] | None) -> GpkgLayer:
-        """The layer of ``frame`` (contract columns ``cols`` first, when given)."""
+    def of(
+        cls, frame: gpd.GeoDataFrame, cols: tuple[Col, ...] | None, key: tuple[str, ...]
+    ) -> GpkgLayer:
+        """The layer of ``frame`` (contract columns ``cols`` first, when given), its features
+        named by the columns ``key``."""
         data = ordered(frame, cols) if cols else frame.drop(columns="geometry")
         data = data.reset_index(drop=True)
         geometry = np.asarray(frame.geometry.values, dtype=object)
         crs = frame.crs.to_wkt() if frame.crs is not None else None
-        return cls(data, geometry, frame.crs, row_hashes(data, geometry), layout(data, crs))
+        keys = row_hashes(data[list(key)])
+        return cls(
+            data, geometry, frame.crs, row_hashes(data, geometry), layout(data, crs, key), keys
+        )
 
 
-def write_gpkg(layers: dict[str, GpkgLayer], path: Path) -> None:
-    """Write every layer to a new GeoPackage at ``path`` with pyogrio.
+def write_gpkg(layers: dict[str, GpkgLayer], path: Path) -> dict:
+    """Write every layer to a new GeoPackage at ``path`` with pyogrio. Returns its index (see
+    :func:`update_gpkg`): features get the fids 1, 2, … in order.
 
     (pyogrio's Arrow path would be about twice as fast, but needs pyarrow, which is not a
     dependency: installing it changes pandas' default string storage program-wide.)
@@ -71,18 +83,25 @@ def write_gpkg(layers: dict[str, GpkgLayer], path: Path) -> None:
     for name, layer in layers.items():
         gdf = gpd.GeoDataFrame(layer.data, geometry=layer.geometry, crs=layer.crs)
         pyogrio.write_dataframe(gdf, path, layer=name, driver="GPKG")
+    return {
+        name: _index(lay, np.arange(1, len(lay.hashes) + 1, dtype=np.int64))
+        for name, lay in layers.items()
+    }
 
 
-def gpkg_index(layers: dict[str, GpkgLayer]) -> dict:
-    """What the next run needs to update the file just written: each layer's layout and row
-    hashes (stored in the plan cache)."""
-    return {name: {"layout": lay.layout, "hashes": lay.hashes} for name, lay in layers.items()}
+def _index(lay: GpkgLayer, fids: np.ndarray) -> dict:
+    return {"layout": lay.layout, "hashes": lay.hashes, "keys": lay.keys, "fids": fids}
 
 
-def update_gpkg(old: Path, new: Path, layers: dict[str, GpkgLayer], index: dict) -> int | None:
-    """Write ``layers`` to ``new`` as the last run's GeoPackage ``old`` (written with row hashes
-    ``index``, see :func:`gpkg_index`) updated row by row. Returns the number of rows written,
-    or None when the file cannot be updated this way (``new`` is then absent)."""
+def update_gpkg(
+    old: Path, new: Path, layers: dict[str, GpkgLayer], index: dict
+) -> tuple[dict, int] | None:
+    """Write ``layers`` to ``new`` as the last run's GeoPackage ``old`` updated feature by
+    feature: ``index`` (from :func:`write_gpkg` or this function) holds each layer's row hashes,
+    key hashes and fids. A feature whose key is still there keeps its fid and is rewritten only
+    if its content changed; new features are added after the last fid; features gone are
+    deleted. Returns the new index and the number of rows written, or None when the file
+    cannot be updated this way (``new`` is then absent)."""
     if set(index) != set(layers) or any(
         index[n].get("layout") != lay.layout for n, lay in layers.items()
     ):
@@ -98,28 +117,37 @@ def update_gpkg(old: Path, new: Path, layers: dict[str, GpkgLayer], index: dict)
         return None
     try:
         _register_functions(con)
-        written = 0
+        written, out = 0, {}
         with con:
             for name, lay in layers.items():
-                n = _update_layer(con, name, lay, np.asarray(index[name]["hashes"], np.uint64))
-                if n is None:
+                done = _update_layer(con, name, lay, index[name])
+                if done is None:
                     raise _CannotUpdateError(name)
-                written += n
-    except (_CannotUpdateError, sqlite3.Error, ValueError):
+                out[name] = _index(lay, done[0])
+                written += done[1]
+    except (_CannotUpdateError, sqlite3.Error, ValueError, KeyError, TypeError):
         con.close()
         Path(new).unlink(missing_ok=True)
         return None
     con.close()
-    return written
+    return out, written
 
 
 class _CannotUpdateError(Exception):
-    """A layer whose table is not what a whole write would have made."""
+    """A layer whose table is not what the index says was written."""
 
 
 def _update_layer(
-    con: sqlite3.Connection, name: str, lay: GpkgLayer, old: np.ndarray
-) -> int | None:
+    con: sqlite3.Connection, name: str, lay: GpkgLayer, last: dict
+) -> tuple[np.ndarray, int] | None:
+    """Update one layer; its features' fids (in row order) and the rows written."""
+    old_keys = np.asarray(last["keys"], dtype=np.uint64)
+    old_hashes = np.asarray(last["hashes"], dtype=np.uint64)
+    old_fids = np.asarray(last["fids"], dtype=np.int64)
+    if not (len(old_keys) == len(old_hashes) == len(old_fids)):
+        return None
+    if len(np.unique(old_keys)) != len(old_keys) or len(np.unique(lay.keys)) != len(lay.keys):
+        return None  # keys that do not name one feature each
     columns = [(r[1], str(r[2]).upper()) for r in con.execute(f'PRAGMA table_info("{name}")')]
     geom = con.execute(
         "SELECT column_name, srs_id FROM gpkg_geometry_columns WHERE table_name = ?", (name,)
@@ -127,28 +155,32 @@ def _update_layer(
     names = [c for c, _ in columns]
     if geom is None or names != ["fid", geom[0], *lay.data.columns]:
         return None
+    top = int(old_fids.max()) if len(old_fids) else 0
     if con.execute(f'SELECT count(*), coalesce(max(fid), 0) FROM "{name}"').fetchone() != (
-        len(old),
-        len(old),
+        len(old_fids),
+        top,
     ):
         return None
     kinds = [_kind(t) for _, t in columns[2:]]
     if None in kinds:
         return None
-    n_old, n_new = len(old), len(lay.hashes)
-    m = min(n_old, n_new)
-    changed = np.flatnonzero(old[:m] != lay.hashes[:m])
-    added = np.arange(n_old, n_new)
+    at = pd.Index(old_keys).get_indexer(lay.keys)  # the old row of each new row, or -1
+    kept = at >= 0
+    changed = np.flatnonzero(kept & (old_hashes[np.maximum(at, 0)] != lay.hashes))
+    added = np.flatnonzero(~kept)
+    gone = np.setdiff1d(np.arange(len(old_keys)), at[kept])
+    fids = np.empty(len(lay.keys), dtype=np.int64)
+    fids[kept] = old_fids[at[kept]]
+    fids[added] = top + 1 + np.arange(len(added))
     rows = np.r_[changed, added].astype(np.int64)
     blobs = encode_geometries(lay.geometry[rows], int(geom[1]))
     if blobs is None:
         return None
     values = [_bind(lay.data.iloc[:, j].to_numpy()[rows], k) for j, k in enumerate(kinds)]
-    records = list(zip(blobs, *values, (rows + 1).tolist(), strict=True))
+    records = list(zip(blobs, *values, fids[rows].tolist(), strict=True))
     quoted = [f'"{c}"' for c in names[1:]]
     k = len(changed)
-    if n_new < n_old:
-        con.execute(f'DELETE FROM "{name}" WHERE fid > ?', (n_new,))
+    con.executemany(f'DELETE FROM "{name}" WHERE fid = ?', [(int(f),) for f in old_fids[gone]])
     con.executemany(
         f'UPDATE "{name}" SET {", ".join(q + " = ?" for q in quoted)} WHERE fid = ?',
         records[:k],
@@ -156,7 +188,6 @@ def _update_layer(
     marks = ", ".join("?" * (len(quoted) + 1))
     insert = f'INSERT INTO "{name}" ({", ".join(quoted)}, fid) VALUES ({marks})'
     con.executemany(insert, records[k:])
-    con.execute("UPDATE sqlite_sequence SET seq = ? WHERE name = ?", (n_new, name))
     present = lay.geometry[~shapely.is_missing(lay.geometry)]
     box = shapely.total_bounds(present) if len(present) else np.full(4, np.nan)
     # as GDAL records an extent: 16 significant digits
@@ -166,7 +197,7 @@ def _update_layer(
         "last_change = strftime('%Y-%m-%dT%H:%M:%fZ', 'now') WHERE table_name = ?",
         (*ext, name),
     )
-    return len(rows)
+    return fids, len(rows) + len(gone)
 
 
 def _kind(declared: str) -> str | None:

@@ -1,4 +1,5 @@
-"""Writing the tabular outputs: CSV (deterministic), XLSX (for people) and GeoPackage (for GIS).
+"""Formatting the tabular outputs as text, for the CSV files and the workbook (the writers:
+:mod:`routeplan.outputs.schedules`).
 
 Each table is formatted once (:func:`format_table`) into a :class:`TextTable` — every cell as
 UTF-8 text with its column's fixed decimals — and that one text serves both the CSV and the
@@ -14,7 +15,6 @@ from __future__ import annotations
 import csv
 import io
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -226,8 +226,3 @@ def format_table(frame: pd.DataFrame, cols: tuple[Col, ...] = ()) -> TextTable:
         else:
             out.append(TextColumn.of(str(name), title, False, None, _text_cells(col)))
     return TextTable(tuple(out), len(data))
-
-
-def write_csv(table: TextTable, path: Path) -> None:
-    """Write a formatted table as UTF-8 CSV with Unix line ends and fixed number formats."""
-    Path(path).write_bytes(table.csv_bytes())

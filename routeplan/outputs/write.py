@@ -24,7 +24,7 @@ from .. import CAUTION, parallel
 from ..cache import AUX, CACHE_DIR, STAGES, digest, input_files, link_or_copy
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
-from .gpkg import GpkgLayer, gpkg_index, update_gpkg, write_gpkg
+from .gpkg import GpkgLayer, update_gpkg, write_gpkg
 from .schedules import Previous, Schedule, write_csv, write_workbook
 
 FILES: tuple[str, ...] = (
@@ -115,8 +115,6 @@ def write_plan(
         cache = plan.cache
         key = _outputs_key(plan, map_options)
         old = cache.outputs_reusable(key, FILES) if cache is not None and key else {}
-        if cache is not None:  # the stage entries, beside the writers
-            jobs.append(parallel.start(lambda: cache.save_entries(tmp)))
         if old:
             t0 = time.perf_counter()
             for name, path in old.items():
@@ -132,8 +130,6 @@ def write_plan(
         if cache is not None:
             say("save cache")
             t0 = time.perf_counter()
-            for job in jobs:
-                job.wait()
             cache.reused["outputs"] = bool(old)
             cache.save(tmp, key, FILES)
             t["cache_save"] = time.perf_counter() - t0
@@ -186,19 +182,21 @@ def _write_files(
     last = last if isinstance(last, dict) else {}
     index: dict = {}
     copied: dict[str, int] = {}
-    t0 = time.perf_counter()
     rows, equipment = rows_frame(plan), equipment_frame(plan)
-    layers = {
-        "circuits": GpkgLayer.of(plan.circuits, CIRCUIT_COLUMNS),
-        "segments": GpkgLayer.of(plan.segments, SEGMENT_COLUMNS),
-        "rows": GpkgLayer.of(rows, None),
-        "equipment": GpkgLayer.of(equipment, None),
-    }
-    t["hash rows"] = time.perf_counter() - t0
-
+    # the map first, in a child process that hashes the rows itself (here the hashes are
+    # known by the time a serial run draws it)
+    known: dict[str, dict[str, GpkgLayer]] = {}
     say("draw map")
-    job = parallel.start(lambda: _write_map(plan, tmp, map_options, rows, equipment, layers))
+    job = parallel.start(
+        lambda: _write_map(
+            plan, tmp, map_options, rows, equipment,
+            known.get("layers") or _gpkg_layers(plan, rows, equipment),
+        )
+    )  # fmt: skip
     jobs.append(job)
+    t0 = time.perf_counter()
+    layers = known["layers"] = _gpkg_layers(plan, rows, equipment)
+    t["hash rows"] = time.perf_counter() - t0
 
     say("write GeoPackage")
     t0 = time.perf_counter()
@@ -206,8 +204,9 @@ def _write_files(
     old = cache.previous_output(gpkg) if cache is not None and gpkg in last else None
     updated = update_gpkg(old, tmp / gpkg, layers, last[gpkg]) if old is not None else None
     if updated is None:
-        write_gpkg(layers, tmp / gpkg)
-    index[gpkg] = gpkg_index(layers)
+        index[gpkg] = write_gpkg(layers, tmp / gpkg)
+    else:
+        index[gpkg] = updated[0]
     t["gpkg"] = time.perf_counter() - t0
 
     say("write schedules")
@@ -244,10 +243,22 @@ def _write_files(
     if cache is not None:
         cache.save_aux(tmp, "index", index)
         cache.output_reuse = {
-            "routes.gpkg rows rewritten": -1 if updated is None else updated,
+            "routes.gpkg rows rewritten": -1 if updated is None else updated[1],
             **{f"{name} chunks copied": n for name, n in copied.items()},
             "map.html tiles reused": reused,
         }
+
+
+def _gpkg_layers(
+    plan: Plan, rows: gpd.GeoDataFrame, equipment: gpd.GeoDataFrame
+) -> dict[str, GpkgLayer]:
+    """The GeoPackage's layers, with their rows' hashes (used by every writer)."""
+    return {
+        "circuits": GpkgLayer.of(plan.circuits, CIRCUIT_COLUMNS, ("circuit_id",)),
+        "segments": GpkgLayer.of(plan.segments, SEGMENT_COLUMNS, ("segment_id",)),
+        "rows": GpkgLayer.of(rows, None, ("id",)),
+        "equipment": GpkgLayer.of(equipment, None, ("kind", "id")),
+    }
 
 
 #: the map job's time and count of reused tiles, for the parent (removed once read)

@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 import shapely
 
-from routeplan.outputs.gpkg import GpkgLayer, encode_geometries, gpkg_index, update_gpkg, write_gpkg
+from routeplan.outputs.gpkg import GpkgLayer, encode_geometries, update_gpkg, write_gpkg
 from routeplan.outputs.reuse import CHUNK_MAX, chunk_bounds, chunk_keys, layout, row_hashes
 from routeplan.outputs.xlsx import Piece, crc32_combine, write_zip
 
@@ -109,7 +109,10 @@ def layers(tmp_path):
 
 
 def _as_layers(lines, eq):
-    return {"lines": GpkgLayer.of(lines, None), "equipment": GpkgLayer.of(eq, None)}
+    return {
+        "lines": GpkgLayer.of(lines, None, ("id",)),
+        "equipment": GpkgLayer.of(eq, None, ("id",)),
+    }
 
 
 def test_geometry_blobs_are_the_ones_gdal_writes(tmp_path, layers):
@@ -124,27 +127,39 @@ def test_geometry_blobs_are_the_ones_gdal_writes(tmp_path, layers):
     con.close()
 
 
-def _rows(path, name):
+def features(path, name: str, key: tuple[str, ...]) -> dict:
+    """A layer as SQLite holds it, by feature key: every value (geometry blob included) but the
+    fid, the feature's R-tree box, the feature count and the layer extent."""
     con = sqlite3.connect(path)
     try:
-        return (
-            con.execute(f'SELECT * FROM "{name}" ORDER BY fid').fetchall(),
-            con.execute(f'SELECT * FROM "rtree_{name}_geom" ORDER BY id').fetchall(),
-            con.execute("SELECT * FROM gpkg_ogr_contents ORDER BY 1").fetchall(),
-            con.execute(
-                "SELECT min_x, min_y, max_x, max_y FROM gpkg_contents ORDER BY table_name"
-            ).fetchall(),
-        )
+        cols = [r[1] for r in con.execute(f'PRAGMA table_info("{name}")')]
+        at = [cols.index(k) for k in key]
+        rows = con.execute(f'SELECT * FROM "{name}"').fetchall()
+        by_fid = {r[0]: tuple(r[i] for i in at) for r in rows}
+        assert len(set(by_fid.values())) == len(rows)
+        boxes = con.execute(f'SELECT * FROM "rtree_{name}_geom"').fetchall()
+        return {
+            "rows": {tuple(r[i] for i in at): r[1:] for r in rows},
+            "rtree": {by_fid[b[0]]: b[1:] for b in boxes},
+            "count": con.execute(
+                "SELECT feature_count FROM gpkg_ogr_contents WHERE table_name = ?", (name,)
+            ).fetchone(),
+            "extent": con.execute(
+                "SELECT min_x, min_y, max_x, max_y FROM gpkg_contents WHERE table_name = ?",
+                (name,),
+            ).fetchone(),
+            "fids": {v: k for k, v in by_fid.items()},
+        }
     finally:
         con.close()
 
 
-@pytest.mark.parametrize("edit", ["values", "geometry", "fewer", "more"])
+@pytest.mark.parametrize("edit", ["values", "geometry", "fewer", "more", "middle"])
 def test_update_gives_what_gdal_writes_whole(tmp_path, layers, edit):
     lines, eq = layers
     old = tmp_path / "old.gpkg"
     first = _as_layers(lines, eq)
-    write_gpkg(first, old)
+    index = write_gpkg(first, old)
     new_lines = lines.copy()
     if edit == "values":
         new_lines.loc[[3, 150], "size_mm2"] = 25.0
@@ -153,41 +168,62 @@ def test_update_gives_what_gdal_writes_whole(tmp_path, layers, edit):
         new_lines.loc[10, "geometry"] = shapely.LineString([(499_000, 4_600_000), (502_000, 1)])
     elif edit == "fewer":
         new_lines = new_lines.iloc[:-17]
-    else:
+    elif edit == "more":
         extra = lines.iloc[:5].assign(id=[f"X{i}" for i in range(5)])
         new_lines = pd.concat([new_lines, extra], ignore_index=True)
+    else:  # one feature more, in the middle of the table
+        extra = lines.iloc[:1].assign(id="C00150a")
+        new_lines = pd.concat([new_lines.iloc[:151], extra, new_lines.iloc[151:]])
+        new_lines = new_lines.reset_index(drop=True)
     second = _as_layers(gpd.GeoDataFrame(new_lines, crs=32633), eq)
     cold, warm = tmp_path / "cold.gpkg", tmp_path / "warm.gpkg"
     write_gpkg(second, cold)
-    written = update_gpkg(old, warm, second, gpkg_index(first))
-    expected = {"values": 3, "geometry": 1, "fewer": 0, "more": 5}[edit]
-    assert written == expected
+    done = update_gpkg(old, warm, second, index)
+    assert done is not None
+    expected = {"values": 3, "geometry": 1, "fewer": 17, "more": 5, "middle": 1}[edit]
+    assert done[1] == expected
     for name in ("lines", "equipment"):
-        assert _rows(warm, name) == _rows(cold, name)
-    # GDAL reads the updated file as it reads the whole write
-    got = gpd.read_file(warm, layer="lines")
-    pd.testing.assert_frame_equal(got, gpd.read_file(cold, layer="lines"))
-    assert old.read_bytes() != warm.read_bytes()  # and the last file is left as it was
-    assert _rows(old, "lines")[0][0][2] == lines["id"].iloc[0]
+        w, c = features(warm, name, ("id",)), features(cold, name, ("id",))
+        assert {k: v for k, v in w.items() if k != "fids"} == {
+            k: v for k, v in c.items() if k != "fids"
+        }
+    # features still there keep their fid; GDAL reads the same features
+    before, after = features(old, "lines", ("id",))["fids"], features(warm, "lines", ("id",))
+    assert all(after["fids"][k] == f for k, f in before.items() if k in after["fids"])
+    got = gpd.read_file(warm, layer="lines").sort_values("id", ignore_index=True)
+    pd.testing.assert_frame_equal(
+        got, gpd.read_file(cold, layer="lines").sort_values("id", ignore_index=True)
+    )
+    # the index returned lets the next update go on from here
+    third = _as_layers(lines, eq)
+    again = update_gpkg(warm, tmp_path / "again.gpkg", third, done[0])
+    assert again is not None
+    assert (
+        features(tmp_path / "again.gpkg", "lines", ("id",))["rows"]
+        == features(old, "lines", ("id",))["rows"]
+    )
 
 
 def test_update_refuses_what_it_cannot_do(tmp_path, layers):
     lines, eq = layers
     old = tmp_path / "old.gpkg"
     first = _as_layers(lines, eq)
-    write_gpkg(first, old)
+    index = write_gpkg(first, old)
     # another column layout
     renamed = _as_layers(lines.rename(columns={"note": "remark"}), eq)
-    assert update_gpkg(old, tmp_path / "a.gpkg", renamed, gpkg_index(first)) is None
+    assert update_gpkg(old, tmp_path / "a.gpkg", renamed, index) is None
     assert not (tmp_path / "a.gpkg").exists()
     # an empty geometry among the rows to write
     empty = lines.copy()
     empty.loc[0, "geometry"] = shapely.LineString()
     again = _as_layers(gpd.GeoDataFrame(empty, crs=32633), eq)
-    assert update_gpkg(old, tmp_path / "b.gpkg", again, gpkg_index(first)) is None
+    assert update_gpkg(old, tmp_path / "b.gpkg", again, index) is None
+    # ids that do not name one feature each
+    twice = lines.assign(id=["same"] * len(lines))
+    assert update_gpkg(old, tmp_path / "d.gpkg", _as_layers(twice, eq), index) is None
     # a file that does not hold what the index says (rows removed behind our back)
     con = sqlite3.connect(old)
     with con:
         con.execute('DELETE FROM "lines" WHERE fid = 5')
     con.close()
-    assert update_gpkg(old, tmp_path / "c.gpkg", first, gpkg_index(first)) is None
+    assert update_gpkg(old, tmp_path / "c.gpkg", first, index) is None
