@@ -42,7 +42,7 @@ def tiles(keys: np.ndarray) -> list[np.ndarray]:
         return []
     order = np.argsort(keys.astype(str), kind="stable")
     k = keys[order]
-    h = pd.util.hash_array(k.astype(str).astype(object), categorize=True)
+    h = pd.util.hash_array(k.astype(str).astype(object), categorize=False)
     last = np.r_[k[1:] != k[:-1], True]  # only after the last feature of an id
     ends = np.flatnonzero(last & ((h & TILE_MASK) == 0)) + 1
     bounds = [0]
@@ -66,7 +66,7 @@ def mixed(hashes: np.ndarray, *values: np.ndarray) -> np.ndarray:
         if v.dtype.kind in "fiub":
             g = pd.util.hash_array(v.astype(float))
         else:
-            g = pd.util.hash_array(v.astype(str).astype(object), categorize=True)
+            g = pd.util.hash_array(v.astype(str).astype(object), categorize=False)
         h = h * np.uint64(0x9E3779B97F4A7C15) ^ g
     return h
 

@@ -12,10 +12,11 @@ row gets a 64-bit content hash (:func:`row_hashes`), and
   the last run wrote is copied from the last file, already formatted (CSV) or already
   compressed (workbook); only the other chunks are formatted.
 
-A reused row is one whose every value, and whose geometry, hash alike; the hash is pandas'
-(SipHash-2-4 of text, a bijective mix of numbers), so an undetected change needs a 64-bit
-collision between the old and the new version of one row. Output produced this way is the
-same as a cold run's: the CSV files byte for byte (tested), the GeoPackage row for row.
+A reused row is one whose every value, and whose geometry, hash alike (:func:`row_hashes`:
+SipHash-2-4 of text, a bijective mix of numbers, per column, then mixed), so an undetected
+change needs a 64-bit collision between the old and the new version of one row. Output
+produced this way is the same as a cold run's: the CSV files byte for byte (tested), the
+GeoPackage feature for feature.
 """
 
 from __future__ import annotations
@@ -75,10 +76,36 @@ def row_hashes(frame: pd.DataFrame, geometry: np.ndarray | None = None) -> np.nd
     """A uint64 content hash per row of ``frame`` (every column, in order) and, when given,
     of its geometry (:func:`geometry_hashes`). Equal rows hash equal; column names and dtypes
     are not part of it (see :func:`layout`)."""
-    h = pd.util.hash_pandas_object(frame, index=False, categorize=True).to_numpy(np.uint64)
+    h = np.zeros(len(frame), dtype=np.uint64)
+    for j in range(frame.shape[1]):
+        h = _mix(h * _GOLDEN ^ column_hashes(frame.iloc[:, j]) ^ np.uint64(j))
     if geometry is not None:
-        h = h * _GOLDEN ^ geometry_hashes(geometry)
+        h = _mix(h * _GOLDEN ^ geometry_hashes(geometry))
     return h
+
+
+_MISSING = np.uint64(0x5D1C3A7E9B0F2468)
+
+
+def column_hashes(column: pd.Series) -> np.ndarray:
+    """A uint64 hash per value: numbers by their bits (pandas' mix), text by SipHash-2-4 of
+    the text (pandas), missing values apart from every text, other objects by type and
+    ``repr`` (so 1, 1.0, True and "1" differ, as their text does)."""
+    values = column.to_numpy()
+    if values.dtype.kind in "biuf":
+        return pd.util.hash_array(values)
+    missing = column.isna().to_numpy()
+    if isinstance(column.dtype, pd.StringDtype):  # text only
+        text = column.to_numpy(dtype=object, na_value="")
+    else:
+        values = np.asarray(values, dtype=object)
+        present = values[~missing]
+        if len(present) and pd.api.types.infer_dtype(present, skipna=False) != "string":
+            present = np.array([f"{type(v).__name__}:{v!r}" for v in present], dtype=object)
+        text = np.full(len(values), "", dtype=object)
+        text[~missing] = present
+    flag = np.where(missing, _MISSING, np.uint64(0)).astype(np.uint64)
+    return pd.util.hash_array(text, categorize=False) ^ flag
 
 
 def layout(frame: pd.DataFrame, *extra: object) -> str:

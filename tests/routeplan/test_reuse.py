@@ -75,6 +75,11 @@ def test_row_hashes_see_every_value_and_the_geometry():
     moved = lines.copy()
     moved[3] = shapely.affinity.translate(moved[3], xoff=0.001)
     assert np.flatnonzero(row_hashes(f, lines) != row_hashes(f, moved)).tolist() == [3]
+    # values whose text differs hash apart, in text and mixed (object) columns alike
+    mixed = pd.DataFrame({"v": np.array([1, 1.0, True, "1", None, "None", ""], dtype=object)})
+    assert len(np.unique(row_hashes(mixed))) == 7
+    text = pd.DataFrame({"v": pd.array(["a", None, "", "None"], dtype="str")})
+    assert len(np.unique(row_hashes(text))) == 4
     # layout covers what row hashes do not: names and dtypes
     assert layout(f) != layout(f.rename(columns={"n": "m"}))
     assert layout(f) != layout(f.astype({"n": float}))
