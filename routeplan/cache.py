@@ -594,8 +594,9 @@ class PlanCache:
     def save(self, new_out: Path, outputs_key: str | None, outputs: Iterable[str]) -> None:
         """Write the manifest and the stage entries into ``new_out/.routeplan-cache`` (a folder
         about to replace the output folder), with the output files ``outputs`` (their SHA-256)
-        and the writers' records beside them (:meth:`save_aux`). New entries are moved in from
-        the staging folder (values that cannot be stored exactly are left out); entries that
+        and the writers' records beside them (:meth:`save_aux`). New entries come from
+        the staging folder (hard-linked: the plan can be saved again; the staging folder goes
+        with this object; values that cannot be stored exactly are left out); entries that
         were reused are hard-linked from the old folder when possible."""
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
@@ -608,7 +609,7 @@ class PlanCache:
                 if not src.is_file():  # not storable
                     continue
                 sha = file_sha256(src)
-                os.replace(src, target / name)
+                link_or_copy(src, target / name)
             elif self.reused.get(stage):
                 old = self._manifest["entries"][stage]
                 link_or_copy(self.dir / Path(old["file"]).name, target / name)

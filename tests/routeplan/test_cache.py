@@ -394,3 +394,29 @@ def test_a_layer_that_is_not_one_file_disables_the_cache(tmp_path):
     (tmp_path / "site.toml").write_text("", encoding="utf-8")
     (tmp_path / "rows.gdb").mkdir()
     assert site_key(tmp_path, {}, {"rows": "rows.gdb"}) is None
+
+
+def test_a_plan_saved_twice_and_its_staging_folder(demo, tmp_path):
+    """Stage entries are packed beside the output folder while planning; the plan can be
+    written twice (both folders get its entries); the staging folder goes with the cache."""
+    import gc
+
+    out = tmp_path / "out"
+    p = plan(demo, cache=PlanCache(out))
+    staging = list(tmp_path.glob(".out.entries.*"))
+    assert len(staging) == 1
+    write_plan(p, out)
+    write_plan(p, tmp_path / "again")
+    for folder in (out, tmp_path / "again"):
+        entries = json.loads((folder / CACHE_DIR / MANIFEST).read_text())["entries"]
+        assert set(entries) == {"site", "route", "size"}
+    # the same plan planned again from either folder reuses every stage
+    assert run(demo, tmp_path / "again").reused == {
+        "site": True,
+        "route": True,
+        "size": True,
+        "outputs": True,
+    }
+    del p
+    gc.collect()
+    assert not staging[0].exists()
