@@ -278,7 +278,7 @@ def render_map(
         h[name] = np.asarray(given, dtype=np.uint64)
     ok = {name: _drawable_mask(gdf) for name, gdf in frames.items()}
     # what a tile's drawing depends on besides its rows: the CRS its coordinates are in
-    crs = {name: gdf.crs.to_wkt() if gdf.crs is not None else None for name, gdf in frames.items()}
+    wkt = {name: gdf.crs.to_wkt() if gdf.crs is not None else None for name, gdf in frames.items()}
 
     kinds = circuit_kind(circuits)
     strings = circuits[kinds == "string"]
@@ -300,7 +300,7 @@ def render_map(
         return {"ok": row_layer(sub, stats=(worst[p], routed[p]))}
 
     s, n = memo.group(
-        "rows", crs["rows"], _group_var("rows"), (Role("ok", "rp-row"),),
+        "rows", wkt["rows"], _group_var("rows"), (Role("ok", "rp-row"),),
         _parts(row_ids, row_h), draw_rows, lazy=not show_rows,
     )  # fmt: skip
     scripts += s
@@ -312,7 +312,7 @@ def render_map(
     _, _, reference = segment_values(seg)
     seg_h = h["segments"][ok["segments"]]
     s, n = memo.group(
-        "segments", (reference, crs["segments"]), _group_var("segments"), _SEGMENT_ROLES,
+        "segments", (reference, wkt["segments"]), _group_var("segments"), _SEGMENT_ROLES,
         _parts(_ids(seg, "segment_id"), seg_h),
         lambda p: vars(segment_layers(seg.iloc[p], reference)),
     )  # fmt: skip
@@ -341,7 +341,7 @@ def render_map(
 
         keys = from_ids[pos] if grouped else circuit_ids[pos]
         s, n = memo.group(
-            kind, (grouped, crs["circuits"]), _group_var(kind), _circuit_roles(css),
+            kind, (grouped, wkt["circuits"]), _group_var(kind), _circuit_roles(css),
             _parts(keys, h["circuits"][pos]), draw_circuits,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
@@ -361,7 +361,7 @@ def render_map(
         return {"ok": equipment_layer(equipment.iloc[eq_pos[p]], stats=stats)}
 
     s, n = memo.group(
-        "equipment", crs["equipment"], _group_var("equipment"), (Role("ok", "rp-equipment"),),
+        "equipment", wkt["equipment"], _group_var("equipment"), (Role("ok", "rp-equipment"),),
         _parts(eq_ids, eq_h), draw_equipment,
     )  # fmt: skip
     scripts += s

@@ -20,7 +20,7 @@ import pandas as pd
 from .columns import Col
 from .reuse import chunk_bounds, chunk_keys, layout, row_hashes
 from .tables import format_table, ordered
-from .xlsx import SHEET_TAIL, Piece, cell_lengths, package_parts, row_xml, sheet_head, write_zip
+from .xlsx import SHEET_TAIL, Piece, cell_lengths, package_parts, sheet_head, sheet_rows, write_zip
 
 
 @dataclass(eq=False)
@@ -52,10 +52,6 @@ class Schedule:
         bounds = chunk_bounds(hashes)
         return cls(data, cols, lay, bounds, chunk_keys(hashes, bounds, lay), titles)
 
-    @property
-    def names(self) -> list[str]:
-        return [str(c) for c in self.data.columns]
-
     def render(self, chunks: Iterable[int]) -> None:
         """Format the rows of ``chunks`` (those not formatted yet), all in one call."""
         todo = sorted(set(chunks) - set(self._rendered))
@@ -64,14 +60,12 @@ class Schedule:
         starts, ends = self.bounds[todo], self.bounds[np.asarray(todo) + 1]
         rows = np.concatenate([np.arange(a, b) for a, b in zip(starts, ends, strict=True)])
         table = format_table(self.data.iloc[rows], self.cols)
-        lines, xml, lengths = table.csv_lines(), row_xml(table), cell_lengths(table)
-        at = 0
-        for j, a, b in zip(todo, starts.tolist(), ends.tolist(), strict=True):
-            k = b - a
-            csv = b"\n".join(lines[at : at + k]) + b"\n" if k else b""
-            longest = lengths[at : at + k].max(axis=0, initial=0)
-            self._rendered[j] = (csv, b"".join(xml[at : at + k]), longest)
-            at += k
+        local = np.r_[0, np.cumsum(ends - starts)].tolist()  # chunk bounds within ``table``
+        lines, lengths = table.csv_lines(), cell_lengths(table)
+        xml = sheet_rows(table, local)
+        for i, (j, a, b) in enumerate(zip(todo, local[:-1], local[1:], strict=True)):
+            csv = b"\n".join(lines[a:b]) + b"\n" if b > a else b""
+            self._rendered[j] = (csv, xml[i], lengths[a:b].max(axis=0, initial=0))
 
     def csv_header(self) -> bytes:
         """The CSV header line with its line end."""

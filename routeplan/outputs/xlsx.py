@@ -16,8 +16,10 @@ Reading the result back with openpyxl is part of the test suite.
 
 from __future__ import annotations
 
+import itertools
 import struct
 import zlib
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -92,13 +94,23 @@ def _text_cells(cells: list[bytes]) -> list[bytes]:
     return made[codes].tolist()
 
 
-def row_xml(table: TextTable) -> list[bytes]:
-    """Each row of ``table`` as a ``<row>`` element (cells without references: in order)."""
+def sheet_rows(table: TextTable, bounds: Sequence[int]) -> list[bytes]:
+    """The ``<row>`` elements of ``table`` (cells without references: in order), joined per
+    run of rows between successive ``bounds`` (row offsets in ``table``)."""
     cells = [
         _number_cells(c.array, c.decimals) if c.numeric else _text_cells(c.cells)
         for c in table.columns
     ]
-    return [b"<row>" + b"".join(r) + b"</row>" for r in zip(*cells, strict=True)]
+    out = []
+    for a, b in itertools.pairwise(bounds):
+        rows = zip(
+            itertools.repeat(b"<row>", b - a),
+            *(c[a:b] for c in cells),
+            itertools.repeat(b"</row>", b - a),
+            strict=True,
+        )
+        out.append(b"".join(itertools.chain.from_iterable(rows)))
+    return out
 
 
 def cell_lengths(table: TextTable) -> np.ndarray:
@@ -108,8 +120,10 @@ def cell_lengths(table: TextTable) -> np.ndarray:
         if c.numeric:
             out[:, j] = np.strings.str_len(c.array)
         elif table.n_rows:
-            codes, uniques = pd.factorize(np.array(c.cells, dtype=object))
-            out[:, j] = np.array([len(u.decode("utf-8")) for u in uniques], dtype=np.int64)[codes]
+            out[:, j] = np.fromiter(map(len, c.cells), dtype=np.int64, count=table.n_rows)
+            if not b"".join(c.cells).isascii():  # UTF-8: count characters, not bytes
+                wide = np.flatnonzero([not t.isascii() for t in c.cells])
+                out[wide, j] = [len(c.cells[i].decode("utf-8")) for i in wide.tolist()]
     return out
 
 

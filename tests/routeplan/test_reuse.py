@@ -232,3 +232,19 @@ def test_update_refuses_what_it_cannot_do(tmp_path, layers):
         con.execute('DELETE FROM "lines" WHERE fid = 5')
     con.close()
     assert update_gpkg(old, tmp_path / "c.gpkg", first, index) is None
+
+
+def test_sheet_rows_and_widths_per_chunk():
+    """The workbook's rows joined per chunk are the rows of the whole table, and column widths
+    count characters, not UTF-8 bytes."""
+    from routeplan.outputs.tables import format_table
+    from routeplan.outputs.xlsx import cell_lengths, sheet_rows
+
+    f = pd.DataFrame({"id": ["C1", "Ω-2", "C3", "süd"], "v": [1.5, np.nan, 2.0, 10.25]})
+    t = format_table(f)
+    whole = sheet_rows(t, [0, 4])
+    parts = sheet_rows(t, [0, 1, 3, 4])
+    assert len(parts) == 3 and b"".join(parts) == whole[0]
+    assert whole[0].count(b"<row>") == 4
+    assert cell_lengths(t)[:, 0].tolist() == [2, 3, 2, 3]
+    assert cell_lengths(t)[:, 1].tolist() == [3, 0, 1, 5]
