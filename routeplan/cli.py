@@ -166,13 +166,30 @@ def plan(
             status.stop()
     if not quiet:
         _print_summary(result.summary, out_dir)
-        if result.reused:
-            kept = [k for k, v in result.reused.items() if v]
-            out.print(
-                "cache: reused " + (", ".join(kept) if kept else "nothing (inputs changed)"),
-                markup=False,
-            )
+        if result.cache is not None:
+            out.print(_cache_line(result.cache), markup=False)
     raise typer.Exit(0 if result.ok else 1)
+
+
+def _cache_line(cache) -> str:
+    """What the plan cache saved this run (stages reused, output rows and tiles copied)."""
+    if not cache.found:
+        return "cache: none in this folder yet (the next run into it reuses this one)"
+    kept = [k for k, v in cache.reused.items() if v]
+    line = "cache: reused " + (", ".join(kept) if kept else "no stage (inputs changed)")
+    u = cache.output_reuse
+    if u and not cache.reused.get("outputs"):
+        done = []
+        if u.get("routes.gpkg rows rewritten", -1) >= 0:
+            done.append(f"{u['routes.gpkg rows rewritten']:,} GeoPackage rows rewritten")
+        chunks = sum(v for k, v in u.items() if k.endswith("chunks copied") and v > 0)
+        if chunks:
+            done.append(f"{chunks:,} schedule chunks copied")
+        if u.get("map.html tiles reused", 0) > 0:
+            done.append(f"{u['map.html tiles reused']:,} map tiles reused")
+        if done:
+            line += "; outputs updated: " + ", ".join(done)
+    return line
 
 
 def _print_summary(summary: dict, out_dir: Path) -> None:

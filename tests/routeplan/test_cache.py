@@ -320,6 +320,7 @@ def test_no_cache_option(demo, tmp_path):
     out = tmp_path / "out"
     first = runner.invoke(app, ["plan", str(demo), "--out", str(out)])
     assert first.exit_code in (0, 1), first.output
+    assert "cache: none in this folder yet" in first.output
     assert (out / CACHE_DIR / MANIFEST).is_file()
     second = runner.invoke(app, ["plan", str(demo), "--out", str(out)])
     assert "cache: reused site, route, size, outputs" in second.output
@@ -327,6 +328,17 @@ def test_no_cache_option(demo, tmp_path):
     assert cold.exit_code == first.exit_code, cold.output
     assert "cache:" not in cold.output
     assert not (out / CACHE_DIR).exists()  # neither read nor kept
+
+
+def test_the_command_says_what_an_edit_reused(demo, tmp_path):
+    out = tmp_path / "out"
+    runner.invoke(app, ["plan", str(demo), "--out", str(out)])
+    move_demo_pad(demo)
+    again = runner.invoke(app, ["plan", str(demo), "--out", str(out)])
+    assert again.exit_code in (0, 1), again.output
+    line = next(t for t in again.output.splitlines() if t.startswith("cache:"))
+    assert line.startswith("cache: reused no stage (inputs changed); outputs updated: ")
+    assert "GeoPackage rows rewritten" in line
 
 
 # -- entries -------------------------------------------------------------------------------------
