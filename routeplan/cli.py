@@ -180,13 +180,15 @@ def _cache_line(cache) -> str:
     u = cache.output_reuse
     if u and not cache.reused.get("outputs"):
         done = []
-        if u.get("routes.gpkg rows rewritten", -1) >= 0:
-            done.append(f"{u['routes.gpkg rows rewritten']:,} GeoPackage rows rewritten")
+        rows = u.get("routes.gpkg rows rewritten", -1)
+        if rows >= 0:
+            done.append(f"{rows:,} GeoPackage row{'s' * (rows != 1)} rewritten")
         chunks = sum(v for k, v in u.items() if k.endswith("chunks copied") and v > 0)
         if chunks:
-            done.append(f"{chunks:,} schedule chunks copied")
-        if u.get("map.html tiles reused", 0) > 0:
-            done.append(f"{u['map.html tiles reused']:,} map tiles reused")
+            done.append(f"{chunks:,} schedule chunk{'s' * (chunks != 1)} copied")
+        tiles = u.get("map.html tiles reused", 0)
+        if tiles > 0:
+            done.append(f"{tiles:,} map tile{'s' * (tiles != 1)} reused")
         if done:
             line += "; outputs updated: " + ", ".join(done)
     return line
