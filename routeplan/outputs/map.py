@@ -309,7 +309,9 @@ def render_map(
 
     # trench segments, coloured against the whole plant's busiest segment
     seg = segments[ok["segments"]]
-    _, _, reference = segment_values(seg)
+    _, over, reference = segment_values(seg)
+    if len(seg) < len(segments):  # the totals count every segment over capacity
+        over = segment_values(segments)[1]
     seg_h = h["segments"][ok["segments"]]
     s, n = memo.group(
         "segments", (reference, wkt["segments"]), _group_var("segments"), _SEGMENT_ROLES,
@@ -367,7 +369,7 @@ def render_map(
     scripts += s
     drawn += n["ok"]
 
-    totals = plan_totals(circuits, segments, segment_values(segments)[1])
+    totals = plan_totals(circuits, segments, over)
     if aggregated:
         totals.extra.append(
             f"{len(strings):,} strings drawn as one line per row "
