@@ -18,6 +18,10 @@ See :mod:`routeplan.outputs.map_scales` for the colour scales and their sources.
 Above ``aggregate_strings_above`` string circuits, strings are drawn one line per row and
 destination (:func:`routeplan.outputs.map_features.aggregate_strings`).
 
+Every layer group is drawn in tiles of about 2,000 features by id, the most loaded circuits on
+top within each tile; a re-plan redraws only the tiles whose features changed
+(:mod:`routeplan.outputs.map_tiles`).
+
 Every drawn thing is one interactive SVG path; casings and halos are drawn as separate,
 non-interactive paths (CSS classes ``rp-fail-casing`` and ``rp-over-halo``). Above
 ``CANVAS_ABOVE`` drawn features (large plants) everything is drawn on one canvas instead, which
