@@ -432,3 +432,28 @@ def test_a_plan_saved_twice_and_its_staging_folder(demo, tmp_path):
     del p
     gc.collect()
     assert not staging[0].exists()
+
+
+def test_the_map_after_an_edit_draws_what_a_cold_map_draws(tmp_path):
+    """A re-plan's map reuses the tiles an edit did not touch, and draws every feature as a
+    cold run's map does (a 100 MW plant: several tiles per layer group)."""
+    from routeplan.synth import generate_site
+    from tests.map.test_map import layer_data
+
+    def drawn(html: str) -> dict:
+        out: dict = {}
+        for fc in layer_data(html):
+            out.setdefault(fc["class"], []).extend(fc["features"])
+        return out  # in drawing order
+
+    site = tmp_path / "site"
+    generate_site(100.0, 3, site)
+    out = tmp_path / "out"
+    run(site, out)
+    move_gpkg_pad(site, dy=6.0)
+    warm = run(site, out)
+    assert warm.cache.output_reuse["map.html tiles reused"] > 0
+    cold = tmp_path / "cold"
+    run(site, cold, cache=False)
+    html = (out / "map.html").read_text(encoding="utf-8")
+    assert drawn(html) == drawn((cold / "map.html").read_text(encoding="utf-8"))
