@@ -359,3 +359,34 @@ def test_page_rebuilds_the_layers_as_python_does(demo: Page, demo_html: Path):
     for text in texts:
         built = demo.page.evaluate("(t) => JSON.stringify(rpFeatures(JSON.parse(t)))", text)
         assert json.loads(built) == expand(json.loads(text))
+
+
+def test_a_map_in_many_tiles(browser, demo_html: Path, tmp_path, monkeypatch):
+    # tiles of about 4 features (a 1 GW plant's are ~2,000): every feature drawn once, a
+    # group's tiles switch off and on together, hidden rows are made tile by tile when asked
+    import numpy as np
+
+    from routeplan.outputs import map_tiles
+
+    monkeypatch.setattr(map_tiles, "TILE_MASK", np.uint64(3))
+    monkeypatch.setattr(map_tiles, "TILE_MAX", 8)
+    monkeypatch.setattr(rpmap, "ROWS_SHOWN_UP_TO", 2)
+    html = write_map(demo_html.parent, dest=tmp_path / "tiles.html")
+    assert html.read_text(encoding="utf-8").count("rpFeatures(") > 12  # many layers
+    page = Page(browser, html)
+    try:
+        n = expected_counts(make_frames()[0])
+        drawn = page.page.locator("path.leaflet-interactive")
+        total = n["circuits"] + n["segments"] + n["equipment"]  # rows start switched off
+        assert drawn.count() == total
+        page.page.get_by_label("String circuits").uncheck()
+        assert drawn.count() == total - n["strings"]
+        page.page.get_by_label("String circuits").check()
+        page.page.get_by_label(rpmap.LAYER_NAMES["rows"]).check()
+        assert page.page.locator("path.rp-row").count() == n["rows"]
+        assert drawn.count() == total + n["rows"]
+        at = page.find("circuit", "R1/S1")
+        assert "R1/S1" in page.hover_tooltip(at["x"], at["y"])
+        page.assert_clean()
+    finally:
+        page.close()
