@@ -67,6 +67,11 @@ class Schedule:
             csv = b"\n".join(lines[a:b]) + b"\n" if b > a else b""
             self._rendered[j] = (csv, xml[i], lengths[a:b].max(axis=0, initial=0))
 
+    def rendered(self, chunk: int) -> tuple[bytes, bytes, np.ndarray]:
+        """A formatted chunk (:meth:`render` first): its CSV lines, its sheet rows and the
+        longest cell of each column."""
+        return self._rendered[chunk]
+
     def csv_header(self) -> bytes:
         """The CSV header line with its line end."""
         return format_table(self.data.iloc[:0], self.cols).csv_header() + b"\n"
@@ -105,7 +110,7 @@ def write_csv(schedule: Schedule, path: Path, previous: Previous) -> tuple[dict,
     parts, offset, length = [header], [], []
     pos = len(header)
     for j, k in enumerate(schedule.keys):
-        text = schedule._rendered[j][0] if k not in old else previous.piece("csv", old[k])
+        text = schedule.rendered(j)[0] if k not in old else previous.piece("csv", old[k])
         parts.append(text)
         offset.append(pos)
         length.append(len(text))
@@ -139,7 +144,7 @@ def write_workbook(sheets: dict[str, Schedule], path: Path, previous: Previous) 
                 pieces.append(Piece(data, int(e["crc"][i]), int(e["size"][i])))
                 longest.append(np.asarray(e["longest"][i], dtype=np.int64))
             else:
-                _, xml, most = s._rendered[j]
+                _, xml, most = s.rendered(j)
                 pieces.append(Piece.of(xml))
                 longest.append(most)
         copied += len(s.keys) - len(fresh)
