@@ -18,7 +18,7 @@ See :mod:`routeplan.outputs.map_scales` for the colour scales and their sources.
 Above ``aggregate_strings_above`` string circuits, strings are drawn one line per row and
 destination (:func:`routeplan.outputs.map_features.aggregate_strings`).
 
-Every layer group is drawn in tiles of about 2,000 features by id, the most loaded circuits on
+Every layer group is drawn in tiles of about 1,000 features by id, the most loaded circuits on
 top within each tile; a re-plan redraws only the tiles whose features changed
 (:mod:`routeplan.outputs.map_tiles`).
 

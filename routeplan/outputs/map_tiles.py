@@ -3,7 +3,7 @@
 A 1 GW plant's map holds about 100,000 drawn features; an edit (a pad moved) changes a few
 hundred. So every layer group is drawn as tiles of neighbouring features: features sorted by
 their id (a row, a circuit, a segment), cut at content-defined boundaries (a feature whose id
-hashes with its low bits zero ends a tile, about 2,000 features per tile; an inserted feature
+hashes with its low bits zero ends a tile, about 1,000 features per tile; an inserted feature
 moves no other boundary). Each tile's scripts are kept in the memo under a key made of the
 tile's rows' content hashes and every plant-wide value its drawing depends on, so the next run
 draws only the tiles whose features changed. Within a tile, circuits are drawn in order of
@@ -28,10 +28,10 @@ import pandas as pd
 from routeplan.outputs.map_features import Layer
 from routeplan.outputs.map_script import layer_script
 
-#: a feature whose id hashes with these low bits zero ends a tile (about 2,048 per tile) …
-TILE_MASK = np.uint64(2047)
+#: a feature whose id hashes with these low bits zero ends a tile (about 1,024 per tile) …
+TILE_MASK = np.uint64(1023)
 #: … and no tile is longer than this
-TILE_MAX = 8192
+TILE_MAX = 4096
 
 
 def tiles(keys: np.ndarray) -> list[np.ndarray]:

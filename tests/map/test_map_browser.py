@@ -362,7 +362,7 @@ def test_page_rebuilds_the_layers_as_python_does(demo: Page, demo_html: Path):
 
 
 def test_a_map_in_many_tiles(browser, demo_html: Path, tmp_path, monkeypatch):
-    # tiles of about 4 features (a 1 GW plant's are ~2,000): every feature drawn once, a
+    # tiles of about 4 features (a 1 GW plant's are ~1,000): every feature drawn once, a
     # group's tiles switch off and on together, hidden rows are made tile by tile when asked
     import numpy as np
 
