@@ -911,8 +911,9 @@ def equipment_stats(ids: np.ndarray, circuits: pd.DataFrame) -> tuple[list[str],
     cids = _text(circuits, "circuit_id").to_numpy()[mine]
     for frm, cid in zip(from_ids.to_numpy()[mine], cids, strict=True):
         outgoing.setdefault(frm, []).append(cid)
+    counts = incoming.reindex(ids).fillna(0).astype(np.int64).to_numpy()
     return (
-        [f"{int(incoming.get(i, 0))}" for i in ids],
+        [str(n) for n in counts.tolist()],
         [join_limited(outgoing.get(i, []), limit=4) or "0" for i in ids],
     )
 

@@ -183,20 +183,12 @@ def _write_files(
     index: dict = {}
     copied: dict[str, int] = {}
     rows, equipment = rows_frame(plan), equipment_frame(plan)
-    # the map first, in a child process that hashes the rows itself (here the hashes are
-    # known by the time a serial run draws it)
-    known: dict[str, dict[str, GpkgLayer]] = {}
-    say("draw map")
-    job = parallel.start(
-        lambda: _write_map(
-            plan, tmp, map_options, rows, equipment,
-            known.get("layers") or _gpkg_layers(plan, rows, equipment),
-        )
-    )  # fmt: skip
-    jobs.append(job)
     t0 = time.perf_counter()
-    layers = known["layers"] = _gpkg_layers(plan, rows, equipment)
+    layers = _gpkg_layers(plan, rows, equipment)  # the rows' hashes, for every writer
     t["hash rows"] = time.perf_counter() - t0
+    say("draw map")
+    job = parallel.start(lambda: _write_map(plan, tmp, map_options, rows, equipment, layers))
+    jobs.append(job)
 
     say("write GeoPackage")
     t0 = time.perf_counter()
