@@ -8,7 +8,9 @@ be forked: no ``fork`` on this system, or ``ROUTEPLAN_SERIAL`` set) is run again
 process, so its exceptions are raised there as usual and nothing depends on the child.
 
 The child touches no lock another thread might hold: it writes its own files, never the
-terminal (it leaves with ``os._exit``, without flushing the parent's buffers).
+terminal (it leaves with ``os._exit``, without flushing the parent's buffers). A child may
+reproject with pyproj: PROJ (8.2 and later; pyproj's wheels carry 9.x) reads its database safely
+across ``fork`` (PROJ pull request 2845); the children never use GDAL.
 """
 
 from __future__ import annotations
