@@ -546,6 +546,15 @@ class PlanCache:
             pass
         return None
 
+    def previous_bytes(self, name: str) -> bytes | None:
+        """The bytes of :meth:`previous_output` (the file read once)."""
+        recorded = self._outputs().get("files", {}).get(name)
+        try:
+            data = (self.out_dir / name).read_bytes() if recorded else None
+        except OSError:
+            return None
+        return data if data is not None and hashlib.sha256(data).hexdigest() == recorded else None
+
     def output_aux(self, name: str) -> Any:
         """What the last run's writers recorded beside their files under ``name`` (``index``:
         to update them row by row, :mod:`routeplan.outputs.reuse`; ``map``: the map's memo);
@@ -585,11 +594,7 @@ class PlanCache:
         """Store a writer's record ``value`` as ``name`` (see :meth:`output_aux`)."""
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
-        try:
-            data = dumps(value)
-        except UncacheableError:
-            return
-        (target / f"{name}.npz").write_bytes(data)
+        _dump_entry(value, target / f"{name}.npz")
 
     def save(self, new_out: Path, outputs_key: str | None, outputs: Iterable[str]) -> None:
         """Write the manifest and the stage entries into ``new_out/.routeplan-cache`` (a folder

@@ -2,7 +2,7 @@
 updated feature by feature.
 
 A whole write goes through pyogrio (GDAL), which makes every table the GeoPackage standard
-asks for (OGC 12-128r18: contents, geometry columns, spatial reference systems, the R-tree
+asks for (OGC 12-128: contents, geometry columns, spatial reference systems, the R-tree
 spatial index extension with its triggers). An update copies the last run's file and, with
 Python's ``sqlite3``, finds each feature by its key (the circuit's, segment's, row's or
 equipment's id): a feature still there keeps its ``fid`` and is rewritten only if its content
@@ -11,10 +11,11 @@ last fid, features gone are deleted; then each layer's extent in ``gpkg_contents
 feature then holds what a whole write gives it; only the fids of features added or removed
 since a whole write differ from it (and the table's order by fid). The R-tree follows
 through GDAL's own triggers, which call the standard's SQL functions ``ST_IsEmpty``,
-``ST_MinX`` … (GeoPackage 1.2, Annex F.3): they are supplied here
-(:func:`_register_functions`). Geometry blobs are
-encoded as GDAL encodes them (header ``GP``, version 0, little-endian, an XY envelope except
-for points, ISO WKB; OGC 12-128r18 clause 2.1.3); the tests compare them byte for byte.
+``ST_MinX`` … (the R-tree extension, GeoPackage 1.2 Annex F.3, from memory): they are
+supplied here (:func:`_register_functions`). Geometry blobs are encoded as GDAL encodes them
+(header ``GP``, version 0, little-endian, an XY envelope except for points, ISO WKB: the
+GeoPackage binary format of OGC 12-128, clause 2.1.3, document revision and clause numbers
+from memory); the tests compare them byte for byte.
 Anything unexpected (another schema, a column type not handled, an empty geometry, an SQLite
 error) falls back to a whole write.
 """
@@ -248,7 +249,7 @@ def encode_geometries(geoms: np.ndarray, srs_id: int) -> list[bytes | None] | No
 
 
 def _register_functions(con: sqlite3.Connection) -> None:
-    """The SQL functions GDAL's R-tree triggers call (GeoPackage 1.2, Annex F.3)."""
+    """The SQL functions GDAL's R-tree triggers call (the GeoPackage R-tree extension)."""
 
     def envelope(blob: bytes | None) -> tuple[float, float, float, float] | None:
         if blob is None or len(blob) < 8 or blob[:2] != b"GP":

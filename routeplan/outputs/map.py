@@ -40,7 +40,6 @@ from pathlib import Path
 
 import geopandas as gpd
 import numpy as np
-import pandas as pd
 import pyproj
 import shapely
 
@@ -49,6 +48,7 @@ from routeplan.outputs.map_features import (
     CircuitLayers,
     circuit_kind,
     circuit_layers,
+    drawable_mask,
     equipment_layer,
     equipment_stats,
     row_layer,
@@ -56,6 +56,7 @@ from routeplan.outputs.map_features import (
     segment_layers,
     segment_values,
     string_group_layers,
+    text_values,
 )
 from routeplan.outputs.map_panel import legend_html, panel_html, plan_totals
 from routeplan.outputs.map_text import escape_text
@@ -188,17 +189,13 @@ def _page(spec: dict) -> list[str]:
 
 
 def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
-    """The lon/lat box of the drawable features of ``frames`` ([[south, west], [north, east]]),
+    """The lon/lat box of ``frames`` (drawable features only: [[south, west], [north, east]]),
     from each frame's box in its CRS with densified edges (pyproj ``transform_bounds``)."""
     boxes = []
     for f in frames:
         if not len(f) or f.crs is None:
             continue
-        g = f.geometry.to_numpy()
-        g = g[~shapely.is_missing(g) & ~shapely.is_empty(g)]
-        if not len(g):
-            continue
-        b = shapely.total_bounds(g)
+        b = shapely.total_bounds(f.geometry.to_numpy())
         if not f.crs.equals("EPSG:4326"):
             to_geo = pyproj.Transformer.from_crs(f.crs, "EPSG:4326", always_xy=True)
             b = np.array(to_geo.transform_bounds(*b, densify_pts=21))
@@ -208,16 +205,6 @@ def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
         return None
     b = np.array(boxes)
     return [[b[:, 1].min(), b[:, 0].min()], [b[:, 3].max(), b[:, 2].max()]]
-
-
-def _drawable_mask(gdf: gpd.GeoDataFrame) -> np.ndarray:
-    g = gdf.geometry.to_numpy()
-    return ~shapely.is_missing(g) & ~shapely.is_empty(g)
-
-
-def _ids(gdf: pd.DataFrame, column: str) -> np.ndarray:
-    values = gdf[column] if column in gdf.columns else pd.Series("", index=gdf.index)
-    return values.astype(object).where(values.notna(), "").astype(str).to_numpy()
 
 
 def _parts(ids: np.ndarray, hashes: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
@@ -280,7 +267,7 @@ def render_map(
         if given is None or len(given) != len(gdf):
             given = row_hashes(gdf.drop(columns=gdf.geometry.name), gdf.geometry.to_numpy())
         h[name] = np.asarray(given, dtype=np.uint64)
-    ok = {name: _drawable_mask(gdf) for name, gdf in frames.items()}
+    ok = {name: drawable_mask(gdf) for name, gdf in frames.items()}
     # what a tile's drawing depends on besides its rows: the CRS its coordinates are in
     wkt = {name: gdf.crs.to_wkt() if gdf.crs is not None else None for name, gdf in frames.items()}
 
@@ -293,7 +280,7 @@ def render_map(
 
     # module rows (hidden at first, and made when switched on, for very large plants)
     row_pos = np.flatnonzero(ok["rows"])
-    row_ids = _ids(rows, "id")[row_pos]
+    row_ids = text_values(rows, "id")[row_pos]
     show_rows = len(row_pos) <= ROWS_SHOWN_UP_TO
     worst, routed = row_stats(row_ids, strings)
     row_h = mixed(h["rows"][row_pos], worst, routed)
@@ -319,7 +306,7 @@ def render_map(
     seg_h = h["segments"][ok["segments"]]
     s, n = memo.group(
         "segments", (reference, wkt["segments"]), _group_var("segments"), _SEGMENT_ROLES,
-        _parts(_ids(seg, "segment_id"), seg_h),
+        _parts(text_values(seg, "segment_id"), seg_h),
         lambda p: vars(segment_layers(seg.iloc[p], reference)),
     )  # fmt: skip
     if n["ok"] + n["over"]:
@@ -328,8 +315,8 @@ def render_map(
         drawn += n["ok"] + n["over"]
 
     # circuits by kind: strings (one per row and destination above the threshold), arrays, AC
-    circuit_ids = _ids(circuits, "circuit_id")
-    from_ids = _ids(circuits, "from_id")
+    circuit_ids = text_values(circuits, "circuit_id")
+    from_ids = text_values(circuits, "from_id")
     for kind, label, css, mask in (
         ("string", "string_grouped" if aggregated else "string", "rp-string", kinds == "string"),
         ("array", "array", "rp-array", kinds == "array"),
@@ -357,7 +344,7 @@ def render_map(
 
     # combiners, inverters, grid points
     eq_pos = np.flatnonzero(ok["equipment"])
-    eq_ids = _ids(equipment, "id")[eq_pos]
+    eq_ids = text_values(equipment, "id")[eq_pos]
     incoming, outgoing = equipment_stats(eq_ids, circuits)
     eq_h = mixed(h["equipment"][eq_pos], np.asarray(incoming), np.asarray(outgoing))
     groups.append(("equipment", LAYER_NAMES["equipment"], True))

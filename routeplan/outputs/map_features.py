@@ -207,6 +207,11 @@ def _text(df: pd.DataFrame, name: str) -> pd.Series:
     return s.astype(object).where(s.notna(), "").astype(str)
 
 
+def text_values(df: pd.DataFrame, name: str) -> np.ndarray:
+    """A column as raw text (NaN/None → ""), as an object array (``""`` if it is absent)."""
+    return _text(df, name).to_numpy()
+
+
 def _codes(values) -> np.ndarray:
     """Integer codes of equal values (floats bit for bit, so -0.0 is not 0.0; NaN is a value)."""
     a = np.asarray(values)
@@ -237,10 +242,15 @@ def per_distinct(func, *columns) -> list:
     return out[inverse.reshape(-1)].tolist()
 
 
+def drawable_mask(gdf: gpd.GeoDataFrame) -> np.ndarray:
+    """Which rows of ``gdf`` have a non-empty geometry."""
+    g = gdf.geometry.to_numpy()
+    return ~shapely.is_missing(g) & ~shapely.is_empty(g)
+
+
 def drawable(gdf: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
     """The rows of ``gdf`` that have a non-empty geometry."""
-    geom = gdf.geometry
-    return gdf[geom.notna().to_numpy() & ~geom.is_empty.to_numpy()]
+    return gdf[drawable_mask(gdf)]
 
 
 def display_geometry(gdf: gpd.GeoDataFrame) -> np.ndarray:

@@ -17,7 +17,6 @@ a re-plan that does not change those does not even import folium.
 
 from __future__ import annotations
 
-import hashlib
 import itertools
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -27,6 +26,7 @@ import pandas as pd
 
 from routeplan.outputs.map_features import Layer
 from routeplan.outputs.map_script import layer_script
+from routeplan.outputs.reuse import hashes_key, row_hashes
 
 #: a feature whose id hashes with these low bits zero ends a tile (about 1,024 per tile) …
 TILE_MASK = np.uint64(1023)
@@ -60,21 +60,13 @@ def tiles(keys: np.ndarray) -> list[np.ndarray]:
 
 def mixed(hashes: np.ndarray, *values: np.ndarray) -> np.ndarray:
     """Row hashes with per-row ``values`` (numbers or text) folded in."""
-    h = np.asarray(hashes, dtype=np.uint64).copy()
-    for v in values:
-        v = np.asarray(v)
-        if v.dtype.kind in "fiub":
-            g = pd.util.hash_array(v.astype(float))
-        else:
-            g = pd.util.hash_array(v.astype(str).astype(object), categorize=False)
-        h = h * np.uint64(0x9E3779B97F4A7C15) ^ g
-    return h
+    extra = row_hashes(pd.DataFrame({str(i): np.asarray(v) for i, v in enumerate(values)}))
+    return np.asarray(hashes, dtype=np.uint64) * np.uint64(0x9E3779B97F4A7C15) ^ extra
 
 
 def tile_key(kind: str, params: object, hashes: np.ndarray) -> str:
     """The memo key of a tile: its kind, the plant-wide values it depends on, its rows."""
-    data = repr((kind, params)).encode("utf-8") + np.ascontiguousarray(hashes, "<u8").tobytes()
-    return hashlib.blake2b(data, digest_size=16).hexdigest()
+    return hashes_key(repr((kind, params)), hashes)
 
 
 @dataclass(frozen=True)

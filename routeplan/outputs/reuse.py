@@ -130,9 +130,13 @@ def chunk_bounds(hashes: np.ndarray) -> np.ndarray:
 
 def chunk_keys(hashes: np.ndarray, bounds: np.ndarray, table_layout: str) -> list[str]:
     """One key per chunk: the layout and the chunk's row hashes, in order."""
-    salt = table_layout.encode("ascii")
-    data = np.ascontiguousarray(hashes, dtype="<u8")
     return [
-        hashlib.blake2b(salt + data[a:b].tobytes(), digest_size=16).hexdigest()
+        hashes_key(table_layout, hashes[a:b])
         for a, b in zip(bounds[:-1].tolist(), bounds[1:].tolist(), strict=True)
     ]
+
+
+def hashes_key(salt: str, hashes: np.ndarray) -> str:
+    """A 128-bit key (BLAKE2b) of ``salt`` and a run of row hashes, in order."""
+    data = np.ascontiguousarray(hashes, dtype="<u8").tobytes()
+    return hashlib.blake2b(salt.encode("utf-8") + data, digest_size=16).hexdigest()

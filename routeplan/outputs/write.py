@@ -160,10 +160,8 @@ def _outputs_key(plan: Plan, map_options: dict | None) -> str | None:
 def _previous(plan: Plan, name: str, index: dict) -> Previous:
     """The last run's file ``name`` and its index, when both are there and intact."""
     cache = plan.cache
-    path = cache.previous_output(name) if cache is not None and name in index else None
-    if path is None:
-        return Previous()
-    return Previous(path.read_bytes(), index[name])
+    data = cache.previous_bytes(name) if cache is not None and name in index else None
+    return Previous() if data is None else Previous(data, index[name])
 
 
 def _write_files(

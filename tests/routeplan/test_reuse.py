@@ -121,7 +121,8 @@ def _as_layers(lines, eq):
 
 
 def test_geometry_blobs_are_the_ones_gdal_writes(tmp_path, layers):
-    """GeoPackage 1.2 clause 2.1.3 (GeoPackageBinary), compared with GDAL's own encoding."""
+    """The GeoPackageBinary geometry encoding (OGC 12-128, clause 2.1.3 from memory), compared
+    with GDAL's own encoding."""
     lines, eq = layers
     path = tmp_path / "a.gpkg"
     write_gpkg(_as_layers(lines, eq), path)
