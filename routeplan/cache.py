@@ -23,6 +23,13 @@ What is reused, and when (every key is a SHA-256 of everything the stage's resul
         calc's :class:`calc.SizingResult`. Key: the ``route`` key, calc's design parameters
         and the rule set. (Sizing is coupled across the plant through trench grouping and the
         shared DC drop budget, so it is reused whole or recomputed whole.)
+    ``noding`` (a memo, not a stage)
+        :class:`routeplan.network.NetworkMemo`: the last run's trench noding and each
+        equipment feature's nearest part. It is offered whatever its key
+        (:meth:`PlanCache.latest`) and validates itself: the noding is taken only for trenches
+        of the same fingerprint (ids, attributes, exact geometry, tolerance, defaults), a
+        feature's nearest part only for the same feature, geometry and ``snap_m``. A route
+        stage that is reused keeps it for a later run (:meth:`PlanCache.carry`).
     ``outputs``
         The files written last time. Key: the ``size`` key, the whole site.toml, the input
         files' digest and the map options. On a hit, each file is reused only if its SHA-256
@@ -77,7 +84,7 @@ import calc
 from layers.model import Module, Site
 
 from . import __version__, parallel
-from .network import TrenchDefaults, TrenchNetwork
+from .network import NetworkMemo, NodedTrenches, TrenchDefaults, TrenchNetwork
 from .routing import RouteParams, RoutePlan
 
 CACHE_DIR = ".routeplan-cache"
@@ -87,6 +94,9 @@ AUX: tuple[str, ...] = ("index", "map")
 #: bump when what is stored, or how, changes
 FORMAT = 2
 STAGES: tuple[str, ...] = ("site", "route", "size")
+#: memos: the last run's value is offered whatever its key, and validates itself
+#: (``noding``: :class:`routeplan.network.NetworkMemo`)
+MEMOS: tuple[str, ...] = ("noding",)
 
 #: the classes an entry may rebuild (by these names only)
 _CLASSES: dict[str, type] = {
@@ -96,6 +106,8 @@ _CLASSES: dict[str, type] = {
     "RouteParams": RouteParams,
     "TrenchDefaults": TrenchDefaults,
     "TrenchNetwork": TrenchNetwork,
+    "NodedTrenches": NodedTrenches,
+    "NetworkMemo": NetworkMemo,
     "SizingResult": calc.SizingResult,
 }
 
@@ -276,7 +288,11 @@ class _Packer:
         if dataclasses.is_dataclass(v) and type(v).__name__ in _CLASSES:
             if _CLASSES[type(v).__name__] is not type(v):
                 raise UncacheableError(f"class {type(v)}")
-            fields = {f.name: self.pack(getattr(v, f.name)) for f in dataclasses.fields(v)}
+            fields = {
+                f.name: self.pack(getattr(v, f.name))
+                for f in dataclasses.fields(v)
+                if not f.metadata.get("transient")  # left to its default
+            }
             return {"t": "dc", "cls": type(v).__name__, "f": fields}
         raise UncacheableError(f"value of type {type(v).__name__}")
 
@@ -468,6 +484,7 @@ class PlanCache:
         self._new: dict[str, Any] = {}
         self._jobs: dict[str, parallel.Job] = {}
         self._staging: Path | None = None
+        self._carried: set[str] = set()
         self._manifest = self._read_manifest()
 
     def _read_manifest(self) -> dict:
@@ -512,6 +529,26 @@ class PlanCache:
                 value = None
         self.reused[stage] = value is not None
         return value
+
+    def latest(self, stage: str) -> Any | None:
+        """The value the last run stored for ``stage``, whatever its key (None if there is
+        none, or it is damaged): for a *memo* (:data:`MEMOS`), a value that says itself which
+        of its parts are still valid. Records nothing: :meth:`put` a new value, or
+        :meth:`carry` this one, to keep one for the next run."""
+        e = self._manifest.get("entries", {}).get(stage)
+        key = e.get("key") if isinstance(e, dict) else None
+        path = self._entry(stage, key) if isinstance(key, str) else None
+        try:
+            return loads(path) if path is not None else None
+        except Exception:  # a damaged entry is a miss, never an error
+            return None
+
+    def carry(self, stage: str) -> None:
+        """Keep the last run's entry for ``stage`` as it is (a memo this run did not need)."""
+        e = self._manifest.get("entries", {}).get(stage)
+        if isinstance(e, dict) and isinstance(e.get("key"), str) and stage not in self._new:
+            self.keys[stage] = e["key"]
+            self._carried.add(stage)
 
     def put(self, stage: str, key: str, value: Any) -> None:
         """Store ``value`` for ``stage`` under ``key`` when the outputs are saved. It is packed
@@ -615,7 +652,7 @@ class PlanCache:
                     continue
                 sha = file_sha256(src)
                 link_or_copy(src, target / name)
-            elif self.reused.get(stage):
+            elif self.reused.get(stage) or stage in self._carried:
                 old = self._manifest["entries"][stage]
                 link_or_copy(self.dir / Path(old["file"]).name, target / name)
                 sha = old["sha256"]

@@ -171,11 +171,15 @@ def plan(
     raise typer.Exit(0 if result.ok else 1)
 
 
+#: how the cache line names a stage, where its name alone says too little
+_STAGE_WORDS = {"noding": "trench noding"}
+
+
 def _cache_line(cache) -> str:
     """What the plan cache saved this run (stages reused, output rows and tiles copied)."""
     if not cache.found:
         return "cache: none in this folder yet (the next run into it reuses this one)"
-    kept = [k for k, v in cache.reused.items() if v]
+    kept = [_STAGE_WORDS.get(k, k) for k, v in cache.reused.items() if v]
     line = "cache: reused " + (", ".join(kept) if kept else "no stage (inputs changed)")
     u = cache.output_reuse
     if u and not cache.reused.get("outputs"):

@@ -17,7 +17,9 @@ the site's projected CRS.
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import gc
+import hashlib
 import math
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
@@ -42,14 +44,18 @@ __all__ = [
     "LAYINGS",
     "MIN_TOL_M",
     "TRENCH_ATTRIBUTES",
+    "NetworkMemo",
+    "NodedTrenches",
     "TrenchDefaults",
     "TrenchNetwork",
     "build_network",
     "check_choice",
     "check_metric_crs",
     "far_problems",
+    "node_trenches",
     "paused_gc",
     "site_equipment",
+    "trench_fingerprint",
 ]
 
 #: valid values of a trench's ``laying`` attribute.
@@ -176,6 +182,9 @@ class TrenchNetwork:
         feature to its node (None when not connected).
     node_tol_m, snap_m : float
         The tolerances the network was built with [m].
+    memo : NetworkMemo or None
+        What the next build may reuse (:func:`build_network`); not stored with the network
+        in the plan cache (a *transient* field).
     """
 
     crs: pyproj.CRS | None
@@ -185,6 +194,7 @@ class TrenchNetwork:
     node_tol_m: float
     snap_m: float
     _index: dict[tuple[str, str], int] = field(default_factory=dict, repr=False)
+    memo: NetworkMemo | None = field(default=None, repr=False, metadata={"transient": True})
 
     @property
     def n_nodes(self) -> int:
@@ -322,6 +332,253 @@ def _first_per(group: np.ndarray, n: int) -> np.ndarray:
     return np.searchsorted(group, np.arange(n))
 
 
+def trench_fingerprint(
+    trenches: gpd.GeoDataFrame, node_tol_m: float, defaults: TrenchDefaults
+) -> str:
+    """SHA-256 of everything the trench-only part of noding depends on (:class:`NodedTrenches`):
+    the tolerance, the defaults, each trench's id, its attributes as given and its geometry
+    (WKB, exact coordinates)."""
+    h = hashlib.sha256()
+    h.update(repr((float(node_tol_m), defaults, len(trenches))).encode())
+    h.update("\x00".join(map(str, trenches["id"].to_numpy(dtype=object).tolist())).encode())
+    for name in TRENCH_ATTRIBUTES:
+        if name in trenches:
+            column = trenches[name]
+            h.update(f"\x01{name}:{column.dtype}:".encode())
+            values = column.to_numpy()
+            numeric = values.dtype.kind in "biuf"
+            h.update(values.tobytes() if numeric else repr(values.tolist()).encode())
+    wkb = shapely.to_wkb(np.asarray(trenches.geometry.array, dtype=object), output_dimension=2)
+    h.update(np.fromiter(map(len, wkb.tolist()), dtype=np.int64, count=len(wkb)).tobytes())
+    h.update(b"".join(wkb.tolist()))
+    return h.hexdigest()
+
+
+@dataclass(frozen=True, eq=False)
+class NodedTrenches:
+    """The part of :func:`build_network` that depends on the trenches alone.
+
+    It is most of the build's work (crossings, the candidates near each part, the pairs of
+    candidates closer than the tolerance), and a re-plan after an equipment edit needs none
+    of it again: :class:`NetworkMemo` hands it to the next build, which takes it only when
+    the trenches' :func:`trench_fingerprint` is the same.
+
+    Trench *candidates* are, in order: crossings, parts' first ends, parts' last ends, parts'
+    inner vertices (see :func:`build_network`'s Notes).
+
+    Attributes
+    ----------
+    fingerprint : str
+        :func:`trench_fingerprint` of the input.
+    tol_m : float
+        The tolerance used [m] (``node_tol_m`` raised to :data:`MIN_TOL_M`).
+    trench_ids : numpy.ndarray of str
+        Each trench's id.
+    attrs : pandas.DataFrame
+        Trench attributes with defaults filled in (:data:`TRENCH_ATTRIBUTES`).
+    owner : numpy.ndarray of int
+        Trench (row) of each simple part.
+    xy, cidx : numpy.ndarray
+        The parts' vertices [m] and the part of each.
+    cross_xy : numpy.ndarray
+        Crossing and touching points of pairs of parts [m].
+    split_ci, split_pj, split_pos_m : numpy.ndarray
+        Each (candidate, other part within the tolerance) pair and the candidate's position
+        along that part [m].
+    active : numpy.ndarray of bool
+        Which candidates become nodes (all but inner vertices near no other part).
+    pair_a, pair_b : numpy.ndarray of int
+        Pairs of active candidates closer than the tolerance (positions among the active).
+    """
+
+    fingerprint: str
+    tol_m: float
+    trench_ids: np.ndarray
+    attrs: pd.DataFrame
+    owner: np.ndarray
+    xy: np.ndarray
+    cidx: np.ndarray
+    cross_xy: np.ndarray
+    split_ci: np.ndarray
+    split_pj: np.ndarray
+    split_pos_m: np.ndarray
+    active: np.ndarray
+    pair_a: np.ndarray
+    pair_b: np.ndarray
+
+    @cached_property
+    def n_parts(self) -> int:
+        """Number of simple parts."""
+        return len(self.owner)
+
+    @cached_property
+    def parts(self) -> np.ndarray:
+        """The simple parts as LineStrings (2D)."""
+        if self.n_parts == 0:
+            return np.zeros(0, dtype=object)
+        return shapely.linestrings(self.xy, indices=self.cidx)
+
+    @cached_property
+    def tree(self) -> shapely.STRtree:
+        """Spatial index of :attr:`parts`."""
+        return shapely.STRtree(self.parts)
+
+    @cached_property
+    def first(self) -> np.ndarray:
+        """Index of each part's first vertex."""
+        return _first_per(self.cidx, self.n_parts).astype(np.int64)
+
+    @cached_property
+    def last(self) -> np.ndarray:
+        """Index of each part's last vertex."""
+        return np.r_[self.first[1:], len(self.xy)][: self.n_parts].astype(np.int64) - 1
+
+    @cached_property
+    def _chainage(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Each part's length, each part's offset with the parts laid end to end 1 m apart,
+        and each vertex's position in that layout (sorted) [m]."""
+        xy, cidx = self.xy, self.cidx
+        step = np.hypot(*np.diff(xy, axis=0).T) if len(xy) else np.zeros(0)
+        step[cidx[1:] != cidx[:-1]] = 0.0
+        cum = np.r_[0.0, np.cumsum(step)]
+        chain = cum - cum[self.first][cidx]  # chainage of each vertex along its part [m]
+        part_len = chain[self.last]
+        part_off = np.r_[0.0, np.cumsum(part_len + 1.0)][:-1]
+        return part_len, part_off, part_off[cidx] + chain
+
+    @cached_property
+    def inner(self) -> np.ndarray:
+        """Mask of the vertices that are not a part's end."""
+        inner = np.ones(len(self.xy), dtype=bool)
+        inner[self.first], inner[self.last] = False, False
+        return inner
+
+    @cached_property
+    def cand_xy(self) -> np.ndarray:
+        """Every trench candidate's coordinates [m]."""
+        xy = self.xy
+        return np.concatenate([self.cross_xy, xy[self.first], xy[self.last], xy[self.inner]])
+
+
+def node_trenches(
+    trenches: gpd.GeoDataFrame,
+    node_tol_m: float = 0.1,
+    defaults: TrenchDefaults | None = None,
+    fingerprint: str | None = None,
+) -> NodedTrenches:
+    """The trench-only part of :func:`build_network` (see there for the parameters)."""
+    defaults = TrenchDefaults() if defaults is None else defaults
+    if fingerprint is None:
+        fingerprint = trench_fingerprint(trenches, node_tol_m, defaults)
+    tol = max(node_tol_m, MIN_TOL_M)
+    trench_ids = np.array(
+        [str(v) for v in trenches["id"].to_numpy(dtype=object).tolist()], dtype=object
+    )
+    geoms = np.asarray(trenches.geometry.array, dtype=object)
+    parts, owner = shapely.get_parts(geoms, return_index=True)
+    keep = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
+    parts, owner = parts[keep], owner[keep]
+    xy, cidx = shapely.get_coordinates(parts, return_index=True)
+    noded = NodedTrenches(
+        fingerprint=fingerprint,
+        tol_m=tol,
+        trench_ids=trench_ids,
+        attrs=_fill(trenches, defaults),
+        owner=owner.astype(np.int64),
+        xy=xy,
+        cidx=cidx.astype(np.int64),
+        cross_xy=np.zeros((0, 2)),
+        split_ci=np.zeros(0, dtype=np.int64),
+        split_pj=np.zeros(0, dtype=np.int64),
+        split_pos_m=np.zeros(0),
+        active=np.zeros(0, dtype=bool),
+        pair_a=np.zeros(0, dtype=np.int64),
+        pair_b=np.zeros(0, dtype=np.int64),
+    )
+    parts, tree = noded.parts, noded.tree
+    first, last = noded.first, noded.last
+
+    # candidate nodes: crossings (0), ends (1), vertices (2); which other parts each splits
+    ii, jj = tree.query(parts, predicate="intersects")
+    pair = ii < jj
+    cross_xy = _crossings(parts, xy, first, last, ii[pair], jj[pair])
+    n_cross, n_parts = len(cross_xy), len(parts)
+    cand_xy = np.concatenate([cross_xy, xy[first], xy[last], xy[noded.inner]])
+    cand_part = np.concatenate(
+        [np.full(n_cross, -1), np.arange(n_parts), np.arange(n_parts), cidx[noded.inner]]
+    )
+    cand_pts = shapely.points(cand_xy)
+    ci, pj = tree.query(cand_pts, predicate="dwithin", distance=tol)
+    other = cand_part[ci] != pj
+    ci, pj = ci[other], pj[other]
+    active = np.ones(len(cand_xy), dtype=bool)
+    active[n_cross + 2 * n_parts :] = False
+    active[ci] = True
+    act = np.flatnonzero(active)
+    a, b = _close_pairs(cand_pts[act], cand_xy[act], tol)
+    return dataclasses.replace(
+        noded,
+        cross_xy=cross_xy,
+        split_ci=ci.astype(np.int64),
+        split_pj=pj.astype(np.int64),
+        split_pos_m=shapely.line_locate_point(parts[pj], cand_pts[ci]),
+        active=active,
+        pair_a=a,
+        pair_b=b,
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class NetworkMemo:
+    """What one network build hands to the next (kept in the plan cache, :mod:`routeplan.cache`):
+    the trenches noded (:class:`NodedTrenches`) and each equipment feature's nearest part and
+    distance. :func:`build_network` takes from it only what its own input makes valid — the
+    noding when the trenches' fingerprint is the same; a feature's nearest part when, besides,
+    ``snap_m`` is the same and the feature (same layer and id) has exactly the same geometry
+    (:func:`shapely.equals_exact`, tolerance 0) — so a build with a memo gives the same
+    network as one without.
+
+    Attributes
+    ----------
+    noded : NodedTrenches
+    snap_m : float
+        The ``snap_m`` [m] the nearest parts were searched with.
+    equipment : geopandas.GeoDataFrame
+        ``layer``, ``feature_id``, ``part`` (nearest part, -1: none within reach of the
+        search), ``distance_m`` (inf: none) and the feature's ``geometry``.
+    """
+
+    noded: NodedTrenches
+    snap_m: float
+    equipment: gpd.GeoDataFrame
+
+    def nearest(self, equipment: gpd.GeoDataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """For each feature of ``equipment``: whether it is remembered, its nearest part and
+        the distance [m] (-1 and inf where not)."""
+        n = len(equipment)
+        old = self.equipment
+        keys = _feature_keys(equipment)
+        if len(old) == n and np.array_equal(keys, _feature_keys(old)):
+            pos = np.arange(n)
+        else:
+            pos = pd.Index(_feature_keys(old)).get_indexer(keys)
+        known = pos >= 0
+        new_g = np.asarray(equipment.geometry.array, dtype=object)[known]
+        old_g = np.asarray(old.geometry.array, dtype=object)[pos[known]]
+        known[known] = shapely.equals_exact(new_g, old_g, tolerance=0)
+        part, dist = np.full(n, -1, dtype=np.int64), np.full(n, np.inf)
+        part[known] = old["part"].to_numpy(np.int64)[pos[known]]
+        dist[known] = old["distance_m"].to_numpy(float)[pos[known]]
+        return known, part, dist
+
+
+def _feature_keys(equipment: pd.DataFrame) -> np.ndarray:
+    """``layer/feature_id`` of each feature (ids are text, validated unique per layer)."""
+    layer = equipment["layer"].to_numpy(dtype=object).astype(str)
+    fid = equipment["feature_id"].to_numpy(dtype=object).astype(str)
+    return np.strings.add(np.strings.add(layer, "\x00"), fid).astype(object)
+
+
 @paused_gc()
 def build_network(
     trenches: gpd.GeoDataFrame,
@@ -330,6 +587,7 @@ def build_network(
     node_tol_m: float = 0.1,
     snap_m: float = 30.0,
     defaults: TrenchDefaults | None = None,
+    memo: NetworkMemo | None = None,
 ) -> TrenchNetwork:
     """Node the trench corridors into segments and tap the equipment onto them.
 
@@ -347,6 +605,8 @@ def build_network(
         Longest stub [m]; farther equipment is left unconnected (see :func:`far_problems`).
     defaults : TrenchDefaults, optional
         Values for trench attributes not given.
+    memo : NetworkMemo, optional
+        The last build's :attr:`TrenchNetwork.memo`: what of it is still valid is reused.
 
     Returns
     -------
@@ -369,28 +629,15 @@ def build_network(
         raise ParameterError([Problem("params", "node_tol_m", f"must be >= 0 m, got {node_tol_m}")])
     if not snap_m >= 0:
         raise ParameterError([Problem("params", "snap_m", f"must be >= 0 m, got {snap_m}")])
-    tol = max(node_tol_m, MIN_TOL_M)
-    attrs = _fill(trenches, defaults)
-    trench_ids = np.array(
-        [str(v) for v in trenches["id"].to_numpy(dtype=object).tolist()], dtype=object
-    )
-
-    # --- simple parts of every trench, their vertices and chainage
-    geoms = np.asarray(trenches.geometry.array, dtype=object)
-    parts, owner = shapely.get_parts(geoms, return_index=True)
-    keep = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
-    parts, owner = parts[keep], owner[keep]
-    n_parts = len(parts)
-    xy, cidx = shapely.get_coordinates(parts, return_index=True)
-    step = np.hypot(*np.diff(xy, axis=0).T) if len(xy) else np.zeros(0)
-    step[cidx[1:] != cidx[:-1]] = 0.0
-    cum = np.r_[0.0, np.cumsum(step)]
-    first = _first_per(cidx, n_parts).astype(np.int64)
-    last = np.r_[first[1:], len(xy)][:n_parts].astype(np.int64) - 1
-    chain = cum - cum[first][cidx]  # chainage of each vertex along its part [m]
-    part_len = chain[last]
-    part_off = np.r_[0.0, np.cumsum(part_len + 1.0)][:-1]  # parts laid end to end, 1 m apart
-    gkey = part_off[cidx] + chain  # sorted: global position of each vertex
+    fingerprint = trench_fingerprint(trenches, node_tol_m, defaults)
+    if memo is not None and memo.noded.fingerprint == fingerprint:
+        noded = memo.noded
+    else:
+        noded, memo = node_trenches(trenches, node_tol_m, defaults, fingerprint), None
+    tol = noded.tol_m
+    xy, owner, trench_ids = noded.xy, noded.owner, noded.trench_ids
+    parts, n_parts = noded.parts, noded.n_parts
+    part_len, part_off, gkey = noded._chainage
 
     # --- equipment: nearest part, distance, tap point
     equipment = _empty_equipment(trenches.crs) if equipment is None else equipment
@@ -398,73 +645,62 @@ def build_network(
     n_eq = len(eq_geoms)
     eq_part = np.full(n_eq, -1, dtype=np.int64)
     eq_dist = np.full(n_eq, np.inf)
-    tree = shapely.STRtree(parts)
-    if n_eq and n_parts:
+    todo = np.arange(n_eq)
+    if memo is not None and memo.snap_m == snap_m and n_eq:
+        known, eq_part, eq_dist = memo.nearest(equipment)
+        todo = np.flatnonzero(~known)
+    if len(todo) and n_parts:
         # growing radii up to snap_m (a feature with a part within r has its nearest among
         # the parts within r; small radii meet few candidates), then the far ones without a
         # limit, for their distance
-        todo = np.arange(n_eq)
         for radius in [r for r in _NEAREST_RADII_M if r < snap_m] + [max(snap_m, MIN_TOL_M)]:
-            _nearest(tree, eq_geoms[todo], todo, radius, eq_part, eq_dist)
+            _nearest(noded.tree, eq_geoms[todo], todo, radius, eq_part, eq_dist)
             todo = todo[eq_part[todo] < 0]
-        _nearest(tree, eq_geoms[todo], todo, None, eq_part, eq_dist)
+        _nearest(noded.tree, eq_geoms[todo], todo, None, eq_part, eq_dist)
     connected = (eq_part >= 0) & (eq_dist <= snap_m)
     ceq = np.flatnonzero(connected)
     sl = shapely.shortest_line(eq_geoms[ceq], parts[eq_part[ceq]])
     sl_xy = shapely.get_coordinates(sl).reshape(-1, 2, 2)  # shortest lines have 2 points
     eq_near, tap_xy = sl_xy[:, 0], sl_xy[:, 1]
+    tap_pts = shapely.points(tap_xy)
 
-    # --- candidate nodes: crossings (0), ends (1), vertices (2), taps (3)
-    ii, jj = tree.query(parts, predicate="intersects")
-    pair = ii < jj
-    cross_xy = _crossings(parts, xy, first, last, ii[pair], jj[pair])
-    inner = np.ones(len(xy), dtype=bool)
-    inner[first], inner[last] = False, False
-    cand_xy = np.concatenate([cross_xy, xy[first], xy[last], xy[inner], tap_xy])
-    n_cross, n_ends, n_inner = len(cross_xy), 2 * n_parts, int(inner.sum())
-    kind = np.repeat([0, 1, 2, 3], [n_cross, n_ends, n_inner, len(ceq)])
-    cand_part = np.concatenate(
-        [np.full(n_cross, -1), np.arange(n_parts), np.arange(n_parts), cidx[inner], eq_part[ceq]]
-    )
-    cand_pts = shapely.points(cand_xy)
-
-    # which parts each candidate splits (taps split only their own part: added below)
-    q = np.flatnonzero(kind < 3)
-    ci, pj = tree.query(cand_pts[q], predicate="dwithin", distance=tol)
-    ci = q[ci]
-    own = cand_part[ci] == pj
-    ci, pj = ci[~own], pj[~own]
-    active = kind != 2
-    active[ci] = True
-    act = np.flatnonzero(active)
-
-    # --- cluster active candidates closer than tol into nodes
-    a, b = _close_pairs(cand_pts[act], cand_xy[act], tol)
-    m = len(act)
+    # --- cluster the active candidates (trench candidates, then taps) closer than tol
+    t_act = np.flatnonzero(noded.active)
+    n_ta = len(t_act)
+    a, b = _tap_pairs(noded.cand_xy[t_act], tap_xy, tap_pts, tol)
+    a, b = np.r_[noded.pair_a, a], np.r_[noded.pair_b, b]
+    m = n_ta + len(ceq)
     adj = sparse.coo_matrix((np.ones(len(a), dtype=np.int8), (a, b)), shape=(m, m))
     _, label = csgraph.connected_components(adj, directed=False)
     _, rep = np.unique(label, return_index=True)  # first member of each cluster
     order = np.argsort(rep, kind="stable")  # number nodes by their first member
     node_of_label = np.empty(len(rep), dtype=np.int64)
     node_of_label[order] = np.arange(len(rep))
-    node_xy = cand_xy[act[rep[order]]]
-    cand_node = np.full(len(cand_xy), -1, dtype=np.int64)
-    cand_node[act] = node_of_label[label]
+    act_xy = np.concatenate([noded.cand_xy[t_act], tap_xy])
+    node_xy = act_xy[rep[order]]
+    cand_node = np.full(len(noded.cand_xy), -1, dtype=np.int64)
+    cand_node[t_act] = node_of_label[label[:n_ta]]
+    tap_node = node_of_label[label[n_ta:]]
 
     # --- split points of every part: its ends, the candidates near it, its taps
-    ends0 = n_cross + np.arange(n_parts)
-    ends1 = n_cross + n_parts + np.arange(n_parts)
-    taps = n_cross + n_ends + n_inner + np.arange(len(ceq))
-    e_part = np.concatenate([np.arange(n_parts), np.arange(n_parts), pj, eq_part[ceq]])
+    n_cross = len(noded.cross_xy)
+    e_part = np.concatenate([np.arange(n_parts), np.arange(n_parts), noded.split_pj, eq_part[ceq]])
     e_pos = np.concatenate(
         [
             np.zeros(n_parts),
             part_len,
-            shapely.line_locate_point(parts[pj], cand_pts[ci]),
-            shapely.line_locate_point(parts[eq_part[ceq]], cand_pts[taps]),
+            noded.split_pos_m,
+            shapely.line_locate_point(parts[eq_part[ceq]], tap_pts),
         ]
     )
-    e_node = cand_node[np.concatenate([ends0, ends1, ci, taps])]
+    e_node = np.concatenate(
+        [
+            cand_node[n_cross + np.arange(n_parts)],
+            cand_node[n_cross + n_parts + np.arange(n_parts)],
+            cand_node[noded.split_ci],
+            tap_node,
+        ]
+    )
     order = np.lexsort((e_node, e_pos, e_part))
     e_part, e_pos, e_node = e_part[order], e_pos[order], e_node[order]
 
@@ -498,7 +734,7 @@ def build_network(
             "start_m": p_a,
             "end_m": p_b,
             "length_m": shapely.length(seg_geom),
-            **{name: attrs[name].to_numpy()[p_owner] for name in TRENCH_ATTRIBUTES},
+            **{name: noded.attrs[name].to_numpy()[p_owner] for name in TRENCH_ATTRIBUTES},
         },
         geometry=seg_geom,
         crs=trenches.crs,
@@ -506,7 +742,7 @@ def build_network(
 
     # --- taps
     eq_node = np.full(n_eq, -1, dtype=np.int64)
-    eq_node[ceq] = cand_node[taps]
+    eq_node[ceq] = tap_node
     stubs = np.full(n_eq, None, dtype=object)
     stubs[ceq] = shapely.linestrings(
         np.stack([eq_near, node_xy[eq_node[ceq]]], axis=1).reshape(-1, 2),
@@ -544,7 +780,39 @@ def build_network(
         node_tol_m=float(node_tol_m),
         snap_m=float(snap_m),
         _index=index,
+        memo=NetworkMemo(
+            noded=noded,
+            snap_m=float(snap_m),
+            equipment=gpd.GeoDataFrame(
+                {
+                    "layer": equipment["layer"].to_numpy(dtype=object),
+                    "feature_id": equipment["feature_id"].to_numpy(dtype=object),
+                    "part": eq_part,
+                    "distance_m": eq_dist,
+                },
+                geometry=eq_geoms,
+                crs=trenches.crs,
+            ),
+        ),
     )
+
+
+def _tap_pairs(
+    t_xy: np.ndarray, tap_xy: np.ndarray, tap_pts: np.ndarray, tol: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """Pairs closer than ``tol`` that involve a tap, as positions in the active candidates
+    (``len(t_xy)`` trench candidates, then the taps): tap–trench and tap–tap, decided as
+    :func:`_close_pairs` decides them."""
+    n_t = len(t_xy)
+    a_tt, b_tt = _close_pairs(tap_pts, tap_xy, tol)
+    if len(tap_xy) == 0 or n_t == 0:
+        return a_tt + n_t, b_tt + n_t
+    near = cKDTree(tap_xy).sparse_distance_matrix(
+        cKDTree(t_xy), tol * (1 + 1e-6) + 1e-9, output_type="ndarray"
+    )
+    i, j = near["i"].astype(np.int64), near["j"].astype(np.int64)
+    ok = shapely.dwithin(shapely.points(t_xy[j]), tap_pts[i], tol)
+    return np.r_[j[ok], a_tt + n_t], np.r_[i[ok] + n_t, b_tt + n_t]
 
 
 def _nearest(

@@ -287,11 +287,17 @@ def plan_site(
         route_key = digest("route", cache.keys["site"], repr(params))
         routes = cache.get("route", route_key)
     if routes is None:
-        routes = route_site(site, params)
+        memo = cache.latest("noding") if cache is not None else None
+        routes = route_site(site, params, memo=memo)
         for k, v in routes.timings_s.items():
             t[f"route.{k}"] = v
         if cache is not None:
             cache.put("route", route_key, routes)
+            new_memo = routes.network.memo
+            cache.reused["noding"] = memo is not None and new_memo.noded is memo.noded
+            cache.put("noding", digest("noding", route_key), new_memo)
+    elif cache is not None:
+        cache.carry("noding")
     t["route"] = time.perf_counter() - t0
     say("size")
     t0 = time.perf_counter()

@@ -44,6 +44,7 @@ from routeplan.errors import (
 from routeplan.network import (
     EQUIPMENT_LAYERS,
     TRENCH_ATTRIBUTES,
+    NetworkMemo,
     TrenchDefaults,
     TrenchNetwork,
     build_network,
@@ -511,8 +512,9 @@ class _Prepared:
     timings_s: dict[str, float]
 
 
-def _prepare(site: Site, params: RouteParams) -> _Prepared:
-    """Network, destinations and circuits of ``site``, and every problem found on the way."""
+def _prepare(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -> _Prepared:
+    """Network, destinations and circuits of ``site``, and every problem found on the way
+    (``memo``: see :func:`routeplan.network.build_network`)."""
     timings: dict[str, float] = {}
     found: list[tuple[type[RoutingError], Problem]] = [
         (RoutingError, p) for p in check_metric_crs(site.crs)
@@ -526,6 +528,7 @@ def _prepare(site: Site, params: RouteParams) -> _Prepared:
         node_tol_m=params.node_tol_m,
         snap_m=params.snap_m,
         defaults=params.trench,
+        memo=memo,
     )
     timings["network"] = time.perf_counter() - t
     found += [(NotConnectedError, p) for p in far_problems(network)]
@@ -649,7 +652,9 @@ def assignment_check(
 
 
 @paused_gc()
-def route_site(site: Site, params: RouteParams | None = None) -> RoutePlan:
+def route_site(
+    site: Site, params: RouteParams | None = None, memo: NetworkMemo | None = None
+) -> RoutePlan:
     """Route every circuit of ``site`` along its trenches.
 
     Parameters
@@ -658,6 +663,9 @@ def route_site(site: Site, params: RouteParams | None = None) -> RoutePlan:
         Validated site in a projected metric CRS.
     params : RouteParams, optional
         Defaults when not given.
+    memo : routeplan.network.NetworkMemo, optional
+        The last run's ``network.memo``: the noding and taps it still holds good for are
+        reused (the result is the same as without it).
 
     Returns
     -------
@@ -677,7 +685,7 @@ def route_site(site: Site, params: RouteParams | None = None) -> RoutePlan:
     :func:`row_length_m`) and 0 for the others.
     """
     params = RouteParams() if params is None else params
-    prep = _prepare(site, params)
+    prep = _prepare(site, params, memo)
     raise_for(prep.problems)
     network, circuits = prep.network, prep.circuits
     timings = dict(prep.timings_s)

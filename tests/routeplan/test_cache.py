@@ -176,7 +176,13 @@ def gen(generated, tmp_path) -> Path:
 def test_unchanged_inputs_reuse_every_stage_and_the_files(demo, tmp_path):
     out = tmp_path / "out"
     first = run(demo, out)
-    assert first.reused == {"site": False, "route": False, "size": False, "outputs": False}
+    assert first.reused == {
+        "site": False,
+        "route": False,
+        "noding": False,
+        "size": False,
+        "outputs": False,
+    }
     before = {n: (out / n).read_bytes() for n in CSVS}
     again = run(demo, out)
     assert again.reused == {"site": True, "route": True, "size": True, "outputs": True}
@@ -190,6 +196,7 @@ def test_demo_pad_move(demo, tmp_path):
     move_demo_pad(demo)
     reused = warm_equals_cold(demo, out, tmp_path, "pad")
     assert not reused["site"] and not reused["route"] and not reused["outputs"]
+    assert reused["noding"]  # the trenches did not change: their noding is reused
 
 
 @pytest.mark.parametrize("edit", ["depth", "vertex"])
@@ -202,14 +209,15 @@ def test_demo_trench_edit(demo, tmp_path, edit):
         edit_demo_trench(demo, nudge=0.8)
     reused = warm_equals_cold(demo, out, tmp_path, edit)
     assert not reused["site"] and not reused["route"] and not reused["size"]
+    assert not reused["noding"]
 
 
 @pytest.mark.parametrize(
     ("table", "key", "value", "keeps"),
     [
         ("design.drop_pct", "string", 0.7, {"site", "route"}),  # sizing only
-        ("design", "soil_k_m_w", 2.0, {"site"}),  # a trench default: routing too
-        ("allowances", "slack_pct", 5.0, {"site"}),
+        ("design", "soil_k_m_w", 2.0, {"site"}),  # a trench default: routing and noding too
+        ("allowances", "slack_pct", 5.0, {"site", "noding"}),
     ],
 )
 def test_demo_config_change(demo, tmp_path, table, key, value, keeps):
@@ -224,17 +232,20 @@ def test_generated_site_pad_move_trench_edit_and_config_change(gen, tmp_path):
     out = tmp_path / "out"
     run(gen, out)
     move_gpkg_pad(gen)
-    assert not warm_equals_cold(gen, out, tmp_path, "pad")["site"]
+    reused = warm_equals_cold(gen, out, tmp_path, "pad")
+    assert not reused["site"] and reused["noding"]
     edit_gpkg_trench(gen, depth=0.9)
-    assert not warm_equals_cold(gen, out, tmp_path, "depth")["route"]
+    reused = warm_equals_cold(gen, out, tmp_path, "depth")
+    assert not reused["route"] and not reused["noding"]
     edit_gpkg_trench(gen, nudge=0.5)
-    assert not warm_equals_cold(gen, out, tmp_path, "vertex")["route"]
+    reused = warm_equals_cold(gen, out, tmp_path, "vertex")
+    assert not reused["route"] and not reused["noding"]
     set_config(gen, "design.drop_pct", "array", 1.1)
     reused = warm_equals_cold(gen, out, tmp_path, "drop")
     assert reused["site"] and reused["route"] and not reused["size"]
     set_config(gen, "design", "soil_k_m_w", 1.8)
     reused = warm_equals_cold(gen, out, tmp_path, "soil")
-    assert reused["site"] and not reused["route"]
+    assert reused["site"] and not reused["route"] and not reused["noding"]
 
 
 def test_an_edit_rewrites_only_the_rows_it_touches(gen, tmp_path):
@@ -337,7 +348,8 @@ def test_the_command_says_what_an_edit_reused(demo, tmp_path):
     again = runner.invoke(app, ["plan", str(demo), "--out", str(out)])
     assert again.exit_code in (0, 1), again.output
     line = next(t for t in again.output.splitlines() if t.startswith("cache:"))
-    assert line.startswith("cache: reused no stage (inputs changed); outputs updated: ")
+    # the trenches did not change: their noding is reused
+    assert line.startswith("cache: reused trench noding; outputs updated: ")
     assert "GeoPackage rows rewritten" in line
 
 
@@ -346,7 +358,7 @@ def test_the_command_says_what_an_edit_reused(demo, tmp_path):
 
 def test_entries_round_trip_exactly_without_pickle(tmp_path):
     p = plan(DEMO)
-    for value in (p.site, p.routes, p.sizing):
+    for value in (p.site, p.routes, p.sizing, p.routes.network.memo):
         data = dumps(value)
         with np.load(__import__("io").BytesIO(data), allow_pickle=False) as z:
             assert all(z[k].dtype != object for k in z.files)
@@ -372,7 +384,10 @@ def _assert_same(a, b) -> None:
             np.testing.assert_array_equal(a, b)
     elif dataclasses.is_dataclass(a):
         for f in dataclasses.fields(a):
-            _assert_same(getattr(a, f.name), getattr(b, f.name))
+            if f.metadata.get("transient"):  # not stored: back to its default
+                assert getattr(b, f.name) == f.default
+            else:
+                _assert_same(getattr(a, f.name), getattr(b, f.name))
     elif isinstance(a, dict):
         assert list(a) == list(b)
         for k in a:
@@ -421,14 +436,17 @@ def test_a_plan_saved_twice_and_its_staging_folder(demo, tmp_path):
     write_plan(p, tmp_path / "again")
     for folder in (out, tmp_path / "again"):
         entries = json.loads((folder / CACHE_DIR / MANIFEST).read_text())["entries"]
-        assert set(entries) == {"site", "route", "size"}
-    # the same plan planned again from either folder reuses every stage
+        assert set(entries) == {"site", "route", "noding", "size"}
+    # the same plan planned again from either folder reuses every stage …
     assert run(demo, tmp_path / "again").reused == {
         "site": True,
         "route": True,
         "size": True,
         "outputs": True,
     }
+    # … and keeps the memo it did not need, for a later edit
+    entries = json.loads((tmp_path / "again" / CACHE_DIR / MANIFEST).read_text())["entries"]
+    assert set(entries) == {"site", "route", "noding", "size"}
     del p
     gc.collect()
     assert not staging[0].exists()

@@ -329,3 +329,70 @@ def test_islands_match_networkx(geoms):
     i, j = tree.query(merged, predicate="intersects")
     groups.add_edges_from(zip(i.tolist(), j.tolist(), strict=True))
     assert nx.number_connected_components(groups) == len(set(net.node_island.tolist()))
+
+
+# ---- the memo a build hands to the next (re-planning) ---------------------------------------
+
+
+def assert_same_network(a, b) -> None:
+    """Two networks are the same: nodes, segments, taps and stubs, value for value."""
+    np.testing.assert_array_equal(a.node_xy, b.node_xy)
+    for x, y in ((a.segments, b.segments), (a.taps, b.taps)):
+        assert list(x.columns) == list(y.columns)
+        for col in x.columns:
+            if col == "geometry":
+                gx, gy = np.asarray(x.geometry.array), np.asarray(y.geometry.array)
+                assert (shapely.is_missing(gx) == shapely.is_missing(gy)).all()
+                have = ~shapely.is_missing(gx)
+                assert shapely.equals_exact(gx[have], gy[have], tolerance=0).all()
+            else:
+                np.testing.assert_array_equal(x[col].to_numpy(), y[col].to_numpy())
+    assert a._index == b._index
+
+
+@st.composite
+def equipment_near(draw, n_max: int = 12):
+    """Points near a 0..85 m lattice; some exactly on lattice lines, some on top of each
+    other (so taps join trench candidates and each other within the tolerance)."""
+    items = []
+    for i in range(draw(st.integers(0, n_max))):
+        x = draw(st.sampled_from([0.0, 10.0, 20.0, 33.3, 40.0, 50.05, 60.0, 70.02]))
+        y = draw(st.sampled_from([0.0, 2.0, 10.0, 19.95, 30.0, 45.0, 60.04, 80.0]))
+        layer = draw(st.sampled_from(["rows", "combiners", "inverters"]))
+        items.append((layer, f"E{i}", pt(x, y)))
+    return items
+
+
+def build(geoms, items, memo=None, **kw):
+    return build_network(trenches(*geoms), equipment(*items), memo=memo, **kw)
+
+
+@settings(max_examples=60, deadline=None)
+@given(grid_trenches(), equipment_near(), equipment_near(), st.data())
+def test_a_build_with_the_last_builds_memo_equals_a_cold_build(geoms, before, after, data):
+    # hand: the memo only skips work; what it must give is the cold build's network
+    last = build(geoms, before)
+    moved = before[: len(before) // 2] + after  # some features kept, some new or moved
+    assert_same_network(build(geoms, moved, last.memo), build(geoms, moved))
+    # other trenches (one dropped): the memo's noding is not taken
+    if len(geoms) > 1:
+        fewer = geoms[:-1]
+        assert_same_network(build(fewer, moved, last.memo), build(fewer, moved))
+    # another snap distance: the remembered nearest parts are not taken
+    snap = data.draw(st.sampled_from([0.5, 5.0]))
+    assert_same_network(
+        build(geoms, moved, last.memo, snap_m=snap), build(geoms, moved, snap_m=snap)
+    )
+
+
+def test_the_memo_takes_a_features_nearest_part_only_for_the_same_geometry():
+    geoms = [line((0, 0), (100, 0)), line((0, 20), (100, 20))]
+    last = build(geoms, [("inverters", "P1", pt(50, 4)), ("combiners", "C1", pt(10, 1))])
+    # P1 moved nearer the other trench; C1 unchanged
+    items = [("inverters", "P1", pt(50, 16)), ("combiners", "C1", pt(10, 1))]
+    known, part, _ = last.memo.nearest(equipment(*items))
+    assert part[1] == 0  # C1: part 0 (T1)
+    assert known.tolist() == [False, True]
+    net = build(geoms, items, last.memo)
+    assert net.taps["trench_id"].tolist() == ["T2", "T1"]  # hand: 4 m from T2, 1 m from T1
+    assert_same_network(net, build(geoms, items))
