@@ -613,6 +613,10 @@ class PlanCache:
         except OSError:
             return None
 
+    def recorded_digest(self, name: str) -> str | None:
+        """The SHA-256 the last run recorded for its output file ``name``."""
+        return self._outputs().get("files", {}).get(name)
+
     def outputs_reusable(self, key: str, names: Iterable[str]) -> dict[str, Path]:
         """Output files of the last run that may be reused as they are: same outputs key and
         unchanged bytes (SHA-256 as recorded). Empty unless every one of ``names`` qualifies."""
@@ -633,10 +637,17 @@ class PlanCache:
         target.mkdir(parents=True, exist_ok=True)
         _dump_entry(value, target / f"{name}.npz")
 
-    def save(self, new_out: Path, outputs_key: str | None, outputs: Iterable[str]) -> None:
+    def save(
+        self,
+        new_out: Path,
+        outputs_key: str | None,
+        outputs: Iterable[str],
+        digests: dict[str, str | None] | None = None,
+    ) -> None:
         """Write the manifest and the stage entries into ``new_out/.routeplan-cache`` (a folder
-        about to replace the output folder), with the output files ``outputs`` (their SHA-256)
-        and the writers' records beside them (:meth:`save_aux`). New entries come from
+        about to replace the output folder), with the output files ``outputs`` (their SHA-256:
+        from ``digests`` where the writers give it, else read) and the writers' records beside
+        them (:meth:`save_aux`). New entries come from
         the staging folder (hard-linked: the plan can be saved again; the staging folder goes
         with this object; values that cannot be stored exactly are left out); entries that
         were reused are hard-linked from the old folder when possible."""
@@ -650,7 +661,7 @@ class PlanCache:
                 src = self._staging_dir() / name
                 if not src.is_file():  # not storable
                     continue
-                sha = file_sha256(src)
+                sha = _entry_digest(src)
                 link_or_copy(src, target / name)
             elif self.reused.get(stage) or stage in self._carried:
                 old = self._manifest["entries"][stage]
@@ -659,9 +670,10 @@ class PlanCache:
             else:
                 continue
             entries[stage] = {"key": key, "file": name, "sha256": sha}
-        files = {n: file_sha256(Path(new_out) / n) for n in outputs}
+        known = digests or {}
+        files = {n: known.get(n) or file_sha256(Path(new_out) / n) for n in outputs}
         aux = {
-            p.stem: {"file": p.name, "sha256": file_sha256(p)}
+            p.stem: {"file": p.name, "sha256": _entry_digest(p)}
             for p in sorted(target.glob("*.npz"))
             if p.stem in AUX
         }
@@ -679,14 +691,25 @@ def _entry_name(stage: str, key: str) -> str:
 
 
 def _dump_entry(value: Any, path: Path) -> None:
-    """Pack ``value`` into ``path`` (nothing when it cannot be stored exactly)."""
+    """Pack ``value`` into ``path`` (nothing when it cannot be stored exactly), its SHA-256
+    beside it (``<name>.sha256``: the packing child hashes, not the saving parent)."""
     try:
         data = dumps(value)
     except UncacheableError:
         return
     tmp = path.with_name(path.name + ".part")
     tmp.write_bytes(data)
+    path.with_name(path.name + ".sha256").write_text(hashlib.sha256(data).hexdigest())
     os.replace(tmp, path)
+
+
+def _entry_digest(path: Path) -> str:
+    """SHA-256 of a packed entry: from its side file when there is one (see _dump_entry)."""
+    side = path.with_name(path.name + ".sha256")
+    try:
+        return side.read_text().strip()
+    except OSError:
+        return file_sha256(path)
 
 
 def _discard(staging: Path, jobs: dict[str, parallel.Job]) -> None:

@@ -9,6 +9,7 @@ never leaves a half-written folder.
 
 from __future__ import annotations
 
+import hashlib
 import json
 import shutil
 import tempfile
@@ -21,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from .. import CAUTION, parallel
-from ..cache import AUX, CACHE_DIR, STAGES, digest, input_files, link_or_copy
+from ..cache import AUX, CACHE_DIR, STAGES, digest, file_sha256, input_files, link_or_copy
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
@@ -115,10 +116,12 @@ def write_plan(
         cache = plan.cache
         key = _outputs_key(plan, map_options)
         old = cache.outputs_reusable(key, FILES) if cache is not None and key else {}
+        digests: dict[str, str] = {}  # SHA-256 of the output files, where already known
         if old:
             t0 = time.perf_counter()
             for name, path in old.items():
                 link_or_copy(path, tmp / name)
+                digests[name] = cache.recorded_digest(name)
             (tmp / CACHE_DIR).mkdir(exist_ok=True)
             for name in AUX:
                 aux = cache.output_aux_file(name)
@@ -126,12 +129,12 @@ def write_plan(
                     link_or_copy(aux, tmp / CACHE_DIR / aux.name)
             t["reused_outputs"] = time.perf_counter() - t0
         else:
-            _write_files(plan, tmp, map_options, say, t, jobs)
+            digests = _write_files(plan, tmp, map_options, say, t, jobs)
         if cache is not None:
             say("save cache")
             t0 = time.perf_counter()
             cache.reused["outputs"] = bool(old)
-            cache.save(tmp, key, FILES)
+            cache.save(tmp, key, FILES, digests)
             t["cache_save"] = time.perf_counter() - t0
         _replace(tmp, out_dir)
     except BaseException:
@@ -171,10 +174,11 @@ def _write_files(
     say: Callable[[str], None],
     t: dict[str, float],
     jobs: list[parallel.Job],
-) -> None:
+) -> dict[str, str]:
     """Write every output file of ``plan`` into the folder ``tmp`` (the map in a child process
     when it can, added to ``jobs``), with the writers' records for the next run
-    (:mod:`routeplan.outputs.reuse`) when the plan has a cache."""
+    (:mod:`routeplan.outputs.reuse`) when the plan has a cache. Returns the files' SHA-256
+    (with a cache: taken while the map is still being drawn)."""
     cache = plan.cache
     last = cache.output_aux("index") if cache is not None else None
     last = last if isinstance(last, dict) else {}
@@ -220,6 +224,11 @@ def _write_files(
     (tmp / "summary.json").write_text(
         json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
     )
+    digests: dict[str, str] = {}
+    if cache is not None:  # while the map is drawn
+        t0 = time.perf_counter()
+        digests = {n: file_sha256(tmp / n) for n in FILES if n != "map.html"}
+        t["file digests"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     job.wait()
     t["map (wait)"] = time.perf_counter() - t0
@@ -227,6 +236,8 @@ def _write_files(
     try:
         stats = json.loads(stats_file.read_text(encoding="utf-8"))
         t["map"], reused = float(stats["seconds"]), int(stats["reused_tiles"])
+        if cache is not None:
+            digests["map.html"] = str(stats["sha256"])
     except (OSError, ValueError, KeyError, TypeError):
         reused = -1
     stats_file.unlink(missing_ok=True)
@@ -237,6 +248,7 @@ def _write_files(
             **{f"{name} chunks copied": n for name, n in copied.items()},
             "map.html tiles reused": reused,
         }
+    return digests
 
 
 def _gpkg_layers(
@@ -280,10 +292,15 @@ def _write_map(
         hashes={name: layer.hashes for name, layer in layers.items()},
         **(map_options or {}),
     )
-    (tmp / "map.html").write_text(html, encoding="utf-8")
+    data = html.encode("utf-8")
+    (tmp / "map.html").write_bytes(data)
     if cache is not None:
         cache.save_aux(tmp, "map", memo.export())
-    stats = {"seconds": time.perf_counter() - t0, "reused_tiles": memo.reused_tiles}
+    stats = {
+        "seconds": time.perf_counter() - t0,
+        "reused_tiles": memo.reused_tiles,
+        "sha256": hashlib.sha256(data).hexdigest(),
+    }
     (tmp / _MAP_STATS).write_text(json.dumps(stats), encoding="utf-8")
 
 
