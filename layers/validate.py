@@ -15,6 +15,7 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 import shapely
+from numpy.dtypes import StringDType
 
 from .crs import choose_working_crs, parse_crs
 from .errors import Problem, SiteError
@@ -257,6 +258,13 @@ def _labeller(frame: pd.DataFrame):
     return label
 
 
+def _id_texts(values: np.ndarray) -> np.ndarray:
+    """:func:`_id_text` of every value (object array; vectorised when all are text)."""
+    if all(type(v) is str for v in values.tolist()):
+        return np.strings.strip(values.astype(StringDType())).astype(object)
+    return np.array([_id_text(v) for v in values.tolist()] + [""], dtype=object)[:-1]
+
+
 def _id_text(v: Any) -> str:
     if v is None or (isinstance(v, float) and math.isnan(v)):
         return ""
@@ -333,10 +341,9 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
     problems: list[Problem] = []
     n = len(frame)
     if "id" in frame.columns:
-        ids = [_id_text(v) for v in frame["id"].tolist()]
-        for i, s in enumerate(ids):
-            if not s:
-                problems.append(Problem(name, f"#{i + 1}", "missing or empty id"))
+        ids = _id_texts(frame["id"].to_numpy(dtype=object))
+        for i in np.flatnonzero(ids == "").tolist():
+            problems.append(Problem(name, f"#{i + 1}", "missing or empty id"))
         frame["id"] = pd.Series(ids, index=frame.index, dtype=object)
     for fld in FIELDS[name]:
         if fld.name not in frame.columns:
@@ -359,28 +366,37 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
     return frame, problems
 
 
-def _parse_column(fld: Field, col: pd.Series) -> tuple[list[Any], list[tuple[int, str]]]:
+def _parse_column(fld: Field, col: pd.Series) -> tuple[np.ndarray, list[tuple[int, str]]]:
     """:func:`_parse_value` of every value of ``col``: (typed values, [(position, message)]).
 
-    Each distinct value (of one type) is parsed once: a column holds few distinct values.
+    Each distinct value (of one type: 1, 1.0 and "1" are three) is parsed once: a column holds
+    few distinct values.
     """
-    memo: dict[Any, tuple[Any, str]] = {}
-    out: list[Any] = []
-    bad: list[tuple[int, str]] = []
-    for i, v in enumerate(col.tolist()):
-        key = (type(v), "nan" if v != v else v) if type(v) is float else (type(v), v)
-        try:
-            hit = memo.get(key)
-        except TypeError:  # unhashable, or a value that refuses comparison (pd.NA)
-            key, hit = None, None
-        if hit is None:
-            hit = _parse_value(fld, v)
-            if key is not None:
-                memo[key] = hit
-        if hit[1]:
-            bad.append((i, hit[1]))
-        out.append(hit[0])
-    return out, bad
+    values = col.to_numpy(dtype=object)
+    codes, reps = _distinct(values)
+    parsed = [_parse_value(fld, v) for v in reps]
+    out = np.empty(len(parsed), dtype=object)
+    out[:] = [p[0] for p in parsed]
+    messages = np.array([p[1] for p in parsed], dtype=object)
+    bad_at = np.flatnonzero(messages[codes] != "") if len(codes) else np.zeros(0, dtype=np.int64)
+    return out[codes], [(int(i), messages[codes[i]]) for i in bad_at.tolist()]
+
+
+def _distinct(values: np.ndarray) -> tuple[np.ndarray, list[Any]]:
+    """Group equal values of one type (NaN with NaN): (group of each value, one value per
+    group). Values that cannot be hashed, or compared (pd.NA), each form their own group."""
+    n = len(values)
+    try:
+        vcode, _ = pd.factorize(values, use_na_sentinel=False)
+    except TypeError:  # unhashable values
+        return np.arange(n), list(values)
+    tcode, types = pd.factorize(np.fromiter(map(type, values), dtype=object, count=n))
+    _, first, group = np.unique(
+        vcode.astype(np.int64) * max(len(types), 1) + tcode,
+        return_index=True,
+        return_inverse=True,
+    )
+    return group.reshape(-1), list(values[first])
 
 
 def _default_column(fld: Field, n: int) -> pd.Series:
@@ -496,14 +512,16 @@ def _check_ids_and_refs(
     if rows is not None and combiners is not None and "to" in rows.columns and len(combiners):
         strings = pd.to_numeric(rows["strings"], errors="coerce").fillna(0)
         per_target = strings.groupby(rows["to"]).sum()
-        for i, (cid, cap) in enumerate(zip(combiners["id"], combiners["max_strings"], strict=True)):
-            n = float(per_target.get(cid, 0.0))
-            if np.isfinite(cap) and n > cap:
-                problems.append(
-                    Problem(
-                        "combiners",
-                        labels["combiners"](i),
-                        f"{n:g} strings are assigned to it but max_strings is {cap:g}",
-                    )
+        assigned = per_target.reindex(combiners["id"]).fillna(0.0).to_numpy(dtype=float)
+        cap_all = combiners["max_strings"].to_numpy(dtype=float)
+        over = np.flatnonzero(np.isfinite(cap_all) & (assigned > cap_all))
+        for i in over.tolist():
+            n, cap = float(assigned[i]), float(cap_all[i])
+            problems.append(
+                Problem(
+                    "combiners",
+                    labels["combiners"](i),
+                    f"{n:g} strings are assigned to it but max_strings is {cap:g}",
                 )
+            )
     return problems
