@@ -30,6 +30,7 @@ timings of a design aid, not a design.
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import datetime
 import itertools
 import json
@@ -134,7 +135,7 @@ def edit_and_replan(site_dir: Path, work: Path) -> dict:
         "replan_timings": dict(p.timings_s),
         "replan_written": dict(written),
         "reused_stages": dict(p.cache.reused),
-        "reuse": dict(p.cache.output_reuse),
+        "reuse": dataclasses.asdict(p.cache.output_reuse),
         "rows": len(p.circuits) + len(p.segments),
         "csv_same_as_cold": same,
         "cli_full_s": cli_full_s,
@@ -611,15 +612,16 @@ def report(res: dict) -> str:
         ]
         for r in plants:
             e, u = r["edit"], r["edit"]["reuse"]
-            csv = sum(v for k, v in u.items() if k.endswith(".csv chunks copied"))
+            chunks = u["chunks_copied"]
+            csv = sum(v for k, v in chunks.items() if k.endswith(".csv"))
             out.append(
                 f"| {r['mw']:g} MW | {_s(e['full_s'])} | {_s(e['replan_s'])} "
                 f"| **{100 * e['replan_s'] / e['full_s']:.0f} %** | {_s(e['replan_plan_s'])} "
                 f"| {_s(e['cli_full_s'])} | {_s(e['cli_replan_s'])} "
                 f"| **{100 * e['cli_replan_s'] / e['cli_full_s']:.0f} %** "
-                f"| {u.get('routes.gpkg rows rewritten', -1):,} of {e['rows']:,} | {csv:,} "
-                f"| {u.get('cable_schedule.xlsx chunks copied', -1):,} "
-                f"| {u.get('map.html tiles reused', -1):,} "
+                f"| {u['gpkg_rows_rewritten']:,} of {e['rows']:,} | {csv:,} "
+                f"| {chunks.get('cable_schedule.xlsx', -1):,} "
+                f"| {u['map_tiles_reused']:,} "
                 f"| {'yes' if e['csv_same_as_cold'] else '**no**'} |"
             )
         e = plants[-1]["edit"]

@@ -112,6 +112,27 @@ _CLASSES: dict[str, type] = {
 }
 
 
+@dataclasses.dataclass
+class OutputReuse:
+    """How much of the last run's output files the writers reused (for reports)."""
+
+    #: features of routes.gpkg rewritten by the update (-1: the file was written whole)
+    gpkg_rows_rewritten: int = -1
+    #: chunks of rows copied from the last file, by file name (CSV files and the workbook)
+    chunks_copied: dict[str, int] = dataclasses.field(default_factory=dict)
+    #: tiles of map.html whose scripts were reused (-1: unknown, the map's child failed)
+    map_tiles_reused: int = -1
+
+    @property
+    def updated(self) -> bool:
+        """Whether anything was reused row by row."""
+        return (
+            self.gpkg_rows_rewritten >= 0
+            or any(n > 0 for n in self.chunks_copied.values())
+            or self.map_tiles_reused > 0
+        )
+
+
 class UncacheableError(Exception):
     """A value the cache cannot store exactly (it is then simply not stored)."""
 
@@ -479,7 +500,7 @@ class PlanCache:
         self.dir = self.out_dir / CACHE_DIR
         self.reused: dict[str, bool] = {}
         #: how much of the last run's output files the writers copied (for reports)
-        self.output_reuse: dict[str, int] = {}
+        self.output_reuse = OutputReuse()
         self.keys: dict[str, str] = {}
         self._new: dict[str, Any] = {}
         self._jobs: dict[str, parallel.Job] = {}

@@ -182,15 +182,15 @@ def _cache_line(cache) -> str:
     kept = [_STAGE_WORDS.get(k, k) for k, v in cache.reused.items() if v]
     line = "cache: reused " + (", ".join(kept) if kept else "no stage (inputs changed)")
     u = cache.output_reuse
-    if u and not cache.reused.get("outputs"):
+    if u.updated and not cache.reused.get("outputs"):
         done = []
-        rows = u.get("routes.gpkg rows rewritten", -1)
+        rows = u.gpkg_rows_rewritten
         if rows >= 0:
             done.append(f"{rows:,} GeoPackage row{'s' * (rows != 1)} rewritten")
-        chunks = sum(v for k, v in u.items() if k.endswith("chunks copied") and v > 0)
+        chunks = sum(u.chunks_copied.values())
         if chunks:
             done.append(f"{chunks:,} schedule chunk{'s' * (chunks != 1)} copied")
-        tiles = u.get("map.html tiles reused", 0)
+        tiles = u.map_tiles_reused
         if tiles > 0:
             done.append(f"{tiles:,} map tile{'s' * (tiles != 1)} reused")
         if done:

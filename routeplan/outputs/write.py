@@ -22,7 +22,16 @@ import numpy as np
 import pandas as pd
 
 from .. import CAUTION, parallel
-from ..cache import AUX, CACHE_DIR, STAGES, digest, file_sha256, input_files, link_or_copy
+from ..cache import (
+    AUX,
+    CACHE_DIR,
+    STAGES,
+    OutputReuse,
+    digest,
+    file_sha256,
+    input_files,
+    link_or_copy,
+)
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
@@ -243,11 +252,11 @@ def _write_files(
     stats_file.unlink(missing_ok=True)
     if cache is not None:
         cache.save_aux(tmp, "index", index)
-        cache.output_reuse = {
-            "routes.gpkg rows rewritten": -1 if updated is None else updated[1],
-            **{f"{name} chunks copied": n for name, n in copied.items()},
-            "map.html tiles reused": reused,
-        }
+        cache.output_reuse = OutputReuse(
+            gpkg_rows_rewritten=-1 if updated is None else updated[1],
+            chunks_copied=copied,
+            map_tiles_reused=reused,
+        )
     return digests
 
 

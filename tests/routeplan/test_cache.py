@@ -254,15 +254,15 @@ def test_an_edit_rewrites_only_the_rows_it_touches(gen, tmp_path):
     checked by the tests above)."""
     out = tmp_path / "out"
     first = run(gen, out)
-    assert first.cache.output_reuse["routes.gpkg rows rewritten"] == -1  # nothing to update
+    assert first.cache.output_reuse.gpkg_rows_rewritten == -1  # nothing to update
     move_gpkg_pad(gen)
     again = run(gen, out)
     stats = again.cache.output_reuse
     rows = len(again.circuits) + len(again.segments)
-    assert 0 < stats["routes.gpkg rows rewritten"] < 0.2 * rows
+    assert 0 < stats.gpkg_rows_rewritten < 0.2 * rows
     # (this small plant's schedule is a few chunks of about 512 rows, most of them touched)
-    assert stats["trench_schedule.csv chunks copied"] > 0
-    assert stats["cable_schedule.xlsx chunks copied"] > 0
+    assert stats.chunks_copied["trench_schedule.csv"] > 0
+    assert stats.chunks_copied["cable_schedule.xlsx"] > 0
 
 
 # -- never trust a cache that is not ours -------------------------------------------------------
@@ -470,7 +470,7 @@ def test_the_map_after_an_edit_draws_what_a_cold_map_draws(tmp_path):
     run(site, out)
     move_gpkg_pad(site, dy=6.0)
     warm = run(site, out)
-    assert warm.cache.output_reuse["map.html tiles reused"] > 0
+    assert warm.cache.output_reuse.map_tiles_reused > 0
     cold = tmp_path / "cold"
     run(site, cold, cache=False)
     html = (out / "map.html").read_text(encoding="utf-8")
