@@ -31,6 +31,7 @@ leave.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -847,26 +848,19 @@ def size_circuits(
         raise ConvergenceError(f"parallel/grouping iteration did not settle in {_MAX_ITERATIONS}")
     child_max = _child_max_pct(a, det.get(KIND_STRING), kinds[KIND_STRING], n)
 
-    return _assemble(
-        a,
-        c,
-        kd,
-        det,
-        kinds,
-        counts,
-        seg_soil,
-        seg_depth,
-        p,
-        budgets,
-        fuse_required,
-        fuse_a,
-        prot,
-        p_w,
-        child_max,
-        design,
-        rs,
-        iterations,
-    )
+    c.update(fuse_required=fuse_required, fuse_a=fuse_a, prot=prot, p_w=p_w)
+    settled = _Settled(det, counts, budgets, child_max, iterations)
+    return _assemble(a, c, kd, kinds, settled, design, rs)
+
+
+class _Settled(NamedTuple):
+    """Where the parallel-sets/grouping iteration settled."""
+
+    det: dict[int, dict]  # per kind: the selection of each of its circuits
+    counts: np.ndarray  # cable sets per segment
+    budgets: np.ndarray  # voltage-drop budget of each circuit [%]
+    child_max: np.ndarray  # largest own drop among each array circuit's strings [%]
+    iterations: int
 
 
 def _child_max_pct(a, det_s, idx_s, n) -> np.ndarray:
@@ -883,26 +877,12 @@ def _fmt_size(pp: int, size: float, material: str) -> str:
     return f"{pp}×{size:g} mm² {material}" if pp > 1 else f"{size:g} mm² {material}"
 
 
-def _assemble(
-    a,
-    c,
-    kd,
-    det,
-    kinds,
-    counts,
-    seg_soil,
-    seg_depth,
-    p,
-    budgets,
-    fuse_required,
-    fuse_a,
-    prot,
-    p_w,
-    child_max,
-    design,
-    rs,
-    iterations,
-) -> SizingResult:
+def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
+    """The result arrays from the settled iteration (``a``: the input arrays, ``c``: the
+    per-circuit and per-segment values computed once, ``kd``: the data of each kind)."""
+    det, counts, budgets, child_max, iterations = settled
+    fuse_required, fuse_a, prot, p_w = c["fuse_required"], c["fuse_a"], c["prot"], c["p_w"]
+    seg_soil, seg_depth = c["seg_soil"], c["seg_depth"]
     n = a["kind"].size
     m = a["seg_depth_m"].size
     kind = a["kind"]
