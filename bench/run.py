@@ -113,11 +113,13 @@ def edit_and_replan(site_dir: Path, work: Path) -> dict:
     write_plan(plan(site, cache=PlanCache(out)), out)
     full_s = time.perf_counter() - t0
     pad = move_pad(site)
+    cpu0 = _cpu_s()
     t0 = time.perf_counter()
     p = plan(site, cache=PlanCache(out))
     plan_s = time.perf_counter() - t0
     written = write_plan(p, out)
     replan_s = time.perf_counter() - t0
+    cpu1 = _cpu_s()
     cold = work / "edit_cold"
     write_plan(plan(site), cold)
     same = all((out / n).read_bytes() == (cold / n).read_bytes() for n in CSV_FILES)
@@ -140,7 +142,16 @@ def edit_and_replan(site_dir: Path, work: Path) -> dict:
         "csv_same_as_cold": same,
         "cli_full_s": cli_full_s,
         "cli_replan_s": cli_replan_s,
+        "replan_cpu_main_s": cpu1[0] - cpu0[0],
+        "replan_cpu_children_s": cpu1[1] - cpu0[1],
     }
+
+
+def _cpu_s() -> tuple[float, float]:
+    """CPU seconds (user + system) so far of this process and of its finished children."""
+    own = resource.getrusage(resource.RUSAGE_SELF)
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return own.ru_utime + own.ru_stime, kids.ru_utime + kids.ru_stime
 
 
 def io_floor(site_dir: Path, plan, work: Path) -> dict[str, float]:
@@ -633,12 +644,20 @@ def report(res: dict) -> str:
             ("tables", t.get("tables")),
             *[(k, v) for k, v in w.items()],
         ]
+        cpu_main, cpu_kids = e["replan_cpu_main_s"], e["replan_cpu_children_s"]
+        cores = os.cpu_count() or 1
+        floor = (cpu_main + cpu_kids) / cores
         out += [
             "",
             f"Re-plan of the {plants[-1]['mw']:g} MW plant, by stage [s] (the map and the "
             "cache entries in child processes, in parallel): "
             + ", ".join(f"{k} {v:.2f}" for k, v in parts if v is not None)
             + ".",
+            "",
+            f"Its CPU time: {cpu_main:.2f} s in the main process and {cpu_kids:.2f} s in "
+            f"child processes (the map, the cache entries), {cpu_main + cpu_kids:.2f} s in "
+            f"all; spread perfectly over {cores} cores that is at least {floor:.2f} s, "
+            f"**{100 * floor / e['full_s']:.0f} %** of the full run.",
         ]
     big = max(plants, key=lambda r: r["strings"])
     e2e = big["plan_s"] + big["write_s"]
