@@ -18,7 +18,6 @@ the local codes.
 from __future__ import annotations
 
 import dataclasses
-import itertools
 import math
 import time
 from collections.abc import Mapping, Sequence
@@ -758,6 +757,19 @@ def _route_geometry(
     return shapely.linestrings(xy[idx], indices=np.repeat(route, n_c))
 
 
+def joined(items: list[str], offsets: np.ndarray, sep: str = ";") -> np.ndarray:
+    """``sep.join(items[offsets[i]:offsets[i + 1]])`` for each i, as an object array: one join
+    of every item, then one slice per group (no list or array built per group)."""
+    text = sep.join(items)
+    size = np.fromiter(map(len, items), dtype=np.int64, count=len(items)) + len(sep)
+    start = np.r_[0, np.cumsum(size)]  # where each item starts in ``text`` (and the end + sep)
+    a = start[offsets[:-1]]
+    b = np.maximum(start[offsets[1:]] - len(sep), a)  # an empty group: ""
+    out = np.empty(len(a), dtype=object)
+    out[:] = [text[i:j] for i, j in zip(a.tolist(), b.tolist(), strict=True)]
+    return out
+
+
 def _tables(
     site: Site,
     network: TrenchNetwork,
@@ -794,13 +806,7 @@ def _tables(
     if has.any():
         group[has] = np.maximum.reduceat(seg_count[paths.segment], paths.offset[:-1][has])
     seg_ids = network.segments["segment_id"].to_numpy(dtype=object)
-    pair_seg_ids = np.array(
-        [
-            ";".join(seg_ids[paths.segment[a:b]])
-            for a, b in zip(paths.offset[:-1], paths.offset[1:], strict=True)
-        ],
-        dtype=object,
-    )
+    pair_seg_ids = joined(seg_ids[paths.segment].tolist(), paths.offset)
 
     # per circuit
     row_run = np.zeros(n_c)
@@ -839,7 +845,7 @@ def _tables(
     order = np.lexsort((rank[inc_c], inc_s))
     ids_sorted = cid[inc_c[order]].tolist()
     bounds = np.searchsorted(inc_s[order], np.arange(n_seg + 1))
-    circuit_ids = [";".join(ids_sorted[a:b]) for a, b in itertools.pairwise(bounds)]
+    circuit_ids = joined(ids_sorted, bounds)
     seg = network.segments
     cap = seg["max_circuits"].to_numpy(float)
     fill = np.where(np.isnan(cap), np.nan, seg_count / np.where(np.isnan(cap), 1.0, cap))

@@ -6,6 +6,7 @@ test's docstring), "networkx" (the outside graph reference), "shapely" (geometry
 
 from __future__ import annotations
 
+import itertools
 import math
 
 import networkx as nx
@@ -19,7 +20,7 @@ from numpy.testing import assert_allclose
 
 from routeplan.errors import NotConnectedError, ParameterError, RoutingError, UnreachableError
 from routeplan.network import TrenchDefaults
-from routeplan.routing import RouteParams, check_network, route_site, row_length_m
+from routeplan.routing import RouteParams, check_network, joined, route_site, row_length_m
 
 
 def line(*xy):
@@ -500,3 +501,20 @@ def test_search_radius_never_changes_a_route(comb, monkeypatch):
     for col in ("route_m", "segment_ids", "group_max"):
         assert before.circuits[col].tolist() == after.circuits[col].tolist()
     assert before.segments["circuits"].tolist() == after.segments["circuits"].tolist()
+
+
+@settings(max_examples=200, deadline=None)
+@given(
+    st.lists(st.text(max_size=4), max_size=12),
+    st.lists(st.integers(0, 12), max_size=6),
+)
+def test_joined_groups_equal_pythons_join(items, cuts):
+    # Python's str.join on each group is the reference (empty groups, empty and
+    # separator-holding items, non-ASCII text included)
+    offsets = np.array(sorted({0, len(items), *(min(c, len(items)) for c in cuts)}))
+    want = [";".join(items[a:b]) for a, b in itertools.pairwise(offsets)]
+    assert joined(items, offsets).tolist() == want
+    # repeated offsets: empty groups
+    twice = np.repeat(offsets, 2)
+    want2 = [";".join(items[a:b]) for a, b in itertools.pairwise(twice)]
+    assert joined(items, twice).tolist() == want2
