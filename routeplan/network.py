@@ -516,7 +516,7 @@ def node_trenches(
     active[ci] = True
     act = np.flatnonzero(active)
     a, b = _close_pairs(cand_pts[act], cand_xy[act], tol)
-    return dataclasses.replace(
+    done = dataclasses.replace(
         noded,
         cross_xy=cross_xy,
         split_ci=ci.astype(np.int64),
@@ -526,6 +526,13 @@ def node_trenches(
         pair_a=a,
         pair_b=b,
     )
+    # the parts, their index and vertex masks depend on xy and cidx only: keep those computed
+    done.__dict__.update({k: v for k, v in noded.__dict__.items() if k in _PART_CACHE})
+    return done
+
+
+#: cached properties of NodedTrenches that depend on its vertices alone
+_PART_CACHE = frozenset({"n_parts", "parts", "tree", "first", "last", "inner", "_chainage"})
 
 
 @dataclass(frozen=True, eq=False)
@@ -534,9 +541,11 @@ class NetworkMemo:
     the trenches noded (:class:`NodedTrenches`) and each equipment feature's nearest part and
     distance. :func:`build_network` takes from it only what its own input makes valid — the
     noding when the trenches' fingerprint is the same; a feature's nearest part when, besides,
-    ``snap_m`` is the same and the feature (same layer and id) has exactly the same geometry
-    (:func:`shapely.equals_exact`, tolerance 0) — so a build with a memo gives the same
-    network as one without.
+    ``snap_m`` is the same and the feature at the same position has exactly the same geometry
+    (:func:`shapely.equals_exact`, tolerance 0: the nearest part depends on nothing else) — so
+    a build with a memo gives the same network as one without. (Features are matched by
+    position: an edit that keeps the layers' order, such as moving a pad, keeps every other
+    feature's match.)
 
     Attributes
     ----------
@@ -544,39 +553,25 @@ class NetworkMemo:
     snap_m : float
         The ``snap_m`` [m] the nearest parts were searched with.
     equipment : geopandas.GeoDataFrame
-        ``layer``, ``feature_id``, ``part`` (nearest part, -1: none within reach of the
-        search), ``distance_m`` (inf: none) and the feature's ``geometry``.
+        Per feature: ``part`` (its nearest part, -1: none within reach of the search),
+        ``distance_m`` (inf: none) and its ``geometry``.
     """
 
     noded: NodedTrenches
     snap_m: float
     equipment: gpd.GeoDataFrame
 
-    def nearest(self, equipment: gpd.GeoDataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """For each feature of ``equipment``: whether it is remembered, its nearest part and
-        the distance [m] (-1 and inf where not)."""
-        n = len(equipment)
-        old = self.equipment
-        keys = _feature_keys(equipment)
-        if len(old) == n and np.array_equal(keys, _feature_keys(old)):
-            pos = np.arange(n)
-        else:
-            pos = pd.Index(_feature_keys(old)).get_indexer(keys)
-        known = pos >= 0
-        new_g = np.asarray(equipment.geometry.array, dtype=object)[known]
-        old_g = np.asarray(old.geometry.array, dtype=object)[pos[known]]
-        known[known] = shapely.equals_exact(new_g, old_g, tolerance=0)
-        part, dist = np.full(n, -1, dtype=np.int64), np.full(n, np.inf)
-        part[known] = old["part"].to_numpy(np.int64)[pos[known]]
-        dist[known] = old["distance_m"].to_numpy(float)[pos[known]]
+    def nearest(self, geoms: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """For each geometry: whether its nearest part is remembered, the part and the
+        distance [m] (-1 and inf where not)."""
+        n = min(len(geoms), len(self.equipment))
+        known = np.zeros(len(geoms), dtype=bool)
+        old = np.asarray(self.equipment.geometry.array, dtype=object)
+        known[:n] = shapely.equals_exact(geoms[:n], old[:n], tolerance=0)
+        part, dist = np.full(len(geoms), -1, dtype=np.int64), np.full(len(geoms), np.inf)
+        part[known] = self.equipment["part"].to_numpy(np.int64)[:n][known[:n]]
+        dist[known] = self.equipment["distance_m"].to_numpy(float)[:n][known[:n]]
         return known, part, dist
-
-
-def _feature_keys(equipment: pd.DataFrame) -> np.ndarray:
-    """``layer/feature_id`` of each feature (ids are text, validated unique per layer)."""
-    layer = equipment["layer"].to_numpy(dtype=object).astype(str)
-    fid = equipment["feature_id"].to_numpy(dtype=object).astype(str)
-    return np.strings.add(np.strings.add(layer, "\x00"), fid).astype(object)
 
 
 @paused_gc()
@@ -647,7 +642,7 @@ def build_network(
     eq_dist = np.full(n_eq, np.inf)
     todo = np.arange(n_eq)
     if memo is not None and memo.snap_m == snap_m and n_eq:
-        known, eq_part, eq_dist = memo.nearest(equipment)
+        known, eq_part, eq_dist = memo.nearest(eq_geoms)
         todo = np.flatnonzero(~known)
     if len(todo) and n_parts:
         # growing radii up to snap_m (a feature with a part within r has its nearest among
@@ -784,14 +779,7 @@ def build_network(
             noded=noded,
             snap_m=float(snap_m),
             equipment=gpd.GeoDataFrame(
-                {
-                    "layer": equipment["layer"].to_numpy(dtype=object),
-                    "feature_id": equipment["feature_id"].to_numpy(dtype=object),
-                    "part": eq_part,
-                    "distance_m": eq_dist,
-                },
-                geometry=eq_geoms,
-                crs=trenches.crs,
+                {"part": eq_part, "distance_m": eq_dist}, geometry=eq_geoms, crs=trenches.crs
             ),
         ),
     )

@@ -390,7 +390,7 @@ def test_the_memo_takes_a_features_nearest_part_only_for_the_same_geometry():
     last = build(geoms, [("inverters", "P1", pt(50, 4)), ("combiners", "C1", pt(10, 1))])
     # P1 moved nearer the other trench; C1 unchanged
     items = [("inverters", "P1", pt(50, 16)), ("combiners", "C1", pt(10, 1))]
-    known, part, _ = last.memo.nearest(equipment(*items))
+    known, part, _ = last.memo.nearest(np.asarray(equipment(*items).geometry.array))
     assert part[1] == 0  # C1: part 0 (T1)
     assert known.tolist() == [False, True]
     net = build(geoms, items, last.memo)
