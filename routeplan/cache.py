@@ -28,7 +28,8 @@ What is reused, and when (every key is a SHA-256 of everything the stage's resul
         equipment feature's nearest part. It is offered whatever its key
         (:meth:`PlanCache.latest`) and validates itself: the noding is taken only for trenches
         of the same fingerprint (ids, attributes, exact geometry, tolerance, defaults), a
-        feature's nearest part only for the same feature, geometry and ``snap_m``. A route
+        feature's nearest part only for exactly the same geometry at the same position and
+        the same ``snap_m``. A route
         stage that is reused keeps it for a later run (:meth:`PlanCache.carry`).
     ``outputs``
         The files written last time. Key: the ``size`` key, the whole site.toml, the input
