@@ -29,8 +29,8 @@ What is reused, and when (every key is a SHA-256 of everything the stage's resul
         (:meth:`PlanCache.latest`) and validates itself: the noding is taken only for trenches
         of the same fingerprint (ids, attributes, exact geometry, tolerance, defaults), a
         feature's nearest part only for exactly the same geometry at the same position and
-        the same ``snap_m``. A route
-        stage that is reused keeps it for a later run (:meth:`PlanCache.carry`).
+        the same ``snap_m``. A run whose route stage is reused keeps it for a later run
+        (:meth:`PlanCache.carry`).
     ``outputs``
         The files written last time. Key: the ``size`` key, the whole site.toml, the input
         files' digest and the map options. On a hit, each file is reused only if its SHA-256
@@ -95,9 +95,6 @@ AUX: tuple[str, ...] = ("index", "map")
 #: bump when what is stored, or how, changes
 FORMAT = 2
 STAGES: tuple[str, ...] = ("site", "route", "size")
-#: memos: the last run's value is offered whatever its key, and validates itself
-#: (``noding``: :class:`routeplan.network.NetworkMemo`)
-MEMOS: tuple[str, ...] = ("noding",)
 
 #: the classes an entry may rebuild (by these names only)
 _CLASSES: dict[str, type] = {
@@ -554,8 +551,8 @@ class PlanCache:
 
     def latest(self, stage: str) -> Any | None:
         """The value the last run stored for ``stage``, whatever its key (None if there is
-        none, or it is damaged): for a *memo* (:data:`MEMOS`), a value that says itself which
-        of its parts are still valid. Records nothing: :meth:`put` a new value, or
+        none, or it is damaged): for a *memo* (``noding``), a value that says itself which of
+        its parts are still valid. Records nothing: :meth:`put` a new value, or
         :meth:`carry` this one, to keep one for the next run."""
         e = self._manifest.get("entries", {}).get(stage)
         key = e.get("key") if isinstance(e, dict) else None
@@ -699,6 +696,8 @@ class PlanCache:
             for p in sorted(target.glob("*.npz"))
             if p.stem in AUX
         }
+        for side in target.glob("*.sha256"):  # the manifest holds them now
+            side.unlink()
         manifest = {
             "format": FORMAT,
             "environment": environment(),

@@ -188,6 +188,8 @@ def test_unchanged_inputs_reuse_every_stage_and_the_files(demo, tmp_path):
     assert again.reused == {"site": True, "route": True, "size": True, "outputs": True}
     assert {n: (out / n).read_bytes() for n in CSVS} == before
     assert (out / CACHE_DIR / MANIFEST).is_file()
+    # the manifest and the entries, nothing else (the entries' digests are in the manifest)
+    assert {p.suffix for p in (out / CACHE_DIR).iterdir()} == {".json", ".npz"}
 
 
 def test_demo_pad_move(demo, tmp_path):
