@@ -383,8 +383,9 @@ def _parse_column(fld: Field, col: pd.Series) -> tuple[np.ndarray, list[tuple[in
 
 
 def _distinct(values: np.ndarray) -> tuple[np.ndarray, list[Any]]:
-    """Group equal values of one type (NaN with NaN): (group of each value, one value per
-    group). Values that cannot be hashed, or compared (pd.NA), each form their own group."""
+    """Group equal values of one type (missing values by their type: NaN with NaN, None with
+    None): (group of each value, one value per group). When a value cannot be hashed, every
+    value forms its own group."""
     n = len(values)
     try:
         vcode, _ = pd.factorize(values, use_na_sentinel=False)
