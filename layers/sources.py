@@ -6,7 +6,10 @@ tested on in-memory frames.
 
 from __future__ import annotations
 
+import os
+import re
 import tomllib
+import xml.etree.ElementTree as ET
 from pathlib import Path
 from typing import Any
 
@@ -128,3 +131,123 @@ def read_layer(root: Path, name: str, spec: str) -> tuple[gpd.GeoDataFrame | Non
 def _short(exc: BaseException) -> str:
     text = " ".join(str(exc).split())
     return text if len(text) <= 200 else text[:197] + "..."
+
+
+#: most files one layer source may consist of before it counts as not listable (a folder
+#: dataset of more files is read, but not fingerprinted file by file)
+MAX_SOURCE_FILES = 10_000
+#: deepest chain of VRT files naming VRT files that is followed
+MAX_VRT_DEPTH = 8
+#: a data source that is not a local path: a GDAL virtual file system (``/vsizip/…``), a
+#: URL, or a connection string (``PG:…``); a one-letter prefix is a Windows drive
+_NOT_A_PATH = re.compile(r"^(/vsi|[A-Za-z][A-Za-z0-9+.-]+:)")
+
+
+def _local(text: str) -> bool:
+    """Whether a data source name is a local path (not ``/vsi…``, a URL or a connection)."""
+    return not _NOT_A_PATH.match(text) or bool(re.match(r"^[A-Za-z]:[\\/]", text))
+
+
+def layer_file(root: Path, spec: str) -> Path:
+    """The file (or folder dataset) a layer spec of :func:`locate_layers` names."""
+    file_part = spec.rsplit(":", 1)[0] if _has_layer_suffix(spec) else spec
+    return Path(root) / file_part
+
+
+def source_files(root: Path, spec: str) -> list[Path] | None:
+    """Every file the reader may open for the layer ``spec`` (see :func:`locate_layers`), or
+    None when they cannot all be listed.
+
+    - A file brings every file beside it whose name starts with the file's stem and a dot,
+      in any case: a Shapefile's ``.shp .shx .dbf .prj .cpg .qix``, a GeoPackage's ``-wal``
+      and ``-journal``, a GML file's ``.gfs`` and ``.xsd``, a MapInfo table's side files,
+      ``.aux.xml`` files.
+    - A folder (a folder dataset, e.g. a folder of Shapefiles) brings every file under it.
+    - A GDAL VRT file (``.vrt``) brings, in addition, the files of every data source it
+      names (``SrcDataSource``, relative to the VRT where it says so), recursively.
+
+    None when a source is not a local file or folder (a GDAL virtual file system path, a
+    URL, a database connection), does not exist, is a VRT that cannot be parsed, or holds
+    more than :data:`MAX_SOURCE_FILES` files. The list is sorted and has no duplicates.
+    """
+    found: set[Path] = set()
+    if not _collect(layer_file(root, spec), found, depth=0, cwd=Path(root)):
+        return None
+    return sorted(found)
+
+
+def _collect(path: Path, found: set[Path], depth: int, cwd: Path) -> bool:
+    """Add the files of the data source ``path`` to ``found``; False when not listable."""
+    if not _local(str(path)):
+        return False
+    if path.is_dir():
+        for base, _dirs, names in os.walk(path):
+            found.update(Path(base) / n for n in names)
+            if len(found) > MAX_SOURCE_FILES:
+                return False
+        return True
+    if not path.is_file():
+        return False
+    prefix = path.name.lower().split(".", 1)[0] + "."
+    try:
+        siblings = [p for p in path.parent.iterdir() if p.name.lower().startswith(prefix)]
+    except OSError:
+        return False
+    found.update(p for p in siblings if p.is_file())
+    found.add(path)
+    if path.suffix.lower() == ".vrt":
+        if depth >= MAX_VRT_DEPTH:
+            return False
+        sources = _vrt_sources(path)
+        if sources is None:
+            return False
+        for src in sources:
+            if src in found and src.suffix.lower() == ".vrt":
+                continue  # a VRT already followed
+            if not _collect(src, found, depth + 1, cwd):
+                return False
+    return True
+
+
+def _vrt_sources(path: Path) -> list[Path] | None:
+    """The data sources a GDAL VRT file names (``SrcDataSource`` elements), as paths: those
+    marked ``relativeToVRT="1"`` relative to the VRT's folder, others as GDAL opens them
+    (relative to the working folder). None when the file is not well-formed XML."""
+    try:
+        tree = ET.parse(path)
+    except (ET.ParseError, OSError, ValueError):
+        return None
+    out = []
+    for el in tree.iter("SrcDataSource"):
+        text = (el.text or "").strip()
+        if not text:
+            return None
+        if not _local(text):
+            return None
+        rel = str(el.get("relativeToVRT") or el.get("relativetoVRT") or "0").strip() == "1"
+        out.append(path.parent / text if rel else Path(text))
+    return out
+
+
+def site_inputs(root: Path) -> tuple[list[Path], list[str]]:
+    """The files a site folder's plan reads, for guarding them (never write over them):
+    ``site.toml`` and every file of every layer source that can be listed; and the layers
+    whose files cannot be listed. Problems in the site are left to the reader to report."""
+    root = Path(root)
+    files = [root / SITE_TOML]
+    config, problems = read_config(root)
+    if problems:
+        return files, []
+    try:
+        sources, _ = locate_layers(root, config)
+    except Exception:  # a broken site is reported by the reader, with its message
+        return files, []
+    unlisted = []
+    for name, spec in sources.items():
+        listed = source_files(root, spec)
+        if listed is None:
+            unlisted.append(name)
+            files.append(layer_file(root, spec))
+        else:
+            files += listed
+    return files, unlisted

@@ -83,8 +83,10 @@ import shapely
 
 import calc
 from layers.model import Module, Site
+from layers.sources import SITE_TOML, layer_file, source_files
 
 from . import __version__, parallel
+from .folder import OutputFolder
 from .network import NetworkMemo, NodedTrenches, TrenchDefaults, TrenchNetwork
 from .routing import RouteParams, RoutePlan
 
@@ -186,40 +188,54 @@ def environment() -> str:
     return digest(versions, sources.hexdigest())
 
 
-def input_files(root: Path, sources: dict[str, str]) -> dict[str, str]:
-    """SHA-256 of site.toml and of every file the layers come from (a GeoPackage once, a
-    Shapefile with its side files), by file name — the ``inputs`` digest of summary.json."""
-    files = {"site.toml"}
+def input_files(
+    root: Path, sources: dict[str, str], partial: bool = False
+) -> dict[str, str] | None:
+    """SHA-256 of site.toml and of every file the layers are read from
+    (:func:`layers.sources.source_files`: a Shapefile's side files, a GeoPackage's
+    write-ahead log, a VRT's sources…), by path relative to the site folder (absolute for a
+    file outside it) — the ``inputs`` digest of summary.json. When a layer's files cannot
+    all be listed (see :func:`uncacheable_layers`): None, or with ``partial`` the file the
+    layer names alone."""
+    root = Path(root)
+    paths = {root / SITE_TOML}
     for spec in sources.values():
-        name = spec.rsplit(":", 1)[0] if spec.lower().rsplit(":", 1)[0].endswith(".gpkg") else spec
-        files.add(name)
-        if name.lower().endswith(".shp"):  # a Shapefile is several files
-            stem = Path(name).with_suffix("")
-            files.update(p.name for p in root.glob(f"{stem.name}.*"))
+        files = source_files(root, spec)
+        if files is None:
+            if not partial:
+                return None
+            files = [layer_file(root, spec)]
+        paths.update(files)
     out = {}
-    for name in sorted(files):
-        path = root / name
+    for path in sorted(paths):
         if path.is_file():
-            out[name] = file_sha256(path)
+            out[_relative(root, path)] = file_sha256(path)
     return out
+
+
+def uncacheable_layers(root: Path, sources: dict[str, str]) -> list[str]:
+    """The layers whose files cannot all be listed (:func:`layers.sources.source_files`):
+    a run that reads them keeps no cache, since an edit of an unlisted file could not be
+    seen."""
+    return [name for name, spec in sources.items() if source_files(Path(root), spec) is None]
+
+
+def _relative(root: Path, path: Path) -> str:
+    try:
+        return path.relative_to(root).as_posix()
+    except ValueError:
+        return str(path.resolve())
 
 
 def site_key(root: Path, config: dict[str, Any], sources: dict[str, str]) -> str | None:
     """Key of the validated site (see the module docstring); None when it cannot be made
-    safely: a layer that is not one regular file (a folder dataset, a missing file)."""
+    safely: a layer whose files cannot all be listed (:func:`uncacheable_layers`)."""
     files = input_files(root, sources)
-    files.pop("site.toml", None)
-    for spec in sources.values():
-        name = spec.rsplit(":", 1)[0] if spec.lower().rsplit(":", 1)[0].endswith(".gpkg") else spec
-        if name not in files:
-            return None
-    # a GeoPackage edited with write-ahead logging keeps recent changes beside it
-    for name in list(files):
-        for side in (f"{name}-wal", f"{name}-journal"):
-            if (root / side).is_file():
-                files[side] = file_sha256(root / side)
+    if files is None:
+        return None
+    files.pop(SITE_TOML, None)  # its layer tables are keyed below; [design] is not the site's
     layer_config = {k: v for k, v in config.items() if k not in ("design", "allowances")}
-    return digest("site", environment(), str(root.resolve()), sources, files, layer_config)
+    return digest("site", environment(), str(Path(root).resolve()), sources, files, layer_config)
 
 
 # ------------------------------------------------------------------------------------------
@@ -493,9 +509,14 @@ class PlanCache:
     are hard-linked from the old folder when possible, never copied through memory.
     """
 
-    def __init__(self, out_dir: Path | str) -> None:
-        self.out_dir = Path(out_dir)
+    def __init__(self, out: Path | str | OutputFolder) -> None:
+        #: the open output folder, whose work folder holds the staging folder (None: a
+        #: cache opened on a path, staged in the system's temporary folder)
+        self.folder = out if isinstance(out, OutputFolder) else None
+        self.out_dir = out.real if isinstance(out, OutputFolder) else Path(out)
         self.dir = self.out_dir / CACHE_DIR
+        #: why this run keeps no cache (e.g. a layer whose files cannot all be listed)
+        self.bypassed = ""
         self.reused: dict[str, bool] = {}
         #: how much of the last run's output files the writers copied (for reports)
         self.output_reuse = OutputReuse()
@@ -579,10 +600,14 @@ class PlanCache:
         self._jobs[stage] = parallel.start(lambda: _dump_entry(value, path))
 
     def _staging_dir(self) -> Path:
+        """Where new entries are packed: inside the output folder's work folder (removed with
+        it), or, for a cache opened on a bare path, in the system's temporary folder —
+        never beside the output folder."""
         if self._staging is None:
-            self.out_dir.parent.mkdir(parents=True, exist_ok=True)
-            prefix = f".{self.out_dir.name}.entries."
-            self._staging = Path(tempfile.mkdtemp(prefix=prefix, dir=self.out_dir.parent))
+            if self.folder is not None:
+                self._staging = Path(tempfile.mkdtemp(prefix=".entries-", dir=self.folder.work))
+            else:
+                self._staging = Path(tempfile.mkdtemp(prefix="routeplan-entries-"))
             weakref.finalize(self, _discard, self._staging, self._jobs)
         return self._staging
 
@@ -662,14 +687,15 @@ class PlanCache:
         outputs_key: str | None,
         outputs: Iterable[str],
         digests: dict[str, str | None] | None = None,
-    ) -> None:
-        """Write the manifest and the stage entries into ``new_out/.routeplan-cache`` (a folder
-        about to replace the output folder), with the output files ``outputs`` (their SHA-256:
-        from ``digests`` where the writers give it, else read) and the writers' records beside
-        them (:meth:`save_aux`). New entries come from
-        the staging folder (hard-linked: the plan can be saved again; the staging folder goes
-        with this object; values that cannot be stored exactly are left out); entries that
-        were reused are hard-linked from the old folder when possible."""
+    ) -> dict[str, str]:
+        """Write the manifest and the stage entries into ``new_out/.routeplan-cache`` (the
+        work folder of a run about to be committed), with the output files ``outputs`` (their
+        SHA-256: from ``digests`` where the writers give it, else read) and the writers'
+        records beside them (:meth:`save_aux`). New entries come from the staging folder
+        (hard-linked: the plan can be saved again; the staging folder goes with this object;
+        values that cannot be stored exactly are left out); entries that were reused are
+        hard-linked from the old folder when possible. Returns the SHA-256 of every file of
+        the cache folder, by name relative to ``new_out``."""
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
         entries = {}
@@ -704,7 +730,11 @@ class PlanCache:
             "entries": entries,
             "outputs": {"key": outputs_key, "files": files, "aux": aux},
         }
-        (target / MANIFEST).write_text(json.dumps(manifest, indent=1) + "\n", encoding="utf-8")
+        text = json.dumps(manifest, indent=1) + "\n"
+        (target / MANIFEST).write_text(text, encoding="utf-8")
+        written = {e["file"]: e["sha256"] for e in (*entries.values(), *aux.values())}
+        written[MANIFEST] = hashlib.sha256(text.encode("utf-8")).hexdigest()
+        return {f"{CACHE_DIR}/{name}": sha for name, sha in written.items()}
 
 
 def _entry_name(stage: str, key: str) -> str:

@@ -17,7 +17,7 @@ from rich.table import Table
 from layers import LayerError
 
 from . import CAUTION, __version__
-from .errors import RoutingError
+from .errors import FolderError, RoutingError
 
 InputError = (LayerError, RoutingError)
 
@@ -27,6 +27,16 @@ BasemapOption = Annotated[
 ]
 AggregateOption = Annotated[
     int, typer.Option(help="Draw string circuits per row on the map above this many strings.")
+]
+#: ``--force`` of every command that writes a folder
+ForceOption = Annotated[
+    bool,
+    typer.Option(
+        "--force",
+        help="Write into a folder holding files routeplan did not write (routeplan's files go "
+        "beside them; nothing else is touched), and replace routeplan's own files even if "
+        "they were edited since.",
+    ),
 ]
 
 app = typer.Typer(
@@ -42,7 +52,19 @@ def _fail_input(exc: Exception) -> None:
     problems = getattr(exc, "problems", None) or [exc]
     for p in problems:
         err.print(f"error: {p}", markup=False)
-    err.print(f"{len(problems)} problem(s) in the input; nothing was planned.", markup=False)
+    if not isinstance(exc, FolderError):
+        err.print(f"{len(problems)} problem(s) in the input; nothing was planned.", markup=False)
+    raise typer.Exit(2)
+
+
+def _fail_os(exc: OSError, where: Path) -> None:
+    """A file system failure while writing (disk full, permission): one line, exit 2."""
+    what = exc.strerror or str(exc)
+    name = exc.filename or where
+    err.print(
+        f"error: {name}: {what}; nothing was written ({where} keeps its previous contents)",
+        markup=False,
+    )
     raise typer.Exit(2)
 
 
@@ -120,9 +142,15 @@ def check(
 @app.command()
 def plan(
     site: Annotated[Path, typer.Argument(help="Site folder holding site.toml and the layers.")],
-    out_dir: Annotated[Path, typer.Option("--out", "-o", help="Output folder (replaced).")] = Path(
-        "routeplan_out"
-    ),
+    out_dir: Annotated[
+        Path,
+        typer.Option(
+            "--out",
+            "-o",
+            help="Output folder: new, empty, or written by routeplan plan before (its files "
+            "are replaced; no other file is touched).",
+        ),
+    ] = Path("routeplan_out"),
     quiet: Annotated[bool, typer.Option("--quiet", "-q", help="No progress or summary.")] = False,
     basemap: BasemapOption = False,
     aggregate_above: AggregateOption = 20000,
@@ -134,39 +162,54 @@ def plan(
             "--out folder (its .routeplan-cache); --no-cache plans from scratch and keeps none.",
         ),
     ] = True,
+    force: ForceOption = False,
 ) -> None:
     """Route and size every circuit; write the cable and trench schedules, quantities, GIS
     layers, workbook, summary and map. Exit 0 when every limit is met, 1 when something fails
-    a limit (outputs written), 2 on bad input (nothing written)."""
+    a limit (outputs written), 2 on bad input or an unusable output folder (nothing
+    written)."""
     from .cache import PlanCache
-    from .outputs.write import write_plan
+    from .outputs.write import open_output_folder, write_plan
     from .pipeline import plan as run_plan
 
+    try:  # the output folder is checked (and locked) before any computation
+        folder = open_output_folder(out_dir, site, force=force)
+    except InputError as exc:
+        _fail_input(exc)
+        return
     show = not quiet and out.is_terminal
     status = out.status("starting", spinner="dots") if show else None
     say = (lambda stage: status.update(stage)) if status else (lambda stage: None)
-    try:
-        if status:
-            status.start()
-        cache = PlanCache(out_dir) if use_cache else None
-        result = run_plan(site, progress=say, cache=cache)
-        write_plan(
-            result,
-            out_dir,
-            progress=say,
-            map_options={"basemap": basemap, "aggregate_strings_above": aggregate_above},
-        )
-    except InputError as exc:
-        if status:
-            status.stop()
-        _fail_input(exc)
-        return
-    finally:
-        if status:
-            status.stop()
+    with folder:
+        try:
+            if status:
+                status.start()
+            cache = PlanCache(folder) if use_cache else None
+            result = run_plan(site, progress=say, cache=cache)
+            write_plan(
+                result,
+                folder,
+                progress=say,
+                map_options={"basemap": basemap, "aggregate_strings_above": aggregate_above},
+            )
+        except InputError as exc:
+            if status:
+                status.stop()
+            _fail_input(exc)
+            return
+        except OSError as exc:
+            if status:
+                status.stop()
+            _fail_os(exc, out_dir)
+            return
+        finally:
+            if status:
+                status.stop()
     if not quiet:
         _print_summary(result.summary, out_dir)
-        if result.cache is not None:
+        if cache is not None and cache.bypassed:
+            out.print(f"cache: not used: {cache.bypassed}", markup=False)
+        elif result.cache is not None:
             out.print(_cache_line(result.cache), markup=False)
     raise typer.Exit(0 if result.ok else 1)
 
@@ -272,21 +315,34 @@ def _num(v: float | None, digits: int) -> str:
 def diff(
     old_dir: Annotated[Path, typer.Argument(help="Output folder of the earlier plan.")],
     new_dir: Annotated[Path, typer.Argument(help="Output folder of the later plan.")],
-    out_file: Annotated[
-        Path | None, typer.Option("--out", "-o", help="Also write the changes as CSV.")
+    out_dir: Annotated[
+        Path | None,
+        typer.Option("--out", "-o", help="Also write the changes (changes.csv) into this folder."),
     ] = None,
+    force: ForceOption = False,
 ) -> None:
     """Show circuits added, removed and changed, trench segments whose count changed, and the
     quantities delta between two plans."""
-    from .diff import DiffError, diff_outputs, write_diff
+    from .diff import DiffError, diff_outputs, open_diff_folder, write_diff
 
+    folder = None
+    if out_dir is not None:
+        try:  # checked before the comparison
+            folder = open_diff_folder(out_dir, force=force)
+        except FolderError as exc:
+            _fail_input(exc)
     try:
         d = diff_outputs(old_dir, new_dir)
+        if folder is not None:
+            write_diff(d, folder)
     except DiffError as exc:
         err.print(f"error: {exc}", markup=False)
         raise typer.Exit(2) from None
-    if out_file is not None:
-        write_diff(d, out_file)
+    except OSError as exc:
+        _fail_os(exc, out_dir or Path("."))
+    finally:
+        if folder is not None:
+            folder.close()
     if d.empty:
         out.print("no changes", markup=False)
         return
@@ -315,38 +371,57 @@ def map_cmd(
     out_dir: Annotated[Path, typer.Argument(help="Output folder of 'routeplan plan'.")],
     basemap: BasemapOption = False,
     aggregate_above: AggregateOption = 20000,
+    force: ForceOption = False,
 ) -> None:
     """Redraw map.html from an output folder, without planning again."""
-    from .outputs.map import write_map
+    from .outputs.map import MapError, write_map
 
-    if not (out_dir / "routes.gpkg").is_file():
-        err.print(
-            f"error: {out_dir}: no routes.gpkg (is it an output folder of 'routeplan plan'?)",
-            markup=False,
+    try:
+        path = write_map(
+            out_dir, basemap=basemap, aggregate_strings_above=aggregate_above, force=force
         )
-        raise typer.Exit(2)
-    path = write_map(out_dir, basemap=basemap, aggregate_strings_above=aggregate_above)
+    except FolderError as exc:
+        _fail_input(exc)
+        return
+    except MapError as exc:
+        err.print(f"error: {exc}", markup=False)
+        raise typer.Exit(2) from None
+    except OSError as exc:
+        _fail_os(exc, out_dir)
+        return
     out.print(f"map: {path}", markup=False)
 
 
 @app.command()
 def synth(
     mw: Annotated[float, typer.Option("--mw", help="Plant size, MWdc.")],
-    out_dir: Annotated[Path, typer.Option("--out", "-o", help="Site folder to write.")],
+    out_dir: Annotated[
+        Path,
+        typer.Option(
+            "--out", "-o", help="Site folder to write: new, empty, or written by synth before."
+        ),
+    ],
     seed: Annotated[int, typer.Option("--seed", help="Random seed (same seed, same site).")] = 1,
     geographic: Annotated[
         bool, typer.Option("--geographic", help="Write lon/lat (EPSG:4326) instead of UTM.")
     ] = False,
     fmt: Annotated[str, typer.Option("--format", help="gpkg (one site.gpkg) or geojson.")] = "gpkg",
+    force: ForceOption = False,
 ) -> None:
     """Write an invented, valid utility-scale site folder for trials and benchmarks."""
     from .synth import generate_site
 
     try:
-        info = generate_site(mw, seed, out_dir, geographic=geographic, fmt=fmt)
+        info = generate_site(mw, seed, out_dir, geographic=geographic, fmt=fmt, force=force)
+    except FolderError as exc:
+        _fail_input(exc)
+        return
     except ValueError as exc:
         err.print(f"error: {exc}", markup=False)
         raise typer.Exit(2) from None
+    except OSError as exc:
+        _fail_os(exc, out_dir)
+        return
     out.print(
         f"site: {out_dir} — {info.mwdc:.1f} MWdc, {info.rows} rows, {info.strings} strings, "
         f"{info.combiners} combiners, {info.inverters} inverters, {info.trenches} trenches "

@@ -12,6 +12,8 @@ from pathlib import Path
 
 import pandas as pd
 
+from .folder import OutputFolder
+
 #: circuit fields compared, in report order (route, length, size, drop, status)
 CIRCUIT_FIELDS: tuple[str, ...] = (
     "to_id",
@@ -148,6 +150,23 @@ def _quantity_delta(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
     return rows
 
 
-def write_diff(diff: PlanDiff, path: Path) -> None:
-    """Write the changes as CSV."""
-    diff.changes.to_csv(path, index=False, lineterminator="\n", encoding="utf-8")
+#: the file ``routeplan diff --out DIR`` writes into DIR
+CHANGES_FILE = "changes.csv"
+
+
+def open_diff_folder(out_dir: Path | str, *, force: bool = False) -> OutputFolder:
+    """Open the folder ``routeplan diff --out`` writes into (:mod:`routeplan.folder`: a new
+    or empty folder, or one ``diff`` wrote before; ``force`` writes beside other files,
+    which are kept). Raises :class:`routeplan.errors.FolderError` when it cannot be used."""
+    return OutputFolder.open(out_dir, "diff", force=force, expect=(CHANGES_FILE,))
+
+
+def write_diff(diff: PlanDiff, out: Path | str | OutputFolder) -> Path:
+    """Write the changes as ``changes.csv`` into the output folder ``out`` (an open one, or
+    a path opened with :func:`open_diff_folder`). Returns the file written."""
+    if not isinstance(out, OutputFolder):
+        with open_diff_folder(out) as folder:
+            return write_diff(diff, folder)
+    diff.changes.to_csv(out.work / CHANGES_FILE, index=False, lineterminator="\n", encoding="utf-8")
+    out.commit([CHANGES_FILE])
+    return out.path / CHANGES_FILE

@@ -7,8 +7,11 @@ Hierarchy::
     ├── UnreachableError    a circuit's two ends join separate islands of the trench network
     ├── AssignmentError     a missing ``to`` could not be filled, or a ``to`` names no feature
     ├── ParameterError      a routing parameter is out of range or not one of the valid choices
-    └── DesignError         the design settings cannot be applied by the rule set (e.g. a
-                            candidate size its tables do not cover)
+    ├── DesignError         the design settings cannot be applied by the rule set (e.g. a
+    │                       candidate size its tables do not cover)
+    └── FolderError         a folder routeplan was asked to write into cannot be used (it is
+                            the site's, holds files routeplan did not write, is locked by
+                            another run, cannot be written, or its disk is full)
 
 Routing collects the problems of every step before raising, so one run reports all of them.
 When they are of several kinds, the base :class:`RoutingError` is raised with all of them.
@@ -25,6 +28,7 @@ from layers.errors import Problem
 __all__ = [
     "AssignmentError",
     "DesignError",
+    "FolderError",
     "NotConnectedError",
     "ParameterError",
     "Problem",
@@ -62,6 +66,14 @@ class ParameterError(RoutingError, ValueError):
 
 class DesignError(RoutingError):
     """The design settings cannot be applied by the chosen rule set."""
+
+
+class FolderError(RoutingError):
+    """A folder routeplan was asked to write into cannot be used as it is (one problem: the
+    folder's path and what to do)."""
+
+    def __init__(self, path: object, message: str):
+        super().__init__([Problem(str(path), None, message)])
 
 
 def raise_for(found: Sequence[tuple[type[RoutingError], Problem]]) -> None:

@@ -24,7 +24,7 @@ import calc
 from layers import Site, SiteError
 
 from . import CAUTION, __version__
-from .cache import PlanCache, digest, site_key
+from .cache import PlanCache, digest, site_key, uncacheable_layers
 from .check import load
 from .config import DesignConfig, parse_design
 from .errors import DesignError, Problem
@@ -254,6 +254,11 @@ def _load(root: Path, cache: PlanCache | None) -> tuple[Site, DesignConfig]:
         return load(root)  # reports every problem
     key = site_key(root, config, sources)
     if key is None:  # inputs the cache cannot fingerprint: no cache for this run
+        names = ", ".join(f"{name} ({sources[name]})" for name in uncacheable_layers(root, sources))
+        cache.bypassed = (
+            f"the files of layer {names} cannot all be listed, so an edit of them could not "
+            "be seen; this run planned from scratch"
+        )
         return load(root)
     cached = cache.get("site", key)
     if cached is None:

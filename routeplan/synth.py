@@ -828,6 +828,7 @@ def generate_site(
     fmt: str = "gpkg",
     mount: str | None = None,
     unassigned_rows: int = 0,
+    force: bool = False,
 ) -> SynthInfo:
     """Write a synthetic ground-mount PV plant as a site folder.
 
@@ -836,9 +837,10 @@ def generate_site(
     mw, seed, geographic, mount, unassigned_rows
         As for :func:`synth_site`.
     out : path
-        Site folder; created when missing. Files this function writes (``site.toml``,
-        ``site.gpkg``, ``<layer>.geojson``) are replaced, including those of the other
-        format, so the folder never holds two candidates for a layer; other files are kept.
+        Site folder; created when missing. It is written through its manifest
+        (:mod:`routeplan.folder`): a new or empty folder, or one ``synth`` wrote before, whose
+        files (of either format, so the folder never holds two candidates for a layer) are
+        replaced; ``force`` writes into a folder holding other files too (they are kept).
     fmt : {'gpkg', 'geojson'}
         ``gpkg``: one ``site.gpkg`` holding every layer; ``geojson``: one file per layer.
 
@@ -851,24 +853,29 @@ def generate_site(
     ------
     ValueError
         For an unknown ``fmt`` or any argument :func:`synth_site` refuses.
+    routeplan.errors.FolderError
+        When the folder cannot be written (see :meth:`routeplan.folder.OutputFolder.open`).
     """
+    from .folder import OutputFolder
+
     _check_option("fmt", fmt, FORMATS)
-    site = synth_site(mw, seed, geographic=geographic, mount=mount, unassigned_rows=unassigned_rows)
-    root = Path(out)
-    root.mkdir(parents=True, exist_ok=True)
-    stale = [root / "site.gpkg", *(root / f"{name}.geojson" for name in LAYERS)]
-    for path in stale:
-        path.unlink(missing_ok=True)
-    (root / "site.toml").write_text(site.toml, encoding="utf-8")
-    files = ["site.toml"]
-    for name, frame in site.frames.items():
+    names = ("site.toml", "site.gpkg", *(f"{name}.geojson" for name in LAYERS))
+    with OutputFolder.open(out, "site", force=force, expect=names) as folder:
+        site = synth_site(
+            mw, seed, geographic=geographic, mount=mount, unassigned_rows=unassigned_rows
+        )
+        work = folder.work
+        (work / "site.toml").write_text(site.toml, encoding="utf-8")
+        files = ["site.toml"]
+        for name, frame in site.frames.items():
+            if fmt == "gpkg":
+                pyogrio.write_dataframe(frame, work / "site.gpkg", layer=name, driver="GPKG")
+            else:
+                pyogrio.write_dataframe(frame, work / f"{name}.geojson", driver="GeoJSON")
+                files.append(f"{name}.geojson")
         if fmt == "gpkg":
-            pyogrio.write_dataframe(frame, root / "site.gpkg", layer=name, driver="GPKG")
-        else:
-            pyogrio.write_dataframe(frame, root / f"{name}.geojson", driver="GeoJSON")
-            files.append(f"{name}.geojson")
-    if fmt == "gpkg":
-        files.append("site.gpkg")
+            files.append("site.gpkg")
+        folder.commit(files)
     return dataclasses.replace(site.info, files=tuple(files))
 
 

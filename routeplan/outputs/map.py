@@ -430,6 +430,7 @@ def write_map(
     basemap: bool = False,
     aggregate_strings_above: int = 20000,
     dest: Path | None = None,
+    force: bool = False,
 ) -> Path:
     """Read an output folder of ``routeplan plan`` and write its map.
 
@@ -440,15 +441,55 @@ def write_map(
     basemap, aggregate_strings_above
         As for :func:`render_map`.
     dest : pathlib.Path, optional
-        Where to write; ``out_dir / "map.html"`` by default.
+        Another file to write the map to (replaced atomically). By default the map replaces
+        ``out_dir / "map.html"``, through the folder's manifest (:mod:`routeplan.folder`):
+        only in a folder routeplan wrote, and only a map.html it wrote (or, with ``force``,
+        one edited since).
+    force : bool
+        Replace a map.html edited since routeplan wrote it.
 
     Returns
     -------
     pathlib.Path
-        The file written (replaced atomically).
+        The file written.
+
+    Raises
+    ------
+    MapError
+        A file, layer, column or CRS of the folder is missing or unreadable.
+    routeplan.errors.FolderError
+        The folder is not one routeplan wrote, is locked by another run, or map.html is not
+        routeplan's.
     """
-    frames, site_name = read_output_folder(Path(out_dir))
-    html = render_map(
+    from routeplan.folder import OutputFolder
+
+    out_dir = Path(out_dir)
+    if dest is not None:
+        html = _render_folder(out_dir, basemap, aggregate_strings_above)
+        dest = Path(dest)
+        dest.parent.mkdir(parents=True, exist_ok=True)
+        tmp = dest.with_name(f".{dest.name}.{os.getpid()}.tmp")
+        try:
+            tmp.write_text(html, encoding="utf-8")
+            os.replace(tmp, dest)
+        except BaseException:
+            tmp.unlink(missing_ok=True)
+            raise
+        return dest
+    if not out_dir.is_dir():
+        raise MapError(f"{out_dir}: not found (is it an output folder of 'routeplan plan'?)")
+    with OutputFolder.open(
+        out_dir, "plan", force=force, expect=(MAP_FILE,), must_exist=True
+    ) as folder:
+        html = _render_folder(folder.real, basemap, aggregate_strings_above)
+        (folder.work / MAP_FILE).write_text(html, encoding="utf-8")
+        folder.commit([MAP_FILE], keep_others=True)
+    return out_dir / MAP_FILE
+
+
+def _render_folder(out_dir: Path, basemap: bool, aggregate_strings_above: int) -> str:
+    frames, site_name = read_output_folder(out_dir)
+    return render_map(
         frames["circuits"],
         frames["segments"],
         frames["rows"],
@@ -457,13 +498,3 @@ def write_map(
         basemap=basemap,
         aggregate_strings_above=aggregate_strings_above,
     )
-    dest = Path(dest) if dest is not None else Path(out_dir) / MAP_FILE
-    dest.parent.mkdir(parents=True, exist_ok=True)
-    tmp = dest.with_name(f".{dest.name}.{os.getpid()}.tmp")
-    try:
-        tmp.write_text(html, encoding="utf-8")
-        os.replace(tmp, dest)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
-    return dest

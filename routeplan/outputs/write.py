@@ -2,17 +2,16 @@
 
 Files (the contract, see README "Outputs"): ``cable_schedule.csv``, ``trench_schedule.csv``,
 ``quantities.csv``, ``routes.gpkg`` (layers ``circuits``, ``segments``, ``rows``,
-``equipment``), ``cable_schedule.xlsx``, ``summary.json`` and ``map.html``. Everything is
-written to a temporary folder beside the target, then moved into place, so a failed run
-never leaves a half-written folder.
+``equipment``), ``cable_schedule.xlsx``, ``summary.json`` and ``map.html``, and the plan
+cache (``.routeplan-cache/``). Everything is written into the output folder's work folder,
+then committed (:mod:`routeplan.folder`): a failed or killed run never leaves a half-written
+folder, and no file routeplan did not write is ever touched.
 """
 
 from __future__ import annotations
 
 import hashlib
 import json
-import shutil
-import tempfile
 import time
 from collections.abc import Callable
 from pathlib import Path
@@ -32,6 +31,7 @@ from ..cache import (
     input_files,
     link_or_copy,
 )
+from ..folder import OutputFolder
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
@@ -62,8 +62,9 @@ def schedules(plan: Plan, hashes: dict[str, np.ndarray] | None = None) -> dict[s
 
 
 def input_digest(plan: Plan) -> dict[str, str]:
-    """SHA-256 of site.toml and of every layer file read (GeoPackage layers: the file)."""
-    return input_files(plan.site.root, plan.site.sources)
+    """SHA-256 of site.toml and of every file the layers were read from (see
+    :func:`routeplan.cache.input_files`), by path relative to the site folder."""
+    return input_files(plan.site.root, plan.site.sources, partial=True) or {}
 
 
 def equipment_frame(plan: Plan) -> gpd.GeoDataFrame:
@@ -100,26 +101,69 @@ def rows_frame(plan: Plan) -> gpd.GeoDataFrame:
     )
 
 
+def open_output_folder(
+    out_dir: Path | str,
+    site_root: Path | str,
+    sources: dict[str, str] | None = None,
+    *,
+    force: bool = False,
+) -> OutputFolder:
+    """Open ``out_dir`` for a plan of the site at ``site_root`` (:mod:`routeplan.folder`):
+    checked before any computation, and never the site folder, a folder holding it or any
+    of its input files (``sources``: the layers' specs as :func:`layers.sources.locate_layers`
+    gives them; found from site.toml when None), or a folder inside an input dataset."""
+    from layers.sources import site_inputs, source_files
+
+    root = Path(site_root)
+    if sources is None:
+        protect, _ = site_inputs(root)
+    else:
+        protect = [root / "site.toml"]
+        for spec in sources.values():
+            protect += source_files(root, spec) or []
+    return OutputFolder.open(
+        out_dir, "plan", force=force, protect=protect, protect_root=root, expect=FILES
+    )
+
+
 def write_plan(
     plan: Plan,
-    out_dir: Path | str,
+    out: Path | str | OutputFolder,
     *,
     map_options: dict | None = None,
     progress: Callable[[str], None] | None = None,
+    force: bool = False,
 ) -> dict[str, float]:
-    """Write every output of ``plan`` into ``out_dir`` (replacing it). Returns seconds per file.
+    """Write every output of ``plan`` into the output folder ``out`` (an open
+    :class:`~routeplan.folder.OutputFolder`, or a path opened here with ``force``), all or
+    nothing, replacing the previous run's files and no others. Returns seconds per step.
 
     When the plan ran with a cache (:mod:`routeplan.cache`), the cache is saved with the
     outputs. When nothing that the outputs depend on changed since the last run, the last
     run's files are reused (if their bytes are still the ones written then); otherwise the
     schedules and the GeoPackage reuse the last run's unchanged rows
     (:mod:`routeplan.outputs.reuse`).
+
+    Raises
+    ------
+    routeplan.errors.FolderError
+        When the folder cannot be used (see :meth:`routeplan.folder.OutputFolder.open`).
     """
+    if isinstance(out, OutputFolder):
+        return _write_into(plan, out, map_options, progress)
+    with open_output_folder(out, plan.site.root, plan.site.sources, force=force) as folder:
+        return _write_into(plan, folder, map_options, progress)
+
+
+def _write_into(
+    plan: Plan,
+    folder: OutputFolder,
+    map_options: dict | None,
+    progress: Callable[[str], None] | None,
+) -> dict[str, float]:
     say = progress or (lambda stage: None)
-    out_dir = Path(out_dir)
-    out_dir.parent.mkdir(parents=True, exist_ok=True)
     t: dict[str, float] = {}
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", dir=out_dir.parent))
+    tmp = folder.work
     jobs: list[parallel.Job] = []
     try:
         cache = plan.cache
@@ -139,17 +183,22 @@ def write_plan(
             t["reused_outputs"] = time.perf_counter() - t0
         else:
             digests = _write_files(plan, tmp, map_options, say, t, jobs)
+        files = list(FILES)
         if cache is not None:
             say("save cache")
             t0 = time.perf_counter()
             cache.reused["outputs"] = bool(old)
-            cache.save(tmp, key, FILES, digests)
+            saved = cache.save(tmp, key, FILES, digests)
+            digests.update(saved)
+            files += list(saved)
             t["cache_save"] = time.perf_counter() - t0
-        _replace(tmp, out_dir)
+        say("commit")
+        t0 = time.perf_counter()
+        folder.commit(files, digests)
+        t["commit"] = time.perf_counter() - t0
     except BaseException:
         for job in jobs:
             job.cancel()
-        shutil.rmtree(tmp, ignore_errors=True)
         raise
     return t
 
@@ -311,18 +360,6 @@ def _write_map(
         "sha256": hashlib.sha256(data).hexdigest(),
     }
     (tmp / _MAP_STATS).write_text(json.dumps(stats), encoding="utf-8")
-
-
-def _replace(tmp: Path, out_dir: Path) -> None:
-    """Move ``tmp`` into place as ``out_dir``; an existing folder is removed only afterwards."""
-    if out_dir.exists():
-        old = out_dir.with_name(f".{out_dir.name}.old")
-        shutil.rmtree(old, ignore_errors=True)
-        out_dir.rename(old)
-        tmp.rename(out_dir)
-        shutil.rmtree(old, ignore_errors=True)
-    else:
-        tmp.rename(out_dir)
 
 
 def _summary_rows(summary: dict) -> pd.DataFrame:

@@ -200,13 +200,17 @@ def make_frames(names: dict[str, str] | None = None) -> tuple[dict[str, gpd.GeoD
 
 
 def write_output_folder(out: Path, frames: dict[str, gpd.GeoDataFrame], site_name: str) -> Path:
-    """Write ``routes.gpkg`` and ``summary.json`` as ``routeplan plan`` does."""
-    out.mkdir(parents=True, exist_ok=True)
-    gpkg = out / "routes.gpkg"
-    for layer, gdf in frames.items():
-        gdf.to_file(gpkg, layer=layer, driver="GPKG")
-    summary = {"site": {"name": site_name, "crs": CRS}}
-    (out / "summary.json").write_text(json.dumps(summary), encoding="utf-8")
+    """Write ``routes.gpkg`` and ``summary.json`` as ``routeplan plan`` does (through the
+    folder's manifest, :mod:`routeplan.folder`)."""
+    from routeplan.folder import OutputFolder
+
+    with OutputFolder.open(out, "plan") as folder:
+        gpkg = folder.work / "routes.gpkg"
+        for layer, gdf in frames.items():
+            gdf.to_file(gpkg, layer=layer, driver="GPKG")
+        summary = {"site": {"name": site_name, "crs": CRS}}
+        (folder.work / "summary.json").write_text(json.dumps(summary), encoding="utf-8")
+        folder.commit(["routes.gpkg", "summary.json"])
     return out
 
 

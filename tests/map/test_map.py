@@ -485,7 +485,7 @@ def test_read_output_folder(plan_dir: Path):
 
 
 def test_missing_folder_or_layer(tmp_path: Path, plan_dir: Path):
-    with pytest.raises(MapError, match=r"routes\.gpkg: not found"):
+    with pytest.raises(MapError, match=r"nothing: not found"):
         write_map(tmp_path / "nothing")
     (plan_dir / "summary.json").write_text("{}", encoding="utf-8")
     with pytest.raises(MapError, match=r"site\.name"):

@@ -23,6 +23,7 @@ from typer.testing import CliRunner
 from routeplan import cache as cache_mod
 from routeplan.cache import CACHE_DIR, MANIFEST, PlanCache, dumps, loads
 from routeplan.cli import app
+from routeplan.errors import FolderError
 from routeplan.outputs.write import write_plan
 from routeplan.pipeline import plan
 
@@ -34,10 +35,10 @@ XLSX, GPKG = "cable_schedule.xlsx", "routes.gpkg"
 runner = CliRunner()
 
 
-def run(site: Path, out: Path, *, cache: bool = True):
+def run(site: Path, out: Path, *, cache: bool = True, force: bool = False):
     """Plan ``site`` into ``out`` (with the folder's cache or without); the Plan."""
     p = plan(site, cache=PlanCache(out) if cache else None)
-    write_plan(p, out)
+    write_plan(p, out, force=force)
     return p
 
 
@@ -319,12 +320,16 @@ def test_another_environment_means_a_cold_run(demo, tmp_path, monkeypatch):
     assert not any(reused.values())
 
 
-def test_an_output_edited_by_hand_is_written_anew(demo, tmp_path):
+def test_an_output_edited_by_hand_is_kept_unless_forced_then_written_anew(demo, tmp_path):
     out = tmp_path / "out"
     run(demo, out)
     good = (out / "cable_schedule.csv").read_bytes()
-    (out / "cable_schedule.csv").write_bytes(good.replace(b"ok", b"OK", 1))
-    again = run(demo, out)
+    edited = good.replace(b"ok", b"OK", 1)
+    (out / "cable_schedule.csv").write_bytes(edited)
+    with pytest.raises(FolderError, match="'cable_schedule.csv' was changed after routeplan"):
+        run(demo, out)
+    assert (out / "cable_schedule.csv").read_bytes() == edited  # the user's edit is kept
+    again = run(demo, out, force=True)
     assert again.reused["route"] and not again.reused["outputs"]
     assert (out / "cable_schedule.csv").read_bytes() == good
 
@@ -417,23 +422,31 @@ def test_a_geopackage_write_ahead_log_is_part_of_the_key(gen, tmp_path):
     assert site_key(gen, config, sources) != before
 
 
-def test_a_layer_that_is_not_one_file_disables_the_cache(tmp_path):
+def test_a_folder_dataset_is_keyed_by_every_file_in_it(tmp_path):
     from routeplan.cache import site_key
 
     (tmp_path / "site.toml").write_text("", encoding="utf-8")
     (tmp_path / "rows.gdb").mkdir()
-    assert site_key(tmp_path, {}, {"rows": "rows.gdb"}) is None
+    (tmp_path / "rows.gdb" / "a0000001.gdbtable").write_bytes(b"one")
+    before = site_key(tmp_path, {}, {"rows": "rows.gdb"})
+    assert before is not None
+    (tmp_path / "rows.gdb" / "a0000001.gdbtable").write_bytes(b"two")
+    assert site_key(tmp_path, {}, {"rows": "rows.gdb"}) != before
 
 
 def test_a_plan_saved_twice_and_its_staging_folder(demo, tmp_path):
-    """Stage entries are packed beside the output folder while planning; the plan can be
-    written twice (both folders get its entries); the staging folder goes with the cache."""
+    """Stage entries are packed while planning — never beside the output folder (a cache on
+    a bare path stages in the system's temporary folder); the plan can be written twice
+    (both folders get its entries); the staging folder goes with the cache."""
     import gc
 
     out = tmp_path / "out"
+    before = set(tmp_path.iterdir())
     p = plan(demo, cache=PlanCache(out))
-    staging = list(tmp_path.glob(".out.entries.*"))
-    assert len(staging) == 1
+    assert set(tmp_path.iterdir()) == before  # nothing written beside or into `out` yet
+    staging = [p.cache._staging]
+    assert staging[0] is not None and staging[0].is_dir()
+    assert tmp_path not in staging[0].parents
     write_plan(p, out)
     write_plan(p, tmp_path / "again")
     for folder in (out, tmp_path / "again"):

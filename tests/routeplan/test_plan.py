@@ -20,6 +20,7 @@ from typer.testing import CliRunner
 import layers
 from routeplan.cache import CACHE_DIR
 from routeplan.cli import app
+from routeplan.folder import MANIFEST
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS, names
 from routeplan.outputs.write import FILES
 
@@ -51,7 +52,7 @@ def demo_out(tmp_path_factory) -> Path:
 
 
 def test_file_set_and_contract_columns(demo_out):
-    files = sorted(p.name for p in demo_out.iterdir() if p.name != CACHE_DIR)  # + the cache
+    files = sorted(p.name for p in demo_out.iterdir() if p.name not in (CACHE_DIR, MANIFEST))
     assert files == sorted(FILES)
     sched = pd.read_csv(demo_out / "cable_schedule.csv")
     assert list(sched.columns[: len(CONTRACT_CIRCUIT)]) == CONTRACT_CIRCUIT
@@ -237,9 +238,9 @@ def test_diff_after_moving_a_pad_lists_exactly_its_circuits(demo_out, tmp_path):
     move_pad(DEMO, tmp_path / "moved", "INV-E", dx=-6.0)  # 6 m west along the branch
     out = tmp_path / "out_moved"
     assert run_plan(tmp_path / "moved", out).exit_code in (0, 1)
-    result = runner.invoke(app, ["diff", str(demo_out), str(out), "--out", str(tmp_path / "d.csv")])
+    result = runner.invoke(app, ["diff", str(demo_out), str(out), "--out", str(tmp_path / "d")])
     assert result.exit_code == 0, result.output
-    d = pd.read_csv(tmp_path / "d.csv", keep_default_na=False)
+    d = pd.read_csv(tmp_path / "d" / "changes.csv", keep_default_na=False)
     changed = set(d.loc[d["section"] == "circuit", "id"])
     sched = pd.read_csv(demo_out / "cable_schedule.csv")
     served_arrays = set(
