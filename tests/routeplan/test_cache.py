@@ -326,7 +326,7 @@ def test_an_output_edited_by_hand_is_kept_unless_forced_then_written_anew(demo, 
     good = (out / "cable_schedule.csv").read_bytes()
     edited = good.replace(b"ok", b"OK", 1)
     (out / "cable_schedule.csv").write_bytes(edited)
-    with pytest.raises(FolderError, match="'cable_schedule.csv' was changed after routeplan"):
+    with pytest.raises(FolderError, match=r"'cable_schedule\.csv' was changed after routeplan"):
         run(demo, out)
     assert (out / "cable_schedule.csv").read_bytes() == edited  # the user's edit is kept
     again = run(demo, out, force=True)
