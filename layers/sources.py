@@ -72,7 +72,7 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
                 problems.append(Problem(SITE_TOML, f"layers.{name}", "must be a file name"))
                 continue
             file_part = spec.rsplit(":", 1)[0] if _has_layer_suffix(spec) else spec
-            if not (root / file_part).is_file():
+            if not (root / file_part).exists():  # a file, or a folder dataset (.gdb)
                 problems.append(
                     Problem(name, None, f"file {file_part!r} named in [layers] not found")
                 )
@@ -231,8 +231,9 @@ def _vrt_sources(path: Path) -> list[Path] | None:
 
 def site_inputs(root: Path) -> tuple[list[Path], list[str]]:
     """The files a site folder's plan reads, for guarding them (never write over them):
-    ``site.toml`` and every file of every layer source that can be listed; and the layers
-    whose files cannot be listed. Problems in the site are left to the reader to report."""
+    ``site.toml``, each layer's file or folder dataset and every file of every layer source
+    that can be listed; and the layers whose files cannot be listed. Problems in the site are
+    left to the reader to report."""
     root = Path(root)
     files = [root / SITE_TOML]
     config, problems = read_config(root)
@@ -244,10 +245,10 @@ def site_inputs(root: Path) -> tuple[list[Path], list[str]]:
         return files, []
     unlisted = []
     for name, spec in sources.items():
+        files.append(layer_file(root, spec))  # a file, or a folder dataset
         listed = source_files(root, spec)
         if listed is None:
             unlisted.append(name)
-            files.append(layer_file(root, spec))
         else:
             files += listed
     return files, unlisted

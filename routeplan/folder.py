@@ -297,7 +297,7 @@ class OutputFolder:
         if m.purpose != self.purpose:
             raise FolderError(
                 self.path,
-                f"holds {PURPOSES[m.purpose]}, not {PURPOSES[self.purpose]}: choose another folder",
+                f"is {PURPOSES[m.purpose]}, not {PURPOSES[self.purpose]}: choose another folder",
             )
         return m
 

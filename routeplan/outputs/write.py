@@ -112,7 +112,7 @@ def open_output_folder(
     checked before any computation, and never the site folder, a folder holding it or any
     of its input files (``sources``: the layers' specs as :func:`layers.sources.locate_layers`
     gives them; found from site.toml when None), or a folder inside an input dataset."""
-    from layers.sources import site_inputs, source_files
+    from layers.sources import layer_file, site_inputs, source_files
 
     root = Path(site_root)
     if sources is None:
@@ -120,7 +120,7 @@ def open_output_folder(
     else:
         protect = [root / "site.toml"]
         for spec in sources.values():
-            protect += source_files(root, spec) or []
+            protect += [layer_file(root, spec), *(source_files(root, spec) or [])]
     return OutputFolder.open(
         out_dir, "plan", force=force, protect=protect, protect_root=root, expect=FILES
     )
