@@ -25,7 +25,6 @@ from typer.testing import CliRunner
 from routeplan import folder as folder_mod
 from routeplan.cache import CACHE_DIR
 from routeplan.cli import app
-from routeplan.errors import FolderError
 from routeplan.folder import MANIFEST, WORK_PREFIX, OutputFolder
 from routeplan.outputs.write import FILES
 from tests.conftest import write_site
@@ -315,9 +314,7 @@ def test_permission_denied(site, tmp_path, monkeypatch, no_planning):
 
 def test_a_full_disk_is_found_before_planning(site, tmp_path, monkeypatch, no_planning):
     usage = shutil.disk_usage(tmp_path)
-    monkeypatch.setattr(
-        folder_mod.shutil, "disk_usage", lambda p: usage._replace(free=2 * 2**20)
-    )
+    monkeypatch.setattr(folder_mod.shutil, "disk_usage", lambda p: usage._replace(free=2 * 2**20))
     result = plan(site, tmp_path / "out")
     assert result.exit_code == 2
     assert "only 2 MiB free on its disk" in one_error_line(result)
@@ -488,9 +485,9 @@ _KILLED_RUN = textwrap.dedent(
 
 
 def _child(crash: int, site: Path, out: Path, *args: str) -> subprocess.Popen:
+    command = ["plan", str(site), "--out", str(out), "--quiet", *args]
     return subprocess.Popen(
-        [sys.executable, "-c", _KILLED_RUN, str(crash), "plan", str(site), "--out", str(out)]
-        + ["--quiet", *args],
+        [sys.executable, "-c", _KILLED_RUN, str(crash), *command],
         cwd=ROOT,
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
