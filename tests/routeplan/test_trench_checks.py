@@ -483,18 +483,21 @@ def test_features_naming_one_missing_id_are_one_line(tmp_path):
 
 
 def crossing_site_frames() -> dict[str, gpd.GeoDataFrame]:
-    """A site whose trenches cross (T1 × T2, T3 × T4) and meet at T-junctions (T3 on T1,
-    T5 at T3's end)."""
+    """A site whose trenches cross (T1 × T2, T3 × T4), meet at a T-junction (T3 on T1), end
+    to end at a corner (T5 at T3's end) and at a shallow Y just below the minimum overlap
+    (T6 leaves T1's start at asin(0.1 / 0.95) ≈ 6°: 0.95 m within node_tol_m of T1)."""
+    theta = math.asin(TOL / 0.95)
     t = {
         "T1": [xy(0, 0), xy(200, 0)],
         "T2": [xy(50, -40), xy(50, 40)],
         "T3": [xy(120, 0), xy(120, 60)],
         "T4": [xy(100, 30), xy(160, 30)],
         "T5": [xy(120, 60), xy(160, 60)],
+        "T6": [xy(0, 0), xy(60 * math.cos(theta), 60 * math.sin(theta))],
     }
     frames = copy.deepcopy(base_frames())
     frames["trenches"] = gpd.GeoDataFrame(
-        {"id": list(t), "depth_m": [0.8] * 5, "laying": ["direct"] * 5},
+        {"id": list(t), "depth_m": [0.8] * len(t), "laying": ["direct"] * len(t)},
         geometry=[LineString(c) for c in t.values()],
         crs=UTM33,
     )
@@ -511,6 +514,9 @@ def crossing_site_frames() -> dict[str, gpd.GeoDataFrame]:
 def test_bill_counts_each_corridor_once(tmp_path):
     frames = crossing_site_frames()
     root = write_site(tmp_path / "site", frames)
+    checked = runner.invoke(app, ["check", str(root)])
+    assert checked.exit_code == 0, checked.output  # meetings, not overlaps
+    assert "ok: no problems found" in checked.output
     out = tmp_path / "out"
     result = runner.invoke(app, ["plan", str(root), "--out", str(out), "--no-cache"])
     assert result.exit_code in (0, 1), result.output
@@ -518,7 +524,7 @@ def test_bill_counts_each_corridor_once(tmp_path):
     billed = q.loc[q["item"] == "trench", "quantity"].sum()
     # shapely: the length of the union of the trench geometry (each corridor once)
     union = shapely.length(shapely.union_all(frames["trenches"].geometry.values))
-    assert union == pytest.approx(440.0)
+    assert union == pytest.approx(500.0)
     assert billed == pytest.approx(union, abs=0.01)  # quantities.csv: 2 decimals
 
 
