@@ -13,6 +13,10 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from .model import Site
 
 
 @dataclass(frozen=True, order=True)
@@ -33,10 +37,19 @@ class LayerError(Exception):
 
 
 class SiteError(LayerError):
-    """The site could not be read or is invalid; ``problems`` lists every problem found."""
+    """The site could not be read or is invalid; ``problems`` lists every problem found.
 
-    def __init__(self, problems: Iterable[Problem]):
+    ``partial`` is the site as far as validation could vouch for it, or None: every layer
+    was read, its geometry is valid and in the working CRS, but some attributes (or
+    site.toml's modules) are wrong — they are NaN / None where a value was refused, and an
+    id missing is its position label ``#n``. Checks that need the geometry alone (e.g. the
+    trench network's) may run on it, so that one run reports their problems too; nothing
+    may be planned from it.
+    """
+
+    def __init__(self, problems: Iterable[Problem], partial: Site | None = None):
         self.problems: list[Problem] = list(problems)
+        self.partial = partial
         n = len(self.problems)
         head = str(self.problems[0]) if n else "invalid site"
         super().__init__(head if n == 1 else f"{n} problems, first: {head}")

@@ -15,7 +15,9 @@ def read_site(path: Path | str) -> Site:
 
     Opens ``site.toml`` and each layer file (any format pyogrio reads), reprojects to one metric
     working CRS and validates everything. Raises :class:`~layers.errors.SiteError` listing every
-    problem (file, layer, feature id, what is wrong) — never only the first.
+    problem (file, layer, feature id, what is wrong) — never only the first; its ``partial``
+    site is set only when every file was read and found and only attributes (or modules) are
+    wrong.
     """
     root = Path(path)
     config, problems = read_config(root)
@@ -43,7 +45,9 @@ def read_site(path: Path | str) -> Site:
                 and q.message == "required layer missing"
             )
         ]
-        raise SiteError(problems + later) from None
+        # the geometry-only checks may run on the partial site only when every file was read
+        partial = exc.partial if not problems else None
+        raise SiteError(problems + later, partial=partial) from None
     if problems:
         raise SiteError(problems)
     return site

@@ -102,6 +102,10 @@ SINGULAR: dict[str, str] = {
 }
 
 
+#: layers that must hold at least one feature (a site may have no combiner and no grid point)
+NOT_EMPTY: tuple[str, ...] = ("rows", "inverters", "trenches")
+
+
 def _a(noun: str) -> str:
     return ("an " if noun[:1] in "aeiou" else "a ") + noun
 
@@ -127,6 +131,7 @@ def build_site(
         site_cfg = {}
     modules, module_problems = parse_modules(config)
     problems += module_problems
+    first_stage = len(problems)  # from here to the CRS: problems that make geometry unusable
 
     for name in REQUIRED_LAYERS:
         if name not in frames:
@@ -147,22 +152,52 @@ def build_site(
             clean[name] = frame
     crs, crs_note, projected, p = choose_working_crs(clean, site_crs, source_crs)
     problems += p
+    usable = len(problems) == first_stage and crs is not None
 
     typed: dict[str, gpd.GeoDataFrame] = {}
     for name, frame in projected.items():
         frame, p = _check_attributes(name, frame)
         problems += p
         typed[name] = frame
-    problems += _check_ids_and_refs(typed, modules)
+    # layers whose features cannot be known: missing, unreadable (located but not given
+    # here), without an id column, or empty where features are needed; each is reported
+    # once, at the layer
+    unavailable = {
+        name
+        for name in LAYER_NAMES
+        if (name in typed and "id" not in typed[name].columns)
+        or (name in typed and len(typed[name]) == 0 and name in NOT_EMPTY)
+        or (name not in typed and (name in REQUIRED_LAYERS or name in (sources or {})))
+    }
+    raw_modules = config.get("modules")
+    declared = set(map(str, raw_modules)) if isinstance(raw_modules, dict) and raw_modules else None
+    problems += _check_ids_and_refs(typed, modules, unavailable, declared)
     if problems:
-        raise SiteError(sorted(set(problems), key=_problem_order))
+        partial = None
+        if usable:
+            labelled = {k: _labelled(v) for k, v in typed.items()}
+            partial = _site(labelled, crs, crs_note, modules, config, root, sources)
+        raise SiteError(sorted(set(problems), key=_problem_order), partial=partial)
+    return _site(typed, crs, crs_note, modules, config, root, sources)
 
+
+def _site(
+    typed: dict[str, gpd.GeoDataFrame],
+    crs: Any,
+    crs_note: str,
+    modules: dict[str, Module],
+    config: dict[str, Any],
+    root: Path,
+    sources: dict[str, str] | None,
+) -> Site:
+    """The :class:`Site` of checked frames (an empty ``grid`` when the site has none)."""
     if "grid" not in typed:
         typed["grid"] = gpd.GeoDataFrame({"id": pd.Series([], dtype=object)}, geometry=[], crs=crs)
-    name = str(site_cfg.get("name") or root.resolve().name)
+    site_cfg = config.get("site", {}) or {}
+    name = site_cfg.get("name") if isinstance(site_cfg, dict) else None
     return Site(
         root=root,
-        name=name,
+        name=str(name or root.resolve().name),
         crs=crs,
         crs_note=crs_note,
         rows=typed["rows"],
@@ -174,6 +209,18 @@ def build_site(
         config=config,
         sources=dict(sources or {}),
     )
+
+
+def _labelled(frame: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
+    """``frame`` with each missing id replaced by its position label ``#n`` (as messages
+    name it)."""
+    ids = frame["id"].to_numpy(dtype=object)
+    blank = np.flatnonzero(ids == "")
+    if len(blank) == 0:
+        return frame
+    ids = ids.copy()
+    ids[blank] = [f"#{i + 1}" for i in blank.tolist()]
+    return frame.assign(id=pd.Series(ids, index=frame.index, dtype=object))
 
 
 def _problem_order(p: Problem) -> tuple:
@@ -277,7 +324,14 @@ def _check_geometry(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFram
     """Geometry presence, type and validity; single-part Multi* unpacked; Z dropped."""
     problems: list[Problem] = []
     frame = _normalise_columns(name, frame.reset_index(drop=True).copy())
-    if "id" not in frame.columns:
+    if len(frame) == 0:  # an empty layer: one problem at most, whatever its columns
+        if name in NOT_EMPTY:
+            problems.append(
+                Problem(name, None, f"has no features: a site needs at least one {SINGULAR[name]}")
+            )
+        if "id" not in frame.columns:
+            frame["id"] = pd.Series([], dtype=object)
+    elif "id" not in frame.columns:
         problems.append(Problem(name, None, "no 'id' column"))
     geoms = np.asarray(frame.geometry.values, dtype=object)
     missing = shapely.is_missing(geoms) | shapely.is_empty(geoms)
@@ -347,7 +401,7 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
         frame["id"] = pd.Series(ids, index=frame.index, dtype=object)
     for fld in FIELDS[name]:
         if fld.name not in frame.columns:
-            if fld.required:
+            if fld.required and n:
                 problems.append(Problem(name, None, f"no {fld.name!r} column (required)"))
             frame[fld.name] = _default_column(fld, n)
             continue
@@ -446,10 +500,21 @@ def _parse_value(fld: Field, v: Any) -> tuple[Any, str]:
 
 
 def _check_ids_and_refs(
-    frames: dict[str, gpd.GeoDataFrame], modules: dict[str, Module]
+    frames: dict[str, gpd.GeoDataFrame],
+    modules: dict[str, Module],
+    unavailable: set[str] | frozenset[str] = frozenset(),
+    declared: set[str] | None = None,
 ) -> list[Problem]:
     """Ids unique across layers; ``to`` points at an existing feature of the right kind;
-    module keys exist; a combiner's ``max_strings`` is not exceeded by the rows assigned to it."""
+    module keys exist; a combiner's ``max_strings`` is not exceeded by the rows assigned to it.
+
+    One root cause gives one problem: features naming the same missing id (or module key)
+    are reported together; ``to`` values pointing into a layer in ``unavailable`` (missing,
+    unreadable, without ids: reported at that layer) are not reported, and those that could
+    point into an empty layer are reported in one line. A module key that has a table in
+    site.toml (``declared``) but was refused there is not reported again, nor is any key
+    when site.toml has no module table at all (``declared`` None).
+    """
     problems: list[Problem] = []
     owner: dict[str, str] = {}
     labels = {name: _labeller(frame) for name, frame in frames.items()}
@@ -476,41 +541,91 @@ def _check_ids_and_refs(
         for fld in FIELDS[name]:
             if fld.kind != "ref" or fld.name not in frame.columns:
                 continue
+            missing: dict[str, list[int]] = {}
+            wrong: dict[str, list[int]] = {}
             for i, target in enumerate(frame[fld.name]):
                 if not target:
                     continue
                 kind = owner.get(target)
                 if kind is None:
-                    problems.append(
-                        Problem(
-                            name,
-                            labels[name](i),
-                            f"{fld.name} = {target!r}: no feature has that id",
-                        )
-                    )
+                    missing.setdefault(target, []).append(i)
                 elif kind not in fld.targets:
-                    want = " or ".join(SINGULAR[t] for t in fld.targets)
-                    problems.append(
-                        Problem(
-                            name,
-                            labels[name](i),
-                            f"{fld.name} = {target!r} is {_a(SINGULAR[kind])}; expected {_a(want)}",
-                        )
-                    )
-    rows = frames.get("rows")
-    if rows is not None and "module" in rows.columns and modules is not None:
-        known = ", ".join(sorted(modules)) or "none"
-        for i, key in enumerate(rows["module"]):
-            if key and key not in modules:
+                    wrong.setdefault(target, []).append(i)
+            for target, at in wrong.items():
+                kind = SINGULAR[owner[target]]
+                want = " or ".join(SINGULAR[t] for t in fld.targets)
                 problems.append(
-                    Problem(
-                        "rows",
-                        labels["rows"](i),
-                        f"module {key!r} is not in site.toml [modules] (known: {known})",
+                    _grouped(
+                        name,
+                        [labels[name](i) for i in at],
+                        f"{fld.name} = {target!r}",
+                        f"is {_a(kind)}; expected {_a(want)}",
+                        sep=" ",
                     )
                 )
+            if not missing or set(fld.targets) & unavailable:
+                continue
+            empty = [t for t in fld.targets if t not in frames or len(frames[t]) == 0]
+            if empty:
+                at = sorted(i for rows in missing.values() for i in rows)
+                why = " and ".join(
+                    f"the {t} layer is empty" if t in frames else f"the site has no {t} layer"
+                    for t in empty
+                )
+                if len(at) == 1:
+                    problems.append(
+                        Problem(
+                            name,
+                            labels[name](at[0]),
+                            f"{fld.name} = {next(iter(missing))!r}: no feature has that id — {why}",
+                        )
+                    )
+                    continue
+                which = _listed([labels[name](i) for i in at])
+                problems.append(
+                    Problem(
+                        name,
+                        None,
+                        f"{fld.name} of {len(at)} {name} ({which}) "
+                        f"names {_listed([repr(t) for t in missing])}: no feature has "
+                        f"{'that id' if len(missing) == 1 else 'these ids'} — {why}",
+                    )
+                )
+                continue
+            for target, at in missing.items():
+                problems.append(
+                    _grouped(
+                        name,
+                        [labels[name](i) for i in at],
+                        f"{fld.name} = {target!r}",
+                        "no feature has that id",
+                    )
+                )
+    rows = frames.get("rows")
+    if rows is not None and "module" in rows.columns and declared is not None:
+        known = ", ".join(sorted(modules)) or "none"
+        unknown: dict[str, list[int]] = {}
+        for i, key in enumerate(rows["module"]):
+            if key and key not in modules and key not in declared:
+                unknown.setdefault(key, []).append(i)
+        for key, at in unknown.items():
+            problems.append(
+                _grouped(
+                    "rows",
+                    [labels["rows"](i) for i in at],
+                    f"module {key!r}",
+                    f"is not in site.toml [modules] (known: {known})",
+                    sep=" ",
+                )
+            )
     combiners = frames.get("combiners")
-    if rows is not None and combiners is not None and "to" in rows.columns and len(combiners):
+    if (
+        rows is not None
+        and combiners is not None
+        and "to" in rows.columns
+        and "id" in combiners.columns
+        and len(combiners)
+    ):
         strings = pd.to_numeric(rows["strings"], errors="coerce").fillna(0)
         per_target = strings.groupby(rows["to"]).sum()
         assigned = per_target.reindex(combiners["id"]).fillna(0.0).to_numpy(dtype=float)
@@ -526,3 +641,20 @@ def _check_ids_and_refs(
                 )
             )
     return problems
+
+
+def _listed(items: list[str], most: int = 5) -> str:
+    """``items`` joined by commas, the first ``most`` of them, then how many more."""
+    shown = ", ".join(items[:most])
+    return shown + (f" and {len(items) - most} more" if len(items) > most else "")
+
+
+def _grouped(layer: str, labels: list[str], subject: str, message: str, sep: str = ": ") -> Problem:
+    """One problem for every feature of ``layer`` (``labels``) with the same fault: on the
+    feature when it is one (``subject`` + ``sep`` + ``message``), else on the layer, naming
+    how many and which."""
+    if len(labels) == 1:
+        return Problem(layer, labels[0], f"{subject}{sep}{message}")
+    return Problem(
+        layer, None, f"{subject} of {len(labels)} {layer} ({_listed(labels)}){sep}{message}"
+    )

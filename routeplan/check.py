@@ -41,19 +41,50 @@ class CheckReport:
 
 
 def load(path: Path | str) -> tuple[Site, DesignConfig]:
-    """Read the site and its design settings; raise :class:`SiteError` with every problem."""
+    """Read the site and its design settings; raise :class:`SiteError` with every problem.
+
+    When the layers or the settings have problems but the layers' geometry is sound (the
+    site, or :attr:`SiteError.partial` when only attributes are wrong), the network checks
+    that need the geometry alone run too (:func:`routeplan.routing.geometry_problems`:
+    overlapping trenches, far equipment), so one run reports everything.
+    """
     problems: list[Problem] = []
     site: Site | None = None
+    partial: Site | None = None
     try:
         site = layers.read_site(path)
     except SiteError as exc:
         problems += exc.problems
-    config = site.config if site is not None else _config_only(Path(path))
+        partial = exc.partial
+    known = site if site is not None else partial
+    config = known.config if known is not None else _config_only(Path(path))
     design, p = parse_design(config)
     problems += p
     if problems or site is None:
+        if known is not None:
+            problems += _geometry_problems(known, design, p)
         raise SiteError(problems)
     return site, design
+
+
+#: design settings the network checks depend on
+_NETWORK_KEYS = frozenset({"design.snap_m", "design.node_tol_m"})
+
+
+def _geometry_problems(site: Site, design: DesignConfig, refused: list[Problem]) -> list[Problem]:
+    """:func:`routeplan.routing.geometry_problems` of a site that has other problems, with
+    the design's tolerances; none when a tolerance itself was refused (its problem is
+    reported, and checks with another tolerance would mislead)."""
+    from .pipeline import route_params
+    from .routing import geometry_problems
+
+    if any(p.feature_id in _NETWORK_KEYS for p in refused):
+        return []
+    try:
+        params = route_params(design)
+    except RoutingError as exc:
+        return exc.problems
+    return geometry_problems(site, params)
 
 
 def _config_only(root: Path) -> dict:
@@ -65,7 +96,8 @@ def _config_only(root: Path) -> dict:
 
 def check_site(path: Path | str) -> CheckReport:
     """Validate the site at ``path``: files, geometry, attributes, design settings, and the
-    trench network (far equipment, islands, unreachable destinations, assignment).
+    trench network (trenches drawn twice or running back over themselves, far parts of a
+    trench, far equipment, islands, unreachable destinations, assignment).
 
     Raises :class:`layers.SiteError` or :class:`routeplan.errors.RoutingError` with every
     problem found.

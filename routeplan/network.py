@@ -5,6 +5,9 @@ crossings, T-junctions, vertices shared by two trenches and *taps* (the points w
 equipment joins the network). Ends closer than ``node_tol_m`` to another trench, or to
 another node, join it. Segments never merge across two trenches, even where one trench
 continues another, so each keeps its trench's attributes (depth, laying, soil, capacity).
+Two trenches drawn along one corridor would thus become parallel segments that split the
+corridor's circuits between them (understating the grouping): :func:`trench_problems`
+refuses such geometry before routing.
 
 Equipment joins the network by a straight *stub* from the feature (for a row: its point
 nearest to the network) to the nearest point on any trench; the stub is part of a route's
@@ -43,6 +46,8 @@ __all__ = [
     "EQUIPMENT_LAYERS",
     "LAYINGS",
     "MIN_TOL_M",
+    "OVERLAP_MIN_M",
+    "OVERLAP_TOL_FACTOR",
     "TRENCH_ATTRIBUTES",
     "NetworkMemo",
     "NodedTrenches",
@@ -53,9 +58,11 @@ __all__ = [
     "check_metric_crs",
     "far_problems",
     "node_trenches",
+    "overlap_min_m",
     "paused_gc",
     "site_equipment",
     "trench_fingerprint",
+    "trench_problems",
 ]
 
 #: valid values of a trench's ``laying`` attribute.
@@ -932,4 +939,290 @@ def far_problems(network: TrenchNetwork) -> list[Problem]:
                 f"more than snap_m {network.snap_m:g} m"
             )
         problems.append(Problem(row.layer, row.feature_id, msg))
+    return problems
+
+
+#: floor of :func:`overlap_min_m` [m] (common practice, see there).
+OVERLAP_MIN_M = 1.0
+#: :func:`overlap_min_m` as a multiple of ``node_tol_m`` (common practice, see there).
+OVERLAP_TOL_FACTOR = 10.0
+
+
+def overlap_min_m(node_tol_m: float) -> float:
+    """Shortest shared length reported as an overlap [m]: ``max(1 m, 10 × node_tol_m)``.
+
+    Two trench lines that only *meet* lie within ``node_tol_m`` of each other near the
+    meeting point alone. Measured as in :func:`trench_problems`, that stretch is about
+    ``tol`` at a T-junction, ``2·tol / sin θ`` where two trenches cross at an angle θ and
+    ``tol / sin θ`` where they leave one point at θ (a Y); trenches that continue one
+    another share nothing. Ten times the tolerance lets a Y down to about 5.7° and a
+    crossing down to about 11.5° pass, while a duplicated corridor shares its whole length.
+    The 1 m floor keeps a tolerance far below survey accuracy from turning the jitter of
+    hand-drawn junctions into errors: a shared stretch under a metre changes no route
+    length and no circuit count beyond the rounding of lengths. Both numbers are common
+    practice (no source).
+
+    Parameters
+    ----------
+    node_tol_m : float
+        The network's joining tolerance [m] (``design.node_tol_m``).
+    """
+    return max(OVERLAP_MIN_M, OVERLAP_TOL_FACTOR * max(float(node_tol_m), MIN_TOL_M))
+
+
+def trench_problems(
+    trenches: gpd.GeoDataFrame, node_tol_m: float = 0.1, snap_m: float = 30.0
+) -> list[Problem]:
+    """Trench geometry that would corrupt the network: corridors drawn twice, far parts.
+
+    Noding (:func:`build_network`) never merges segments of two trenches, so two trench
+    features drawn along one corridor become two parallel segments: the circuits of that
+    corridor are split between them, each reports part of the circuit count, the grouping
+    derating is understated and the corridor's metres are counted twice. This check refuses
+    such input, one problem per cause:
+
+    - two trenches (or two parts of one) running along each other, within ``node_tol_m``,
+      for more than :func:`overlap_min_m`;
+    - a part that runs back over its own path (A→B→A, or back over an earlier stretch) for
+      more than :func:`overlap_min_m`;
+    - a part of a multi-part trench farther than ``snap_m`` from every other part of it
+      (with the parts near it): ``snap_m`` is the longest gap the network bridges anywhere
+      (an equipment stub), so a part farther from the rest of its trench is not part of
+      that corridor — most likely a stray copy or an id given twice. The parts are grouped
+      by that distance; the group with the most parts (then the longest) is the trench,
+      and each other group is one problem naming its parts and its gap.
+
+    Crossings, T-junctions and trenches meeting end to end are not overlaps. Features that
+    share an id are not compared (a duplicate id is a validation problem of its own).
+
+    Parameters
+    ----------
+    trenches : geopandas.GeoDataFrame
+        ``id`` and LineString/MultiLineString geometry in a projected CRS [m].
+    node_tol_m : float
+        The network's joining tolerance [m] (below :data:`MIN_TOL_M` it is raised to it).
+    snap_m : float
+        Longest stub from equipment to a trench [m]: the far-part limit.
+
+    Returns
+    -------
+    list of layers.errors.Problem
+        On layer ``trenches``, naming the trench (and the other trench or the part) with
+        the shared length or the gap [m]; empty when the geometry is sound.
+
+    Notes
+    -----
+    The parts are cut into straight edges; a spatial index (:class:`shapely.STRtree`)
+    proposes the pairs of edges whose envelopes, widened by the tolerance, meet. For each
+    pair the shared length is the length of one edge inside the other's *flat* band (the
+    points whose foot on the other edge's line falls on that edge, at most ``node_tol_m``
+    from it: its buffer with flat caps), the smaller of the two ways, computed in closed
+    form. Flat caps make edges that continue one another share nothing, and collinear
+    overlaps measure exactly their common length. The pairs' lengths are summed per pair
+    of trenches, per pair of parts of one trench, and per part for a part over itself.
+
+    Only edges that run nearly along each other are summed: those at an angle θ with
+    ``sin θ < node_tol_m / overlap_min_m``. Edges at a wider angle share at most
+    ``tol / sin θ`` (less than the minimum) where they leave one point, ``2·tol / sin θ``
+    where they cross and about ``tol`` at a corner or a T: they *meet*, and adding up such
+    meetings would let a trench with many corners, or two trenches crossing many times,
+    reach the minimum without sharing any corridor. For a Y junction the angle rule and the
+    length rule agree: a Y is reported exactly when its shared stretch exceeds the minimum.
+    """
+    tol = max(float(node_tol_m), MIN_TOL_M)
+    minimum = overlap_min_m(node_tol_m)
+    n = len(trenches)
+    if n == 0:
+        return []
+    ids = np.array([str(v) for v in trenches["id"].to_numpy(dtype=object).tolist()], dtype=object)
+    geoms = np.asarray(trenches.geometry.array, dtype=object)
+    parts, owner = shapely.get_parts(geoms, return_index=True)
+    number = np.arange(len(owner)) - np.searchsorted(owner, owner) + 1  # part number in trench
+    keep = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
+    parts, owner, number = parts[keep], owner[keep].astype(np.int64), number[keep]
+    problems = _overlap_problems(parts, owner, number, ids, tol, minimum)
+    problems += _far_part_problems(parts, owner, number, ids, float(snap_m))
+    return problems
+
+
+def _overlap_problems(
+    parts: np.ndarray,
+    owner: np.ndarray,
+    number: np.ndarray,
+    ids: np.ndarray,
+    tol: float,
+    minimum: float,
+) -> list[Problem]:
+    """Overlaps and retraces (see :func:`trench_problems`)."""
+    xy, cidx = shapely.get_coordinates(parts, return_index=True)
+    k = np.flatnonzero(cidx[1:] == cidx[:-1])  # edge k: vertex k to k + 1 of one part
+    a, b = xy[k], xy[k + 1]
+    ok = np.any(a != b, axis=1)
+    k, a, b = k[ok], a[ok], b[ok]
+    if len(k) < 2:
+        return []
+    e_part = cidx[k]
+    lo, hi = np.minimum(a, b) - tol, np.maximum(a, b) + tol
+    boxes = shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1])
+    i, j = shapely.STRtree(boxes).query(boxes)  # envelopes that meet (no GEOS predicate)
+    pair = i < j
+    i, j = i[pair], j[pair]
+    pi, pj = e_part[i], e_part[j]
+    oi, oj = owner[pi], owner[pj]
+    same_id = (oi != oj) & (ids[oi] == ids[oj])  # two features with one id: a validation problem
+    i, j, pi, pj, oi, oj = (x[~same_id] for x in (i, j, pi, pj, oi, oj))
+    # edges at a wider angle only meet (see trench_problems' Notes): not summed
+    da, db = b[i] - a[i], b[j] - a[j]
+    cross = np.abs(da[:, 0] * db[:, 1] - da[:, 1] * db[:, 0])
+    na, nb = np.hypot(da[:, 0], da[:, 1]), np.hypot(db[:, 0], db[:, 1])
+    along = cross < na * nb * (tol / minimum)
+    i, j, pi, pj, oi, oj = (x[along] for x in (i, j, pi, pj, oi, oj))
+    shared = np.minimum(
+        _length_in_band(a[i], b[i], a[j], b[j], tol), _length_in_band(a[j], b[j], a[i], b[i], tol)
+    )
+    some = shared > MIN_TOL_M
+    shared, pi, pj, oi, oj = shared[some], pi[some], pj[some], oi[some], oj[some]
+    # one group per trench pair (parts ignored), per part pair of one trench, per part
+    first = np.minimum(pi, pj)
+    second = np.maximum(pi, pj)
+    trench_pair = oi != oj
+    lo_o, hi_o = np.minimum(oi, oj), np.maximum(oi, oj)
+    key = np.stack(
+        [
+            lo_o,
+            hi_o,
+            np.where(trench_pair, -1, first),
+            np.where(trench_pair, -1, second),
+        ],
+        axis=1,
+    )
+    if len(key) == 0:
+        return []
+    uniq, group = np.unique(key, axis=0, return_inverse=True)
+    total = np.bincount(group.reshape(-1), weights=shared, minlength=len(uniq))
+    problems = []
+    for (t1, t2, q1, q2), length in zip(uniq.tolist(), total.tolist(), strict=True):
+        if not length > minimum:
+            continue
+        shared_text = f"along {length:.1f} m — a corridor must be drawn once"
+        if t1 != t2:
+            problems.append(
+                Problem(
+                    "trenches",
+                    ids[t1],
+                    f"overlaps trench {ids[t2]!r} {shared_text} "
+                    "(remove the duplicate, or end one trench where the other starts)",
+                )
+            )
+        elif q1 != q2:
+            problems.append(
+                Problem(
+                    "trenches",
+                    ids[t1],
+                    f"part {number[q2]} overlaps part {number[q1]} {shared_text} "
+                    "(remove the duplicate part)",
+                )
+            )
+        else:
+            whole = np.count_nonzero(owner == t1) == 1
+            what = "runs back" if whole else f"part {number[q1]} runs back"
+            problems.append(
+                Problem(
+                    "trenches",
+                    ids[t1],
+                    f"{what} over its own path {shared_text} (remove the stretch drawn twice)",
+                )
+            )
+    return problems
+
+
+def _length_in_band(
+    a0: np.ndarray, a1: np.ndarray, b0: np.ndarray, b1: np.ndarray, tol: float
+) -> np.ndarray:
+    """Length [m] of each straight edge ``a0→a1`` inside the flat band of ``b0→b1``.
+
+    The band is the set of points whose foot on the line of ``b`` lies between ``b0`` and
+    ``b1`` and whose distance from that line is at most ``tol`` (the buffer of ``b`` with
+    flat caps, :func:`shapely.buffer` ``cap_style="flat"``). The points of ``a`` inside it
+    form one interval of ``a``'s parameter (a straight edge meets a rectangle in one
+    interval), found by clipping against the band's two pairs of sides (Liang–Barsky).
+    """
+    d = a1 - a0
+    length_a = np.hypot(d[:, 0], d[:, 1])
+    e = b1 - b0
+    length_b = np.hypot(e[:, 0], e[:, 1])
+    e = e / length_b[:, None]
+    p = a0 - b0
+    along0 = p[:, 0] * e[:, 0] + p[:, 1] * e[:, 1]
+    along = d[:, 0] * e[:, 0] + d[:, 1] * e[:, 1]
+    across0 = p[:, 0] * e[:, 1] - p[:, 1] * e[:, 0]
+    across = d[:, 0] * e[:, 1] - d[:, 1] * e[:, 0]
+    band = tol * (1 + 1e-9) + 1e-9  # as the noding's tests: a hair more than the tolerance
+    t_lo, t_hi = np.zeros(len(d)), np.ones(len(d))
+    for x0, dx, low, high in (
+        (along0, along, np.zeros(len(d)), length_b),
+        (across0, across, -band, band),
+    ):
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t1, t2 = (low - x0) / dx, (high - x0) / dx
+        still = dx == 0
+        inside = (x0 >= low) & (x0 <= high)
+        t_lo = np.maximum(
+            t_lo, np.where(still, np.where(inside, -np.inf, np.inf), np.minimum(t1, t2))
+        )
+        t_hi = np.minimum(
+            t_hi, np.where(still, np.where(inside, np.inf, -np.inf), np.maximum(t1, t2))
+        )
+    return np.maximum(t_hi - t_lo, 0.0) * length_a
+
+
+def _far_part_problems(
+    parts: np.ndarray, owner: np.ndarray, number: np.ndarray, ids: np.ndarray, snap_m: float
+) -> list[Problem]:
+    """Parts of a multi-part trench farther than ``snap_m`` from the rest of it (see
+    :func:`trench_problems`)."""
+    counts = np.bincount(owner)
+    multi = np.flatnonzero(counts[owner] > 1)
+    if len(multi) == 0:
+        return []
+    mparts, mowner = parts[multi], owner[multi]
+    i, j = shapely.STRtree(mparts).query(mparts, predicate="dwithin", distance=snap_m)
+    same = mowner[i] == mowner[j]
+    m = len(multi)
+    adj = sparse.coo_matrix(
+        (np.ones(int(same.sum()), dtype=np.int8), (i[same], j[same])), shape=(m, m)
+    )
+    _, label = csgraph.connected_components(adj, directed=False)
+    # trenches whose parts form more than one group
+    first_label = pd.Series(label).groupby(mowner).nunique()
+    split = first_label.index[first_label.to_numpy() > 1].to_numpy()
+    problems = []
+    length = shapely.length(mparts)
+    for t in split.tolist():
+        mine = np.flatnonzero(mowner == t)
+        groups = pd.Series(length[mine]).groupby(label[mine])
+        total = groups.sum()
+        first_part = pd.Series(mine).groupby(label[mine]).min()
+        size = groups.size()
+        # the main group: the most parts, then the longest, then the one holding the lowest
+        main = min(total.index, key=lambda g: (-size[g], -total[g], first_part[g]))
+        for g in sorted(total.index, key=lambda g: first_part[g]):
+            if g == main:
+                continue
+            inside = mine[label[mine] == g]
+            rest = mine[label[mine] != g]
+            gap = float(shapely.distance(mparts[inside][:, None], mparts[rest][None, :]).min())
+            nums = [int(number[multi[q]]) for q in inside.tolist()]
+            what = (
+                f"part {nums[0]} is" if len(nums) == 1 else f"parts {', '.join(map(str, nums))} are"
+            )
+            problems.append(
+                Problem(
+                    "trenches",
+                    ids[t],
+                    f"{what} {gap:.1f} m from the rest of the trench, more than snap_m "
+                    f"{snap_m:g} m — a trench's parts must form one corridor (give the far "
+                    "part its own id, or remove it)",
+                )
+            )
     return problems

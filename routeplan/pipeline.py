@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 import calc
-from layers import Site, SiteError
+from layers import Site
 
 from . import CAUTION, __version__
 from .cache import PlanCache, digest, site_key, uncacheable_layers
@@ -267,7 +267,7 @@ def _load(root: Path, cache: PlanCache | None) -> tuple[Site, DesignConfig]:
         return site, design
     design, problems = parse_design(config)
     if problems:
-        raise SiteError(problems)
+        return load(root)  # reports every problem, the network checks' too
     return dataclasses.replace(cached, root=root, config=config, sources=dict(sources)), design
 
 

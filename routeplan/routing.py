@@ -51,6 +51,7 @@ from routeplan.network import (
     far_problems,
     paused_gc,
     site_equipment,
+    trench_problems,
 )
 
 __all__ = [
@@ -58,6 +59,7 @@ __all__ = [
     "RouteParams",
     "RoutePlan",
     "check_network",
+    "geometry_problems",
     "route_site",
     "row_length_m",
     "shortest_paths",
@@ -521,6 +523,12 @@ def _prepare(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -
     if found:
         raise_for(found)
     t = time.perf_counter()
+    found += [
+        (RoutingError, p)
+        for p in trench_problems(site.trenches, node_tol_m=params.node_tol_m, snap_m=params.snap_m)
+    ]
+    timings["trench_check"] = time.perf_counter() - t
+    t = time.perf_counter()
     network = build_network(
         site.trenches,
         site_equipment(site),
@@ -544,12 +552,32 @@ def _prepare(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -
 
     t = time.perf_counter()
     destinations, problems = assign_destinations(site, _route_lengths_fn(network), connected)
-    found += problems
+    found += _grouped(problems)
     circuits, problems = derive_circuits(site, destinations)
     found += problems
     timings["assign"] = time.perf_counter() - t
     found += _unreachable(site, network, circuits)
     return _Prepared(network, destinations, circuits, found, timings)
+
+
+def _grouped(
+    found: list[tuple[type[RoutingError], Problem]], most: int = 5
+) -> list[tuple[type[RoutingError], Problem]]:
+    """One problem per (class, layer, message): features with the same fault for the same
+    reason (e.g. every combiner without ``to`` when no inverter joins the network) are one
+    line naming how many and the first ``most`` of them, at the first one's place."""
+    groups: dict[tuple[type[RoutingError], str, str], list[str | None]] = {}
+    for cls, p in found:
+        groups.setdefault((cls, p.layer, p.message), []).append(p.feature_id)
+    out = []
+    for (cls, layer, message), fids in groups.items():
+        if len(fids) == 1:
+            out.append((cls, Problem(layer, fids[0], message)))
+            continue
+        shown = ", ".join(str(f) for f in fids[:most])
+        more = f" and {len(fids) - most} more" if len(fids) > most else ""
+        out.append((cls, Problem(layer, None, f"{message} ({len(fids)} {layer}: {shown}{more})")))
+    return out
 
 
 def _circuit_taps(site: Site, circuits: Circuits) -> tuple[np.ndarray, np.ndarray]:
@@ -619,11 +647,35 @@ def _island(network: TrenchNetwork, node: int, most: int = 6) -> str:
     return f"[{shown}]"
 
 
+def geometry_problems(site: Site, params: RouteParams | None = None) -> list[Problem]:
+    """The network checks that need the layers' geometry alone: trench geometry
+    (:func:`routeplan.network.trench_problems`) and equipment too far from every trench
+    (:func:`routeplan.network.far_problems`).
+
+    For a site whose attributes failed validation (:attr:`layers.SiteError.partial`), so
+    that one run reports these problems too. A site without trenches, or not in a metric
+    CRS, gives none here: its layers' own problems say why.
+    """
+    params = RouteParams() if params is None else params
+    if len(site.trenches) == 0 or check_metric_crs(site.crs):
+        return []
+    problems = trench_problems(site.trenches, node_tol_m=params.node_tol_m, snap_m=params.snap_m)
+    network = build_network(
+        site.trenches,
+        site_equipment(site),
+        node_tol_m=params.node_tol_m,
+        snap_m=params.snap_m,
+        defaults=params.trench,
+    )
+    return problems + far_problems(network)
+
+
 def check_network(site: Site, params: RouteParams | None = None) -> list[Problem]:
     """Every problem that would stop :func:`route_site`, without routing.
 
-    Builds the network, joins the equipment, fills missing destinations and checks that
-    every circuit's ends lie on one island. For ``routeplan check``.
+    Checks the trench geometry (overlaps, retraces, far parts), builds the network, joins
+    the equipment, fills missing destinations and checks that every circuit's ends lie on
+    one island. For ``routeplan check``.
 
     Returns
     -------
@@ -673,8 +725,10 @@ def route_site(
     Raises
     ------
     RoutingError
-        With every problem found: equipment too far from a trench, a missing destination
-        that cannot be filled, circuits whose ends lie on separate islands.
+        With every problem found: trenches drawn twice along one corridor, running back
+        over themselves or with a part far from the rest, equipment too far from a trench,
+        a missing destination that cannot be filled, circuits whose ends lie on separate
+        islands.
 
     Notes
     -----
