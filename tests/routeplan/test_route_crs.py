@@ -21,12 +21,15 @@ LAYERS = ("rows", "combiners", "inverters", "trenches", "grid")
 
 
 def placed(site, east_m=500_000.0, north_m=5_320_000.0):
-    """The site moved near 15° E, 48° N: on the zone's central meridian."""
+    """The site's coordinates moved near 15° E, 48° N in UTM zone 33N: on the zone's central
+    meridian (the invented site's own grid is relabelled, its shape kept exactly)."""
     frames = {
-        name: site.layer(name).set_geometry(site.layer(name).translate(east_m, north_m))
+        name: site.layer(name)
+        .set_geometry(site.layer(name).translate(east_m, north_m))
+        .set_crs(UTM, allow_override=True)
         for name in LAYERS
     }
-    return dataclasses.replace(site, **frames)
+    return dataclasses.replace(site, crs=pyproj.CRS(UTM), **frames)
 
 
 def via_lat_lon(site, decimals=None):
