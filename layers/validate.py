@@ -56,20 +56,40 @@ GEOMETRY_TYPES: dict[str, tuple[str, ...]] = {
     "grid": ("Point",),
 }
 
-#: attributes per layer — the site format (README, "Site format")
+#: most string circuits leaving one module row/table (common practice: a tracker row or a
+#: fixed-tilt table carries a handful of strings, a long one a few tens; 1,000 strings of
+#: ~27 modules would be ~27,000 modules, about 15 MWdc, on one row). Each string is one
+#: circuit routed and sized: the bound keeps one mistyped value (``strings = 1e9``) from
+#: allocating gigabytes.
+MAX_ROW_STRINGS = 1_000
+#: largest ``max_strings`` of a combiner and ``max_circuits`` of a trench: the range of the
+#: design default ``[design] max_circuits`` (``routeplan.config``), far beyond any combiner
+#: box or trench (common practice: combiners take a few tens of strings; a trench holds tens
+#: of circuits). A larger number is a slip, not a capacity.
+MAX_CAPACITY = 10_000
+#: largest inverter rating, kVA (common practice: the largest inverter skids are a few MVA;
+#: 100 MVA is a whole plant's grid connection). Beyond it the loss estimate (current²)
+#: overflows to infinity for absurd values such as 1e300.
+MAX_AC_KVA = 100_000.0
+
+#: attributes per layer — the site format (README, "Site format"). Upper bounds are given where
+#: a huge value would cost memory or time (``strings``) or overflow a result (``ac_kva``), and
+#: for capacities, whose range matches the design default's; ``fuse_a`` has none (a rating
+#: beyond the IEC 62548 range is reported per circuit by the sizing); ``ac_v``, ``pf``,
+#: ``phases`` and the trench quantities have physical ranges.
 FIELDS: dict[str, tuple[Field, ...]] = {
     "rows": (
-        Field("strings", "int", required=True, low=1),
+        Field("strings", "int", required=True, low=1, high=MAX_ROW_STRINGS),
         Field("module", "str", required=True),
         Field("to", "ref", targets=("combiners", "inverters")),
     ),
     "combiners": (
         Field("to", "ref", targets=("inverters",)),
-        Field("max_strings", "int", low=1),
+        Field("max_strings", "int", low=1, high=MAX_CAPACITY),
         Field("fuse_a", "float", low=0, low_open=True),
     ),
     "inverters": (
-        Field("ac_kva", "float", required=True, low=0, low_open=True),
+        Field("ac_kva", "float", required=True, low=0, low_open=True, high=MAX_AC_KVA),
         Field("ac_v", "float", required=True, low=0, low_open=True, high=36000),
         Field("phases", "int", choices=("1", "3"), default=3),
         Field("pf", "float", low=0, low_open=True, high=1),
@@ -80,7 +100,7 @@ FIELDS: dict[str, tuple[Field, ...]] = {
         Field("laying", "choice", choices=("direct", "duct")),
         Field("spacing_m", "float", low=0, high=5),
         Field("soil_k_m_w", "float", low=0, low_open=True, high=10),
-        Field("max_circuits", "int", low=1),
+        Field("max_circuits", "int", low=1, high=MAX_CAPACITY),
     ),
     "grid": (),
 }

@@ -11,7 +11,7 @@ import tomllib
 import pytest
 
 import layers
-from layers.validate import MODULE_KEYS_OPTIONAL
+from layers.validate import FIELDS, MODULE_KEYS_OPTIONAL
 from tests.conftest import SITE_TOML, base_frames, write_site
 
 
@@ -188,3 +188,40 @@ def test_layers_table(tmp_path, toml, message):
 
 def test_site_tables_constant():
     assert layers.SITE_TABLES == ("site", "modules", "layers")
+
+
+# ---- bounds on attributes ------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("layer", "column", "value", "feature", "message"),
+    [
+        ("rows", "strings", 1e9, "R1", "strings is 1e+09, must be ≤ 1000"),
+        ("rows", "strings", 1001, "R1", "strings is 1001, must be ≤ 1000"),
+        ("combiners", "max_strings", 20_000, "CB1", "max_strings is 20000, must be ≤ 10000"),
+        ("trenches", "max_circuits", 1e18, "T1", "max_circuits is 1e+18, must be ≤ 10000"),
+        ("inverters", "ac_kva", 1e300, "INV1", "ac_kva is 1e+300, must be ≤ 100000"),
+        (
+            "trenches",
+            "depth_m",
+            "9**9**9 mm",  # a unit string is parsed, never evaluated
+            "T1",
+            "depth_m is '9**9**9 mm', expected a number or a quantity such as '800 mm'",
+        ),
+    ],
+)
+def test_attribute_bounds(layer, column, value, feature, message):
+    frames = base_frames()
+    frame = frames[layer]
+    frame[column] = frame[column].astype(object) if column in frame else None
+    frame.loc[0, column] = value
+    assert f"{layer} {feature!r}: {message}" in problems(SITE_TOML, frames)
+
+
+def test_bounds_are_inclusive():
+    frames = base_frames()
+    frames["rows"]["strings"] = [1000, 2]
+    frames["combiners"]["max_strings"] = [None]
+    site = layers.build_site(frames, tomllib.loads(SITE_TOML))
+    assert site.rows["strings"].tolist() == [1000, 2]
+    assert next(f.high for f in FIELDS["rows"] if f.name == "strings") == 1000
