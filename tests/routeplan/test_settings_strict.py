@@ -13,6 +13,7 @@ from typer.testing import CliRunner
 
 from routeplan.cli import app
 from routeplan.config import DESIGN_TABLES, MAX_SIZES, parse_design
+from routeplan.synth import MW_RANGE, SEED_LIMIT, generate_site
 from tests.conftest import SITE_TOML, base_frames, write_site
 
 runner = CliRunner()
@@ -239,3 +240,41 @@ def test_demo_site_settings_are_clean():
     _, problems = parse_design(config)
     assert problems == []
     assert set(config) <= {"site", "modules", "layers", *DESIGN_TABLES}
+
+
+# ---- routeplan synth arguments --------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["--mw", "1e7"], "error: mw is 10000000.0; expected a capacity from 0.1 to 5,000 MWdc"),
+        (["--mw", "0.05"], "error: mw is 0.05; expected a capacity from 0.1 to 5,000 MWdc"),
+        (["--mw", "nan"], "error: mw is nan; expected a capacity from 0.1 to 5,000 MWdc"),
+        (["--mw", "inf"], "error: mw is inf; expected a capacity from 0.1 to 5,000 MWdc"),
+        (
+            ["--mw", "5", "--seed", str(2**32)],
+            "error: seed is 4294967296; expected an integer from 0 to 2**32 - 1",
+        ),
+        (
+            ["--mw", "5", "--seed", "-1"],
+            "error: seed is -1; expected an integer from 0 to 2**32 - 1",
+        ),
+        (
+            ["--mw", "5", "--format", "shp"],
+            "error: fmt is 'shp'; expected one of gpkg, geojson",
+        ),
+    ],
+)
+def test_synth_refuses_absurd_arguments(tmp_path, args, message):
+    out = tmp_path / "site"
+    result = runner.invoke(app, ["synth", *args, "--out", str(out)])
+    assert result.exit_code == 2
+    assert result.stderr.splitlines() == [message]
+    assert not out.exists()  # refused before anything is written
+
+
+def test_synth_range_limits_are_accepted(tmp_path):
+    assert MW_RANGE == (0.1, 5_000.0)
+    info = generate_site(MW_RANGE[0], SEED_LIMIT - 1, tmp_path / "small", fmt="geojson")
+    assert info.strings >= 1
