@@ -6,10 +6,13 @@ tested on in-memory frames.
 
 from __future__ import annotations
 
+import datetime
+import difflib
 import os
 import re
 import tomllib
 import xml.etree.ElementTree as ET
+from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
@@ -23,20 +26,61 @@ from .model import LAYER_NAMES, REQUIRED_LAYERS
 LAYER_EXTENSIONS: tuple[str, ...] = (".gpkg", ".geojson", ".json", ".shp", ".fgb", ".gml", ".kml")
 SITE_TOML = "site.toml"
 SITE_GPKG = "site.gpkg"
+#: UTF-8 byte-order mark (EF BB BF), accepted at the start of site.toml
+UTF8_BOM = b"\xef\xbb\xbf"
 
 
 def read_config(root: Path) -> tuple[dict[str, Any], list[Problem]]:
-    """Parse ``root/site.toml``; return (config, problems)."""
+    """Parse ``root/site.toml``; return (config, problems).
+
+    The file is UTF-8 (TOML 1.0); a byte-order mark at its start, as some Windows editors
+    write, is accepted and dropped. Only the syntax is checked here: the keys and their
+    types are checked by :func:`layers.validate.build_site` (``[site]``, ``[modules]``),
+    :func:`locate_layers` (``[layers]``) and, for the design tables, by the caller.
+    """
     path = root / SITE_TOML
     if not root.is_dir():
         return {}, [Problem(str(root), None, "is not a folder (a site is a folder with site.toml)")]
     if not path.is_file():
         return {}, [Problem(SITE_TOML, None, f"missing in {root}")]
     try:
-        with path.open("rb") as fh:
-            return tomllib.load(fh), []
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        data = path.read_bytes()
+    except OSError as exc:
+        return {}, [Problem(SITE_TOML, None, f"cannot be read: {_short(exc)}")]
+    try:
+        return tomllib.loads(data.removeprefix(UTF8_BOM).decode("utf-8")), []
+    except UnicodeDecodeError as exc:
+        return {}, [Problem(SITE_TOML, None, f"cannot be parsed: not UTF-8 text ({exc.reason})")]
+    except tomllib.TOMLDecodeError as exc:
         return {}, [Problem(SITE_TOML, None, f"cannot be parsed: {exc}")]
+
+
+def toml_type(value: Any) -> str:
+    """The type of a TOML value in words, for messages: ``'a string'``, ``'a table'``, ..."""
+    if isinstance(value, bool):
+        return "a boolean"
+    if isinstance(value, int):
+        return "an integer"
+    if isinstance(value, float):
+        return "a float"
+    if isinstance(value, str):
+        return "a string" if value else "an empty string"
+    if isinstance(value, dict):
+        return "a table"
+    if isinstance(value, list | tuple):
+        return "an array"
+    if isinstance(value, datetime.date | datetime.time):
+        return "a date/time"
+    return f"a {type(value).__name__}"
+
+
+def unknown_key(where: str, name: str, known: Iterable[str], what: str = "key") -> Problem:
+    """The problem for an unknown key or table ``name`` of site.toml at dotted ``where``,
+    suggesting the closest known name (``difflib.get_close_matches``) or listing them all."""
+    known = list(known)
+    close = difflib.get_close_matches(str(name), known, n=1)
+    hint = f"did you mean {close[0]!r}?" if close else f"expected one of {', '.join(known)}"
+    return Problem(SITE_TOML, where, f"unknown {what}; {hint}")
 
 
 def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], list[Problem]]:
@@ -46,18 +90,18 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
     a single ``<layer>.<ext>`` file. A missing required layer is a problem; ``grid`` is optional.
     """
     problems: list[Problem] = []
-    mapping = config.get("layers", {}) or {}
+    mapping = config.get("layers", {})
     if not isinstance(mapping, dict):
-        return {}, [Problem(SITE_TOML, "layers", "[layers] must be a table of layer = 'file'")]
+        return {}, [
+            Problem(
+                SITE_TOML,
+                "layers",
+                f"[layers] must be a table of layer = 'file', not {toml_type(mapping)}",
+            )
+        ]
     for key in mapping:
         if key not in LAYER_NAMES:
-            problems.append(
-                Problem(
-                    SITE_TOML,
-                    f"layers.{key}",
-                    f"unknown layer; expected one of {', '.join(LAYER_NAMES)}",
-                )
-            )
+            problems.append(unknown_key(f"layers.{key}", key, LAYER_NAMES, "layer"))
     gpkg_layers: set[str] = set()
     if (root / SITE_GPKG).is_file():
         try:
@@ -69,7 +113,13 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
         if name in mapping:
             spec = mapping[name]
             if not isinstance(spec, str) or not spec:
-                problems.append(Problem(SITE_TOML, f"layers.{name}", "must be a file name"))
+                problems.append(
+                    Problem(
+                        SITE_TOML,
+                        f"layers.{name}",
+                        f"must be a file name, not {toml_type(spec)}",
+                    )
+                )
                 continue
             file_part = spec.rsplit(":", 1)[0] if _has_layer_suffix(spec) else spec
             if not (root / file_part).exists():  # a file, or a folder dataset (.gdb)

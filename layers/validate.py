@@ -2,6 +2,14 @@
 
 Every problem is collected — never only the first — each naming the layer, the feature id
 (or ``#n``, the feature's 1-based position, where the id itself is missing) and what is wrong.
+
+site.toml is checked strictly: ``[site]`` and each ``[modules.<key>]`` may hold only the keys
+listed here (:data:`SITE_KEYS`, :data:`MODULE_KEYS_REQUIRED`, :data:`MODULE_KEYS_OPTIONAL`);
+an unknown key is a problem naming the dotted key with the closest known name as a
+suggestion, and a value of the wrong type is a problem naming the key and the type expected.
+``[layers]`` is checked where it is read (:func:`layers.sources.locate_layers`); the other
+top-level tables belong to the caller (``routeplan.config``), which also checks that no
+unknown top-level table is present (:data:`SITE_TABLES` are this package's).
 """
 
 from __future__ import annotations
@@ -20,8 +28,8 @@ from numpy.dtypes import StringDType
 from .crs import choose_working_crs, parse_crs
 from .errors import Problem, SiteError
 from .model import LAYER_NAMES, REQUIRED_LAYERS, Module, Site
-from .sources import SITE_TOML
-from .units import to_number
+from .sources import SITE_TOML, toml_type, unknown_key
+from .units import example, show_value, to_number
 
 
 @dataclass(frozen=True)
@@ -48,20 +56,40 @@ GEOMETRY_TYPES: dict[str, tuple[str, ...]] = {
     "grid": ("Point",),
 }
 
-#: attributes per layer — the site format (README, "Site format")
+#: most string circuits leaving one module row/table (common practice: a tracker row or a
+#: fixed-tilt table carries a handful of strings, a long one a few tens; 1,000 strings of
+#: ~27 modules would be ~27,000 modules, about 15 MWdc, on one row). Each string is one
+#: circuit routed and sized: the bound keeps one mistyped value (``strings = 1e9``) from
+#: allocating gigabytes.
+MAX_ROW_STRINGS = 1_000
+#: largest ``max_strings`` of a combiner and ``max_circuits`` of a trench: the range of the
+#: design default ``[design] max_circuits`` (``routeplan.config``), far beyond any combiner
+#: box or trench (common practice: combiners take a few tens of strings; a trench holds tens
+#: of circuits). A larger number is a slip, not a capacity.
+MAX_CAPACITY = 10_000
+#: largest inverter rating, kVA (common practice: the largest inverter skids are a few MVA;
+#: 100 MVA is a whole plant's grid connection). Beyond it the loss estimate (current²)
+#: overflows to infinity for absurd values such as 1e300.
+MAX_AC_KVA = 100_000.0
+
+#: attributes per layer — the site format (README, "Site format"). Upper bounds are given where
+#: a huge value would cost memory or time (``strings``) or overflow a result (``ac_kva``), and
+#: for capacities, whose range matches the design default's; ``fuse_a`` has none (a rating
+#: beyond the IEC 62548 range is reported per circuit by the sizing); ``ac_v``, ``pf``,
+#: ``phases`` and the trench quantities have physical ranges.
 FIELDS: dict[str, tuple[Field, ...]] = {
     "rows": (
-        Field("strings", "int", required=True, low=1),
+        Field("strings", "int", required=True, low=1, high=MAX_ROW_STRINGS),
         Field("module", "str", required=True),
         Field("to", "ref", targets=("combiners", "inverters")),
     ),
     "combiners": (
         Field("to", "ref", targets=("inverters",)),
-        Field("max_strings", "int", low=1),
+        Field("max_strings", "int", low=1, high=MAX_CAPACITY),
         Field("fuse_a", "float", low=0, low_open=True),
     ),
     "inverters": (
-        Field("ac_kva", "float", required=True, low=0, low_open=True),
+        Field("ac_kva", "float", required=True, low=0, low_open=True, high=MAX_AC_KVA),
         Field("ac_v", "float", required=True, low=0, low_open=True, high=36000),
         Field("phases", "int", choices=("1", "3"), default=3),
         Field("pf", "float", low=0, low_open=True, high=1),
@@ -72,7 +100,7 @@ FIELDS: dict[str, tuple[Field, ...]] = {
         Field("laying", "choice", choices=("direct", "duct")),
         Field("spacing_m", "float", low=0, high=5),
         Field("soil_k_m_w", "float", low=0, low_open=True, high=10),
-        Field("max_circuits", "int", low=1),
+        Field("max_circuits", "int", low=1, high=MAX_CAPACITY),
     ),
     "grid": (),
 }
@@ -110,7 +138,20 @@ def _a(noun: str) -> str:
     return ("an " if noun[:1] in "aeiou" else "a ") + noun
 
 
+#: top-level tables of site.toml that this package reads (the caller reads the others)
+SITE_TABLES: tuple[str, ...] = ("site", "modules", "layers")
+#: keys of ``[site]``, each a string: the site's name, its working CRS, the CRS of layer
+#: files that carry none
+SITE_KEYS: tuple[str, ...] = ("name", "crs", "source_crs")
+#: keys every ``[modules.<key>]`` table must hold (STC datasheet values; modules per string)
 MODULE_KEYS_REQUIRED: tuple[str, ...] = ("isc_a", "imp_a", "voc_v", "vmp_v", "per_string")
+#: optional keys of a ``[modules.<key>]`` table, each a number > 0 in the unit its name
+#: carries: ``max_fuse_a`` (the module's maximum series fuse rating, ``Module.max_fuse_a``)
+#: and ``pmax_w`` (rated power at STC, W; ``Module.extra``, read by ``routeplan check`` for
+#: the DC capacity). A new optional key is added here; one that may be ≤ 0 needs its own rule.
+MODULE_KEYS_OPTIONAL: tuple[str, ...] = ("max_fuse_a", "pmax_w")
+#: module keys that are whole numbers (a whole float such as 27.0 is taken as 27)
+MODULE_KEYS_INT: tuple[str, ...] = ("per_string",)
 
 
 def build_site(
@@ -125,10 +166,8 @@ def build_site(
     """
     problems: list[Problem] = []
     root = Path(root)
-    site_cfg = config.get("site", {}) or {}
-    if not isinstance(site_cfg, dict):
-        problems.append(Problem(SITE_TOML, "site", "[site] must be a table"))
-        site_cfg = {}
+    site_cfg, site_problems = parse_site_table(config)
+    problems += site_problems
     modules, module_problems = parse_modules(config)
     problems += module_problems
     first_stage = len(problems)  # from here to the CRS: problems that make geometry unusable
@@ -228,40 +267,89 @@ def _problem_order(p: Problem) -> tuple:
     return (layer_rank, p.layer, p.feature_id or "", p.message)
 
 
+def setting_number(value: Any, key: str) -> float:
+    """A number setting of site.toml: :func:`layers.units.to_number`, with the TOML type
+    named when the value is no number or string at all (``must be a number, not a table``).
+
+    Raises ``ValueError`` with the reason.
+    """
+    if isinstance(value, bool) or not isinstance(value, int | float | str):
+        alt = f" or a quantity such as {example(key)!r}" if example(key) else ""
+        raise ValueError(f"must be a number{alt}, not {toml_type(value)}")
+    return to_number(value, key)
+
+
+def parse_site_table(config: dict[str, Any]) -> tuple[dict[str, str], list[Problem]]:
+    """The ``[site]`` table: ``{key: text}`` of its well-typed keys, and every problem
+    (a ``site`` that is not a table, an unknown key, a value that is not a string)."""
+    raw = config.get("site", {})
+    if not isinstance(raw, dict):
+        return {}, [Problem(SITE_TOML, "site", f"must be a table ([site]), not {toml_type(raw)}")]
+    out: dict[str, str] = {}
+    problems: list[Problem] = []
+    for key, value in raw.items():
+        where = f"site.{key}"
+        if key not in SITE_KEYS:
+            problems.append(unknown_key(where, key, SITE_KEYS))
+        elif not isinstance(value, str):
+            example = ' such as "EPSG:32633"' if key != "name" else ""
+            problems.append(
+                Problem(SITE_TOML, where, f"must be a string{example}, not {toml_type(value)}")
+            )
+        else:
+            out[key] = value
+    return out, problems
+
+
 def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Problem]]:
-    """The ``[modules.<key>]`` tables as :class:`Module` objects, with every problem found."""
+    """The ``[modules.<key>]`` tables as :class:`Module` objects, with every problem found.
+
+    Each table holds :data:`MODULE_KEYS_REQUIRED` and may hold :data:`MODULE_KEYS_OPTIONAL`;
+    every value is a number > 0 (or a quantity string, ``"14.2 A"``) and ``per_string`` a
+    whole number. An unknown key is a problem naming ``modules.<key>.<name>``.
+    """
     problems: list[Problem] = []
     raw = config.get("modules")
-    if not isinstance(raw, dict) or not raw:
+    if raw is not None and not isinstance(raw, dict):
+        return {}, [
+            Problem(
+                SITE_TOML,
+                "modules",
+                f"must be tables [modules.<key>] (one per module type), not {toml_type(raw)}",
+            )
+        ]
+    if not raw:
         return {}, [
             Problem(
                 SITE_TOML, "modules", "no [modules.<key>] table: at least one module type is needed"
             )
         ]
+    known = (*MODULE_KEYS_REQUIRED, *MODULE_KEYS_OPTIONAL)
     modules: dict[str, Module] = {}
     for key, table in raw.items():
         where = f"modules.{key}"
         if not isinstance(table, dict):
-            problems.append(Problem(SITE_TOML, where, "must be a table"))
+            problems.append(
+                Problem(SITE_TOML, where, f"must be a table ([{where}]), not {toml_type(table)}")
+            )
             continue
+        problems += [unknown_key(f"{where}.{k}", k, known) for k in table if k not in known]
         values: dict[str, float] = {}
-        for k in (*MODULE_KEYS_REQUIRED, "max_fuse_a"):
+        for k in known:
             if k not in table:
-                if k != "max_fuse_a":
+                if k in MODULE_KEYS_REQUIRED:
                     problems.append(Problem(SITE_TOML, where, f"missing {k}"))
                 continue
             try:
-                v = to_number(table[k], k)
+                v = setting_number(table[k], k)
             except ValueError as exc:
-                problems.append(Problem(SITE_TOML, where, f"{k}: {exc}"))
+                problems.append(Problem(SITE_TOML, f"{where}.{k}", str(exc)))
                 continue
             if v <= 0:
-                problems.append(Problem(SITE_TOML, where, f"{k} = {v:g} must be > 0"))
+                problems.append(Problem(SITE_TOML, f"{where}.{k}", f"{v:g} must be > 0"))
                 continue
-            if k == "per_string" and v != int(v):
-                problems.append(
-                    Problem(SITE_TOML, where, f"per_string = {v:g} must be a whole number")
-                )
+            if k in MODULE_KEYS_INT and v != int(v):
+                problems.append(Problem(SITE_TOML, f"{where}.{k}", f"{v:g} must be a whole number"))
                 continue
             values[k] = v
         if "imp_a" in values and "isc_a" in values and values["imp_a"] > values["isc_a"]:
@@ -278,7 +366,7 @@ def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Probl
             )
         if all(k in values for k in MODULE_KEYS_REQUIRED):
             extra = {
-                k: v for k, v in table.items() if k not in (*MODULE_KEYS_REQUIRED, "max_fuse_a")
+                k: values[k] for k in MODULE_KEYS_OPTIONAL if k != "max_fuse_a" and k in values
             }
             modules[str(key)] = Module(
                 key=str(key),
@@ -482,7 +570,9 @@ def _parse_value(fld: Field, v: Any) -> tuple[Any, str]:
             x = to_number(v.strip() if isinstance(v, str) else v, fld.name)
         except ValueError:
             want = "an integer" if fld.kind == "int" else "a number"
-            return math.nan, f"{fld.name} is {v!r}, expected {want}"
+            if example(fld.name) is not None:
+                want += f" or a quantity such as {example(fld.name)!r}"
+            return math.nan, f"{fld.name} is {show_value(v)}, expected {want}"
         if fld.kind == "int" and x != int(x):
             return math.nan, f"{fld.name} is {v!r}, expected a whole number"
         if fld.choices and str(int(x)) not in fld.choices:

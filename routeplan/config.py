@@ -2,8 +2,20 @@
 
 Each key has a documented default (the table :data:`DESIGN_KEYS` is the single source for the
 README's settings table and for ``routeplan check``). Values may be plain numbers in the unit
-named by the key, or pint-parsable quantities (``depth_m = "800 mm"``), converted here once.
-Every problem is reported as a :class:`layers.Problem` on ``site.toml`` naming the key.
+named by the key, or quantities ``<number> <unit>`` (``depth_m = "800 mm"``, see
+:func:`layers.units.to_number`), converted here once.
+
+The settings are checked strictly. Every problem is reported — all of them, not the first —
+as a :class:`layers.Problem` on ``site.toml`` naming the dotted key:
+
+- an unknown top-level table (anything but :data:`layers.SITE_TABLES` and
+  :data:`DESIGN_TABLES`), an unknown key of ``[design]``, its sub-tables or
+  ``[allowances]``: with the closest known name as a suggestion (``did you mean
+  'allowances'?``);
+- a table given as a value (``design = "rules"``) or a value given as a table;
+- a value of the wrong type (a boolean is never a number), outside its range, or not a
+  whole number for an integer key (:attr:`Key.integer`; a whole float such as ``4.0`` is
+  taken as 4, as layer attributes are: many writers store integers as floats).
 """
 
 from __future__ import annotations
@@ -12,15 +24,17 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from layers import Problem
-from layers.units import to_number
+from layers import SITE_TABLES, Problem
+from layers.sources import SITE_TOML, toml_type, unknown_key
+from layers.validate import setting_number
 
 KINDS: tuple[str, ...] = ("string", "array", "ac")
 
 
 @dataclass(frozen=True)
 class Key:
-    """One setting: its default, allowed range or choices, and where the default comes from."""
+    """One setting: its default, allowed range or choices, and where the default comes from.
+    ``integer``: the value must be a whole number."""
 
     name: str
     default: Any
@@ -28,6 +42,7 @@ class Key:
     high: float | None = None
     choices: tuple[str, ...] = ()
     note: str = ""
+    integer: bool = False
 
 
 #: ``[design]`` scalar keys. Sources: IEC 60364-5-52:2009 Annex B reference conditions
@@ -69,6 +84,7 @@ DESIGN_KEYS: tuple[Key, ...] = (
         1,
         10_000,
         note="trench capacity where a trench has none; unset = none",
+        integer=True,
     ),
     Key("snap_m", 30.0, 0.0, 1_000.0, note="longest straight stub from equipment to a trench"),
     Key("node_tol_m", 0.1, 0.0, 5.0, note="trench ends and vertices closer than this are joined"),
@@ -86,7 +102,14 @@ DESIGN_KEYS: tuple[Key, ...] = (
         choices=("max", "loading"),
         note="conductor temperature for drop/losses: insulation maximum, or from loading",
     ),
-    Key("max_parallel", 4, 1, 12, note="most conductors in parallel per pole/phase (array, ac)"),
+    Key(
+        "max_parallel",
+        4,
+        1,
+        12,
+        note="most conductors in parallel per pole/phase (array, ac)",
+        integer=True,
+    ),
     Key(
         "loss_hours_h",
         1000.0,
@@ -134,86 +157,132 @@ class DesignConfig:
         return self.values[key]
 
 
+#: top-level tables of site.toml read here (``layers.SITE_TABLES`` are read by ``layers``)
+DESIGN_TABLES: tuple[str, ...] = ("design", "allowances")
+#: sub-tables of ``[design]``
+DESIGN_SUBTABLES: tuple[str, ...] = ("material", "insulation", "drop_pct", "sizes_mm2")
+MATERIALS: tuple[str, ...] = ("Cu", "Al")
+INSULATIONS: tuple[str, ...] = ("XLPE", "PVC", "PV")
+#: most candidate sizes per kind (common practice: IEC 60228's series of nominal
+#: cross-sections has a few tens of sizes, and no cable type is made in more)
+MAX_SIZES = 64
+
+
 def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
-    """Read ``[design]`` and ``[allowances]`` from a parsed site.toml; return (config, problems)."""
+    """Read ``[design]`` and ``[allowances]`` from a parsed site.toml; return (config, problems).
+
+    Also checks that site.toml holds no top-level table other than :data:`DESIGN_TABLES` and
+    ``layers.SITE_TABLES`` (whose contents ``layers`` checks). Every key that is missing or
+    wrong takes its default in the returned config; ``problems`` says what was wrong.
+    """
     problems: list[Problem] = []
-    design = config.get("design", {}) or {}
-    allowances = config.get("allowances", {}) or {}
-    tables = {"design.material", "design.insulation", "design.drop_pct", "design.sizes_mm2"}
-    known = {k.name for k in DESIGN_KEYS} | {t.split(".")[1] for t in tables}
+    top = (*SITE_TABLES, *DESIGN_TABLES)
+    for key, value in config.items():
+        if key not in top:
+            what = "table" if isinstance(value, dict) else "key"
+            problems.append(unknown_key(str(key), key, top, what))
+    design = _table(config, "design", "design", problems)
+    allowances = _table(config, "allowances", "allowances", problems)
+    known = (*(k.name for k in DESIGN_KEYS), *DESIGN_SUBTABLES)
     for key in design:
         if key not in known:
-            problems.append(Problem("site.toml", f"design.{key}", "unknown key"))
+            problems.append(unknown_key(f"design.{key}", key, known))
     for key in allowances:
         if key not in {k.name for k in ALLOWANCE_KEYS}:
-            problems.append(Problem("site.toml", f"allowances.{key}", "unknown key"))
+            names = [k.name for k in ALLOWANCE_KEYS]
+            problems.append(unknown_key(f"allowances.{key}", key, names))
 
     values, defaulted = _scalars("design", design, DESIGN_KEYS, problems)
     allow, defaulted2 = _scalars("allowances", allowances, ALLOWANCE_KEYS, problems)
 
-    material = _choices(
-        "material", design.get("material", {}), MATERIAL_DEFAULT, ("Cu", "Al"), problems
-    )
-    insulation = _choices(
-        "insulation",
-        design.get("insulation", {}),
-        INSULATION_DEFAULT,
-        ("XLPE", "PVC", "PV"),
-        problems,
-    )
+    material = _choices("material", design, MATERIAL_DEFAULT, MATERIALS, problems)
+    insulation = _choices("insulation", design, INSULATION_DEFAULT, INSULATIONS, problems)
     if insulation["string"] != "PV":
         problems.append(
             Problem(
-                "site.toml",
+                SITE_TOML,
                 "design.insulation.string",
                 "string circuits use PV cable (EN 50618 / IEC 62930): set 'PV'",
             )
         )
     drop = dict(DROP_PCT_DEFAULT)
-    raw_drop = design.get("drop_pct", {}) or {}
-    for key, value in raw_drop.items():
+    for key, value in _table(design, "drop_pct", "design.drop_pct", problems).items():
         where = f"design.drop_pct.{key}"
         if key not in drop:
-            problems.append(Problem("site.toml", where, f"unknown key; expected {', '.join(drop)}"))
+            problems.append(unknown_key(where, key, DROP_PCT_DEFAULT))
             continue
         try:
-            x = to_number(value, "drop_pct")
+            x = setting_number(value, "drop_pct")
         except ValueError as exc:
-            problems.append(Problem("site.toml", where, str(exc)))
+            problems.append(Problem(SITE_TOML, where, str(exc)))
             continue
         if not 0 < x <= 20:
-            problems.append(Problem("site.toml", where, f"{x:g} % is outside 0–20 %"))
+            problems.append(Problem(SITE_TOML, where, f"{x:g} % is outside 0–20 %"))
             continue
         drop[key] = x
     if drop["string"] > drop["dc_total"]:
         problems.append(
             Problem(
-                "site.toml",
+                SITE_TOML,
                 "design.drop_pct.string",
                 f"{drop['string']:g} % exceeds dc_total {drop['dc_total']:g} %",
             )
         )
     sizes: dict[str, tuple[float, ...]] = {}
-    for key, value in (design.get("sizes_mm2", {}) or {}).items():
+    for key, value in _table(design, "sizes_mm2", "design.sizes_mm2", problems).items():
         where = f"design.sizes_mm2.{key}"
         if key not in KINDS:
-            problems.append(
-                Problem("site.toml", where, f"unknown kind; expected {', '.join(KINDS)}")
-            )
+            problems.append(unknown_key(where, key, KINDS, "kind"))
             continue
-        try:
-            lst = tuple(sorted(to_number(v, "size_mm2") for v in value))
-        except (ValueError, TypeError) as exc:
-            problems.append(Problem("site.toml", where, f"must be a list of sizes in mm²: {exc}"))
-            continue
-        if not lst or lst[0] <= 0:
-            problems.append(
-                Problem("site.toml", where, "must be a non-empty list of positive sizes")
-            )
-            continue
-        sizes[key] = lst
+        lst = _sizes(value, where, problems)
+        if lst is not None:
+            sizes[key] = lst
     cfg = DesignConfig(values, material, insulation, drop, sizes, allow, defaulted + defaulted2)
     return cfg, problems
+
+
+def _table(parent: dict[str, Any], name: str, where: str, problems: list[Problem]) -> dict:
+    """``parent[name]`` when it is a table (``{}`` when absent); else a problem and ``{}``."""
+    value = parent.get(name, {})
+    if isinstance(value, dict):
+        return value
+    problems.append(
+        Problem(SITE_TOML, where, f"must be a table ([{where}]), not {toml_type(value)}")
+    )
+    return {}
+
+
+def _sizes(value: Any, where: str, problems: list[Problem]) -> tuple[float, ...] | None:
+    """A list of candidate sizes [mm²], sorted; None (and a problem) when it is not one."""
+    if not isinstance(value, list):
+        problems.append(
+            Problem(
+                SITE_TOML,
+                where,
+                f"must be an array of sizes in mm², e.g. [4, 6, 10], not {toml_type(value)}",
+            )
+        )
+        return None
+    if not value:
+        problems.append(Problem(SITE_TOML, where, "must be a non-empty array of sizes in mm²"))
+        return None
+    if len(value) > MAX_SIZES:
+        problems.append(
+            Problem(SITE_TOML, where, f"{len(value)} sizes; at most {MAX_SIZES} are allowed")
+        )
+        return None
+    out: list[float] = []
+    for i, v in enumerate(value, start=1):
+        try:
+            x = setting_number(v, "size_mm2")
+        except ValueError as exc:
+            problems.append(Problem(SITE_TOML, where, f"size {i}: {exc}"))
+            return None
+        if x <= 0:
+            problems.append(Problem(SITE_TOML, where, f"size {i}: {x:g} mm² must be > 0"))
+            return None
+        out.append(x)
+    return tuple(sorted(out))
 
 
 def _scalars(table: str, raw: dict[str, Any], keys: tuple[Key, ...], problems: list[Problem]):
@@ -226,24 +295,33 @@ def _scalars(table: str, raw: dict[str, Any], keys: tuple[Key, ...], problems: l
             defaulted.append(where)
             continue
         v = raw[k.name]
+        values[k.name] = k.default  # replaced below when the value is good
         if k.choices:
-            if not isinstance(v, str) or v not in k.choices:
+            if not isinstance(v, str):
                 problems.append(
-                    Problem("site.toml", where, f"{v!r}; expected one of {', '.join(k.choices)}")
+                    Problem(
+                        SITE_TOML,
+                        where,
+                        f"must be a string, one of {', '.join(k.choices)}, not {toml_type(v)}",
+                    )
                 )
-                values[k.name] = k.default
+            elif v not in k.choices:
+                problems.append(
+                    Problem(SITE_TOML, where, f"{v!r}; expected one of {', '.join(k.choices)}")
+                )
             else:
                 values[k.name] = v
             continue
         try:
-            x = to_number(v, k.name)
+            x = setting_number(v, k.name)
         except ValueError as exc:
-            problems.append(Problem("site.toml", where, str(exc)))
-            values[k.name] = k.default
+            problems.append(Problem(SITE_TOML, where, str(exc)))
+            continue
+        if k.integer and x != int(x):
+            problems.append(Problem(SITE_TOML, where, f"{x:g} must be a whole number"))
             continue
         if (k.low is not None and x < k.low) or (k.high is not None and x > k.high):
-            problems.append(Problem("site.toml", where, f"{x:g} is outside {k.low:g}–{k.high:g}"))
-            values[k.name] = k.default
+            problems.append(Problem(SITE_TOML, where, f"{x:g} is outside {k.low:g}–{k.high:g}"))
             continue
         values[k.name] = (
             int(x) if isinstance(k.default, int) and not isinstance(k.default, bool) else x
@@ -251,20 +329,30 @@ def _scalars(table: str, raw: dict[str, Any], keys: tuple[Key, ...], problems: l
     return values, tuple(defaulted)
 
 
-def _choices(name, raw, defaults, allowed, problems):
+def _choices(
+    name: str,
+    design: dict[str, Any],
+    defaults: dict[str, str],
+    allowed: tuple[str, ...],
+    problems: list[Problem],
+) -> dict[str, str]:
+    """A per-kind table of choices (``[design.material]``): defaults, overridden where valid."""
     out = dict(defaults)
-    if not isinstance(raw, dict):
-        problems.append(Problem("site.toml", f"design.{name}", "must be a table of kind = value"))
-        return out
-    for key, value in raw.items():
+    for key, value in _table(design, name, f"design.{name}", problems).items():
         where = f"design.{name}.{key}"
         if key not in defaults:
+            problems.append(unknown_key(where, key, defaults, "kind"))
+        elif not isinstance(value, str):
             problems.append(
-                Problem("site.toml", where, f"unknown kind; expected {', '.join(defaults)}")
+                Problem(
+                    SITE_TOML,
+                    where,
+                    f"must be a string, one of {', '.join(allowed)}, not {toml_type(value)}",
+                )
             )
         elif value not in allowed:
             problems.append(
-                Problem("site.toml", where, f"{value!r}; expected one of {', '.join(allowed)}")
+                Problem(SITE_TOML, where, f"{value!r}; expected one of {', '.join(allowed)}")
             )
         else:
             out[key] = value

@@ -88,6 +88,8 @@ __all__ = [
     "FORMATS",
     "LAYERS",
     "MOUNTS",
+    "MW_RANGE",
+    "SEED_LIMIT",
     "SynthInfo",
     "SynthSite",
     "generate_site",
@@ -100,6 +102,15 @@ LAYERS: tuple[str, ...] = ("rows", "combiners", "inverters", "trenches", "grid")
 FORMATS: tuple[str, ...] = ("gpkg", "geojson")
 #: mounting structures: single-axis trackers (1 module in portrait) or fixed-tilt tables (2P).
 MOUNTS: tuple[str, ...] = ("tracker", "fixed")
+#: range of plant sizes [MWdc]. Below 0.1 MWdc a plant is a handful of strings (one string
+#: is about 15 kWdc, so the size generated is off by up to ~15 %), no trial of utility-scale
+#: routing. 5,000 MWdc is five times the benchmark's largest plant (1 GW): about 320,000
+#: strings, generated in about a second, and planned with about five times the 1 GW run's
+#: time and memory. A larger request (``--mw 1e7``: 640 million strings) would exhaust memory.
+MW_RANGE: tuple[float, float] = (0.1, 5_000.0)
+#: seeds are integers in [0, SEED_LIMIT): 2**32 seeds are plenty, and the seed is written into
+#: site.toml (name and header), where a bounded integer stays short and exact.
+SEED_LIMIT = 2**32
 
 #: projected CRS of every synthetic site: WGS 84 / UTM zone 33N. The origin is invented.
 PROJECTED_CRS = "EPSG:32633"
@@ -634,9 +645,10 @@ def synth_site(
     Parameters
     ----------
     mw : float
-        Requested DC capacity [MWdc], > 0.
+        Requested DC capacity [MWdc], within :data:`MW_RANGE` (0.1 to 5,000).
     seed : int
-        Seed of every random choice (≥ 0); the same seed gives the same site.
+        Seed of every random choice, 0 ≤ seed < 2**32 (:data:`SEED_LIMIT`); the same seed
+        gives the same site.
     geographic : bool
         True: layers in WGS 84 lon/lat (EPSG:4326), converted from the projected frame with
         pyproj; False: layers in the projected CRS (:data:`PROJECTED_CRS`).
@@ -655,13 +667,23 @@ def synth_site(
     Raises
     ------
     ValueError
-        For a non-positive or non-finite ``mw``, a negative or non-integer ``seed``, an
-        unknown ``mount``, or ``unassigned_rows`` out of range.
+        For an ``mw`` that is not a number within :data:`MW_RANGE`, a ``seed`` that is not
+        an integer in [0, 2**32), an unknown ``mount``, or ``unassigned_rows`` out of range.
     """
-    if isinstance(mw, bool) or not isinstance(mw, numbers.Real) or not math.isfinite(mw) or mw <= 0:
-        raise ValueError(f"mw is {mw!r}; expected a capacity > 0 [MWdc]")
-    if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
-        raise ValueError(f"seed is {seed!r}; expected an integer ≥ 0")
+    low, high = MW_RANGE
+    if (
+        isinstance(mw, bool)
+        or not isinstance(mw, numbers.Real)
+        or not math.isfinite(mw)
+        or not low <= mw <= high
+    ):
+        raise ValueError(f"mw is {mw!r}; expected a capacity from {low:g} to {high:,g} MWdc")
+    if (
+        isinstance(seed, bool)
+        or not isinstance(seed, int | np.integer)
+        or not 0 <= seed < SEED_LIMIT
+    ):
+        raise ValueError(f"seed is {seed!r}; expected an integer from 0 to 2**32 - 1")
     if mount is not None:
         _check_option("mount", mount, MOUNTS)
     if (

@@ -53,10 +53,14 @@ def test_missing_folder_exits_2(tmp_path):
 @pytest.mark.parametrize(
     ("line", "message"),
     [
-        ('depth_m = "deep"', "site.toml 'design.depth_m': 'deep' is not a quantity in m"),
+        (
+            'depth_m = "deep"',
+            "site.toml 'design.depth_m': 'deep' is not a quantity: "
+            "expected '<number> <unit>', e.g. '800 mm'",
+        ),
         ("soil_k_m_w = 40", "site.toml 'design.soil_k_m_w': 40 is outside 0.3–6"),
         ('laying = "tray"', "site.toml 'design.laying': 'tray'; expected one of direct, duct"),
-        ("depthh_m = 1", "site.toml 'design.depthh_m': unknown key"),
+        ("depthh_m = 1", "site.toml 'design.depthh_m': unknown key; did you mean 'depth_m'?"),
     ],
 )
 def test_bad_design_settings_exit_2(tmp_path, line, message):
