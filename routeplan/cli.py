@@ -6,9 +6,12 @@ limit; 2 = bad input (every problem listed, one per line, on stderr).
 
 from __future__ import annotations
 
+import functools
+import os
 import sys
+from collections.abc import Callable
 from pathlib import Path
-from typing import Annotated
+from typing import Annotated, Any
 
 import typer
 from rich.console import Console
@@ -42,6 +45,7 @@ ForceOption = Annotated[
 app = typer.Typer(
     add_completion=False,
     no_args_is_help=True,
+    context_settings={"help_option_names": ["-h", "--help"]},
     help="Electrical design of PV plants from GIS layers: route, size, schedule. " + CAUTION,
 )
 out = Console(highlight=False, soft_wrap=True)
@@ -68,17 +72,59 @@ def _fail_os(exc: OSError, where: Path) -> None:
     raise typer.Exit(2)
 
 
+def _guarded(command: Callable[..., Any]) -> Callable[..., Any]:
+    """Turn any failure a command did not foresee into one line on stderr and exit 2, never a
+    traceback: a file system error names its file; anything else is named as an internal
+    error of routeplan (``ROUTEPLAN_DEBUG=1`` shows the traceback, for a bug report)."""
+
+    @functools.wraps(command)
+    def run_command(*args: Any, **kwargs: Any) -> Any:
+        try:
+            return command(*args, **kwargs)
+        except (typer.Exit, typer.Abort, SystemExit):
+            raise
+        except KeyboardInterrupt:
+            err.print("interrupted: nothing more was written", markup=False)
+            raise typer.Exit(130) from None
+        except Exception as exc:
+            if os.environ.get("ROUTEPLAN_DEBUG"):
+                raise
+            if isinstance(exc, OSError):
+                where = exc.filename or "routeplan"
+                err.print(f"error: {where}: {exc.strerror or exc}", markup=False)
+            else:
+                text = " ".join(str(exc).split())[:300]
+                err.print(
+                    f"error: internal error ({type(exc).__name__}: {text}); this is a fault of "
+                    "routeplan, not of the input: please report it with the output of the same "
+                    "command run with ROUTEPLAN_DEBUG=1",
+                    markup=False,
+                )
+            raise typer.Exit(2) from None
+
+    return run_command
+
+
 @app.callback()
 def main(
-    version: Annotated[bool, typer.Option("--version", help="Print the version and exit.")] = False,
+    version: Annotated[
+        bool,
+        typer.Option(
+            "--version", callback=lambda v: _version(v), is_eager=True, help="Print the version."
+        ),
+    ] = False,
 ) -> None:
     """routeplan: PV cable routing and sizing from site GIS layers."""
-    if version:
-        out.print(f"routeplan {__version__}")
+
+
+def _version(value: bool) -> None:
+    if value:
+        out.print(f"routeplan {__version__}", markup=False)
         raise typer.Exit(0)
 
 
 @app.command()
+@_guarded
 def check(
     site: Annotated[Path, typer.Argument(help="Site folder holding site.toml and the layers.")],
 ) -> None:
@@ -140,6 +186,7 @@ def check(
 
 
 @app.command()
+@_guarded
 def plan(
     site: Annotated[Path, typer.Argument(help="Site folder holding site.toml and the layers.")],
     out_dir: Annotated[
@@ -312,6 +359,7 @@ def _num(v: float | None, digits: int) -> str:
 
 
 @app.command()
+@_guarded
 def diff(
     old_dir: Annotated[Path, typer.Argument(help="Output folder of the earlier plan.")],
     new_dir: Annotated[Path, typer.Argument(help="Output folder of the later plan.")],
@@ -367,6 +415,7 @@ def diff(
 
 
 @app.command("map")
+@_guarded
 def map_cmd(
     out_dir: Annotated[Path, typer.Argument(help="Output folder of 'routeplan plan'.")],
     basemap: BasemapOption = False,
@@ -393,6 +442,7 @@ def map_cmd(
 
 
 @app.command()
+@_guarded
 def synth(
     mw: Annotated[float, typer.Option("--mw", help="Plant size, MWdc.")],
     out_dir: Annotated[
