@@ -2,17 +2,21 @@
 
 Where it lives
     ``OUT/.routeplan-cache/`` inside the output folder: ``manifest.json`` and one file per
-    stored stage result. It is written with the outputs, into the same temporary folder, and
-    moved into place with them (all or nothing, :func:`routeplan.outputs.write.write_plan`),
-    so a cache always belongs to the outputs beside it. ``routeplan plan --no-cache`` neither
-    reads nor writes it.
+    stored stage result. It is written with the outputs, into the output folder's work
+    folder, and committed with them (all or nothing, :mod:`routeplan.folder`), so a cache
+    always belongs to the outputs beside it; new entries are packed in a staging folder inside
+    that work folder. ``routeplan plan --no-cache`` neither reads nor writes it (the previous
+    run's cache files are then removed with its outputs).
 
 What is reused, and when (every key is a SHA-256 of everything the stage's result depends on)
     ``site``
         The validated :class:`layers.Site`. Key: the environment (below); the resolved site
         folder (the site's default name); which file each layer comes from (``[layers]``,
         ``site.gpkg`` or ``<layer>.<ext>``, as :func:`layers.sources.locate_layers` finds them
-        now); the SHA-256 of every one of those files (a Shapefile's every side file); and
+        now); the SHA-256 of every file each layer's reader may open
+        (:func:`layers.sources.source_files`: side files beside the layer wherever it lies, a
+        GeoPackage's write-ahead log, a VRT's sources, a folder dataset's files — a layer whose
+        files cannot all be listed means no cache for the run, :attr:`PlanCache.bypassed`); and
         site.toml *without* its ``[design]`` and ``[allowances]`` tables. Those two are
         routeplan's (``layers`` never reads them: :class:`layers.model.Site`), so a design
         change keeps the validated layers; the cached Site then gets the new config.
