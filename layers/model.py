@@ -26,7 +26,9 @@ class Module:
 
     Attributes are SI: currents in A, voltages in V. ``per_string`` is the number of
     modules in series in one string. ``max_fuse_a`` is the module's maximum series fuse
-    rating (NaN when not given).
+    rating (NaN when not given). ``bifaciality`` is the bifaciality of Isc, φ (rear over
+    front; NaN = not given, a monofacial module) and ``isc_bifacial_a`` a datasheet Isc that
+    includes the rear side's gain (NaN = not given).
     """
 
     key: str
@@ -36,6 +38,8 @@ class Module:
     vmp_v: float
     per_string: int
     max_fuse_a: float = float("nan")
+    bifaciality: float = float("nan")
+    isc_bifacial_a: float = float("nan")
     extra: dict[str, Any] = field(default_factory=dict)
 
 
@@ -48,9 +52,11 @@ class Site:
     - ``rows``: ``id`` (str), ``strings`` (int), ``module`` (str), ``to`` (str or None);
       LineString/Polygon.
     - ``combiners``: ``id``, ``to``, ``max_strings`` (float, NaN = unlimited), ``fuse_a``
-      (NaN); Point.
+      (NaN), ``input`` (the inverter DC input it connects to, float; NaN = not given); Point.
     - ``inverters``: ``id``, ``ac_kva``, ``ac_v``, ``phases`` (int), ``pf`` (NaN = design default),
-      ``to``; Point or Polygon.
+      ``to``, ``ac_max_a`` (maximum continuous output current, NaN = not given),
+      ``dc_inputs`` (float, default 1: all arrays in parallel on one DC input); Point or
+      Polygon.
     - ``trenches``: ``id``, ``depth_m``, ``laying`` (str or None), ``spacing_m``, ``soil_k_m_w``,
       ``max_circuits`` (NaN where not given); LineString/MultiLineString.
     - ``grid``: ``id``; Point. Empty frame when the site has no grid layer.

@@ -71,6 +71,9 @@ MAX_CAPACITY = 10_000
 #: 100 MVA is a whole plant's grid connection). Beyond it the loss estimate (current²)
 #: overflows to infinity for absurd values such as 1e300.
 MAX_AC_KVA = 100_000.0
+#: most DC inputs of one inverter (common practice: string inverters have a few to a few tens
+#: of MPPT inputs, central inverters one to a few DC busbars)
+MAX_DC_INPUTS = 100
 
 #: attributes per layer — the site format (README, "Site format"). Upper bounds are given where
 #: a huge value would cost memory or time (``strings``) or overflow a result (``ac_kva``), and
@@ -87,6 +90,7 @@ FIELDS: dict[str, tuple[Field, ...]] = {
         Field("to", "ref", targets=("inverters",)),
         Field("max_strings", "int", low=1, high=MAX_CAPACITY),
         Field("fuse_a", "float", low=0, low_open=True),
+        Field("input", "int", low=1, high=MAX_DC_INPUTS),
     ),
     "inverters": (
         Field("ac_kva", "float", required=True, low=0, low_open=True, high=MAX_AC_KVA),
@@ -94,6 +98,8 @@ FIELDS: dict[str, tuple[Field, ...]] = {
         Field("phases", "int", choices=("1", "3"), default=3),
         Field("pf", "float", low=0, low_open=True, high=1),
         Field("to", "ref", targets=("grid",)),
+        Field("ac_max_a", "float", low=0, low_open=True),
+        Field("dc_inputs", "int", low=1, high=MAX_DC_INPUTS, default=1),
     ),
     "trenches": (
         Field("depth_m", "float", low=0, low_open=True, high=10),
@@ -149,7 +155,10 @@ MODULE_KEYS_REQUIRED: tuple[str, ...] = ("isc_a", "imp_a", "voc_v", "vmp_v", "pe
 #: carries: ``max_fuse_a`` (the module's maximum series fuse rating, ``Module.max_fuse_a``)
 #: and ``pmax_w`` (rated power at STC, W; ``Module.extra``, read by ``routeplan check`` for
 #: the DC capacity). A new optional key is added here; one that may be ≤ 0 needs its own rule.
-MODULE_KEYS_OPTIONAL: tuple[str, ...] = ("max_fuse_a", "pmax_w")
+MODULE_KEYS_OPTIONAL: tuple[str, ...] = ("max_fuse_a", "pmax_w", "bifaciality", "isc_bifacial_a")
+#: optional module keys allowed to be 0, with their inclusive range (others must be > 0):
+#: ``bifaciality`` is the rear-to-front ratio of Isc, φ (0 = monofacial, IEC TS 60904-1-2)
+MODULE_KEY_RANGES: dict[str, tuple[float, float]] = {"bifaciality": (0.0, 1.0)}
 #: module keys that are whole numbers (a whole float such as 27.0 is taken as 27)
 MODULE_KEYS_INT: tuple[str, ...] = ("per_string",)
 
@@ -345,7 +354,13 @@ def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Probl
             except ValueError as exc:
                 problems.append(Problem(SITE_TOML, f"{where}.{k}", str(exc)))
                 continue
-            if v <= 0:
+            low, high = MODULE_KEY_RANGES.get(k, (0.0, math.inf))
+            if k in MODULE_KEY_RANGES and not low <= v <= high:
+                problems.append(
+                    Problem(SITE_TOML, f"{where}.{k}", f"{v:g} must be within {low:g}–{high:g}")
+                )
+                continue
+            if k not in MODULE_KEY_RANGES and v <= 0:
                 problems.append(Problem(SITE_TOML, f"{where}.{k}", f"{v:g} must be > 0"))
                 continue
             if k in MODULE_KEYS_INT and v != int(v):
@@ -364,10 +379,19 @@ def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Probl
                     SITE_TOML, where, f"vmp_v {values['vmp_v']:g} exceeds voc_v {values['voc_v']:g}"
                 )
             )
+        bif, isc = values.get("isc_bifacial_a", math.inf), values.get("isc_a", 0.0)
+        if bif < isc:
+            problems.append(
+                Problem(
+                    SITE_TOML,
+                    f"{where}.isc_bifacial_a",
+                    f"{bif:g} is below isc_a {isc:g} (the bifacial Isc includes the rear "
+                    "side's gain)",
+                )
+            )
         if all(k in values for k in MODULE_KEYS_REQUIRED):
-            extra = {
-                k: values[k] for k in MODULE_KEYS_OPTIONAL if k != "max_fuse_a" and k in values
-            }
+            own = ("max_fuse_a", "bifaciality", "isc_bifacial_a")
+            extra = {k: values[k] for k in MODULE_KEYS_OPTIONAL if k not in own and k in values}
             modules[str(key)] = Module(
                 key=str(key),
                 isc_a=values["isc_a"],
@@ -376,6 +400,8 @@ def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Probl
                 vmp_v=values["vmp_v"],
                 per_string=int(values["per_string"]),
                 max_fuse_a=values.get("max_fuse_a", math.nan),
+                bifaciality=values.get("bifaciality", math.nan),
+                isc_bifacial_a=values.get("isc_bifacial_a", math.nan),
                 extra=extra,
             )
     return modules, problems

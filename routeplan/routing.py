@@ -463,6 +463,12 @@ class RoutePlan:
         ``trench_index`` and the ``geometry``.
     incidence_circuit, incidence_segment : numpy.ndarray of int
         The flat (circuit index, segment index) incidence, by circuit and in route order.
+    air : pandas.DataFrame
+        The stretches of cable in air that circuits share (:func:`air_stretches`):
+        ``stretch_id``, ``kind`` (``'stub'`` or ``'row run'``), ``layer``, ``feature_id``,
+        ``length_m``.
+    air_incidence_circuit, air_incidence_stretch : numpy.ndarray of int
+        The flat (circuit index, air stretch index) incidence, by circuit.
     assignment : pandas.DataFrame
         Destination of each row, combiner and inverter and the rule that chose it
         (see :class:`routeplan.circuits.Destinations`).
@@ -477,6 +483,9 @@ class RoutePlan:
     segments: gpd.GeoDataFrame
     incidence_circuit: np.ndarray
     incidence_segment: np.ndarray
+    air: pd.DataFrame
+    air_incidence_circuit: np.ndarray
+    air_incidence_stretch: np.ndarray
     assignment: pd.DataFrame
     network: TrenchNetwork
     params: RouteParams
@@ -758,17 +767,97 @@ def route_site(
     circuits_frame, segments, inc_c, inc_s = _tables(
         site, network, circuits, params, paths, pair_of, p_from, p_to
     )
+    stretches, air_c, air_s = air_stretches(
+        network.taps, site.rows, tap_from, tap_to, circuits.from_index,
+        circuits_frame["row_run_m"].to_numpy(float),
+    )  # fmt: skip
     timings["tables"] = time.perf_counter() - t
     return RoutePlan(
         circuits=circuits_frame,
         segments=segments,
         incidence_circuit=inc_c,
         incidence_segment=inc_s,
+        air=stretches,
+        air_incidence_circuit=air_c,
+        air_incidence_stretch=air_s,
         assignment=prep.destinations.report,
         network=network,
         params=params,
         timings_s=timings,
     )
+
+
+def air_stretches(
+    taps: pd.DataFrame,
+    rows: pd.DataFrame,
+    tap_from: np.ndarray,
+    tap_to: np.ndarray,
+    from_index: np.ndarray,
+    row_run_m: np.ndarray,
+) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
+    """The stretches in air that circuits share, and which circuit runs along which.
+
+    Two kinds, both in air and neither a trench segment: each equipment feature's *stub*
+    (the straight run from the feature to its trench) carries every circuit that starts or
+    ends at the feature — a row's strings, the strings arriving at a combiner and its array
+    circuit, the array circuits and the AC circuit of an inverter; each row's *row run* (the
+    string cables along the row) carries the row's strings. Stretches of zero length are
+    left out (they carry nothing in air).
+
+    Parameters
+    ----------
+    taps : pandas.DataFrame
+        :attr:`TrenchNetwork.taps` (``layer``, ``feature_id``, ``stub_m``), one row per
+        equipment feature.
+    rows : pandas.DataFrame
+        The rows layer (``id``).
+    tap_from, tap_to : numpy.ndarray of int
+        Each circuit's source and destination tap.
+    from_index : numpy.ndarray of int
+        Each circuit's source feature (row index of a string circuit's row).
+    row_run_m : numpy.ndarray
+        Each circuit's length along its row [m] (0 but for strings).
+
+    Returns
+    -------
+    (stretches, circuit, stretch)
+        ``stretches``: ``stretch_id`` (``'stub <feature>'``, ``'row run <row>'``), ``kind``,
+        ``layer``, ``feature_id``, ``length_m``; then the flat incidence, sorted by circuit.
+    """
+    n_taps, n_c = len(taps), len(tap_from)
+    stub = taps["stub_m"].to_numpy(float)
+    has_stub = np.nan_to_num(stub) > 0
+    row_len = np.zeros(len(rows))
+    strings = row_run_m > 0
+    np.maximum.at(row_len, from_index[strings], row_run_m[strings])
+    stretches = pd.DataFrame(
+        {
+            "stretch_id": np.concatenate(
+                [
+                    "stub " + taps["feature_id"].to_numpy(dtype=object).astype(str),
+                    "row run " + rows["id"].to_numpy(dtype=object).astype(str),
+                ]
+            ).astype(object),
+            "kind": np.repeat(["stub", "row run"], [n_taps, len(rows)]).astype(object),
+            "layer": np.concatenate(
+                [taps["layer"].to_numpy(dtype=object), np.full(len(rows), "rows", dtype=object)]
+            ),
+            "feature_id": np.concatenate(
+                [taps["feature_id"].to_numpy(dtype=object), rows["id"].to_numpy(dtype=object)]
+            ),
+            "length_m": np.concatenate([np.nan_to_num(stub), row_len]),
+        }
+    )
+    circuit = np.arange(n_c)
+    pairs = [
+        (circuit[has_stub[tap_from]], tap_from[has_stub[tap_from]]),
+        (circuit[has_stub[tap_to]], tap_to[has_stub[tap_to]]),
+        (circuit[strings], n_taps + from_index[strings]),
+    ]
+    c = np.concatenate([p[0] for p in pairs]).astype(np.int64)
+    k = np.concatenate([p[1] for p in pairs]).astype(np.int64)
+    order = np.lexsort((k, c))
+    return stretches, c[order], k[order]
 
 
 def _route_geometry(

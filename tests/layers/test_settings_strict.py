@@ -6,6 +6,7 @@ key with the closest known name; a wrong type names the key and the type expecte
 
 from __future__ import annotations
 
+import math
 import tomllib
 
 import pytest
@@ -104,10 +105,34 @@ def test_whole_float_per_string_is_taken_as_an_integer():
 
 
 def test_optional_module_keys_are_numbers_in_extra():
-    assert MODULE_KEYS_OPTIONAL == ("max_fuse_a", "pmax_w")
+    assert MODULE_KEYS_OPTIONAL == ("max_fuse_a", "pmax_w", "bifaciality", "isc_bifacial_a")
     toml = SITE_TOML.replace("max_fuse_a = 25", 'max_fuse_a = 25\npmax_w = "0.535 kW"')
     module = layers.build_site(base_frames(), tomllib.loads(toml)).modules["mod1"]
     assert module.extra == {"pmax_w": 535.0}  # kilo = 1e3 (SI Brochure 9th ed., Table 7)
+
+
+@pytest.mark.parametrize(
+    ("line", "message"),
+    [
+        ("bifaciality = 1.2", "'modules.mod1.bifaciality': 1.2 must be within 0–1"),
+        ("bifaciality = -0.1", "'modules.mod1.bifaciality': -0.1 must be within 0–1"),
+        (
+            "isc_bifacial_a = 12.0",
+            "'modules.mod1.isc_bifacial_a': 12 is below isc_a 13 (the bifacial Isc includes "
+            "the rear side's gain)",
+        ),
+    ],
+)
+def test_bifacial_module_keys(line, message):
+    toml = SITE_TOML.replace("max_fuse_a = 25", f"max_fuse_a = 25\n{line}")
+    assert problems(toml) == [f"site.toml {message}"]
+
+
+def test_bifacial_module_keys_are_read():
+    toml = SITE_TOML.replace("max_fuse_a = 25", "max_fuse_a = 25\nbifaciality = 0\n")
+    module = layers.build_site(base_frames(), tomllib.loads(toml)).modules["mod1"]
+    assert module.bifaciality == 0.0  # 0 is allowed: a monofacial module
+    assert math.isnan(module.isc_bifacial_a)
     assert module.max_fuse_a == 25.0
 
 
