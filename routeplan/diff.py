@@ -3,14 +3,28 @@
 Compares the written schedules (not the inputs), so any two plans can be compared — after a
 pad moved, a trench was rerouted or a setting changed. Values are compared as written (fixed
 decimals), so a change is a change a reader of the schedule would see.
+
+The schedules are read strictly, because a damaged file must never pass for "no changes":
+a file that is missing, unreadable, empty, not UTF-8, not CSV, cut short (no line end after
+its last row, a row with fewer fields than the header, fewer rows than ``summary.json``
+counts), without a column the comparison needs, with a text where a number belongs, an empty
+id or an id twice raises :class:`DiffError`, one line naming the file and the line or column.
+The ``'`` that the writer puts before text a spreadsheet would take for a formula
+(:func:`routeplan.outputs.schedules.csv_guard`) is removed on reading.
 """
 
 from __future__ import annotations
 
+import csv
+import io
+import json
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
+
+from .outputs.schedules import csv_guard, csv_unguard
 
 #: circuit fields compared, in report order (route, length, size, drop, status)
 CIRCUIT_FIELDS: tuple[str, ...] = (
@@ -35,10 +49,47 @@ QUANTITY_KEYS: tuple[str, ...] = (
     "depth_m",
     "unit",
 )
+#: columns read as numbers: a cell is empty or a decimal number
+NUMBER_FIELDS: frozenset[str] = frozenset(
+    {
+        "route_m",
+        "cable_m",
+        "size_mm2",
+        "parallel",
+        "vdrop_pct",
+        "vdrop_total_pct",
+        "circuits",
+        "strings",
+        "arrays",
+        "ac",
+        "depth_m",
+        "quantity",
+    }
+)
 
 
 class DiffError(Exception):
-    """An output folder is missing or lacks a schedule file."""
+    """An output folder is missing, or one of its schedules is missing or damaged."""
+
+
+@dataclass(frozen=True)
+class Table:
+    """One schedule as the diff reads it: the file, its key columns (must be filled and
+    unique together), the other columns it needs, and those that must not be empty."""
+
+    name: str
+    key: tuple[str, ...]
+    fields: tuple[str, ...]
+    filled: tuple[str, ...] = ()
+
+    @property
+    def columns(self) -> tuple[str, ...]:
+        return self.key + tuple(f for f in self.fields if f not in self.key)
+
+
+CIRCUITS = Table("cable_schedule.csv", ("circuit_id",), ("kind", *CIRCUIT_FIELDS), ("kind",))
+SEGMENTS = Table("trench_schedule.csv", ("segment_id",), SEGMENT_FIELDS)
+QUANTITIES = Table("quantities.csv", QUANTITY_KEYS, ("quantity",), ("quantity",))
 
 
 @dataclass(frozen=True)
@@ -63,11 +114,129 @@ class PlanDiff:
         return self.changes.empty
 
 
-def _read(folder: Path, name: str) -> pd.DataFrame:
-    path = folder / name
+def read_schedule(folder: Path, table: Table) -> pd.DataFrame:
+    """The columns ``table`` needs from its file in ``folder``, as text (guards removed), with
+    the file's line number of each row as the index. Raises :class:`DiffError` (one line
+    naming the file, and the line or column) on anything but a sound schedule."""
+    path = folder / table.name
+    if not folder.is_dir():
+        raise DiffError(f"{folder}: no such folder")
     if not path.is_file():
-        raise DiffError(f"{folder}: no {name} (is it an output folder of 'routeplan plan'?)")
-    return pd.read_csv(path, dtype=str, keep_default_na=False)
+        raise DiffError(f"{folder}: no {table.name} (is it an output folder of 'routeplan plan'?)")
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise DiffError(f"{path}: cannot be read ({exc.strerror or exc})") from None
+    return parse_schedule(data, table, str(path))
+
+
+def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
+    """:func:`read_schedule` of a file's bytes; ``where`` names the file in messages."""
+    if not data.strip():
+        raise DiffError(f"{where}: empty file")
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise DiffError(f"{where}: not UTF-8 text (byte {exc.start}): not a schedule") from None
+    if not text.endswith("\n"):
+        raise DiffError(f"{where}: truncated: the last line has no line end")
+    reader = csv.reader(io.StringIO(text, newline=""), strict=True)
+    records: list[list[str]] = []
+    lines: list[int] = []
+    try:
+        header = next(reader)
+        start = reader.line_num + 1
+        for record in reader:
+            records.append(record)
+            lines.append(start)
+            start = reader.line_num + 1
+    except csv.Error as exc:
+        raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
+    while records and not records[-1]:  # blank lines at the end (an editor's): harmless
+        records.pop()
+        lines.pop()
+    missing = [c for c in table.columns if c not in header]
+    if missing:
+        names = ", ".join(missing)
+        raise DiffError(f"{where}: no column {names} (a schedule of 'routeplan plan' has it)")
+    twice = sorted({c for c in header if header.count(c) > 1})
+    if twice:
+        raise DiffError(f"{where}: column {', '.join(twice)} appears more than once")
+    width = np.fromiter(map(len, records), dtype=np.int64, count=len(records))
+    short = np.flatnonzero(width != len(header))
+    if len(short):
+        i = int(short[0])
+        raise DiffError(
+            f"{where}: line {lines[i]}: {width[i]} fields where the header has {len(header)} "
+            "(truncated or not a schedule)"
+        )
+    index = pd.Index(lines, name="line")
+    cols = list(zip(*records, strict=True)) if records else [()] * len(header)
+    frame = pd.DataFrame(
+        {c: np.array(cols[header.index(c)], dtype=object) for c in table.columns}, index=index
+    )
+    for c in table.columns:
+        values = frame[c]
+        if c in NUMBER_FIELDS:
+            _check_numbers(values, c, where, filled=c in table.filled)
+        else:
+            quoted = values.str.startswith("'").to_numpy(dtype=bool)
+            if quoted.any():
+                frame.loc[quoted, c] = values[quoted].map(csv_unguard)
+            empty = (frame[c] == "").to_numpy()
+            if empty.any() and (c in table.key[:1] or c in table.filled):
+                raise DiffError(f"{where}: line {index[np.argmax(empty)]}: column {c}: empty")
+    _check_unique(frame, table, where)
+    return frame
+
+
+def _check_numbers(values: pd.Series, column: str, where: str, *, filled: bool) -> None:
+    """Every cell of ``values`` a decimal number (or empty, unless ``filled``)."""
+    number = pd.to_numeric(values.replace("", np.nan), errors="coerce").to_numpy(dtype=float)
+    empty = (values == "").to_numpy()
+    bad = (np.isnan(number) & ~empty) | (empty & filled)
+    if bad.any():
+        i = int(np.argmax(bad))
+        what = "empty" if empty[i] else f"{values.iloc[i]!r} is not a number"
+        raise DiffError(f"{where}: line {values.index[i]}: column {column}: {what}")
+
+
+def _check_unique(frame: pd.DataFrame, table: Table, where: str) -> None:
+    """No two rows with the same key."""
+    key = list(table.key)
+    dup = frame.duplicated(key, keep=False).to_numpy()
+    if not dup.any():
+        return
+    first = frame[dup].iloc[0]
+    same = frame.index[(frame[key] == first[key]).all(axis=1).to_numpy()].tolist()
+    value = tuple(first[key]) if len(key) > 1 else first[key[0]]
+    raise DiffError(f"{where}: {', '.join(key)} {value!r} on lines {same[0]} and {same[1]}")
+
+
+def _check_counts(folder: Path, circuits: pd.DataFrame, segments: pd.DataFrame) -> None:
+    """Rows per circuit kind and trench segments as ``summary.json`` counts them (a file cut
+    at a line end looks sound otherwise). Skipped when the folder has no ``summary.json``."""
+    path = folder / "summary.json"
+    if not path.is_file():
+        return
+    try:
+        summary = json.loads(path.read_text(encoding="utf-8"))
+        expected = {k: int(v["circuits"]) for k, v in summary["circuits"].items()}
+        n_segments = int(summary["segments"]["count"])
+    except (OSError, ValueError, KeyError, TypeError, AttributeError) as exc:
+        raise DiffError(f"{path}: unreadable ({type(exc).__name__}: {exc})") from None
+    got = circuits["kind"].value_counts().to_dict()
+    for kind in sorted(set(expected) | set(got)):
+        if got.get(kind, 0) != expected.get(kind, 0):
+            raise DiffError(
+                f"{folder / CIRCUITS.name}: {got.get(kind, 0)} {kind} circuits where "
+                f"summary.json counts {expected.get(kind, 0)} (truncated or edited?)"
+            )
+    if len(segments) != n_segments:
+        raise DiffError(
+            f"{folder / SEGMENTS.name}: {len(segments)} trench segments where summary.json "
+            f"counts {n_segments} (truncated or edited?)"
+        )
 
 
 def _compare(old: pd.DataFrame, new: pd.DataFrame, key: str, fields, section: str) -> list[dict]:
@@ -80,7 +249,7 @@ def _compare(old: pd.DataFrame, new: pd.DataFrame, key: str, fields, section: st
         rows.append(dict(section=section, id=k, change="removed", field="", old="", new=""))
     common = sorted(set(o.index) & set(n.index))
     if common:
-        fields = [f for f in fields if f in o.columns and f in n.columns]
+        fields = list(fields)
         a = o.loc[common, fields]
         b = n.loc[common, fields]
         diff = a.ne(b)
@@ -100,24 +269,24 @@ def _compare(old: pd.DataFrame, new: pd.DataFrame, key: str, fields, section: st
     return rows
 
 
+def read_plan(folder: Path | str) -> dict[str, pd.DataFrame]:
+    """The three schedules of an output folder, checked (:func:`read_schedule`) and
+    cross-checked against its ``summary.json``."""
+    folder = Path(folder)
+    circuits = read_schedule(folder, CIRCUITS)
+    segments = read_schedule(folder, SEGMENTS)
+    quantities = read_schedule(folder, QUANTITIES)
+    _check_counts(folder, circuits, segments)
+    return {"circuits": circuits, "segments": segments, "quantities": quantities}
+
+
 def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
-    """Compare the schedules in two output folders."""
-    old_dir, new_dir = Path(old_dir), Path(new_dir)
-    rows = _compare(
-        _read(old_dir, "cable_schedule.csv"),
-        _read(new_dir, "cable_schedule.csv"),
-        "circuit_id",
-        CIRCUIT_FIELDS,
-        "circuit",
-    )
-    rows += _compare(
-        _read(old_dir, "trench_schedule.csv"),
-        _read(new_dir, "trench_schedule.csv"),
-        "segment_id",
-        SEGMENT_FIELDS,
-        "segment",
-    )
-    rows += _quantity_delta(_read(old_dir, "quantities.csv"), _read(new_dir, "quantities.csv"))
+    """Compare the schedules in two output folders. Raises :class:`DiffError` when a folder
+    or one of its schedules is missing or damaged."""
+    old, new = read_plan(old_dir), read_plan(new_dir)
+    rows = _compare(old["circuits"], new["circuits"], "circuit_id", CIRCUIT_FIELDS, "circuit")
+    rows += _compare(old["segments"], new["segments"], "segment_id", SEGMENT_FIELDS, "segment")
+    rows += _quantity_delta(old["quantities"], new["quantities"])
     changes = pd.DataFrame(rows, columns=["section", "id", "change", "field", "old", "new"])
     return PlanDiff(changes)
 
@@ -125,20 +294,20 @@ def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
 def _quantity_delta(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
     keys = list(QUANTITY_KEYS)
 
-    def label(frame: pd.DataFrame) -> pd.Series:
-        parts = frame[keys].apply(lambda r: " ".join(v for v in r if v), axis=1)
-        return pd.Series(pd.to_numeric(frame["quantity"]).to_numpy(), index=parts.to_numpy())
+    def by_key(frame: pd.DataFrame) -> dict[tuple[str, ...], float]:
+        values = pd.to_numeric(frame["quantity"]).to_numpy(dtype=float).tolist()
+        return dict(zip(frame[keys].itertuples(index=False, name=None), values, strict=True))
 
-    a, b = label(old), label(new)
+    a, b = by_key(old), by_key(new)
     rows = []
-    for k in sorted(set(a.index) | set(b.index)):
-        va, vb = float(a.get(k, 0.0)), float(b.get(k, 0.0))
+    for k in sorted(set(a) | set(b)):
+        va, vb = a.get(k, 0.0), b.get(k, 0.0)
         if round(va - vb, 2) != 0:
-            change = "added" if k not in a.index else "removed" if k not in b.index else "changed"
+            change = "added" if k not in a else "removed" if k not in b else "changed"
             rows.append(
                 dict(
                     section="quantity",
-                    id=k,
+                    id=" ".join(v for v in k if v),
                     change=change,
                     field="quantity",
                     old=f"{va:.2f}",
@@ -149,5 +318,12 @@ def _quantity_delta(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
 
 
 def write_diff(diff: PlanDiff, path: Path) -> None:
-    """Write the changes as CSV."""
-    diff.changes.to_csv(path, index=False, lineterminator="\n", encoding="utf-8")
+    """Write the changes as CSV; text a spreadsheet would take for a formula is guarded as
+    in the schedules (:func:`routeplan.outputs.schedules.csv_guard`), numbers are not."""
+    out = diff.changes.copy()
+    text = ~out["field"].isin(NUMBER_FIELDS).to_numpy(dtype=bool)
+    for c in ("id", "old", "new"):
+        values = out[c].astype(str)
+        cells = csv_guard([v.encode("utf-8") for v in values[text]])
+        out.loc[text, c] = [v.decode("utf-8") for v in cells]
+    out.to_csv(path, index=False, lineterminator="\n", encoding="utf-8")
