@@ -18,6 +18,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import operator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -115,8 +116,8 @@ class PlanDiff:
 
 
 def read_schedule(folder: Path, table: Table) -> pd.DataFrame:
-    """The columns ``table`` needs from its file in ``folder``, as text (guards removed), with
-    the file's line number of each row as the index. Raises :class:`DiffError` (one line
+    """The columns ``table`` needs from its file in ``folder``, as text (guards removed), one
+    row per record. Raises :class:`DiffError` (one line
     naming the file, and the line or column) on anything but a sound schedule."""
     path = folder / table.name
     if not folder.is_dir():
@@ -141,20 +142,10 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
     if not text.endswith("\n"):
         raise DiffError(f"{where}: truncated: the last line has no line end")
     reader = csv.reader(io.StringIO(text, newline=""), strict=True)
-    records: list[list[str]] = []
-    lines: list[int] = []
     try:
         header = next(reader)
-        start = reader.line_num + 1
-        for record in reader:
-            records.append(record)
-            lines.append(start)
-            start = reader.line_num + 1
     except csv.Error as exc:
         raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
-    while records and not records[-1]:  # blank lines at the end (an editor's): harmless
-        records.pop()
-        lines.pop()
     missing = [c for c in table.columns if c not in header]
     if missing:
         names = ", ".join(missing)
@@ -162,55 +153,96 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
     twice = sorted({c for c in header if header.count(c) > 1})
     if twice:
         raise DiffError(f"{where}: column {', '.join(twice)} appears more than once")
-    width = np.fromiter(map(len, records), dtype=np.int64, count=len(records))
-    short = np.flatnonzero(width != len(header))
-    if len(short):
-        i = int(short[0])
-        raise DiffError(
-            f"{where}: line {lines[i]}: {width[i]} fields where the header has {len(header)} "
-            "(truncated or not a schedule)"
-        )
-    index = pd.Index(lines, name="line")
-    cols = list(zip(*records, strict=True)) if records else [()] * len(header)
+    pick = operator.itemgetter(*(header.index(c) for c in table.columns))
+    width = len(header)
+    kept: list[tuple[str, ...]] = []  # the fields needed, record by record (the rest dropped)
+    blank = -1  # the first blank line's record, when only blank lines followed it so far
+    try:
+        for i, record in enumerate(reader):
+            if len(record) != width:
+                if not record:  # blank lines at the end (an editor's) are harmless
+                    blank = i if blank < 0 else blank
+                    continue
+                raise DiffError(
+                    f"{where}: line {_line(text, i)}: {len(record)} fields where the header "
+                    f"has {width} (truncated or not a schedule)"
+                )
+            if blank >= 0:
+                raise DiffError(
+                    f"{where}: line {_line(text, blank)}: 0 fields where the header has "
+                    f"{width} (truncated or not a schedule)"
+                )
+            kept.append(pick(record))
+    except csv.Error as exc:
+        raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
     frame = pd.DataFrame(
-        {c: np.array(cols[header.index(c)], dtype=object) for c in table.columns}, index=index
+        {c: _column(kept, k) for k, c in enumerate(table.columns)}, index=range(len(kept))
     )
     for c in table.columns:
-        values = frame[c]
+        values = frame[c].to_numpy()
         if c in NUMBER_FIELDS:
-            _check_numbers(values, c, where, filled=c in table.filled)
-        else:
-            quoted = values.str.startswith("'").to_numpy(dtype=bool)
-            if quoted.any():
-                frame.loc[quoted, c] = values[quoted].map(csv_unguard)
-            empty = (frame[c] == "").to_numpy()
-            if empty.any() and (c in table.key[:1] or c in table.filled):
-                raise DiffError(f"{where}: line {index[np.argmax(empty)]}: column {c}: empty")
-    _check_unique(frame, table, where)
+            _check_numbers(values, c, where, text, filled=c in table.filled)
+            continue
+        quoted = np.array(values, dtype="U1") == "'"
+        if quoted.any():
+            values = values.copy()
+            values[quoted] = [csv_unguard(v) for v in values[quoted].tolist()]
+            frame[c] = values
+        empty = values == ""
+        if empty.any() and (c in table.key[:1] or c in table.filled):
+            at = _line(text, int(np.argmax(empty)))
+            raise DiffError(f"{where}: line {at}: column {c}: empty")
+    _check_unique(frame, table, where, text)
     return frame
 
 
-def _check_numbers(values: pd.Series, column: str, where: str, *, filled: bool) -> None:
-    """Every cell of ``values`` a decimal number (or empty, unless ``filled``)."""
-    number = pd.to_numeric(values.replace("", np.nan), errors="coerce").to_numpy(dtype=float)
-    empty = (values == "").to_numpy()
-    bad = (np.isnan(number) & ~empty) | (empty & filled)
+def _column(records: list[tuple[str, ...]], j: int) -> pd.Series:
+    """Field ``j`` of every record, as a Series of Python strings."""
+    return pd.Series(
+        np.array(list(map(operator.itemgetter(j), records)), dtype=object), dtype=object
+    )
+
+
+def _line(text: str, row: int) -> int:
+    """The line of ``text`` on which record ``row`` (0 = the first after the header) starts:
+    records may span lines (a quoted line break), so the file is read again (only for a
+    message)."""
+    reader = csv.reader(io.StringIO(text, newline=""))
+    next(reader)
+    start = reader.line_num + 1
+    for i, _ in enumerate(reader):
+        if i == row:
+            return start
+        start = reader.line_num + 1
+    return start
+
+
+def _check_numbers(values: np.ndarray, column: str, where: str, text: str, *, filled: bool) -> None:
+    """Every cell of ``values`` (text) a decimal number, or empty unless ``filled``."""
+    empty = values == ""
+    try:
+        bad = np.isnan(np.where(empty, "0", values).astype(float))  # "nan": not one we write
+    except ValueError:  # some text is not a number: find it
+        number = pd.to_numeric(np.where(empty, "0", values), errors="coerce")
+        bad = np.isnan(np.asarray(number, dtype=float))
+    bad |= empty & filled
     if bad.any():
         i = int(np.argmax(bad))
-        what = "empty" if empty[i] else f"{values.iloc[i]!r} is not a number"
-        raise DiffError(f"{where}: line {values.index[i]}: column {column}: {what}")
+        what = "empty" if empty[i] else f"{values[i]!r} is not a number"
+        raise DiffError(f"{where}: line {_line(text, i)}: column {column}: {what}")
 
 
-def _check_unique(frame: pd.DataFrame, table: Table, where: str) -> None:
+def _check_unique(frame: pd.DataFrame, table: Table, where: str, text: str) -> None:
     """No two rows with the same key."""
     key = list(table.key)
     dup = frame.duplicated(key, keep=False).to_numpy()
     if not dup.any():
         return
     first = frame[dup].iloc[0]
-    same = frame.index[(frame[key] == first[key]).all(axis=1).to_numpy()].tolist()
+    same = np.flatnonzero((frame[key] == first[key]).all(axis=1).to_numpy())[:2].tolist()
     value = tuple(first[key]) if len(key) > 1 else first[key[0]]
-    raise DiffError(f"{where}: {', '.join(key)} {value!r} on lines {same[0]} and {same[1]}")
+    lines = [_line(text, i) for i in same]
+    raise DiffError(f"{where}: {', '.join(key)} {value!r} on lines {lines[0]} and {lines[1]}")
 
 
 def _check_counts(folder: Path, circuits: pd.DataFrame, segments: pd.DataFrame) -> None:
