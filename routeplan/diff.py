@@ -117,8 +117,8 @@ class PlanDiff:
 
 def read_schedule(folder: Path, table: Table) -> pd.DataFrame:
     """The columns ``table`` needs from its file in ``folder``, as text (guards removed), one
-    row per record. Raises :class:`DiffError` (one line
-    naming the file, and the line or column) on anything but a sound schedule."""
+    row per record. Raises :class:`DiffError` (one line naming the file, and the line or
+    column) on anything but a sound schedule."""
     path = folder / table.name
     if not folder.is_dir():
         raise DiffError(f"{folder}: no such folder")
@@ -350,12 +350,12 @@ def _quantity_delta(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
 
 
 def write_diff(diff: PlanDiff, path: Path) -> None:
-    """Write the changes as CSV; text a spreadsheet would take for a formula is guarded as
-    in the schedules (:func:`routeplan.outputs.schedules.csv_guard`), numbers are not."""
+    """Write the changes as CSV; text a spreadsheet would take for a formula (ids, and the
+    old and new values of text fields) is guarded as in the schedules
+    (:func:`routeplan.outputs.schedules.csv_guard`), numbers are not."""
     out = diff.changes.copy()
     text = ~out["field"].isin(NUMBER_FIELDS).to_numpy(dtype=bool)
-    for c in ("id", "old", "new"):
-        values = out[c].astype(str)
-        cells = csv_guard([v.encode("utf-8") for v in values[text]])
-        out.loc[text, c] = [v.decode("utf-8") for v in cells]
+    for c, rows in (("id", np.ones(len(out), dtype=bool)), ("old", text), ("new", text)):
+        cells = csv_guard([str(v).encode("utf-8") for v in out.loc[rows, c]])
+        out.loc[rows, c] = [v.decode("utf-8") for v in cells]
     out.to_csv(path, index=False, lineterminator="\n", encoding="utf-8")

@@ -271,6 +271,8 @@ def test_hostile_ids_diff_as_planned(tmp_path):
     assert ["circuit", "'+R2\x1b[31m/S3", "removed", "", "", ""] in rows
     changed = [r for r in rows if r[2] == "changed" and r[3] in ("route_m", "vdrop_total_pct")]
     assert changed and all(not r[4].startswith("'") and float(r[4]) >= 0 for r in changed)
+    # the ids of those rows guarded all the same
+    assert {r[1] for r in changed} >= {"'=R\x011/S1"}
 
 
 def test_a_duplicate_hostile_id_is_named_safely(tmp_path):
