@@ -6,10 +6,17 @@ as the compressed piece they were (:class:`routeplan.outputs.xlsx.Piece`). The o
 formatted (:func:`routeplan.outputs.tables.format_table`, once for both files). Whether a chunk
 is copied or formatted, its bytes are the same, so a CSV file is byte for byte what a cold run
 writes, and so is the workbook.
+
+Text from a user's files stays text. In the CSV files a text cell that a spreadsheet would
+read as a formula gets a leading ``'`` (:func:`csv_guard`; undone by :func:`csv_unguard`)
+and a cell holding a line break of any kind is quoted (:func:`csv_cells`); the workbook
+holds text as typed string cells, which no spreadsheet evaluates, with the characters XML
+cannot carry replaced (:func:`routeplan.outputs.xlsx.xml_text`).
 """
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -19,8 +26,100 @@ import pandas as pd
 
 from .columns import Col
 from .reuse import chunk_bounds, chunk_keys, layout, row_hashes
-from .tables import format_table, ordered
+from .tables import TextTable, format_table, ordered
 from .xlsx import SHEET_TAIL, Piece, cell_lengths, package_parts, sheet_head, sheet_rows, write_zip
+
+#: first characters that make a spreadsheet read a CSV cell as a formula: ``= + - @``, TAB
+#: and CR (OWASP, "CSV Injection"; from memory) and NUL (OWASP ASVS 5.0, requirement 1.2.10)
+FORMULA_LEAD = "=+-@\t\r\x00"
+#: a cell that needs a guard: any quotes, then a formula character (quotes included, so that
+#: the guard can be undone exactly)
+_GUARD = re.compile(rb"'*[=+\-@\t\r\x00]")
+_UNGUARD = re.compile(r"'(?='*[=+\-@\t\r\x00])")
+#: a cell that may need one, after a separator byte 0xFF (never in UTF-8)
+_MAYBE = re.compile(rb"\xff[=+\-@\t\r\x00']")
+#: characters that make a CSV cell quoted (RFC 4180, §2.6)
+_CSV_SPECIAL = (b",", b'"', b"\n", b"\r")
+_CSV_QUOTE = re.compile(rb'[,"\n\r]')
+
+
+def csv_guard(cells: list[bytes]) -> list[bytes]:
+    """Text cells (UTF-8) as written in a CSV file: a cell whose first character is a
+    :data:`FORMULA_LEAD` character, or that starts with quotes followed by one, gets a
+    leading ``'``, so a spreadsheet shows it as text instead of evaluating it (OWASP, "CSV
+    Injection": prefix such cells with a single quote). Others are returned as they are.
+
+    Quotes before a formula character are guarded too, so that :func:`csv_unguard` can tell a
+    guard from text that began with a quote. One regular-expression scan of all the cells finds
+    the few that need it.
+
+    Examples
+    --------
+    >>> csv_guard([b"=1+2", b"R1", b"-CB1", b"'=x", b"'x", b"", b"@A"])
+    [b"'=1+2", b'R1', b"'-CB1", b"''=x", b"'x", b'', b"'@A"]
+    """
+    if not cells:
+        return cells
+    blob = b"\xff" + b"\xff".join(cells)
+    hits = [m.start() for m in _MAYBE.finditer(blob)]
+    if not hits:
+        return cells
+    starts = np.cumsum(np.fromiter(map(len, cells), dtype=np.int64, count=len(cells)) + 1)
+    out = list(cells)
+    for i in np.searchsorted(starts, hits, side="right").tolist():
+        if _GUARD.match(cells[i]):
+            out[i] = b"'" + cells[i]
+    return out
+
+
+def csv_unguard(text: str) -> str:
+    """A CSV cell's text as it was before :func:`csv_guard` (its ``'`` removed where the guard
+    added it; any other text unchanged).
+
+    Examples
+    --------
+    >>> [csv_unguard(t) for t in ["'=1+2", "''=x", "'x", "-0.5", "R1"]]
+    ['=1+2', "'=x", "'x", '-0.5', 'R1']
+    """
+    return text[1:] if _UNGUARD.match(text) else text
+
+
+def csv_cells(cells: list[bytes]) -> list[bytes]:
+    r"""Text cells (UTF-8) as written in the CSV files: guarded (:func:`csv_guard`), then
+    quoted as RFC 4180 (§2.6, §2.7) asks: a cell holding a comma, a double quote, LF or CR is
+    enclosed in double quotes, its double quotes doubled.
+
+    That is what Python's csv module writes (``QUOTE_MINIMAL``), except for a CR: the module
+    quotes only the characters of its line terminator, so with ``"\n"`` a CR inside a cell
+    would be left bare, and every reader (the csv module included) would end the row there.
+
+    Examples
+    --------
+    >>> csv_cells([b"a,b", b'a"b', b"cr\rhere", b"=x", b"plain"])
+    [b'"a,b"', b'"a""b"', b'"cr\rhere"', b"'=x", b'plain']
+    """
+    cells = csv_guard(cells)
+    blob = b"".join(cells)
+    if not any(ch in blob for ch in _CSV_SPECIAL):
+        return cells
+    made: dict[bytes, bytes] = {}
+    out = []
+    for c in cells:
+        q = made.get(c)
+        if q is None:
+            q = b'"' + c.replace(b'"', b'""') + b'"' if _CSV_QUOTE.search(c) else c
+            made[c] = q
+        out.append(q)
+    return out
+
+
+def csv_lines(table: TextTable) -> list[bytes]:
+    """Each row of ``table`` as a line of a CSV file, without its line end: numbers as
+    formatted, text as :func:`csv_cells`."""
+    cells = [c.cells if c.numeric else csv_cells(c.cells) for c in table.columns]
+    if len(cells) == 1:  # a lone empty field is written "" (as the csv module does)
+        return [c or b'""' for c in cells[0]]
+    return list(map(b",".join, zip(*cells, strict=True)))
 
 
 @dataclass(eq=False)
@@ -61,7 +160,7 @@ class Schedule:
         rows = np.concatenate([np.arange(a, b) for a, b in zip(starts, ends, strict=True)])
         table = format_table(self.data.iloc[rows], self.cols)
         local = np.r_[0, np.cumsum(ends - starts)].tolist()  # chunk bounds within ``table``
-        lines, lengths = table.csv_lines(), cell_lengths(table)
+        lines, lengths = csv_lines(table), cell_lengths(table)
         xml = sheet_rows(table, local)
         for i, (j, a, b) in enumerate(zip(todo, local[:-1], local[1:], strict=True)):
             csv = b"\n".join(lines[a:b]) + b"\n" if b > a else b""

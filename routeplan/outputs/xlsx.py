@@ -8,15 +8,18 @@ which takes about a second. Each sheet is compressed in self-contained pieces (o
 of rows, :class:`Piece`), so an unchanged chunk's compressed bytes can be copied from the last
 run's file (:mod:`routeplan.outputs.schedules`). What it writes: one sheet per
 table, a bold header row frozen in place, numbers as numeric cells with a per-column number
-format (fixed decimals), text as inline strings. The package layout follows ECMA-376 Part 1
-(SpreadsheetML): ``[Content_Types].xml``, ``_rels/.rels``, ``xl/workbook.xml``,
-``xl/_rels/workbook.xml.rels``, ``xl/styles.xml``, ``xl/worksheets/sheetN.xml``.
+format (fixed decimals), text as inline strings (:func:`xml_text`: characters XML 1.0 does
+not allow become U+FFFD, so any text from a user's files gives a workbook that opens). The
+package layout follows ECMA-376 Part 1 (SpreadsheetML): ``[Content_Types].xml``,
+``_rels/.rels``, ``xl/workbook.xml``, ``xl/_rels/workbook.xml.rels``, ``xl/styles.xml``,
+``xl/worksheets/sheetN.xml``.
 Reading the result back with openpyxl is part of the test suite.
 """
 
 from __future__ import annotations
 
 import itertools
+import re
 import struct
 import zlib
 from collections.abc import Sequence
@@ -76,21 +79,66 @@ def _number_cells(text: np.ndarray, decimals: int | None) -> list[bytes]:
     return np.where(text == b"", f'<c s="{style}"/>'.encode(), full).tolist()
 
 
+#: bytes that make a UTF-8 cell text need more than copying into the XML (:func:`xml_text`):
+#: ``& < >``, C0 controls other than TAB and LF (CR included, see there), U+FFFE, U+FFFF,
+#: UTF-16 surrogates (as ``surrogatepass`` writes them; strict UTF-8 cannot hold them) and
+#: text of the form ``_xHHHH_``. In UTF-8 each byte pattern can only be that character.
+_NEEDS_WORK = re.compile(
+    rb"[\x00-\x08\x0b-\x1f&<>]|\xef\xbf[\xbe\xbf]|\xed[\xa0-\xbf]|_x[0-9A-Fa-f]{4}_"
+)
+#: the bytes that start none of those characters (deleted by ``bytes.translate``: a fast test)
+_ORDINARY = bytes(sorted(set(range(256)) - {*range(9), *range(11, 32), *b"&<>\xed\xef"}))
+#: characters outside XML 1.0's ``Char`` production (W3C XML 1.0 Fifth Edition, §2.2):
+#: C0 controls other than TAB, LF, CR; lone surrogates; U+FFFE, U+FFFF
+_NOT_XML_CHAR = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+#: the underscore of text that a spreadsheet would decode as an escaped character
+_XSTRING = re.compile("_(?=x[0-9A-Fa-f]{4}_)")
+
+
+def xml_str(text: str) -> str:
+    r"""``text`` as the character data of a cell: ``& < >`` escaped, every character XML 1.0
+    does not allow (W3C XML 1.0 Fifth Edition, §2.2 ``Char``: C0 controls other than TAB, LF,
+    CR; lone surrogates; U+FFFE, U+FFFF) replaced by U+FFFD, CR written as the reference
+    ``&#13;`` (a parser reads a literal CR as LF, §2.11), and the underscore of text of the form
+    ``_xHHHH_`` written ``_x005F_`` (ECMA-376 Part 1, §22.9.2.19 ``ST_Xstring``: spreadsheets
+    decode ``_xHHHH_`` as the character U+HHHH; LibreOffice does, tested).
+
+    U+FFFD rather than the ``_xHHHH_`` form for the forbidden characters: the replacement is
+    visible in the cell, where a restored control character would be invisible, and the CSV
+    files and the GeoPackage keep the exact text. C1 controls (U+0080–U+009F) and DEL stay:
+    §2.2 allows them (it only discourages them), they are text that readers keep (openpyxl
+    and LibreOffice, tested), and replacing them would alter text that is not broken.
+
+    Examples
+    --------
+    >>> print(ascii(xml_str("A&B\x01\x1b[31m\r\ufffe\x85<_x0041_")))
+    'A&amp;B\ufffd\ufffd[31m&#13;\ufffd\x85&lt;_x005F_x0041_'
+    """
+    text = _XSTRING.sub("_x005F_", _NOT_XML_CHAR.sub("\ufffd", text))
+    return escape(text, {"\r": "&#13;"})
+
+
+def xml_text(text: bytes) -> bytes:
+    """:func:`xml_str` of UTF-8 ``text`` (surrogates written with ``surrogatepass`` allowed)."""
+    if _NEEDS_WORK.search(text) is None:
+        return text
+    return xml_str(text.decode("utf-8", "surrogatepass")).encode("utf-8")
+
+
 def _text_cells(cells: list[bytes]) -> list[bytes]:
-    """Inline-string cells (``b''`` = empty cell), XML-escaped; each distinct text once."""
+    """Inline-string cells (``b''`` = empty cell), as :func:`xml_text`; each distinct text
+    once. One regular-expression scan of all the texts finds the few that need work."""
     codes, uniques = pd.factorize(np.array(cells, dtype=object))
-    blob = b"".join(uniques)
-    plain = not (b"&" in blob or b"<" in blob or b">" in blob)
     pre, post = b'<c s="2" t="inlineStr"><is><t>', b"</t></is></c>"
-    made = np.array(
-        [
-            (pre + (t if plain else escape(t.decode("utf-8")).encode("utf-8")) + post)
-            if t
-            else b'<c s="2"/>'
-            for t in uniques
-        ],
-        dtype=object,
-    )
+    made = np.array([pre + t + post if t else b'<c s="2"/>' for t in uniques], dtype=object)
+    blob = b"\n".join(uniques)  # LF needs no work, so no match spans two texts
+    if not blob.translate(None, _ORDINARY) and b"_x" not in blob:
+        return made[codes].tolist()
+    hits = np.fromiter((m.start() for m in _NEEDS_WORK.finditer(blob)), dtype=np.int64)
+    if len(hits):
+        ends = np.cumsum(np.fromiter(map(len, uniques), dtype=np.int64, count=len(uniques)) + 1)
+        for i in np.unique(np.searchsorted(ends, hits, side="right")).tolist():
+            made[i] = pre + xml_text(uniques[i]) + post
     return made[codes].tolist()
 
 
@@ -123,7 +171,9 @@ def cell_lengths(table: TextTable) -> np.ndarray:
             out[:, j] = np.fromiter(map(len, c.cells), dtype=np.int64, count=table.n_rows)
             if not b"".join(c.cells).isascii():  # UTF-8: count characters, not bytes
                 wide = np.flatnonzero([not t.isascii() for t in c.cells])
-                out[wide, j] = [len(c.cells[i].decode("utf-8")) for i in wide.tolist()]
+                out[wide, j] = [
+                    len(c.cells[i].decode("utf-8", "surrogatepass")) for i in wide.tolist()
+                ]
     return out
 
 
@@ -135,7 +185,7 @@ def sheet_head(titles: list[str], longest: np.ndarray) -> bytes:
         f'<col min="{j}" max="{j}" width="{w}" customWidth="1"/>'
         for j, w in enumerate(widths, start=1)
     )
-    header = "".join(f'<c s="1" t="inlineStr"><is><t>{escape(t)}</t></is></c>' for t in titles)
+    header = "".join(f'<c s="1" t="inlineStr"><is><t>{xml_str(t)}</t></is></c>' for t in titles)
     return (
         '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
         '<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
