@@ -248,7 +248,7 @@ def test_a_real_change_is_listed(plans, tmp_path):
     result = diff(plans["base"], plans["edited"], "--out", str(tmp_path / "d"))
     assert result.exit_code == 0, result.output
     assert "  - R2/S3\n" in result.stdout
-    d = pd.read_csv(tmp_path / "d.csv", keep_default_na=False, dtype=str)
+    d = pd.read_csv(tmp_path / "d" / "changes.csv", keep_default_na=False, dtype=str)
     assert d.loc[d["section"] == "circuit", "id"].tolist()[0] == "R2/S3"
     assert set(d.loc[d["change"] == "removed", "id"]) == {"R2/S3"}
     assert "quantity" in set(d["section"])  # one string cable fewer
