@@ -48,8 +48,30 @@ app = typer.Typer(
     context_settings={"help_option_names": ["-h", "--help"]},
     help="Electrical design of PV plants from GIS layers: route, size, schedule. " + CAUTION,
 )
-out = Console(highlight=False, soft_wrap=True)
-err = Console(stderr=True, highlight=False, soft_wrap=True)
+#: control characters (C0, DEL, C1) shown as ``\xNN`` when text from the user's files reaches
+#: the terminal: an id holding ESC must not clear or recolour the screen, nor a line break
+#: split a one-line message
+_CONTROLS = {c: f"\\x{c:02x}" for c in (*range(32), *range(127, 160))}
+
+
+def visible(text: str) -> str:
+    """``text`` with every control character written as ``\\xNN``.
+
+    >>> visible("R1\x1b[2J")
+    'R1\\x1b[2J'
+    """
+    return text.translate(_CONTROLS)
+
+
+class _Terminal(Console):
+    """A console that shows control characters of the text it prints (:func:`visible`)."""
+
+    def print(self, *objects: Any, **kwargs: Any) -> None:
+        super().print(*(visible(o) if isinstance(o, str) else o for o in objects), **kwargs)
+
+
+out = _Terminal(highlight=False, soft_wrap=True)
+err = _Terminal(stderr=True, highlight=False, soft_wrap=True)
 
 
 def _fail_input(exc: Exception) -> None:
@@ -144,7 +166,7 @@ def check(
     table.add_column("features", justify="right")
     table.add_column("source")
     for name, n in report.counts.items():
-        table.add_row(name, str(n), s.sources.get(name, "-"))
+        table.add_row(name, str(n), visible(s.sources.get(name, "-")))
     out.print(table)
     out.print(
         f"strings  {report.strings}  ({report.dc_kw / 1000:.2f} MWdc; inverters "
@@ -289,7 +311,7 @@ def _cache_line(cache) -> str:
 
 
 def _print_summary(summary: dict, out_dir: Path) -> None:
-    table = Table(title=f"{summary['site']['name']} — plan", header_style="bold")
+    table = Table(title=visible(f"{summary['site']['name']} — plan"), header_style="bold")
     for col in (
         "kind",
         "circuits",

@@ -12,8 +12,6 @@ rounding tie, or too large for exact integer arithmetic) are formatted by Python
 
 from __future__ import annotations
 
-import csv
-import io
 from dataclasses import dataclass
 
 import numpy as np
@@ -23,8 +21,6 @@ from .columns import Col
 
 _POW10 = 10 ** np.arange(19, dtype=np.int64)
 _TEN = np.uint64(10)
-#: characters that make the csv module quote a field (QUOTE_MINIMAL; the csv module decides)
-_CSV_SPECIAL = (",", '"', "\n", "\r")
 
 
 def ordered(frame: pd.DataFrame, cols: tuple[Col, ...]) -> pd.DataFrame:
@@ -145,52 +141,10 @@ class TextTable:
     n_rows: int
 
     def csv_header(self) -> bytes:
-        """The CSV header line (column names), without its line end."""
-        if len(self.columns) == 1:
-            return self._lone_column_lines([self.columns[0].name.encode("utf-8")])[0]
-        return b",".join(_csv_quoted([c.name.encode("utf-8") for c in self.columns]))
-
-    def csv_lines(self) -> list[bytes]:
-        """Each row as a CSV line (minimal quoting), without its line end."""
-        if len(self.columns) == 1:
-            return self._lone_column_lines(self.columns[0].cells)
-        cells = [c.cells if c.numeric else _csv_quoted(c.cells) for c in self.columns]
-        return list(map(b",".join, zip(*cells, strict=True)))
-
-    def csv_bytes(self) -> bytes:
-        """The table as UTF-8 CSV with a header, Unix line ends and minimal quoting."""
-        return b"\n".join([self.csv_header(), *self.csv_lines()]) + b"\n"
-
-    @staticmethod
-    def _lone_column_lines(cells: list[bytes]) -> list[bytes]:
-        # the csv module quotes a lone empty field: let it decide, line by line
-        out = []
-        for c in cells:
-            buf = io.StringIO()
-            csv.writer(buf, lineterminator="\n").writerow([c.decode("utf-8")])
-            out.append(buf.getvalue()[:-1].encode("utf-8"))
-        return out
-
-
-def _csv_quoted(cells: list[bytes]) -> list[bytes]:
-    """Cells as the csv module writes them (QUOTE_MINIMAL, '"' doubled), for text columns:
-    each distinct cell that holds a special character is written by the csv module itself."""
-    blob = b"".join(cells)
-    if not any(ch.encode() in blob for ch in _CSV_SPECIAL):
-        return cells
-    made: dict[bytes, bytes] = {}
-    out = []
-    for c in cells:
-        q = made.get(c)
-        if q is None:
-            q = c
-            if any(ch.encode() in c for ch in _CSV_SPECIAL):
-                buf = io.StringIO()
-                csv.writer(buf, lineterminator="\n").writerow([c.decode("utf-8"), "x"])
-                q = buf.getvalue()[: -len(",x\n")].encode("utf-8")
-            made[c] = q
-        out.append(q)
-    return out
+        """The CSV header line, without its line end: the column names (identifiers of
+        routeplan's own, which need no quoting). The rows are written by
+        :func:`routeplan.outputs.schedules.csv_lines`."""
+        return b",".join(c.name.encode("utf-8") for c in self.columns)
 
 
 def _text_cells(col: pd.Series) -> list[bytes]:

@@ -57,3 +57,16 @@ def test_a_file_system_fault_names_the_file(tmp_path, monkeypatch):
     result = runner.invoke(app, ["check", str(site)])
     assert result.exit_code == 2
     assert result.stderr.strip() == f"error: {site / 'site.toml'}: Permission denied"
+
+
+def test_control_characters_of_the_users_text_never_reach_the_terminal(tmp_path):
+    """A site name or id holding ESC (an ANSI escape: clear the screen) or a line break is
+    shown escaped, so it can neither rewrite the terminal nor split a one-line message."""
+    from tests.conftest import SITE_TOML
+
+    toml = SITE_TOML.replace('name = "Test site"', 'name = "Field\\u001b[2J\\nB"')
+    site = write_site(tmp_path / "site", toml=toml)
+    result = runner.invoke(app, ["check", str(site)])
+    assert result.exit_code == 0, result.output
+    assert "\x1b" not in result.output
+    assert "site     Field\\x1b[2J\\x0aB\n" in result.output

@@ -335,16 +335,3 @@ def test_fixed_text_equals_python_formatting_including_ties():
         for d in range(7):
             got = [t.decode("ascii") for t in fixed_text(values, d).tolist()]
             assert got == _reference_fixed(values, d)
-
-
-def test_csv_quoting_equals_the_csv_module():
-    from routeplan.outputs.columns import Col
-    from routeplan.outputs.tables import format_table
-
-    hostile = ["plain", "a,b", 'say "hi"', "line\nbreak", "cr\rhere", "", None, "ünï,cødé"]
-    frame = pd.DataFrame({"id": hostile, "x": np.linspace(-1, 1, len(hostile))})
-    cols = (Col("id"), Col("x", decimals=2))
-    expected = frame.assign(x=_reference_fixed(frame["x"].to_numpy(), 2)).to_csv(
-        index=False, lineterminator="\n"
-    )
-    assert format_table(frame, cols).csv_bytes() == expected.encode("utf-8")
