@@ -55,7 +55,7 @@ _CONTROLS = {c: f"\\x{c:02x}" for c in (*range(32), *range(127, 160))}
 
 
 def visible(text: str) -> str:
-    """``text`` with every control character written as ``\\xNN``.
+    r"""``text`` with every control character written as ``\xNN``.
 
     >>> visible("R1\x1b[2J")
     'R1\\x1b[2J'
