@@ -4,7 +4,8 @@ Sources (data files in ``calc/data``, each with its ``confirmed`` / ``memory`` t
 
 * IEC 60364-5-52:2009 (Ed.3) Annex B — Tables B.52.2–B.52.5 (buried methods D1/D2), B.52.10/B.52.12
   (free air, methods E/F, Cu), B.52.14 (air temperature), B.52.15 (ground temperature), B.52.16
-  (soil thermal resistivity), B.52.18 (grouping direct in ground), B.52.19 (grouping in ducts).
+  (soil thermal resistivity), B.52.17 (grouping in air), B.52.18 (grouping direct in ground),
+  B.52.19 (grouping in ducts).
 * EN 50618:2014 Annex A — Table A.3 (PV cable ratings in air, 60 °C ambient) and Table A.4 (ambient
   factors). Values from memory.
 * IEC 60287-2-1 (Ed.2 2015) — external thermal resistance T4 of a buried cable, used for the depth
@@ -17,6 +18,9 @@ Stated extensions beyond the tables (each conservative, see the function docstri
   by √(3/ρ) (IEC 60287 method with the cable's internal thermal resistance neglected);
 * grouping: linear interpolation in spacing and in circuit count; beyond the last tabulated count,
   1/F² is extrapolated linearly in the count from the last two rows;
+* grouping in air (B.52.17): counts rounded up to whole circuits, between rows the next larger
+  tabulated count; beyond 20 bunched circuits the same 1/F² extrapolation as buried; single-layer
+  items constant beyond 9 circuits (the table's own rule);
 * depth: F = min(1, √(T4(0.7 m) / T4(L))) from IEC 60287-2-1, internal thermal resistance neglected;
 * Al in free air (Tables B.52.11/B.52.13 not at hand): the Cu rating × √(R20,Cu / R20,Al), the IEC
   60287 relation I ∝ R^-1/2 for equal thermal resistances (derived);
@@ -36,9 +40,11 @@ from calc.resistance import r20_ohm_km, tabulated_sizes_mm2
 from calc.tables import load_table
 
 __all__ = [
+    "AIR_ARRANGEMENTS",
     "LAYING_DIRECT",
     "LAYING_DUCT",
     "PV_INSTALLATIONS",
+    "air_group_factor",
     "air_temp_factor",
     "buried_capacity_a",
     "depth_factor",
@@ -54,10 +60,13 @@ __all__ = [
 LAYING_DIRECT = 0  # method D2, cable direct in the ground
 LAYING_DUCT = 1  # method D1, cable in a duct in the ground
 PV_INSTALLATIONS = ("free_air", "on_surface", "two_adjacent_surface")
+#: arrangements of cables in air, IEC 60364-5-52:2009 Table B.52.17 items 1-5 (names of our own)
+AIR_ARRANGEMENTS = ("bunched", "wall", "ceiling", "tray", "ladder")
 
 _B14 = "iec60364_5_52_2009_b52_14_air_temperature.csv"
 _B15 = "iec60364_5_52_2009_b52_15_ground_temperature.csv"
 _B16 = "iec60364_5_52_2009_b52_16_soil_resistivity.csv"
+_B17 = "iec60364_5_52_2009_b52_17_group_air.csv"
 _B18 = "iec60364_5_52_2009_b52_18_group_direct.csv"
 _B19 = "iec60364_5_52_2009_b52_19_group_duct.csv"
 _BUR = "iec60364_5_52_2009_buried_capacity.csv"
@@ -295,6 +304,121 @@ def group_factor(count: ArrayLike, spacing_m: ArrayLike, laying: ArrayLike) -> n
     bad = ~(d | u)
     if np.any(bad):
         raise InputError("laying must be 0 (direct, D2) or 1 (duct, D1)")
+    return out
+
+
+#: B.52.17 items 2-5 (single layers): the table gives no further reduction beyond 9 circuits
+_B17_NO_FURTHER_REDUCTION = ("wall", "ceiling", "tray", "ladder")
+
+
+def _air_by_count(counts: np.ndarray, col: np.ndarray, k: np.ndarray, hold: bool) -> np.ndarray:
+    """Factor at whole circuit counts k >= 1 for one B.52.17 item (see :func:`air_group_factor`)."""
+    ok = ~np.isnan(col)
+    xs, ys = counts[ok], col[ok]
+    # first tabulated count >= k (the next larger row); past the last row: the last row
+    f = ys[np.minimum(np.searchsorted(xs, k, side="left"), xs.size - 1)]
+    if hold:
+        return f
+    several = xs > 1  # rows of 2+ circuits: _by_count supplies the one-circuit 1.0 itself
+    beyond = _by_count(xs[several], ys[several], k)  # the buried policy, beyond the last row
+    return np.where(k > xs[-1], beyond, f)
+
+
+def air_group_factor(count: ArrayLike, arrangement: str | ArrayLike) -> np.ndarray:
+    """Reduction factor for groups of circuits in air [1], IEC 60364-5-52:2009 Table B.52.17.
+
+    Parameters
+    ----------
+    count : array_like
+        Circuits in the group [1] (each parallel conductor set counted as a circuit; a multicore
+        cable is one circuit). Must be >= 0; counts below 1 are taken as one circuit.
+    arrangement : str or array_like of str
+        One name per circuit (or one for all), from :data:`AIR_ARRANGEMENTS` (names of our own):
+
+        * ``"bunched"`` — item 1: bunched in air, on a surface, embedded or enclosed (methods A–F);
+        * ``"wall"`` — item 2: single layer on a wall, floor or unperforated tray (method C);
+        * ``"ceiling"`` — item 3: single layer fixed directly under a wooden ceiling (method C);
+        * ``"tray"`` — item 4: single layer on a perforated horizontal or vertical tray (E, F);
+        * ``"ladder"`` — item 5: single layer on a cable ladder support or cleats (E, F).
+
+    Returns
+    -------
+    numpy.ndarray
+        Factor per circuit (at least 1-d).
+
+    Raises
+    ------
+    UnknownOptionError
+        An arrangement name is not one of :data:`AIR_ARRANGEMENTS` (the message lists them).
+    InputError
+        A count is negative or nan.
+
+    Notes
+    -----
+    Table values: ``calc/data/iec60364_5_52_2009_b52_17_group_air.csv`` (every cell confirmed in
+    public third-party reproductions of the table; see its header). Cables touching; the table
+    applies to uniform groups of equally loaded cables, to groups of two or three single-core
+    cables and to multicore cables alike; where the horizontal clearance between adjacent cables
+    exceeds twice their diameter no factor is needed (the caller then passes a count of 1).
+
+    * Counts are first rounded up to whole circuits (a fraction of a circuit has no meaning; up is
+      the conservative side). count ≤ 1 → the one-circuit value: 1.0, except ``"ceiling"`` whose
+      one-circuit value in the table is 0.95.
+    * Between tabulated counts (the table gives 1–9, 12, 16, 20): the factor of the next larger
+      tabulated count (10 bunched circuits take the 12-circuit 0.45). Factors fall with the count,
+      so this is the conservative choice. (The buried :func:`group_factor` interpolates linearly
+      in the count instead; the two agree at every tabulated count.)
+    * ``"wall"``, ``"ceiling"``, ``"tray"``, ``"ladder"``: the table gives no further reduction
+      beyond 9 circuits, so the 9-circuit value holds for any larger count.
+    * ``"bunched"`` beyond 20 circuits: the buried policy of :func:`group_factor` — 1/F²
+      extrapolated linearly in the count from the 16- and 20-circuit rows (1/F² − 1 is the mutual
+      heating relative to self-heating; each further circuit adds less than the one before, so the
+      linear extension overstates it: conservative, derived). Monotone, below 0.38.
+
+    PV string cable: the EN 50618:2014 Table A.3 ratings (from memory) are for one cable alone
+    (free in air, on a surface) or for one pair of loaded cables touching on a surface, i.e. one
+    string circuit; EN 50618 tabulates no grouping factor of its own (from memory). Applied to
+    the pair column (``"two_adjacent_surface"``), the count is the number of strings, each string
+    being one circuit of two loaded single-core cables (the table's note on single-core cables).
+
+    Examples
+    --------
+    >>> air_group_factor([1, 2, 4, 10, 20], "bunched")  # 10 takes the 12-circuit value
+    array([1.  , 0.8 , 0.65, 0.45, 0.38])
+    >>> air_group_factor([1, 9, 30], "ceiling")  # 0.95 alone; no further reduction beyond 9
+    array([0.95, 0.61, 0.61])
+    >>> air_group_factor([3, 3], ["tray", "ladder"])
+    array([0.82, 0.82])
+
+    Worked check: four 4 mm² PV strings bunched along a module row at 60 °C (EN 50618 reference
+    ambient, factor 1.00): 0.65 × 44 A (Table A.3, two cables touching on a surface, from memory)
+    = 28.6 A per string.
+
+    >>> pair_a = pv_cable_capacity_a([4], "two_adjacent_surface")
+    >>> round(float(air_group_factor(4, "bunched")[0] * pair_a[0]), 1)
+    28.6
+    """
+    n = np.atleast_1d(np.asarray(count, dtype=float))
+    names = np.asarray(arrangement, dtype=str)
+    if names.ndim == 0:  # one name for every circuit
+        groups = {str(check_option("air arrangement", str(names), AIR_ARRANGEMENTS)): None}
+    else:
+        n, names = np.broadcast_arrays(n, names)
+        groups = {a: names == a for a in AIR_ARRANGEMENTS}
+        known = np.logical_or.reduce(list(groups.values()))
+        if not np.all(known):
+            check_option("air arrangement", str(names[~known][0]), AIR_ARRANGEMENTS)
+    if np.any(~(n >= 0)):
+        raise InputError("number of circuits in air must be >= 0")
+    k = np.ceil(np.maximum(n, 1.0))
+    t = load_table(_B17)
+    out = np.empty(n.shape, dtype=float)
+    for name, m in groups.items():  # at most five arrangements, each vectorised over its circuits
+        hold = name in _B17_NO_FURTHER_REDUCTION
+        if m is None:
+            out[:] = _air_by_count(t["circuits"], t[name], k, hold)
+        elif np.any(m):
+            out[m] = _air_by_count(t["circuits"], t[name], k[m], hold)
     return out
 
 

@@ -116,6 +116,15 @@ class RuleSet(abc.ABC):
     def ac_current_a(self, ac_kva, ac_v, phases) -> np.ndarray:
         """Rated a.c. current [A]."""
 
+    # grouping in air
+    #: names of the arrangements of cables in air that :meth:`air_group_factor` accepts
+    air_arrangements: ClassVar[tuple[str, ...]]
+
+    @abc.abstractmethod
+    def air_group_factor(self, count: np.ndarray, arrangement) -> np.ndarray:
+        """Reduction factor for groups of circuits in air [1]; ``arrangement`` (one name, or one
+        per circuit) from :attr:`air_arrangements`."""
+
 
 def rule_names() -> tuple[str, ...]:
     """Names of the available rule sets."""

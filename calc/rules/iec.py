@@ -95,3 +95,9 @@ class IecRules(RuleSet):
 
     def ac_current_a(self, ac_kva, ac_v, phases):
         return pv.ac_current_a(ac_kva, ac_v, phases)
+
+    # grouping in air: IEC 60364-5-52:2009 Table B.52.17 (see calc.ampacity.air_group_factor)
+    air_arrangements: ClassVar[tuple[str, ...]] = ampacity.AIR_ARRANGEMENTS
+
+    def air_group_factor(self, count, arrangement):
+        return ampacity.air_group_factor(count, arrangement)
