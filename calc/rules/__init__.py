@@ -97,6 +97,23 @@ class RuleSet(abc.ABC):
         """Series reactance per conductor [Ω/km]."""
 
     @abc.abstractmethod
+    def ac_resistance_factor(
+        self,
+        sizes_mm2: np.ndarray,
+        material: str,
+        r_ohm_km: np.ndarray,
+        frequency_hz: float,
+        phases: np.ndarray,
+    ) -> np.ndarray:
+        """Ratio of a.c. to d.c. conductor resistance R/R' [1] (skin and proximity effect).
+
+        ``r_ohm_km`` is the d.c. resistance at the conductor temperature; ``phases`` 0 (d.c.),
+        1 or 3. All array arguments broadcast together (e.g. sizes ``[S]``, resistance ``[k, S]``,
+        phases ``[k, 1]``); the result has the broadcast shape and is exactly 1 where
+        ``phases == 0`` or ``frequency_hz == 0``.
+        """
+
+    @abc.abstractmethod
     def k_adiabatic(self, material: str, insulation: str, sizes_mm2: np.ndarray) -> np.ndarray:
         """Adiabatic short-circuit factor k [A·s^0.5/mm²]."""
 

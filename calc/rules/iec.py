@@ -4,7 +4,8 @@
   factors (B.52.14–B.52.16, B.52.18, B.52.19) — see :mod:`calc.ampacity`;
 * IEC 62548:2016: PV design currents and string protection (from memory) — see :mod:`calc.pv`;
 * IEC 60228:2004: conductor resistance (class 2 Cu/Al for feeders; class 5 tinned Cu for PV cable);
-* IEC 60287-1-1 / -2-1: resistance at temperature, and T4 for the depth factor;
+* IEC 60287-1-1 / -2-1: resistance at temperature, a.c. resistance (skin and proximity effect,
+  IEC 60287-1-1 2.1), and T4 for the depth factor;
 * EN 50618:2014 / IEC 62930:2017: PV string cable, in-air ratings Table A.3 (from memory);
 * IEC 60364-4-43:2008 Table 43A: adiabatic k; BS 7671 Appendix 4: reactance.
 """
@@ -16,7 +17,7 @@ from typing import ClassVar
 import numpy as np
 
 from calc import ampacity, pv, resistance, shortcircuit
-from calc.errors import check_option
+from calc.errors import InputError, check_option
 from calc.rules import RuleSet
 from calc.tables import load_table
 
@@ -80,6 +81,45 @@ class IecRules(RuleSet):
 
     def reactance_ohm_km(self, sizes_mm2, insulation, phases):
         return resistance.reactance_ohm_km(sizes_mm2, insulation, phases)
+
+    def ac_resistance_factor(self, sizes_mm2, material, r_ohm_km, frequency_hz, phases):
+        """IEC 60287-1-1 (Ed.2.1 2014) 2.1: R/R' = 1 + y_s + y_p of single-core cables touching.
+
+        Cables: single-core 0.6/1 kV, extruded insulation, circular compacted class 2 conductors;
+        k_s, k_p from IEC 60287-1-1 Table 2 (Cu 1/1, Al 1/0.8); d_c derived from the nominal area
+        (:func:`calc.resistance.conductor_diameter_mm`) and the axial spacing s equal to a typical
+        XLPE cable diameter (:func:`calc.resistance.cable_diameter_mm`, common practice).
+
+        * ``phases == 3``: three single-core cables in trefoil touching, IEC 60287-1-1 2.1.4.1.
+          Flat formation would have s = √2 · D for the outer pair (smaller y_p), so trefoil is the
+          conservative choice.
+        * ``phases == 1``: two single-core cables touching, IEC 60287-1-1 2.1.3,
+          y_p = 2.9 F (d_c/s)² (from memory; cross-checked against the three-cable formula, see
+          :func:`calc.resistance.proximity_effect_factor`).
+        * ``phases == 0``: d.c., factor 1.
+
+        Parallel sets are taken as separate groups, each touching only its own phases (common
+        practice). PVC-insulated cables are thicker than XLPE ones, so using XLPE diameters
+        over-estimates y_p for them (conservative).
+        """
+        check_option("material", material, self.materials)
+        ph = np.asarray(phases)
+        bad = ~np.isin(ph, (0, 1, 3))
+        if np.any(bad):
+            raise InputError(f"phases must be 0 (d.c.), 1 or 3; got {np.unique(ph[bad]).tolist()}")
+        sizes = np.asarray(sizes_mm2, dtype=float)
+        r = np.asarray(r_ohm_km, dtype=float)
+        shape = np.broadcast_shapes(sizes.shape, r.shape, ph.shape, np.shape(frequency_hz))
+        f = np.where(ph == 0, 0.0, frequency_hz)
+        if not np.any(f > 0):
+            return np.ones(shape)
+        ks, kp = resistance.skin_proximity_coefficients(material, "round_stranded", "extruded")
+        dc = resistance.conductor_diameter_mm(sizes)
+        s = resistance.cable_diameter_mm(sizes)
+        conductors = np.where(ph == 3, 3, 2)
+        return np.broadcast_to(
+            resistance.ac_resistance_factor(r, f, dc, s, ks, kp, conductors), shape
+        ).copy()
 
     def k_adiabatic(self, material, insulation, sizes_mm2):
         return shortcircuit.k_table_43a(material, insulation, sizes_mm2)
