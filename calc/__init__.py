@@ -32,7 +32,9 @@ printing.
 
 Modules: :mod:`calc.resistance` (IEC 60228, IEC 60287-1-1, BS 7671 reactance), :mod:`calc.ampacity`
 (IEC 60364-5-52:2009 Annex B, EN 50618, IEC 60287-2-1 depth), :mod:`calc.pv` (IEC 62548:2016),
-:mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortcircuit` (IEC 60364-4-43, IEC 60949),
+:mod:`calc.protection` (array backfeed and fuses, bifacial I_SC, gPV fuse and breaker ratings,
+IEC 60364-4-43 433.1), :mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortcircuit`
+(IEC 60364-4-43, IEC 60949),
 :mod:`calc.marking` (IEC 60445, NEC), :mod:`calc.engine`, :mod:`calc.rules`, :mod:`calc.tables`,
 :mod:`calc.errors` (``CalcError`` and its subclasses).
 """

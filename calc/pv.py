@@ -2,8 +2,9 @@
 current.
 
 The clause text of IEC 62548:2016 was not at hand: the rules and multipliers below are from memory
-(file ``iec62548_2016_pv_dc_rules.csv``, tags memory / memory-low) and must be checked against the
-standard before use.
+(file ``iec62548_2016_pv_dc_rules.csv``, tags memory / memory-low; the string fuse bounds 1.5 and
+2.4 · I_SC were confirmed in a third-party worked example) and must be checked against the standard
+before use.
 
 Rules implemented (I_SC = module short-circuit current at STC, S = strings in parallel at the point
 where the string is connected, I_SC MAX = 1.25 · I_SC):
@@ -18,7 +19,12 @@ where the string is connected, I_SC MAX = 1.25 · I_SC):
   ``iec60269_1_fuse_ratings.csv``) at or above the lower bound;
 * minimum current-carrying capacity of a string cable: with a string fuse, I_n; without,
   1.25 · I_SC · (S − 1); never below 1.25 · I_SC;
-* array (sub-array) cable without its own overcurrent device: 1.25 · I_SC · N_strings.
+* array (sub-array) cable without its own overcurrent device: 1.25 · I_SC · N_strings (its own
+  current; the backfeed of the other arrays on the same inverter input, array fuses and the
+  bifacial design I_SC are in :mod:`calc.protection`).
+
+a.c. design current Ib: the inverter's maximum continuous output current where the datasheet gives
+it, else its rated current S / (√3 · U) or S / U (:func:`ac_max_current_a`).
 """
 
 from __future__ import annotations
@@ -34,6 +40,7 @@ from calc.tables import load_table
 __all__ = [
     "StringProtection",
     "ac_current_a",
+    "ac_max_current_a",
     "array_design_current_a",
     "fuse_ratings_a",
     "pv_rule",
@@ -60,6 +67,9 @@ def pv_rule(name: str) -> float:
 def fuse_ratings_a() -> np.ndarray:
     """Standard fuse-link rated currents [A], IEC 60269-1:2006 cl.5.3.1 (memory), ascending.
 
+    The default list of :func:`string_protection`. The gPV list of PV fuse-links (IEC 60269-6,
+    catalogue practice, with 15 A and 30 A) is :func:`calc.protection.gpv_fuse_ratings_a`.
+
     >>> fuse_ratings_a()[:6]
     array([ 2.,  4.,  6.,  8., 10., 12.])
     """
@@ -83,6 +93,47 @@ def ac_current_a(ac_kva: ArrayLike, ac_v: ArrayLike, phases: ArrayLike) -> np.nd
     if np.any((ph != 1) & (ph != 3)):
         raise InputError("phases must be 1 or 3")
     return np.where(ph == 3, s_va / (np.sqrt(3.0) * u), s_va / u)
+
+
+def ac_max_current_a(
+    ac_kva: ArrayLike, ac_v: ArrayLike, phases: ArrayLike, ac_max_a: ArrayLike
+) -> np.ndarray:
+    """Design current Ib of an inverter's a.c. circuit [A].
+
+    Parameters
+    ----------
+    ac_kva : array_like
+        Rated apparent power S [kVA].
+    ac_v : array_like
+        Line-to-line voltage (three-phase) or output voltage (single-phase) [V].
+    phases : array_like
+        1 or 3.
+    ac_max_a : array_like
+        Maximum continuous output current from the inverter datasheet [A]; nan = not given.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``ac_max_a`` where finite, else :func:`ac_current_a` (S / (√3 · U) three-phase, S / U
+        single-phase). The datasheet maximum is the better Ib: at an output voltage below nominal
+        the inverter delivers its power at a higher current.
+
+    Examples
+    --------
+    >>> np.round(ac_max_current_a([100.0, 100.0], [400.0, 400.0], [3, 3], [160.0, np.nan]), 2)
+    array([160.  , 144.34])
+    """
+    imax = np.asarray(ac_max_a, dtype=float)
+    bad = np.isfinite(imax) & (imax <= 0.0)
+    if np.any(bad):
+        i = int(np.flatnonzero(np.atleast_1d(bad))[0])
+        raise InputError(
+            f"ac_max_a must be > 0 (nan = not given); got {imax.flat[i]:g} at index {i}"
+        )
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rated = ac_current_a(ac_kva, ac_v, phases)
+    imax, rated = np.broadcast_arrays(imax, rated)
+    return np.where(np.isfinite(imax), imax, rated)
 
 
 @dataclass(frozen=True)

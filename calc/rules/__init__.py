@@ -142,6 +142,56 @@ class RuleSet(abc.ABC):
         """Reduction factor for groups of circuits in air [1]; ``arrangement`` (one name, or one
         per circuit) from :attr:`air_arrangements`."""
 
+    # ---- overcurrent protection (see calc.protection for the IEC decision rules)
+
+    breaker_devices: ClassVar[tuple[str, ...]]
+
+    @abc.abstractmethod
+    def gpv_fuse_ratings_a(self, allowed_a=None) -> np.ndarray:
+        """PV fuse ratings [A], ascending; ``allowed_a`` restricts them (unknown values raise)."""
+
+    @abc.abstractmethod
+    def breaker_ratings_a(self, device: str, allowed_a=None) -> np.ndarray:
+        """Circuit-breaker ratings [A] of a device kind in ``breaker_devices``, ascending."""
+
+    @abc.abstractmethod
+    def i2_factor(self, device: str) -> float:
+        """Conventional operating current I2 / In of a device kind ("gpv" or a breaker) [1]."""
+
+    @abc.abstractmethod
+    def bifacial_isc_a(
+        self, isc_a, bifaciality, rear_irradiance_ratio=None, isc_bifacial_a=np.nan
+    ) -> np.ndarray:
+        """Design module short-circuit current with the bifacial rear-side gain [A]."""
+
+    @abc.abstractmethod
+    def backfeed_a(self, isc_array_a, group) -> np.ndarray:
+        """Current the other arrays of the same inverter input feed into one array's fault [A]."""
+
+    @abc.abstractmethod
+    def array_fuse(self, isc_array_a, ratings_a=None):
+        """Array fuse range and rating (returns a :class:`calc.protection.ArrayFuse`)."""
+
+    @abc.abstractmethod
+    def array_min_capacity_a(self, isc_array_a, backfeed_current_a, fuse_a) -> np.ndarray:
+        """Minimum capacity of array cables with the backfeed and any array fuse [A]."""
+
+    @abc.abstractmethod
+    def array_cable_check(self, iz_a, backfeed_current_a, fuse_a):
+        """Backfeed check of sized array cables (a :class:`calc.protection.ProtectionCheck`)."""
+
+    @abc.abstractmethod
+    def ac_max_current_a(self, ac_kva, ac_v, phases, ac_max_a) -> np.ndarray:
+        """a.c. design current Ib: the inverter's maximum output current, else rated [A]."""
+
+    @abc.abstractmethod
+    def ac_breaker(self, ib_a, device: str, allowed_a=None):
+        """Breaker of a.c. circuits of a device kind (a :class:`calc.protection.Breaker`)."""
+
+    @abc.abstractmethod
+    def overload_check(self, ib_a, in_a, iz_a, i2_a):
+        """Cable / overload-device coordination (a :class:`calc.protection.OverloadCheck`)."""
+
 
 def rule_names() -> tuple[str, ...]:
     """Names of the available rule sets."""

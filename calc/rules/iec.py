@@ -3,6 +3,9 @@
 * IEC 60364-5-52:2009 (Ed.3) Annex B: capacities (B.52.2–B.52.5, B.52.10, B.52.12) and correction
   factors (B.52.14–B.52.16, B.52.18, B.52.19) — see :mod:`calc.ampacity`;
 * IEC 62548:2016: PV design currents and string protection (from memory) — see :mod:`calc.pv`;
+* IEC 62548:2016 array protection against backfeed, with the bifacial I_SC that IEC 62548-1:2023
+  adds (formula from memory); IEC 60269-6 gPV fuse ratings (catalogue practice); IEC 60898-1 and
+  IEC 60947-2 breaker ratings and I2; IEC 60364-4-43:2008 433.1 — see :mod:`calc.protection`;
 * IEC 60228:2004: conductor resistance (class 2 Cu/Al for feeders; class 5 tinned Cu for PV cable);
 * IEC 60287-1-1 / -2-1: resistance at temperature, a.c. resistance (skin and proximity effect,
   IEC 60287-1-1 2.1), and T4 for the depth factor;
@@ -16,7 +19,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from calc import ampacity, pv, resistance, shortcircuit
+from calc import ampacity, protection, pv, resistance, shortcircuit
 from calc.errors import InputError, check_option
 from calc.rules import RuleSet
 from calc.tables import load_table
@@ -33,6 +36,7 @@ class IecRules(RuleSet):
     )
     materials: ClassVar[tuple[str, ...]] = ("Cu", "Al")
     insulations: ClassVar[tuple[str, ...]] = ("XLPE", "PVC")
+    breaker_devices: ClassVar[tuple[str, ...]] = protection.BREAKER_DEVICES
 
     def default_sizes_mm2(self, kind: int, material: str) -> tuple[float, ...]:
         """String: 4, 6, 10 mm² (PV cable ≥ 4 mm² is common practice); feeders: IEC 60228 16–300 mm²
@@ -141,3 +145,38 @@ class IecRules(RuleSet):
 
     def air_group_factor(self, count, arrangement):
         return ampacity.air_group_factor(count, arrangement)
+
+    def gpv_fuse_ratings_a(self, allowed_a=None):
+        return protection.gpv_fuse_ratings_a(allowed_a)
+
+    def breaker_ratings_a(self, device, allowed_a=None):
+        return protection.breaker_ratings_a(device, allowed_a)
+
+    def i2_factor(self, device):
+        return protection.i2_factor(device)
+
+    def bifacial_isc_a(self, isc_a, bifaciality, rear_irradiance_ratio=None, isc_bifacial_a=np.nan):
+        return protection.bifacial_isc_a(isc_a, bifaciality, rear_irradiance_ratio, isc_bifacial_a)
+
+    def backfeed_a(self, isc_array_a, group):
+        return protection.backfeed_a(isc_array_a, group)
+
+    def array_fuse(self, isc_array_a, ratings_a=None):
+        return protection.array_fuse(isc_array_a, ratings_a)
+
+    def array_min_capacity_a(self, isc_array_a, backfeed_current_a, fuse_a):
+        return protection.array_min_capacity_a(isc_array_a, backfeed_current_a, fuse_a)
+
+    def array_cable_check(self, iz_a, backfeed_current_a, fuse_a):
+        return protection.array_cable_check(iz_a, backfeed_current_a, fuse_a)
+
+    def ac_max_current_a(self, ac_kva, ac_v, phases, ac_max_a):
+        return pv.ac_max_current_a(ac_kva, ac_v, phases, ac_max_a)
+
+    def ac_breaker(self, ib_a, device, allowed_a=None):
+        """Smallest rating of ``device`` (optionally restricted) ≥ Ib, with the device's I2."""
+        ratings = protection.breaker_ratings_a(device, allowed_a)
+        return protection.ac_breaker(ib_a, ratings, protection.i2_factor(device))
+
+    def overload_check(self, ib_a, in_a, iz_a, i2_a):
+        return protection.overload_check(ib_a, in_a, iz_a, i2_a)
