@@ -16,9 +16,11 @@ Interface (stable; the routing/pipeline side calls only this)::
 
 * ``SizingInput`` — numpy arrays per circuit (``kind``, ``cable_m``, ``air_m``, ``parent``,
   ``isc_a``, ``imp_a``, ``vmp_v``, ``n_strings``, ``strings_in_parallel``, ``max_fuse_a``,
-  ``fuse_a``, ``ac_kva``, ``ac_v``, ``phases``, ``pf``), per trench segment (``seg_depth_m``,
-  ``seg_laying``, ``seg_spacing_m``, ``seg_soil_k_m_w``, ``seg_count``) and the incidence pairs
-  ``inc_circuit`` / ``inc_segment``.
+  ``fuse_a``, ``bifaciality``, ``isc_bifacial_a``, ``dc_group``, ``ac_kva``, ``ac_v``,
+  ``phases``, ``pf``, ``ac_max_a``), per trench segment (``seg_depth_m``, ``seg_laying``,
+  ``seg_spacing_m``, ``seg_soil_k_m_w``, ``seg_count``) and the incidence pairs
+  ``inc_circuit`` / ``inc_segment``; per stretch in air ``air_count`` and the incidence
+  ``air_inc_circuit`` / ``air_inc_stretch``.
 * ``DesignParams`` — temperatures, materials, insulation, drop limits, size lists, parallel limit,
   conductor-temperature mode, power factor, loss hours, fault level, marking convention.
 * ``SizingResult`` — per circuit: size, parallel sets, currents, capacities and every factor at the
@@ -40,6 +42,7 @@ IEC 60364-4-43 433.1), :mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortci
 """
 
 from calc.engine import (
+    ARRAY_PROTECTION,
     KIND_AC,
     KIND_ARRAY,
     KIND_NAMES,
@@ -58,9 +61,11 @@ from calc.errors import (
     TableRangeError,
     UnknownOptionError,
 )
+from calc.protection import bnpi_rear_ratio
 from calc.rules import get_rules, rule_names
 
 __all__ = [
+    "ARRAY_PROTECTION",
     "KIND_AC",
     "KIND_ARRAY",
     "KIND_NAMES",
@@ -74,6 +79,7 @@ __all__ = [
     "SizingResult",
     "TableRangeError",
     "UnknownOptionError",
+    "bnpi_rear_ratio",
     "failure_causes",
     "get_rules",
     "rule_names",

@@ -7,19 +7,30 @@ person.
 
 Method (all steps vectorised over circuits × sizes):
 
-1. Design currents (IEC 62548:2016, from memory): string protection and fuse; string cables
-   ≥ fuse or 1.25·Isc·(S−1), ≥ 1.25·Isc; array cables 1.25·Isc·N; a.c. = rated inverter current.
-2. Capacity per environment of the route: air (``air_m`` > 0: PV cable Table A.3 for strings, method
-   F/E for feeders) × air temperature factor × ``air_group_factor``; each trench segment (D1 duct /
-   D2 direct) × ground temperature × soil × depth × grouping factor. The governing capacity is the
-   minimum over the environments; per circuit the governing buried segment is the one with the
-   smallest product of segment factors for its laying.
-3. Voltage drop (Ohm's law, R at conductor temperature by IEC 60287) at operating current.
+1. Design currents and protection (:mod:`calc.protection`, IEC 62548:2016 from memory,
+   IEC 60364-4-43:2008 433.1). The module Isc of every d.c. circuit is the bifacial design Isc
+   (datasheet bifacial value, else Isc · (1 + φ · G_rear/G_front)); an array's is the mean of
+   its strings'. Strings: protection by the module maximum series fuse, fuse from the gPV list;
+   cable ≥ fuse or 1.25·Isc·(S−1), ≥ 1.25·Isc. Arrays: ≥ 1.25·Isc·N, and against the backfeed
+   B of the other arrays on the same inverter d.c. input: where the cable's derated capacity
+   Iz < B, an array fuse in 1.25–2.4·Isc·N with Iz ≥ max(In, I2/1.45) (``array_protection =
+   "fuse"``), or Iz ≥ B (``"cable"``). a.c.: Ib = the inverter's maximum continuous output
+   current (rated current where not given), breaker In = the smallest standard rating ≥ Ib,
+   Iz ≥ max(In, I2/1.45).
+2. Capacity per environment of the route: the stretches in air (each shared stub and row run:
+   PV cable Table A.3 for strings, method F/E for feeders) × air temperature factor × grouping
+   in air (IEC 60364-5-52 Table B.52.17, by the circuits sharing the stretch and the kind's
+   arrangement); each trench segment (D1 duct / D2 direct) × ground temperature × soil × depth ×
+   grouping factor. The governing capacity is the minimum over the environments; per circuit the
+   governing stretch is the one with the smallest product of its factors.
+3. Voltage drop (Ohm's law) at operating current, R at conductor temperature (IEC 60287-1-1), for
+   a.c. with the skin and proximity effect (R = R'(1 + y_s + y_p), IEC 60287-1-1).
 4. Size selection: walk each kind's ascending size list; the first size meeting capacity, voltage
    drop and (a.c., when a fault level is given) adiabatic withstand is taken. Array and a.c.
    circuits that no single conductor can serve get 2…``max_parallel`` conductors per pole/phase;
-   each extra set counts as one more circuit in each trench segment on its route, so all circuits
-   are re-evaluated until the parallel counts stop changing (counts only grow, so this ends).
+   each extra set counts as one more circuit in each trench segment and air stretch on its route,
+   so all circuits are re-evaluated until the parallel counts stop changing (counts only grow, so
+   this ends).
 
 DC voltage-drop budget (decision): strings are sized first against min(drop_string_pct,
 drop_dc_total_pct); each array cable then gets min(drop_array_pct, drop_dc_total_pct − the largest
@@ -36,9 +47,11 @@ from typing import NamedTuple
 import numpy as np
 
 from calc.errors import ConvergenceError, InputError, check_option
+from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_CONVENTIONS, conductor_marking
+from calc.resistance import r_at_temp_ohm_km
 from calc.rules import RuleSet, get_rules
-from calc.vdrop import CONDUCTOR_TEMP_MODES, conductor_temp_c, vdrop_v
+from calc.vdrop import CONDUCTOR_TEMP_MODES, conductor_temp_c, vdrop_pct, vdrop_v
 
 __all__ = [
     "KIND_AC",
@@ -58,6 +71,8 @@ KIND_AC = 2
 KIND_NAMES = ("string", "array", "ac")
 
 ENV_NAMES = ("air", "D1", "D2")  # governing environment codes 0, 1, 2
+#: how array cables are protected against the backfeed of the other arrays on their input
+ARRAY_PROTECTION = ("fuse", "cable")
 _LAYING_OF_ENV = {"D1": 1, "D2": 0}  # D1 = in duct (laying 1), D2 = direct (laying 0)
 _MAX_ITERATIONS = 100
 _EPS = 1e-9
@@ -76,17 +91,27 @@ class SizingInput:
         Default 0.
     parent : for a string, index of its array circuit, or −1 if it goes straight to an inverter;
         −1 otherwise. Default −1.
-    isc_a, imp_a : *DC* module (= string) Isc and Imp at STC [A].
+    isc_a, imp_a : *DC* module (= string) Isc and Imp at STC, front side [A]; for an array,
+        the mean over its strings.
+    bifaciality : *DC* bifaciality of the module's Isc, φ in [0, 1]; nan = monofacial. Default nan.
+    isc_bifacial_a : *DC* datasheet Isc with the rear side's gain at the design rear irradiance
+        [A]; nan = from φ. Default nan. (An array circuit with strings in the input takes the mean
+        of its strings' design Isc; these two fields of an array apply only to an array given
+        without its strings.)
     vmp_v : *DC* string Vmp (module Vmp × modules in series) [V].
     n_strings : *DC* strings carried (1 for a string, N for an array). Default 1.
     strings_in_parallel : *DC* strings paralleled without an overcurrent device at the string's
         destination (IEC 62548 S). Default 1.
     max_fuse_a : *DC* module maximum series fuse rating [A]; nan = not given. Default nan.
     fuse_a : *DC* string fuse fixed by the combiner [A]; nan = calc picks. Default nan.
+    dc_group : *DC* arrays: id of the inverter d.c. input (or common d.c. bus) the array is
+        paralleled on with the other arrays of the same id; −1 = alone (no backfeed). Default −1.
     ac_kva : *AC* inverter rated apparent power [kVA].
     ac_v : *AC* voltage [V]: line-to-line for 3-phase, inverter output line-to-neutral for 1-phase.
     phases : *AC* 1 or 3. Default 3.
     pf : *AC* power factor cos φ; nan = ``DesignParams.power_factor``. Default nan.
+    ac_max_a : *AC* inverter maximum continuous output current [A]; nan = rated current
+        S/(√3·U) (three-phase) or S/U (single-phase). Default nan.
 
     Per trench segment (length m): ``seg_depth_m`` depth to the cable/duct axis [m]; ``seg_laying``
     0 direct in ground (method D2) / 1 in duct (D1); ``seg_spacing_m`` clear distance between
@@ -95,6 +120,14 @@ class SizingInput:
     circuits given).
 
     Incidence (length q): ``inc_circuit[k]`` passes ``inc_segment[k]``.
+
+    Stretches in air (length r, e.g. a shared stub or a row's run): ``air_count`` circuits
+    counted on the stretch (calc uses at least the number of incident circuits given; default
+    that number); ``air_behind_modules`` True where the stretch runs behind the modules (a
+    row's run: string cables there are rated at ``row_air_temp_c``; elsewhere at
+    ``air_temp_c``; default False); incidence ``air_inc_circuit[k]`` runs along
+    ``air_inc_stretch[k]``. A circuit with ``air_m`` > 0 and no stretch is rated in air as a
+    single circuit at its kind's air temperature (strings: ``row_air_temp_c``).
     """
 
     kind: np.ndarray
@@ -112,6 +145,10 @@ class SizingInput:
     ac_v: np.ndarray | None = None
     phases: np.ndarray | None = None
     pf: np.ndarray | None = None
+    bifaciality: np.ndarray | None = None
+    isc_bifacial_a: np.ndarray | None = None
+    dc_group: np.ndarray | None = None
+    ac_max_a: np.ndarray | None = None
     seg_depth_m: np.ndarray | None = None
     seg_laying: np.ndarray | None = None
     seg_spacing_m: np.ndarray | None = None
@@ -119,6 +156,10 @@ class SizingInput:
     seg_count: np.ndarray | None = None
     inc_circuit: np.ndarray | None = None
     inc_segment: np.ndarray | None = None
+    air_count: np.ndarray | None = None
+    air_behind_modules: np.ndarray | None = None
+    air_inc_circuit: np.ndarray | None = None
+    air_inc_stretch: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -152,12 +193,23 @@ class DesignParams:
     marking : conductor identification convention, "iec" (IEC 60445) or "us" (NEC).
     pv_installation : EN 50618 Table A.3 column for string cables in air: "two_adjacent_surface"
         (default, conservative: + and − touching along the racking), "on_surface" or "free_air".
-    air_group_factor : grouping factor applied in air [1]; 1.0 assumes cables in air are not bunched
-        — set it from IEC 60364-5-52 Table B.52.17 where they are.
+    air_arrangement : how the cables of each kind (string, array, a.c.) run where they share a
+        stretch in air, one of the rule set's ``air_arrangements`` (iec: IEC 60364-5-52 Table
+        B.52.17 items "bunched", "wall", "ceiling", "tray", "ladder"); "bunched" (the most
+        onerous) by default.
     cable_od_m, duct_od_m : outer diameter of a direct-buried circuit and of a duct [m] used by the
         IEC 60287 depth factor; 0.04 and 0.11 are common practice (the factor changes < 1 % for
         0.03–0.06).
-    fuse_ratings_a : standard fuse ratings to pick from [A]; None = IEC 60269-1 preferred values.
+    string_fuse_ratings_a, array_fuse_ratings_a : the project's fuse ratings [A], each in the rule
+        set's PV fuse list (iec: gPV, IEC 60269-6); None = the whole list.
+    array_protection : "fuse" (an array fuse where the backfeed of the other arrays on the input
+        exceeds the cable's capacity) or "cable" (no array fuses: the cable carries the backfeed).
+    rear_irradiance_ratio : design rear / front irradiance of bifacial modules [1]; None = the
+        rule set's default (iec: 0.135, the bifacial nameplate irradiance of IEC 61215-1).
+    ac_breaker_device : kind of a.c. circuit-breaker, one of the rule set's ``breaker_devices``
+        (iec: "iec60947-2" moulded-case, the default, or "iec60898-1"); ac_breaker_ratings_a: the
+        project's ratings [A] within that kind's list; None = the whole list.
+    frequency_hz : a.c. frequency [Hz] for the skin and proximity effect; 50 by default.
     """
 
     ground_temp_c: float = 20.0
@@ -182,10 +234,16 @@ class DesignParams:
     clear_s: float | None = None
     marking: str = "iec"
     pv_installation: str = "two_adjacent_surface"
-    air_group_factor: float = 1.0
+    air_arrangement: tuple[str, str, str] = ("bunched", "bunched", "bunched")
     cable_od_m: float = 0.04
     duct_od_m: float = 0.11
-    fuse_ratings_a: tuple[float, ...] | None = None
+    string_fuse_ratings_a: tuple[float, ...] | None = None
+    array_fuse_ratings_a: tuple[float, ...] | None = None
+    array_protection: str = "fuse"
+    rear_irradiance_ratio: float | None = None
+    ac_breaker_device: str = "iec60947-2"
+    ac_breaker_ratings_a: tuple[float, ...] | None = None
+    frequency_hz: float = 50.0
 
 
 @dataclass
@@ -202,11 +260,17 @@ class SizingResult:
     vdrop_limit_pct
     (budget applied), vdrop_total_pct (string: own + its array; array: own + its worst string; a.c.:
     own); loss_w, loss_pct (of circuit power at operating point), energy_loss_kwh (estimate);
-    sc_min_mm2 (adiabatic minimum, nan if not checked); fuse_required, fuse_a; ok; note (reason or
-    assumption, "" if none) and marking (conductor identification) as object arrays of str.
+    sc_min_mm2 (adiabatic minimum, nan if not checked); fuse_required, fuse_a (string fuses);
+    isc_design_a (d.c.: the Isc the design currents use — a string's module Isc, an array's total,
+    bifacial gain included); backfeed_a (arrays: current the other arrays of the input can feed
+    into it); array_fuse_a (nan where none); ac_ib_a (a.c. design current Ib), ac_breaker_a (In);
+    protection (which rule governed, text); governing_air (the air stretch that governs, −1 if none
+    or not air); ok; note (reason or assumption, "" if none) and marking (conductor identification)
+    as object arrays of str.
 
     Per segment: seg_soil_factor, seg_depth_factor, seg_group_factor (in force with the final
-    counts), seg_count_final (routing count incl. extra parallel sets).
+    counts), seg_count_final (routing count incl. extra parallel sets). Per air stretch:
+    air_count_final (circuits incl. extra parallel sets).
     Per kind (index = kind): total_loss_w, total_loss_pct, total_energy_loss_kwh.
     """
 
@@ -238,6 +302,13 @@ class SizingResult:
     sc_min_mm2: np.ndarray
     fuse_required: np.ndarray
     fuse_a: np.ndarray
+    isc_design_a: np.ndarray
+    backfeed_a: np.ndarray
+    array_fuse_a: np.ndarray
+    ac_ib_a: np.ndarray
+    ac_breaker_a: np.ndarray
+    protection: np.ndarray
+    governing_air: np.ndarray
     ok: np.ndarray
     note: np.ndarray
     marking: np.ndarray
@@ -245,6 +316,7 @@ class SizingResult:
     seg_depth_factor: np.ndarray
     seg_group_factor: np.ndarray
     seg_count_final: np.ndarray
+    air_count_final: np.ndarray
     total_loss_w: np.ndarray
     total_loss_pct: np.ndarray
     total_energy_loss_kwh: np.ndarray
@@ -290,9 +362,13 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
         ("ac_kva", np.nan),
         ("ac_v", np.nan),
         ("pf", np.nan),
+        ("bifaciality", np.nan),
+        ("isc_bifacial_a", np.nan),
+        ("ac_max_a", np.nan),
     ):
         a[name] = _arr(getattr(inp, name), n, default)
     a["phases"] = _arr(inp.phases, n, 3, np.int64)
+    a["dc_group"] = _arr(inp.dc_group, n, -1, np.int64)
     for name, arr in a.items():
         if arr.shape != (n,):
             problems.append(f"{name} must have length {n} (one per circuit)")
@@ -325,6 +401,18 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     bad = ac & ~np.isnan(a["pf"]) & ~((a["pf"] > 0) & (a["pf"] <= 1))
     if np.any(bad):
         problems.append(f"pf must be in (0, 1] at a.c. circuits {_where(bad)}")
+    bad = ac & ~np.isnan(a["ac_max_a"]) & ~(a["ac_max_a"] > 0)
+    if np.any(bad):
+        problems.append(f"ac_max_a must be > 0 at a.c. circuits {_where(bad)}")
+    bad = dc & ~np.isnan(a["bifaciality"]) & ~((a["bifaciality"] >= 0) & (a["bifaciality"] <= 1))
+    if np.any(bad):
+        problems.append(f"bifaciality must be within 0-1 at d.c. circuits {_where(bad)}")
+    bad = dc & ~np.isnan(a["isc_bifacial_a"]) & ~(a["isc_bifacial_a"] >= a["isc_a"])
+    if np.any(bad):
+        problems.append(f"isc_bifacial_a must be >= isc_a at d.c. circuits {_where(bad)}")
+    bad = (kind == KIND_ARRAY) & (a["dc_group"] < -1)
+    if np.any(bad):
+        problems.append(f"dc_group must be >= -1 at array circuits {_where(bad)}")
     par = a["parent"]
     is_str = kind == KIND_STRING
     bad = (par >= n) | (par < -1) | (~is_str & (par != -1))
@@ -380,7 +468,33 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     incident = np.bincount(a["inc_segment"], minlength=m)
     a["seg_count"] = np.maximum(a["seg_count"], incident).astype(float)
     a["pf"] = np.where(np.isnan(a["pf"]), design.power_factor, a["pf"])
+    _prepare_air(a, inp, n)
     return a
+
+
+def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
+    """The air stretches' counts and incidence (sorted by circuit; duplicates count once)."""
+    ic = np.zeros(0, np.int64) if inp.air_inc_circuit is None else np.asarray(inp.air_inc_circuit)
+    ks = np.zeros(0, np.int64) if inp.air_inc_stretch is None else np.asarray(inp.air_inc_stretch)
+    ic, ks = ic.astype(np.int64).ravel(), ks.astype(np.int64).ravel()
+    if ic.shape != ks.shape:
+        raise InputError("air_inc_circuit and air_inc_stretch must have the same length")
+    r = int(ks.max()) + 1 if ks.size else 0
+    if inp.air_count is not None:
+        r = max(r, np.asarray(inp.air_count).size)
+    count = _arr(inp.air_count, r, 0.0)
+    if count.shape != (r,) or np.any(~(count >= 0)):
+        raise InputError(f"air_count must be {r} numbers >= 0 (one per air stretch)")
+    behind = _arr(inp.air_behind_modules, r, False, bool)
+    if behind.shape != (r,):
+        raise InputError(f"air_behind_modules must have length {r} (one per air stretch)")
+    a["air_behind_modules"] = behind
+    bad = (ic < 0) | (ic >= n) | (ks < 0)
+    if np.any(bad):
+        raise InputError(f"air incidence pairs out of range at positions {_where(bad)}")
+    key = np.unique(ic * max(r, 1) + ks)
+    a["air_inc_circuit"], a["air_inc_stretch"] = key // max(r, 1), key % max(r, 1)
+    a["air_count"] = np.maximum(count, np.bincount(a["air_inc_stretch"], minlength=r)).astype(float)
 
 
 def _check_design(design: DesignParams, rs: RuleSet) -> None:
@@ -390,6 +504,12 @@ def _check_design(design: DesignParams, rs: RuleSet) -> None:
     check_option("insulation_ac", design.insulation_ac, rs.insulations)
     check_option("conductor_temp", design.conductor_temp, CONDUCTOR_TEMP_MODES)
     check_option("marking", design.marking, MARKING_CONVENTIONS)
+    check_option("array_protection", design.array_protection, ARRAY_PROTECTION)
+    check_option("ac_breaker_device", design.ac_breaker_device, rs.breaker_devices)
+    if len(design.air_arrangement) != len(KIND_NAMES):
+        raise InputError("air_arrangement must name one arrangement per kind (string, array, ac)")
+    for name, value in zip(KIND_NAMES, design.air_arrangement, strict=True):
+        check_option(f"air_arrangement ({name})", value, rs.air_arrangements)
     problems = []
     for f in (
         "drop_string_pct",
@@ -399,12 +519,16 @@ def _check_design(design: DesignParams, rs: RuleSet) -> None:
         "loss_hours_h",
         "cable_od_m",
         "duct_od_m",
-        "air_group_factor",
     ):
         if not getattr(design, f) > 0:
             problems.append(f"{f} must be > 0")
     if not (0 < design.power_factor <= 1):
         problems.append("power_factor must be in (0, 1]")
+    if not design.frequency_hz >= 0:
+        problems.append("frequency_hz must be >= 0")
+    ratio = design.rear_irradiance_ratio
+    if ratio is not None and not 0 <= ratio <= 1:
+        problems.append("rear_irradiance_ratio must be within 0-1")
     if int(design.max_parallel) < 1:
         problems.append("max_parallel must be >= 1")
     if (design.fault_ka is None) != (design.clear_s is None):
@@ -427,7 +551,6 @@ class _KindData:
     insulation: str
     sizes: np.ndarray  # [S]
     r20: np.ndarray  # [S]
-    alpha: float
     theta_air: float
     theta_bur: float
     base: dict  # (env, loaded) -> [S]
@@ -477,7 +600,6 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
         insulation=insulation,
         sizes=s,
         r20=r20,
-        alpha=rs.alpha20_per_k(material),
         theta_air=rs.theta_max_c(insulation, "air"),
         theta_bur=rs.theta_max_c(insulation, "buried"),
         base=base,
@@ -529,6 +651,37 @@ def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> 
     return out
 
 
+def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_open, t_row):
+    """Per circuit, the air stretch with the smallest product of temperature and grouping
+    factors: (product, stretch, count, grouping factor, temperature factor); a circuit without
+    a stretch gets (nan, −1, 0, 1.0, nan).
+
+    Only incidences of circuits with ``rows_mask_c`` are evaluated; ``delta`` (per circuit) is
+    added to the counts of that circuit's own stretches (its candidate extra parallel sets);
+    ``arrangement`` is each circuit's arrangement in air; ``t_open`` / ``t_row`` the kind's
+    temperature factor in open air / behind the modules. The incidence is sorted by circuit.
+    """
+    n = rows_mask_c.size
+    ic, ks = a["air_inc_circuit"], a["air_inc_stretch"]
+    sel = rows_mask_c[ic]
+    c, k = ic[sel], ks[sel]
+    f_min, t_min = np.full(n, np.nan), np.full(n, np.nan)
+    stretch, gcnt, g_min = np.full(n, -1, dtype=np.int64), np.zeros(n), np.ones(n)
+    if c.size:
+        cnt = counts[k] + delta[c]
+        g = rs.air_group_factor(cnt, arrangement[c])
+        t = np.where(a["air_behind_modules"][k], t_row, t_open)
+        f = t * g
+        starts = np.flatnonzero(np.r_[True, c[1:] != c[:-1]])
+        lo = np.minimum.reduceat(f, starts)
+        first = f == np.repeat(lo, np.diff(np.r_[starts, c.size]))
+        keep = np.minimum.reduceat(np.where(first, np.arange(c.size), c.size), starts)
+        who = c[keep]
+        f_min[who], stretch[who], gcnt[who] = f[keep], k[keep], cnt[keep]
+        g_min[who], t_min[who] = g[keep], t[keep]
+    return f_min, stretch, gcnt, g_min, t_min
+
+
 # --------------------------------------------------------------------------------------------
 # selection for one kind
 
@@ -555,8 +708,10 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
         mask_c[gi] = True
         delta = np.zeros(n)
         delta[gi] = pp - p_cur[gi]
-        bur = _governing_buried(a, seg["fixed"], counts, mask_c, delta, rs)
-        ev = _evaluate(kd, a, c, gi, pp, bur, budget[li], design)
+        bur = _governing_buried(a, seg["fixed"], counts[0], mask_c, delta, rs)
+        t_open, t_row = c["t_open"][kd.kind], c["t_air"][kd.kind]
+        air = _governing_air(a, counts[1], mask_c, delta, rs, c["arrangement"], t_open, t_row)
+        ev = _evaluate(kd, a, c, gi, pp, bur, air, budget[li], design, rs)
         ok = ev["ok"]
         anyok = ok.any(axis=1)
         first = np.argmax(ok, axis=1)
@@ -567,7 +722,7 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
         out_s[li[rows]] = s_idx[rows]
         chosen[li[rows]] = True
         picked = {key: mat[rows, s_idx[rows]] for key, mat in ev.items() if key != "ok"}
-        picked.update(_details(picked["env"], gi[rows], bur, c, kd, design))
+        picked.update(_details(picked["env"], gi[rows], bur, air, c, kd))
         for key, vec in picked.items():
             if key not in det:
                 det[key] = np.zeros(k, dtype=vec.dtype)
@@ -587,8 +742,14 @@ def _air_temp_c(design: DesignParams, kind: int) -> float:
     return design.air_temp_c
 
 
-def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
-    """Matrices [circuits, sizes] of capacity, drop and pass flags at ``pp`` parallel sets."""
+def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict:
+    """Matrices [circuits, sizes] of capacity, drop and pass flags at ``pp`` parallel sets.
+
+    A size carries the circuit when its capacity Iz meets the design current and either the
+    backfeed (arrays: the other arrays of the input; 0 otherwise) or, failing that, the capacity
+    the protection then needs (an array fuse's max(In, I2/1.45); infinite where none can be
+    fitted). ``i_req`` is what the size is held to.
+    """
     loaded = c["loaded"][gi]
     has_air = a["air_m"][gi] > 0
     no_env = ~has_air & ~np.isfinite(bur["D1"][0][gi]) & ~np.isfinite(bur["D2"][0][gi])
@@ -597,7 +758,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
     t_gnd = c["t_gnd"][kd.kind]
     f_env = np.stack(
         [
-            np.where(has_air, t_air * design.air_group_factor, np.inf),
+            np.where(has_air, np.where(np.isnan(air[0][gi]), t_air, air[0][gi]), np.inf),
             t_gnd * bur["D1"][0][gi],
             t_gnd * bur["D2"][0][gi],
         ]
@@ -621,16 +782,24 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
 
     i_op = c["i_op"][gi][:, None]
     i_des = c["i_design"][gi][:, None]
+    i_bf = c["i_backfeed"][gi][:, None]
+    i_prot = c["i_protected"][gi][:, None]
     theta_max = np.where(env == 0, kd.theta_air, kd.theta_bur)
     amb = np.where(env == 0, _air_temp_c(design, kd.kind), design.ground_temp_c)
     theta = conductor_temp_c(design.conductor_temp, theta_max, amb, i_op, cap_tot)
-    r = kd.r20[None, :] * (1.0 + kd.alpha * (theta - 20.0))
+    r = r_at_temp_ohm_km(kd.r20[None, :], theta, kd.material)
     ph = c["phases_eff"][gi]
+    if kd.kind == KIND_AC:  # skin and proximity effect, IEC 60287-1-1
+        r = r * rs.ac_resistance_factor(
+            kd.sizes[None, :], kd.material, r, design.frequency_hz, ph[:, None]
+        )
     x = np.where((ph == 1)[:, None], kd.x[1][None, :], kd.x[3][None, :])
     dv = vdrop_v(a["cable_m"][gi][:, None], i_op, r, x, a["pf"][gi][:, None], ph[:, None], pp)
-    pct = 100.0 * dv / c["u_ref"][gi][:, None]
+    pct = vdrop_pct(dv, c["u_ref"][gi][:, None])
 
-    ok_cap = cap_tot >= i_des * (1.0 - _EPS)
+    carries = cap_tot >= i_bf * (1.0 - _EPS)  # the backfeed, unprotected (0 but for arrays)
+    ok_cap = (cap_tot >= i_des * (1.0 - _EPS)) & (carries | (cap_tot >= i_prot * (1.0 - _EPS)))
+    i_req = np.where(carries, np.maximum(i_des, i_bf), np.maximum(i_des, i_prot))
     ok_vd = pct <= budget[:, None] + _EPS
     ok = ok_cap & ok_vd
     if kd.k_sc is not None:
@@ -645,6 +814,8 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
     return {
         "ok": ok,
         "ok_cap": ok_cap,
+        "i_req": i_req,
+        "carries": carries,
         "ok_vd": ok_vd,
         "ok_sc": ok_sc,
         "cap_tot": cap_tot,
@@ -659,13 +830,15 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, budget, design) -> dict:
     }
 
 
-def _details(env: np.ndarray, gi: np.ndarray, bur: dict, c: dict, kd: _KindData, design) -> dict:
+def _details(env: np.ndarray, gi: np.ndarray, bur: dict, air_g: tuple, c: dict, kd) -> dict:
     """Factors at the governing environment of the chosen size (vectors over circuits ``gi``)."""
     air = env == 0
-    temp_f = np.where(air, c["t_air"][kd.kind], c["t_gnd"][kd.kind])
+    t_air = np.where(np.isnan(air_g[4][gi]), c["t_air"][kd.kind], air_g[4][gi])
+    temp_f = np.where(air, t_air, c["t_gnd"][kd.kind])
     seg_i = np.full(env.shape, -1, dtype=np.int64)
-    group = np.where(air, design.air_group_factor, 1.0)
-    gcount = np.zeros(env.shape)
+    group = np.where(air, air_g[3][gi], 1.0)
+    gcount = np.where(air, air_g[2][gi], 0.0)
+    stretch = np.where(air, air_g[1][gi], -1)
     for e, name in ((1, "D1"), (2, "D2")):
         sel = env == e
         _, sg, gr, gc = bur[name]
@@ -683,6 +856,7 @@ def _details(env: np.ndarray, gi: np.ndarray, bur: dict, c: dict, kd: _KindData,
         "group_f": group,
         "group_count": gcount,
         "seg": seg_i,
+        "air_stretch": stretch,
     }
 
 
@@ -742,47 +916,23 @@ def size_circuits(
     kinds = {k: np.flatnonzero(kind == k) for k in (KIND_STRING, KIND_ARRAY, KIND_AC)}
     kd = {k: _kind_data(k, idx, design, rs) for k, idx in kinds.items() if idx.size}
 
-    # ---- design and operating currents
-    prot = rs.string_protection(
-        a["isc_a"],
-        a["strings_in_parallel"],
-        a["max_fuse_a"],
-        a["fuse_a"],
-        design.fuse_ratings_a,
-    )
-    fuse_required = prot.required & is_str
-    fuse_a = np.where(is_str, prot.fuse_a, np.nan)
-    i_ac = np.where(
-        is_ac,
-        rs.ac_current_a(
-            np.where(is_ac, a["ac_kva"], 1.0),
-            np.where(is_ac, a["ac_v"], 1.0),
-            np.where(is_ac, a["phases"], 3),
-        ),
-        np.nan,
-    )
-    i_design = np.select(
-        [is_str, is_arr],
-        [
-            rs.string_design_current_a(a["isc_a"], a["strings_in_parallel"], fuse_a),
-            rs.array_design_current_a(a["isc_a"], a["n_strings"]),
-        ],
-        default=i_ac,
-    )
-    i_op = np.where(dc, a["imp_a"] * a["n_strings"], i_ac)
+    # ---- design and operating currents, protection
+    prot_c = _protection(a, design, rs)
+    i_op = prot_c["i_op"]
     u_ref = np.where(dc, a["vmp_v"], a["ac_v"])
     p_w = np.where(dc, a["vmp_v"] * i_op, a["ac_kva"] * 1e3 * a["pf"])
     phases_eff = np.where(is_ac, a["phases"], 0)
 
     c = {
-        "i_design": i_design,
-        "i_op": i_op,
+        **prot_c,
         "u_ref": u_ref,
         "phases_eff": phases_eff,
         "loaded": np.where(is_ac & (a["phases"] == 3), 3, 2),
+        "arrangement": np.asarray(design.air_arrangement, dtype=object)[kind],
         "t_air": {
             k: rs.air_temp_factor(_air_temp_c(design, k), d.insulation) for k, d in kd.items()
         },
+        "t_open": {k: rs.air_temp_factor(design.air_temp_c, d.insulation) for k, d in kd.items()},
         "t_gnd": {
             k: rs.ground_temp_factor(design.ground_temp_c, d.insulation) for k, d in kd.items()
         },
@@ -802,11 +952,12 @@ def size_circuits(
     # ---- iterate parallel sets <-> grouping; after the first pass only circuits on segments whose
     # count changed (and the arrays of such strings) are re-evaluated
     p = np.ones(n, dtype=np.int64)
+    r_air = a["air_count"].size
     budgets = np.full(n, np.nan)
     budgets[is_str] = min(design.drop_string_pct, design.drop_dc_total_pct)
     budgets[is_ac] = design.drop_ac_pct
     det: dict[int, dict] = {}
-    counts = prev = None
+    counts = prev = air_counts = air_prev = None
     affected = np.ones(n, dtype=bool)
     iterations = 0
     for iteration in range(1, _MAX_ITERATIONS + 1):
@@ -814,13 +965,19 @@ def size_circuits(
         counts = a["seg_count"] + np.bincount(
             a["inc_segment"], weights=(p - 1)[a["inc_circuit"]].astype(float), minlength=m
         )
+        air_counts = a["air_count"] + np.bincount(
+            a["air_inc_stretch"], weights=(p - 1)[a["air_inc_circuit"]].astype(float),
+            minlength=r_air,
+        )  # fmt: skip
         if prev is not None:
             changed = counts != prev
+            air_changed = air_counts != air_prev
             affected = np.zeros(n, dtype=bool)
             affected[a["inc_circuit"][changed[a["inc_segment"]]]] = True
+            affected[a["air_inc_circuit"][air_changed[a["air_inc_stretch"]]]] = True
             up = a["parent"][affected & is_str]
             affected[up[up >= 0]] = True
-        prev = counts
+        prev, air_prev = counts, air_counts
         for k in (KIND_STRING, KIND_ARRAY, KIND_AC):
             if k not in kd:
                 continue
@@ -832,7 +989,9 @@ def size_circuits(
             sub = np.flatnonzero(affected[kinds[k]])
             if sub.size == 0:
                 continue
-            new = _select(kd[k], sub, a, c, seg, counts, p, budgets[kinds[k][sub]], design, rs)
+            new = _select(
+                kd[k], sub, a, c, seg, (counts, air_counts), p, budgets[kinds[k][sub]], design, rs
+            )
             if k not in det:
                 det[k] = new
             else:
@@ -848,9 +1007,103 @@ def size_circuits(
         raise ConvergenceError(f"parallel/grouping iteration did not settle in {_MAX_ITERATIONS}")
     child_max = _child_max_pct(a, det.get(KIND_STRING), kinds[KIND_STRING], n)
 
-    c.update(fuse_required=fuse_required, fuse_a=fuse_a, prot=prot, p_w=p_w)
-    settled = _Settled(det, counts, budgets, child_max, iterations)
+    c.update(p_w=p_w)
+    settled = _Settled(det, counts, air_counts, budgets, child_max, iterations)
     return _assemble(a, c, kd, kinds, settled, design, rs)
+
+
+def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
+    """Design Isc, protection and the currents each circuit is held to (per circuit).
+
+    Returns ``isc_design`` (d.c.: a string's module Isc, an array's total, bifacial gain
+    included), ``i_design`` (capacity always needed), ``i_backfeed`` (arrays: what the other
+    arrays of the input feed into a fault; 0 otherwise), ``i_protected`` (the capacity needed
+    instead where the cable does not carry the backfeed: an array fuse's max(In, I2/1.45);
+    infinite where no fuse is used or none fits), ``i_op`` (drop and losses), the string
+    protection ``prot``, the ``array_fuse`` pick and the ``breaker`` of a.c. circuits.
+    """
+    kind = a["kind"]
+    n = kind.size
+    dc, is_str, is_arr, is_ac = (
+        kind != KIND_AC,
+        kind == KIND_STRING,
+        kind == KIND_ARRAY,
+        kind == KIND_AC,
+    )
+    # bifacial design Isc of every d.c. circuit; an array with strings: the mean of its strings'
+    isc = np.full(n, np.nan)
+    d = np.flatnonzero(dc)
+    isc[d] = rs.bifacial_isc_a(
+        a["isc_a"][d], a["bifaciality"][d], design.rear_irradiance_ratio, a["isc_bifacial_a"][d]
+    )
+    par = a["parent"]
+    child = is_str & (par >= 0)
+    if child.any():
+        total = np.bincount(par[child], weights=isc[child], minlength=n)
+        count = np.bincount(par[child], minlength=n)
+        isc = np.where(is_arr & (count > 0), total / np.maximum(count, 1), isc)
+    strings = rs.gpv_fuse_ratings_a(design.string_fuse_ratings_a, "string_fuse_ratings_a")
+    prot = rs.string_protection(
+        isc, a["strings_in_parallel"], a["max_fuse_a"], a["fuse_a"], strings
+    )
+    fuse_a = np.where(is_str, prot.fuse_a, np.nan)
+    isc_total = np.where(is_arr, isc * a["n_strings"], isc)
+
+    i_backfeed, i_protected = np.zeros(n), np.full(n, np.inf)
+    array_fuse = np.full(n, np.nan)
+    fuse_fits = np.ones(n, dtype=bool)
+    arr = np.flatnonzero(is_arr)
+    if arr.size:
+        group = a["dc_group"][arr]
+        group = np.where(group >= 0, group, -1 - np.arange(arr.size))  # −1: each array alone
+        i_backfeed[arr] = rs.backfeed_a(isc_total[arr], group)
+        ratings = rs.gpv_fuse_ratings_a(design.array_fuse_ratings_a, "array_fuse_ratings_a")
+        pick = rs.array_fuse(isc_total[arr], ratings)
+        fuse_fits[arr] = pick.ok
+        if design.array_protection == "fuse":
+            array_fuse[arr] = pick.fuse_a
+            fused = rs.array_min_capacity_a(isc_total[arr], i_backfeed[arr], pick.fuse_a)
+            i_protected[arr] = np.where(pick.ok, fused, np.inf)
+
+    ib = np.full(n, np.nan)
+    breaker_in, breaker_i2, iz_min = (np.full(n, np.nan) for _ in range(3))
+    breaker_ok = np.ones(n, dtype=bool)
+    ac = np.flatnonzero(is_ac)
+    if ac.size:
+        ib[ac] = rs.ac_max_current_a(
+            a["ac_kva"][ac], a["ac_v"][ac], a["phases"][ac], a["ac_max_a"][ac]
+        )
+        br = rs.ac_breaker(
+            ib[ac], design.ac_breaker_device, design.ac_breaker_ratings_a, "ac_breaker_ratings_a"
+        )
+        breaker_in[ac], breaker_i2[ac], iz_min[ac] = br.in_a, br.i2_a, br.iz_min_a
+        breaker_ok[ac] = br.ok
+
+    i_design = np.select(
+        [is_str, is_arr],
+        [
+            rs.string_design_current_a(isc, a["strings_in_parallel"], fuse_a),
+            rs.array_design_current_a(isc, a["n_strings"]),
+        ],
+        default=np.where(breaker_ok, iz_min, ib),
+    )
+    i_op = np.where(dc, a["imp_a"] * a["n_strings"], ib)
+    return {
+        "isc_design": np.where(dc, isc_total, np.nan),
+        "i_design": i_design,
+        "i_backfeed": i_backfeed,
+        "i_protected": i_protected,
+        "i_op": i_op,
+        "prot": prot,
+        "fuse_required": prot.required & is_str,
+        "fuse_a": fuse_a,
+        "array_fuse": array_fuse,
+        "array_fuse_fits": fuse_fits,
+        "ib": ib,
+        "breaker_in": breaker_in,
+        "breaker_i2": breaker_i2,
+        "breaker_ok": breaker_ok,
+    }
 
 
 class _Settled(NamedTuple):
@@ -858,6 +1111,7 @@ class _Settled(NamedTuple):
 
     det: dict[int, dict]  # per kind: the selection of each of its circuits
     counts: np.ndarray  # cable sets per segment
+    air_counts: np.ndarray  # cable sets per air stretch
     budgets: np.ndarray  # voltage-drop budget of each circuit [%]
     child_max: np.ndarray  # largest own drop among each array circuit's strings [%]
     iterations: int
@@ -880,7 +1134,7 @@ def _fmt_size(pp: int, size: float, material: str) -> str:
 def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     """The result arrays from the settled iteration (``a``: the input arrays, ``c``: the
     per-circuit and per-segment values computed once, ``kd``: the data of each kind)."""
-    det, counts, budgets, child_max, iterations = settled
+    det, counts, air_counts, budgets, child_max, iterations = settled
     fuse_required, fuse_a, prot, p_w = c["fuse_required"], c["fuse_a"], c["prot"], c["p_w"]
     seg_soil, seg_depth = c["seg_soil"], c["seg_depth"]
     n = a["kind"].size
@@ -895,6 +1149,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         "derating": np.full(n, np.nan),
         "ampacity_a": np.full(n, np.nan),
         "governing_segment": np.full(n, -1, dtype=np.int64),
+        "governing_air": np.full(n, -1, dtype=np.int64),
         "governing_env": np.full(n, "air", dtype="U3"),
         "factor_temp": np.full(n, np.nan),
         "factor_soil": np.full(n, np.nan),
@@ -907,6 +1162,8 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         "sc_min_mm2": np.full(n, np.nan),
         "r_ohm_km": np.full(n, np.nan),
     }
+    i_req = np.full(n, np.nan)
+    carries = np.ones(n, bool)
     fail_cap = np.zeros(n, bool)
     fail_vd = np.zeros(n, bool)
     fail_sc = np.zeros(n, bool)
@@ -920,6 +1177,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         out["ampacity_base_a"][idx] = d["base"]
         out["ampacity_a"][idx] = d["cap_tot"]
         out["governing_segment"][idx] = d["seg"]
+        out["governing_air"][idx] = d["air_stretch"]
         out["governing_env"][idx] = np.asarray(ENV_NAMES)[d["env"]]
         out["factor_temp"][idx] = d["temp_f"]
         out["factor_soil"][idx] = d["soil_f"]
@@ -931,6 +1189,8 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         out["vdrop_pct"][idx] = d["pct"]
         out["sc_min_mm2"][idx] = d["smin"]
         out["r_ohm_km"][idx] = d["r"]
+        i_req[idx] = d["i_req"]
+        carries[idx] = d["carries"]
         fail_cap[idx] = ~d["ok_cap"]
         fail_vd[idx] = ~d["ok_vd"]
         fail_sc[idx] = ~d["ok_sc"]
@@ -938,7 +1198,8 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     out["derating"] = (
         out["factor_temp"] * out["factor_soil"] * out["factor_depth"] * out["factor_group"]
     )
-    i_design, i_op = c["i_design"], c["i_op"]
+    i_op = c["i_op"]
+    i_design = i_req  # the capacity each circuit is held to, backfeed and protection included
     utilisation = i_design / out["ampacity_a"]
 
     # cumulative d.c. drop
@@ -950,30 +1211,54 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     total = np.where(is_str, own + parent_pct, np.where(is_arr, own + child_max, own))
     fail_path = is_str & (total > design.drop_dc_total_pct + 1e-9)
 
-    # losses
-    loss = (
-        np.where(c["phases_eff"] == 3, 3.0, 2.0)
-        * i_op**2
-        * out["r_ohm_km"]
-        * a["cable_m"]
-        / 1e3
-        / out["parallel"]
-    )
+    # losses (Joule's law, calc.losses) with the resistance of the drop
+    loss = loss_w(i_op, a["cable_m"], out["r_ohm_km"], c["phases_eff"], out["parallel"])
     loss_pct = 100.0 * loss / p_w
-    energy = loss * design.loss_hours_h / 1e3
+    energy = energy_loss_kwh(loss, design.loss_hours_h)
     tot_loss = np.array([loss[kind == k].sum() for k in range(3)])
     tot_p = np.array([p_w[kind == k].sum() for k in range(3)])
     with np.errstate(invalid="ignore", divide="ignore"):
         tot_pct = np.where(tot_p > 0, 100.0 * tot_loss / tot_p, 0.0)
 
-    ok = ~(fail_cap | fail_vd | fail_sc | fail_path) & np.where(is_str, prot.ok, True)
+    # protection, verified on the cables as sized (calc.protection)
+    is_ac = kind == KIND_AC
+    iz = out["ampacity_a"]
+    arr_fuse = np.where(is_arr & ~carries, c["array_fuse"], np.nan)
+    bf, b_in, b_i2 = c["i_backfeed"], c["breaker_in"], c["breaker_i2"]
+    arr_check = _check(is_arr, lambda i: rs.array_cable_check(iz[i], bf[i], arr_fuse[i]))
+    ac_check = _check(is_ac, lambda i: rs.overload_check(c["ib"][i], b_in[i], iz[i], b_i2[i]))
+    prot_ok = np.where(is_str, prot.ok, np.where(is_ac, c["breaker_ok"], True))
+    ok = ~(fail_cap | fail_vd | fail_sc | fail_path) & prot_ok & arr_check[0] & ac_check[0]
     notes = np.where(is_str, prot.note, "").astype(object)
+    no_breaker = is_ac & ~c["breaker_ok"]
+    _add_notes(
+        notes,
+        no_breaker,
+        lambda i: (
+            f"Ib {c['ib'][i]:.0f} A exceeds the largest {design.ac_breaker_device} breaker rating"
+        ),
+        (c["ib"],),
+    )
+    unfusable = is_arr & ~carries & ~c["array_fuse_fits"]
+    _add_notes(
+        notes,
+        unfusable & fail_cap,
+        lambda i: (
+            "no standard array fuse within 1.25–2.4 × the array's Isc "
+            f"{c['isc_design'][i]:.0f} A (IEC 62548)"
+        ),
+        (c["isc_design"],),
+    )
     _add_notes(notes, no_env, lambda i: "no route environment given: in air assumed")
     deriv = out["derating"]
 
     def cap_note(i):
+        why = ""
+        if is_arr[i] and c["i_backfeed"][i] > 0 and i_design[i] > c["i_design"][i] * (1 + _EPS):
+            how = "no array fuses" if design.array_protection == "cable" else "an array fuse"
+            why = f" (backfeed {c['i_backfeed'][i]:.0f} A from its input, with {how})"
         return (
-            f"needs {i_design[i]:.0f} A after derating {deriv[i]:.2f}; largest allowed "
+            f"needs {i_design[i]:.0f} A{why} after derating {deriv[i]:.2f}; largest allowed "
             f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i])} "
             f"carries {out['ampacity_a'][i]:.0f} A"
         )
@@ -1003,10 +1288,18 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         )
 
     size_keys = (out["parallel"], out["size_mm2"], out["material"])
-    _add_notes(notes, fail_cap, cap_note, (i_design, deriv, out["ampacity_a"], *size_keys))
+    _add_notes(
+        notes,
+        fail_cap,
+        cap_note,
+        (i_design, deriv, out["ampacity_a"], c["i_backfeed"], *size_keys),
+    )
     _add_notes(notes, fail_vd, vd_note, (is_arr, child_max, own, budgets, *size_keys))
     _add_notes(notes, fail_sc, sc_note, (out["sc_min_mm2"],))
     _add_notes(notes, fail_path, path_note, (total, par))
+    for check, mask in ((arr_check, is_arr), (ac_check, is_ac)):
+        _add_notes(notes, mask & ~check[0] & ~fail_cap, lambda i, t=check[1]: t[i], (check[1],))
+    protection = _protection_text(a, c, carries, arr_fuse, iz, design)
 
     seg_cnt = counts
     seg_group = rs.group_factor(seg_cnt, a["seg_spacing_m"], a["seg_laying"]) if m else np.zeros(0)
@@ -1024,6 +1317,12 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         energy_loss_kwh=energy,
         fuse_required=fuse_required,
         fuse_a=fuse_a,
+        isc_design_a=c["isc_design"],
+        backfeed_a=np.where(is_arr, c["i_backfeed"], np.nan),
+        array_fuse_a=arr_fuse,
+        ac_ib_a=c["ib"],
+        ac_breaker_a=c["breaker_in"],
+        protection=protection,
         ok=ok,
         note=notes,
         marking=marking,
@@ -1031,12 +1330,79 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         seg_depth_factor=seg_depth,
         seg_group_factor=seg_group,
         seg_count_final=seg_cnt,
+        air_count_final=air_counts,
         total_loss_w=tot_loss,
         total_loss_pct=tot_pct,
-        total_energy_loss_kwh=tot_loss * design.loss_hours_h / 1e3,
+        total_energy_loss_kwh=energy_loss_kwh(tot_loss, design.loss_hours_h),
         iterations=iterations,
         rules=rs.name,
     )
+
+
+def _check(mask: np.ndarray, run) -> tuple[np.ndarray, np.ndarray]:
+    """(ok, note) per circuit of a post-sizing check ``run(indices)`` applied to ``mask``'s
+    circuits (the others pass)."""
+    ok = np.ones(mask.size, dtype=bool)
+    note = np.full(mask.size, "", dtype=object)
+    idx = np.flatnonzero(mask)
+    if idx.size:
+        result = run(idx)
+        ok[idx], note[idx] = result.ok, result.note
+    return ok, note
+
+
+def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
+    """Which protection rule governed each circuit, in words (the schedule's ``protection``)."""
+    kind = a["kind"]
+    text = np.full(kind.size, "", dtype=object)
+    is_str, is_arr, is_ac = kind == KIND_STRING, kind == KIND_ARRAY, kind == KIND_AC
+    s_par = a["strings_in_parallel"]
+    fused = is_str & np.isfinite(c["fuse_a"])
+    _fill(
+        text,
+        fused,
+        lambda i: f"string fuse {c['fuse_a'][i]:g} A gPV; {s_par[i]:g} strings in parallel",
+        (c["fuse_a"], s_par),
+    )
+    _fill(
+        text,
+        is_str & ~fused,
+        lambda i: f"no string fuse needed; {s_par[i]:g} string(s) in parallel",
+        (s_par,),
+    )
+    bf = c["i_backfeed"]
+    _fill(text, is_arr & (bf <= 0), lambda i: "alone on its inverter input: no backfeed")
+    _fill(
+        text,
+        is_arr & (bf > 0) & np.isfinite(arr_fuse),
+        lambda i: f"array fuse {arr_fuse[i]:g} A gPV: backfeed {bf[i]:.0f} A > Iz {iz[i]:.0f} A",
+        (arr_fuse, bf, iz),
+    )
+    no_fuse = "cable carries" if design.array_protection == "cable" else "no array fuse needed:"
+    _fill(
+        text,
+        is_arr & (bf > 0) & ~np.isfinite(arr_fuse) & carries,
+        lambda i: f"{no_fuse} backfeed {bf[i]:.0f} A ≤ Iz {iz[i]:.0f} A",
+        (bf, iz),
+    )
+    b_in, ib = c["breaker_in"], c["ib"]
+    _fill(
+        text,
+        is_ac & np.isfinite(b_in),
+        lambda i: (
+            f"breaker {b_in[i]:g} A ({design.ac_breaker_device}): Ib {ib[i]:.0f} A ≤ In ≤ "
+            f"Iz {iz[i]:.0f} A"
+        ),
+        (b_in, ib, iz),
+    )
+    return text
+
+
+def _fill(out: np.ndarray, mask: np.ndarray, text, keys: tuple = ()) -> None:
+    """Set ``out[i] = text(i)`` for each circuit in ``mask`` (formatted once per key)."""
+    blank = np.full(out.size, "", dtype=object)
+    _add_notes(blank, mask, text, keys)
+    out[mask] = blank[mask]
 
 
 def _add_notes(notes: np.ndarray, mask: np.ndarray, text, keys: tuple = ()) -> None:

@@ -24,6 +24,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+import calc
 from layers import SITE_TABLES, Problem
 from layers.sources import SITE_TOML, toml_type, unknown_key
 from layers.validate import setting_number
@@ -120,11 +121,48 @@ DESIGN_KEYS: tuple[Key, ...] = (
     Key("fault_ka", math.nan, 0.0, 200.0, note="prospective AC fault current; unset = no check"),
     Key("clear_s", math.nan, 0.0, 5.0, note="AC protective device clearing time"),
     Key("marking", "iec", choices=("iec", "us"), note="conductor identification convention"),
+    Key(
+        "rear_irradiance_ratio",
+        calc.bnpi_rear_ratio(),
+        0.0,
+        1.0,
+        note="rear / front irradiance for the design Isc of bifacial modules (0.135: the bifacial "
+        "nameplate irradiance of IEC 61215-1)",
+    ),
+    Key(
+        "array_protection",
+        "fuse",
+        choices=calc.ARRAY_PROTECTION,
+        note="array cables against the backfeed of the other arrays on their inverter input: "
+        "'fuse' (an array fuse where needed) or 'cable' (no array fuses: rated for the backfeed)",
+    ),
+    Key(
+        "ac_breaker_device",
+        "iec60947-2",
+        choices=calc.get_rules("iec").breaker_devices,
+        note="AC circuit-breaker kind: 'iec60947-2' (moulded-case) or 'iec60898-1' (≤ 125 A)",
+    ),
+    Key(
+        "frequency_hz",
+        50.0,
+        0.0,
+        400.0,
+        note="AC frequency for the skin and proximity effect (IEC 60287-1-1)",
+    ),
 )
 
 #: per-kind tables under ``[design]``
 MATERIAL_DEFAULT: dict[str, str] = {"string": "Cu", "array": "Cu", "ac": "Al"}
 INSULATION_DEFAULT: dict[str, str] = {"string": "PV", "array": "XLPE", "ac": "XLPE"}
+#: how each kind's cables run where they share a stretch in air (IEC 60364-5-52 Table B.52.17
+#: item): bunched, the most onerous, unless the site says otherwise
+AIR_ARRANGEMENT_DEFAULT: dict[str, str] = {"string": "bunched", "array": "bunched", "ac": "bunched"}
+#: the project's protective-device ratings (``[design.ratings_a]``): keys and what they restrict
+RATING_KEYS: dict[str, str] = {
+    "string_fuse": "string fuse ratings (gPV)",
+    "array_fuse": "array fuse ratings (gPV)",
+    "ac_breaker": "AC breaker ratings",
+}
 #: voltage-drop limits, percent (common practice: ≤ 1 % string, ≤ 2 % DC total, ≤ 1 % AC LV)
 DROP_PCT_DEFAULT: dict[str, float] = {"string": 1.0, "array": 1.5, "dc_total": 2.0, "ac": 1.0}
 
@@ -152,6 +190,9 @@ class DesignConfig:
     sizes_mm2: dict[str, tuple[float, ...]]  # only kinds set in site.toml; else the rule set's
     allowances: dict[str, float]
     defaulted: tuple[str, ...] = field(default=())
+    air_arrangement: dict[str, str] = field(default_factory=lambda: dict(AIR_ARRANGEMENT_DEFAULT))
+    #: only lists set in site.toml (``string_fuse``, ``array_fuse``, ``ac_breaker``)
+    ratings_a: dict[str, tuple[float, ...]] = field(default_factory=dict)
 
     def __getitem__(self, key: str) -> Any:
         return self.values[key]
@@ -160,7 +201,14 @@ class DesignConfig:
 #: top-level tables of site.toml read here (``layers.SITE_TABLES`` are read by ``layers``)
 DESIGN_TABLES: tuple[str, ...] = ("design", "allowances")
 #: sub-tables of ``[design]``
-DESIGN_SUBTABLES: tuple[str, ...] = ("material", "insulation", "drop_pct", "sizes_mm2")
+DESIGN_SUBTABLES: tuple[str, ...] = (
+    "material",
+    "insulation",
+    "drop_pct",
+    "sizes_mm2",
+    "air_arrangement",
+    "ratings_a",
+)
 MATERIALS: tuple[str, ...] = ("Cu", "Al")
 INSULATIONS: tuple[str, ...] = ("XLPE", "PVC", "PV")
 #: most candidate sizes per kind (common practice: IEC 60228's series of nominal
@@ -237,7 +285,36 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
         lst = _sizes(value, where, problems)
         if lst is not None:
             sizes[key] = lst
-    cfg = DesignConfig(values, material, insulation, drop, sizes, allow, defaulted + defaulted2)
+    rules = values["rules"]
+    arrangement = _choices(
+        "air_arrangement",
+        design,
+        AIR_ARRANGEMENT_DEFAULT,
+        calc.get_rules(rules).air_arrangements,
+        problems,
+    )
+    ratings: dict[str, tuple[float, ...]] = {}
+    for key, value in _table(design, "ratings_a", "design.ratings_a", problems).items():
+        where = f"design.ratings_a.{key}"
+        if key not in RATING_KEYS:
+            problems.append(unknown_key(where, key, RATING_KEYS))
+            continue
+        lst = _sizes(
+            value, where, problems, unit="A", key="rating_a", example="[15, 20, 25]", item="rating"
+        )
+        if lst is not None:
+            ratings[key] = lst
+    cfg = DesignConfig(
+        values,
+        material,
+        insulation,
+        drop,
+        sizes,
+        allow,
+        defaulted + defaulted2,
+        arrangement,
+        ratings,
+    )
     return cfg, problems
 
 
@@ -252,19 +329,29 @@ def _table(parent: dict[str, Any], name: str, where: str, problems: list[Problem
     return {}
 
 
-def _sizes(value: Any, where: str, problems: list[Problem]) -> tuple[float, ...] | None:
-    """A list of candidate sizes [mm²], sorted; None (and a problem) when it is not one."""
+def _sizes(
+    value: Any,
+    where: str,
+    problems: list[Problem],
+    unit: str = "mm²",
+    key: str = "size_mm2",
+    example: str = "[4, 6, 10]",
+    item: str = "size",
+) -> tuple[float, ...] | None:
+    """A list of positive values in ``unit`` (candidate sizes [mm²], ratings [A]), sorted; None
+    (and a problem) when it is not one."""
+    what = "sizes in mm²" if unit == "mm²" else f"values in {unit}"
     if not isinstance(value, list):
         problems.append(
             Problem(
                 SITE_TOML,
                 where,
-                f"must be an array of sizes in mm², e.g. [4, 6, 10], not {toml_type(value)}",
+                f"must be an array of {what}, e.g. {example}, not {toml_type(value)}",
             )
         )
         return None
     if not value:
-        problems.append(Problem(SITE_TOML, where, "must be a non-empty array of sizes in mm²"))
+        problems.append(Problem(SITE_TOML, where, f"must be a non-empty array of {what}"))
         return None
     if len(value) > MAX_SIZES:
         problems.append(
@@ -274,12 +361,12 @@ def _sizes(value: Any, where: str, problems: list[Problem]) -> tuple[float, ...]
     out: list[float] = []
     for i, v in enumerate(value, start=1):
         try:
-            x = setting_number(v, "size_mm2")
+            x = setting_number(v, key)
         except ValueError as exc:
-            problems.append(Problem(SITE_TOML, where, f"size {i}: {exc}"))
+            problems.append(Problem(SITE_TOML, where, f"{item} {i}: {exc}"))
             return None
         if x <= 0:
-            problems.append(Problem(SITE_TOML, where, f"size {i}: {x:g} mm² must be > 0"))
+            problems.append(Problem(SITE_TOML, where, f"{item} {i}: {x:g} {unit} must be > 0"))
             return None
         out.append(x)
     return tuple(sorted(out))

@@ -22,6 +22,7 @@ import pandas as pd
 
 import calc
 from layers import Site
+from layers.validate import MAX_DC_INPUTS
 
 from . import CAUTION, __version__
 from .cache import PlanCache, digest, site_key, uncacheable_layers
@@ -112,6 +113,14 @@ def design_params(design: DesignConfig) -> calc.DesignParams:
         fault_ka=unset(v["fault_ka"]),
         clear_s=unset(v["clear_s"]),
         marking=v["marking"],
+        air_arrangement=tuple(design.air_arrangement[k] for k in ("string", "array", "ac")),
+        string_fuse_ratings_a=design.ratings_a.get("string_fuse"),
+        array_fuse_ratings_a=design.ratings_a.get("array_fuse"),
+        ac_breaker_ratings_a=design.ratings_a.get("ac_breaker"),
+        array_protection=v["array_protection"],
+        rear_irradiance_ratio=v["rear_irradiance_ratio"],
+        ac_breaker_device=v["ac_breaker_device"],
+        frequency_hz=v["frequency_hz"],
     )
 
 
@@ -139,6 +148,8 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
             "imp": {k: m.imp_a for k, m in site.modules.items()},
             "vmp": {k: m.vmp_v * m.per_string for k, m in site.modules.items()},
             "fuse": {k: m.max_fuse_a for k, m in site.modules.items()},
+            "phi": {k: m.bifaciality for k, m in site.modules.items()},
+            "isc_bif": {k: m.isc_bifacial_a for k, m in site.modules.items()},
         }
     )
     module_of = pd.Series(site.rows["module"].to_numpy(), index=site.rows["id"].to_numpy())
@@ -146,6 +157,8 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
     isc, imp, vmp, max_fuse = (np.full(n, np.nan) for _ in range(4))
     isc[s_idx], imp[s_idx] = per_string["isc"].to_numpy(), per_string["imp"].to_numpy()
     vmp[s_idx], max_fuse[s_idx] = per_string["vmp"].to_numpy(), per_string["fuse"].to_numpy()
+    phi, isc_bif = np.full(n, np.nan), np.full(n, np.nan)
+    phi[s_idx], isc_bif[s_idx] = per_string["phi"].to_numpy(), per_string["isc_bif"].to_numpy()
 
     # strings joined at each destination, and each string's array circuit
     strings_at = pd.Series(1, index=to_id[s_idx]).groupby(level=0).sum()
@@ -181,6 +194,8 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
     fuse_fixed[s_idx] = comb_fuse.reindex(to_id[s_idx]).to_numpy(dtype=float)
 
     inv = site.inverters.set_index("id")
+    dc_group = _dc_inputs(site, from_id, to_id, is_a)
+    ac_max = np.full(n, np.nan)
     ac_kva = np.full(n, np.nan)
     ac_v = np.full(n, np.nan)
     phases = np.full(n, 3, dtype=np.int64)
@@ -192,6 +207,7 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
         ac_v[ac_idx] = rows["ac_v"].to_numpy(dtype=float)
         phases[ac_idx] = rows["phases"].to_numpy(dtype=np.int64)
         pf[ac_idx] = rows["pf"].to_numpy(dtype=float)
+        ac_max[ac_idx] = rows["ac_max_a"].to_numpy(dtype=float)
 
     seg = routes.segments
     return calc.SizingInput(
@@ -206,10 +222,14 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
         strings_in_parallel=n_par,
         max_fuse_a=max_fuse,
         fuse_a=fuse_fixed,
+        bifaciality=phi,
+        isc_bifacial_a=isc_bif,
+        dc_group=dc_group,
         ac_kva=ac_kva,
         ac_v=ac_v,
         phases=phases,
         pf=pf,
+        ac_max_a=ac_max,
         seg_depth_m=seg["depth_m"].to_numpy(dtype=float),
         seg_laying=(seg["laying"] == "duct").to_numpy(dtype=np.int8),
         seg_spacing_m=seg["spacing_m"].to_numpy(dtype=float),
@@ -217,7 +237,44 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
         seg_count=seg["circuits"].to_numpy(dtype=np.int64),
         inc_circuit=routes.incidence_circuit,
         inc_segment=routes.incidence_segment,
+        air_count=np.zeros(len(routes.air)),
+        air_behind_modules=(routes.air["kind"] == "row run").to_numpy(dtype=bool),
+        air_inc_circuit=routes.air_incidence_circuit,
+        air_inc_stretch=routes.air_incidence_stretch,
     )
+
+
+def _dc_inputs(site: Site, from_id: np.ndarray, to_id: np.ndarray, is_a: np.ndarray) -> np.ndarray:
+    """For each array circuit, an id of the inverter d.c. input it joins (the arrays of one id
+    are in parallel there: calc's ``dc_group``); −1 for other circuits.
+
+    An inverter's ``dc_inputs`` (default 1: every array on one input) and a combiner's
+    ``input`` (1…dc_inputs) say which; a combiner feeding an inverter of several inputs must
+    name its input. Raises :class:`DesignError` naming each combiner that does not.
+    """
+    group = np.full(len(from_id), -1, dtype=np.int64)
+    a_idx = np.flatnonzero(is_a)
+    if not len(a_idx):
+        return group
+    inv_ids = site.inverters["id"].to_numpy(dtype=object)
+    pos = pd.Index(inv_ids).get_indexer(to_id[a_idx])
+    n_inputs = site.inverters["dc_inputs"].to_numpy(dtype=float)[pos]
+    comb = site.combiners.set_index("id")
+    given = comb["input"].reindex(from_id[a_idx]).to_numpy(dtype=float)
+    missing = np.isnan(given) & (n_inputs > 1)
+    beyond = ~np.isnan(given) & (given > n_inputs)
+    problems = []
+    for i in np.flatnonzero(missing | beyond).tolist():
+        cid, inv, k = from_id[a_idx][i], to_id[a_idx][i], int(n_inputs[i])
+        if missing[i]:
+            msg = f"inverter {inv!r} has {k} DC inputs: give the combiner's input (1–{k})"
+        else:
+            msg = f"input {given[i]:g}, but inverter {inv!r} has {k} DC input{'s' * (k != 1)}"
+        problems.append(Problem("combiners", str(cid), msg))
+    if problems:
+        raise DesignError(problems)
+    group[a_idx] = pos * (MAX_DC_INPUTS + 1) + np.where(np.isnan(given), 1, given).astype(np.int64)
+    return group
 
 
 def plan(
@@ -348,7 +405,13 @@ def circuit_table(
     )
     u_ref = np.where(kind == calc.KIND_AC, inp.ac_v, inp.vmp_v)
     gov = np.asarray(r.governing_segment)
-    governing = np.where(gov >= 0, seg_ids[np.clip(gov, 0, None)] if len(seg_ids) else "", "air")
+    air = np.asarray(r.governing_air)
+    stretch_ids = routes.air["stretch_id"].to_numpy(dtype=object)
+    governing = np.where(
+        gov >= 0,
+        seg_ids[np.clip(gov, 0, None)] if len(seg_ids) else "",
+        np.where(air >= 0, stretch_ids[np.clip(air, 0, None)] if len(stretch_ids) else "", "air"),
+    )
     status = np.where(r.ok, "ok", "fail")
     frame = pd.DataFrame(
         {
@@ -389,6 +452,11 @@ def circuit_table(
             "factor_group": r.factor_group,
             "group_count": r.group_count,
             "fuse_a": np.where(r.fuse_required, r.fuse_a, np.nan),
+            "isc_design_a": r.isc_design_a,
+            "backfeed_a": r.backfeed_a,
+            "array_fuse_a": r.array_fuse_a,
+            "ac_breaker_a": r.ac_breaker_a,
+            "protection": r.protection,
             "loss_pct": r.loss_pct,
             "energy_loss_kwh": r.energy_loss_kwh,
             "marking": r.marking,

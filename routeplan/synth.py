@@ -197,6 +197,8 @@ DESIGN: dict[str, Any] = {
     "max_parallel": 12,  # central-inverter LV links: many parallel sets (typical)
     "material": {"string": "Cu", "array": "Al", "ac": "Al"},
     "drop_pct": {"string": 1.0, "array": 1.5, "dc_total": 2.0, "ac": 1.0},
+    # feeders at an inverter skid run on cable ladders, one layer, not bunched (typical)
+    "air_arrangement": {"array": "ladder", "ac": "ladder"},
 }
 ALLOWANCES: dict[str, float] = {"termination_m": 1.5, "slack_pct": 3.0}
 

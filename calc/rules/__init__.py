@@ -147,8 +147,9 @@ class RuleSet(abc.ABC):
     breaker_devices: ClassVar[tuple[str, ...]]
 
     @abc.abstractmethod
-    def gpv_fuse_ratings_a(self, allowed_a=None) -> np.ndarray:
-        """PV fuse ratings [A], ascending; ``allowed_a`` restricts them (unknown values raise)."""
+    def gpv_fuse_ratings_a(self, allowed_a=None, setting: str = "fuse_ratings_a") -> np.ndarray:
+        """PV fuse ratings [A], ascending; ``allowed_a`` restricts them (unknown values raise,
+        naming ``setting``)."""
 
     @abc.abstractmethod
     def breaker_ratings_a(self, device: str, allowed_a=None) -> np.ndarray:
@@ -185,8 +186,9 @@ class RuleSet(abc.ABC):
         """a.c. design current Ib: the inverter's maximum output current, else rated [A]."""
 
     @abc.abstractmethod
-    def ac_breaker(self, ib_a, device: str, allowed_a=None):
-        """Breaker of a.c. circuits of a device kind (a :class:`calc.protection.Breaker`)."""
+    def ac_breaker(self, ib_a, device: str, allowed_a=None, setting: str = "breaker_ratings_a"):
+        """Breaker of a.c. circuits of a device kind (a :class:`calc.protection.Breaker`);
+        ``allowed_a`` restricts the ratings (unknown values raise, naming ``setting``)."""
 
     @abc.abstractmethod
     def overload_check(self, ib_a, in_a, iz_a, i2_a):

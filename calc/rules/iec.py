@@ -146,8 +146,8 @@ class IecRules(RuleSet):
     def air_group_factor(self, count, arrangement):
         return ampacity.air_group_factor(count, arrangement)
 
-    def gpv_fuse_ratings_a(self, allowed_a=None):
-        return protection.gpv_fuse_ratings_a(allowed_a)
+    def gpv_fuse_ratings_a(self, allowed_a=None, setting="fuse_ratings_a"):
+        return protection.gpv_fuse_ratings_a(allowed_a, setting)
 
     def breaker_ratings_a(self, device, allowed_a=None):
         return protection.breaker_ratings_a(device, allowed_a)
@@ -173,9 +173,9 @@ class IecRules(RuleSet):
     def ac_max_current_a(self, ac_kva, ac_v, phases, ac_max_a):
         return pv.ac_max_current_a(ac_kva, ac_v, phases, ac_max_a)
 
-    def ac_breaker(self, ib_a, device, allowed_a=None):
+    def ac_breaker(self, ib_a, device, allowed_a=None, setting="breaker_ratings_a"):
         """Smallest rating of ``device`` (optionally restricted) ≥ Ib, with the device's I2."""
-        ratings = protection.breaker_ratings_a(device, allowed_a)
+        ratings = protection.breaker_ratings_a(device, allowed_a, setting)
         return protection.ac_breaker(ib_a, ratings, protection.i2_factor(device))
 
     def overload_check(self, ib_a, in_a, iz_a, i2_a):

@@ -39,8 +39,14 @@ def _one(kind, **kw):
 
 
 def test_percent_uses_the_right_reference_voltage():
+    # frequency 0: the a.c. resistance equals the d.c. one (the skin and proximity effect is
+    # checked in tests/calc/test_ac_resistance.py and test_engine.py)
     design = DesignParams(
-        drop_ac_pct=100.0, drop_string_pct=100.0, drop_dc_total_pct=100.0, power_factor=1.0
+        drop_ac_pct=100.0,
+        drop_string_pct=100.0,
+        drop_dc_total_pct=100.0,
+        power_factor=1.0,
+        frequency_hz=0.0,
     )
     # d.c.: percent of string Vmp
     r = size_circuits(_one(0, isc_a=10.0, imp_a=9.0, vmp_v=800.0), design)

@@ -17,6 +17,7 @@ from typer.testing import CliRunner
 
 from routeplan.cli import app
 from routeplan.diff import diff_outputs
+from routeplan.outputs.columns import CIRCUIT_COLUMNS
 
 from ..conftest import base_frames, write_site
 from .test_text_safety import hostile_frames, hostile_toml
@@ -130,7 +131,9 @@ DAMAGE = {
     ),
     "cut, with a line end added": (
         lambda f: (f / CABLE).write_bytes((f / CABLE).read_bytes()[:-200] + b"\n"),
-        CABLE + ": line {n}: {fields} fields where the header has 40 (truncated or not a schedule)",
+        CABLE
+        + ": line {n}: {fields} fields where the header has "
+        + f"{len(CIRCUIT_COLUMNS)} (truncated or not a schedule)",
     ),
     "cut at a line end": (
         cut_bytes(CABLE, lambda d: d.rindex(b"\n", 0, len(d) - 1) + 1),
