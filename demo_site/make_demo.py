@@ -132,7 +132,9 @@ def build() -> dict[str, dict]:
                 ac_kva=1600.0,
                 ac_v=800.0,
                 phases=3,
-                pf=1.0,
+                pf=0.95,  # the grid connection's reactive-power setting (invented)
+                ac_max_a=1220.0,  # maximum continuous output current (invented datasheet value)
+                dc_inputs=1,  # every array of the block on one DC busbar
                 to=f"TX-{block}",
             )
         )

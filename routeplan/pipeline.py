@@ -506,9 +506,9 @@ def quantity_table(
     circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignConfig
 ) -> pd.DataFrame:
     """Bill of quantities: cable metres by kind, material and size (× conductors, allowances
-    included), trench metres by laying and depth, terminations (one per conductor end) and
-    string fuses (one per pole of each protected string: unearthed PV arrays are protected in
-    both poles — IEC 62548, from memory)."""
+    included), trench metres by laying and depth, terminations (one per conductor end), string
+    and array fuses (one per pole of each protected circuit: unearthed PV arrays are protected
+    in both poles — IEC 62548, from memory) and AC breakers (one per AC circuit)."""
     c = circuits.assign(
         cable_total_m=circuits["cable_m"] * circuits["conductors"],
         ends=2 * circuits["conductors"],
@@ -520,25 +520,38 @@ def quantity_table(
     ends = ends.assign(item="termination", quantity=ends["ends"].astype(float), unit="pcs")
     trench = segments.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
     trench = trench.assign(item="trench", quantity=trench["length_m"], unit="m")
-    fused = c[np.isfinite(c["fuse_a"].to_numpy(dtype=float))]
-    fuses = fused.groupby("fuse_a").size().reset_index(name="n")
-    fuses = fuses.assign(
-        item="string fuse",
-        kind="string",
-        size_mm2=np.nan,
-        quantity=2.0 * fuses["n"],
-        unit="pcs",
-        material=fuses["fuse_a"].map(lambda a: f"{a:g} A gPV"),
-    )
+    breaker = "{:g} A " + design.values["ac_breaker_device"]
+    devices = [
+        _devices(c, "fuse_a", "string fuse", "string", 2.0, "{:g} A gPV"),
+        _devices(c, "array_fuse_a", "array fuse", "array", 2.0, "{:g} A gPV"),
+        _devices(c, "ac_breaker_a", "AC breaker", "ac", 1.0, breaker),
+    ]
     cols = ["item", "kind", "material", "size_mm2", "laying", "depth_m", "quantity", "unit"]
-    out = pd.concat([cable, ends, trench, fuses], ignore_index=True).reindex(columns=cols)
-    order = {"cable": 0, "termination": 1, "trench": 2, "string fuse": 3}
+    out = pd.concat([cable, ends, trench, *devices], ignore_index=True).reindex(columns=cols)
+    order = {"cable": 0, "termination": 1, "trench": 2, "string fuse": 3, "array fuse": 4}
+    order["AC breaker"] = 5
     kind_order = {"string": 0, "array": 1, "ac": 2}
     out = out.assign(_i=out["item"].map(order), _k=out["kind"].map(kind_order).fillna(9))
     out = out.sort_values(
         ["_i", "_k", "material", "size_mm2", "laying", "depth_m"], na_position="last"
     )
     return out.drop(columns=["_i", "_k"]).reset_index(drop=True)
+
+
+def _devices(
+    c: pd.DataFrame, column: str, item: str, kind: str, per_circuit: float, label: str
+) -> pd.DataFrame:
+    """Protective devices of the bill: ``per_circuit`` of each rating in ``column``."""
+    rated = c[np.isfinite(c[column].to_numpy(dtype=float))]
+    counts = rated.groupby(column).size().reset_index(name="n")
+    return counts.assign(
+        item=item,
+        kind=kind,
+        size_mm2=np.nan,
+        quantity=per_circuit * counts["n"],
+        unit="pcs",
+        material=counts[column].map(label.format),
+    )
 
 
 def assigned_destinations(routes: RoutePlan) -> list[dict[str, Any]]:

@@ -30,6 +30,7 @@ from calc.ampacity import (
     pv_cable_capacity_a,
 )
 from calc.resistance import r20_ohm_km, r_at_temp_ohm_km
+from tests.iec60287 import ac_over_dc
 
 
 def test_import_boundary():
@@ -288,6 +289,7 @@ def test_selection_is_minimal(inp):
         length = inp.cable_m[i]
         if kind == KIND_AC:
             cos = design.power_factor
+            rr = rr * float(ac_over_dc(rr, smaller, "Cu"))  # IEC 60287-1-1, tests/iec60287.py
             x = rules.reactance_ohm_km([smaller], "XLPE", 3)[0] / 1e3
             dv = (
                 np.sqrt(3)

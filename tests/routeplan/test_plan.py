@@ -23,6 +23,7 @@ from routeplan.cli import app
 from routeplan.folder import MANIFEST
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS, names
 from routeplan.outputs.write import FILES
+from tests.iec60287 import ac_over_dc
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 runner = CliRunner()
@@ -62,7 +63,14 @@ def test_file_set_and_contract_columns(demo_out):
     assert list(trench.columns) == names(SEGMENT_COLUMNS)
     q = pd.read_csv(demo_out / "quantities.csv")
     assert list(q.columns) == names(QUANTITY_COLUMNS)
-    assert set(q["item"]) == {"cable", "termination", "trench", "string fuse"}
+    assert set(q["item"]) == {
+        "cable",
+        "termination",
+        "trench",
+        "string fuse",
+        "array fuse",
+        "AC breaker",
+    }
     assert set(sched["kind"]) == {"string", "array", "ac"}
     assert set(sched["status"]) <= {"ok", "fail"}
 
@@ -144,22 +152,6 @@ IEC60228_R20 = {
 ALPHA = {"Cu": 3.93e-3, "Al": 4.03e-3}
 
 
-def ac_over_dc_iec60287(r_ohm_m, size_mm2, fill, cable_od_mm, ks, kp, f_hz=50.0):
-    """R/R' of three single-core cables touching in trefoil, IEC 60287-1-1 (Ed. 2.1) 2.1.2
-    (skin) and 2.1.4.1 (proximity): x² = 8πf/R'·10⁻⁷·k (R' in Ω/m, k = k_s or k_p of Table 2);
-    y = x⁴/(192 + 0.8 x⁴); y_p = F (d_c/s)² [0.312 (d_c/s)² + 1.18/(F + 0.27)], F the y of
-    x_p; s = the cable's diameter (touching); d_c = √(4A/(π·fill)) from the area and the
-    conductor's fill factor."""
-
-    def y_of(k):
-        x4 = (8 * np.pi * f_hz / r_ohm_m * 1e-7 * k) ** 2
-        return x4 / (192 + 0.8 * x4)
-
-    ratio = np.sqrt(4 * size_mm2 / (np.pi * fill)) / cable_od_mm
-    f = y_of(kp)
-    return 1 + y_of(ks) + f * ratio**2 * (0.312 * ratio**2 + 1.18 / (f + 0.27))
-
-
 def test_figures_recompute_from_schedule_and_published_tables(demo_out):
     s = pd.read_csv(demo_out / "cable_schedule.csv", keep_default_na=False, na_values=[""])
     # cable_m = route_m × (1 + slack/100) + 2 × termination + row run (README, allowances)
@@ -175,14 +167,19 @@ def test_figures_recompute_from_schedule_and_published_tables(demo_out):
     r = r20 * (1 + alpha * (s["conductor_temp_c"] - 20.0)) / s["parallel"]  # IEC 60287-1-1
     i = s["operating_current_a"]
     dc = s["kind"] != "ac"
-    # a.c.: skin and proximity effect; the demo's AC cables are 300 mm² Al (round stranded:
-    # k_s = 1, k_p = 0.8, IEC 60287-1-1 Table 2), whose typical single-core 0.6/1 kV XLPE
-    # diameter (28 mm) and fill (0.915) are the data file's (common practice)
+    # a.c.: skin and proximity effect (IEC 60287-1-1, tests/iec60287.py); the demo's AC
+    # cables are 300 mm² Al
     assert set(s.loc[~dc, "size_mm2"]) == {300.0} and set(s.loc[~dc, "material"]) == {"Al"}
     r_one = (r * s["parallel"]).to_numpy()
-    r = np.where(dc, r, r * ac_over_dc_iec60287(r_one, 300.0, 0.915, 28.0, ks=1.0, kp=0.8))
-    # Ohm's law: DC loop 2·L·I·R; three-phase √3·L·I·(R cosφ + X sinφ), demo pf = 1
-    vd = np.where(dc, 2 * s["cable_m"] * i * r, np.sqrt(3) * s["cable_m"] * i * r)
+    r = np.where(dc, r, r * ac_over_dc(r_one, 300.0, "Al"))
+    # Ohm's law: DC loop 2·L·I·R; three-phase √3·L·I·(R cosφ + X sinφ), the demo's pads at
+    # cos φ = 0.95; X of 300 mm² single-core XLPE in trefoil: 0.140 mV/A/m line to line, BS 7671
+    # Appendix 4 Table 4E1B (from memory), i.e. 0.140/√3 Ω/km per conductor
+    cos = s["power_factor"].fillna(1.0).to_numpy()
+    assert set(cos[~dc]) == {0.95}
+    x = 0.140 / np.sqrt(3) / 1000.0 / s["parallel"]  # Ω/m per phase, sets in parallel
+    z = r * cos + x * np.sqrt(1 - cos**2)
+    vd = np.where(dc, 2 * s["cable_m"] * i * r, np.sqrt(3) * s["cable_m"] * i * z)
     np.testing.assert_allclose(s["vdrop_v"], vd, rtol=2e-3, atol=0.006)  # CSV rounding
     poles = np.where(dc, 2, 3)
     np.testing.assert_allclose(s["loss_w"], poles * i**2 * r * s["cable_m"], rtol=2e-3, atol=0.06)
