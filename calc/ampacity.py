@@ -293,7 +293,8 @@ def group_factor(count: ArrayLike, spacing_m: ArrayLike, laying: ArrayLike) -> n
         nd, sd = n[d], s[d]
         f = _group_by_spacing(t, _B18_COLUMNS, nd, sd)
         one_d = _by_count(t["circuits"], t["s_one_diameter"], nd)
-        f = np.where((sd > 0) & (sd < 0.125), np.minimum(f, one_d), f)
+        first = _B18_COLUMNS["s_0_125_m"]  # the first clearance column (B.52.18)
+        f = np.where((sd > 0) & (sd < first), np.minimum(f, one_d), f)
         out[d] = np.where(nd <= 1, 1.0, f)
 
     u = lay == LAYING_DUCT

@@ -41,7 +41,7 @@ leave.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
@@ -51,6 +51,7 @@ from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_CONVENTIONS, conductor_marking
 from calc.resistance import r_at_temp_ohm_km
 from calc.rules import RuleSet, get_rules
+from calc.tables import load_table
 from calc.vdrop import CONDUCTOR_TEMP_MODES, conductor_temp_c, vdrop_pct, vdrop_v
 
 __all__ = [
@@ -162,6 +163,12 @@ class SizingInput:
     air_inc_stretch: np.ndarray | None = None
 
 
+def design_default(name: str) -> float:
+    """A default of :class:`DesignParams` kept as data (``design_defaults.csv``)."""
+    t = load_table("design_defaults.csv")
+    return float(t["value"][t.where(name=name)][0])
+
+
 @dataclass(frozen=True)
 class DesignParams:
     """Design settings (SI units; defaults with their source).
@@ -235,8 +242,8 @@ class DesignParams:
     marking: str = "iec"
     pv_installation: str = "two_adjacent_surface"
     air_arrangement: tuple[str, str, str] = ("bunched", "bunched", "bunched")
-    cable_od_m: float = 0.04
-    duct_od_m: float = 0.11
+    cable_od_m: float = field(default_factory=lambda: design_default("cable_od_m"))
+    duct_od_m: float = field(default_factory=lambda: design_default("duct_od_m"))
     string_fuse_ratings_a: tuple[float, ...] | None = None
     array_fuse_ratings_a: tuple[float, ...] | None = None
     array_protection: str = "fuse"

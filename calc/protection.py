@@ -91,8 +91,14 @@ _BIFACIAL = "iec61215_1_2021_bifacial_irradiance.csv"
 #: Circuit-breaker kinds with a rating list: IEC 60898-1 (In ≤ 125 A) and IEC 60947-2.
 BREAKER_DEVICES: tuple[str, ...] = tuple(_BREAKERS)
 
-_IZ_FACTOR_433 = 1.45  # IEC 60364-4-43:2008 433.1: I2 ≤ 1.45 · Iz
 _REL = 1e-9  # relative tolerance of the rating comparisons (a value equal to a rating fits it)
+
+
+def _i2_max_x_iz() -> float:
+    """IEC 60364-4-43:2008 433.1: I2 ≤ 1.45 · Iz (``iec60364_4_43_2008_433_1_coordination.csv``,
+    from memory)."""
+    t = load_table("iec60364_4_43_2008_433_1_coordination.csv")
+    return float(t["value"][t.where(name="i2_max_x_iz")][0])
 
 
 # --------------------------------------------------------------------------------------------
@@ -435,7 +441,7 @@ def array_min_capacity_a(
     own = pv_rule("isc_factor") * isc
     fused = np.isfinite(fuse)
     f = np.where(fused, fuse, 0.0)
-    with_fuse = np.maximum(own, np.maximum(f, k2 * f / _IZ_FACTOR_433))
+    with_fuse = np.maximum(own, np.maximum(f, k2 * f / _i2_max_x_iz()))
     return np.where(fused, with_fuse, np.maximum(own, b))
 
 
@@ -498,7 +504,7 @@ def array_cable_check(
     needed = unknown | (b > iz * (1.0 + _REL))
     fused = np.isfinite(fuse)
     in_ok = fused & (fuse <= iz * (1.0 + _REL))
-    i2_ok = fused & (k2 * fuse <= _IZ_FACTOR_433 * iz * (1.0 + _REL))
+    i2_ok = fused & (k2 * fuse <= _i2_max_x_iz() * iz * (1.0 + _REL))
     ok = ~needed | (in_ok & i2_ok)
     note = np.full(iz.shape, "", dtype=object)
     for i in np.flatnonzero(~ok):
@@ -515,7 +521,7 @@ def array_cable_check(
         if not in_ok[i]:
             parts.append(f"array fuse {fuse[i]:g} A above Iz {iz[i]:.1f} A")
         if not i2_ok[i]:
-            parts.append(f"I2 {k2 * fuse[i]:.1f} A above 1.45·Iz {_IZ_FACTOR_433 * iz[i]:.1f} A")
+            parts.append(f"I2 {k2 * fuse[i]:.1f} A above 1.45·Iz {_i2_max_x_iz() * iz[i]:.1f} A")
         note[i] = "; ".join(parts)
     return ProtectionCheck(needed, ok, note.astype(str))
 
@@ -578,7 +584,7 @@ def ac_breaker(ib_a: ArrayLike, ratings_a: ArrayLike, i2_factor: ArrayLike) -> B
     k2 = np.asarray(i2_factor, dtype=float)
     pick = _smallest_at_least(ratings, ib)
     i2 = k2 * pick
-    iz_min = np.maximum(pick, i2 / _IZ_FACTOR_433)
+    iz_min = np.maximum(pick, i2 / _i2_max_x_iz())
     ok = np.isfinite(pick)
     note = np.full(ib.shape, "", dtype=object)
     for i in np.flatnonzero(~ok):
@@ -630,7 +636,7 @@ def overload_check(
     )
     ib_ok = ib <= inn * (1.0 + _REL)
     iz_ok = inn <= iz * (1.0 + _REL)
-    i2_ok = i2 <= _IZ_FACTOR_433 * iz * (1.0 + _REL)
+    i2_ok = i2 <= _i2_max_x_iz() * iz * (1.0 + _REL)
     ok = ib_ok & iz_ok & i2_ok
     note = np.full(ib.shape, "", dtype=object)
     for i in np.flatnonzero(~ok):
@@ -646,6 +652,6 @@ def overload_check(
         if not iz_ok[i]:
             parts.append(f"In {inn[i]:g} A > Iz {iz[i]:.1f} A")
         if not i2_ok[i]:
-            parts.append(f"I2 {i2[i]:.1f} A > 1.45·Iz {_IZ_FACTOR_433 * iz[i]:.1f} A")
+            parts.append(f"I2 {i2[i]:.1f} A > 1.45·Iz {_i2_max_x_iz() * iz[i]:.1f} A")
         note[i] = "; ".join(parts)
     return OverloadCheck(ib_ok, iz_ok, i2_ok, ok, note.astype(str))

@@ -50,7 +50,6 @@ __all__ = [
 
 _RULES = "iec62548_2016_pv_dc_rules.csv"
 _FUSES = "iec60269_1_fuse_ratings.csv"
-_UNFUSED_MAX_STRINGS_NO_OCPR = 2  # assumption when the module maximum series fuse is not given
 
 
 def pv_rule(name: str) -> float:
@@ -196,7 +195,7 @@ def string_protection(
     no_ocpr = np.isnan(ocpr)
     required = np.where(
         no_ocpr,
-        s > _UNFUSED_MAX_STRINGS_NO_OCPR,
+        s > pv_rule("unfused_max_strings_no_ocpr"),
         (s - 1.0) * k * isc > pv_rule("ocpr_threshold") * np.where(no_ocpr, 0.0, ocpr),
     )
     lower = pv_rule("fuse_min_x_isc") * isc

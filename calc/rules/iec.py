@@ -24,8 +24,6 @@ from calc.errors import InputError, check_option
 from calc.rules import RuleSet
 from calc.tables import load_table
 
-_FEEDER_SIZES_MM2 = (16.0, 25.0, 35.0, 50.0, 70.0, 95.0, 120.0, 150.0, 185.0, 240.0, 300.0)
-
 
 class IecRules(RuleSet):
     """IEC 60364-5-52:2009 / IEC 62548:2016 / IEC 60228:2004 / IEC 60287 rule set."""
@@ -41,7 +39,9 @@ class IecRules(RuleSet):
     def default_sizes_mm2(self, kind: int, material: str) -> tuple[float, ...]:
         """String: 4, 6, 10 mm² (PV cable ≥ 4 mm² is common practice); feeders: IEC 60228 16–300 mm²
         (the sizes for which Cu and Al are tabulated in every environment)."""
-        return (4.0, 6.0, 10.0) if kind == 0 else _FEEDER_SIZES_MM2
+        t = load_table("default_size_lists.csv")
+        sizes = t["size_mm2"][t.where(kind="string" if kind == 0 else "feeder")]
+        return tuple(float(v) for v in sizes)
 
     def r20_ohm_km(self, kind: int, material: str, sizes_mm2: np.ndarray) -> np.ndarray:
         if kind == 0:

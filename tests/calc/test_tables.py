@@ -5,7 +5,7 @@ import pytest
 
 from calc.tables import load_table, parse_table, table_names
 
-ALLOWED_TAGS = {"confirmed", "memory", "memory-low", "common practice"}
+ALLOWED_TAGS = {"confirmed", "memory", "memory-low", "common practice", "derived"}
 
 
 @pytest.mark.parametrize("name", table_names())
@@ -40,3 +40,23 @@ def test_tables_are_read_only_and_cached():
 def test_parse_table_empty_cell_is_nan():
     t = parse_table("# source: x\na,tag\n1,memory\n,memory\n")
     assert np.isnan(t["a"][1])
+
+
+def test_default_size_lists_are_iec_60228_nominal_sizes():
+    # IEC 60228:2004 Table 2 nominal cross-sections (the lists' choice is common practice)
+    from calc.rules import get_rules
+
+    t = load_table("default_size_lists.csv")
+    assert len(t) == 14
+    nominal = {1.5, 2.5, 4, 6, 10, 16, 25, 35, 50, 70, 95, 120, 150, 185, 240, 300, 400}
+    assert set(t["size_mm2"].tolist()) <= nominal
+    assert get_rules("iec").default_sizes_mm2(0, "Cu") == (4.0, 6.0, 10.0)
+    assert get_rules("iec").default_sizes_mm2(2, "Al")[-1] == 300.0
+
+
+def test_coordination_factor_and_design_defaults():
+    # IEC 60364-4-43:2008 433.1 b: I2 <= 1.45 Iz (from memory)
+    t = load_table("iec60364_4_43_2008_433_1_coordination.csv")
+    assert len(t) == 1 and t["value"].tolist() == [1.45]
+    d = load_table("design_defaults.csv")
+    assert len(d) == 2 and d["value"][d.where(name="duct_od_m")].tolist() == [0.11]
