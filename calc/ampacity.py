@@ -61,7 +61,7 @@ LAYING_DIRECT = 0  # method D2, cable direct in the ground
 LAYING_DUCT = 1  # method D1, cable in a duct in the ground
 PV_INSTALLATIONS = ("free_air", "on_surface", "two_adjacent_surface")
 #: arrangements of cables in air, IEC 60364-5-52:2009 Table B.52.17 items 1-5 (names of our own)
-AIR_ARRANGEMENTS = ("bunched", "wall", "ceiling", "tray", "ladder")
+AIR_ARRANGEMENTS = ("bunched", "wall", "ceiling", "tray", "ladder", "spaced")
 
 _B14 = "iec60364_5_52_2009_b52_14_air_temperature.csv"
 _B15 = "iec60364_5_52_2009_b52_15_ground_temperature.csv"
@@ -309,7 +309,7 @@ def group_factor(count: ArrayLike, spacing_m: ArrayLike, laying: ArrayLike) -> n
 
 
 #: B.52.17 items 2-5 (single layers): the table gives no further reduction beyond 9 circuits
-_B17_NO_FURTHER_REDUCTION = ("wall", "ceiling", "tray", "ladder")
+_B17_NO_FURTHER_REDUCTION = ("wall", "ceiling", "tray", "ladder", "spaced")
 
 
 def _air_by_count(counts: np.ndarray, col: np.ndarray, k: np.ndarray, hold: bool) -> np.ndarray:

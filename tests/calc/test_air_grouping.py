@@ -32,7 +32,8 @@ B52_17 = {
 }
 SINGLE_LAYER = ("wall", "ceiling", "tray", "ladder")
 ERR_ARRANGEMENT = (
-    "air arrangement must be one of 'bunched', 'wall', 'ceiling', 'tray', 'ladder'; got {!r}"
+    "air arrangement must be one of 'bunched', 'wall', 'ceiling', 'tray', 'ladder', 'spaced'; "
+    "got {!r}"
 )
 
 
@@ -137,7 +138,7 @@ def test_invalid_count(count):
 
 def test_rule_set_exposes_the_arrangements_and_the_factor():
     rs = get_rules("iec")
-    assert rs.air_arrangements == ("bunched", "wall", "ceiling", "tray", "ladder")
+    assert rs.air_arrangements == ("bunched", "wall", "ceiling", "tray", "ladder", "spaced")
     # Table B.52.17: item 1 at 4 circuits 0.65, item 4 at 6 circuits 0.73
     assert_allclose(rs.air_group_factor(np.array([4.0, 6.0]), ["bunched", "tray"]), [0.65, 0.73])
     assert "air_group_factor" in RuleSet.__abstractmethods__
@@ -156,3 +157,9 @@ def test_b52_17_data_file_loads():
     assert t["bunched"][t["circuits"] == 20].tolist() == [0.38]
     assert np.all(np.isnan(t["wall"][t["circuits"] > 9]))
     assert set(t["tag"].tolist()) == {"confirmed"}
+
+
+def test_spaced_cables_need_no_factor():
+    # IEC 60364-5-52:2009 Table B.52.17, note: no reduction factor where the horizontal clearance
+    # between adjacent cables exceeds twice their overall diameter
+    assert air_group_factor([1, 2, 9, 20, 200], "spaced").tolist() == [1.0] * 5
