@@ -177,8 +177,13 @@ def check(
         f"trench   {report.trench_m:,.1f} m in {report.counts['trenches']} trenches", markup=False
     )
     for key, m in s.modules.items():
+        bifacial = ""
+        if m.isc_bifacial_a == m.isc_bifacial_a:  # given (not NaN)
+            bifacial = f" (bifacial Isc {m.isc_bifacial_a:g} A)"
+        elif m.bifaciality == m.bifaciality:
+            bifacial = f" (bifaciality {m.bifaciality:g})"
         out.print(
-            f"module   {key}: Isc {m.isc_a:g} A, Imp {m.imp_a:g} A, Voc {m.voc_v:g} V, "
+            f"module   {key}: Isc {m.isc_a:g} A{bifacial}, Imp {m.imp_a:g} A, Voc {m.voc_v:g} V, "
             f"Vmp {m.vmp_v:g} V, {m.per_string} per string",
             markup=False,
         )
