@@ -43,10 +43,12 @@ IEC 60364-4-43 433.1), :mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortci
 
 from calc.engine import (
     ARRAY_PROTECTION,
+    FEEDER_KINDS,
     KIND_AC,
     KIND_ARRAY,
     KIND_NAMES,
     KIND_STRING,
+    KIND_SUBARRAY,
     DesignParams,
     SizingInput,
     SizingResult,
@@ -66,10 +68,12 @@ from calc.rules import get_rules, rule_names
 
 __all__ = [
     "ARRAY_PROTECTION",
+    "FEEDER_KINDS",
     "KIND_AC",
     "KIND_ARRAY",
     "KIND_NAMES",
     "KIND_STRING",
+    "KIND_SUBARRAY",
     "CalcError",
     "ConvergenceError",
     "DataFileError",

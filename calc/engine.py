@@ -59,6 +59,7 @@ __all__ = [
     "KIND_ARRAY",
     "KIND_NAMES",
     "KIND_STRING",
+    "KIND_SUBARRAY",
     "DesignParams",
     "SizingInput",
     "SizingResult",
@@ -69,7 +70,10 @@ __all__ = [
 KIND_STRING = 0
 KIND_ARRAY = 1
 KIND_AC = 2
-KIND_NAMES = ("string", "array", "ac")
+KIND_SUBARRAY = 3
+KIND_NAMES = ("string", "array", "ac", "subarray")
+#: the d.c. cables between a combiner and the next combiner or the inverter
+FEEDER_KINDS = (KIND_ARRAY, KIND_SUBARRAY)
 
 ENV_NAMES = ("air", "D1", "D2")  # governing environment codes 0, 1, 2
 #: how array cables are protected against the backfeed of the other arrays on their input
@@ -86,12 +90,15 @@ class SizingInput:
     Per circuit (length n). Fields marked *DC* apply to kinds 0/1, *AC* to kind 2; others may be
     nan.
 
-    kind : int8 — 0 string, 1 array, 2 ac (``KIND_STRING``, ``KIND_ARRAY``, ``KIND_AC``).
+    kind : int8 — 0 string, 1 array, 2 ac, 3 sub-array (``KIND_STRING``, ``KIND_ARRAY``,
+        ``KIND_AC``, ``KIND_SUBARRAY``). IEC 62548 terms: a sub-array cable joins a combiner to
+        the combiner above it, the array cable the last combiner to the inverter.
     cable_m : route length for voltage drop and losses, allowances included [m].
     air_m : length in air (stubs + run along the row) [m]; > 0 means the air environment applies.
         Default 0.
-    parent : for a string, index of its array circuit, or −1 if it goes straight to an inverter;
-        −1 otherwise. Default −1.
+    parent : for a string, index of the cable of its combiner (array or sub-array), or −1 if it
+        goes straight to an inverter; for a sub-array cable, index of the cable of the combiner it
+        feeds (array or sub-array); −1 otherwise. Default −1.
     isc_a, imp_a : *DC* module (= string) Isc and Imp at STC, front side [A]; for an array,
         the mean over its strings.
     bifaciality : *DC* bifaciality of the module's Isc, φ in [0, 1]; nan = monofacial. Default nan.
@@ -106,7 +113,8 @@ class SizingInput:
     max_fuse_a : *DC* module maximum series fuse rating [A]; nan = not given. Default nan.
     fuse_a : *DC* string fuse fixed by the combiner [A]; nan = calc picks. Default nan.
     dc_group : *DC* arrays: id of the inverter d.c. input (or common d.c. bus) the array is
-        paralleled on with the other arrays of the same id; −1 = alone (no backfeed). Default −1.
+        paralleled on with the other arrays of the same id; −1 = alone on its input. A sub-array
+        cable takes its array's. Default −1.
     ac_kva : *AC* inverter rated apparent power [kVA].
     ac_v : *AC* voltage [V]: line-to-line for 3-phase, inverter output line-to-neutral for 1-phase.
     phases : *AC* 1 or 3. Default 3.
@@ -179,13 +187,15 @@ class DesignParams:
     row_air_temp_c : air temperature around string cables in air [°C] — they run along the racking,
         behind the modules, hotter than the shade air; None = ``air_temp_c``. 70 °C is common
         practice for cables behind modules.
-    material_array, material_ac : "Cu" or "Al" (class 2). Strings are always EN 50618 PV cable
-        (class 5 tinned Cu).
-    insulation_array, insulation_ac : "XLPE" (90 °C) or "PVC" (70 °C).
-    drop_string_pct, drop_array_pct, drop_dc_total_pct, drop_ac_pct : voltage-drop limits [%];
-        1.0 / 1.5 / 2.0 / 1.0 are common practice (no standard sets a PV d.c. limit; ≤ 2 % d.c. and
-        ≤ 1 % a.c. is common practice). See the module docstring for how the d.c. budget is shared.
-    sizes_string_mm2, sizes_array_mm2, sizes_ac_mm2 : ascending candidate sizes [mm²]; None = the
+    material_array, material_subarray, material_ac : "Cu" or "Al" (class 2). Strings are always
+        EN 50618 PV cable (class 5 tinned Cu).
+    insulation_array, insulation_subarray, insulation_ac : "XLPE" (90 °C) or "PVC" (70 °C).
+    drop_string_pct, drop_subarray_pct, drop_array_pct, drop_dc_total_pct, drop_ac_pct :
+        voltage-drop limits [%]; 1.0 / 1.0 / 1.5 / 2.0 / 1.0 are common practice (no standard sets
+        a PV d.c. limit; ≤ 2 % d.c. and ≤ 1 % a.c. is common practice). See the module docstring
+        for how the d.c. budget is shared along a string's path.
+    sizes_string_mm2, sizes_array_mm2, sizes_subarray_mm2, sizes_ac_mm2 : ascending candidate
+        sizes [mm²]; None = the
         rule set's default (iec: string 4, 6, 10 — PV cable ≥ 4 mm² is common practice; feeders
         16–300).
     max_parallel : most conductors per pole/phase for array and a.c. circuits (common practice 4).
@@ -200,7 +210,8 @@ class DesignParams:
     marking : conductor identification convention, "iec" (IEC 60445) or "us" (NEC).
     pv_installation : EN 50618 Table A.3 column for string cables in air: "two_adjacent_surface"
         (default, conservative: + and − touching along the racking), "on_surface" or "free_air".
-    air_arrangement : how the cables of each kind (string, array, a.c.) run where they share a
+    air_arrangement : how the cables of each kind (string, array, a.c., sub-array: by kind code)
+        run where they share a
         stretch in air, one of the rule set's ``air_arrangements`` (iec: IEC 60364-5-52 Table
         B.52.17 items "bunched", "wall", "ceiling", "tray", "ladder"); "bunched" (the most
         onerous) by default.
@@ -226,13 +237,17 @@ class DesignParams:
     material_ac: str = "Cu"
     insulation_array: str = "XLPE"
     insulation_ac: str = "XLPE"
+    material_subarray: str = "Cu"
+    insulation_subarray: str = "XLPE"
     drop_string_pct: float = 1.0
+    drop_subarray_pct: float = 1.0
     drop_array_pct: float = 1.5
     drop_dc_total_pct: float = 2.0
     drop_ac_pct: float = 1.0
     sizes_string_mm2: tuple[float, ...] | None = None
     sizes_array_mm2: tuple[float, ...] | None = None
     sizes_ac_mm2: tuple[float, ...] | None = None
+    sizes_subarray_mm2: tuple[float, ...] | None = None
     max_parallel: int = 4
     conductor_temp: str = "max"
     power_factor: float = 0.9
@@ -241,7 +256,7 @@ class DesignParams:
     clear_s: float | None = None
     marking: str = "iec"
     pv_installation: str = "two_adjacent_surface"
-    air_arrangement: tuple[str, str, str] = ("bunched", "bunched", "bunched")
+    air_arrangement: tuple[str, ...] = ("bunched", "bunched", "bunched", "bunched")
     cable_od_m: float = field(default_factory=lambda: design_default("cable_od_m"))
     duct_od_m: float = field(default_factory=lambda: design_default("duct_od_m"))
     string_fuse_ratings_a: tuple[float, ...] | None = None
@@ -278,7 +293,8 @@ class SizingResult:
     Per segment: seg_soil_factor, seg_depth_factor, seg_group_factor (in force with the final
     counts), seg_count_final (routing count incl. extra parallel sets). Per air stretch:
     air_count_final (circuits incl. extra parallel sets).
-    Per kind (index = kind): total_loss_w, total_loss_pct, total_energy_loss_kwh.
+    Per kind (index = kind code, :data:`KIND_NAMES`): total_loss_w, total_loss_pct,
+    total_energy_loss_kwh.
     """
 
     size_mm2: np.ndarray
@@ -417,19 +433,24 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     bad = dc & ~np.isnan(a["isc_bifacial_a"]) & ~(a["isc_bifacial_a"] >= a["isc_a"])
     if np.any(bad):
         problems.append(f"isc_bifacial_a must be >= isc_a at d.c. circuits {_where(bad)}")
-    bad = (kind == KIND_ARRAY) & (a["dc_group"] < -1)
+    feeder = np.isin(kind, FEEDER_KINDS)
+    bad = feeder & (a["dc_group"] < -1)
     if np.any(bad):
         problems.append(f"dc_group must be >= -1 at array circuits {_where(bad)}")
     par = a["parent"]
-    is_str = kind == KIND_STRING
-    bad = (par >= n) | (par < -1) | (~is_str & (par != -1))
+    takes_parent = (kind == KIND_STRING) | (kind == KIND_SUBARRAY)
+    bad = (par >= n) | (par < -1) | (~takes_parent & (par != -1))
     ok_idx = (par >= 0) & (par < n)
-    bad |= ok_idx & (kind[np.clip(par, 0, n - 1)] != KIND_ARRAY)
+    bad |= ok_idx & ~np.isin(kind[np.clip(par, 0, n - 1)], FEEDER_KINDS)
+    bad |= (kind == KIND_SUBARRAY) & (par < 0)
     if np.any(bad):
         problems.append(
-            f"parent must be -1 or the index of an array circuit (strings only) "
-            f"at circuits {_where(bad)}"
+            "parent must be the index of an array or sub-array circuit (strings: or -1; sub-array "
+            f"circuits: always; others: -1) at circuits {_where(bad)}"
         )
+    if problems:
+        raise InputError("; ".join(problems))
+    a["level"] = _levels(par, kind)
 
     m = 0 if inp.seg_depth_m is None else np.asarray(inp.seg_depth_m).size
     a["seg_depth_m"] = _arr(inp.seg_depth_m, m, 0.7)
@@ -479,6 +500,25 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     return a
 
 
+def _levels(parent: np.ndarray, kind: np.ndarray) -> np.ndarray:
+    """Each feeder's level: 0 for an array cable, 1 + its parent's for a sub-array cable (a
+    chain of parents must end at an array cable); −1 for strings and a.c. circuits."""
+    n = kind.size
+    level = np.where(kind == KIND_ARRAY, 0, -1).astype(np.int64)
+    todo = kind == KIND_SUBARRAY
+    for _ in range(n + 1):
+        if not todo.any():
+            return level
+        up = level[parent[todo]]
+        ready = up >= 0
+        idx = np.flatnonzero(todo)[ready]
+        level[idx] = up[ready] + 1
+        todo[idx] = False
+        if not ready.any():
+            break
+    raise InputError(f"sub-array circuits {_where(todo)} do not lead to an array circuit (a cycle)")
+
+
 def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
     """The air stretches' counts and incidence (sorted by circuit; duplicates count once)."""
     ic = np.zeros(0, np.int64) if inp.air_inc_circuit is None else np.asarray(inp.air_inc_circuit)
@@ -506,6 +546,8 @@ def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
 
 def _check_design(design: DesignParams, rs: RuleSet) -> None:
     check_option("material_array", design.material_array, rs.materials)
+    check_option("material_subarray", design.material_subarray, rs.materials)
+    check_option("insulation_subarray", design.insulation_subarray, rs.insulations)
     check_option("material_ac", design.material_ac, rs.materials)
     check_option("insulation_array", design.insulation_array, rs.insulations)
     check_option("insulation_ac", design.insulation_ac, rs.insulations)
@@ -514,12 +556,15 @@ def _check_design(design: DesignParams, rs: RuleSet) -> None:
     check_option("array_protection", design.array_protection, ARRAY_PROTECTION)
     check_option("ac_breaker_device", design.ac_breaker_device, rs.breaker_devices)
     if len(design.air_arrangement) != len(KIND_NAMES):
-        raise InputError("air_arrangement must name one arrangement per kind (string, array, ac)")
+        raise InputError(
+            "air_arrangement must name one arrangement per kind (string, array, ac, subarray)"
+        )
     for name, value in zip(KIND_NAMES, design.air_arrangement, strict=True):
         check_option(f"air_arrangement ({name})", value, rs.air_arrangements)
     problems = []
     for f in (
         "drop_string_pct",
+        "drop_subarray_pct",
         "drop_array_pct",
         "drop_dc_total_pct",
         "drop_ac_pct",
@@ -572,6 +617,9 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
     elif kind == KIND_ARRAY:
         material, insulation = design.material_array, design.insulation_array
         sizes = design.sizes_array_mm2
+    elif kind == KIND_SUBARRAY:
+        material, insulation = design.material_subarray, design.insulation_subarray
+        sizes = design.sizes_subarray_mm2
     else:
         material, insulation, sizes = design.material_ac, design.insulation_ac, design.sizes_ac_mm2
     if sizes is None:
@@ -917,11 +965,18 @@ def size_circuits(
     kind = a["kind"]
     dc = kind != KIND_AC
     is_str = kind == KIND_STRING
-    is_arr = kind == KIND_ARRAY
     is_ac = kind == KIND_AC
 
-    kinds = {k: np.flatnonzero(kind == k) for k in (KIND_STRING, KIND_ARRAY, KIND_AC)}
+    kinds = {k: np.flatnonzero(kind == k) for k in range(len(KIND_NAMES))}
     kd = {k: _kind_data(k, idx, design, rs) for k, idx in kinds.items() if idx.size}
+    # the order circuits are sized in: strings, the feeders from the strings up (sub-array levels,
+    # deepest first, then the array cables), a.c.; each step: (kind, its circuits' positions)
+    level = a["level"]
+    steps = [(KIND_STRING, None)]
+    sub_levels = sorted(set(level[kinds[KIND_SUBARRAY]].tolist()), reverse=True)
+    steps += [(KIND_SUBARRAY, lv) for lv in sub_levels]
+    steps += [(KIND_ARRAY, None), (KIND_AC, None)]
+    limit = {KIND_SUBARRAY: design.drop_subarray_pct, KIND_ARRAY: design.drop_array_pct}
 
     # ---- design and operating currents, protection
     prot_c = _protection(a, design, rs)
@@ -957,13 +1012,15 @@ def size_circuits(
     seg = {"fixed": seg_soil * seg_depth}
 
     # ---- iterate parallel sets <-> grouping; after the first pass only circuits on segments whose
-    # count changed (and the arrays of such strings) are re-evaluated
+    # count changed (and the feeders above them) are re-evaluated. ``below``: each d.c.
+    # circuit's own drop plus the worst path below it, filled as the levels are sized
     p = np.ones(n, dtype=np.int64)
     r_air = a["air_count"].size
     budgets = np.full(n, np.nan)
     budgets[is_str] = min(design.drop_string_pct, design.drop_dc_total_pct)
     budgets[is_ac] = design.drop_ac_pct
     det: dict[int, dict] = {}
+    below = np.zeros(n)
     counts = prev = air_counts = air_prev = None
     affected = np.ones(n, dtype=bool)
     iterations = 0
@@ -982,28 +1039,30 @@ def size_circuits(
             affected = np.zeros(n, dtype=bool)
             affected[a["inc_circuit"][changed[a["inc_segment"]]]] = True
             affected[a["air_inc_circuit"][air_changed[a["air_inc_stretch"]]]] = True
-            up = a["parent"][affected & is_str]
-            affected[up[up >= 0]] = True
+            affected = _with_feeders_above(a["parent"], affected)
         prev, air_prev = counts, air_counts
-        for k in (KIND_STRING, KIND_ARRAY, KIND_AC):
+        for k, lv in steps:
             if k not in kd:
                 continue
-            if k == KIND_ARRAY:
-                child_max = _child_max_pct(a, det.get(KIND_STRING), kinds[KIND_STRING], n)
-                budgets[is_arr] = np.minimum(
-                    design.drop_array_pct, design.drop_dc_total_pct - child_max[is_arr]
+            mine = affected[kinds[k]] & (True if lv is None else level[kinds[k]] == lv)
+            if k in limit:
+                child_max = _child_max(a["parent"], below, n)
+                budgets[kinds[k]] = np.minimum(
+                    limit[k], design.drop_dc_total_pct - child_max[kinds[k]]
                 )
-            sub = np.flatnonzero(affected[kinds[k]])
+            sub = np.flatnonzero(mine)
             if sub.size == 0:
                 continue
             new = _select(
                 kd[k], sub, a, c, seg, (counts, air_counts), p, budgets[kinds[k][sub]], design, rs
             )
             if k not in det:
-                det[k] = new
-            else:
-                for key, val in new.items():
-                    det[k][key][sub] = val
+                det[k] = {key: np.zeros(kinds[k].size, val.dtype) for key, val in new.items()}
+            for key, val in new.items():
+                det[k][key][sub] = val
+            if k != KIND_AC:  # own drop + the worst path below, for the level above
+                idx = kinds[k][sub]
+                below[idx] = new["pct"] + (0.0 if k == KIND_STRING else child_max[idx])
         new_p = p.copy()
         for k, d in det.items():
             new_p[kinds[k]] = d["pp"]
@@ -1012,7 +1071,7 @@ def size_circuits(
         p = new_p
     else:  # pragma: no cover - counts only grow, bounded by max_parallel
         raise ConvergenceError(f"parallel/grouping iteration did not settle in {_MAX_ITERATIONS}")
-    child_max = _child_max_pct(a, det.get(KIND_STRING), kinds[KIND_STRING], n)
+    child_max = _child_max(a["parent"], below, n)
 
     c.update(p_w=p_w)
     settled = _Settled(det, counts, air_counts, budgets, child_max, iterations)
@@ -1031,46 +1090,45 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     """
     kind = a["kind"]
     n = kind.size
-    dc, is_str, is_arr, is_ac = (
-        kind != KIND_AC,
-        kind == KIND_STRING,
-        kind == KIND_ARRAY,
-        kind == KIND_AC,
-    )
-    # bifacial design Isc of every d.c. circuit; an array with strings: the mean of its strings'
+    dc, is_str, is_ac = kind != KIND_AC, kind == KIND_STRING, kind == KIND_AC
+    is_feed = np.isin(kind, FEEDER_KINDS)
+    # bifacial design Isc of every d.c. circuit; a feeder with strings below it: the mean of
+    # their design Isc (summed up the tree, the deepest level first)
     isc = np.full(n, np.nan)
     d = np.flatnonzero(dc)
     isc[d] = rs.bifacial_isc_a(
         a["isc_a"][d], a["bifaciality"][d], design.rear_irradiance_ratio, a["isc_bifacial_a"][d]
     )
-    par = a["parent"]
+    par, level = a["parent"], a["level"]
+    total, count = np.zeros(n), np.zeros(n)
     child = is_str & (par >= 0)
-    if child.any():
-        total = np.bincount(par[child], weights=isc[child], minlength=n)
-        count = np.bincount(par[child], minlength=n)
-        isc = np.where(is_arr & (count > 0), total / np.maximum(count, 1), isc)
+    np.add.at(total, par[child], isc[child])
+    np.add.at(count, par[child], 1.0)
+    for lv in range(int(level.max(initial=0)), 0, -1):  # sub-array levels carry their strings up
+        up = (kind == KIND_SUBARRAY) & (level == lv)
+        np.add.at(total, par[up], total[up])
+        np.add.at(count, par[up], count[up])
+    isc = np.where(is_feed & (count > 0), total / np.maximum(count, 1), isc)
     strings = rs.gpv_fuse_ratings_a(design.string_fuse_ratings_a, "string_fuse_ratings_a")
     prot = rs.string_protection(
         isc, a["strings_in_parallel"], a["max_fuse_a"], a["fuse_a"], strings
     )
     fuse_a = np.where(is_str, prot.fuse_a, np.nan)
-    isc_total = np.where(is_arr, isc * a["n_strings"], isc)
+    isc_total = np.where(is_feed, isc * a["n_strings"], isc)
 
     i_backfeed, i_protected = np.zeros(n), np.full(n, np.inf)
     array_fuse = np.full(n, np.nan)
     fuse_fits = np.ones(n, dtype=bool)
-    arr = np.flatnonzero(is_arr)
-    if arr.size:
-        group = a["dc_group"][arr]
-        group = np.where(group >= 0, group, -1 - np.arange(arr.size))  # −1: each array alone
-        i_backfeed[arr] = rs.backfeed_a(isc_total[arr], group)
+    feed = np.flatnonzero(is_feed)
+    if feed.size:
+        i_backfeed[feed] = rs.backfeed_a(isc_total[feed], _input_of(a, feed), level[feed] == 0)
         ratings = rs.gpv_fuse_ratings_a(design.array_fuse_ratings_a, "array_fuse_ratings_a")
-        pick = rs.array_fuse(isc_total[arr], ratings)
-        fuse_fits[arr] = pick.ok
+        pick = rs.array_fuse(isc_total[feed], ratings)
+        fuse_fits[feed] = pick.ok
         if design.array_protection == "fuse":
-            array_fuse[arr] = pick.fuse_a
-            fused = rs.array_min_capacity_a(isc_total[arr], i_backfeed[arr], pick.fuse_a)
-            i_protected[arr] = np.where(pick.ok, fused, np.inf)
+            array_fuse[feed] = pick.fuse_a
+            fused = rs.array_min_capacity_a(isc_total[feed], i_backfeed[feed], pick.fuse_a)
+            i_protected[feed] = np.where(pick.ok, fused, np.inf)
 
     ib = np.full(n, np.nan)
     breaker_in, breaker_i2, iz_min = (np.full(n, np.nan) for _ in range(3))
@@ -1087,7 +1145,7 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
         breaker_ok[ac] = br.ok
 
     i_design = np.select(
-        [is_str, is_arr],
+        [is_str, is_feed],
         [
             rs.string_design_current_a(isc, a["strings_in_parallel"], fuse_a),
             rs.array_design_current_a(isc, a["n_strings"]),
@@ -1113,6 +1171,18 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     }
 
 
+def _input_of(a: dict, feed: np.ndarray) -> np.ndarray:
+    """The inverter input of each feeder in ``feed``: its array cable's ``dc_group``, or, where
+    that is −1 (alone on its input), an id of that array cable alone (negative, unique)."""
+    par, kind = a["parent"], a["kind"]
+    top = feed.copy()
+    for _ in range(int(a["level"].max(initial=0))):  # climb to the array cable
+        sub = kind[top] == KIND_SUBARRAY
+        top[sub] = par[top[sub]]
+    group = a["dc_group"][top]
+    return np.where(group >= 0, group, -1 - top)
+
+
 class _Settled(NamedTuple):
     """Where the parallel-sets/grouping iteration settled."""
 
@@ -1120,18 +1190,30 @@ class _Settled(NamedTuple):
     counts: np.ndarray  # cable sets per segment
     air_counts: np.ndarray  # cable sets per air stretch
     budgets: np.ndarray  # voltage-drop budget of each circuit [%]
-    child_max: np.ndarray  # largest own drop among each array circuit's strings [%]
+    child_max: np.ndarray  # worst path drop below each feeder (its strings, sub-arrays) [%]
     iterations: int
 
 
-def _child_max_pct(a, det_s, idx_s, n) -> np.ndarray:
-    """Largest own voltage drop [%] among the strings of each array circuit (0 if none)."""
+def _child_max(parent: np.ndarray, below: np.ndarray, n: int) -> np.ndarray:
+    """Worst path drop [%] below each feeder: the largest ``below`` among the circuits whose
+    parent it is (0 if none)."""
     child_max = np.zeros(n)
-    if det_s is not None and idx_s.size:
-        par = a["parent"][idx_s]
-        has = par >= 0
-        np.maximum.at(child_max, par[has], det_s["pct"][has])
+    has = parent >= 0
+    if has.any():
+        np.maximum.at(child_max, parent[has], below[has])
     return child_max
+
+
+def _with_feeders_above(parent: np.ndarray, affected: np.ndarray) -> np.ndarray:
+    """``affected`` with every feeder above an affected circuit (its budget depends on them)."""
+    out = affected.copy()
+    frontier = affected & (parent >= 0)
+    while frontier.any():
+        up = np.zeros_like(out)
+        up[parent[frontier]] = True
+        frontier = up & ~out & (parent >= 0)
+        out |= up
+    return out
 
 
 def _fmt_size(pp: int, size: float, material: str) -> str:
@@ -1209,21 +1291,27 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     i_design = i_req  # the capacity each circuit is held to, backfeed and protection included
     utilisation = i_design / out["ampacity_a"]
 
-    # cumulative d.c. drop
+    # cumulative d.c. drop: the worst path through each circuit, from a string to the inverter
+    # (the drop below it, its own, and the feeders' above it)
     is_str = kind == KIND_STRING
-    is_arr = kind == KIND_ARRAY
-    par = a["parent"]
+    is_arr = np.isin(kind, FEEDER_KINDS)  # array and sub-array cables
+    par, level = a["parent"], a["level"]
     own = out["vdrop_pct"]
-    parent_pct = np.where(par >= 0, own[np.clip(par, 0, max(n - 1, 0))], 0.0) if n else own
-    total = np.where(is_str, own + parent_pct, np.where(is_arr, own + child_max, own))
+    above = np.zeros(n)
+    for lv in range(1, int(level.max(initial=0)) + 1):  # sub-array levels, top down
+        sub = (kind == KIND_SUBARRAY) & (level == lv)
+        above[sub] = above[par[sub]] + own[par[sub]]
+    child = is_str & (par >= 0)
+    above[child] = above[par[child]] + own[par[child]]
+    total = np.where(kind == KIND_AC, own, np.where(is_arr, own + child_max, own) + above)
     fail_path = is_str & (total > design.drop_dc_total_pct + 1e-9)
 
     # losses (Joule's law, calc.losses) with the resistance of the drop
     loss = loss_w(i_op, a["cable_m"], out["r_ohm_km"], c["phases_eff"], out["parallel"])
     loss_pct = 100.0 * loss / p_w
     energy = energy_loss_kwh(loss, design.loss_hours_h)
-    tot_loss = np.array([loss[kind == k].sum() for k in range(3)])
-    tot_p = np.array([p_w[kind == k].sum() for k in range(3)])
+    tot_loss = np.array([loss[kind == k].sum() for k in range(len(KIND_NAMES))])
+    tot_p = np.array([p_w[kind == k].sum() for k in range(len(KIND_NAMES))])
     with np.errstate(invalid="ignore", divide="ignore"):
         tot_pct = np.where(tot_p > 0, 100.0 * tot_loss / tot_p, 0.0)
 
@@ -1291,7 +1379,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     def path_note(i):
         return (
             f"cumulative d.c. drop {total[i]:.2f} % exceeds {design.drop_dc_total_pct:g} % "
-            f"(array circuit {par[i]})"
+            f"(feeder circuit {par[i]})"
         )
 
     size_keys = (out["parallel"], out["size_mm2"], out["material"])
@@ -1362,7 +1450,9 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     """Which protection rule governed each circuit, in words (the schedule's ``protection``)."""
     kind = a["kind"]
     text = np.full(kind.size, "", dtype=object)
-    is_str, is_arr, is_ac = kind == KIND_STRING, kind == KIND_ARRAY, kind == KIND_AC
+    is_str, is_ac = kind == KIND_STRING, kind == KIND_AC
+    is_arr = np.isin(kind, FEEDER_KINDS)
+    what = np.where(kind == KIND_SUBARRAY, "sub-array", "array")
     s_par = a["strings_in_parallel"]
     fused = is_str & np.isfinite(c["fuse_a"])
     _fill(
@@ -1382,15 +1472,20 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     _fill(
         text,
         is_arr & (bf > 0) & np.isfinite(arr_fuse),
-        lambda i: f"array fuse {arr_fuse[i]:g} A gPV: backfeed {bf[i]:.0f} A > Iz {iz[i]:.0f} A",
-        (arr_fuse, bf, iz),
+        lambda i: (
+            f"{what[i]} fuse {arr_fuse[i]:g} A gPV: backfeed {bf[i]:.0f} A > Iz {iz[i]:.0f} A"
+        ),
+        (arr_fuse, bf, iz, what),
     )
-    no_fuse = "cable carries" if design.array_protection == "cable" else "no array fuse needed:"
+    cable = design.array_protection == "cable"
     _fill(
         text,
         is_arr & (bf > 0) & ~np.isfinite(arr_fuse) & carries,
-        lambda i: f"{no_fuse} backfeed {bf[i]:.0f} A ≤ Iz {iz[i]:.0f} A",
-        (bf, iz),
+        lambda i: (
+            ("cable carries" if cable else f"no {what[i]} fuse needed:")
+            + f" backfeed {bf[i]:.0f} A ≤ Iz {iz[i]:.0f} A"
+        ),
+        (bf, iz, what),
     )
     b_in, ib = c["breaker_in"], c["ib"]
     _fill(

@@ -295,43 +295,57 @@ def bifacial_isc_a(
 # array (sub-array) cables: backfeed and array fuses
 
 
-def backfeed_a(isc_array_a: ArrayLike, group: ArrayLike) -> np.ndarray:
-    """Current the other arrays of the same inverter d.c. input drive into a fault on one array [A].
+def backfeed_a(
+    isc_array_a: ArrayLike, group: ArrayLike, source: ArrayLike | None = None
+) -> np.ndarray:
+    """Current the rest of an inverter d.c. input drives into a fault on one array or sub-array
+    cable [A].
 
     Parameters
     ----------
     isc_array_a : array_like
-        Design I_SC at STC of each array (sum over its strings, bifacial gain included) [A].
+        Design I_SC at STC of each cable (sum over the strings below it, bifacial gain included)
+        [A].
     group : array_like of int
-        Id of the inverter d.c. input (or common d.c. bus) each array is paralleled on.
+        Id of the inverter d.c. input (or common d.c. bus) each cable is joined to.
+    source : array_like of bool, optional
+        Which cables together make up their input's whole current (the array cables: those that
+        end at the inverter); the others are sub-array cables below them. Default: all.
 
     Returns
     -------
     numpy.ndarray
-        B_i = 1.25 · Σ_{j in group(i), j ≠ i} I_SC,j [A]; 0 for an array alone on its input.
+        B_i = 1.25 · (Σ_{j in group(i), source} I_SC,j − I_SC,i) [A]: every string of the input
+        not below the faulted cable can feed the fault, each at most its own maximum short-
+        circuit current (a device in a healthy branch carries that branch's current forward and
+        does not limit it); 0 for an array alone on its input.
 
     Notes
     -----
-    The factor 1.25 is ``pv_rule("isc_factor")`` (IEC 62548:2016 I_SC MAX, from memory): each
-    healthy array can deliver at most its maximum short-circuit current into the fault. Computed per
-    group with one ``numpy.bincount`` (no loop over arrays).
+    The factor 1.25 is ``pv_rule("isc_factor")`` (IEC 62548:2016 I_SC MAX, from memory). For
+    array cables this is 1.25 · Σ of the other arrays of the input. Computed per group with one
+    ``numpy.bincount`` (no loop over cables).
 
     Examples
     --------
     >>> backfeed_a([100.0, 100.0, 100.0, 100.0, 80.0], [7, 7, 7, 7, 9])
     array([375., 375., 375., 375.,   0.])
+    >>> # two sub-array cables (40 A, 60 A) below one array cable (100 A), alone on its input
+    >>> backfeed_a([100.0, 40.0, 60.0], [1, 1, 1], [True, False, False])
+    array([ 0., 75., 50.])
     """
     isc = np.asarray(isc_array_a, dtype=float)
     grp = np.asarray(group)
-    if isc.ndim != 1 or grp.shape != isc.shape:
-        raise InputError("isc_array_a and group must be 1-D arrays of one length")
+    src = np.ones(isc.shape, dtype=bool) if source is None else np.asarray(source, dtype=bool)
+    if isc.ndim != 1 or grp.shape != isc.shape or src.shape != isc.shape:
+        raise InputError("isc_array_a, group and source must be 1-D arrays of one length")
     if isc.size and not np.issubdtype(grp.dtype, np.integer):
         raise InputError("group must hold integer ids of the inverter d.c. inputs")
     bad = ~np.isfinite(isc) | (isc < 0.0)
     if bad.any():
         raise InputError(f"isc_array_a must be finite and >= 0; {_first_bad(bad, isc)}")
     _, inverse = np.unique(grp, return_inverse=True)
-    total = np.bincount(inverse.ravel(), weights=isc)
+    total = np.bincount(inverse.ravel(), weights=np.where(src, isc, 0.0))
     others = np.maximum(total[inverse.ravel()] - isc, 0.0)
     return pv_rule("isc_factor") * others
 

@@ -49,14 +49,17 @@ class Site:
 
     Frames (all :class:`geopandas.GeoDataFrame`, index reset, ordered as in the input):
 
-    - ``rows``: ``id`` (str), ``strings`` (int), ``module`` (str), ``to`` (str or None);
+    - ``rows``: ``id`` (str), ``strings`` (int), ``module`` (str), ``to`` (str or None),
+      ``input`` (the inverter DC input its strings land on, float; NaN = not given);
       LineString/Polygon.
     - ``combiners``: ``id``, ``to``, ``max_strings`` (float, NaN = unlimited), ``fuse_a``
       (NaN), ``input`` (the inverter DC input it connects to, float; NaN = not given); Point.
     - ``inverters``: ``id``, ``ac_kva``, ``ac_v``, ``phases`` (int), ``pf`` (NaN = design default),
       ``to``, ``ac_max_a`` (maximum continuous output current, NaN = not given),
-      ``dc_inputs`` (float, default 1: all arrays in parallel on one DC input); Point or
-      Polygon.
+      ``dc_inputs`` (float, default 1: all arrays in parallel on one DC input), and per DC
+      input ``input_max_a`` (maximum operating current), ``input_max_isc_a`` (maximum
+      short-circuit current), ``input_max_strings`` (string terminals), NaN = not given;
+      Point or Polygon.
     - ``trenches``: ``id``, ``depth_m``, ``laying`` (str or None), ``spacing_m``, ``soil_k_m_w``,
       ``max_circuits`` (NaN where not given); LineString/MultiLineString.
     - ``grid``: ``id``; Point. Empty frame when the site has no grid layer.

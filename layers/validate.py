@@ -74,6 +74,10 @@ MAX_AC_KVA = 100_000.0
 #: most DC inputs of one inverter (common practice: string inverters have a few to a few tens
 #: of MPPT inputs, central inverters one to a few DC busbars)
 MAX_DC_INPUTS = 100
+#: most combiners in a chain from a row to an inverter: a string combiner, up to two levels of
+#: sub-array combiners (recombiners) above it (common practice: utility plants with central
+#: inverters use one, rarely two, levels of recombiners)
+MAX_COMBINER_LEVELS = 3
 
 #: attributes per layer — the site format (README, "Site format"). Upper bounds are given where
 #: a huge value would cost memory or time (``strings``) or overflow a result (``ac_kva``), and
@@ -85,9 +89,10 @@ FIELDS: dict[str, tuple[Field, ...]] = {
         Field("strings", "int", required=True, low=1, high=MAX_ROW_STRINGS),
         Field("module", "str", required=True),
         Field("to", "ref", targets=("combiners", "inverters")),
+        Field("input", "int", low=1, high=MAX_DC_INPUTS),
     ),
     "combiners": (
-        Field("to", "ref", targets=("inverters",)),
+        Field("to", "ref", targets=("combiners", "inverters")),
         Field("max_strings", "int", low=1, high=MAX_CAPACITY),
         Field("fuse_a", "float", low=0, low_open=True),
         Field("input", "int", low=1, high=MAX_DC_INPUTS),
@@ -100,6 +105,9 @@ FIELDS: dict[str, tuple[Field, ...]] = {
         Field("to", "ref", targets=("grid",)),
         Field("ac_max_a", "float", low=0, low_open=True),
         Field("dc_inputs", "int", low=1, high=MAX_DC_INPUTS, default=1),
+        Field("input_max_a", "float", low=0, low_open=True),
+        Field("input_max_isc_a", "float", low=0, low_open=True),
+        Field("input_max_strings", "int", low=1, high=MAX_CAPACITY),
     ),
     "trenches": (
         Field("depth_m", "float", low=0, low_open=True, high=10),
@@ -735,6 +743,8 @@ def _check_ids_and_refs(
                 )
             )
     combiners = frames.get("combiners")
+    if combiners is not None and "id" in combiners.columns and "to" in combiners.columns:
+        problems += _check_combiner_tree(combiners, rows, labels["combiners"])
     if (
         rows is not None
         and combiners is not None
@@ -756,6 +766,63 @@ def _check_ids_and_refs(
                     f"{n:g} strings are assigned to it but max_strings is {cap:g}",
                 )
             )
+    return problems
+
+
+def _check_combiner_tree(
+    combiners: pd.DataFrame, rows: pd.DataFrame | None, label
+) -> list[Problem]:
+    """Combiners whose ``to`` names another combiner (a sub-array combiner): no cycle, at most
+    :data:`MAX_COMBINER_LEVELS` combiners from a row to an inverter, and no combiner that joins
+    both strings (rows) and other combiners (a combiner collects one level)."""
+    problems: list[Problem] = []
+    ids = combiners["id"].tolist()
+    up = {c: t for c, t in zip(ids, combiners["to"].tolist(), strict=True) if t in set(ids)}
+    if not up:
+        return problems
+    position = {c: i for i, c in enumerate(ids)}
+    reported: set[str] = set()
+    for start in ids:
+        chain, c = [start], start
+        while c in up and len(chain) <= len(ids):
+            c = up[c]
+            if c in chain:  # a cycle: report it once, by its members
+                cycle = chain[chain.index(c) :]
+                if not reported & set(cycle):
+                    reported |= set(cycle)
+                    problems.append(
+                        Problem(
+                            "combiners",
+                            label(position[cycle[0]]),
+                            "`to` makes a cycle of combiners: " + " → ".join([*cycle, cycle[0]]),
+                        )
+                    )
+                break
+            chain.append(c)
+        else:
+            if len(chain) > MAX_COMBINER_LEVELS and start not in set(up.values()):
+                problems.append(
+                    Problem(
+                        "combiners",
+                        label(position[start]),
+                        f"{len(chain)} combiners in a row ({' → '.join(chain)}); at most "
+                        f"{MAX_COMBINER_LEVELS} are planned",
+                    )
+                )
+    if rows is not None and "to" in rows.columns and "id" in rows.columns:
+        fed = set(up.values())
+        for target, group in rows.groupby("to", sort=True):
+            if target in fed:
+                feeders = sorted(c for c, t in up.items() if t == target)
+                problems.append(
+                    Problem(
+                        "combiners",
+                        label(position[target]),
+                        f"joins both strings (rows {_listed(sorted(map(str, group['id'])))}) "
+                        f"and other combiners ({_listed(feeders)}); a combiner collects either "
+                        "strings or sub-arrays",
+                    )
+                )
     return problems
 
 

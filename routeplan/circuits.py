@@ -7,10 +7,17 @@ kind      from → to               one per                     id
 ========  ======================  ==========================  =====================
 string    row → combiner          string of a row             ``<row>/S<k>``
           (or inverter)
-array     combiner → inverter     combiner                    ``A:<combiner>``
+subarray  combiner → combiner     combiner feeding another    ``SA:<combiner>``
+                                  (a sub-array combiner)
+array     combiner → inverter     combiner feeding an         ``A:<combiner>``
+                                  inverter
 ac        inverter → grid point   inverter (when the site     ``AC:<inverter>``
                                   has a grid point)
 ========  ======================  ==========================  =====================
+
+The names follow IEC 62548: a *sub-array cable* joins a string combiner to the combiner above
+it (a sub-array combiner, or recombiner), the *array cable* the last combiner to the
+inverter.
 
 ``k`` counts a row's strings from 1, zero-padded to the width of the row's string count
 (``R12/S03`` of 12 strings, ``R7/S4`` of 9). Ids are built from feature ids alone, so they
@@ -48,7 +55,7 @@ __all__ = [
 ]
 
 #: kinds of circuit, in circuit order.
-KINDS: tuple[str, ...] = ("string", "array", "ac")
+KINDS: tuple[str, ...] = ("string", "subarray", "array", "ac")
 
 #: ``f(src_layer, src_ids, dst_layer, dst_ids)`` → route lengths [m], shape
 #: ``(len(src_ids), len(dst_ids))``, ``inf`` where no route exists.
@@ -57,7 +64,7 @@ RouteLengths = Callable[[str, Sequence[str], str, Sequence[str]], np.ndarray]
 #: where each layer's ``to`` may point.
 TO_LAYERS: dict[str, tuple[str, ...]] = {
     "rows": ("combiners", "inverters"),
-    "combiners": ("inverters",),
+    "combiners": ("combiners", "inverters"),
     "inverters": ("grid",),
 }
 
@@ -239,7 +246,9 @@ def assign_destinations(
         if t is not None:
             report[(0, i)] = _entry("rows", fid, t, "given", math.nan, n)
     dst_layer = "combiners" if len(site.combiners) else "inverters"
-    dst_ids = [v for v in ids[dst_layer] if connected(dst_layer, v)]
+    # a combiner that other combiners feed (a sub-array combiner) takes no strings
+    fed = set(_ids(site.combiners["to"])) & set(index["combiners"])
+    dst_ids = [v for v in ids[dst_layer] if connected(dst_layer, v) and v not in fed]
     if dst_layer == "combiners":
         cap = np.asarray(site.combiners["max_strings"], dtype=float)
         cap = np.where(np.isnan(cap), np.inf, cap)
@@ -316,12 +325,14 @@ def assign_destinations(
             rule = "only" if len(ids[target]) == 1 else "nearest"
             report[(code, i)] = _entry(layer, fid, to[layer][i], rule, r[k, j], 0)
 
-    # strings carried by each combiner and inverter
+    # strings carried by each combiner and inverter (combiners feeding combiners: from the
+    # string combiners up, so that each adds what it carries once it has all of it)
     carried = {(la, v): 0 for la in ("combiners", "inverters") for v in ids[la]}
     for t, n in zip(to["rows"], strings.tolist(), strict=True):
         if t is not None:
             carried[t] += n
-    for i, t in enumerate(to["combiners"]):
+    for i in _leaves_first(ids["combiners"], to["combiners"]):
+        t = to["combiners"][i]
         if t is not None:
             carried[t] += carried[("combiners", ids["combiners"][i])]
     for (code, _), entry in report.items():
@@ -331,6 +342,20 @@ def assign_destinations(
     frame = pd.DataFrame([report[k] for k in sorted(report)], columns=columns)
     frame["strings"] = frame["strings"].astype(np.int64)
     return Destinations(to=to, report=frame), problems
+
+
+def _leaves_first(ids: list[str], to: list[tuple[str, str] | None]) -> list[int]:
+    """Combiner positions ordered so that each comes after every combiner feeding it (the
+    combiners' ``to`` form a forest; cycles are refused by validation and stop here)."""
+    index = {v: i for i, v in enumerate(ids)}
+    depth = [0] * len(ids)
+    for i in range(len(ids)):
+        seen, j, d = set(), i, 0
+        while to[j] is not None and to[j][0] == "combiners" and j not in seen:
+            seen.add(j)
+            j, d = index[to[j][1]], d + 1
+        depth[i] = d  # combiners above this one
+    return sorted(range(len(ids)), key=lambda i: -depth[i])
 
 
 def _entry(
@@ -439,6 +464,7 @@ def derive_circuits(
     }
     for layer, kind, prefix in (
         ("rows", "string", ""),
+        ("combiners", "subarray", "SA:"),
         ("combiners", "array", "A:"),
         ("inverters", "ac", "AC:"),
     ):
@@ -452,8 +478,14 @@ def derive_circuits(
             )
         else:
             n = np.ones(len(frame), dtype=np.int64)
+        onto = {"subarray": "combiners", "array": "inverters"}.get(kind)
         sel = np.array(
-            [i for i, t in enumerate(to[layer]) if t is not None and n[i] > 0], dtype=np.int64
+            [
+                i
+                for i, t in enumerate(to[layer])
+                if t is not None and n[i] > 0 and (onto is None or t[0] == onto)
+            ],
+            dtype=np.int64,
         )
         reps = n[sel]
         dest = [to[layer][i] for i in sel]

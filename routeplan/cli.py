@@ -354,6 +354,13 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
     out.print(
         f"trench segments: {seg['count']}, over capacity: {seg['over_capacity']}", markup=False
     )
+    inputs = summary.get("inverter_inputs", {})
+    if inputs.get("count"):
+        out.print(
+            f"inverter DC inputs: {inputs['count']}, over a limit: {inputs['over_limit']} "
+            "(inverter_inputs.csv)",
+            markup=False,
+        )
     cables = ", ".join(
         f"{c['material']} {c['size_mm2']:g} mm² {c['metres']:,.0f} m" for c in summary["cable_m"]
     )
@@ -374,7 +381,7 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
         + (
             "every circuit and trench segment within its limits"
             if summary["ok"]
-            else "SOME CIRCUITS OR TRENCH SEGMENTS FAIL A LIMIT (see status/note)"
+            else "SOME CIRCUITS, TRENCH SEGMENTS OR INVERTER INPUTS FAIL A LIMIT (see status/note)"
         ),
         markup=False,
     )

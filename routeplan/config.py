@@ -29,7 +29,7 @@ from layers import SITE_TABLES, Problem
 from layers.sources import SITE_TOML, toml_type, unknown_key
 from layers.validate import setting_number
 
-KINDS: tuple[str, ...] = ("string", "array", "ac")
+KINDS: tuple[str, ...] = ("string", "subarray", "array", "ac")
 
 
 @dataclass(frozen=True)
@@ -152,19 +152,31 @@ DESIGN_KEYS: tuple[Key, ...] = (
 )
 
 #: per-kind tables under ``[design]``
-MATERIAL_DEFAULT: dict[str, str] = {"string": "Cu", "array": "Cu", "ac": "Al"}
-INSULATION_DEFAULT: dict[str, str] = {"string": "PV", "array": "XLPE", "ac": "XLPE"}
+MATERIAL_DEFAULT: dict[str, str] = {"string": "Cu", "subarray": "Cu", "array": "Cu", "ac": "Al"}
+INSULATION_DEFAULT: dict[str, str] = {
+    "string": "PV",
+    "subarray": "XLPE",
+    "array": "XLPE",
+    "ac": "XLPE",
+}
 #: how each kind's cables run where they share a stretch in air (IEC 60364-5-52 Table B.52.17
 #: item): bunched, the most onerous, unless the site says otherwise
-AIR_ARRANGEMENT_DEFAULT: dict[str, str] = {"string": "bunched", "array": "bunched", "ac": "bunched"}
+AIR_ARRANGEMENT_DEFAULT: dict[str, str] = dict.fromkeys(KINDS, "bunched")
 #: the project's protective-device ratings (``[design.ratings_a]``): keys and what they restrict
 RATING_KEYS: dict[str, str] = {
     "string_fuse": "string fuse ratings (gPV)",
     "array_fuse": "array fuse ratings (gPV)",
     "ac_breaker": "AC breaker ratings",
 }
-#: voltage-drop limits, percent (common practice: ≤ 1 % string, ≤ 2 % DC total, ≤ 1 % AC LV)
-DROP_PCT_DEFAULT: dict[str, float] = {"string": 1.0, "array": 1.5, "dc_total": 2.0, "ac": 1.0}
+#: voltage-drop limits, percent (common practice: ≤ 1 % string, ≤ 2 % DC total, ≤ 1 % AC LV;
+#: a sub-array cable ≤ 1 %, the array cable takes what its strings and sub-arrays leave)
+DROP_PCT_DEFAULT: dict[str, float] = {
+    "string": 1.0,
+    "subarray": 1.0,
+    "array": 1.5,
+    "dc_total": 2.0,
+    "ac": 1.0,
+}
 
 ALLOWANCE_KEYS: tuple[Key, ...] = (
     Key("termination_m", 1.0, 0.0, 50.0, note="added per cable end (common practice)"),

@@ -29,9 +29,15 @@ from .cache import PlanCache, digest, site_key, uncacheable_layers
 from .check import load
 from .config import DesignConfig, parse_design
 from .errors import DesignError, Problem
+from .inputs import INPUT_COLUMNS, assign_inputs, input_table, landing_input
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
 
-KIND_CODE = {"string": calc.KIND_STRING, "array": calc.KIND_ARRAY, "ac": calc.KIND_AC}
+KIND_CODE = {
+    "string": calc.KIND_STRING,
+    "subarray": calc.KIND_SUBARRAY,
+    "array": calc.KIND_ARRAY,
+    "ac": calc.KIND_AC,
+}
 #: current-carrying conductors of one circuit per parallel set: DC + and −; AC three-phase
 #: L1 L2 L3 (PV inverter outputs are commonly three-wire, no neutral — common practice);
 #: single-phase L and N. Protective conductors are not counted.
@@ -54,6 +60,9 @@ class Plan:
     timings_s: dict[str, float] = field(default_factory=dict)
     #: the output folder's cache this run used (None: a run without cache)
     cache: PlanCache | None = field(default=None, repr=False)
+    #: each inverter DC input something lands on, with its load and limits
+    #: (:func:`routeplan.inputs.input_table`)
+    inputs: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(columns=INPUT_COLUMNS))
 
     @property
     def reused(self) -> dict[str, bool]:
@@ -62,9 +71,11 @@ class Plan:
 
     @property
     def ok(self) -> bool:
-        """True when every circuit and every trench segment meets its limits."""
+        """True when every circuit, trench segment and inverter input meets its limits."""
         return bool(
-            (self.circuits["status"] == "ok").all() and (self.segments["status"] == "ok").all()
+            (self.circuits["status"] == "ok").all()
+            and (self.segments["status"] == "ok").all()
+            and (self.inputs["status"] == "ok").all()
         )
 
 
@@ -96,6 +107,10 @@ def design_params(design: DesignConfig) -> calc.DesignParams:
         air_temp_c=v["air_temp_c"],
         row_air_temp_c=v["row_air_temp_c"],
         material_array=design.material["array"],
+        material_subarray=design.material["subarray"],
+        insulation_subarray=design.insulation["subarray"],
+        drop_subarray_pct=design.drop_pct["subarray"],
+        sizes_subarray_mm2=design.sizes_mm2.get("subarray"),
         material_ac=design.material["ac"],
         insulation_array=design.insulation["array"],
         insulation_ac=design.insulation["ac"],
@@ -113,7 +128,7 @@ def design_params(design: DesignConfig) -> calc.DesignParams:
         fault_ka=unset(v["fault_ka"]),
         clear_s=unset(v["clear_s"]),
         marking=v["marking"],
-        air_arrangement=tuple(design.air_arrangement[k] for k in ("string", "array", "ac")),
+        air_arrangement=tuple(design.air_arrangement[k] for k in calc.KIND_NAMES),
         string_fuse_ratings_a=design.ratings_a.get("string_fuse"),
         array_fuse_ratings_a=design.ratings_a.get("array_fuse"),
         ac_breaker_ratings_a=design.ratings_a.get("ac_breaker"),
@@ -124,19 +139,28 @@ def design_params(design: DesignConfig) -> calc.DesignParams:
     )
 
 
-def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
+def sizing_input(
+    site: Site, routes: RoutePlan, inputs: np.ndarray | None = None
+) -> tuple[calc.SizingInput, np.ndarray]:
     """The plain arrays calc needs, per circuit and per trench segment.
 
-    String circuits carry their module's data (Vmp × modules per string); an array circuit
-    carries the strings behind it: mean per-string Isc and Imp (so that × strings gives the
-    exact sum for mixed module types) and the lowest string Vmp (conservative for the drop in
-    percent). ``strings_in_parallel`` is the number of strings joined at a string's
-    destination (combiner or inverter input), the basis of the IEC 62548 protection rules.
+    String circuits carry their module's data (Vmp × modules per string); a feeder (array or
+    sub-array cable) carries every string below it through the combiner tree: mean per-string
+    Isc and Imp (so that × strings gives the exact sum for mixed module types), the lowest
+    string Vmp (conservative for the drop in percent) and the lowest module maximum series
+    fuse. ``parent`` links a string to its combiner's cable and a sub-array cable to the cable
+    of the combiner it feeds. ``strings_in_parallel`` is the number of strings joined at a
+    string's destination — its combiner, or the inverter DC input it lands on — the basis of
+    the IEC 62548 protection rules. ``inputs``: :func:`routeplan.inputs.assign_inputs` (found
+    here when None); an array cable's ``dc_group`` is its inverter input, a sub-array cable's
+    that of its array cable. Returns the input and each circuit's inverter input (NaN but for
+    the circuits that end at an inverter).
     """
     c = routes.circuits
     n = len(c)
     kind = c["kind"].map(KIND_CODE).to_numpy(dtype=np.int8)
-    is_s, is_a, is_ac = kind == calc.KIND_STRING, kind == calc.KIND_ARRAY, kind == calc.KIND_AC
+    is_s, is_ac = kind == calc.KIND_STRING, kind == calc.KIND_AC
+    is_feed = np.isin(kind, calc.FEEDER_KINDS)
     from_id = c["from_id"].to_numpy(dtype=object)
     to_id = c["to_id"].to_numpy(dtype=object)
     s_idx = np.flatnonzero(is_s)
@@ -160,32 +184,37 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
     phi, isc_bif = np.full(n, np.nan), np.full(n, np.nan)
     phi[s_idx], isc_bif[s_idx] = per_string["phi"].to_numpy(), per_string["isc_bif"].to_numpy()
 
-    # strings joined at each destination, and each string's array circuit
-    strings_at = pd.Series(1, index=to_id[s_idx]).groupby(level=0).sum()
-    n_par = np.ones(n)
-    n_par[s_idx] = strings_at.reindex(to_id[s_idx]).to_numpy()
-    a_idx = np.flatnonzero(is_a)
-    array_of = pd.Series(a_idx, index=from_id[a_idx])
+    # the combiner tree: each combiner's cable; a string's and a sub-array cable's parent
+    feeder_of = pd.Series(np.flatnonzero(is_feed), index=from_id[is_feed])
     parent = np.full(n, -1, dtype=np.int64)
-    parent[s_idx] = array_of.reindex(to_id[s_idx]).fillna(-1).to_numpy(dtype=np.int64)
+    up = is_s | (kind == calc.KIND_SUBARRAY)
+    parent[up] = feeder_of.reindex(to_id[up]).fillna(-1).to_numpy(dtype=np.int64)
 
-    n_strings = np.where(is_s, 1, c["strings"].to_numpy(dtype=float))
-    if len(a_idx):
-        child = s_idx[parent[s_idx] >= 0]
-        par = parent[child]
-        sums = pd.DataFrame(
-            {
-                "p": par,
-                "isc": isc[child],
-                "imp": imp[child],
-                "vmp": vmp[child],
-                "fuse": max_fuse[child],
-            }
-        ).groupby("p")
-        agg = sums.agg({"isc": "mean", "imp": "mean", "vmp": "min", "fuse": "min"})
-        isc[agg.index], imp[agg.index] = agg["isc"].to_numpy(), agg["imp"].to_numpy()
-        vmp[agg.index], max_fuse[agg.index] = agg["vmp"].to_numpy(), agg["fuse"].to_numpy()
-        n_strings[agg.index] = sums.size().to_numpy()
+    # what each feeder carries: the strings below it, summed level by level from the strings
+    n_strings = np.where(is_s, 1.0, c["strings"].to_numpy(dtype=float))
+    sums = {"isc": np.where(is_s, isc, 0.0), "imp": np.where(is_s, imp, 0.0)}
+    count = is_s.astype(float)
+    low_vmp = np.where(is_s, vmp, np.inf)
+    low_fuse = np.where(is_s, np.nan_to_num(max_fuse, nan=np.inf), np.inf)
+    for step in _levels_up(parent, is_s):
+        j = parent[step]
+        for arr in (*sums.values(), count):
+            np.add.at(arr, j, arr[step])
+        np.minimum.at(low_vmp, j, low_vmp[step])
+        np.minimum.at(low_fuse, j, low_fuse[step])
+    carried = is_feed & (count > 0)
+    isc[carried] = sums["isc"][carried] / count[carried]
+    imp[carried] = sums["imp"][carried] / count[carried]
+    vmp[carried] = low_vmp[carried]
+    max_fuse[carried] = np.where(np.isinf(low_fuse), np.nan, low_fuse)[carried]
+    n_strings[carried] = count[carried]
+
+    # inverter inputs, the strings in parallel at each destination, each feeder's input group
+    own_input = inputs if inputs is not None else assign_inputs(site, c, imp * n_strings)
+    at = pd.DataFrame({"to": to_id[s_idx], "input": np.nan_to_num(own_input[s_idx], nan=0.0)})
+    n_par = np.ones(n)
+    n_par[s_idx] = at.groupby(["to", "input"])["to"].transform("size").to_numpy(dtype=float)
+    dc_group = _dc_groups(site, kind, parent, to_id, own_input)
 
     fuse_fixed = np.full(n, np.nan)
     comb_fuse = pd.Series(
@@ -194,7 +223,6 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
     fuse_fixed[s_idx] = comb_fuse.reindex(to_id[s_idx]).to_numpy(dtype=float)
 
     inv = site.inverters.set_index("id")
-    dc_group = _dc_inputs(site, from_id, to_id, is_a)
     ac_max = np.full(n, np.nan)
     ac_kva = np.full(n, np.nan)
     ac_v = np.full(n, np.nan)
@@ -210,7 +238,7 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
         ac_max[ac_idx] = rows["ac_max_a"].to_numpy(dtype=float)
 
     seg = routes.segments
-    return calc.SizingInput(
+    inp = calc.SizingInput(
         kind=kind,
         cable_m=c["cable_m"].to_numpy(dtype=float),
         air_m=(c["stub_m"] + c["row_run_m"]).to_numpy(dtype=float),
@@ -242,38 +270,46 @@ def sizing_input(site: Site, routes: RoutePlan) -> calc.SizingInput:
         air_inc_circuit=routes.air_incidence_circuit,
         air_inc_stretch=routes.air_incidence_stretch,
     )
+    return inp, own_input
 
 
-def _dc_inputs(site: Site, from_id: np.ndarray, to_id: np.ndarray, is_a: np.ndarray) -> np.ndarray:
-    """For each array circuit, an id of the inverter d.c. input it joins (the arrays of one id
-    are in parallel there: calc's ``dc_group``); −1 for other circuits.
+def _levels_up(parent: np.ndarray, is_string: np.ndarray) -> list[np.ndarray]:
+    """The circuits that pass their totals up, in steps: the strings first, then each level of
+    sub-array cables from the deepest (each step's totals are complete before it is taken)."""
+    depth = np.zeros(len(parent), dtype=np.int64)  # cables above each circuit
+    step = parent.copy()
+    has = step >= 0
+    while has.any():
+        depth[has] += 1
+        step[has] = parent[step[has]]
+        has = step >= 0
+    steps = [np.flatnonzero(is_string & (parent >= 0))]
+    feeders = ~is_string & (parent >= 0)
+    for d in sorted(set(depth[feeders].tolist()), reverse=True):
+        steps.append(np.flatnonzero(feeders & (depth == d)))
+    return steps
 
-    An inverter's ``dc_inputs`` (default 1: every array on one input) and a combiner's
-    ``input`` (1…dc_inputs) say which; a combiner feeding an inverter of several inputs must
-    name its input. Raises :class:`DesignError` naming each combiner that does not.
-    """
-    group = np.full(len(from_id), -1, dtype=np.int64)
-    a_idx = np.flatnonzero(is_a)
-    if not len(a_idx):
+
+def _dc_groups(
+    site: Site, kind: np.ndarray, parent: np.ndarray, to_id: np.ndarray, own_input: np.ndarray
+) -> np.ndarray:
+    """calc's ``dc_group`` of each feeder: an id of the inverter DC input its array cable lands
+    on (inverter position × (MAX_DC_INPUTS + 1) + input); −1 for other circuits."""
+    group = np.full(len(kind), -1, dtype=np.int64)
+    arrays = np.flatnonzero(kind == calc.KIND_ARRAY)
+    if not len(arrays):
         return group
-    inv_ids = site.inverters["id"].to_numpy(dtype=object)
-    pos = pd.Index(inv_ids).get_indexer(to_id[a_idx])
-    n_inputs = site.inverters["dc_inputs"].to_numpy(dtype=float)[pos]
-    comb = site.combiners.set_index("id")
-    given = comb["input"].reindex(from_id[a_idx]).to_numpy(dtype=float)
-    missing = np.isnan(given) & (n_inputs > 1)
-    beyond = ~np.isnan(given) & (given > n_inputs)
-    problems = []
-    for i in np.flatnonzero(missing | beyond).tolist():
-        cid, inv, k = from_id[a_idx][i], to_id[a_idx][i], int(n_inputs[i])
-        if missing[i]:
-            msg = f"inverter {inv!r} has {k} DC inputs: give the combiner's input (1–{k})"
-        else:
-            msg = f"input {given[i]:g}, but inverter {inv!r} has {k} DC input{'s' * (k != 1)}"
-        problems.append(Problem("combiners", str(cid), msg))
-    if problems:
-        raise DesignError(problems)
-    group[a_idx] = pos * (MAX_DC_INPUTS + 1) + np.where(np.isnan(given), 1, given).astype(np.int64)
+    pos = pd.Index(site.inverters["id"].to_numpy(dtype=object)).get_indexer(to_id[arrays])
+    number = np.nan_to_num(own_input[arrays], nan=1.0).astype(np.int64)
+    group[arrays] = pos * (MAX_DC_INPUTS + 1) + number
+    sub = kind == calc.KIND_SUBARRAY
+    top = np.where(sub, parent, -1)
+    while True:  # climb to the array cable
+        climb = (top >= 0) & (kind[np.clip(top, 0, None)] == calc.KIND_SUBARRAY)
+        if not climb.any():
+            break
+        top[climb] = parent[top[climb]]
+    group[sub] = np.where(top[sub] >= 0, group[np.clip(top[sub], 0, None)], -1)
     return group
 
 
@@ -363,7 +399,7 @@ def plan_site(
     t["route"] = time.perf_counter() - t0
     say("size")
     t0 = time.perf_counter()
-    inp = sizing_input(site, routes)
+    inp, own_input = sizing_input(site, routes)
     dp = design_params(design)
     rules = design.values["rules"]
     result = None
@@ -380,17 +416,32 @@ def plan_site(
     t["size"] = time.perf_counter() - t0
     say("tables")
     t0 = time.perf_counter()
-    circuits = circuit_table(routes, result, inp, design)
+    landing = landing_input(inp.parent, own_input)
+    inputs = input_table(
+        site,
+        routes.circuits,
+        own_input,
+        inp.imp_a * inp.n_strings,
+        np.asarray(result.isc_design_a),
+        inp.n_strings,
+    )
+    circuits = circuit_table(routes, result, inp, design, landing)
     segments = segment_table(routes, result)
     quantities = quantity_table(circuits, segments, design)
-    summary = summarise(site, design, circuits, segments, result)
+    summary = summarise(site, design, circuits, segments, result, inputs)
     summary["assigned"] = assigned_destinations(routes)
     t["tables"] = time.perf_counter() - t0
-    return Plan(site, design, routes, result, circuits, segments, quantities, summary, t, cache)
+    return Plan(
+        site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
+    )
 
 
 def circuit_table(
-    routes: RoutePlan, r: calc.SizingResult, inp: calc.SizingInput, design: DesignConfig
+    routes: RoutePlan,
+    r: calc.SizingResult,
+    inp: calc.SizingInput,
+    design: DesignConfig,
+    landing: np.ndarray | None = None,
 ) -> gpd.GeoDataFrame:
     """The cable schedule: contract columns first (see :mod:`routeplan.outputs.columns`)."""
     c = routes.circuits
@@ -457,6 +508,7 @@ def circuit_table(
             "array_fuse_a": r.array_fuse_a,
             "ac_breaker_a": r.ac_breaker_a,
             "protection": r.protection,
+            "input": np.full(len(c), np.nan) if landing is None else landing,
             "loss_pct": r.loss_pct,
             "energy_loss_kwh": r.energy_loss_kwh,
             "marking": r.marking,
@@ -497,6 +549,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "soil_k_m_w": s["soil_k_m_w"].to_numpy(),
             "group_factor": r.seg_group_factor,
             "cable_sets": sets,
+            "subarrays": s["subarrays"].to_numpy(),
         }
     )
     return gpd.GeoDataFrame(frame, geometry=s.geometry.values, crs=s.crs)
@@ -523,14 +576,22 @@ def quantity_table(
     breaker = "{:g} A " + design.values["ac_breaker_device"]
     devices = [
         _devices(c, "fuse_a", "string fuse", "string", 2.0, "{:g} A gPV"),
-        _devices(c, "array_fuse_a", "array fuse", "array", 2.0, "{:g} A gPV"),
+        _devices(
+            c[c["kind"] == "subarray"],
+            "array_fuse_a",
+            "sub-array fuse",
+            "subarray",
+            2.0,
+            "{:g} A gPV",
+        ),
+        _devices(c[c["kind"] == "array"], "array_fuse_a", "array fuse", "array", 2.0, "{:g} A gPV"),
         _devices(c, "ac_breaker_a", "AC breaker", "ac", 1.0, breaker),
     ]
     cols = ["item", "kind", "material", "size_mm2", "laying", "depth_m", "quantity", "unit"]
     out = pd.concat([cable, ends, trench, *devices], ignore_index=True).reindex(columns=cols)
-    order = {"cable": 0, "termination": 1, "trench": 2, "string fuse": 3, "array fuse": 4}
-    order["AC breaker"] = 5
-    kind_order = {"string": 0, "array": 1, "ac": 2}
+    order = {"cable": 0, "termination": 1, "trench": 2, "string fuse": 3, "sub-array fuse": 4}
+    order.update({"array fuse": 5, "AC breaker": 6})
+    kind_order = {"string": 0, "subarray": 1, "array": 2, "ac": 3}
     out = out.assign(_i=out["item"].map(order), _k=out["kind"].map(kind_order).fillna(9))
     out = out.sort_values(
         ["_i", "_k", "material", "size_mm2", "laying", "depth_m"], na_position="last"
@@ -578,9 +639,14 @@ def summarise(
     circuits: pd.DataFrame,
     segments: pd.DataFrame,
     r: calc.SizingResult,
+    inputs: pd.DataFrame | None = None,
 ) -> dict[str, Any]:
-    """The closing summary as plain data (also written as summary.json)."""
+    """The closing summary as plain data (also written as summary.json). Sub-array circuits
+    appear only in a plan that has some."""
     kinds = ["string", "array", "ac"]
+    if (circuits["kind"] == "subarray").any():
+        kinds.insert(1, "subarray")
+    inputs = pd.DataFrame(columns=INPUT_COLUMNS) if inputs is None else inputs
     why = calc.failure_causes(r)
     by_kind = {}
     for k in kinds:
@@ -606,11 +672,14 @@ def summarise(
         "tool": {"name": "routeplan", "version": __version__},
         "site": {"name": site.name, "crs": site.crs.to_string(), "crs_note": site.crs_note},
         "rules": design.values["rules"],
-        "ok": bool((circuits["status"] == "ok").all() and (segments["status"] == "ok").all()),
+        "ok": bool(
+            (circuits["status"] == "ok").all()
+            and (segments["status"] == "ok").all()
+            and (inputs["status"] == "ok").all()
+        ),
         "circuits": by_kind,
         "worst_vdrop_pct": {
-            "string": by_kind["string"]["worst_vdrop_pct"],
-            "array": by_kind["array"]["worst_vdrop_pct"],
+            **{k: by_kind[k]["worst_vdrop_pct"] for k in kinds if k != "ac"},
             "dc_total": _max(circuits.loc[dc, "vdrop_total_pct"]),
             "ac": by_kind["ac"]["worst_vdrop_pct"],
         },
@@ -619,6 +688,10 @@ def summarise(
             "count": len(segments),
             "over_capacity": int((segments["status"] == "over").sum()),
             "trench_m": float(segments["length_m"].sum()),
+        },
+        "inverter_inputs": {
+            "count": len(inputs),
+            "over_limit": int((inputs["status"] == "over").sum()),
         },
         "cable_m": [
             {"material": mat, "size_mm2": float(size), "metres": round(float(v), 2)}

@@ -456,7 +456,7 @@ class RoutePlan:
         0 without segments) and the route ``geometry`` (LineString, source to destination).
     segments : geopandas.GeoDataFrame
         One row per trench segment: ``segment_id``, ``trench_id``, ``length_m``,
-        ``circuits``, ``strings``, ``arrays``, ``ac`` (circuit counts by kind),
+        ``circuits``, ``strings``, ``arrays``, ``ac``, ``subarrays`` (circuit counts by kind),
         ``circuit_ids`` (';'-joined, sorted), ``depth_m``, ``laying``, ``spacing_m``,
         ``soil_k_m_w``, ``max_circuits``, ``fill`` (circuits / max_circuits, NaN without a
         limit), ``over_capacity``, ``node_u``, ``node_v``, ``start_m``, ``end_m``,
@@ -998,9 +998,10 @@ def _tables(
             "trench_id": seg["trench_id"].to_numpy(dtype=object),
             "length_m": seg["length_m"].to_numpy(float),
             "circuits": seg_count,
-            "strings": by_kind[0],
-            "arrays": by_kind[1],
-            "ac": by_kind[2],
+            "strings": by_kind[KINDS.index("string")],
+            "arrays": by_kind[KINDS.index("array")],
+            "ac": by_kind[KINDS.index("ac")],
+            "subarrays": by_kind[KINDS.index("subarray")],
             "circuit_ids": circuit_ids,
             **{k: seg[k].to_numpy() for k in TRENCH_ATTRIBUTES},
             "fill": fill,

@@ -166,8 +166,9 @@ class RuleSet(abc.ABC):
         """Design module short-circuit current with the bifacial rear-side gain [A]."""
 
     @abc.abstractmethod
-    def backfeed_a(self, isc_array_a, group) -> np.ndarray:
-        """Current the other arrays of the same inverter input feed into one array's fault [A]."""
+    def backfeed_a(self, isc_array_a, group, source=None) -> np.ndarray:
+        """Current the rest of an inverter input feeds into a fault on one array or sub-array
+        cable [A] (``source``: the cables making up the input's whole current)."""
 
     @abc.abstractmethod
     def array_fuse(self, isc_array_a, ratings_a=None):

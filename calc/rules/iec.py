@@ -158,8 +158,8 @@ class IecRules(RuleSet):
     def bifacial_isc_a(self, isc_a, bifaciality, rear_irradiance_ratio=None, isc_bifacial_a=np.nan):
         return protection.bifacial_isc_a(isc_a, bifaciality, rear_irradiance_ratio, isc_bifacial_a)
 
-    def backfeed_a(self, isc_array_a, group):
-        return protection.backfeed_a(isc_array_a, group)
+    def backfeed_a(self, isc_array_a, group, source=None):
+        return protection.backfeed_a(isc_array_a, group, source)
 
     def array_fuse(self, isc_array_a, ratings_a=None):
         return protection.array_fuse(isc_array_a, ratings_a)

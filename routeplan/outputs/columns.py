@@ -26,8 +26,11 @@ class Col:
 
 
 CIRCUIT_COLUMNS: tuple[Col, ...] = (
-    Col("circuit_id", doc="stable circuit id: <row>/S<k>, A:<combiner>, AC:<inverter>"),
-    Col("kind", doc="string, array or ac"),
+    Col(
+        "circuit_id",
+        doc="stable circuit id: <row>/S<k>, SA:<combiner>, A:<combiner>, AC:<inverter>",
+    ),
+    Col("kind", doc="string, subarray, array or ac"),
     Col("from_id", doc="source feature id"),
     Col("to_id", doc="destination feature id"),
     Col("material", doc="conductor material, Cu or Al"),
@@ -84,6 +87,7 @@ CIRCUIT_COLUMNS: tuple[Col, ...] = (
     Col("array_fuse_a", "A", 0, "array fuse rating; empty where none is needed"),
     Col("ac_breaker_a", "A", 0, "AC breaker rating In"),
     Col("protection", doc="which protection rule governed the cable"),
+    Col("input", doc="the inverter DC input the circuit's current lands on"),
     Col("loss_pct", "%", 3, "loss, % of the circuit's power"),
     Col("energy_loss_kwh", "kWh", 0, "annual energy-loss estimate (equivalent loss hours)"),
     Col("marking", doc="conductor identification colours"),
@@ -108,6 +112,22 @@ SEGMENT_COLUMNS: tuple[Col, ...] = (
     Col("soil_k_m_w", "K·m/W", 2, "soil thermal resistivity"),
     Col("group_factor", "", 3, "grouping factor in force for the segment's cable sets"),
     Col("cable_sets", doc="circuits counting each parallel set; used for grouping and fill"),
+    Col("subarrays", doc="sub-array circuits"),
+)
+
+INPUT_COLUMNS: tuple[Col, ...] = (
+    Col("inverter_id", doc="inverter feature id"),
+    Col("input", doc="DC input number, 1…dc_inputs"),
+    Col("strings", doc="strings whose current flows into the input (through arrays too)"),
+    Col("circuits", doc="circuits landing on the input (strings and array cables)"),
+    Col("imp_a", "A", 2, "Σ Imp of what lands on the input"),
+    Col("isc_a", "A", 2, "Σ design Isc (bifacial gain included)"),
+    Col("input_max_strings", doc="string terminals of the input; empty = not given"),
+    Col("input_max_a", "A", 1, "maximum operating input current; empty = not given"),
+    Col("input_max_isc_a", "A", 1, "maximum input short-circuit current; empty = not given"),
+    Col("status", doc="ok or over (a limit exceeded)"),
+    Col("note", doc="which limit is exceeded, by how much"),
+    Col("circuit_ids", doc="';'-separated circuit ids landing on the input"),
 )
 
 QUANTITY_COLUMNS: tuple[Col, ...] = (

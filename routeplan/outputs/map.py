@@ -91,6 +91,7 @@ LAYER_NAMES = {
     "segments": "Trench segments (fill)",
     "string": "String circuits",
     "string_grouped": "String circuits (one line per row)",
+    "subarray": "Sub-array circuits",
     "array": "Array circuits",
     "ac": "AC circuits",
     "equipment": "Combiners, inverters, grid point",
@@ -314,13 +315,15 @@ def render_map(
         scripts += s
         drawn += n["ok"] + n["over"]
 
-    # circuits by kind: strings (one per row and destination above the threshold), arrays, AC
+    # circuits by kind: strings (one per row and destination above the threshold), sub-arrays,
+    # arrays, AC
     circuit_ids = text_values(circuits, "circuit_id")
     from_ids = text_values(circuits, "from_id")
     for kind, label, css, mask in (
         ("string", "string_grouped" if aggregated else "string", "rp-string", kinds == "string"),
+        ("subarray", "subarray", "rp-array", kinds == "subarray"),
         ("array", "array", "rp-array", kinds == "array"),
-        ("ac", "ac", "rp-ac", ~np.isin(kinds, ("string", "array"))),
+        ("ac", "ac", "rp-ac", ~np.isin(kinds, ("string", "subarray", "array"))),
     ):
         pos = np.flatnonzero(mask & ok["circuits"])
         sub = circuits.iloc[pos]

@@ -47,7 +47,7 @@ SIMPLIFY_M = 0.1
 COORD_DECIMALS = 6
 
 #: Display name of each circuit kind.
-KIND_LABEL = {"string": "string", "array": "array", "ac": "AC circuit"}
+KIND_LABEL = {"string": "string", "subarray": "sub-array", "array": "array", "ac": "AC circuit"}
 #: Display name of each equipment kind.
 EQUIPMENT_LABEL = {"combiner": "combiner", "inverter": "inverter", "grid": "grid point"}
 

@@ -81,12 +81,13 @@ def plan_totals(circuits: pd.DataFrame, segments: pd.DataFrame, over: np.ndarray
 
     total = num("vdrop_total_pct")
     own = num("vdrop_pct")
-    dc = np.isin(kinds, ("string", "array"))
+    dc = np.isin(kinds, ("string", "subarray", "array"))
     ac = kinds == "ac"
     dc_drop, dc_id = _worst(total[dc], ids[dc])
     ac_drop, ac_id = _worst(np.where(np.isnan(total), own, total)[ac], ids[ac])
     cable = num("cable_m")
-    order = ["string", "array", "ac", *sorted(set(kinds) - {"string", "array", "ac"})]
+    known = ["string", "subarray", "array", "ac"]
+    order = [*known, *sorted(set(kinds) - set(known))]
     by_kind = {k: int((kinds == k).sum()) for k in order if (kinds == k).any()}
     cable_by_kind = {k: float(np.nansum(cable[kinds == k])) for k in by_kind}
     seg_len = (
@@ -109,7 +110,7 @@ def plan_totals(circuits: pd.DataFrame, segments: pd.DataFrame, over: np.ndarray
     )
 
 
-_KIND = {"string": "string", "array": "array", "ac": "AC"}
+_KIND = {"string": "string", "subarray": "sub-array", "array": "array", "ac": "AC"}
 
 CSS = """
 .rp-box{position:absolute;z-index:1001;max-width:300px;overflow:auto;

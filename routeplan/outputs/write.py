@@ -33,7 +33,7 @@ from ..cache import (
 )
 from ..folder import OutputFolder
 from ..pipeline import Plan
-from .columns import CIRCUIT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
+from .columns import CIRCUIT_COLUMNS, INPUT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
 from .schedules import Previous, Schedule, write_csv, write_workbook
 
@@ -41,13 +41,19 @@ FILES: tuple[str, ...] = (
     "cable_schedule.csv",
     "trench_schedule.csv",
     "quantities.csv",
+    "inverter_inputs.csv",
     "routes.gpkg",
     "cable_schedule.xlsx",
     "summary.json",
     "map.html",
 )
 #: the CSV files, in the order of :func:`schedules`
-CSV_FILES: tuple[str, ...] = ("cable_schedule.csv", "trench_schedule.csv", "quantities.csv")
+CSV_FILES: tuple[str, ...] = (
+    "cable_schedule.csv",
+    "trench_schedule.csv",
+    "quantities.csv",
+    "inverter_inputs.csv",
+)
 
 
 def schedules(plan: Plan, hashes: dict[str, np.ndarray] | None = None) -> dict[str, Schedule]:
@@ -58,6 +64,7 @@ def schedules(plan: Plan, hashes: dict[str, np.ndarray] | None = None) -> dict[s
         "circuits": Schedule.of(plan.circuits, CIRCUIT_COLUMNS, hashes.get("circuits")),
         "trenches": Schedule.of(plan.segments, SEGMENT_COLUMNS, hashes.get("segments")),
         "quantities": Schedule.of(plan.quantities, QUANTITY_COLUMNS),
+        "inputs": Schedule.of(plan.inputs, INPUT_COLUMNS),
     }
 
 

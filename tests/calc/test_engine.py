@@ -92,7 +92,8 @@ def test_small_site_result_is_consistent():
     assert_allclose(r.design_current_a[:2], 1.25 * 13.0)
     assert r.insulation[0] == "PV" and r.material[3] == "Cu"
     # losses: I²R at operating current; totals per kind
-    assert_allclose(r.total_loss_w, [r.loss_w[:2].sum(), r.loss_w[2], r.loss_w[3]])
+    # per kind code (string, array, ac, subarray): this site has no sub-array
+    assert_allclose(r.total_loss_w, [r.loss_w[:2].sum(), r.loss_w[2], r.loss_w[3], 0.0])
     assert_allclose(r.energy_loss_kwh, r.loss_w * 1000.0 / 1000.0)
     assert r.seg_count_final.tolist() == [4.0]
     assert "L1 brown" in r.marking[3] and "L+" in r.marking[0]

@@ -251,7 +251,7 @@ def test_backfeed_inputs_are_checked():
     assert str(e.value) == "isc_array_a must be finite and >= 0; got nan at index 1"
     with pytest.raises(InputError) as e:
         backfeed_a([96.0, 96.0], [1])
-    assert str(e.value) == "isc_array_a and group must be 1-D arrays of one length"
+    assert str(e.value) == "isc_array_a, group and source must be 1-D arrays of one length"
 
 
 # --------------------------------------------------------------------------------------------

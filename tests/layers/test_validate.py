@@ -174,7 +174,7 @@ def test_to_points_at_wrong_kind(tmp_path):
     frames = base_frames()
     frames["combiners"].loc[0, "to"] = "T1"  # a trench, not an inverter
     msgs = problems_of(write(tmp_path, frames))
-    assert "combiners 'CB1': to = 'T1' is a trench; expected an inverter" in msgs
+    assert "combiners 'CB1': to = 'T1' is a trench; expected a combiner or inverter" in msgs
 
 
 def test_combiner_over_max_strings(tmp_path):

@@ -17,7 +17,7 @@ from typer.testing import CliRunner
 
 from routeplan.cli import app
 from routeplan.diff import diff_outputs
-from routeplan.outputs.columns import CIRCUIT_COLUMNS
+from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
 
 from ..conftest import base_frames, write_site
 from .test_text_safety import hostile_frames, hostile_toml
@@ -192,7 +192,8 @@ DAMAGE = {
     ),
     "blank line inside": (
         lambda f: (f / TRENCH).write_bytes((f / TRENCH).read_bytes().replace(b"\n", b"\n\n", 2)),
-        f"{TRENCH}: line 2: 0 fields where the header has 17 (truncated or not a schedule)",
+        f"{TRENCH}: line 2: 0 fields where the header has {len(SEGMENT_COLUMNS)} (truncated or "
+        "not a schedule)",
     ),
     "damaged summary": (
         write_bytes("summary.json", b'{"circuits": '),

@@ -111,7 +111,7 @@ def test_workbook_reopens_with_typed_numbers(demo_out):
     from openpyxl import load_workbook
 
     wb = load_workbook(demo_out / "cable_schedule.xlsx")
-    assert wb.sheetnames[:4] == ["circuits", "trenches", "quantities", "summary"]
+    assert wb.sheetnames[:5] == ["circuits", "trenches", "quantities", "inputs", "summary"]
     ws = wb["circuits"]
     header = [c.value for c in ws[1]]
     assert header[0] == "circuit_id" and "route_m [m]" in header and "vdrop_pct [%]" in header

@@ -253,25 +253,28 @@ def test_two_of_three_arrays_on_one_input(tmp_path):
     assert c.loc[["A:CB1", "A:CB2", "A:CB3"], "array_fuse_a"].isna().all()
 
 
-@pytest.mark.parametrize(
-    ("dc_inputs", "inputs", "message"),
-    [
-        (
-            3,
-            None,
-            "combiners 'CB1': inverter 'INV1' has 3 DC inputs: give the combiner's input (1–3)",
-        ),
-        (2, (1, 2, 3), "combiners 'CB3': input 3, but inverter 'INV1' has 2 DC inputs"),
-    ],
-)  # fmt: skip
-def test_a_combiner_must_name_its_input(tmp_path, dc_inputs, inputs, message):
+def test_an_input_beyond_the_inverters_inputs_is_refused(tmp_path):
     site = write_site(
-        tmp_path / "site", frames(dc_inputs=dc_inputs, inputs=inputs), toml=TOML.format(extra="")
+        tmp_path / "site", frames(dc_inputs=2, inputs=(1, 2, 3)), toml=TOML.format(extra="")
     )
     result = runner.invoke(app, ["plan", str(site), "--out", str(tmp_path / "out")])
     assert result.exit_code == 2
-    assert f"error: {message}" in result.stderr.splitlines()
+    assert "error: combiners 'CB3': input 3, but inverter 'INV1' has 2 DC inputs" in (
+        result.stderr.splitlines()
+    )
     assert not (tmp_path / "out").exists()
+
+
+def test_arrays_without_an_input_are_spread_nearest_first(tmp_path):
+    """Three arrays, three inputs, none named: nearest first (CB3 at 50 m from the inverter,
+    CB2 at 90 m, CB1 at 130 m), each to the least-loaded input (ties: the lower number) — so
+    each input takes one array, which is then alone there (no backfeed)."""
+    c, _ = plan(tmp_path, dc_inputs=3)
+    a = c.loc[["A:CB3", "A:CB2", "A:CB1"]]
+    assert a["input"].tolist() == [1.0, 2.0, 3.0]
+    assert (a["backfeed_a"] == 0).all()
+    # the strings land, through their array cable, on its input
+    assert c.loc["R1/S1", "input"] == 3.0
 
 
 def test_ac_breaker_from_the_inverters_maximum_current(tmp_path):

@@ -117,7 +117,7 @@ HOSTILE = {
     "G1": "'=G\ufffe1",
 }
 SITE_NAME = "Site \x01=1+2 \x1b[2J"
-SHEETS = ["circuits", "trenches", "quantities", "summary", "caution"]
+SHEETS = ["circuits", "trenches", "quantities", "inputs", "summary", "caution"]
 
 
 def hostile_frames() -> dict:

@@ -1,0 +1,230 @@
+"""Inverter DC inputs: which input each string and array cable lands on, and each input's load.
+
+An inverter has ``dc_inputs`` independent DC inputs (MPPT inputs of a string inverter, DC
+busbars of a central one; default 1). A circuit that ends at an inverter — a string of a row
+whose ``to`` is the inverter, or the array cable of a combiner — lands on one of them:
+
+- the one its row or combiner names (attribute ``input``, 1…``dc_inputs``);
+- otherwise, with one input, that one;
+- otherwise spread by this rule (documented in the README): the inverter's unassigned
+  circuits are taken nearest first (by route length, then in circuit order), and each goes to
+  the input that carries the least operating current so far (Σ Imp; ties: the lower number)
+  among those with a free string terminal (``input_max_strings``, strings only; unset = no
+  limit). A row's strings may thus land on different inputs.
+
+What lands on one input is in parallel there: the strings of an input are the ones the IEC
+62548 string-protection rule counts, and the array cables of an input feed each other's faults
+(:mod:`calc.protection`). Sub-array cables and the strings of a combiner land, through their
+array cable, on its input; :func:`landing_input` gives every DC circuit's.
+
+Each input is checked against the inverter's ratings where given (:func:`input_table`):
+strings landing on it ≤ ``input_max_strings``, Σ Imp ≤ ``input_max_a`` (maximum operating
+input current) and Σ Isc (design, bifacial gain included) ≤ ``input_max_isc_a`` (maximum input
+short-circuit current, the equipment rating).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from layers.errors import Problem
+from layers.model import Site
+
+from .errors import DesignError
+
+__all__ = ["INPUT_COLUMNS", "assign_inputs", "input_table", "landing_input"]
+
+#: columns of :func:`input_table`
+INPUT_COLUMNS: tuple[str, ...] = (
+    "inverter_id",
+    "input",
+    "strings",
+    "circuits",
+    "imp_a",
+    "isc_a",
+    "input_max_strings",
+    "input_max_a",
+    "input_max_isc_a",
+    "status",
+    "note",
+    "circuit_ids",
+)
+
+
+def assign_inputs(site: Site, circuits: pd.DataFrame, imp_a: np.ndarray) -> np.ndarray:
+    """The inverter input of every circuit that ends at an inverter (NaN for the others).
+
+    Parameters
+    ----------
+    site : layers.model.Site
+    circuits : pandas.DataFrame
+        The route plan's circuits (``kind``, ``from_id``, ``to_layer``, ``to_id``,
+        ``route_m``, ``strings``), in circuit order.
+    imp_a : numpy.ndarray
+        Each circuit's operating current [A] (a string's Imp; an array cable's Σ Imp), for
+        balancing.
+
+    Raises
+    ------
+    routeplan.errors.DesignError
+        An ``input`` beyond the inverter's ``dc_inputs``, an ``input`` on a row that does not
+        end at an inverter, or an inverter whose inputs have no free terminal left for a
+        string; every such problem at once.
+    """
+    n = len(circuits)
+    out = np.full(n, np.nan)
+    kind = circuits["kind"].to_numpy(dtype=object)
+    lands = (circuits["to_layer"] == "inverters").to_numpy() & np.isin(kind, ("string", "array"))
+    inv = site.inverters.set_index("id")
+    from_id = circuits["from_id"].to_numpy(dtype=object)
+    to_id = circuits["to_id"].to_numpy(dtype=object)
+    problems: list[Problem] = []
+
+    given = np.full(n, np.nan)
+    for layer, k in (("rows", "string"), ("combiners", "array")):
+        frame = site.layer(layer)
+        if "input" not in frame.columns or not len(frame):
+            continue
+        named = pd.Series(frame["input"].to_numpy(dtype=float), index=frame["id"].to_numpy())
+        sel = np.flatnonzero(kind == k)
+        given[sel] = named.reindex(from_id[sel]).to_numpy(dtype=float)
+    if "input" in site.rows.columns and len(site.rows):
+        off = site.rows[site.rows["input"].notna()]
+        ends = set(from_id[lands & (kind == "string")])
+        for rid in off["id"]:
+            if rid not in ends:
+                msg = "input is for rows whose strings end at an inverter (its `to` is not one)"
+                problems.append(Problem("rows", str(rid), msg))
+    n_inputs = inv["dc_inputs"].reindex(to_id[lands]).to_numpy(dtype=float)
+    n_in = np.full(n, np.nan)
+    n_in[lands] = n_inputs
+    beyond = lands & ~np.isnan(given) & (given > n_in)
+    for i in np.flatnonzero(beyond).tolist():
+        layer = "rows" if kind[i] == "string" else "combiners"
+        k = int(n_in[i])
+        problems.append(
+            Problem(
+                layer,
+                str(from_id[i]),
+                f"input {given[i]:g}, but inverter {to_id[i]!r} has {k} DC input{'s' * (k != 1)}",
+            )
+        )
+    if problems:
+        raise DesignError(_unique(problems))
+    out[lands] = np.where(
+        np.isnan(given[lands]), np.where(n_inputs == 1, 1.0, np.nan), given[lands]
+    )
+
+    todo = lands & np.isnan(out)
+    if todo.any():
+        route = circuits["route_m"].to_numpy(dtype=float)
+        is_string = kind == "string"
+        for inverter in pd.unique(to_id[todo]):
+            on = lands & (to_id == inverter)
+            k = int(inv.at[inverter, "dc_inputs"])
+            room = float(inv.at[inverter, "input_max_strings"])
+            load = np.zeros(k + 1)  # Σ Imp per input (index 1…k)
+            used = np.zeros(k + 1)  # string terminals per input
+            fixed = on & ~np.isnan(out)
+            np.add.at(load, out[fixed].astype(int), imp_a[fixed])
+            np.add.at(used, out[fixed & is_string].astype(int), 1.0)
+            free = np.flatnonzero(on & np.isnan(out))
+            for i in free[np.lexsort((free, route[free]))].tolist():
+                ok = np.arange(k + 1) >= 1
+                if is_string[i] and np.isfinite(room):
+                    ok &= used + 1 <= room
+                if not ok.any():
+                    problems.append(
+                        Problem(
+                            "inverters",
+                            str(inverter),
+                            "no DC input has a free string terminal for "
+                            f"{circuits['circuit_id'].iloc[i]} ({k} inputs × input_max_strings "
+                            f"{room:g})",
+                        )
+                    )
+                    break
+                j = int(np.flatnonzero(ok)[np.argmin(load[ok])])
+                out[i] = j
+                load[j] += imp_a[i]
+                used[j] += is_string[i]
+    if problems:
+        raise DesignError(problems)
+    return out
+
+
+def landing_input(parent: np.ndarray, own: np.ndarray) -> np.ndarray:
+    """Every DC circuit's inverter input: its own (``own``, for circuits that end at an
+    inverter), else its parent's, up the combiner tree (``parent``: the index of the cable a
+    string or sub-array cable feeds, −1 for none). NaN where none (a.c. circuits)."""
+    out = own.astype(float).copy()
+    for _ in range(len(out)):
+        todo = np.isnan(out) & (parent >= 0)
+        todo &= ~np.isnan(out[np.clip(parent, 0, None)])
+        if not todo.any():
+            break
+        out[todo] = out[parent[todo]]
+    return out
+
+
+def input_table(
+    site: Site,
+    circuits: pd.DataFrame,
+    own_input: np.ndarray,
+    imp_a: np.ndarray,
+    isc_a: np.ndarray,
+    n_strings: np.ndarray,
+) -> pd.DataFrame:
+    """One row per inverter DC input that something lands on (:data:`INPUT_COLUMNS`).
+
+    ``own_input``: :func:`assign_inputs`; ``imp_a``, ``isc_a``: each circuit's Σ Imp and Σ
+    design Isc (bifacial gain included) [A]; ``n_strings``: strings each circuit carries.
+    ``strings`` counts the strings whose current flows into the input (through arrays too);
+    ``input_max_strings`` is compared with the strings landing on the input's own terminals.
+    """
+    lands = ~np.isnan(own_input)
+    kind = circuits["kind"].to_numpy(dtype=object)
+    frame = pd.DataFrame(
+        {
+            "inverter_id": circuits["to_id"].to_numpy(dtype=object)[lands],
+            "input": own_input[lands].astype(np.int64),
+            "strings": n_strings[lands],
+            "terminals": (kind[lands] == "string").astype(np.int64),
+            "imp_a": imp_a[lands],
+            "isc_a": isc_a[lands],
+            "circuit_id": circuits["circuit_id"].to_numpy(dtype=object)[lands],
+        }
+    )
+    if frame.empty:
+        return pd.DataFrame(columns=list(INPUT_COLUMNS))
+    g = frame.groupby(["inverter_id", "input"], sort=False)
+    t = g.agg(
+        strings=("strings", "sum"),
+        circuits=("circuit_id", "size"),
+        terminals=("terminals", "sum"),
+        imp_a=("imp_a", "sum"),
+        isc_a=("isc_a", "sum"),
+        circuit_ids=("circuit_id", lambda ids: ";".join(sorted(ids))),
+    ).reset_index()
+    inv = site.inverters.set_index("id")
+    for col in ("input_max_strings", "input_max_a", "input_max_isc_a"):
+        t[col] = inv[col].reindex(t["inverter_id"]).to_numpy(dtype=float)
+    over = [
+        (t["terminals"] > t["input_max_strings"], "strings", "terminals", "input_max_strings"),
+        (t["imp_a"] > t["input_max_a"] * (1 + 1e-9), "Σ Imp", "imp_a", "input_max_a"),
+        (t["isc_a"] > t["input_max_isc_a"] * (1 + 1e-9), "Σ Isc", "isc_a", "input_max_isc_a"),
+    ]
+    note = np.full(len(t), "", dtype=object)
+    for mask, what, col, limit in over:
+        for i in np.flatnonzero(mask.to_numpy()).tolist():
+            text = f"{what} {t[col].iloc[i]:g} exceeds {limit} {t[limit].iloc[i]:g}"
+            note[i] = f"{note[i]}; {text}" if note[i] else text
+    t["status"] = np.where(note == "", "ok", "over")
+    t["note"] = note
+    t = t.sort_values(["inverter_id", "input"], kind="stable").reset_index(drop=True)
+    return t[list(INPUT_COLUMNS)]
+
+
+def _unique(problems: list[Problem]) -> list[Problem]:
+    return list(dict.fromkeys(problems))
