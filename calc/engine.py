@@ -49,6 +49,7 @@ import numpy as np
 from calc.errors import ConvergenceError, InputError, check_option
 from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_CONVENTIONS, conductor_marking
+from calc.pv import voc_max_v
 from calc.resistance import r_at_temp_ohm_km
 from calc.rules import RuleSet, get_rules
 from calc.tables import load_table
@@ -107,6 +108,10 @@ class SizingInput:
         of its strings' design Isc; these two fields of an array apply only to an array given
         without its strings.)
     vmp_v : *DC* string Vmp (module Vmp × modules in series) [V].
+    voc_v : *DC* string Voc at STC (module Voc × modules in series) [V]; NaN = not checked.
+        Default NaN. (A feeder's is taken from its strings.)
+    voc_coeff_pct_per_c : *DC* temperature coefficient of the module's Voc [%/°C] (negative);
+        NaN = not given (the rule set's factor for missing data applies). Default NaN.
     n_strings : *DC* strings carried (1 for a string, N for an array). Default 1.
     strings_in_parallel : *DC* strings paralleled without an overcurrent device at the string's
         destination (IEC 62548 S). Default 1.
@@ -156,6 +161,8 @@ class SizingInput:
     pf: np.ndarray | None = None
     bifaciality: np.ndarray | None = None
     isc_bifacial_a: np.ndarray | None = None
+    voc_v: np.ndarray | None = None
+    voc_coeff_pct_per_c: np.ndarray | None = None
     dc_group: np.ndarray | None = None
     ac_max_a: np.ndarray | None = None
     seg_depth_m: np.ndarray | None = None
@@ -228,6 +235,10 @@ class DesignParams:
         (iec: "iec60947-2" moulded-case, the default, or "iec60898-1"); ac_breaker_ratings_a: the
         project's ratings [A] within that kind's list; None = the whole list.
     frequency_hz : a.c. frequency [Hz] for the skin and proximity effect; 50 by default.
+    min_ambient_c : lowest expected ambient (= module) temperature [°C] for the maximum d.c.
+        voltage; −10 °C by default (common practice: set the site's record low).
+    dc_rated_v : rated d.c. voltage of the cables and equipment [V] the strings' maximum Voc is
+        checked against; 1500 by default (the usual PV system voltage class, common practice).
     """
 
     ground_temp_c: float = 20.0
@@ -266,6 +277,8 @@ class DesignParams:
     ac_breaker_device: str = "iec60947-2"
     ac_breaker_ratings_a: tuple[float, ...] | None = None
     frequency_hz: float = 50.0
+    min_ambient_c: float = -10.0
+    dc_rated_v: float = 1500.0
 
 
 @dataclass
@@ -280,15 +293,18 @@ class SizingResult:
     factor_depth, factor_group, group_count (circuits incl. parallel sets, 0 in air) at the
     governing environment; conductor_temp_c used for R; vdrop_v, vdrop_pct (own circuit),
     vdrop_limit_pct
-    (budget applied), vdrop_total_pct (string: own + its array; array: own + its worst string; a.c.:
+    (budget applied), vdrop_total_pct (the worst path from a string to the inverter through the
+    circuit: a string's own + its feeders'; a feeder's own + the worst below and above it; a.c.:
     own); loss_w, loss_pct (of circuit power at operating point), energy_loss_kwh (estimate);
     sc_min_mm2 (adiabatic minimum, nan if not checked); fuse_required, fuse_a (string fuses);
-    isc_design_a (d.c.: the Isc the design currents use — a string's module Isc, an array's total,
-    bifacial gain included); backfeed_a (arrays: current the other arrays of the input can feed
-    into it); array_fuse_a (nan where none); ac_ib_a (a.c. design current Ib), ac_breaker_a (In);
-    protection (which rule governed, text); governing_air (the air stretch that governs, −1 if none
-    or not air); ok; note (reason or assumption, "" if none) and marking (conductor identification)
-    as object arrays of str.
+    isc_design_a (d.c.: the Isc the design currents use — a string's module Isc, a feeder's total,
+    bifacial gain included); voc_max_v (d.c.: the highest open-circuit voltage, at the lowest
+    expected temperature; a feeder's: the highest of its strings', nan where not given);
+    backfeed_a (array and sub-array cables: current the rest of the inverter input can feed into
+    it); array_fuse_a (array or sub-array fuse, nan where none); ac_ib_a (a.c. design current
+    Ib), ac_breaker_a (In); protection (which rule governed, text); governing_air (the air
+    stretch that governs, −1 if none or not air); ok; note (reason or assumption, "" if none) and
+    marking (conductor identification) as object arrays of str.
 
     Per segment: seg_soil_factor, seg_depth_factor, seg_group_factor (in force with the final
     counts), seg_count_final (routing count incl. extra parallel sets). Per air stretch:
@@ -326,6 +342,7 @@ class SizingResult:
     fuse_required: np.ndarray
     fuse_a: np.ndarray
     isc_design_a: np.ndarray
+    voc_max_v: np.ndarray
     backfeed_a: np.ndarray
     array_fuse_a: np.ndarray
     ac_ib_a: np.ndarray
@@ -387,6 +404,8 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
         ("pf", np.nan),
         ("bifaciality", np.nan),
         ("isc_bifacial_a", np.nan),
+        ("voc_v", np.nan),
+        ("voc_coeff_pct_per_c", np.nan),
         ("ac_max_a", np.nan),
     ):
         a[name] = _arr(getattr(inp, name), n, default)
@@ -1171,6 +1190,29 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     }
 
 
+def _voc_max(a: dict, design: DesignParams) -> np.ndarray:
+    """Each d.c. circuit's highest open-circuit voltage [V] (:func:`calc.pv.voc_max_v`): a
+    string's at ``min_ambient_c``; a feeder's, the highest of the strings below it."""
+    kind, par, level = a["kind"], a["parent"], a["level"]
+    out = np.full(kind.size, np.nan)
+    s = kind == KIND_STRING
+    out[s] = voc_max_v(a["voc_v"][s], a["voc_coeff_pct_per_c"][s], design.min_ambient_c)
+    given = np.isin(kind, FEEDER_KINDS)
+    out[given] = voc_max_v(
+        a["voc_v"][given], a["voc_coeff_pct_per_c"][given], design.min_ambient_c
+    )  # a feeder given without its strings
+    top = np.full(kind.size, -np.inf)
+    child = s & (par >= 0)
+    np.fmax.at(top, par[child], out[child])
+    for lv in range(int(level.max(initial=0)), 0, -1):
+        up = (kind == KIND_SUBARRAY) & (level == lv)
+        merged = np.fmax(top[up], out[up])
+        np.fmax.at(top, par[up], merged)
+    has = np.isfinite(top)
+    out[has] = np.fmax(top[has], np.nan_to_num(out[has], nan=-np.inf))
+    return out
+
+
 def _input_of(a: dict, feed: np.ndarray) -> np.ndarray:
     """The inverter input of each feeder in ``feed``: its array cable's ``dc_group``, or, where
     that is −1 (alone on its input), an id of that array cable alone (negative, unique)."""
@@ -1323,8 +1365,20 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     arr_check = _check(is_arr, lambda i: rs.array_cable_check(iz[i], bf[i], arr_fuse[i]))
     ac_check = _check(is_ac, lambda i: rs.overload_check(c["ib"][i], b_in[i], iz[i], b_i2[i]))
     prot_ok = np.where(is_str, prot.ok, np.where(is_ac, c["breaker_ok"], True))
+    voc_max = _voc_max(a, design)
+    over_voltage = voc_max > design.dc_rated_v * (1.0 + _EPS)
+    prot_ok &= ~over_voltage
     ok = ~(fail_cap | fail_vd | fail_sc | fail_path) & prot_ok & arr_check[0] & ac_check[0]
     notes = np.where(is_str, prot.note, "").astype(object)
+    _add_notes(
+        notes,
+        over_voltage,
+        lambda i: (
+            f"Voc {voc_max[i]:.0f} V at {design.min_ambient_c:g} °C exceeds the rated "
+            f"{design.dc_rated_v:g} V (IEC 62548)"
+        ),
+        (voc_max,),
+    )
     no_breaker = is_ac & ~c["breaker_ok"]
     _add_notes(
         notes,
@@ -1413,6 +1467,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         fuse_required=fuse_required,
         fuse_a=fuse_a,
         isc_design_a=c["isc_design"],
+        voc_max_v=voc_max,
         backfeed_a=np.where(is_arr, c["i_backfeed"], np.nan),
         array_fuse_a=arr_fuse,
         ac_ib_a=c["ib"],

@@ -46,6 +46,7 @@ __all__ = [
     "pv_rule",
     "string_design_current_a",
     "string_protection",
+    "voc_max_v",
 ]
 
 _RULES = "iec62548_2016_pv_dc_rules.csv"
@@ -257,3 +258,37 @@ def array_design_current_a(isc_a: ArrayLike, n_strings: ArrayLike) -> np.ndarray
     array([200.])
     """
     return pv_rule("isc_factor") * np.asarray(isc_a, float) * np.asarray(n_strings, float)
+
+
+def voc_max_v(
+    voc_v: ArrayLike, voc_coeff_pct_per_c: ArrayLike, min_temp_c: float, stc_temp_c: float = 25.0
+) -> np.ndarray:
+    """Highest open-circuit voltage of a string [V]: at the lowest expected module temperature.
+
+    IEC 62548:2016 (from memory): V_OC corrected to the lowest expected module temperature with
+    the maker's temperature coefficient, V_OC,max = V_OC STC · (1 + β/100 · (T_min − 25 °C))
+    (β < 0 %/°C, so a cold module gives a higher voltage); where no coefficient is given
+    (NaN), V_OC,max = 1.2 · V_OC STC for crystalline silicon (``voc_factor_no_data``, from
+    memory). The lowest module temperature is taken as the lowest expected ambient (a module
+    at dawn is at ambient temperature).
+
+    Parameters
+    ----------
+    voc_v : array_like
+        String open-circuit voltage at STC (module V_OC × modules in series) [V].
+    voc_coeff_pct_per_c : array_like
+        Temperature coefficient of V_OC, β [%/°C] (negative); NaN = not given.
+    min_temp_c : float
+        Lowest expected module (ambient) temperature [°C].
+    stc_temp_c : float
+        The temperature of the datasheet values [°C] (STC 25 °C).
+
+    Examples
+    --------
+    >>> voc_max_v([1000.0, 1000.0], [-0.3, np.nan], -10.0)  # 35 K below STC: +10.5 %; +20 %
+    array([1105., 1200.])
+    """
+    voc = np.asarray(voc_v, dtype=float)
+    beta = np.asarray(voc_coeff_pct_per_c, dtype=float)
+    corrected = voc * (1.0 + beta / 100.0 * (float(min_temp_c) - stc_temp_c))
+    return np.where(np.isnan(beta), pv_rule("voc_factor_no_data") * voc, corrected)

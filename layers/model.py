@@ -28,7 +28,8 @@ class Module:
     modules in series in one string. ``max_fuse_a`` is the module's maximum series fuse
     rating (NaN when not given). ``bifaciality`` is the bifaciality of Isc, φ (rear over
     front; NaN = not given, a monofacial module) and ``isc_bifacial_a`` a datasheet Isc that
-    includes the rear side's gain (NaN = not given).
+    includes the rear side's gain (NaN = not given). ``voc_temp_coeff_pct_per_c`` is the
+    temperature coefficient of Voc [%/°C] (negative; NaN = not given).
     """
 
     key: str
@@ -40,6 +41,7 @@ class Module:
     max_fuse_a: float = float("nan")
     bifaciality: float = float("nan")
     isc_bifacial_a: float = float("nan")
+    voc_temp_coeff_pct_per_c: float = float("nan")
     extra: dict[str, Any] = field(default_factory=dict)
 
 

@@ -163,10 +163,21 @@ MODULE_KEYS_REQUIRED: tuple[str, ...] = ("isc_a", "imp_a", "voc_v", "vmp_v", "pe
 #: carries: ``max_fuse_a`` (the module's maximum series fuse rating, ``Module.max_fuse_a``)
 #: and ``pmax_w`` (rated power at STC, W; ``Module.extra``, read by ``routeplan check`` for
 #: the DC capacity). A new optional key is added here; one that may be ≤ 0 needs its own rule.
-MODULE_KEYS_OPTIONAL: tuple[str, ...] = ("max_fuse_a", "pmax_w", "bifaciality", "isc_bifacial_a")
+MODULE_KEYS_OPTIONAL: tuple[str, ...] = (
+    "max_fuse_a",
+    "pmax_w",
+    "bifaciality",
+    "isc_bifacial_a",
+    "voc_temp_coeff_pct_per_c",
+)
 #: optional module keys allowed to be 0, with their inclusive range (others must be > 0):
 #: ``bifaciality`` is the rear-to-front ratio of Isc, φ (0 = monofacial, IEC TS 60904-1-2)
-MODULE_KEY_RANGES: dict[str, tuple[float, float]] = {"bifaciality": (0.0, 1.0)}
+MODULE_KEY_RANGES: dict[str, tuple[float, float]] = {
+    "bifaciality": (0.0, 1.0),
+    # temperature coefficient of Voc, %/°C: negative for every PV technology (a datasheet value
+    # of crystalline silicon is about −0.25 to −0.35; −1 is far beyond any)
+    "voc_temp_coeff_pct_per_c": (-1.0, 0.0),
+}
 #: module keys that are whole numbers (a whole float such as 27.0 is taken as 27)
 MODULE_KEYS_INT: tuple[str, ...] = ("per_string",)
 
@@ -398,7 +409,7 @@ def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Probl
                 )
             )
         if all(k in values for k in MODULE_KEYS_REQUIRED):
-            own = ("max_fuse_a", "bifaciality", "isc_bifacial_a")
+            own = ("max_fuse_a", "bifaciality", "isc_bifacial_a", "voc_temp_coeff_pct_per_c")
             extra = {k: values[k] for k in MODULE_KEYS_OPTIONAL if k not in own and k in values}
             modules[str(key)] = Module(
                 key=str(key),
@@ -410,6 +421,7 @@ def parse_modules(config: dict[str, Any]) -> tuple[dict[str, Module], list[Probl
                 max_fuse_a=values.get("max_fuse_a", math.nan),
                 bifaciality=values.get("bifaciality", math.nan),
                 isc_bifacial_a=values.get("isc_bifacial_a", math.nan),
+                voc_temp_coeff_pct_per_c=values.get("voc_temp_coeff_pct_per_c", math.nan),
                 extra=extra,
             )
     return modules, problems

@@ -143,6 +143,21 @@ DESIGN_KEYS: tuple[Key, ...] = (
         note="AC circuit-breaker kind: 'iec60947-2' (moulded-case) or 'iec60898-1' (≤ 125 A)",
     ),
     Key(
+        "min_ambient_c",
+        -10.0,
+        -60.0,
+        30.0,
+        note="lowest expected ambient (= module) temperature for the strings' maximum Voc "
+        "(common practice: the site's record low)",
+    ),
+    Key(
+        "dc_rated_v",
+        1500.0,
+        100.0,
+        2000.0,
+        note="rated DC voltage of cables and equipment the maximum Voc is checked against",
+    ),
+    Key(
         "frequency_hz",
         50.0,
         0.0,

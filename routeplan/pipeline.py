@@ -136,6 +136,8 @@ def design_params(design: DesignConfig) -> calc.DesignParams:
         rear_irradiance_ratio=v["rear_irradiance_ratio"],
         ac_breaker_device=v["ac_breaker_device"],
         frequency_hz=v["frequency_hz"],
+        min_ambient_c=v["min_ambient_c"],
+        dc_rated_v=v["dc_rated_v"],
     )
 
 
@@ -174,6 +176,8 @@ def sizing_input(
             "fuse": {k: m.max_fuse_a for k, m in site.modules.items()},
             "phi": {k: m.bifaciality for k, m in site.modules.items()},
             "isc_bif": {k: m.isc_bifacial_a for k, m in site.modules.items()},
+            "voc": {k: m.voc_v * m.per_string for k, m in site.modules.items()},
+            "beta": {k: m.voc_temp_coeff_pct_per_c for k, m in site.modules.items()},
         }
     )
     module_of = pd.Series(site.rows["module"].to_numpy(), index=site.rows["id"].to_numpy())
@@ -183,6 +187,8 @@ def sizing_input(
     vmp[s_idx], max_fuse[s_idx] = per_string["vmp"].to_numpy(), per_string["fuse"].to_numpy()
     phi, isc_bif = np.full(n, np.nan), np.full(n, np.nan)
     phi[s_idx], isc_bif[s_idx] = per_string["phi"].to_numpy(), per_string["isc_bif"].to_numpy()
+    voc, beta = np.full(n, np.nan), np.full(n, np.nan)
+    voc[s_idx], beta[s_idx] = per_string["voc"].to_numpy(), per_string["beta"].to_numpy()
 
     # the combiner tree: each combiner's cable; a string's and a sub-array cable's parent
     feeder_of = pd.Series(np.flatnonzero(is_feed), index=from_id[is_feed])
@@ -252,6 +258,8 @@ def sizing_input(
         fuse_a=fuse_fixed,
         bifaciality=phi,
         isc_bifacial_a=isc_bif,
+        voc_v=voc,
+        voc_coeff_pct_per_c=beta,
         dc_group=dc_group,
         ac_kva=ac_kva,
         ac_v=ac_v,
@@ -504,6 +512,7 @@ def circuit_table(
             "group_count": r.group_count,
             "fuse_a": np.where(r.fuse_required, r.fuse_a, np.nan),
             "isc_design_a": r.isc_design_a,
+            "voc_max_v": r.voc_max_v,
             "backfeed_a": r.backfeed_a,
             "array_fuse_a": r.array_fuse_a,
             "ac_breaker_a": r.ac_breaker_a,

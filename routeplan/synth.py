@@ -146,6 +146,7 @@ MODULE_TYPES: dict[str, dict[str, float | int]] = {
         "vmp_v": 42.3,
         "per_string": 27,
         "max_fuse_a": 25.0,
+        "voc_temp_coeff_pct_per_c": -0.25,
     },
     "m600": {
         "pmax_w": 600.0,
@@ -155,6 +156,7 @@ MODULE_TYPES: dict[str, dict[str, float | int]] = {
         "vmp_v": 44.1,
         "per_string": 26,
         "max_fuse_a": 30.0,
+        "voc_temp_coeff_pct_per_c": -0.26,
     },
 }
 #: module outline [m] (length, width) per module type; invented, typical sizes.
@@ -195,6 +197,7 @@ DESIGN: dict[str, Any] = {
     "snap_m": 30.0,
     "power_factor": 1.0,
     "max_parallel": 12,  # central-inverter LV links: many parallel sets (typical)
+    "min_ambient_c": -5.0,  # the invented site's record low (strings stay below 1500 V Voc)
     "material": {"string": "Cu", "array": "Al", "ac": "Al"},
     "drop_pct": {"string": 1.0, "array": 1.5, "dc_total": 2.0, "ac": 1.0},
     # feeders at an inverter skid run on cable ladders, one layer, not bunched (typical)

@@ -24,6 +24,7 @@ voc_v = 49.5
 vmp_v = 41.2
 per_string = 26
 max_fuse_a = 25
+voc_temp_coeff_pct_per_c = -0.28
 
 [design]
 snap_m = 20.0

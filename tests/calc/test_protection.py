@@ -76,7 +76,7 @@ def test_bifacial_irradiance_file():
 def test_rules_file_has_the_array_fuse_bounds():
     # IEC 62548:2016 (from memory): 1.25 · I_SC ≤ In ≤ 2.4 · I_SC of the sub-array / array
     t = load_table("iec62548_2016_pv_dc_rules.csv")
-    assert len(t) == 7  # the factors and the unfused-strings assumption
+    assert len(t) == 8  # the factors, the unfused-strings assumption, the Voc factor
     row = t.where(name="array_fuse_max_x_isc")
     assert t["value"][row].tolist() == [2.4] and t["tag"][row].tolist() == ["memory"]
 

@@ -105,7 +105,13 @@ def test_whole_float_per_string_is_taken_as_an_integer():
 
 
 def test_optional_module_keys_are_numbers_in_extra():
-    assert MODULE_KEYS_OPTIONAL == ("max_fuse_a", "pmax_w", "bifaciality", "isc_bifacial_a")
+    assert MODULE_KEYS_OPTIONAL == (
+        "max_fuse_a",
+        "pmax_w",
+        "bifaciality",
+        "isc_bifacial_a",
+        "voc_temp_coeff_pct_per_c",
+    )
     toml = SITE_TOML.replace("max_fuse_a = 25", 'max_fuse_a = 25\npmax_w = "0.535 kW"')
     module = layers.build_site(base_frames(), tomllib.loads(toml)).modules["mod1"]
     assert module.extra == {"pmax_w": 535.0}  # kilo = 1e3 (SI Brochure 9th ed., Table 7)

@@ -61,7 +61,14 @@ def _frame(name: str, features: Iterable[Mapping[str, Any]], crs: Any) -> gpd.Ge
 CONFIG: dict[str, Any] = {
     "site": {"name": "invented"},
     "modules": {
-        "M1": {"isc_a": 10.0, "imp_a": 9.5, "voc_v": 45.0, "vmp_v": 38.0, "per_string": 28}
+        "M1": {
+            "isc_a": 10.0,
+            "imp_a": 9.5,
+            "voc_v": 45.0,
+            "vmp_v": 38.0,
+            "per_string": 28,
+            "voc_temp_coeff_pct_per_c": -0.3,
+        }
     },
 }
 

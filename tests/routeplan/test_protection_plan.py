@@ -71,6 +71,7 @@ vmp_v = 41.2
 per_string = 26
 max_fuse_a = 25
 bifaciality = {PHI}
+voc_temp_coeff_pct_per_c = -0.28
 
 [design]
 ground_temp_c = 20
