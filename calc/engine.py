@@ -419,8 +419,9 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
 
     dc = kind != KIND_AC
     ac = ~dc
-    if np.any((kind < 0) | (kind > 2)):
-        problems.append(f"kind must be 0, 1 or 2 at circuits {_where((kind < 0) | (kind > 2))}")
+    bad = (kind < 0) | (kind >= len(KIND_NAMES))
+    if np.any(bad):
+        problems.append(f"kind must be 0, 1, 2 or 3 at circuits {_where(bad)}")
     for name, mask in (("cable_m", np.ones(n, bool)), ("air_m", np.ones(n, bool))):
         bad = mask & ~(a[name] >= 0)
         if np.any(bad):

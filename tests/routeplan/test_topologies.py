@@ -1,0 +1,291 @@
+"""DC topologies end to end: string combiners feeding a sub-array combiner (recombiner), and
+string inverters with several DC inputs — on small hand-built sites whose routes, counts and
+currents are computed here (Pythagoras along straight trenches, the IEC 62548 rules written out,
+from memory where so marked).
+
+Both sites (invented) lie on one straight trench along x; every piece of equipment stands on the
+trench (no stub), and each row is a line at right angles above its destination, so the routes
+are plain differences of x.
+"""
+
+from __future__ import annotations
+
+import geopandas as gpd
+import pandas as pd
+import pytest
+from shapely.geometry import LineString, Point
+from typer.testing import CliRunner
+
+from routeplan.cli import app
+from tests.conftest import E0, N0, UTM33, write_site
+
+runner = CliRunner()
+
+ISC, IMP, PHI = 13.0, 12.3, 0.8
+BNPI = 135.0 / 1000.0  # IEC 61215-1 bifacial nameplate irradiance, rear/front
+K_ISC = 1.25  # IEC 62548:2016 (from memory)
+ISC_DESIGN = ISC * (1 + PHI * BNPI)
+SLACK, TERMINATION = 3.0, 1.0  # the site's [allowances]
+ROW_LEN, ROW_RUN_FACTOR = 24.0, 0.5
+
+TOML = f"""
+[site]
+name = "Topology test site"
+
+[modules.m1]
+isc_a = {ISC}
+imp_a = {IMP}
+voc_v = 49.5
+vmp_v = 41.2
+per_string = 26
+max_fuse_a = 25
+bifaciality = {PHI}
+voc_temp_coeff_pct_per_c = -0.28
+
+[design]
+ground_temp_c = 20
+soil_k_m_w = 2.5
+depth_m = 0.7
+power_factor = 1.0
+{{extra}}
+
+[design.material]
+string = "Cu"
+subarray = "Cu"
+array = "Cu"
+ac = "Cu"
+
+[allowances]
+slack_pct = {SLACK}
+termination_m = {TERMINATION}
+row_run_factor = {ROW_RUN_FACTOR}
+"""
+
+
+def xy(x: float, y: float) -> tuple[float, float]:
+    return (E0 + x, N0 + y)
+
+
+def layers(rows, combiners, inverters) -> dict[str, gpd.GeoDataFrame]:
+    """Frames from (id, x, attributes) tuples; rows stand above x, 6–30 m off the trench."""
+
+    def frame(items, geom):
+        data = [{"id": fid, **attrs} for fid, _, attrs in items]
+        return gpd.GeoDataFrame(
+            pd.DataFrame(data), geometry=[geom(x) for _, x, _ in items], crs=UTM33
+        )
+
+    return {
+        "rows": frame(rows, lambda x: LineString([xy(x, 6), xy(x, 6 + ROW_LEN)])),
+        "combiners": frame(combiners, lambda x: Point(xy(x, 0))),
+        "inverters": frame(inverters, lambda x: Point(xy(x, 0))),
+        "trenches": gpd.GeoDataFrame(
+            {"id": ["T1"]}, geometry=[LineString([xy(0, 0), xy(300, 0)])], crs=UTM33
+        ),
+        "grid": gpd.GeoDataFrame({"id": ["G1"]}, geometry=[Point(xy(300, 0))], crs=UTM33),
+    }
+
+
+def plan(tmp_path, frames, extra: str = "", code: tuple[int, ...] = (0,)):
+    site = write_site(tmp_path / "site", frames, toml=TOML.format(extra=extra))
+    out = tmp_path / "out"
+    result = runner.invoke(app, ["plan", str(site), "--out", str(out), "--quiet"])
+    assert result.exit_code in code, result.output
+    read = lambda name: pd.read_csv(out / name, keep_default_na=False, na_values=[""])  # noqa: E731
+    return (
+        read("cable_schedule.csv").set_index("circuit_id"),
+        read("inverter_inputs.csv"),
+        read("trench_schedule.csv"),
+    )
+
+
+INVERTER = {"ac_kva": 250.0, "ac_v": 800.0, "phases": 3, "to": "G1"}
+
+
+# -- sub-array combiners ---------------------------------------------------------------------
+
+
+def recombiner_site() -> dict[str, gpd.GeoDataFrame]:
+    """Two string combiners (CB1 at x = 20, CB2 at 60), each with one row of 4 strings above
+    it, feed the recombiner RC1 at x = 100, which feeds the inverter at x = 150."""
+    return layers(
+        rows=[
+            ("R1", 20, {"strings": 4, "module": "m1", "to": "CB1"}),
+            ("R2", 60, {"strings": 4, "module": "m1", "to": "CB2"}),
+        ],
+        combiners=[
+            ("CB1", 20, {"to": "RC1"}),
+            ("CB2", 60, {"to": "RC1"}),
+            ("RC1", 100, {"to": "INV1"}),
+        ],
+        inverters=[("INV1", 150, INVERTER)],
+    )
+
+
+def test_sub_array_cables_routes_and_kinds(tmp_path):
+    c, _, t = plan(tmp_path, recombiner_site())
+    assert c.loc["SA:CB1", "kind"] == c.loc["SA:CB2", "kind"] == "subarray"
+    assert c.loc["A:RC1", "kind"] == "array" and "A:CB1" not in c.index
+    # routes along the trench: |Δx|, no stub
+    for cid, route in (("SA:CB1", 80.0), ("SA:CB2", 40.0), ("A:RC1", 50.0), ("AC:INV1", 150.0)):
+        assert c.loc[cid, "route_m"] == pytest.approx(route, abs=0.005)
+        cable = route * (1 + SLACK / 100) + 2 * TERMINATION  # README, Method: lengths
+        assert c.loc[cid, "cable_m"] == pytest.approx(cable, abs=0.005)
+    # a string: its stub (6 m, the row's near end to the trench) + the run along its row
+    string_cable = 6.0 * (1 + SLACK / 100) + 2 * TERMINATION + ROW_RUN_FACTOR * ROW_LEN
+    assert c.loc["R1/S1", "cable_m"] == pytest.approx(string_cable, abs=0.005)
+    # the trench between x = 60 and 100 carries both sub-array cables (counted by kind)
+    both = t[
+        t["circuit_ids"].fillna("").str.contains("SA:CB1") & t["circuit_ids"].str.contains("SA:CB2")
+    ]
+    assert len(both) >= 1 and (both["subarrays"] == 2).all() and (both["arrays"] == 0).all()
+
+
+def test_sub_array_currents_backfeed_and_drop_path(tmp_path):
+    c, inputs, _ = plan(tmp_path, recombiner_site())
+    assert (c["status"] == "ok").all(), c.loc[c["status"] != "ok", "note"]
+    sa, a = c.loc["SA:CB1"], c.loc["A:RC1"]
+    assert sa["isc_design_a"] == pytest.approx(4 * ISC_DESIGN, abs=0.005)
+    assert a["isc_design_a"] == pytest.approx(8 * ISC_DESIGN, abs=0.005)
+    # IEC 62548 (from memory): a feeder carries 1.25 × the Isc of the strings below it; the rest
+    # of the input (the other sub-array, 4 strings) can feed a fault on SA:CB1; the array cable
+    # is alone on its inverter input
+    assert sa["backfeed_a"] == pytest.approx(K_ISC * 4 * ISC_DESIGN, abs=0.05)
+    assert a["backfeed_a"] == 0.0
+    assert sa["design_current_a"] >= K_ISC * 4 * ISC_DESIGN - 0.005
+    assert sa["ampacity_a"] >= sa["design_current_a"]
+    # the drop along a string's path: string + sub-array + array, within dc_total (2 %)
+    path = c.loc["R1/S1", "vdrop_pct"] + sa["vdrop_pct"] + a["vdrop_pct"]
+    assert c.loc["R1/S1", "vdrop_total_pct"] == pytest.approx(path, abs=0.002)
+    assert (c.loc[c["kind"] == "string", "vdrop_total_pct"] <= 2.0 + 1e-9).all()
+    # every DC circuit lands on the inverter's only input
+    assert set(c.loc[c["kind"] != "ac", "input"]) == {1.0}
+    assert inputs[["inverter_id", "input", "strings", "circuits"]].values.tolist() == [
+        ["INV1", 1, 8, 1]
+    ]
+
+
+def test_a_tight_total_drop_is_shared_along_the_path(tmp_path):
+    """dc_total 1.2 %: every string's path (string + sub-array + array) stays within it."""
+    extra = "[design.drop_pct]\nstring = 0.6\nsubarray = 0.6\narray = 0.6\ndc_total = 1.2"
+    c, _, _ = plan(tmp_path, recombiner_site(), extra=extra, code=(0, 1))
+    s = c[c["kind"] == "string"]
+    assert (s.loc[s["status"] == "ok", "vdrop_total_pct"] <= 1.2 + 1e-6).all()
+    for cid in ("SA:CB1", "SA:CB2", "A:RC1"):
+        assert c.loc[cid, "vdrop_pct"] <= 0.6 + 1e-6
+
+
+@pytest.mark.parametrize(
+    ("combiners", "rows_to", "message"),
+    [
+        (
+            [("CB1", 20, {"to": "CB2"}), ("CB2", 60, {"to": "CB1"})],
+            ("CB1", "CB2"),
+            "combiners 'CB1': `to` makes a cycle of combiners: CB1 → CB2 → CB1",
+        ),
+        (
+            [("CB1", 20, {"to": "CB2"}), ("CB2", 60, {"to": "INV1"})],
+            ("CB1", "CB2"),
+            "combiners 'CB2': joins both strings (rows R2) and other combiners (CB1); a combiner "
+            "collects either strings or sub-arrays",
+        ),
+        (
+            [
+                ("CB1", 20, {"to": "CB2"}),
+                ("CB2", 60, {"to": "CB3"}),
+                ("CB3", 100, {"to": "CB4"}),
+                ("CB4", 140, {"to": "INV1"}),
+            ],
+            ("CB1", "CB1"),
+            "combiners 'CB1': 4 combiners in a row (CB1 → CB2 → CB3 → CB4); at most 3 are planned",
+        ),
+    ],
+)
+def test_combiner_trees_that_are_refused(tmp_path, combiners, rows_to, message):
+    frames = layers(
+        rows=[
+            ("R1", 20, {"strings": 2, "module": "m1", "to": rows_to[0]}),
+            ("R2", 60, {"strings": 2, "module": "m1", "to": rows_to[1]}),
+        ],
+        combiners=combiners,
+        inverters=[("INV1", 200, INVERTER)],
+    )
+    site = write_site(tmp_path / "site", frames, toml=TOML.format(extra=""))
+    result = runner.invoke(app, ["check", str(site)])
+    assert result.exit_code == 2
+    assert f"error: {message}" in result.stderr.splitlines()
+
+
+def test_rows_are_never_assigned_to_a_recombiner(tmp_path):
+    """A row without `to` goes to the nearest string combiner, not to a sub-array combiner even
+    when that one is nearer."""
+    frames = recombiner_site()
+    frames["rows"].loc[1, "to"] = None  # R2 at x = 60 … RC1 at 100, CB2 at 60, CB1 at 20
+    frames["rows"].loc[1, "geometry"] = LineString([xy(95, 6), xy(95, 30)])  # next to RC1
+    c, _, _ = plan(tmp_path, frames)
+    assert c.loc["R2/S1", "to_id"] == "CB2"  # 35 m away; RC1 (5 m) takes no strings
+
+
+# -- string inverters with several DC inputs ---------------------------------------------------
+
+
+def string_inverter_site(**inverter) -> dict[str, gpd.GeoDataFrame]:
+    """Three rows of 2 strings straight to INV1 (3 DC inputs) at x = 100: R1 at x = 90 names
+    input 1; R2 at x = 70 and R3 at x = 40 name none."""
+    return layers(
+        rows=[
+            ("R1", 90, {"strings": 2, "module": "m1", "to": "INV1", "input": 1}),
+            ("R2", 70, {"strings": 2, "module": "m1", "to": "INV1"}),
+            ("R3", 40, {"strings": 2, "module": "m1", "to": "INV1"}),
+        ],
+        combiners=[],
+        inverters=[("INV1", 100, {**INVERTER, "dc_inputs": 3, **inverter})],
+    )
+
+
+def test_strings_spread_over_the_inputs_nearest_first(tmp_path):
+    """R1's strings on input 1 (named); then nearest first (R2's at 30 m + stub, R3's at 60 m),
+    each to the input with the least Σ Imp so far (ties: the lower number): R2/S1 → 2,
+    R2/S2 → 3, R3/S1 → 2, R3/S2 → 3 (input 1 already carries 2 × Imp)."""
+    c, inputs, _ = plan(tmp_path, string_inverter_site(input_max_strings=4))
+    got = {
+        cid: c.loc[cid, "input"] for cid in ("R1/S1", "R1/S2", "R2/S1", "R2/S2", "R3/S1", "R3/S2")
+    }
+    assert got == {"R1/S1": 1, "R1/S2": 1, "R2/S1": 2, "R2/S2": 3, "R3/S1": 2, "R3/S2": 3}
+    t = inputs.set_index("input")
+    assert t["strings"].tolist() == [2, 2, 2]
+    assert t["imp_a"].to_numpy() == pytest.approx([2 * IMP] * 3, abs=0.005)
+    assert t["isc_a"].to_numpy() == pytest.approx([2 * ISC_DESIGN] * 3, abs=0.005)
+    # 2 strings in parallel on an input: (2 − 1) × 1.25 × Isc = 18 A ≤ 25 A module maximum fuse
+    # (IEC 62548, from memory): no string fuse
+    assert c.loc[c["kind"] == "string", "fuse_a"].isna().all()
+    assert set(c.loc[c["kind"] == "string", "protection"]) == {
+        "no string fuse needed; 2 string(s) in parallel"
+    }
+
+
+def test_an_input_over_its_ratings_fails_the_plan(tmp_path):
+    """input_max_isc_a 25 A against 2 × 14.404 A = 28.8 A of design Isc on every input; the
+    plan exits 1 and the inputs table says which limit, by how much."""
+    c, inputs, _ = plan(
+        tmp_path, string_inverter_site(input_max_isc_a=25.0, input_max_a=30.0), code=(1,)
+    )
+    assert (inputs["status"] == "over").all()
+    assert inputs.loc[0, "note"] == f"Σ Isc {2 * ISC_DESIGN:g} exceeds input_max_isc_a 25"
+    assert (c["status"] == "ok").all()  # the cables are fine; the inverter's inputs are not
+
+
+def test_no_free_terminal_and_an_input_beyond_dc_inputs(tmp_path):
+    frames = string_inverter_site(input_max_strings=1)
+    site = write_site(tmp_path / "site", frames, toml=TOML.format(extra=""))
+    result = runner.invoke(app, ["plan", str(site), "--out", str(tmp_path / "out")])
+    assert result.exit_code == 2
+    assert "no DC input has a free string terminal for" in result.stderr
+    frames = string_inverter_site()
+    frames["rows"].loc[0, "input"] = 4
+    site = write_site(tmp_path / "site2", frames, toml=TOML.format(extra=""))
+    result = runner.invoke(app, ["plan", str(site), "--out", str(tmp_path / "out2")])
+    assert result.exit_code == 2
+    assert "error: rows 'R1': input 4, but inverter 'INV1' has 3 DC inputs" in (
+        result.stderr.splitlines()
+    )
