@@ -41,7 +41,7 @@ CIRCUIT_FIELDS: tuple[str, ...] = (
     "vdrop_total_pct",
     "status",
 )
-SEGMENT_FIELDS: tuple[str, ...] = ("circuits", "strings", "arrays", "ac", "status")
+SEGMENT_FIELDS: tuple[str, ...] = ("circuits", "strings", "subarrays", "arrays", "ac", "status")
 QUANTITY_KEYS: tuple[str, ...] = (
     "item",
     "kind",
@@ -62,6 +62,7 @@ NUMBER_FIELDS: frozenset[str] = frozenset(
         "vdrop_total_pct",
         "circuits",
         "strings",
+        "subarrays",
         "arrays",
         "ac",
         "depth_m",

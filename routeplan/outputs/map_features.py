@@ -767,10 +767,11 @@ def segment_values(
     return t, over, ref
 
 
-def _circuits_text(total, s, a, c) -> str:
+def _circuits_text(total, s, sa, a, c) -> str:
     head = MISSING if np.isnan(total) else f"{total:g}"
-    parts = [f"{lab} {v:g}" for lab, v in (("strings", s), ("arrays", a), ("AC", c))
-             if not np.isnan(v)]  # fmt: skip
+    kinds = (("strings", s), ("sub-arrays", sa), ("arrays", a), ("AC", c))
+    # sub-arrays only where the plan has them (a zero is noise on a plant without)
+    parts = [f"{lab} {v:g}" for lab, v in kinds if not np.isnan(v) and (v or lab != "sub-arrays")]
     if parts:
         head += " (" + ", ".join(parts) + ")"
     return head
@@ -792,8 +793,8 @@ def _ids_text(ids: str, limit: int = 8) -> str:
 def segment_props(df: pd.DataFrame, t: np.ndarray, over: np.ndarray) -> Props:
     """Escaped, formatted tooltip fields of trench segments (``SEGMENT_FIELDS``)."""
     circuits = per_distinct(
-        _circuits_text, _num(df, "circuits"), _num(df, "strings"), _num(df, "arrays"),
-        _num(df, "ac"),
+        _circuits_text, _num(df, "circuits"), _num(df, "strings"), _num(df, "subarrays"),
+        _num(df, "arrays"), _num(df, "ac"),
     )  # fmt: skip
     cap = _num(df, "max_circuits")
     has_cap = ~np.isnan(cap) & (cap > 0)

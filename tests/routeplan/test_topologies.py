@@ -216,6 +216,51 @@ def test_combiner_trees_that_are_refused(tmp_path, combiners, rows_to, message):
     assert f"error: {message}" in result.stderr.splitlines()
 
 
+def test_a_combiner_feeding_a_row_is_refused(tmp_path):
+    frames = recombiner_site()
+    frames["combiners"].loc[2, "to"] = "R1"
+    site = write_site(tmp_path / "site", frames, toml=TOML.format(extra=""))
+    result = runner.invoke(app, ["check", str(site)])
+    assert result.exit_code == 2
+    assert "error: combiners 'RC1': to = 'R1' is a row; expected a combiner or inverter" in (
+        result.stderr.splitlines()
+    )
+
+
+def test_sub_array_cables_on_the_map_and_in_diff(tmp_path):
+    """The map's trench tooltip counts sub-array cables; `diff` after moving the recombiner 20 m
+    along the trench and taking CB2 straight to the inverter: CB2's sub-array cable removed,
+    its array cable added, the moved ends' routes changed (|Δx|), the trench counts by kind."""
+    plan(tmp_path / "a", recombiner_site())
+    html = (tmp_path / "a" / "out" / "map.html").read_text(encoding="utf-8")
+    assert '"2 (strings 0, sub-arrays 2, arrays 0, AC 0)"' in html
+    edited = recombiner_site()
+    edited["combiners"].loc[2, "geometry"] = Point(xy(120, 0))
+    edited["combiners"].loc[1, "to"] = "INV1"
+    plan(tmp_path / "b", edited)
+    out = tmp_path / "changes"
+    result = runner.invoke(
+        app, ["diff", str(tmp_path / "a" / "out"), str(tmp_path / "b" / "out"), "--out", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    ch = pd.read_csv(out / "changes.csv", keep_default_na=False)
+    circuits = ch[ch["section"] == "circuit"]
+    assert set(circuits.loc[circuits["change"] == "removed", "id"]) == {"SA:CB2"}
+    assert set(circuits.loc[circuits["change"] == "added", "id"]) == {"A:CB2"}
+    route = circuits[circuits["field"] == "route_m"]
+    rows = route[["id", "old", "new"]].itertuples(index=False)
+    moves = {i: (float(o), float(n)) for i, o, n in rows}
+    assert moves == {
+        "SA:CB1": pytest.approx((80.0, 100.0), abs=0.005),
+        "A:RC1": pytest.approx((50.0, 30.0), abs=0.005),
+    }
+    # the stretch from CB2 (x = 60) towards the recombiner: two sub-array cables before,
+    # one sub-array and one array cable after
+    seg = ch[ch["section"] == "segment"].set_index(["id", "field"])
+    assert (seg.loc[("T1#3", "subarrays"), ["old", "new"]].tolist()) == ["2", "1"]
+    assert (seg.loc[("T1#3", "arrays"), ["old", "new"]].tolist()) == ["0", "1"]
+
+
 def test_rows_are_never_assigned_to_a_recombiner(tmp_path):
     """A row without `to` goes to the nearest string combiner, not to a sub-array combiner even
     when that one is nearer."""
