@@ -113,14 +113,14 @@ def elements(page: str) -> tuple[list, int]:
     return parser.tags, parser.comments
 
 
-def shown_texts(page: str) -> set[str]:
+def data_strings(page: str) -> list[str]:
     """Every string of the page's embedded layer data (``JSON.parse('…')``, decoded with the
-    json module) and of its panel, as a browser shows it (``html.unescape``)."""
-    found: set[str] = set()
+    json module): what the page's script puts into tooltips and labels as HTML."""
+    found: list[str] = []
 
     def walk(value) -> None:
         if isinstance(value, str):
-            found.add(html.unescape(value))
+            found.append(value)
         elif isinstance(value, dict):
             for v in value.values():
                 walk(v)
@@ -130,8 +130,14 @@ def shown_texts(page: str) -> set[str]:
 
     for m in re.finditer(r"JSON\.parse\('(.*?)'\)", page, re.S):
         walk(json.loads(m.group(1).replace("\\'", "'").replace("\\\\", "\\")))
-    for m in re.finditer(r">([^<>]+)<", page):  # the panel's text between tags
-        found.add(html.unescape(m.group(1)))
+    return found
+
+
+def shown_texts(page: str) -> set[str]:
+    """The texts of the layer data and of the panel (between tags), as a browser shows them
+    (``html.unescape``)."""
+    found = {html.unescape(t) for t in data_strings(page)}
+    found |= {html.unescape(m.group(1)) for m in re.finditer(r">([^<>]+)<", page)}
     return found
 
 
@@ -144,6 +150,12 @@ def test_the_map_has_the_plain_pages_elements_and_shows_the_text(planned):
         assert raw not in page, raw
     for raw in ("<img", "<svg", "<b>", "</textarea>", "</script>", "<!--"):
         assert page.count(raw) == plain.count(raw), raw  # only Leaflet's and the legend's
+    # the layer data is HTML with every markup character as a character reference (WHATWG
+    # HTML: "<" opens a tag, "&" a reference; the template-literal characters ` $ { } \ too)
+    strings = data_strings(page)
+    assert any(HOSTILE["T2"] in html.unescape(t) for t in strings)
+    for text in strings:
+        assert not set(text) & set("<>`${}\\"), text
     shown = shown_texts(page)
     # every hostile text is shown as text somewhere: ids alone or within labels
     for raw in (*HOSTILE.values(), MODULE):
