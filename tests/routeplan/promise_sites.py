@@ -48,7 +48,7 @@ isc_a = 13.0
 imp_a = 12.3
 voc_v = 49.5
 vmp_v = 41.2
-per_string = 26
+per_string = 25  # 25 × 49.5 V × 1.2 (cold Voc, no coefficient; from memory) ≤ 1500 V
 max_fuse_a = 25
 
 [design.drop_pct]
@@ -170,7 +170,7 @@ isc_a = 13.0
 imp_a = 12.3
 voc_v = 49.5
 vmp_v = 41.2
-per_string = 26
+per_string = 25  # 25 × 49.5 V × 1.2 (cold Voc, no coefficient; from memory) ≤ 1500 V
 max_fuse_a = 25
 
 [modules.mb]
