@@ -420,6 +420,8 @@ def diff(
     except DiffError as exc:
         err.print(f"error: {exc}", markup=False)
         raise typer.Exit(2) from None
+    except FolderError as exc:  # changes.csv could not all be put in place
+        _fail_input(exc)
     except OSError as exc:
         _fail_os(exc, out_dir or Path("."))
     finally:

@@ -423,8 +423,19 @@ class OutputFolder:
             fh.flush()
             os.fsync(fh.fileno())
         os.replace(part, work / COMMIT)  # the run is committed from here on
-        _finish(self.real, work)
+        # From here the work folder is the commit's: a failure while it is carried out leaves
+        # it, as a kill would, for the next command to finish (closing must not remove it).
         self._work = None
+        try:
+            _finish(self.real, work)
+        except OSError as exc:
+            what = exc.strerror or str(exc)
+            name = Path(exc.filename).name if exc.filename else "a file"
+            raise FolderError(
+                self.path,
+                f"the new files could not all be put in place ({name}: {what}); the run is "
+                "recorded there, and the next routeplan command on this folder completes it",
+            ) from None
         self.committed = manifest
         return manifest
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import doctest
 import json
 import re
 import warnings
@@ -17,7 +16,6 @@ from branca.colormap import _schemes
 
 from routeplan.outputs import map as rpmap
 from routeplan.outputs import (
-    map_elements,
     map_features,
     map_panel,
     map_scales,
@@ -510,13 +508,6 @@ def test_features_without_geometry_are_counted_not_drawn(plan_frames):
     assert "1 features without geometry are not drawn" in html
     rows_fc = next(fc for fc in layer_data(html) if fc["class"] == "rp-row")
     assert len(rows_fc["features"]) == 3
-
-
-@pytest.mark.parametrize("module", [map_scales, map_text, map_elements, map_script, rpmap])
-def test_docstring_examples(module):
-    # routeplan is not in pytest's doctest paths; run the map modules' examples here
-    result = doctest.testmod(module, optionflags=doctest.ELLIPSIS)
-    assert result.failed == 0
 
 
 def test_empty_plan_renders():

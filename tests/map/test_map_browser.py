@@ -24,7 +24,6 @@ from .map_fixtures import HOSTILE, expected_counts, make_frames, write_output_fo
 
 pytestmark = pytest.mark.browser
 
-ARTIFACTS = Path(__file__).resolve().parents[2] / "tests" / "artifacts"
 CHROMIUM_ARGS = [
     "--headless",
     "--no-sandbox",  # tests run as root
@@ -147,6 +146,13 @@ class Page:
 
 
 @pytest.fixture(scope="module")
+def screenshots(tmp_path_factory) -> Path:
+    """Where the screenshots go: pytest's temporary folder (kept for the last few runs,
+    e.g. /tmp/pytest-of-<user>/pytest-current/screenshots0), never the source tree."""
+    return tmp_path_factory.mktemp("screenshots")
+
+
+@pytest.fixture(scope="module")
 def demo_html(tmp_path_factory) -> Path:
     """map.html of the demo plan's output folder (written once for the module)."""
     frames, site = make_frames()
@@ -265,7 +271,7 @@ def test_layer_control_switches_circuit_kinds(demo: Page):
     assert demo.page.locator("path.leaflet-interactive").count() == total
 
 
-def test_hostile_text_is_shown_not_run(hostile: Page):
+def test_hostile_text_is_shown_not_run(hostile: Page, screenshots: Path):
     hostile.assert_clean()  # no dialog, no error: nothing ran, the map script is whole
     n = expected_counts(make_frames(HOSTILE)[0])
     drawn = n["circuits"] + n["segments"] + n["rows"] + n["equipment"]
@@ -288,14 +294,12 @@ def test_hostile_text_is_shown_not_run(hostile: Page):
     panel = hostile.page.locator("#rp-panel").inner_text()
     assert HOSTILE["site"] in panel
     assert hostile.page.title().startswith(HOSTILE["site"])
-    ARTIFACTS.mkdir(parents=True, exist_ok=True)
-    hostile.page.screenshot(path=str(ARTIFACTS / "map-hostile.png"), animations="disabled")
+    hostile.page.screenshot(path=str(screenshots / "map-hostile.png"), animations="disabled")
     hostile.assert_clean()
 
 
-def test_screenshot(demo: Page):
-    ARTIFACTS.mkdir(parents=True, exist_ok=True)
-    path = ARTIFACTS / "map.png"
+def test_screenshot(demo: Page, screenshots: Path):
+    path = screenshots / "map.png"
     demo.page.screenshot(path=str(path), animations="disabled")
     assert path.stat().st_size > 10_000
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import os
 import time
 
@@ -48,11 +49,20 @@ def test_cancel_stops_the_child(tmp_path):
     out = tmp_path / "late.txt"
 
     def slow():
-        time.sleep(5)
+        time.sleep(600)
         out.write_text("too late")
 
     job = parallel.start(slow)
-    t0 = time.perf_counter()
-    job.cancel()
-    job.wait()  # nothing left to do
-    assert time.perf_counter() - t0 < 2 and not out.exists()
+    pid = job.pid
+    assert pid is not None
+    try:
+        job.cancel()
+        with pytest.raises(ProcessLookupError):
+            os.kill(pid, 0)  # killed and reaped: no such process any more
+        assert job.pid is None
+        job.wait()  # nothing left to do
+        assert not out.exists()
+    finally:
+        with contextlib.suppress(ProcessLookupError, ChildProcessError):
+            os.kill(pid, 9)  # a child cancel left running must not outlive the test
+            os.waitpid(pid, 0)
