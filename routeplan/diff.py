@@ -25,7 +25,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .folder import OutputFolder
+from .folder import OutputFolder, reading
 from .outputs.schedules import csv_guard, csv_unguard
 
 #: circuit fields compared, in report order (route, length, size, drop, status)
@@ -317,7 +317,8 @@ def read_plan(folder: Path | str) -> dict[str, pd.DataFrame]:
 def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
     """Compare the schedules in two output folders. Raises :class:`DiffError` when a folder
     or one of its schedules is missing or damaged."""
-    old, new = read_plan(old_dir), read_plan(new_dir)
+    with reading(old_dir), reading(new_dir):  # a run killed mid-commit completed first
+        old, new = read_plan(old_dir), read_plan(new_dir)
     rows = _compare(old["circuits"], new["circuits"], "circuit_id", CIRCUIT_FIELDS, "circuit")
     rows += _compare(old["segments"], new["segments"], "segment_id", SEGMENT_FIELDS, "segment")
     rows += _quantity_delta(old["quantities"], new["quantities"])

@@ -48,7 +48,7 @@ import json
 import os
 import secrets
 import shutil
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from pathlib import Path
 
 from . import __version__
@@ -597,6 +597,56 @@ def _take_lock(path: Path, real: Path) -> int | Path:
             path, busy.format(who=f" (or a killed run left {LOCK_FILE}: delete it then)")
         ) from None
     return lock  # pragma: no cover
+
+
+@contextlib.contextmanager
+def reading(path: Path | str) -> Iterator[None]:
+    """Hold an output folder steady while a command reads it (``routeplan diff``).
+
+    A run killed or failed after its commit record is completed first (as every command
+    opening the folder does), so the reader never sees half of one run and half of another;
+    then a shared lock is held, so no run commits into the folder while it is read. A folder
+    another run is writing into is refused (:class:`FolderError`, one line). Nothing is
+    written to a folder without a committed work folder (read-only media work). A missing
+    path is left to the reader to report.
+    """
+    path = Path(path)
+    if fcntl is None or not path.is_dir():  # pragma: no cover - Windows
+        yield
+        return
+    real = path.resolve()
+    try:
+        fd = os.open(real, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
+    except OSError as exc:
+        raise FolderError(path, f"cannot be opened ({exc.strerror})") from None
+    busy = "another routeplan run is writing into this folder{who}: wait for it to finish"
+    try:
+        pending = sorted(
+            w
+            for w in real.glob(f"{WORK_PREFIX}*")
+            if not w.is_symlink() and w.is_dir() and (w / COMMIT).is_file()
+        )
+        if pending:
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+            except OSError:
+                raise FolderError(path, busy.format(who=_owner_text(real))) from None
+            for work in pending:
+                try:
+                    _finish(real, work)
+                except OSError as exc:
+                    raise FolderError(
+                        path,
+                        f"a run's new files are not all in place, and completing it failed "
+                        f"({exc.strerror or exc}); plan again",
+                    ) from None
+        try:
+            fcntl.flock(fd, fcntl.LOCK_SH | fcntl.LOCK_NB)
+        except OSError:
+            raise FolderError(path, busy.format(who=_owner_text(real))) from None
+        yield
+    finally:
+        os.close(fd)
 
 
 def _release_lock(lock: int | Path | None) -> None:

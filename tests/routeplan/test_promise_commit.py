@@ -46,7 +46,7 @@ def failing_replace(target: str, error: int):
         ("quantities.csv", errno.EACCES),  # part-way: some files new, some old
     ],
 )
-@pytest.mark.parametrize("next_command", ["plan", "map"])
+@pytest.mark.parametrize("next_command", ["plan", "map", "diff"])
 def test_a_commit_failing_part_way_is_completed_by_the_next_command(
     tmp_path, monkeypatch, target, error, next_command
 ):
@@ -69,8 +69,11 @@ def test_a_commit_failing_part_way_is_completed_by_the_next_command(
 
     if next_command == "plan":
         again = plan_cli(new_site, out, "-q")  # no --force needed
-    else:
+    elif next_command == "map":
         again = runner.invoke(app, ["map", str(out)])
+    else:  # diff reads the folder only once the recorded run is complete: no mixed plans
+        again = runner.invoke(app, ["diff", str(cold), str(out)])
+        assert again.stdout.strip() == "no changes", again.output
     assert again.exit_code == 0, again.output
     assert_complete(out)  # one complete run, the one its manifest names
     for name in CSV_FILES:  # and it is the edited site's
