@@ -98,7 +98,7 @@ SEGMENT_COLUMNS: tuple[Col, ...] = (
     Col("segment_id", doc="<trench id>#<n>, numbered along the trench"),
     Col("trench_id", doc="trench feature id"),
     Col("length_m", "m", 2, "segment length"),
-    Col("circuits", doc="circuits in the segment (parallels counted)"),
+    Col("circuits", doc="circuits in the segment (`cable_sets` counts parallel sets)"),
     Col("strings", doc="string circuits"),
     Col("arrays", doc="array circuits"),
     Col("ac", doc="AC circuits"),
