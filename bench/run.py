@@ -410,6 +410,15 @@ def machine() -> dict[str, str]:
     }
 
 
+def _load() -> str:
+    """The system's load average over 1, 5 and 15 minutes: other work on a shared machine
+    slows every stage (a load above the core count means runs wait for a core)."""
+    try:
+        return " / ".join(f"{x:.2f}" for x in os.getloadavg()) + " (1 / 5 / 15 min)"
+    except OSError:
+        return "unknown"
+
+
 def _memory() -> str:
     try:
         for line in Path("/proc/meminfo").read_text().splitlines():
@@ -430,6 +439,7 @@ def run(
 ) -> dict:
     from routeplan.synth import generate_site
 
+    load_start = _load()
     plants = []
     for mw in sizes:
         site_dir = work / f"site_{mw:g}MW"
@@ -489,7 +499,11 @@ def run(
         print(f"{mw:g} MW {topology}: plan {r['plan_s']:.1f} s, write {r['write_s']:.1f} s, "
               f"peak {r['peak_gib']:.2f} GiB", file=sys.stderr)  # fmt: skip
     return {
-        "machine": machine(),
+        "machine": {
+            **machine(),
+            "load average at start": load_start,
+            "load average at end": _load(),
+        },
         "seed": seed,
         "plants": plants,
         "variants": variants,
@@ -558,6 +572,7 @@ def report(res: dict) -> str:
         "|---|---|",
         *[f"| {k} | {v} |" for k, v in m.items()],
         "",
+        *_busy_note(m),
         "## Plants",
         "",
         "| plant | strings | combiners | inverters | trench features | noded segments "
@@ -758,6 +773,24 @@ TOPOLOGY_LABELS = {
     "subarray": "subarray: string combiners → recombiners → skid",
     "string": "string: rows → string inverters",
 }
+
+
+def _busy_note(m: dict) -> list[str]:
+    """A caution when other work kept the cores busy during the run (load above the cores)."""
+    try:
+        load = float(str(m.get("load average at start", "")).split(" ")[0])
+        cores = int(m["cores"])
+    except (KeyError, ValueError):
+        return []
+    if load <= cores:
+        return []
+    return [
+        f"**The machine was shared during this run**: a load average of {load:.1f} on {cores} "
+        "cores means processes often waited for a core, so every time here is longer than on "
+        "an idle machine; compare the plants and topologies measured in the same run with each "
+        "other rather than with another run.",
+        "",
+    ]
 
 
 def topology_report(central: dict, others: list[dict]) -> list[str]:
