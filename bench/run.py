@@ -1,6 +1,7 @@
 """Benchmark: plan generated PV plants of 100 MW, 300 MW and 1 GW end to end.
 
-    python bench/run.py [--sizes 100,300,1000] [--seed 1] [--out bench/results.md]
+    python bench/run.py [--sizes 100,300,1000] [--seed 1] [--topologies central,subarray,string]
+                        [--out bench/results.md]
 
 Not part of the test suite. For each size it generates a plant with
 :func:`routeplan.synth.generate_site` (a GeoPackage site folder; an invented scenario), then
@@ -20,7 +21,15 @@ memory, the size of ``map.html``, and three ratios measured in the same run:
   most 300 MW (rows sent to the combiners of the block half the plant away; every inverter
   sent to one transformer station), where networkx is timed on a sample of the circuits;
 * **growth**: time(largest) ÷ time(next) against the ratio of their strings (goal: no worse
-  than linear + 15 %).
+  than linear + 15 %);
+* **topologies**: the largest plant generated again in each other DC topology of
+  ``routeplan synth`` (``subarray``: string combiners to recombiners at the skid; ``string``:
+  rows to string inverters — same seed, same layout), planned and written end to end in a
+  fresh process like the others (without the ratios above), against the same end-to-end
+  target.
+
+The plants of the sizes are ``central`` ones (string combiners to one inverter skid per
+block), the generator's default.
 
 It writes a Markdown report (``bench/results.md`` by default) with the machine's core count,
 CPU model, Python and library versions and the date. Every plant is invented; the results are
@@ -241,8 +250,13 @@ def project_routing_s(timings: dict[str, float]) -> float:
     return sum(timings.get(f"route.{k}", 0.0) for k in ("network", "search", "tables"))
 
 
-def worker_plan(site_dir: Path, work: Path, with_nx: bool) -> dict:
-    """Plan and write one generated site; measure; return the numbers."""
+#: circuit kinds counted in the results
+KINDS = ("string", "subarray", "array", "ac")
+
+
+def worker_plan(site_dir: Path, work: Path, with_nx: bool, light: bool = False) -> dict:
+    """Plan and write one generated site; measure; return the numbers. ``light``: the end to
+    end run only (no I/O floor, no edit-and-regenerate, no networkx)."""
     from routeplan.outputs.write import write_plan
     from routeplan.pipeline import plan
 
@@ -262,17 +276,21 @@ def worker_plan(site_dir: Path, work: Path, with_nx: bool) -> dict:
         "peak_gib": peak,
         "peak_child_gib": peak_child,
         "map_bytes": (work / "out" / "map.html").stat().st_size,
-        "circuits": {k: int((p.circuits["kind"] == k).sum()) for k in ("string", "array", "ac")},
+        "circuits": {k: int((p.circuits["kind"] == k).sum()) for k in KINDS},
         "fail": {
             k: int(((p.circuits["kind"] == k) & (p.circuits["status"] == "fail")).sum())
-            for k in ("string", "array", "ac")
+            for k in KINDS
         },
         "segments": len(p.segments),
         "segments_over": int((p.segments["status"] != "ok").sum()),
+        "inputs": len(p.inputs),
+        "inputs_over": int((p.inputs["status"] != "ok").sum()),
         "nodes": int(p.routes.network.n_nodes),
-        "io_floor": io_floor(site_dir, p, work),
-        "edit": edit_and_replan(site_dir, work),
     }
+    if light:
+        return result
+    result["io_floor"] = io_floor(site_dir, p, work)
+    result["edit"] = edit_and_replan(site_dir, work)
     if with_nx:
         from routeplan.pipeline import route_params
         from routeplan.routing import route_site
@@ -392,6 +410,15 @@ def machine() -> dict[str, str]:
     }
 
 
+def _load() -> str:
+    """The system's load average over 1, 5 and 15 minutes: other work on a shared machine
+    slows every stage (a load above the core count means runs wait for a core)."""
+    try:
+        return " / ".join(f"{x:.2f}" for x in os.getloadavg()) + " (1 / 5 / 15 min)"
+    except OSError:
+        return "unknown"
+
+
 def _memory() -> str:
     try:
         for line in Path("/proc/meminfo").read_text().splitlines():
@@ -402,9 +429,17 @@ def _memory() -> str:
     return "unknown"
 
 
-def run(sizes: list[float], seed: int, work: Path, with_nx: bool, long_routes: bool) -> dict:
+def run(
+    sizes: list[float],
+    seed: int,
+    work: Path,
+    with_nx: bool,
+    long_routes: bool,
+    topologies: tuple[str, ...] = ("subarray", "string"),
+) -> dict:
     from routeplan.synth import generate_site
 
+    load_start = _load()
     plants = []
     for mw in sizes:
         site_dir = work / f"site_{mw:g}MW"
@@ -424,6 +459,8 @@ def run(sizes: list[float], seed: int, work: Path, with_nx: bool, long_routes: b
             inverters=info.inverters,
             trench_features=info.trenches,
             mount=info.mount,
+            topology=info.topology,
+            recombiners=info.recombiners,
         )
         plants.append(r)
         print(f"{mw:g} MW: plan {r['plan_s']:.1f} s, write {r['write_s']:.1f} s, "
@@ -434,7 +471,44 @@ def run(sizes: list[float], seed: int, work: Path, with_nx: bool, long_routes: b
         for variant in ("rows_far", "ac_one_point"):
             print(f"long routes ({variant}, {mw:g} MW) …", file=sys.stderr)
             variants.append(_worker(["--worker-long", f"{mw:g}", str(seed), variant]))
-    return {"machine": machine(), "seed": seed, "plants": plants, "variants": variants}
+    others = []
+    mw = max(sizes)
+    for topology in [t for t in topologies if t != "central"]:
+        site_dir = work / f"site_{mw:g}MW_{topology}"
+        t0 = time.perf_counter()
+        info = generate_site(mw, seed, site_dir, topology=topology)
+        gen_s = time.perf_counter() - t0
+        print(f"{mw:g} MW {topology}: generated in {gen_s:.1f} s; planning …", file=sys.stderr)
+        r = _worker(
+            ["--worker-plan", str(site_dir), str(work / f"run_{mw:g}MW_{topology}"), "--light"]
+        )
+        r.update(
+            mw=mw,
+            mwdc=info.mwdc,
+            generate_s=gen_s,
+            strings=info.strings,
+            rows=info.rows,
+            combiners=info.combiners,
+            recombiners=info.recombiners,
+            inverters=info.inverters,
+            trench_features=info.trenches,
+            mount=info.mount,
+            topology=topology,
+        )
+        others.append(r)
+        print(f"{mw:g} MW {topology}: plan {r['plan_s']:.1f} s, write {r['write_s']:.1f} s, "
+              f"peak {r['peak_gib']:.2f} GiB", file=sys.stderr)  # fmt: skip
+    return {
+        "machine": {
+            **machine(),
+            "load average at start": load_start,
+            "load average at end": _load(),
+        },
+        "seed": seed,
+        "plants": plants,
+        "variants": variants,
+        "topologies": others,
+    }
 
 
 # --------------------------------------------------------------------------------------------
@@ -498,6 +572,7 @@ def report(res: dict) -> str:
         "|---|---|",
         *[f"| {k} | {v} |" for k, v in m.items()],
         "",
+        *_busy_note(m),
         "## Plants",
         "",
         "| plant | strings | combiners | inverters | trench features | noded segments "
@@ -660,12 +735,21 @@ def report(res: dict) -> str:
             f"**{100 * floor / e['full_s']:.0f} %** of the full run.",
         ]
     big = max(plants, key=lambda r: r["strings"])
+    others = res.get("topologies", [])
+    if others:
+        out += topology_report(big, others)
     e2e = big["plan_s"] + big["write_s"]
     out += ["", "## Targets at the largest plant", ""]
     out += [
         "| target | measured | met |",
         "|---|---:|---|",
         f"| end to end ≤ 20 s | {e2e:.1f} s | {'yes' if e2e <= 20 else 'no'} |",
+        *[
+            f"| end to end ≤ 20 s, {r['topology']} topology "
+            f"| {r['plan_s'] + r['write_s']:.1f} s "
+            f"| {'yes' if r['plan_s'] + r['write_s'] <= 20 else 'no'} |"
+            for r in others
+        ],
         f"| peak memory ≤ 3 GiB | {big['peak_gib']:.2f} GiB | "
         f"{'yes' if big['peak_gib'] <= 3 else 'no'} |",
         f"| map.html < 30 MB | {big['map_bytes'] / 1e6:.1f} MB "
@@ -684,6 +768,68 @@ def report(res: dict) -> str:
     return "\n".join(out)
 
 
+TOPOLOGY_LABELS = {
+    "central": "central: string combiners → inverter skid",
+    "subarray": "subarray: string combiners → recombiners → skid",
+    "string": "string: rows → string inverters",
+}
+
+
+def _busy_note(m: dict) -> list[str]:
+    """A caution when other work kept the cores busy during the run (load above the cores)."""
+    try:
+        load = float(str(m.get("load average at start", "")).split(" ")[0])
+        cores = int(m["cores"])
+    except (KeyError, ValueError):
+        return []
+    if load <= cores:
+        return []
+    return [
+        f"**The machine was shared during this run**: a load average of {load:.1f} on {cores} "
+        "cores means processes often waited for a core, so every time here is longer than on "
+        "an idle machine; compare the plants and topologies measured in the same run with each "
+        "other rather than with another run.",
+        "",
+    ]
+
+
+def topology_report(central: dict, others: list[dict]) -> list[str]:
+    """The section comparing the largest plant in each DC topology."""
+    runs = [{**central, "topology": central.get("topology", "central")}, *others]
+    out = ["", f"## DC topologies at {central['mw']:g} MW", ""]
+    out += [
+        f"The {central['mw']:g} MW plant (seed and layout as above) generated in each topology of "
+        "`routeplan synth --topology` and planned and written end to end in a fresh process. "
+        "The rows, trenches and transformer stations are the same; the equipment differs.",
+        "",
+        "| topology | strings | combiners (recombiners) | inverters | circuits: string "
+        "| sub-array | array | AC | failing | inverter inputs (over) | end to end [s] "
+        "| peak [GiB] | map.html [MB] |",
+        "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|",
+    ]
+    for r in runs:
+        c, f = r["circuits"], r["fail"]
+        n, bad = sum(c.values()), sum(f.values())
+        inputs = r.get("inputs")
+        out.append(
+            f"| {TOPOLOGY_LABELS.get(r['topology'], r['topology'])} | {r['strings']:,} "
+            f"| {r['combiners']:,} ({r.get('recombiners', 0):,}) | {r['inverters']:,} "
+            f"| {c.get('string', 0):,} | {c.get('subarray', 0):,} | {c.get('array', 0):,} "
+            f"| {c.get('ac', 0):,} | {bad:,} ({100 * bad / n:.1f} %) "
+            + (f"| {inputs:,} ({r['inputs_over']:,}) " if inputs is not None else "| – ")
+            + f"| **{r['plan_s'] + r['write_s']:.1f}** | {r['peak_gib']:.2f} "
+            f"| {r['map_bytes'] / 1e6:.1f} |"
+        )
+    out += ["", "Stages [s]:", ""]
+    out += ["| stage | " + " | ".join(r["topology"] for r in runs) + " |"]
+    out += ["|---|" + "---:|" * len(runs)]
+    tables = [dict(stage_rows(r)) for r in runs]
+    names = list(dict.fromkeys(n for r in runs for n, _ in stage_rows(r)))
+    for name in names:
+        out.append(f"| {name} | " + " | ".join(_s(t.get(name, np.nan)) for t in tables) + " |")
+    return out
+
+
 def main(argv: list[str] | None = None) -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sizes", default="100,300,1000", help="plant sizes [MWdc], comma list")
@@ -692,18 +838,24 @@ def main(argv: list[str] | None = None) -> None:
     parser.add_argument("--work", type=Path, help="folder for the sites and outputs (temporary)")
     parser.add_argument("--no-nx", action="store_true", help="skip the networkx baseline")
     parser.add_argument("--no-long", action="store_true", help="skip the long-route variants")
+    parser.add_argument(
+        "--topologies",
+        default="central,subarray,string",
+        help="DC topologies of the largest plant, comma list (central: the sizes' plants)",
+    )
     parser.add_argument("--json", type=Path, help="also write the raw numbers as JSON")
     parser.add_argument("--worker-plan", nargs=2, metavar=("SITE", "WORK"), help=argparse.SUPPRESS)
     parser.add_argument(
         "--worker-long", nargs=3, metavar=("MW", "SEED", "V"), help=argparse.SUPPRESS
     )
     parser.add_argument("--nx", action="store_true", help=argparse.SUPPRESS)
+    parser.add_argument("--light", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
 
     if args.worker_plan:
         site, work = map(Path, args.worker_plan)
         work.mkdir(parents=True, exist_ok=True)
-        print(json.dumps(worker_plan(site, work, args.nx)))
+        print(json.dumps(worker_plan(site, work, args.nx, args.light)))
         return
     if args.worker_long:
         mw, seed, variant = args.worker_long
@@ -715,7 +867,8 @@ def main(argv: list[str] | None = None) -> None:
     with tempfile.TemporaryDirectory(prefix="routeplan-bench-") as tmp:
         work = args.work or Path(tmp)
         work.mkdir(parents=True, exist_ok=True)
-        res = run(sizes, args.seed, work, not args.no_nx, not args.no_long)
+        topologies = tuple(t.strip() for t in args.topologies.split(",") if t.strip())
+        res = run(sizes, args.seed, work, not args.no_nx, not args.no_long, topologies)
     text = report(res)
     text += f"Benchmark wall time: {time.perf_counter() - start:.0f} s.\n"
     args.out.write_text(text, encoding="utf-8")

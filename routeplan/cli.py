@@ -492,13 +492,24 @@ def synth(
         bool, typer.Option("--geographic", help="Write lon/lat (EPSG:4326) instead of UTM.")
     ] = False,
     fmt: Annotated[str, typer.Option("--format", help="gpkg (one site.gpkg) or geojson.")] = "gpkg",
+    topology: Annotated[
+        str,
+        typer.Option(
+            "--topology",
+            help="How blocks collect DC: central (string combiners to one inverter skid), "
+            "subarray (string combiners to recombiners at the skid) or string (rows to "
+            "multi-input string inverters).",
+        ),
+    ] = "central",
     force: ForceOption = False,
 ) -> None:
     """Write an invented, valid utility-scale site folder for trials and benchmarks."""
     from .synth import generate_site
 
     try:
-        info = generate_site(mw, seed, out_dir, geographic=geographic, fmt=fmt, force=force)
+        info = generate_site(
+            mw, seed, out_dir, geographic=geographic, fmt=fmt, force=force, topology=topology
+        )
     except FolderError as exc:
         _fail_input(exc)
         return
@@ -508,10 +519,17 @@ def synth(
     except OSError as exc:
         _fail_os(exc, out_dir)
         return
+    equipment = f"{info.combiners} combiners, {info.inverters} inverters"
+    if info.topology == "subarray":
+        equipment = (
+            f"{info.combiners} combiners ({info.recombiners} of them recombiners), "
+            f"{info.inverters} inverters"
+        )
+    elif info.topology == "string":
+        equipment = f"{info.inverters} string inverters"
     out.print(
         f"site: {out_dir} — {info.mwdc:.1f} MWdc, {info.rows} rows, {info.strings} strings, "
-        f"{info.combiners} combiners, {info.inverters} inverters, {info.trenches} trenches "
-        f"({info.crs})",
+        f"{equipment}, {info.trenches} trenches ({info.crs})",
         markup=False,
     )
 

@@ -3,7 +3,8 @@
 :func:`generate_site` writes a complete site folder (``site.toml`` plus the layers ``rows``,
 ``combiners``, ``inverters``, ``trenches`` and ``grid``) for a plant of a requested DC
 capacity; :func:`synth_site` builds the same site in memory, so tests need no files. The
-plant is deterministic for a given seed.
+plant is deterministic for a given seed, and its blocks collect DC in one of three ways
+(``topology``, see *Topologies*).
 
 Every site made here is an invented scenario: it describes no real place, project or
 product. All numbers are invented demo values; where a comment calls one *typical*, it is
@@ -60,8 +61,45 @@ invented origin.
 - The plant is meant to be mostly buildable as generated: ``[design] max_parallel = 12``
   (central-inverter LV links), string laterals spaced 0.1 m, feeder trenches 0.25 m. The
   end combiners' strings fail where ``max_strings`` and the soil make their grouping too
-  tight (at 1 GW, seed 1: 4,800 strings, about 7 % of the circuits); other seeds plan with
+  tight (at 1 GW, seed 1: 4,800 strings, about 7 % of the circuits, in the ``central`` and
+  ``subarray`` topologies; 4,320 strings, about 6 %, in ``string``); other seeds plan with
   no failure at all. Soil zones range up to dry sand (3.0 K·m/W, ``SOIL_K_CHOICES``).
+
+Topologies
+----------
+The rows, the trenches (but for the duct banks' ways) and the grid points are the same in
+every topology for a given seed; only the equipment differs (``TOPOLOGY_DESIGN`` gives each
+its ``[design]`` table):
+
+- ``central`` (the default): as above. Each combiner's array cable runs to the block's skid;
+  the skid has one DC input, so the arrays are in parallel there and fused against each
+  other's backfeed where the rules need it.
+- ``subarray``: the same string combiners feed *recombiners* (sub-array combiners) at the
+  skid instead: one per group of a 1-lateral block, one per lateral half of a 2-lateral
+  block (four per block, about 1 MWdc each). They stand side by side, ``RECOMBINER_STEP_M``
+  apart, on the pad's cable-entry line across the branch (between it and the transformer),
+  so each joins the branch where the pad does: the *sub-array* cables follow the array
+  cables' former routes, and each recombiner's array cable is its two stubs in air, a few
+  metres. Each recombiner lands on its own DC input of the skid (``dc_inputs`` = its
+  recombiners, the recombiner's ``input``): an array of about 70 strings could not be fused
+  against the others' backfeed (the largest gPV rating is 630 A), so its sub-array cables
+  are the ones fused, against the rest of their recombiner. Drop limits: sub-array 1.5 %
+  (the long run), array 0.5 %.
+- ``string``: a *string inverter* stands where each combiner would (same chunk of rows, id
+  ``SI<block>-<n>``), and the central skid is gone: each inverter's AC circuit follows the
+  former array route (link, lateral, branch) to the block's transformer station, which
+  stays opposite the former pad. The inverter (one model per plant, invented ratings typical
+  of 1500 V units) has an MPPT input per row of its fullest chunk and a string terminal per
+  string of the fullest row; every row names its input (``input``: its rank among its
+  inverter's rows, outward from the corridor), so a row's strings are in parallel on one
+  input — string-fused where the IEC 62548 rule needs it, as at a combiner —, rated
+  ``INPUT_A_PER_STRING`` and ``INPUT_ISC_A_PER_STRING`` per terminal. A row left without
+  ``to`` (``unassigned_rows``) names no input and its strings are spread by the planner.
+  The rating is the next ``STRING_INVERTER_KVA_STEP`` above ``max_strings`` strings at the
+  plant's DC/AC ratio (225–350 kVA), at ``STRING_INVERTER_AC_V``; the lateral ducts
+  have ways for ceil(Ib / ``AC_SET_A``) sets per inverter. The AC circuits of a block meet
+  in its branch near the station (tens of cable sets in one trench: 2–3 parallel sets each,
+  where a designer might split the trench or collect them in AC combiners first).
 """
 
 from __future__ import annotations
@@ -90,6 +128,7 @@ __all__ = [
     "MOUNTS",
     "MW_RANGE",
     "SEED_LIMIT",
+    "TOPOLOGIES",
     "SynthInfo",
     "SynthSite",
     "generate_site",
@@ -102,6 +141,10 @@ LAYERS: tuple[str, ...] = ("rows", "combiners", "inverters", "trenches", "grid")
 FORMATS: tuple[str, ...] = ("gpkg", "geojson")
 #: mounting structures: single-axis trackers (1 module in portrait) or fixed-tilt tables (2P).
 MOUNTS: tuple[str, ...] = ("tracker", "fixed")
+#: how a block collects its DC (see the module docstring): string combiners feeding a central
+#: inverter skid; string combiners feeding sub-array combiners (recombiners) at the skid; rows
+#: straight to string inverters.
+TOPOLOGIES: tuple[str, ...] = ("central", "subarray", "string")
 #: range of plant sizes [MWdc]. Below 0.1 MWdc a plant is a handful of strings (one string
 #: is about 15 kWdc, so the size generated is off by up to ~15 %), no trial of utility-scale
 #: routing. 5,000 MWdc is five times the benchmark's largest plant (1 GW): about 320,000
@@ -133,6 +176,15 @@ ENTRY_M = 0.25  # cable entry of the pad: a vertex of its outline that points at
 STRING_LATERAL_OVERHANG_M = 1.0  # string lateral beyond its outermost rows' taps
 MODULE_GAP_M = 0.02  # clearance between neighbouring modules on a row
 DRIVE_GAP_M = 1.0  # tracker drive/slew gap in a row
+RECOMBINER_STEP_M = 0.7  # recombiner cabinets side by side, from the branch to the transformer
+
+# --- string inverters (topology "string"); invented ratings, typical of 1500 V units ---
+# one MPPT input per row (tracker or table): the input has a string terminal for each string
+# of the plant's fullest row, rated per terminal for either module (Imp ≤ 13.72 A, Isc ≤ 14.62 A)
+INPUT_A_PER_STRING = 15.0  # maximum operating input current per string terminal [A]
+INPUT_ISC_A_PER_STRING = 20.0  # maximum input short-circuit current per string terminal [A]
+STRING_INVERTER_KVA_STEP = 25.0  # ratings offered in 25 kVA steps
+STRING_INVERTER_AC_V = 800.0  # output, line to line [V]: the usual one of 1500 V units
 
 #: invented module types (STC datasheet values), typical of large-format crystalline modules.
 #: ``per_string`` keeps the string's open-circuit voltage near 1360 V at STC, leaving margin
@@ -168,6 +220,11 @@ DUCT_BANKS: tuple[int, ...] = (4, 6, 9, 12, 16, 24, 32, 48)
 #: Al feeder in a spaced group (typical, common practice); an array circuit of n strings is
 #: given ceil(1.25 × Isc × n / FEEDER_SET_A) ways.
 FEEDER_SET_A = 180.0
+#: derated capacity of one AC cable set of a string inverter assumed when sizing duct banks [A]:
+#: a 240-300 mm² Al three-phase set in a trench crowded with the block's other AC circuits
+#: (typical, common practice); an AC circuit of rated current Ib is given ceil(Ib / AC_SET_A)
+#: ways.
+AC_SET_A = 100.0
 #: soil thermal resistivities drawn per soil zone [K·m/W]; typical range of site surveys.
 SOIL_K_CHOICES: tuple[float, ...] = (1.0, 1.2, 1.5, 2.0, 2.5, 3.0)
 
@@ -204,6 +261,31 @@ DESIGN: dict[str, Any] = {
     "air_arrangement": {"array": "ladder", "ac": "ladder"},
 }
 ALLOWANCES: dict[str, float] = {"termination_m": 1.5, "slack_pct": 3.0}
+#: site.toml [design] per topology: the central plant's, with the sub-array cables (Al, on
+#: ladders in air like the array cables; the long run from a string combiner to the skid takes
+#: the array cable's former 1.5 % and the few metres of array cable from the recombiner 0.5 %)
+#: or without the array and sub-array keys for string inverters.
+TOPOLOGY_DESIGN: dict[str, dict[str, Any]] = {
+    "central": DESIGN,
+    "subarray": {
+        **DESIGN,
+        "material": {"string": "Cu", "subarray": "Al", "array": "Al", "ac": "Al"},
+        "drop_pct": {"string": 1.0, "subarray": 1.5, "array": 0.5, "dc_total": 2.0, "ac": 1.0},
+        "air_arrangement": {"subarray": "ladder", "array": "ladder", "ac": "ladder"},
+    },
+    "string": {
+        **DESIGN,
+        "material": {"string": "Cu", "ac": "Al"},
+        "drop_pct": {"string": 1.0, "dc_total": 2.0, "ac": 1.0},
+        "air_arrangement": {"ac": "ladder"},
+    },
+}
+#: one line on each topology for the site.toml header
+TOPOLOGY_NOTES: dict[str, str] = {
+    "central": "string combiners feed one inverter skid per block",
+    "subarray": "string combiners feed recombiners at the skid",
+    "string": "rows feed multi-input string inverters along the laterals",
+}
 
 
 @dataclass(frozen=True)
@@ -212,8 +294,11 @@ class SynthInfo:
 
     ``mwdc`` is the DC capacity actually generated [MW] (strings x modules per string x
     module ``pmax_w``); it differs from the request by the rounding to whole strings and
-    identical blocks. ``trenches`` counts trench features (not noded segments). ``files``
-    lists the files written (empty for an in-memory site).
+    identical blocks. ``trenches`` counts trench features (not noded segments).
+    ``combiners`` counts every combiner feature, the ``recombiners`` (sub-array combiners)
+    among them; ``inverters`` counts central skids or string inverters. ``circuits``: the
+    circuits the plan of the site holds by kind (``string``, ``subarray``, ``array``,
+    ``ac``). ``files`` lists the files written (empty for an in-memory site).
     """
 
     mwdc: float
@@ -227,6 +312,9 @@ class SynthInfo:
     mount: str
     module: str
     unassigned_rows: int
+    topology: str
+    recombiners: int
+    circuits: dict[str, int]
     files: tuple[str, ...] = ()
 
 
@@ -278,6 +366,7 @@ class _Block:
     comb_half: np.ndarray  # index of the lateral half (2 * lateral + right) it is on
     comb_lat: np.ndarray  # index of its lateral
     comb_side: np.ndarray  # its band: -1 before the lateral, +1 after
+    comb_group: np.ndarray  # its group: 4 * lateral + 2 * (band after) + right half
     comb_c0: np.ndarray  # extent of its string lateral across the rows (c)
     comb_c1: np.ndarray
     pad_a: float
@@ -409,6 +498,7 @@ def _block(d: _Design, strings: int, n_lat: int) -> _Block:
                 np.full(n, 2 * lat + (half > 0)),
                 np.full(n, lat),
                 np.full(n, side),
+                np.full(n, k),
                 lo - STRING_LATERAL_OVERHANG_M,
                 hi + STRING_LATERAL_OVERHANG_M,
             )
@@ -436,8 +526,9 @@ def _block(d: _Design, strings: int, n_lat: int) -> _Block:
         comb_half=cb[3].astype(int),
         comb_lat=cb[4].astype(int),
         comb_side=cb[5].astype(int),
-        comb_c0=cb[6],
-        comb_c1=cb[7],
+        comb_group=cb[6].astype(int),
+        comb_c0=cb[7],
+        comb_c1=cb[8],
         pad_a=pad_a,
         pad_c=cc + PAD_OFFSET_M,
     )
@@ -525,16 +616,17 @@ def _segments(a0, c0, a1, c1) -> np.ndarray:
     return np.column_stack([np.ravel(v) for v in parts])
 
 
-def _lateral_template(blk: _Block, isc_a: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _lateral_template(blk: _Block, sets: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The laterals of one block in its local frame: (segments (n, 4), kind, max_circuits).
 
     Per lateral: the array lateral on its centre line, from its outermost link to the
     branch, split at every link and at the track's edges (ducts across the track); per
-    combiner, its string lateral (split where its link starts) and its link.
+    combiner (or string inverter), its string lateral (split where its link starts) and its
+    link. ``sets``: the cable sets of each combiner's feeder (array, sub-array or AC cable),
+    for the duct banks under the track.
     """
     cc = blk.corridor_c
     track = (cc - CORRIDOR_M / 2, cc, cc + CORRIDOR_M / 2)
-    sets = np.ceil(1.25 * isc_a * blk.comb_strings / FEEDER_SET_A)
     segs: list[np.ndarray] = []
     kinds: list[np.ndarray] = []
     mcs: list[np.ndarray] = []
@@ -560,14 +652,16 @@ def _lateral_template(blk: _Block, isc_a: float) -> tuple[np.ndarray, np.ndarray
     return np.concatenate(segs), np.concatenate(kinds), np.concatenate(mcs).astype(int)
 
 
-def _trenches(p: _Plant, isc_a: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _trenches(p: _Plant, sets: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Trench segments split at every junction: (segments (n, 4), kind (n,), max_circuits
-    (n,), 0 where not set). Shared junctions are computed once, so ends match exactly."""
+    (n,), 0 where not set). Shared junctions are computed once, so ends match exactly.
+    ``sets``: cable sets of each combiner's (string inverter's) feeder, see
+    :func:`_lateral_template`."""
     blk, nb, n_cols = p.blk, len(p.block_a), len(p.north)
     step_a = blk.a_len + BLOCK_GAP_M
     col_c = p.col_c
     # laterals of one block (its local frame), then tiled over the blocks
-    tpl, kind_tpl, mc_tpl = _lateral_template(blk, isc_a)
+    tpl, kind_tpl, mc_tpl = _lateral_template(blk, sets)
     lat_a = p.block_a[:, None] + blk.lateral_a  # (blocks, laterals): shared with the branches
     shift = np.column_stack([p.block_a, p.block_c, p.block_a, p.block_c])
     seg_lat = (tpl[None, :, :] + shift[:, None, :]).reshape(-1, 4)
@@ -644,6 +738,7 @@ def synth_site(
     geographic: bool = False,
     mount: str | None = None,
     unassigned_rows: int = 0,
+    topology: str = "central",
 ) -> SynthSite:
     """Build a synthetic ground-mount PV plant in memory.
 
@@ -661,7 +756,11 @@ def synth_site(
         Mounting structure; None lets the seed choose.
     unassigned_rows : int
         Rows left without a ``to`` (for the router's automatic assignment), at most one per
-        combiner: the row nearest its combiner, so the combiner keeps room for it.
+        combiner (string inverter): the row nearest its combiner, so the combiner keeps room
+        for it.
+    topology : {'central', 'subarray', 'string'}
+        How the blocks collect DC (:data:`TOPOLOGIES`, see the module docstring). The rows,
+        trenches and grid points are the same in every topology for a given seed.
 
     Returns
     -------
@@ -673,7 +772,8 @@ def synth_site(
     ------
     ValueError
         For an ``mw`` that is not a number within :data:`MW_RANGE`, a ``seed`` that is not
-        an integer in [0, 2**32), an unknown ``mount``, or ``unassigned_rows`` out of range.
+        an integer in [0, 2**32), an unknown ``mount`` or ``topology``, or ``unassigned_rows``
+        out of range.
     """
     low, high = MW_RANGE
     if (
@@ -691,6 +791,7 @@ def synth_site(
         raise ValueError(f"seed is {seed!r}; expected an integer from 0 to 2**32 - 1")
     if mount is not None:
         _check_option("mount", mount, MOUNTS)
+    _check_option("topology", topology, TOPOLOGIES)
     if (
         isinstance(unassigned_rows, bool)
         or not isinstance(unassigned_rows, int | np.integer)
@@ -701,7 +802,17 @@ def synth_site(
     d = _draw_design(rng, mount)
     p = _plant(d, mw, rng)
     blk, nb = p.blk, len(p.block_a)
-    segs, kinds, max_circuits = _trenches(p, float(MODULE_TYPES[d.module]["isc_a"]))
+    mod = MODULE_TYPES[d.module]
+    string_kw = float(mod["pmax_w"]) * int(mod["per_string"]) / 1e3
+    block_kw = p.per_block * string_kw
+    ac_kva = math.ceil(block_kw / d.dc_ac / 50.0) * 50.0  # skid rating in 50 kVA steps
+    si_kva = _string_inverter_kva(d.max_strings * string_kw, d.dc_ac)
+    if topology == "string":  # each string inverter's AC cable sets (ways of the duct banks)
+        ib = _ac_current_a(si_kva, STRING_INVERTER_AC_V)
+        sets = np.full(len(blk.comb_c), math.ceil(ib / AC_SET_A))
+    else:  # array or sub-array cable sets
+        sets = np.ceil(1.25 * float(mod["isc_a"]) * blk.comb_strings / FEEDER_SET_A)
+    segs, kinds, max_circuits = _trenches(p, sets)
 
     # map to x/y: round in the local frame (shared points stay equal), then place at the origin
     e0, n0 = d.origin
@@ -739,14 +850,16 @@ def synth_site(
     # the transformer station mirrors the pad across the branch
     grid_geom = shapely.points(np.column_stack(tile(blk.pad_a, 2 * blk.corridor_c - blk.pad_c)))
 
-    # ids and references: R<block>-<row>, CB<block>-<n>, INV<block>, TX<block>, T<kind><n>
+    # ids and references: R<block>-<row>, CB<block>-<n>, INV<block>, TX<block>, T<kind><n>;
+    # RC<block>-<k> (recombiners), SI<block>-<n> (string inverters, where combiners stand)
     nr, nc = len(blk.row_c), len(blk.comb_c)
     wb = max(3, len(str(nb)))
     inv_ids = _ids("INV", np.arange(1, nb + 1), wb)
     block_ids = [i[3:] for i in inv_ids]
     tx_ids = [f"TX{b}" for b in block_ids]
+    prefix = "SI" if topology == "string" else "CB"
     comb_ids = [
-        f"CB{b}-{k}" for b in block_ids for k in _ids("", np.arange(1, nc + 1), len(str(nc)))
+        f"{prefix}{b}-{k}" for b in block_ids for k in _ids("", np.arange(1, nc + 1), len(str(nc)))
     ]
     row_ids = [f"R{b}-{r}" for b in block_ids for r in _ids("", np.arange(1, nr + 1), len(str(nr)))]
     row_to = np.array(comb_ids, dtype=object)[
@@ -754,9 +867,10 @@ def synth_site(
     ]
     central = np.flatnonzero(np.tile(blk.row_central, nb))
     if unassigned_rows > len(central):
+        what = "string inverter" if topology == "string" else "combiner"
         raise ValueError(
-            f"unassigned_rows is {unassigned_rows}; this site has {len(central)} combiners and "
-            "leaves at most one row per combiner unassigned"
+            f"unassigned_rows is {unassigned_rows}; this site has {len(central)} {what}s and "
+            f"leaves at most one row per {what} unassigned"
         )
     if unassigned_rows:  # own stream: the layout does not depend on it
         pick = np.random.default_rng([seed, 1]).choice(central, unassigned_rows, replace=False)
@@ -771,9 +885,6 @@ def synth_site(
     edges = np.linspace(p.left, p.right, len(d.soil_k) + 1)[1:-1]
     soil = np.asarray(d.soil_k)[np.searchsorted(edges, (segs[:, 1] + segs[:, 3]) / 2)]
     soil[kinds == "ring"] = np.nan
-    mod = MODULE_TYPES[d.module]
-    block_kw = p.per_block * float(mod["pmax_w"]) * int(mod["per_string"]) / 1e3
-    ac_kva = math.ceil(block_kw / d.dc_ac / 50.0) * 50.0  # skid rating in 50 kVA steps
 
     crs = PROJECTED_CRS
     strings = np.tile(blk.row_strings, nb)
@@ -819,6 +930,12 @@ def synth_site(
         ),
         "grid": gpd.GeoDataFrame({"id": tx_ids}, geometry=grid_geom, crs=crs),
     }
+    n_rc = 0  # recombiners in the plant
+    if topology == "subarray":
+        frames, per_block = _with_recombiners(frames, blk, inv_ids, block_ids, tile)
+        n_rc = nb * per_block
+    elif topology == "string":
+        frames = _with_string_inverters(frames, blk, nb, tx_ids, si_kva)
     if geographic:
         to_geo = pyproj.Transformer.from_crs(PROJECTED_CRS, GEOGRAPHIC_CRS, always_xy=True)
 
@@ -830,20 +947,135 @@ def synth_site(
             frames[name] = frame.set_geometry(gpd.GeoSeries(geoms, crs=GEOGRAPHIC_CRS))
         crs = GEOGRAPHIC_CRS
 
+    n_combiners = len(frames["combiners"])
+    n_inverters = len(frames["inverters"])
     info = SynthInfo(
         mwdc=round(nb * block_kw / 1e3, 6),
         crs=crs,
         rows=nb * nr,
         strings=int(strings.sum()),
-        combiners=nb * nc,
-        inverters=nb,
+        combiners=n_combiners,
+        inverters=n_inverters,
         trenches=len(segs),
         blocks=nb,
         mount=d.mount,
         module=d.module,
         unassigned_rows=int(unassigned_rows),
+        topology=topology,
+        recombiners=n_rc,
+        circuits={
+            "string": int(strings.sum()),
+            "subarray": n_combiners - n_rc if n_rc else 0,
+            "array": n_rc if n_rc else n_combiners,
+            "ac": n_inverters,
+        },
     )
-    return SynthSite(frames=frames, toml=_site_toml(mw, seed, d, blk, info, ac_kva), info=info)
+    toml = _site_toml(mw, seed, d, blk, info, si_kva if topology == "string" else ac_kva)
+    return SynthSite(frames=frames, toml=toml, info=info)
+
+
+def _ac_current_a(kva: float, ac_v: float) -> float:
+    """Rated output current of a three-phase inverter [A]: S / (√3 U)."""
+    return kva * 1e3 / (math.sqrt(3) * ac_v)
+
+
+def _string_inverter_kva(dc_kw: float, dc_ac: float) -> float:
+    """Rating of a string inverter for ``dc_kw`` of strings at the plant's DC/AC ratio: the next
+    :data:`STRING_INVERTER_KVA_STEP` above ``dc_kw / dc_ac`` [kVA]."""
+    return math.ceil(dc_kw / dc_ac / STRING_INVERTER_KVA_STEP) * STRING_INVERTER_KVA_STEP
+
+
+def _with_recombiners(
+    frames: dict[str, gpd.GeoDataFrame],
+    blk: _Block,
+    inv_ids: list[str],
+    block_ids: list[str],
+    tile,
+) -> tuple[dict[str, gpd.GeoDataFrame], int]:
+    """Topology ``subarray``: the string combiners feed recombiners at the skid, each on its
+    own DC input of the inverter. Returns the frames and the number of recombiners per block."""
+    nb = len(inv_ids)
+    n_lat = len(blk.lateral_a)
+    # a recombiner per group (1 lateral: 4 groups) or per lateral half (2 laterals: 4 halves)
+    key = blk.comb_group if n_lat == 1 else blk.comb_half
+    used, rc_of = np.unique(key, return_inverse=True)  # only recombiners that collect something
+    n_rc = len(used)
+    rc_ids = [f"RC{b}-{k + 1}" for b in block_ids for k in range(n_rc)]
+    # side by side on the pad's cable entry line, across the branch towards the transformer:
+    # every recombiner joins the branch where the pad does
+    rc_c = blk.corridor_c - RECOMBINER_STEP_M * (np.arange(n_rc) + 1)
+    rc_geom = shapely.points(np.column_stack(tile(np.full(n_rc, blk.pad_a), rc_c)))
+    comb = frames["combiners"]
+    to = np.asarray(rc_ids, dtype=object).reshape(nb, n_rc)[:, rc_of].ravel()
+    combiners = gpd.GeoDataFrame(
+        {
+            "id": [*comb["id"], *rc_ids],
+            "to": [*to, *np.repeat(inv_ids, n_rc)],
+            "max_strings": pd.array([*comb["max_strings"], *([None] * len(rc_ids))], "Int64"),
+            "input": pd.array([None] * len(comb) + [*np.tile(np.arange(1, n_rc + 1), nb)], "Int64"),
+        },
+        geometry=np.concatenate([comb.geometry.values, rc_geom]),
+        crs=comb.crs,
+    )
+    inverters = frames["inverters"].assign(dc_inputs=np.full(nb, n_rc))
+    return {**frames, "combiners": combiners, "inverters": inverters}, n_rc
+
+
+def _with_string_inverters(
+    frames: dict[str, gpd.GeoDataFrame],
+    blk: _Block,
+    nb: int,
+    tx_ids: list[str],
+    kva: float,
+) -> dict[str, gpd.GeoDataFrame]:
+    """Topology ``string``: string inverters where the combiners would stand (the rows' ``to``
+    already names them), AC to the block's transformer station; no combiner, no skid."""
+    comb = frames["combiners"]
+    nc = len(blk.comb_c)
+    n = nb * nc
+    inputs, terminals, row_input = _string_inverter_inputs(blk)
+    rows = frames["rows"]
+    given = pd.array(np.tile(row_input, nb), dtype="Int64")
+    given[rows["to"].isna().to_numpy()] = pd.NA  # a row left for the planner names no input
+    rows = rows.assign(input=given)
+    inverters = gpd.GeoDataFrame(
+        {
+            "id": comb["id"].to_numpy(),
+            "ac_kva": np.full(n, kva),
+            "ac_v": np.full(n, STRING_INVERTER_AC_V),
+            "phases": np.full(n, 3),
+            "to": np.repeat(tx_ids, nc),
+            "dc_inputs": np.full(n, inputs),
+            "input_max_a": np.full(n, INPUT_A_PER_STRING * terminals),
+            "input_max_isc_a": np.full(n, INPUT_ISC_A_PER_STRING * terminals),
+            "input_max_strings": np.full(n, terminals),
+        },
+        geometry=comb.geometry.values,
+        crs=comb.crs,
+    )
+    empty = gpd.GeoDataFrame(
+        {"id": pd.Series(dtype=object), "to": pd.Series(dtype=object)},
+        geometry=gpd.GeoSeries([], crs=comb.crs),
+        crs=comb.crs,
+    )
+    return {**frames, "rows": rows, "combiners": empty, "inverters": inverters}
+
+
+def _string_inverter_inputs(blk: _Block) -> tuple[int, int, np.ndarray]:
+    """The MPPT inputs of the plant's string inverter and the input each row of the block
+    template lands on: (inputs, string terminals per input, input of each row).
+
+    One input per row: a row's strings are in parallel on the input of its rank among its
+    inverter's rows, counted outward from the corridor; the inverter has an input for each
+    row of its fullest chunk and a terminal for each string of the fullest row.
+    """
+    owner = blk.row_combiner
+    order = np.argsort(owner, kind="stable")
+    first = np.searchsorted(owner[order], owner[order], side="left")
+    rank = np.empty(len(owner), dtype=np.int64)
+    rank[order] = np.arange(len(owner)) - first + 1
+    inputs = int(np.bincount(owner).max()) if len(owner) else 1
+    return inputs, int(blk.row_strings.max()), rank
 
 
 def generate_site(
@@ -856,12 +1088,13 @@ def generate_site(
     mount: str | None = None,
     unassigned_rows: int = 0,
     force: bool = False,
+    topology: str = "central",
 ) -> SynthInfo:
     """Write a synthetic ground-mount PV plant as a site folder.
 
     Parameters
     ----------
-    mw, seed, geographic, mount, unassigned_rows
+    mw, seed, geographic, mount, unassigned_rows, topology
         As for :func:`synth_site`.
     out : path
         Site folder; created when missing. It is written through its manifest
@@ -886,10 +1119,16 @@ def generate_site(
     from .folder import OutputFolder
 
     _check_option("fmt", fmt, FORMATS)
+    _check_option("topology", topology, TOPOLOGIES)
     names = ("site.toml", "site.gpkg", *(f"{name}.geojson" for name in LAYERS))
     with OutputFolder.open(out, "site", force=force, expect=names) as folder:
         site = synth_site(
-            mw, seed, geographic=geographic, mount=mount, unassigned_rows=unassigned_rows
+            mw,
+            seed,
+            geographic=geographic,
+            mount=mount,
+            unassigned_rows=unassigned_rows,
+            topology=topology,
         )
         work = folder.work
         (work / "site.toml").write_text(site.toml, encoding="utf-8")
@@ -909,9 +1148,40 @@ def generate_site(
 def _site_toml(
     mw: float, seed: int, d: _Design, blk: _Block, info: SynthInfo, ac_kva: float
 ) -> str:
-    """site.toml of a synthetic plant: the site format's tables, a header saying what it is."""
+    """site.toml of a synthetic plant: the site format's tables, a header saying what it is.
+    ``ac_kva``: the rating of a central skid, or of a string inverter (topology ``string``)."""
     mod = MODULE_TYPES[d.module]
     strings = blk.row_strings
+    block_mwdc = blk.row_strings.sum() * float(mod["pmax_w"]) * int(mod["per_string"]) / 1e6
+    inputs, terminals, _ = _string_inverter_inputs(blk)
+    collection = {
+        "central": [
+            f"combiners: max_strings {d.max_strings}, "
+            f"{blk.comb_strings.min()}-{blk.comb_strings.max()} strings each",
+        ],
+        "subarray": [
+            f"combiners: max_strings {d.max_strings}, "
+            f"{blk.comb_strings.min()}-{blk.comb_strings.max()} strings each, feeding "
+            f"{info.recombiners // max(info.blocks, 1)} recombiners per block at the skid, each "
+            "on its own DC input",
+        ],
+        "string": [
+            f"string inverters: {ac_kva:g} kVA, {inputs} MPPT inputs of {terminals} strings "
+            f"({INPUT_A_PER_STRING * terminals:g} A, {INPUT_ISC_A_PER_STRING * terminals:g} A "
+            f"Isc), one row per input, {blk.comb_strings.min()}-{blk.comb_strings.max()} "
+            "strings each; AC to one transformer station per block",
+        ],
+    }[info.topology]
+    if info.topology == "string":
+        blocks = (
+            f"{info.blocks} blocks of {blk.row_strings.sum()} strings ({block_mwdc:.3f} MWdc), "
+            f"{len(blk.comb_c)} string inverters each (DC/AC at most {d.dc_ac:g})"
+        )
+    else:
+        blocks = (
+            f"{info.blocks} blocks of {blk.row_strings.sum()} strings ({block_mwdc:.3f} MWdc),"
+            f" one {ac_kva:g} kVA inverter skid each (DC/AC {d.dc_ac:g})"
+        )
     header = [
         "Synthetic PV plant: an invented scenario written by routeplan.synth; it describes no",
         "real place, project or product. Every value is an invented demo value; values called",
@@ -919,17 +1189,18 @@ def _site_toml(
         "any design must follow local codes and be reviewed by a qualified, licensed person.",
         "",
         f"requested {mw:g} MWdc, seed {seed}; generated {info.mwdc:.3f} MWdc",
-        f"{info.blocks} blocks of {blk.row_strings.sum()} strings "
-        f"({blk.row_strings.sum() * float(mod['pmax_w']) * int(mod['per_string']) / 1e6:.3f} MWdc),"
-        f" one {ac_kva:g} kVA inverter skid each (DC/AC {d.dc_ac:g})",
+        blocks,
         f"mount: {d.mount}, pitch {d.pitch_m:g} m, {strings.min()}-{strings.max()} strings per row",
-        f"combiners: max_strings {d.max_strings}, "
-        f"{blk.comb_strings.min()}-{blk.comb_strings.max()} strings each",
+        *collection,
     ]
+    name = f"Synthetic plant {mw:g} MWdc, seed {seed}"
+    if info.topology != "central":
+        header.insert(6, f"topology: {info.topology} ({TOPOLOGY_NOTES[info.topology]})")
+        name += f", {info.topology} topology"
     doc: dict[str, Any] = {
-        "site": {"name": f"Synthetic plant {mw:g} MWdc, seed {seed}", "crs": PROJECTED_CRS},
+        "site": {"name": name, "crs": PROJECTED_CRS},
         "modules": {d.module: dict(mod)},
-        "design": DESIGN,
+        "design": TOPOLOGY_DESIGN[info.topology],
         "allowances": ALLOWANCES,
     }
     comments = {

@@ -68,10 +68,12 @@ def test_file_set_and_contract_columns(demo_out):
         "termination",
         "trench",
         "string fuse",
+        "sub-array fuse",
         "array fuse",
         "AC breaker",
     }
-    assert set(sched["kind"]) == {"string", "array", "ac"}
+    # the demo collects DC three ways: combiners, recombiners (sub-arrays), string inverters
+    assert set(sched["kind"]) == {"string", "subarray", "array", "ac"}
     assert set(sched["status"]) <= {"ok", "fail"}
 
 
@@ -80,11 +82,16 @@ def test_nothing_lost(demo_out):
     sched = pd.read_csv(demo_out / "cable_schedule.csv")
     counts = sched["kind"].value_counts()
     assert counts["string"] == site.rows["strings"].sum()
-    assert counts["array"] == len(site.combiners)
+    # a combiner feeding another combiner has a sub-array cable, one feeding an inverter an
+    # array cable
+    onto_combiner = site.combiners["to"].isin(site.combiners["id"])
+    assert counts["subarray"] == onto_combiner.sum() > 0
+    assert counts["array"] == (~onto_combiner).sum()
     assert counts["ac"] == len(site.inverters)
     per_row = sched[sched["kind"] == "string"].groupby("from_id").size()
     assert per_row.to_dict() == dict(zip(site.rows["id"], site.rows["strings"], strict=True))
-    assert set(sched.loc[sched["kind"] == "array", "from_id"]) == set(site.combiners["id"])
+    feeders = sched["kind"].isin(["subarray", "array"])
+    assert sorted(sched.loc[feeders, "from_id"]) == sorted(site.combiners["id"])
     # each trench is covered by its segments: lengths add up (shapely as the reference)
     trench = pd.read_csv(demo_out / "trench_schedule.csv")
     per_trench = trench.groupby("trench_id")["length_m"].sum()
@@ -129,7 +136,7 @@ def test_summary_json(demo_out):
     assert s["tool"]["name"] == "routeplan" and s["tool"]["version"]
     assert set(s["inputs"]) >= {"site.toml", "rows.geojson", "transformers.geojson"}
     assert all(len(h) == 64 for h in s["inputs"].values())
-    assert s["circuits"]["string"]["circuits"] == 224
+    assert s["circuits"]["string"]["circuits"] == 384  # W, E, R: 3 × 112; S: 48
     assert s["ok"] is True and "licensed" in s["caution"]
     # the two demo tables without `to` are assigned to the nearest combiner by route length
     assigned = {a["id"]: a["to"] for a in s["assigned"]}
@@ -145,6 +152,7 @@ IEC60228_R20 = {
     ("Al", 240): 0.125,
     ("Al", 300): 0.100,
     ("Al", 185): 0.164,
+    ("Al", 120): 0.253,
     ("Al", 150): 0.206,
     ("Cu", 240): 0.0754,
 }
@@ -168,13 +176,17 @@ def test_figures_recompute_from_schedule_and_published_tables(demo_out):
     i = s["operating_current_a"]
     dc = s["kind"] != "ac"
     # a.c.: skin and proximity effect (IEC 60287-1-1, tests/iec60287.py); the demo's AC
-    # cables are 300 mm² Al
-    assert set(s.loc[~dc, "size_mm2"]) == {300.0} and set(s.loc[~dc, "material"]) == {"Al"}
+    # cables are 300 mm² Al (central inverters) and 120 mm² Al (string inverters)
+    assert set(s.loc[~dc, "size_mm2"]) == {120.0, 300.0} and set(s.loc[~dc, "material"]) == {"Al"}
     r_one = (r * s["parallel"]).to_numpy()
-    r = np.where(dc, r, r * ac_over_dc(r_one, 300.0, "Al"))
-    # Ohm's law: DC loop 2·L·I·R; three-phase √3·L·I·(R cosφ + X sinφ), the demo's pads at
-    # cos φ = 0.95; X of 300 mm² single-core XLPE in trefoil: 0.140 mV/A/m line to line, BS 7671
-    # Appendix 4 Table 4E1B (from memory), i.e. 0.140/√3 Ω/km per conductor
+    y = np.ones(len(s))
+    for size in (120.0, 300.0):
+        at = ~dc & (s["size_mm2"] == size)
+        y[at] = ac_over_dc(r_one[at], size, "Al")
+    r = r * y
+    # Ohm's law: DC loop 2·L·I·R; three-phase √3·L·I·(R cosφ + X sinφ), the demo's inverters at
+    # cos φ = 0.95; X of 120 and 300 mm² single-core XLPE in trefoil: 0.140 mV/A/m line to line,
+    # BS 7671 Appendix 4 Table 4E1B (from memory), i.e. 0.140/√3 Ω/km per conductor
     cos = s["power_factor"].fillna(1.0).to_numpy()
     assert set(cos[~dc]) == {0.95}
     x = 0.140 / np.sqrt(3) / 1000.0 / s["parallel"]  # Ω/m per phase, sets in parallel
@@ -184,10 +196,21 @@ def test_figures_recompute_from_schedule_and_published_tables(demo_out):
     poles = np.where(dc, 2, 3)
     np.testing.assert_allclose(s["loss_w"], poles * i**2 * r * s["cable_m"], rtol=2e-3, atol=0.06)
     np.testing.assert_allclose(s["vdrop_pct"], 100 * s["vdrop_v"] / s["voltage_v"], atol=2e-3)
-    # vdrop_total_pct: string = own + its array's (README, outputs)
-    arrays = s[s["kind"] == "array"].set_index("from_id")
+    # vdrop_total_pct: string = own + every feeder's on its path up the combiner tree (a
+    # sub-array cable, then the array cable); a string straight to an inverter: its own
+    # (README, outputs)
+    feeder = s[s["kind"].isin(["subarray", "array"])].set_index("from_id")
     strings = s[(s["kind"] == "string")]
-    total = strings["vdrop_pct"] + arrays.loc[strings["to_id"], "vdrop_pct"].to_numpy()
+    total = strings["vdrop_pct"].to_numpy().copy()
+    at = strings["to_id"].to_numpy(dtype=object)
+    for _ in range(3):  # at most 3 combiners in a chain
+        up = np.isin(at, feeder.index)
+        if not up.any():
+            break
+        total[up] += feeder.loc[at[up], "vdrop_pct"].to_numpy()
+        at = np.where(up, feeder["to_id"].reindex(at).to_numpy(dtype=object), None)
+    assert (~strings["to_id"].isin(feeder.index)).any()  # strings straight to an inverter
+    assert (feeder["kind"] == "subarray").any()  # and strings behind a recombiner
     np.testing.assert_allclose(strings["vdrop_total_pct"], total, atol=2e-3)
     np.testing.assert_allclose(s["utilisation"], s["design_current_a"] / s["ampacity_a"], atol=2e-3)
 
@@ -206,7 +229,10 @@ def test_exit_1_when_a_limit_fails_and_outputs_written(tmp_path):
         (site / "site.toml")
         .read_text()
         .replace("dc_total = 2.0", "dc_total = 0.5")
-        .replace("string = 1.0\narray = 1.5", "string = 0.4\narray = 0.4")
+        .replace(
+            "string = 1.0\nsubarray = 1.0\narray = 1.5",
+            "string = 0.4\nsubarray = 0.4\narray = 0.4",
+        )
     )
     (site / "site.toml").write_text(toml)
     out = tmp_path / "out"

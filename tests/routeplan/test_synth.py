@@ -1,4 +1,5 @@
-"""Synthetic sites: determinism, scale, references, reach of the trenches, CRS, validation."""
+"""Synthetic sites: determinism, scale, references, reach of the trenches, CRS, validation,
+and the three topologies (central, sub-array combiners, string inverters) planned end to end."""
 
 from __future__ import annotations
 
@@ -7,15 +8,20 @@ import tomllib
 import geopandas as gpd
 import networkx as nx
 import numpy as np
+import pandas as pd
 import pyogrio
 import pytest
 import shapely
 from geopandas.testing import assert_geodataframe_equal
+from typer.testing import CliRunner
 
 import layers
 from routeplan import synth
+from routeplan.cli import app
 from routeplan.folder import MANIFEST
 from routeplan.synth import generate_site, synth_site
+
+runner = CliRunner()
 
 
 @pytest.fixture(scope="module")
@@ -212,6 +218,7 @@ def test_formats_write_their_files_and_replace_the_other(tmp_path):
         ({"seed": -1}, "seed is -1"),
         ({"fmt": "shp"}, "fmt is 'shp'; expected one of gpkg, geojson"),
         ({"mount": "roof"}, "mount is 'roof'; expected one of tracker, fixed"),
+        ({"topology": "ring"}, "topology is 'ring'; expected one of central, subarray, string"),
         ({"unassigned_rows": -1}, "unassigned_rows is -1"),
         ({"unassigned_rows": 10_000}, "leaves at most one row per combiner"),
     ],
@@ -288,3 +295,240 @@ def test_end_combiners_give_genuine_failures():
     assert (fail["kind"] == "string").all()
     assert fail["note"].str.contains("after derating").all()
     assert fail["to_id"].nunique() <= s.info.inverters  # at most one end combiner per block
+
+
+# ---- topologies: central, sub-array combiners, string inverters ------------------------------
+
+#: (topology, seed, mount): 1-lateral blocks (seed 9 tracker, rows of 3 strings) and 2-lateral
+#: blocks (seed 2 fixed; seed 4 tracker, rows of 2 strings) — see synth._plant
+TOPOLOGY_CASES = {
+    "central": ("central", 9, "tracker"),
+    "subarray-1-lateral": ("subarray", 9, "tracker"),
+    "subarray-2-laterals": ("subarray", 2, "fixed"),
+    "string-rows-of-3": ("string", 9, "tracker"),
+    "string-rows-of-2": ("string", 4, "tracker"),
+}
+UNASSIGNED = 3  # rows left for the planner in every case
+_PLANNED: dict[str, dict] = {}
+
+
+def planned_case(case: str, tmp_path_factory) -> dict:
+    """A generated 20 MW site of ``case``, written (GeoPackage), read back with geopandas and
+    planned with `routeplan plan` (once per module run)."""
+    if case not in _PLANNED:
+        _PLANNED[case] = _plan_case(*TOPOLOGY_CASES[case], tmp_path_factory)
+    return _PLANNED[case]
+
+
+@pytest.fixture(scope="module", params=list(TOPOLOGY_CASES))
+def planned(request, tmp_path_factory) -> dict:
+    return planned_case(request.param, tmp_path_factory)
+
+
+def _plan_case(topology: str, seed: int, mount: str, tmp_path_factory) -> dict:
+    root = tmp_path_factory.mktemp(f"{topology}-{seed}")
+    site, out = root / "site", root / "out"
+    info = generate_site(20, seed, site, mount=mount, topology=topology, unassigned_rows=UNASSIGNED)
+    result = runner.invoke(app, ["plan", str(site), "--out", str(out), "--quiet"])
+    read = lambda name: pd.read_csv(out / name, keep_default_na=False, na_values=[""])  # noqa: E731
+    return {
+        "topology": topology,
+        "info": info,
+        "toml": tomllib.loads((site / "site.toml").read_text(encoding="utf-8")),
+        "layers": {n: gpd.read_file(site / "site.gpkg", layer=n) for n in synth.LAYERS},
+        "exit_code": result.exit_code,
+        "output": result.output,
+        "circuits": read("cable_schedule.csv"),
+        "segments": read("trench_schedule.csv"),
+        "inputs": read("inverter_inputs.csv"),
+        "summary": (out / "summary.json").read_text(encoding="utf-8"),
+    }
+
+
+def test_each_topology_writes_a_valid_site_that_plans(planned):
+    # exit 0 or 1: the input was valid (bad input is exit 2) and every output was written
+    assert planned["exit_code"] in (0, 1), planned["output"]
+    f = planned["layers"]
+    ids = np.concatenate([f[n]["id"].to_numpy() for n in synth.LAYERS])
+    assert len(ids) == len(set(ids))  # unique across every layer
+    assert f["rows"]["to"].isna().sum() == UNASSIGNED
+    # the planner placed the unassigned rows on string combiners or string inverters
+    c = planned["circuits"]
+    fed = set(f["combiners"]["to"]) & set(f["combiners"]["id"])  # recombiners
+    free = set(f["rows"].loc[f["rows"]["to"].isna(), "id"])
+    landed = set(c.loc[c["from_id"].isin(free), "to_id"])
+    assert landed and not landed & fed
+
+
+def test_circuit_counts_by_kind_match_the_generator(planned):
+    """Counted from the written layers with geopandas, by what each feature's `to` names: a
+    string per string of a row; a sub-array cable per combiner feeding a combiner, an array
+    cable per combiner feeding an inverter, an AC circuit per inverter feeding a grid point."""
+    f, info = planned["layers"], planned["info"]
+    comb, inv, grid = f["combiners"], f["inverters"], f["grid"]
+    from_layers = {
+        "string": int(f["rows"]["strings"].sum()),
+        "subarray": int(comb["to"].isin(comb["id"]).sum()),
+        "array": int(comb["to"].isin(inv["id"]).sum()),
+        "ac": int(inv["to"].isin(grid["id"]).sum()),
+    }
+    assert from_layers == info.circuits
+    assert info.combiners == len(comb) and info.inverters == len(inv)
+    assert info.recombiners == len(set(comb["to"]) & set(comb["id"]))  # fed combiners
+    planned_kinds = planned["circuits"]["kind"].value_counts().to_dict()
+    assert planned_kinds == {k: n for k, n in info.circuits.items() if n}
+    expected = {
+        "central": {"array"},
+        "subarray": {"subarray", "array"},
+        "string": set(),
+    }[planned["topology"]]
+    assert {k for k in ("subarray", "array") if info.circuits[k]} == expected
+
+
+def test_failures_are_only_the_documented_shortcut(planned):
+    """Every sub-array, array and AC cable, trench segment and inverter input is within its
+    limits; only strings of the end combiner (string inverter) of a block may fail, on their
+    capacity after grouping (the module docstring's draft-layout shortcut)."""
+    c = planned["circuits"]
+    assert (c.loc[c["kind"] != "string", "status"] == "ok").all()
+    assert (planned["segments"]["status"] == "ok").all()
+    assert (planned["inputs"]["status"] == "ok").all()
+    fail = c[c["status"] == "fail"]
+    assert planned["exit_code"] == (1 if len(fail) else 0)
+    if len(fail):
+        assert len(fail) < 0.1 * len(c)
+        assert fail["note"].str.contains("after derating").all()
+        block = fail["to_id"].str.extract(r"^[A-Z]+(\d+)-", expand=False)
+        assert block.notna().all()
+        assert (fail.groupby(block)["to_id"].nunique() == 1).all()  # one end combiner a block
+
+
+@pytest.mark.parametrize("topology", synth.TOPOLOGIES)
+def test_topology_same_seed_same_site_and_one_layout(topology):
+    a, b = synth_site(12, 31, topology=topology), synth_site(12, 31, topology=topology)
+    assert a.toml == b.toml and a.info == b.info
+    for name in synth.LAYERS:
+        assert_geodataframe_equal(a.frames[name], b.frames[name])
+    # the topology changes the equipment, not the layout: rows, trenches and grid points are
+    # those of the central plant of the same seed
+    central = synth_site(12, 31).frames
+    for name in ("rows", "trenches", "grid"):
+        assert a.frames[name].geometry.equals(central[name].geometry), name
+    assert (a.frames["trenches"]["id"] == central["trenches"]["id"]).all()
+
+
+@pytest.mark.parametrize("seed, mount", [(9, "tracker"), (2, "fixed")])
+def test_subarray_recombiners_collect_the_string_combiners_at_the_pad(seed, mount):
+    s = synth_site(20, seed, mount=mount, topology="subarray")
+    comb, inv = s.frames["combiners"], s.frames["inverters"]
+    rc = comb[comb["id"].isin(comb["to"])]  # combiners fed by combiners
+    string_cb = comb[~comb["id"].isin(comb["to"])]
+    assert len(rc) == s.info.recombiners == 4 * s.info.blocks
+    # strings go to string combiners only; those feed recombiners of their own block, which
+    # feed the block's skid: two combiners in a chain
+    assert set(s.frames["rows"]["to"].dropna()) <= set(string_cb["id"])
+    assert set(string_cb["to"]) == set(rc["id"])
+    block = lambda ids: ids.str.extract(r"^[A-Z]+(\d+)-?", expand=False)  # noqa: E731
+    assert (block(string_cb["id"]) == block(string_cb["to"])).all()
+    assert set(rc["to"]) == set(inv["id"])
+    assert (block(rc["id"]) == block(rc["to"])).all()
+    # each recombiner on its own DC input of its skid: inputs 1…dc_inputs, each once
+    per_inv = rc.groupby("to")["input"].apply(sorted)
+    dc_inputs = inv.set_index("id")["dc_inputs"]
+    for inverter, got in per_inv.items():
+        assert got == list(range(1, int(dc_inputs[inverter]) + 1))
+    # a recombiner takes strings from no row; nothing but recombiners lack max_strings
+    assert rc["max_strings"].isna().all() and string_cb["max_strings"].notna().all()
+    # on the pad's cable-entry line: each recombiner's nearest trench point is the pad's
+    # (shapely as the reference), so its array cable is the two stubs in air
+    trenches = shapely.union_all(s.frames["trenches"].geometry.values)
+    pad = inv.set_index("id").geometry
+    for rid, to, point in zip(rc["id"], rc["to"], rc.geometry, strict=True):
+        tap = shapely.ops.nearest_points(point, trenches)[1]
+        pad_tap = shapely.ops.nearest_points(pad[to], trenches)[1]
+        assert tap.distance(pad_tap) < 1e-6, rid
+
+
+@pytest.mark.parametrize("case", ["subarray-1-lateral", "subarray-2-laterals"])
+def test_subarray_array_cables_run_in_air_and_sub_arrays_are_fused(case, tmp_path_factory):
+    c = planned_case(case, tmp_path_factory)["circuits"]
+    arrays, subs = c[c["kind"] == "array"], c[c["kind"] == "subarray"]
+    assert (arrays["trench_segments"].isna()).all()  # stubs only
+    assert (arrays["backfeed_a"] == 0).all()  # alone on its input
+    # the other sub-arrays of a recombiner feed a fault on one: fused where the cable's
+    # capacity is below that backfeed (IEC 62548, from memory)
+    protected = subs["backfeed_a"] > subs["ampacity_a"]
+    assert protected.any()
+    assert subs.loc[protected, "array_fuse_a"].notna().all()
+
+
+@pytest.mark.parametrize("case", ["string-rows-of-3", "string-rows-of-2"])
+def test_string_inverters_take_every_string_within_their_input_ratings(case, tmp_path_factory):
+    """Recomputed per input from the schedule and the layers: strings on it ≤ its terminals,
+    Σ Imp ≤ input_max_a, Σ Isc ≤ input_max_isc_a (the synthetic modules are monofacial: the
+    design Isc is the datasheet Isc); rows naming an input land there."""
+    planned = planned_case(case, tmp_path_factory)
+    f, c = planned["layers"], planned["circuits"]
+    assert len(f["combiners"]) == 0
+    strings = c[c["kind"] == "string"]
+    assert strings["input"].notna().all()  # every string lands on an input
+    inv = f["inverters"].set_index("id")
+    assert strings["to_id"].isin(inv.index).all()
+    assert (strings["input"] <= inv.loc[strings["to_id"], "dc_inputs"].to_numpy()).all()
+    (module,) = planned["toml"]["modules"].values()
+    rows = f["rows"].set_index("id")
+    named = rows["input"].reindex(strings["from_id"]).to_numpy()
+    has = ~np.isnan(named)
+    assert has.sum() > 0 and (~has).sum() > 0  # named inputs and the planner's spread
+    np.testing.assert_array_equal(strings["input"].to_numpy()[has], named[has])
+    load = strings.groupby(["to_id", "input"]).size().rename("n").reset_index()
+    lim = inv.loc[load["to_id"]]
+    assert (load["n"].to_numpy() <= lim["input_max_strings"].to_numpy()).all()
+    assert (load["n"].to_numpy() * module["imp_a"] <= lim["input_max_a"].to_numpy()).all()
+    assert (load["n"].to_numpy() * module["isc_a"] <= lim["input_max_isc_a"].to_numpy()).all()
+    # the planner's inputs table says the same
+    table = planned["inputs"].set_index(["inverter_id", "input"])["strings"]
+    got = load.set_index(["to_id", "input"])["n"]
+    assert table.sort_index().tolist() == got.sort_index().tolist()
+    # each inverter's AC circuit ends at its block's transformer station
+    ac = c[c["kind"] == "ac"]
+    assert len(ac) == len(inv)
+    block = lambda ids: ids.str.extract(r"^[A-Z]+(\d+)", expand=False)  # noqa: E731
+    assert (block(ac["from_id"]) == block(ac["to_id"])).all()
+
+
+@pytest.mark.parametrize("topology", ["subarray", "string"])
+def test_gigawatt_scale_per_topology(topology):
+    info = synth_site(1000, 8, topology=topology).info
+    assert info.mwdc == pytest.approx(1000, rel=0.01)
+    assert info.circuits["string"] == info.strings >= 60_000
+    if topology == "subarray":
+        assert info.recombiners == 4 * info.blocks
+        assert info.circuits["subarray"] >= 2_500 and info.circuits["array"] == info.recombiners
+    else:
+        assert info.combiners == 0 and info.inverters >= 2_500  # string inverters
+        assert info.circuits["ac"] == info.inverters
+
+
+def test_synth_command_topology_option(tmp_path):
+    site = tmp_path / "s"
+    result = runner.invoke(
+        app, ["synth", "--mw", "5", "--seed", "2", "--topology", "string", "--out", str(site)]
+    )
+    assert result.exit_code == 0, result.output
+    assert " string inverters, " in result.output and " combiners" not in result.output
+    check = runner.invoke(app, ["check", str(site)])
+    assert check.exit_code == 0 and "ok: no problems found" in check.output
+    result = runner.invoke(
+        app, ["synth", "--mw", "5", "--topology", "subarray", "--out", str(tmp_path / "r")]
+    )
+    assert result.exit_code == 0, result.output
+    assert "of them recombiners" in result.output
+    bad = runner.invoke(
+        app, ["synth", "--mw", "5", "--topology", "ring", "--out", str(tmp_path / "b")]
+    )
+    assert bad.exit_code == 2
+    assert bad.stderr.splitlines() == [
+        "error: topology is 'ring'; expected one of central, subarray, string"
+    ]
+    assert not (tmp_path / "b").exists()
