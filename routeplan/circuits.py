@@ -207,8 +207,9 @@ def assign_destinations(
 
     - a row goes to a combiner when the site has any, else to an inverter; rows are
       placed by :func:`assign_greedy` in ascending route length, each whole row to one
-      combiner, so that no combiner exceeds its ``max_strings`` (after the rows given to
-      it by ``to``);
+      combiner or inverter, so that no combiner exceeds its ``max_strings`` and no inverter
+      its string terminals (``dc_inputs`` × ``input_max_strings``), after the rows given to
+      it by ``to``;
     - a combiner goes to the nearest inverter;
     - an inverter goes to the only grid point, else to the nearest one; with no grid point
       it has no ac circuit.
@@ -268,8 +269,18 @@ def assign_destinations(
             )
             problems.append((AssignmentError, Problem("combiners", ids["combiners"][j], msg)))
         room = np.maximum(cap - used, 0)[[index["combiners"][v] for v in dst_ids]]
-    else:
-        room = np.full(len(dst_ids), np.inf)
+    else:  # string inverters: their string terminals, dc_inputs × input_max_strings
+        inv = site.inverters
+        cap = np.asarray(inv["dc_inputs"], dtype=float) * np.asarray(
+            inv["input_max_strings"], dtype=float
+        )
+        cap = np.where(np.isnan(cap), np.inf, cap)
+        used = np.zeros(len(cap))
+        for i, t in enumerate(to["rows"]):
+            if t is not None and t[0] == "inverters":
+                used[index["inverters"][t[1]]] += strings[i]
+        # a named inverter over its terminals is reported with its inputs (routeplan.inputs)
+        room = np.maximum(cap - used, 0)[[index["inverters"][v] for v in dst_ids]]
     need = [i for i in range(len(rows)) if not has_to[i] and connected("rows", ids["rows"][i])]
     if need:
         src_ids = [ids["rows"][i] for i in need]

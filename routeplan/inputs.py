@@ -118,40 +118,71 @@ def assign_inputs(site: Site, circuits: pd.DataFrame, imp_a: np.ndarray) -> np.n
 
     todo = lands & np.isnan(out)
     if todo.any():
-        route = circuits["route_m"].to_numpy(dtype=float)
-        is_string = kind == "string"
-        for inverter in pd.unique(to_id[todo]):
-            on = lands & (to_id == inverter)
-            k = int(inv.at[inverter, "dc_inputs"])
-            room = float(inv.at[inverter, "input_max_strings"])
-            load = np.zeros(k + 1)  # Σ Imp per input (index 1…k)
-            used = np.zeros(k + 1)  # string terminals per input
-            fixed = on & ~np.isnan(out)
-            np.add.at(load, out[fixed].astype(int), imp_a[fixed])
-            np.add.at(used, out[fixed & is_string].astype(int), 1.0)
-            free = np.flatnonzero(on & np.isnan(out))
-            for i in free[np.lexsort((free, route[free]))].tolist():
-                ok = np.arange(k + 1) >= 1
-                if is_string[i] and np.isfinite(room):
-                    ok &= used + 1 <= room
-                if not ok.any():
-                    problems.append(
-                        Problem(
-                            "inverters",
-                            str(inverter),
-                            "no DC input has a free string terminal for "
-                            f"{circuits['circuit_id'].iloc[i]} ({k} inputs × input_max_strings "
-                            f"{room:g})",
-                        )
-                    )
-                    break
-                j = int(np.flatnonzero(ok)[np.argmin(load[ok])])
-                out[i] = j
-                load[j] += imp_a[i]
-                used[j] += is_string[i]
+        problems += _spread(circuits, inv, lands, todo, out, imp_a, kind == "string")
     if problems:
         raise DesignError(problems)
     return out
+
+
+def _spread(
+    circuits: pd.DataFrame,
+    inv: pd.DataFrame,
+    lands: np.ndarray,
+    todo: np.ndarray,
+    out: np.ndarray,
+    imp_a: np.ndarray,
+    is_string: np.ndarray,
+) -> list[Problem]:
+    """Fill ``out`` where ``todo`` by the module docstring's rule, every inverter at once:
+    step r places the r-th unassigned circuit (nearest first) of each inverter."""
+    to_id = circuits["to_id"].to_numpy(dtype=object)
+    code, names = pd.factorize(to_id[lands])
+    at = np.flatnonzero(lands)
+    inv_of = np.full(len(out), -1)
+    inv_of[at] = code
+    k = inv["dc_inputs"].reindex(names).to_numpy(dtype=float).astype(np.int64)
+    room = inv["input_max_strings"].reindex(names).to_numpy(dtype=float)
+    room = np.where(np.isnan(room), np.inf, room)
+    valid = (np.arange(k.max() + 1)[None, :] >= 1) & (np.arange(k.max() + 1)[None, :] <= k[:, None])
+    load = np.zeros(valid.shape)  # Σ Imp per inverter and input (column 1…k)
+    used = np.zeros(valid.shape)  # string terminals per inverter and input
+    fixed = lands & ~todo
+    np.add.at(load, (inv_of[fixed], out[fixed].astype(np.int64)), imp_a[fixed])
+    fs = fixed & is_string
+    np.add.at(used, (inv_of[fs], out[fs].astype(np.int64)), 1.0)
+
+    free = np.flatnonzero(todo)
+    route = circuits["route_m"].to_numpy(dtype=float)
+    free = free[np.lexsort((free, route[free], inv_of[free]))]  # by inverter, nearest first
+    group = inv_of[free]
+    first = np.r_[0, np.flatnonzero(np.diff(group)) + 1]
+    rank = np.arange(len(free)) - np.repeat(first, np.diff(np.r_[first, len(free)]))
+    failed = np.zeros(len(names), dtype=bool)
+    problems: list[Problem] = []
+    for r in range(int(rank.max()) + 1):
+        sel = free[rank == r]
+        rows = inv_of[sel]
+        keep = ~failed[rows]
+        sel, rows = sel[keep], rows[keep]
+        ok = valid[rows] & (~is_string[sel, None] | (used[rows] + 1 <= room[rows, None]))
+        none = ~ok.any(axis=1)
+        for i, g in zip(sel[none].tolist(), rows[none].tolist(), strict=True):
+            problems.append(
+                Problem(
+                    "inverters",
+                    str(names[g]),
+                    "no DC input has a free string terminal for "
+                    f"{circuits['circuit_id'].iloc[i]} ({k[g]} inputs × input_max_strings "
+                    f"{room[g]:g})",
+                )
+            )
+        failed[rows[none]] = True
+        sel, rows, ok = sel[~none], rows[~none], ok[~none]
+        j = np.argmin(np.where(ok, load[rows], np.inf), axis=1)  # ties: the lower number
+        out[sel] = j
+        load[rows, j] += imp_a[sel]  # one circuit per inverter per step: no repeats
+        used[rows, j] += is_string[sel]
+    return problems
 
 
 def landing_input(parent: np.ndarray, own: np.ndarray) -> np.ndarray:
@@ -205,8 +236,8 @@ def input_table(
         terminals=("terminals", "sum"),
         imp_a=("imp_a", "sum"),
         isc_a=("isc_a", "sum"),
-        circuit_ids=("circuit_id", lambda ids: ";".join(sorted(ids))),
     ).reset_index()
+    t["circuit_ids"] = _joined_ids(frame, g.ngroup().to_numpy(), len(t))
     inv = site.inverters.set_index("id")
     for col in ("input_max_strings", "input_max_a", "input_max_isc_a"):
         t[col] = inv[col].reindex(t["inverter_id"]).to_numpy(dtype=float)
@@ -224,6 +255,18 @@ def input_table(
     t["note"] = note
     t = t.sort_values(["inverter_id", "input"], kind="stable").reset_index(drop=True)
     return t[list(INPUT_COLUMNS)]
+
+
+def _joined_ids(frame: pd.DataFrame, group: np.ndarray, n: int) -> list[str]:
+    """Each group's circuit ids, sorted and ';'-joined (``group``: each row's group number
+    in ``groupby(sort=False)`` order)."""
+    order = pd.DataFrame({"g": group, "id": frame["circuit_id"]}).sort_values(
+        ["g", "id"], kind="stable"
+    )
+    ids = order["id"].to_numpy(dtype=object)
+    cuts = np.flatnonzero(np.diff(order["g"].to_numpy())) + 1
+    parts = np.split(ids, cuts) if n else []  # every group has a row
+    return [";".join(p.tolist()) for p in parts]
 
 
 def _unique(problems: list[Problem]) -> list[Problem]:

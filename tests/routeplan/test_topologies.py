@@ -334,3 +334,57 @@ def test_no_free_terminal_and_an_input_beyond_dc_inputs(tmp_path):
     assert "error: rows 'R1': input 4, but inverter 'INV1' has 3 DC inputs" in (
         result.stderr.splitlines()
     )
+
+
+def test_two_inverters_spread_at_once(tmp_path):
+    """Each inverter's unassigned strings are spread by the README's rule independently of the
+    other's: INV1 (3 inputs, x = 100) takes R2's strings (30 m) before R1's (60 m): R2/S1 → 1,
+    R2/S2 → 2, R1/S1 → 3, R1/S2 → 1 (all loads equal again: the lower number); INV2 (2 inputs,
+    x = 200) takes R3's three: 1, 2, 1."""
+    frames = layers(
+        rows=[
+            ("R1", 40, {"strings": 2, "module": "m1", "to": "INV1"}),
+            ("R2", 70, {"strings": 2, "module": "m1", "to": "INV1"}),
+            ("R3", 190, {"strings": 3, "module": "m1", "to": "INV2"}),
+        ],
+        combiners=[],
+        inverters=[
+            ("INV1", 100, {**INVERTER, "dc_inputs": 3}),
+            ("INV2", 200, {**INVERTER, "dc_inputs": 2}),
+        ],
+    )
+    c, inputs, _ = plan(tmp_path, frames)
+    got = dict(zip(c.index, c["input"], strict=True))
+    expected = {
+        "R2/S1": 1, "R2/S2": 2, "R1/S1": 3, "R1/S2": 1, "R3/S1": 1, "R3/S2": 2, "R3/S3": 1
+    }  # fmt: skip
+    assert {k: got[k] for k in expected} == expected
+    t = inputs.set_index(["inverter_id", "input"])
+    assert t.loc[("INV1", 1), "circuit_ids"] == "R1/S2;R2/S1"
+    assert t.loc[("INV2", 1), "circuit_ids"] == "R3/S1;R3/S3"
+    assert t["strings"].to_dict() == {
+        ("INV1", 1): 2,
+        ("INV1", 2): 1,
+        ("INV1", 3): 1,
+        ("INV2", 1): 2,
+        ("INV2", 2): 1,
+    }
+
+
+def test_rows_without_to_go_to_an_inverter_with_free_terminals(tmp_path):
+    """A row without `to` goes to the nearest inverter that still has string terminals
+    (dc_inputs × input_max_strings, less the strings given to it by `to`): INV1 at x = 100 has
+    2 × 1 terminals, both taken by R1; R2 (next to INV1) goes to INV2 at x = 200."""
+    limits = {"dc_inputs": 2, "input_max_strings": 1}
+    frames = layers(
+        rows=[
+            ("R1", 90, {"strings": 2, "module": "m1", "to": "INV1"}),
+            ("R2", 110, {"strings": 2, "module": "m1"}),
+        ],
+        combiners=[],
+        inverters=[("INV1", 100, {**INVERTER, **limits}), ("INV2", 200, {**INVERTER, **limits})],
+    )
+    c, inputs, _ = plan(tmp_path, frames)
+    assert c.loc["R2/S1", "to_id"] == c.loc["R2/S2", "to_id"] == "INV2"
+    assert sorted(c.loc[["R2/S1", "R2/S2"], "input"]) == [1, 2]
+    assert (inputs["status"] == "ok").all() and (inputs["strings"] == 1).all()
