@@ -201,6 +201,8 @@ CONDUCTORS = {"dc": 2, 3: 3, 1: 2}
 #: protective devices per protected circuit: a fuse in each pole of an unearthed PV array
 #: (IEC 62548, from memory), one breaker per inverter output
 FUSES_PER_CIRCUIT, BREAKERS_PER_CIRCUIT = 2, 1
+#: IEC 62548 names the protection of a sub-array cable and of an array cable apart
+ARRAY_FUSE_ITEM = {"subarray": "sub-array fuse", "array": "array fuse"}
 
 
 def number(text: str) -> float | None:
@@ -222,7 +224,7 @@ def expected_bill(
         bill[("termination", *key, None, None)] += 2 * n
         for column, item, label, per in (
             ("fuse_a", "string fuse", "{:g} A gPV", FUSES_PER_CIRCUIT),
-            ("array_fuse_a", "array fuse", "{:g} A gPV", FUSES_PER_CIRCUIT),
+            ("array_fuse_a", ARRAY_FUSE_ITEM.get(r["kind"]), "{:g} A gPV", FUSES_PER_CIRCUIT),
             ("ac_breaker_a", "AC breaker", "{:g} A iec60947-2", BREAKERS_PER_CIRCUIT),
         ):
             if r[column]:
@@ -311,7 +313,15 @@ def test_quantities_of_the_demo_are_the_sum_of_its_schedule(demo_plan):
     got = check_bill(demo_plan, {k: int(v) for k, v in phases.items()}, trench_m, trench_tol=0.01)
     items = {k[0] for k in got}
     # the demo is made so that every kind of device appears
-    assert items == {"cable", "termination", "trench", "string fuse", "array fuse", "AC breaker"}
+    assert items == {
+        "cable",
+        "termination",
+        "trench",
+        "string fuse",
+        "sub-array fuse",
+        "array fuse",
+        "AC breaker",
+    }
     cables = read_rows(demo_plan / "cable_schedule.csv")
     assert any(int(r["parallel"]) > 1 for r in cables)  # parallel sets are in the sums
     assert math.isclose(
