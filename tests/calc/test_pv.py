@@ -7,6 +7,7 @@ from numpy.testing import assert_allclose
 
 from calc.pv import (
     ac_current_a,
+    ac_max_current_a,
     array_design_current_a,
     string_design_current_a,
     string_protection,
@@ -64,3 +65,19 @@ def test_ac_output_current():
     # 3-phase I = S/(√3·U_LL); 1-phase I = S/U_LN
     assert_allclose(ac_current_a([250.0], [800.0], [3]), [250e3 / (np.sqrt(3) * 800.0)])
     assert_allclose(ac_current_a([4.6], [230.0], [1]), [20.0])
+
+
+def test_any_positive_datasheet_maximum_is_taken():
+    # limiting case: ac_max_a > 0 is the only condition (a small inverter may give 0.5 A)
+    assert ac_max_current_a([0.1, 0.2], [230.0, 230.0], [1, 1], [0.5, 1.0]).tolist() == [0.5, 1.0]
+
+
+def test_datasheet_maximum_needs_no_rated_current():
+    # with the maximum given, an unknown voltage (0) or power (0) makes no warning: the rated
+    # current S / U is not needed
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        out = ac_max_current_a([100.0, 0.0], [0.0, 0.0], [3, 1], [160.0, 20.0])
+    assert out.tolist() == [160.0, 20.0]
