@@ -297,3 +297,31 @@ def test_typical_cable_diameters_agree_with_iec60502_construction():
     # build-up ignores tapes, tolerances and the thicker sheaths of small cables)
     ratio = cable_diameter_mm(sizes) / estimate
     assert np.all((ratio > 0.98) & (ratio < 1.07)), ratio.round(3).tolist()
+
+
+def test_table2_refusals_name_the_rows_it_has():
+    with pytest.raises(TableRangeError) as e:
+        skin_proximity_coefficients("Al", "milliken_insulated_wires")
+    assert str(e.value) == (
+        "IEC 60287-1-1 Table 2 lists no Al milliken_insulated_wires conductor with extruded "
+        "insulation; Al rows: round_solid/any, round_stranded/any, milliken/any"
+    )
+    with pytest.raises(UnknownOptionError) as e:
+        skin_proximity_coefficients("Fe")
+    assert str(e.value) == "material must be one of 'Cu', 'Al'; got 'Fe'"
+    with pytest.raises(UnknownOptionError) as e:
+        skin_proximity_coefficients("Cu", insulation="paper")
+    assert str(e.value) == "insulation must be one of 'extruded', 'impregnated'; got 'paper'"
+
+
+def test_geometry_of_the_smallest_size():
+    # 1.5 mm², the first size of the file: a 7-wire conductor fills 7/9 of its circle (the file
+    # rounds it to 0.778), d_c = √(4 A / (π · 7/9)); overall diameter 5.5 mm (typical catalogue)
+    assert_allclose(conductor_diameter_mm([1.5]), [math.sqrt(4 * 1.5 / (math.pi * 7 / 9))], 1e-3)
+    assert cable_diameter_mm([1.5]).tolist() == [5.5]
+
+
+def test_an_integer_size_off_the_file_is_named_in_mm2():
+    with pytest.raises(TableRangeError) as e:
+        cable_diameter_mm(np.array([5, 240]))
+    assert str(e.value).startswith("no typical single-core cable geometry for size(s) [5.0] mm²")

@@ -331,6 +331,12 @@ def test_array_cable_check_conditions():
     assert c.note[0] == "cable capacity Iz not known: backfeed protection not verified"
 
 
+def test_an_array_alone_needs_its_own_current_only():
+    # no backfeed and no fuse: the array's own 1.25 · I_SC (IEC 62548:2016, from memory); a
+    # backfeed below it changes nothing
+    assert_allclose(array_min_capacity_a([100.0, 100.0], [0.0, 80.0], np.nan), [125.0, 125.0])
+
+
 def test_array_capacity_with_a_device_whose_i2_is_above_145():
     # a device with I2 = 1.6 In (gG fuse-links ≥ 16 A, IEC 60269-2, from memory) needs
     # Iz ≥ 1.6 × 125 / 1.45 = 137.93 A

@@ -1,10 +1,14 @@
 """PV design currents and string protection, IEC 62548:2016 (rules from memory; see calc.pv)."""
 
+import warnings
+
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
+from calc.errors import InputError
 from calc.pv import (
     ac_current_a,
     ac_max_current_a,
@@ -75,9 +79,13 @@ def test_any_positive_datasheet_maximum_is_taken():
 def test_datasheet_maximum_needs_no_rated_current():
     # with the maximum given, an unknown voltage (0) or power (0) makes no warning: the rated
     # current S / U is not needed
-    import warnings
-
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         out = ac_max_current_a([100.0, 0.0], [0.0, 0.0], [3, 1], [160.0, 20.0])
     assert out.tolist() == [160.0, 20.0]
+
+
+def test_phases_other_than_one_or_three_are_refused():
+    with pytest.raises(InputError) as e:
+        ac_current_a([100.0, 100.0], [400.0, 400.0], [3, 2])
+    assert str(e.value) == "phases must be 1 or 3"

@@ -1,8 +1,12 @@
 """Packaged data tables: headers, tags, row counts and known cells."""
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 
+import calc
+from calc.errors import DataFileError
 from calc.tables import load_table, parse_table, table_names
 
 ALLOWED_TAGS = {"confirmed", "memory", "memory-low", "common practice", "derived"}
@@ -64,10 +68,6 @@ def test_coordination_factor_and_design_defaults():
 
 def test_table_names_lists_every_packaged_csv_file():
     # the package's data folder, listed with pathlib (no importlib.resources)
-    from pathlib import Path
-
-    import calc
-
     folder = Path(calc.__file__).parent / "data"
     on_disk = sorted(p.name for p in folder.iterdir() if p.suffix == ".csv")
     assert table_names() == on_disk
@@ -96,8 +96,6 @@ def test_parsed_columns_are_read_only():
     ],
 )
 def test_malformed_tables_are_refused_with_the_reason(text, message):
-    from calc.errors import DataFileError
-
     with pytest.raises(DataFileError) as e:
         parse_table(text)
     assert str(e.value) == message
