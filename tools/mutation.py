@@ -183,29 +183,35 @@ def equivalents() -> set[str]:
 
 
 def report(status: dict[str, str], equivalent: set[str]) -> str:
-    """Return the score table per module and the list of survivors."""
+    """Return the score table per module and the list of mutants not killed.
+
+    ``left`` counts the mutants that survived, had no test, or were suspicious; ``pending``
+    those not checked yet. score = killed / (total - equivalent - pending).
+    """
     by_module: dict[str, Counter] = defaultdict(Counter)
     survivors = []
     for name, state in sorted(status.items()):
         module = name.split(".x_")[0].split(".xǁ")[0]
-        kind = "killed" if state in KILLED else state
-        if name in equivalent and kind != "killed":
+        if state in KILLED:
+            kind = "killed"
+        elif state == "not checked":
+            kind = "pending"
+        elif name in equivalent:
             kind = "equivalent"
+        else:
+            kind = "left"
+            survivors.append(f"  {name}: {state}")
         by_module[module][kind] += 1
         by_module[module]["total"] += 1
-        if kind not in ("killed", "equivalent"):
-            survivors.append(f"  {name}: {state}")
-    head = f"{'module':32} {'total':>6} {'killed':>6} {'equiv':>6} {'left':>6} {'score':>7}"
-    rows = [head]
+    cols = ("total", "killed", "equivalent", "left", "pending")
+    rows = [f"{'module':24}" + "".join(f"{c:>11}" for c in cols) + f"{'score':>8}"]
     for module, c in sorted(by_module.items()):
-        left = c["total"] - c["killed"] - c["equivalent"]
-        scored = c["total"] - c["equivalent"]
-        score = f"{100 * c['killed'] / scored:6.1f}%" if scored else "      -"
-        rows.append(
-            f"{module:32} {c['total']:6} {c['killed']:6} {c['equivalent']:6} {left:6} {score}"
-        )
+        scored = c["total"] - c["equivalent"] - c["pending"]
+        score = f"{100 * c['killed'] / scored:7.1f}%" if scored else "       -"
+        rows.append(f"{module:24}" + "".join(f"{c[k]:11}" for k in cols) + score)
     if survivors:
-        rows += ["", "not killed (survived, no tests, suspicious or not checked):", *survivors]
+        rows += ["", "not killed (survived, no tests or suspicious), not recorded as equivalent:"]
+        rows += survivors
     return "\n".join(rows)
 
 
