@@ -166,6 +166,5 @@ def test_spaced_cables_need_no_factor():
 
 
 def test_the_last_tabulated_count_returns_the_cell_itself():
-    # IEC 60364-5-52:2009 Table B.52.17 item 1, 20 circuits: 0.38 exactly (the table's cell, not
-    # the extrapolation formula evaluated at 20, which rounds to 0.38000000000000006)
+    # IEC 60364-5-52:2009 Table B.52.17 item 1: the last rows' cells exactly, 20 circuits 0.38
     assert air_group_factor([20, 16], "bunched").tolist() == [0.38, 0.41]
