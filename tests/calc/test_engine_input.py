@@ -103,6 +103,8 @@ def test_more_than_five_circuits_are_counted():
         "cable_m must be >= 0 m at circuits [0, 1, 2, 3, 4] and 1 more; "
         "air_m must be >= 0 m at circuits [0, 5]"
     )
+    inp = _six(cable_m=[-1.0] * 5 + [0.0], kind=[0, 0, 1, 2, 2, 0])  # five: all named
+    assert _message(inp) == "cable_m must be >= 0 m at circuits [0, 1, 2, 3, 4]"
 
 
 def test_lengths_of_the_arrays():
