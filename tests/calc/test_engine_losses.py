@@ -1,0 +1,101 @@
+"""Operating currents, conductor temperatures, losses and marking through the engine.
+
+Recomputed by hand: R20 from IEC 60228:2004 Tables 2/3, R(θ) = R20 (1 + 0.00393 (θ − 20))
+(IEC 60287-1-1, Cu), the a.c. resistance ratio from an independent reading of IEC 60287-1-1
+(tests/iec60287.py), Joule's law P = n I² R L, the equivalent loss hours E = P · h, capacities
+from IEC 60364-5-52:2009 Table B.52.12 (method F, from memory) × Table B.52.14 (0.91 at 40 °C),
+colours from IEC 60445:2017 (a.c., from memory) and common practice (d.c.). Site invented.
+"""
+
+import numpy as np
+from numpy.testing import assert_allclose
+
+from calc import DesignParams, SizingInput, size_circuits
+from tests.iec60287 import ac_over_dc
+
+
+def _plant():
+    """Array 0 (two strings, 400 m), strings 1 and 2 (100 m), a.c. circuit 3 (250 kVA, 10 m)."""
+    return SizingInput(
+        kind=np.array([1, 0, 0, 2], dtype=np.int8),
+        cable_m=np.array([400.0, 100.0, 100.0, 10.0]),
+        air_m=np.array([400.0, 100.0, 100.0, 10.0]),
+        parent=np.array([-1, 0, 0, -1]),
+        isc_a=np.array([13.0, 13.0, 13.0, np.nan]),
+        imp_a=np.array([12.0, 12.0, 12.0, np.nan]),
+        vmp_v=np.array([1000.0, 1000.0, 1000.0, np.nan]),
+        n_strings=np.array([2, 1, 1, 1]),
+        ac_kva=np.array([np.nan, np.nan, np.nan, 250.0]),
+        ac_v=np.array([np.nan, np.nan, np.nan, 800.0]),
+    )
+
+
+def _r_km(r20, theta):
+    return r20 * (1 + 0.00393 * (theta - 20.0))
+
+
+def test_losses_of_each_kind_and_their_totals():
+    r = size_circuits(_plant(), DesignParams(loss_hours_h=2000.0))
+    # sizes: array 35 mm² (25 mm² gives 1.78 % > 2 − 0.65 %), strings 10 mm², a.c. 70 mm²
+    assert r.size_mm2.tolist() == [35.0, 10.0, 10.0, 70.0] and r.ok.all()
+    ib = 250e3 / (np.sqrt(3) * 800.0)
+    assert_allclose(r.operating_current_a, [24.0, 12.0, 12.0, ib])
+    assert r.conductor_temp_c.tolist() == [90.0, 120.0, 120.0, 90.0]
+    r_arr = _r_km(0.524, 90.0)  # Ω/km
+    r_str = _r_km(1.95, 120.0)  # class 5 tinned, PV cable at 120 °C
+    r_ac = _r_km(0.268, 90.0) * float(ac_over_dc(_r_km(0.268, 90.0) / 1e3, 70.0, "Cu"))
+    loss = np.array(
+        [
+            2 * 24.0**2 * r_arr * 0.4,
+            2 * 12.0**2 * r_str * 0.1,
+            2 * 12.0**2 * r_str * 0.1,
+            3 * ib**2 * r_ac * 0.01,
+        ]
+    )
+    power = np.array([24e3, 12e3, 12e3, 250e3 * 0.9])  # Vmp · I; S · cos φ
+    assert_allclose(r.loss_w, loss, rtol=1e-9)
+    assert_allclose(r.loss_pct, 100 * loss / power, rtol=1e-9)
+    assert_allclose(r.energy_loss_kwh, loss * 2000.0 / 1000.0, rtol=1e-9)
+    per_kind = np.array([loss[1] + loss[2], loss[0], loss[3]])  # string, array, a.c.
+    assert_allclose(r.total_loss_w, per_kind, rtol=1e-9)
+    assert_allclose(r.total_loss_pct, 100 * per_kind / [24e3, 24e3, 225e3], rtol=1e-9)
+    assert_allclose(r.total_energy_loss_kwh, per_kind * 2.0, rtol=1e-9)
+
+
+def test_loading_mode_conductor_temperature():
+    # θ = θamb + (θmax − θamb)(I/Iz)²: a.c. 90 °C XLPE in 40 °C air, I 180.4 A, Iz 268 × 0.91
+    r = size_circuits(_plant(), DesignParams(conductor_temp="loading"))
+    ib = 250e3 / (np.sqrt(3) * 800.0)
+    theta = 40.0 + (90.0 - 40.0) * (ib / (268.0 * 0.91)) ** 2
+    assert r.size_mm2[3] == 70.0
+    assert_allclose(r.conductor_temp_c[3], theta)
+    r_dc = _r_km(0.268, theta) / 1e3
+    r_ac = r_dc * float(ac_over_dc(r_dc, 70.0, "Cu"))
+    assert_allclose(r.loss_w[3], 3 * ib**2 * r_ac * 10.0, rtol=1e-9)
+
+
+def test_kind_with_no_power_has_no_loss_percentage():
+    # only strings: the array and a.c. totals are 0 W of 0 W, reported as 0 %
+    inp = SizingInput(
+        kind=np.array([0], dtype=np.int8),
+        cable_m=np.array([50.0]),
+        air_m=np.array([50.0]),
+        isc_a=np.array([13.0]),
+        imp_a=np.array([12.0]),
+        vmp_v=np.array([1000.0]),
+    )
+    r = size_circuits(inp)
+    assert r.total_loss_w[1:].tolist() == [0.0, 0.0]
+    assert r.total_loss_pct[1:].tolist() == [0.0, 0.0]
+    assert r.total_loss_pct[0] > 0.0
+
+
+def test_marking_of_each_circuit():
+    r = size_circuits(_plant())
+    dc = "L+ red (marked L+), L- black (marked L-) [colours: common practice]"
+    assert r.marking.tolist() == [
+        dc,
+        dc,
+        dc,
+        "L1 brown, L2 black, L3 grey, N blue (if run), PE green-and-yellow",
+    ]
