@@ -99,3 +99,67 @@ def test_marking_of_each_circuit():
         dc,
         "L1 brown, L2 black, L3 grey, N blue (if run), PE green-and-yellow",
     ]
+
+
+def test_loading_mode_in_the_ground_and_behind_the_modules():
+    # buried: θamb is the ground temperature (20 °C); a string in air behind the modules:
+    # the row temperature (70 °C), PV cable rated at 120 °C (EN 50618 Table A.3 basis)
+    inp = SizingInput(
+        kind=np.array([2, 0], dtype=np.int8),
+        cable_m=np.array([10.0, 30.0]),
+        air_m=np.array([0.0, 30.0]),
+        isc_a=np.array([np.nan, 13.0]),
+        imp_a=np.array([np.nan, 12.0]),
+        vmp_v=np.array([np.nan, 1000.0]),
+        ac_kva=np.array([50.0, np.nan]),
+        ac_v=np.array([400.0, np.nan]),
+        seg_depth_m=np.array([0.7]),
+        seg_laying=np.array([0]),
+        seg_spacing_m=np.array([0.0]),
+        seg_soil_k_m_w=np.array([2.5]),
+        seg_count=np.array([1]),
+        inc_circuit=np.array([0]),
+        inc_segment=np.array([0]),
+    )
+    r = size_circuits(inp, DesignParams(conductor_temp="loading", row_air_temp_c=70.0))
+    ib = 50e3 / (np.sqrt(3) * 400.0)
+    # a.c.: 16 mm² B.52.5 D2 XLPE 3 loaded 84 A at reference conditions (memory)
+    assert r.size_mm2[0] == 16.0 and r.governing_env[0] == "D2"
+    assert_allclose(r.conductor_temp_c[0], 20.0 + 70.0 * (ib / 84.0) ** 2)
+    # string: 4 mm² pair 44 A × 0.91 (Table A.4, 70 °C), I = 12 A
+    assert r.size_mm2[1] == 4.0
+    assert_allclose(r.conductor_temp_c[1], 70.0 + 50.0 * (12.0 / (44.0 * 0.91)) ** 2)
+
+
+def test_aluminium_feeder_resistance():
+    # IEC 60287-1-1 Table 1: α20 Al 4.03e-3; 50 mm² Al class 2, R20 0.641 Ω/km (IEC 60228
+    # Table 2), at 90 °C; one set (drop limits raised so that it passes)
+    design = DesignParams(
+        material_array="Al", sizes_array_mm2=(50.0,), drop_array_pct=5.0, drop_dc_total_pct=6.0
+    )
+    r = size_circuits(_plant(), design)
+    assert r.material[0] == "Al" and r.size_mm2[0] == 50.0 and r.parallel[0] == 1
+    r_al = 0.641 * (1 + 0.00403 * 70.0)
+    assert_allclose(r.vdrop_v[0], 2 * 0.4 * 24.0 * r_al)
+
+
+def test_single_phase_drop():
+    # 1-phase: ΔU = 2 · L · I · (R cos φ + X sin φ), X = 0.180 mV/A/m / 2 (BS 7671 Table 4E1B,
+    # 35 mm², two cables touching); 20 kVA at 230 V, 87.0 A -> IEC 60947-2 In 100 A, 35 mm²
+    # method F two loaded 200 A × 0.91
+    inp = SizingInput(
+        kind=np.array([2], dtype=np.int8),
+        cable_m=np.array([20.0]),
+        air_m=np.array([20.0]),
+        ac_kva=np.array([20.0]),
+        ac_v=np.array([230.0]),
+        phases=np.array([1]),
+        pf=np.array([0.8]),
+    )
+    r = size_circuits(inp, DesignParams(drop_ac_pct=3.0, sizes_ac_mm2=(35.0,)))
+    i = 20e3 / 230.0
+    r_dc = 0.524 * 1.2751 / 1e3
+    r_ac = r_dc * float(ac_over_dc(r_dc, 35.0, "Cu", phases=1))
+    x = 0.180 / 2 / 1e3
+    assert_allclose(r.vdrop_v, [2 * 20.0 * i * (r_ac * 0.8 + x * 0.6)], rtol=1e-6)
+    assert_allclose(r.ampacity_a, [200.0 * 0.91])

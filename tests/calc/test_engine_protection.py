@@ -8,9 +8,10 @@ conductors in free air (values from memory: 25 mm² 161 A, 35 mm² 200 A, 50 mm�
 """
 
 import numpy as np
+import pytest
 from numpy.testing import assert_allclose
 
-from calc import DesignParams, SizingInput, size_circuits
+from calc import DesignParams, InputError, SizingInput, size_circuits
 
 F40 = 0.91  # IEC 60364-5-52:2009 Table B.52.14, XLPE, 40 °C air
 
@@ -71,3 +72,100 @@ def test_without_array_fuses_the_cable_carries_the_backfeed():
         "cable carries backfeed 130 A ≤ Iz 147 A",
     ]
     assert r.ok.all()
+
+
+def _strings_on_array(**changes):
+    """Array 0 with strings 1 and 2, in air; string 2 bifacial (φ 0.8)."""
+    base = dict(
+        kind=np.array([1, 0, 0], dtype=np.int8),
+        cable_m=np.full(3, 20.0),
+        air_m=np.full(3, 20.0),
+        parent=np.array([-1, 0, 0]),
+        isc_a=np.full(3, 13.0),
+        imp_a=np.full(3, 12.0),
+        vmp_v=np.full(3, 1000.0),
+        n_strings=np.array([2, 1, 1]),
+        bifaciality=np.array([np.nan, np.nan, 0.8]),
+    )
+    base.update(changes)
+    return SizingInput(**base)
+
+
+def test_bifacial_design_isc_of_strings_and_their_array():
+    # I_SC,BIFI = 13 × (1 + 0.8 × 0.135) = 14.404 A (BNPI rear ratio, IEC 61215-1); the array's
+    # module I_SC is the mean of its strings', (13 + 14.404) / 2, times its 2 strings
+    r = size_circuits(_strings_on_array())
+    assert_allclose(r.isc_design_a, [13.0 + 14.404, 13.0, 14.404])
+    assert_allclose(r.design_current_a, [1.25 * (13.0 + 14.404), 1.25 * 13.0, 1.25 * 14.404])
+    # a design rear ratio of 0.3 (the bifacial stress irradiance): 13 × 1.24 = 16.12 A
+    r = size_circuits(_strings_on_array(), DesignParams(rear_irradiance_ratio=0.3))
+    assert_allclose(r.isc_design_a[2], 16.12)
+    # a datasheet bifacial I_SC is taken as given
+    inp = _strings_on_array(isc_bifacial_a=np.array([np.nan, np.nan, 15.0]))
+    assert_allclose(size_circuits(inp).isc_design_a, [28.0, 13.0, 15.0])
+
+
+def test_string_fuses_from_the_projects_ratings():
+    # 12 strings in parallel, I_SC 10 A, I_MOD_MAX_OCPR 20 A: 15-20 A; gPV list: 15 A (the
+    # IEC 60269-1 general list would give 16 A); the project's list (20, 25): 20 A
+    inp = _strings_on_array(
+        isc_a=np.full(3, 10.0),
+        imp_a=np.full(3, 9.0),
+        bifaciality=np.full(3, np.nan),
+        strings_in_parallel=np.array([1, 12, 12]),
+        max_fuse_a=np.full(3, 20.0),
+    )
+    r = size_circuits(inp)
+    assert_allclose(r.fuse_a, [np.nan, 15.0, 15.0])
+    assert r.fuse_required.tolist() == [False, True, True]
+    r = size_circuits(inp, DesignParams(string_fuse_ratings_a=(20.0, 25.0)))
+    assert_allclose(r.fuse_a, [np.nan, 20.0, 20.0])
+    with pytest.raises(InputError) as e:
+        size_circuits(inp, DesignParams(string_fuse_ratings_a=(17.0,)))
+    assert str(e.value).startswith("string_fuse_ratings_a: 17 A is not in the IEC 60269-6 gPV")
+    with pytest.raises(InputError) as e:
+        size_circuits(inp, DesignParams(array_fuse_ratings_a=(17.0,)))
+    assert str(e.value).startswith("array_fuse_ratings_a: 17 A is not in the IEC 60269-6 gPV")
+
+
+def test_the_module_maximum_fuse_decides_string_protection():
+    # 2 strings in parallel: (2 − 1) × 1.25 × 13 = 16.25 A > I_MOD_MAX_OCPR 15 A -> protected
+    # (IEC 62548:2016, from memory); without the module value two strings stay unfused
+    inp = _strings_on_array(
+        bifaciality=np.full(3, np.nan),
+        strings_in_parallel=np.array([1, 2, 2]),
+        max_fuse_a=np.array([np.nan, 15.0, np.nan]),
+    )
+    r = size_circuits(inp)
+    assert r.fuse_required.tolist() == [False, True, False]
+
+
+def test_input_zero_is_an_input_like_any_other():
+    # dc_group 0 joins arrays 0 and 1 (backfeed 1.25 × 130 A each); -1 leaves array 2 alone
+    inp = SizingInput(
+        kind=np.ones(3, dtype=np.int8),
+        cable_m=np.full(3, 50.0),
+        air_m=np.full(3, 50.0),
+        isc_a=np.full(3, 13.0),
+        imp_a=np.full(3, 12.0),
+        vmp_v=np.full(3, 1000.0),
+        n_strings=np.full(3, 10),
+        dc_group=np.array([0, 0, -1]),
+    )
+    assert_allclose(size_circuits(inp).backfeed_a, [162.5, 162.5, 0.0])
+
+
+def test_dc_fields_of_ac_circuits_are_ignored():
+    # a.c. circuits need none of the d.c. fields: values there are not checked or used
+    inp = SizingInput(
+        kind=np.array([2], dtype=np.int8),
+        cable_m=np.array([10.0]),
+        air_m=np.array([10.0]),
+        ac_kva=np.array([50.0]),
+        ac_v=np.array([400.0]),
+        isc_a=np.array([13.0]),
+        bifaciality=np.array([1.5]),
+        isc_bifacial_a=np.array([1.0]),
+    )
+    r = size_circuits(inp)
+    assert r.ok.tolist() == [True] and np.isnan(r.isc_design_a[0])

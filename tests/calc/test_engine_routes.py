@@ -206,3 +206,32 @@ def test_air_stretch_counts_and_defaults():
     inp.air_count, inp.air_inc_circuit, inp.air_inc_stretch = None, None, None
     r = size_circuits(inp)
     assert r.air_count_final.tolist() == [] and (r.governing_air == -1).all()
+
+
+def test_a_short_stretch_in_air_still_counts():
+    # a string with 0.5 m in air behind the modules (70 °C: 44 A × 0.91 = 40.0 A, EN 50618
+    # Tables A.3/A.4) and the rest direct in the ground at reference conditions (B.52.3 4 mm²
+    # 46 A × √(4.61 / 5.09) = 43.8 A, derived): the air stretch governs
+    inp = SizingInput(
+        kind=np.array([0], dtype=np.int8),
+        cable_m=np.array([50.0]),
+        air_m=np.array([0.5]),
+        isc_a=np.array([13.0]),
+        imp_a=np.array([12.0]),
+        vmp_v=np.array([1000.0]),
+        seg_depth_m=np.array([0.7]),
+        seg_laying=np.array([0]),
+        seg_spacing_m=np.array([0.0]),
+        seg_soil_k_m_w=np.array([2.5]),
+        seg_count=np.array([1]),
+        inc_circuit=np.array([0]),
+        inc_segment=np.array([0]),
+    )
+    r = size_circuits(inp, DesignParams(row_air_temp_c=70.0))
+    assert r.governing_env.tolist() == ["air"] and r.governing_segment.tolist() == [-1]
+    assert_allclose(r.ampacity_a, [44.0 * 0.91])
+    # without the stretch in air the trench governs
+    inp.air_m = np.array([0.0])
+    r = size_circuits(inp, DesignParams(row_air_temp_c=70.0))
+    assert r.governing_env.tolist() == ["D2"]
+    assert_allclose(r.ampacity_a, [46.0 * np.sqrt(4.61 / 5.09)])
