@@ -6,6 +6,8 @@ Tables B.52.12 (method F, from memory) and B.52.14 (XLPE 40 °C 0.91, confirmed)
 IEC 60364-4-43:2008 Table 43A (k = 143) and 433.1, IEC 62548:2016 (from memory). Sites invented.
 """
 
+from types import SimpleNamespace
+
 import numpy as np
 from numpy.testing import assert_allclose
 
@@ -147,3 +149,42 @@ def test_no_environment_note():
     r = size_circuits(inp)
     assert r.note.tolist() == ["no route environment given: in air assumed"]
     assert r.ok.tolist() == [True] and r.governing_env.tolist() == ["air"]
+
+
+def test_failure_causes_and_their_tolerances():
+    # capacity: design current above the capacity by more than 1e-6 relative; drop: above the
+    # budget by more than 1e-6 %; exactly at those edges a circuit meets the limit
+    amp, lim = 100.0, 1.0
+    result = SimpleNamespace(
+        ok=np.array([False] * 6),
+        design_current_a=np.array([150.0, amp * (1 + 1e-6), amp * (1 + 0.5e-6), 50.0, 50.0, 50.0]),
+        ampacity_a=np.full(6, amp),
+        vdrop_pct=np.array([0.5, 0.5, 0.5, lim + 0.5, lim + 1e-6, lim + 0.5e-6]),
+        vdrop_limit_pct=np.full(6, lim),
+    )
+    causes = failure_causes(result)
+    assert causes["capacity"].tolist() == [True, False, False, False, False, False]
+    assert causes["drop"].tolist() == [False, False, False, True, False, False]
+    assert causes["other"].tolist() == [False, True, True, False, True, True]
+    # passing circuits have no cause
+    result.ok = np.ones(6, dtype=bool)
+    assert not any(v.any() for v in failure_causes(result).values())
+
+
+def test_two_parallel_sets_in_the_note():
+    # 1 MVA at 800 V (In 800 A, IEC 60947-2) on at most 2 × 240 mm² in air: 2 × 607 A (B.52.12
+    # trefoil, from memory) × 0.91 = 1104.7 A is enough; limited to 95 mm² it is not:
+    # 2 × 328 A × 0.91 = 597 A
+    inp = SizingInput(
+        kind=np.array([2], dtype=np.int8),
+        cable_m=np.array([10.0]),
+        air_m=np.array([10.0]),
+        ac_kva=np.array([1000.0]),
+        ac_v=np.array([800.0]),
+    )
+    r = size_circuits(inp, DesignParams(max_parallel=2, sizes_ac_mm2=(70.0, 95.0)))
+    assert r.note.tolist() == [
+        "needs 800 A after derating 0.91; largest allowed 2×95 mm² Cu carries 597 A"
+    ]
+    causes = failure_causes(r)
+    assert causes["capacity"].tolist() == [True] and causes["other"].tolist() == [False]
