@@ -163,3 +163,24 @@ def test_single_phase_drop():
     x = 0.180 / 2 / 1e3
     assert_allclose(r.vdrop_v, [2 * 20.0 * i * (r_ac * 0.8 + x * 0.6)], rtol=1e-6)
     assert_allclose(r.ampacity_a, [200.0 * 0.91])
+
+
+def test_result_arrays_and_their_types():
+    # numbers are float arrays (nan where a value does not apply), counts and indices integers
+    r = size_circuits(_plant())
+    ib = 250e3 / (np.sqrt(3) * 800.0)
+    assert_allclose(r.ac_ib_a, [np.nan, np.nan, np.nan, ib])
+    assert_allclose(r.ac_breaker_a, [np.nan, np.nan, np.nan, 200.0])
+    for name in (
+        "size_mm2",
+        "derating",
+        "ampacity_a",
+        "conductor_temp_c",
+        "sc_min_mm2",
+        "ac_ib_a",
+        "design_current_a",
+        "vdrop_pct",
+    ):
+        assert getattr(r, name).dtype.kind == "f", name
+    for name in ("parallel", "governing_segment", "governing_air"):
+        assert getattr(r, name).dtype.kind == "i", name

@@ -169,3 +169,51 @@ def test_dc_fields_of_ac_circuits_are_ignored():
     )
     r = size_circuits(inp)
     assert r.ok.tolist() == [True] and np.isnan(r.isc_design_a[0])
+
+
+def test_arrays_alone_never_share_an_input():
+    # dc_group -1: each array alone, whatever the ids of the real inputs (here 1)
+    inp = _arrays()
+    inp.dc_group = np.array([-1, -1, -1, 1, 1, -1])
+    # arrays 3 (130 A) and 4 (104 A) on input 1: 1.25 × 104 and 1.25 × 130
+    assert_allclose(size_circuits(inp).backfeed_a, [0.0, 0.0, 0.0, 130.0, 162.5, 0.0])
+
+
+def test_the_projects_array_fuse_and_breaker_ratings():
+    # input 5 of _arrays: 162.5-312 A; the project's gPV ratings 250 and 315 A: 250 A, the
+    # cable then needs 250 A: 70 mm² (310 × 0.91 = 282.1 A; 50 mm² has 220.2 A)
+    r = size_circuits(_arrays(), DesignParams(array_fuse_ratings_a=(250.0, 315.0)))
+    assert_allclose(r.array_fuse_a[:3], [250.0] * 3)
+    assert r.size_mm2[:3].tolist() == [70.0] * 3
+    # a.c.: Ib 144.3 A (100 kVA, 400 V); the project's IEC 60947-2 ratings 250 and 400 A
+    inp = SizingInput(
+        kind=np.array([2], dtype=np.int8),
+        cable_m=np.array([10.0]),
+        air_m=np.array([10.0]),
+        ac_kva=np.array([100.0]),
+        ac_v=np.array([400.0]),
+    )
+    r = size_circuits(inp, DesignParams(ac_breaker_ratings_a=(250.0, 400.0)))
+    assert r.ac_breaker_a.tolist() == [250.0] and r.design_current_a.tolist() == [250.0]
+    with pytest.raises(InputError) as e:
+        size_circuits(inp, DesignParams(ac_breaker_ratings_a=(170.0,)))
+    assert str(e.value).startswith(
+        "ac_breaker_ratings_a: 170 A is not in the IEC 60947-2 breaker rating list (16, 20, "
+    )
+
+
+def test_strings_straight_to_an_inverter_leave_the_array_budget_alone():
+    # string 0 goes to an inverter (no array); array 1 has no strings in the input: its budget
+    # is its own limit, 1.5 %, whatever string 0 drops
+    inp = SizingInput(
+        kind=np.array([0, 1], dtype=np.int8),
+        cable_m=np.array([100.0, 50.0]),
+        air_m=np.array([100.0, 50.0]),
+        parent=np.array([-1, -1]),
+        isc_a=np.full(2, 13.0),
+        imp_a=np.full(2, 12.0),
+        vmp_v=np.full(2, 1000.0),
+        n_strings=np.array([1, 8]),
+    )
+    r = size_circuits(inp)
+    assert_allclose(r.vdrop_limit_pct, [1.0, 1.5])
