@@ -235,3 +235,44 @@ def test_a_short_stretch_in_air_still_counts():
     r = size_circuits(inp, DesignParams(row_air_temp_c=70.0))
     assert r.governing_env.tolist() == ["D2"]
     assert_allclose(r.ampacity_a, [46.0 * np.sqrt(4.61 / 5.09)])
+
+
+def _feeder_pair(ac_max_a, **route):
+    """A large and a small a.c. circuit (800 V) sharing one stretch in air or one segment."""
+    return SizingInput(
+        kind=np.array([2, 2], dtype=np.int8),
+        cable_m=np.array([10.0, 10.0]),
+        air_m=np.array([10.0, 10.0]) if "air_inc_circuit" in route else np.zeros(2),
+        ac_kva=np.array([1500.0, 50.0]),
+        ac_v=np.array([800.0, 800.0]),
+        ac_max_a=np.array([ac_max_a, np.nan]),
+        **route,
+    )
+
+
+def test_extra_sets_count_in_the_group_when_they_are_tried():
+    # an extra parallel set is one more circuit in the group already while it is tried, so the
+    # right number of sets is found in the first pass and only confirmed in the second.
+    # In air (bunched, B.52.17; 300 mm² trefoil 703 A × 0.91): Ib 900 A -> In 1000 A;
+    # 2 sets with 3 circuits 2 × 639.7 × 0.70 = 895.6 A < 1000 A; 3 sets with 4 circuits
+    # 3 × 639.7 × 0.65 = 1247.5 A
+    inp = _feeder_pair(900.0, air_inc_circuit=np.array([0, 1]), air_inc_stretch=np.array([0, 0]))
+    r = size_circuits(inp, DesignParams(sizes_ac_mm2=(16.0, 300.0)))
+    assert r.parallel.tolist() == [3, 1] and r.air_count_final.tolist() == [4.0]
+    assert r.iterations == 2
+    # direct in the ground (B.52.18 touching, B.52.5 300 mm² D2 419 A): Ib 600 A -> In 630 A;
+    # 2 sets, 3 circuits: 2 × 419 × 0.65 = 544.7 A; 3 sets, 4 circuits: 3 × 419 × 0.60 = 754.2 A
+    inp = _feeder_pair(
+        600.0,
+        seg_depth_m=np.array([0.7]),
+        seg_laying=np.array([0]),
+        seg_spacing_m=np.array([0.0]),
+        seg_soil_k_m_w=np.array([2.5]),
+        seg_count=np.array([2]),
+        inc_circuit=np.array([0, 1]),
+        inc_segment=np.array([0, 0]),
+    )
+    r = size_circuits(inp, DesignParams(sizes_ac_mm2=(16.0, 300.0)))
+    assert r.parallel.tolist() == [3, 1] and r.seg_count_final.tolist() == [4.0]
+    assert_allclose(r.ampacity_a[0], 3 * 419.0 * 0.60)
+    assert r.iterations == 2
