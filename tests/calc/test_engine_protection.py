@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from calc import DesignParams, InputError, SizingInput, size_circuits
+from calc import DesignParams, InputError, SizingInput, failure_causes, size_circuits
 
 F40 = 0.91  # IEC 60364-5-52:2009 Table B.52.14, XLPE, 40 °C air
 
@@ -217,3 +217,55 @@ def test_strings_straight_to_an_inverter_leave_the_array_budget_alone():
     )
     r = size_circuits(inp)
     assert_allclose(r.vdrop_limit_pct, [1.0, 1.5])
+
+
+def _three_on_one_input(strings, sizes, max_parallel, protection):
+    inp = _arrays()
+    for name in ("kind", "cable_m", "air_m", "isc_a", "imp_a", "vmp_v"):
+        setattr(inp, name, getattr(inp, name)[:3])
+    inp.n_strings, inp.dc_group = np.full(3, strings), np.full(3, 5)
+    design = DesignParams(
+        sizes_array_mm2=sizes, max_parallel=max_parallel, array_protection=protection
+    )
+    return size_circuits(inp, design)
+
+
+def test_a_cable_too_small_for_its_backfeed_protection_names_what_it_needs():
+    # with a 200 A array fuse (10 strings of 13 A, see above) the cable needs 200 A; 25 mm²
+    # carries 161 × 0.91 = 146.5 A
+    r = _three_on_one_input(10, (16.0, 25.0), 1, "fuse")
+    assert r.design_current_a.tolist() == [200.0] * 3 and not r.ok.any()
+    assert r.note[0] == (
+        "needs 200 A (backfeed 325 A from its input, with an array fuse) after derating 0.91; "
+        "largest allowed 25 mm² Cu carries 147 A"
+    )
+    assert failure_causes(r)["capacity"].all()
+    # without array fuses the cable itself needs the backfeed, 325 A; 50 mm² has 220.2 A
+    r = _three_on_one_input(10, (35.0, 50.0), 1, "cable")
+    assert r.design_current_a.tolist() == [325.0] * 3 and not r.ok.any()
+    assert_allclose(r.utilisation, 325.0 / (242.0 * 0.91))
+    assert r.note[0] == (
+        "needs 325 A (backfeed 325 A from its input, with no array fuses) after derating 0.91; "
+        "largest allowed 50 mm² Cu carries 220 A"
+    )
+
+
+def test_an_array_no_fuse_fits_must_carry_its_backfeed():
+    # 40 strings of 13 A: I_SC 520 A, the fuse range 650-1248 A lies above the gPV list (to
+    # 630 A): no fuse; the cable must carry the backfeed 1.25 × 1040 = 1300 A itself;
+    # 2 × 240 mm² carry 2 × 679 × 0.91 = 1235.8 A
+    r = _three_on_one_input(40, (185.0, 240.0), 2, "fuse")
+    assert r.design_current_a.tolist() == [1300.0] * 3 and not r.ok.any()
+    assert_allclose(r.utilisation, 1300.0 / (2 * 679.0 * 0.91))
+    assert r.note[0] == (
+        "no standard array fuse within 1.25–2.4 × the array's Isc 520 A (IEC 62548); needs "
+        "1300 A (backfeed 1300 A from its input, with no array fuses) after derating 0.91; "
+        "largest allowed 2×240 mm² Cu carries 1236 A"
+    )
+    # a design without array fuses does not mention them
+    r = _three_on_one_input(40, (185.0, 240.0), 2, "cable")
+    assert r.design_current_a.tolist() == [1300.0] * 3
+    assert r.note[0] == (
+        "needs 1300 A (backfeed 1300 A from its input, with no array fuses) after derating "
+        "0.91; largest allowed 2×240 mm² Cu carries 1236 A"
+    )
