@@ -7,6 +7,8 @@ from IEC 60364-5-52:2009 Table B.52.12 (method F, from memory) × Table B.52.14 
 colours from IEC 60445:2017 (a.c., from memory) and common practice (d.c.). Site invented.
 """
 
+import warnings
+
 import numpy as np
 from numpy.testing import assert_allclose
 
@@ -184,3 +186,22 @@ def test_result_arrays_and_their_types():
         assert getattr(r, name).dtype.kind == "f", name
     for name in ("parallel", "governing_segment", "governing_air"):
         assert getattr(r, name).dtype.kind == "i", name
+
+
+def test_totals_with_absent_kinds_and_tiny_powers():
+    # no array and no a.c. circuit: their totals are 0 W and 0 %, without a numpy warning; a
+    # string of 0.5 W (0.5 mA at 1000 V) still has its loss percentage
+    inp = SizingInput(
+        kind=np.array([0], dtype=np.int8),
+        cable_m=np.array([50.0]),
+        air_m=np.array([50.0]),
+        isc_a=np.array([0.001]),
+        imp_a=np.array([0.0005]),
+        vmp_v=np.array([1000.0]),
+    )
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        r = size_circuits(inp)
+    assert r.total_loss_pct[1:].tolist() == [0.0, 0.0]
+    loss = 2 * 0.0005**2 * _r_km(5.09, 120.0) * 0.05
+    assert_allclose(r.total_loss_pct[0], 100 * loss / 0.5)

@@ -188,3 +188,73 @@ def test_two_parallel_sets_in_the_note():
     ]
     causes = failure_causes(r)
     assert causes["capacity"].tolist() == [True] and causes["other"].tolist() == [False]
+
+
+def test_cumulative_drop_with_the_array_listed_last():
+    # strings 0 and 1 on array 2 (the last circuit): each string's path adds the array's drop;
+    # a string straight to an inverter (circuit 3) has its own drop as its path
+    inp = SizingInput(
+        kind=np.array([0, 0, 1, 0], dtype=np.int8),
+        cable_m=np.array([100.0, 100.0, 100.0, 100.0]),
+        air_m=np.array([100.0, 100.0, 100.0, 100.0]),
+        parent=np.array([2, 2, -1, -1]),
+        isc_a=np.full(4, 13.0),
+        imp_a=np.full(4, 12.0),
+        vmp_v=np.full(4, 1000.0),
+        n_strings=np.array([1, 1, 2, 1]),
+    )
+    r = size_circuits(inp)
+    own = r.vdrop_pct
+    assert_allclose(r.vdrop_total_pct, [own[0] + own[2], own[1] + own[2], own[2] + own[0], own[3]])
+    assert r.ok.all()
+
+
+def test_a_string_path_exactly_at_the_dc_total_passes():
+    # the d.c. total set to the string's drop plus the array's (hand-computed as in
+    # test_array_drop_beyond_what_its_strings_leave, array on 35 mm² at 90 °C, 24 A, 400 m)
+    string_pct = 100 * 2 * 0.1 * 12.0 * 1.95 * 1.393 / 1000.0
+    array_pct = 100 * 2 * 0.4 * 24.0 * 0.524 * 1.2751 / 1000.0
+    design = DesignParams(drop_dc_total_pct=string_pct + array_pct, sizes_array_mm2=(35.0,))
+    r = size_circuits(_array_with_strings(400.0), design)
+    assert r.size_mm2.tolist() == [35.0, 10.0, 10.0]
+    assert_allclose(r.vdrop_total_pct, [string_pct + array_pct] * 3)
+    assert r.ok.all() and r.note.tolist() == ["", "", ""]
+
+
+def test_a_breaker_missing_fails_the_circuit_even_when_the_cable_carries():
+    # Ib 5000 A, above the largest IEC 60947-2 rating (4000 A, from memory); 8 × 300 mm²
+    # (703 × 0.91 = 639.7 A a set, 5118 A in all) carry it, but no breaker protects them
+    inp = SizingInput(
+        kind=np.array([2], dtype=np.int8),
+        cable_m=np.array([10.0]),
+        air_m=np.array([10.0]),
+        ac_kva=np.array([3000.0]),
+        ac_v=np.array([800.0]),
+        ac_max_a=np.array([5000.0]),
+    )
+    r = size_circuits(inp, DesignParams(max_parallel=8))
+    assert r.parallel.tolist() == [8] and r.ok.tolist() == [False]
+    assert r.note.tolist() == [
+        "Ib 5000 A exceeds the largest iec60947-2 breaker rating; no overload protective device"
+    ]
+    assert failure_causes(r)["other"].tolist() == [True]
+
+
+def test_capacity_notes_of_arrays_name_a_backfeed_only_where_it_decides():
+    # array 0 alone (10 strings, 162.5 A) on 16 mm² only: 115 A (method E) × 0.91 = 104.7 A;
+    # array 1 (10 strings) beside array 2 (1 string, 13 A): backfeed 16.25 A, carried; its own
+    # 162.5 A decides, so its note does not mention the backfeed either
+    inp = SizingInput(
+        kind=np.ones(3, dtype=np.int8),
+        cable_m=np.full(3, 20.0),
+        air_m=np.full(3, 20.0),
+        isc_a=np.full(3, 13.0),
+        imp_a=np.full(3, 12.0),
+        vmp_v=np.full(3, 1000.0),
+        n_strings=np.array([10, 10, 1]),
+        dc_group=np.array([-1, 4, 4]),
+    )
+    r = size_circuits(inp, DesignParams(sizes_array_mm2=(16.0,), max_parallel=1))
+    note = "needs 162 A after derating 0.91; largest allowed 16 mm² Cu carries 105 A"
+    assert r.note.tolist()[:2] == [note, note]
+    assert r.ok.tolist() == [False, False, True]
