@@ -205,3 +205,33 @@ def test_totals_with_absent_kinds_and_tiny_powers():
     assert r.total_loss_pct[1:].tolist() == [0.0, 0.0]
     loss = 2 * 0.0005**2 * _r_km(5.09, 120.0) * 0.05
     assert_allclose(r.total_loss_pct[0], 100 * loss / 0.5)
+
+
+def test_marking_conventions_and_single_phase():
+    # IEC 60445:2017 single-phase L brown, N blue (from memory); NEC 200.6 / 250.119 with the
+    # common-practice phase colours: brown/orange/yellow above 250 V, black/red/blue at or below
+    inp = SizingInput(
+        kind=np.array([2, 2, 2], dtype=np.int8),
+        cable_m=np.full(3, 10.0),
+        air_m=np.full(3, 10.0),
+        ac_kva=np.array([5.0, 100.0, 50.0]),
+        ac_v=np.array([230.0, 480.0, 208.0]),
+        phases=np.array([1, 3, 3]),
+    )
+    r = size_circuits(inp)
+    assert r.marking[0] == "L brown, N blue, PE green-and-yellow"
+    assert r.rules == "iec"
+    r = size_circuits(inp, DesignParams(marking="us"))
+    assert r.marking[1].startswith("L1 brown") and r.marking[2].startswith("L1 black")
+    assert all("N white or gray" in m for m in r.marking)
+
+
+def test_values_that_do_not_apply_are_nan_or_empty():
+    r = size_circuits(_plant())
+    assert_allclose(r.backfeed_a, [0.0, np.nan, np.nan, np.nan])
+    assert_allclose(r.isc_design_a, [26.0, 13.0, 13.0, np.nan])
+    assert_allclose(r.array_fuse_a, [np.nan] * 4)
+    assert_allclose(r.fuse_a, [np.nan] * 4)
+    # no trench segments: no per-segment values
+    assert r.seg_group_factor.tolist() == [] and r.seg_count_final.tolist() == []
+    assert r.seg_soil_factor.tolist() == [] and r.seg_depth_factor.tolist() == []

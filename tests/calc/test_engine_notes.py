@@ -258,3 +258,13 @@ def test_capacity_notes_of_arrays_name_a_backfeed_only_where_it_decides():
     note = "needs 162 A after derating 0.91; largest allowed 16 mm² Cu carries 105 A"
     assert r.note.tolist()[:2] == [note, note]
     assert r.ok.tolist() == [False, False, True]
+
+
+def test_drop_note_of_an_array_without_strings():
+    # no strings in the input: the array's budget is its own limit and its note has no strings'
+    # share; 2 × 0.4 km × 24 A × 0.927 Ω/km (25 mm² at 90 °C) = 1.78 % > 1.5 %
+    inp = _array_with_strings(400.0)
+    for name in ("kind", "cable_m", "air_m", "parent", "isc_a", "imp_a", "vmp_v", "n_strings"):
+        setattr(inp, name, getattr(inp, name)[:1])
+    r = size_circuits(inp, DesignParams(sizes_array_mm2=(16.0, 25.0), max_parallel=1))
+    assert r.note.tolist() == ["voltage drop 1.78 % exceeds 1.50 % with largest allowed 25 mm² Cu"]
