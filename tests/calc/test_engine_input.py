@@ -8,6 +8,7 @@ given too and must not be reported.
 
 import numpy as np
 import pytest
+from numpy.testing import assert_allclose
 
 from calc import DesignParams, InputError, SizingInput, UnknownOptionError, size_circuits
 
@@ -266,3 +267,48 @@ def test_size_lists_must_be_ascending_and_tabulated():
         "ac sizes [400.0] mm² Cu/XLPE have no tabulated capacity for environment air with 2 "
         "loaded conductors (iec rules); remove them from the size list"
     )
+
+
+def test_documented_defaults():
+    # SizingInput: air_m 0, parent -1, n_strings 1, strings_in_parallel 1, phases 3,
+    # dc_group -1; segments: depth 0.7 m, direct (D2), touching, 2.5 K·m/W, count 1 - the
+    # IEC 60364-5-52 reference conditions, so every buried factor is 1.0; pf: the design's 0.9
+    inp = SizingInput(
+        kind=np.array([0, 2], dtype=np.int8),
+        cable_m=np.array([30.0, 30.0]),
+        isc_a=np.array([13.0, np.nan]),
+        imp_a=np.array([12.0, np.nan]),
+        vmp_v=np.array([1000.0, np.nan]),
+        ac_kva=np.array([np.nan, 50.0]),
+        ac_v=np.array([np.nan, 400.0]),
+        seg_depth_m=np.array([0.7, 0.7]),
+        inc_circuit=np.array([0, 1]),
+        inc_segment=np.array([0, 0]),
+    )
+    r = size_circuits(inp)
+    assert r.governing_env.tolist() == ["D2", "D2"] and r.governing_segment.tolist() == [0, 0]
+    assert r.seg_soil_factor.tolist() == [1.0, 1.0] and r.seg_depth_factor.tolist() == [1.0, 1.0]
+    # segment 0 carries both circuits (B.52.18, 2 touching: 0.75); segment 1 none: count 1
+    assert r.seg_count_final.tolist() == [2.0, 1.0]
+    assert r.seg_group_factor.tolist() == [0.75, 1.0]
+    assert np.isnan(r.backfeed_a[0])  # not an array
+    assert r.design_current_a[0] == 1.25 * 13.0  # one string, S = 1: 1.25 · I_SC
+    assert r.parallel.tolist() == [1, 1] and r.marking[1].startswith("L1 brown")  # 3-phase
+    # cos φ 0.9 (DesignParams.power_factor): P = 50 kVA × 0.9
+    assert_allclose(r.loss_pct[1], 100 * r.loss_w[1] / 45e3)
+    assert r.vdrop_total_pct[0] == r.vdrop_pct[0]  # parent -1: no array
+
+
+def test_incidence_in_any_order_with_repeats():
+    # pairs are sorted by circuit and a repeated pair counts once
+    inp = _six(kind=[0, 0, 1, 2, 2, 0], parent=[2, 2, -1, -1, -1, -1])
+    inp.seg_depth_m = np.array([0.7, 0.7])
+    inp.seg_count = np.array([0.0, 0.0])
+    inp.inc_circuit = np.array([3, 0, 3, 1, 0])
+    inp.inc_segment = np.array([1, 0, 1, 0, 0])
+    inp.air_inc_circuit = np.array([4, 4, 5])
+    inp.air_inc_stretch = np.array([0, 0, 0])
+    r = size_circuits(inp)
+    assert r.seg_count_final.tolist() == [2.0, 1.0]
+    assert r.air_count_final.tolist() == [2.0]
+    assert r.governing_segment.tolist()[:2] == [0, 0] and r.governing_segment[3] == 1
