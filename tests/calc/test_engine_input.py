@@ -312,3 +312,24 @@ def test_incidence_in_any_order_with_repeats():
     assert r.seg_count_final.tolist() == [2.0, 1.0]
     assert r.air_count_final.tolist() == [2.0]
     assert r.governing_segment.tolist()[:2] == [0, 0] and r.governing_segment[3] == 1
+
+
+def test_scalars_and_integral_floats_are_accepted():
+    # one value for every circuit; indices and ids given as floats with integral values (as a
+    # table column with missing values holds them) are taken as integers
+    inp = SizingInput(
+        kind=np.array([1, 0, 0, 1], dtype=np.int8),
+        cable_m=50.0,
+        air_m=50.0,
+        parent=np.array([-1.0, 0.0, 0.0, -1.0]),
+        isc_a=13.0,
+        imp_a=12.0,
+        vmp_v=1000.0,
+        n_strings=np.array([2.0, 1.0, 1.0, 2.0]),
+        dc_group=np.array([7.0, -1.0, -1.0, 7.0]),
+    )
+    r = size_circuits(inp)
+    assert r.ok.all()
+    # the arrays share input 7: backfeed 1.25 × 26 A; the strings' drops add to array 0's
+    assert_allclose(r.backfeed_a[[0, 3]], [32.5, 32.5])
+    assert_allclose(r.vdrop_total_pct[1:3], r.vdrop_pct[1:3] + r.vdrop_pct[0])

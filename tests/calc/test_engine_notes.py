@@ -268,3 +268,20 @@ def test_drop_note_of_an_array_without_strings():
         setattr(inp, name, getattr(inp, name)[:1])
     r = size_circuits(inp, DesignParams(sizes_array_mm2=(16.0, 25.0), max_parallel=1))
     assert r.note.tolist() == ["voltage drop 1.78 % exceeds 1.50 % with largest allowed 25 mm² Cu"]
+
+
+def test_each_failing_circuit_gets_its_own_numbers():
+    # two strings of 400 m and 300 m on 10 mm² (at most, one conductor): 2.61 % and 1.96 %
+    inp = SizingInput(
+        kind=np.array([0, 0], dtype=np.int8),
+        cable_m=np.array([400.0, 300.0]),
+        air_m=np.array([10.0, 10.0]),
+        isc_a=np.full(2, 13.0),
+        imp_a=np.full(2, 12.0),
+        vmp_v=np.full(2, 1000.0),
+    )
+    r = size_circuits(inp, DesignParams(drop_dc_total_pct=5.0))
+    assert r.note.tolist() == [
+        "voltage drop 2.61 % exceeds 1.00 % with largest allowed 10 mm² Cu",
+        "voltage drop 1.96 % exceeds 1.00 % with largest allowed 10 mm² Cu",
+    ]

@@ -269,3 +269,20 @@ def test_an_array_no_fuse_fits_must_carry_its_backfeed():
         "needs 1300 A (backfeed 1300 A from its input, with no array fuses) after derating "
         "0.91; largest allowed 2×240 mm² Cu carries 1236 A"
     )
+
+
+def test_a_backfeed_below_one_ampere_is_still_named():
+    # two one-string arrays of 0.5 A on one input: backfeed 1.25 × 0.5 = 0.625 A, carried
+    inp = SizingInput(
+        kind=np.ones(2, dtype=np.int8),
+        cable_m=np.full(2, 20.0),
+        air_m=np.full(2, 20.0),
+        isc_a=np.full(2, 0.5),
+        imp_a=np.full(2, 0.45),
+        vmp_v=np.full(2, 1000.0),
+        dc_group=np.array([2, 2]),
+    )
+    r = size_circuits(inp)
+    assert_allclose(r.backfeed_a, [0.625, 0.625])
+    # 16 mm² (method E two loaded 115 A × 0.91 = 104.65 A)
+    assert r.protection.tolist() == ["no array fuse needed: backfeed 1 A ≤ Iz 105 A"] * 2
