@@ -24,8 +24,8 @@ failed or timed out), survived, without tests and not yet checked; mutants that
 ``tests/MUTATION.md`` records as equivalent (a line naming the mutant and the word
 ``equivalent``) are left out of the score: score = killed / (total - equivalent).
 
-mutmut keeps a mutant's result until its function changes, so after adding a test run
-``--retest`` (the survivors again) or the target again (new and changed functions only).
+mutmut keeps a mutant's result until its function changes: a plain run tests only new and
+changed functions; ``--retest`` then tests the survivors again, against today's tests.
 """
 
 from __future__ import annotations
@@ -226,15 +226,17 @@ def main(argv: list[str] | None = None) -> int:
     try:
         work, _ = prepare(args.target)
         if not args.report:
-            names: list[str] = []
+            os.nice(10)
+            run = [_mutmut(), "run", "--max-children", str(args.jobs)]
+            # new and changed functions first (mutmut keeps every other result) ...
+            subprocess.run(run, cwd=work, check=False)
             if args.retest:
-                names = [n for n, s in results(work).items() if s not in KILLED]
-                if not names:
+                # ... then the mutants that survived, against today's tests
+                names = [n for n, s in results(work).items() if s not in KILLED | {"not checked"}]
+                if names:
+                    subprocess.run(run + names, cwd=work, check=False)
+                else:
                     print("no survivors to test again")
-            if names or not args.retest:
-                os.nice(10)
-                cmd = [_mutmut(), "run", "--max-children", str(args.jobs), *names]
-                subprocess.run(cmd, cwd=work, check=False)
         print(report(results(work), equivalents()))
     except (MutationSetupError, subprocess.CalledProcessError) as e:
         print(f"tools/mutation.py: {e}", file=sys.stderr)
