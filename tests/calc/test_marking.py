@@ -52,3 +52,10 @@ def test_marking_texts_in_full():
     with pytest.raises(UnknownOptionError) as e:
         marking_text("uk", "dc")
     assert str(e.value) == "marking must be one of 'iec', 'us'; got 'uk'"
+
+
+def test_us_low_voltage_ends_at_250_v():
+    # above 250 V line-to-line (common practice): brown/orange/yellow, even just above
+    got = conductor_marking([2, 2], [3, 3], [250.5, 250.0], "us")
+    assert [m.split(",")[0] for m in got] == ["L1 brown", "L1 black"]
+    assert got.dtype == object  # an object array of str, as documented

@@ -104,3 +104,12 @@ def test_power_factor_and_parallel_conductors():
     assert_allclose(vdrop_v(1000.0, 10.0, 1.0, 0.5, 0.0, 0), 2 * 10.0 * 1.0)
     assert_allclose(vdrop_v(1000.0, 10.0, 1.0, 0.5, 0.8, 1, parallel=4), 2 * 10.0 * 1.1 / 4)
     assert_allclose(vdrop_pct([4.0, 1.0], [400.0, 230.0]), [1.0, 100 / 230])
+
+
+def test_defaults_are_dc_without_reactance():
+    # phases 0 (d.c.) by default: X and cos φ do not enter, ΔU = 2 L I R
+    assert_allclose(vdrop_v(100.0, 10.0, 1.0, 0.5, 0.8), 2 * 0.1 * 10.0 * 1.0)
+    # reactance 0 by default: three-phase at cos φ 0.8 is √3 L I R cos φ
+    assert_allclose(vdrop_v(100.0, 10.0, 1.0, pf=0.8, phases=3), np.sqrt(3) * 0.1 * 10.0 * 0.8)
+    # integer temperatures give float temperatures
+    assert conductor_temp_c("max", 90, 30, [10], 100).dtype.kind == "f"
