@@ -823,7 +823,8 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     A size carries the circuit when its capacity Iz meets the design current and either the
     backfeed (arrays: the other arrays of the input; 0 otherwise) or, failing that, the capacity
     the protection then needs (an array fuse's max(In, I2/1.45); infinite where none can be
-    fitted). ``i_req`` is what the size is held to.
+    fitted). ``i_req`` is what the size is held to: the design current and the backfeed where
+    the size carries the backfeed or no fuse can be fitted, else the fuse's capacity.
     """
     loaded = c["loaded"][gi]
     has_air = a["air_m"][gi] > 0
@@ -874,7 +875,10 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
 
     carries = cap_tot >= i_bf * (1.0 - _EPS)  # the backfeed, unprotected (0 but for arrays)
     ok_cap = (cap_tot >= i_des * (1.0 - _EPS)) & (carries | (cap_tot >= i_prot * (1.0 - _EPS)))
-    i_req = np.where(carries, np.maximum(i_des, i_bf), np.maximum(i_des, i_prot))
+    # where no array fuse can be fitted (none fits, or the design uses none) the cable must
+    # carry the backfeed itself: that is what it is held to, fitting or not
+    fusable = np.isfinite(i_prot)
+    i_req = np.where(carries | ~fusable, np.maximum(i_des, i_bf), np.maximum(i_des, i_prot))
     ok_vd = pct <= budget[:, None] + _EPS
     ok = ok_cap & ok_vd
     if kd.k_sc is not None:
@@ -1389,7 +1393,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         ),
         (c["ib"],),
     )
-    unfusable = is_arr & ~carries & ~c["array_fuse_fits"]
+    unfusable = is_arr & ~carries & ~c["array_fuse_fits"] & (design.array_protection == "fuse")
     _add_notes(
         notes,
         unfusable & fail_cap,
@@ -1405,7 +1409,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     def cap_note(i):
         why = ""
         if is_arr[i] and c["i_backfeed"][i] > 0 and i_design[i] > c["i_design"][i] * (1 + _EPS):
-            how = "no array fuses" if design.array_protection == "cable" else "an array fuse"
+            how = "an array fuse" if np.isfinite(c["array_fuse"][i]) else "no array fuses"
             why = f" (backfeed {c['i_backfeed'][i]:.0f} A from its input, with {how})"
         return (
             f"needs {i_design[i]:.0f} A{why} after derating {deriv[i]:.2f}; largest allowed "

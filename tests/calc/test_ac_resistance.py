@@ -297,3 +297,128 @@ def test_typical_cable_diameters_agree_with_iec60502_construction():
     # build-up ignores tapes, tolerances and the thicker sheaths of small cables)
     ratio = cable_diameter_mm(sizes) / estimate
     assert np.all((ratio > 0.98) & (ratio < 1.07)), ratio.round(3).tolist()
+
+
+def test_table2_refusals_name_the_rows_it_has():
+    with pytest.raises(TableRangeError) as e:
+        skin_proximity_coefficients("Al", "milliken_insulated_wires")
+    assert str(e.value) == (
+        "IEC 60287-1-1 Table 2 lists no Al milliken_insulated_wires conductor with extruded "
+        "insulation; Al rows: round_solid/any, round_stranded/any, milliken/any"
+    )
+    with pytest.raises(UnknownOptionError) as e:
+        skin_proximity_coefficients("Fe")
+    assert str(e.value) == "material must be one of 'Cu', 'Al'; got 'Fe'"
+    with pytest.raises(UnknownOptionError) as e:
+        skin_proximity_coefficients("Cu", insulation="paper")
+    assert str(e.value) == "insulation must be one of 'extruded', 'impregnated'; got 'paper'"
+
+
+def test_geometry_of_the_smallest_size():
+    # 1.5 mm², the first size of the file: a 7-wire conductor fills 7/9 of its circle (the file
+    # rounds it to 0.778), d_c = √(4 A / (π · 7/9)); overall diameter 5.5 mm (typical catalogue)
+    assert_allclose(conductor_diameter_mm([1.5]), [math.sqrt(4 * 1.5 / (math.pi * 7 / 9))], 1e-3)
+    assert cable_diameter_mm([1.5]).tolist() == [5.5]
+
+
+def test_an_integer_size_off_the_file_is_named_in_mm2():
+    with pytest.raises(TableRangeError) as e:
+        cable_diameter_mm(np.array([5, 240]))
+    assert str(e.value).startswith("no typical single-core cable geometry for size(s) [5.0] mm²")
+
+
+def _x_squared(r_ohm_km, f_hz, k):
+    """IEC 60287-1-1 2.1.2: x² = 8πf / R' · 10⁻⁷ · k, R' in Ω/m."""
+    return 8.0 * np.pi * f_hz / (r_ohm_km * 1e-3) * 1e-7 * k
+
+
+def test_every_invalid_argument_in_one_message():
+    # up to five distinct bad values are shown, in ascending order; inf is not finite
+    r = np.array([-6.0, -5.0, -4.0, -3.0, -2.0, -1.0])
+    with pytest.raises(InputError) as e:
+        skin_effect_factor(r, np.inf, -1.0)
+    assert str(e.value) == (
+        "r_dc_ohm_km must be positive and finite [ohm/km]; got [-6.0, -5.0, -4.0, -3.0, -2.0]; "
+        "frequency_hz must be zero (d.c.) or positive and finite [Hz]; got [inf]; "
+        "ks must be non-negative and finite; got [-1.0]"
+    )
+    with pytest.raises(InputError) as e:
+        skin_effect_factor([0.1], 50.0, np.inf)
+    assert str(e.value) == "ks must be non-negative and finite; got [inf]"
+    with pytest.raises(InputError) as e:
+        proximity_effect_factor([0.0, np.inf], -50.0, [0.0, np.inf], 30.0, [-1.0, np.inf], 1)
+    assert str(e.value) == (
+        "r_dc_ohm_km must be positive and finite [ohm/km]; got [0.0, inf]; "
+        "frequency_hz must be zero (d.c.) or positive and finite [Hz]; got [-50.0]; "
+        "dc_mm must be positive and finite [mm]; got [0.0, inf]; "
+        "s_mm must be at least the conductor diameter dc_mm (inf: no neighbour) [mm]; got [30.0]; "
+        "kp must be non-negative and finite; got [-1.0, inf]; "
+        "conductors must be 2 or 3; got [1.0]"
+    )
+    with pytest.raises(InputError) as e:
+        proximity_effect_factor([0.1], np.inf, 10.0, 20.0, 1.0)
+    assert str(e.value) == (
+        "frequency_hz must be zero (d.c.) or positive and finite [Hz]; got [inf]"
+    )
+
+
+def test_limiting_arguments_are_valid():
+    r = 0.0601 * 1.2751  # 300 mm² Cu at 90 °C
+    # k_s = k_p = 0: no skin and no proximity effect
+    assert skin_effect_factor([r], 50.0, 0.0).tolist() == [0.0]
+    assert proximity_effect_factor([r], 50.0, 20.43, 28.0, 0.0).tolist() == [0.0]
+    # conductors touching with no insulation between them: s = d_c, (d_c/s)² = 1
+    f = _x_squared(r, 50.0, 1.0) ** 2 / (192.0 + 0.8 * _x_squared(r, 50.0, 1.0) ** 2)
+    expected = f * (0.312 + 1.18 / (f + 0.27))  # IEC 60287-1-1 2.1.4.1 at d_c/s = 1
+    assert_allclose(proximity_effect_factor([r], 50.0, 20.43, 20.43, 1.0), [expected])
+    # a thin conductor (d_c 0.5 mm) is valid
+    assert proximity_effect_factor([r], 50.0, 0.5, 28.0, 1.0)[0] > 0.0
+
+
+def test_skin_effect_formula_ranges_include_their_upper_ends():
+    # IEC 60287-1-1 2.1.2: x_s ≤ 2.8 uses x⁴/(192 + 0.8 x⁴); 2.8 < x_s ≤ 3.8 the quadratic
+    r28 = 8 * np.pi * 50.0 * 1e-7 / 2.8**2 * 1e3  # x_s = 2.8 exactly in floats
+    assert np.sqrt(_x_squared(r28, 50.0, 1.0)) == 2.8
+    assert_allclose(skin_effect_factor([r28], 50.0, 1.0), [2.8**4 / (192.0 + 0.8 * 2.8**4)])
+    r38 = np.nextafter(8 * np.pi * 50.0 * 1e-7 / 3.8**2 * 1e3, 1.0)  # x_s = 3.8 exactly
+    assert np.sqrt(_x_squared(r38, 50.0, 1.0)) == 3.8
+    assert_allclose(skin_effect_factor([r38], 50.0, 1.0), [-0.136 - 0.0177 * 3.8 + 0.0563 * 3.8**2])
+
+
+def test_proximity_formula_up_to_its_range_end():
+    # valid for x_p ≤ 2.8 (IEC 60287-1-1 2.1.3/2.1.4.1): x_p = 2.6 is computed, no refusal
+    r26 = 8 * np.pi * 50.0 * 1e-7 / 2.6**2 * 1e3
+    assert proximity_effect_factor([r26], 50.0, 40.0, 50.0, 1.0)[0] > 0.0
+    # at x_p = 2.8 itself (k_p one unit in the last place below 1 makes x_p² = 2.8² exactly)
+    r28 = 8 * np.pi * 50.0 * 1e-7 / 2.8**2 * 1e3
+    kp = 1.0
+    while _x_squared(r28, 50.0, kp) > 2.8**2:
+        kp = np.nextafter(kp, 0.0)
+    assert _x_squared(r28, 50.0, kp) == 2.8**2
+    assert proximity_effect_factor([r28], 50.0, 40.0, 50.0, kp)[0] > 0.0
+    with pytest.raises(TableRangeError) as e:
+        proximity_effect_factor([0.012], 50.0, 42.0, 60.0, 1.0)
+    assert str(e.value) == (
+        "IEC 60287-1-1 proximity-effect formula is valid for x_p <= 2.8 and states no extension; "
+        "got x_p = 3.236 at R' = 0.012 ohm/km, f = 50 Hz, k_p = 1 (1 value(s) off)"
+    )
+
+
+def test_rule_set_result_has_the_shape_of_all_arguments():
+    rs = get_rules("iec")
+    # d.c. or 0 Hz: exactly 1 in the broadcast shape, even for a size without geometry data
+    assert rs.ac_resistance_factor(np.array([95.0, 240.0]), "Cu", 0.2, 0.0, 3).tolist() == [
+        1.0,
+        1.0,
+    ]
+    assert rs.ac_resistance_factor(np.array([800.0]), "Cu", [0.03], 50.0, 0).tolist() == [1.0]
+    # one size at three conductor temperatures (three resistances)
+    r = 0.0601 * np.array([1.0, 1.2, 1.2751])
+    assert rs.ac_resistance_factor(300.0, "Cu", r, 50.0, 3).shape == (3,)
+    # sizes × phases: [S] and [3, 1] give [3, S]
+    sizes = np.array([95.0, 240.0])
+    got = rs.ac_resistance_factor(sizes, "Cu", np.array([0.25, 0.1]), 50.0, [[0], [1], [3]])
+    assert got.shape == (3, 2) and got[0].tolist() == [1.0, 1.0]
+    # at 1 Hz the effects are tiny but present: not cut off above some frequency
+    f1 = rs.ac_resistance_factor(300.0, "Cu", 0.0601 * 1.2751, 1.0, 3)
+    assert 1.0 < f1 < 1.0001

@@ -163,3 +163,8 @@ def test_spaced_cables_need_no_factor():
     # IEC 60364-5-52:2009 Table B.52.17, note: no reduction factor where the horizontal clearance
     # between adjacent cables exceeds twice their overall diameter
     assert air_group_factor([1, 2, 9, 20, 200], "spaced").tolist() == [1.0] * 5
+
+
+def test_the_last_tabulated_count_returns_the_cell_itself():
+    # IEC 60364-5-52:2009 Table B.52.17 item 1: the last rows' cells exactly, 20 circuits 0.38
+    assert air_group_factor([20, 16], "bunched").tolist() == [0.38, 0.41]

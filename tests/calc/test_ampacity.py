@@ -12,9 +12,10 @@ from calc.ampacity import (
     ground_temp_factor,
     group_factor,
     pv_cable_capacity_a,
+    reference_condition,
     soil_factor,
 )
-from calc.errors import TableRangeError
+from calc.errors import InputError, TableRangeError, UnknownOptionError
 from calc.tables import load_table
 
 
@@ -181,3 +182,38 @@ def test_derived_al_free_air_ratio_is_in_the_tabulated_al_cu_band():
         sizes, "Cu", "XLPE", 3, "D2"
     )
     assert np.all((buried > 0.74) & (buried < 0.80))
+
+
+def test_depth_must_exceed_half_the_diameter():
+    # IEC 60287-2-1: u = 2L/De must exceed 1 (the axis below the surface by more than De/2)
+    for depth in (0.02, 0.015):  # 0.04 m cable: L = De/2 and below
+        with pytest.raises(InputError) as e:
+            depth_factor([depth], 0.04)
+        assert str(e.value) == (
+            "depth to the cable axis must exceed half the cable or duct diameter"
+        )
+    # 0.05 m is deeper than De/2 = 0.02 m: valid, and shallower than 0.7 m: no credit
+    assert depth_factor([0.05], 0.04).tolist() == [1.0]
+
+
+def test_aluminium_in_air_only_at_the_al_sizes_of_iec60228():
+    # IEC 60228:2004 Table 2 lists Al from 10 mm²: 4 mm² has no Al rating (nan); 16 mm² is
+    # the Cu value (method E, 100 A) × √(R20 Cu / R20 Al) = 100 √(1.15 / 1.91)
+    got = free_air_capacity_a([4, 16], "Al", "XLPE", 3)
+    assert np.isnan(got[0])
+    assert_allclose(got[1], 100.0 * np.sqrt(1.15 / 1.91))
+
+
+def test_unknown_options_list_the_valid_ones():
+    with pytest.raises(UnknownOptionError) as e:
+        free_air_capacity_a([16], "Fe", "XLPE", 3)
+    assert str(e.value) == "material must be one of 'Cu', 'Al'; got 'Fe'"
+    with pytest.raises(UnknownOptionError) as e:
+        free_air_capacity_a([16], "Cu", "EPR", 3)
+    assert str(e.value) == "insulation must be one of 'PVC', 'XLPE'; got 'EPR'"
+    with pytest.raises(UnknownOptionError) as e:
+        reference_condition("depth")
+    assert str(e.value) == (
+        "reference condition must be one of 'air_temp_c', 'ground_temp_c', 'soil_k_m_w', "
+        "'depth_m'; got 'depth'"
+    )

@@ -178,9 +178,14 @@ def test_invalid_input_lists_every_problem():
     s = _site()
     s.isc_a = np.array([13.0, -1.0, 13.0, 13.0])
     s.seg_laying = np.array([5])
-    with pytest.raises(InputError, match="isc_a must be > 0") as e:
+    # circuit problems come first; segment values are checked once the circuits are valid
+    with pytest.raises(InputError) as e:
         size_circuits(s)
-    assert "seg_laying" in str(e.value) or "isc_a" in str(e.value)
+    assert str(e.value) == "isc_a must be > 0 for d.c. circuits [1]"
+    s.isc_a = np.full(4, 13.0)
+    with pytest.raises(InputError) as e:
+        size_circuits(s)
+    assert str(e.value) == "seg_laying must be 0 (direct) or 1 (duct) at segments [0]"
     with pytest.raises(UnknownOptionError, match="'max', 'loading'"):
         size_circuits(_site(), DesignParams(conductor_temp="hot"))
 

@@ -331,12 +331,56 @@ def test_array_cable_check_conditions():
     assert c.note[0] == "cable capacity Iz not known: backfeed protection not verified"
 
 
+def test_an_array_alone_needs_its_own_current_only():
+    # no backfeed and no fuse: the array's own 1.25 · I_SC (IEC 62548:2016, from memory); a
+    # backfeed below it changes nothing
+    assert_allclose(array_min_capacity_a([100.0, 100.0], [0.0, 80.0], np.nan), [125.0, 125.0])
+
+
 def test_array_capacity_with_a_device_whose_i2_is_above_145():
     # a device with I2 = 1.6 In (gG fuse-links ≥ 16 A, IEC 60269-2, from memory) needs
     # Iz ≥ 1.6 × 125 / 1.45 = 137.93 A
     assert_allclose(
         array_min_capacity_a([96.0], [360.0], [125.0], fuse_i2_factor=1.6), [200.0 / 1.45]
     )
+
+
+def test_array_fuse_limiting_cases():
+    # an array without current: its range is 0-0 A, no rating fits (not an input error)
+    f = array_fuse([0.0])
+    assert f.fuse_a.dtype.kind == "f" and np.isnan(f.fuse_a[0]) and not f.ok[0]
+    assert f.note.tolist() == ["no standard fuse rating within the IEC 62548 array range 0.0-0.0 A"]
+    # a rating equal to the upper bound 2.4 · I_SC fits: I_SC 100 A, only 240 A offered
+    f = array_fuse([100.0], ratings_a=[240.0])
+    assert f.fuse_a.tolist() == [240.0] and f.ok.tolist() == [True] and f.note.tolist() == [""]
+    # no ratings at all: nothing fits
+    f = array_fuse([100.0], ratings_a=[])
+    assert f.fuse_a.dtype.kind == "f" and np.isnan(f.fuse_a[0]) and not f.ok[0]
+    assert f.note[0] == "no standard fuse rating within the IEC 62548 array range 125.0-240.0 A"
+
+
+def test_array_cable_check_with_the_bounds_met_exactly_and_other_devices():
+    # In = Iz and I2 = 1.45 In = 1.45 Iz meet IEC 60364-4-43:2008 433.1 exactly
+    c = array_cable_check([125.0], [375.0], [125.0])
+    assert c.needed.tolist() == [True] and c.ok.tolist() == [True] and c.note.tolist() == [""]
+    # a gG fuse-link, I2 = 1.6 In (IEC 60269-2, from memory): In 125 A ≤ Iz 130 A, but
+    # I2 = 200 A > 1.45 × 130 = 188.5 A
+    c = array_cable_check([130.0], [375.0], [125.0], fuse_i2_factor=1.6)
+    assert c.ok.tolist() == [False]
+    assert c.note.tolist() == ["I2 200.0 A above 1.45·Iz 188.5 A"]
+    # a device with I2 = 1.3 In: In 130 A > Iz 125 A fails although I2 169 A ≤ 181.25 A
+    c = array_cable_check([125.0], [375.0], [130.0], fuse_i2_factor=1.3)
+    assert c.ok.tolist() == [False] and c.note.tolist() == ["array fuse 130 A above Iz 125.0 A"]
+
+
+def test_array_cable_check_notes_every_failing_cable():
+    c = array_cable_check([np.nan, 150.0, np.nan], [375.0] * 3, [np.nan] * 3)
+    assert c.note.tolist() == [
+        "cable capacity Iz not known: backfeed protection not verified",
+        "backfeed 375.0 A from the other arrays of the input exceeds Iz 150.0 A "
+        "and no array fuse is fitted",
+        "cable capacity Iz not known: backfeed protection not verified",
+    ]
 
 
 # --------------------------------------------------------------------------------------------
@@ -439,3 +483,43 @@ def test_iec_rule_set_exposes_the_protection_rules():
     with pytest.raises(InputError) as e:
         rs.gpv_fuse_ratings_a([17])
     assert str(e.value).startswith("fuse_ratings_a: 17 A is not in the IEC 60269-6 gPV fuse")
+
+
+def test_breaker_ratings_must_be_a_non_empty_list():
+    for ratings in ([], [[160.0, 200.0]]):
+        with pytest.raises(InputError) as e:
+            ac_breaker([100.0], ratings, 1.3)
+        assert str(e.value) == "ratings_a must be a non-empty list of ratings [A]"
+
+
+def test_overload_check_notes_every_failing_circuit_and_condition():
+    # no device first, an unsized cable next, then two conditions failing at once
+    c = overload_check(
+        [180.0, 180.0, 210.0, 180.0],
+        [np.nan, 200.0, 200.0, 200.0],
+        [200.0, np.nan, 190.0, 200.0],
+        [np.nan, 260.0, 260.0, 260.0],
+    )
+    assert c.note.tolist() == [
+        "no overload protective device",
+        "cable capacity Iz not known: overload protection not verified",
+        "Ib 210.0 A > In 200 A; In 200 A > Iz 190.0 A",
+        "",
+    ]
+
+
+def test_the_relative_tolerance_includes_its_edge():
+    # calc compares currents with a relative tolerance of 1e-9 (rounding noise): a value at the
+    # bound × (1 + 1e-9) still meets it, in every check
+    edge = 1.0 + 1e-9
+    c = overload_check([200.0 * edge], [200.0], [200.0], [1.45 * 200.0 * edge])
+    assert c.ib_ok.tolist() == [True] and c.i2_ok.tolist() == [True]
+    c = overload_check([190.0], [200.0 * edge], [200.0], [200.0])
+    assert c.iz_ok.tolist() == [True]
+    c = array_cable_check([100.0, 100.0], [100.0 * edge, 375.0], [np.nan, 100.0 * edge])
+    assert c.needed.tolist() == [False, True] and c.ok.tolist() == [True, True]
+    # I2 at the edge with I2 = In (a device of factor 1.0): only In > Iz is noted
+    c = array_cable_check([100.0], [375.0], [1.45 * 100.0 * edge], fuse_i2_factor=1.0)
+    assert c.note.tolist() == ["array fuse 145 A above Iz 100.0 A"]
+    # a rating at the upper bound 2.4 · I_SC × (1 + 1e-9) fits
+    assert array_fuse([100.0], ratings_a=[2.4 * 100.0 * edge]).ok.tolist() == [True]

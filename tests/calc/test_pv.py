@@ -1,12 +1,17 @@
 """PV design currents and string protection, IEC 62548:2016 (rules from memory; see calc.pv)."""
 
+import warnings
+
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
+from calc.errors import InputError
 from calc.pv import (
     ac_current_a,
+    ac_max_current_a,
     array_design_current_a,
     string_design_current_a,
     string_protection,
@@ -64,3 +69,23 @@ def test_ac_output_current():
     # 3-phase I = S/(√3·U_LL); 1-phase I = S/U_LN
     assert_allclose(ac_current_a([250.0], [800.0], [3]), [250e3 / (np.sqrt(3) * 800.0)])
     assert_allclose(ac_current_a([4.6], [230.0], [1]), [20.0])
+
+
+def test_any_positive_datasheet_maximum_is_taken():
+    # limiting case: ac_max_a > 0 is the only condition (a small inverter may give 0.5 A)
+    assert ac_max_current_a([0.1, 0.2], [230.0, 230.0], [1, 1], [0.5, 1.0]).tolist() == [0.5, 1.0]
+
+
+def test_datasheet_maximum_needs_no_rated_current():
+    # with the maximum given, an unknown voltage (0) or power (0) makes no warning: the rated
+    # current S / U is not needed
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        out = ac_max_current_a([100.0, 0.0], [0.0, 0.0], [3, 1], [160.0, 20.0])
+    assert out.tolist() == [160.0, 20.0]
+
+
+def test_phases_other_than_one_or_three_are_refused():
+    with pytest.raises(InputError) as e:
+        ac_current_a([100.0, 100.0], [400.0, 400.0], [3, 2])
+    assert str(e.value) == "phases must be 1 or 3"

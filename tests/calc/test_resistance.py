@@ -4,8 +4,13 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from calc.errors import TableRangeError
-from calc.resistance import r20_ohm_km, r_at_temp_ohm_km, reactance_ohm_km
+from calc.errors import TableRangeError, UnknownOptionError
+from calc.resistance import (
+    r20_ohm_km,
+    r_at_temp_ohm_km,
+    reactance_ohm_km,
+    tabulated_sizes_mm2,
+)
 
 SIZES = [1.5, 2.5, 4, 6, 10, 16, 25, 35, 50, 70, 95, 120, 150, 185, 240, 300, 400]
 # IEC 60228:2004 Table 2 (class 2) and Table 3 (class 5), maximum d.c. resistance at 20 °C [Ω/km]
@@ -190,3 +195,18 @@ def test_bs7671_reactance_per_conductor():
     assert_allclose(reactance_ohm_km([95], "XLPE", 3), [0.145 / np.sqrt(3)])
     # below 25 mm² no x is tabulated: the 25 mm² value is used
     assert_allclose(reactance_ohm_km([16], "PVC", 1), [0.100])
+
+
+def test_tabulated_sizes_of_each_table():
+    # IEC 60228:2004 Table 2 (class 2) and Table 3 (class 5): Cu 1.5-400 mm², plain and tinned
+    # wires alike; Al class 2 from 10 mm². No arguments: Cu class 2 plain.
+    assert tabulated_sizes_mm2().tolist() == SIZES
+    assert tabulated_sizes_mm2("Cu", 5, tinned=True).tolist() == SIZES
+    assert tabulated_sizes_mm2("Al").tolist() == SIZES[4:]
+    assert tabulated_sizes_mm2("Al", 5).tolist() == []  # Table 3 has no aluminium
+
+
+def test_unknown_material_lists_the_valid_ones():
+    with pytest.raises(UnknownOptionError) as e:
+        tabulated_sizes_mm2("Fe")
+    assert str(e.value) == "material must be one of 'Cu', 'Al'; got 'Fe'"

@@ -1,8 +1,10 @@
 """Adiabatic short-circuit k: IEC 60364-4-43:2008 Table 43A vs the IEC 60949 formula."""
 
+import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
+from calc.errors import TableRangeError, UnknownOptionError
 from calc.shortcircuit import k_iec60949, k_table_43a, min_size_adiabatic_mm2
 
 # (material, insulation, size, θi, θf) -> Table 43A k
@@ -33,3 +35,29 @@ def test_table_43a_values():
 def test_min_size():
     # S = √(I²t)/k: 10 kA, 1 s, k 143 -> 69.9 mm²
     assert_allclose(min_size_adiabatic_mm2([10e3], [1.0], [143.0]), [10e3 / 143.0])
+
+
+def test_sizes_off_table_43a_are_refused():
+    # Table 43A's rows cover 0 < S <= 1000 mm² (the data file's ranges); 1200 mm² has no k
+    with pytest.raises(TableRangeError) as e:
+        k_table_43a("Cu", "PVC", [240, 1200])
+    assert str(e.value) == "Table 43A has no k for Cu/PVC at these sizes"
+
+
+def test_unknown_material_or_insulation_lists_the_valid_ones():
+    with pytest.raises(UnknownOptionError) as e:
+        k_table_43a("Fe", "PVC", [16])
+    assert str(e.value) == "material must be one of 'Cu', 'Al'; got 'Fe'"
+    with pytest.raises(UnknownOptionError) as e:
+        k_table_43a("Cu", "EPR", [16])
+    assert str(e.value) == "insulation must be one of 'PVC', 'XLPE'; got 'EPR'"
+    with pytest.raises(UnknownOptionError) as e:
+        k_iec60949("Fe", 90.0, 250.0)
+    assert str(e.value) == "material must be one of 'Cu', 'Al'; got 'Fe'"
+
+
+def test_integer_fault_currents_give_the_same_size():
+    # 50 kA as 32-bit integers (e.g. read from an integer column): I² = 2.5e9 A² does not fit
+    # in 32 bits, so the formula must work in floats; S = 50000·√0.2 / 143 = 156.4 mm²
+    fault = np.array([50_000], dtype=np.int32)
+    assert_allclose(min_size_adiabatic_mm2(fault, [0.2], [143.0]), [50e3 * np.sqrt(0.2) / 143.0])

@@ -1,8 +1,12 @@
 """Packaged data tables: headers, tags, row counts and known cells."""
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 
+import calc
+from calc.errors import DataFileError
 from calc.tables import load_table, parse_table, table_names
 
 ALLOWED_TAGS = {"confirmed", "memory", "memory-low", "common practice", "derived"}
@@ -60,3 +64,38 @@ def test_coordination_factor_and_design_defaults():
     assert len(t) == 1 and t["value"].tolist() == [1.45]
     d = load_table("design_defaults.csv")
     assert len(d) == 2 and d["value"][d.where(name="duct_od_m")].tolist() == [0.11]
+
+
+def test_table_names_lists_every_packaged_csv_file():
+    # the package's data folder, listed with pathlib (no importlib.resources)
+    folder = Path(calc.__file__).parent / "data"
+    on_disk = sorted(p.name for p in folder.iterdir() if p.suffix == ".csv")
+    assert table_names() == on_disk
+    assert "iec60228_2004_conductor_resistance.csv" in on_disk and len(on_disk) == 30
+
+
+def test_parse_table_keeps_the_name_it_is_given():
+    text = "# source: x\na,tag\n1,memory\n"
+    assert parse_table(text).name == "<text>"
+    assert parse_table(text, "x.csv").name == "x.csv"
+
+
+def test_parsed_columns_are_read_only():
+    t = parse_table("# source: x\na,tag\n1,memory\n")
+    assert not t["a"].flags.writeable and not t["tag"].flags.writeable
+    with pytest.raises(ValueError):
+        t["a"][0] = 2.0
+
+
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("# source: x\n\n", "<text>: no header row"),
+        ("# source: x\na,tag\n1\n", "<text>: every row must have 2 cells"),
+        ("# source: x\na,b\n1,2\n", "<text>: no tag column"),
+    ],
+)
+def test_malformed_tables_are_refused_with_the_reason(text, message):
+    with pytest.raises(DataFileError) as e:
+        parse_table(text)
+    assert str(e.value) == message

@@ -1,9 +1,11 @@
 """Voltage drop (Ohm's law, R by IEC 60287-1-1 at conductor temperature)."""
 
 import numpy as np
+import pytest
 from numpy.testing import assert_allclose
 
 from calc.engine import DesignParams, SizingInput, size_circuits
+from calc.errors import UnknownOptionError
 from calc.resistance import r20_ohm_km, r_at_temp_ohm_km
 from calc.vdrop import conductor_temp_c, vdrop_pct, vdrop_v
 
@@ -80,3 +82,34 @@ def test_dc_total_is_string_plus_array():
     assert np.all(r.vdrop_total_pct <= 2.0 + 1e-9)  # default dc_total limit
     # array budget: min(array limit, dc_total − its worst string)
     assert_allclose(r.vdrop_limit_pct[0], min(1.5, 2.0 - r.vdrop_pct[1:].max()))
+
+
+def test_conductor_temperature_limits_and_shapes():
+    # "max": the rating temperature for every circuit, in the shape of the currents
+    assert conductor_temp_c("max", 90.0, 30.0, [10.0, 20.0, 30.0], 100.0).tolist() == [90.0] * 3
+    # "loading": never above the rating temperature, even for I > Iz; no current: ambient
+    got = conductor_temp_c("loading", 90.0, 30.0, [0.0, 100.0, 200.0], 100.0)
+    assert got.tolist() == [30.0, 90.0, 90.0]
+    with pytest.raises(UnknownOptionError) as e:
+        conductor_temp_c("hot", 90.0, 30.0, 10.0, 100.0)
+    assert str(e.value) == "conductor_temp must be one of 'max', 'loading'; got 'hot'"
+
+
+def test_power_factor_and_parallel_conductors():
+    # cos φ above 1 is taken as 1 (sin φ 0); cos φ 0: the whole reactance, ΔU = √3 L I X
+    assert_allclose(vdrop_v(100.0, 10.0, 1.0, 0.5, 1.2, 3), vdrop_v(100.0, 10.0, 1.0, 0.5, 1.0, 3))
+    assert_allclose(vdrop_v(1000.0, 10.0, 1.0, 0.5, 0.0, 3), np.sqrt(3) * 1.0 * 10.0 * 0.5)
+    assert_allclose(vdrop_v(1000.0, 10.0, 1.0, 0.5, -0.5, 3), np.sqrt(3) * 1.0 * 10.0 * 0.5)
+    # d.c. ignores reactance and power factor; p conductors in parallel divide the drop by p
+    assert_allclose(vdrop_v(1000.0, 10.0, 1.0, 0.5, 0.0, 0), 2 * 10.0 * 1.0)
+    assert_allclose(vdrop_v(1000.0, 10.0, 1.0, 0.5, 0.8, 1, parallel=4), 2 * 10.0 * 1.1 / 4)
+    assert_allclose(vdrop_pct([4.0, 1.0], [400.0, 230.0]), [1.0, 100 / 230])
+
+
+def test_defaults_are_dc_without_reactance():
+    # phases 0 (d.c.) by default: X and cos φ do not enter, ΔU = 2 L I R
+    assert_allclose(vdrop_v(100.0, 10.0, 1.0, 0.5, 0.8), 2 * 0.1 * 10.0 * 1.0)
+    # reactance 0 by default: three-phase at cos φ 0.8 is √3 L I R cos φ
+    assert_allclose(vdrop_v(100.0, 10.0, 1.0, pf=0.8, phases=3), np.sqrt(3) * 0.1 * 10.0 * 0.8)
+    # integer temperatures give float temperatures
+    assert conductor_temp_c("max", 90, 30, [10], 100).dtype.kind == "f"

@@ -1,0 +1,248 @@
+"""Mutation testing of routeplan's core modules with mutmut 3 (a development habit, not CI).
+
+Run from the repository root, in an environment with ``pip install -e '.[test,mutation]'``::
+
+    python tools/mutation.py calc                # mutate calc/, run tests/calc and calc's doctests
+    python tools/mutation.py routeplan           # routeplan's core modules and their fast tests
+    python tools/mutation.py all                 # everything [tool.mutmut] lists, its whole subset
+    python tools/mutation.py calc --retest       # test the survivors again (after new tests)
+    python tools/mutation.py calc --report       # only the score per module and the survivors
+    python tools/mutation.py calc --jobs 2       # more workers (default 1: a shared machine)
+
+``[tool.mutmut]`` in ``pyproject.toml`` lists every core module (``source_paths``), the
+packages copied beside them (``also_copy``) and the fast test subset of every group
+(``pytest_add_cli_args_test_selection``); a plain ``mutmut run`` uses all of it. mutmut has one
+test selection per run, and the calc modules are called by the slow whole-plan tests too, so
+this script runs one group (*target*) at a time: it narrows ``source_paths`` to the target's
+files and the selection to the target's subset (both must be in ``[tool.mutmut]``), in a folder
+of its own, ``.mutation/<target>/`` (symbolic links to the sources and a ``pyproject.toml``
+with the narrowed table), so that each target keeps its results. mutmut's own commands work
+there: ``cd .mutation/calc && mutmut show calc.vdrop.x_vdrop_v__mutmut_3`` (or ``browse``).
+
+The process runs at ``nice 10``. The report counts, per module, the mutants killed (a test
+failed or timed out), survived, without tests and not yet checked; mutants that
+``tests/MUTATION.md`` records as equivalent (a line naming the mutant and the word
+``equivalent``) are left out of the score: score = killed / (total - equivalent).
+
+mutmut keeps a mutant's result until its function changes: a plain run tests only new and
+changed functions; ``--retest`` then tests the survivors again, against today's tests.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import re
+import shutil
+import subprocess
+import sys
+import tomllib
+from collections import Counter, defaultdict
+from dataclasses import dataclass
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+WORK = ROOT / ".mutation"
+RECORD = ROOT / "tests" / "MUTATION.md"
+
+
+@dataclass(frozen=True)
+class Target:
+    """One group of core modules and the fast tests that check them."""
+
+    prefix: str  # source_paths entries that start with this belong to the target
+    tests: tuple[str, ...] | None  # None: the whole selection of [tool.mutmut]
+
+
+TARGETS = {
+    "calc": Target("calc/", ("tests/calc", "calc")),
+    "routeplan": Target(
+        "routeplan/",
+        (
+            "tests/routeplan/test_routing.py",
+            "tests/routeplan/test_route_crs.py",
+            "tests/routeplan/test_network.py",
+            "tests/routeplan/test_trench_checks.py",
+            "tests/routeplan/test_circuits.py",
+            "tests/routeplan/test_plan.py",
+            "tests/routeplan/test_protection_plan.py",
+            "tests/routeplan/test_text_safety.py",
+            "tests/map/test_map.py",
+            "tests/routeplan/test_diff_robust.py",
+            "tests/routeplan/test_cli_check.py",
+            "routeplan",
+        ),
+    ),
+    "all": Target("", None),
+}
+
+KILLED = {"killed", "timeout", "caught by type check"}
+
+
+class MutationSetupError(Exception):
+    """The configuration or the environment cannot run the requested target."""
+
+
+def _toml_value(value: object) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, int | float):
+        return repr(value)
+    if isinstance(value, str):
+        return json.dumps(value)
+    if isinstance(value, list):
+        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
+    raise MutationSetupError(f"pyproject.toml [tool.mutmut]: cannot write the value {value!r}")
+
+
+def narrowed_config(pyproject_text: str, target: Target) -> tuple[str, dict]:
+    """Return pyproject.toml's text with ``[tool.mutmut]`` narrowed to ``target``, and the table.
+
+    Raises
+    ------
+    MutationSetupError
+        When ``[tool.mutmut]`` is missing, lists none of the target's files, or lacks one of
+        the target's test paths.
+    """
+    table = dict(tomllib.loads(pyproject_text).get("tool", {}).get("mutmut", {}))
+    if not table:
+        raise MutationSetupError("pyproject.toml: no [tool.mutmut] table")
+    sources = [p for p in table.get("source_paths", []) if p.startswith(target.prefix)]
+    if not sources:
+        raise MutationSetupError(
+            f"pyproject.toml [tool.mutmut] source_paths: nothing under '{target.prefix}'"
+        )
+    table["source_paths"] = sources
+    if target.tests is not None:
+        listed = table.get("pytest_add_cli_args_test_selection", [])
+        missing = [t for t in target.tests if t not in listed]
+        if missing:
+            raise MutationSetupError(
+                "pyproject.toml [tool.mutmut] pytest_add_cli_args_test_selection: "
+                f"missing {', '.join(missing)}"
+            )
+        table["pytest_add_cli_args_test_selection"] = list(target.tests)
+    body = "".join(f"{key} = {_toml_value(value)}\n" for key, value in table.items())
+    lines = pyproject_text.splitlines(keepends=True)
+    start = next(i for i, line in enumerate(lines) if line.strip() == "[tool.mutmut]")
+    end = next(
+        (i for i in range(start + 1, len(lines)) if lines[i].startswith("[")),
+        len(lines),
+    )
+    text = "".join(lines[: start + 1]) + body + "\n" + "".join(lines[end:])
+    return text, table
+
+
+def prepare(name: str) -> tuple[Path, dict]:
+    """Create or refresh ``.mutation/<name>/``: links to the sources and the narrowed config."""
+    text, table = narrowed_config((ROOT / "pyproject.toml").read_text("utf-8"), TARGETS[name])
+    work = WORK / name
+    work.mkdir(parents=True, exist_ok=True)
+    tops = {Path(p).parts[0] for p in table["source_paths"] + table.get("also_copy", [])}
+    for top in sorted(tops | {"tests"}):
+        link = work / top
+        if not link.is_symlink():
+            link.symlink_to(ROOT / top, target_is_directory=(ROOT / top).is_dir())
+    config = work / "pyproject.toml"
+    if not config.exists() or config.read_text("utf-8") != text:
+        config.write_text(text, "utf-8")
+    return work, table
+
+
+def _mutmut() -> str:
+    beside = Path(sys.executable).with_name("mutmut")
+    found = str(beside) if beside.exists() else shutil.which("mutmut")
+    if found is None:
+        raise MutationSetupError("mutmut is not installed: pip install -e '.[test,mutation]'")
+    return found
+
+
+def results(work: Path) -> dict[str, str]:
+    """Return every mutant's status (``killed``, ``survived``, ...) by its mutmut name."""
+    out = subprocess.run(
+        [_mutmut(), "results", "--all", "true"],
+        cwd=work,
+        capture_output=True,
+        text=True,
+        check=True,
+    ).stdout
+    found = (re.match(r"\s+(\S+__mutmut_\d+): (.+)$", line) for line in out.splitlines())
+    return {m[1]: m[2].strip() for m in found if m}
+
+
+def equivalents() -> set[str]:
+    """Return the mutants ``tests/MUTATION.md`` records as equivalent."""
+    if not RECORD.exists():
+        return set()
+    names = set()
+    for line in RECORD.read_text("utf-8").splitlines():
+        if "equivalent" in line:
+            names.update(re.findall(r"[\w.]+__mutmut_\d+", line))
+    return names
+
+
+def report(status: dict[str, str], equivalent: set[str]) -> str:
+    """Return the score table per module and the list of mutants not killed.
+
+    ``left`` counts the mutants that survived, had no test, or were suspicious; ``pending``
+    those not checked yet. score = killed / (total - equivalent - pending).
+    """
+    by_module: dict[str, Counter] = defaultdict(Counter)
+    survivors = []
+    for name, state in sorted(status.items()):
+        module = name.split(".x_")[0].split(".xǁ")[0]
+        if state in KILLED:
+            kind = "killed"
+        elif state == "not checked":
+            kind = "pending"
+        elif name in equivalent:
+            kind = "equivalent"
+        else:
+            kind = "left"
+            survivors.append(f"  {name}: {state}")
+        by_module[module][kind] += 1
+        by_module[module]["total"] += 1
+    cols = ("total", "killed", "equivalent", "left", "pending")
+    rows = [f"{'module':24}" + "".join(f"{c:>11}" for c in cols) + f"{'score':>8}"]
+    for module, c in sorted(by_module.items()):
+        scored = c["total"] - c["equivalent"] - c["pending"]
+        score = f"{100 * c['killed'] / scored:7.1f}%" if scored else "       -"
+        rows.append(f"{module:24}" + "".join(f"{c[k]:11}" for k in cols) + score)
+    if survivors:
+        rows += ["", "not killed (survived, no tests or suspicious), not recorded as equivalent:"]
+        rows += survivors
+    return "\n".join(rows)
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("target", choices=sorted(TARGETS))
+    mode = parser.add_mutually_exclusive_group()
+    mode.add_argument("--retest", action="store_true", help="test the survivors again")
+    mode.add_argument("--report", action="store_true", help="only print the scores")
+    parser.add_argument("--jobs", type=int, default=1, help="mutmut workers (default 1)")
+    args = parser.parse_args(argv)
+    try:
+        work, _ = prepare(args.target)
+        if not args.report:
+            os.nice(10)
+            run = [_mutmut(), "run", "--max-children", str(args.jobs)]
+            # new and changed functions first (mutmut keeps every other result) ...
+            subprocess.run(run, cwd=work, check=False)
+            if args.retest:
+                # ... then the mutants that survived, against today's tests
+                names = [n for n, s in results(work).items() if s not in KILLED | {"not checked"}]
+                if names:
+                    subprocess.run(run + names, cwd=work, check=False)
+                else:
+                    print("no survivors to test again")
+        print(report(results(work), equivalents()))
+    except (MutationSetupError, subprocess.CalledProcessError) as e:
+        print(f"tools/mutation.py: {e}", file=sys.stderr)
+        return 2
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
