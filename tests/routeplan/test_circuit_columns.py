@@ -7,6 +7,8 @@
 - ``power_factor``: an a.c. circuit's is its inverter's ``pf``, or ``design.power_factor``
   where the pad gives none (README, settings); d.c. circuits have none.
 - Counts are integers: GDAL reads the GeoPackage's count fields as integer fields (pyogrio).
+  Ratings and other figures, empty where they do not apply, are real fields, and numbers in
+  the workbook (openpyxl reads them as numbers; README: "numbers as numbers").
 """
 
 from __future__ import annotations
@@ -16,6 +18,7 @@ import math
 from pathlib import Path
 
 import geopandas as gpd
+import openpyxl
 import pyogrio
 import pytest
 from shapely.geometry import Point
@@ -94,3 +97,22 @@ def test_counts_are_integer_fields_in_the_geopackage(out, layer, columns):
     dtypes = dict(zip(info["fields"].tolist(), info["dtypes"].tolist(), strict=True))
     for name in columns:
         assert dtypes[name].startswith("int"), (layer, name, dtypes[name])
+
+
+#: figures of the circuits that are empty for some circuits (no fuse, no breaker, d.c.)
+SOMETIMES_EMPTY = ["fuse_a", "array_fuse_a", "ac_breaker_a", "power_factor", "backfeed_a"]
+
+
+def test_figures_empty_for_some_circuits_stay_numbers(out):
+    info = pyogrio.read_info(out / "routes.gpkg", layer="circuits")
+    dtypes = dict(zip(info["fields"].tolist(), info["dtypes"].tolist(), strict=True))
+    for name in SOMETIMES_EMPTY:
+        assert dtypes[name] == "float64", (name, dtypes[name])
+    c = circuits(out)
+    assert {row["fuse_a"] for row in c.values() if row["kind"] == "string"} == {"20"}
+    wb = openpyxl.load_workbook(out / "cable_schedule.xlsx", read_only=True)
+    rows = wb["circuits"].iter_rows(values_only=True)
+    header = [str(h).split(" [")[0] for h in next(rows)]
+    j = header.index("fuse_a")
+    fuses = [r[j] for r in rows if r[header.index("kind")] == "string"]
+    assert fuses and all(isinstance(v, int | float) and v == 20 for v in fuses), fuses
