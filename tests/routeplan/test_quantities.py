@@ -20,6 +20,7 @@ import tomllib
 from collections import defaultdict
 from pathlib import Path
 
+import openpyxl
 import pytest
 from typer.testing import CliRunner
 
@@ -141,8 +142,8 @@ def test_demo_cable_metres_equal_the_schedules_conductor_metres(demo_out):
         assert rows[key] == pytest.approx(metres, abs=0.005 * n[key] + 0.005), key
 
 
-def test_demo_bill_order(demo_out):
-    keys = [k for k, _ in written_bill(demo_out)]
+def assert_bill_order(out: Path) -> None:
+    keys = [k for k, _ in written_bill(out)]
     item_rank = [ITEMS.index(k[0]) for k in keys]
     assert item_rank == sorted(item_rank)  # cable, termination, trench, fuses, breakers
     for item in ("cable", "termination"):
@@ -154,6 +155,26 @@ def test_demo_bill_order(demo_out):
     assert trench == sorted(trench)  # by laying, then depth
 
 
+def test_demo_bill_order(demo_out):
+    assert_bill_order(demo_out)
+
+
+def test_demo_bill_in_the_workbook_has_numbers(demo_out):
+    # the workbook's quantities sheet as openpyxl reads it: sizes, depths and quantities are
+    # numbers (README: "numbers as numbers"), empty where they do not apply
+    wb = openpyxl.load_workbook(demo_out / "cable_schedule.xlsx", read_only=True)
+    rows = wb["quantities"].iter_rows(values_only=True)
+    header = [str(h).split(" [")[0] for h in next(rows)]
+    lines = [dict(zip(header, r, strict=True)) for r in rows]
+    assert len(lines) == len(read_csv(demo_out / "quantities.csv"))
+    for line in lines:
+        assert isinstance(line["quantity"], int | float), line
+        for name in ("size_mm2", "depth_m"):
+            assert line[name] is None or isinstance(line[name], int | float), (name, line)
+        sized = line["item"] in ("cable", "termination")
+        assert (line["size_mm2"] is not None) == sized, line
+
+
 @pytest.mark.parametrize("phases", [3, 1])
 def test_bill_of_a_small_site_single_or_three_phase(tmp_path, phases):
     frames = base_frames()
@@ -161,5 +182,7 @@ def test_bill_of_a_small_site_single_or_three_phase(tmp_path, phases):
     site = write_site(tmp_path / "site", frames)
     out = plan(site, tmp_path / "out")
     check_bill(out, site, {"INV1": phases}, "iec60947-2")  # the default breaker device
+    # array Cu 16 mm², AC Al 300 mm²: by kind first (power flow), not by material
+    assert_bill_order(out)
     ac = next(c for c in read_csv(out / "cable_schedule.csv") if c["kind"] == "ac")
     assert int(ac["conductors"]) == POLES[("ac", phases)] * int(ac["parallel"])

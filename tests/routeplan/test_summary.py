@@ -22,12 +22,13 @@ import tomllib
 from collections import defaultdict
 from pathlib import Path
 
+import pyproj
 import pytest
 from typer.testing import CliRunner
 
 from routeplan.cli import app
 
-from ..conftest import base_frames, write_site
+from ..conftest import SITE_TOML, base_frames, write_site
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 runner = CliRunner()
@@ -138,6 +139,23 @@ def check_summary(summary: dict, circuits: list[dict], segments: list[dict], con
         "name": "routeplan",
         "version": importlib.metadata.version("routeplan"),
     }
+    # the note on the CRS names it as pyproj does
+    crs = pyproj.CRS(config["site"]["crs"])
+    assert summary["site"]["crs_note"].startswith(f"{config['site']['crs']} ({crs.name})")
+    assert "qualified, licensed person" in summary["caution"]
+    # figures to a fixed number of decimals: drops and utilisations one more than the
+    # schedule (4), metres to the centimetre (2), as the schedules give lengths
+    for k in KINDS:
+        for name in ("worst_vdrop_pct", "worst_utilisation"):
+            v = summary["circuits"][k][name]
+            assert v is None or v == round(v, 4), (k, name)
+    for v in [x["metres"] for x in listed] + [summary["cable_m_total"]]:
+        assert v == round(v, 2)
+    # assigned destinations: each with the route length of its circuits in the schedule
+    by_source = {(c["from_id"], c["to_id"]): c["route_m"] for c in circuits}
+    for a in summary["assigned"]:
+        assert f"{a['route_m']:.2f}" == by_source[(a["id"], a["to"])], a
+        assert a["route_m"] == round(a["route_m"], 2)
 
 
 def test_summary_of_a_plan_that_passes(as_designed):
@@ -145,6 +163,10 @@ def test_summary_of_a_plan_that_passes(as_designed):
     check_summary(summary, circuits, segments, config)
     assert summary["ok"] is True
     assert all(summary["circuits"][k]["fail"] == 0 for k in KINDS)
+    # the demo's two rows without `to` (README, demo site), by route length
+    assigned = {(a["layer"], a["id"]): (a["to"], a["rule"]) for a in summary["assigned"]}
+    assert set(assigned) == {("rows", "W2-R4"), ("rows", "E3-R6")}
+    assert all(rule != "given" for _, rule in assigned.values())
 
 
 def test_summary_of_a_plan_that_fails(failing):
@@ -180,3 +202,17 @@ def test_a_kind_without_circuits_has_no_worst_value(tmp_path):
     strings = [c for c in circuits if c["kind"] == "string"]
     worst = max(float(c["vdrop_pct"]) for c in strings)
     assert summary["worst_vdrop_pct"]["string"] == pytest.approx(worst, abs=0.0006)
+
+
+def test_the_dc_total_leaves_the_ac_circuits_out(tmp_path):
+    # large DC cables and an AC cable held to 16 mm²: the AC drop is above any DC total
+    toml = SITE_TOML + "\n[design.sizes_mm2]\nstring = [10]\narray = [95]\nac = [16]\n"
+    site = write_site(tmp_path / "site", base_frames(), toml=toml)
+    result = runner.invoke(app, ["plan", str(site), "--out", str(tmp_path / "out"), "--quiet"])
+    assert result.exit_code == 1, result.output  # the AC cable fails its drop limit
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text(encoding="utf-8"))
+    circuits = read_csv(tmp_path / "out" / "cable_schedule.csv")
+    dc = max(num(c["vdrop_total_pct"]) for c in circuits if c["kind"] != "ac")
+    ac = max(num(c["vdrop_total_pct"]) for c in circuits if c["kind"] == "ac")
+    assert ac > dc
+    assert summary["worst_vdrop_pct"]["dc_total"] == pytest.approx(dc, abs=0.0006)
