@@ -1,0 +1,304 @@
+"""routeplan.routing's public functions on their own, and its searches in the cases the other
+routing tests do not reach: no pair, one pair, a pair on two islands; searches in chunks;
+local searches whose part of the network leaves out lower-numbered nodes; the parameters'
+messages; the geometry-only checks with their parameters; the assignment report; the
+incidence frame; the island named in a message when it holds many trenches.
+
+Reference beside each check: "networkx" (shortest path lengths on the same segments),
+"hand" (worked out from the invented coordinates), "README" or a docstring for messages.
+"""
+
+from __future__ import annotations
+
+import networkx as nx
+import numpy as np
+import pytest
+import shapely
+
+from layers.errors import Problem
+from routeplan import routing
+from routeplan.errors import ParameterError, UnreachableError
+from routeplan.network import TrenchDefaults
+from routeplan.routing import (
+    RouteParams,
+    assignment_check,
+    check_network,
+    geometry_problems,
+    route_site,
+    shortest_paths,
+)
+
+
+def line(*xy):
+    return shapely.LineString(xy)
+
+
+def pt(x, y):
+    return shapely.Point(x, y)
+
+
+def networkx_length(net, a: int, b: int) -> float:
+    g = nx.MultiGraph()
+    g.add_weighted_edges_from(
+        zip(net.seg_u.tolist(), net.seg_v.tolist(), net.seg_length_m.tolist(), strict=True)
+    )
+    return 0.0 if a == b else nx.shortest_path_length(g, a, b, weight="weight")
+
+
+# ---- two clusters 5 km apart: local searches leave the first cluster's nodes out -------------
+
+
+@pytest.fixture
+def two_clusters(make_site):
+    """Cluster W (trenches W1, W2; listed first, so its nodes are numbered first) around
+    (0, 0), and cluster E around (5000, 0): each a T of trenches with a row, a combiner, an
+    inverter and a grid point. Each cluster is an island of its own; a search from a
+    destination in E covers E's part of the network only (the first radius is 2 × the
+    straight distance + 100 m), whose nodes are not numbered from 0."""
+    rows, combiners, inverters, trenches, grid = [], [], [], [], []
+    for name, x0 in (("W", 0.0), ("E", 5000.0)):
+        trenches += [
+            {"id": f"{name}1", "geometry": line((x0, 0), (x0 + 200, 0))},
+            {"id": f"{name}2", "geometry": line((x0 + 100, 0), (x0 + 100, 120))},
+        ]
+        rows += [
+            {
+                "id": f"{name}R{k}",
+                "strings": 2,
+                "geometry": line((x0 + 102, 20.0 + 30 * k), (x0 + 140, 20.0 + 30 * k)),
+            }
+            for k in range(3)
+        ]
+        combiners.append({"id": f"{name}CB", "geometry": pt(x0 + 30, -2)})
+        inverters.append({"id": f"{name}INV", "geometry": pt(x0 + 180, -2)})
+        grid.append({"id": f"{name}G", "geometry": pt(x0 + 200, 3)})
+    return make_site(
+        rows=rows, combiners=combiners, inverters=inverters, trenches=trenches, grid=grid
+    )
+
+
+def assert_routes_agree_with_networkx(plan) -> None:
+    net, c = plan.network, plan.circuits
+    node = net.taps.set_index(["layer", "feature_id"])["node"]
+    for row in c.itertuples():
+        a, b = node[(row.from_layer, row.from_id)], node[(row.to_layer, row.to_id)]
+        assert row.trench_m == pytest.approx(networkx_length(net, a, b), abs=1e-9), row
+    # shapely: each route's geometry is as long as its route_m
+    np.testing.assert_allclose(shapely.length(c.geometry.values), c["route_m"], atol=1e-9)
+
+
+def test_local_searches_of_a_far_cluster_agree_with_networkx(two_clusters):
+    plan = route_site(two_clusters)
+    net = plan.network
+    east = net.node_xy[:, 0] > 2500
+    assert east.any() and not east[0]  # E's nodes are not the first ones
+    assert_routes_agree_with_networkx(plan)
+    c = plan.circuits.set_index("circuit_id")
+    # hand: ER0 taps E2 at (5100, 20); ECB taps E1 at (5030, 0): 20 + 70 m of trench
+    assert c.loc["ER0/S1", "trench_m"] == pytest.approx(90.0, abs=1e-9)
+    assert c.loc["ER0/S1", "to_id"] == "ECB" and c.loc["WR0/S1", "to_id"] == "WCB"
+
+
+def test_searches_in_chunks_give_the_same_routes(two_clusters, monkeypatch):
+    """One destination per search call (the memory bound at its smallest), every first
+    search missed (radius 0): the full searches, chunked, give the same routes."""
+    before = route_site(two_clusters)
+    monkeypatch.setattr(routing, "_CHUNK_ENTRIES", 1)
+    monkeypatch.setattr(routing, "_DETOUR", 0.0)
+    monkeypatch.setattr(routing, "_DETOUR_M", 0.0)
+    after = route_site(two_clusters)
+    assert_routes_agree_with_networkx(after)
+    for col in ("to_id", "route_m", "segment_ids", "group_max"):
+        assert before.circuits[col].tolist() == after.circuits[col].tolist()
+    assert before.segments["circuits"].tolist() == after.segments["circuits"].tolist()
+
+
+# ---- shortest_paths on its own ------------------------------------------------------------------
+
+
+def test_shortest_paths_of_no_pair(two_clusters):
+    net = route_site(two_clusters).network
+    p = shortest_paths(net, np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64))
+    assert p.offset.tolist() == [0] and p.offset.dtype.kind == "i"  # (n_pairs + 1,) ints
+    assert len(p.segment) == 0 and p.segment.dtype.kind == "i"
+    assert len(p.forward) == 0 and p.forward.dtype == bool
+    assert len(p.trench_m) == 0 and len(p.pair) == 0
+
+
+def test_shortest_paths_of_one_pair(two_clusters):
+    net = route_site(two_clusters).network
+    west = np.flatnonzero(net.node_xy[:, 0] < 2500)
+    a, b = int(west[0]), int(west[-1])
+    p = shortest_paths(net, np.array([a]), np.array([b]))
+    assert p.offset[0] == 0 and p.offset[1] == len(p.segment) > 0
+    assert p.trench_m[0] == pytest.approx(networkx_length(net, a, b), abs=1e-9)  # networkx
+    assert p.trench_m[0] == pytest.approx(net.seg_length_m[p.segment].sum(), abs=1e-9)
+    # the segments run from a to b, each entered where the last one ended
+    u = np.where(p.forward, net.seg_u[p.segment], net.seg_v[p.segment])
+    v = np.where(p.forward, net.seg_v[p.segment], net.seg_u[p.segment])
+    assert u[0] == a and v[-1] == b and (u[1:] == v[:-1]).all()
+
+
+def test_shortest_paths_of_a_pair_on_two_islands(two_clusters):
+    net = route_site(two_clusters).network
+    west = int(np.flatnonzero(net.node_xy[:, 0] < 2500)[0])
+    east = int(np.flatnonzero(net.node_xy[:, 0] > 2500)[0])
+    with pytest.raises(ValueError, match=r"^a source cannot reach its destination$"):
+        shortest_paths(net, np.array([west]), np.array([east]))
+
+
+# ---- parameters ---------------------------------------------------------------------------------
+
+VALID = "snap_m, node_tol_m, termination_m, slack_pct, row_run_factor, trench"
+VALID_TRENCH = "depth_m, laying, spacing_m, soil_k_m_w, max_circuits"
+
+
+def test_unknown_parameters_name_the_valid_ones():
+    # the fields of RouteParams and TrenchDefaults, as their docstrings list them
+    with pytest.raises(ParameterError) as err:
+        RouteParams.from_mapping({"snap": 3, "trench": {"depth": 1.0, "laying": "duct"}})
+    assert err.value.problems == [
+        Problem("params", "snap", f"unknown; valid: {VALID}"),
+        Problem("params", "trench.depth", f"unknown; valid: {VALID_TRENCH}"),
+    ]
+    p = RouteParams.from_mapping({"slack_pct": 5.0, "trench": {"laying": "duct"}})
+    assert p == RouteParams(slack_pct=5.0, trench=TrenchDefaults(laying="duct"))
+
+
+# ---- the checks that need geometry alone, with their parameters ------------------------------
+
+
+def test_geometry_problems_of_a_site_without_trenches(make_site):
+    site = make_site(inverters=[{"id": "INV1", "geometry": pt(0, 0)}], validate=False)
+    assert geometry_problems(site) == []  # its layers' own problems say why
+
+
+def test_geometry_problems_with_default_and_given_parameters(make_site):
+    """One trench A (0,0) → (100,0); CB1 40 m below it; INV1 beside it. Trench B runs along
+    A from x = 90 for 8 m, 0.5 m beside it, then leaves at right angles."""
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "geometry": line((20, 2), (20, 10))}],
+        combiners=[{"id": "CB1", "geometry": pt(50, -40)}],
+        inverters=[{"id": "INV1", "geometry": pt(10, -1)}],
+        trenches=[{"id": "A", "geometry": line((0, 0), (100, 0))}],
+    )
+    far = Problem("combiners", "CB1", "nearest trench 'A' is 40.00 m away, more than snap_m 30 m")
+    assert geometry_problems(site) == [far]  # the defaults: snap_m 30 m
+    assert geometry_problems(site, RouteParams(snap_m=45.0)) == []
+    assert check_network(site, RouteParams(snap_m=45.0)) == []
+
+    two = make_site(
+        rows=[{"id": "R1", "strings": 1, "geometry": line((20, 2), (20, 10))}],
+        inverters=[{"id": "INV1", "geometry": pt(10, -1)}],
+        trenches=[
+            {"id": "A", "geometry": line((0, 0), (100, 0))},
+            {"id": "B", "geometry": line((90, 0.5), (98, 0.5), (98, 30))},
+        ],
+    )
+    # the shortest shared length reported is max(1 m, 10 × node_tol_m) (network.overlap_min_m)
+    assert geometry_problems(two, RouteParams(node_tol_m=0.1)) == []  # 0.5 m apart: apart
+    overlaps = geometry_problems(two, RouteParams(node_tol_m=0.6))  # 8 m along, over 6 m
+    assert [(p.layer, p.feature_id) for p in overlaps] == [("trenches", "A")]
+    assert geometry_problems(two, RouteParams(node_tol_m=1.0)) == []  # 8 m, under 10 m
+
+
+def test_far_parts_use_the_given_snap(make_site):
+    """Trench A has two parts 40 m apart: one corridor when snap_m is 45 m, not at 30 m."""
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "geometry": line((20, 2), (20, 10))}],
+        inverters=[{"id": "INV1", "geometry": pt(10, -1)}],
+        trenches=[
+            {
+                "id": "A",
+                "geometry": shapely.MultiLineString([[(0, 0), (100, 0)], [(140, 0), (200, 0)]]),
+            }
+        ],
+    )
+    assert [p.feature_id for p in geometry_problems(site)] == ["A"]
+    assert geometry_problems(site, RouteParams(snap_m=45.0)) == []
+
+
+def test_a_trench_shorter_than_the_tolerance_is_no_trench(make_site):
+    # its two ends join into one node at node_tol_m 1 m: nothing is left to route on
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "geometry": line((0.2, 2), (0.2, 10))}],
+        inverters=[{"id": "INV1", "geometry": pt(0.4, -1)}],
+        trenches=[{"id": "A", "geometry": line((0, 0), (0.8, 0))}],
+    )
+    assert geometry_problems(site, RouteParams(node_tol_m=0.1)) == []
+    assert geometry_problems(site, RouteParams(node_tol_m=1.0)) == [
+        Problem("trenches", None, "no trench to route on")
+    ]
+
+
+# ---- the assignment report, the incidence frame, a large island in a message -----------------
+
+
+def test_assignment_check_reports_every_destination(two_clusters):
+    # no `to` anywhere: two candidates of each kind, the nearest by route is the one on the
+    # feature's own island (the other cluster's cannot be reached)
+    RULE = "nearest"  # noqa: N806
+    problems, report = assignment_check(two_clusters)
+    assert problems == []
+    got = report[["layer", "feature_id", "to_id", "rule"]].values.tolist()
+    assert got == [
+        ["rows", "WR0", "WCB", RULE],
+        ["rows", "WR1", "WCB", RULE],
+        ["rows", "WR2", "WCB", RULE],
+        ["rows", "ER0", "ECB", RULE],
+        ["rows", "ER1", "ECB", RULE],
+        ["rows", "ER2", "ECB", RULE],
+        ["combiners", "WCB", "WINV", RULE],
+        ["combiners", "ECB", "EINV", RULE],
+        ["inverters", "WINV", "WG", RULE],
+        ["inverters", "EINV", "EG", RULE],
+    ]
+
+
+def test_incidence_frame_has_the_documented_columns(two_clusters):
+    plan = route_site(two_clusters)
+    f = plan.incidence_frame()
+    assert list(f.columns) == [
+        "circuit",
+        "segment",
+        "circuit_id",
+        "segment_id",
+        "length_m",
+        "circuits",
+        "depth_m",
+        "laying",
+        "spacing_m",
+        "soil_k_m_w",
+        "max_circuits",
+    ]
+    # one row per segment of each route, by circuit, in route order
+    c = plan.circuits
+    assert f["circuit"].tolist() == np.repeat(np.arange(len(c)), c["n_segments"]).tolist()
+    per_circuit = f.groupby("circuit")["segment_id"].agg(";".join)
+    has = c["n_segments"].to_numpy() > 0
+    assert per_circuit.tolist() == c.loc[has, "segment_ids"].tolist()
+    assert (f["circuit_id"] == c["circuit_id"].to_numpy()[f["circuit"]]).all()
+    s = plan.segments
+    assert (f["circuits"] == s["circuits"].to_numpy()[f["segment"]]).all()
+
+
+def test_an_island_of_many_trenches_is_named_by_its_first_six(make_site):
+    """Island X: a comb of 8 trenches X1…X8 (the row's); island Y: trench Y1 (the
+    combiner's). The message names six of X's trenches and counts the rest."""
+    teeth = [{"id": f"X{k}", "geometry": line((10.0 * k, 0), (10.0 * k, 20))} for k in range(2, 9)]
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "CB1", "geometry": line((12, 30), (18, 30))}],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(500, -1)}],
+        inverters=[{"id": "INV1", "geometry": pt(560, -1)}],
+        trenches=[
+            {"id": "X1", "geometry": line((0, 20), (100, 20))},
+            *teeth,
+            {"id": "Y1", "geometry": line((480, 0), (600, 0))},
+        ],
+    )
+    with pytest.raises(UnreachableError) as err:
+        route_site(site)
+    assert [str(p) for p in err.value.problems] == [
+        "rows 'R1': R1/S1 cannot reach combiner 'CB1': 'R1' joins the trench island "
+        "[X1, X2, X3, X4, X5, X6 and 2 more], 'CB1' joins [Y1]"
+    ]
