@@ -14,6 +14,8 @@ import networkx as nx
 import numpy as np
 import pytest
 import shapely
+import shapely.affinity
+from hypothesis import HealthCheck, given, settings
 
 from layers.errors import Problem
 from routeplan import routing
@@ -27,6 +29,8 @@ from routeplan.routing import (
     route_site,
     shortest_paths,
 )
+
+from .test_routing import grid_sites
 
 
 def line(*xy):
@@ -111,6 +115,29 @@ def test_searches_in_chunks_give_the_same_routes(two_clusters, monkeypatch):
     for col in ("to_id", "route_m", "segment_ids", "group_max"):
         assert before.circuits[col].tolist() == after.circuits[col].tolist()
     assert before.segments["circuits"].tolist() == after.segments["circuits"].tolist()
+
+
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(grid_sites())
+def test_routes_on_sites_larger_than_the_first_radius_agree_with_networkx(make_site, drawn):
+    """test_routing's random grid sites, stretched 30 times (trench spacing 300 m): the first
+    search of a destination covers a part of the network only (2 × the straight distance to
+    its farthest source + 100 m), yet every route is the shortest (networkx)."""
+    trenches, rows, combiners = drawn
+
+    def big(features):
+        return [
+            dict(f, geometry=shapely.affinity.scale(f["geometry"], 30, 30, origin=(0, 0)))
+            for f in features
+        ]
+
+    site = make_site(
+        rows=big(rows),
+        combiners=big(combiners),
+        inverters=big([{"id": "INV", "geometry": pt(-1, -5)}]),
+        trenches=big(trenches),
+    )
+    assert_routes_agree_with_networkx(route_site(site, RouteParams(snap_m=100_000.0)))
 
 
 # ---- shortest_paths on its own ------------------------------------------------------------------
@@ -302,3 +329,68 @@ def test_an_island_of_many_trenches_is_named_by_its_first_six(make_site):
         "rows 'R1': R1/S1 cannot reach combiner 'CB1': 'R1' joins the trench island "
         "[X1, X2, X3, X4, X5, X6 and 2 more], 'CB1' joins [Y1]"
     ]
+
+
+# ---- the stretches in air and the route geometry ------------------------------------------------
+
+
+def test_stretches_in_air_and_who_runs_along_them(make_site):
+    """Trench T (0,0) → (100,0). Rows at right angles above it: R1 (x = 20, y 3 → 23, 2
+    strings), R2 (x = 60, y 0.5 → 10.5), R3 (x = 80, touching, 1.6 m long); CB1 on the trench
+    at x = 40, INV1 2 m below it at x = 90, the grid point G 4 m above its end. Hand: stubs
+    3, 0.5, 0, 0, 2, 4 m; row runs half a row (README): 10, 5, 0.8 m. A stretch of zero
+    length carries nothing in air."""
+    site = make_site(
+        rows=[
+            {"id": "R1", "strings": 2, "to": "CB1", "geometry": line((20, 3), (20, 23))},
+            {"id": "R2", "strings": 1, "to": "CB1", "geometry": line((60, 0.5), (60, 10.5))},
+            {"id": "R3", "strings": 1, "to": "CB1", "geometry": line((80, 0), (80, 1.6))},
+        ],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(40, 0)}],
+        inverters=[{"id": "INV1", "to": "G", "geometry": pt(90, -2)}],
+        trenches=[{"id": "T", "geometry": line((0, 0), (100, 0))}],
+        grid=[{"id": "G", "geometry": pt(100, 4)}],
+    )
+    plan = route_site(site)
+    air = plan.air
+    assert list(air.columns) == ["stretch_id", "kind", "layer", "feature_id", "length_m"]
+    assert air[["stretch_id", "kind", "layer", "feature_id"]].values.tolist() == [
+        ["stub R1", "stub", "rows", "R1"],
+        ["stub R2", "stub", "rows", "R2"],
+        ["stub R3", "stub", "rows", "R3"],
+        ["stub CB1", "stub", "combiners", "CB1"],
+        ["stub INV1", "stub", "inverters", "INV1"],
+        ["stub G", "stub", "grid", "G"],
+        ["row run R1", "row run", "rows", "R1"],
+        ["row run R2", "row run", "rows", "R2"],
+        ["row run R3", "row run", "rows", "R3"],
+    ]
+    np.testing.assert_allclose(air["length_m"], [3, 0.5, 0, 0, 2, 4, 10, 5, 0.8], atol=1e-9)
+    cid = plan.circuits["circuit_id"].tolist()
+    assert cid == ["R1/S1", "R1/S2", "R2/S1", "R3/S1", "A:CB1", "AC:INV1"]
+    c, k = plan.air_incidence_circuit, plan.air_incidence_stretch
+    assert c.dtype.kind == k.dtype.kind == "i" and c.ndim == k.ndim == 1
+    assert list(zip(c.tolist(), k.tolist(), strict=True)) == [
+        (0, 0), (0, 6),  # R1's strings: its stub and its row run
+        (1, 0), (1, 6),
+        (2, 1), (2, 7),  # R2/S1: a stub of half a metre counts
+        (3, 8),  # R3/S1: no stub, a row run of 0.8 m
+        (4, 4),  # A:CB1: CB1 stands on the trench; INV1's stub
+        (5, 4), (5, 5),  # AC:INV1: INV1's stub and G's
+    ]  # fmt: skip
+
+
+def test_a_route_against_the_drawing_direction_of_a_bent_trench(make_site):
+    """Trench U is drawn (100,0) → (100,50) → (0,50) → (0,0). R1 (x = 0, y -3 → -20) taps
+    its end (0,0) by 3 m; CB1 (102, 0) taps its start by 2 m: the string runs along U
+    backwards, through both bends."""
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "CB1", "geometry": line((0, -3), (0, -20))}],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(102, 0)}],
+        inverters=[{"id": "INV1", "geometry": pt(102, 50)}],
+        trenches=[{"id": "U", "geometry": line((100, 0), (100, 50), (0, 50), (0, 0))}],
+    )
+    c = route_site(site).circuits.set_index("circuit_id")
+    coords = shapely.get_coordinates(c.loc["R1/S1", "geometry"]).tolist()
+    assert coords == [[0, -3], [0, 0], [0, 50], [100, 50], [100, 0], [102, 0]]  # hand
+    assert c.loc["R1/S1", "route_m"] == pytest.approx(3 + 200 + 2, abs=1e-9)  # 50 + 100 + 50
