@@ -394,3 +394,170 @@ def test_a_route_against_the_drawing_direction_of_a_bent_trench(make_site):
     coords = shapely.get_coordinates(c.loc["R1/S1", "geometry"]).tolist()
     assert coords == [[0, -3], [0, 0], [0, 50], [100, 50], [100, 0], [102, 0]]  # hand
     assert c.loc["R1/S1", "route_m"] == pytest.approx(3 + 200 + 2, abs=1e-9)  # 50 + 100 + 50
+
+
+# ---- route_site's parameters, memo, timings and messages ----------------------------------------
+
+
+@pytest.fixture
+def small(make_site):
+    """Trench T (0,0) → (100,0) (no attributes); R1 (x = 10, y 3 → 20) and R2 (x = 30) to CB1
+    (40, -1), CB1 to INV1 (80, -2), INV1 to the grid point G (100, 3)."""
+    return make_site(
+        rows=[
+            {"id": "R1", "strings": 2, "to": "CB1", "geometry": line((10, 3), (10, 20))},
+            {"id": "R2", "strings": 1, "to": "CB1", "geometry": line((30, 3), (30, 20))},
+        ],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(40, -1)}],
+        inverters=[{"id": "INV1", "to": "G", "geometry": pt(80, -2)}],
+        trenches=[{"id": "T", "geometry": line((0, 0), (100, 0))}],
+        grid=[{"id": "G", "geometry": pt(100, 3)}],
+    )
+
+
+def test_route_site_keeps_its_parameters_and_their_trench_defaults(small):
+    params = RouteParams(trench=TrenchDefaults(depth_m=1.1, laying="duct", max_circuits=4))
+    plan = route_site(small, params)
+    assert plan.params is params
+    s = plan.segments
+    assert set(s["depth_m"]) == {1.1} and set(s["laying"]) == {"duct"}
+    assert set(s["max_circuits"]) == {4.0}
+
+
+def test_a_memo_of_the_same_trenches_is_taken(small):
+    first = route_site(small)
+    again = route_site(small, memo=first.network.memo)
+    # the noding of the unchanged trenches is the memo's own (NetworkMemo docstring)
+    assert again.network.memo.noded is first.network.memo.noded
+    assert again.circuits["route_m"].tolist() == first.circuits["route_m"].tolist()
+
+
+class Clock:
+    """A stand-in for time.perf_counter that advances one second per reading."""
+
+    def __init__(self) -> None:
+        self.now = 0.0
+
+    def perf_counter(self) -> float:
+        self.now += 1.0
+        return self.now
+
+
+def test_each_step_is_timed_once(small, monkeypatch):
+    # bench/run.py reads these steps as route.<step>; each one is the time between two
+    # readings of the clock around it (one second of the stand-in clock)
+    monkeypatch.setattr(routing, "time", Clock())
+    plan = route_site(small)
+    assert plan.timings_s == {
+        "trench_check": 1.0,
+        "network": 1.0,
+        "assign": 1.0,
+        "search": 1.0,
+        "tables": 1.0,
+    }
+
+
+def test_a_site_not_in_metres_is_refused_before_anything_else(make_site):
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "INV1", "geometry": line((10, 3), (10, 20))}],
+        inverters=[{"id": "INV1", "geometry": pt(50, -2)}],
+        trenches=[{"id": "T", "geometry": line((0, 0), (100, 0))}],
+        crs="EPSG:4326",
+        validate=False,
+    )
+    with pytest.raises(routing.RoutingError) as err:
+        route_site(site)
+    assert [p.layer for p in err.value.problems] == ["site"]
+    assert "is not projected in metres" in err.value.problems[0].message
+
+
+def test_route_site_checks_with_its_own_tolerance(make_site):
+    """The overlap of test_geometry_problems_with_default_and_given_parameters, and a trench
+    shorter than the tolerance, found by route_site's own checks with the given node_tol_m."""
+    two = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "INV1", "geometry": line((20, 2), (20, 10))}],
+        inverters=[{"id": "INV1", "geometry": pt(10, -1)}],
+        trenches=[
+            {"id": "A", "geometry": line((0, 0), (100, 0))},
+            {"id": "B", "geometry": line((90, 0.5), (98, 0.5), (98, 30))},
+        ],
+    )
+    route_site(two, RouteParams(node_tol_m=0.1))  # 0.5 m apart: two corridors
+    with pytest.raises(routing.RoutingError) as err:
+        route_site(two, RouteParams(node_tol_m=0.6))
+    assert [(p.layer, p.feature_id) for p in err.value.problems] == [("trenches", "A")]
+    short = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "INV1", "geometry": line((0.2, 2), (0.2, 10))}],
+        inverters=[{"id": "INV1", "geometry": pt(0.4, -1)}],
+        trenches=[{"id": "A", "geometry": line((0, 0), (0.8, 0))}],
+    )
+    problems = check_network(short, RouteParams(node_tol_m=1.0))
+    assert Problem("trenches", None, "no trench to route on") in problems
+
+
+def test_one_circuit_alone(make_site):
+    # one row of one string straight to an inverter that feeds no grid point: one circuit
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "INV1", "geometry": line((10, 3), (10, 20))}],
+        inverters=[{"id": "INV1", "geometry": pt(50, -2)}],
+        trenches=[{"id": "T", "geometry": line((0, 0), (100, 0))}],
+    )
+    c = route_site(site).circuits
+    assert c["circuit_id"].tolist() == ["R1/S1"]
+    assert c["route_m"].tolist() == [pytest.approx(3 + 40 + 2, abs=1e-9)]  # hand
+
+
+def test_nearest_by_route_skips_a_combiner_off_the_network(make_site):
+    """R1 has no `to`; CB1 is 40 m below the trench (not joined), CB2 and CB3 on it: R1 goes
+    to the nearer of the joined ones by route, and the far one is the only problem."""
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "geometry": line((10, 3), (10, 20))}],
+        combiners=[
+            {"id": "CB1", "to": "INV1", "geometry": pt(12, -40)},
+            {"id": "CB2", "to": "INV1", "geometry": pt(60, -1)},
+            {"id": "CB3", "to": "INV1", "geometry": pt(30, -1)},
+        ],
+        inverters=[{"id": "INV1", "geometry": pt(90, -2)}],
+        trenches=[{"id": "T", "geometry": line((0, 0), (100, 0))}],
+    )
+    problems, report = assignment_check(site)
+    assert [(p.layer, p.feature_id) for p in problems] == [("combiners", "CB1")]
+    row = report[report["feature_id"] == "R1"].iloc[0]
+    assert (row["to_id"], row["route_m"]) == ("CB3", pytest.approx(3 + 20 + 1, abs=1e-9))
+
+
+def test_features_with_the_same_fault_are_one_line(make_site):
+    """Seven combiners without `to` and the only inverter 40 m off the network: one line
+    names how many and the first five; the inverter's own problem is a line of its own."""
+    combiners = [{"id": f"CB{k}", "geometry": pt(10.0 * k, -1)} for k in range(1, 8)]
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "CB1", "geometry": line((5, 3), (5, 20))}],
+        combiners=combiners,
+        inverters=[{"id": "INV1", "geometry": pt(50, -40)}],
+        trenches=[{"id": "T", "geometry": line((0, 0), (100, 0))}],
+    )
+    assert [str(p) for p in check_network(site)] == [
+        "inverters 'INV1': nearest trench 'T' is 40.00 m away, more than snap_m 30 m",
+        "combiners: no `to`, and no inverter is reachable through the trenches "
+        "(7 combiners: CB1, CB2, CB3, CB4, CB5 and 2 more)",
+    ]
+
+
+def test_row_length_of_multipolygons_and_degenerate_rows():
+    # shapely.oriented_envelope: a MultiPolygon's long side; a flat polygon's envelope is a line
+    two = shapely.MultiPolygon([shapely.box(0, 0, 30, 4), shapely.box(40, 0, 60, 4)])
+    flat = shapely.Polygon([(0, 0), (25, 0), (10, 0)])
+    lengths = routing.row_length_m(np.array([two, flat, line((0, 0), (3, 4))], dtype=object))
+    np.testing.assert_allclose(lengths, [60.0, 25.0, 5.0], atol=1e-9)  # hand
+
+
+def test_segment_between_refuses_a_pair_no_segment_joins(small):
+    net = route_site(small).network
+    u, v = net.seg_u, net.seg_v
+    k = int(np.argmax(net.seg_length_m))
+    assert net.segment_between(np.array([v[k]]), np.array([u[k]])).tolist() == [k]
+    last = net.n_nodes - 1
+    for a, b in ((u[0], v[-1]), (last, last)):  # not joined; above every joined pair
+        if a == b or not np.any(((u == a) & (v == b)) | ((u == b) & (v == a))):
+            with pytest.raises(ValueError, match=r"^a node pair is not joined by any segment$"):
+                net.segment_between(np.array([a]), np.array([b]))
