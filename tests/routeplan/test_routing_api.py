@@ -561,3 +561,80 @@ def test_segment_between_refuses_a_pair_no_segment_joins(small):
         if a == b or not np.any(((u == a) & (v == b)) | ((u == b) & (v == a))):
             with pytest.raises(ValueError, match=r"^a node pair is not joined by any segment$"):
                 net.segment_between(np.array([a]), np.array([b]))
+
+
+# ---- circuits whose ends lie on separate islands -----------------------------------------------
+
+
+def unreachable(site) -> list[str]:
+    with pytest.raises(UnreachableError) as err:
+        route_site(site)
+    return [str(p) for p in err.value.problems]
+
+
+def test_an_unreachable_end_at_the_networks_first_node(make_site):
+    """Trench A (0,0) → (100,0) is listed first, so its first end is node 0; trench B
+    (0,50) → (100,50) is an island of its own. R1 touches A's first end (its tap is node 0)
+    and goes to CB1 on B; then the other way round."""
+    trenches = [
+        {"id": "A", "geometry": line((0, 0), (100, 0))},
+        {"id": "B", "geometry": line((0, 50), (100, 50))},
+    ]
+    at_a, at_b = line((0, 0), (0, -20)), line((50, 52), (50, 70))
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "CB1", "geometry": at_a}],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(60, 49)}],
+        inverters=[{"id": "INV1", "geometry": pt(90, 49)}],
+        trenches=trenches,
+    )
+    assert unreachable(site) == [
+        "rows 'R1': R1/S1 cannot reach combiner 'CB1': 'R1' joins the trench island [A], "
+        "'CB1' joins [B]"
+    ]
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "CB1", "geometry": at_b}],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(0, 0)}],
+        inverters=[{"id": "INV1", "geometry": pt(90, -1)}],
+        trenches=trenches,
+    )
+    assert unreachable(site) == [
+        "rows 'R1': R1/S1 cannot reach combiner 'CB1': 'R1' joins the trench island [B], "
+        "'CB1' joins [A]"
+    ]
+
+
+def test_unreachable_circuits_one_line_per_source_and_destination(make_site):
+    """R4 (1 string) and R5 (2 strings) on island B, their combiner on A; a single circuit
+    alone (one string straight to an inverter); and an inverter whose grid point is on
+    another island."""
+    trenches = [
+        {"id": "A", "geometry": line((0, 0), (100, 0))},
+        {"id": "B", "geometry": line((0, 50), (100, 50))},
+    ]
+    site = make_site(
+        rows=[
+            {"id": "R4", "strings": 1, "to": "CB1", "geometry": line((20, 52), (20, 70))},
+            {"id": "R5", "strings": 2, "to": "CB1", "geometry": line((40, 52), (40, 70))},
+        ],
+        combiners=[{"id": "CB1", "to": "INV1", "geometry": pt(10, -1)}],
+        inverters=[{"id": "INV1", "to": "G", "geometry": pt(90, -1)}],
+        grid=[{"id": "G", "geometry": pt(90, 51)}],
+        trenches=trenches,
+    )
+    assert unreachable(site) == [
+        "rows 'R4': R4/S1 cannot reach combiner 'CB1': 'R4' joins the trench island [B], "
+        "'CB1' joins [A]",
+        "rows 'R5': 2 circuits R5/S1…R5/S2 cannot reach combiner 'CB1': 'R5' joins the trench "
+        "island [B], 'CB1' joins [A]",
+        "inverters 'INV1': AC:INV1 cannot reach grid point 'G': 'INV1' joins the trench "
+        "island [A], 'G' joins [B]",
+    ]
+    alone = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "INV1", "geometry": line((20, 52), (20, 70))}],
+        inverters=[{"id": "INV1", "geometry": pt(90, -1)}],
+        trenches=trenches,
+    )
+    assert unreachable(alone) == [
+        "rows 'R1': R1/S1 cannot reach inverter 'INV1': 'R1' joins the trench island [B], "
+        "'INV1' joins [A]"
+    ]
