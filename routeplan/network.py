@@ -232,7 +232,7 @@ class TrenchNetwork:
         key = lo * self.n_nodes + hi
         order = np.lexsort((ok, w[ok], key))  # parallel segments: the shortest, then the first
         key, seg = key[order], ok[order]
-        first = np.r_[True, key[1:] != key[:-1]]
+        first = np.r_[True, key[1:] != key[:-1]][: len(key)]  # none when every segment is a loop
         return key[first], seg[first]
 
     @cached_property
