@@ -64,7 +64,7 @@ def test_every_circuit_problem_in_one_message():
         parent=[2, 3, -1, -1, 2, -1],
     )
     assert _message(inp) == (
-        "kind must be 0, 1 or 2 at circuits [5]; "
+        "kind must be 0, 1, 2 or 3 at circuits [5]; "
         "cable_m must be >= 0 m at circuits [1]; "
         "air_m must be >= 0 m at circuits [3]; "
         "isc_a must be > 0 for d.c. circuits [0]; "
@@ -77,7 +77,8 @@ def test_every_circuit_problem_in_one_message():
         "bifaciality must be within 0-1 at d.c. circuits [1]; "
         "isc_bifacial_a must be >= isc_a at d.c. circuits [2]; "
         "dc_group must be >= -1 at array circuits [2]; "
-        "parent must be -1 or the index of an array circuit (strings only) at circuits [1, 4]"
+        "parent must be the index of an array or sub-array circuit (strings: or -1; sub-array "
+        "circuits: always; others: -1) at circuits [1, 4]"
     )
 
 
@@ -94,7 +95,8 @@ def test_the_remaining_circuit_rules():
         "imp_a must be > 0 for d.c. circuits [1]; "
         "strings_in_parallel must be >= 1 for d.c. circuits [2]; "
         "ac_v must be > 0 for a.c. circuits [4]; "
-        "parent must be -1 or the index of an array circuit (strings only) at circuits [0, 1]"
+        "parent must be the index of an array or sub-array circuit (strings: or -1; sub-array "
+        "circuits: always; others: -1) at circuits [0, 1]"
     )
 
 
@@ -191,7 +193,7 @@ def test_air_stretch_problems():
         ),
         (
             "air_arrangement",
-            ("bunched", "bunched", "pile"),
+            ("bunched", "bunched", "pile", "bunched"),
             "air_arrangement (ac) must be one of 'bunched', 'wall', 'ceiling', 'tray', 'ladder', "
             "'spaced'; got 'pile'",
         ),
@@ -234,7 +236,7 @@ def test_every_design_number_problem_in_one_message():
     assert _message(_six(kind=[0, 0, 1, 2, 2, 0]), design) == "fault_ka and clear_s must be > 0"
     design = DesignParams(air_arrangement=("bunched", "bunched"))
     assert _message(_six(kind=[0, 0, 1, 2, 2, 0]), design) == (
-        "air_arrangement must name one arrangement per kind (string, array, ac)"
+        "air_arrangement must name one arrangement per kind (string, array, ac, subarray)"
     )
 
 

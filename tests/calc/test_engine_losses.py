@@ -58,9 +58,11 @@ def test_losses_of_each_kind_and_their_totals():
     assert_allclose(r.loss_w, loss, rtol=1e-9)
     assert_allclose(r.loss_pct, 100 * loss / power, rtol=1e-9)
     assert_allclose(r.energy_loss_kwh, loss * 2000.0 / 1000.0, rtol=1e-9)
-    per_kind = np.array([loss[1] + loss[2], loss[0], loss[3]])  # string, array, a.c.
+    # string, array, a.c., sub-array (none here: 0 W of 0 W, reported as 0 %)
+    per_kind = np.array([loss[1] + loss[2], loss[0], loss[3], 0.0])
     assert_allclose(r.total_loss_w, per_kind, rtol=1e-9)
-    assert_allclose(r.total_loss_pct, 100 * per_kind / [24e3, 24e3, 225e3], rtol=1e-9)
+    assert_allclose(r.total_loss_pct[:3], 100 * per_kind[:3] / [24e3, 24e3, 225e3], rtol=1e-9)
+    assert r.total_loss_pct[3] == 0.0
     assert_allclose(r.total_energy_loss_kwh, per_kind * 2.0, rtol=1e-9)
 
 
@@ -77,7 +79,7 @@ def test_loading_mode_conductor_temperature():
 
 
 def test_kind_with_no_power_has_no_loss_percentage():
-    # only strings: the array and a.c. totals are 0 W of 0 W, reported as 0 %
+    # only strings: the array, a.c. and sub-array totals are 0 W of 0 W, reported as 0 %
     inp = SizingInput(
         kind=np.array([0], dtype=np.int8),
         cable_m=np.array([50.0]),
@@ -87,8 +89,8 @@ def test_kind_with_no_power_has_no_loss_percentage():
         vmp_v=np.array([1000.0]),
     )
     r = size_circuits(inp)
-    assert r.total_loss_w[1:].tolist() == [0.0, 0.0]
-    assert r.total_loss_pct[1:].tolist() == [0.0, 0.0]
+    assert r.total_loss_w[1:].tolist() == [0.0, 0.0, 0.0]
+    assert r.total_loss_pct[1:].tolist() == [0.0, 0.0, 0.0]
     assert r.total_loss_pct[0] > 0.0
 
 
@@ -189,7 +191,7 @@ def test_result_arrays_and_their_types():
 
 
 def test_totals_with_absent_kinds_and_tiny_powers():
-    # no array and no a.c. circuit: their totals are 0 W and 0 %, without a numpy warning; a
+    # no array, sub-array or a.c. circuit: their totals are 0 W and 0 %, without a numpy warning; a
     # string of 0.5 W (0.5 mA at 1000 V) still has its loss percentage
     inp = SizingInput(
         kind=np.array([0], dtype=np.int8),
@@ -202,7 +204,7 @@ def test_totals_with_absent_kinds_and_tiny_powers():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         r = size_circuits(inp)
-    assert r.total_loss_pct[1:].tolist() == [0.0, 0.0]
+    assert r.total_loss_pct[1:].tolist() == [0.0, 0.0, 0.0]
     loss = 2 * 0.0005**2 * _r_km(5.09, 120.0) * 0.05
     assert_allclose(r.total_loss_pct[0], 100 * loss / 0.5)
 

@@ -47,8 +47,8 @@ def test_array_drop_beyond_what_its_strings_leave():
     assert r.note.tolist() == [
         "voltage drop 1.78 % exceeds 1.35 % (d.c. total 2 % less its strings' 0.65 %) with "
         "largest allowed 25 mm² Cu",
-        "cumulative d.c. drop 2.43 % exceeds 2 % (array circuit 0)",
-        "cumulative d.c. drop 2.43 % exceeds 2 % (array circuit 0)",
+        "cumulative d.c. drop 2.43 % exceeds 2 % (feeder circuit 0)",
+        "cumulative d.c. drop 2.43 % exceeds 2 % (feeder circuit 0)",
     ]
     causes = failure_causes(r)
     assert causes["drop"].tolist() == [True, False, False]

@@ -114,7 +114,9 @@ def test_the_air_stretch_with_the_smallest_product_of_factors_governs():
     assert (r.size_mm2 == 4.0).all() and (r.governing_env == "air").all()
     assert (r.governing_segment == -1).all() and r.ok.all()
     # on a tray (item 4): row run 0.91 × 0.82 = 0.746, stub 1.0 × 0.73 = 0.73
-    design = DesignParams(row_air_temp_c=70.0, air_arrangement=("tray", "bunched", "bunched"))
+    design = DesignParams(
+        row_air_temp_c=70.0, air_arrangement=("tray", "bunched", "bunched", "bunched")
+    )
     r = size_circuits(_strings_in_air(), design)
     assert r.governing_air.tolist() == [1, 0, 0, 1]
     assert_allclose(r.factor_group, [0.73, 0.82, 0.82, 0.73])

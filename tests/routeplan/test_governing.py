@@ -36,7 +36,7 @@ isc_a = 13.0
 imp_a = 12.3
 voc_v = 49.5
 vmp_v = 41.2
-per_string = 26
+per_string = 24
 max_fuse_a = 25
 
 [allowances]

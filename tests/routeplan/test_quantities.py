@@ -9,7 +9,7 @@ of ``cable_schedule.csv`` and ``trench_schedule.csv``, from the rules the README
   a.c. 2 (L and N) — times its parallel sets;
 - terminations: one per conductor end (2 × conductors);
 - trench metres per laying and depth: the segments' lengths;
-- string and array fuses: one per pole (2) of each protected circuit, by rating (gPV,
+- string, sub-array and array fuses: one per pole (2) of each protected circuit, by rating (gPV,
   IEC 60269-6); AC breakers: one per a.c. circuit, by rating.
 """
 
@@ -20,6 +20,7 @@ import tomllib
 from collections import defaultdict
 from pathlib import Path
 
+import geopandas as gpd
 import openpyxl
 import pytest
 from typer.testing import CliRunner
@@ -35,8 +36,18 @@ runner = CliRunner()
 #: inverter outputs three-wire without neutral — common practice)
 POLES = {("dc", None): 2, ("ac", 3): 3, ("ac", 1): 2}
 #: bill order: items, then kinds in the order power flows (string → array → AC)
-ITEMS = ["cable", "termination", "trench", "string fuse", "array fuse", "AC breaker"]
-KINDS = ["string", "array", "ac"]
+ITEMS = [
+    "cable",
+    "termination",
+    "trench",
+    "string fuse",
+    "sub-array fuse",
+    "array fuse",
+    "AC breaker",
+]
+KINDS = ["string", "subarray", "array", "ac"]
+#: IEC 62548 names the protection of a sub-array cable and of an array cable apart
+ARRAY_FUSE_ITEM = {"subarray": "sub-array fuse", "array": "array fuse"}
 
 
 def read_csv(path: Path) -> list[dict[str, str]]:
@@ -74,7 +85,7 @@ def expected_bill(out: Path, site: Path, phases: dict[str, int], device: str) ->
         bill[("termination", kind, c["material"], float(c["size_mm2"]))] += 2 * conductors
         for column, item, per in (
             ("fuse_a", "string fuse", 2),
-            ("array_fuse_a", "array fuse", 2),
+            ("array_fuse_a", ARRAY_FUSE_ITEM.get(kind), 2),
             ("ac_breaker_a", "AC breaker", 1),
         ):
             if c[column]:
@@ -119,7 +130,8 @@ def demo_out(tmp_path_factory) -> Path:
 
 def test_demo_bill_is_the_sum_of_its_schedules(demo_out):
     device = tomllib.loads((DEMO / "site.toml").read_text())["design"]["ac_breaker_device"]
-    phases = {"INV-W": 3, "INV-E": 3}  # demo_site/inverters.geojson
+    inverters = gpd.read_file(DEMO / "inverters.geojson")
+    phases = {i: int(p) for i, p in zip(inverters["id"], inverters["phases"], strict=True)}
     check_bill(demo_out, DEMO, phases, device)
 
 

@@ -32,7 +32,7 @@ from ..conftest import SITE_TOML, base_frames, write_site
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 runner = CliRunner()
-KINDS = ("string", "array", "ac")
+KINDS = ("string", "subarray", "array", "ac")
 
 
 def read_csv(path: Path) -> list[dict[str, str]]:

@@ -26,7 +26,7 @@ from ..conftest import E0, N0, SITE_TOML, UTM33, base_frames, write_site
 
 runner = CliRunner()
 WITHIN = "result: every circuit and trench segment within its limits"
-FAILING = "result: SOME CIRCUITS OR TRENCH SEGMENTS FAIL A LIMIT (see status/note)"
+FAILING = "result: SOME CIRCUITS, TRENCH SEGMENTS OR INVERTER INPUTS FAIL A LIMIT (see status/note)"
 
 
 def plan(tmp_path: Path, frames, toml: str = SITE_TOML):
