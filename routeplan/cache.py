@@ -90,7 +90,7 @@ from layers.model import Module, Site
 from layers.sources import SITE_TOML, layer_file, source_files
 
 from . import __version__, parallel
-from .folder import OutputFolder
+from .folder import OutputFolder, file_sha256
 from .network import NetworkMemo, NodedTrenches, TrenchDefaults, TrenchNetwork
 from .routing import RouteParams, RoutePlan
 
@@ -149,15 +149,6 @@ def digest(*parts: Any) -> str:
     """SHA-256 of the JSON of ``parts`` (floats by their exact ``repr``)."""
     text = json.dumps(parts, sort_keys=True, default=repr, allow_nan=True, ensure_ascii=True)
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
-
-
-def file_sha256(path: Path) -> str:
-    """SHA-256 of a file's bytes."""
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 22), b""):
-            h.update(block)
-    return h.hexdigest()
 
 
 @lru_cache(maxsize=1)

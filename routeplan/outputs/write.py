@@ -27,11 +27,10 @@ from ..cache import (
     STAGES,
     OutputReuse,
     digest,
-    file_sha256,
     input_files,
     link_or_copy,
 )
-from ..folder import OutputFolder
+from ..folder import OutputFolder, file_sha256
 from ..pipeline import Plan
 from .columns import CIRCUIT_COLUMNS, INPUT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
