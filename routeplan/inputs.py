@@ -68,9 +68,10 @@ def assign_inputs(site: Site, circuits: pd.DataFrame, imp_a: np.ndarray) -> np.n
     Raises
     ------
     routeplan.errors.DesignError
-        An ``input`` beyond the inverter's ``dc_inputs``, an ``input`` on a row that does not
-        end at an inverter, or an inverter whose inputs have no free terminal left for a
-        string; every such problem at once.
+        An ``input`` beyond the inverter's ``dc_inputs``, an ``input`` on a row or combiner
+        that does not end at an inverter, an inverter whose inputs have no free terminal left
+        for a string, or strings landing on an input that also takes array cables; every such
+        problem at once.
     """
     n = len(circuits)
     out = np.full(n, np.nan)
@@ -89,13 +90,18 @@ def assign_inputs(site: Site, circuits: pd.DataFrame, imp_a: np.ndarray) -> np.n
         named = pd.Series(frame["input"].to_numpy(dtype=float), index=frame["id"].to_numpy())
         sel = np.flatnonzero(kind == k)
         given[sel] = named.reindex(from_id[sel]).to_numpy(dtype=float)
-    if "input" in site.rows.columns and len(site.rows):
-        off = site.rows[site.rows["input"].notna()]
-        ends = set(from_id[lands & (kind == "string")])
-        for rid in off["id"]:
-            if rid not in ends:
-                msg = "input is for rows whose strings end at an inverter (its `to` is not one)"
-                problems.append(Problem("rows", str(rid), msg))
+    for layer, k, whose in (
+        ("rows", "string", "strings end"),
+        ("combiners", "array", "cable ends"),
+    ):
+        frame = site.layer(layer)
+        if "input" not in frame.columns or not len(frame):
+            continue
+        ends = set(from_id[lands & (kind == k)])
+        for fid in frame.loc[frame["input"].notna(), "id"]:
+            if fid not in ends:
+                msg = f"input is for {layer} whose {whose} at an inverter (its `to` is not one)"
+                problems.append(Problem(layer, str(fid), msg))
     n_inputs = inv["dc_inputs"].reindex(to_id[lands]).to_numpy(dtype=float)
     n_in = np.full(n, np.nan)
     n_in[lands] = n_inputs
@@ -119,9 +125,44 @@ def assign_inputs(site: Site, circuits: pd.DataFrame, imp_a: np.ndarray) -> np.n
     todo = lands & np.isnan(out)
     if todo.any():
         problems += _spread(circuits, inv, lands, todo, out, imp_a, kind == "string")
+    if not problems:
+        problems += _mixed_inputs(circuits, lands, out, kind)
     if problems:
         raise DesignError(problems)
     return out
+
+
+def _mixed_inputs(
+    circuits: pd.DataFrame, lands: np.ndarray, out: np.ndarray, kind: np.ndarray
+) -> list[Problem]:
+    """Rows whose strings land on an inverter input that also takes array cables.
+
+    A fault on such a string cable is fed by every array of the input, which the IEC 62548
+    string-protection rule (strings in parallel at one combiner or input) does not count;
+    routeplan refuses the layout rather than pass an unprotected cable."""
+    frame = pd.DataFrame(
+        {
+            "inv": circuits["to_id"].to_numpy(dtype=object)[lands],
+            "input": out[lands],
+            "kind": kind[lands],
+            "from_id": circuits["from_id"].to_numpy(dtype=object)[lands],
+            "cid": circuits["circuit_id"].to_numpy(dtype=object)[lands],
+        }
+    )
+    arrays = frame[frame["kind"] == "array"].groupby(["inv", "input"])["cid"].first()
+    strings = frame[frame["kind"] == "string"].drop_duplicates(["from_id", "inv", "input"])
+    hit = strings.join(arrays.rename("array"), on=["inv", "input"], how="inner")
+    return [
+        Problem(
+            "rows",
+            str(r.from_id),
+            f"its strings land on inverter {r.inv!r} input {r.input:g} together with array "
+            f"cables ({r.array}…): strings and array cables on one DC input are not supported "
+            "(a fault on a string would be fed by every array); give the row its own input "
+            "(`input`) or a combiner",
+        )
+        for r in hit.itertuples(index=False)
+    ]
 
 
 def _spread(

@@ -409,6 +409,9 @@ def plan_site(
     t0 = time.perf_counter()
     inp, own_input = sizing_input(site, routes)
     dp = design_params(design)
+    shallow = _shallow_trenches(routes.segments, dp)
+    if shallow:
+        raise DesignError(shallow)
     rules = design.values["rules"]
     result = None
     if cache is not None:
@@ -442,6 +445,33 @@ def plan_site(
     return Plan(
         site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
     )
+
+
+def _shallow_trenches(segments: pd.DataFrame, dp: calc.DesignParams) -> list[Problem]:
+    """Trenches whose depth does not exceed half the outer diameter of what lies in them (a
+    direct-buried circuit or a duct, ``cable_od_m`` / ``duct_od_m``): the cable would not be
+    buried. One problem per trench, naming it."""
+    duct = (segments["laying"] == "duct").to_numpy()
+    half = np.where(duct, dp.duct_od_m, dp.cable_od_m) / 2
+    depth = segments["depth_m"].to_numpy(dtype=float)
+    bad = ~(depth > half)
+    problems = []
+    seen: set[str] = set()
+    for i in np.flatnonzero(bad).tolist():
+        tid = str(segments["trench_id"].iloc[i])
+        if tid in seen:
+            continue
+        seen.add(tid)
+        what = "duct" if duct[i] else "direct-buried cable"
+        problems.append(
+            Problem(
+                "trenches",
+                tid,
+                f"depth_m {depth[i]:g} m does not exceed half the {what}'s outer diameter "
+                f"({2 * half[i]:g} m): the cable would not be buried",
+            )
+        )
+    return problems
 
 
 def circuit_table(
@@ -510,7 +540,9 @@ def circuit_table(
             "factor_depth": r.factor_depth,
             "factor_group": r.factor_group,
             "group_count": r.group_count,
-            "fuse_a": np.where(r.fuse_required, r.fuse_a, np.nan),
+            # a string fuse wherever one is fitted: chosen because required, or fixed by the
+            # combiner (`fuse_a`) where none is required
+            "fuse_a": np.where(kind == calc.KIND_STRING, r.fuse_a, np.nan),
             "isc_design_a": r.isc_design_a,
             "voc_max_v": r.voc_max_v,
             "backfeed_a": r.backfeed_a,

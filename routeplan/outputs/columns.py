@@ -81,7 +81,7 @@ CIRCUIT_COLUMNS: tuple[Col, ...] = (
     Col("factor_depth", "", 3, "depth factor"),
     Col("factor_group", "", 3, "grouping factor"),
     Col("group_count", doc="circuits grouped at the governing stretch (parallels included)"),
-    Col("fuse_a", "A", 0, "string fuse rating where protection is required"),
+    Col("fuse_a", "A", 0, "string fuse rating where one is fitted (required, or fixed: `fuse_a`)"),
     Col("isc_design_a", "A", 2, "Isc the DC design currents use (bifacial gain included)"),
     Col("voc_max_v", "V", 1, "highest open-circuit voltage, at the lowest expected temperature"),
     Col("backfeed_a", "A", 1, "arrays: current the other arrays of the input feed into a fault"),

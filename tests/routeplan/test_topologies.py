@@ -388,3 +388,69 @@ def test_rows_without_to_go_to_an_inverter_with_free_terminals(tmp_path):
     assert c.loc["R2/S1", "to_id"] == c.loc["R2/S2", "to_id"] == "INV2"
     assert sorted(c.loc[["R2/S1", "R2/S2"], "input"]) == [1, 2]
     assert (inputs["status"] == "ok").all() and (inputs["strings"] == 1).all()
+
+
+def test_strings_and_array_cables_on_one_input_are_refused(tmp_path):
+    """Row R3 straight to INV1 beside the recombiner's array cable on the inverter's one DC
+    input: a fault on one of R3's strings would be fed by the whole array as well, which the
+    IEC 62548 string rule (strings in parallel at one combiner or input) does not count. check
+    and plan refuse it, naming the row; on an input of its own the same row plans."""
+    rows = [
+        ("R1", 20, {"strings": 4, "module": "m1", "to": "CB1"}),
+        ("R2", 60, {"strings": 4, "module": "m1", "to": "CB2"}),
+        ("R3", 140, {"strings": 2, "module": "m1", "to": "INV1"}),
+    ]
+    combiners = [
+        ("CB1", 20, {"to": "RC1"}),
+        ("CB2", 60, {"to": "RC1"}),
+        ("RC1", 100, {"to": "INV1"}),
+    ]
+    frames = layers(rows, combiners, [("INV1", 150, INVERTER)])
+    site = write_site(tmp_path / "site", frames, toml=TOML.format(extra=""))
+    message = (
+        "error: rows 'R3': its strings land on inverter 'INV1' input 1 together with array "
+        "cables (A:RC1…): strings and array cables on one DC input are not supported (a fault "
+        "on a string would be fed by every array); give the row its own input (`input`) or a "
+        "combiner"
+    )
+    for args in (["check", str(site)], ["plan", str(site), "--out", str(tmp_path / "out")]):
+        result = runner.invoke(app, args)
+        assert result.exit_code == 2, result.output
+        assert message in result.stderr.splitlines()
+    assert not (tmp_path / "out").exists()
+
+    rows[2] = ("R3", 140, {"strings": 2, "module": "m1", "to": "INV1", "input": 2})
+    frames = layers(rows, combiners, [("INV1", 150, {**INVERTER, "dc_inputs": 2})])
+    c, inputs, _ = plan(tmp_path / "own", frames)
+    assert c.loc["R3/S1", "input"] == 2 and c.loc["A:RC1", "input"] == 1  # least Σ Imp so far
+    assert inputs["strings"].tolist() == [8, 2]
+
+
+def test_an_input_on_a_combiner_that_feeds_another_is_refused(tmp_path):
+    frames = recombiner_site()
+    frames["combiners"]["input"] = [2.0, None, None]  # CB1 feeds RC1, not the inverter
+    site = write_site(tmp_path / "site", frames, toml=TOML.format(extra=""))
+    result = runner.invoke(app, ["check", str(site)])
+    assert result.exit_code == 2
+    assert (
+        "error: combiners 'CB1': input is for combiners whose cable ends at an inverter "
+        "(its `to` is not one)"
+    ) in result.stderr.splitlines()
+
+
+def test_a_fixed_string_fuse_where_none_is_required_is_scheduled_and_counted(tmp_path):
+    """2 strings at CB1: (2 − 1) × 1.25 × 14.404 A = 18.0 A ≤ the module's 25 A maximum
+    series fuse, so IEC 62548 (from memory) requires no string fuse; the combiner is fitted
+    with 25 A fuses all the same (`fuse_a`), within 1.5–2.4 × Isc = 21.6–34.6 A (IEC 62548,
+    from memory). The schedule lists them and the bill counts them: 2 strings × 2 poles."""
+    frames = layers(
+        rows=[("R1", 20, {"strings": 2, "module": "m1", "to": "CB1"})],
+        combiners=[("CB1", 20, {"to": "INV1", "fuse_a": 25.0})],
+        inverters=[("INV1", 150, INVERTER)],
+    )
+    c, _, _ = plan(tmp_path, frames)
+    strings = c[c["kind"] == "string"]
+    assert strings["fuse_a"].tolist() == [25.0, 25.0]
+    bill = pd.read_csv(tmp_path / "out" / "quantities.csv", keep_default_na=False)
+    fuses = bill[bill["item"] == "string fuse"]
+    assert fuses[["kind", "material", "quantity"]].values.tolist() == [["string", "25 A gPV", 4.0]]
