@@ -95,20 +95,25 @@ def _config_only(root: Path) -> dict:
 
 
 def check_site(path: Path | str) -> CheckReport:
-    """Validate the site at ``path``: files, geometry, attributes, design settings, and the
+    """Validate the site at ``path``: files, geometry, attributes, design settings, the
     trench network (trenches drawn twice or running back over themselves, far parts of a
-    trench, far equipment, islands, unreachable destinations, assignment).
+    trench, far equipment, islands, unreachable destinations, assignment), and whatever the
+    plan itself refuses (inverter inputs, settings the rule set cannot apply): the site is
+    routed and sized, nothing is written.
 
     Raises :class:`layers.SiteError` or :class:`routeplan.errors.RoutingError` with every
     problem found.
     """
-    from .pipeline import route_params
+    from .pipeline import plan_site, route_params
     from .routing import assignment_check
 
     site, design = load(path)
     problems, assignment = assignment_check(site, route_params(design))
     if problems:
         raise RoutingError(problems)
+    # what only the plan itself can refuse (inverter inputs, settings the rule set cannot
+    # apply): plan without writing, so that a site check passes is a site plan accepts
+    plan_site(site, design)
     counts = {name: len(site.layer(name)) for name in layers.LAYER_NAMES}
     strings = int(site.rows["strings"].sum())
     per_string_kw = {

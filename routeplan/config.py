@@ -161,8 +161,9 @@ DESIGN_KEYS: tuple[Key, ...] = (
         "frequency_hz",
         50.0,
         0.0,
-        400.0,
-        note="AC frequency for the skin and proximity effect (IEC 60287-1-1)",
+        60.0,
+        note="AC frequency for the skin and proximity effect (IEC 60287-1-1; power grids: 50 or "
+        "60 Hz)",
     ),
 )
 
@@ -270,6 +271,16 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
     values, defaulted = _scalars("design", design, DESIGN_KEYS, problems)
     allow, defaulted2 = _scalars("allowances", allowances, ALLOWANCE_KEYS, problems)
 
+    if math.isnan(values["fault_ka"]) != math.isnan(values["clear_s"]):
+        given, missing = ("fault_ka", "clear_s")[:: 1 if math.isnan(values["clear_s"]) else -1]
+        problems.append(
+            Problem(
+                SITE_TOML,
+                f"design.{missing}",
+                f"missing: the AC short-circuit check needs both fault_ka and clear_s ({given} "
+                "is set)",
+            )
+        )
     material = _choices("material", design, MATERIAL_DEFAULT, MATERIALS, problems)
     insulation = _choices("insulation", design, INSULATION_DEFAULT, INSULATIONS, problems)
     if insulation["string"] != "PV":
@@ -278,6 +289,25 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
                 SITE_TOML,
                 "design.insulation.string",
                 "string circuits use PV cable (EN 50618 / IEC 62930): set 'PV'",
+            )
+        )
+    for kind in ("subarray", "array", "ac"):
+        if insulation[kind] == "PV":
+            problems.append(
+                Problem(
+                    SITE_TOML,
+                    f"design.insulation.{kind}",
+                    "PV cable (EN 50618 / IEC 62930) is rated here for string circuits only: "
+                    "set 'XLPE' or 'PVC'",
+                )
+            )
+    if material["string"] != "Cu":
+        problems.append(
+            Problem(
+                SITE_TOML,
+                "design.material.string",
+                "string circuits use PV cable, whose tabulated ratings are for copper "
+                "conductors: set 'Cu'",
             )
         )
     drop = dict(DROP_PCT_DEFAULT)
@@ -295,12 +325,13 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
             problems.append(Problem(SITE_TOML, where, f"{x:g} % is outside 0–20 %"))
             continue
         drop[key] = x
-    if drop["string"] > drop["dc_total"]:
+    if drop["string"] >= drop["dc_total"]:
         problems.append(
             Problem(
                 SITE_TOML,
                 "design.drop_pct.string",
-                f"{drop['string']:g} % exceeds dc_total {drop['dc_total']:g} %",
+                f"{drop['string']:g} % leaves nothing of dc_total {drop['dc_total']:g} % for the "
+                "sub-array and array cables: set it below dc_total",
             )
         )
     sizes: dict[str, tuple[float, ...]] = {}

@@ -228,7 +228,13 @@ def test_design_problems_name_the_key(config, where, message):
 
 def test_design_units_accepted():
     cfg, problems = parse_design(
-        {"design": {"sizes_mm2": {"string": ["4 mm²", "6 mm2", 10]}, "clear_s": "200 ms"}}
+        {
+            "design": {
+                "sizes_mm2": {"string": ["4 mm²", "6 mm2", 10]},
+                "clear_s": "200 ms",
+                "fault_ka": 25,
+            }
+        }
     )
     assert problems == []
     assert cfg.sizes_mm2["string"] == (4.0, 6.0, 10.0)

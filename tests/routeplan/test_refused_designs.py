@@ -1,0 +1,114 @@
+"""Designs that `plan` cannot carry out are refused by `routeplan check` as well, each in one
+line naming the key or the feature (exit 2, nothing written): settings a cable cannot have,
+pairs of settings that only make sense together, a drop budget that leaves nothing, and a
+trench too shallow to bury what it carries. And `diff` reads a trench schedule written before
+sub-array cables existed.
+"""
+
+from __future__ import annotations
+
+import csv
+import shutil
+
+import pytest
+from typer.testing import CliRunner
+
+from routeplan.cli import app
+from tests.conftest import SITE_TOML, base_frames, write_site
+
+from .test_settings_strict import in_design, run_check
+
+runner = CliRunner()
+
+
+@pytest.mark.parametrize(
+    ("toml", "line"),
+    [
+        pytest.param(
+            in_design('insulation = { array = "PV" }'),
+            "error: site.toml 'design.insulation.array': PV cable (EN 50618 / IEC 62930) is "
+            "rated here for string circuits only: set 'XLPE' or 'PVC'",
+            id="pv-insulation-on-an-array-cable",
+        ),
+        pytest.param(
+            in_design('material = { string = "Al" }'),
+            "error: site.toml 'design.material.string': string circuits use PV cable, whose "
+            "tabulated ratings are for copper conductors: set 'Cu'",
+            id="aluminium-strings",
+        ),
+        pytest.param(
+            in_design("fault_ka = 25.0"),
+            "error: site.toml 'design.clear_s': missing: the AC short-circuit check needs both "
+            "fault_ka and clear_s (fault_ka is set)",
+            id="fault-without-clearing-time",
+        ),
+        pytest.param(
+            in_design("clear_s = 0.2"),
+            "error: site.toml 'design.fault_ka': missing: the AC short-circuit check needs both "
+            "fault_ka and clear_s (clear_s is set)",
+            id="clearing-time-without-fault",
+        ),
+        pytest.param(
+            in_design("drop_pct = { string = 2.0, dc_total = 2.0 }"),
+            "error: site.toml 'design.drop_pct.string': 2 % leaves nothing of dc_total 2 % for "
+            "the sub-array and array cables: set it below dc_total",
+            id="string-drop-equal-to-the-total",
+        ),
+        pytest.param(
+            # IEC 60287-1-1's skin and proximity formulas are for power frequencies (50/60 Hz)
+            in_design("frequency_hz = 400"),
+            "error: site.toml 'design.frequency_hz': 400 is outside 0–60",
+            id="frequency-beyond-power-grids",
+        ),
+    ],
+)
+def test_settings_plan_cannot_apply_are_refused_by_check(tmp_path, toml, line):
+    code, errors = run_check(write_site(tmp_path / "s", toml=toml))
+    assert code == 2
+    assert errors == [line]
+
+
+def test_a_trench_too_shallow_for_its_cable_is_named(tmp_path):
+    # a direct-buried circuit must lie deeper than half its outer diameter, or it is not buried
+    frames = base_frames()
+    frames["trenches"]["depth_m"] = [0.01, None]
+    root = write_site(tmp_path / "s", frames)
+    code, errors = run_check(root)
+    assert code == 2
+    # 0.04 m: the design's default outer diameter of a buried circuit (common practice)
+    assert errors == [
+        "error: trenches 'T1': depth_m 0.01 m does not exceed half the direct-buried cable's "
+        "outer diameter (0.04 m): the cable would not be buried"
+    ]
+    result = runner.invoke(app, ["plan", str(root), "--out", str(tmp_path / "out")])
+    assert result.exit_code == 2 and errors[0] in result.stderr.splitlines()
+    assert not (tmp_path / "out").exists()
+
+
+def test_diff_reads_a_trench_schedule_without_sub_array_counts(tmp_path):
+    """A schedule written before sub-array cables existed has no `subarrays` column: it reads
+    as 0 sub-array cables on every segment, so only real changes show."""
+    root = write_site(tmp_path / "s", toml=SITE_TOML)
+    new = tmp_path / "new"
+    result = runner.invoke(app, ["plan", str(root), "--out", str(new), "--quiet"])
+    assert result.exit_code == 0, result.output
+    old = tmp_path / "old"
+    shutil.copytree(new, old)
+    path = old / "trench_schedule.csv"
+    with open(path, encoding="utf-8", newline="") as fh:
+        rows = list(csv.reader(fh))
+    col = rows[0].index("subarrays")
+    with open(path, "w", encoding="utf-8", newline="") as fh:
+        csv.writer(fh, lineterminator="\n").writerows([r[:col] + r[col + 1 :] for r in rows])
+    result = runner.invoke(app, ["diff", str(old), str(new), "--out", str(tmp_path / "d")])
+    assert result.exit_code == 0, result.output
+    assert "no changes" in result.stdout
+    # the column is still required of everything else a diff reads
+    rows[0][rows[0].index("strings")] = "strands"
+    with open(path, "w", encoding="utf-8", newline="") as fh:
+        csv.writer(fh, lineterminator="\n").writerows(rows)
+    result = runner.invoke(app, ["diff", str(old), str(new)])
+    assert result.exit_code == 2
+    assert f"error: {path}: no column strings (a schedule of 'routeplan plan' has it)" in (
+        result.stderr.splitlines()
+    )
