@@ -84,6 +84,8 @@ class Table:
     key: tuple[str, ...]
     fields: tuple[str, ...]
     filled: tuple[str, ...] = ()
+    #: columns a schedule of an earlier version lacks, with the value they stand for there
+    added_later: tuple[tuple[str, str], ...] = ()
 
     @property
     def columns(self) -> tuple[str, ...]:
@@ -91,7 +93,8 @@ class Table:
 
 
 CIRCUITS = Table("cable_schedule.csv", ("circuit_id",), ("kind", *CIRCUIT_FIELDS), ("kind",))
-SEGMENTS = Table("trench_schedule.csv", ("segment_id",), SEGMENT_FIELDS)
+#: ``subarrays``: sub-array cables came after routeplan 0.1.0 (its schedules have none)
+SEGMENTS = Table("trench_schedule.csv", ("segment_id",), SEGMENT_FIELDS, (), (("subarrays", "0"),))
 QUANTITIES = Table("quantities.csv", QUANTITY_KEYS, ("quantity",), ("quantity",))
 
 
@@ -148,15 +151,20 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
         header = next(reader)
     except csv.Error as exc:
         raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
-    missing = [c for c in table.columns if c not in header]
+    later = dict(table.added_later)
+    missing = [c for c in table.columns if c not in header and c not in later]
     if missing:
         names = ", ".join(missing)
         raise DiffError(f"{where}: no column {names} (a schedule of 'routeplan plan' has it)")
     twice = sorted({c for c in header if header.count(c) > 1})
     if twice:
         raise DiffError(f"{where}: column {', '.join(twice)} appears more than once")
-    pick = operator.itemgetter(*(header.index(c) for c in table.columns))
     width = len(header)
+    absent = [c for c in table.columns if c not in header]
+    if absent:  # an earlier version's schedule: stand-in values at the end of each record
+        header = header + absent
+    pick = operator.itemgetter(*(header.index(c) for c in table.columns))
+    fill = [later[c] for c in absent]
     kept: list[tuple[str, ...]] = []  # the fields needed, record by record (the rest dropped)
     blank = -1  # the first blank line's record, when only blank lines followed it so far
     try:
@@ -174,7 +182,7 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
                     f"{where}: line {_line(text, blank)}: 0 fields where the header has "
                     f"{width} (truncated or not a schedule)"
                 )
-            kept.append(pick(record))
+            kept.append(pick(record + fill) if fill else pick(record))
     except csv.Error as exc:
         raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
     frame = pd.DataFrame(

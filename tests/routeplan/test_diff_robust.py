@@ -183,7 +183,7 @@ DAMAGE = {
     ),
     "not a CSV (JSON)": (
         write_bytes(TRENCH, b'{"segments": []}\n'),
-        f"{TRENCH}: no column segment_id, circuits, strings, subarrays, arrays, ac, status "
+        f"{TRENCH}: no column segment_id, circuits, strings, arrays, ac, status "
         "(a schedule of 'routeplan plan' has it)",
     ),
     "unclosed quote": (
