@@ -35,7 +35,6 @@ optional online basemap. Every string shown is escaped
 from __future__ import annotations
 
 import json
-import os
 from pathlib import Path
 
 import geopandas as gpd
@@ -63,7 +62,14 @@ from routeplan.outputs.map_text import escape_text
 from routeplan.outputs.map_tiles import MapMemo, Role, mixed, tiles
 from routeplan.outputs.reuse import row_hashes
 
-__all__ = ["MapError", "escape_text", "read_output_folder", "render_map", "write_map"]
+__all__ = [
+    "MapError",
+    "escape_text",
+    "read_output_folder",
+    "render_folder",
+    "render_map",
+    "write_map",
+]
 
 #: File names in an output folder of ``routeplan plan``.
 ROUTES_FILE = "routes.gpkg"
@@ -432,10 +438,12 @@ def write_map(
     *,
     basemap: bool = False,
     aggregate_strings_above: int = 20000,
-    dest: Path | None = None,
     force: bool = False,
 ) -> Path:
-    """Read an output folder of ``routeplan plan`` and write its map.
+    """Read an output folder of ``routeplan plan`` and write its map: ``out_dir /
+    "map.html"`` is replaced through the folder's manifest (:mod:`routeplan.folder`), only in
+    a folder routeplan wrote, and only a map.html it wrote (or, with ``force``, one edited
+    since). :func:`render_folder` gives the page without writing it.
 
     Parameters
     ----------
@@ -443,11 +451,6 @@ def write_map(
         Folder holding ``routes.gpkg`` and ``summary.json``.
     basemap, aggregate_strings_above
         As for :func:`render_map`.
-    dest : pathlib.Path, optional
-        Another file to write the map to (replaced atomically). By default the map replaces
-        ``out_dir / "map.html"``, through the folder's manifest (:mod:`routeplan.folder`):
-        only in a folder routeplan wrote, and only a map.html it wrote (or, with ``force``,
-        one edited since).
     force : bool
         Replace a map.html edited since routeplan wrote it.
 
@@ -467,30 +470,24 @@ def write_map(
     from routeplan.folder import OutputFolder
 
     out_dir = Path(out_dir)
-    if dest is not None:
-        html = _render_folder(out_dir, basemap, aggregate_strings_above)
-        dest = Path(dest)
-        dest.parent.mkdir(parents=True, exist_ok=True)
-        tmp = dest.with_name(f".{dest.name}.{os.getpid()}.tmp")
-        try:
-            tmp.write_text(html, encoding="utf-8")
-            os.replace(tmp, dest)
-        except BaseException:
-            tmp.unlink(missing_ok=True)
-            raise
-        return dest
     if not out_dir.is_dir():
         raise MapError(f"{out_dir}: not found (is it an output folder of 'routeplan plan'?)")
     with OutputFolder.open(
         out_dir, "plan", force=force, expect=(MAP_FILE,), must_exist=True
     ) as folder:
-        html = _render_folder(folder.real, basemap, aggregate_strings_above)
+        html = render_folder(
+            folder.real, basemap=basemap, aggregate_strings_above=aggregate_strings_above
+        )
         (folder.work / MAP_FILE).write_text(html, encoding="utf-8")
         folder.commit([MAP_FILE], keep_others=True)
     return out_dir / MAP_FILE
 
 
-def _render_folder(out_dir: Path, basemap: bool, aggregate_strings_above: int) -> str:
+def render_folder(
+    out_dir: Path, *, basemap: bool = False, aggregate_strings_above: int = 20000
+) -> str:
+    """The map page of an output folder of ``routeplan plan`` as HTML text, written nowhere
+    (:func:`write_map` writes it into the folder). Raises :class:`MapError` as it does."""
     frames, site_name = read_output_folder(out_dir)
     return render_map(
         frames["circuits"],

@@ -22,7 +22,14 @@ from routeplan.outputs import (
     map_script,
     map_text,
 )
-from routeplan.outputs.map import MapError, escape_text, read_output_folder, render_map, write_map
+from routeplan.outputs.map import (
+    MapError,
+    escape_text,
+    read_output_folder,
+    render_folder,
+    render_map,
+    write_map,
+)
 from routeplan.outputs.map_assets import offline_header
 from routeplan.outputs.map_features import (
     aggregate_strings,
@@ -470,9 +477,11 @@ def test_write_map_reads_the_folder(plan_dir: Path):
     assert not list(plan_dir.glob(".map.html.*"))  # no temporary file left
 
 
-def test_write_map_dest(plan_dir: Path, tmp_path: Path):
-    dest = write_map(plan_dir, dest=tmp_path / "elsewhere" / "plan.html", basemap=True)
-    assert dest.is_file() and "L.tileLayer" in dest.read_text(encoding="utf-8")
+def test_render_folder_writes_nothing(plan_dir: Path):
+    before = {p.name: p.stat().st_mtime_ns for p in plan_dir.iterdir()}
+    html = render_folder(plan_dir, basemap=True)
+    assert html.startswith("<!DOCTYPE html>") and "L.tileLayer" in html
+    assert {p.name: p.stat().st_mtime_ns for p in plan_dir.iterdir()} == before
 
 
 def test_read_output_folder(plan_dir: Path):

@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 
 from routeplan.outputs import map as rpmap
-from routeplan.outputs.map import write_map
+from routeplan.outputs.map import render_folder, write_map
 from routeplan.outputs.map_features import expand
 from routeplan.outputs.map_scales import PROBLEM_COLOUR, UTILISATION
 from routeplan.outputs.map_text import escape_text
@@ -23,6 +23,13 @@ from routeplan.outputs.map_text import escape_text
 from .map_fixtures import HOSTILE, expected_counts, make_frames, write_output_folder
 
 pytestmark = pytest.mark.browser
+
+
+def _html_file(path: Path, out_dir: Path, **options) -> Path:
+    """The map of output folder ``out_dir`` written to ``path`` (a test's own file)."""
+    path.write_text(render_folder(out_dir, **options), encoding="utf-8")
+    return path
+
 
 CHROMIUM_ARGS = [
     "--headless",
@@ -305,7 +312,7 @@ def test_screenshot(demo: Page, screenshots: Path):
 
 
 def test_aggregated_strings_in_browser(browser, demo_html: Path, tmp_path: Path):
-    html = write_map(demo_html.parent, aggregate_strings_above=5, dest=tmp_path / "agg.html")
+    html = _html_file(tmp_path / "agg.html", demo_html.parent, aggregate_strings_above=5)
     page = Page(browser, html)
     try:
         n = expected_counts(make_frames()[0])
@@ -326,7 +333,7 @@ def test_aggregated_strings_in_browser(browser, demo_html: Path, tmp_path: Path)
 def test_hidden_rows_are_made_when_switched_on(browser, demo_html: Path, tmp_path, monkeypatch):
     # large plants start with the rows switched off and make them only when asked
     monkeypatch.setattr(rpmap, "ROWS_SHOWN_UP_TO", 2)
-    page = Page(browser, write_map(demo_html.parent, dest=tmp_path / "rows.html"))
+    page = Page(browser, _html_file(tmp_path / "rows.html", demo_html.parent))
     try:
         rows = page.page.locator("path.rp-row")
         assert rows.count() == 0
@@ -342,7 +349,7 @@ def test_hidden_rows_are_made_when_switched_on(browser, demo_html: Path, tmp_pat
 def test_canvas_map_for_large_plants(browser, demo_html: Path, tmp_path, monkeypatch):
     # above CANVAS_ABOVE drawn features the map draws on a canvas; tooltips still work
     monkeypatch.setattr(rpmap, "CANVAS_ABOVE", 0)
-    page = Page(browser, write_map(demo_html.parent, dest=tmp_path / "canvas.html"))
+    page = Page(browser, _html_file(tmp_path / "canvas.html", demo_html.parent))
     try:
         assert page.page.locator("path.leaflet-interactive").count() == 0
         assert page.page.locator("canvas").count() >= 1
@@ -375,7 +382,7 @@ def test_a_map_in_many_tiles(browser, demo_html: Path, tmp_path, monkeypatch):
     monkeypatch.setattr(map_tiles, "TILE_MASK", np.uint64(3))
     monkeypatch.setattr(map_tiles, "TILE_MAX", 8)
     monkeypatch.setattr(rpmap, "ROWS_SHOWN_UP_TO", 2)
-    html = write_map(demo_html.parent, dest=tmp_path / "tiles.html")
+    html = _html_file(tmp_path / "tiles.html", demo_html.parent)
     assert html.read_text(encoding="utf-8").count("rpFeatures(") > 12  # many layers
     page = Page(browser, html)
     try:
