@@ -88,7 +88,7 @@ _EPS = 1e-9
 class SizingInput:
     """Circuits and trench segments to size (numpy arrays; n circuits, m segments, q incidences).
 
-    Per circuit (length n). Fields marked *DC* apply to kinds 0/1, *AC* to kind 2; others may be
+    Per circuit (length n). Fields marked *DC* apply to kinds 0/1/3, *AC* to kind 2; others may be
     nan.
 
     kind : int8 — 0 string, 1 array, 2 ac, 3 sub-array (``KIND_STRING``, ``KIND_ARRAY``,

@@ -47,7 +47,7 @@ def marking_text(convention: str, system: str) -> str:
 def conductor_marking(
     kind: ArrayLike, phases: ArrayLike, ac_v: ArrayLike, convention: str = "iec"
 ) -> np.ndarray:
-    """Identification string per circuit (object array of str; d.c. for kinds 0/1, a.c. for 2).
+    """Identification string per circuit (object array of str; d.c. for kinds 0/1/3, a.c. for 2).
 
     >>> conductor_marking([0, 2], [0, 1], [0.0, 230.0]).tolist()[1]
     'L brown, N blue, PE green-and-yellow'

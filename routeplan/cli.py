@@ -344,8 +344,11 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
     out.print(table)
     w = summary["worst_vdrop_pct"]
     lim = summary["drop_limits_pct"]
+    sub = ""
+    if summary["circuits"].get("subarray", {}).get("circuits"):
+        sub = f"sub-array {_num(w['subarray'], 3)} % ({lim['subarray']:g}), "
     out.print(
-        f"worst voltage drop: string {_num(w['string'], 3)} % (limit {lim['string']:g}), "
+        f"worst voltage drop: string {_num(w['string'], 3)} % (limit {lim['string']:g}), {sub}"
         f"array {_num(w['array'], 3)} % ({lim['array']:g}), DC total {_num(w['dc_total'], 3)} % "
         f"({lim['dc_total']:g}), AC {_num(w['ac'], 3)} % ({lim['ac']:g})",
         markup=False,

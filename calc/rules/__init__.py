@@ -32,8 +32,8 @@ _MODULES: dict[str, str] = {"iec": "calc.rules.iec:IecRules"}
 class RuleSet(abc.ABC):
     """Interface of a rule set (all arrays SI floats; sizes in mm²).
 
-    Kinds: 0 string, 1 array, 2 ac. Environments: "air", "D1" (duct in ground), "D2" (direct in
-    ground). Insulation "PV" denotes the PV string cable of the rule set.
+    Kinds: 0 string, 1 array, 2 ac, 3 sub-array. Environments: "air", "D1" (duct in ground),
+    "D2" (direct in ground). Insulation "PV" denotes the PV string cable of the rule set.
     """
 
     name: ClassVar[str]
