@@ -1134,9 +1134,8 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
         np.add.at(count, par[up], count[up])
     isc = np.where(is_feed & (count > 0), total / np.maximum(count, 1), isc)
     strings = rs.gpv_fuse_ratings_a(design.string_fuse_ratings_a, "string_fuse_ratings_a")
-    prot = rs.string_protection(
-        isc, a["strings_in_parallel"], a["max_fuse_a"], a["fuse_a"], strings
-    )
+    n_par = _strings_in_parallel(a, is_str, is_feed)
+    prot = rs.string_protection(isc, n_par, a["max_fuse_a"], a["fuse_a"], strings)
     fuse_a = np.where(is_str, prot.fuse_a, np.nan)
     isc_total = np.where(is_feed, isc * a["n_strings"], isc)
 
@@ -1171,7 +1170,7 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     i_design = np.select(
         [is_str, is_feed],
         [
-            rs.string_design_current_a(isc, a["strings_in_parallel"], fuse_a),
+            rs.string_design_current_a(isc, n_par, fuse_a),
             rs.array_design_current_a(isc, a["n_strings"]),
         ],
         default=np.where(breaker_ok, iz_min, ib),
@@ -1215,6 +1214,27 @@ def _voc_max(a: dict, design: DesignParams) -> np.ndarray:
         np.fmax.at(top, par[up], merged)
     has = np.isfinite(top)
     out[has] = np.fmax(top[has], np.nan_to_num(out[has], nan=-np.inf))
+    return out
+
+
+def _strings_in_parallel(a: dict, is_str: np.ndarray, is_feed: np.ndarray) -> np.ndarray:
+    """The strings each string is in parallel with for the IEC 62548 string rule: the strings
+    a fault on it can draw current from up to the nearest overcurrent device (IEC 62548:2016,
+    from memory). A string at a combiner counts every string of its inverter input: an array
+    or sub-array cable rated for the backfeed has no fuse, and whether an array fuse is fitted
+    is known only once the array cable is sized, so the count is the input's whole (on the
+    safe side where array fuses are fitted). Strings straight on an input count the strings of
+    that input (``strings_in_parallel``)."""
+    n_par = a["strings_in_parallel"]
+    par = a["parent"]
+    s = np.flatnonzero(is_str & (par >= 0))
+    if not s.size:
+        return n_par
+    top = np.flatnonzero(is_feed & (a["level"] == 0))
+    keys, inverse = np.unique(_input_of(a, top), return_inverse=True)
+    total = np.bincount(inverse, weights=a["n_strings"][top], minlength=keys.size)
+    out = n_par.astype(float).copy()
+    out[s] = np.maximum(out[s], total[np.searchsorted(keys, _input_of(a, par[s]))])
     return out
 
 

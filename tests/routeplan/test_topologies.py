@@ -454,3 +454,28 @@ def test_a_fixed_string_fuse_where_none_is_required_is_scheduled_and_counted(tmp
     bill = pd.read_csv(tmp_path / "out" / "quantities.csv", keep_default_na=False)
     fuses = bill[bill["item"] == "string fuse"]
     assert fuses[["kind", "material", "quantity"]].values.tolist() == [["string", "25 A gPV", 4.0]]
+
+
+def test_strings_at_a_combiner_count_every_string_of_the_inverter_input(tmp_path):
+    """Two combiners of 2 strings on INV1's one input, the array cables rated for the backfeed
+    of the other (no array fuse: 1.25 × 28.8 A = 36 A ≤ Iz). Nothing stands between the
+    combiners, so a fault on a string draws from all 4 strings (IEC 62548:2016, from memory:
+    the strings up to the nearest overcurrent device): (4 − 1) × 1.25 × 14.404 A = 54.0 A >
+    the module's 25 A maximum series fuse, string fuses are required — not (2 − 1) × 1.25 ×
+    14.404 A = 18.0 A ≤ 25 A as at the combiner alone. The same with array cables rated for
+    the backfeed by choice (`array_protection = "cable"`)."""
+    frames = layers(
+        rows=[
+            ("R1", 20, {"strings": 2, "module": "m1", "to": "CB1"}),
+            ("R2", 60, {"strings": 2, "module": "m1", "to": "CB2"}),
+        ],
+        combiners=[("CB1", 20, {"to": "INV1"}), ("CB2", 60, {"to": "INV1"})],
+        inverters=[("INV1", 150, INVERTER)],
+    )
+    assert (4 - 1) * K_ISC * ISC_DESIGN > 25.0 >= (2 - 1) * K_ISC * ISC_DESIGN
+    for name, extra in (("fuse", ""), ("cable", 'array_protection = "cable"')):
+        c, _, _ = plan(tmp_path / name, frames, extra=extra)
+        assert c.loc[["A:CB1", "A:CB2"], "array_fuse_a"].isna().all(), name
+        strings = c[c["kind"] == "string"]
+        assert strings["fuse_a"].notna().all(), name
+        assert all(p.startswith("string fuse") for p in strings["protection"]), name
