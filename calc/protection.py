@@ -488,7 +488,8 @@ def array_cable_check(
     iz_a : array_like
         Derated current-carrying capacity of the cable as laid (all parallel sets) [A].
     backfeed_current_a : array_like
-        :func:`backfeed_a` [A].
+        :func:`backfeed_a` [A]; nan (unknown) is never passed: not verified, like an unknown
+        Iz.
     fuse_a : array_like
         Array fuse rating In [A]; nan = none.
     fuse_i2_factor : float, optional
@@ -514,7 +515,7 @@ def array_cable_check(
     fuse = np.asarray(fuse_a, dtype=float)
     iz, b, fuse = np.broadcast_arrays(iz, b, fuse)
     k2 = i2_factor("gpv") if fuse_i2_factor is None else float(fuse_i2_factor)
-    unknown = ~np.isfinite(iz)
+    unknown = ~np.isfinite(iz) | np.isnan(b)  # either unknown: not verified, never "ok"
     needed = unknown | (b > iz * (1.0 + _REL))
     fused = np.isfinite(fuse)
     in_ok = fused & (fuse <= iz * (1.0 + _REL))
@@ -523,7 +524,8 @@ def array_cable_check(
     note = np.full(iz.shape, "", dtype=object)
     for i in np.flatnonzero(~ok):
         if unknown[i]:
-            note[i] = "cable capacity Iz not known: backfeed protection not verified"
+            what = "cable capacity Iz" if not np.isfinite(iz[i]) else "backfeed"
+            note[i] = f"{what} not known: backfeed protection not verified"
             continue
         if not fused[i]:
             note[i] = (

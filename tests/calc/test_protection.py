@@ -329,6 +329,12 @@ def test_array_cable_check_conditions():
     c = array_cable_check([np.nan], [0.0], [125.0])
     assert not c.ok[0]
     assert c.note[0] == "cable capacity Iz not known: backfeed protection not verified"
+    # an unknown backfeed (nan) is never read as none: protection is needed, and only a fuse
+    # that protects the cable (In 125 A ≤ Iz 400 A, I2 ≤ 1.45 Iz; IEC 60364-4-43:2008 433.1)
+    # passes it
+    c = array_cable_check([400.0, 400.0], [np.nan, np.nan], [np.nan, 125.0])
+    assert c.needed.tolist() == [True, True] and c.ok.tolist() == [False, True]
+    assert c.note.tolist() == ["backfeed not known: backfeed protection not verified", ""]
 
 
 def test_an_array_alone_needs_its_own_current_only():
