@@ -5,6 +5,7 @@ device, an unsized cable) and refuse a missing current. calc reads numeric argum
 a ``None`` from a user's table takes the same documented path as nan.
 """
 
+import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
@@ -55,3 +56,10 @@ def test_missing_overload_device_fails_every_condition():
     assert c.ok.tolist() == [False]
     assert (c.ib_ok.tolist(), c.iz_ok.tolist()) == ([False], [False])
     assert c.note.tolist() == ["no overload protective device"]
+
+
+def test_missing_backfeed_leaves_only_an_unfused_capacity_unknown():
+    # without a fuse Iz ≥ max(1.25 · I_SC, B) needs B: unknown (nan); with the 125 A fuse the
+    # backfeed does not enter: max(1.25 × 100, 125, 1.45 × 125 / 1.45) = 125 A
+    got = array_min_capacity_a([100.0, 100.0], [None, None], [np.nan, 125.0])
+    assert np.isnan(got[0]) and got[1] == 125.0
