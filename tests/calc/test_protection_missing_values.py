@@ -63,3 +63,11 @@ def test_missing_backfeed_leaves_only_an_unfused_capacity_unknown():
     # backfeed does not enter: max(1.25 × 100, 125, 1.45 × 125 / 1.45) = 125 A
     got = array_min_capacity_a([100.0, 100.0], [None, None], [np.nan, 125.0])
     assert np.isnan(got[0]) and got[1] == 125.0
+
+
+def test_missing_conventional_current_factor_leaves_i2_unknown():
+    # IEC 60947-2 list: Ib 180.42 A -> In 200 A; without the device's I2 / In neither I2 nor the
+    # capacity max(In, I2 / 1.45) (IEC 60364-4-43:2008 433.1) is known
+    b = ac_breaker([180.42], breaker_ratings_a("iec60947-2"), None)
+    assert b.in_a.tolist() == [200.0]
+    assert np.isnan(b.i2_a).tolist() == [True] and np.isnan(b.iz_min_a).tolist() == [True]
