@@ -3,6 +3,8 @@
 Run from the repository root, in an environment with ``pip install -e '.[test,mutation]'``::
 
     python tools/mutation.py calc                # mutate calc/, run tests/calc and calc's doctests
+    python tools/mutation.py map_text            # one routeplan core module and its fast tests
+    python tools/mutation.py diff                # (likewise: pipeline, network, routing)
     python tools/mutation.py routeplan           # routeplan's core modules and their fast tests
     python tools/mutation.py all                 # everything [tool.mutmut] lists, its whole subset
     python tools/mutation.py calc --retest       # test the survivors again (after new tests)
@@ -19,6 +21,13 @@ of its own, ``.mutation/<target>/`` (symbolic links to the sources and a ``pypro
 with the narrowed table), so that each target keeps its results. mutmut's own commands work
 there: ``cd .mutation/calc && mutmut show calc.vdrop.x_vdrop_v__mutmut_3`` (or ``browse``).
 
+A target may also name mutant patterns (``fnmatch``, as ``mutmut run`` takes them): the
+``pipeline`` target mutates the whole of ``routeplan/pipeline.py`` but runs and reports only
+the mutants of the functions that build the tables and the bill of quantities
+(``circuit_table``, ``segment_table``, ``quantity_table``, ``summarise`` and their helpers).
+mutmut runs the mutants a run names every time (it keeps no result for them), and the run
+takes only the tests that called those functions.
+
 The process runs at ``nice 10``. The report counts, per module, the mutants killed (a test
 failed or timed out), survived, without tests and not yet checked; mutants that
 ``tests/MUTATION.md`` records as equivalent (a line naming the mutant and the word
@@ -31,6 +40,7 @@ changed functions; ``--retest`` then tests the survivors again, against today's 
 from __future__ import annotations
 
 import argparse
+import fnmatch
 import json
 import os
 import re
@@ -53,6 +63,27 @@ class Target:
 
     prefix: str  # source_paths entries that start with this belong to the target
     tests: tuple[str, ...] | None  # None: the whole selection of [tool.mutmut]
+    mutants: tuple[str, ...] = ()  # mutant-name patterns to run and report; () for all
+
+    def covers(self, name: str) -> bool:
+        """Whether the mutant ``name`` belongs to the target's run and report."""
+        return not self.mutants or any(fnmatch.fnmatchcase(name, p) for p in self.mutants)
+
+
+#: the functions of routeplan/pipeline.py that build the tables and the bill of quantities
+PIPELINE_TABLES = tuple(
+    f"routeplan.pipeline.x_{f}__mutmut_*"
+    for f in (
+        "circuit_table",
+        "_pf",
+        "segment_table",
+        "quantity_table",
+        "_devices",
+        "assigned_destinations",
+        "summarise",
+        "_max",
+    )
+)
 
 
 TARGETS = {
@@ -73,6 +104,10 @@ TARGETS = {
             "tests/routeplan/test_cli_check.py",
             "routeplan",
         ),
+    ),
+    "map_text": Target(
+        "routeplan/outputs/map_text.py",
+        ("tests/map/test_map_text.py", "tests/map/test_map_text_paths.py"),
     ),
     "all": Target("", None),
 }
@@ -224,20 +259,23 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--jobs", type=int, default=1, help="mutmut workers (default 1)")
     args = parser.parse_args(argv)
     try:
+        target = TARGETS[args.target]
         work, _ = prepare(args.target)
         if not args.report:
             os.nice(10)
             run = [_mutmut(), "run", "--max-children", str(args.jobs)]
-            # new and changed functions first (mutmut keeps every other result) ...
-            subprocess.run(run, cwd=work, check=False)
-            if args.retest:
+            # new and changed functions first (mutmut keeps every other result); named
+            # patterns: every mutant they match, again (so --retest has nothing to add) ...
+            subprocess.run(run + list(target.mutants), cwd=work, check=False)
+            if args.retest and not target.mutants:
                 # ... then the mutants that survived, against today's tests
                 names = [n for n, s in results(work).items() if s not in KILLED | {"not checked"}]
                 if names:
                     subprocess.run(run + names, cwd=work, check=False)
                 else:
                     print("no survivors to test again")
-        print(report(results(work), equivalents()))
+        status = {n: s for n, s in results(work).items() if target.covers(n)}
+        print(report(status, equivalents()))
     except (MutationSetupError, subprocess.CalledProcessError) as e:
         print(f"tools/mutation.py: {e}", file=sys.stderr)
         return 2
