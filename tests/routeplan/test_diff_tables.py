@@ -21,12 +21,15 @@ from routeplan.diff import (
     DiffError,
     PlanDiff,
     Table,
+    _quantity_delta,
     diff_outputs,
+    open_diff_folder,
     parse_schedule,
     read_plan,
     read_schedule,
     write_diff,
 )
+from routeplan.errors import FolderError
 
 CIRCUIT_HEADER = [
     "circuit_id", "kind", "from_id", "to_id", "trench_segments", "route_m", "cable_m",
@@ -351,3 +354,111 @@ def test_write_diff_guards_text_and_ids_not_numbers(tmp_path):
         "circuit,'=C1,changed,route_m,120.0,-1.5\n"
         "circuit,C2,changed,status,ok,'@x\n"
     )
+
+
+# ---- details of reading: each pins a rule a reader of the schedule relies on
+
+
+def test_of_two_ids_twice_the_one_met_first_is_named():
+    # T1 on lines 2 and 5, T2 on lines 3 and 4: T1's first line comes first
+    text = SEG + "T1,1,1,0,0,0,ok\nT2,1,1,0,0,0,ok\nT2,1,1,0,0,0,ok\nT1,1,1,0,0,0,ok\n"
+    assert refused(text.encode()) == "F.csv: segment_id 'T1' on lines 2 and 5"
+
+
+def test_a_key_of_two_columns_twice_is_named_as_a_pair():
+    table = Table("F.csv", ("trench_id", "part"), ("note",))
+    text = "trench_id,part,note\nT1,1,a\nT1,2,b\nT1,1,c\n"
+    with pytest.raises(DiffError) as e:
+        parse_schedule(text.encode(), table, "F.csv")
+    assert str(e.value) == "F.csv: trench_id, part ('T1', '1') on lines 2 and 4"
+
+
+def test_cells_are_read_exactly_as_written():
+    # ids that differ only in a trailing NUL character are two ids, and a line break
+    # inside a quoted cell is kept as written (CR LF and a lone CR too: RFC 4180 §2.6)
+    text = SEG + 'T1,1,1,0,0,0,"a\r\nb"\nT1\x00,1,1,0,0,0,"c\rd"\n'
+    frame = parse_schedule(text.encode(), SEGMENTS, "F.csv")
+    assert frame["segment_id"].tolist() == ["T1", "T1\x00"]
+    assert frame["status"].tolist() == ["a\r\nb", "c\rd"]
+    # records ended by CR, CR LF or LF alike (RFC 4180 §2.1 asks CR LF; the csv module reads
+    # all three)
+    text = SEG.replace("\n", "\r") + "T1,1,1,0,0,0,ok\r\nT2,1,1,0,0,0,ok\rT3,1,1,0,0,0,ok\n"
+    frame = parse_schedule(text.encode(), SEGMENTS, "F.csv")
+    assert frame["segment_id"].tolist() == ["T1", "T2", "T3"]
+    # and a line named in a message is counted the same way
+    bad = text.replace("T3,1,1,", "T3,1,x1,")
+    assert refused(bad.encode()) == "F.csv: line 4: column strings: 'x1' is not a number"
+
+
+def test_a_record_after_a_blank_first_record_names_the_blank_line():
+    text = SEG + "\n\nT1,1,1,0,0,0,ok\n"
+    assert refused(text.encode()) == (
+        "F.csv: line 2: 0 fields where the header has 7 (truncated or not a schedule)"
+    )
+    text = SEG + "\nT1,1,1,0,0,0,ok\n"
+    assert refused(text.encode()) == (
+        "F.csv: line 2: 0 fields where the header has 7 (truncated or not a schedule)"
+    )
+
+
+def test_an_allowed_empty_cell_before_a_wrong_number_names_the_wrong_number():
+    text = SEG + "T1,1,,0,0,0,ok\nT2,1,x1,0,0,0,ok\n"
+    assert refused(text.encode()) == "F.csv: line 3: column strings: 'x1' is not a number"
+
+
+def test_quantities_compare_as_binary64_numbers():
+    # 2**53 + 1 is not a binary64 number (IEEE 754: 53-bit significand): it reads as 2**53,
+    # so the two bills hold the same quantity
+    old = parse_schedule(
+        csv_text(QUANTITY_HEADER, [quantity("cable", "4", "9007199254740993")]).encode(),
+        QUANTITIES,
+        "a",
+    )
+    new = parse_schedule(
+        csv_text(QUANTITY_HEADER, [quantity("cable", "4", "9007199254740992")]).encode(),
+        QUANTITIES,
+        "b",
+    )
+    assert _quantity_delta(old, new) == []
+
+
+def test_a_kind_counted_zero_in_summary_json_with_no_rows(tmp_path):
+    summary = {"circuits": {"string": {"circuits": 2}, "subarray": {"circuits": 0}}}
+    summary["segments"] = {"count": 2}
+    plans = read_plan(write_folder(tmp_path / "a", summary=summary))
+    assert plans["circuits"]["kind"].tolist() == ["string", "string"]
+
+
+def test_a_schedule_that_cannot_be_read(tmp_path, monkeypatch):
+    folder = write_folder(tmp_path / "a")
+
+    def denied(self):
+        raise PermissionError(13, "Permission denied", str(self))
+
+    monkeypatch.setattr(Path, "read_bytes", denied)
+    with pytest.raises(DiffError) as e:
+        read_schedule(folder, CIRCUITS)
+    assert str(e.value) == f"{folder / CIRCUITS.name}: cannot be read (Permission denied)"
+
+
+def test_the_changes_folder_beside_other_files_only_with_force(tmp_path):
+    folder = tmp_path / "out"
+    folder.mkdir()
+    (folder / "notes.txt").write_text("mine", "utf-8")
+    with pytest.raises(FolderError) as e:
+        open_diff_folder(folder)
+    assert str(folder) in str(e.value) and "'notes.txt'" in str(e.value)
+    assert "add --force" in str(e.value)
+    d = diff_outputs(write_folder(tmp_path / "a"), write_folder(tmp_path / "b"))
+    with open_diff_folder(folder, force=True) as out:
+        write_diff(d, out)
+    assert (folder / "changes.csv").read_text("utf-8") == "section,id,change,field,old,new\n"
+    assert (folder / "notes.txt").read_text("utf-8") == "mine"
+    # a changes.csv routeplan did not write is never replaced, not even with force
+    other = tmp_path / "other"
+    other.mkdir()
+    (other / "changes.csv").write_text("mine", "utf-8")
+    with pytest.raises(FolderError) as e:
+        open_diff_folder(other, force=True)
+    assert "'changes.csv' is there but was not written by routeplan" in str(e.value)
+    assert (other / "changes.csv").read_text("utf-8") == "mine"
