@@ -13,20 +13,70 @@ import pytest
 
 from routeplan import CAUTION, __version__
 from routeplan.config import parse_design
-from routeplan.pipeline import plan, quantity_table, summarise
+from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
+from routeplan.pipeline import circuit_table, plan, quantity_table, sizing_input, summarise
 
 from ..conftest import base_frames, write_site
 
+# The fixtures plan once per test (0.2 s), not once per module: mutmut runs for a mutant only
+# the tests that called its function, and a module fixture's calls count for the first
+# test alone.
 
-@pytest.fixture(scope="module")
-def small(tmp_path_factory):
+
+@pytest.fixture
+def small(tmp_path):
     """tests/conftest.py's tiny site (rows R1: 2 strings, R2: 3 strings → CB1 → INV1 → G1),
     trench T1 limited to 4 circuits and INV1 single-phase."""
     frames = base_frames()
     frames["trenches"]["max_circuits"] = [4, None]
     frames["inverters"]["phases"] = [1]
     frames["inverters"]["ac_kva"] = [100.0]
-    return plan(write_site(tmp_path_factory.mktemp("small") / "site", frames))
+    return plan(write_site(tmp_path / "site", frames))
+
+
+def big_inverter(tmp_path, kva: float):
+    """The tiny site with a three-phase inverter of ``kva`` at 800 V."""
+    frames = base_frames()
+    frames["inverters"]["ac_kva"] = [kva]
+    return plan(write_site(tmp_path / "site", frames))
+
+
+def test_tables_have_the_contract_columns(small):
+    circuits = [c.name for c in CIRCUIT_COLUMNS]
+    assert sorted(small.circuits.columns) == sorted([*circuits, "geometry"])
+    segments = [c.name for c in SEGMENT_COLUMNS]
+    assert sorted(small.segments.columns) == sorted([*segments, "geometry"])
+    # counts are whole numbers
+    for column in ("group_max", "conductors", "parallel"):
+        assert small.circuits[column].dtype.kind == "i", column
+    assert small.segments["cable_sets"].dtype.kind == "i"
+
+
+def test_three_phase_conductors_are_three_per_parallel_set(tmp_path):
+    # 600 kVA / (√3 x 800 V) = 433 A: more than one aluminium conductor per phase
+    c = by_id(big_inverter(tmp_path, 600.0).circuits, "circuit_id")
+    sets = int(c.loc["AC:INV1", "parallel"])
+    assert sets >= 2
+    assert c.loc["AC:INV1", "conductors"] == 3 * sets  # L1, L2, L3 in each set
+    assert c.loc["A:CB1", "conductors"] == 2 * int(c.loc["A:CB1", "parallel"])
+    assert c.loc["AC:INV1", "status"] == "ok"
+
+
+def test_a_circuit_that_cannot_be_sized_is_fail(tmp_path):
+    # 1200 kVA / (√3 x 800 V) = 866 A, derated in a group of 4 sets: more than the design's
+    # most parallel sets (4) of the largest size carry
+    p = big_inverter(tmp_path, 1200.0)
+    c = by_id(p.circuits, "circuit_id")
+    assert c.loc["AC:INV1", "status"] == "fail"
+    assert (c.drop(index="AC:INV1")["status"] == "ok").all()
+    assert p.summary["circuits"]["ac"]["fail"] == 1
+
+
+def test_circuit_table_without_inverter_inputs_has_no_input(small):
+    inp, _ = sizing_input(small.site, small.routes)
+    table = circuit_table(small.routes, small.sizing, inp, small.design)
+    assert np.isnan(table["input"].to_numpy(dtype=float)).all()
+    assert len(table) == 7
 
 
 def by_id(frame: pd.DataFrame, key: str) -> pd.DataFrame:
