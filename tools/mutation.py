@@ -115,6 +115,22 @@ TARGETS = {
         ("tests/routeplan/test_pipeline_tables.py",),
         PIPELINE_TABLES,
     ),
+    "network": Target(
+        "routeplan/network.py",
+        (
+            "tests/routeplan/test_network.py",
+            "tests/routeplan/test_network_loops.py",
+            "tests/routeplan/test_trench_checks.py",
+        ),
+    ),
+    "routing": Target(
+        "routeplan/routing.py",
+        (
+            "tests/routeplan/test_routing.py",
+            "tests/routeplan/test_routing_api.py",
+            "tests/routeplan/test_route_crs.py",
+        ),
+    ),
     "all": Target("", None),
 }
 
