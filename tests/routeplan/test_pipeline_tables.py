@@ -10,6 +10,7 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+from shapely.geometry import LineString
 
 from routeplan import CAUTION, __version__
 from routeplan.config import parse_design
@@ -26,9 +27,9 @@ from ..conftest import base_frames, write_site
 @pytest.fixture
 def small(tmp_path):
     """tests/conftest.py's tiny site (rows R1: 2 strings, R2: 3 strings → CB1 → INV1 → G1),
-    trench T1 limited to 4 circuits and INV1 single-phase."""
+    trench T1 limited to 4 circuits, T2 to 5, and INV1 single-phase."""
     frames = base_frames()
-    frames["trenches"]["max_circuits"] = [4, None]
+    frames["trenches"]["max_circuits"] = [4, 5]
     frames["inverters"]["phases"] = [1]
     frames["inverters"]["ac_kva"] = [100.0]
     return plan(write_site(tmp_path / "site", frames))
@@ -75,7 +76,8 @@ def test_a_circuit_that_cannot_be_sized_is_fail(tmp_path):
 def test_circuit_table_without_inverter_inputs_has_no_input(small):
     inp, _ = sizing_input(small.site, small.routes)
     table = circuit_table(small.routes, small.sizing, inp, small.design)
-    assert np.isnan(table["input"].to_numpy(dtype=float)).all()
+    assert table["input"].dtype == np.float64
+    assert np.isnan(table["input"].to_numpy()).all()
     assert len(table) == 7
 
 
@@ -128,11 +130,10 @@ def test_trench_schedule_fill_against_capacity(small):
     assert s["arrays"].tolist() == [0, 0, 0, 0, 1, 0]
     assert s["ac"].tolist() == [0, 0, 0, 0, 0, 1]
     assert s["subarrays"].tolist() == [0] * 6
-    # fill = cable sets / capacity: T1 takes 4, so 0/4, 3/4, 5/4; T2 has no limit
-    fill = s["fill"].to_numpy()
-    assert fill[:3] == pytest.approx([0.0, 0.75, 1.25])
-    assert np.isnan(fill[3:]).all()
-    assert s["max_circuits"].tolist()[:3] == [4.0, 4.0, 4.0]
+    # fill = cable sets / capacity: T1 takes 4, so 0/4, 3/4, 5/4 (over); T2 takes 5, so
+    # 5/5 (full, not over), 1/5, 1/5
+    assert s["fill"].tolist() == pytest.approx([0.0, 0.75, 1.25, 1.0, 0.2, 0.2])
+    assert s["max_circuits"].tolist() == [4.0, 4.0, 4.0, 5.0, 5.0, 5.0]
     assert s["status"].tolist() == ["ok", "ok", "over", "ok", "ok", "ok"]
     assert s["length_m"].tolist() == pytest.approx([10.0, 10.0, 10.0, 3.0, 55.0, 50.0])
     assert s.loc["T1#3", "circuit_ids"] == "R1/S1;R1/S2;R2/S1;R2/S2;R2/S3"
@@ -153,14 +154,14 @@ def hand_circuits() -> pd.DataFrame:
             "kind": ["string", "string", "string", "subarray", "array", "array", "ac"],
             "material": ["Cu", "Cu", "Cu", "Cu", "Al", "Al", "Al"],
             "size_mm2": [4.0, 4.0, 6.0, 16.0, 95.0, 95.0, 240.0],
-            "cable_m": [10.0, 20.5, 30.0, 40.0, 100.0, 50.0, 200.0],
+            "cable_m": [10.0, 20.5, 30.0, 40.004, 100.0, 50.0, 200.0],
             "conductors": [2, 2, 2, 2, 2, 4, 3],
             "fuse_a": [15.0, 15.0, 20.0, nan, nan, nan, nan],
             "array_fuse_a": [nan, nan, nan, 63.0, 125.0, nan, nan],
             "ac_breaker_a": [nan, nan, nan, nan, nan, nan, 400.0],
             "status": ["ok", "fail", "ok", "ok", "ok", "ok", "ok"],
             "vdrop_pct": [0.5, 1.25, 0.75, 0.4, 1.0, nan, 0.8],
-            "vdrop_total_pct": [1.9, 2.65, 2.15, 1.4, 1.0, nan, 0.8],
+            "vdrop_total_pct": [1.9, 2.65, 2.15, 1.4, 1.0, nan, 3.0],
             "utilisation": [0.5, 0.9, 0.7, 0.6, 0.8, 0.85, 0.95],
             "loss_w": [1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0],
             "energy_loss_kwh": [10.0, 20.0, 30.0, 40.0, 50.0, 60.0, 70.0],
@@ -193,7 +194,7 @@ def test_bill_of_quantities_counted_by_hand():
         # cable: metres x conductors, by kind, material and size
         ("cable", "string", "Cu", 4.0, None, None, (10.0 + 20.5) * 2, "m"),
         ("cable", "string", "Cu", 6.0, None, None, 30.0 * 2, "m"),
-        ("cable", "subarray", "Cu", 16.0, None, None, 40.0 * 2, "m"),
+        ("cable", "subarray", "Cu", 16.0, None, None, 40.004 * 2, "m"),
         ("cable", "array", "Al", 95.0, None, None, 100.0 * 2 + 50.0 * 4, "m"),
         ("cable", "ac", "Al", 240.0, None, None, 200.0 * 3, "m"),
         # terminations: one per conductor end (2 ends x conductors)
@@ -213,6 +214,19 @@ def test_bill_of_quantities_counted_by_hand():
         # breakers: one per AC circuit, named with the design's device kind
         ("AC breaker", "ac", "400 A iec60947-2", None, None, None, 1.0, "pcs"),
     ]
+
+
+def test_bill_of_ratings_read_as_objects_is_the_same():
+    # rating columns that hold Python objects (as read back from a file) give the same bill,
+    # and the devices' size column stays a number column (NaN)
+    c = hand_circuits()
+    bill = quantity_table(c, hand_segments(), DESIGN)
+    for column in ("fuse_a", "array_fuse_a", "ac_breaker_a"):
+        c[column] = c[column].astype(object)
+    again = quantity_table(c, hand_segments(), DESIGN)
+    pd.testing.assert_frame_equal(again, bill)
+    assert bill["size_mm2"].dtype == np.float64
+    assert bill["quantity"].dtype == np.float64
 
 
 def test_bill_orders_materials_and_sizes_within_a_kind():
@@ -246,7 +260,8 @@ def test_summary_counts_and_worst_values_by_kind(small):
     inputs = pd.DataFrame({"status": ["ok", "ok"]})
     s = summarise(small.site, DESIGN, c, hand_segments(), r, inputs)
     assert s["tool"] == {"name": "routeplan", "version": __version__}
-    assert s["site"]["name"] == "Test site" and s["site"]["crs"] == "EPSG:32633"
+    assert s["site"] == {"name": "Test site", "crs": "EPSG:32633", "crs_note": small.site.crs_note}
+    assert s["site"]["crs_note"].startswith("EPSG:32633 (WGS 84 / UTM zone 33N)")
     assert s["rules"] == "iec"
     assert s["ok"] is False  # S2 fails
     assert list(s["circuits"]) == ["string", "subarray", "array", "ac"]
@@ -264,6 +279,7 @@ def test_summary_counts_and_worst_values_by_kind(small):
     # A2 has no drop (NaN): the worst of the others
     assert s["circuits"]["array"]["worst_vdrop_pct"] == 1.0
     assert s["circuits"]["array"]["circuits"] == 2
+    # the DC total leaves the AC circuit (3.0 %) out; keys in this order in summary.json
     assert s["worst_vdrop_pct"] == {
         "string": 1.25,
         "subarray": 0.4,
@@ -271,6 +287,7 @@ def test_summary_counts_and_worst_values_by_kind(small):
         "dc_total": 2.65,
         "ac": 0.8,
     }
+    assert list(s["worst_vdrop_pct"]) == ["string", "subarray", "array", "dc_total", "ac"]
     assert s["segments"] == {"count": 3, "over_capacity": 0, "trench_m": 60.0}
     assert s["inverter_inputs"] == {"count": 2, "over_limit": 0}
     # conductor metres by material and size (sorted), rounded to the centimetre
@@ -279,9 +296,9 @@ def test_summary_counts_and_worst_values_by_kind(small):
         {"material": "Al", "size_mm2": 240.0, "metres": 600.0},
         {"material": "Cu", "size_mm2": 4.0, "metres": 61.0},
         {"material": "Cu", "size_mm2": 6.0, "metres": 60.0},
-        {"material": "Cu", "size_mm2": 16.0, "metres": 80.0},
+        {"material": "Cu", "size_mm2": 16.0, "metres": 80.01},  # 2 x 40.004 = 80.008 m
     ]
-    assert s["cable_m_total"] == 1201.0
+    assert s["cable_m_total"] == 1201.01  # 1201.008 m
     assert s["loss_w_total"] == 28.0
     assert s["energy_loss_kwh_total"] == 280.0
     assert s["drop_limits_pct"] == dict(DESIGN.drop_pct)
@@ -320,3 +337,19 @@ def test_summary_without_subarrays_or_with_a_kind_all_empty(small):
     c.loc[1, "vdrop_pct"] = 1.234567  # S2, the worst string
     s = summarise(small.site, DESIGN, c, hand_segments(), Result(c, none, none))
     assert s["circuits"]["string"]["worst_vdrop_pct"] == 1.2346
+
+
+def test_destinations_the_planner_filled_are_listed(tmp_path):
+    # R1 has no 'to': the only combiner is its destination. R1 lies at y = 10.123 m: its
+    # route is its 2 m stub to T1 (x = 42), 10.123 m down T1 to the corner and 3 m along T2
+    # to CB1 (x = 45): 15.123 m, listed to the centimetre
+    frames = base_frames()
+    frames["rows"]["to"] = [None, "CB1"]
+    e0, n0 = frames["rows"].geometry.iloc[0].coords[0]
+    frames["rows"].loc[0, "geometry"] = LineString([(e0, n0 + 0.123), (e0 + 40, n0 + 0.123)])
+    p = plan(write_site(tmp_path / "site", frames))
+    assert p.summary["assigned"] == [
+        {"layer": "rows", "id": "R1", "to": "CB1", "rule": "only", "route_m": 15.12}
+    ]
+    # every destination given: nothing listed
+    assert plan(write_site(tmp_path / "given", base_frames())).summary["assigned"] == []
