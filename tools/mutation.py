@@ -35,6 +35,11 @@ failed or timed out), survived, without tests and not yet checked; mutants that
 
 mutmut keeps a mutant's result until its function changes: a plain run tests only new and
 changed functions; ``--retest`` then tests the survivors again, against today's tests.
+mutmut also keeps which test called which function (``mutants/mutmut-stats.json``) and
+traces only new tests again: after changing what an existing test calls (a fixture's scope,
+say), delete that file so that the next run traces every test. A fixture shared by several
+tests (``scope="module"``) is traced for the first test only, so that mutants of the
+functions it calls run that test alone: the fast subsets plan in function-scoped fixtures.
 """
 
 from __future__ import annotations
