@@ -152,7 +152,7 @@ def hand_circuits() -> pd.DataFrame:
         {
             "circuit_id": ["S1", "S2", "S3", "U1", "A1", "A2", "AC1"],
             "kind": ["string", "string", "string", "subarray", "array", "array", "ac"],
-            "material": ["Cu", "Cu", "Cu", "Cu", "Al", "Al", "Al"],
+            "material": ["Cu", "Cu", "Cu", "Al", "Cu", "Cu", "Al"],
             "size_mm2": [4.0, 4.0, 6.0, 16.0, 95.0, 95.0, 240.0],
             "cable_m": [10.0, 20.5, 30.0, 40.004, 100.0, 50.0, 200.0],
             "conductors": [2, 2, 2, 2, 2, 4, 3],
@@ -182,7 +182,9 @@ def hand_segments(status: tuple[str, ...] = ("ok", "ok", "ok")) -> pd.DataFrame:
 
 
 def test_bill_of_quantities_counted_by_hand():
-    bill = quantity_table(hand_circuits(), hand_segments(), DESIGN)
+    # kinds in the order string, sub-array, array, AC whatever their materials (the sub-array
+    # cable is Al, the array cable Cu), and whatever the order of the circuits
+    bill = quantity_table(hand_circuits().iloc[::-1], hand_segments(), DESIGN)
     assert list(bill.columns) == [
         "item", "kind", "material", "size_mm2", "laying", "depth_m", "quantity", "unit",
     ]  # fmt: skip
@@ -194,14 +196,14 @@ def test_bill_of_quantities_counted_by_hand():
         # cable: metres x conductors, by kind, material and size
         ("cable", "string", "Cu", 4.0, None, None, (10.0 + 20.5) * 2, "m"),
         ("cable", "string", "Cu", 6.0, None, None, 30.0 * 2, "m"),
-        ("cable", "subarray", "Cu", 16.0, None, None, 40.004 * 2, "m"),
-        ("cable", "array", "Al", 95.0, None, None, 100.0 * 2 + 50.0 * 4, "m"),
+        ("cable", "subarray", "Al", 16.0, None, None, 40.004 * 2, "m"),
+        ("cable", "array", "Cu", 95.0, None, None, 100.0 * 2 + 50.0 * 4, "m"),
         ("cable", "ac", "Al", 240.0, None, None, 200.0 * 3, "m"),
         # terminations: one per conductor end (2 ends x conductors)
         ("termination", "string", "Cu", 4.0, None, None, 8.0, "pcs"),
         ("termination", "string", "Cu", 6.0, None, None, 4.0, "pcs"),
-        ("termination", "subarray", "Cu", 16.0, None, None, 4.0, "pcs"),
-        ("termination", "array", "Al", 95.0, None, None, 12.0, "pcs"),
+        ("termination", "subarray", "Al", 16.0, None, None, 4.0, "pcs"),
+        ("termination", "array", "Cu", 95.0, None, None, 12.0, "pcs"),
         ("termination", "ac", "Al", 240.0, None, None, 6.0, "pcs"),
         # trench metres by laying and depth
         ("trench", None, None, None, "direct", 0.8, 20.0, "m"),
@@ -292,11 +294,11 @@ def test_summary_counts_and_worst_values_by_kind(small):
     assert s["inverter_inputs"] == {"count": 2, "over_limit": 0}
     # conductor metres by material and size (sorted), rounded to the centimetre
     assert s["cable_m"] == [
-        {"material": "Al", "size_mm2": 95.0, "metres": 400.0},
+        {"material": "Al", "size_mm2": 16.0, "metres": 80.01},  # 2 x 40.004 = 80.008 m
         {"material": "Al", "size_mm2": 240.0, "metres": 600.0},
         {"material": "Cu", "size_mm2": 4.0, "metres": 61.0},
         {"material": "Cu", "size_mm2": 6.0, "metres": 60.0},
-        {"material": "Cu", "size_mm2": 16.0, "metres": 80.01},  # 2 x 40.004 = 80.008 m
+        {"material": "Cu", "size_mm2": 95.0, "metres": 400.0},
     ]
     assert s["cable_m_total"] == 1201.01  # 1201.008 m
     assert s["loss_w_total"] == 28.0
