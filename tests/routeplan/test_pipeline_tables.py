@@ -355,3 +355,18 @@ def test_destinations_the_planner_filled_are_listed(tmp_path):
     ]
     # every destination given: nothing listed
     assert plan(write_site(tmp_path / "given", base_frames())).summary["assigned"] == []
+
+
+def test_the_first_trench_segment_can_govern(tmp_path):
+    # T2 listed first (its parts are segments 0-2), both trenches in duct, T2 deeper (1.2 m)
+    # than T1 (0.7 m): the strings share T1#3 and T2#1 (all 5 in each), and the deeper one
+    # carries less (IEC 60364-5-52 depth correction, from memory: the deeper, the lower), so
+    # T2#1, the very first segment, governs them
+    frames = base_frames()
+    t = frames["trenches"]
+    t["depth_m"] = [0.7, 1.2]
+    t["laying"] = ["duct", "duct"]
+    frames["trenches"] = t.iloc[::-1].reset_index(drop=True)
+    c = by_id(plan(write_site(tmp_path / "site", frames)).circuits, "circuit_id")
+    assert c["governing"].tolist()[:5] == ["T2#1"] * 5
+    assert c.loc["AC:INV1", "governing"] == "T2#3"
