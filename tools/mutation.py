@@ -24,9 +24,12 @@ there: ``cd .mutation/calc && mutmut show calc.vdrop.x_vdrop_v__mutmut_3`` (or `
 A target may also name mutant patterns (``fnmatch``, as ``mutmut run`` takes them): the
 ``pipeline`` target mutates the whole of ``routeplan/pipeline.py`` but runs and reports only
 the mutants of the functions that build the tables and the bill of quantities
-(``circuit_table``, ``segment_table``, ``quantity_table``, ``summarise`` and their helpers).
-mutmut runs the mutants a run names every time (it keeps no result for them), and the run
-takes only the tests that called those functions.
+(``circuit_table``, ``segment_table``, ``quantity_table``, ``summarise`` and their helpers),
+with only the tests that called those functions. mutmut tests a mutant named on its command
+line again on every run, so each run of such a target tests all of its mutants (the
+pipeline's take some 15 minutes with ``--jobs 1`` on a busy 2-core machine) and
+``--retest`` adds nothing to it. To test a few mutants again, name them yourself:
+``cd .mutation/pipeline && mutmut run --max-children 1 "routeplan.pipeline.x_summarise__mutmut_*"``.
 
 The process runs at ``nice 10``. The report counts, per module, the mutants killed (a test
 failed or timed out), survived, without tests and not yet checked; mutants that
