@@ -3,6 +3,8 @@
 Run from the repository root, in an environment with ``pip install -e '.[test,mutation]'``::
 
     python tools/mutation.py calc                # mutate calc/, run tests/calc and calc's doctests
+    python tools/mutation.py map_text            # one routeplan core module and its fast tests
+    python tools/mutation.py diff                # (likewise: pipeline, network, routing)
     python tools/mutation.py routeplan           # routeplan's core modules and their fast tests
     python tools/mutation.py all                 # everything [tool.mutmut] lists, its whole subset
     python tools/mutation.py calc --retest       # test the survivors again (after new tests)
@@ -19,6 +21,16 @@ of its own, ``.mutation/<target>/`` (symbolic links to the sources and a ``pypro
 with the narrowed table), so that each target keeps its results. mutmut's own commands work
 there: ``cd .mutation/calc && mutmut show calc.vdrop.x_vdrop_v__mutmut_3`` (or ``browse``).
 
+A target may also name mutant patterns (``fnmatch``, as ``mutmut run`` takes them): the
+``pipeline`` target mutates the whole of ``routeplan/pipeline.py`` but runs and reports only
+the mutants of the functions that build the tables and the bill of quantities
+(``circuit_table``, ``segment_table``, ``quantity_table``, ``summarise`` and their helpers),
+with only the tests that called those functions. mutmut tests a mutant named on its command
+line again on every run, so each run of such a target tests all of its mutants (the
+pipeline's take some 15 minutes with ``--jobs 1`` on a busy 2-core machine) and
+``--retest`` adds nothing to it. To test a few mutants again, name them yourself:
+``cd .mutation/pipeline && mutmut run --max-children 1 "routeplan.pipeline.x_summarise__mutmut_*"``.
+
 The process runs at ``nice 10``. The report counts, per module, the mutants killed (a test
 failed or timed out), survived, without tests and not yet checked; mutants that
 ``tests/MUTATION.md`` records as equivalent (a line naming the mutant and the word
@@ -26,11 +38,17 @@ failed or timed out), survived, without tests and not yet checked; mutants that
 
 mutmut keeps a mutant's result until its function changes: a plain run tests only new and
 changed functions; ``--retest`` then tests the survivors again, against today's tests.
+mutmut also keeps which test called which function (``mutants/mutmut-stats.json``) and
+traces only new tests again: after changing what an existing test calls (a fixture's scope,
+say), delete that file so that the next run traces every test. A fixture shared by several
+tests (``scope="module"``) is traced for the first test only, so that mutants of the
+functions it calls run that test alone: the fast subsets plan in function-scoped fixtures.
 """
 
 from __future__ import annotations
 
 import argparse
+import fnmatch
 import json
 import os
 import re
@@ -53,6 +71,27 @@ class Target:
 
     prefix: str  # source_paths entries that start with this belong to the target
     tests: tuple[str, ...] | None  # None: the whole selection of [tool.mutmut]
+    mutants: tuple[str, ...] = ()  # mutant-name patterns to run and report; () for all
+
+    def covers(self, name: str) -> bool:
+        """Whether the mutant ``name`` belongs to the target's run and report."""
+        return not self.mutants or any(fnmatch.fnmatchcase(name, p) for p in self.mutants)
+
+
+#: the functions of routeplan/pipeline.py that build the tables and the bill of quantities
+PIPELINE_TABLES = tuple(
+    f"routeplan.pipeline.x_{f}__mutmut_*"
+    for f in (
+        "circuit_table",
+        "_pf",
+        "segment_table",
+        "quantity_table",
+        "_devices",
+        "assigned_destinations",
+        "summarise",
+        "_max",
+    )
+)
 
 
 TARGETS = {
@@ -72,6 +111,32 @@ TARGETS = {
             "tests/routeplan/test_diff_robust.py",
             "tests/routeplan/test_cli_check.py",
             "routeplan",
+        ),
+    ),
+    "map_text": Target(
+        "routeplan/outputs/map_text.py",
+        ("tests/map/test_map_text.py", "tests/map/test_map_text_paths.py"),
+    ),
+    "diff": Target("routeplan/diff.py", ("tests/routeplan/test_diff_tables.py",)),
+    "pipeline": Target(
+        "routeplan/pipeline.py",
+        ("tests/routeplan/test_pipeline_tables.py",),
+        PIPELINE_TABLES,
+    ),
+    "network": Target(
+        "routeplan/network.py",
+        (
+            "tests/routeplan/test_network.py",
+            "tests/routeplan/test_network_loops.py",
+            "tests/routeplan/test_trench_checks.py",
+        ),
+    ),
+    "routing": Target(
+        "routeplan/routing.py",
+        (
+            "tests/routeplan/test_routing.py",
+            "tests/routeplan/test_routing_api.py",
+            "tests/routeplan/test_route_crs.py",
         ),
     ),
     "all": Target("", None),
@@ -224,20 +289,23 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--jobs", type=int, default=1, help="mutmut workers (default 1)")
     args = parser.parse_args(argv)
     try:
+        target = TARGETS[args.target]
         work, _ = prepare(args.target)
         if not args.report:
             os.nice(10)
             run = [_mutmut(), "run", "--max-children", str(args.jobs)]
-            # new and changed functions first (mutmut keeps every other result) ...
-            subprocess.run(run, cwd=work, check=False)
-            if args.retest:
+            # new and changed functions first (mutmut keeps every other result); named
+            # patterns: every mutant they match, again (so --retest has nothing to add) ...
+            subprocess.run(run + list(target.mutants), cwd=work, check=False)
+            if args.retest and not target.mutants:
                 # ... then the mutants that survived, against today's tests
                 names = [n for n, s in results(work).items() if s not in KILLED | {"not checked"}]
                 if names:
                     subprocess.run(run + names, cwd=work, check=False)
                 else:
                     print("no survivors to test again")
-        print(report(results(work), equivalents()))
+        status = {n: s for n, s in results(work).items() if target.covers(n)}
+        print(report(status, equivalents()))
     except (MutationSetupError, subprocess.CalledProcessError) as e:
         print(f"tools/mutation.py: {e}", file=sys.stderr)
         return 2
