@@ -215,7 +215,7 @@ def test_empty_and_undecodable_and_cut_files():
 
 def test_a_header_without_a_needed_column_or_with_one_twice():
     assert refused(b"segment_id,circuits,ac,status\n") == (
-        "F.csv: no column strings, subarrays, arrays (a schedule of 'routeplan plan' has it)"
+        "F.csv: no column strings, arrays (a schedule of 'routeplan plan' has it)"
     )
     assert refused((SEG[:-1] + ",status,x,x\n").encode()) == (
         "F.csv: column status, x appears more than once"
