@@ -227,14 +227,16 @@ def _line(text: str, row: int) -> int:
     return start
 
 
+_DECIMAL = r"[-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?"
+
+
 def _check_numbers(values: np.ndarray, column: str, where: str, text: str, *, filled: bool) -> None:
     """Every cell of ``values`` (text) a decimal number, or empty unless ``filled``."""
     empty = values == ""
-    try:
-        bad = np.isnan(np.where(empty, "0", values).astype(float))  # "nan": not one we write
-    except ValueError:  # some text is not a number: find it
-        number = pd.to_numeric(np.where(empty, "0", values), errors="coerce")
-        bad = np.isnan(np.asarray(number, dtype=float))
+    # one reading for every cell: ASCII decimal numbers as routeplan writes them (no "nan",
+    # "inf", digit separators "1_000" or non-ASCII digits, which float() would take)
+    decimal = pd.Series(values, dtype=object).str.fullmatch(_DECIMAL).to_numpy(dtype=bool)
+    bad = ~(decimal | empty)
     bad |= empty & filled
     if bad.any():
         i = int(np.argmax(bad))

@@ -245,6 +245,17 @@ def test_numbers_empty_text_and_nan_are_named_by_line_and_column():
     assert refused(text.encode()) == "F.csv: line 3: column strings: 'x1' is not a number"
     text = SEG + "T1,1,1,0,0,0,ok\nT2,1,1,nan,0,0,ok\n"
     assert refused(text.encode()) == "F.csv: line 3: column subarrays: 'nan' is not a number"
+    # one reading whatever else the column holds: text Python's float() would take (digit
+    # separators, non-ASCII digits, inf) is no number routeplan writes, beside a number or
+    # beside other text alike
+    for cell in ("1_000", "\u0661\u0662", "inf"):
+        for other in ("1", "x1"):
+            text = SEG + f"T1,1,{cell},0,0,0,ok\nT2,1,{other},0,0,0,ok\n"
+            assert (
+                refused(text.encode()) == f"F.csv: line 2: column strings: {cell!r} is not a number"
+            )
+    ok = parse_schedule((SEG + "T1,1,1e3,0,0,-0.5,ok\n").encode(), SEGMENTS, "F.csv")
+    assert ok["strings"].tolist() == ["1e3"]
     # an empty number is allowed where the column may be empty ...
     ok = parse_schedule((SEG + "T1,,1,0,0,0,\n").encode(), SEGMENTS, "F.csv")
     assert ok["circuits"].tolist() == [""]
