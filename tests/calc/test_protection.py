@@ -335,6 +335,8 @@ def test_array_cable_check_conditions():
     c = array_cable_check([400.0, 400.0], [np.nan, np.nan], [np.nan, 125.0])
     assert c.needed.tolist() == [True, True] and c.ok.tolist() == [False, True]
     assert c.note.tolist() == ["backfeed not known: backfeed protection not verified", ""]
+    c = array_cable_check([400.0], [None], [np.nan])  # a missing value from a user's table
+    assert c.needed.tolist() == [True] and c.ok.tolist() == [False]
 
 
 def test_an_array_alone_needs_its_own_current_only():
