@@ -53,3 +53,49 @@ def test_a_later_circuit_on_two_stretches_takes_the_more_onerous_one():
     assert_allclose(r.factor_group, [0.80, 0.57])
     assert_allclose(r.factor_temp, [0.91, 1.0])
     assert_allclose(r.derating, [0.91 * 0.80, 0.57])
+
+
+def test_a_circuit_in_air_without_a_stretch_is_rated_alone():
+    # strings 0 and 1 share the row run (0.91 × 0.80 for 2 bunched = 0.728); string 2 has 10 m
+    # in air but no stretch: one circuit behind the modules, 0.91 × 1.00; a.c. circuit 3 in the
+    # ground only (B.52.18: alone, factor 1.00) has no air stretch either
+    inp = SizingInput(
+        kind=np.array([0, 0, 0, 2], dtype=np.int8),
+        cable_m=np.full(4, 30.0),
+        air_m=np.array([10.0, 10.0, 10.0, 0.0]),
+        isc_a=np.array([13.0, 13.0, 13.0, np.nan]),
+        imp_a=np.array([12.0, 12.0, 12.0, np.nan]),
+        vmp_v=np.array([1000.0, 1000.0, 1000.0, np.nan]),
+        ac_kva=np.array([np.nan, np.nan, np.nan, 100.0]),
+        ac_v=np.array([np.nan, np.nan, np.nan, 400.0]),
+        air_behind_modules=np.array([True]),
+        air_inc_circuit=np.array([0, 1]),
+        air_inc_stretch=np.array([0, 0]),
+        seg_depth_m=np.array([0.7]),
+        seg_laying=np.array([0]),
+        seg_spacing_m=np.array([0.0]),
+        seg_soil_k_m_w=np.array([2.5]),
+        seg_count=np.array([1]),
+        inc_circuit=np.array([3]),
+        inc_segment=np.array([0]),
+    )
+    r = size_circuits(inp, DesignParams(row_air_temp_c=70.0))
+    assert r.governing_air.tolist() == [0, 0, -1, -1]
+    assert r.governing_env.tolist() == ["air", "air", "air", "D2"]
+    assert r.governing_segment.tolist() == [-1, -1, -1, 0]
+    assert r.group_count.tolist() == [2.0, 2.0, 0.0, 1.0]
+    assert_allclose(r.factor_temp, [0.91, 0.91, 0.91, 1.0])
+    assert_allclose(r.factor_group, [0.80, 0.80, 1.0, 1.0])
+    # in air there is no soil or depth factor: both 1
+    assert_allclose(r.factor_soil, [1.0] * 4)
+    assert_allclose(r.factor_depth, [1.0] * 4)
+    assert_allclose(r.derating, [0.728, 0.728, 0.91, 1.0])
+    assert_allclose(r.ampacity_a[:3], [44.0 * 0.728, 44.0 * 0.728, 44.0 * 0.91])
+    assert r.air_count_final.tolist() == [2.0]
+
+
+def test_no_circuits_at_all():
+    # an empty input is sized to empty results (no level, no tree to climb)
+    r = size_circuits(SizingInput(kind=np.array([], dtype=np.int8), cable_m=np.array([])))
+    assert r.size_mm2.shape == (0,) and r.voc_max_v.shape == (0,) and r.note.shape == (0,)
+    assert r.total_loss_w.tolist() == [0.0] * 4 and r.total_loss_pct.tolist() == [0.0] * 4
