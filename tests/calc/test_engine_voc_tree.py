@@ -43,6 +43,9 @@ def _tree():
         imp_a=np.where(dc, 12.0, np.nan),
         vmp_v=np.where(dc, 1000.0, np.nan),
         n_strings=np.array([2, 1, 1, 1, 3, 2, 1, 1, 1, 1, 4, 1, 1], dtype=float),
+        # B's 3 strings in parallel: (3 − 1) × 1.25 × 13 A = 32.5 A ≤ 35 A, no string fuse
+        # (IEC 62548, from memory), so no protection note stands beside the voltage's
+        max_fuse_a=np.where(dc, 35.0, np.nan),
         voc_v=voc,
         voc_coeff_pct_per_c=beta,
         ac_kva=np.where(dc, np.nan, 100.0),
