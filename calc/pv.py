@@ -214,9 +214,10 @@ def string_protection(
 
     note = np.full(isc.shape, "", dtype=object)
     assumed = no_ocpr & (required | has_fixed)
+    most = pv_rule("unfused_max_strings_no_ocpr")
     note[assumed] = (
-        "max_fuse_a not given: string fuses assumed required for 3 or more parallel strings; "
-        "check the fuse against the module maximum series fuse rating"
+        f"max_fuse_a not given: string fuses assumed required for {most + 1:g} or more parallel "
+        "strings; check the fuse against the module maximum series fuse rating"
     )
     for i in np.flatnonzero(has_fixed & ~fixed_ok):
         note[i] = (
