@@ -221,12 +221,12 @@ def source_files(root: Path, spec: str) -> list[Path] | None:
     more than :data:`MAX_SOURCE_FILES` files. The list is sorted and has no duplicates.
     """
     found: set[Path] = set()
-    if not _collect(layer_file(root, spec), found, depth=0, cwd=Path(root)):
+    if not _collect(layer_file(root, spec), found, depth=0):
         return None
     return sorted(found)
 
 
-def _collect(path: Path, found: set[Path], depth: int, cwd: Path) -> bool:
+def _collect(path: Path, found: set[Path], depth: int) -> bool:
     """Add the files of the data source ``path`` to ``found``; False when not listable."""
     if not _local(str(path)):
         return False
@@ -254,7 +254,7 @@ def _collect(path: Path, found: set[Path], depth: int, cwd: Path) -> bool:
         for src in sources:
             if src in found and src.suffix.lower() == ".vrt":
                 continue  # a VRT already followed
-            if not _collect(src, found, depth + 1, cwd):
+            if not _collect(src, found, depth + 1):
                 return False
     return True
 
