@@ -20,7 +20,7 @@ _TREE = [
     (3, 1, 10.0, 1.0),  # 2: sub-array of 1, level 2: string 3
     (0, 2, 13.0, 1.0),  # 3: string on 2
     (0, 1, 15.0, 1.0),  # 4: string on 1
-    (0, 0, 11.0, 1.0),  # 5: string on 0
+    (0, 0, 12.0, 1.0),  # 5: string on 0
 ]
 
 
@@ -43,6 +43,6 @@ def test_feeder_isc_is_the_mean_of_its_strings_through_every_level():
     r = size_circuits(_inp())
     # 2: one string of 13 A -> 13 × 1 = 13 A (not its own 10 A)
     # 1: strings 13 and 15 A -> mean 14 A × 2 = 28 A
-    # 0: strings 13, 15, 11 A -> mean 13 A × 3 = 39 A
+    # 0: strings 13, 15, 12 A -> mean 40/3 A × 3 = 40 A
     # strings: their own I_SC
-    assert_allclose(r.isc_design_a, [39.0, 28.0, 13.0, 13.0, 15.0, 11.0])
+    assert_allclose(r.isc_design_a, [40.0, 28.0, 13.0, 13.0, 15.0, 12.0])
