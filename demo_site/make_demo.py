@@ -193,27 +193,8 @@ def build() -> dict[str, dict]:
                 to=f"TX-{block}",
             )
         )
-        trenches.append(
-            feature(
-                line((pad_x, BRANCH_Y_M), (pad_x, BRANCH_Y_M - 11.0)),
-                id=f"T-{block}-DROP",
-                depth_m=0.9,
-                laying="direct",
-                spacing_m=0.07,
-            )
-        )
-        trenches.append(
-            feature(
-                line((pad_x, BRANCH_Y_M - 11.0), (pad_x, DROP_END_Y_M)),
-                id=f"T-{block}-TX",
-                depth_m=0.9,
-                laying="duct",
-                spacing_m=0.25,
-                soil_k_m_w=1.2,
-                max_circuits=12,
-            )
-        )
-        grid.append(feature(point(pad_x + 1.0, DROP_END_Y_M - 2.0), id=f"TX-{block}"))
+        trenches += drop_trenches(block, pad_x)
+        grid.append(station(block, pad_x))
     recombiner_block(rows, combiners, trenches, inverters, grid)
     string_block(rows, trenches, inverters, grid)
     return {
@@ -319,7 +300,7 @@ def recombiner_block(rows, combiners, trenches, inverters, grid) -> None:
         )
     )
     trenches += drop_trenches(block, pad_x)
-    grid.append(feature(point(pad_x + 1.0, DROP_END_Y_M - 2.0), id=f"TX-{block}"))
+    grid.append(station(block, pad_x))
 
 
 def drop_trenches(block: str, x: float) -> list[dict]:
@@ -332,16 +313,26 @@ def drop_trenches(block: str, x: float) -> list[dict]:
             laying="direct",
             spacing_m=0.07,
         ),
-        feature(
-            line((x, BRANCH_Y_M - 11.0), (x, DROP_END_Y_M)),
-            id=f"T-{block}-TX",
-            depth_m=0.9,
-            laying="duct",
-            spacing_m=0.25,
-            soil_k_m_w=1.2,
-            max_circuits=12,
-        ),
+        station_trench(block, x, BRANCH_Y_M - 11.0),
     ]
+
+
+def station_trench(block: str, x: float, top_y: float) -> dict:
+    """The duct from ``top_y`` south to the block's station."""
+    return feature(
+        line((x, top_y), (x, DROP_END_Y_M)),
+        id=f"T-{block}-TX",
+        depth_m=0.9,
+        laying="duct",
+        spacing_m=0.25,
+        soil_k_m_w=1.2,
+        max_circuits=12,
+    )
+
+
+def station(block: str, x: float) -> dict:
+    """The block's station (its grid connection point), beside the end of its duct."""
+    return feature(point(x + 1.0, DROP_END_Y_M - 2.0), id=f"TX-{block}")
 
 
 def string_block(rows, trenches, inverters, grid) -> None:
@@ -373,18 +364,8 @@ def string_block(rows, trenches, inverters, grid) -> None:
         trenches += feeder_trenches(f"T-{block}{c + 1}-AC", lx, ys[1], ys[0])
     trenches += block_trenches(block, bx, lateral_xs, S_RING_Y_M)
     tx_x = bx + S_TX_X_M
-    trenches.append(
-        feature(
-            line((tx_x, BRANCH_Y_M), (tx_x, DROP_END_Y_M)),
-            id=f"T-{block}-TX",
-            depth_m=0.9,
-            laying="duct",
-            spacing_m=0.25,
-            soil_k_m_w=1.2,
-            max_circuits=12,
-        )
-    )
-    grid.append(feature(point(tx_x + 1.0, DROP_END_Y_M - 2.0), id=f"TX-{block}"))
+    trenches.append(station_trench(block, tx_x, BRANCH_Y_M))
+    grid.append(station(block, tx_x))
 
 
 def main() -> None:
