@@ -429,6 +429,37 @@ def _memory() -> str:
     return "unknown"
 
 
+def _bench_plant(
+    mw: float, seed: int, site_dir: Path, out: Path, topology: str, extra: list[str]
+) -> dict:
+    """Generate one invented plant in ``topology``, plan and write it in a fresh process, and
+    return the worker's measurements with the plant's counts."""
+    from routeplan.synth import generate_site
+
+    label = f"{mw:g} MW" + ("" if topology == "central" else f" {topology}")
+    t0 = time.perf_counter()
+    info = generate_site(mw, seed, site_dir, topology=topology)
+    gen_s = time.perf_counter() - t0
+    print(f"{label}: generated in {gen_s:.1f} s; planning …", file=sys.stderr)
+    r = _worker(["--worker-plan", str(site_dir), str(out), *extra])
+    r.update(
+        mw=mw,
+        mwdc=info.mwdc,
+        generate_s=gen_s,
+        strings=info.strings,
+        rows=info.rows,
+        combiners=info.combiners,
+        recombiners=info.recombiners,
+        inverters=info.inverters,
+        trench_features=info.trenches,
+        mount=info.mount,
+        topology=info.topology,
+    )
+    print(f"{label}: plan {r['plan_s']:.1f} s, write {r['write_s']:.1f} s, "
+          f"peak {r['peak_gib']:.2f} GiB", file=sys.stderr)  # fmt: skip
+    return r
+
+
 def run(
     sizes: list[float],
     seed: int,
@@ -437,34 +468,13 @@ def run(
     long_routes: bool,
     topologies: tuple[str, ...] = ("subarray", "string"),
 ) -> dict:
-    from routeplan.synth import generate_site
 
     load_start = _load()
     plants = []
     for mw in sizes:
         site_dir = work / f"site_{mw:g}MW"
-        t0 = time.perf_counter()
-        info = generate_site(mw, seed, site_dir)
-        gen_s = time.perf_counter() - t0
-        print(f"{mw:g} MW: generated in {gen_s:.1f} s; planning …", file=sys.stderr)
-        r = _worker(["--worker-plan", str(site_dir), str(work / f"run_{mw:g}MW")]
-                    + (["--nx"] if with_nx else []))  # fmt: skip
-        r.update(
-            mw=mw,
-            mwdc=info.mwdc,
-            generate_s=gen_s,
-            strings=info.strings,
-            rows=info.rows,
-            combiners=info.combiners,
-            inverters=info.inverters,
-            trench_features=info.trenches,
-            mount=info.mount,
-            topology=info.topology,
-            recombiners=info.recombiners,
-        )
-        plants.append(r)
-        print(f"{mw:g} MW: plan {r['plan_s']:.1f} s, write {r['write_s']:.1f} s, "
-              f"peak {r['peak_gib']:.2f} GiB", file=sys.stderr)  # fmt: skip
+        extra = ["--nx"] if with_nx else []
+        plants.append(_bench_plant(mw, seed, site_dir, work / f"run_{mw:g}MW", "central", extra))
     variants = []
     if long_routes and with_nx:
         mw = max([m for m in sizes if m <= 300] or [min(sizes)])
@@ -475,29 +485,8 @@ def run(
     mw = max(sizes)
     for topology in [t for t in topologies if t != "central"]:
         site_dir = work / f"site_{mw:g}MW_{topology}"
-        t0 = time.perf_counter()
-        info = generate_site(mw, seed, site_dir, topology=topology)
-        gen_s = time.perf_counter() - t0
-        print(f"{mw:g} MW {topology}: generated in {gen_s:.1f} s; planning …", file=sys.stderr)
-        r = _worker(
-            ["--worker-plan", str(site_dir), str(work / f"run_{mw:g}MW_{topology}"), "--light"]
-        )
-        r.update(
-            mw=mw,
-            mwdc=info.mwdc,
-            generate_s=gen_s,
-            strings=info.strings,
-            rows=info.rows,
-            combiners=info.combiners,
-            recombiners=info.recombiners,
-            inverters=info.inverters,
-            trench_features=info.trenches,
-            mount=info.mount,
-            topology=topology,
-        )
-        others.append(r)
-        print(f"{mw:g} MW {topology}: plan {r['plan_s']:.1f} s, write {r['write_s']:.1f} s, "
-              f"peak {r['peak_gib']:.2f} GiB", file=sys.stderr)  # fmt: skip
+        out = work / f"run_{mw:g}MW_{topology}"
+        others.append(_bench_plant(mw, seed, site_dir, out, topology, ["--light"]))
     return {
         "machine": {
             **machine(),
