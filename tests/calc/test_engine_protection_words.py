@@ -13,21 +13,13 @@ import numpy as np
 
 from calc import DesignParams, SizingInput, size_circuits
 
+from .test_engine_subarray_backfeed import two_arrays_with_sub_arrays
+
 
 def test_each_feeder_names_its_kind_its_backfeed_and_its_fuse():
     # 0: array A, 10 strings (130 A); 1: array B, 2 strings (26 A), both on input 5;
     # 2: sub-array of A, 4 strings (52 A); 3: sub-array of 2, 1 string (13 A).
-    inp = SizingInput(
-        kind=np.array([1, 1, 3, 3], dtype=np.int8),
-        cable_m=np.full(4, 10.0),
-        air_m=np.full(4, 10.0),
-        parent=np.array([-1, -1, 0, 2]),
-        isc_a=np.full(4, 13.0),
-        imp_a=np.full(4, 12.0),
-        vmp_v=np.full(4, 1000.0),
-        n_strings=np.array([10.0, 2.0, 4.0, 1.0]),
-        dc_group=np.array([5, 5, -1, -1]),
-    )
+    inp = two_arrays_with_sub_arrays()
     text = size_circuits(inp).protection
     # A: B = 1.25 × 26 = 32.5 A, carried by its cable (no fuse)
     assert re.fullmatch(r"no array fuse needed: backfeed 32 A ≤ Iz \d+ A", text[0])

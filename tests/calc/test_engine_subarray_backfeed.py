@@ -12,11 +12,10 @@ from numpy.testing import assert_allclose
 from calc import SizingInput, size_circuits
 
 
-def test_sub_arrays_two_levels_down_take_their_array_cables_input():
-    # 0: array A, 10 strings (130 A), on input 5; 1: array B, 2 strings (26 A), on input 5;
-    # 2: sub-array of A, 4 strings (52 A); 3: sub-array of 2, 1 string (13 A). The sub-arrays
-    # give no input of their own (-1): they are on A's. Input 5 carries 130 + 26 = 156 A.
-    inp = SizingInput(
+def two_arrays_with_sub_arrays() -> SizingInput:
+    """Arrays A (0, 10 strings) and B (1, 2 strings) on inverter input 5; sub-array 2 (4
+    strings) feeds A, sub-array 3 (1 string) feeds 2; module Isc 13 A."""
+    return SizingInput(
         kind=np.array([1, 1, 3, 3], dtype=np.int8),
         cable_m=np.full(4, 10.0),
         air_m=np.full(4, 10.0),
@@ -27,6 +26,13 @@ def test_sub_arrays_two_levels_down_take_their_array_cables_input():
         n_strings=np.array([10.0, 2.0, 4.0, 1.0]),
         dc_group=np.array([5, 5, -1, -1]),
     )
+
+
+def test_sub_arrays_two_levels_down_take_their_array_cables_input():
+    # 0: array A, 10 strings (130 A), on input 5; 1: array B, 2 strings (26 A), on input 5;
+    # 2: sub-array of A, 4 strings (52 A); 3: sub-array of 2, 1 string (13 A). The sub-arrays
+    # give no input of their own (-1): they are on A's. Input 5 carries 130 + 26 = 156 A.
+    inp = two_arrays_with_sub_arrays()
     r = size_circuits(inp)
     assert_allclose(r.isc_design_a, [130.0, 26.0, 52.0, 13.0])
     # A: 1.25 × (156 − 130) = 32.5 A; B: 1.25 × (156 − 26) = 162.5 A;
