@@ -52,6 +52,7 @@ from calc.engine import (
     DesignParams,
     SizingInput,
     SizingResult,
+    buried_deep_enough,
     failure_causes,
     size_circuits,
 )
@@ -84,6 +85,7 @@ __all__ = [
     "TableRangeError",
     "UnknownOptionError",
     "bnpi_rear_ratio",
+    "buried_deep_enough",
     "failure_causes",
     "get_rules",
     "rule_names",

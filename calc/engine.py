@@ -496,7 +496,7 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
         ("seg_count must be >= 0", ~(a["seg_count"] >= 0)),
         (
             "seg_depth_m must exceed half the cable/duct diameter",
-            ~(a["seg_depth_m"] > np.where(lay == 1, design.duct_od_m, design.cable_od_m) / 2),
+            ~buried_deep_enough(a["seg_depth_m"], lay == 1, design),
         ),
     ):
         if np.any(bad):
@@ -1236,6 +1236,16 @@ def _strings_in_parallel(a: dict, is_str: np.ndarray, is_feed: np.ndarray) -> np
     out = n_par.astype(float).copy()
     out[s] = np.maximum(out[s], total[np.searchsorted(keys, _input_of(a, par[s]))])
     return out
+
+
+def buried_deep_enough(
+    depth_m: np.ndarray, in_duct: np.ndarray, design: DesignParams
+) -> np.ndarray:
+    """Whether each buried stretch lies deeper than half the outer diameter of what it holds
+    (``design.duct_od_m`` in a duct, else ``design.cable_od_m``): shallower, the cable or duct
+    is not buried and the depth factor has no meaning. nan depths are not deep enough."""
+    od_m = np.where(np.asarray(in_duct, dtype=bool), design.duct_od_m, design.cable_od_m)
+    return np.asarray(depth_m, dtype=float) > od_m / 2
 
 
 def _input_of(a: dict, feed: np.ndarray) -> np.ndarray:

@@ -452,9 +452,8 @@ def _shallow_trenches(segments: pd.DataFrame, dp: calc.DesignParams) -> list[Pro
     direct-buried circuit or a duct, ``cable_od_m`` / ``duct_od_m``): the cable would not be
     buried. One problem per trench, naming it."""
     duct = (segments["laying"] == "duct").to_numpy()
-    half = np.where(duct, dp.duct_od_m, dp.cable_od_m) / 2
     depth = segments["depth_m"].to_numpy(dtype=float)
-    bad = ~(depth > half)
+    bad = ~calc.buried_deep_enough(depth, duct, dp)
     problems = []
     seen: set[str] = set()
     for i in np.flatnonzero(bad).tolist():
@@ -468,7 +467,8 @@ def _shallow_trenches(segments: pd.DataFrame, dp: calc.DesignParams) -> list[Pro
                 "trenches",
                 tid,
                 f"depth_m {depth[i]:g} m does not exceed half the {what}'s outer diameter "
-                f"({2 * half[i]:g} m): the cable would not be buried",
+                f"({dp.duct_od_m if duct[i] else dp.cable_od_m:g} m): the cable would not be "
+                "buried",
             )
         )
     return problems
