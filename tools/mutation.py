@@ -117,7 +117,7 @@ TARGETS = {
         "routeplan/outputs/map_text.py",
         ("tests/map/test_map_text.py", "tests/map/test_map_text_paths.py"),
     ),
-    "diff": Target("routeplan/diff.py", ("tests/routeplan/test_diff_tables.py",)),
+    "diff": Target("routeplan/diff/", ("tests/routeplan/test_diff_tables.py",)),
     "pipeline": Target(
         "routeplan/pipeline.py",
         ("tests/routeplan/test_pipeline_tables.py",),

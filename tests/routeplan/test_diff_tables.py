@@ -14,7 +14,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from routeplan.diff import (
+from routeplan.diff.core import (
     CIRCUITS,
     QUANTITIES,
     SEGMENTS,

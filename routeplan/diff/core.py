@@ -25,8 +25,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .folder import OutputFolder, reading
-from .outputs.schedules import csv_guard, csv_unguard
+from ..folder import OutputFolder, reading
+from ..outputs.schedules import csv_guard, csv_unguard
 
 #: circuit fields compared, in report order (route, length, size, drop, status)
 CIRCUIT_FIELDS: tuple[str, ...] = (

@@ -1,0 +1,41 @@
+"""``routeplan diff``: what changed between two output folders of ``routeplan plan``."""
+
+from .core import (
+    CHANGES_FILE,
+    CIRCUIT_FIELDS,
+    CIRCUITS,
+    NUMBER_FIELDS,
+    QUANTITIES,
+    QUANTITY_KEYS,
+    SEGMENT_FIELDS,
+    SEGMENTS,
+    DiffError,
+    PlanDiff,
+    Table,
+    diff_outputs,
+    open_diff_folder,
+    parse_schedule,
+    read_plan,
+    read_schedule,
+    write_diff,
+)
+
+__all__ = [
+    "CHANGES_FILE",
+    "CIRCUITS",
+    "CIRCUIT_FIELDS",
+    "NUMBER_FIELDS",
+    "QUANTITIES",
+    "QUANTITY_KEYS",
+    "SEGMENTS",
+    "SEGMENT_FIELDS",
+    "DiffError",
+    "PlanDiff",
+    "Table",
+    "diff_outputs",
+    "open_diff_folder",
+    "parse_schedule",
+    "read_plan",
+    "read_schedule",
+    "write_diff",
+]
