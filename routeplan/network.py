@@ -177,9 +177,10 @@ class TrenchNetwork:
         ``(n_nodes, 2)`` node coordinates [m].
     segments : geopandas.GeoDataFrame
         One row per segment, ordered by trench then along it: ``segment_id``
-        (``<trench id>#<n>``), ``trench_id``, ``trench_index`` (row of the trenches frame),
-        ``node_u``, ``node_v`` (node at the start and end of the geometry), ``start_m``,
-        ``end_m`` (chainage along the trench part), ``length_m``, the trench attributes
+        (:func:`segment_ids`: ``<trench id>@<from>-<to>``), ``trench_id``, ``trench_index``
+        (row of the trenches frame), ``node_u``, ``node_v`` (node at the start and end of the
+        geometry), ``start_m``, ``end_m`` (chainage along the trench [m], see
+        :func:`segment_ids`), ``length_m``, the trench attributes
         ``depth_m``, ``laying``, ``spacing_m``, ``soil_k_m_w``, ``max_circuits`` (defaults
         filled in), and the LineString ``geometry`` from node_u to node_v.
     taps : geopandas.GeoDataFrame
@@ -716,16 +717,9 @@ def build_network(
 
     # --- segment table
     p_owner = owner[p_part]
-    n_seg = len(p_part)
-    grp_first = np.r_[True, p_owner[1:] != p_owner[:-1]] if n_seg else np.zeros(0, bool)
-    start = np.maximum.accumulate(np.where(grp_first, np.arange(n_seg), 0)) if n_seg else grp_first
-    number = np.arange(n_seg) - start + 1
-    count = np.bincount(p_owner, minlength=len(trenches))
-    width = np.strings.str_len(count.astype(str))  # digits of the trench's segment count
-    seg_ids = np.strings.add(
-        np.strings.add(trench_ids[p_owner].astype(StringDType()), "#"),
-        np.strings.zfill(number.astype(str).astype(StringDType()), width[p_owner]),
-    ).astype(object)
+    trench_at = _trench_offsets(owner, part_len)[p_part]  # the part's start along its trench
+    p_from, p_to = trench_at + p_a, trench_at + p_b
+    seg_ids = segment_ids(trench_ids[p_owner], p_from, p_to)
     segments = gpd.GeoDataFrame(
         {
             "segment_id": seg_ids,
@@ -733,8 +727,8 @@ def build_network(
             "trench_index": p_owner.astype(np.int64),
             "node_u": p_u,
             "node_v": p_v,
-            "start_m": p_a,
-            "end_m": p_b,
+            "start_m": p_from,
+            "end_m": p_to,
             "length_m": shapely.length(seg_geom),
             **{name: noded.attrs[name].to_numpy()[p_owner] for name in TRENCH_ATTRIBUTES},
         },
@@ -892,6 +886,63 @@ def _close_pairs(points: np.ndarray, xy: np.ndarray, tol: float) -> tuple[np.nda
 
 def _empty_equipment(crs: pyproj.CRS | None) -> gpd.GeoDataFrame:
     return gpd.GeoDataFrame({"layer": [], "feature_id": []}, geometry=[], crs=crs)
+
+
+#: decimals of the chainage in a segment id [m]: 0.1 m
+ID_DECIMALS = 1
+
+
+def _trench_offsets(owner: np.ndarray, part_len: np.ndarray) -> np.ndarray:
+    """Each part's start along its trench [m]: a multi-part trench's parts laid end to end in
+    their stored order (``owner`` is sorted: parts come trench by trench)."""
+    if len(owner) == 0:
+        return np.zeros(0)
+    cum = np.cumsum(part_len) - part_len  # every part's start in one run of all parts
+    first = np.r_[True, owner[1:] != owner[:-1]]
+    return cum - np.maximum.accumulate(np.where(first, cum, 0.0))
+
+
+def segment_ids(trench_ids: np.ndarray, from_m: np.ndarray, to_m: np.ndarray) -> np.ndarray:
+    """Stable trench segment ids: ``<trench id>@<from>-<to>``, the chainage of the segment's
+    ends along its trench in metres with one decimal (``T-W@110.0-133.5``).
+
+    Chainage runs from the trench's first vertex along its geometry (a multi-part trench's
+    parts end to end in their stored order). A segment keeps its id as long as its own
+    stretch of trench is unchanged: splitting one segment (a new stub, a new crossing) renames
+    only that segment. Two segments of one trench whose rounded chainages coincide (shorter
+    than 0.1 m) are written with millimetres (three decimals) instead. Rounding is half to
+    even. The trench id is everything before the last ``@``.
+
+    Parameters
+    ----------
+    trench_ids : numpy.ndarray
+        The trench id of each segment (text).
+    from_m, to_m : numpy.ndarray
+        Chainage of each segment's start and end along its trench [m].
+
+    Returns
+    -------
+    numpy.ndarray
+        Object array of ids.
+    """
+    tid = np.asarray(trench_ids).astype(StringDType())
+
+    def fmt(decimals: int) -> np.ndarray:
+        def one(v: np.ndarray) -> np.ndarray:
+            units = np.rint(np.asarray(v, dtype=float) * 10**decimals).astype(np.int64)
+            whole = (units // 10**decimals).astype(str).astype(StringDType())
+            frac = (units % 10**decimals).astype(str).astype(StringDType())
+            return np.strings.add(np.strings.add(whole, "."), np.strings.zfill(frac, decimals))
+
+        text = np.strings.add(np.strings.add(one(from_m), "-"), one(to_m))
+        return np.strings.add(np.strings.add(tid, "@"), text)
+
+    ids = fmt(ID_DECIMALS)
+    _, inverse, counts = np.unique(ids, return_inverse=True, return_counts=True)
+    twice = counts[inverse] > 1
+    if twice.any():
+        ids[twice] = fmt(3)[twice]
+    return ids.astype(object)
 
 
 def _pieces(

@@ -591,6 +591,8 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "group_factor": r.seg_group_factor,
             "cable_sets": sets,
             "subarrays": s["subarrays"].to_numpy(),
+            "from_m": s["start_m"].to_numpy(),
+            "to_m": s["end_m"].to_numpy(),
         }
     )
     return gpd.GeoDataFrame(frame, geometry=s.geometry.values, crs=s.crs)

@@ -95,7 +95,10 @@ CIRCUIT_COLUMNS: tuple[Col, ...] = (
 )
 
 SEGMENT_COLUMNS: tuple[Col, ...] = (
-    Col("segment_id", doc="<trench id>#<n>, numbered along the trench"),
+    Col(
+        "segment_id",
+        doc="<trench id>@<from>-<to>: chainage of the segment's ends along its trench [m, 0.1]",
+    ),
     Col("trench_id", doc="trench feature id"),
     Col("length_m", "m", 2, "segment length"),
     Col("circuits", doc="circuits in the segment (`cable_sets` counts parallel sets)"),
@@ -114,6 +117,8 @@ SEGMENT_COLUMNS: tuple[Col, ...] = (
     Col("group_factor", "", 3, "grouping factor in force for the segment's cable sets"),
     Col("cable_sets", doc="circuits counting each parallel set; used for grouping and fill"),
     Col("subarrays", doc="sub-array circuits"),
+    Col("from_m", "m", 2, "chainage of the segment's start along its trench"),
+    Col("to_m", "m", 2, "chainage of the segment's end along its trench"),
 )
 
 INPUT_COLUMNS: tuple[Col, ...] = (
