@@ -402,13 +402,14 @@ def diff(
     new_dir: Annotated[Path, typer.Argument(help="Output folder of the later plan.")],
     out_dir: Annotated[
         Path | None,
-        typer.Option("--out", "-o", help="Also write the changes (changes.csv) into this folder."),
+        typer.Option("--out", "-o", help="Also write every change (diff.csv) into this folder."),
     ] = None,
     force: ForceOption = False,
 ) -> None:
-    """Show circuits added, removed and changed, trench segments whose count changed, and the
-    quantities delta between two plans."""
-    from .diff import DiffError, diff_outputs, open_diff_folder, write_diff
+    """Show what changed between two plans: plant totals, circuits (their own changes first,
+    those that only follow from a circuit they feed summarised), trench segments matched
+    along their trench (split, merged, changed) and quantities, each old → new and delta."""
+    from .diff import DiffError, diff_lines, diff_outputs, open_diff_folder, write_diff
 
     folder = None
     if out_dir is not None:
@@ -423,34 +424,17 @@ def diff(
     except DiffError as exc:
         err.print(f"error: {exc}", markup=False)
         raise typer.Exit(2) from None
-    except FolderError as exc:  # changes.csv could not all be put in place
+    except FolderError as exc:  # diff.csv could not be put in place
         _fail_input(exc)
     except OSError as exc:
         _fail_os(exc, out_dir or Path("."))
     finally:
         if folder is not None:
             folder.close()
-    if d.empty:
-        out.print("no changes", markup=False)
-        return
-    for section, title in (
-        ("circuit", "circuits"),
-        ("segment", "trench segments"),
-        ("quantity", "quantities"),
-    ):
-        part = d.changes[d.changes["section"] == section]
-        if part.empty:
-            continue
-        counts = part.groupby("change")["id"].nunique().to_dict()
-        out.print(
-            f"{title}: " + ", ".join(f"{v} {k}" for k, v in sorted(counts.items())), markup=False
-        )
-        for rec in part.itertuples(index=False):
-            if rec.change == "changed":
-                out.print(f"  ~ {rec.id}: {rec.field} {rec.old} → {rec.new}", markup=False)
-            else:
-                sign = "+" if rec.change == "added" else "-"
-                out.print(f"  {sign} {rec.id}", markup=False)
+    for line in diff_lines(d):
+        out.print(line, markup=False)
+    if not d.empty:
+        out.print(CAUTION, markup=False)
 
 
 @app.command("map")

@@ -1,6 +1,15 @@
-"""``routeplan diff``: what changed between two output folders of ``routeplan plan``."""
+"""``routeplan diff``: what changed between two output folders of ``routeplan plan``.
 
+:mod:`.core` reads the output folders strictly and writes ``diff.csv``; :mod:`.compare`
+compares two plans; :mod:`.text` says it on the terminal.
+"""
+
+from pathlib import Path
+
+from ..folder import OutputFolder
+from .compare import PlanDiff, diff_outputs
 from .core import (
+    CHANGE_COLUMNS,
     CHANGES_FILE,
     CIRCUIT_FIELDS,
     CIRCUITS,
@@ -10,18 +19,25 @@ from .core import (
     SEGMENT_FIELDS,
     SEGMENTS,
     DiffError,
-    PlanDiff,
     Table,
-    diff_outputs,
     open_diff_folder,
     parse_schedule,
     read_plan,
     read_schedule,
-    write_diff,
+    write_changes,
 )
+from .text import diff_lines
+
+
+def write_diff(diff: PlanDiff, out: Path | str | OutputFolder) -> Path:
+    """Write ``diff.csv`` (one line per change) into ``out``
+    (:func:`routeplan.diff.core.write_changes`)."""
+    return write_changes(diff.changes, out)
+
 
 __all__ = [
     "CHANGES_FILE",
+    "CHANGE_COLUMNS",
     "CIRCUITS",
     "CIRCUIT_FIELDS",
     "NUMBER_FIELDS",
@@ -32,6 +48,7 @@ __all__ = [
     "DiffError",
     "PlanDiff",
     "Table",
+    "diff_lines",
     "diff_outputs",
     "open_diff_folder",
     "parse_schedule",

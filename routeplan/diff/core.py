@@ -25,11 +25,14 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..folder import OutputFolder, reading
+from ..folder import OutputFolder
 from ..outputs.schedules import csv_guard, csv_unguard
 
-#: circuit fields compared, in report order (route, length, size, drop, status)
-CIRCUIT_FIELDS: tuple[str, ...] = (
+#: circuit fields compared, in report order: where the circuit goes and how (its route, its
+#: cable), whether it passes; then what follows from them (protection, current, capacity and
+#: its derating and grouping, utilisation, drop, losses); last the cumulative DC drop, which
+#: changes with the circuits downstream
+ROUTE_FIELDS: tuple[str, ...] = (
     "to_id",
     "trench_segments",
     "route_m",
@@ -37,11 +40,38 @@ CIRCUIT_FIELDS: tuple[str, ...] = (
     "material",
     "size_mm2",
     "parallel",
-    "vdrop_pct",
-    "vdrop_total_pct",
     "status",
 )
-SEGMENT_FIELDS: tuple[str, ...] = ("circuits", "strings", "subarrays", "arrays", "ac", "status")
+VALUE_FIELDS: tuple[str, ...] = (
+    "protection",
+    "fuse_a",
+    "array_fuse_a",
+    "ac_breaker_a",
+    "design_current_a",
+    "ampacity_a",
+    "derating",
+    "group_count",
+    "group_max",
+    "utilisation",
+    "vdrop_pct",
+    "loss_w",
+)
+CUMULATIVE_FIELDS: tuple[str, ...] = ("vdrop_total_pct",)
+CIRCUIT_FIELDS: tuple[str, ...] = ROUTE_FIELDS + VALUE_FIELDS + CUMULATIVE_FIELDS
+#: trench segment fields compared (a segment with the same id in both plans)
+SEGMENT_FIELDS: tuple[str, ...] = (
+    "length_m",
+    "circuits",
+    "strings",
+    "subarrays",
+    "arrays",
+    "ac",
+    "cable_sets",
+    "max_circuits",
+    "fill",
+    "group_factor",
+    "status",
+)
 QUANTITY_KEYS: tuple[str, ...] = (
     "item",
     "kind",
@@ -58,13 +88,30 @@ NUMBER_FIELDS: frozenset[str] = frozenset(
         "cable_m",
         "size_mm2",
         "parallel",
+        "fuse_a",
+        "array_fuse_a",
+        "ac_breaker_a",
+        "design_current_a",
+        "ampacity_a",
+        "derating",
+        "group_count",
+        "group_max",
+        "utilisation",
         "vdrop_pct",
         "vdrop_total_pct",
+        "loss_w",
+        "length_m",
+        "from_m",
+        "to_m",
         "circuits",
         "strings",
         "subarrays",
         "arrays",
         "ac",
+        "cable_sets",
+        "max_circuits",
+        "fill",
+        "group_factor",
         "depth_m",
         "quantity",
     }
@@ -84,40 +131,32 @@ class Table:
     key: tuple[str, ...]
     fields: tuple[str, ...]
     filled: tuple[str, ...] = ()
-    #: columns a schedule of an earlier version lacks, with the value they stand for there
-    added_later: tuple[tuple[str, str], ...] = ()
 
     @property
     def columns(self) -> tuple[str, ...]:
         return self.key + tuple(f for f in self.fields if f not in self.key)
 
 
-CIRCUITS = Table("cable_schedule.csv", ("circuit_id",), ("kind", *CIRCUIT_FIELDS), ("kind",))
-#: ``subarrays``: sub-array cables came after routeplan 0.1.0 (its schedules have none)
-SEGMENTS = Table("trench_schedule.csv", ("segment_id",), SEGMENT_FIELDS, (), (("subarrays", "0"),))
+CIRCUITS = Table(
+    "cable_schedule.csv", ("circuit_id",), ("kind", "from_id", *CIRCUIT_FIELDS), ("kind",)
+)
+#: ``from_m``, ``to_m``: a schedule without them numbered its segments, which cannot be matched
+SEGMENTS = Table(
+    "trench_schedule.csv",
+    ("segment_id",),
+    ("trench_id", "from_m", "to_m", *SEGMENT_FIELDS),
+    ("trench_id", "from_m", "to_m", "length_m"),
+)
 QUANTITIES = Table("quantities.csv", QUANTITY_KEYS, ("quantity",), ("quantity",))
-
-
-@dataclass(frozen=True)
-class PlanDiff:
-    """Changes between two plans. ``changes`` has one line per changed value.
-
-    Columns of ``changes``: ``section`` (circuit, segment, quantity), ``id``, ``change``
-    (added, removed, changed), ``field``, ``old``, ``new``.
-    """
-
-    changes: pd.DataFrame
-
-    def ids(self, section: str, change: str | None = None) -> list[str]:
-        """Sorted unique ids of a section (optionally one kind of change)."""
-        c = self.changes[self.changes["section"] == section]
-        if change:
-            c = c[c["change"] == change]
-        return sorted(set(c["id"]))
-
-    @property
-    def empty(self) -> bool:
-        return self.changes.empty
+_EARLIER = (
+    "made by an earlier routeplan, which numbered trench segments and compared fewer values: "
+    "plan that site again with this version to compare"
+)
+#: columns an earlier version's schedules lack, and what to do about it
+EARLIER_LACKS: dict[str, str] = {
+    c: _EARLIER
+    for c in ("from_m", "to_m", "subarrays", "cable_sets", "group_factor", "fuse_a", "protection")
+}
 
 
 def read_schedule(folder: Path, table: Table) -> pd.DataFrame:
@@ -151,20 +190,18 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
         header = next(reader)
     except csv.Error as exc:
         raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
-    later = dict(table.added_later)
-    missing = [c for c in table.columns if c not in header and c not in later]
+    missing = [c for c in table.columns if c not in header]
     if missing:
         names = ", ".join(missing)
+        if set(missing) & set(EARLIER_LACKS):
+            why = EARLIER_LACKS[next(c for c in missing if c in EARLIER_LACKS)]
+            raise DiffError(f"{where}: no column {names}: {why}")
         raise DiffError(f"{where}: no column {names} (a schedule of 'routeplan plan' has it)")
     twice = sorted({c for c in header if header.count(c) > 1})
     if twice:
         raise DiffError(f"{where}: column {', '.join(twice)} appears more than once")
     width = len(header)
-    absent = [c for c in table.columns if c not in header]
-    if absent:  # an earlier version's schedule: stand-in values at the end of each record
-        header = header + absent
     pick = operator.itemgetter(*(header.index(c) for c in table.columns))
-    fill = [later[c] for c in absent]
     kept: list[tuple[str, ...]] = []  # the fields needed, record by record (the rest dropped)
     blank = -1  # the first blank line's record, when only blank lines followed it so far
     try:
@@ -182,7 +219,7 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
                     f"{where}: line {_line(text, blank)}: 0 fields where the header has "
                     f"{width} (truncated or not a schedule)"
                 )
-            kept.append(pick(record + fill) if fill else pick(record))
+            kept.append(pick(record))
     except csv.Error as exc:
         raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
     frame = pd.DataFrame(
@@ -257,18 +294,67 @@ def _check_unique(frame: pd.DataFrame, table: Table, where: str, text: str) -> N
     raise DiffError(f"{where}: {', '.join(key)} {value!r} on lines {lines[0]} and {lines[1]}")
 
 
-def _check_counts(folder: Path, circuits: pd.DataFrame, segments: pd.DataFrame) -> None:
-    """Rows per circuit kind and trench segments as ``summary.json`` counts them (a file cut
-    at a line end looks sound otherwise). Skipped when the folder has no ``summary.json``."""
+#: what ``diff`` reads from ``summary.json``: (path of keys, what it is)
+SUMMARY_KEYS: tuple[tuple[str, ...], ...] = (
+    ("tool", "name"),
+    ("tool", "version"),
+    ("circuits",),
+    ("segments", "count"),
+    ("segments", "over_capacity"),
+    ("segments", "trench_m"),
+    ("inverter_inputs", "over_limit"),
+    ("cable_m_total",),
+    ("loss_w_total",),
+    ("energy_loss_kwh_total",),
+)
+
+
+def read_summary(folder: Path) -> dict:
+    """``summary.json`` of an output folder, with the keys ``diff`` uses checked: written by
+    routeplan, numbers where numbers belong. Raises :class:`DiffError` naming the file and
+    the key."""
     path = folder / "summary.json"
     if not path.is_file():
-        return
+        raise DiffError(f"{folder}: no summary.json (is it an output folder of 'routeplan plan'?)")
     try:
         summary = json.loads(path.read_text(encoding="utf-8"))
-        expected = {k: int(v["circuits"]) for k, v in summary["circuits"].items()}
-        n_segments = int(summary["segments"]["count"])
-    except (OSError, ValueError, KeyError, TypeError, AttributeError) as exc:
+    except (OSError, ValueError) as exc:
         raise DiffError(f"{path}: unreadable ({type(exc).__name__}: {exc})") from None
+    for keys in SUMMARY_KEYS:
+        value = summary
+        for k in keys:
+            if not isinstance(value, dict) or k not in value:
+                raise DiffError(
+                    f"{path}: no key {'.'.join(keys)} (not a summary of 'routeplan plan')"
+                )
+            value = value[k]
+    if summary["tool"]["name"] != "routeplan":
+        raise DiffError(f"{path}: tool.name is {summary['tool']['name']!r}, not 'routeplan'")
+    circuits = summary["circuits"]
+    numbers = [
+        (f"circuits.{k}.{f}", v.get(f) if isinstance(v, dict) else None)
+        for k, v in circuits.items()
+        for f in ("circuits", "fail")
+    ]
+    numbers += [(".".join(keys), _get(summary, keys)) for keys in SUMMARY_KEYS[3:]]
+    for name, v in numbers:
+        if isinstance(v, bool) or not isinstance(v, int | float) or not np.isfinite(v):
+            raise DiffError(f"{path}: {name} is {v!r}, not a number")
+    return summary
+
+
+def _get(data: dict, keys: tuple[str, ...]) -> object:
+    for k in keys:
+        data = data[k]
+    return data
+
+
+def _check_counts(
+    folder: Path, summary: dict, circuits: pd.DataFrame, segments: pd.DataFrame
+) -> None:
+    """Rows per circuit kind and trench segments as ``summary.json`` counts them (a file cut
+    at a line end looks sound otherwise)."""
+    expected = {k: int(v["circuits"]) for k, v in summary["circuits"].items()}
     got = circuits["kind"].value_counts().to_dict()
     for kind in sorted(set(expected) | set(got)):
         if got.get(kind, 0) != expected.get(kind, 0):
@@ -276,6 +362,7 @@ def _check_counts(folder: Path, circuits: pd.DataFrame, segments: pd.DataFrame) 
                 f"{folder / CIRCUITS.name}: {got.get(kind, 0)} {kind} circuits where "
                 f"summary.json counts {expected.get(kind, 0)} (truncated or edited?)"
             )
+    n_segments = int(summary["segments"]["count"])
     if len(segments) != n_segments:
         raise DiffError(
             f"{folder / SEGMENTS.name}: {len(segments)} trench segments where summary.json "
@@ -283,87 +370,41 @@ def _check_counts(folder: Path, circuits: pd.DataFrame, segments: pd.DataFrame) 
         )
 
 
-def _compare(old: pd.DataFrame, new: pd.DataFrame, key: str, fields, section: str) -> list[dict]:
-    rows: list[dict] = []
-    o = old.set_index(key)
-    n = new.set_index(key)
-    for k in sorted(set(n.index) - set(o.index)):
-        rows.append(dict(section=section, id=k, change="added", field="", old="", new=""))
-    for k in sorted(set(o.index) - set(n.index)):
-        rows.append(dict(section=section, id=k, change="removed", field="", old="", new=""))
-    common = sorted(set(o.index) & set(n.index))
-    if common:
-        fields = list(fields)
-        a = o.loc[common, fields]
-        b = n.loc[common, fields]
-        diff = a.ne(b)
-        for k, f in zip(*diff.to_numpy().nonzero(), strict=True):
-            cid = common[k]
-            field = fields[f]
-            rows.append(
-                dict(
-                    section=section,
-                    id=cid,
-                    change="changed",
-                    field=field,
-                    old=a.iloc[k, f],
-                    new=b.iloc[k, f],
-                )
-            )
-    return rows
-
-
-def read_plan(folder: Path | str) -> dict[str, pd.DataFrame]:
-    """The three schedules of an output folder, checked (:func:`read_schedule`) and
-    cross-checked against its ``summary.json``."""
+def read_plan(folder: Path | str) -> dict:
+    """The three schedules of an output folder (``circuits``, ``segments``, ``quantities``),
+    checked (:func:`read_schedule`), and its ``summary`` (:func:`read_summary`), the
+    schedules cross-checked against it."""
     folder = Path(folder)
+    if not folder.is_dir():
+        raise DiffError(f"{folder}: no such folder")
+    summary = read_summary(folder)
     circuits = read_schedule(folder, CIRCUITS)
     segments = read_schedule(folder, SEGMENTS)
     quantities = read_schedule(folder, QUANTITIES)
-    _check_counts(folder, circuits, segments)
-    return {"circuits": circuits, "segments": segments, "quantities": quantities}
-
-
-def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
-    """Compare the schedules in two output folders. Raises :class:`DiffError` when a folder
-    or one of its schedules is missing or damaged."""
-    with reading(old_dir), reading(new_dir):  # a run killed mid-commit completed first
-        old, new = read_plan(old_dir), read_plan(new_dir)
-    rows = _compare(old["circuits"], new["circuits"], "circuit_id", CIRCUIT_FIELDS, "circuit")
-    rows += _compare(old["segments"], new["segments"], "segment_id", SEGMENT_FIELDS, "segment")
-    rows += _quantity_delta(old["quantities"], new["quantities"])
-    changes = pd.DataFrame(rows, columns=["section", "id", "change", "field", "old", "new"])
-    return PlanDiff(changes)
-
-
-def _quantity_delta(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
-    keys = list(QUANTITY_KEYS)
-
-    def by_key(frame: pd.DataFrame) -> dict[tuple[str, ...], float]:
-        values = pd.to_numeric(frame["quantity"]).to_numpy(dtype=float).tolist()
-        return dict(zip(frame[keys].itertuples(index=False, name=None), values, strict=True))
-
-    a, b = by_key(old), by_key(new)
-    rows = []
-    for k in sorted(set(a) | set(b)):
-        va, vb = a.get(k, 0.0), b.get(k, 0.0)
-        if round(va - vb, 2) != 0:
-            change = "added" if k not in a else "removed" if k not in b else "changed"
-            rows.append(
-                dict(
-                    section="quantity",
-                    id=" ".join(v for v in k if v),
-                    change=change,
-                    field="quantity",
-                    old=f"{va:.2f}",
-                    new=f"{vb:.2f}",
-                )
-            )
-    return rows
+    _check_counts(folder, summary, circuits, segments)
+    return {
+        "circuits": circuits,
+        "segments": segments,
+        "quantities": quantities,
+        "summary": summary,
+    }
 
 
 #: the file ``routeplan diff --out DIR`` writes into DIR
-CHANGES_FILE = "changes.csv"
+CHANGES_FILE = "diff.csv"
+#: columns of ``diff.csv``
+CHANGE_COLUMNS: tuple[str, ...] = (
+    "section",
+    "id",
+    "change",
+    "field",
+    "old",
+    "new",
+    "delta",
+    "scope",
+    "cause",
+    "note",
+)
 
 
 def open_diff_folder(out_dir: Path | str, *, force: bool = False) -> OutputFolder:
@@ -373,18 +414,19 @@ def open_diff_folder(out_dir: Path | str, *, force: bool = False) -> OutputFolde
     return OutputFolder.open(out_dir, "diff", force=force, expect=(CHANGES_FILE,))
 
 
-def write_diff(diff: PlanDiff, out: Path | str | OutputFolder) -> Path:
-    """Write the changes as ``changes.csv`` into the output folder ``out`` (an open one, or
-    a path opened with :func:`open_diff_folder`). Returns the file written. Text a
-    spreadsheet would take for a formula (ids, and the old and new values of text fields) is
-    guarded as in the schedules (:func:`routeplan.outputs.schedules.csv_guard`), numbers
-    are not."""
+def write_changes(changes: pd.DataFrame, out: Path | str | OutputFolder) -> Path:
+    """Write ``changes`` (columns :data:`CHANGE_COLUMNS`) as ``diff.csv`` into the output
+    folder ``out`` (an open one, or a path opened with :func:`open_diff_folder`). Returns the
+    file written. Text a spreadsheet would take for a formula (ids, the old and new values of
+    text fields, causes and notes) is guarded as in the schedules
+    (:func:`routeplan.outputs.schedules.csv_guard`); numbers are not."""
     if not isinstance(out, OutputFolder):
         with open_diff_folder(out) as folder:
-            return write_diff(diff, folder)
-    table = diff.changes.copy()
+            return write_changes(changes, folder)
+    table = changes.loc[:, list(CHANGE_COLUMNS)].copy()
     text = ~table["field"].isin(NUMBER_FIELDS).to_numpy(dtype=bool)
-    for c, rows in (("id", np.ones(len(table), dtype=bool)), ("old", text), ("new", text)):
+    every = np.ones(len(table), dtype=bool)
+    for c, rows in (("id", every), ("old", text), ("new", text), ("cause", every), ("note", every)):
         cells = csv_guard([str(v).encode("utf-8") for v in table.loc[rows, c]])
         table.loc[rows, c] = [v.decode("utf-8") for v in cells]
     table.to_csv(out.work / CHANGES_FILE, index=False, lineterminator="\n", encoding="utf-8")

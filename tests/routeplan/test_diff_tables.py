@@ -14,14 +14,13 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from routeplan.diff.core import (
+from routeplan.diff import (
     CIRCUITS,
     QUANTITIES,
     SEGMENTS,
     DiffError,
     PlanDiff,
     Table,
-    _quantity_delta,
     diff_outputs,
     open_diff_folder,
     parse_schedule,
@@ -29,6 +28,7 @@ from routeplan.diff.core import (
     read_schedule,
     write_diff,
 )
+from routeplan.diff.compare import quantity_rows
 from routeplan.errors import FolderError
 
 CIRCUIT_HEADER = [
@@ -430,7 +430,7 @@ def test_quantities_compare_as_binary64_numbers():
         QUANTITIES,
         "b",
     )
-    assert _quantity_delta(old, new) == []
+    assert quantity_rows(old, new) == []
 
 
 def test_a_kind_counted_zero_in_summary_json_with_no_rows(tmp_path):

@@ -1,0 +1,577 @@
+"""The comparison of two plans: circuits, trench segments (matched by their place along the
+trench), the bill of quantities and the plant-level totals.
+
+Circuits are matched by id. Each changed circuit gets a *scope*:
+
+* ``route`` — the circuit itself changed where it goes or how it is built: added, removed,
+  destination, route (the stretches of trench it follows, compared as merged chainage
+  intervals, so that a segment split under it is no change), route or cable length, material,
+  size, parallel sets, or status;
+* ``value`` — its route and cable are the same, but a value computed for it changed:
+  protection, design current, capacity, derating or grouping, utilisation, its own drop,
+  losses (usually because other circuits joined or left a trench it shares);
+* ``follows`` — only its cumulative DC drop changed, which follows from a circuit it feeds
+  (a string after its array cable changed). Its *cause* is the nearest circuit downstream of
+  it whose own route or values changed (empty when none did: a changed setting).
+
+Trench segments of the same trench are matched by the overlap of their chainage intervals
+(``from_m``–``to_m``, more than :data:`OVERLAP_M`): a segment with the same id in both plans
+is compared field by field; one old segment overlapping several new ones, and nothing else,
+was *split*; several old ones into one new one were *merged*; other overlaps *reshaped* the
+trench; a segment that overlaps nothing was *added* or *removed*.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from scipy import sparse
+from scipy.sparse import csgraph
+
+from ..folder import reading
+from ..outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
+from .core import (
+    CHANGE_COLUMNS,
+    CIRCUIT_FIELDS,
+    NUMBER_FIELDS,
+    QUANTITY_KEYS,
+    ROUTE_FIELDS,
+    SEGMENT_FIELDS,
+    VALUE_FIELDS,
+    read_plan,
+)
+
+#: least overlap of two segments' chainage intervals that matches them [m] (half the 0.1 m of
+#: the ids' chainage)
+OVERLAP_M = 0.05
+#: decimals of each number column, as the schedules write them (the delta keeps them)
+DECIMALS: dict[str, int] = {
+    c.name: (c.decimals if c.decimals is not None else 0)
+    for c in (*CIRCUIT_COLUMNS, *SEGMENT_COLUMNS)
+}
+DECIMALS["quantity"] = 2
+#: circuit columns of :attr:`PlanDiff.circuits`
+CIRCUIT_ROWS: tuple[str, ...] = (
+    "circuit_id",
+    "kind",
+    "change",
+    "look",
+    "scope",
+    "cause",
+    "summary",
+)
+#: columns of :attr:`PlanDiff.segments`
+SEGMENT_ROWS: tuple[str, ...] = ("event", "trench_id", "old_ids", "new_ids", "text")
+#: columns of :attr:`PlanDiff.plant`
+PLANT_ROWS: tuple[str, ...] = ("item", "unit", "old", "new", "delta")
+
+
+@dataclass(frozen=True)
+class PlanDiff:
+    """What changed from one plan (``old_dir``) to another (``new_dir``).
+
+    Attributes
+    ----------
+    changes : pandas.DataFrame
+        One line per change (``diff.csv``), columns :data:`routeplan.diff.core.CHANGE_COLUMNS`:
+        ``section`` (circuit, segment, quantity, plant), ``id``, ``change`` (added, removed,
+        changed; for segments also split, merged, reshaped), ``field``, ``old``, ``new``,
+        ``delta`` (new − old, for numbers), ``scope`` and ``cause`` (circuits, see the
+        module), ``note``. Circuits in the order route, value, follows.
+    circuits : pandas.DataFrame
+        One row per changed circuit: ``circuit_id``, ``kind``, ``change``, ``look`` (added,
+        removed, now failing, now passing, size up, size down, longer, shorter, other),
+        ``scope``, ``cause``, ``summary`` (one line).
+    segments : pandas.DataFrame
+        One row per trench-segment event: ``event``, ``trench_id``, ``old_ids``, ``new_ids``
+        (tuples of ids), ``text`` (one line).
+    plant : pandas.DataFrame
+        The plant-level block: ``item``, ``unit``, ``old``, ``new``, ``delta`` (floats).
+    """
+
+    old_dir: Path
+    new_dir: Path
+    changes: pd.DataFrame
+    circuits: pd.DataFrame
+    segments: pd.DataFrame
+    plant: pd.DataFrame
+
+    def ids(self, section: str, change: str | None = None) -> list[str]:
+        """Sorted unique ids of a section (optionally one kind of change)."""
+        c = self.changes[self.changes["section"] == section]
+        if change:
+            c = c[c["change"] == change]
+        return sorted(set(c["id"]))
+
+    @property
+    def empty(self) -> bool:
+        """Whether nothing changed."""
+        return self.changes.empty
+
+
+def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
+    """Compare two output folders of ``routeplan plan``. Raises
+    :class:`routeplan.diff.core.DiffError` (one line naming the file, and the line, column or
+    key) when a folder, a schedule or its summary is missing, damaged or of an earlier
+    version."""
+    old_dir, new_dir = Path(old_dir), Path(new_dir)
+    with reading(old_dir), reading(new_dir):  # a run killed mid-commit completed first
+        old, new = read_plan(old_dir), read_plan(new_dir)
+    circuit_rows, circuits = compare_circuits(
+        old["circuits"], new["circuits"], old["segments"], new["segments"]
+    )
+    segment_rows, segments = compare_segments(old["segments"], new["segments"])
+    plant = plant_block(old, new)
+    rows = [
+        *circuit_rows,
+        *segment_rows,
+        *quantity_rows(old["quantities"], new["quantities"]),
+        *_plant_rows(plant),
+    ]
+    changes = pd.DataFrame(rows, columns=list(CHANGE_COLUMNS)).fillna("")
+    return PlanDiff(old_dir, new_dir, changes, circuits, segments, plant)
+
+
+# -- numbers ---------------------------------------------------------------------------------
+def _delta(old: str, new: str, field: str) -> str:
+    """``new - old`` with the column's decimals and a sign; empty for text or an empty cell."""
+    if field not in NUMBER_FIELDS or old == "" or new == "":
+        return ""
+    d = DECIMALS.get(field, 2)
+    value = round(float(new) - float(old), d)
+    return f"{value + 0.0:+.{d}f}"  # + 0.0: no "-0.00"
+
+
+def _row(
+    section: str,
+    id_: str,
+    change: str,
+    field: str = "",
+    old: str = "",
+    new: str = "",
+    scope: str = "",
+    cause: str = "",
+    note: str = "",
+) -> dict:
+    return dict(
+        section=section,
+        id=id_,
+        change=change,
+        field=field,
+        old=old,
+        new=new,
+        delta=_delta(old, new, field),
+        scope=scope,
+        cause=cause,
+        note=note,
+    )
+
+
+# -- circuits --------------------------------------------------------------------------------
+def compare_circuits(
+    old: pd.DataFrame, new: pd.DataFrame, old_seg: pd.DataFrame, new_seg: pd.DataFrame
+) -> tuple[list[dict], pd.DataFrame]:
+    """The circuit lines of ``diff.csv`` (ranked: scope route, value, follows; then by id) and
+    :attr:`PlanDiff.circuits`. Schedules as :func:`routeplan.diff.core.read_plan` reads them."""
+    o, n = old.set_index("circuit_id"), new.set_index("circuit_id")
+    added = sorted(set(n.index) - set(o.index))
+    removed = sorted(set(o.index) - set(n.index))
+    common = sorted(set(o.index) & set(n.index))
+    fields = list(CIRCUIT_FIELDS)
+    a, b = o.loc[common, fields], n.loc[common, fields]
+    ne = a.ne(b).to_numpy()
+    j = fields.index("trench_segments")
+    differ = np.flatnonzero(ne[:, j])
+    if len(differ):
+        old_cover = _coverage(a.iloc[differ, j].tolist(), old_seg)
+        new_cover = _coverage(b.iloc[differ, j].tolist(), new_seg)
+        ne[differ, j] = [x != y for x, y in zip(old_cover, new_cover, strict=True)]
+    changed = np.flatnonzero(ne.any(axis=1))
+    idx = {f: fields.index(f) for f in fields}
+    on_route = ne[:, [idx[f] for f in ROUTE_FIELDS]].any(axis=1)
+    on_value = ne[:, [idx[f] for f in VALUE_FIELDS]].any(axis=1)
+    scope = np.where(on_route, "route", np.where(on_value, "value", "follows"))
+    changed_ids = [common[k] for k in changed]
+    cause = _causes(
+        new, changed_ids, scope[changed], dict(zip(changed_ids, scope[changed], strict=True))
+    )
+
+    table: list[dict] = []
+    lines: dict[str, list[dict]] = {"route": [], "value": [], "follows": []}
+    kind_new, kind_old = n["kind"].to_dict(), o["kind"].to_dict()
+    for cid in added:
+        lines["route"].append(_row("circuit", cid, "added", scope="route"))
+        table.append(
+            dict(
+                circuit_id=cid,
+                kind=kind_new[cid],
+                change="added",
+                look="added",
+                scope="route",
+                cause="",
+                summary=f"new {kind_new[cid]} circuit",
+            )
+        )
+    for cid in removed:
+        lines["route"].append(_row("circuit", cid, "removed", scope="route"))
+        table.append(
+            dict(
+                circuit_id=cid,
+                kind=kind_old[cid],
+                change="removed",
+                look="removed",
+                scope="route",
+                cause="",
+                summary=f"{kind_old[cid]} circuit removed",
+            )
+        )
+    av, bv = a.to_numpy(dtype=object), b.to_numpy(dtype=object)
+    for k, why in zip(changed.tolist(), cause, strict=True):
+        cid, sc = common[k], str(scope[k])
+        mine = [
+            _row("circuit", cid, "changed", fields[f], av[k, f], bv[k, f], sc, why)
+            for f in np.flatnonzero(ne[k]).tolist()
+        ]
+        lines[sc].extend(mine)
+        table.append(
+            dict(
+                circuit_id=cid,
+                kind=kind_new[cid],
+                change="changed",
+                look=_look({r["field"]: r for r in mine}),
+                scope=sc,
+                cause=why,
+                summary=_summary(mine),
+            )
+        )
+    frame = pd.DataFrame(table, columns=list(CIRCUIT_ROWS))
+    return [*lines["route"], *lines["value"], *lines["follows"]], frame
+
+
+#: the fields a circuit's one-line summary names first
+_TOLD_FIRST = ("status", "size_mm2", "parallel", "material", "route_m", "to_id", "trench_segments")
+
+
+def _summary(rows: list[dict]) -> str:
+    """A changed circuit in one line: its three weightiest changes (a changed route is only
+    named: its segment ids are in diff.csv)."""
+    rank = {f: k for k, f in enumerate(_TOLD_FIRST)}
+    told = sorted(rows, key=lambda r: rank.get(r["field"], len(rank)))
+    parts = ["other trench stretches" if r["field"] == "trench_segments" else _say(r) for r in told]
+    return "; ".join(parts[:3]) + ("; …" if len(parts) > 3 else "")
+
+
+def _say(row: dict) -> str:
+    """One change as text: ``route_m 70.00 → 78.50 (+8.50)``."""
+    delta = f" ({row['delta']})" if row["delta"] else ""
+    return f"{row['field']} {row['old'] or '-'} → {row['new'] or '-'}{delta}"
+
+
+def _look(fields: dict[str, dict]) -> str:
+    """What a changed circuit looks like on the change map (the weightiest change)."""
+    status = fields.get("status")
+    if status is not None:
+        return "now failing" if status["new"] == "fail" else "now passing"
+    if {"size_mm2", "parallel", "material"} & set(fields):
+        old = _section(fields, "old")
+        new = _section(fields, "new")
+        if new != old:
+            return "size up" if new > old else "size down"
+    route = fields.get("route_m")
+    if route is not None and route["delta"]:
+        return "longer" if float(route["delta"]) > 0 else "shorter"
+    return "other"
+
+
+def _section(fields: dict[str, dict], which: str) -> float:
+    """Total conductor cross-section per pole (size × parallel) [mm²], where both changed
+    fields are known; NaN otherwise (a material change alone is no size change)."""
+    size, par = fields.get("size_mm2"), fields.get("parallel")
+    try:
+        s = float(size[which]) if size else np.nan
+        p = float(par[which]) if par else np.nan
+    except ValueError:
+        return np.nan
+    if size and par:
+        return s * p
+    return s if size else p
+
+
+def _coverage(texts: list[str], segments: pd.DataFrame) -> list[frozenset]:
+    """The stretches of trench each route (``trench_segments`` text) covers: its segments'
+    chainage intervals, adjacent ones merged, as a set of (trench, from, to) with 0.1 m."""
+    where = dict(
+        zip(
+            segments["segment_id"].tolist(),
+            zip(
+                segments["trench_id"].tolist(),
+                segments["from_m"].astype(float).tolist(),
+                segments["to_m"].astype(float).tolist(),
+                strict=True,
+            ),
+            strict=True,
+        )
+    )
+    out = []
+    for text in texts:
+        spans = sorted(where.get(s, (s, np.nan, np.nan)) for s in text.split(";") if s)
+        merged: list[list] = []
+        for t, lo, hi in spans:
+            if merged and merged[-1][0] == t and abs(lo - merged[-1][2]) <= OVERLAP_M:
+                merged[-1][2] = hi
+            else:
+                merged.append([t, lo, hi])
+        out.append(frozenset((t, round(lo, 1), round(hi, 1)) for t, lo, hi in merged))
+    return out
+
+
+def _causes(
+    new: pd.DataFrame, ids: list[str], scope: np.ndarray, scope_of: dict[str, str]
+) -> list[str]:
+    """For each changed circuit of scope ``follows``: the nearest circuit it feeds (the
+    circuit leaving the equipment it lands on, in the new plan) whose own route or values
+    changed; '' for the others and where none did."""
+    feeds = new[new["kind"].isin(("subarray", "array"))]
+    out_of = dict(zip(feeds["from_id"], feeds["circuit_id"], strict=True))
+    lands = dict(zip(new["circuit_id"], new["to_id"], strict=True))
+    causes = []
+    for cid, sc in zip(ids, scope, strict=True):
+        cause = ""
+        if sc == "follows":
+            seen = {cid}
+            nxt = out_of.get(lands.get(cid, ""))
+            while nxt is not None and nxt not in seen:
+                if scope_of.get(nxt) in ("route", "value"):
+                    cause = nxt
+                    break
+                seen.add(nxt)
+                nxt = out_of.get(lands.get(nxt, ""))
+        causes.append(cause)
+    return causes
+
+
+# -- trench segments -------------------------------------------------------------------------
+def compare_segments(old: pd.DataFrame, new: pd.DataFrame) -> tuple[list[dict], pd.DataFrame]:
+    """The segment lines of ``diff.csv`` and :attr:`PlanDiff.segments` (see the module)."""
+    n_old, n_new = len(old), len(new)
+    i, j = _overlaps(old, new)
+    graph = sparse.coo_matrix(
+        (np.ones(len(i), dtype=np.int8), (i, n_old + j)), shape=(n_old + n_new,) * 2
+    )
+    _, label = csgraph.connected_components(graph, directed=False)
+    olds = pd.Series(np.arange(n_old)).groupby(label[:n_old]).agg(list)
+    news = pd.Series(np.arange(n_new)).groupby(label[n_old:]).agg(list)
+    oid, nid = old["segment_id"].to_numpy(dtype=object), new["segment_id"].to_numpy(dtype=object)
+    rows: list[dict] = []
+    events: list[dict] = []
+    same_o, same_n = [], []
+    for comp in sorted(
+        set(olds.index) | set(news.index), key=lambda c: _first_id(c, olds, news, oid, nid)
+    ):
+        po, pn = olds.get(comp, []), news.get(comp, [])
+        if len(po) == 1 and len(pn) == 1 and oid[po[0]] == nid[pn[0]]:
+            same_o.append(po[0])
+            same_n.append(pn[0])
+            continue
+        rows_, event = _event(old, new, po, pn)
+        rows += rows_
+        events.append(event)
+    rows += _same_segments(old.iloc[same_o], new.iloc[same_n], events)
+    return rows, pd.DataFrame(events, columns=list(SEGMENT_ROWS))
+
+
+def _first_id(comp, olds, news, oid, nid) -> tuple[str, str]:
+    """Sort key of a matched group: its first old id, else its first new id."""
+    po, pn = olds.get(comp, []), news.get(comp, [])
+    return (str(oid[po[0]]) if po else str(nid[pn[0]]), "")
+
+
+def _overlaps(old: pd.DataFrame, new: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Pairs (old row, new row) of segments of the same trench whose chainage intervals
+    overlap by more than :data:`OVERLAP_M`. Segments of one trench do not overlap each
+    other, so each old interval meets a run of the new ones sorted along the trench."""
+    codes, _ = pd.factorize(pd.concat([old["trench_id"], new["trench_id"]], ignore_index=True))
+    co, cn = codes[: len(old)], codes[len(old) :]
+    fo, to = old["from_m"].astype(float).to_numpy(), old["to_m"].astype(float).to_numpy()
+    fn, tn = new["from_m"].astype(float).to_numpy(), new["to_m"].astype(float).to_numpy()
+    span = max(float(np.max(to, initial=0.0)), float(np.max(tn, initial=0.0))) + 10.0
+    order = np.lexsort((fn, cn))
+    start = cn[order] * span + fn[order]
+    end = np.maximum.accumulate(cn[order] * span + tn[order]) if len(order) else start
+    hi = np.searchsorted(start, co * span + to - OVERLAP_M, side="left")
+    lo = np.searchsorted(end, co * span + fo + OVERLAP_M, side="right")
+    count = np.maximum(hi - lo, 0)
+    i = np.repeat(np.arange(len(old)), count)
+    j = order[
+        np.repeat(lo, count) + np.arange(count.sum()) - np.repeat(np.cumsum(count) - count, count)
+    ]
+    ov = np.minimum(to[i], tn[j]) - np.maximum(fo[i], fn[j])
+    keep = (co[i] == cn[j]) & (ov > OVERLAP_M)
+    return i[keep], j[keep]
+
+
+def _event(
+    old: pd.DataFrame, new: pd.DataFrame, po: list[int], pn: list[int]
+) -> tuple[list[dict], dict]:
+    """diff.csv lines and the event row of one group of overlapping segments that are not one
+    segment with the same id in both plans."""
+    o, n = (
+        old.iloc[po].sort_values("from_m", key=lambda s: s.astype(float)),
+        new.iloc[pn].sort_values("from_m", key=lambda s: s.astype(float)),
+    )
+    ids_o, ids_n = tuple(o["segment_id"]), tuple(n["segment_id"])
+    trench = (o if len(o) else n)["trench_id"].iloc[0]
+
+    def parts(frame: pd.DataFrame) -> str:
+        return ", ".join(
+            f"{s} ({c} circuit{'' if c == '1' else 's'})"
+            for s, c in zip(frame["segment_id"], frame["circuits"], strict=True)
+        )
+
+    if not ids_n:
+        event, text = "removed", f"{parts(o)} removed"
+    elif not ids_o:
+        event, text = "added", f"{parts(n)} added"
+    elif len(ids_o) == 1 and len(ids_n) > 1:
+        cuts = ", ".join(f"{float(v):.1f}" for v in n["from_m"].iloc[1:])
+        event, text = "split", f"{parts(o)} split at {cuts} m into {parts(n)}"
+    elif len(ids_o) > 1 and len(ids_n) == 1:
+        joints = ", ".join(f"{float(v):.1f}" for v in o["from_m"].iloc[1:])
+        event, text = "merged", f"{parts(o)} merged at {joints} m into {parts(n)}"
+    else:
+        event, text = "reshaped", f"{parts(o)} became {parts(n)}"
+    len_o = sum(float(v) for v in o["length_m"])
+    len_n = sum(float(v) for v in n["length_m"])
+    key = ids_o[0] if ids_o else ids_n[0]
+    rows = [_row("segment", key, event, "", "; ".join(ids_o), "; ".join(ids_n), note=text)]
+    if ids_o and ids_n and round(len_o - len_n, 2) != 0:
+        rows.append(
+            _row(
+                "segment",
+                key,
+                "changed",
+                "length_m",
+                f"{len_o:.2f}",
+                f"{len_n:.2f}",
+                note=f"total length of {'; '.join(ids_o)} → {'; '.join(ids_n)}",
+            )
+        )
+    return rows, dict(event=event, trench_id=trench, old_ids=ids_o, new_ids=ids_n, text=text)
+
+
+def _same_segments(o: pd.DataFrame, n: pd.DataFrame, events: list[dict]) -> list[dict]:
+    """Field changes of segments with the same id in both plans (``events`` gains one
+    ``changed`` row per changed segment)."""
+    fields = list(SEGMENT_FIELDS)
+    a, b = o[fields].to_numpy(dtype=object), n[fields].to_numpy(dtype=object)
+    ne = a != b
+    rows = []
+    ids, trenches = o["segment_id"].tolist(), o["trench_id"].tolist()
+    for k in np.flatnonzero(ne.any(axis=1)).tolist():
+        mine = [
+            _row("segment", ids[k], "changed", fields[f], a[k, f], b[k, f])
+            for f in np.flatnonzero(ne[k]).tolist()
+        ]
+        rows += mine
+        events.append(
+            dict(
+                event="changed",
+                trench_id=trenches[k],
+                old_ids=(ids[k],),
+                new_ids=(ids[k],),
+                text=f"{ids[k]}: " + "; ".join(map(_say, mine)),
+            )
+        )
+    return rows
+
+
+# -- quantities and plant ----------------------------------------------------------------------
+def quantity_rows(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
+    """One diff.csv line per bill-of-quantities line whose quantity changed (added: absent
+    before, removed: absent after, counted as 0)."""
+    keys = list(QUANTITY_KEYS)
+
+    def by_key(frame: pd.DataFrame) -> dict[tuple[str, ...], float]:
+        values = pd.to_numeric(frame["quantity"]).to_numpy(dtype=float).tolist()
+        return dict(zip(frame[keys].itertuples(index=False, name=None), values, strict=True))
+
+    a, b = by_key(old), by_key(new)
+    rows = []
+    for k in sorted(set(a) | set(b)):
+        va, vb = a.get(k, 0.0), b.get(k, 0.0)
+        if round(va - vb, 2) != 0:
+            change = "added" if k not in a else "removed" if k not in b else "changed"
+            rows.append(
+                _row(
+                    "quantity",
+                    " ".join(v for v in k if v),
+                    change,
+                    "quantity",
+                    f"{va:.2f}",
+                    f"{vb:.2f}",
+                )
+            )
+    return rows
+
+
+def plant_block(old: dict, new: dict) -> pd.DataFrame:
+    """The plant-level block: cable metres by kind, material and size (the bill of
+    quantities' cable lines), cable and trench metres (summary), losses [kW] and annual
+    energy loss [MWh/year], failing circuits, over-capacity trench segments and inverter
+    inputs over a limit: old, new and new − old."""
+
+    def cables(plan: dict) -> dict[str, float]:
+        q = plan["quantities"]
+        q = q[q["item"] == "cable"]
+        return {
+            f"cable {k} {m} {float(s):.1f} mm²": float(v)
+            for k, m, s, v in zip(
+                q["kind"], q["material"], q["size_mm2"], q["quantity"], strict=True
+            )
+        }
+
+    def totals(plan: dict) -> dict[str, tuple[str, float]]:
+        s = plan["summary"]
+        fail = sum(int(v["fail"]) for v in s["circuits"].values())
+        return {
+            "cable, all": ("m", float(s["cable_m_total"])),
+            "trench": ("m", float(s["segments"]["trench_m"])),
+            "losses at operating current": ("kW", float(s["loss_w_total"]) / 1000),
+            "energy loss": ("MWh/year", float(s["energy_loss_kwh_total"]) / 1000),
+            "failing circuits": ("", float(fail)),
+            "trench segments over capacity": ("", float(s["segments"]["over_capacity"])),
+            "inverter inputs over a limit": ("", float(s["inverter_inputs"]["over_limit"])),
+        }
+
+    ca, cb = cables(old), cables(new)
+    rows = [(k, "m", ca.get(k, np.nan), cb.get(k, np.nan)) for k in sorted(set(ca) | set(cb))]
+    ta, tb = totals(old), totals(new)
+    rows += [(k, ta[k][0], ta[k][1], tb[k][1]) for k in ta]
+    frame = pd.DataFrame(rows, columns=["item", "unit", "old", "new"])
+    frame["delta"] = frame["new"].fillna(0.0) - frame["old"].fillna(0.0)
+    return frame
+
+
+def _plant_rows(plant: pd.DataFrame) -> list[dict]:
+    """diff.csv lines of the plant block's changed items (3 decimals)."""
+    rows = []
+    for item, unit, a, b, d in plant.itertuples(index=False, name=None):
+        if round(d, 3) != 0:
+            rows.append(
+                dict(
+                    section="plant",
+                    id=item,
+                    change="changed",
+                    field=unit or "count",
+                    old="" if np.isnan(a) else f"{a:.3f}",
+                    new="" if np.isnan(b) else f"{b:.3f}",
+                    delta=f"{d + 0.0:+.3f}",
+                    scope="",
+                    cause="",
+                    note="",
+                )
+            )
+    return rows

@@ -1,0 +1,107 @@
+"""The diff as lines for the terminal: the plant-level block, the circuits ranked (their own
+route, cable or status first, then their own values, then those that only follow from a
+circuit they feed, summarised per cause), the trench segments and the quantities."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from .compare import PlanDiff
+
+#: most circuits listed one by one per scope on the terminal (diff.csv has all)
+LISTED = 200
+
+
+def diff_lines(diff: PlanDiff, listed: int = LISTED) -> list[str]:
+    """What ``routeplan diff`` prints (without the closing caution)."""
+    if diff.empty:
+        return ["no changes"]
+    lines = _plant(diff.plant)
+    lines += _circuits(diff, listed)
+    lines += _segments(diff.segments)
+    q = diff.changes[diff.changes["section"] == "quantity"]
+    if len(q):
+        lines.append(f"quantities: {len(q)} lines changed (old → new, delta)")
+        lines += [f"  {r.id}: {r.old} → {r.new} ({r.delta})" for r in q.itertuples(index=False)]
+    return lines
+
+
+def _plant(plant: pd.DataFrame) -> list[str]:
+    lines = ["plant (old → new, delta):"]
+    width = max((len(i) for i in plant["item"]), default=0)
+    for item, unit, a, b, d in plant.itertuples(index=False, name=None):
+        digits = 0 if unit == "" else 3 if unit in ("kW", "MWh/year") else 2
+        lines.append(
+            f"  {item:<{width}}  {_num(a, digits)} → {_num(b, digits)} "
+            f"({d + 0.0:+.{digits}f}){' ' + unit if unit else ''}"
+        )
+    return lines
+
+
+def _num(v: float, digits: int) -> str:
+    return "-" if np.isnan(v) else f"{v:.{digits}f}"
+
+
+def _circuits(diff: PlanDiff, listed: int) -> list[str]:
+    c = diff.circuits
+    if c.empty:
+        return []
+    counts = c["change"].value_counts()
+    follows = c[c["scope"] == "follows"]
+    head = [f"{counts[k]} {k}" for k in ("added", "removed") if k in counts]
+    own = int((c["change"] == "changed").sum()) - len(follows)
+    if own:
+        head.append(f"{own} changed")
+    if len(follows):
+        head.append(f"{len(follows)} changed only by a circuit they feed")
+    lines = ["circuits: " + ", ".join(head)]
+    for scope, title in (
+        ("route", "their route, cable or status:"),
+        ("value", "their values (same route and cable):"),
+    ):
+        part = c[c["scope"] == scope]
+        if part.empty:
+            continue
+        lines.append(f" {title}")
+        for rec in part.head(listed).itertuples(index=False):
+            sign = {"added": "+", "removed": "-"}.get(rec.change, "~")
+            lines.append(f"  {sign} {rec.circuit_id}: {rec.summary}")
+        if len(part) > listed:
+            lines.append(f"  … and {len(part) - listed} more (all in diff.csv: --out DIR)")
+    if len(follows):
+        lines.append(" only the cumulative DC drop, after a circuit they feed changed:")
+        lines += _follows(diff, follows)
+    return lines
+
+
+def _follows(diff: PlanDiff, follows: pd.DataFrame) -> list[str]:
+    """One line per (kind, cause): how many, and the range of the cumulative drop's delta."""
+    ch = diff.changes
+    drop = ch[(ch["section"] == "circuit") & (ch["field"] == "vdrop_total_pct")]
+    delta = dict(zip(drop["id"], drop["delta"].replace("", "nan").astype(float), strict=True))
+    looks = dict(zip(diff.circuits["circuit_id"], diff.circuits["look"], strict=True))
+    lines = []
+    for (kind, cause), part in follows.groupby(["kind", "cause"], sort=True):
+        d = np.array([delta.get(i, np.nan) for i in part["circuit_id"]])
+        lo, hi = np.nanmin(d), np.nanmax(d)
+        span = f"{lo:+.3f} %" if lo == hi else f"{lo:+.3f} to {hi:+.3f} %"
+        after = (
+            f"after {cause} ({looks.get(cause, 'changed')})"
+            if cause
+            else "with no circuit they feed changed (a setting?)"
+        )
+        lines.append(f"  {len(part)} {kind} circuits: cumulative DC drop {span} {after}")
+    return lines
+
+
+def _segments(segments: pd.DataFrame) -> list[str]:
+    if segments.empty:
+        return []
+    counts = segments["event"].value_counts()
+    order = ("split", "merged", "reshaped", "added", "removed", "changed")
+    lines = ["trench segments: " + ", ".join(f"{counts[k]} {k}" for k in order if k in counts)]
+    for event in order:
+        part = segments[segments["event"] == event]
+        lines += [f"  {event}: {t}" for t in part["text"]]
+    return lines
