@@ -404,33 +404,61 @@ def diff(
         Path | None,
         typer.Option("--out", "-o", help="Also write every change (diff.csv) into this folder."),
     ] = None,
+    map_file: Annotated[
+        Path | None,
+        typer.Option(
+            "--map",
+            help="Also write a change map (one offline HTML file): changed circuits old and "
+            "new, changed trench segments, moved equipment, the plant totals. A file of that "
+            "name that routeplan did not write is never replaced.",
+        ),
+    ] = None,
     force: ForceOption = False,
 ) -> None:
     """Show what changed between two plans: plant totals, circuits (their own changes first,
     those that only follow from a circuit they feed summarised), trench segments matched
     along their trench (split, merged, changed) and quantities, each old → new and delta."""
-    from .diff import DiffError, diff_lines, diff_outputs, open_diff_folder, write_diff
+    from .diff import (
+        CHANGE_MAP_MARK,
+        DiffError,
+        change_map_html,
+        diff_lines,
+        diff_outputs,
+        open_diff_folder,
+        write_diff,
+    )
+    from .folder import check_own_file, write_own_file
 
     folder = None
-    if out_dir is not None:
-        try:  # checked before the comparison
+    try:  # checked before the comparison
+        if map_file is not None:
+            check_own_file(map_file, CHANGE_MAP_MARK)
+        if out_dir is not None:
             folder = open_diff_folder(out_dir, force=force)
-        except FolderError as exc:
-            _fail_input(exc)
+    except FolderError as exc:
+        _fail_input(exc)
     try:
         d = diff_outputs(old_dir, new_dir)
+        page = change_map_html(d).encode("utf-8") if map_file is not None else b""
         if folder is not None:
             write_diff(d, folder)
     except DiffError as exc:
         err.print(f"error: {exc}", markup=False)
         raise typer.Exit(2) from None
-    except FolderError as exc:  # diff.csv could not be put in place
+    except FolderError as exc:  # diff.csv or the map could not be put in place
         _fail_input(exc)
     except OSError as exc:
         _fail_os(exc, out_dir or Path("."))
     finally:
         if folder is not None:
             folder.close()
+    if map_file is not None:
+        try:
+            write_own_file(map_file, page, CHANGE_MAP_MARK)
+        except FolderError as exc:  # replaced meanwhile by a file that is not routeplan's
+            _fail_input(exc)
+        except OSError as exc:
+            _fail_os(exc, map_file)
     for line in diff_lines(d):
         out.print(line, markup=False)
     if not d.empty:

@@ -724,3 +724,63 @@ def _legacy_manifest(real: Path) -> Manifest | None:
     st = p.stat()
     files[".routeplan-cache/manifest.json"] = Written(file_sha256(p), st.st_size, st.st_mtime_ns)
     return Manifest("plan", "legacy", "", "", files)
+
+
+# -- single files: the change map of ``routeplan diff --map FILE`` ---------------------------
+#: bytes read from the start of an existing file to find routeplan's mark in it
+MARK_WINDOW = 4096
+
+
+def check_own_file(path: Path | str, mark: bytes) -> Path:
+    """Check, before any computation, that routeplan may write the single file ``path``:
+    its folder exists and can be written, and ``path`` is new, or a regular file routeplan
+    wrote (``mark`` within its first :data:`MARK_WINDOW` bytes). A folder, a symbolic link,
+    or any other file is refused: routeplan never replaces a file it did not write. Returns
+    the path; raises :class:`routeplan.errors.FolderError` (one line) otherwise."""
+    path = Path(path)
+    if str(path) == "" or path.name in ("", ".", ".."):
+        raise FolderError(path, "is not a file name")
+    parent = path.absolute().parent
+    if not parent.is_dir():
+        raise FolderError(path, f"cannot be written: its folder {parent} does not exist")
+    if not os.access(parent, os.W_OK | os.X_OK):
+        raise FolderError(path, f"cannot be written: no permission to write into {parent}")
+    if path.is_symlink():
+        raise FolderError(path, "is a symbolic link, which routeplan will not replace")
+    if path.exists():
+        if not path.is_file():
+            raise FolderError(path, "is there and is not a file: choose another name")
+        try:
+            with open(path, "rb") as fh:
+                head = fh.read(MARK_WINDOW)
+        except OSError as exc:
+            raise FolderError(path, f"cannot be read ({exc.strerror or exc})") from None
+        if mark not in head:
+            raise FolderError(
+                path,
+                "is there but was not written by routeplan, and routeplan will not replace "
+                "it: choose another name or move it away",
+            )
+    return path
+
+
+def write_own_file(path: Path | str, data: bytes, mark: bytes) -> Path:
+    """Write ``data`` (which must hold ``mark``) to ``path`` after :func:`check_own_file`,
+    all or nothing: into a hidden temporary file beside it (created with the umask's
+    permissions), then ``os.replace``. A failure removes the temporary file and leaves
+    ``path`` as it was."""
+    if mark not in data[:MARK_WINDOW]:
+        raise ValueError("the data does not carry routeplan's mark in its first bytes")
+    path = check_own_file(path, mark)
+    tmp = path.with_name(f".{path.name}.routeplan-{secrets.token_hex(4)}")
+    try:
+        with open(tmp, "xb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            tmp.unlink()
+        raise
+    return path

@@ -29,6 +29,23 @@ from .core import (
 from .text import diff_lines
 
 
+#: the mark a change map carries near its start (``diff --map`` replaces only such a file)
+CHANGE_MAP_MARK = b'<meta name="generator" content="routeplan diff --map">'
+
+
+def change_map_html(diff: PlanDiff) -> str:
+    """The change map of ``diff`` (:mod:`routeplan.diff.changemap`), with
+    :data:`CHANGE_MAP_MARK` at the start of its ``<head>``."""
+    from .changemap import render_change_map
+
+    page = render_change_map(diff.old_dir, diff.new_dir, diff.circuits, diff.segments, diff.plant)
+    head = page.lower().find("<head>")
+    if head < 0:
+        raise ValueError("the change map has no <head>")
+    at = head + len("<head>")
+    return page[:at] + CHANGE_MAP_MARK.decode() + page[at:]
+
+
 def write_diff(diff: PlanDiff, out: Path | str | OutputFolder) -> Path:
     """Write ``diff.csv`` (one line per change) into ``out``
     (:func:`routeplan.diff.core.write_changes`)."""
@@ -36,6 +53,7 @@ def write_diff(diff: PlanDiff, out: Path | str | OutputFolder) -> Path:
 
 
 __all__ = [
+    "CHANGE_MAP_MARK",
     "CHANGES_FILE",
     "CHANGE_COLUMNS",
     "CIRCUITS",
@@ -48,6 +66,7 @@ __all__ = [
     "DiffError",
     "PlanDiff",
     "Table",
+    "change_map_html",
     "diff_lines",
     "diff_outputs",
     "open_diff_folder",
