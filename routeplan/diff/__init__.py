@@ -28,7 +28,6 @@ from .core import (
 )
 from .text import diff_lines
 
-
 #: the mark a change map carries near its start (``diff --map`` replaces only such a file)
 CHANGE_MAP_MARK = b'<meta name="generator" content="routeplan diff --map">'
 
@@ -53,9 +52,9 @@ def write_diff(diff: PlanDiff, out: Path | str | OutputFolder) -> Path:
 
 
 __all__ = [
-    "CHANGE_MAP_MARK",
     "CHANGES_FILE",
     "CHANGE_COLUMNS",
+    "CHANGE_MAP_MARK",
     "CIRCUITS",
     "CIRCUIT_FIELDS",
     "NUMBER_FIELDS",
