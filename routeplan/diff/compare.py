@@ -361,32 +361,45 @@ def compare_segments(old: pd.DataFrame, new: pd.DataFrame) -> tuple[list[dict], 
     graph = sparse.coo_matrix(
         (np.ones(len(i), dtype=np.int8), (i, n_old + j)), shape=(n_old + n_new,) * 2
     )
-    _, label = csgraph.connected_components(graph, directed=False)
-    olds = pd.Series(np.arange(n_old)).groupby(label[:n_old]).agg(list)
-    news = pd.Series(np.arange(n_new)).groupby(label[n_old:]).agg(list)
+    n_comp, label = csgraph.connected_components(graph, directed=False)
+    lo, ln = label[:n_old], label[n_old:]
+    count_o = np.bincount(lo, minlength=n_comp)
+    count_n = np.bincount(ln, minlength=n_comp)
+    partner = np.full(n_comp, -1, dtype=np.int64)
+    partner[ln] = np.arange(n_new)
     oid, nid = old["segment_id"].to_numpy(dtype=object), new["segment_id"].to_numpy(dtype=object)
+    # the common case, found at once: one old and one new segment with the same id
+    pair = (count_o[lo] == 1) & (count_n[lo] == 1)
+    same = np.zeros(n_old, dtype=bool)
+    same[pair] = oid[pair] == nid[partner[lo[pair]]]
+    same_o = np.flatnonzero(same)
+    same_n = partner[lo[same_o]]
+    # every other group, one by one (a revision changes few)
+    plain = np.zeros(n_comp, dtype=bool)
+    plain[lo[same_o]] = True
+    members_o = _members(lo, plain)
+    members_n = _members(ln, plain)
     rows: list[dict] = []
     events: list[dict] = []
-    same_o, same_n = [], []
-    for comp in sorted(
-        set(olds.index) | set(news.index), key=lambda c: _first_id(c, olds, news, oid, nid)
-    ):
-        po, pn = olds.get(comp, []), news.get(comp, [])
-        if len(po) == 1 and len(pn) == 1 and oid[po[0]] == nid[pn[0]]:
-            same_o.append(po[0])
-            same_n.append(pn[0])
-            continue
-        rows_, event = _event(old, new, po, pn)
+    groups = sorted(
+        set(members_o) | set(members_n),
+        key=lambda c: str(oid[members_o[c][0]]) if c in members_o else str(nid[members_n[c][0]]),
+    )
+    for comp in groups:
+        rows_, event = _event(old, new, members_o.get(comp, []), members_n.get(comp, []))
         rows += rows_
         events.append(event)
     rows += _same_segments(old.iloc[same_o], new.iloc[same_n], events)
     return rows, pd.DataFrame(events, columns=list(SEGMENT_ROWS))
 
 
-def _first_id(comp, olds, news, oid, nid) -> tuple[str, str]:
-    """Sort key of a matched group: its first old id, else its first new id."""
-    po, pn = olds.get(comp, []), news.get(comp, [])
-    return (str(oid[po[0]]) if po else str(nid[pn[0]]), "")
+def _members(label: np.ndarray, skip: np.ndarray) -> dict[int, list[int]]:
+    """The rows of each group (``label``) not marked in ``skip``, in row order."""
+    rows = np.flatnonzero(~skip[label])
+    out: dict[int, list[int]] = {}
+    for r, g in zip(rows.tolist(), label[rows].tolist(), strict=True):
+        out.setdefault(g, []).append(r)
+    return out
 
 
 def _overlaps(old: pd.DataFrame, new: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:

@@ -9,7 +9,7 @@ import pandas as pd
 
 from .compare import PlanDiff
 
-#: most circuits listed one by one per scope on the terminal (diff.csv has all)
+#: most circuits of their own route, cable or status listed on the terminal (diff.csv has all)
 LISTED = 200
 
 
@@ -19,7 +19,7 @@ def diff_lines(diff: PlanDiff, listed: int = LISTED) -> list[str]:
         return ["no changes"]
     lines = _plant(diff.plant)
     lines += _circuits(diff, listed)
-    lines += _segments(diff.segments)
+    lines += _segments(diff.segments, listed)
     q = diff.changes[diff.changes["section"] == "quantity"]
     if len(q):
         lines.append(f"quantities: {len(q)} lines changed (old → new, delta)")
@@ -56,22 +56,46 @@ def _circuits(diff: PlanDiff, listed: int) -> list[str]:
     if len(follows):
         head.append(f"{len(follows)} changed only by a circuit they feed")
     lines = ["circuits: " + ", ".join(head)]
-    for scope, title in (
-        ("route", "their route, cable or status:"),
-        ("value", "their values (same route and cable):"),
-    ):
-        part = c[c["scope"] == scope]
-        if part.empty:
-            continue
-        lines.append(f" {title}")
-        for rec in part.head(listed).itertuples(index=False):
+    route = c[c["scope"] == "route"]
+    if len(route):
+        lines.append(" their route, cable or status:")
+        for rec in route.head(listed).itertuples(index=False):
             sign = {"added": "+", "removed": "-"}.get(rec.change, "~")
             lines.append(f"  {sign} {rec.circuit_id}: {rec.summary}")
-        if len(part) > listed:
-            lines.append(f"  … and {len(part) - listed} more (all in diff.csv: --out DIR)")
+        if len(route) > listed:
+            lines.append(f"  … and {len(route) - listed} more (all in diff.csv: --out DIR)")
+    value = c[c["scope"] == "value"]
+    if len(value):
+        lines.append(" their values (same route and cable):")
+        lines += _alike(diff, value)
     if len(follows):
         lines.append(" only the cumulative DC drop, after a circuit they feed changed:")
         lines += _follows(diff, follows)
+    return lines
+
+
+#: circuits of one kind with the same fields changed are listed one by one up to this many
+ALIKE = 3
+
+
+def _alike(diff: PlanDiff, part: pd.DataFrame) -> list[str]:
+    """Circuits whose own values changed: those of one kind with the same fields changed
+    (the circuits of a trench another circuit joined) in one line, with the first as the
+    example; up to :data:`ALIKE` of them one by one."""
+    ch = diff.changes
+    ch = ch[(ch["section"] == "circuit") & (ch["change"] == "changed")]
+    fields = ch.groupby("id", sort=False)["field"].agg(tuple)
+    key = part["circuit_id"].map(fields)
+    lines = []
+    for (kind, changed), group in part.groupby([part["kind"], key], sort=False):
+        if len(group) <= ALIKE:
+            lines += [f"  ~ {r.circuit_id}: {r.summary}" for r in group.itertuples(index=False)]
+            continue
+        first = group.iloc[0]
+        lines.append(
+            f"  ~ {len(group)} {kind} circuits: {', '.join(changed)} "
+            f"(as {first['circuit_id']}: {first['summary']})"
+        )
     return lines
 
 
@@ -95,13 +119,15 @@ def _follows(diff: PlanDiff, follows: pd.DataFrame) -> list[str]:
     return lines
 
 
-def _segments(segments: pd.DataFrame) -> list[str]:
+def _segments(segments: pd.DataFrame, listed: int) -> list[str]:
     if segments.empty:
         return []
     counts = segments["event"].value_counts()
     order = ("split", "merged", "reshaped", "added", "removed", "changed")
     lines = ["trench segments: " + ", ".join(f"{counts[k]} {k}" for k in order if k in counts)]
     for event in order:
-        part = segments[segments["event"] == event]
-        lines += [f"  {event}: {t}" for t in part["text"]]
+        texts = segments.loc[segments["event"] == event, "text"]
+        lines += [f"  {event}: {t}" for t in texts.head(listed)]
+        if len(texts) > listed:
+            lines.append(f"  … and {len(texts) - listed} more {event} (all in diff.csv: --out DIR)")
     return lines
