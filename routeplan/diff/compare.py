@@ -278,8 +278,10 @@ def _look(fields: dict[str, dict]) -> str:
     if {"size_mm2", "parallel", "material"} & set(fields):
         old = _section(fields, "old")
         new = _section(fields, "new")
-        if new != old:
-            return "size up" if new > old else "size down"
+        if new > old:
+            return "size up"
+        if new < old:
+            return "size down"
     route = fields.get("route_m")
     if route is not None and route["delta"]:
         return "longer" if float(route["delta"]) > 0 else "shorter"

@@ -24,6 +24,7 @@ from shapely.geometry import LineString
 from typer.testing import CliRunner
 
 from routeplan.cli import app
+from routeplan.diff import diff_outputs
 from tests.conftest import UTM33
 
 from .promise_sites import LENGTHS_TOML, lengths_frames, write_and_plan, xy
@@ -239,3 +240,20 @@ def test_plant_deltas_are_the_difference_of_the_two_runs_totals(pad_move):
     # nothing fails before or after: the count lines are no change
     assert "failing circuits" not in plant
     assert "  failing circuits" in output and "0 → 0 (+0)" in output
+
+
+def test_how_each_changed_circuit_looks_on_the_change_map(split):
+    """The map's categories: added circuits, and A:CB1, which carries 7 strings instead of 5
+    (IEC 62548 design current 1.25 × Isc × strings, from memory): a larger conductor."""
+    d = diff_outputs(split["old"], split["new"])
+    look = dict(zip(d.circuits["circuit_id"], d.circuits["look"], strict=True))
+    assert look["R3/S1"] == look["R3/S2"] == "added"
+    old = {r["circuit_id"]: r for r in read_rows(split["old"] / "cable_schedule.csv")}
+    new = {r["circuit_id"]: r for r in read_rows(split["new"] / "cable_schedule.csv")}
+    section = {  # conductor cross-section per pole, mm² × parallel sets
+        p: float(s["A:CB1"]["size_mm2"]) * int(s["A:CB1"]["parallel"])
+        for p, s in (("old", old), ("new", new))
+    }
+    assert section["new"] > section["old"]
+    assert look["A:CB1"] == "size up"
+    assert set(d.circuits["scope"]) <= {"route", "value", "follows"}
