@@ -285,7 +285,7 @@ def test_diff_after_moving_a_pad_lists_exactly_its_circuits(demo_out, tmp_path):
     assert run_plan(tmp_path / "moved", out).exit_code in (0, 1)
     result = runner.invoke(app, ["diff", str(demo_out), str(out), "--out", str(tmp_path / "d")])
     assert result.exit_code == 0, result.output
-    d = pd.read_csv(tmp_path / "d" / "changes.csv", keep_default_na=False)
+    d = pd.read_csv(tmp_path / "d" / "diff.csv", keep_default_na=False)
     changed = set(d.loc[d["section"] == "circuit", "id"])
     sched = pd.read_csv(demo_out / "cable_schedule.csv")
     served_arrays = set(
