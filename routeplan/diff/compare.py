@@ -90,6 +90,9 @@ class PlanDiff:
         (tuples of ids), ``text`` (one line).
     plant : pandas.DataFrame
         The plant-level block: ``item``, ``unit``, ``old``, ``new``, ``delta`` (floats).
+    notes : tuple of str
+        What differs between the two plans' bases (routeplan version, rule set, site name):
+        each a reason values may differ besides the layout.
     """
 
     old_dir: Path
@@ -98,6 +101,7 @@ class PlanDiff:
     circuits: pd.DataFrame
     segments: pd.DataFrame
     plant: pd.DataFrame
+    notes: tuple[str, ...] = ()
 
     def ids(self, section: str, change: str | None = None) -> list[str]:
         """Sorted unique ids of a section (optionally one kind of change)."""
@@ -132,7 +136,29 @@ def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
         *_plant_rows(plant),
     ]
     changes = pd.DataFrame(rows, columns=list(CHANGE_COLUMNS)).fillna("")
-    return PlanDiff(old_dir, new_dir, changes, circuits, segments, plant)
+    return PlanDiff(
+        old_dir, new_dir, changes, circuits, segments, plant, _notes(old["summary"], new["summary"])
+    )
+
+
+def _notes(old: dict, new: dict) -> tuple[str, ...]:
+    """The plans' bases that differ: routeplan version, rule set, site name."""
+    notes = []
+    for what, keys in (
+        ("routeplan version", ("tool", "version")),
+        ("rule set", ("rules",)),
+        ("site name", ("site", "name")),
+    ):
+        a, b = _value(old, keys), _value(new, keys)
+        if a != b:
+            notes.append(f"{what}: {a} → {b}")
+    return tuple(notes)
+
+
+def _value(summary: dict, keys: tuple[str, ...]) -> str:
+    for k in keys:
+        summary = summary.get(k) if isinstance(summary, dict) else None
+    return "-" if summary is None else str(summary)
 
 
 # -- numbers ---------------------------------------------------------------------------------

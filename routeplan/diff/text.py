@@ -17,7 +17,8 @@ def diff_lines(diff: PlanDiff, listed: int = LISTED) -> list[str]:
     """What ``routeplan diff`` prints (without the closing caution)."""
     if diff.empty:
         return ["no changes"]
-    lines = _plant(diff.plant)
+    lines = [f"note: the plans differ in {n}" for n in diff.notes]
+    lines += _plant(diff.plant)
     lines += _circuits(diff, listed)
     lines += _segments(diff.segments, listed)
     q = diff.changes[diff.changes["section"] == "quantity"]

@@ -257,3 +257,23 @@ def test_how_each_changed_circuit_looks_on_the_change_map(split):
     assert section["new"] > section["old"]
     assert look["A:CB1"] == "size up"
     assert set(d.circuits["scope"]) <= {"route", "value", "follows"}
+
+
+def test_a_different_rule_set_or_version_is_said_first(split, tmp_path):
+    """A value may change because the plans were made under other rules or by another
+    version, not only because the layout changed: the diff says so before anything else."""
+    other = tmp_path / "other"
+    shutil.copytree(split["new"], other)
+    path = other / "summary.json"
+    summary = json.loads(path.read_text(encoding="utf-8"))
+    old_version = summary["tool"]["version"]
+    summary["tool"]["version"] = "9.9.9"
+    summary["site"]["name"] = "Renamed <site>"
+    path.write_text(json.dumps(summary), encoding="utf-8")
+    result = runner.invoke(app, ["diff", str(split["old"]), str(other)])
+    assert result.exit_code == 0, result.output
+    lines = result.output.splitlines()
+    assert lines[:2] == [
+        f"note: the plans differ in routeplan version: {old_version} → 9.9.9",
+        "note: the plans differ in site name: Lengths by hand → Renamed <site>",
+    ]
