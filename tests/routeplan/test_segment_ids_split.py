@@ -23,6 +23,7 @@ from shapely.geometry import LineString
 from typer.testing import CliRunner
 
 from routeplan.cli import app
+from routeplan.network import build_network
 from routeplan.pipeline import plan
 
 from ..conftest import E0, N0, UTM33, base_frames, write_site
@@ -203,3 +204,37 @@ def test_the_site_is_what_the_docstring_says():
     assert [t2.project(p) for p in pts] == pytest.approx([3.0, 28.0, 58.0], abs=1e-9)
     lengths = (t2.length, t3.project(shapely.Point(xy(150, 3))), t3.length)
     assert lengths == pytest.approx((108.0, 3.0, 40.0), abs=1e-9)
+
+
+# -- a tap that joins an existing node splits nothing and renames nothing -----------------------
+
+
+def net_ids(*taps: tuple[str, float, float]) -> tuple[list[str], list[float], list[float]]:
+    """Ids, start_m and end_m of trench T1 (0, 0) → (100, 0) with combiners tapping it."""
+    tr = gpd.GeoDataFrame({"id": ["T1"]}, geometry=[LineString([(0, 0), (100, 0)])], crs=UTM33)
+    eq = gpd.GeoDataFrame(
+        {"layer": "combiners", "feature_id": [t[0] for t in taps]},
+        geometry=[shapely.Point(t[1], t[2]) for t in taps],
+        crs=UTM33,
+    )
+    s = build_network(tr, eq).segments  # node_tol_m 0.1 m, the default
+    return s["segment_id"].tolist(), s["start_m"].tolist(), s["end_m"].tolist()
+
+
+@pytest.mark.parametrize("x", [60.08, 59.92])
+def test_a_tap_joining_an_existing_node_renames_no_segment(x):
+    # hand: CB1 taps T1 at x = 20 and CB2 at x = 60: T1@0.0-20.0, T1@20.0-60.0, T1@60.0-100.0
+    before = net_ids(("CB1", 20, -3), ("CB2", 60, -4))
+    assert before == (
+        ["T1@0.0-20.0", "T1@20.0-60.0", "T1@60.0-100.0"],
+        [0.0, 20.0, 60.0],
+        [20.0, 60.0, 100.0],
+    )
+    # CB3 taps T1 8 cm beside CB2's tap: within node_tol (0.1 m) it joins CB2's node, which
+    # stays at CB2's tap (its first candidate). No segment is split, no segment's stretch
+    # moves: every id and chainage stays (before the fix, the segment on CB3's side took
+    # CB3's chainage: T1@60.1-100.0 or T1@20.0-59.9)
+    after = net_ids(("CB1", 20, -3), ("CB2", 60, -4), ("CB3", x, 2))
+    assert after[0] == before[0]
+    assert after[1] == pytest.approx(before[1], abs=1e-9)  # start_m
+    assert after[2] == pytest.approx(before[2], abs=1e-9)  # end_m
