@@ -623,9 +623,10 @@ def build_network(
     Candidates within ``node_tol_m`` of each other form one node (transitively); the node
     sits at its first candidate, preferring crossings, then ends, vertices and taps.
     Segment ends are moved onto their node, so a segment's length can differ from the
-    trench's stretch by up to ``node_tol_m`` at each end; a loop shorter than twice
-    ``node_tol_m`` that starts and ends at one node is dropped. A trench that crosses itself
-    is not noded at its own crossing.
+    trench's stretch by up to ``node_tol_m`` at each end; where several split points of a part
+    join one node, a segment's chainage (``start_m``, ``end_m``, its id) is taken at the one
+    nearest the node. A loop shorter than twice ``node_tol_m`` that starts and ends at one
+    node is dropped. A trench that crosses itself is not noded at its own crossing.
     """
     defaults = TrenchDefaults() if defaults is None else defaults
     if not node_tol_m >= 0:
@@ -712,13 +713,15 @@ def build_network(
     p_part, p_a, p_b = e_part[k], e_pos[k], e_pos[k + 1]
     p_u, p_v = e_node[k], e_node[k + 1]
     keep = (p_u != p_v) | (p_b - p_a > 2 * tol)
+    e_at = _node_chainage(parts, e_part, e_pos, e_node, node_xy, k[~keep])
+    p_at_a, p_at_b = e_at[k][keep], e_at[k + 1][keep]
     p_part, p_a, p_b, p_u, p_v = p_part[keep], p_a[keep], p_b[keep], p_u[keep], p_v[keep]
     seg_geom = _pieces(xy, gkey, part_off, p_part, p_a, p_b, node_xy[p_u], node_xy[p_v])
 
     # --- segment table
     p_owner = owner[p_part]
     trench_at = _trench_offsets(owner, part_len)[p_part]  # the part's start along its trench
-    p_from, p_to = trench_at + p_a, trench_at + p_b
+    p_from, p_to = trench_at + p_at_a, trench_at + p_at_b
     seg_ids = segment_ids(trench_ids[p_owner], p_from, p_to)
     segments = gpd.GeoDataFrame(
         {
@@ -900,6 +903,44 @@ def _trench_offsets(owner: np.ndarray, part_len: np.ndarray) -> np.ndarray:
     cum = np.cumsum(part_len) - part_len  # every part's start in one run of all parts
     first = np.r_[True, owner[1:] != owner[:-1]]
     return cum - np.maximum.accumulate(np.where(first, cum, 0.0))
+
+
+def _node_chainage(
+    parts: np.ndarray,
+    e_part: np.ndarray,
+    e_pos: np.ndarray,
+    e_node: np.ndarray,
+    node_xy: np.ndarray,
+    joined: np.ndarray,
+) -> np.ndarray:
+    """The chainage along its part [m] each split point stands for in the segment ids.
+
+    ``e_*`` are the split points sorted by part and position; ``joined`` are the indices ``i``
+    whose piece to ``i + 1`` is dropped (one node at both ends, within ``2 node_tol``). The
+    split points so joined are one node on the part: they all take the position of the one
+    nearest the node (the first on a tie), so that a tap joining an existing node moves
+    neither end of the segments beside it (their ids stay, see :func:`segment_ids`).
+    """
+    at = np.asarray(e_pos, dtype=float).copy()
+    if len(joined) == 0:
+        return at
+    link = np.zeros(len(at), dtype=bool)
+    link[joined] = True  # i is one node with i + 1
+    first = ~np.r_[False, link[:-1]]
+    run = np.cumsum(first) - 1  # one run per node on a part (contiguous, positions ascending)
+    start = np.flatnonzero(first)
+    last = np.r_[start[1:], len(at)] - 1
+    spread = at[last] - at[start]  # 0: the run's points coincide, nothing to choose
+    idx = np.flatnonzero(spread[run] > 0)  # members of runs at more than one position
+    if len(idx) == 0:
+        return at
+    pts = shapely.line_interpolate_point(parts[e_part[idx]], at[idx])
+    dist = shapely.distance(pts, shapely.points(node_xy[e_node[idx]]))
+    order = np.lexsort((dist, run[idx]))  # by run, nearest first (stable: first on a tie)
+    r = run[idx][order]
+    best = idx[order][np.r_[True, r[1:] != r[:-1]]]  # each run's nearest, in run order
+    at[idx] = at[best][np.searchsorted(run[best], run[idx])]
+    return at
 
 
 def segment_ids(trench_ids: np.ndarray, from_m: np.ndarray, to_m: np.ndarray) -> np.ndarray:

@@ -40,8 +40,9 @@ def test_a_planned_hostile_map_shows_the_text_and_runs_nothing(browser, hostile_
         assert HOSTILE["CB1"] in page.hover_tooltip(cb["x"], cb["y"])
         inv = page.find("equipment", HOSTILE["INV1"])
         assert "{{7*7}}" in page.hover_tooltip(inv["x"], inv["y"])
-        seg = page.find("segment", HOSTILE["T1"] + "#1")
-        assert HOSTILE["T1"] + "#1" in page.hover_tooltip(seg["x"], seg["y"] + 4)
+        # T1's first segment: (42, 30) → (42, 20), chainage 0 → 10 m along T1
+        seg = page.find("segment", HOSTILE["T1"] + "@0.0-10.0")
+        assert HOSTILE["T1"] + "@0.0-10.0" in page.hover_tooltip(seg["x"], seg["y"] + 4)
         panel = page.page.locator("#rp-panel").inner_text()
         assert "<script>alert('site')</script>" in panel and "${alert(1)}" in panel
         assert page.page.title().startswith("<script>alert('site')</script>")

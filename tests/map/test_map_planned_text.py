@@ -95,5 +95,16 @@ def test_trench_ids_in_the_trench_tooltips(page):
     }
     trenches = {HOSTILE["T1"], HOSTILE["T2"]}
     assert fields["trench"] == {as_shown(t) for t in trenches}
-    # segment ids are "<trench id>#<n>"
-    assert {html.unescape(s).rsplit("#", 1)[0] for s in fields["segment"]} == trenches
+    # segment ids are "<trench id>@<from>-<to>", the trench id everything before the last "@"
+    assert {html.unescape(s).rsplit("@", 1)[0] for s in fields["segment"]} == trenches
+    # hand: the base site's cuts (tests/conftest.py): T1 (42, 30) → (42, 0) at y = 20 and 10,
+    # chainage 30 - y; T2 (42, 0) → (150, 0) at CB1 (x = 45) and INV1 (x = 100), chainage x - 42
+    t1, t2 = HOSTILE["T1"], HOSTILE["T2"]
+    assert {html.unescape(s) for s in fields["segment"]} == {
+        f"{t1}@0.0-10.0",
+        f"{t1}@10.0-20.0",
+        f"{t1}@20.0-30.0",
+        f"{t2}@0.0-3.0",
+        f"{t2}@3.0-58.0",
+        f"{t2}@58.0-108.0",
+    }

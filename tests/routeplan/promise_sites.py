@@ -131,18 +131,29 @@ STUB_CB1 = math.hypot(3, 4)  # 5 m to T1's east end (200, 0)
 STUB_INV1 = math.hypot(6, 8)  # 10 m to T2's north end (100, 80)
 STUB_G1 = math.hypot(5, 12)  # 13 m to T1's west end (0, 0)
 ROW_M = {"R1": 40.0, "R2": math.hypot(18, 24)}  # R2: the long side of its rectangle, 30 m
-#: T1 is cut where R1 (x = 10) and R2 (x = 60) tap it and where T2 meets it (x = 100)
-SEGMENT_M = {"T1#1": 10.0, "T1#2": 50.0, "T1#3": 40.0, "T1#4": 100.0, "T2#1": 80.0}
+#: T1 is cut where R1 (x = 10) and R2 (x = 60) tap it and where T2 meets it (x = 100); T1 runs
+#: (0, 0) → (200, 0), so the chainage of a cut is its x: T1@0.0-10.0, T1@10.0-60.0, ...; T2 runs
+#: (100, 0) → (100, 80) uncut: T2@0.0-80.0
+SEGMENT_M = {
+    "T1@0.0-10.0": 10.0,
+    "T1@10.0-60.0": 50.0,
+    "T1@60.0-100.0": 40.0,
+    "T1@100.0-200.0": 100.0,
+    "T2@0.0-80.0": 80.0,
+}
 
 #: circuit → (stub metres, trench segments in route order) — by hand
 HAND: dict[str, tuple[float, list[str]]] = {
-    "R1/S1": (STUB_R1 + STUB_CB1, ["T1#2", "T1#3", "T1#4"]),
-    "R1/S2": (STUB_R1 + STUB_CB1, ["T1#2", "T1#3", "T1#4"]),
-    "R2/S1": (STUB_R2 + STUB_CB1, ["T1#3", "T1#4"]),
-    "R2/S2": (STUB_R2 + STUB_CB1, ["T1#3", "T1#4"]),
-    "R2/S3": (STUB_R2 + STUB_CB1, ["T1#3", "T1#4"]),
-    "A:CB1": (STUB_CB1 + STUB_INV1, ["T1#4", "T2#1"]),
-    "AC:INV1": (STUB_INV1 + STUB_G1, ["T2#1", "T1#3", "T1#2", "T1#1"]),
+    "R1/S1": (STUB_R1 + STUB_CB1, ["T1@10.0-60.0", "T1@60.0-100.0", "T1@100.0-200.0"]),
+    "R1/S2": (STUB_R1 + STUB_CB1, ["T1@10.0-60.0", "T1@60.0-100.0", "T1@100.0-200.0"]),
+    "R2/S1": (STUB_R2 + STUB_CB1, ["T1@60.0-100.0", "T1@100.0-200.0"]),
+    "R2/S2": (STUB_R2 + STUB_CB1, ["T1@60.0-100.0", "T1@100.0-200.0"]),
+    "R2/S3": (STUB_R2 + STUB_CB1, ["T1@60.0-100.0", "T1@100.0-200.0"]),
+    "A:CB1": (STUB_CB1 + STUB_INV1, ["T1@100.0-200.0", "T2@0.0-80.0"]),
+    "AC:INV1": (
+        STUB_INV1 + STUB_G1,
+        ["T2@0.0-80.0", "T1@60.0-100.0", "T1@10.0-60.0", "T1@0.0-10.0"],
+    ),
 }
 
 

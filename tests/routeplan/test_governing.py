@@ -3,9 +3,10 @@ governs: one of its own trench segments, its stub in air ('stub <id>') or its ro
 ('row run <row>') — columns.py — and ``group_count`` is what is grouped there.
 
 The site (invented) is laid out so that the answer follows from the route alone: one trench
-drawn from the grid point (x = 200) back to x = 0, so that its first segment T1#1 (200 → 150)
-is the AC circuit's whole route; three combiners on the trench at x = 20, 60, 100, each with a
-row of 5 strings at right angles above it; the inverter at x = 150. No row runs
+drawn from the grid point (x = 200) back to x = 0, so that its first segment T1@0.0-50.0
+(x 200 → 150, chainage 0 → 50 m from the trench's first vertex) is the AC circuit's whole
+route; three combiners on the trench at x = 20, 60, 100, each with a row of 5 strings at right
+angles above it; the inverter at x = 150. No row runs
 (``row_run_factor = 0``), so each string runs in air on its row's stub only, the first stretch
 in air of the site (rows are tapped first). With the rows touching the trench there is no
 stretch at all on a string's route: open air governs (``air``, nothing grouped).
@@ -102,17 +103,25 @@ def assert_on_its_route(c: dict[str, str], segments: dict) -> None:
 
 def test_each_circuit_is_governed_on_its_own_route(tmp_path):
     circuits, segments = plan(tmp_path, row_start_m=6.0)
-    assert list(segments) == ["T1#1", "T1#2", "T1#3", "T1#4", "T1#5"]
+    # hand: T1 runs x 200 → 0, split at the inverter (x 150) and the combiners (x 100, 60, 20);
+    # chainage = 200 - x: 0, 50, 100, 140, 180, 200 m
+    assert list(segments) == [
+        "T1@0.0-50.0",
+        "T1@50.0-100.0",
+        "T1@100.0-140.0",
+        "T1@140.0-180.0",
+        "T1@180.0-200.0",
+    ]
     for c in circuits.values():
         assert_on_its_route(c, segments)
-    # the AC circuit runs in T1#1 only, the first segment: it governs, with its cable sets
+    # the AC circuit runs in T1@0.0-50.0 only, the first segment: it governs, with its cable sets
     ac = circuits["AC:INV1"]
-    assert (ac["trench_segments"], ac["governing"]) == ("T1#1", "T1#1")
-    assert ac["group_count"] == ac["parallel"] == segments["T1#1"]["cable_sets"]
-    # the three array circuits meet in T1#2 (150 → 100), the most grouped segment of each
+    assert (ac["trench_segments"], ac["governing"]) == ("T1@0.0-50.0", "T1@0.0-50.0")
+    assert ac["group_count"] == ac["parallel"] == segments["T1@0.0-50.0"]["cable_sets"]
+    # the three array circuits meet in T1@50.0-100.0 (x 150 → 100), the most grouped of each
     for k in (1, 2, 3):
         a = circuits[f"A:CB{k}"]
-        assert (a["governing"], a["group_count"]) == ("T1#2", "3")
+        assert (a["governing"], a["group_count"]) == ("T1@50.0-100.0", "3")
     # each string runs in air on its row's stub only, with the row's 5 strings
     for k in (1, 2, 3):
         for s in range(1, 6):
@@ -131,4 +140,4 @@ def test_a_route_without_any_stretch_is_governed_by_open_air(tmp_path):
     for c in strings:
         assert (c["route_m"], c["stub_m"], c["trench_segments"]) == ("0.00", "0.00", "")
         assert (c["governing"], c["group_count"]) == ("air", "0")
-    assert circuits["AC:INV1"]["governing"] == "T1#1"
+    assert circuits["AC:INV1"]["governing"] == "T1@0.0-50.0"

@@ -25,6 +25,7 @@ from routeplan.network import (
     build_network,
     check_metric_crs,
     far_problems,
+    segment_ids,
 )
 
 UTM = "EPSG:32633"
@@ -60,26 +61,36 @@ def seg(net, segment_id):
 
 def test_t_junction_splits_the_through_trench():
     net = build_network(trenches(line((0, 0), (100, 0)), line((50, 0), (50, 40))))
-    # hand: T1 is cut at x = 50 where T2 ends on it
-    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T2#1"]
+    # hand: T1 is cut at x = 50 where T2 ends on it; chainage from each trench's first vertex
+    assert net.segments["segment_id"].tolist() == ["T1@0.0-50.0", "T1@50.0-100.0", "T2@0.0-40.0"]
     assert_allclose(net.segments["length_m"], [50.0, 50.0, 40.0], rtol=0, atol=1e-12)
     assert net.n_nodes == 4
-    assert seg(net, "T1#1").node_v == seg(net, "T1#2").node_u == seg(net, "T2#1").node_u
+    assert (
+        seg(net, "T1@0.0-50.0").node_v
+        == seg(net, "T1@50.0-100.0").node_u
+        == seg(net, "T2@0.0-40.0").node_u
+    )
 
 
 def test_crossing_splits_both_trenches():
     net = build_network(trenches(line((0, 0), (100, 0)), line((30, -20), (30, 20))))
-    # hand: crossing at (30, 0)
+    # hand: crossing at (30, 0): 30 m along T1 from (0, 0), 20 m along T2 from (30, -20)
+    assert net.segments["segment_id"].tolist() == [
+        "T1@0.0-30.0",
+        "T1@30.0-100.0",
+        "T2@0.0-20.0",
+        "T2@20.0-40.0",
+    ]
     assert_allclose(net.segments["length_m"], [30.0, 70.0, 20.0, 20.0], rtol=0, atol=1e-12)
     assert net.n_nodes == 5
-    node = seg(net, "T1#2").node_u
+    node = seg(net, "T1@30.0-100.0").node_u
     assert_allclose(net.node_xy[node], [30.0, 0.0], atol=1e-12)
 
 
 def test_continuation_keeps_two_trenches_apart():
     # T2 continues T1 in a straight line: still two segments, one per trench
     net = build_network(trenches(line((0, 0), (50, 0)), line((50, 0), (100, 0))))
-    assert net.segments["segment_id"].tolist() == ["T1#1", "T2#1"]
+    assert net.segments["segment_id"].tolist() == ["T1@0.0-50.0", "T2@0.0-50.0"]
     assert net.n_nodes == 3  # hand: the shared end is one node
 
 
@@ -113,10 +124,14 @@ def test_nearly_touching_end_joins_within_node_tol():
 
 
 def test_overshooting_end_is_trimmed_to_the_crossing():
-    # T2 crosses T1 and ends 5 cm past it: the 5 cm stub is noise and is dropped
-    net = build_network(trenches(line((0, 0), (100, 0)), line((50, -0.05), (50, 40))))
-    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T2#1"]
+    # T2 crosses T1 and ends 4 cm past it: the 4 cm stub is noise and is dropped
+    net = build_network(trenches(line((0, 0), (100, 0)), line((50, -0.04), (50, 40))))
+    # hand: T2's chainage starts at its first vertex (50, -0.04), so what is left of it runs
+    # 0.04 → 40.04 m: T2@0.0-40.0 (4 cm, not 5, keeps the ends off a rounding tie)
+    assert net.segments["segment_id"].tolist() == ["T1@0.0-50.0", "T1@50.0-100.0", "T2@0.0-40.0"]
     assert_allclose(net.segments["length_m"], [50.0, 50.0, 40.0], rtol=0, atol=1e-9)  # hand
+    assert_allclose(net.segments["start_m"], [0.0, 50.0, 0.04], rtol=0, atol=1e-9)
+    assert_allclose(net.segments["end_m"], [50.0, 100.0, 40.04], rtol=0, atol=1e-9)
 
 
 def test_equipment_exactly_on_a_trench_vertex():
@@ -124,8 +139,9 @@ def test_equipment_exactly_on_a_trench_vertex():
         trenches(line((0, 0), (30, 0), (30, 40))),
         equipment(("combiners", "CB1", pt(30, 0))),
     )
-    # hand: the tap at the bend splits the trench there, stub of zero length
-    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2"]
+    # hand: the tap at the bend splits the trench there, stub of zero length; the bend is
+    # 30 m along T1, its end 30 + 40 = 70 m
+    assert net.segments["segment_id"].tolist() == ["T1@0.0-30.0", "T1@30.0-70.0"]
     assert_allclose(net.segments["length_m"], [30.0, 40.0], rtol=0, atol=1e-12)
     geoms = net.segments.geometry
     assert [len(g.coords) for g in geoms] == [2, 2]  # the bend vertex is not repeated
@@ -144,11 +160,12 @@ def test_several_taps_on_one_segment_and_a_tap_reusing_a_node():
             ("inverters", "INV1", pt(100.02, 5)),  # within node_tol of the trench end
         ),
     )
-    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T1#3"]
+    # hand: cuts at R1's tap (x = 20) and CB1's (x = 60, CB2 joins its node); chainage = x
+    assert net.segments["segment_id"].tolist() == ["T1@0.0-20.0", "T1@20.0-60.0", "T1@60.0-100.0"]
     assert_allclose(net.segments["length_m"], [20.0, 40.0, 40.0], rtol=0, atol=1e-12)  # hand
     taps = net.taps.set_index("feature_id")
     assert taps.loc["CB1", "node"] == taps.loc["CB2", "node"]
-    assert taps.loc["INV1", "node"] == seg(net, "T1#3").node_v
+    assert taps.loc["INV1", "node"] == seg(net, "T1@60.0-100.0").node_v
     # hand: stubs end on the node, so CB2's and INV1's stubs lean to it
     assert_allclose(
         taps["stub_m"].to_numpy(),
@@ -205,16 +222,100 @@ def test_no_trench_at_all():
 def test_multilinestring_trench_numbers_segments_across_parts():
     mls = shapely.MultiLineString([[(0, 0), (10, 0)], [(20, 0), (30, 0)]])
     net = build_network(trenches(mls, line((5, -5), (5, 5))))
-    assert net.segments["segment_id"].tolist() == ["T1#1", "T1#2", "T1#3", "T2#1", "T2#2"]
+    # hand: the parts laid end to end: (0,0)-(10,0) is chainage 0-10, (20,0)-(30,0) 10-20; T2
+    # crosses the first part at x = 5, 5 m along T2 from (5, -5)
+    assert net.segments["segment_id"].tolist() == [
+        "T1@0.0-5.0",
+        "T1@5.0-10.0",
+        "T1@10.0-20.0",
+        "T2@0.0-5.0",
+        "T2@5.0-10.0",
+    ]
     assert_allclose(net.segments["length_m"], [5.0, 5.0, 10.0, 5.0, 5.0])  # hand
+    assert_allclose(net.segments["start_m"], [0.0, 5.0, 10.0, 0.0, 5.0], rtol=0, atol=1e-12)
+    assert_allclose(net.segments["end_m"], [5.0, 10.0, 20.0, 5.0, 10.0], rtol=0, atol=1e-12)
 
 
-def test_segment_ids_are_zero_padded_per_trench():
-    crossings = [line((x, -1), (x, 1)) for x in range(1, 11)]
-    net = build_network(trenches(line((0, 0), (11, 0)), *crossings))
+def crossings_at(*xs: float) -> list[shapely.LineString]:
+    """Short trenches across y = 0 at each x, from (x, -1) to (x, 1)."""
+    return [line((x, -1), (x, 1)) for x in xs]
+
+
+def test_segment_id_chainage_is_rounded_to_a_decimetre_half_to_even():
+    # exact ties (binary fractions, exact in a float): half to even, as Python's round() does
+    # it (IEEE 754 roundTiesToEven): 0.25 → 0.2, 0.75 → 0.8, 12.25 → 12.2, 50.75 → 50.8
+    ties = np.array([0.25, 0.75, 12.25, 50.75])
+    assert [round(x, 1) for x in ties] == [0.2, 0.8, 12.2, 50.8]  # Python, the reference
+    ids = segment_ids(np.array(["T", "T", "U", "U"]), ties, ties + 2.5)
+    # hand: 2.75 → 2.8, 3.25 → 3.2, 14.75 → 14.8, 53.25 → 53.2
+    assert ids.tolist() == ["T@0.2-2.8", "T@0.8-3.2", "U@12.2-14.8", "U@50.8-53.2"]
+    # on a site: T1 (0,0) → (100,0) tapped at x = 12.24 and 50.76 by combiners 1 m off it;
+    # chainage = x: 12.24 → 12.2, 50.76 → 50.8
+    net = build_network(
+        trenches(line((0, 0), (100, 0))),
+        equipment(("combiners", "CB1", pt(12.24, -1)), ("combiners", "CB2", pt(50.76, -1))),
+    )
+    assert net.segments["segment_id"].tolist() == [
+        "T1@0.0-12.2",
+        "T1@12.2-50.8",
+        "T1@50.8-100.0",
+    ]
+    # the chainage itself is kept to the float (the schedule's from_m, to_m)
+    assert_allclose(net.segments["start_m"], [0.0, 12.24, 50.76], rtol=0, atol=1e-9)
+    assert_allclose(net.segments["end_m"], [12.24, 50.76, 100.0], rtol=0, atol=1e-9)
+
+
+def test_segments_shorter_than_a_decimetre_are_named_in_millimetres():
+    # crossings 2 cm and 1 cm apart (node_tol 1 mm keeps them apart): T1 is cut at x = 5.01,
+    # 5.03 and 5.04. Rounded to 0.1 m the two short pieces would both be T1@5.0-5.0, so both
+    # take three decimals; the long pieces keep one (0 → 5.01 is T1@0.0-5.0, 5.04 → 11 is
+    # T1@5.0-11.0, which no other piece shares)
+    net = build_network(
+        trenches(line((0, 0), (11, 0)), *crossings_at(5.01, 5.03, 5.04)), node_tol_m=0.001
+    )
     ids = net.segments["segment_id"].tolist()
-    assert ids[:11] == [f"T1#{n:02d}" for n in range(1, 12)]
-    assert ids[11:13] == ["T2#1", "T2#2"]
+    assert ids[:4] == ["T1@0.0-5.0", "T1@5.010-5.030", "T1@5.030-5.040", "T1@5.0-11.0"]
+    assert len(set(ids)) == len(ids) == 4 + 3 * 2  # unique: T1's 4 and 2 per crossing
+    assert_allclose(net.segments["length_m"][:4], [5.01, 0.02, 0.01, 5.96], rtol=0, atol=1e-9)
+
+
+def test_ids_are_unique_and_name_their_trench_before_the_last_at():
+    # trench ids holding the separators of the scheme: "@" and "-"; the trench id is
+    # everything before the last "@" (README, Outputs)
+    tr = gpd.GeoDataFrame(
+        {"id": ["A@1.0-2.0", "B-3", "@"]},
+        geometry=[line((0, 0), (60, 0)), line((20, -10), (20, 10)), line((40, 10), (40, 0))],
+        crs=UTM,
+    )
+    net = build_network(tr)
+    ids = net.segments["segment_id"].tolist()
+    # hand: A is cut at x = 20 (B crosses) and 40 (the "@" trench ends on it); B at its
+    # middle, 10 m from (20, -10); "@" is one piece of 10 m
+    assert ids == [
+        "A@1.0-2.0@0.0-20.0",
+        "A@1.0-2.0@20.0-40.0",
+        "A@1.0-2.0@40.0-60.0",
+        "B-3@0.0-10.0",
+        "B-3@10.0-20.0",
+        "@@0.0-10.0",
+    ]
+    assert len(set(ids)) == len(ids)
+    assert [i.rsplit("@", 1)[0] for i in ids] == net.segments["trench_id"].tolist()
+
+
+def test_chainage_runs_across_a_multilinestrings_parts_in_stored_order():
+    # parts stored second-first: a 3-4-5 diagonal, then a 7.5 m vertical part tapped at y = 2.5
+    diagonal = [(10, 0), (13, 4)]
+    vertical = [(0, 0), (0, 7.5)]
+    mls = shapely.MultiLineString([diagonal, vertical])
+    net = build_network(trenches(mls), equipment(("combiners", "CB1", pt(-1, 2.5))))
+    # shapely: the first part's length is where the second part starts along the trench
+    first = shapely.length(shapely.LineString(diagonal))
+    tap = shapely.line_locate_point(shapely.LineString(vertical), pt(0, 2.5))
+    assert (first, tap) == (5.0, 2.5)  # hand: hypot(3, 4); 2.5 m up the vertical part
+    assert net.segments["segment_id"].tolist() == ["T1@0.0-5.0", "T1@5.0-7.5", "T1@7.5-12.5"]
+    assert_allclose(net.segments["start_m"], [0.0, first, first + tap], rtol=0, atol=1e-12)
+    assert_allclose(net.segments["end_m"], [first, first + tap, first + 7.5], rtol=0, atol=1e-12)
 
 
 def test_attributes_filled_from_defaults():

@@ -10,6 +10,8 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+import shapely
+from numpy.testing import assert_allclose
 from shapely.geometry import LineString
 
 from routeplan import CAUTION, __version__
@@ -105,14 +107,15 @@ def test_cable_schedule_per_kind(small):
     assert (c["status"] == "ok").all()
     # trench segments and the busiest segment on each route: T1's third part carries all 5
     # strings, its second part R2's 3
-    assert c.loc["R2/S1", "trench_segments"] == "T1#2;T1#3;T2#1"
+    assert c.loc["R2/S1", "trench_segments"] == "T1@10.0-20.0;T1@20.0-30.0;T2@0.0-3.0"
     assert c["group_max"].tolist() == [5, 5, 5, 5, 5, 1, 1]
-    assert c.loc["R1/S1", "governing"] == "T1#3"
-    assert c.loc["AC:INV1", "governing"] == "T2#3"
+    assert c.loc["R1/S1", "governing"] == "T1@20.0-30.0"
+    assert c.loc["AC:INV1", "governing"] == "T2@58.0-108.0"
     assert c.loc["A:CB1", "governing"] == "stub INV1"
     # the inverter input each DC circuit lands on; AC circuits land on none
     assert c["input"].tolist()[:6] == [1.0] * 6 and math.isnan(c["input"].tolist()[6])
-    # lengths as routed: R1 at y=10 meets T1 (x=42) 10 m above its corner; T1#3 and T2#1 to
+    # lengths as routed: R1 at y=10 meets T1 (x=42) 10 m above its corner; T1@20.0-30.0 and
+    # T2@0.0-3.0 to
     # CB1 (45, 0): 10 + 3 + 2 m stub = 15 m of route
     assert c.loc["R1/S1", "route_m"] == pytest.approx(15.0)
     assert small.circuits.crs == small.segments.crs == "EPSG:32633"
@@ -121,9 +124,20 @@ def test_cable_schedule_per_kind(small):
 
 def test_trench_schedule_fill_against_capacity(small):
     s = by_id(small.segments, "segment_id")
-    assert s.index.tolist() == ["T1#1", "T1#2", "T1#3", "T2#1", "T2#2", "T2#3"]
+    # hand: T1 runs (42, 30) → (42, 0), tapped by R2 at y = 20 (chainage 10) and R1 at y = 10
+    # (chainage 20); T2 runs (42, 0) → (150, 0), tapped by CB1 at x = 45 (chainage 3), INV1 at
+    # x = 100 (chainage 58) and ends at G1's x = 150 (chainage 108)
+    assert s.index.tolist() == [
+        "T1@0.0-10.0",
+        "T1@10.0-20.0",
+        "T1@20.0-30.0",
+        "T2@0.0-3.0",
+        "T2@3.0-58.0",
+        "T2@58.0-108.0",
+    ]
     assert s["trench_id"].tolist() == ["T1", "T1", "T1", "T2", "T2", "T2"]
-    # circuits counted by hand: T1#2 carries R2's 3 strings, T1#3 and T2#1 all 5
+    # circuits counted by hand: T1@10.0-20.0 carries R2's 3 strings, T1@20.0-30.0 and
+    # T2@0.0-3.0 all 5
     assert s["circuits"].tolist() == [0, 3, 5, 5, 1, 1]
     assert s["cable_sets"].tolist() == [0, 3, 5, 5, 1, 1]
     assert s["strings"].tolist() == [0, 3, 5, 5, 0, 0]
@@ -136,7 +150,17 @@ def test_trench_schedule_fill_against_capacity(small):
     assert s["max_circuits"].tolist() == [4.0, 4.0, 4.0, 5.0, 5.0, 5.0]
     assert s["status"].tolist() == ["ok", "ok", "over", "ok", "ok", "ok"]
     assert s["length_m"].tolist() == pytest.approx([10.0, 10.0, 10.0, 3.0, 55.0, 50.0])
-    assert s.loc["T1#3", "circuit_ids"] == "R1/S1;R1/S2;R2/S1;R2/S2;R2/S3"
+    # chainage of the ends along the trench, the same hand cuts as the ids above
+    assert s["from_m"].tolist() == pytest.approx([0.0, 10.0, 20.0, 0.0, 3.0, 58.0], abs=1e-9)
+    assert s["to_m"].tolist() == pytest.approx([10.0, 20.0, 30.0, 3.0, 58.0, 108.0], abs=1e-9)
+    assert s.loc["T1@20.0-30.0", "circuit_ids"] == "R1/S1;R1/S2;R2/S1;R2/S2;R2/S3"
+    # shapely: from_m, to_m are where the segment's ends lie along its trench
+    trench = small.site.layer("trenches").set_index("id").geometry
+    lines = trench.loc[s["trench_id"]].to_numpy()
+    ends = shapely.get_coordinates(s.geometry.to_numpy()).reshape(-1, 2, 2)  # 2-point segments
+    located = [shapely.line_locate_point(lines, shapely.points(ends[:, k])) for k in (0, 1)]
+    assert_allclose(s["from_m"], located[0], rtol=0, atol=1e-9)
+    assert_allclose(s["to_m"], located[1], rtol=0, atol=1e-9)
     assert s["laying"].tolist() == ["direct"] * 3 + ["duct"] * 3
     assert small.summary["segments"] == {"count": 6, "over_capacity": 1, "trench_m": 138.0}
     assert small.summary["ok"] is False
@@ -172,7 +196,7 @@ def hand_circuits() -> pd.DataFrame:
 def hand_segments(status: tuple[str, ...] = ("ok", "ok", "ok")) -> pd.DataFrame:
     return pd.DataFrame(
         {
-            "segment_id": ["T1#1", "T1#2", "T2#1"],
+            "segment_id": ["T1@0.0-12.5", "T1@12.5-20.0", "T2@0.0-40.0"],
             "laying": ["direct", "direct", "duct"],
             "depth_m": [0.8, 0.8, 0.7],
             "length_m": [12.5, 7.5, 40.0],
@@ -359,14 +383,14 @@ def test_destinations_the_planner_filled_are_listed(tmp_path):
 
 def test_the_first_trench_segment_can_govern(tmp_path):
     # T2 listed first (its parts are segments 0-2), both trenches in duct, T2 deeper (1.2 m)
-    # than T1 (0.7 m): the strings share T1#3 and T2#1 (all 5 in each), and the deeper one
-    # carries less (IEC 60364-5-52 depth correction, from memory: the deeper, the lower), so
-    # T2#1, the very first segment, governs them
+    # than T1 (0.7 m): the strings share T1@20.0-30.0 and T2@0.0-3.0 (all 5 in each), and the
+    # deeper one carries less (IEC 60364-5-52 depth correction, from memory: the deeper, the
+    # lower), so T2@0.0-3.0, the very first segment, governs them
     frames = base_frames()
     t = frames["trenches"]
     t["depth_m"] = [0.7, 1.2]
     t["laying"] = ["duct", "duct"]
     frames["trenches"] = t.iloc[::-1].reset_index(drop=True)
     c = by_id(plan(write_site(tmp_path / "site", frames)).circuits, "circuit_id")
-    assert c["governing"].tolist()[:5] == ["T2#1"] * 5
-    assert c.loc["AC:INV1", "governing"] == "T2#3"
+    assert c["governing"].tolist()[:5] == ["T2@0.0-3.0"] * 5
+    assert c.loc["AC:INV1", "governing"] == "T2@58.0-108.0"

@@ -101,9 +101,19 @@ def test_segments_are_the_hand_cuts_with_the_hand_circuits(lengths_plan):
     for cid, (_, segments) in HAND.items():
         for s in segments:
             on[s].add(cid)
+    # hand chainage of each segment's ends: T1 runs east from x = 0, so a cut's chainage is its
+    # x; T2 runs north from y = 0 and is not cut
+    chainage = {
+        "T1@0.0-10.0": ("0.00", "10.00"),
+        "T1@10.0-60.0": ("10.00", "60.00"),
+        "T1@60.0-100.0": ("60.00", "100.00"),
+        "T1@100.0-200.0": ("100.00", "200.00"),
+        "T2@0.0-80.0": ("0.00", "80.00"),
+    }
     for sid, length in SEGMENT_M.items():
         row = t[sid]
         assert float(row["length_m"]) == pytest.approx(length, abs=HALF_CENT), sid
+        assert (row["from_m"], row["to_m"]) == chainage[sid], sid
         assert set(row["circuit_ids"].split(";")) == on[sid], sid
         kinds = [
             "ac" if i.startswith("AC:") else "array" if i.startswith("A:") else "string"
@@ -155,9 +165,9 @@ def test_trench_fill_counts_parallel_sets_exactly_full_is_ok_over_full_fails(tmp
     assert first.exit_code == 0, first.output
     cables = by_id(out0 / "cable_schedule.csv", "circuit_id")
     sets = hand_sets(cables)
-    assert sets["T2#1"] > 2  # the site is made so: a circuit on T2 in parallel sets
-    t1 = max(v for k, v in sets.items() if k.startswith("T1#"))
-    full = [k for k, v in sets.items() if k.startswith("T1#") and v == t1]
+    assert sets["T2@0.0-80.0"] > 2  # the site is made so: a circuit on T2 in parallel sets
+    t1 = max(v for k, v in sets.items() if k.startswith("T1@"))
+    full = [k for k, v in sets.items() if k.startswith("T1@") and v == t1]
 
     # T1 at exactly its busiest segment's sets: fill 1.000, ok, exit 0
     _, out1, exact = write_and_plan(tmp_path / "exact", lengths_frames({"T1": t1}), LENGTHS_TOML)
@@ -168,7 +178,7 @@ def test_trench_fill_counts_parallel_sets_exactly_full_is_ok_over_full_fails(tmp
     for sid in full:
         assert (t[sid]["fill"], t[sid]["status"]) == ("1.000", "ok"), sid
     for sid in SEGMENT_M:
-        if sid.startswith("T1#"):
+        if sid.startswith("T1@"):
             assert t[sid]["fill"] == f"{sets[sid] / t1:.3f}" and t[sid]["status"] == "ok"
         else:
             assert (t[sid]["max_circuits"], t[sid]["fill"]) == ("", "")  # no capacity
@@ -180,9 +190,15 @@ def test_trench_fill_counts_parallel_sets_exactly_full_is_ok_over_full_fails(tmp
     )
     assert over.exit_code == 1, over.output
     t = by_id(out2 / "trench_schedule.csv", "segment_id")
-    assert int(t["T2#1"]["circuits"]) == 2 and int(t["T2#1"]["cable_sets"]) == sets["T2#1"]
-    assert t["T2#1"]["fill"] == f"{sets['T2#1'] / 2:.3f}" and t["T2#1"]["status"] == "over"
-    assert [sid for sid in t if t[sid]["status"] == "over"] == ["T2#1"]
+    assert (
+        int(t["T2@0.0-80.0"]["circuits"]) == 2
+        and int(t["T2@0.0-80.0"]["cable_sets"]) == sets["T2@0.0-80.0"]
+    )
+    assert (
+        t["T2@0.0-80.0"]["fill"] == f"{sets['T2@0.0-80.0'] / 2:.3f}"
+        and t["T2@0.0-80.0"]["status"] == "over"
+    )
+    assert [sid for sid in t if t[sid]["status"] == "over"] == ["T2@0.0-80.0"]
     c = by_id(out2 / "cable_schedule.csv", "circuit_id")
     assert {r["status"] for r in c.values()} == {"ok"}  # only the trench fails
     assert [c[i]["parallel"] for i in HAND] == [cables[i]["parallel"] for i in HAND]

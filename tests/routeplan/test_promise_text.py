@@ -181,7 +181,8 @@ def test_every_csv_text_cell_is_guarded_and_the_workbook_opens(planned):
                 assert [r[j] for r in body] == expected, column
         first = {r[0] for r in body}  # circuit and segment ids, guarded where they must be
         assert ("'" + HOSTILE["R1"] + "/S1" in first) == (name == "cable_schedule.csv")
-        assert ("'" + HOSTILE["T2"] + "#1" in first) == (name == "trench_schedule.csv")
+        # T2's first segment: (42, 0) → (45, 0), chainage 0 → 3 m along T2
+        assert ("'" + HOSTILE["T2"] + "@0.0-3.0" in first) == (name == "trench_schedule.csv")
         book = load_workbook(out / "cable_schedule.xlsx")  # openpyxl opens it
         got = list(book[sheet].iter_rows(min_row=2, values_only=True))
         for csv_row, xl_row in zip(body, got, strict=True):

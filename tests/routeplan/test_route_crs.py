@@ -47,6 +47,17 @@ def via_lat_lon(site, decimals=None):
     return dataclasses.replace(site, **frames)
 
 
+def stretches(plan) -> list[list[tuple[str, float, float]]]:
+    """Each circuit's route as (trench id, from_m, to_m) of its segments, in route order."""
+    seg = plan.segments.set_index("segment_id")
+    return [
+        [(seg.at[i, "trench_id"], seg.at[i, "start_m"], seg.at[i, "end_m"]) for i in ids.split(";")]
+        if ids
+        else []
+        for ids in plan.circuits["segment_ids"]
+    ]
+
+
 def test_lat_lon_and_utm_give_the_same_routes(comb):
     site = placed(comb(4, 3, 2))
     utm = route_site(site)
@@ -64,8 +75,19 @@ def test_lat_lon_rounded_to_six_decimals_keeps_the_topology(comb):
     utm = route_site(site)
     rounded = route_site(via_lat_lon(site, decimals=6))  # RFC 7946 §11.2: about 10 cm
     a, b = utm.circuits, rounded.circuits
-    # the default node_tol_m (0.1 m) joins the trench ends that rounding pulled apart
-    assert a["segment_ids"].tolist() == b["segment_ids"].tolist()
+    # the default node_tol_m (0.1 m) joins the trench ends that rounding pulled apart: every
+    # route runs the same stretches of the same trenches, in the same order. The segment ids
+    # carry the chainage to 0.1 m (README, Outputs), which the rounding moves by a few cm:
+    # they may differ in the last decimal, so the stretches are compared by trench and
+    # chainage instead (atol as for the lengths below)
+    sa, sb = stretches(utm), stretches(rounded)
+    assert [[t for t, _, _ in r] for r in sa] == [[t for t, _, _ in r] for r in sb]
+    assert_allclose(
+        [m for r in sb for _, *ends in r for m in ends],
+        [m for r in sa for _, *ends in r for m in ends],
+        rtol=0,
+        atol=0.2,
+    )
     assert utm.segments["circuits"].tolist() == rounded.segments["circuits"].tolist()
     # atol: rounding to 1e-6° moves each point by up to 0.056 m north and 0.037 m east
     # (at 48° N); a route's two ends and the nodes on its way each move that much

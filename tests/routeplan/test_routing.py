@@ -39,7 +39,8 @@ def loop_site(make_site):
     Taps: CB1 (102,10) → (100,10) at 110 m; R1 (row x=30, y 43..83) → (30,40) at 210 m;
     POC (-2,20) → (0,20) at 260 m; R2 (row y=5, x -3..-40) → (0,5) at 275 m;
     INV1 (50,-2) → (50,0) at 50 m. All stubs 2 m except the rows' 3 m.
-    Segments: L#1 0-50, L#2 50-110, L#3 110-210, L#4 210-260, L#5 260-275, L#6 275-280.
+    Segments (id: chainage from (0,0), one decimal): L@0.0-50.0, L@50.0-110.0, L@110.0-210.0,
+    L@210.0-260.0, L@260.0-275.0, L@275.0-280.0.
     """
     return make_site(
         rows=[
@@ -59,12 +60,14 @@ def test_loop_routes_take_the_shorter_way(loop_site):
     assert c.index.tolist() == ["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3", "A:CB1", "AC:INV1"]
     # hand: R1 (210 m) → CB1 (110 m) clockwise back 100 m, not 180 m the other way
     assert c.loc["R1/S1", "trench_m"] == 100.0
-    assert c.loc["R1/S1", "segment_ids"] == "L#3"
+    assert c.loc["R1/S1", "segment_ids"] == "L@110.0-210.0"
     # hand: R2 (275 m) → CB1 (110 m) forward through the ring's start: 5 + 110 m
     assert c.loc["R2/S1", "trench_m"] == 115.0
-    assert c.loc["R2/S1", "segment_ids"] == "L#6;L#1;L#2"
-    assert c.loc["A:CB1", "segment_ids"] == "L#2"  # hand: 60 m back to (50, 0)
-    assert c.loc["AC:INV1", "segment_ids"] == "L#1;L#6;L#5"  # hand: 50 + 5 + 15 m
+    assert c.loc["R2/S1", "segment_ids"] == "L@275.0-280.0;L@0.0-50.0;L@50.0-110.0"
+    assert c.loc["A:CB1", "segment_ids"] == "L@50.0-110.0"  # hand: 60 m back to (50, 0)
+    assert (
+        c.loc["AC:INV1", "segment_ids"] == "L@0.0-50.0;L@275.0-280.0;L@260.0-275.0"
+    )  # hand: 50 + 5 + 15 m
     assert_allclose(c["trench_m"], [100, 100, 115, 115, 115, 60, 70], rtol=0, atol=1e-12)
     assert_allclose(c["stub_m"], [5, 5, 5, 5, 5, 4, 4], rtol=0, atol=1e-12)
     assert_allclose(c["route_m"], [105, 105, 120, 120, 120, 64, 74], rtol=0, atol=1e-12)
@@ -81,15 +84,22 @@ def test_loop_routes_take_the_shorter_way(loop_site):
 def test_loop_segment_counts(loop_site):
     plan = route_site(loop_site)
     s = plan.segments.set_index("segment_id")
-    assert s.index.tolist() == ["L#1", "L#2", "L#3", "L#4", "L#5", "L#6"]
+    assert s.index.tolist() == [
+        "L@0.0-50.0",
+        "L@50.0-110.0",
+        "L@110.0-210.0",
+        "L@210.0-260.0",
+        "L@260.0-275.0",
+        "L@275.0-280.0",
+    ]
     assert_allclose(s["length_m"], [50, 60, 100, 50, 15, 5], rtol=0, atol=1e-12)  # hand
     # hand: which circuits use which stretch of the ring
     assert s["circuits"].tolist() == [4, 4, 2, 0, 1, 4]
     assert s["strings"].tolist() == [3, 3, 2, 0, 0, 3]
     assert s["arrays"].tolist() == [0, 1, 0, 0, 0, 0]
     assert s["ac"].tolist() == [1, 0, 0, 0, 1, 1]
-    assert s.loc["L#1", "circuit_ids"] == "AC:INV1;R2/S1;R2/S2;R2/S3"
-    assert s.loc["L#4", "circuit_ids"] == ""
+    assert s.loc["L@0.0-50.0", "circuit_ids"] == "AC:INV1;R2/S1;R2/S2;R2/S3"
+    assert s.loc["L@210.0-260.0", "circuit_ids"] == ""
     assert s["fill"].isna().all() and not s["over_capacity"].any()  # no capacity given
     # hand: Σ count × length over segments = Σ trench length over circuits = 675 m
     assert (s["circuits"] * s["length_m"]).sum() == plan.circuits["trench_m"].sum() == 675.0
@@ -127,8 +137,9 @@ def test_crossing_counts_and_trench_capacity(make_site):
 
     CB1 (3,-1) taps H at x = 3; INV1 (50,-1) at H's east end. Rows (stubs 2 m) tap
     RW H at x = -30, RE H at x = 40, RN V at y = 30, RS V at y = -30; 1, 4, 2, 3 strings.
-    Segments: H#1 -50..-30, H#2 -30..0, H#3 0..3, H#4 3..40, H#5 40..50;
-    V#1 -50..-30, V#2 -30..0, V#3 0..30, V#4 30..50.
+    Segments (chainage = x + 50 on H, y + 50 on V): H@0.0-20.0 (x -50..-30), H@20.0-50.0
+    (-30..0), H@50.0-53.0 (0..3), H@53.0-90.0 (3..40), H@90.0-100.0 (40..50); V@0.0-20.0
+    (y -50..-30), V@20.0-50.0 (-30..0), V@50.0-80.0 (0..30), V@80.0-100.0 (30..50).
     """
     site = make_site(
         rows=[
@@ -146,21 +157,33 @@ def test_crossing_counts_and_trench_capacity(make_site):
     )
     plan = route_site(site)
     s = plan.segments.set_index("segment_id")
-    assert s.index.tolist() == ["H#1", "H#2", "H#3", "H#4", "H#5", "V#1", "V#2", "V#3", "V#4"]
+    assert s.index.tolist() == [
+        "H@0.0-20.0",
+        "H@20.0-50.0",
+        "H@50.0-53.0",
+        "H@53.0-90.0",
+        "H@90.0-100.0",
+        "V@0.0-20.0",
+        "V@20.0-50.0",
+        "V@50.0-80.0",
+        "V@80.0-100.0",
+    ]
     assert_allclose(s["length_m"], [20, 30, 3, 37, 10, 20, 30, 30, 20], rtol=0, atol=1e-12)
-    # hand: every string crosses H#3 except RE's; A:CB1 runs H#4 and H#5
+    # hand: every string crosses H@50.0-53.0 except RE's; A:CB1 runs H@53.0-90.0 and H@90.0-100.0
     assert s["circuits"].tolist() == [0, 1, 6, 5, 1, 0, 3, 2, 0]
     assert s["arrays"].tolist() == [0, 0, 0, 1, 1, 0, 0, 0, 0]
-    assert_allclose(s.loc[["H#3", "H#4", "H#5"], "fill"], [6 / 5, 1.0, 1 / 5])
+    assert_allclose(
+        s.loc[["H@50.0-53.0", "H@53.0-90.0", "H@90.0-100.0"], "fill"], [6 / 5, 1.0, 1 / 5]
+    )
     assert s["over_capacity"].tolist() == [False, False, True] + [False] * 6
-    assert s.loc[["V#2", "V#3"], "fill"].isna().all()
+    assert s.loc[["V@20.0-50.0", "V@50.0-80.0"], "fill"].isna().all()
     c = plan.circuits.groupby("from_id").first()
     assert c.loc[["RW", "RN", "RS", "RE", "CB1"], "segment_ids"].tolist() == [
-        "H#2;H#3",
-        "V#3;H#3",
-        "V#2;H#3",
-        "H#4",
-        "H#4;H#5",
+        "H@20.0-50.0;H@50.0-53.0",
+        "V@50.0-80.0;H@50.0-53.0",
+        "V@20.0-50.0;H@50.0-53.0",
+        "H@53.0-90.0",
+        "H@53.0-90.0;H@90.0-100.0",
     ]
     assert_allclose(c.loc[["RW", "RN", "RS", "RE", "CB1"], "trench_m"], [33, 33, 33, 37, 47])
     assert c.loc[["RW", "RN", "RS", "RE", "CB1"], "group_max"].tolist() == [6, 6, 6, 5, 5]
@@ -196,7 +219,8 @@ def test_row_joins_its_nearest_trench_even_when_another_is_shorter(make_site):
 
     C runs (-2,31) → (-2,60) → (50,60) → (50,0), 141 m, into A (0,0) → (100,0) at x = 50;
     D runs (0,0) → (0,50). CB1 (0,-2) taps A at its start. The rule (join the nearest
-    trench) gives √2 + 141 + 50 + 2 m, though via D it would be 3 + 30 + 2 m.
+    trench) gives √2 + 141 + 50 + 2 m, though via D it would be 3 + 30 + 2 m. C is one segment
+    (C@0.0-141.0: 29 + 52 + 60 m); A is cut at x = 50 where C ends (A@0.0-50.0 first).
     """
     site = make_site(
         rows=[{"id": "R1", "strings": 1, "geometry": line((-40, 30), (-3, 30))}],
@@ -209,7 +233,7 @@ def test_row_joins_its_nearest_trench_even_when_another_is_shorter(make_site):
         ],
     )
     c = route_site(site).circuits.set_index("circuit_id")
-    assert c.loc["R1/S1", "segment_ids"] == "C#1;A#1"
+    assert c.loc["R1/S1", "segment_ids"] == "C@0.0-141.0;A@0.0-50.0"
     assert_allclose(c.loc["R1/S1", "route_m"], math.sqrt(2) + 191 + 2, rtol=1e-12)  # hand
     assert c.index.tolist() == ["R1/S1", "A:CB1"]  # no grid point → no ac circuit
 

@@ -177,7 +177,8 @@ def test_hostile_ids_plan_like_a_normal_site(planned):
             "circuits",
             ["=R\x011", "=R\x011/S1", "+R2\x1b[31m/S3", "-CB\x0b1", "@INV\x7f\x851\x9f"],
         ),
-        ("trench_schedule.csv", "segments", ["=cmd|' /C calc'!A0", "=cmd|' /C calc'!A0#1"]),
+        # T2's first segment runs (42, 0) → (45, 0) along it, chainage 0 → 3 m
+        ("trench_schedule.csv", "segments", ["=cmd|' /C calc'!A0", "=cmd|' /C calc'!A0@0.0-3.0"]),
     ],
 )
 def test_every_text_cell_of_the_csv_is_the_owasp_guarded_text(planned, name, layer, hostile):

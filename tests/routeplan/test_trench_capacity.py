@@ -5,9 +5,10 @@ The rule (README, trench schedule): ``fill = cable_sets / max_circuits``, where 
 as n parallel sets counts n times, and a segment is over when ``cable_sets > max_circuits``.
 The counts are worked out by hand from the base site's geometry (tests/conftest.py): row R1
 (2 strings) meets trench T1 (x = 42, y 30 → 0) at y = 10, row R2 (3 strings) at y = 20, and
-combiner CB1 (45, 0) meets T2 (y = 0, x 42 → 150) at x = 45. So T1 is cut at y = 20 and 10:
-T1#1 (30 → 20) carries nothing, T1#2 (20 → 10) R2's 3 strings, T1#3 (10 → 0) all 5, and
-T2#1 (42 → 45) the 5 strings into the combiner.
+combiner CB1 (45, 0) meets T2 (y = 0, x 42 → 150) at x = 45. So T1 is cut at y = 20 and 10,
+chainage 30 - y from its first vertex (42, 30): T1@0.0-10.0 (y 30 → 20) carries nothing,
+T1@10.0-20.0 (y 20 → 10) R2's 3 strings, T1@20.0-30.0 (y 10 → 0) all 5, and T2@0.0-3.0
+(x 42 → 45, chainage x - 42) the 5 strings into the combiner.
 """
 
 from __future__ import annotations
@@ -61,10 +62,12 @@ def with_capacity(t1: float, t2: float):
 def test_a_segment_exactly_full_is_within_its_limit(tmp_path):
     result, segments, circuits, summary = plan(tmp_path, with_capacity(5, 5))
     assert result.exit_code == 0, result.output
-    for sid in ("T1#3", "T2#1"):  # 5 strings where 5 are allowed
+    for sid in ("T1@20.0-30.0", "T2@0.0-3.0"):  # 5 strings where 5 are allowed
         s = segments[sid]
         assert (s["circuits"], s["cable_sets"], s["fill"], s["status"]) == ("5", "5", "1.000", "ok")
-    assert segments["T1#2"]["fill"] == "0.600" and segments["T1#1"]["fill"] == "0.000"
+    assert (
+        segments["T1@10.0-20.0"]["fill"] == "0.600" and segments["T1@0.0-10.0"]["fill"] == "0.000"
+    )
     assert_rule(segments)
     assert {c["status"] for c in circuits} == {"ok"}
     assert summary["ok"] is True and summary["segments"]["over_capacity"] == 0
@@ -75,10 +78,13 @@ def test_a_segment_exactly_full_is_within_its_limit(tmp_path):
 def test_one_circuit_over_fails_the_plan(tmp_path):
     result, segments, circuits, summary = plan(tmp_path, with_capacity(4, 5))
     assert result.exit_code == 1, result.output
-    assert (segments["T1#3"]["fill"], segments["T1#3"]["status"]) == ("1.250", "over")
-    assert (segments["T1#2"]["fill"], segments["T1#2"]["status"]) == ("0.750", "ok")
-    assert (segments["T2#1"]["fill"], segments["T2#1"]["status"]) == ("1.000", "ok")
-    assert [sid for sid, s in segments.items() if s["status"] == "over"] == ["T1#3"]
+    assert (segments["T1@20.0-30.0"]["fill"], segments["T1@20.0-30.0"]["status"]) == (
+        "1.250",
+        "over",
+    )
+    assert (segments["T1@10.0-20.0"]["fill"], segments["T1@10.0-20.0"]["status"]) == ("0.750", "ok")
+    assert (segments["T2@0.0-3.0"]["fill"], segments["T2@0.0-3.0"]["status"]) == ("1.000", "ok")
+    assert [sid for sid, s in segments.items() if s["status"] == "over"] == ["T1@20.0-30.0"]
     assert_rule(segments)
     assert {c["status"] for c in circuits} == {"ok"}  # the segment alone fails the plan
     assert summary["ok"] is False and summary["segments"]["over_capacity"] == 1
@@ -88,7 +94,8 @@ def test_one_circuit_over_fails_the_plan(tmp_path):
 
 def parallel_site(cap_t3: float):
     """T2 ends at the inverter's tap (x = 100) and T3 carries the AC circuit on to the grid;
-    AC cables limited to 50 mm² are laid as 3 parallel sets (each set takes a place)."""
+    AC cables limited to 50 mm² are laid as 3 parallel sets (each set takes a place). T3 runs
+    (100, 0) → (150, 0), uncut (the grid point taps its end): T3@0.0-50.0."""
 
     def xy(x: float, y: float) -> tuple[float, float]:
         return (E0 + x, N0 + y)
@@ -115,13 +122,13 @@ def test_parallel_sets_fill_the_trench(tmp_path):
     result, segments, circuits, summary = plan(tmp_path / "full", *parallel_site(3))
     ac = next(c for c in circuits if c["kind"] == "ac")
     assert ac["parallel"] == "3" and ac["status"] == "ok"
-    s = segments["T3#1"]
+    s = segments["T3@0.0-50.0"]
     assert (s["circuits"], s["cable_sets"], s["fill"], s["status"]) == ("1", "3", "1.000", "ok")
     assert result.exit_code == 0, result.output
     assert_rule(segments)
 
     result, segments, circuits, summary = plan(tmp_path / "over", *parallel_site(2))
-    s = segments["T3#1"]
+    s = segments["T3@0.0-50.0"]
     # one circuit where two are allowed, but three cable sets: over
     assert (s["circuits"], s["cable_sets"], s["fill"], s["status"]) == ("1", "3", "1.500", "over")
     assert result.exit_code == 1, result.output
