@@ -119,6 +119,7 @@ def _trench(**changes):
         ([0, 2, 1], [0, 2, 1]),  # any order
         ([0.0, 1.0, 2.0], [0.0, 1.0, 2.0]),  # whole numbers read as floats from a table
         ([0, 0, 1, 2], [0, 0, 1, 2]),  # a pair given twice counts once
+        ([0, 1, 1, 2], [0, 1, 1, 2]),  # also after the first pair
     ],
 )
 def test_each_circuit_is_rated_in_its_own_segment_however_the_incidence_is_given(incidence):
