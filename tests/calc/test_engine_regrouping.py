@@ -88,3 +88,13 @@ def test_sub_array_cables_are_sized_from_their_own_size_list():
     inp = _input(kind=[1, 3, 0], parent=[-1, 0, 1], n_strings=[10, 4, 1])
     res = size_circuits(inp, DesignParams(sizes_subarray_mm2=(95.0, 120.0)))
     assert res.size_mm2[1] == 95.0
+
+
+def test_an_open_circuit_voltage_on_the_rating_up_to_rounding_passes():
+    # β = 0 %/°C (no temperature change): V_OC,max = V_OC. A V_OC equal to the 1500 V rating up
+    # to float rounding (1 part in 10⁹, the engine's tolerance) is on the rating: allowed.
+    voc = 1500.0 * (1.0 + 1e-9)
+    inp = _input(kind=[0], voc_v=[voc], voc_coeff_pct_per_c=[0.0])
+    res = size_circuits(inp, DesignParams(dc_rated_v=1500.0))
+    assert res.voc_max_v.tolist() == [voc]
+    assert res.ok.tolist() == [True]
