@@ -375,6 +375,16 @@ def _arr(value, n: int, default: float, dtype=float) -> np.ndarray:
     return np.broadcast_to(a, (n,)).copy() if a.ndim == 0 else a.copy()
 
 
+def _fractional(value) -> np.ndarray:
+    """True where a code or an index is given with a fractional part (phases 1.5): the integer
+    cast would truncate it silently. nan is left to the range checks; None (not given) is fine."""
+    v = np.asarray(np.zeros(0) if value is None else value)
+    if v.dtype.kind not in "fc":
+        return np.zeros(v.shape, bool)
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(v) & (v != np.trunc(v))
+
+
 def _where(mask: np.ndarray) -> str:
     idx = np.flatnonzero(mask)
     more = f" and {len(idx) - 5} more" if len(idx) > 5 else ""
@@ -417,6 +427,10 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     if problems:
         raise InputError("; ".join(problems))
 
+    for name in ("kind", "parent", "phases", "dc_group"):
+        bad = _fractional(getattr(inp, name))
+        if np.any(bad):
+            problems.append(f"{name} must be a whole number at circuits {_where(bad)}")
     dc = kind != KIND_AC
     ac = ~dc
     bad = (kind < 0) | (kind >= len(KIND_NAMES))
@@ -488,6 +502,14 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
         problems.append("inc_circuit and inc_segment must have the same length")
     if problems:
         raise InputError("; ".join(problems))
+    for name, where in (
+        ("seg_laying", "segments"),
+        ("inc_circuit", "positions"),
+        ("inc_segment", "positions"),
+    ):
+        bad = _fractional(getattr(inp, name))
+        if np.any(bad):
+            problems.append(f"{name} must be a whole number at {where} {_where(bad)}")
     lay = a["seg_laying"]
     for name, bad in (
         ("seg_laying must be 0 (direct) or 1 (duct)", (lay != 0) & (lay != 1)),
@@ -543,6 +565,10 @@ def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
     """The air stretches' counts and incidence (sorted by circuit; duplicates count once)."""
     ic = np.zeros(0, np.int64) if inp.air_inc_circuit is None else np.asarray(inp.air_inc_circuit)
     ks = np.zeros(0, np.int64) if inp.air_inc_stretch is None else np.asarray(inp.air_inc_stretch)
+    for name, value in (("air_inc_circuit", ic), ("air_inc_stretch", ks)):
+        bad = _fractional(value)
+        if np.any(bad):
+            raise InputError(f"{name} must be a whole number at positions {_where(bad)}")
     ic, ks = ic.astype(np.int64).ravel(), ks.astype(np.int64).ravel()
     if ic.shape != ks.shape:
         raise InputError("air_inc_circuit and air_inc_stretch must have the same length")
