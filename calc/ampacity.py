@@ -92,7 +92,9 @@ def _temp_table_factor(table: str, column: str, temp_c: ArrayLike, what: str) ->
     ok = ~np.isnan(t[column])
     x, y = t["temp_c"][ok], t[column][ok]
     temp = np.asarray(temp_c, dtype=float)
-    if np.any(temp > x[-1]) or np.any(np.isnan(temp)):
+    if np.any(np.isnan(temp)):
+        raise TableRangeError(f"{what} {column}: a temperature is missing (NaN)")
+    if np.any(temp > x[-1]):
         raise TableRangeError(f"{what} {column}: temperature above {x[-1]:g} °C is off the table")
     return np.interp(temp, x, y)  # below the first row: first row's factor (conservative)
 

@@ -98,7 +98,7 @@ def test_a_temperature_above_the_last_row_is_refused_naming_the_table(call, mess
 def test_a_missing_temperature_is_refused_naming_the_table(call, table):
     with pytest.raises(TableRangeError) as err:
         call()
-    assert str(err.value).startswith(table + ": ")
+    assert str(err.value) == f"{table}: a temperature is missing (NaN)"
 
 
 @pytest.mark.parametrize(
