@@ -175,6 +175,13 @@ def look_key(look: object) -> str:
     return key if key in LOOKS else "other"
 
 
+def look_keys(values) -> np.ndarray:
+    """:func:`look_key` of each value (once per distinct value), as an object array."""
+    codes, uniques = pd.factorize(pd.Series(list(values), dtype=object), use_na_sentinel=False)
+    keys = np.array([look_key(u) for u in uniques] + ["other"], dtype=object)
+    return keys[codes] if len(codes) else np.zeros(0, dtype=object)
+
+
 def look_class(key: str) -> str:
     """CSS class of the new lines of one kind of change (``rp-look-size-up``)."""
     return "rp-look-" + key.replace(" ", "-")
@@ -259,7 +266,7 @@ def circuit_layers(
     the old plan's routes ``old`` (all but "added") and the new plan's ``new`` (all but
     "removed"), both in the same CRS."""
     ids = text_values(table, "circuit_id")
-    keys = np.array([look_key(v) for v in table["look"].tolist()], dtype=object)
+    keys = look_keys(table["look"])
     at_old = _positions(id_index(old, "circuit_id"), ids)
     at_new = _positions(id_index(new, "circuit_id"), ids)
     use_old = (at_old >= 0) & (keys != "added")

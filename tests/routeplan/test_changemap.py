@@ -499,3 +499,25 @@ def test_table_without_a_column_is_named(pair):
     with pytest.raises(DiffError, match=r"^change map: the segments table has no column new_ids$"):
         render_change_map(pair["old"], pair["new"], t["circuits"],
                           t["segments"].drop(columns="new_ids"), t["plant"])  # fmt: skip
+
+
+def test_damaged_folders_are_one_line_naming_the_file(pair, tmp_path):
+    t = diff_tables()
+    args = (t["circuits"], t["segments"], t["plant"])
+    # a routes.gpkg without its equipment layer
+    broken = tmp_path / "no-equipment"
+    broken.mkdir()
+    (broken / "summary.json").write_bytes((pair["new"] / "summary.json").read_bytes())
+    for layer in ("circuits", "segments", "rows"):
+        gpkg(pair["new"], layer).to_file(broken / "routes.gpkg", layer=layer)
+    with pytest.raises(DiffError) as err:
+        render_change_map(pair["old"], broken, *args)
+    message = str(err.value)
+    assert message.startswith(f"{broken / 'routes.gpkg'}: cannot read layer 'equipment'")
+    assert "\n" not in message
+    # a summary.json without the site's name
+    (broken / "summary.json").write_text('{"site": {}}', encoding="utf-8")
+    with pytest.raises(
+        DiffError, match=rf"^{re.escape(str(broken / 'summary.json'))}: no site\.name$"
+    ):
+        render_change_map(broken, pair["new"], *args)
