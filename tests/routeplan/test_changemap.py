@@ -269,6 +269,8 @@ def test_each_changed_circuit_is_drawn_in_both_versions(layers, pair):
 
 def test_old_routes_are_dashed_grey_and_new_ones_coloured_by_change(layers):
     old = layers["rp_cm_old_ok"]
+    grey = [int(OLD_COLOUR[i : i + 2], 16) for i in (1, 3, 5)]
+    assert len(set(grey)) == 1  # R = G = B: a grey
     assert old["styles"] == [
         {
             "color": OLD_COLOUR,
@@ -293,6 +295,22 @@ def test_old_routes_are_dashed_grey_and_new_ones_coloured_by_change(layers):
     longer = layers["rp_cm_new_longer"]
     assert prop(longer, "summary") == [escape_text("route_m 15.00 → 35.00 (+20.00)")] * 2
     assert prop(longer, "change") == ["longer"] * 2
+
+
+def test_now_failing_is_thick_vermillion_and_an_unknown_look_is_other(pair):
+    t = diff_tables()
+    c = t["circuits"].copy()
+    c.loc[c["circuit_id"] == "R3/S1", "look"] = "now failing"
+    c.loc[c["circuit_id"] == "A:CB2", "look"] = "Renamed <i>x</i>"
+    drawn = page_layers(render_change_map(pair["old"], pair["new"], c, t["segments"], t["plant"]))
+    failing = drawn["rp_cm_new_now_failing"]
+    assert prop(failing, "circuit") == ["R3/S1"]
+    assert failing["styles"][0]["color"] == OKABE_ITO["vermillion"]
+    assert failing["styles"][0]["weight"] > drawn["rp_cm_new_longer"]["styles"][0]["weight"]
+    other = drawn["rp_cm_new_other"]
+    assert prop(other, "circuit") == ["A:CB2"]
+    assert prop(other, "change") == [escape_text("Renamed <i>x</i>")]  # shown as given
+    assert other["styles"][0]["color"] == LOOK_COLOUR["other"]
 
 
 def test_palette_is_okabe_ito_and_every_look_has_a_colour():
