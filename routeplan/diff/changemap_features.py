@@ -50,7 +50,7 @@ from routeplan.outputs.map_features import (
     make_layer,
     text_values,
 )
-from routeplan.outputs.map_text import MISSING, fmt_number, join_limited
+from routeplan.outputs.map_text import MISSING, escape_all, fmt_number, join_limited
 
 #: The kinds of change of a circuit (``look`` of the diff's circuits table), in legend order.
 LOOKS: tuple[str, ...] = (
@@ -139,6 +139,7 @@ CIRCUIT_FIELDS = (
     ("conductor", "Conductor"),
     ("length", "Route / cable"),
     ("status", "Status"),
+    ("same", "Same line"),
 )
 SEGMENT_FIELDS = (
     ("segment", "Trench segment"),
@@ -259,6 +260,47 @@ def _circuit_props(rows: gpd.GeoDataFrame, table: pd.DataFrame, plan: str) -> di
     )
 
 
+def same_line(geoms: np.ndarray, ids: Sequence[str]) -> list[str]:
+    """For each drawn line, the changed circuits of its layer drawn along exactly the same
+    line ("" when it is alone): they hide one another, so each tooltip names them all.
+
+    Examples
+    --------
+    >>> a, b = shapely.LineString([(0, 0), (1, 0)]), shapely.LineString([(0, 1), (1, 1)])
+    >>> same_line(np.array([a, b, a]), ["R1/S1", "R2/S1", "R1/S2"])
+    ['2 circuits: R1/S1, R1/S2', '', '2 circuits: R1/S1, R1/S2']
+    """
+    n = len(geoms)
+    if n == 0:
+        return []
+    codes = pd.factorize(pd.Series(shapely.to_wkb(geoms), dtype=object))[0]
+    counts = np.bincount(codes)
+    if counts.max() < 2:
+        return [""] * n
+    ids = np.asarray(list(ids), dtype=object)
+    text = np.full(len(counts), "", dtype=object)
+    order = np.argsort(codes, kind="stable")
+    starts = np.r_[0, np.cumsum(counts)[:-1]]
+    for code in np.flatnonzero(counts > 1).tolist():
+        members = ids[order[starts[code] : starts[code] + counts[code]]].tolist()
+        text[code] = f"{len(members):,} circuits: {join_limited(members)}"
+    return text[codes].tolist()
+
+
+def _line_layer(rows: gpd.GeoDataFrame, table: pd.DataFrame, plan: str, style: dict) -> Layer:
+    """One layer of changed circuits: ``rows`` of a plan's routes changed as ``table`` says
+    (same order), all drawn in ``style``."""
+    geoms = display_geometry(rows)
+    props = _circuit_props(rows, table, plan)
+    props["same"] = np.asarray(
+        escape_all(same_line(geoms, text_values(table, "circuit_id"))), dtype=object
+    )
+    n = len(rows)
+    return make_layer(
+        geoms, props, ([dict(style)] if n else [], np.zeros(n, dtype=np.int64)), CIRCUIT_FIELDS
+    )
+
+
 def circuit_layers(
     old: gpd.GeoDataFrame, new: gpd.GeoDataFrame, table: pd.DataFrame
 ) -> CircuitDrawing:
@@ -272,28 +314,15 @@ def circuit_layers(
     use_old = (at_old >= 0) & (keys != "added")
     use_new = (at_new >= 0) & (keys != "removed")
 
-    rows = old.iloc[at_old[use_old]]
-    props = _circuit_props(rows, table[use_old], OLD_PLAN)
-    n_old = int(use_old.sum())
-    old_layer = make_layer(
-        display_geometry(rows),
-        props,
-        ([dict(OLD_STYLE)] if n_old else [], np.zeros(n_old, dtype=np.int64)),
-        CIRCUIT_FIELDS,
-    )
+    old_layer = _line_layer(old.iloc[at_old[use_old]], table[use_old], OLD_PLAN, OLD_STYLE)
     new_layers: dict[str, Layer] = {}
     for key in LOOKS:
         pick = use_new & (keys == key)
         if not pick.any():
             continue
-        rows = new.iloc[at_new[pick]]
-        props = _circuit_props(rows, table[pick], NEW_PLAN)
         weight = FAILING_WEIGHT if key == "now failing" else NEW_WEIGHT
         style = {"color": LOOK_COLOUR[key], "weight": weight, "opacity": 1}
-        n = int(pick.sum())
-        new_layers[key] = make_layer(
-            display_geometry(rows), props, ([style], np.zeros(n, dtype=np.int64)), CIRCUIT_FIELDS
-        )
+        new_layers[key] = _line_layer(new.iloc[at_new[pick]], table[pick], NEW_PLAN, style)
     missing = [str(i) for i in ids[~(use_old | use_new)]]
     return CircuitDrawing(old_layer, new_layers, missing)
 

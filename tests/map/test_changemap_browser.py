@@ -194,6 +194,7 @@ def test_hover_new_and_old_routes(changes: ChangePage):
     # the three strings of R2 share one route: the last drawn, R2/S3, is the one on top
     text = changes.tooltip_of("circuit", "R2/S3", "new")
     assert "size up" in text and "6 mm² Cu" in text
+    assert "3 circuits: R2/S1, R2/S2, R2/S3" in text  # the ones it hides
     changes.assert_clean()
 
 

@@ -297,6 +297,17 @@ def test_old_routes_are_dashed_grey_and_new_ones_coloured_by_change(layers):
     assert prop(longer, "change") == ["longer"] * 2
 
 
+def test_circuits_drawn_on_one_line_name_each_other(layers):
+    # the strings of a row share their whole route (rows are a line each in this site): the
+    # top one hides the others, so each tooltip names every circuit on that line
+    assert prop(layers["rp_cm_new_longer"], "same") == ["2 circuits: R1/S1, R1/S2"] * 2
+    assert prop(layers["rp_cm_new_size_up"], "same") == ["3 circuits: R2/S1, R2/S2, R2/S3"] * 3
+    assert prop(layers["rp_cm_new_shorter"], "same") == [""]  # A:CB1 runs alone
+    old = dict(zip(prop(layers["rp_cm_old_ok"], "circuit"), prop(layers["rp_cm_old_ok"], "same"),
+                   strict=True))  # fmt: skip
+    assert old["R1/S2"] == "2 circuits: R1/S1, R1/S2" and old["A:CB1"] == ""
+
+
 def test_now_failing_is_thick_vermillion_and_an_unknown_look_is_other(pair):
     t = diff_tables()
     c = t["circuits"].copy()
