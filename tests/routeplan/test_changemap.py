@@ -423,22 +423,33 @@ def test_equipment_that_did_not_move_is_not_an_arrow(pair, tmp_path):
     assert "No plant-level change." in html
 
 
-def test_old_plan_in_another_crs_is_reprojected(pair, tmp_path):
-    # the old plan's routes.gpkg in UTM zone 32N: drawn where it was, distances unchanged
-    old = tmp_path / "old"
-    old.mkdir()
-    (old / "summary.json").write_bytes((pair["old"] / "summary.json").read_bytes())
+@pytest.mark.parametrize(
+    ("version", "crs", "working"),
+    [
+        ("old", "EPSG:32632", "EPSG:32633"),  # the old plan in UTM 32N: onto the new one's CRS
+        ("new", "EPSG:4326", "EPSG:32633"),  # the new plan in lon/lat: distances in UTM 33N
+    ],
+)
+def test_plans_in_other_crss_are_reprojected(pair, tmp_path, version, crs, working):
+    # one plan's routes.gpkg rewritten in another CRS: drawn where it was, distances unchanged
+    moved = tmp_path / version
+    moved.mkdir()
+    (moved / "summary.json").write_bytes((pair[version] / "summary.json").read_bytes())
     for layer in ("circuits", "segments", "rows", "equipment"):
-        gpkg(pair["old"], layer).to_crs("EPSG:32632").to_file(old / "routes.gpkg", layer=layer)
+        gpkg(pair[version], layer).to_crs(crs).to_file(moved / "routes.gpkg", layer=layer)
+    folders = dict(pair, **{version: moved})
     t = diff_tables()
-    drawn = page_layers(
-        render_change_map(old, pair["new"], t["circuits"], t["segments"], t["plant"])
+    html = render_change_map(
+        folders["old"], folders["new"], t["circuits"], t["segments"], t["plant"]
     )
+    drawn = page_layers(html)
     assert prop(drawn["rp_cm_moves_arrows"], "moved") == ["CB1 moved 20.0 m"]
-    routes = gpkg(pair["old"], "circuits").set_index("circuit_id")
-    for f in drawn["rp_cm_old_ok"]["features"]:
-        line = routes.loc[f["properties"]["circuit"], "geometry"]
-        assert shapely.distance(shapely.points(utm_coords(f)), line).max() < 0.1
+    assert f"Working CRS {working}, shown in WGS 84." in html
+    for plan, name in (("old", "rp_cm_old_ok"), ("new", "rp_cm_new_longer")):
+        routes = gpkg(pair[plan], "circuits").set_index("circuit_id")
+        for f in drawn[name]["features"]:
+            line = routes.loc[f["properties"]["circuit"], "geometry"]
+            assert shapely.distance(shapely.points(utm_coords(f)), line).max() < 0.1
 
 
 # -- panel --------------------------------------------------------------------------------------
