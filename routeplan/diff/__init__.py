@@ -34,10 +34,12 @@ CHANGE_MAP_MARK = b'<meta name="generator" content="routeplan diff --map">'
 
 def change_map_html(diff: PlanDiff) -> str:
     """The change map of ``diff`` (:mod:`routeplan.diff.changemap`), with
-    :data:`CHANGE_MAP_MARK` at the start of its ``<head>``."""
+    :data:`CHANGE_MAP_MARK` at the start of its ``<head>``. Circuits whose only change is
+    their cumulative DC drop (scope ``follows``) are not drawn: they did not move or change."""
     from .changemap import render_change_map
 
-    page = render_change_map(diff.old_dir, diff.new_dir, diff.circuits, diff.segments, diff.plant)
+    drawn = diff.circuits[diff.circuits["scope"] != "follows"]
+    page = render_change_map(diff.old_dir, diff.new_dir, drawn, diff.segments, diff.plant)
     head = page.lower().find("<head>")
     if head < 0:
         raise ValueError("the change map has no <head>")
