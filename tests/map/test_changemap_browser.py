@@ -210,11 +210,13 @@ def test_arrow_and_equipment_tooltips(changes: ChangePage):
 
 def test_changed_segments_are_highlighted(changes: ChangePage):
     page = changes.page
-    assert page.locator("path.rp-cm-segment-new").count() == 2  # T1#1, T2#1
-    assert page.locator("path.rp-cm-segment-old").count() == 2  # T3#1, T3#2 (removed)
-    text = changes.tooltip_of("segment", "T3#2")
-    assert "trench T3 removed `x`" in text and "T3#1, T3#2" in text
-    text = changes.tooltip_of("segment", "T1#1")
+    assert page.locator("path.rp-cm-segment-new").count() == 2  # T1@0.0-10.0, T2@0.0-23.0
+    assert (
+        page.locator("path.rp-cm-segment-old").count() == 2
+    )  # T3@0.0-12.0, T3@12.0-20.0 (removed)
+    text = changes.tooltip_of("segment", "T3@12.0-20.0")
+    assert "trench T3 removed `x`" in text and "T3@0.0-12.0, T3@12.0-20.0" in text
+    text = changes.tooltip_of("segment", "T1@0.0-10.0")
     assert "circuits 0 → 1 <b>x</b>" in text
     changes.assert_clean()
 
@@ -253,7 +255,7 @@ def test_hostile_ids_are_shown_as_text(hostile: ChangePage, screenshots: Path):
     assert "removed </script><img src=y onerror=alert(4)>" in text
     moved = f"{HOSTILE['CB1']} moved 20.0 m"
     assert moved in hostile.tooltip_of("moved", moved)
-    text = hostile.tooltip_of("segment", f"{HOSTILE['T2']}#1")
+    text = hostile.tooltip_of("segment", f"{HOSTILE['T2']}@0.0-23.0")
     assert HOSTILE["T2"] in text
     assert "R`2/S3" in hostile.tooltip_of("circuit", "R`2/S3", "new")
 

@@ -147,9 +147,15 @@ def diff_tables(names: dict[str, str] | None = None) -> dict[str, pd.DataFrame]:
     )
     segments = pd.DataFrame(
         [
-            ("removed", "T3", ("T3#1", "T3#2"), (), "trench T3 removed `x`"),
-            ("merged", t2, (f"{t2}#1", f"{t2}#2"), (f"{t2}#1",), "2 segments → 1: 18.0 m → 23.0 m"),
-            ("changed", "T1", ("T1#1",), ("T1#1",), "circuits 0 → 1 <b>x</b>"),
+            ("removed", "T3", ("T3@0.0-12.0", "T3@12.0-20.0"), (), "trench T3 removed `x`"),
+            (
+                "merged",
+                t2,
+                (f"{t2}@0.0-3.0", f"{t2}@3.0-18.0"),
+                (f"{t2}@0.0-23.0",),
+                "2 segments → 1: 18.0 m → 23.0 m",
+            ),
+            ("changed", "T1", ("T1@0.0-10.0",), ("T1@0.0-10.0",), "circuits 0 → 1 <b>x</b>"),
         ],
         columns=["event", "trench_id", "old_ids", "new_ids", "text"],
     )
@@ -238,7 +244,9 @@ def test_the_scenario_changes_what_the_tables_say(pair):
             assert n.loc[cid, "size_mm2"] > o.loc[cid, "size_mm2"]
     seg_old = set(gpkg(pair["old"], "segments")["segment_id"])
     seg_new = set(gpkg(pair["new"], "segments")["segment_id"])
-    assert {"T3#1", "T3#2"} <= seg_old and not any(s.startswith("T3") for s in seg_new)
+    assert {"T3@0.0-12.0", "T3@12.0-20.0"} <= seg_old and not any(
+        s.startswith("T3") for s in seg_new
+    )
 
 
 # -- circuits ---------------------------------------------------------------------------------
@@ -346,7 +354,7 @@ def test_look_and_ids_are_read_leniently():
     assert look_key("Now Failing") == "now failing"
     assert look_key("renamed") == "other" and look_key(np.nan) == "other"
     assert ids_of(("a", "b")) == ["a", "b"] and ids_of(["x"]) == ["x"]
-    assert ids_of(()) == [] and ids_of(None) == [] and ids_of("T1#2") == ["T1#2"]
+    assert ids_of(()) == [] and ids_of(None) == [] and ids_of("T1@10.0-20.0") == ["T1@10.0-20.0"]
 
 
 # -- segments -----------------------------------------------------------------------------------
@@ -355,14 +363,17 @@ def test_look_and_ids_are_read_leniently():
 def test_changed_segments_are_highlighted_with_their_text(layers):
     new = layers["rp_cm_segments_new"]
     old = layers["rp_cm_segments_old"]
-    assert sorted(prop(new, "segment")) == ["T1#1", "T2#1"]
-    assert sorted(prop(old, "segment")) == ["T3#1", "T3#2"]  # the removed trench, from OLD
+    assert sorted(prop(new, "segment")) == ["T1@0.0-10.0", "T2@0.0-23.0"]
+    assert sorted(prop(old, "segment")) == [
+        "T3@0.0-12.0",
+        "T3@12.0-20.0",
+    ]  # the removed trench, from OLD
     assert "dashArray" in old["styles"][0] and "dashArray" not in new["styles"][0]
     by_segment = dict(zip(prop(new, "segment"), prop(new, "text"), strict=True))
-    assert by_segment["T1#1"] == escape_text("circuits 0 → 1 <b>x</b>")
-    assert by_segment["T2#1"] == escape_text("2 segments → 1: 18.0 m → 23.0 m")
+    assert by_segment["T1@0.0-10.0"] == escape_text("circuits 0 → 1 <b>x</b>")
+    assert by_segment["T2@0.0-23.0"] == escape_text("2 segments → 1: 18.0 m → 23.0 m")
     assert set(prop(old, "text")) == {escape_text("trench T3 removed `x`")}
-    assert set(prop(old, "old_ids")) == {"T3#1, T3#2"}
+    assert set(prop(old, "old_ids")) == {"T3@0.0-12.0, T3@12.0-20.0"}
 
 
 def test_segment_bands_lie_on_their_plan_s_segments(layers, pair):
