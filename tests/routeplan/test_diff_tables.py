@@ -1,8 +1,11 @@
 """``routeplan.diff`` on small schedules written by hand (no plan is run, so these tests are
-quick enough for mutation testing): every change listed with its section, id, field and the
-old and new text; every damaged schedule refused with one line naming the file, the line
-and the column. The expected lines are counted by hand in the text each test writes; CSV
-is read as RFC 4180 says (Python's ``csv`` module)."""
+quick enough for mutation testing): every change listed with its section, id, field, the old
+and new text, the delta (new − old with the column's decimals, worked out by hand in the
+comments), the circuit's scope and cause; trench segments matched by their chainage (removed,
+added, split, merged); the plant block from summary.json; every damaged schedule or
+summary.json refused with one line naming the file, the line and the column or key. The
+expected lines are counted by hand in the text each test writes; CSV is read as RFC 4180 says
+(Python's ``csv`` module)."""
 
 from __future__ import annotations
 
