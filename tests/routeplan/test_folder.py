@@ -425,7 +425,7 @@ def test_diff_out_writes_a_folder_and_refuses_a_file(site, tmp_path):
     assert plan(site, out).exit_code in (0, 1)
     result = runner.invoke(app, ["diff", str(out), str(out), "--out", str(tmp_path / "d")])
     assert result.exit_code == 0, result.output
-    assert (tmp_path / "d" / "changes.csv").read_text(encoding="utf-8").startswith("section,")
+    assert (tmp_path / "d" / "diff.csv").read_text(encoding="utf-8").startswith("section,")
     assert_complete(tmp_path / "d")
     f = tmp_path / "changes.csv"
     f.write_text("mine", encoding="utf-8")

@@ -97,5 +97,5 @@ def test_a_diff_whose_commit_fails_says_so_in_one_line(tmp_path, monkeypatch):
     )
     again = runner.invoke(app, ["diff", str(out), str(out), "--out", str(changes)])
     assert again.exit_code == 0, again.output
-    assert (changes / "changes.csv").read_text(encoding="utf-8").startswith("section,id,")
+    assert (changes / "diff.csv").read_text(encoding="utf-8").startswith("section,id,")
     assert_complete(changes)
