@@ -4,7 +4,7 @@ several duplicate ids is named, an empty number before a wrong one, summary.json
 (kinds with no circuits, a kind it does not count, a row missing), line breaks kept inside a
 cell and mixed line ends between records (Python's csv module, read with ``newline=''`` as
 its documentation requires), an I/O error, and the diff's own folder (``--out``,
-``--force``, a user's ``changes.csv``, the CSV guard on text but not on numbers: OWASP "CSV
+``--force``, a user's ``diff.csv``, the CSV guard on text but not on numbers: OWASP "CSV
 Injection", from memory)."""
 
 from __future__ import annotations
@@ -71,7 +71,7 @@ def one_error(old: Path, new: Path) -> str:
 def test_columns_twice(base, copy):
     rows = rows_of(copy / CABLE)
     # two columns the diff does not read renamed to two it does
-    rows[0][rows[0].index("loss_w")] = "route_m"
+    rows[0][rows[0].index("insulation")] = "route_m"
     rows[0][rows[0].index("note")] = "kind"
     write_rows(copy / CABLE, rows)
     message = f"error: {copy / CABLE}: column kind, route_m appears more than once"
@@ -159,7 +159,7 @@ def test_line_breaks_inside_a_cell_are_kept():
     for n, to in enumerate(["CB\r\n1", "CB\r2", "CB\n3"], start=1):
         row = dict.fromkeys(header, "1.5")
         row.update(circuit_id=f"R{n}/S1", kind="string", to_id=to, material="Cu", status="ok")
-        row["trench_segments"] = "T1#1"
+        row["trench_segments"] = "T1@0.0-10.0"
         rows.append([row[c] for c in header])
     buf = io.StringIO(newline="")
     csv.writer(buf, lineterminator="\r\n").writerows([header, *rows])  # quotes CR and LF
@@ -221,12 +221,16 @@ def edited(base: Path, copy: Path):
 
 def test_write_diff_to_a_path_guards_text_not_numbers(base, copy, tmp_path):
     array_id, old_to, string_id, old_vd = edited(base, copy)
+    # the base plan: A:CB1 goes to INV1, R1/S1 drops 0.558 % (its cable schedule)
+    assert (array_id, old_to, string_id, old_vd) == ("A:CB1", "INV1", "R1/S1", "0.558")
     path = write_diff(diff_outputs(base, copy), tmp_path / "d")
-    assert path == tmp_path / "d" / "changes.csv"
+    assert path == tmp_path / "d" / "diff.csv"
     assert rows_of(path) == [
-        ["section", "id", "change", "field", "old", "new"],
-        ["circuit", array_id, "changed", "to_id", old_to, "'@INV2"],  # text: guarded
-        ["circuit", string_id, "changed", "vdrop_pct", old_vd, "-0.10"],  # a number: as is
+        ["section", "id", "change", "field", "old", "new", "delta", "scope", "cause", "note"],
+        # text: guarded, no delta; a new destination is a change of route
+        ["circuit", "A:CB1", "changed", "to_id", "INV1", "'@INV2", "", "route", "", ""],
+        # a number: as is; −0.10 − 0.558 = −0.658 (3 decimals); the same route and cable
+        ["circuit", "R1/S1", "changed", "vdrop_pct", "0.558", "-0.10", "-0.658", "value", "", ""],
     ]
 
 
@@ -250,30 +254,43 @@ def test_diff_out_with_force_writes_beside_other_files(base, copy, tmp_path):
     result = runner.invoke(app, [*args, "--force"])
     assert result.exit_code == 0, result.output
     assert (folder / "notes.txt").read_text(encoding="utf-8") == "mine"
-    assert len(rows_of(folder / "changes.csv")) == 3
+    assert len(rows_of(folder / "diff.csv")) == 3  # the header and the two changes
 
 
-def test_diff_out_never_replaces_a_users_changes_csv(base, copy, tmp_path):
+def test_diff_out_never_replaces_a_users_diff_csv(base, copy, tmp_path):
+    edited(base, copy)
+    folder = tmp_path / "d"
+    folder.mkdir()
+    (folder / "diff.csv").write_text("my own list", encoding="utf-8")
+    result = runner.invoke(app, ["diff", str(base), str(copy), "--out", str(folder), "--force"])
+    assert result.exit_code == 2
+    assert "'diff.csv' is there but was not written by routeplan" in result.stderr
+    assert str(folder) in result.stderr
+    assert (folder / "diff.csv").read_text(encoding="utf-8") == "my own list"
+
+
+def test_diff_out_keeps_a_users_changes_csv_with_force(base, copy, tmp_path):
+    # the file name an earlier routeplan wrote: a user's file of that name is only a file
+    # beside the diff now, kept as it is
     edited(base, copy)
     folder = tmp_path / "d"
     folder.mkdir()
     (folder / "changes.csv").write_text("my own list", encoding="utf-8")
     result = runner.invoke(app, ["diff", str(base), str(copy), "--out", str(folder), "--force"])
-    assert result.exit_code == 2
-    assert "'changes.csv' is there but was not written by routeplan" in result.stderr
-    assert str(folder) in result.stderr
+    assert result.exit_code == 0, result.output
     assert (folder / "changes.csv").read_text(encoding="utf-8") == "my own list"
+    assert len(rows_of(folder / "diff.csv")) == 3
 
 
 def test_diff_out_checks_the_folder_before_the_plans(base, copy, tmp_path):
-    # a user's changes.csv in the folder and a damaged plan: the folder is named (it is
+    # a user's diff.csv in the folder and a damaged plan: the folder is named (it is
     # checked before the comparison, and nothing is compared)
     (copy / TRENCH).write_bytes(b"")
     folder = tmp_path / "d"
     folder.mkdir()
-    (folder / "changes.csv").write_text("my own list", encoding="utf-8")
+    (folder / "diff.csv").write_text("my own list", encoding="utf-8")
     result = runner.invoke(app, ["diff", str(base), str(copy), "--out", str(folder), "--force"])
     assert result.exit_code == 2
     assert len(result.stderr.splitlines()) == 1
-    assert "'changes.csv' is there but was not written by routeplan" in result.stderr
-    assert (folder / "changes.csv").read_text(encoding="utf-8") == "my own list"
+    assert "'diff.csv' is there but was not written by routeplan" in result.stderr
+    assert (folder / "diff.csv").read_text(encoding="utf-8") == "my own list"

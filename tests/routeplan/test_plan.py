@@ -285,7 +285,7 @@ def test_diff_after_moving_a_pad_lists_exactly_its_circuits(demo_out, tmp_path):
     assert run_plan(tmp_path / "moved", out).exit_code in (0, 1)
     result = runner.invoke(app, ["diff", str(demo_out), str(out), "--out", str(tmp_path / "d")])
     assert result.exit_code == 0, result.output
-    d = pd.read_csv(tmp_path / "d" / "diff.csv", keep_default_na=False)
+    d = pd.read_csv(tmp_path / "d" / "diff.csv", keep_default_na=False, dtype=str)
     changed = set(d.loc[d["section"] == "circuit", "id"])
     sched = pd.read_csv(demo_out / "cable_schedule.csv")
     served_arrays = set(
@@ -301,6 +301,13 @@ def test_diff_after_moving_a_pad_lists_exactly_its_circuits(demo_out, tmp_path):
     # strings behind the pad change only through their cumulative DC drop
     string_fields = set(d.loc[d["id"].isin(served_strings), "field"])
     assert string_fields <= {"vdrop_total_pct"}
+    # ... so they follow (scope), each after the array cable leaving its combiner (cause);
+    # the pad's own circuits changed their route
+    strings = d[d["id"].isin(served_strings)]
+    assert set(strings["scope"]) == {"follows"}
+    to = dict(zip(sched["circuit_id"], sched["to_id"], strict=True))
+    assert [f"A:{to[i]}" for i in strings["id"]] == strings["cause"].tolist()
+    assert set(d.loc[d["id"].isin(served_arrays | {"AC:INV-E"}), "scope"]) == {"route"}
     assert "circuits: " in result.output
 
 

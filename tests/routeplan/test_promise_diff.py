@@ -3,13 +3,15 @@ edits of the lengths site (``promise_sites``): row R1 gives 1 string instead of 
 instead of 3, and combiner CB1 moves from 3 m east / 4 m north of T1's east end to 6 m east /
 8 m north. Every section (circuits added, removed and changed, trench segments, quantities)
 is checked against hand arithmetic and against the two plans' own schedules read with the
-csv module: the old value from the old plan, the new one from the new plan."""
+csv module: the old value from the old plan, the new one from the new plan, each delta
+(new − old) against exact decimal arithmetic (Python's decimal module)."""
 
 from __future__ import annotations
 
 import csv
 import math
 from collections import defaultdict
+from decimal import Decimal
 from pathlib import Path
 
 import pytest
@@ -53,7 +55,16 @@ def plans(tmp_path_factory) -> dict[str, Path]:
 def run_diff(old: Path, new: Path, out: Path):
     result = runner.invoke(app, ["diff", str(old), str(new), "--out", str(out)])
     assert result.exit_code == 0, result.output
-    return result, read_rows(out / "changes.csv")
+    return result, read_rows(out / "diff.csv")
+
+
+def hand_delta(old: str, new: str) -> str:
+    """new − old in exact decimal arithmetic (Python's decimal module), with the decimals the
+    cells are written with, and a sign: the reference for diff.csv's delta."""
+    a, b = Decimal(old), Decimal(new)
+    places = max(-a.as_tuple().exponent, -b.as_tuple().exponent, 0)
+    d = (b - a).quantize(Decimal(1).scaleb(-places))
+    return f"{'-' if d < 0 else '+'}{abs(d)}"
 
 
 def moved_route_m(cid: str) -> float:
@@ -83,40 +94,82 @@ def test_circuits_added_removed_and_changed(plans):
     ):
         got = {r["id"]: (r["old"], r["new"]) for r in circuits if r["field"] == field}
         assert got == {c: (f"{old(c):.2f}", f"{new(c):.2f}") for c in survivors}, field
-    assert "AC:INV1" not in by["changed"]  # its route does not pass CB1
-    # every changed value: the old plan's cell before the arrow, the new plan's after it
+    # AC:INV1 does not pass CB1: its route and cable are the same, but it shares T1 from 60
+    # to 100 m with the strings (one more there): only its values change (scope value),
+    # grouped with one cable set more (7 → 8)
+    ac = [r for r in circuits if r["id"] == "AC:INV1"]
+    assert {r["scope"] for r in ac} == {"value"}
+    assert not {r["field"] for r in ac} & {"route_m", "cable_m", "size_mm2", "trench_segments"}
+    assert {r["field"]: (r["old"], r["new"]) for r in ac}["group_count"] == ("7", "8")
+    # the five survivors through CB1 changed their route length: scope route
+    assert {r["scope"] for r in circuits if r["id"] in survivors} == {"route"}
+    assert by["changed"] == {*survivors, "AC:INV1"}
+    # every changed value: the old plan's cell before the arrow, the new plan's after it, and
+    # a number's delta new − old as exact decimal arithmetic gives it
     old = {r["circuit_id"]: r for r in read_rows(plans["old"] / "cable_schedule.csv")}
     new = {r["circuit_id"]: r for r in read_rows(plans["new"] / "cable_schedule.csv")}
+    numbers = 0
     for r in circuits:
         if r["change"] == "changed":
             assert (r["old"], r["new"]) == (old[r["id"]][r["field"]], new[r["id"]][r["field"]])
+            if r["delta"]:
+                assert r["delta"] == hand_delta(r["old"], r["new"]), r
+                numbers += 1
+    assert numbers > 10
     assert set(old) - set(new) == by["removed"] and set(new) - set(old) == by["added"]
     out = result.stdout
-    assert "circuits: 2 added, " in out and ", 1 removed\n" in out
-    assert "  + R2/S4\n" in out and "  + R2/S5\n" in out and "  - R1/S2\n" in out
-    assert "  ~ R1/S1: route_m 200.00 → 205.00\n" in out
-    assert "  ~ A:CB1: cable_m 205.80 → 211.00\n" in out
+    # hand: 6 changed = the 5 survivors through CB1 and AC:INV1
+    assert "circuits: 2 added, 1 removed, 6 changed\n" in out
+    assert "  + R2/S4: new string circuit\n" in out and "  + R2/S5: new string circuit\n" in out
+    assert "  - R1/S2: string circuit removed\n" in out
+    # hand: route +5 m (the stub), cable +5 × 1.04 = +5.20 m (slack 4 %)
+    step = f"{(moved_cable_m('R1/S1') - hand_cable_m('R1/S1')):+.2f}"
+    assert step == "+5.20"
+    assert f"  ~ R1/S1: route_m 200.00 → 205.00 (+5.00); cable_m 235.00 → 240.20 ({step}); " in out
+    assert f"; route_m 195.00 → 200.00 (+5.00); cable_m 205.80 → 211.00 ({step}); " in out
+    assert "  ~ A:CB1: size_mm2 " in out  # one string more: a size up, named first
+    # AC:INV1 listed under its values, after the circuits whose own route changed
+    assert "  ~ AC:INV1: " in out.split(" their values (same route and cable):\n")[1]
 
 
 def test_trench_segments_whose_counts_changed(plans):
     result, rows = run_diff(plans["old"], plans["new"], plans["tmp"] / "d2")
-    got = {
-        (r["id"], r["field"]): (r["old"], r["new"], r["change"])
-        for r in rows
-        if r["section"] == "segment"
+    seg = [r for r in rows if r["section"] == "segment"]
+    got = {(r["id"], r["field"]): (r["old"], r["new"], r["delta"], r["change"]) for r in seg}
+    counts = {k: v for k, v in got.items() if k[1] != "group_factor"}
+    # hand: T1 from 10 to 60 m carries R1's strings and the AC circuit (2 parallel sets);
+    # from 60 to 100 m R1's and R2's strings and the AC circuit; from 100 to 200 m R1's and
+    # R2's strings and the array cable: one string less on the first, one more on the others.
+    # T1 from 0 to 10 m and T2 carry no string: unchanged
+    assert counts == {
+        ("T1@10.0-60.0", "circuits"): ("3", "2", "-1", "changed"),
+        ("T1@10.0-60.0", "strings"): ("2", "1", "-1", "changed"),
+        ("T1@10.0-60.0", "cable_sets"): ("4", "3", "-1", "changed"),  # 2 + 2 → 1 + 2
+        ("T1@60.0-100.0", "circuits"): ("6", "7", "+1", "changed"),
+        ("T1@60.0-100.0", "strings"): ("5", "6", "+1", "changed"),
+        ("T1@60.0-100.0", "cable_sets"): ("7", "8", "+1", "changed"),  # 5 + 2 → 6 + 2
+        ("T1@100.0-200.0", "circuits"): ("6", "7", "+1", "changed"),
+        ("T1@100.0-200.0", "strings"): ("5", "6", "+1", "changed"),
+        ("T1@100.0-200.0", "cable_sets"): ("6", "7", "+1", "changed"),  # 5 + 1 → 6 + 1
     }
-    # hand: T1#2 carries R1's strings and the AC circuit; T1#3 and T1#4 R1's and R2's strings
-    # and one more circuit each; T1#1 and T2#1 carry no string
-    assert got == {
-        ("T1#2", "circuits"): ("3", "2", "changed"),
-        ("T1#2", "strings"): ("2", "1", "changed"),
-        ("T1#3", "circuits"): ("6", "7", "changed"),
-        ("T1#3", "strings"): ("5", "6", "changed"),
-        ("T1#4", "circuits"): ("6", "7", "changed"),
-        ("T1#4", "strings"): ("5", "6", "changed"),
-    }
+    # the grouping factor in force: as each plan's trench schedule writes it, lower with more
+    # cable sets and higher with fewer (grouping factors fall with the number of grouped
+    # circuits: IEC 60364-5-52, Table B.52.18/B.52.19, from memory)
+    old = {r["segment_id"]: r for r in read_rows(plans["old"] / "trench_schedule.csv")}
+    new = {r["segment_id"]: r for r in read_rows(plans["new"] / "trench_schedule.csv")}
+    for (sid, field), (o, n, d, _) in got.items():
+        assert (o, n) == (old[sid][field], new[sid][field])
+        assert d == hand_delta(o, n)
+        if field == "group_factor":
+            fewer = int(new[sid]["cable_sets"]) < int(old[sid]["cable_sets"])
+            assert (float(n) > float(o)) == fewer, sid
+    assert {k[0] for k in got} == {"T1@10.0-60.0", "T1@60.0-100.0", "T1@100.0-200.0"}
+    assert {r["scope"] for r in seg} == {""}  # scope and cause are circuits' only
     assert "trench segments: 3 changed\n" in result.stdout
-    assert "  ~ T1#3: circuits 6 → 7\n" in result.stdout
+    assert (
+        "  changed: T1@60.0-100.0: circuits 6 → 7 (+1); strings 5 → 6 (+1); "
+        "cable_sets 7 → 8 (+1); group_factor "
+    ) in result.stdout
 
 
 def quantity_key(r: dict[str, str]) -> tuple[str, ...]:
@@ -164,17 +217,35 @@ def test_quantity_deltas(plans):
     assert delta("cable", "ac") == 0 and not any(k[0] == "trench" for k in listed)
     assert "quantities: " in result.stdout
     fuse = next(r for k, r in listed.items() if k[0] == "string fuse")
-    assert f"  ~ {fuse['id']}: quantity {fuse['old']} → {fuse['new']}\n" in result.stdout
-    assert (fuse["old"], fuse["new"]) == ("10.00", "12.00")  # hand: 5 → 6 strings, 2 each
+    assert (fuse["old"], fuse["new"], fuse["delta"]) == ("10.00", "12.00", "+2.00")
+    # hand: 5 → 6 strings, 2 each (12 − 10 = +2)
+    assert f"  {fuse['id']}: 10.00 → 12.00 (+2.00)\n" in result.stdout
+    # every listed delta: new − old with the bill's 2 decimals
+    assert all(r["delta"] == hand_delta(r["old"], r["new"]) for r in q)
+    # the plant block's string cable metres: the same change, 3 decimals
+    plant = {r["id"]: r for r in rows if r["section"] == "plant"}
+    string = plant["cable string Cu 6.0 mm²"]
+    assert (float(string["old"]), float(string["new"])) == pytest.approx((before, after))
+    assert string["delta"] == f"{after - before:+.3f}" == "+321.200"
 
 
 def test_the_other_way_round_swaps_every_label(plans):
     _, forward = run_diff(plans["old"], plans["new"], plans["tmp"] / "d4")
     _, backward = run_diff(plans["new"], plans["old"], plans["tmp"] / "d5")
     swap = {"added": "removed", "removed": "added", "changed": "changed"}
+    sign = {"+": "-", "-": "+"}
+
+    def turn(delta: str) -> str:
+        return sign.get(delta[:1], "") + delta[1:]
+
     turned = {
-        (r["section"], r["id"], swap[r["change"]], r["field"], r["new"], r["old"]) for r in forward
-    }
+        (r["section"], r["id"], swap[r["change"]], r["field"], r["new"], r["old"],
+         turn(r["delta"]), r["scope"])
+        for r in forward
+    }  # fmt: skip
     assert turned == {
-        (r["section"], r["id"], r["change"], r["field"], r["old"], r["new"]) for r in backward
-    }
+        (r["section"], r["id"], r["change"], r["field"], r["old"], r["new"], r["delta"],
+         r["scope"])
+        for r in backward
+    }  # fmt: skip
+    assert len(forward) == len(backward)

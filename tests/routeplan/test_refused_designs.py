@@ -85,9 +85,11 @@ def test_a_trench_too_shallow_for_its_cable_is_named(tmp_path):
     assert not (tmp_path / "out").exists()
 
 
-def test_diff_reads_a_trench_schedule_without_sub_array_counts(tmp_path):
-    """A schedule written before sub-array cables existed has no `subarrays` column: it reads
-    as 0 sub-array cables on every segment, so only real changes show."""
+def test_diff_refuses_a_trench_schedule_without_sub_array_counts(tmp_path):
+    """A schedule written before sub-array cables existed has no `subarrays` column. It was
+    read as 0 sub-array cables on every segment; an earlier version's folder is refused now
+    (its segments were numbered, not placed along their trench), one line naming the file
+    and what to do, on either side of the comparison."""
     root = write_site(tmp_path / "s", toml=SITE_TOML)
     new = tmp_path / "new"
     result = runner.invoke(app, ["plan", str(root), "--out", str(new), "--quiet"])
@@ -100,15 +102,21 @@ def test_diff_reads_a_trench_schedule_without_sub_array_counts(tmp_path):
     col = rows[0].index("subarrays")
     with open(path, "w", encoding="utf-8", newline="") as fh:
         csv.writer(fh, lineterminator="\n").writerows([r[:col] + r[col + 1 :] for r in rows])
-    result = runner.invoke(app, ["diff", str(old), str(new), "--out", str(tmp_path / "d")])
-    assert result.exit_code == 0, result.output
-    assert "no changes" in result.stdout
-    # the column is still required of everything else a diff reads
+    for args in ([str(old), str(new)], [str(new), str(old)]):
+        result = runner.invoke(app, ["diff", *args, "--out", str(tmp_path / "d")])
+        assert result.exit_code == 2 and result.stdout == ""
+        assert result.stderr == (
+            f"error: {path}: no column subarrays: made by an earlier routeplan, which numbered "
+            "trench segments and compared fewer values: plan that site again with this version "
+            "to compare\n"
+        )
+        assert not (tmp_path / "d" / "diff.csv").exists()
+    # a column every version wrote, renamed: the plain message
     rows[0][rows[0].index("strings")] = "strands"
     with open(path, "w", encoding="utf-8", newline="") as fh:
         csv.writer(fh, lineterminator="\n").writerows(rows)
     result = runner.invoke(app, ["diff", str(old), str(new)])
     assert result.exit_code == 2
-    assert f"error: {path}: no column strings (a schedule of 'routeplan plan' has it)" in (
-        result.stderr.splitlines()
-    )
+    assert result.stderr.splitlines() == [
+        f"error: {path}: no column strings (a schedule of 'routeplan plan' has it)"
+    ]
