@@ -221,9 +221,9 @@ def compare_circuits(
     on_value = ne[:, [idx[f] for f in VALUE_FIELDS]].any(axis=1)
     scope = np.where(on_route, "route", np.where(on_value, "value", "follows"))
     changed_ids = [common[k] for k in changed]
-    cause = _causes(
-        new, changed_ids, scope[changed], dict(zip(changed_ids, scope[changed], strict=True))
-    )
+    scope_of = dict(zip(changed_ids, scope[changed], strict=True))
+    scope_of.update(dict.fromkeys(added, "route"))  # a new circuit is a change of route
+    cause = _causes(new, changed_ids, scope[changed], scope_of)
 
     table: list[dict] = []
     lines: dict[str, list[dict]] = {"route": [], "value": [], "follows": []}
@@ -407,18 +407,18 @@ def compare_segments(old: pd.DataFrame, new: pd.DataFrame) -> tuple[list[dict], 
     plain[lo[same_o]] = True
     members_o = _members(lo, plain)
     members_n = _members(ln, plain)
-    rows: list[dict] = []
-    events: list[dict] = []
-    groups = sorted(
-        set(members_o) | set(members_n),
-        key=lambda c: str(oid[members_o[c][0]]) if c in members_o else str(nid[members_n[c][0]]),
-    )
-    for comp in groups:
-        rows_, event = _event(old, new, members_o.get(comp, []), members_n.get(comp, []))
-        rows += rows_
-        events.append(event)
-    rows += _same_segments(old.iloc[same_o], new.iloc[same_n], events)
-    return rows, pd.DataFrame(events, columns=list(SEGMENT_ROWS))
+    # (trench, chainage of the first segment, lines, event) of every group, then in that order
+    found: list[tuple[str, float, list[dict], dict]] = []
+    for comp in set(members_o) | set(members_n):
+        po, pn = members_o.get(comp, []), members_n.get(comp, [])
+        first = old.iloc[po[0]] if po else new.iloc[pn[0]]
+        rows_, event = _event(old, new, po, pn)
+        found.append((str(first["trench_id"]), float(first["from_m"]), rows_, event))
+    found += _same_segments(old.iloc[same_o], new.iloc[same_n])
+    found.sort(key=lambda f: (f[0], f[1], f[3]["old_ids"], f[3]["new_ids"]))
+    rows = [r for f in found for r in f[2]]
+    events = pd.DataFrame([f[3] for f in found], columns=list(SEGMENT_ROWS))
+    return rows, events
 
 
 def _members(label: np.ndarray, skip: np.ndarray) -> dict[int, list[int]]:
@@ -503,30 +503,29 @@ def _event(
     return rows, dict(event=event, trench_id=trench, old_ids=ids_o, new_ids=ids_n, text=text)
 
 
-def _same_segments(o: pd.DataFrame, n: pd.DataFrame, events: list[dict]) -> list[dict]:
-    """Field changes of segments with the same id in both plans (``events`` gains one
-    ``changed`` row per changed segment)."""
+def _same_segments(o: pd.DataFrame, n: pd.DataFrame) -> list[tuple[str, float, list[dict], dict]]:
+    """Field changes of segments with the same id in both plans: (trench, chainage, diff.csv
+    lines, ``changed`` event) per changed segment."""
     fields = list(SEGMENT_FIELDS)
     a, b = o[fields].to_numpy(dtype=object), n[fields].to_numpy(dtype=object)
     ne = a != b
-    rows = []
+    found = []
     ids, trenches = o["segment_id"].tolist(), o["trench_id"].tolist()
+    start = o["from_m"].astype(float).tolist()
     for k in np.flatnonzero(ne.any(axis=1)).tolist():
         mine = [
             _row("segment", ids[k], "changed", fields[f], a[k, f], b[k, f])
             for f in np.flatnonzero(ne[k]).tolist()
         ]
-        rows += mine
-        events.append(
-            dict(
-                event="changed",
-                trench_id=trenches[k],
-                old_ids=(ids[k],),
-                new_ids=(ids[k],),
-                text=f"{ids[k]}: " + "; ".join(map(_say, mine)),
-            )
+        event = dict(
+            event="changed",
+            trench_id=trenches[k],
+            old_ids=(ids[k],),
+            new_ids=(ids[k],),
+            text=f"{ids[k]}: " + "; ".join(map(_say, mine)),
         )
-    return rows
+        found.append((trenches[k], start[k], mine, event))
+    return found
 
 
 # -- quantities and plant ----------------------------------------------------------------------
@@ -592,24 +591,36 @@ def plant_block(old: dict, new: dict) -> pd.DataFrame:
     ta, tb = totals(old), totals(new)
     rows += [(k, ta[k][0], ta[k][1], tb[k][1]) for k in ta]
     frame = pd.DataFrame(rows, columns=["item", "unit", "old", "new"])
-    frame["delta"] = frame["new"].fillna(0.0) - frame["old"].fillna(0.0)
+    # as shown: metres to the centimetre, kW and MWh/year to three decimals, counts whole; the
+    # delta is the difference of the values shown
+    places = frame["unit"].map(plant_decimals).to_numpy()
+    for c in ("old", "new"):
+        frame[c] = [round(v, p) for v, p in zip(frame[c], places, strict=True)]
+    delta = frame["new"].fillna(0.0) - frame["old"].fillna(0.0)
+    frame["delta"] = [round(v, p) + 0.0 for v, p in zip(delta, places, strict=True)]
     return frame
 
 
+def plant_decimals(unit: str) -> int:
+    """Decimals of a plant-block value in ``unit`` (m: 2, kW and MWh/year: 3, a count: 0)."""
+    return {"": 0, "kW": 3, "MWh/year": 3}.get(unit, 2)
+
+
 def _plant_rows(plant: pd.DataFrame) -> list[dict]:
-    """diff.csv lines of the plant block's changed items (3 decimals)."""
+    """diff.csv lines of the plant block's changed items (:func:`plant_decimals`)."""
     rows = []
     for item, unit, a, b, d in plant.itertuples(index=False, name=None):
-        if round(d, 3) != 0:
+        p = plant_decimals(unit)
+        if d != 0:
             rows.append(
                 dict(
                     section="plant",
                     id=item,
                     change="changed",
                     field=unit or "count",
-                    old="" if np.isnan(a) else f"{a:.3f}",
-                    new="" if np.isnan(b) else f"{b:.3f}",
-                    delta=f"{d + 0.0:+.3f}",
+                    old="" if np.isnan(a) else f"{a:.{p}f}",
+                    new="" if np.isnan(b) else f"{b:.{p}f}",
+                    delta=f"{d:+.{p}f}",
                     scope="",
                     cause="",
                     note="",

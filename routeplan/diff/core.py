@@ -18,6 +18,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import math
 import operator
 from dataclasses import dataclass
 from pathlib import Path
@@ -131,6 +132,9 @@ class Table:
     key: tuple[str, ...]
     fields: tuple[str, ...]
     filled: tuple[str, ...] = ()
+    #: (column, value, other column): ``other column`` must be filled where ``column`` is
+    #: ``value`` (a cable line of the bill has a size)
+    filled_where: tuple[tuple[str, str, str], ...] = ()
 
     @property
     def columns(self) -> tuple[str, ...]:
@@ -147,7 +151,13 @@ SEGMENTS = Table(
     ("trench_id", "from_m", "to_m", *SEGMENT_FIELDS),
     ("trench_id", "from_m", "to_m", "length_m"),
 )
-QUANTITIES = Table("quantities.csv", QUANTITY_KEYS, ("quantity",), ("quantity",))
+QUANTITIES = Table(
+    "quantities.csv",
+    QUANTITY_KEYS,
+    ("quantity",),
+    ("quantity",),
+    (("item", "cable", "size_mm2"), ("item", "cable", "material"), ("item", "cable", "kind")),
+)
 _EARLIER = (
     "made by an earlier routeplan, which numbered trench segments and compared fewer values: "
     "plan that site again with this version to compare"
@@ -193,7 +203,7 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
     missing = [c for c in table.columns if c not in header]
     if missing:
         names = ", ".join(missing)
-        if set(missing) & set(EARLIER_LACKS):
+        if set(missing) & set(EARLIER_LACKS) and table.key[0] not in missing:
             why = EARLIER_LACKS[next(c for c in missing if c in EARLIER_LACKS)]
             raise DiffError(f"{where}: no column {names}: {why}")
         raise DiffError(f"{where}: no column {names} (a schedule of 'routeplan plan' has it)")
@@ -239,6 +249,11 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
         if empty.any() and (c in table.key[:1] or c in table.filled):
             at = _line(text, int(np.argmax(empty)))
             raise DiffError(f"{where}: line {at}: column {c}: empty")
+    for column, value, need in table.filled_where:
+        empty = (frame[column].to_numpy() == value) & (frame[need].to_numpy() == "")
+        if empty.any():
+            at = _line(text, int(np.argmax(empty)))
+            raise DiffError(f"{where}: line {at}: column {need}: empty on a {value} line")
     _check_unique(frame, table, where, text)
     return frame
 
@@ -346,16 +361,35 @@ def read_summary(folder: Path) -> dict:
     if summary["tool"]["name"] != "routeplan":
         raise DiffError(f"{path}: tool.name is {summary['tool']['name']!r}, not 'routeplan'")
     circuits = summary["circuits"]
-    numbers = [
-        (f"circuits.{k}.{f}", v.get(f) if isinstance(v, dict) else None)
-        for k, v in circuits.items()
-        for f in ("circuits", "fail")
-    ]
-    numbers += [(".".join(keys), _get(summary, keys)) for keys in SUMMARY_KEYS[3:]]
-    for name, v in numbers:
-        if isinstance(v, bool) or not isinstance(v, int | float) or not np.isfinite(v):
+    if not isinstance(circuits, dict):
+        raise DiffError(f"{path}: circuits is {circuits!r}, not an object of circuit kinds")
+    numbers: list[tuple[str, object, bool]] = []  # (key, value, a count)
+    for kind, v in circuits.items():
+        for f in ("circuits", "fail"):
+            if not isinstance(v, dict) or f not in v:
+                raise DiffError(
+                    f"{path}: no key circuits.{kind}.{f} (not a summary of 'routeplan plan')"
+                )
+            numbers.append((f"circuits.{kind}.{f}", v[f], True))
+    numbers += [(".".join(k), _get(summary, k), k[-1] in _COUNTS) for k in SUMMARY_KEYS[3:]]
+    for name, v, count in numbers:
+        if isinstance(v, bool) or not isinstance(v, int | float) or not _finite(v):
             raise DiffError(f"{path}: {name} is {v!r}, not a number")
+        if count and (v < 0 or v != int(v)):
+            raise DiffError(f"{path}: {name} is {v!r}, not a count")
     return summary
+
+
+#: keys of summary.json that count things (whole numbers ≥ 0)
+_COUNTS = frozenset({"count", "over_capacity", "over_limit"})
+
+
+def _finite(v: float) -> bool:
+    """Whether ``v`` has a finite binary64 value (a JSON integer beyond it has none)."""
+    try:
+        return math.isfinite(v)
+    except OverflowError:
+        return False
 
 
 def _get(data: dict, keys: tuple[str, ...]) -> object:

@@ -7,7 +7,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from .compare import PlanDiff
+from .compare import PlanDiff, plant_decimals
 
 #: most circuits of their own route, cable or status listed on the terminal (diff.csv has all)
 LISTED = 200
@@ -32,7 +32,7 @@ def _plant(plant: pd.DataFrame) -> list[str]:
     lines = ["plant (old → new, delta):"]
     width = max((len(i) for i in plant["item"]), default=0)
     for item, unit, a, b, d in plant.itertuples(index=False, name=None):
-        digits = 0 if unit == "" else 3 if unit in ("kW", "MWh/year") else 2
+        digits = plant_decimals(unit)
         lines.append(
             f"  {item:<{width}}  {_num(a, digits)} → {_num(b, digits)} "
             f"({d + 0.0:+.{digits}f}){' ' + unit if unit else ''}"

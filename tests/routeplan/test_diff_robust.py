@@ -398,11 +398,6 @@ def test_the_summary_counts_catch_a_cut_at_a_line_end(plans, tmp_path):
     )
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="parse_schedule gives the earlier-version message whenever a column of "
-    "EARLIER_LACKS is missing, even when the key column is missing too (no schedule at all)",
-)
 def test_a_file_that_is_no_schedule_is_not_called_an_earlier_versions(plans, tmp_path):
     damaged = tmp_path / "damaged"
     shutil.copytree(plans["base"], damaged)

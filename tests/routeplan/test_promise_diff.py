@@ -222,11 +222,11 @@ def test_quantity_deltas(plans):
     assert f"  {fuse['id']}: 10.00 → 12.00 (+2.00)\n" in result.stdout
     # every listed delta: new − old with the bill's 2 decimals
     assert all(r["delta"] == hand_delta(r["old"], r["new"]) for r in q)
-    # the plant block's string cable metres: the same change, 3 decimals
+    # the plant block's string cable metres: the same change, to the centimetre as in the bill
     plant = {r["id"]: r for r in rows if r["section"] == "plant"}
     string = plant["cable string Cu 6.0 mm²"]
     assert (float(string["old"]), float(string["new"])) == pytest.approx((before, after))
-    assert string["delta"] == f"{after - before:+.3f}" == "+321.200"
+    assert string["delta"] == f"{after - before:+.2f}" == "+321.20"
 
 
 def test_the_other_way_round_swaps_every_label(plans):

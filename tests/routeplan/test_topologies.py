@@ -284,11 +284,6 @@ def test_sub_array_cables_on_the_map_and_in_diff(tmp_path):
     assert "trench segments: 1 reshaped\n" in result.stdout
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="compare_circuits gives _causes the scope of changed circuits only: CB2's strings, "
-    "whose sub-array cable was replaced by the added A:CB2, get no cause",
-)
 def test_strings_after_a_replaced_cable_name_it_as_their_cause(tmp_path):
     """CB2's strings keep their own route; their cumulative drop changes because CB2's
     sub-array cable SA:CB2 was replaced by the array cable A:CB2: that is their cause."""
