@@ -42,8 +42,8 @@ from routeplan.outputs.map import (
     ROWS_SHOWN_UP_TO,
     SUMMARY_FILE,
     MapError,
-    _group_var,
-    _page,
+    group_var,
+    page_parts,
     site_name_from_summary,
 )
 from routeplan.outputs.map_features import Layer, text_values
@@ -207,7 +207,7 @@ def _scripts(key: str, layers: list[tuple[str, Layer, str, bool]], *, lazy: bool
             out.append(
                 layer_script(
                     f"rp_{key}_{suffix}",
-                    _group_var(key),
+                    group_var(key),
                     layer,
                     class_name=css,
                     interactive=interactive,
@@ -360,7 +360,7 @@ def render_change_map(
         "bounds": bounds,
         "groups": groups,
     }
-    head, middle, tail = _page(spec)
+    head, middle, tail = page_parts(spec)
     body = [view_script(bounds), *(s for key, _ in GROUPS for s in scripts[key])]
     return "".join([head, panel, middle, "\n".join(body), tail])
 

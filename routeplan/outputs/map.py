@@ -122,7 +122,7 @@ _LAYERS_SLOT = "<!--rp:layers-->"
 _PANEL_SLOT = "<!--rp:panel-->"
 
 
-def _group_var(key: str) -> str:
+def group_var(key: str) -> str:
     """The script name of the layer group ``key`` (folium's name of a FeatureGroup whose id is
     ``key``; checked when the page is made)."""
     return f"feature_group_{key}"
@@ -143,7 +143,7 @@ _SEGMENT_ROLES = (
 )
 
 
-def _page(spec: dict) -> list[str]:
+def page_parts(spec: dict) -> list[str]:
     """The page around the layers (folium), cut at the slots: [before the panel, between the
     panel and the layers' scripts, after them]. Imports folium only here."""
     import folium
@@ -183,8 +183,8 @@ def _page(spec: dict) -> list[str]:
     for key, name, show in spec["groups"]:
         group = folium.FeatureGroup(name=name, show=show)
         group._id = key  # a fixed name, known to the layers' scripts
-        if group.get_name() != _group_var(key):
-            raise RuntimeError(f"folium named a group {group.get_name()!r}: not {_group_var(key)}")
+        if group.get_name() != group_var(key):
+            raise RuntimeError(f"folium named a group {group.get_name()!r}: not {group_var(key)}")
         group.add_to(m)
     ScriptSlot(_LAYERS_SLOT).add_to(m)
     folium.LayerControl(collapsed=False, position="topright").add_to(m)
@@ -298,7 +298,7 @@ def render_map(
         return {"ok": row_layer(sub, stats=(worst[p], routed[p]))}
 
     s, n = memo.group(
-        "rows", wkt["rows"], _group_var("rows"), (Role("ok", "rp-row"),),
+        "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
         _parts(row_ids, row_h), draw_rows, lazy=not show_rows,
     )  # fmt: skip
     scripts += s
@@ -312,7 +312,7 @@ def render_map(
         over = segment_values(segments)[1]
     seg_h = h["segments"][ok["segments"]]
     s, n = memo.group(
-        "segments", (reference, wkt["segments"]), _group_var("segments"), _SEGMENT_ROLES,
+        "segments", (reference, wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
         _parts(text_values(seg, "segment_id"), seg_h),
         lambda p: vars(segment_layers(seg.iloc[p], reference)),
     )  # fmt: skip
@@ -343,7 +343,7 @@ def render_map(
 
         keys = from_ids[pos] if grouped else circuit_ids[pos]
         s, n = memo.group(
-            kind, (grouped, wkt["circuits"]), _group_var(kind), _circuit_roles(css),
+            kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
             _parts(keys, h["circuits"][pos]), draw_circuits,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
@@ -363,7 +363,7 @@ def render_map(
         return {"ok": equipment_layer(equipment.iloc[eq_pos[p]], stats=stats)}
 
     s, n = memo.group(
-        "equipment", wkt["equipment"], _group_var("equipment"), (Role("ok", "rp-equipment"),),
+        "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
         _parts(eq_ids, eq_h), draw_equipment,
     )  # fmt: skip
     scripts += s
@@ -392,7 +392,7 @@ def render_map(
         "bounds": _bounds([frames[k][ok[k]] for k in frames]),
         "groups": groups,
     }
-    head, middle, tail = memo.page(json.dumps(spec, sort_keys=True), lambda: _page(spec))
+    head, middle, tail = memo.page(json.dumps(spec, sort_keys=True), lambda: page_parts(spec))
     return "".join([head, panel, middle, "\n".join(scripts), tail])
 
 
