@@ -117,7 +117,13 @@ TARGETS = {
         "routeplan/outputs/map_text.py",
         ("tests/map/test_map_text.py", "tests/map/test_map_text_paths.py"),
     ),
-    "diff": Target("routeplan/diff/", ("tests/routeplan/test_diff_tables.py",)),
+    # the comparison, its reading and its terminal lines (the change map is a map: its
+    # escaping is map_text's, its drawing is checked in a browser)
+    "diff": Target(
+        "routeplan/diff/",
+        ("tests/routeplan/test_diff_tables.py",),
+        ("routeplan.diff.core.*", "routeplan.diff.compare.*", "routeplan.diff.text.*"),
+    ),
     "pipeline": Target(
         "routeplan/pipeline.py",
         ("tests/routeplan/test_pipeline_tables.py",),
