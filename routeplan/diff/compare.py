@@ -228,32 +228,23 @@ def compare_circuits(
     table: list[dict] = []
     lines: dict[str, list[dict]] = {"route": [], "value": [], "follows": []}
     kind_new, kind_old = n["kind"].to_dict(), o["kind"].to_dict()
-    for cid in added:
-        lines["route"].append(_row("circuit", cid, "added", scope="route"))
-        table.append(
-            dict(
-                circuit_id=cid,
-                kind=kind_new[cid],
-                change="added",
-                look="added",
-                scope="route",
-                cause="",
-                summary=f"new {kind_new[cid]} circuit",
+    for ids, change, kinds, says in (
+        (added, "added", kind_new, "new {} circuit"),
+        (removed, "removed", kind_old, "{} circuit removed"),
+    ):
+        for cid in ids:
+            lines["route"].append(_row("circuit", cid, change, scope="route"))
+            table.append(
+                dict(
+                    circuit_id=cid,
+                    kind=kinds[cid],
+                    change=change,
+                    look=change,
+                    scope="route",
+                    cause="",
+                    summary=says.format(kinds[cid]),
+                )
             )
-        )
-    for cid in removed:
-        lines["route"].append(_row("circuit", cid, "removed", scope="route"))
-        table.append(
-            dict(
-                circuit_id=cid,
-                kind=kind_old[cid],
-                change="removed",
-                look="removed",
-                scope="route",
-                cause="",
-                summary=f"{kind_old[cid]} circuit removed",
-            )
-        )
     av, bv = a.to_numpy(dtype=object), b.to_numpy(dtype=object)
     for k, why in zip(changed.tolist(), cause, strict=True):
         cid, sc = common[k], str(scope[k])
