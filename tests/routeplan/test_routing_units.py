@@ -1,0 +1,225 @@
+"""routeplan.routing's functions on small hand-built networks, fast enough for mutation runs.
+
+Every network here is a few invented lines. The reference is named beside each check:
+"networkx" (Dijkstra path lengths on the same segments), "hand" (worked out from the
+invented coordinates, written out in the comment), "Python" (``str.join``, integer bit
+arithmetic). Segment ids are not compared as text (their form is not fixed here).
+"""
+
+from __future__ import annotations
+
+import math
+
+import geopandas as gpd
+import networkx as nx
+import numpy as np
+import pytest
+import shapely
+
+from routeplan import routing
+from routeplan.network import build_network
+from routeplan.routing import shortest_paths
+
+UTM = "EPSG:32633"
+
+
+def line(*xy):
+    return shapely.LineString(xy)
+
+
+def pt(x, y):
+    return shapely.Point(x, y)
+
+
+def ladder(with_equipment: bool = False):
+    """Two rails joined by three rungs of different lengths, and a far island.
+
+    hand: rail A (0,0)→(300,0); rail B (0,60)→(100,60)→(200,40)→(300,40) (bent); rungs at
+    x = 0 (60 m), x = 100 (60 m), x = 300 (40 m); island Z (5000,0)→(5100,0).
+    """
+    tr = gpd.GeoDataFrame(
+        {"id": ["A", "B", "R0", "R1", "R3", "Z"]},
+        geometry=[
+            line((0, 0), (300, 0)),
+            line((0, 60), (100, 60), (200, 40), (300, 40)),
+            line((0, 0), (0, 60)),
+            line((100, 0), (100, 60)),
+            line((300, 0), (300, 40)),
+            line((5000, 0), (5100, 0)),
+        ],
+        crs=UTM,
+    )
+    eq = None
+    if with_equipment:
+        eq = gpd.GeoDataFrame(
+            {
+                "layer": ["rows", "rows", "combiners", "combiners", "inverters"],
+                "feature_id": ["R1", "R2", "C1", "C2", "I1"],
+            },
+            geometry=[pt(50, 3), pt(250, 45), pt(150, -2), pt(5050, 4), pt(2000, 2000)],
+            crs=UTM,
+        )
+    return build_network(tr, eq)
+
+
+def nx_graph(net) -> nx.MultiGraph:
+    g = nx.MultiGraph()
+    g.add_nodes_from(range(net.n_nodes))
+    g.add_weighted_edges_from(
+        zip(net.seg_u.tolist(), net.seg_v.tolist(), net.seg_length_m.tolist(), strict=True)
+    )
+    return g
+
+
+def check_paths(net, src, dst, paths) -> None:
+    """Each path runs from its source to its destination, segment after segment, and is as
+    long as networkx's shortest path."""
+    g = nx_graph(net)
+    assert len(paths.offset) == len(src) + 1 and paths.offset[0] == 0
+    assert paths.offset[-1] == len(paths.segment) == len(paths.forward)
+    assert paths.pair.tolist() == np.repeat(np.arange(len(src)), np.diff(paths.offset)).tolist()
+    for p, (a, b) in enumerate(zip(src.tolist(), dst.tolist(), strict=True)):
+        segs = paths.segment[paths.offset[p] : paths.offset[p + 1]]
+        fwd = paths.forward[paths.offset[p] : paths.offset[p + 1]]
+        ref = nx.shortest_path_length(g, a, b, weight="weight")  # networkx
+        assert paths.trench_m[p] == pytest.approx(ref, abs=1e-9)
+        assert net.seg_length_m[segs].sum() == pytest.approx(ref, abs=1e-9)
+        if a == b:
+            assert len(segs) == 0
+            continue
+        u = np.where(fwd, net.seg_u[segs], net.seg_v[segs])
+        v = np.where(fwd, net.seg_v[segs], net.seg_u[segs])
+        assert u[0] == a and v[-1] == b and (u[1:] == v[:-1]).all()
+        assert len(set(u.tolist())) == len(u)  # no node twice
+
+
+def all_pairs(net):
+    main = np.flatnonzero(net.node_island == net.node_island[0])
+    src, dst = np.meshgrid(main, main)
+    return src.ravel(), dst.ravel()
+
+
+def test_shortest_paths_of_every_pair_match_networkx():
+    net = ladder()
+    src, dst = all_pairs(net)
+    check_paths(net, src, dst, shortest_paths(net, src, dst))
+
+
+def test_a_unique_shortest_path_is_taken_segment_by_segment():
+    net = ladder()
+    xy = net.node_xy.round(6).tolist()
+    a, b = xy.index([0.0, 60.0]), xy.index([300.0, 40.0])
+    p = shortest_paths(net, np.array([a, b]), np.array([b, a]))
+    g = nx_graph(net)
+    # hand: along B, 100 + √(100² + 20²) + 100 = 301.98 m; any way over rail A is at least
+    # 100 + 60 (rung R1) + 200 + 40 (rung R3) = 400 m: the way along B is the only shortest
+    assert p.trench_m.tolist() == pytest.approx([200 + math.hypot(100, 20)] * 2, abs=1e-9)
+    nodes = nx.dijkstra_path(g, a, b, weight="weight")  # networkx
+    segs = p.segment[: p.offset[1]]
+    walked = [a] + np.where(p.forward[: p.offset[1]], net.seg_v[segs], net.seg_u[segs]).tolist()
+    assert walked == nodes
+    # the way back: the same segments in reverse order, each travelled the other way
+    assert p.segment[p.offset[1] :].tolist() == segs[::-1].tolist()
+    assert (p.forward[p.offset[1] :] == ~p.forward[: p.offset[1]][::-1]).all()
+    assert p.forward.dtype == bool and p.segment.dtype.kind == "i"
+
+
+@pytest.mark.parametrize(
+    ("detour", "detour_m", "local_chunk", "chunk_entries"),
+    [
+        (0.0, 0.0, 64, 4_000_000),  # every first search falls short: searched again in full
+        (0.0, 0.0, 1, 1),  # ... one destination per search, in both passes
+        (1.0, 0.0, 2, 20),  # some fall short (bent ways), some do not
+        (2.0, 100.0, 3, 4_000_000),
+    ],
+)
+def test_search_radius_and_chunks_never_change_a_route(
+    monkeypatch, detour, detour_m, local_chunk, chunk_entries
+):
+    net = ladder()
+    src, dst = all_pairs(net)
+    want = shortest_paths(net, src, dst)
+    monkeypatch.setattr(routing, "_DETOUR", detour)
+    monkeypatch.setattr(routing, "_DETOUR_M", detour_m)
+    monkeypatch.setattr(routing, "_LOCAL_CHUNK", local_chunk)
+    monkeypatch.setattr(routing, "_CHUNK_ENTRIES", chunk_entries)
+    got = shortest_paths(net, src, dst)
+    check_paths(net, src, dst, got)
+    assert got.offset.tolist() == want.offset.tolist()
+    assert got.trench_m.tolist() == pytest.approx(want.trench_m.tolist(), abs=1e-9)
+
+
+def test_a_pair_on_two_islands_is_refused_in_both_passes(monkeypatch):
+    net = ladder()
+    z = int(np.argmax(net.node_xy[:, 0]))  # (5100, 0), island Z
+    with pytest.raises(ValueError, match="a source cannot reach its destination"):
+        shortest_paths(net, np.array([0, 1]), np.array([1, z]))
+    monkeypatch.setattr(routing, "_DETOUR_M", 1e9)  # the first search covers everything
+    with pytest.raises(ValueError, match="a source cannot reach its destination"):
+        shortest_paths(net, np.array([z]), np.array([0]))
+
+
+def test_search_radius_is_the_farthest_source_doubled_plus_100_m():
+    net = ladder()
+    xy = net.node_xy.round(6).tolist()
+    o, a, b = xy.index([0.0, 0.0]), xy.index([300.0, 0.0]), xy.index([0.0, 60.0])
+    # hand: destination o's farthest source is a, 300 m away: 2 × 300 + 100; b's: o, 60 m
+    r = routing._search_radius(net, np.array([a, b, o]), np.array([o, o, b]), np.array([0, 0, 1]))
+    assert r.tolist() == [700.0, 220.0]
+    assert (
+        routing._search_radius(net, np.zeros(0, int), np.zeros(0, int), np.zeros(0, int)).size == 0
+    )
+
+
+def test_within_local_and_z_order_helpers():
+    assert routing._within(np.array([2, 0, 3])).tolist() == [0, 1, 0, 1, 2]
+    sub = np.array([2, 5, 9])
+    assert routing._local(sub, np.array([9, 2, 3, 10, 5, 0])).tolist() == [2, 0, -1, -1, 1, -1]
+    assert routing._local(np.zeros(0, np.int64), np.array([1, 2])).tolist() == [-1, -1]
+    xy = np.array([[0.0, 0.0], [10.0, 20.0], [3.0, 7.0], [10.0, 0.0], [0.0, 20.0]])
+
+    def morton(q):  # Python: interleave the bits, x in the even ones, y in the odd ones
+        code = 0
+        for bit in range(16):
+            code |= ((int(q[0]) >> bit) & 1) << (2 * bit)
+            code |= ((int(q[1]) >> bit) & 1) << (2 * bit + 1)
+        return code
+
+    q = np.floor((xy - xy.min(axis=0)) / (xy.max(axis=0) - xy.min(axis=0)) * 65535)
+    assert routing._z_order(xy).tolist() == [morton(v) for v in q]
+    assert routing._z_order(xy)[[1, 3, 4]].tolist() == [2**32 - 1, 0x55555555, 0xAAAAAAAA]
+    # all in one point: no span, every code 0
+    assert routing._z_order(np.array([[5.0, 5.0], [5.0, 5.0]])).tolist() == [0, 0]
+
+
+def test_route_lengths_between_features_match_networkx():
+    net = ladder(with_equipment=True)
+    fn = routing._route_lengths_fn(net)
+    g = nx_graph(net)
+    node = net.taps.set_index("feature_id")["node"]
+    stub = net.taps.set_index("feature_id")["stub_m"]
+
+    def ref(a, b):
+        if node[a] < 0 or node[b] < 0 or not nx.has_path(g, node[a], node[b]):
+            return math.inf
+        return stub[a] + nx.shortest_path_length(g, node[a], node[b], "weight") + stub[b]
+
+    layer = {"R": "rows", "C": "combiners", "I": "inverters"}
+    for src, dst in (
+        (["R1", "R2"], ["C1"]),  # fewer destination nodes: searched from the destination
+        (["R1"], ["C1", "R1", "R2"]),  # fewer source nodes: searched from the source
+        (["R2", "R1", "R2"], ["C1", "C2", "I1"]),
+    ):
+        for dl in sorted({layer[d[0]] for d in dst}):  # one call per destination layer
+            ds = [d for d in dst if layer[d[0]] == dl]
+            out = fn("rows", src, dl, ds)
+            assert out.shape == (len(src), len(ds))
+            want = np.array([[ref(s, d) for d in ds] for s in src], dtype=float)  # networkx
+            np.testing.assert_allclose(out, want, rtol=0, atol=1e-9)
+    # hand: R1 (50, 3) → C1 (150, -2): 3 + 100 + 2 m along rail A
+    assert fn("rows", ["R1"], "combiners", ["C1"]).tolist() == [[105.0]]
+    # I1 is 2000 m from every trench: not connected, no route to or from it
+    assert fn("inverters", ["I1"], "combiners", ["C1"]).tolist() == [[math.inf]]
+    assert fn("combiners", ["C2"], "inverters", ["I1"]).tolist() == [[math.inf]]
+    # C2 is on island Z: no route to rail A
+    assert fn("rows", ["R1"], "combiners", ["C2"]).tolist() == [[math.inf]]
