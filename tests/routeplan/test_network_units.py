@@ -366,13 +366,13 @@ def test_graph_distances_match_networkx(small):
     assert net.island_trenches(0) == ["T1", "T2", "T3"]
     u, v = net.seg_u, net.seg_v
     assert net.segment_between(v, u).tolist() == list(range(8))
-    with pytest.raises(ValueError, match="^a node pair is not joined by any segment$"):
+    with pytest.raises(ValueError, match=r"^a node pair is not joined by any segment$"):
         net.segment_between(np.array([u[0]]), np.array([u[0]]))
     far = int(np.argmax(net.node_xy[:, 0]))  # (100, 0)
     west = int(np.argmin(net.node_xy[:, 0]))  # (0, 0)
-    with pytest.raises(ValueError, match="^a node pair is not joined by any segment$"):
+    with pytest.raises(ValueError, match=r"^a node pair is not joined by any segment$"):
         net.segment_between(np.array([west]), np.array([far]))  # hand: 4 segments apart
-    with pytest.raises(ValueError, match="^a node pair is not joined by any segment$"):
+    with pytest.raises(ValueError, match=r"^a node pair is not joined by any segment$"):
         net.segment_between(np.array([far]), np.array([far + 100]))  # beyond the last key
     # hand: (60, 0)–(100, 0) is T1's fourth segment, either way round
     assert net.segment_between(np.array([0, far]), np.array([far, 0])).tolist() == [3, 3]
@@ -843,3 +843,29 @@ def test_length_in_band_equals_shapelys_flat_buffer(a, b):
         shapely.intersection(line(*a), shapely.buffer(line(*b), tol, cap_style="flat"))
     )
     assert got.tolist() == pytest.approx([ref], abs=1e-6)
+
+
+def test_many_crossings_are_numbered_pair_by_pair_in_geos_order():
+    # two zigzags cross a straight trench 40 and 39 times; short straight trenches meeting
+    # end to end elsewhere add pairs that share one end
+    zig = line(*[(2.5 * i, 1.0 if i % 2 else -1.0) for i in range(41)])
+    zag = line(*[(2.5 * i + 1.25, 1.5 if i % 2 else -1.5) for i in range(40)])
+    geoms = [
+        line((-5, 0), (105, 0)),
+        zig,
+        line((200, 0), (210, 0)),
+        line((210, 0), (210, 10)),
+        line((210, 10), (220, 10)),
+        line((220, 10), (220, 20)),
+        zag,
+    ]
+    net = build_network(trenches(*geoms))
+    # shapely: GEOS's intersection points of each crossing pair, in its order: the first nodes
+    ref = np.concatenate(
+        [
+            shapely.get_coordinates(shapely.intersection(geoms[0], geoms[1])),
+            shapely.get_coordinates(shapely.intersection(geoms[0], geoms[6])),
+        ]
+    )
+    assert len(ref) == 79
+    assert net.node_xy[: len(ref)].tolist() == ref.tolist()

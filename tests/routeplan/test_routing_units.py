@@ -116,7 +116,8 @@ def test_a_unique_shortest_path_is_taken_segment_by_segment():
     assert p.trench_m.tolist() == pytest.approx([200 + math.hypot(100, 20)] * 2, abs=1e-9)
     nodes = nx.dijkstra_path(g, a, b, weight="weight")  # networkx
     segs = p.segment[: p.offset[1]]
-    walked = [a] + np.where(p.forward[: p.offset[1]], net.seg_v[segs], net.seg_u[segs]).tolist()
+    ends = np.where(p.forward[: p.offset[1]], net.seg_v[segs], net.seg_u[segs])
+    walked = [a, *ends.tolist()]
     assert walked == nodes
     # the way back: the same segments in reverse order, each travelled the other way
     assert p.segment[p.offset[1] :].tolist() == segs[::-1].tolist()
@@ -223,3 +224,173 @@ def test_route_lengths_between_features_match_networkx():
     assert fn("combiners", ["C2"], "inverters", ["I1"]).tolist() == [[math.inf]]
     # C2 is on island Z: no route to rail A
     assert fn("rows", ["R1"], "combiners", ["C2"]).tolist() == [[math.inf]]
+
+
+# ---- route_site's tables on a small hand-built site ----------------------------------------
+#
+#   R1 (x = 10, y 3 → 30)          C2 (102, 40)
+#      │                          │ T2 (100,0) → (100,20) → (100,50)
+#  T1 ●───────────●───────────────●──────────────────────●──● (200, 0)
+#   (0,0)  (10,0)    C1 (60,-2)  (100,0)        I1 (190, 2)   G1 (200, -3)
+#
+# hand: circuits R1/S1, R1/S2 (R1 → C1), SA:C1 (C1 → C2: a combiner feeding a combiner),
+# A:C2 (C2 → I1), AC:I1 (I1 → G1). T1 is cut at 10, 60, 100 and 190; T2 at 40 (C2's tap).
+
+
+@pytest.fixture
+def small_site(make_site):
+    return make_site(
+        rows=[{"id": "R1", "strings": 2, "to": "C1", "geometry": line((10, 3), (10, 30))}],
+        combiners=[
+            {"id": "C1", "to": "C2", "geometry": pt(60, -2)},
+            {"id": "C2", "to": "I1", "geometry": pt(102, 40)},
+        ],
+        inverters=[{"id": "I1", "to": "G1", "geometry": pt(190, 2)}],
+        trenches=[
+            {"id": "T1", "geometry": line((0, 0), (200, 0)), "max_circuits": 2},
+            {"id": "T2", "geometry": line((100, 0), (100, 20), (100, 50)), "max_circuits": 1},
+        ],
+        grid=[{"id": "G1", "geometry": pt(200, -3)}],
+    )
+
+
+def test_segment_table_counts_every_kind(small_site):
+    plan = routing.route_site(small_site)
+    s = plan.segments
+    assert list(s.columns) == [
+        "segment_id",
+        "trench_id",
+        "length_m",
+        "circuits",
+        "strings",
+        "arrays",
+        "ac",
+        "subarrays",
+        "circuit_ids",
+        "depth_m",
+        "laying",
+        "spacing_m",
+        "soil_k_m_w",
+        "max_circuits",
+        "fill",
+        "over_capacity",
+        "node_u",
+        "node_v",
+        "start_m",
+        "end_m",
+        "trench_index",
+        "geometry",
+    ]
+    assert s.crs == small_site.crs
+    assert s["trench_id"].tolist() == ["T1"] * 5 + ["T2"] * 2
+    assert s["start_m"].tolist() == [0, 10, 60, 100, 190, 0, 40]
+    assert s["length_m"].tolist() == [10, 50, 40, 90, 10, 40, 10]  # hand
+    # hand: which circuits use which stretch
+    assert s["circuits"].tolist() == [0, 2, 1, 1, 1, 2, 0]
+    assert s["strings"].tolist() == [0, 2, 0, 0, 0, 0, 0]
+    assert s["subarrays"].tolist() == [0, 0, 1, 0, 0, 1, 0]
+    assert s["arrays"].tolist() == [0, 0, 0, 1, 0, 1, 0]
+    assert s["ac"].tolist() == [0, 0, 0, 0, 1, 0, 0]
+    for col in ("circuits", "strings", "subarrays", "arrays", "ac"):
+        assert s[col].dtype == np.int64, col
+    assert s["circuit_ids"].tolist() == [
+        "",
+        "R1/S1;R1/S2",
+        "SA:C1",
+        "A:C2",
+        "AC:I1",
+        "A:C2;SA:C1",
+        "",
+    ]
+    # hand: circuits / max_circuits; T2's first stretch carries 2 circuits for 1 allowed
+    assert s["fill"].tolist() == [0.0, 1.0, 0.5, 0.5, 0.5, 2.0, 0.0]
+    assert s["over_capacity"].tolist() == [False] * 5 + [True, False]
+    assert s["max_circuits"].tolist() == [2.0] * 5 + [1.0] * 2
+
+
+def test_circuit_table_of_a_small_site(small_site):
+    plan = routing.route_site(small_site)
+    c = plan.circuits.set_index("circuit_id")
+    assert sorted(c.index) == ["A:C2", "AC:I1", "R1/S1", "R1/S2", "SA:C1"]
+    assert c.crs == small_site.crs
+    order = ["R1/S1", "R1/S2", "SA:C1", "A:C2", "AC:I1"]
+    c = c.loc[order]
+    # hand: trench 50, 40 + 40, 40 + 90, 10 m; stubs 3 + 2, 2 + 2, 2 + 2, 2 + 3 m
+    assert c["trench_m"].tolist() == [50, 50, 80, 130, 10]
+    assert c["stub_m"].tolist() == [5, 5, 4, 4, 5]
+    assert c["route_m"].tolist() == [55, 55, 84, 134, 15]
+    assert c["row_run_m"].tolist() == [13.5, 13.5, 0, 0, 0]  # hand: half of R1's 27 m
+    assert c["n_segments"].tolist() == [1, 1, 2, 2, 1]
+    assert c["group_max"].tolist() == [2, 2, 2, 2, 1]
+    assert c["group_max"].dtype == np.int64 and c["n_segments"].dtype.kind == "i"
+    seg = plan.segments.set_index("segment_id")
+    trench_start = [
+        [(seg.loc[i, "trench_id"], seg.loc[i, "start_m"]) for i in ids.split(";")]
+        for ids in c["segment_ids"]
+    ]
+    assert trench_start == [
+        [("T1", 10.0)],
+        [("T1", 10.0)],
+        [("T1", 60.0), ("T2", 0.0)],
+        [("T2", 0.0), ("T1", 100.0)],
+        [("T1", 190.0)],
+    ]
+    # hand: each route from the source feature to the destination, through every vertex
+    assert [shapely.get_coordinates(g).tolist() for g in c.geometry] == [
+        [[10, 3], [10, 0], [60, 0], [60, -2]],
+        [[10, 3], [10, 0], [60, 0], [60, -2]],
+        [[60, -2], [60, 0], [100, 0], [100, 20], [100, 40], [102, 40]],
+        [[102, 40], [100, 40], [100, 20], [100, 0], [190, 0], [190, 2]],
+        [[190, 2], [190, 0], [200, 0], [200, -3]],
+    ]
+
+
+def test_a_route_between_features_on_one_node_is_its_two_stubs(make_site):
+    # hand: R9's nearest point (20, 2) and C9 (20, -1) both tap T at (20, 0)
+    site = make_site(
+        rows=[{"id": "R9", "strings": 1, "to": "C9", "geometry": line((20, 2), (20, 20))}],
+        combiners=[{"id": "C9", "to": "I9", "geometry": pt(20, -1)}],
+        inverters=[{"id": "I9", "to": "G9", "geometry": pt(50, 1)}],
+        trenches=[{"id": "T", "geometry": line((0, 0), (50, 0))}],
+        grid=[{"id": "G9", "geometry": pt(0, -1)}],
+    )
+    c = routing.route_site(site).circuits.set_index("circuit_id")
+    assert shapely.get_coordinates(c.loc["R9/S1", "geometry"]).tolist() == [
+        [20, 2],
+        [20, 0],
+        [20, -1],
+    ]
+    assert c.loc["R9/S1", "n_segments"] == 0 and c.loc["R9/S1", "group_max"] == 0
+    assert c.loc["R9/S1", "segment_ids"] == "" and c.loc["R9/S1", "route_m"] == 3.0
+
+
+def test_island_names_its_first_six_trenches():
+    six = gpd.GeoDataFrame(
+        {"id": [f"T{i}" for i in range(1, 8)]},
+        geometry=[line((0, 0), (100, 0))] + [line((10 * i, 0), (10 * i, 5)) for i in range(1, 7)],
+        crs=UTM,
+    )
+    assert routing._island(build_network(six.iloc[:6]), 0) == "[T1, T2, T3, T4, T5, T6]"
+    assert routing._island(build_network(six), 0) == "[T1, T2, T3, T4, T5, T6 and 1 more]"
+    assert routing._island(build_network(six), 0, most=2) == "[T1, T2 and 5 more]"
+
+
+def test_a_feature_on_a_trench_shorter_than_the_tolerance_joins_no_island(make_site):
+    # hand: T2 is 5 cm long, below node_tol_m (0.1 m): its two ends are one node and the
+    # piece between them is dropped, so C1's node has no segment at all
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "to": "C1", "geometry": line((10, 3), (10, 30))}],
+        combiners=[{"id": "C1", "to": "I1", "geometry": pt(300, 2)}],
+        inverters=[{"id": "I1", "geometry": pt(50, 2)}],
+        trenches=[
+            {"id": "T1", "geometry": line((0, 0), (100, 0))},
+            {"id": "T2", "geometry": line((300, 0), (300.05, 0))},
+        ],
+    )
+    found = [str(p) for p in routing.check_network(site)]
+    assert found == [
+        "rows 'R1': R1/S1 cannot reach combiner 'C1': 'R1' joins the trench island [T1], "
+        "'C1' joins of no trench",
+        "combiners 'C1': A:C1 cannot reach inverter 'I1': 'C1' joins the trench island of no "
+        "trench, 'I1' joins [T1]",
+    ]
