@@ -16,9 +16,11 @@ import numpy as np
 import pytest
 import shapely
 
+from layers.errors import Problem
 from routeplan import routing
+from routeplan.errors import NotConnectedError, RoutingError
 from routeplan.network import build_network
-from routeplan.routing import shortest_paths
+from routeplan.routing import RouteParams, shortest_paths
 
 UTM = "EPSG:32633"
 
@@ -177,7 +179,8 @@ def test_within_local_and_z_order_helpers():
     sub = np.array([2, 5, 9])
     assert routing._local(sub, np.array([9, 2, 3, 10, 5, 0])).tolist() == [2, 0, -1, -1, 1, -1]
     assert routing._local(np.zeros(0, np.int64), np.array([1, 2])).tolist() == [-1, -1]
-    xy = np.array([[0.0, 0.0], [10.0, 20.0], [3.0, 7.0], [10.0, 0.0], [0.0, 20.0]])
+    corners = [[0.0, 0.0], [10.0, 20.0], [3.0, 7.0], [10.0, 0.0], [0.0, 20.0]]
+    xy = np.array(corners) + np.array([7.0, -3.0])  # off the origin, unlike in each axis
 
     def morton(q):  # Python: interleave the bits, x in the even ones, y in the odd ones
         code = 0
@@ -189,6 +192,10 @@ def test_within_local_and_z_order_helpers():
     q = np.floor((xy - xy.min(axis=0)) / (xy.max(axis=0) - xy.min(axis=0)) * 65535)
     assert routing._z_order(xy).tolist() == [morton(v) for v in q]
     assert routing._z_order(xy)[[1, 3, 4]].tolist() == [2**32 - 1, 0x55555555, 0xAAAAAAAA]
+    # an axis spanning half a metre is spread over the whole 16 bits as well
+    thin = np.array([[5.0, 1.0], [5.25, 2.0], [5.5, 3.0]])
+    q = np.floor((thin - thin.min(axis=0)) / (thin.max(axis=0) - thin.min(axis=0)) * 65535)
+    assert routing._z_order(thin).tolist() == [morton(v) for v in q]
     # all in one point: no span, every code 0
     assert routing._z_order(np.array([[5.0, 5.0], [5.0, 5.0]])).tolist() == [0, 0]
 
@@ -394,3 +401,74 @@ def test_a_feature_on_a_trench_shorter_than_the_tolerance_joins_no_island(make_s
         "combiners 'C1': A:C1 cannot reach inverter 'I1': 'C1' joins the trench island of no "
         "trench, 'I1' joins [T1]",
     ]
+
+
+def test_check_network_uses_the_given_snap_for_far_parts(make_site):
+    # hand: trench A's two parts are 40 m apart: one corridor when snap_m is 45 m
+    site = make_site(
+        rows=[{"id": "R1", "strings": 1, "geometry": line((20, 2), (20, 10))}],
+        inverters=[{"id": "INV1", "geometry": pt(10, -1)}],
+        trenches=[
+            {
+                "id": "A",
+                "geometry": shapely.MultiLineString([[(0, 0), (100, 0)], [(140, 0), (200, 0)]]),
+            }
+        ],
+    )
+    assert routing.check_network(site, RouteParams(snap_m=45.0)) == []
+    assert [p.feature_id for p in routing.check_network(site)] == ["A"]
+
+
+def test_layer_offsets_of_each_feature():
+    offset = {"rows": 0, "combiners": 5, "inverters": 7, "grid": 9}
+    layers = np.array(["combiners", "rows", "grid", "combiners"], dtype=object)
+    got = routing._layer_offset(layers, offset)
+    assert got.tolist() == [5, 0, 9, 5] and got.dtype == np.int64
+    none = routing._layer_offset(np.zeros(0, dtype=object), offset)
+    assert none.tolist() == [] and none.dtype == np.int64
+
+
+def test_grouped_problems_name_how_many_and_the_first_five():
+    def p(fid, msg="has no 'to' and no inverter joins the network"):
+        return (NotConnectedError, Problem("combiners", fid, msg))
+
+    out = routing._grouped(
+        [p("C1", "alone"), *(p(f"C{i}") for i in range(2, 4)), p("R1", "other")]
+        + [(RoutingError, Problem("rows", f"R{i}", "far")) for i in range(1, 6)]
+        + [(RoutingError, Problem("inverters", f"I{i}", "far")) for i in range(1, 8)]
+    )
+    assert [(cls, str(q)) for cls, q in out] == [
+        (NotConnectedError, "combiners 'C1': alone"),
+        (
+            NotConnectedError,
+            "combiners: has no 'to' and no inverter joins the network (2 combiners: C2, C3)",
+        ),
+        (NotConnectedError, "combiners 'R1': other"),
+        (RoutingError, "rows: far (5 rows: R1, R2, R3, R4, R5)"),
+        (RoutingError, "inverters: far (7 inverters: I1, I2, I3, I4, I5 and 2 more)"),
+    ]
+
+
+def test_a_shortest_path_that_leaves_the_first_search_box_is_still_taken(monkeypatch):
+    """D (0, 0) and S (10, 0): way A goes up to y = 12 and back (12 + 10 + 12 = 34 m), split
+    at (5, 12); way B stays near the axis but runs round (10 + 10 + 30 + 10 + 10 = 70 m).
+    With the first radius the straight distance (10 m), D's first search covers the box
+    ±11 m round D, which leaves A's middle node out: S is not within 10 m, so D is searched
+    again in full (shortest_paths' Notes), and A is found."""
+    tr = gpd.GeoDataFrame(
+        {"id": ["A1", "A2", "B"]},
+        geometry=[
+            line((0, 0), (0, 12), (5, 12)),
+            line((5, 12), (10, 12), (10, 0)),
+            line((0, 0), (-10, 0), (-10, -10), (20, -10), (20, 0), (10, 0)),
+        ],
+        crs=UTM,
+    )
+    net = build_network(tr)
+    xy = net.node_xy.round(6).tolist()
+    d, s = xy.index([0.0, 0.0]), xy.index([10.0, 0.0])
+    monkeypatch.setattr(routing, "_DETOUR", 1.0)
+    monkeypatch.setattr(routing, "_DETOUR_M", 0.0)
+    p = shortest_paths(net, np.array([s]), np.array([d]))
+    assert p.trench_m.tolist() == [34.0]  # networkx agrees (check_paths)
+    check_paths(net, np.array([s]), np.array([d]), p)
