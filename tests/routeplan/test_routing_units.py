@@ -18,7 +18,7 @@ import shapely
 
 from layers.errors import Problem
 from routeplan import routing
-from routeplan.errors import NotConnectedError, RoutingError
+from routeplan.errors import NotConnectedError, ParameterError, RoutingError
 from routeplan.network import build_network
 from routeplan.routing import RouteParams, shortest_paths
 
@@ -55,10 +55,17 @@ def ladder(with_equipment: bool = False):
     if with_equipment:
         eq = gpd.GeoDataFrame(
             {
-                "layer": ["rows", "rows", "combiners", "combiners", "inverters"],
-                "feature_id": ["R1", "R2", "C1", "C2", "I1"],
+                "layer": ["rows", "rows", "combiners", "combiners", "inverters", "combiners"],
+                "feature_id": ["R1", "R2", "C1", "C2", "I1", "C3"],
             },
-            geometry=[pt(50, 3), pt(250, 45), pt(150, -2), pt(5050, 4), pt(2000, 2000)],
+            geometry=[
+                pt(50, 3),
+                pt(250, 45),
+                pt(150, -2),
+                pt(5050, 4),
+                pt(2000, 2000),
+                pt(3000, 3000),
+            ],
             crs=UTM,
         )
     return build_network(tr, eq)
@@ -231,6 +238,29 @@ def test_route_lengths_between_features_match_networkx():
     assert fn("combiners", ["C2"], "inverters", ["I1"]).tolist() == [[math.inf]]
     # C2 is on island Z: no route to rail A
     assert fn("rows", ["R1"], "combiners", ["C2"]).tolist() == [[math.inf]]
+    # C3 joins no trench: its column is inf, the others are measured
+    assert fn("rows", ["R1", "R2"], "combiners", ["C3", "C1"]).tolist() == [
+        [math.inf, 105.0],
+        # hand: R2's 5 m stub to (250, 40) on B, 50 m along B to (300, 40), 40 m down R3,
+        # 150 m back along A to C1's tap (150, 0), its 2 m stub
+        [math.inf, 5 + 50 + 40 + 150 + 2],
+    ]
+    assert fn("rows", [], "combiners", ["C1"]).shape == (0, 1)
+    assert fn("rows", ["R1"], "combiners", []).shape == (1, 0)
+
+
+def test_route_parameters_problems_and_their_limits():
+    with pytest.raises(ParameterError) as err:
+        RouteParams(snap_m=-1.0, node_tol_m=math.inf, termination_m=True, slack_pct="3")
+    assert [(p.layer, p.feature_id, p.message) for p in err.value.problems] == [
+        ("params", "snap_m", "must be a number >= 0, got -1.0"),
+        ("params", "node_tol_m", "must be a number >= 0, got inf"),
+        ("params", "termination_m", "must be a number >= 0, got True"),
+        ("params", "slack_pct", "must be a number >= 0, got '3'"),
+    ]
+    # zero is a valid value of each (no slack, no allowance, ...)
+    p = RouteParams(snap_m=0, node_tol_m=0, termination_m=0, slack_pct=0, row_run_factor=0)
+    assert (p.snap_m, p.node_tol_m, p.termination_m, p.slack_pct, p.row_run_factor) == (0,) * 5
 
 
 # ---- route_site's tables on a small hand-built site ----------------------------------------
