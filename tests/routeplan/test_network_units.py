@@ -869,3 +869,16 @@ def test_many_crossings_are_numbered_pair_by_pair_in_geos_order():
     )
     assert len(ref) == 79
     assert net.node_xy[: len(ref)].tolist() == ref.tolist()
+
+
+def test_ids_that_join_alike_do_not_share_a_fingerprint():
+    # two layers of the same lines whose ids, joined with a NUL between them, read alike
+    geoms = [line((0, 0), (10, 0)), line((10, 0), (10, 5))]
+    a = trenches(*geoms, ids=["A\x00B", "C"])
+    b = trenches(*geoms, ids=["A", "B\x00C"])
+    assert trench_fingerprint(a, 0.1, TrenchDefaults()) != trench_fingerprint(
+        b, 0.1, TrenchDefaults()
+    )
+    # so the memo of one is not taken for the other: the segments carry the new ids
+    net = build_network(b, memo=build_network(a).memo)
+    assert net.segments["trench_id"].tolist() == ["A", "B\x00C"]
