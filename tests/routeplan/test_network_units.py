@@ -613,6 +613,18 @@ def test_a_lone_tap_joins_a_trench_end_within_the_tolerance():
     assert net.n_nodes == 2 and table(net) == [("T1", 0.0, 99.875, 100.0)]
     assert_allclose(net.node_xy[net.taps["node"].iloc[0]], [100.0, 0.0])
     assert net.taps["stub_m"].iloc[0] == pytest.approx(math.hypot(0.125, 3), abs=1e-12)
+    # a tolerance of 2**-10 m, far below the k-d search's 1e-9 m margin of its own
+    tol = 2.0**-10
+    net = build_network(
+        trenches(line((0, 0), (100, 0))),
+        equipment(("inverters", "I", pt(100 - tol, 3))),
+        node_tol_m=tol,
+    )
+    assert net.n_nodes == 2
+    net = build_network(
+        trenches(line((0, 0), (100, 0)), line((100 + tol, 0), (200, 0))), node_tol_m=tol
+    )
+    assert net.n_nodes == 3
     # 0.1 m away with the default tolerance, one tap alone: the same
     net = build_network(
         trenches(line((0, 0), (100, 0))), equipment(("inverters", "I", pt(99.95, 3)))
@@ -685,15 +697,12 @@ def test_segments_keep_every_inner_vertex_in_order():
 
 
 def test_a_vertex_exactly_one_micrometre_past_a_split_is_not_repeated():
-    # hand: the tap at x = 0.5 splits the trench; its vertex at x = 0.5 + 1e-6 is not "more
-    # than MIN_TOL_M" inside the next piece (build_network's pieces), so it is left out
-    x = 0.5 + nw.MIN_TOL_M
-    net = build_network(
-        trenches(line((0, 0), (x, 0), (10, 0))),
-        equipment(("rows", "R", pt(0.5, 2))),
-        node_tol_m=0.01,
-    )
-    assert [len(g.coords) for g in net.segments.geometry] == [2, 2]
+    # hand: the vertex 1e-6 m after the trench's start is not "more than MIN_TOL_M" inside the
+    # segment (build_network's pieces), so it is left out; one 2e-6 m in stays
+    net = build_network(trenches(line((0, 0), (nw.MIN_TOL_M, 0), (10, 0))))
+    assert [list(g.coords) for g in net.segments.geometry] == [[(0.0, 0.0), (10.0, 0.0)]]
+    net = build_network(trenches(line((0, 0), (2 * nw.MIN_TOL_M, 0), (10, 0))))
+    assert [len(g.coords) for g in net.segments.geometry] == [3]
 
 
 # ---- trench checks: overlaps, retraces, far parts ------------------------------------------
@@ -764,6 +773,8 @@ def test_a_trench_pair_is_summed_over_the_parts():
     t1 = shapely.MultiLineString([[(-10, 0.05), (0.6, 0.05)], [(9.4, 0.05), (20, 0.05)]])
     t2 = line((0, 0), (10, 0))
     assert problems(trenches(t1, t2)) == [overlap("T1", "T2", 1.2)]
+    # ... and the same with the parts in the later trench
+    assert problems(trenches(t2, t1)) == [overlap("T1", "T2", 1.2)]
 
 
 def test_a_small_overlap_does_not_hide_a_later_one():
