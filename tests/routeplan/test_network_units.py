@@ -893,3 +893,12 @@ def test_ids_that_join_alike_do_not_share_a_fingerprint():
     # so the memo of one is not taken for the other: the segments carry the new ids
     net = build_network(b, memo=build_network(a).memo)
     assert net.segments["trench_id"].tolist() == ["A", "B\x00C"]
+
+
+def test_a_shared_stretch_of_min_tol_counts_for_nothing():
+    # hand: T1's second part (7, 0)–(16, 0) shares exactly 1 m with T2 (0, 0)–(8, 0) (binary
+    # fractions: no rounding), its first part, exactly MIN_TOL_M long, lies on T2's start: a
+    # stretch no longer than MIN_TOL_M is floating-point noise (its docstring) and is not
+    # added, so the shared length is 1 m, not more than overlap_min_m
+    t1 = shapely.MultiLineString([[(0, 0), (nw.MIN_TOL_M, 0)], [(7, 0), (16, 0)]])
+    assert problems(trenches(t1, line((0, 0), (8, 0)))) == []
