@@ -39,8 +39,10 @@ planned through the command line, generated plants of hundreds of trenches) made
 surviving mutant cost seconds: about 0.3 mutants/s for ``network``. Those two targets run
 ``tests/routeplan/test_network_units.py`` and ``test_routing_units.py`` (small hand-built
 geometry checked against shapely, networkx and hand computation) with the fast tests of
-their other files, and leave the slow ones out; measured on the 2-core machine, a whole
-``network`` run (1,441 mutants) takes about 7 minutes. The slow tests still run in the suite.
+their other files, and leave the slow ones out; measured on the shared 2-core machine, a
+whole ``network`` run (1,441 mutants) takes about 7 minutes (3.6 mutants/s), a ``routing`` run
+(1,617) about 18 (1.5/s). The slow tests still run in the suite. A change of a target's
+configuration (its tests or deselected ones) makes mutmut test every mutant again.
 
 The process runs at ``nice 10``. The report counts, per module, the mutants killed (a test
 failed or timed out), survived, without tests and not yet checked; mutants that
