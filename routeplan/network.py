@@ -348,7 +348,8 @@ def trench_fingerprint(
     (WKB, exact coordinates)."""
     h = hashlib.sha256()
     h.update(repr((float(node_tol_m), defaults, len(trenches))).encode())
-    h.update("\x00".join(map(str, trenches["id"].to_numpy(dtype=object).tolist())).encode())
+    # repr of the list: unambiguous, whatever characters the ids hold
+    h.update(repr([str(v) for v in trenches["id"].to_numpy(dtype=object).tolist()]).encode())
     for name in TRENCH_ATTRIBUTES:
         if name in trenches:
             column = trenches[name]

@@ -31,6 +31,19 @@ pipeline's take some 15 minutes with ``--jobs 1`` on a busy 2-core machine) and
 ``--retest`` adds nothing to it. To test a few mutants again, name them yourself:
 ``cd .mutation/pipeline && mutmut run --max-children 1 "routeplan.pipeline.x_summarise__mutmut_*"``.
 
+A target may also leave some tests of its files out (``deselect``, passed to pytest as
+``--deselect``): mutmut runs, for a mutant, every test that called its function, and nearly
+every test of the ``network`` and ``routing`` files builds a network or routes a site, so a
+handful of slow ones (hypothesis searches of 60 generated sites, sites written to files and
+planned through the command line, generated plants of hundreds of trenches) made each
+surviving mutant cost seconds: about 0.3 mutants/s for ``network``. Those two targets run
+``tests/routeplan/test_network_units.py`` and ``test_routing_units.py`` (small hand-built
+geometry checked against shapely, networkx and hand computation) with the fast tests of
+their other files, and leave the slow ones out; measured on the shared 2-core machine, a
+whole ``network`` run (1,441 mutants) takes about 7 minutes (3.6 mutants/s), a ``routing`` run
+(1,617) about 18 (1.5/s). The slow tests still run in the suite. A change of a target's
+configuration (its tests or deselected ones) makes mutmut test every mutant again.
+
 The process runs at ``nice 10``. The report counts, per module, the mutants killed (a test
 failed or timed out), survived, without tests and not yet checked; mutants that
 ``tests/MUTATION.md`` records as equivalent (a line naming the mutant and the word
@@ -72,6 +85,7 @@ class Target:
     prefix: str  # source_paths entries that start with this belong to the target
     tests: tuple[str, ...] | None  # None: the whole selection of [tool.mutmut]
     mutants: tuple[str, ...] = ()  # mutant-name patterns to run and report; () for all
+    deselect: tuple[str, ...] = ()  # test ids of the subset's files kept out of the run
 
     def covers(self, name: str) -> bool:
         """Whether the mutant ``name`` belongs to the target's run and report."""
@@ -93,6 +107,28 @@ PIPELINE_TABLES = tuple(
     )
 )
 
+
+_NET = "tests/routeplan"
+#: the tests of test_trench_checks.py on whole sites: generated, or written to files and
+#: checked or planned through the command line
+_TRENCH_CHECKS_CLI = (
+    "test_generated_sites_pass",
+    "test_refused_in_one_line",
+    "test_attribute_overlap_and_far_equipment_together",
+    "test_setting_and_far_equipment_together",
+    "test_no_network_checks_with_a_refused_tolerance",
+    "test_unreadable_file_stops_before_the_network_checks",
+    "test_empty_layer_file_is_one_line",
+    "test_missing_layer_is_one_line",
+    "test_reference_into_a_site_without_grid_is_one_line",
+    "test_features_left_without_destination_by_one_far_feature",
+    "test_layer_without_id_column_is_one_line",
+    "test_refused_module_table_is_one_line",
+    "test_features_naming_one_missing_id_are_one_line",
+    "test_bill_counts_each_corridor_once",
+    "test_bill_of_a_generated_site_counts_each_corridor_once",
+    "test_layers_keep_a_partial_site_only_when_every_file_was_read",
+)
 
 TARGETS = {
     "calc": Target("calc/", ("tests/calc", "calc")),
@@ -132,17 +168,35 @@ TARGETS = {
     "network": Target(
         "routeplan/network.py",
         (
+            "tests/routeplan/test_network_units.py",
             "tests/routeplan/test_network.py",
             "tests/routeplan/test_network_loops.py",
             "tests/routeplan/test_trench_checks.py",
+        ),
+        deselect=(
+            # 60 hypothesis examples of three builds each: the memo is checked by hand-built
+            # cases in test_network.py and test_network_units.py
+            f"{_NET}/test_network.py::test_a_build_with_the_last_builds_memo_equals_a_cold_build",
+            # whole sites written to files and planned through the command line
+            f"{_NET}/test_network_loops.py::"
+            "test_a_trench_shorter_than_the_tolerance_is_reported_in_one_line",
+            *(f"{_NET}/test_trench_checks.py::{t}" for t in _TRENCH_CHECKS_CLI),
         ),
     ),
     "routing": Target(
         "routeplan/routing.py",
         (
+            "tests/routeplan/test_routing_units.py",
             "tests/routeplan/test_routing.py",
             "tests/routeplan/test_routing_api.py",
             "tests/routeplan/test_route_crs.py",
+        ),
+        deselect=(
+            # generated sites of up to a few hundred nodes, routed in full and compared with
+            # networkx path by path: small hand-built graphs in test_routing_units.py do it
+            f"{_NET}/test_routing.py::test_routes_agree_with_networkx",
+            f"{_NET}/test_routing_api.py::"
+            "test_routes_on_sites_larger_than_the_first_radius_agree_with_networkx",
         ),
     ),
     "all": Target("", None),
@@ -194,6 +248,9 @@ def narrowed_config(pyproject_text: str, target: Target) -> tuple[str, dict]:
                 f"missing {', '.join(missing)}"
             )
         table["pytest_add_cli_args_test_selection"] = list(target.tests)
+    if target.deselect:
+        args = table.get("pytest_add_cli_args", [])
+        table["pytest_add_cli_args"] = [*args, *(f"--deselect={t}" for t in target.deselect)]
     body = "".join(f"{key} = {_toml_value(value)}\n" for key, value in table.items())
     lines = pyproject_text.splitlines(keepends=True)
     start = next(i for i, line in enumerate(lines) if line.strip() == "[tool.mutmut]")
