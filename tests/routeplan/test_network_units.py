@@ -604,13 +604,15 @@ def test_ends_exactly_the_tolerance_apart_join():
 def test_a_lone_tap_joins_a_trench_end_within_the_tolerance():
     # hand: the tap (99.875, 0) is exactly 0.125 m from T1's east end: one node there; the
     # piece from the tap to the end joins that node to itself and is shorter than twice the
-    # tolerance: dropped, so T1 is one segment, its end moved onto the node
+    # tolerance: dropped, so T1 is one segment, its end moved onto the node; the node's
+    # chainage is that of the split point nearest it, the trench's end (100.0 m; README,
+    # "Outputs": one chainage per node)
     net = build_network(
         trenches(line((0, 0), (100, 0))),
         equipment(("inverters", "I", pt(99.875, 3))),
         node_tol_m=0.125,
     )
-    assert net.n_nodes == 2 and table(net) == [("T1", 0.0, 99.875, 100.0)]
+    assert net.n_nodes == 2 and table(net) == [("T1", 0.0, 100.0, 100.0)]
     assert_allclose(net.node_xy[net.taps["node"].iloc[0]], [100.0, 0.0])
     assert net.taps["stub_m"].iloc[0] == pytest.approx(math.hypot(0.125, 3), abs=1e-12)
     # a tolerance of 2**-10 m, far below the k-d search's 1e-9 m margin of its own
