@@ -170,6 +170,9 @@ TARGETS = {
         (
             "tests/routeplan/test_network_units.py",
             "tests/routeplan/test_network.py",
+            # the one network-level test of that file (the others plan whole sites)
+            "tests/routeplan/test_segment_ids_split.py"
+            "::test_a_tap_joining_an_existing_node_renames_no_segment",
             "tests/routeplan/test_network_loops.py",
             "tests/routeplan/test_trench_checks.py",
         ),

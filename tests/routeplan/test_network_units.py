@@ -904,3 +904,15 @@ def test_a_shared_stretch_of_min_tol_counts_for_nothing():
     # added, so the shared length is 1 m, not more than overlap_min_m
     t1 = shapely.MultiLineString([[(0, 0), (nw.MIN_TOL_M, 0)], [(7, 0), (16, 0)]])
     assert problems(trenches(t1, line((0, 0), (8, 0)))) == []
+
+
+def test_chainage_runs_along_each_trench_of_several_multi_part_ones():
+    """The chainage of a multi-part trench's later part starts where the earlier parts end
+    (their lengths added, README "Outputs"), also for a trench after the first one: T2's
+    second part starts 30.0 m along T2 (its first part, 0 → 30 m, by hand)."""
+    t1 = line((0, 0), (50, 0))
+    t2 = shapely.MultiLineString([[(0, 10), (30, 10)], [(30, 10), (30, 50)]])
+    net = build_network(trenches(t1, t2))
+    got = [(r.trench_id, r.start_m, r.end_m) for r in net.segments.itertuples()]
+    assert got == [("T1", 0.0, 50.0), ("T2", 0.0, 30.0), ("T2", 30.0, 70.0)]
+    assert net.segments["segment_id"].tolist() == ["T1@0.0-50.0", "T2@0.0-30.0", "T2@30.0-70.0"]
