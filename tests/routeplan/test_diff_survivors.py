@@ -1,0 +1,190 @@
+"""The terminal lines of ``routeplan diff`` (:func:`routeplan.diff.text.diff_lines`) pinned
+whole, on small schedules written by hand (no plan is run): the plant block, the circuits'
+head line, their own route changes, the alike values summarised, the followers with their
+delta range and cause, every kind of trench segment event and the listing limits. Every
+expected line is worked out by hand in the comments from the cells the test writes."""
+
+from __future__ import annotations
+
+from routeplan.diff import diff_outputs
+from routeplan.diff.text import diff_lines
+
+from .test_diff_tables import circuit, quantity, segment, summary_of, write_folder
+
+#: the new plan's routes: T1@0.0-60.0 split at 25.0 m, the same stretch of trench T1
+SPLIT = "T1@0.0-25.0;T1@25.0-60.0;T1@60.0-120.0"
+
+
+def _plans(tmp_path):
+    """Old and new folders of an invented plant with one change of every kind.
+
+    Circuits (all string circuits to CB9 unless named; cells as ``CIRCUIT`` of
+    test_diff_tables unless changed):
+
+    * A1 array CB1 → INV1: route_m 120.00 → 130.00, cable_m 126.00 → 136.00 (scope route);
+    * B1: derating 0.800 → 0.750; B2–B5: ampacity_a 40.0 → 36.5 / 36.0 / 35.5 / 35.0 and
+      derating 0.800 → 0.730; B6–B8: utilisation 0.438 → 0.500; Z1 array CB8 → INV1:
+      ampacity_a 40.0 → 38.0 (scope value);
+    * F1–F4 land on CB1, which A1 leaves: vdrop_total_pct 1.100 → 1.150 / 1.120 / 1.130, and
+      F4 from an empty cell to 1.200 (no delta); G1 lands on CB7, which no circuit leaves:
+      1.100 → 1.101 (scope follows);
+    * R1 removed, N1 (array, loss 10.0 W) added.
+    """
+    old_c = [
+        circuit("A1", "array", from_id="CB1", to_id="INV1"),
+        *(circuit(f"B{k}", to_id="CB9") for k in range(1, 9)),
+        circuit("Z1", "array", from_id="CB8", to_id="INV1"),
+        *(circuit(f"F{k}", to_id="CB1") for k in range(1, 4)),
+        circuit("F4", to_id="CB1", vdrop_total_pct=""),
+        circuit("G1", to_id="CB7"),
+        circuit("R1", to_id="CB9"),
+    ]
+    t = dict(trench_segments=SPLIT)
+    new_c = [
+        circuit("A1", "array", from_id="CB1", to_id="INV1", route_m="130.00", cable_m="136.00", **t),
+        circuit("B1", to_id="CB9", derating="0.750", **t),
+        *(
+            circuit(f"B{k}", to_id="CB9", ampacity_a=a, derating="0.730", **t)
+            for k, a in zip(range(2, 6), ("36.5", "36.0", "35.5", "35.0"), strict=True)
+        ),
+        *(circuit(f"B{k}", to_id="CB9", utilisation="0.500", **t) for k in range(6, 9)),
+        circuit("Z1", "array", from_id="CB8", to_id="INV1", ampacity_a="38.0", **t),
+        circuit("F1", to_id="CB1", vdrop_total_pct="1.150", **t),
+        circuit("F2", to_id="CB1", vdrop_total_pct="1.120", **t),
+        circuit("F3", to_id="CB1", vdrop_total_pct="1.130", **t),
+        circuit("F4", to_id="CB1", vdrop_total_pct="1.200", **t),
+        circuit("G1", to_id="CB7", vdrop_total_pct="1.101", **t),
+        circuit("N1", "array", from_id="CB6", to_id="INV1", loss_w="10.0", **t),
+    ]
+    # T1@0.0-60.0 split at 25.0 m (the first piece now carries 1 circuit), T1@60.0-120.0 one
+    # string more; T2's two segments merged at 30.0 m; T3's cut moved from 40 m to 70 m;
+    # T4 and T6 removed, T5 added. Trench: 120 + 50 + 100 + 10 + 10 = 290 m before,
+    # 120 + 50 + 100 + 20 = 290 m after
+    old_s = [
+        segment("T1", 0, 60), segment("T1", 60, 120), segment("T2", 0, 30),
+        segment("T2", 30, 50), segment("T3", 0, 40), segment("T3", 40, 100),
+        segment("T4", 0, 10), segment("T6", 0, 10),
+    ]  # fmt: skip
+    new_s = [
+        segment("T1", 0, 25, circuits="1"), segment("T1", 25, 60),
+        segment("T1", 60, 120, strings="3"), segment("T2", 0, 50), segment("T3", 0, 70),
+        segment("T3", 70, 100), segment("T5", 0, 20),
+    ]  # fmt: skip
+    old_q = [quantity("cable", "4", "252.00"), quantity("cable", "6", "100.00", "array")]
+    new_q = [quantity("cable", "4", "252.00"), quantity("cable", "10", "120.00", "array")]
+    new_summary = summary_of(new_c, new_s) | {"rules": "demo-rules-2"}
+    old = write_folder(tmp_path / "a", old_c, old_s, old_q)
+    new = write_folder(tmp_path / "b", new_c, new_s, new_q, summary=new_summary)
+    return diff_outputs(old, new)
+
+
+#: the plant block: items padded to the longest, "trench segments over capacity" (29
+#: characters). Cable lines from quantities.csv: array 10 mm² only new ("-"), array 6 mm² only
+#: old, string 4 mm² unchanged. Cable: 16 × 126 = 2016 m old; 15 × 126 + 136 = 2026 m new.
+#: Trench 290 m both. Losses 16 × 3.2 W = 51.2 W = 0.051 kW old; 15 × 3.2 + 10 = 58 W = 0.058
+#: kW new (+0.007); energy (1000 h a year, summary_of) 51.2 kWh = 0.051 MWh, 58 kWh = 0.058 MWh.
+PLANT = [
+    "plant (old → new, delta):",
+    "  cable array Cu 10.0 mm²        - → 120.00 (+120.00) m",
+    "  cable array Cu 6.0 mm²         100.00 → - (-100.00) m",
+    "  cable string Cu 4.0 mm²        252.00 → 252.00 (+0.00) m",
+    "  cable, all                     2016.00 → 2026.00 (+10.00) m",
+    "  trench                         290.00 → 290.00 (+0.00) m",
+    "  losses at operating current    0.051 → 0.058 (+0.007) kW",
+    "  energy loss                    0.051 → 0.058 (+0.007) MWh/year",
+    "  failing circuits               0 → 0 (+0)",
+    "  trench segments over capacity  0 → 0 (+0)",
+    "  inverter inputs over a limit   0 → 0 (+0)",
+]
+#: 1 added (N1), 1 removed (R1), 15 changed (A1, B1–B8, Z1, F1–F4, G1) of which 5 only follow
+#: (F1–F4, G1): 10 of their own
+CIRCUITS_HEAD = "circuits: 1 added, 1 removed, 10 changed, 5 changed only by a circuit they feed"
+ROUTE = [
+    " their route, cable or status:",
+    "  + N1: new array circuit",
+    "  - R1: string circuit removed",
+    # route_m is told before cable_m; 130.00 − 120.00 = +10.00, 136.00 − 126.00 = +10.00
+    "  ~ A1: route_m 120.00 → 130.00 (+10.00); cable_m 126.00 → 136.00 (+10.00)",
+]
+VALUES = [
+    " their values (same route and cable):",
+    # groups of (kind, fields changed) in the order met: B1 alone (0.750 − 0.800 = −0.050)
+    "  ~ B1: derating 0.800 → 0.750 (-0.050)",
+    # B2–B5: four string circuits, more than three: one line, B2 the example
+    # (36.5 − 40.0 = −3.5; 0.730 − 0.800 = −0.070)
+    "  ~ 4 string circuits: ampacity_a, derating "
+    "(as B2: ampacity_a 40.0 → 36.5 (-3.5); derating 0.800 → 0.730 (-0.070))",
+    # B6–B8: three, listed one by one (0.500 − 0.438 = +0.062)
+    "  ~ B6: utilisation 0.438 → 0.500 (+0.062)",
+    "  ~ B7: utilisation 0.438 → 0.500 (+0.062)",
+    "  ~ B8: utilisation 0.438 → 0.500 (+0.062)",
+    # Z1, an array circuit (38.0 − 40.0 = −2.0)
+    "  ~ Z1: ampacity_a 40.0 → 38.0 (-2.0)",
+]
+FOLLOWS = [
+    " only the cumulative DC drop, after a circuit they feed changed:",
+    # (string, "") first: G1, 1.101 − 1.100 = +0.001
+    "  1 string circuits: cumulative DC drop +0.001 % with no circuit they feed changed "
+    "(a setting?)",
+    # (string, A1): F1 +0.050, F2 +0.020, F3 +0.030, F4 no delta (empty before); A1 longer
+    "  4 string circuits: cumulative DC drop +0.020 to +0.050 % after A1 (longer)",
+]
+SEGMENTS = [
+    "trench segments: 1 split, 1 merged, 1 reshaped, 1 added, 2 removed, 1 changed",
+    "  split: T1@0.0-60.0 (2 circuits) split at 25.0 m into T1@0.0-25.0 (1 circuit), "
+    "T1@25.0-60.0 (2 circuits)",
+    "  merged: T2@0.0-30.0 (2 circuits), T2@30.0-50.0 (2 circuits) merged at 30.0 m into "
+    "T2@0.0-50.0 (2 circuits)",
+    "  reshaped: T3@0.0-40.0 (2 circuits), T3@40.0-100.0 (2 circuits) became "
+    "T3@0.0-70.0 (2 circuits), T3@70.0-100.0 (2 circuits)",
+    "  added: T5@0.0-20.0 (2 circuits) added",
+    "  removed: T4@0.0-10.0 (2 circuits) removed",
+    "  removed: T6@0.0-10.0 (2 circuits) removed",
+    "  changed: T1@60.0-120.0: strings 2 → 3 (+1)",
+]
+#: bill lines keyed item kind material size laying depth unit, sorted by key ("10" < "6")
+QUANTITIES = [
+    "quantities: 2 lines changed (old → new, delta)",
+    "  cable array Cu 10 trench 0.8 m: 0.00 → 120.00 (+120.00)",
+    "  cable array Cu 6 trench 0.8 m: 100.00 → 0.00 (-100.00)",
+]
+
+
+def test_the_terminal_lines_of_a_diff_with_every_kind_of_change(tmp_path):
+    d = _plans(tmp_path)
+    assert diff_lines(d) == [
+        "note: the plans differ in rule set: - → demo-rules-2",
+        *PLANT,
+        CIRCUITS_HEAD,
+        *ROUTE,
+        *VALUES,
+        *FOLLOWS,
+        *SEGMENTS,
+        *QUANTITIES,
+    ]
+
+
+def test_the_terminal_lists_at_most_listed_of_each_part(tmp_path):
+    """listed=1: one circuit of their own route (of 3: "… and 2 more") and one segment per
+    event (2 removed: "… and 1 more removed"); the values and followers are not cut."""
+    d = _plans(tmp_path)
+    assert diff_lines(d, listed=1) == [
+        "note: the plans differ in rule set: - → demo-rules-2",
+        *PLANT,
+        CIRCUITS_HEAD,
+        *ROUTE[:2],
+        "  … and 2 more (all in diff.csv: --out DIR)",
+        *VALUES,
+        *FOLLOWS,
+        *SEGMENTS[:6],
+        "  … and 1 more removed (all in diff.csv: --out DIR)",
+        SEGMENTS[7],
+        *QUANTITIES,
+    ]
+    # listed=3 lists all three of their own route, and nothing is cut
+    assert diff_lines(d, listed=3) == diff_lines(d)
+
+
+def test_two_identical_plans_print_no_changes(tmp_path):
+    d = diff_outputs(write_folder(tmp_path / "a"), write_folder(tmp_path / "b"))
+    assert diff_lines(d) == ["no changes"]
