@@ -188,3 +188,111 @@ def test_the_terminal_lists_at_most_listed_of_each_part(tmp_path):
 def test_two_identical_plans_print_no_changes(tmp_path):
     d = diff_outputs(write_folder(tmp_path / "a"), write_folder(tmp_path / "b"))
     assert diff_lines(d) == ["no changes"]
+
+
+# ---- circuits: how each looks, its one-line summary, its route compared as stretches of trench
+
+
+def test_each_circuits_look_summary_and_route_stretches(tmp_path):
+    """One string circuit per case (to CB9, cells as ``CIRCUIT`` unless changed), T1 as in
+    ``write_folder``; each expected look, scope and summary worked out from the module's rules
+    (the weightiest change; size × parallel per pole; at most three changes, in the order
+    status, size_mm2, parallel, material, route_m, to_id, trench_segments, then the rest)."""
+    t1 = [segment("T1", 0, 60), segment("T1", 60, 120)]
+    old_s = [
+        *t1, segment("T3", 0, 50), segment("T4", 0, 60), segment("T5", 0, 60),
+        segment("T6", 0, 60), segment("T7", 0, 60),
+    ]  # fmt: skip
+    new_s = [
+        *t1, segment("T3", 0, 50),
+        # T4: the same stretch in two pieces, its ends 0.04 m in (0.0 and 60.0 to 0.1 m)
+        segment("T4", 0.04, 30, segment_id="T4@0.0-30.0"),
+        segment("T4", 30, 59.96, segment_id="T4@30.0-60.0"),
+        # T5 now starts 0.3 m on, T6 ends 0.3 m short: other stretches
+        segment("T5", 0.3, 60), segment("T6", 0, 59.7),
+        # T7 in two pieces 0.05 m apart (0.10 − 0.05 = 0.05 exactly in binary64): adjacent
+        segment("T7", 0, 0.05, segment_id="T7@a"), segment("T7", 0.1, 60, segment_id="T7@b"),
+    ]  # fmt: skip
+    old_c = [
+        circuit("L1"), circuit("L2", status="fail"), circuit("L3"), circuit("L4"),
+        circuit("L5", parallel="2"), circuit("L6", parallel="2"), circuit("L7"), circuit("L8"),
+        circuit("L9"), circuit("M1"), circuit("M2"), circuit("M3", fuse_a=""),
+        circuit("K1", trench_segments="T4@0.0-60.0"), circuit("K2", trench_segments="T5@0.0-60.0"),
+        circuit("K3", trench_segments="T6@0.0-60.0"), circuit("K4", trench_segments="T7@0.0-60.0"),
+        circuit("K5", trench_segments="X@1"),
+        # P1 → CB1 → subarray SA1 → CB2 → array AR1; Q1 → CB3 → QA → CB4 → QB → CB3 (a loop)
+        circuit("P1", to_id="CB1"), circuit("SA1", "subarray", from_id="CB1", to_id="CB2"),
+        circuit("AR1", "array", from_id="CB2", to_id="INV1"),
+        circuit("Q1", to_id="CB3"), circuit("QA", "subarray", from_id="CB3", to_id="CB4"),
+        circuit("QB", "subarray", from_id="CB4", to_id="CB3"),
+    ]  # fmt: skip
+    new_c = [
+        circuit("L1", status="fail"), circuit("L2"), circuit("L3", size_mm2="6.0"),
+        circuit("L4", parallel="2"), circuit("L5", size_mm2="6.0"),
+        circuit("L6", size_mm2="8.0", parallel="1"), circuit("L7", material="Al"),
+        circuit("L8", route_m="110.00"), circuit("L9", route_m="130.00"),
+        circuit("M1", size_mm2="6.0", material="Al", route_m="125.00", cable_m="131.00"),
+        circuit("M2", trench_segments="T3@0.0-50.0"),
+        circuit("M3", fuse_a="20", design_current_a=""),
+        circuit("K1", trench_segments="T4@0.0-30.0;T4@30.0-60.0"),
+        circuit("K2", trench_segments="T5@0.3-60.0"), circuit("K3", trench_segments="T6@0.0-59.7"),
+        circuit("K4", trench_segments="T7@a;T7@b"), circuit("K5", trench_segments="X@2"),
+        circuit("P1", to_id="CB1", vdrop_total_pct="1.150"),
+        circuit("SA1", "subarray", from_id="CB1", to_id="CB2", vdrop_total_pct="1.120"),
+        circuit("AR1", "array", from_id="CB2", to_id="INV1", ampacity_a="36.5"),
+        circuit("Q1", to_id="CB3", vdrop_total_pct="1.200"),
+        circuit("QA", "subarray", from_id="CB3", to_id="CB4"),
+        circuit("QB", "subarray", from_id="CB4", to_id="CB3"),
+    ]  # fmt: skip
+    summary_old = summary_of(old_c, old_s) | {"rules": "r1", "site": {"name": "North"}}
+    summary_new = summary_of(new_c, new_s) | {"site": {"name": "South"}}
+    summary_new["tool"] = {"name": "routeplan", "version": "0.2.0"}
+    d = diff_outputs(
+        write_folder(tmp_path / "a", old_c, old_s, summary=summary_old),
+        write_folder(tmp_path / "b", new_c, new_s, summary=summary_new),
+    )
+    # the bases that differ, each "what: old → new" ("-" where absent)
+    assert d.notes == (
+        "routeplan version: 0.1.0 → 0.2.0",
+        "rule set: r1 → -",
+        "site name: North → South",
+    )
+    got = {
+        r.circuit_id: (r.look, r.scope, r.cause, r.summary)
+        for r in d.circuits.itertuples(index=False)
+    }
+    assert got == {
+        "L1": ("now failing", "route", "", "status ok → fail"),
+        "L2": ("now passing", "route", "", "status fail → ok"),
+        # 4 → 6 mm²: up
+        "L3": ("size up", "route", "", "size_mm2 4.0 → 6.0 (+2.0)"),
+        # 1 → 2 in parallel: up
+        "L4": ("size up", "route", "", "parallel 1 → 2 (+1)"),
+        # 2 × 4.0 = 8 mm² → 1 × 6.0 = 6 mm²: down, though the size grew
+        "L5": ("size down", "route", "", "size_mm2 4.0 → 6.0 (+2.0); parallel 2 → 1 (-1)"),
+        # 2 × 4.0 = 8 mm² → 1 × 8.0 = 8 mm²: neither; no route_m change: other
+        "L6": ("other", "route", "", "size_mm2 4.0 → 8.0 (+4.0); parallel 2 → 1 (-1)"),
+        # a material alone is no size change
+        "L7": ("other", "route", "", "material Cu → Al"),
+        "L8": ("shorter", "route", "", "route_m 120.00 → 110.00 (-10.00)"),
+        "L9": ("longer", "route", "", "route_m 120.00 → 130.00 (+10.00)"),
+        # four changes: the three weightiest, then "…"; 4 → 6 mm² is up
+        "M1": (
+            "size up", "route", "",
+            "size_mm2 4.0 → 6.0 (+2.0); material Cu → Al; route_m 120.00 → 125.00 (+5.00); …",
+        ),
+        "M2": ("other", "route", "", "other trench stretches"),
+        # an empty cell shown as "-", no delta
+        "M3": ("other", "value", "", "fuse_a - → 20; design_current_a 17.50 → -"),
+        # K1 (T4 0.04–59.96, to 0.1 m 0.0–60.0) and K4 (0.05 m apart) are no change; K2, K3
+        # cover other stretches; K5's segments are in neither schedule (named, so different)
+        "K2": ("other", "route", "", "other trench stretches"),
+        "K3": ("other", "route", "", "other trench stretches"),
+        "K5": ("other", "route", "", "other trench stretches"),
+        "AR1": ("other", "value", "", "ampacity_a 40.0 → 36.5 (-3.5)"),
+        # P1 → SA1 (follows itself) → AR1 (its own value): the nearest own change
+        "P1": ("other", "follows", "AR1", "vdrop_total_pct 1.100 → 1.150 (+0.050)"),
+        "SA1": ("other", "follows", "AR1", "vdrop_total_pct 1.100 → 1.120 (+0.020)"),
+        # Q1 → QA → QB → QA ...: a loop with no own change: no cause
+        "Q1": ("other", "follows", "", "vdrop_total_pct 1.100 → 1.200 (+0.100)"),
+    }  # fmt: skip
