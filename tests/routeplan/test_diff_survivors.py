@@ -9,7 +9,7 @@ from __future__ import annotations
 from routeplan.diff import diff_outputs
 from routeplan.diff.text import diff_lines
 
-from .test_diff_tables import circuit, quantity, segment, summary_of, write_folder
+from .test_diff_tables import changes, circuit, quantity, segment, summary_of, write_folder
 
 #: the new plan's routes: T1@0.0-60.0 split at 25.0 m, the same stretch of trench T1
 SPLIT = "T1@0.0-25.0;T1@25.0-60.0;T1@60.0-120.0"
@@ -28,7 +28,7 @@ def _plans(tmp_path):
     * F1–F4 land on CB1, which A1 leaves: vdrop_total_pct 1.100 → 1.150 / 1.120 / 1.130, and
       F4 from an empty cell to 1.200 (no delta); G1 lands on CB7, which no circuit leaves:
       1.100 → 1.101 (scope follows);
-    * R1 removed, N1 (array, loss 10.0 W) added.
+    * R1 removed, N1 (array, loss 2000.0 W) added.
     """
     old_c = [
         circuit("A1", "array", from_id="CB1", to_id="INV1"),
@@ -54,7 +54,7 @@ def _plans(tmp_path):
         circuit("F3", to_id="CB1", vdrop_total_pct="1.130", **t),
         circuit("F4", to_id="CB1", vdrop_total_pct="1.200", **t),
         circuit("G1", to_id="CB7", vdrop_total_pct="1.101", **t),
-        circuit("N1", "array", from_id="CB6", to_id="INV1", loss_w="10.0", **t),
+        circuit("N1", "array", from_id="CB6", to_id="INV1", loss_w="2000.0", **t),
     ]
     # T1@0.0-60.0 split at 25.0 m (the first piece now carries 1 circuit), T1@60.0-120.0 one
     # string more; T2's two segments merged at 30.0 m; T3's cut moved from 40 m to 70 m;
@@ -81,8 +81,9 @@ def _plans(tmp_path):
 #: the plant block: items padded to the longest, "trench segments over capacity" (29
 #: characters). Cable lines from quantities.csv: array 10 mm² only new ("-"), array 6 mm² only
 #: old, string 4 mm² unchanged. Cable: 16 × 126 = 2016 m old; 15 × 126 + 136 = 2026 m new.
-#: Trench 290 m both. Losses 16 × 3.2 W = 51.2 W = 0.051 kW old; 15 × 3.2 + 10 = 58 W = 0.058
-#: kW new (+0.007); energy (1000 h a year, summary_of) 51.2 kWh = 0.051 MWh, 58 kWh = 0.058 MWh.
+#: Trench 290 m both. Losses 16 × 3.2 W = 51.2 W = 0.051 kW old; 15 × 3.2 + 2000 = 2048 W =
+#: 2.048 kW new (+1.997); energy (1000 h a year, summary_of) 51.2 kWh = 0.051 MWh, 2048 kWh =
+#: 2.048 MWh.
 PLANT = [
     "plant (old → new, delta):",
     "  cable array Cu 10.0 mm²        - → 120.00 (+120.00) m",
@@ -90,8 +91,8 @@ PLANT = [
     "  cable string Cu 4.0 mm²        252.00 → 252.00 (+0.00) m",
     "  cable, all                     2016.00 → 2026.00 (+10.00) m",
     "  trench                         290.00 → 290.00 (+0.00) m",
-    "  losses at operating current    0.051 → 0.058 (+0.007) kW",
-    "  energy loss                    0.051 → 0.058 (+0.007) MWh/year",
+    "  losses at operating current    0.051 → 2.048 (+1.997) kW",
+    "  energy loss                    0.051 → 2.048 (+1.997) MWh/year",
     "  failing circuits               0 → 0 (+0)",
     "  trench segments over capacity  0 → 0 (+0)",
     "  inverter inputs over a limit   0 → 0 (+0)",
@@ -162,6 +163,28 @@ def test_the_terminal_lines_of_a_diff_with_every_kind_of_change(tmp_path):
         *SEGMENTS,
         *QUANTITIES,
     ]
+    # the plant block's changed items in diff.csv (the values as shown above)
+    assert changes(d, "plant") == [
+        ("plant", "cable array Cu 10.0 mm²", "changed", "m", "", "120.00", "+120.00", "", "", ""),
+        ("plant", "cable array Cu 6.0 mm²", "changed", "m", "100.00", "", "-100.00", "", "", ""),
+        ("plant", "cable, all", "changed", "m", "2016.00", "2026.00", "+10.00", "", "", ""),
+        (
+            "plant", "losses at operating current", "changed", "kW", "0.051", "2.048", "+1.997",
+            "", "", "",
+        ),
+        ("plant", "energy loss", "changed", "MWh/year", "0.051", "2.048", "+1.997", "", "", ""),
+    ]  # fmt: skip
+    # the added and removed circuits' rows, whole
+    rows = [tuple(r) for r in d.circuits.itertuples(index=False, name=None)]
+    assert rows[:2] == [
+        ("N1", "array", "added", "added", "route", "", "new array circuit"),
+        ("R1", "string", "removed", "removed", "route", "", "string circuit removed"),
+    ]
+    assert list(d.circuits.columns) == [
+        "circuit_id", "kind", "change", "look", "scope", "cause", "summary",
+    ]  # fmt: skip
+    assert list(d.segments.columns) == ["event", "trench_id", "old_ids", "new_ids", "text"]
+    assert (d.old_dir.name, d.new_dir.name) == ("a", "b")
 
 
 def test_the_terminal_lists_at_most_listed_of_each_part(tmp_path):
@@ -296,3 +319,82 @@ def test_each_circuits_look_summary_and_route_stretches(tmp_path):
         # Q1 → QA → QB → QA ...: a loop with no own change: no cause
         "Q1": ("other", "follows", "", "vdrop_total_pct 1.100 → 1.200 (+0.100)"),
     }  # fmt: skip
+
+
+# ---- trench segments: overlaps at the OVERLAP_M limit, several cuts, lengths, field changes
+
+
+def test_segment_events_at_the_overlap_limit_and_with_several_cuts(tmp_path):
+    """Chainage cells chosen so that the overlaps are exact in binary64: 0.10 − 0.05 = 0.05."""
+    old_s = [
+        # T1: one segment 0–60 m
+        segment("T1", 0, 60),
+        # T2: three segments, 50–90–100–120 m (chainage "100.00" sorts before "50.00" as text)
+        segment("T2", 50, 90), segment("T2", 90, 100), segment("T2", 100, 120),
+        # T3: one segment 50–120 m
+        segment("T3", 50, 120),
+        # T4: two segments, both with the same id in the new plan
+        segment("T4", 0, 10), segment("T4", 10, 20),
+    ]  # fmt: skip
+    new_s = [
+        # T1 now 0–0.05, 0.05–0.10 and 0.10–60 m: the first touches the old one (overlap
+        # 0.05 − 0 = 0.05 m at most), the second overlaps it by 0.10 − 0.05 = 0.05 m, not more
+        # than OVERLAP_M: both added; the third overlaps it by 59.9 m (a new id: reshaped)
+        segment("T1", 0, 0.05, segment_id="T1@a"), segment("T1", 0.05, 0.1, segment_id="T1@b"),
+        segment("T1", 0.1, 60),
+        # T2 merged into one 50–120 m
+        segment("T2", 50, 120),
+        # T3 split at 90 and 100 m, its end now 120.5 m
+        segment("T3", 50, 90), segment("T3", 90, 100), segment("T3", 100, 120.5),
+        segment("T4", 0, 10, strings="3"), segment("T4", 10, 20, strings="4", status="over"),
+    ]  # fmt: skip
+    d = diff_outputs(
+        write_folder(tmp_path / "a", segments=old_s), write_folder(tmp_path / "b", segments=new_s)
+    )
+    two = "(2 circuits)"
+    # along each trench by the chainage of a group's first segment (T1@a's group and the
+    # reshaped one both start at 0.0: no old id sorts first)
+    assert [tuple(r) for r in d.segments.itertuples(index=False, name=None)] == [
+        ("added", "T1", (), ("T1@a",), f"T1@a {two} added"),
+        (
+            "reshaped", "T1", ("T1@0.0-60.0",), ("T1@0.1-60.0",),
+            f"T1@0.0-60.0 {two} became T1@0.1-60.0 {two}",
+        ),
+        ("added", "T1", (), ("T1@b",), f"T1@b {two} added"),
+        (
+            "merged", "T2", ("T2@50.0-90.0", "T2@90.0-100.0", "T2@100.0-120.0"),
+            ("T2@50.0-120.0",),
+            f"T2@50.0-90.0 {two}, T2@90.0-100.0 {two}, T2@100.0-120.0 {two} merged at 90.0, "
+            f"100.0 m into T2@50.0-120.0 {two}",
+        ),
+        (
+            "split", "T3", ("T3@50.0-120.0",),
+            ("T3@50.0-90.0", "T3@90.0-100.0", "T3@100.0-120.5"),
+            f"T3@50.0-120.0 {two} split at 90.0, 100.0 m into T3@50.0-90.0 {two}, "
+            f"T3@90.0-100.0 {two}, T3@100.0-120.5 {two}",
+        ),
+        ("changed", "T4", ("T4@0.0-10.0",), ("T4@0.0-10.0",), "T4@0.0-10.0: strings 2 → 3 (+1)"),
+        (
+            "changed", "T4", ("T4@10.0-20.0",), ("T4@10.0-20.0",),
+            "T4@10.0-20.0: strings 2 → 4 (+2); status ok → over",
+        ),
+    ]  # fmt: skip
+    rows = changes(d, "segment")
+    # a length line where the total length changed: T1 60.00 → 59.90 m (−0.10); T3
+    # 70.00 → 40 + 10 + 20.5 = 70.50 m (+0.50); T2 40 + 10 + 20 = 70 m both: none
+    assert (
+        "segment", "T1@0.0-60.0", "changed", "length_m", "60.00", "59.90", "-0.10", "", "",
+        "total length of T1@0.0-60.0 → T1@0.1-60.0",
+    ) in rows  # fmt: skip
+    assert (
+        "segment", "T3@50.0-120.0", "changed", "length_m", "70.00", "70.50", "+0.50", "", "",
+        "total length of T3@50.0-120.0 → T3@50.0-90.0; T3@90.0-100.0; T3@100.0-120.5",
+    ) in rows  # fmt: skip
+    assert [r[:4] for r in rows if r[3] == "length_m"] == [
+        ("segment", "T1@0.0-60.0", "changed", "length_m"),
+        ("segment", "T3@50.0-120.0", "changed", "length_m"),
+    ]
+    assert (
+        "segment", "T2@50.0-90.0", "merged", "", "T2@50.0-90.0; T2@90.0-100.0; T2@100.0-120.0",
+        "T2@50.0-120.0", "", "", "", d.segments["text"][3],
+    ) in rows  # fmt: skip
