@@ -41,7 +41,9 @@ def _plans(tmp_path):
     ]
     t = dict(trench_segments=SPLIT)
     new_c = [
-        circuit("A1", "array", from_id="CB1", to_id="INV1", route_m="130.00", cable_m="136.00", **t),
+        circuit(
+            "A1", "array", from_id="CB1", to_id="INV1", route_m="130.00", cable_m="136.00", **t
+        ),
         circuit("B1", to_id="CB9", derating="0.750", **t),
         *(
             circuit(f"B{k}", to_id="CB9", ampacity_a=a, derating="0.730", **t)
