@@ -400,3 +400,28 @@ def test_segment_events_at_the_overlap_limit_and_with_several_cuts(tmp_path):
         "segment", "T2@50.0-90.0", "merged", "", "T2@50.0-90.0; T2@90.0-100.0; T2@100.0-120.0",
         "T2@50.0-120.0", "", "", "", d.segments["text"][3],
     ) in rows  # fmt: skip
+
+
+def test_alike_circuits_are_grouped_by_their_own_fields_only(tmp_path):
+    """A circuit may bear the id of a trench segment (ids of different schedules): the
+    segment's own change (strings 2 → 3) is not one of the circuit's fields, so the four
+    string circuits whose ampacity fell (40.0 → 36.5: −3.5) are one line."""
+    sid = "T1@0.0-60.0"
+    ids = [sid, "V1", "V2", "V3"]
+    d = diff_outputs(
+        write_folder(tmp_path / "a", [circuit(i) for i in ids]),
+        write_folder(
+            tmp_path / "b",
+            [circuit(i, ampacity_a="36.5") for i in ids],
+            [segment("T1", 0, 60, strings="3"), segment("T1", 60, 120)],
+        ),
+    )
+    lines = diff_lines(d)
+    at = lines.index("circuits: 4 changed")
+    assert lines[at:] == [
+        "circuits: 4 changed",
+        " their values (same route and cable):",
+        f"  ~ 4 string circuits: ampacity_a (as {sid}: ampacity_a 40.0 → 36.5 (-3.5))",
+        "trench segments: 1 changed",
+        f"  changed: {sid}: strings 2 → 3 (+1)",
+    ]
