@@ -6,6 +6,8 @@ expected line is worked out by hand in the comments from the cells the test writ
 
 from __future__ import annotations
 
+import pytest
+
 from routeplan.diff import diff_outputs
 from routeplan.diff.text import diff_lines
 
@@ -424,4 +426,38 @@ def test_alike_circuits_are_grouped_by_their_own_fields_only(tmp_path):
         f"  ~ 4 string circuits: ampacity_a (as {sid}: ampacity_a 40.0 → 36.5 (-3.5))",
         "trench segments: 1 changed",
         f"  changed: {sid}: strings 2 → 3 (+1)",
+    ]
+
+
+def test_segments_of_several_trenches_far_along_match_their_own(tmp_path):
+    """TA has segments 0–100 and 195–200 m, TB one 0–2 m, TC (old plan only) one 0–5 m: the
+    same ids in both plans but TB's strings (2 → 3); TC removed. Each segment is matched in
+    its own trench, whatever the chainage of the others."""
+    old_s = [
+        segment("TA", 0, 100), segment("TA", 195, 200), segment("TB", 0, 2), segment("TC", 0, 5),
+    ]  # fmt: skip
+    new_s = [segment("TA", 0, 100), segment("TA", 195, 200), segment("TB", 0, 2, strings="3")]
+    d = diff_outputs(
+        write_folder(tmp_path / "a", segments=old_s), write_folder(tmp_path / "b", segments=new_s)
+    )
+    assert [tuple(r) for r in d.segments.itertuples(index=False, name=None)] == [
+        ("changed", "TB", ("TB@0.0-2.0",), ("TB@0.0-2.0",), "TB@0.0-2.0: strings 2 → 3 (+1)"),
+        ("removed", "TC", ("TC@0.0-5.0",), (), "TC@0.0-5.0 (2 circuits) removed"),
+    ]
+
+
+@pytest.mark.parametrize("side", ["old", "new"])
+def test_a_plan_without_trench_segments(tmp_path, side):
+    """One plan has no trench segment at all: every segment of the other is added or
+    removed."""
+    both = [segment("T1", 0, 60), segment("T1", 60, 120)]
+    d = diff_outputs(
+        write_folder(tmp_path / "a", segments=[] if side == "old" else both),
+        write_folder(tmp_path / "b", segments=both if side == "old" else []),
+    )
+    event = "added" if side == "old" else "removed"
+    assert d.segments["event"].tolist() == [event, event]
+    assert d.segments["text"].tolist() == [
+        f"T1@0.0-60.0 (2 circuits) {event}",
+        f"T1@60.0-120.0 (2 circuits) {event}",
     ]
