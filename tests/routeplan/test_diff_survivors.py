@@ -215,6 +215,11 @@ def test_the_terminal_lists_at_most_listed_of_each_part(tmp_path):
 def test_two_identical_plans_print_no_changes(tmp_path):
     d = diff_outputs(write_folder(tmp_path / "a"), write_folder(tmp_path / "b"))
     assert diff_lines(d) == ["no changes"]
+    # the tables keep their columns when empty
+    assert list(d.circuits.columns) == [
+        "circuit_id", "kind", "change", "look", "scope", "cause", "summary",
+    ]  # fmt: skip
+    assert list(d.segments.columns) == ["event", "trench_id", "old_ids", "new_ids", "text"]
 
 
 # ---- circuits: how each looks, its one-line summary, its route compared as stretches of trench
@@ -243,7 +248,8 @@ def test_each_circuits_look_summary_and_route_stretches(tmp_path):
     old_c = [
         circuit("L1"), circuit("L2", status="fail"), circuit("L3"), circuit("L4"),
         circuit("L5", parallel="2"), circuit("L6", parallel="2"), circuit("L7"), circuit("L8"),
-        circuit("L9"), circuit("M1"), circuit("M2"), circuit("M3", fuse_a=""),
+        circuit("L9"),
+        circuit("L0"), circuit("M1"), circuit("M2"), circuit("M3", fuse_a=""),
         circuit("K1", trench_segments="T4@0.0-60.0"), circuit("K2", trench_segments="T5@0.0-60.0"),
         circuit("K3", trench_segments="T6@0.0-60.0"), circuit("K4", trench_segments="T7@0.0-60.0"),
         circuit("K5", trench_segments="X@1"),
@@ -258,6 +264,7 @@ def test_each_circuits_look_summary_and_route_stretches(tmp_path):
         circuit("L4", parallel="2"), circuit("L5", size_mm2="6.0"),
         circuit("L6", size_mm2="8.0", parallel="1"), circuit("L7", material="Al"),
         circuit("L8", route_m="110.00"), circuit("L9", route_m="130.00"),
+        circuit("L0", route_m="120.50"),
         circuit("M1", size_mm2="6.0", material="Al", route_m="125.00", cable_m="131.00"),
         circuit("M2", trench_segments="T3@0.0-50.0"),
         circuit("M3", fuse_a="20", design_current_a=""),
@@ -303,6 +310,8 @@ def test_each_circuits_look_summary_and_route_stretches(tmp_path):
         "L7": ("other", "route", "", "material Cu → Al"),
         "L8": ("shorter", "route", "", "route_m 120.00 → 110.00 (-10.00)"),
         "L9": ("longer", "route", "", "route_m 120.00 → 130.00 (+10.00)"),
+        # half a metre longer is longer too
+        "L0": ("longer", "route", "", "route_m 120.00 → 120.50 (+0.50)"),
         # four changes: the three weightiest, then "…"; 4 → 6 mm² is up
         "M1": (
             "size up", "route", "",
