@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pytest
 
-from routeplan.diff import diff_outputs
+from routeplan.diff import DiffError, diff_outputs
 from routeplan.diff.text import diff_lines
 
 from .test_diff_tables import changes, circuit, quantity, segment, summary_of, write_folder
@@ -470,3 +470,10 @@ def test_a_plan_without_trench_segments(tmp_path, side):
         f"T1@0.0-60.0 (2 circuits) {event}",
         f"T1@60.0-120.0 (2 circuits) {event}",
     ]
+
+
+def test_a_missing_plan_folder_is_named(tmp_path):
+    new = write_folder(tmp_path / "b")
+    with pytest.raises(DiffError) as e:
+        diff_outputs(tmp_path / "nowhere", new)
+    assert str(e.value) == f"{tmp_path / 'nowhere'}: no such folder"
