@@ -394,3 +394,26 @@ def test_the_first_trench_segment_can_govern(tmp_path):
     c = by_id(plan(write_site(tmp_path / "site", frames)).circuits, "circuit_id")
     assert c["governing"].tolist()[:5] == ["T2@0.0-3.0"] * 5
     assert c.loc["AC:INV1", "governing"] == "T2@58.0-108.0"
+
+
+def test_the_tables_are_in_the_sites_crs(small):
+    """The schedules' geometry is in the site's working CRS (README, Outputs: routes.gpkg
+    "in the site's working CRS"): conftest's site is in WGS 84 / UTM zone 33N."""
+    assert small.circuits.crs == small.segments.crs
+    assert small.circuits.crs.to_epsg() == 32633
+
+
+def test_bill_lists_sub_arrays_before_arrays_whatever_their_size():
+    """The bill follows the circuit kinds from the module to the inverter (string, sub-array,
+    array, AC), also when a sub-array cable is larger than the array cables after it."""
+    c = hand_circuits()
+    c.loc[c["circuit_id"] == "U1", ["material", "size_mm2"]] = ["Cu", 150.0]
+    bill = quantity_table(c, hand_segments(), DESIGN)
+    cable = bill[bill["item"] == "cable"]
+    assert list(zip(cable["kind"], cable["size_mm2"], strict=True)) == [
+        ("string", 4.0),
+        ("string", 6.0),
+        ("subarray", 150.0),
+        ("array", 95.0),
+        ("ac", 240.0),
+    ]
