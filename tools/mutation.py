@@ -157,7 +157,11 @@ TARGETS = {
     # escaping is map_text's, its drawing is checked in a browser)
     "diff": Target(
         "routeplan/diff/",
-        ("tests/routeplan/test_diff_tables.py", "tests/routeplan/test_diff_survivors.py"),
+        (
+            "tests/routeplan/test_diff_tables.py",
+            "tests/routeplan/test_diff_survivors.py",
+            "tests/routeplan/test_diff_numbers.py",
+        ),
         ("routeplan.diff.core.*", "routeplan.diff.compare.*", "routeplan.diff.text.*"),
     ),
     "pipeline": Target(
