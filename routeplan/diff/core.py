@@ -158,15 +158,14 @@ QUANTITIES = Table(
     ("quantity",),
     (("item", "cable", "size_mm2"), ("item", "cable", "material"), ("item", "cable", "kind")),
 )
+#: columns an earlier version's schedules lack
+EARLIER_LACKS: frozenset[str] = frozenset(
+    {"from_m", "to_m", "subarrays", "cable_sets", "group_factor", "fuse_a", "protection"}
+)
 _EARLIER = (
     "made by an earlier routeplan, which numbered trench segments and compared fewer values: "
     "plan that site again with this version to compare"
 )
-#: columns an earlier version's schedules lack, and what to do about it
-EARLIER_LACKS: dict[str, str] = {
-    c: _EARLIER
-    for c in ("from_m", "to_m", "subarrays", "cable_sets", "group_factor", "fuse_a", "protection")
-}
 
 
 def read_schedule(folder: Path, table: Table) -> pd.DataFrame:
@@ -203,9 +202,8 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
     missing = [c for c in table.columns if c not in header]
     if missing:
         names = ", ".join(missing)
-        if set(missing) & set(EARLIER_LACKS) and table.key[0] not in missing:
-            why = EARLIER_LACKS[next(c for c in missing if c in EARLIER_LACKS)]
-            raise DiffError(f"{where}: no column {names}: {why}")
+        if EARLIER_LACKS.intersection(missing) and table.key[0] not in missing:
+            raise DiffError(f"{where}: no column {names}: {_EARLIER}")
         raise DiffError(f"{where}: no column {names} (a schedule of 'routeplan plan' has it)")
     twice = sorted({c for c in header if header.count(c) > 1})
     if twice:

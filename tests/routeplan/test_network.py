@@ -39,9 +39,10 @@ def pt(x, y):
     return shapely.Point(x, y)
 
 
-def trenches(*geoms, **attrs) -> gpd.GeoDataFrame:
-    """Trenches T1, T2, ... with the given geometries and optional attribute lists."""
-    data = {"id": [f"T{i + 1}" for i in range(len(geoms))], **attrs}
+def trenches(*geoms, ids=None, **attrs) -> gpd.GeoDataFrame:
+    """Trenches T1, T2, ... (or ``ids``) with the given geometries and optional attribute
+    lists."""
+    data = {"id": ids or [f"T{i + 1}" for i in range(len(geoms))], **attrs}
     return gpd.GeoDataFrame(data, geometry=list(geoms), crs=UTM)
 
 

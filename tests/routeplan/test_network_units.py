@@ -13,7 +13,6 @@ from __future__ import annotations
 import gc
 import math
 
-import geopandas as gpd
 import networkx as nx
 import numpy as np
 import pyproj
@@ -37,28 +36,7 @@ from routeplan.network import (
     trench_problems,
 )
 
-UTM = "EPSG:32633"
-
-
-def line(*xy):
-    return shapely.LineString(xy)
-
-
-def pt(x, y):
-    return shapely.Point(x, y)
-
-
-def trenches(*geoms, ids=None, **attrs) -> gpd.GeoDataFrame:
-    ids = ids or [f"T{i + 1}" for i in range(len(geoms))]
-    return gpd.GeoDataFrame({"id": ids, **attrs}, geometry=list(geoms), crs=UTM)
-
-
-def equipment(*items) -> gpd.GeoDataFrame:
-    return gpd.GeoDataFrame(
-        {"layer": [i[0] for i in items], "feature_id": [i[1] for i in items]},
-        geometry=[i[2] for i in items],
-        crs=UTM,
-    )
+from .test_network import UTM, equipment, line, pt, trenches
 
 
 def table(net) -> list[tuple]:
