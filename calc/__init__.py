@@ -54,6 +54,7 @@ from calc.engine import (
     SizingResult,
     buried_deep_enough,
     failure_causes,
+    larger_sizes_mm2,
     size_circuits,
 )
 from calc.errors import (
@@ -88,6 +89,7 @@ __all__ = [
     "buried_deep_enough",
     "failure_causes",
     "get_rules",
+    "larger_sizes_mm2",
     "rule_names",
     "size_circuits",
 ]

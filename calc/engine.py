@@ -46,7 +46,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from calc.errors import ConvergenceError, InputError, check_option
+from calc.errors import ConvergenceError, InputError, TableRangeError, check_option
 from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_CONVENTIONS, conductor_marking
 from calc.pv import voc_max_v
@@ -657,7 +657,8 @@ class _KindData:
     p_max: int
 
 
-def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) -> _KindData:
+def _cable_of(kind: int, design: DesignParams, rs: RuleSet) -> tuple[str, str, np.ndarray]:
+    """(material, insulation, size list [mm²]) of a kind's cable under ``design``."""
     if kind == KIND_STRING:
         material, insulation, sizes = "Cu", "PV", design.sizes_string_mm2
     elif kind == KIND_ARRAY:
@@ -670,26 +671,61 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
         material, insulation, sizes = design.material_ac, design.insulation_ac, design.sizes_ac_mm2
     if sizes is None:
         sizes = rs.default_sizes_mm2(kind, material)
-    s = np.asarray(sizes, dtype=float)
+    return material, insulation, np.asarray(sizes, dtype=float)
+
+
+def larger_sizes_mm2(
+    kind: int, design: DesignParams | None = None, rules: str = "iec"
+) -> np.ndarray:
+    """The IEC 60228 nominal cross-sections larger than every size in a kind's list that the
+    rule set can size for that kind's cable (a resistance and a tabulated capacity in every
+    environment), ascending [mm²]: the sizes a failing circuit could still be given.
+
+    Source of the candidates: IEC 60228:2004 Tables 2 and 3 (calc/data's resistance table).
+    """
+    design = design if design is not None else DesignParams()
+    rs = get_rules(rules)
+    material, insulation, sizes = _cable_of(kind, design, rs)
+    nominal = np.unique(load_table("iec60228_2004_conductor_resistance.csv")["size_mm2"])
+    out = []
+    for s in nominal[nominal > sizes.max(initial=0.0)].tolist():
+        try:
+            rs.r20_ohm_km(kind, material, np.array([s]))
+        except TableRangeError:
+            continue
+        base = _base_capacities(kind, material, insulation, np.array([s]), design, rs)
+        if not any(np.isnan(b).any() for b in base.values()):
+            out.append(s)
+    return np.array(out, dtype=float)
+
+
+def _base_capacities(kind, material, insulation, s, design: DesignParams, rs: RuleSet) -> dict:
+    """Tabulated capacity [A] of the sizes ``s`` per (environment, loaded conductors); nan
+    where the rule set's tables have none."""
+    loaded_set = (2, 3) if kind == KIND_AC else (2,)
+    return {
+        (env, loaded): rs.base_capacity_a(
+            kind, material, insulation, loaded, env, s, design.pv_installation
+        )
+        for env in ENV_NAMES
+        for loaded in loaded_set
+    }
+
+
+def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) -> _KindData:
+    material, insulation, s = _cable_of(kind, design, rs)
     name = KIND_NAMES[kind]
     if s.ndim != 1 or s.size == 0 or np.any(np.diff(s) <= 0):
         raise InputError(f"sizes for {name} circuits must be a non-empty ascending list")
     r20 = rs.r20_ohm_km(kind, material, s)
-    loaded_set = (2, 3) if kind == KIND_AC else (2,)
-    base = {}
-    for env in ENV_NAMES:
-        for loaded in loaded_set:
-            b = rs.base_capacity_a(
-                kind, material, insulation, loaded, env, s, design.pv_installation
+    base = _base_capacities(kind, material, insulation, s, design, rs)
+    for (env, loaded), b in base.items():
+        if np.any(np.isnan(b)):
+            raise InputError(
+                f"{name} sizes {s[np.isnan(b)].tolist()} mm² {material}/{insulation} have no "
+                f"tabulated capacity for environment {env} with {loaded} loaded conductors "
+                f"({rs.name} rules); remove them from the size list"
             )
-            if np.any(np.isnan(b)):
-                miss = s[np.isnan(b)].tolist()
-                raise InputError(
-                    f"{name} sizes {miss} mm² {material}/{insulation} have no tabulated capacity "
-                    f"for environment {env} with {loaded} loaded conductors ({rs.name} rules); "
-                    "remove them from the size list"
-                )
-            base[(env, loaded)] = b
     x = {ph: rs.reactance_ohm_km(s, insulation, ph) for ph in (1, 3)}
     k_sc = None
     if kind == KIND_AC and design.fault_ka is not None:

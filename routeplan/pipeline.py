@@ -27,9 +27,10 @@ from layers.validate import MAX_DC_INPUTS
 from . import CAUTION, __version__
 from .cache import PlanCache, digest, site_key, uncacheable_layers
 from .check import load
-from .config import DesignConfig, parse_design
+from .config import DESIGN_KEYS, DesignConfig, parse_design
 from .errors import DesignError, Problem
 from .inputs import INPUT_COLUMNS, assign_inputs, input_table, landing_input
+from .remedy import remedies
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
 
 KIND_CODE = {
@@ -43,6 +44,8 @@ KIND_CODE = {
 #: single-phase L and N. Protective conductors are not counted.
 POLES = {"dc": 2, "ac3": 3, "ac1": 2}
 _EPS = 1e-9
+#: the highest ``design.max_parallel`` site.toml accepts (a remedy may ask for it)
+MAX_PARALLEL = int(next(k.high for k in DESIGN_KEYS if k.name == "max_parallel"))
 
 
 @dataclass
@@ -425,6 +428,16 @@ def plan_site(
         if cache is not None:
             cache.put("size", size_key, result)
     t["size"] = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    governing = governing_ids(routes, result)
+    remedy = cache.get("remedy", digest("remedy", size_key)) if cache is not None else None
+    if remedy is None:
+        ids = routes.circuits["circuit_id"].to_numpy(dtype=object)
+        trench = routes.segments["trench_id"].to_numpy(dtype=object)
+        remedy = remedies(inp, dp, rules, result, ids, governing, trench, MAX_PARALLEL)
+        if cache is not None:
+            cache.put("remedy", digest("remedy", size_key), remedy)
+    t["remedy"] = time.perf_counter() - t0
     say("tables")
     t0 = time.perf_counter()
     landing = landing_input(inp.parent, own_input)
@@ -436,7 +449,7 @@ def plan_site(
         np.asarray(result.isc_design_a),
         inp.n_strings,
     )
-    circuits = circuit_table(routes, result, inp, design, landing)
+    circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
     segments = segment_table(routes, result)
     quantities = quantity_table(circuits, segments, design)
     summary = summarise(site, design, circuits, segments, result, inputs)
@@ -480,10 +493,13 @@ def circuit_table(
     inp: calc.SizingInput,
     design: DesignConfig,
     landing: np.ndarray | None = None,
+    governing: np.ndarray | None = None,
+    remedy: np.ndarray | None = None,
 ) -> gpd.GeoDataFrame:
-    """The cable schedule: contract columns first (see :mod:`routeplan.outputs.columns`)."""
+    """The cable schedule: contract columns first (see :mod:`routeplan.outputs.columns`).
+    ``governing`` (:func:`governing_ids`) and ``remedy`` (:func:`routeplan.remedy.remedies`)
+    are computed here when not given (``remedy`` then left blank)."""
     c = routes.circuits
-    seg_ids = routes.segments["segment_id"].to_numpy(dtype=object)
     final = np.asarray(r.seg_count_final)
     group_max = np.zeros(len(c), dtype=np.int64)
     if len(routes.incidence_circuit):
@@ -493,14 +509,8 @@ def circuit_table(
         kind != calc.KIND_AC, POLES["dc"], np.where(inp.phases == 3, POLES["ac3"], POLES["ac1"])
     )
     u_ref = np.where(kind == calc.KIND_AC, inp.ac_v, inp.vmp_v)
-    gov = np.asarray(r.governing_segment)
-    air = np.asarray(r.governing_air)
-    stretch_ids = routes.air["stretch_id"].to_numpy(dtype=object)
-    governing = np.where(
-        gov >= 0,
-        seg_ids[np.clip(gov, 0, None)] if len(seg_ids) else "",
-        np.where(air >= 0, stretch_ids[np.clip(air, 0, None)] if len(stretch_ids) else "", "air"),
-    )
+    governing = governing_ids(routes, r) if governing is None else governing
+    remedy = np.full(len(c), "", dtype=object) if remedy is None else remedy
     status = np.where(r.ok, "ok", "fail")
     frame = pd.DataFrame(
         {
@@ -526,6 +536,7 @@ def circuit_table(
             "loss_w": r.loss_w,
             "status": status,
             "note": r.note,
+            "remedy": remedy,
             "insulation": r.insulation,
             "conductors": poles * np.asarray(r.parallel),
             "stub_m": c["stub_m"].to_numpy(),
@@ -556,6 +567,20 @@ def circuit_table(
         }
     )
     return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
+
+
+def governing_ids(routes: RoutePlan, r: calc.SizingResult) -> np.ndarray:
+    """Per circuit, the id of the stretch that governs its capacity: a trench segment, an air
+    stretch (a row run or stub), or "air" where the circuit has neither."""
+    seg_ids = routes.segments["segment_id"].to_numpy(dtype=object)
+    gov = np.asarray(r.governing_segment)
+    air = np.asarray(r.governing_air)
+    stretch_ids = routes.air["stretch_id"].to_numpy(dtype=object)
+    return np.where(
+        gov >= 0,
+        seg_ids[np.clip(gov, 0, None)] if len(seg_ids) else "",
+        np.where(air >= 0, stretch_ids[np.clip(air, 0, None)] if len(stretch_ids) else "", "air"),
+    )
 
 
 def _pf(pf: np.ndarray, design: DesignConfig) -> np.ndarray:

@@ -58,6 +58,11 @@ CIRCUIT_COLUMNS: tuple[Col, ...] = (
     Col("status", doc="ok or fail"),
     Col("note", doc="why a circuit fails, and other remarks"),
     # -- beyond the contract
+    Col(
+        "remedy",
+        doc="for a failing circuit: the stretch that governs, the setting that limits the size, "
+        "and the smallest change found by re-sizing that makes it pass (routeplan.remedy)",
+    ),
     Col("insulation", doc="insulation: PV (EN 50618), XLPE or PVC"),
     Col("conductors", doc="conductors in the circuit (poles/phases × parallel)"),
     Col("stub_m", "m", 2, "straight stubs from equipment to the trench network"),

@@ -1,0 +1,200 @@
+"""What would make each failing circuit pass: the smallest change, computed by re-sizing.
+
+A failing circuit's note (from calc) says which limit it breaks. Its *remedy* says what to
+change in site.toml, and that change is computed, not guessed: the plan's circuits are sized
+again on the same routes (:func:`calc.size_circuits`, the whole plan, so that trench grouping
+settles as it would after the change) with the settings relaxed in turn, smallest change first:
+
+1. **sizes**: each failing kind's size list extended by every larger IEC 60228 size the rule
+   set tabulates for that cable (:func:`calc.larger_sizes_mm2`); a circuit that passes is
+   given the size it was sized to: "passes with 16 mm² (add 16 to design.sizes_mm2.string)";
+2. **parallel**: ``design.max_parallel`` at the highest value site.toml accepts (array,
+   sub-array and AC cables; a string is one cable); a circuit that passes is given the sets
+   it was sized to, the setting it needs: "passes with 3 × 300 mm² (design.max_parallel = 3)";
+3. **both** of these, for the circuits neither makes pass alone;
+4. **spacing**: for circuits failing on capacity with a group factor below 1, the clear
+   distance between circuits in their trenches raised to 0.25 m, then to 0.5 m (both
+   spacings are tabulated in IEC 60364-5-52:2009 Tables B.52.18 and B.52.19), offered as an
+   alternative where a larger cable passes too ("…; or passes (0.25 m between the circuits in trench
+   T-4, T-5 …)").
+
+A string is held by its feeders' drop too (the cumulative DC drop), so a remedy names every
+cable of the path that changed, each with the setting it needs: "passes with 6 mm² once
+A:CB-1 is 240 mm² (add 6 to design.sizes_mm2.string; add 240 to design.sizes_mm2.array)".
+Where the change would make circuits that pass now fail (more cable sets in a shared trench),
+the remedy says how many. Each remedy is what the re-sizing found for that circuit; changing
+the settings of several remedies at once can interact through the trench grouping.
+
+Before the change, a remedy names the stretch that governs the capacity (a trench segment id,
+a row run or stub) and the settings that stop the sizing (the size list, ``max_parallel``,
+the drop limit). A circuit that none of the changes makes pass keeps only these: a shorter
+route, another equipment position or another project limit are the designer's choice.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+import calc
+
+#: trench spacings tried for a capacity failure caused by grouping [m] (IEC 60364-5-52:2009
+#: Tables B.52.18 (direct) and B.52.19 (ducts) both tabulate 0.25 m and 0.5 m)
+SPACINGS_M: tuple[float, ...] = (0.25, 0.5)
+
+_SIZE_FIELD = {
+    calc.KIND_STRING: "sizes_string_mm2",
+    calc.KIND_ARRAY: "sizes_array_mm2",
+    calc.KIND_SUBARRAY: "sizes_subarray_mm2",
+    calc.KIND_AC: "sizes_ac_mm2",
+}
+
+
+def remedies(
+    inp: calc.SizingInput,
+    dp: calc.DesignParams,
+    rules: str,
+    result: calc.SizingResult,
+    circuit_ids: np.ndarray,
+    governing: np.ndarray,
+    segment_trench: np.ndarray,
+    max_parallel: int,
+) -> np.ndarray:
+    """One remedy text per circuit ("" for a circuit that passes), see the module docstring.
+
+    ``circuit_ids``: the circuits' ids; ``governing``: per circuit, the id of the stretch that
+    governs its capacity (the schedule's ``governing`` column); ``segment_trench``: per trench
+    segment, its trench's id; ``max_parallel``: the highest ``design.max_parallel`` site.toml
+    accepts.
+    """
+    n = len(result.ok)
+    out = np.full(n, "", dtype=object)
+    fail = ~np.asarray(result.ok, dtype=bool)
+    if not fail.any():
+        return out
+    kind = np.asarray(inp.kind)
+    parent = np.asarray(inp.parent) if inp.parent is not None else np.full(n, -1)
+    why = calc.failure_causes(result)
+    size = np.asarray(result.size_mm2, dtype=float)
+    parallel = np.asarray(result.parallel)
+    found = np.full(n, "", dtype=object)
+    ok = ~fail
+
+    listed = {k: set(_sizes(k, dp, rules)) for k in np.unique(kind).tolist()}
+
+    def apply(r: calc.SizingResult, todo: np.ndarray, extra=lambda i: "") -> np.ndarray:
+        """Write the remedy of each circuit of ``todo`` that passes in the what-if ``r``:
+        the new cables of the circuit and of the feeders above it (a string is held by its
+        feeders' drop too), each with the setting it needs, and ``extra(i)`` (a change that is
+        not a cable's). Returns the circuits given a remedy."""
+        hit = todo & np.asarray(r.ok, dtype=bool)
+        given = np.zeros(n, dtype=bool)
+        r_size, r_par = np.asarray(r.size_mm2, dtype=float), np.asarray(r.parallel)
+        moved = (r_size != size) | (r_par != parallel)
+        broken = int((ok & ~np.asarray(r.ok, dtype=bool)).sum())
+        side = f"; {broken} circuits that pass now would then fail" if broken else ""
+        for i in np.flatnonzero(hit).tolist():
+            cables, settings, sets_needed = [], [], 0
+            j = i
+            while j >= 0:
+                if moved[j]:
+                    sets = int(r_par[j])
+                    cable = f"{sets} × {r_size[j]:g} mm²" if sets > 1 else f"{r_size[j]:g} mm²"
+                    cables.append(
+                        f"with {cable}" if j == i else f"once {circuit_ids[j]} is {cable}"
+                    )
+                    if r_size[j] not in listed[kind[j]]:
+                        name = calc.KIND_NAMES[kind[j]]
+                        settings.append(f"add {r_size[j]:g} to design.sizes_mm2.{name}")
+                    sets_needed = max(sets_needed, sets)
+                j = int(parent[j])
+            settings = list(dict.fromkeys(settings))
+            if sets_needed > int(dp.max_parallel):
+                settings.append(f"design.max_parallel = {sets_needed}")
+            settings += [extra(i)] if extra(i) else []
+            if settings:
+                text = f"passes {' '.join(cables)} ({'; '.join(settings)}{side})"
+                text = text.replace("passes  (", "passes (")
+                found[i] = f"{found[i]}; or {text}" if found[i] else text
+                given[i] = True
+        return given
+
+    # 1. larger sizes for the failing kinds (and the feeders of failing strings); 2. more
+    # parallel sets, up to the setting's limit; 3. both
+    extended = {}
+    for k in np.unique(kind[fail]).tolist():
+        more = calc.larger_sizes_mm2(k, dp, rules)
+        if more.size:
+            extended[_SIZE_FIELD[k]] = _sizes(k, dp, rules) + tuple(more.tolist())
+    wide = {"max_parallel": max_parallel} if int(dp.max_parallel) < max_parallel else {}
+    fixed = np.zeros(n, dtype=bool)
+    for change in (extended, wide, {**extended, **wide} if extended and wide else {}):
+        if change and (fail & ~fixed).any():
+            r = calc.size_circuits(inp, dataclasses.replace(dp, **change), rules=rules)
+            fixed |= apply(r, fail & ~fixed)
+
+    # 4. more space between the circuits in the trenches of the circuits failing on
+    # grouping, with the sizes as listed (also offered beside a larger cable)
+    grouped = fail & why["capacity"] & (np.asarray(result.factor_group) < 1.0 - 1e-9)
+    spacing = np.asarray(inp.seg_spacing_m, dtype=float)
+    inc_c, inc_s = np.asarray(inp.inc_circuit), np.asarray(inp.inc_segment)
+    order = np.argsort(inc_c, kind="stable")  # each circuit's incidences: first[i]:first[i+1]
+    first = np.searchsorted(inc_c[order], np.arange(n + 1))
+    for gap in SPACINGS_M:
+        used = np.zeros(spacing.size, dtype=bool)
+        used[inc_s[grouped[inc_c]]] = True
+        narrow = used & (spacing < gap)
+        if not narrow.any():
+            break
+        wider = dataclasses.replace(inp, seg_spacing_m=np.where(narrow, gap, spacing))
+        r = calc.size_circuits(wider, dp, rules=rules)
+        hit = grouped & np.asarray(r.ok, dtype=bool)
+
+        def trenches(i: int, gap: float = gap, narrow: np.ndarray = narrow) -> str:
+            own = inc_s[order[first[i] : first[i + 1]]]
+            names = ", ".join(sorted(set(segment_trench[own[narrow[own]]].tolist())))
+            return (
+                f"{gap:g} m between the circuits in trench {names} (their spacing_m, or "
+                "design.spacing_m where they have none)"
+            )
+
+        apply(r, hit, trenches)
+        grouped &= ~hit
+
+    # the cumulative DC drop of a string through its feeders, above the DC total
+    path = fail & (kind == calc.KIND_STRING)
+    path &= np.asarray(result.vdrop_total_pct) > dp.drop_dc_total_pct + 1e-6
+    for i in np.flatnonzero(fail).tolist():
+        name = calc.KIND_NAMES[kind[i]]
+        parts, limits = [], []
+        if why["capacity"][i]:
+            parts.append(f"governed by {governing[i]}")
+        if why["capacity"][i] or why["drop"][i]:
+            limits.append(f"largest size in design.sizes_mm2.{name} ({size[i]:g} mm²)")
+            if kind[i] != calc.KIND_STRING:
+                limits.append(f"design.max_parallel ({int(parallel[i])})")
+        if why["drop"][i]:
+            limits.append(f"design.drop_pct.{name}")
+        if path[i]:
+            limits.append("design.drop_pct.dc_total (the drop through its feeders)")
+        if limits:
+            parts.append("limited by " + ", ".join(limits))
+        if found[i]:
+            parts.append(found[i])
+        out[i] = "; ".join(parts)
+    return out
+
+
+def _sizes(kind: int, dp: calc.DesignParams, rules: str) -> tuple[float, ...]:
+    """The size list the plan used for ``kind`` (the design's, or the rule set's default)."""
+    given = getattr(dp, _SIZE_FIELD[kind])
+    if given is not None:
+        return tuple(float(s) for s in given)
+    material = {
+        calc.KIND_STRING: "Cu",
+        calc.KIND_ARRAY: dp.material_array,
+        calc.KIND_SUBARRAY: dp.material_subarray,
+        calc.KIND_AC: dp.material_ac,
+    }[kind]
+    return tuple(calc.get_rules(rules).default_sizes_mm2(kind, material))
