@@ -430,12 +430,14 @@ def plan_site(
     t["size"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     governing = governing_ids(routes, result)
-    remedy = cache.get("remedy", digest("remedy", size_key)) if cache is not None else None
+    remedy = None
+    if cache is not None and not np.all(result.ok):  # a plan that passes needs no remedy
+        remedy = cache.get("remedy", digest("remedy", size_key))
     if remedy is None:
         ids = routes.circuits["circuit_id"].to_numpy(dtype=object)
         trench = routes.segments["trench_id"].to_numpy(dtype=object)
         remedy = remedies(inp, dp, rules, result, ids, governing, trench, MAX_PARALLEL)
-        if cache is not None:
+        if cache is not None and not np.all(result.ok):
             cache.put("remedy", digest("remedy", size_key), remedy)
     t["remedy"] = time.perf_counter() - t0
     say("tables")
