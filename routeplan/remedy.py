@@ -15,8 +15,8 @@ settles as it would after the change) with the settings relaxed in turn, smalles
 4. **spacing**: for circuits failing on capacity with a group factor below 1, the clear
    distance between circuits in their trenches raised to 0.25 m, then to 0.5 m (both
    spacings are tabulated in IEC 60364-5-52:2009 Tables B.52.18 and B.52.19), offered as an
-   alternative where a larger cable passes too ("…; or passes (0.25 m between the circuits in trench
-   T-4, T-5 …)").
+   alternative where a larger cable passes too ("…; or passes with spacing_m = 0.25 on
+   trench T-4, T-5 (design.spacing_m where a trench has none)").
 
 A string is held by its feeders' drop too (the cumulative DC drop), so a remedy names every
 cable of the path that changed, each with the setting it needs: "passes with 6 mm² once
@@ -114,8 +114,10 @@ def remedies(
                 settings.append(f"design.max_parallel = {sets_needed}")
             settings += [extra(i)] if extra(i) else []
             if settings:
-                text = f"passes {' '.join(cables)} ({'; '.join(settings)}{side})"
-                text = text.replace("passes  (", "passes (")
+                if cables:
+                    text = f"passes {' '.join(cables)} ({'; '.join(settings)}{side})"
+                else:
+                    text = f"passes with {'; '.join(settings)}{side}"
                 found[i] = f"{found[i]}; or {text}" if found[i] else text
                 given[i] = True
         return given
@@ -155,8 +157,7 @@ def remedies(
             own = inc_s[order[first[i] : first[i + 1]]]
             names = ", ".join(sorted(set(segment_trench[own[narrow[own]]].tolist())))
             return (
-                f"{gap:g} m between the circuits in trench {names} (their spacing_m, or "
-                "design.spacing_m where they have none)"
+                f"spacing_m = {gap:g} on trench {names} (design.spacing_m where a trench has none)"
             )
 
         apply(r, hit, trenches)

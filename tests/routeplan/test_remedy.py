@@ -159,9 +159,9 @@ def test_a_spacing_remedy_widens_the_trench_and_passes(narrow, tmp_path):
     # wider spacing raises its group factor (IEC 60364-5-52:2009 Table B.52.18: 0.25 m and
     # 0.5 m spacings give higher factors than touching circuits)
     src, c = narrow
-    pattern = r"; or passes (?:with \d+ mm² )?\([\d.]+ m between the circuits in trench "
+    pattern = r"; or passes with spacing_m = [\d.]+ on trench \S+"
     cid, remedy = pick(c, pattern)
-    m = re.search(r"([\d.]+) m between the circuits in trench (.+?) \(their spacing_m", remedy)
+    m = re.search(r"spacing_m = ([\d.]+) on trench (.+?) \(design\.spacing_m", remedy)
     gap, names = float(m.group(1)), m.group(2).split(", ")
     before = row(c, cid)
     root = tmp_path / "wider"
