@@ -74,7 +74,7 @@ except DiffError as exc:
 
 def test_summary_json_is_read_as_utf8_whatever_the_locale(tmp_path):
     # JSON exchanged between systems is UTF-8 (RFC 8259, section 8.1); routeplan writes
-    # summary.json as ASCII (\\u escapes), but an editor saving the file writes the site's name
+    # summary.json as ASCII (\u escapes), but an editor saving the file writes the site's name
     # "Étang-Nord" (invented) as the two UTF-8 bytes of "É", which an ASCII reading refuses
     circuits, segments = [circuit("C1"), circuit("C2")], [segment(), segment("T1", 60, 120)]
     summary = summary_of(circuits, segments)
