@@ -161,12 +161,13 @@ TARGETS = {
             "tests/routeplan/test_diff_tables.py",
             "tests/routeplan/test_diff_survivors.py",
             "tests/routeplan/test_diff_numbers.py",
+            "tests/routeplan/test_diff_survivors_dec04.py",
         ),
         ("routeplan.diff.core.*", "routeplan.diff.compare.*", "routeplan.diff.text.*"),
     ),
     "pipeline": Target(
         "routeplan/pipeline.py",
-        ("tests/routeplan/test_pipeline_tables.py",),
+        ("tests/routeplan/test_pipeline_tables.py", "tests/routeplan/test_pipeline_survivors.py"),
         PIPELINE_TABLES,
     ),
     "network": Target(
@@ -179,6 +180,7 @@ TARGETS = {
             "::test_a_tap_joining_an_existing_node_renames_no_segment",
             "tests/routeplan/test_network_loops.py",
             "tests/routeplan/test_trench_checks.py",
+            "tests/routeplan/test_chainage_survivors.py",
         ),
         deselect=(
             # 60 hypothesis examples of three builds each: the memo is checked by hand-built

@@ -300,8 +300,9 @@ def _look(fields: dict[str, dict]) -> str:
         if new < old:
             return "size down"
     route = fields.get("route_m")
-    if route is not None and route["delta"]:
-        return "longer" if float(route["delta"]) > 0 else "shorter"
+    delta = float(route["delta"]) if route is not None and route["delta"] else 0.0
+    if delta:  # a delta shown as +0.00 (a text change below the 0.01 m shown) is neither
+        return "longer" if delta > 0 else "shorter"
     return "other"
 
 

@@ -100,3 +100,21 @@ def test_summary_json_is_read_as_utf8_whatever_the_locale(tmp_path):
     assert name == ascii("Étang-Nord")
     # and in this process, whatever its locale, read_plan takes the same file
     assert read_plan(folder)["summary"]["site"]["name"] == "Étang-Nord"
+
+
+@pytest.mark.parametrize(
+    "new_route, look",
+    [("120.004", "other"), ("120", "other"), ("120.01", "longer"), ("119.99", "shorter")],
+)
+def test_a_route_length_that_rounds_to_no_change_is_neither_longer_nor_shorter(
+    tmp_path, new_route, look
+):
+    # a schedule re-saved by hand or by a spreadsheet ("120.00" → "120") changes the text of
+    # route_m but not its length at the 0.01 m the diff shows
+    from routeplan.diff import diff_outputs
+
+    old = write_folder(tmp_path / "old", [circuit("C1", route_m="120.00"), circuit("C2")])
+    new = write_folder(tmp_path / "new", [circuit("C1", route_m=new_route), circuit("C2")])
+    d = diff_outputs(old, new)
+    got = dict(zip(d.circuits["circuit_id"], d.circuits["look"], strict=True))
+    assert got == {"C1": look}
