@@ -56,6 +56,7 @@ from calc.engine import (
     failure_causes,
     larger_sizes_mm2,
     size_circuits,
+    size_list_mm2,
 )
 from calc.errors import (
     CalcError,
@@ -92,4 +93,5 @@ __all__ = [
     "larger_sizes_mm2",
     "rule_names",
     "size_circuits",
+    "size_list_mm2",
 ]

@@ -674,6 +674,13 @@ def _cable_of(kind: int, design: DesignParams, rs: RuleSet) -> tuple[str, str, n
     return material, insulation, np.asarray(sizes, dtype=float)
 
 
+def size_list_mm2(kind: int, design: DesignParams | None = None, rules: str = "iec") -> np.ndarray:
+    """The sizes a kind's circuits are chosen from [mm²]: the design's list, else the rule
+    set's default for the kind's material."""
+    design = design if design is not None else DesignParams()
+    return _cable_of(kind, design, get_rules(rules))[2]
+
+
 def larger_sizes_mm2(
     kind: int, design: DesignParams | None = None, rules: str = "iec"
 ) -> np.ndarray:

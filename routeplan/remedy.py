@@ -5,8 +5,8 @@ change in site.toml, and that change is computed, not guessed: the plan's circui
 again on the same routes (:func:`calc.size_circuits`, the whole plan, so that trench grouping
 settles as it would after the change) with the settings relaxed in turn, smallest change first:
 
-1. **sizes**: each failing kind's size list extended by every larger IEC 60228 size the rule
-   set tabulates for that cable (:func:`calc.larger_sizes_mm2`); a circuit that passes is
+1. **sizes**: the size lists of the failing circuits' kinds and of their feeders' kinds
+   extended by every larger IEC 60228 size the rule set tabulates for that cable (:func:`calc.larger_sizes_mm2`); a circuit that passes is
    given the size it was sized to: "passes with 16 mm² (add 16 to design.sizes_mm2.string)";
 2. **parallel**: ``design.max_parallel`` at the highest value site.toml accepts (array,
    sub-array and AC cables; a string is one cable); a circuit that passes is given the sets
@@ -81,7 +81,7 @@ def remedies(
     found = np.full(n, "", dtype=object)
     ok = ~fail
 
-    listed = {k: set(_sizes(k, dp, rules)) for k in np.unique(kind).tolist()}
+    listed = {k: calc.size_list_mm2(k, dp, rules) for k in np.unique(kind).tolist()}
 
     def apply(r: calc.SizingResult, todo: np.ndarray, extra=lambda i: "") -> np.ndarray:
         """Write the remedy of each circuit of ``todo`` that passes in the what-if ``r``:
@@ -104,7 +104,7 @@ def remedies(
                     cables.append(
                         f"with {cable}" if j == i else f"once {circuit_ids[j]} is {cable}"
                     )
-                    if r_size[j] not in listed[kind[j]]:
+                    if not np.isin(r_size[j], listed[kind[j]]):
                         name = calc.KIND_NAMES[kind[j]]
                         settings.append(f"add {r_size[j]:g} to design.sizes_mm2.{name}")
                     sets_needed = max(sets_needed, sets)
@@ -124,11 +124,17 @@ def remedies(
 
     # 1. larger sizes for the failing kinds (and the feeders of failing strings); 2. more
     # parallel sets, up to the setting's limit; 3. both
+    chain = np.flatnonzero(fail)  # the failing circuits and the feeders above them
+    kinds: set[int] = set()
+    while chain.size:
+        kinds |= set(kind[chain].tolist())
+        chain = np.unique(parent[chain])
+        chain = chain[chain >= 0]
     extended = {}
-    for k in np.unique(kind[fail]).tolist():
+    for k in sorted(kinds):
         more = calc.larger_sizes_mm2(k, dp, rules)
         if more.size:
-            extended[_SIZE_FIELD[k]] = _sizes(k, dp, rules) + tuple(more.tolist())
+            extended[_SIZE_FIELD[k]] = tuple(listed[k].tolist() + more.tolist())
     wide = {"max_parallel": max_parallel} if int(dp.max_parallel) < max_parallel else {}
     fixed = np.zeros(n, dtype=bool)
     for change in (extended, wide, {**extended, **wide} if extended and wide else {}):
@@ -185,17 +191,3 @@ def remedies(
             parts.append(found[i])
         out[i] = "; ".join(parts)
     return out
-
-
-def _sizes(kind: int, dp: calc.DesignParams, rules: str) -> tuple[float, ...]:
-    """The size list the plan used for ``kind`` (the design's, or the rule set's default)."""
-    given = getattr(dp, _SIZE_FIELD[kind])
-    if given is not None:
-        return tuple(float(s) for s in given)
-    material = {
-        calc.KIND_STRING: "Cu",
-        calc.KIND_ARRAY: dp.material_array,
-        calc.KIND_SUBARRAY: dp.material_subarray,
-        calc.KIND_AC: dp.material_ac,
-    }[kind]
-    return tuple(calc.get_rules(rules).default_sizes_mm2(kind, material))

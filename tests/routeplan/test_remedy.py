@@ -49,6 +49,10 @@ def test_the_larger_sizes_are_the_iec_60228_series_beyond_the_list():
     assert calc.larger_sizes_mm2(calc.KIND_ARRAY, dp).tolist() == [
         35, 50, 70, 95, 120, 150, 185, 240, 300,
     ]  # fmt: skip
+    # the lists sized from: the design's, else calc/data/default_size_lists.csv (common
+    # practice: PV string cable 4, 6, 10 mm²)
+    assert calc.size_list_mm2(calc.KIND_STRING).tolist() == [4, 6, 10]
+    assert calc.size_list_mm2(calc.KIND_ARRAY, dp).tolist() == [16, 25]
     # the default feeder list already ends at 300 mm²: nothing larger can be sized
     assert calc.larger_sizes_mm2(calc.KIND_AC).size == 0
 
