@@ -12,8 +12,9 @@
 * ``losses`` — conductor losses at the operating point by kind (Σ ``loss_w``, kW).
 
 Distributions are histograms over fixed bins (never one mark per circuit), so a 1 GW plant costs
-what a small one does. Every chart keeps the numbers it shows (:class:`Chart`), so tests check the
-data, not pixels. Output is deterministic: the SVG carries no date and a fixed hash salt.
+what a small one does; they bin the values as the schedules write them (:func:`as_written`).
+Every chart keeps the numbers it shows (:class:`Chart`), so tests check the data, not pixels.
+Output is deterministic: the SVG carries no date and a fixed hash salt.
 """
 
 from __future__ import annotations
@@ -28,8 +29,10 @@ import numpy as np
 import pandas as pd
 
 from routeplan.config import DesignConfig
+from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS, Col
+from routeplan.outputs.tables import fixed_text
 
-__all__ = ["Chart", "Histogram", "Plots", "histogram_edges", "plan_plots"]
+__all__ = ["Chart", "Histogram", "Plots", "as_written", "histogram_edges", "plan_plots"]
 
 #: the kinds in report order, with their label
 KIND_LABELS: dict[str, str] = {"string": "string", "subarray": "sub-array", "array": "array",
@@ -93,6 +96,27 @@ def histogram_edges(values: np.ndarray, step: float, upper: float) -> np.ndarray
     while n * step < top:  # every value within the edges (the last bin is closed)
         n += 1
     return np.arange(n + 1) * step
+
+
+def as_written(values: np.ndarray, column: str, columns: tuple[Col, ...]) -> np.ndarray:
+    """The values as the schedule writes them (its fixed decimals for ``column``), as floats.
+
+    Charts bin these, so a value shown in a bin is the one a reviewer reads in the CSV file
+    (a drop written 0.250 % lies in the bin from 0.25 up, whatever digits followed). A column
+    the schedule has no fixed decimals for is taken as it is.
+
+    >>> as_written(np.array([0.74951, np.nan]), "utilisation", CIRCUIT_COLUMNS).tolist()
+    [0.75, nan]
+    """
+    v = np.asarray(values, dtype=float)
+    decimals = next((c.decimals for c in columns if c.name == column), None)
+    if decimals is None:
+        return v
+    text = fixed_text(v, decimals)
+    out = np.full(v.shape, np.nan)
+    given = ~np.isnan(v)
+    out[given] = text[given].astype(float)
+    return out
 
 
 def _hist(label: str, values: np.ndarray, step: float, upper: float, limit: float) -> Histogram:
@@ -195,8 +219,9 @@ def plan_plots(circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignCon
         with their data and SVG, and the HTML fragment (one ``<figure>`` with one ``<img>`` each).
     """
     kinds = _kinds(circuits)
-    util = circuits["utilisation"].to_numpy(dtype=float)
-    drop = circuits["vdrop_pct"].to_numpy(dtype=float)
+    util = as_written(circuits["utilisation"].to_numpy(dtype=float), "utilisation",
+                      CIRCUIT_COLUMNS)  # fmt: skip
+    drop = as_written(circuits["vdrop_pct"].to_numpy(dtype=float), "vdrop_pct", CIRCUIT_COLUMNS)
     charts: list[Chart] = []
 
     hists = [_hist(KIND_LABELS[k], util[m], 0.05, 1.2, 1.0) for k, m in kinds]
@@ -231,7 +256,7 @@ def plan_plots(circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignCon
     title = "Conductor metres by kind, material and size (allowances included)"
     charts.append(Chart("conductor_m", title, bars=bars, svg=_draw_bars("conductor metres", bars)))
 
-    fill = segments["fill"].to_numpy(dtype=float) if len(segments) else np.zeros(0)
+    fill = as_written(segments["fill"].to_numpy(dtype=float), "fill", SEGMENT_COLUMNS)
     rated = np.isfinite(fill)
     hists = [_hist("trench segments with a capacity", fill[rated], 0.05, 1.2, 1.0)]
     note = (
