@@ -28,7 +28,9 @@ import pandas as pd
 
 import calc
 from calc import ampacity, protection, pv, resistance
+from calc.losses import loss_w
 from calc.tables import load_table
+from calc.vdrop import vdrop_v
 from routeplan.config import DesignConfig
 from routeplan.pipeline import design_params
 
@@ -531,7 +533,8 @@ def _capacity_steps(row: pd.Series, segments: pd.DataFrame, design: DesignConfig
             "Capacity Iz",
             "I_z = I_t · k · p",
             f"{_num(float(row['ampacity_base_a']))} × {_num(float(row['derating']), 4)} × "
-            f"{parallel}",
+            f"{parallel} = "
+            f"{_num(float(row['ampacity_base_a']) * float(row['derating']) * parallel)}",
             float(row["ampacity_a"]),
             "A",
             "schedule column ampacity_a",
@@ -686,6 +689,7 @@ def _drop_steps(row: pd.Series, segments: pd.DataFrame, design: DesignConfig) ->
             f"{b} × {_num(length / 1e3)} km × {_num(i_op)} A × ({_num(r)} × {_num(pf, 4)} + "
             f"{_num(x)} × {_num(sin, 4)}) Ω/km / {p}"
         )
+    subst += f" = {_num(float(vdrop_v(length, i_op, r, x, pf, phases, p)))}"
     steps.append(
         Step(
             "Voltage drop ΔU",
@@ -737,7 +741,8 @@ def _drop_steps(row: pd.Series, segments: pd.DataFrame, design: DesignConfig) ->
         Step(
             "Loss P",
             "P = n · I² · R · L / p",
-            f"{n} × {_num(i_op)}² A² × {_num(r)} Ω/km × {_num(length / 1e3)} km / {p}",
+            f"{n} × {_num(i_op)}² A² × {_num(r)} Ω/km × {_num(length / 1e3)} km / {p} = "
+            f"{_num(float(loss_w(i_op, length, r, phases, p)))}",
             float(row["loss_w"]),
             "W",
             "Joule's law, calc.losses.loss_w; schedule column loss_w",

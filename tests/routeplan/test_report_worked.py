@@ -30,6 +30,7 @@ import csv
 import html as html_module
 import math
 from html.parser import HTMLParser
+from pathlib import Path
 
 import pytest
 
@@ -277,3 +278,67 @@ def test_no_circuits_gives_a_sentence(planned):
     worked = worked_calculation(p.circuits.iloc[0:0], p.segments, p.design)
     assert worked.circuits == ()
     assert "No circuits: nothing to work out." in worked.html
+
+
+# -- the demo site: a string governed in air, a sub-array cable with its fuse ----------------
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_site"
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    out = tmp_path_factory.mktemp("worked_demo") / "out"
+    result = plan_cli(DEMO, out)
+    assert result.exit_code == 0, result.output
+    with (out / "cable_schedule.csv").open(newline="", encoding="utf-8") as f:
+        rows = {r["circuit_id"]: r for r in csv.DictReader(f)}
+    p = plan(DEMO)
+    return rows, worked_calculation(p.circuits, p.segments, p.design)
+
+
+def test_string_in_air_by_hand(demo):
+    """The demo's string with the highest drop share runs along its row: EN 50618:2014 Table
+    A.3, two cables adjacent on a surface, 4 mm²: 44 A (from memory); Table A.4 at the demo's
+    70 °C behind the modules: 0.91 (√((120 − 70)/60) = 0.913, from memory); IEC 60364-5-52:2009
+    Table B.52.17 item 4 (perforated tray, the demo's string arrangement), 4 circuits: 0.77;
+    the conductor at 120 °C, the rating temperature of Table A.3."""
+    rows, worked = demo
+    (w,) = [c for c in worked.circuits if c.kind == "string" and "voltage drop" in c.reason]
+    row = rows[w.circuit_id]
+    assert row["governing"] == w.step("Governing stretch").value
+    assert row["governing"].startswith("row run ")
+    assert row["group_count"] == "4"
+    length_km, i_op = float(row["cable_m"]) / 1e3, float(row["operating_current_a"])
+    iz = 44.0 * 0.91 * 0.77
+    r120 = 5.09 * (1 + 3.93e-3 * (120 - 20))
+    drop_v = 2 * length_km * i_op * r120
+    hand = {
+        "Tabulated capacity It": (44.0, "ampacity_base_a"),
+        "Temperature factor kT": (0.91, "factor_temp"),
+        "Grouping factor kG": (0.77, "factor_group"),
+        "Capacity Iz": (iz, "ampacity_a"),
+        "Utilisation": (25.0 / iz, "utilisation"),  # fuse 25 A > 1.25 × 15.54 A
+        "Conductor temperature θ": (120.0, "conductor_temp_c"),
+        "Resistance at θ": (r120, None),
+        "Voltage drop ΔU": (drop_v, "vdrop_v"),
+        "Loss P": (2 * i_op**2 * r120 * length_km, "loss_w"),
+    }
+    _check(w, _fragment_values(worked)[w.circuit_id], row, hand)
+    assert "EN 50618:2014 Annex A, Table A.3" in w.step("Tabulated capacity It").source
+    assert "tray" in w.step("Grouping factor kG").substituted
+
+
+def test_subarray_fuse_by_hand(demo):
+    """A fused sub-array cable: Iz ≥ max(1.25 I_SC, I_n, I2 / 1.45) with a gPV fuse's
+    I2 = 1.45 I_n (IEC 60269-6, from memory; IEC 60364-4-43:2008 433.1)."""
+    rows, worked = demo
+    w = next(c for c in worked.circuits if c.kind == "subarray")
+    row = rows[w.circuit_id]
+    fuse = float(row["array_fuse_a"])
+    isc = float(row["isc_design_a"])
+    hand = {
+        "Own current": (1.25 * isc, None),
+        "Design current": (max(1.25 * isc, fuse, 1.45 * fuse / 1.45), "design_current_a"),
+    }
+    _check(w, _fragment_values(worked)[w.circuit_id], row, hand)
+    assert float(row["backfeed_a"]) > float(row["ampacity_a"])  # why the fuse is there
