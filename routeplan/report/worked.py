@@ -160,6 +160,13 @@ def _rows(table_name: str, **equal: float | str) -> np.ndarray:
     return mask
 
 
+#: the table of IEC 60364-5-52:2009 Annex B each capacity column comes from (as the data files'
+#: headers state)
+_BURIED_TABLE = {("PVC", 2): "B.52.2", ("XLPE", 2): "B.52.3", ("PVC", 3): "B.52.4",
+                 ("XLPE", 3): "B.52.5"}  # fmt: skip
+_FREE_AIR_TABLE = {"PVC": "B.52.10", "XLPE": "B.52.12"}
+
+
 # --------------------------------------------------------------------------------------------
 # choosing the circuits
 
@@ -406,19 +413,27 @@ def _capacity_steps(row: pd.Series, segments: pd.DataFrame, design: DesignConfig
             + " × √(R20 class 2 / R20 class 5 tinned), IEC 60228"
         )
         how = (
-            f"{_num(size)} mm² Cu XLPE_2_{env['env']} × √({_num(r2)} / {_num(r5)}) "
-            "(PV cable buried)"
+            f"{_num(size)} mm² Cu, column XLPE_2_{env['env']} (Table B.52.3) × "
+            f"√({_num(r2)} / {_num(r5)}) (PV cable buried)"
         )
     elif env["env"] == "air":
         name = "iec60364_5_52_2009_free_air_capacity.csv"
         src = _source(name, _rows(name, material="Cu", size_mm2=size))
-        how = f"{_num(size)} mm² {material} {insulation}, {loaded} loaded, method F (E < 25 mm²)"
+        table = _FREE_AIR_TABLE[insulation]
+        how = (
+            f"{_num(size)} mm² {material} {insulation}, {loaded} loaded, method F (E below "
+            f"25 mm²), Table {table}"
+        )
         if material == "Al":
             how += " × √(R20 Cu / R20 Al) (IEC 60228, derived)"
     else:
         name = "iec60364_5_52_2009_buried_capacity.csv"
         src = _source(name, _rows(name, material=material, size_mm2=size))
-        how = f"{_num(size)} mm² {material}, column {insulation}_{loaded}_{env['env']}"
+        table = _BURIED_TABLE[(insulation, loaded)]
+        how = (
+            f"{_num(size)} mm² {material}, column {insulation}_{loaded}_{env['env']} "
+            f"(Table {table})"
+        )
     steps.append(
         Step("Tabulated capacity It", "I_t (reference conditions, one set)", how, base, "A", src)
     )
@@ -784,32 +799,49 @@ def _protection_steps(row: pd.Series, design: DesignConfig) -> list[Step]:
         chk = protection.overload_check([ib], [in_a], [iz], [i2])
         coord = "iec60364_4_43_2008_433_1_coordination.csv"
         k145 = float(load_table(coord)["value"][_rows(coord, name="i2_max_x_iz")][0])
+        ok = bool(chk.ok[0])
         steps.append(
             Step(
                 "Overload protection",
-                "I_b ≤ I_n ≤ I_z and I_2 ≤ 1.45 · I_z (IEC 60364-4-43:2008 433.1)",
+                f"I_b ≤ I_n ≤ I_z and I_2 ≤ {_num(k145)} · I_z (IEC 60364-4-43:2008 433.1)",
                 f"{_num(ib)} ≤ {_num(in_a)} ≤ {_num(iz)}; {_num(i2)} ≤ {_num(k145)} × {_num(iz)}"
-                f" = {_num(k145 * iz)}: {'passes' if bool(chk.ok[0]) else 'FAILS'}",
-                str(row["protection"]),
+                f" = {_num(k145 * iz)}; {row['protection']}",
+                "passes" if ok else "FAILS",
                 "",
                 "calc.protection.overload_check; schedule column protection",
             )
         )
     else:
-        device = "string fuse" if kind == "string" else "array / sub-array fuse"
-        fuse_col = "fuse_a" if kind == "string" else "array_fuse_a"
-        fuse = row[fuse_col]
-        subst = f"{device} {_num(float(fuse))} A gPV" if pd.notna(fuse) else f"no {device}"
-        if kind != "string":
+        string = kind == "string"
+        fuse_col = "fuse_a" if string else "array_fuse_a"
+        fuse = float(row[fuse_col]) if pd.notna(row[fuse_col]) else math.nan
+        isc = float(row["isc_design_a"])
+        lo = pv.pv_rule("fuse_min_x_isc" if string else "array_fuse_min_x_isc")
+        hi = pv.pv_rule("fuse_max_x_isc" if string else "array_fuse_max_x_isc")
+        rules = "iec62548_2016_pv_dc_rules.csv"
+        names = ("fuse_min_x_isc", "fuse_max_x_isc") if string else (
+            "array_fuse_min_x_isc", "array_fuse_max_x_isc")  # fmt: skip
+        mask = _rows(rules, name=names[0]) | _rows(rules, name=names[1])
+        if np.isfinite(fuse):
+            subst = (
+                f"{_num(lo)} × {_num(isc)} = {_num(lo * isc)} ≤ I_n = {_num(fuse)} ≤ "
+                f"{_num(hi)} × {_num(isc)} = {_num(hi * isc)}"
+                + (" (and ≤ the module's maximum series fuse)" if string else "")
+                + f"; {row['protection']}"
+            )
+        else:
+            subst = str(row["protection"])
+        if not string:
             subst += f"; backfeed {_num(float(row['backfeed_a']))} A, I_z {_num(iz)} A"
         steps.append(
             Step(
                 "Protection",
-                "IEC 62548:2016 (from memory): the rule that governed",
+                ("string" if string else "array / sub-array")
+                + f" gPV fuse where needed: {_num(lo)} · I_SC,d ≤ I_n ≤ {_num(hi)} · I_SC,d",
                 subst,
-                str(row["protection"]),
-                "",
-                "schedule columns protection, " + fuse_col,
+                fuse if np.isfinite(fuse) else "none",
+                "A" if np.isfinite(fuse) else "",
+                _source(rules, mask) + "; schedule columns protection, " + fuse_col,
             )
         )
     return steps
@@ -835,9 +867,11 @@ _STYLE = """<style>
 .rp-worked table{border-collapse:collapse;width:100%;font-size:9pt;margin:0 0 1em 0}
 .rp-worked th,.rp-worked td{border:1px solid #999;padding:2px 4px;vertical-align:top;
 text-align:left}
-.rp-worked td.rp-value{text-align:right;white-space:nowrap;font-weight:bold}
+.rp-worked table{table-layout:fixed}
+.rp-worked td{overflow-wrap:anywhere}
+.rp-worked td.rp-value{text-align:right;font-weight:bold}
 .rp-worked td.rp-source{font-size:7.5pt;color:#333}
-.rp-worked section{break-inside:avoid-page;page-break-inside:avoid}
+.rp-worked h3,.rp-worked h3+p{break-after:avoid;page-break-after:avoid}
 .rp-worked tr{break-inside:avoid;page-break-inside:avoid}
 @media print{.rp-worked th{background:#eee !important;-webkit-print-color-adjust:exact}}
 </style>"""
@@ -853,7 +887,10 @@ def _html(worked: list[WorkedCircuit]) -> str:
         parts.append(f"<h3>{e(KIND_LABELS[w.kind])} circuit {e(w.circuit_id)}</h3>")
         parts.append(f"<p>Chosen for the {e(w.reason)}.</p>")
         parts.append(
-            "<table><thead><tr><th>step</th><th>formula</th><th>numbers</th><th>value</th>"
+            '<table><colgroup><col style="width:12%"><col style="width:20%">'
+            '<col style="width:24%"><col style="width:10%"><col style="width:5%">'
+            '<col style="width:29%"></colgroup>'
+            "<thead><tr><th>step</th><th>formula</th><th>numbers</th><th>value</th>"
             "<th>unit</th><th>source</th></tr></thead><tbody>"
         )
         for s in w.steps:
