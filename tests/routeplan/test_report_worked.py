@@ -36,7 +36,7 @@ import pytest
 
 from routeplan.pipeline import plan
 from routeplan.report.worked import governing_circuits, worked_calculation
-from tests.conftest import write_site
+from tests.conftest import base_frames, write_site
 from tests.iec60287 import ac_over_dc
 from tests.routeplan.promise_sites import plan_cli
 
@@ -344,3 +344,23 @@ def test_subarray_fuse_by_hand(demo):
     assert float(row["backfeed_a"]) > float(row["ampacity_a"])  # why the fuse is there
     # the fuse lies in IEC 62548's 1.25-2.4 x I_SC range for array fuses (from memory)
     assert 1.25 * isc <= w.step("Protection").value == fuse <= 2.4 * isc
+
+
+def test_unfused_string_by_hand(tmp_path):
+    """Two strings on the combiner need no string fuse (IEC 62548:2016: with the module's
+    maximum series fuse 25 A ≥ (S − 1) · 1.25 · I_SC = 16.25 A; from memory): the cable carries
+    1.25 · I_SC · max(S − 1, 1) = 16.25 A."""
+    frames = base_frames()
+    frames["rows"]["strings"] = [1, 1]
+    site = write_site(tmp_path / "site", frames)
+    p = plan(site)
+    worked = worked_calculation(p.circuits, p.segments, p.design)
+    w = worked.circuits[0]
+    assert w.kind == "string"
+    step = w.step("Design current")
+    assert step.formula == "I_d = k · I_SC,d · max(S − 1, 1)"
+    assert step.substituted == "1.25 × 13 × max(2 − 1, 1)"
+    assert step.value == pytest.approx(1.25 * ISC_A)
+    assert w.step("Protection").value == "none"
+    row = p.circuits.set_index("circuit_id").loc[w.circuit_id]
+    assert row["design_current_a"] == pytest.approx(1.25 * ISC_A)
