@@ -118,19 +118,22 @@ def _num(x: float, sig: int = 5) -> str:
 
 
 def _header_source(name: str) -> str:
-    """The ``# source:`` paragraph of a data table's header, on one line."""
-    lines = load_table(name).header
+    """The first sentence of the ``# source:`` paragraph of a data table's header (standard,
+    edition, table), on one line; the report's design basis lists the whole headers.
+
+    >>> _header_source("iec60364_4_43_2008_433_1_coordination.csv")[:72]
+    'IEC 60364-4-43:2008 (Ed.3) clause 433.1, coordination between conductor'
+    """
     out: list[str] = []
-    for line in lines:
-        body = line.lstrip("#").strip()
+    for line in load_table(name).header:
         if not out:
-            if body.startswith("source:"):
-                out.append(body[len("source:") :].strip())
+            if line.startswith("# source:"):
+                out.append(line[len("# source:") :].strip())
             continue
-        if re.match(r"^[a-z_ ]+:", body):  # the next header key ends the paragraph
+        if re.match(r"^#\s?[a-z_]+:", line):  # the next "# key:" line ends the paragraph
             break
-        out.append(body)
-    return " ".join(out)
+        out.append(line.lstrip("#").strip())
+    return re.split(r"(?<=[a-z0-9)])\. ", " ".join(out), maxsplit=1)[0]
 
 
 def _source(name: str, mask: np.ndarray | None = None) -> str:
