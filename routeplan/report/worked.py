@@ -122,7 +122,7 @@ def _header_source(name: str) -> str:
     edition, table), on one line; the report's design basis lists the whole headers.
 
     >>> _header_source("iec60364_4_43_2008_433_1_coordination.csv")[:72]
-    'IEC 60364-4-43:2008 (Ed.3) clause 433.1, coordination between conductor'
+    'IEC 60364-4-43:2008 (Ed.3) clause 433.1, coordination between conductors'
     """
     out: list[str] = []
     for line in load_table(name).header:
