@@ -7,7 +7,7 @@
   (``100 · vdrop_pct / design.drop_pct[kind]``, %), against 100 %;
 * ``conductor_m`` — conductor metres (``cable_m × conductors``, allowances included) by kind,
   material and size;
-* ``trench_fill`` — distribution of the trench segments' ``fill``, against 1 (segments without a
+* ``trench_fill`` — distribution of the trench schedule's ``fill``, against 1 (segments without a
   capacity are counted apart);
 * ``losses`` — conductor losses at the operating point by kind (Σ ``loss_w``, kW).
 
@@ -264,7 +264,7 @@ def plan_plots(circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignCon
         if np.any(~rated)
         else ""
     )
-    title = "Trench fill (cable sets / capacity) of the segments; limit 1"
+    title = "Trench fill of the segments (what they carry against the capacity given); limit 1"
     charts.append(
         Chart(
             "trench_fill",
