@@ -41,6 +41,8 @@ __all__ = [
     "WorkedCircuit",
     "governing_circuits",
     "worked_calculation",
+    "worked_circuit",
+    "worked_html",
 ]
 
 #: the kinds in report order, with their label
@@ -910,6 +912,29 @@ def _html(worked: list[WorkedCircuit]) -> str:
         "qualified, licensed person.</small></p></div>"
     )
     return "\n".join(parts)
+
+
+def worked_circuit(
+    circuits: pd.DataFrame,
+    segments: pd.DataFrame,
+    design: DesignConfig,
+    circuit_id: str,
+    reason: str = "reviewer's choice",
+) -> WorkedCircuit:
+    """The worked calculation of any one circuit of the schedule (KeyError if there is none).
+
+    Parameters are those of :func:`worked_calculation`; ``reason`` is shown as why it was
+    chosen.
+    """
+    where = np.flatnonzero(circuits["circuit_id"].astype(str).to_numpy() == circuit_id)
+    if where.size == 0:
+        raise KeyError(circuit_id)
+    return _worked_circuit(circuits.iloc[int(where[0])], reason, segments, design)
+
+
+def worked_html(worked: list[WorkedCircuit] | tuple[WorkedCircuit, ...]) -> str:
+    """The HTML fragment of some worked circuits (as :func:`worked_calculation` gives it)."""
+    return _html(list(worked))
 
 
 def worked_calculation(

@@ -35,10 +35,16 @@ from pathlib import Path
 import pytest
 
 from routeplan.pipeline import plan
-from routeplan.report.worked import governing_circuits, worked_calculation
+from routeplan.report.worked import (
+    WorkedCalculation,
+    governing_circuits,
+    worked_calculation,
+    worked_circuit,
+    worked_html,
+)
 from tests.conftest import base_frames, write_site
 from tests.iec60287 import ac_over_dc
-from tests.routeplan.promise_sites import plan_cli
+from tests.routeplan.promise_sites import RICH_TOML, plan_cli, rich_frames
 
 #: the test site's string: 26 modules of Vmp 41.2 V, Imp 12.3 A, Isc 13.0 A (tests.conftest)
 VMP_V, IMP_A, ISC_A = 26 * 41.2, 12.3, 13.0
@@ -364,3 +370,48 @@ def test_unfused_string_by_hand(tmp_path):
     assert w.step("Protection").value == "none"
     row = p.circuits.set_index("circuit_id").loc[w.circuit_id]
     assert row["design_current_a"] == pytest.approx(1.25 * ISC_A)
+
+
+def test_single_phase_ac_by_hand(tmp_path):
+    """The rich site's single-phase inverter INV2 (20 kVA, 400 V, pf not given: 0.9): Ib =
+    S / U = 50 A; breaker 50 A (IEC 60898-1 preferred value, the moulded-case list below 160 A:
+    common practice), Iz ≥ max(50, 1.30 × 50 / 1.45) = 50 A; IEC 60364-5-52:2009 Table B.52.3
+    (XLPE, 2 loaded) Al 50 mm² method D1: 126 A (from memory); Table B.52.19 part B, 5 circuits
+    touching: 0.60 (from memory); no depth credit at 0.6 m; IEC 60228:2004 Table 2 Al 50 mm²:
+    0.641 Ω/km; BS 7671 Table 4E1B, two cables single-phase touching, 50 mm²: x = 0.180
+    mV/A/m, X = x / 2 (from memory); ΔU = 2 · L · I · (R cos φ + X sin φ)."""
+    site = write_site(tmp_path / "site", rich_frames(), toml=RICH_TOML)
+    out = tmp_path / "out"
+    result = plan_cli(site, out)
+    assert result.exit_code == 0, result.output
+    with (out / "cable_schedule.csv").open(newline="", encoding="utf-8") as f:
+        row = next(r for r in csv.DictReader(f) if r["circuit_id"] == "AC:INV2")
+    assert (row["size_mm2"], row["material"], row["conductors"]) == ("50.0", "Al", "2")
+    assert row["group_count"] == "5"
+    p = plan(site)
+    w = worked_circuit(p.circuits, p.segments, p.design, "AC:INV2")
+    length_km = float(row["cable_m"]) / 1e3
+    r90 = 0.641 * (1 + 4.03e-3 * 70)
+    r_ac = r90 * float(ac_over_dc(r90 / 1e3, 50.0, "Al", phases=1))
+    x = 0.180 / 2
+    drop_v = 2 * length_km * 50.0 * (r_ac * 0.9 + x * math.sqrt(1 - 0.81))
+    hand = {
+        "Operating current Ib": (20e3 / 400.0, "operating_current_a"),
+        "Breaker rating In": (50.0, "ac_breaker_a"),
+        "Design current": (max(50.0, 1.30 * 50 / 1.45), "design_current_a"),
+        "Tabulated capacity It": (126.0, "ampacity_base_a"),
+        "Depth factor kD": (1.0, "factor_depth"),
+        "Grouping factor kG": (0.60, "factor_group"),
+        "Capacity Iz": (126.0 * 0.60, "ampacity_a"),
+        "AC resistance R": (r_ac, None),
+        "Reactance X": (x, None),
+        "Voltage drop ΔU": (drop_v, "vdrop_v"),
+        "Voltage drop ΔU %": (100 * drop_v / 400.0, "vdrop_pct"),
+        "Loss P": (2 * 50.0**2 * r_ac * length_km, "loss_w"),
+    }
+    html = worked_html([w])
+    _check(w, _fragment_values(WorkedCalculation((w,), html))["AC:INV2"], row, hand)
+    assert "two cables touching" in w.step("AC resistance R").substituted
+    assert w.step("Voltage drop ΔU").formula == "ΔU = 2 · L · I · (R cos φ + X sin φ) / p"
+    with pytest.raises(KeyError):
+        worked_circuit(p.circuits, p.segments, p.design, "AC:NOWHERE")
