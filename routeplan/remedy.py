@@ -6,8 +6,9 @@ again on the same routes (:func:`calc.size_circuits`, the whole plan, so that tr
 settles as it would after the change) with the settings relaxed in turn, smallest change first:
 
 1. **sizes**: the size lists of the failing circuits' kinds and of their feeders' kinds
-   extended by every larger IEC 60228 size the rule set tabulates for that cable (:func:`calc.larger_sizes_mm2`); a circuit that passes is
-   given the size it was sized to: "passes with 16 mm² (add 16 to design.sizes_mm2.string)";
+   extended by every larger IEC 60228 size the rule set tabulates for that cable
+   (:func:`calc.larger_sizes_mm2`); a circuit that passes is given the size it was sized to:
+   "passes with 16 mm² (add 16 to design.sizes_mm2.string)";
 2. **parallel**: ``design.max_parallel`` at the highest value site.toml accepts (array,
    sub-array and AC cables; a string is one cable); a circuit that passes is given the sets
    it was sized to, the setting it needs: "passes with 3 × 300 mm² (design.max_parallel = 3)";
