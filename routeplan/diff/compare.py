@@ -520,6 +520,10 @@ def _same_segments(o: pd.DataFrame, n: pd.DataFrame) -> list[tuple[str, float, l
 
 
 # -- quantities and plant ----------------------------------------------------------------------
+#: how a bill line's id shows the key cells that are numbers of a device
+_UNITS = {"rating_a": "{} A", "poles": "{}-pole"}
+
+
 def quantity_rows(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
     """One diff.csv line per bill-of-quantities line whose quantity changed (added: absent
     before, removed: absent after, counted as 0)."""
@@ -538,7 +542,9 @@ def quantity_rows(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
             rows.append(
                 _row(
                     "quantity",
-                    " ".join(v for v in k if v),
+                    " ".join(
+                        _UNITS.get(c, "{}").format(v) for c, v in zip(keys, k, strict=True) if v
+                    ),
                     change,
                     "quantity",
                     f"{va:.2f}",
