@@ -296,6 +296,7 @@ def plan(
                 status.stop()
     if not quiet:
         failing = failing_lines(result.circuits, result.segments, result.inputs)
+        failing += bill_notes(result.quantities)
         _print_summary(result.summary, out_dir, failing)
         if cache is not None and cache.bypassed:
             out.print(f"cache: not used: {cache.bypassed}", markup=False)
@@ -486,6 +487,12 @@ def failing_lines(circuits, segments, inputs, first: int = FIRST_IDS) -> list[st
                 f"inverter DC inputs over a limit ({len(names):,}): {first_ids(names, first)}"
             )
     return lines
+
+
+def bill_notes(quantities) -> list[str]:
+    """The bill's notes, each once (a line whose rated voltage no designation covers)."""
+    notes = quantities["note"].dropna().astype(str) if "note" in quantities else []
+    return [f"quantities: {n}" for n in dict.fromkeys(notes) if n]
 
 
 def _num(v: float | None, digits: int) -> str:

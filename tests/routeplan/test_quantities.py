@@ -32,7 +32,7 @@ from routeplan.cli import app
 from routeplan.config import parse_design
 from routeplan.quantities import bill_of_quantities, data_table, voltage_class
 
-from ..conftest import base_frames, write_site
+from ..conftest import SITE_TOML, base_frames, write_site
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 runner = CliRunner()
@@ -317,3 +317,25 @@ def test_bill_of_a_small_site_single_or_three_phase(tmp_path, phases):
     check_trench(out, site, {"laying": design["laying"], "depth_m": design["depth_m"]})
     breaker = next(q for _, _, q in written_bill(out) if q["item"] == "AC breaker")
     assert breaker["poles"] == str(phases if phases == 3 else 2)  # L1 L2 L3, or L and N
+
+
+def test_a_plan_rated_above_the_pv_cable_says_so(tmp_path):
+    """dc_rated_v 1800 V: above EN 50618's 1.5 kV DC and the 1500 V DC scope of IEC 62852 and
+    IEC 60269-6 (from memory). The plan is made (the strings' Voc is within 1800 V); the bill's
+    string cable lines carry no designation and a note, which the command line prints once."""
+    site = write_site(tmp_path / "site", base_frames(), toml=SITE_TOML + "dc_rated_v = 1800\n")
+    result = runner.invoke(app, ["plan", str(site), "--out", str(tmp_path / "out"), "--no-cache"])
+    assert result.exit_code == 0, result.output
+    lines = result.stdout.splitlines()
+    assert (
+        "quantities: design.dc_rated_v 1800 V exceeds EN 50618's 1500 V DC rating: no PV cable "
+        "of that standard fits; specify a string cable rated for 1800 V DC"
+    ) in lines
+    assert (
+        "quantities: design.dc_rated_v 1800 V is beyond IEC 62852's 1500 V DC scope: check the "
+        "product"
+    ) in lines
+    bill = read_csv(tmp_path / "out" / "quantities.csv")
+    pv = [q for q in bill if q["item"] == "cable" and q["kind"] == "string"]
+    assert pv and all(q["designation"] == "" and q["note"] for q in pv)
+    assert float(pv[0]["quantity"]) > 0  # the metres stay
