@@ -15,8 +15,10 @@ from typing import Annotated, Any
 
 import click
 import typer
+from rich.cells import cell_len
 from rich.console import Console
 from rich.table import Table
+from rich.text import Text
 from typer.core import TyperGroup
 
 from layers import LayerError
@@ -354,25 +356,26 @@ def _print_table(
     by the terminal); piped or redirected, plain text columns without box characters and
     without a width limit. Cells are user text: shown with :func:`visible`."""
     rows = [[visible(c) for c in r] for r in rows]
-    widths = [max([len(h), *(len(r[j]) for r in rows)]) for j, h in enumerate(headers)]
+    widths = [max([cell_len(h), *(cell_len(r[j]) for r in rows)]) for j, h in enumerate(headers)]
     if not out.is_terminal:
         if title:
             out.print(visible(title), markup=False)
         for line in [headers, *rows]:
             cells = [
-                c.rjust(w) if h in right else c.ljust(w)
+                " " * (w - cell_len(c)) + c if h in right else c + " " * (w - cell_len(c))
                 for c, w, h in zip(line, widths, headers, strict=True)
             ]
             out.print("  ".join(cells).rstrip(), markup=False)
         return
-    # a rich table with a box: "│ " + cell + " " per column, and the closing "│"
+    # a rich table with a box: "│ " + cell + " " per column, and the closing "│"; cells as
+    # Text, so that brackets in user text are not read as rich markup
     if sum(widths) + 3 * len(widths) + 1 <= out.width:
-        table = Table(title=visible(title) if title else None, header_style="bold")
+        table = Table(title=Text(visible(title)) if title else None, header_style="bold")
         for h, w in zip(headers, widths, strict=True):
             table.add_column(h, justify="right" if h in right else "left", min_width=w)
             table.columns[-1].no_wrap = True
         for r in rows:
-            table.add_row(*r)
+            table.add_row(*(Text(c) for c in r))
         out.print(table)
         return
     if title:

@@ -254,3 +254,19 @@ def test_plan_lists_failing_ids(tmp_path):
     assert over  # every segment carries more than one circuit
     shown = ", ".join(over[:5]) + (f" … and {len(over) - 5} more" if len(over) > 5 else "")
     assert f"trench segments over capacity ({len(over)}): {shown}" in lines
+
+
+@pytest.mark.parametrize("terminal", [True, False])
+def test_table_cells_are_text_not_markup(monkeypatch, terminal):
+    """A layer source or site name from the user's files holding brackets or an escape is
+    shown as written (rich markup not applied, control characters as \\xNN), on a terminal
+    and piped."""
+    term = cli._Terminal(
+        highlight=False, soft_wrap=True, force_terminal=terminal, width=120, color_system=None
+    )
+    monkeypatch.setattr(cli, "out", term)
+    with term.capture() as captured:
+        cli._print_table("[bold]S", ["layer", "source"], [["rows", "gis/[red]r\x1b.shp"]], set())
+    text = captured.get()
+    assert text.splitlines()[0] == "[bold]S"
+    assert "gis/[red]r\\x1b.shp" in text and "\x1b" not in text
