@@ -5,11 +5,17 @@ per row on a narrow terminal — and, after ``plan``, the failing ids per kind."
 
 from __future__ import annotations
 
+import fcntl
 import itertools
 import json
 import os
+import pty
+import re
+import select
+import struct
 import subprocess
 import sys
+import termios
 from importlib.metadata import version
 from pathlib import Path
 
@@ -270,3 +276,59 @@ def test_table_cells_are_text_not_markup(monkeypatch, terminal):
     text = captured.get()
     assert text.splitlines()[0] == "[bold]S"
     assert "gis/[red]r\\x1b.shp" in text and "\x1b" not in text
+
+
+def run_in_terminal(args: list[str], columns: int) -> str:
+    """``python -m routeplan.cli ARGS`` on a pseudo-terminal ``columns`` wide (pty, its size
+    set with TIOCSWINSZ): the output as the terminal shows it — escape sequences removed, each
+    line as left after its last carriage return (the progress spinner's)."""
+    master, slave = pty.openpty()
+    fcntl.ioctl(slave, termios.TIOCSWINSZ, struct.pack("HHHH", 24, columns, 0, 0))
+    env = {**os.environ, "PYTHONPATH": str(ROOT), "COLUMNS": str(columns), "TERM": "xterm"}
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "routeplan.cli", *args],
+        cwd=ROOT,
+        env=env,
+        stdin=slave,
+        stdout=slave,
+        stderr=slave,
+        close_fds=True,
+    )
+    os.close(slave)
+    chunks = []
+    while select.select([master], [], [], 120)[0]:
+        try:
+            data = os.read(master, 65536)
+        except OSError:  # the child closed the terminal
+            break
+        if not data:
+            break
+        chunks.append(data)
+    assert proc.wait(timeout=120) == 0
+    os.close(master)
+    text = re.sub(r"\x1b\[[0-9;?]*[A-Za-z]", "", b"".join(chunks).decode("utf-8"))
+    return "\n".join(x.split("\r")[-1] for x in text.replace("\r\n", "\n").split("\n"))
+
+
+@pytest.mark.parametrize("columns", [60, 120])
+def test_summary_on_a_real_terminal(tmp_path, columns):
+    out = tmp_path / "out"
+    shown = run_in_terminal(["plan", str(DEMO), "--out", str(out), "--no-cache"], columns)
+    summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    lines = shown.splitlines()
+    i = lines.index("Cerro Pardo Solar (demo, 6 MWdc) — plan")
+    _, *rows = [r.split() for r in expected_rows(summary)]
+    if columns == 60:  # the table needs 101 columns: one line per kind, never cut
+        for k, (kind, k_row) in enumerate(zip(summary["circuits"], rows, strict=True)):
+            assert lines[i + 1 + k] == (
+                f"{kind}: circuits {k_row[1]}, fail {k_row[2]}, capacity {k_row[3]}, drop "
+                f"{k_row[4]}, other {k_row[5]}, worst drop % {k_row[6]}, worst utilisation "
+                f"{k_row[7]}, loss kW {k_row[8]}"
+            )
+    else:  # a boxed table, every header whole
+        assert [c.strip() for c in lines[i + 2].split("┃")[1:-1]] == [
+            "kind", "circuits", "fail", "capacity", "drop", "other", "worst drop %",
+            "worst utilisation", "loss kW",
+        ]  # fmt: skip
+        assert [c.strip() for c in lines[i + 4].split("│")[1:-1]] == rows[0]
+    assert "…" not in shown
