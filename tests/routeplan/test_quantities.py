@@ -339,3 +339,24 @@ def test_a_plan_rated_above_the_pv_cable_says_so(tmp_path):
     pv = [q for q in bill if q["item"] == "cable" and q["kind"] == "string"]
     assert pv and all(q["designation"] == "" and q["note"] for q in pv)
     assert float(pv[0]["quantity"]) > 0  # the metres stay
+
+
+def test_the_diff_matches_sizes_written_the_earlier_way():
+    """An earlier version wrote sizes "10.0": its cable line is this version's "10" line (only
+    the metres' change is listed, named as the newer bill writes it); a line only in the old
+    bill is named as written there."""
+    from routeplan.diff.compare import quantity_rows
+
+    def bill(*lines: tuple[str, str, str]) -> pd.DataFrame:
+        cols = ["item", "kind", "material", "size_mm2", "laying", "depth_m", "unit"]
+        cols += ["rating_a", "poles", "quantity"]
+        rows = [[item, "string", "Cu", size, "", "", "m", "", "", q] for item, size, q in lines]
+        return pd.DataFrame(rows, columns=cols)
+
+    old = bill(("cable", "10.0", "100.00"), ("cable", "6.0", "5.00"), ("cable", "4.0", "7.00"))
+    new = bill(("cable", "10", "110.00"), ("cable", "6", "5.00"))
+    rows = [(r["id"], r["change"], r["old"], r["new"]) for r in quantity_rows(old, new)]
+    assert rows == [
+        ("cable string Cu 10 m", "changed", "100.00", "110.00"),
+        ("cable string Cu 4.0 m", "removed", "7.00", "0.00"),
+    ]
