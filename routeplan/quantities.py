@@ -77,7 +77,6 @@ _FUSE_ITEMS = (
     ("subarray", "array_fuse_a", "sub-array fuse"),
     ("array", "array_fuse_a", "array fuse"),
 )
-_INSULATION_WORDS = {"XLPE": "XLPE", "PVC": "PVC"}
 
 
 @functools.cache
@@ -161,7 +160,7 @@ def _cable_line(
         need = f"{dc_v:g} V DC to earth and between conductors"
     line = {
         "conductor_class": 2,
-        "insulation": _INSULATION_WORDS.get(insulation, insulation),
+        "insulation": insulation,
         "standard": "IEC 60502-1",
         "source": _source(d),
         "tag": d["tag"],
