@@ -13,9 +13,13 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Annotated, Any
 
+import click
 import typer
+from rich.cells import cell_len
 from rich.console import Console
 from rich.table import Table
+from rich.text import Text
+from typer.core import TyperGroup
 
 from layers import LayerError
 
@@ -42,7 +46,21 @@ ForceOption = Annotated[
     ),
 ]
 
+
+class _Commands(TyperGroup):
+    """The command group: a command's help in the list of commands is its docstring's first
+    paragraph as one line (rich would keep the docstring's own line breaks there, breaking
+    sentences in the middle at any terminal width)."""
+
+    def get_command(self, ctx: click.Context, cmd_name: str) -> click.Command | None:
+        command = super().get_command(ctx, cmd_name)
+        if command is not None and command.short_help is None and command.help:
+            command.short_help = " ".join(command.help.split("\n\n")[0].split())
+        return command
+
+
 app = typer.Typer(
+    cls=_Commands,
     add_completion=False,
     no_args_is_help=True,
     context_settings={"help_option_names": ["-h", "--help"]},
@@ -161,13 +179,12 @@ def check(
     s = report.site
     out.print(f"site     {s.name}", markup=False)
     out.print(f"CRS      {s.crs_note}", markup=False)
-    table = Table(show_header=True, header_style="bold", box=None)
-    table.add_column("layer")
-    table.add_column("features", justify="right")
-    table.add_column("source")
-    for name, n in report.counts.items():
-        table.add_row(name, str(n), visible(s.sources.get(name, "-")))
-    out.print(table)
+    _print_table(
+        None,
+        ["layer", "features", "source"],
+        [[name, str(n), s.sources.get(name, "-")] for name, n in report.counts.items()],
+        right={"features"},
+    )
     out.print(
         f"strings  {report.strings}  ({report.dc_kw / 1000:.2f} MWdc; inverters "
         f"{report.ac_kva / 1000:.2f} MVA)",
@@ -280,7 +297,9 @@ def plan(
             if status:
                 status.stop()
     if not quiet:
-        _print_summary(result.summary, out_dir)
+        failing = failing_lines(result.circuits, result.segments, result.inputs)
+        failing += bill_notes(result.quantities)
+        _print_summary(result.summary, out_dir, failing)
         if cache is not None and cache.bypassed:
             out.print(f"cache: not used: {cache.bypassed}", markup=False)
         elif result.cache is not None:
@@ -315,22 +334,60 @@ def _cache_line(cache) -> str:
     return line
 
 
-def _print_summary(summary: dict, out_dir: Path) -> None:
-    table = Table(title=visible(f"{summary['site']['name']} — plan"), header_style="bold")
-    for col in (
-        "kind",
-        "circuits",
-        "fail",
-        "capacity",
-        "drop",
-        "other",
-        "worst drop %",
-        "worst utilisation",
-        "loss kW",
-    ):
-        table.add_column(col, justify="left" if col == "kind" else "right")
-    for kind, k in summary["circuits"].items():
-        table.add_row(
+#: the plan summary's columns
+SUMMARY_HEADERS = [
+    "kind",
+    "circuits",
+    "fail",
+    "capacity",
+    "drop",
+    "other",
+    "worst drop %",
+    "worst utilisation",
+    "loss kW",
+]
+
+
+def _print_table(
+    title: str | None, headers: list[str], rows: list[list[str]], right: set[str]
+) -> None:
+    """A table that is never cut: on a terminal wide enough, a rich table whose columns keep
+    their full width; on a narrower one, one line per row (``first: header value, …``, wrapped
+    by the terminal); piped or redirected, plain text columns without box characters and
+    without a width limit. Cells are user text: shown with :func:`visible`."""
+    rows = [[visible(c) for c in r] for r in rows]
+    widths = [max([cell_len(h), *(cell_len(r[j]) for r in rows)]) for j, h in enumerate(headers)]
+    if not out.is_terminal:
+        if title:
+            out.print(visible(title), markup=False)
+        for line in [headers, *rows]:
+            cells = [
+                " " * (w - cell_len(c)) + c if h in right else c + " " * (w - cell_len(c))
+                for c, w, h in zip(line, widths, headers, strict=True)
+            ]
+            out.print("  ".join(cells).rstrip(), markup=False)
+        return
+    # a rich table with a box: "│ " + cell + " " per column, and the closing "│"; cells as
+    # Text, so that brackets in user text are not read as rich markup
+    if sum(widths) + 3 * len(widths) + 1 <= out.width:
+        table = Table(title=Text(visible(title)) if title else None, header_style="bold")
+        for h, w in zip(headers, widths, strict=True):
+            table.add_column(h, justify="right" if h in right else "left", min_width=w)
+            table.columns[-1].no_wrap = True
+        for r in rows:
+            table.add_row(*(Text(c) for c in r))
+        out.print(table)
+        return
+    if title:
+        out.print(visible(title), markup=False)
+    for r in rows:
+        pairs = ", ".join(f"{h} {c}" for h, c in zip(headers[1:], r[1:], strict=True))
+        out.print(f"{r[0]}: {pairs}", markup=False)
+
+
+def _print_summary(summary: dict, out_dir: Path, failing: list[str] | None = None) -> None:
+    rows = [
+        [
             kind,
             str(k["circuits"]),
             str(k["fail"]),
@@ -340,8 +397,11 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
             _num(k["worst_vdrop_pct"], 3),
             _num(k["worst_utilisation"], 3),
             _num(k["loss_w"] / 1000, 2),
-        )
-    out.print(table)
+        ]
+        for kind, k in summary["circuits"].items()
+    ]
+    title = f"{summary['site']['name']} — plan"
+    _print_table(title, SUMMARY_HEADERS, rows, right=set(SUMMARY_HEADERS[1:]))
     w = summary["worst_vdrop_pct"]
     lim = summary["drop_limits_pct"]
     sub = ""
@@ -378,6 +438,8 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
             f"assigned: {a['id']} → {a['to']} ({a['rule']}, route {a['route_m']:.1f} m)",
             markup=False,
         )
+    for line in failing or []:
+        out.print(line, markup=False)
     out.print(f"outputs: {out_dir}", markup=False)
     out.print(
         "result: "
@@ -389,6 +451,51 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
         markup=False,
     )
     out.print(CAUTION, markup=False)
+
+
+#: failing ids listed per kind before "… and N more"
+FIRST_IDS = 5
+
+
+def first_ids(ids: list[str], first: int = FIRST_IDS) -> str:
+    """The first ``first`` ids, comma-separated, then how many more.
+
+    >>> first_ids(["R1/S1", "R1/S2", "R2/S1"], 2)
+    'R1/S1, R1/S2 … and 1 more'
+    """
+    shown = ", ".join(visible(i) for i in ids[:first])
+    more = len(ids) - first
+    return shown + (f" … and {more:,} more" if more > 0 else "")
+
+
+def failing_lines(circuits, segments, inputs, first: int = FIRST_IDS) -> list[str]:
+    """What fails, by id, in schedule order: the first failing circuits of each kind, the
+    trench segments over capacity and the inverter DC inputs over a limit (one line each,
+    none when nothing fails)."""
+    lines = []
+    kinds = circuits["kind"].to_numpy(dtype=object)
+    bad = (circuits["status"] != "ok").to_numpy()
+    for kind in dict.fromkeys(kinds[bad].tolist()):
+        ids = circuits["circuit_id"].to_numpy(dtype=object)[bad & (kinds == kind)].tolist()
+        lines.append(f"failing {kind} circuits ({len(ids):,}): {first_ids(ids, first)}")
+    over = segments.loc[segments["status"] != "ok", "segment_id"].astype(str).tolist()
+    if over:
+        lines.append(f"trench segments over capacity ({len(over):,}): {first_ids(over, first)}")
+    if len(inputs):
+        bad_inputs = inputs[inputs["status"] != "ok"]
+        pairs = zip(bad_inputs["inverter_id"], bad_inputs["input"], strict=True)
+        names = [f"{i} input {n}" for i, n in pairs]
+        if names:
+            lines.append(
+                f"inverter DC inputs over a limit ({len(names):,}): {first_ids(names, first)}"
+            )
+    return lines
+
+
+def bill_notes(quantities) -> list[str]:
+    """The bill's notes, each once (a line whose rated voltage no designation covers)."""
+    notes = quantities["note"].dropna().astype(str) if "note" in quantities else []
+    return [f"quantities: {n}" for n in dict.fromkeys(notes) if n]
 
 
 def _num(v: float | None, digits: int) -> str:

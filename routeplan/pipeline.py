@@ -30,6 +30,7 @@ from .check import load
 from .config import DESIGN_KEYS, DesignConfig, parse_design
 from .errors import DesignError, Problem
 from .inputs import INPUT_COLUMNS, assign_inputs, input_table, landing_input
+from .quantities import bill_of_quantities
 from .remedy import remedies
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
 
@@ -628,60 +629,15 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
 def quantity_table(
     circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignConfig
 ) -> pd.DataFrame:
-    """Bill of quantities: cable metres by kind, material and size (× conductors, allowances
-    included), trench metres by laying and depth, terminations (one per conductor end), string
-    and array fuses (one per pole of each protected circuit: unearthed PV arrays are protected
-    in both poles — IEC 62548, from memory) and AC breakers (one per AC circuit)."""
-    c = circuits.assign(
-        cable_total_m=circuits["cable_m"] * circuits["conductors"],
-        ends=2 * circuits["conductors"],
-    )
-    keys = ["kind", "material", "size_mm2"]
-    cable = c.groupby(keys, sort=False)["cable_total_m"].sum().reset_index()
-    cable = cable.assign(item="cable", quantity=cable["cable_total_m"], unit="m")
-    ends = c.groupby(keys, sort=False)["ends"].sum().reset_index()
-    ends = ends.assign(item="termination", quantity=ends["ends"].astype(float), unit="pcs")
-    trench = segments.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
-    trench = trench.assign(item="trench", quantity=trench["length_m"], unit="m")
-    breaker = "{:g} A " + design.values["ac_breaker_device"]
-    devices = [
-        _devices(c, "fuse_a", "string fuse", "string", 2.0, "{:g} A gPV"),
-        _devices(
-            c[c["kind"] == "subarray"],
-            "array_fuse_a",
-            "sub-array fuse",
-            "subarray",
-            2.0,
-            "{:g} A gPV",
-        ),
-        _devices(c[c["kind"] == "array"], "array_fuse_a", "array fuse", "array", 2.0, "{:g} A gPV"),
-        _devices(c, "ac_breaker_a", "AC breaker", "ac", 1.0, breaker),
-    ]
-    cols = ["item", "kind", "material", "size_mm2", "laying", "depth_m", "quantity", "unit"]
-    out = pd.concat([cable, ends, trench, *devices], ignore_index=True).reindex(columns=cols)
-    order = {"cable": 0, "termination": 1, "trench": 2, "string fuse": 3, "sub-array fuse": 4}
-    order.update({"array fuse": 5, "AC breaker": 6})
-    kind_order = {"string": 0, "subarray": 1, "array": 2, "ac": 3}
-    out = out.assign(_i=out["item"].map(order), _k=out["kind"].map(kind_order).fillna(9))
-    out = out.sort_values(
-        ["_i", "_k", "material", "size_mm2", "laying", "depth_m"], na_position="last"
-    )
-    return out.drop(columns=["_i", "_k"]).reset_index(drop=True)
-
-
-def _devices(
-    c: pd.DataFrame, column: str, item: str, kind: str, per_circuit: float, label: str
-) -> pd.DataFrame:
-    """Protective devices of the bill: ``per_circuit`` of each rating in ``column``."""
-    rated = c[np.isfinite(c[column].to_numpy(dtype=float))]
-    counts = rated.groupby(column).size().reset_index(name="n")
-    return counts.assign(
-        item=item,
-        kind=kind,
-        size_mm2=np.nan,
-        quantity=per_circuit * counts["n"],
-        unit="pcs",
-        material=counts[column].map(label.format),
+    """Bill of quantities for purchasing (:func:`routeplan.quantities.bill_of_quantities`):
+    cable types with their designation by open standard and conductor metres (allowances
+    included), lugs and PV connectors per size, fuses and breakers by rating, trench metres by
+    laying and depth, a total per item family."""
+    return bill_of_quantities(
+        circuits,
+        segments,
+        float(design.values["dc_rated_v"]),
+        str(design.values["ac_breaker_device"]),
     )
 
 

@@ -521,25 +521,44 @@ def _same_segments(o: pd.DataFrame, n: pd.DataFrame) -> list[tuple[str, float, l
 
 
 # -- quantities and plant ----------------------------------------------------------------------
+#: how a bill line's id shows the key cells that are numbers of a device
+_UNITS = {"rating_a": "{} A", "poles": "{}-pole"}
+
+
 def quantity_rows(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
     """One diff.csv line per bill-of-quantities line whose quantity changed (added: absent
-    before, removed: absent after, counted as 0)."""
+    before, removed: absent after, counted as 0). Lines are matched by their key with the
+    numbers in it compared as numbers (a size written ``10.0`` by an earlier version is the
+    line ``10``); the id shows the key as the newer file writes it."""
     keys = list(QUANTITY_KEYS)
+    numeric = [c in NUMBER_FIELDS for c in keys]
 
-    def by_key(frame: pd.DataFrame) -> dict[tuple[str, ...], float]:
+    def match(k: tuple[str, ...]) -> tuple[str, ...]:
+        return tuple(repr(float(v)) if n and v else v for v, n in zip(k, numeric, strict=True))
+
+    def by_key(frame: pd.DataFrame) -> tuple[dict, dict]:
         values = pd.to_numeric(frame["quantity"]).to_numpy(dtype=float).tolist()
-        return dict(zip(frame[keys].itertuples(index=False, name=None), values, strict=True))
+        total: dict[tuple[str, ...], float] = {}
+        shown: dict[tuple[str, ...], tuple[str, ...]] = {}
+        for k, v in zip(frame[keys].itertuples(index=False, name=None), values, strict=True):
+            m = match(k)
+            total[m] = total.get(m, 0.0) + v
+            shown.setdefault(m, k)
+        return total, shown
 
-    a, b = by_key(old), by_key(new)
+    (a, shown_a), (b, shown_b) = by_key(old), by_key(new)
     rows = []
     for k in sorted(set(a) | set(b)):
         va, vb = a.get(k, 0.0), b.get(k, 0.0)
         if round(va - vb, 2) != 0:
             change = "added" if k not in a else "removed" if k not in b else "changed"
+            cells = shown_b.get(k) or shown_a[k]
             rows.append(
                 _row(
                     "quantity",
-                    " ".join(v for v in k if v),
+                    " ".join(
+                        _UNITS.get(c, "{}").format(v) for c, v in zip(keys, cells, strict=True) if v
+                    ),
                     change,
                     "quantity",
                     f"{va:.2f}",

@@ -81,7 +81,12 @@ QUANTITY_KEYS: tuple[str, ...] = (
     "laying",
     "depth_m",
     "unit",
+    "rating_a",
+    "poles",
 )
+#: key columns a bill may lack (one written before devices had their own rating column): read
+#: as empty
+QUANTITY_OPTIONAL: frozenset[str] = frozenset({"rating_a", "poles"})
 #: columns read as numbers: a cell is empty or a decimal number
 NUMBER_FIELDS: frozenset[str] = frozenset(
     {
@@ -115,6 +120,8 @@ NUMBER_FIELDS: frozenset[str] = frozenset(
         "group_factor",
         "depth_m",
         "quantity",
+        "rating_a",
+        "poles",
     }
 )
 
@@ -135,6 +142,8 @@ class Table:
     #: (column, value, other column): ``other column`` must be filled where ``column`` is
     #: ``value`` (a cable line of the bill has a size)
     filled_where: tuple[tuple[str, str, str], ...] = ()
+    #: columns read as empty where the file lacks them
+    optional: frozenset[str] = frozenset()
 
     @property
     def columns(self) -> tuple[str, ...]:
@@ -157,6 +166,7 @@ QUANTITIES = Table(
     ("quantity",),
     ("quantity",),
     (("item", "cable", "size_mm2"), ("item", "cable", "material"), ("item", "cable", "kind")),
+    QUANTITY_OPTIONAL,
 )
 #: columns an earlier version's schedules lack
 EARLIER_LACKS: frozenset[str] = frozenset(
@@ -199,7 +209,8 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
         header = next(reader)
     except csv.Error as exc:
         raise DiffError(f"{where}: line {reader.line_num}: not valid CSV ({exc})") from None
-    missing = [c for c in table.columns if c not in header]
+    absent = [c for c in table.columns if c in table.optional and c not in header]
+    missing = [c for c in table.columns if c not in header and c not in absent]
     if missing:
         names = ", ".join(missing)
         if EARLIER_LACKS.intersection(missing) and table.key[0] not in missing:
@@ -209,7 +220,11 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
     if twice:
         raise DiffError(f"{where}: column {', '.join(twice)} appears more than once")
     width = len(header)
-    pick = operator.itemgetter(*(header.index(c) for c in table.columns))
+    # an absent optional column reads the empty field put after each record
+    at = {c: header.index(c) if c in header else width for c in table.columns}
+    pick = operator.itemgetter(*(at[c] for c in table.columns))
+    if absent:
+        get, pick = pick, lambda record: get((*record, ""))
     kept: list[tuple[str, ...]] = []  # the fields needed, record by record (the rest dropped)
     blank = -1  # the first blank line's record, when only blank lines followed it so far
     try:
@@ -252,7 +267,7 @@ def parse_schedule(data: bytes, table: Table, where: str) -> pd.DataFrame:
         if empty.any():
             at = _line(text, int(np.argmax(empty)))
             raise DiffError(f"{where}: line {at}: column {need}: empty on a {value} line")
-    _check_unique(frame, table, where, text)
+    _check_unique(frame, table, where, text, absent)
     return frame
 
 
@@ -309,9 +324,11 @@ def _check_numbers(values: np.ndarray, column: str, where: str, text: str, *, fi
         raise DiffError(f"{where}: line {_line(text, i)}: column {column}: {what}")
 
 
-def _check_unique(frame: pd.DataFrame, table: Table, where: str, text: str) -> None:
-    """No two rows with the same key."""
-    key = list(table.key)
+def _check_unique(
+    frame: pd.DataFrame, table: Table, where: str, text: str, absent: list[str] = ()
+) -> None:
+    """No two rows with the same key (named by the key columns the file has)."""
+    key = [k for k in table.key if k not in absent]
     dup = frame.duplicated(key, keep=False).to_numpy()
     if not dup.any():
         return

@@ -142,14 +142,34 @@ INPUT_COLUMNS: tuple[Col, ...] = (
 )
 
 QUANTITY_COLUMNS: tuple[Col, ...] = (
-    Col("item", doc="cable, trench, termination or fuse"),
-    Col("kind", doc="circuit kind (cable, termination)"),
-    Col("material"),
-    Col("size_mm2", "mm²", 1),
+    Col(
+        "item",
+        doc="cable, termination, connector pair, trench, string/sub-array/array fuse, AC "
+        "breaker, or '<family> total'",
+    ),
+    Col("kind", doc="circuit kind (cable, termination, connector pair, fuse, breaker)"),
+    Col("material", doc="conductor material, Cu or Al (cable, termination, connector pair)"),
+    Col("size_mm2", "mm²", None, "conductor cross-section (cable, termination, connector pair)"),
     Col("laying", doc="trench laying (trench)"),
     Col("depth_m", "m", 2, "trench depth (trench)"),
-    Col("quantity", "", 2, "metres (cable, trench) or count"),
+    Col("quantity", "", 2, "conductor metres (cable), trench metres (trench) or pieces"),
     Col("unit", doc="m or pcs"),
+    # -- beyond the contract
+    Col("rating_a", "A", None, "rated current In (fuse, breaker)"),
+    Col("poles", "", None, "poles (breaker)"),
+    Col(
+        "family",
+        doc="item family: cable, termination, connector, trench, fuse, breaker (its total last)",
+    ),
+    Col("designation", doc="what to order, by open standard (no maker's code)"),
+    Col("cores_x_size", doc="cores × conductor size [mm²]"),
+    Col("conductor_class", "", None, "IEC 60228 conductor class"),
+    Col("insulation", doc="insulation (cable)"),
+    Col("rated_voltage", doc="rated voltage: U0/U (Um) of a cable, or the device's"),
+    Col("standard", doc="the standard the designation follows"),
+    Col("source", doc="standard, edition and clause the designation's text rests on"),
+    Col("tag", doc="memory: recalled, verify against the edition in force; common practice"),
+    Col("note", doc="where no designation fits the plan's rated voltage, why"),
 )
 
 

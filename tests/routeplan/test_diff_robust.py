@@ -184,8 +184,8 @@ DAMAGE = {
     ),
     "duplicate quantity": (
         duplicate_row(QTY, 1),
-        f"{QTY}: item, kind, material, size_mm2, laying, depth_m, unit "
-        "('cable', 'string', 'Cu', '4.0', '', '', 'm') on lines 2 and 3",
+        f"{QTY}: item, kind, material, size_mm2, laying, depth_m, unit, rating_a, poles "
+        "('cable', 'string', 'Cu', '4', '', '', 'm', '', '') on lines 2 and 3",
     ),
     "not a CSV (binary)": (
         write_bytes(CABLE, b"\x1f\x8b\x08\x00" + bytes(range(256))),
@@ -325,8 +325,8 @@ def test_a_real_change_is_listed(plans, tmp_path):
         pd.read_csv(plans["base"] / CABLE).set_index("circuit_id").at["R2/S3", "cable_m"]
     )
     q = d[d["section"] == "quantity"].set_index("id")
-    assert float(q.at["cable string Cu 4.0 m", "delta"]) == pytest.approx(-2 * cable_m, abs=0.005)
-    assert q.loc["string fuse string 20 A gPV pcs", ["old", "new", "delta"]].tolist() == [
+    assert float(q.at["cable string Cu 4 m", "delta"]) == pytest.approx(-2 * cable_m, abs=0.005)
+    assert q.loc["string fuse string pcs 20 A", ["old", "new", "delta"]].tolist() == [
         "10.00", "8.00", "-2.00",
     ]  # fmt: skip  # hand: 5 strings × 2 poles before, 4 × 2 after
 

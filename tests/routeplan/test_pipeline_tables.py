@@ -176,10 +176,17 @@ def hand_circuits() -> pd.DataFrame:
         {
             "circuit_id": ["S1", "S2", "S3", "U1", "A1", "A2", "AC1"],
             "kind": ["string", "string", "string", "subarray", "array", "array", "ac"],
+            # S1, S2 land on combiner CB1 (which feeds CB2), S3 on the inverter's DC input
+            "from_id": ["R1", "R1", "R2", "CB1", "CB2", "CB3", "INV1"],
+            "to_id": ["CB1", "CB1", "INV1", "CB2", "INV1", "INV1", "G1"],
             "material": ["Cu", "Cu", "Cu", "Al", "Cu", "Cu", "Al"],
             "size_mm2": [4.0, 4.0, 6.0, 16.0, 95.0, 95.0, 240.0],
             "cable_m": [10.0, 20.5, 30.0, 40.004, 100.0, 50.0, 200.0],
+            "parallel": [1, 1, 1, 1, 1, 2, 1],
             "conductors": [2, 2, 2, 2, 2, 4, 3],
+            "insulation": ["PV", "PV", "PV", "XLPE", "XLPE", "XLPE", "XLPE"],
+            "voltage_v": [1150.0] * 6 + [800.0],
+            "design_current_a": [15.0, 15.0, 20.0, 60.0, 120.0, 200.0, 400.0],
             "fuse_a": [15.0, 15.0, 20.0, nan, nan, nan, nan],
             "array_fuse_a": [nan, nan, nan, 63.0, 125.0, nan, nan],
             "ac_breaker_a": [nan, nan, nan, nan, nan, nan, 400.0],
@@ -209,36 +216,60 @@ def test_bill_of_quantities_counted_by_hand():
     # kinds in the order string, sub-array, array, AC whatever their materials (the sub-array
     # cable is Al, the array cable Cu), and whatever the order of the circuits
     bill = quantity_table(hand_circuits().iloc[::-1], hand_segments(), DESIGN)
-    assert list(bill.columns) == [
+    assert list(bill.columns)[:10] == [
         "item", "kind", "material", "size_mm2", "laying", "depth_m", "quantity", "unit",
+        "rating_a", "poles",
     ]  # fmt: skip
     rows = [
-        (r.item, r.kind, r.material, r.size_mm2, r.laying, r.depth_m, r.quantity, r.unit)
+        (r.item, r.kind, r.material, r.size_mm2, r.laying, r.depth_m, r.quantity, r.unit,
+         r.rating_a, r.poles)
         for r in bill.astype(object).where(bill.notna(), None).itertuples(index=False)
-    ]
+    ]  # fmt: skip
+    n = None
     assert rows == [
-        # cable: metres x conductors, by kind, material and size
-        ("cable", "string", "Cu", 4.0, None, None, (10.0 + 20.5) * 2, "m"),
-        ("cable", "string", "Cu", 6.0, None, None, 30.0 * 2, "m"),
-        ("cable", "subarray", "Al", 16.0, None, None, 40.004 * 2, "m"),
-        ("cable", "array", "Cu", 95.0, None, None, 100.0 * 2 + 50.0 * 4, "m"),
-        ("cable", "ac", "Al", 240.0, None, None, 200.0 * 3, "m"),
-        # terminations: one per conductor end (2 ends x conductors)
-        ("termination", "string", "Cu", 4.0, None, None, 8.0, "pcs"),
-        ("termination", "string", "Cu", 6.0, None, None, 4.0, "pcs"),
-        ("termination", "subarray", "Al", 16.0, None, None, 4.0, "pcs"),
-        ("termination", "array", "Cu", 95.0, None, None, 12.0, "pcs"),
-        ("termination", "ac", "Al", 240.0, None, None, 6.0, "pcs"),
+        # cable: metres x conductors, by kind, material and size; then the family's total
+        ("cable", "string", "Cu", 4.0, n, n, (10.0 + 20.5) * 2, "m", n, n),
+        ("cable", "string", "Cu", 6.0, n, n, 30.0 * 2, "m", n, n),
+        ("cable", "subarray", "Al", 16.0, n, n, 40.004 * 2, "m", n, n),
+        ("cable", "array", "Cu", 95.0, n, n, 100.0 * 2 + 50.0 * 4, "m", n, n),
+        ("cable", "ac", "Al", 240.0, n, n, 200.0 * 3, "m", n, n),
+        ("cable total", n, n, n, n, n, 61.0 + 60.0 + 80.008 + 400.0 + 600.0, "m", n, n),
+        # lugs: feeders 2 ends x conductors; strings to a combiner 1 end (the row end takes a
+        # PV connector), S3 to the inverter none
+        ("termination", "string", "Cu", 4.0, n, n, 2.0 + 2.0, "pcs", n, n),
+        ("termination", "subarray", "Al", 16.0, n, n, 4.0, "pcs", n, n),
+        ("termination", "array", "Cu", 95.0, n, n, 2 * (2 + 4), "pcs", n, n),
+        ("termination", "ac", "Al", 240.0, n, n, 6.0, "pcs", n, n),
+        ("termination total", n, n, n, n, n, 4.0 + 4.0 + 12.0 + 6.0, "pcs", n, n),
+        # PV connector pairs: one per conductor at the row; S3 one more at the inverter
+        ("connector pair", "string", "Cu", 4.0, n, n, 2.0 + 2.0, "pcs", n, n),
+        ("connector pair", "string", "Cu", 6.0, n, n, 2 * 2, "pcs", n, n),
+        ("connector pair total", n, n, n, n, n, 8.0, "pcs", n, n),
         # trench metres by laying and depth
-        ("trench", None, None, None, "direct", 0.8, 20.0, "m"),
-        ("trench", None, None, None, "duct", 0.7, 40.0, "m"),
+        ("trench", n, n, n, "direct", 0.8, 20.0, "m", n, n),
+        ("trench", n, n, n, "duct", 0.7, 40.0, "m", n, n),
+        ("trench total", n, n, n, n, n, 60.0, "m", n, n),
         # fuses: one per pole (2) of each protected circuit, by rating
-        ("string fuse", "string", "15 A gPV", None, None, None, 4.0, "pcs"),
-        ("string fuse", "string", "20 A gPV", None, None, None, 2.0, "pcs"),
-        ("sub-array fuse", "subarray", "63 A gPV", None, None, None, 2.0, "pcs"),
-        ("array fuse", "array", "125 A gPV", None, None, None, 2.0, "pcs"),
-        # breakers: one per AC circuit, named with the design's device kind
-        ("AC breaker", "ac", "400 A iec60947-2", None, None, None, 1.0, "pcs"),
+        ("string fuse", "string", n, n, n, n, 4.0, "pcs", 15.0, n),
+        ("string fuse", "string", n, n, n, n, 2.0, "pcs", 20.0, n),
+        ("sub-array fuse", "subarray", n, n, n, n, 2.0, "pcs", 63.0, n),
+        ("array fuse", "array", n, n, n, n, 2.0, "pcs", 125.0, n),
+        ("fuse total", n, n, n, n, n, 10.0, "pcs", n, n),
+        # breakers: one per AC circuit, by rating and poles (3 conductors / 1 set)
+        ("AC breaker", "ac", n, n, n, n, 1.0, "pcs", 400.0, 3.0),
+        ("breaker total", n, n, n, n, n, 1.0, "pcs", n, n),
+    ]
+    devices = bill[bill["family"].isin(["fuse", "breaker"]) & bill["kind"].notna()]
+    assert devices["designation"].tolist() == [
+        "gPV fuse-link, IEC 60269-6, In 15 A, rated voltage ≥ 1500 V DC; body size and holder "
+        "to suit the combiner",
+        "gPV fuse-link, IEC 60269-6, In 20 A, rated voltage ≥ 1500 V DC; body size and holder "
+        "to suit the combiner",
+        "gPV fuse-link, IEC 60269-6, In 63 A, rated voltage ≥ 1500 V DC; body size and holder "
+        "to suit the combiner",
+        "gPV fuse-link, IEC 60269-6, In 125 A, rated voltage ≥ 1500 V DC; body size and holder "
+        "to suit the combiner",
+        "circuit-breaker, IEC 60947-2, In 400 A, 3-pole, rated operational voltage Ue ≥ 800 V AC",
     ]
 
 

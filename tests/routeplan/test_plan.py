@@ -66,11 +66,14 @@ def test_file_set_and_contract_columns(demo_out):
     assert set(q["item"]) == {
         "cable",
         "termination",
+        "connector pair",
         "trench",
         "string fuse",
         "sub-array fuse",
         "array fuse",
         "AC breaker",
+        *(f"{family} total" for family in ("cable", "termination", "connector pair")),
+        *(f"{family} total" for family in ("trench", "fuse", "breaker")),
     }
     # the demo collects DC three ways: combiners, recombiners (sub-arrays), string inverters
     assert set(sched["kind"]) == {"string", "subarray", "array", "ac"}

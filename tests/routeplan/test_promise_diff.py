@@ -174,7 +174,12 @@ def test_trench_segments_whose_counts_changed(plans):
 
 def quantity_key(r: dict[str, str]) -> tuple[str, ...]:
     keys = ("item", "kind", "material", "size_mm2", "laying", "depth_m", "unit")
-    return tuple(r[k] for k in keys)
+    # a device's rating and poles, as the diff names them ("AC breaker ac pcs 80 A 3-pole")
+    device = (
+        f"{r['rating_a']} A" if r["rating_a"] else "",
+        f"{r['poles']}-pole" if r["poles"] else "",
+    )
+    return tuple(r[k] for k in keys) + device
 
 
 def test_quantity_deltas(plans):
@@ -189,7 +194,7 @@ def test_quantity_deltas(plans):
     # every line whose quantity differs is listed once, old and new from the right plan
     differing = {k for k in old.keys() | new.keys() if old.get(k, 0.0) != new.get(k, 0.0)}
     assert len(q) == len(differing)
-    named = {" ".join(v for v in k if v): k for k in differing}  # "cable string Cu 6.0 m"
+    named = {" ".join(v for v in k if v): k for k in differing}  # "cable string Cu 6 m"
     listed = {}
     for r in q:
         key = named[r["id"]]
@@ -212,7 +217,10 @@ def test_quantity_deltas(plans):
     after = 2 * (moved_cable_m("R1/S1") + 5 * moved_cable_m("R2/S1"))
     assert (before, after) == pytest.approx((2033.2, 2354.4))
     assert delta("cable", "string") == pytest.approx(after - before, abs=0.011)
-    assert delta("termination", "string") == 4 * (6 - 5)  # 2 conductors × 2 ends per string
+    # strings to a combiner: a lug at the combiner end, a PV connector pair at the row end, of
+    # each of the 2 conductors per string
+    assert delta("termination", "string") == 2 * (6 - 5)
+    assert delta("connector pair", "string") == 2 * (6 - 5)
     assert delta("string fuse", "string") == 2 * (6 - 5)  # one fuse per pole (IEC 62548)
     assert delta("cable", "ac") == 0 and not any(k[0] == "trench" for k in listed)
     assert "quantities: " in result.stdout

@@ -229,30 +229,44 @@ def expected_bill(
     cables: list[dict[str, str]], phases: dict[str, int], trench_m: dict[tuple, float]
 ) -> dict[tuple, float]:
     """The bill of quantities summed independently from the cable schedule's rows: conductor
-    metres = cable_m × conductors × parallel; terminations 2 per conductor; string and array
-    fuses 2 per circuit that has one, AC breakers 1 each; trench metres as given."""
+    metres = cable_m × conductors × parallel; a lug per conductor end of a feeder, a PV
+    connector pair at a string's row end and a lug at its combiner end (a connector pair where
+    it lands on an inverter); string and array fuses 2 per circuit that has one (by rating),
+    AC breakers 1 each (by rating and poles); trench metres as given. Key: item, kind,
+    material, size, laying, depth, rating, poles."""
     bill: dict[tuple, float] = defaultdict(float)
+    combiners = {r["from_id"] for r in cables if r["kind"] in ("subarray", "array")}
     for r in cables:
         per_set = CONDUCTORS["dc"] if r["kind"] != "ac" else CONDUCTORS[phases[r["from_id"]]]
         n = per_set * int(r["parallel"])
-        key = (r["kind"], r["material"], float(r["size_mm2"]))
-        bill[("cable", *key, None, None)] += float(r["cable_m"]) * n
-        bill[("termination", *key, None, None)] += 2 * n
-        for column, item, label, per in (
-            ("fuse_a", "string fuse", "{:g} A gPV", FUSES_PER_CIRCUIT),
-            ("array_fuse_a", ARRAY_FUSE_ITEM.get(r["kind"]), "{:g} A gPV", FUSES_PER_CIRCUIT),
-            ("ac_breaker_a", "AC breaker", "{:g} A iec60947-2", BREAKERS_PER_CIRCUIT),
+        key = (r["kind"], r["material"], float(r["size_mm2"]), None, None, None, None)
+        bill[("cable", *key)] += float(r["cable_m"]) * n
+        if r["kind"] != "string":
+            bill[("termination", *key)] += 2 * n
+        elif r["to_id"] in combiners:
+            bill[("termination", *key)] += n
+            bill[("connector pair", *key)] += n
+        else:
+            bill[("connector pair", *key)] += 2 * n
+        for column, item, per in (
+            ("fuse_a", "string fuse", FUSES_PER_CIRCUIT),
+            ("array_fuse_a", ARRAY_FUSE_ITEM.get(r["kind"]), FUSES_PER_CIRCUIT),
+            ("ac_breaker_a", "AC breaker", BREAKERS_PER_CIRCUIT),
         ):
             if r[column]:
-                bill[(item, r["kind"], label.format(float(r[column])), None, None, None)] += per
+                poles = per_set if item == "AC breaker" else None
+                device = (None, None, None, None, float(r[column]), poles)
+                bill[(item, r["kind"], *device)] += per
     for (laying, depth), metres in trench_m.items():
-        bill[("trench", None, None, None, laying, depth)] += metres
+        bill[("trench", None, None, None, laying, depth, None, None)] += metres
     return dict(bill)
 
 
 def written_bill(path: Path) -> dict[tuple, float]:
     bill = {}
     for r in read_rows(path):
+        if r["item"].endswith(" total"):  # a family's total (tests/routeplan/test_quantities)
+            continue
         key = (
             r["item"],
             r["kind"] or None,
@@ -260,6 +274,8 @@ def written_bill(path: Path) -> dict[tuple, float]:
             number(r["size_mm2"]),
             r["laying"] or None,
             number(r["depth_m"]),
+            number(r["rating_a"]),
+            int(r["poles"]) if r["poles"] else None,
         )
         assert key not in bill, key  # one line per item
         bill[key] = float(r["quantity"])
@@ -283,7 +299,9 @@ def check_bill(out: Path, phases: dict[str, int], trench_m: dict[tuple, float], 
     expected = expected_bill(cables, phases, trench_m)
     got = written_bill(out / "quantities.csv")
     assert sorted(got, key=repr) == sorted(expected, key=repr)
-    conductors = sum(v for k, v in expected.items() if k[0] == "termination") / 2
+    conductors = sum(
+        v / 2 for k, v in expected.items() if k[0] == "termination" and k[1] != "string"
+    ) + sum(v for k, v in expected.items() if k[0] == "connector pair")
     for key, value in expected.items():
         if key[0] == "cable":  # each cable_m is rounded to 2 decimals in the schedule
             assert got[key] == pytest.approx(value, abs=0.005 * conductors + 0.005), key
@@ -302,7 +320,9 @@ def test_quantities_of_the_lengths_site_are_the_sum_of_its_schedule(lengths_plan
     assert sum(v for k, v in got.items() if k[:2] == ("cable", "string")) == pytest.approx(
         strings, abs=0.01
     )
-    assert sum(v for k, v in got.items() if k[:2] == ("termination", "string")) == 5 * 2 * 2
+    # 5 strings × 2 conductors: a lug at the combiner, a PV connector pair at the row
+    assert sum(v for k, v in got.items() if k[:2] == ("termination", "string")) == 5 * 2
+    assert sum(v for k, v in got.items() if k[:2] == ("connector pair", "string")) == 5 * 2
     # the site is made so that strings need fuses (4 others × 1.25 × 13 A > 25 A)
     assert sum(v for k, v in got.items() if k[0] == "string fuse") == 5 * FUSES_PER_CIRCUIT
     assert sum(v for k, v in got.items() if k[0] == "AC breaker") == 1
@@ -332,6 +352,7 @@ def test_quantities_of_the_demo_are_the_sum_of_its_schedule(demo_plan):
     assert items == {
         "cable",
         "termination",
+        "connector pair",
         "trench",
         "string fuse",
         "sub-array fuse",

@@ -488,7 +488,7 @@ def test_a_fixed_string_fuse_where_none_is_required_is_scheduled_and_counted(tmp
     assert strings["fuse_a"].tolist() == [25.0, 25.0]
     bill = pd.read_csv(tmp_path / "out" / "quantities.csv", keep_default_na=False)
     fuses = bill[bill["item"] == "string fuse"]
-    assert fuses[["kind", "material", "quantity"]].values.tolist() == [["string", "25 A gPV", 4.0]]
+    assert fuses[["kind", "rating_a", "quantity"]].values.tolist() == [["string", "25", 4.0]]
 
 
 def test_strings_at_a_combiner_count_every_string_of_the_inverter_input(tmp_path):

@@ -1,0 +1,447 @@
+"""The bill of quantities: what a buyer orders, line by line, from the finished tables.
+
+One line per cable type (kind, conductor material and size) with its designation by open
+standard — EN 50618 PV cable for strings, a single-core cable of IEC 60502-1 construction for
+the feeders (sub-array, array and a.c. circuits) — its conductor class (IEC 60228),
+insulation, rated voltage and conductor metres (allowances included); the terminations and PV
+connectors per size; fuses and breakers by rating; trench metres by laying and depth; a total
+per item family. The designations' texts and the rated voltages come from data files beside
+this module (``routeplan/data/``), each naming its standard, edition and clause and tagged
+``memory`` where recalled.
+
+Counting rules (each a stated convention the tests check):
+
+- cable: ``cable_m`` × conductors (poles/phases × parallel sets) per circuit;
+- conductor ends: every conductor has two. A string's end at its module row takes a PV
+  connector; its other end a PV connector where it lands on an inverter's DC input (string
+  inverters) and a compression lug where it lands on a combiner. A feeder's ends all take
+  lugs. So lugs = 2 × conductors for feeders, 1 × conductors for strings to a combiner, none
+  for strings to an inverter; connector pairs = conductors for strings to a combiner, 2 ×
+  conductors for strings to an inverter (a pair: plug and socket of one type and maker, since
+  mated halves must match — IEC 62548:2016, from memory);
+- fuses: one per pole (2) of each protected d.c. circuit (unearthed PV arrays are protected in
+  both poles — IEC 62548, from memory); breakers: one per a.c. circuit, by rating and poles.
+
+Rated voltages: the PV cable's 1.5 kV DC (EN 50618) is checked against ``design.dc_rated_v``;
+a plan rated above it gets no PV cable designation and a note saying so (the line keeps its
+metres). Feeders take the lowest IEC 60502-1 voltage class (0.6/1 kV, 1.8/3 kV) whose rating
+covers the circuit: d.c. feeders ``dc_rated_v`` between conductors *and* to earth (an
+unearthed array reaches the full voltage to earth at a first earth fault — the reason EN 50618
+rates U0 = U; conservative), a.c. feeders the inverter's line voltage between phases and its
+phase voltage to earth. Beyond 1.8/3 kV the line gets no designation and a note (IEC 60502-2
+applies).
+"""
+
+from __future__ import annotations
+
+import functools
+import importlib.resources
+import math
+
+import numpy as np
+import pandas as pd
+
+from calc.tables import Table, parse_table
+
+#: item families in bill order, each followed by its total line
+FAMILIES: tuple[str, ...] = ("cable", "termination", "connector", "trench", "fuse", "breaker")
+#: the total line's item per family
+TOTAL_ITEM = {f: f"{f} total" for f in FAMILIES}
+TOTAL_ITEM["connector"] = "connector pair total"
+#: bill columns, in order (the first eight are the contract ``routeplan diff`` reads)
+BILL_COLUMNS: tuple[str, ...] = (
+    "item",
+    "kind",
+    "material",
+    "size_mm2",
+    "laying",
+    "depth_m",
+    "quantity",
+    "unit",
+    "rating_a",
+    "poles",
+    "family",
+    "designation",
+    "cores_x_size",
+    "conductor_class",
+    "insulation",
+    "rated_voltage",
+    "standard",
+    "source",
+    "tag",
+    "note",
+)
+_KIND_ORDER = {"string": 0, "subarray": 1, "array": 2, "ac": 3}
+_FUSE_ITEMS = (
+    ("string", "fuse_a", "string fuse"),
+    ("subarray", "array_fuse_a", "sub-array fuse"),
+    ("array", "array_fuse_a", "array fuse"),
+)
+
+
+@functools.cache
+def data_table(name: str) -> Table:
+    """A data file of ``routeplan/data`` (the ``#`` header names its source), parsed once."""
+    text = importlib.resources.files("routeplan").joinpath("data", name).read_text("utf-8")
+    return parse_table(text, name)
+
+
+def designation(item: str) -> dict[str, str | float]:
+    """One row of ``bill_designations.csv``: standard, edition, clause, text, tag and
+    ``rated_dc_v`` (NaN where the rating is chosen per line)."""
+    t = data_table("bill_designations.csv")
+    i = int(np.flatnonzero(t["item"] == item)[0])
+    return {c: t[c][i].item() if t[c].dtype.kind == "f" else str(t[c][i]) for c in t.columns}
+
+
+def _source(d: dict) -> str:
+    if not d["standard"]:
+        return ""
+    return f"{d['standard']}:{d['edition']}, clause {d['clause']}"
+
+
+def voltage_class(u0_min_v: float, u_min_v: float, dc: bool) -> dict[str, float] | None:
+    """The lowest IEC 60502-1 rated voltage (``u0_kv``, ``u_kv``, ``um_kv``, and the d.c.
+    ``u0_dc_kv``, ``u_dc_kv``) covering ``u0_min_v`` to earth and ``u_min_v`` between
+    conductors [V] — a.c. values, or the d.c. ratings where ``dc``; None beyond the table.
+
+    Examples
+    --------
+    >>> voltage_class(800 / 3**0.5, 800, dc=False)["u_kv"]  # 800 V three-phase
+    1.0
+    >>> voltage_class(1500, 1500, dc=True)["u0_kv"]  # 1500 V d.c., full voltage to earth
+    1.8
+    >>> voltage_class(4000, 4000, dc=True) is None
+    True
+    """
+    t = data_table("iec60502_1_rated_voltages.csv")
+    u0 = t["u0_dc_kv"] if dc else t["u0_kv"]
+    u = t["u_dc_kv"] if dc else t["u_kv"]
+    ok = np.flatnonzero((u0 * 1000 >= u0_min_v - 1e-9) & (u * 1000 >= u_min_v - 1e-9))
+    if not len(ok):
+        return None
+    i = int(ok[np.argmin(t["u_kv"][ok])])
+    return {c: float(t[c][i]) for c in ("u0_kv", "u_kv", "um_kv", "u0_dc_kv", "u_dc_kv")}
+
+
+def _kv(v: float) -> str:
+    return f"{v:g}"
+
+
+def _cable_line(
+    kind: str, material: str, size: float, insulation: str, u_ac_v: float, phases: int, dc_v: float
+) -> dict:
+    """Designation columns of one cable type."""
+    size_text = f"{size:g}"
+    if insulation == "PV":
+        d = designation("pv_cable")
+        rated = d["rated_dc_v"]
+        line = {
+            "conductor_class": 5,
+            "insulation": "halogen-free cross-linked (EN 50618)",
+            "rated_voltage": "1.5/1.5 kV DC",
+            "designation": d["text"].format(cores=1, size=size_text),
+            "note": "",
+        }
+        if dc_v > rated + 1e-9:
+            line["designation"] = ""
+            line["note"] = (
+                f"design.dc_rated_v {dc_v:g} V exceeds EN 50618's {rated:g} V DC rating: no "
+                f"PV cable of that standard fits; specify a string cable rated for {dc_v:g} V DC"
+            )
+        return {**line, "standard": "EN 50618", "source": _source(d), "tag": d["tag"]}
+    d = designation("feeder_cable")
+    if kind == "ac":
+        u0_need = u_ac_v / math.sqrt(3) if phases == 3 else u_ac_v
+        vc = voltage_class(u0_need, u_ac_v, dc=False)
+        need = f"{u_ac_v:g} V AC"
+    else:
+        vc = voltage_class(dc_v, dc_v, dc=True)
+        need = f"{dc_v:g} V DC to earth and between conductors"
+    line = {
+        "conductor_class": 2,
+        "insulation": insulation,
+        "standard": "IEC 60502-1",
+        "source": _source(d),
+        "tag": d["tag"],
+    }
+    if vc is None:
+        return {
+            **line,
+            "rated_voltage": "",
+            "designation": "",
+            "note": f"{need} is beyond IEC 60502-1's 1.8/3 kV cables: a cable to IEC 60502-2 "
+            "is needed (not chosen by routeplan)",
+        }
+    dc_text = f", {_kv(vc['u0_dc_kv'])}/{_kv(vc['u_dc_kv'])} kV DC" if kind != "ac" else ""
+    rated = f"{_kv(vc['u0_kv'])}/{_kv(vc['u_kv'])} ({_kv(vc['um_kv'])}) kV{dc_text}"
+    text = d["text"].format(
+        cores=1,
+        size=size_text,
+        material=material,
+        cls=2,
+        insulation=line["insulation"],
+        u0=_kv(vc["u0_kv"]),
+        u=_kv(vc["u_kv"]),
+        um=_kv(vc["um_kv"]),
+        dc=f" (d.c. {_kv(vc['u0_dc_kv'])}/{_kv(vc['u_dc_kv'])} kV)" if kind != "ac" else "",
+    )
+    return {**line, "rated_voltage": rated, "designation": text, "note": ""}
+
+
+def bill_of_quantities(
+    circuits: pd.DataFrame,
+    segments: pd.DataFrame,
+    dc_rated_v: float,
+    breaker_device: str,
+) -> pd.DataFrame:
+    """The bill of quantities (:data:`BILL_COLUMNS`; see the module docstring for the rules).
+
+    Parameters
+    ----------
+    circuits : the cable schedule (``kind``, ``from_id``, ``to_id``, ``material``,
+        ``size_mm2`` [mm²], ``parallel``, ``conductors``, ``insulation``, ``cable_m`` [m],
+        ``voltage_v`` [V], ``design_current_a`` [A], ``fuse_a``, ``array_fuse_a``,
+        ``ac_breaker_a`` [A]).
+    segments : the trench schedule (``laying``, ``depth_m`` [m], ``length_m`` [m]).
+    dc_rated_v : ``design.dc_rated_v`` [V], the d.c. rating cables and devices must have.
+    breaker_device : ``design.ac_breaker_device`` (``iec60947-2`` or ``iec60898-1``).
+
+    Returns
+    -------
+    One row per line; ``quantity`` in metres (cable, trench) or pieces; empty cells where a
+    column does not apply.
+    """
+    kind = circuits["kind"].to_numpy(dtype=object)
+    conductors = circuits["conductors"].to_numpy(dtype=np.int64)
+    parallel = np.maximum(circuits["parallel"].to_numpy(dtype=np.int64), 1)
+    string = kind == "string"
+    combiners = circuits.loc[~string & (kind != "ac"), "from_id"]
+    to_combiner = string & circuits["to_id"].isin(set(combiners)).to_numpy()
+    c = pd.DataFrame(
+        {
+            "kind": kind,
+            "material": circuits["material"].to_numpy(dtype=object),
+            "size_mm2": circuits["size_mm2"].to_numpy(dtype=float),
+            "insulation": circuits["insulation"].to_numpy(dtype=object),
+            "metres": circuits["cable_m"].to_numpy(dtype=float) * conductors,
+            "lugs": np.where(string, np.where(to_combiner, 1, 0), 2) * conductors,
+            "pairs": np.where(string, np.where(to_combiner, 1, 2), 0) * conductors,
+            "voltage_v": circuits["voltage_v"].to_numpy(dtype=float),
+            "phases": conductors // parallel,
+            "current_a": circuits["design_current_a"].to_numpy(dtype=float),
+        }
+    )
+    keys = ["kind", "material", "size_mm2"]
+    g = (
+        c.groupby(keys, sort=False)
+        .agg(
+            metres=("metres", "sum"),
+            lugs=("lugs", "sum"),
+            pairs=("pairs", "sum"),
+            insulation=("insulation", "first"),
+            voltage_v=("voltage_v", "max"),
+            phases=("phases", "max"),
+            current_a=("current_a", "max"),
+        )
+        .reset_index()
+    )
+    lines: list[dict] = []
+    lug_d = designation("lug")
+    con_d = designation("connector")
+    for r in g.itertuples(index=False):
+        cable = _cable_line(
+            r.kind, r.material, r.size_mm2, r.insulation, r.voltage_v, int(r.phases), dc_rated_v
+        )
+        common = {"kind": r.kind, "material": r.material, "size_mm2": r.size_mm2}
+        cores = f"1×{r.size_mm2:g}"
+        lines.append(
+            {
+                **common,
+                **cable,
+                "item": "cable",
+                "family": "cable",
+                "quantity": float(r.metres),
+                "unit": "m",
+                "cores_x_size": cores,
+            }
+        )
+        cls = cable["conductor_class"]
+        if r.lugs:
+            lug = "Cu" if r.material == "Cu" else "Al or bimetal Al/Cu (to Cu terminals)"
+            lines.append(
+                {
+                    **common,
+                    "item": "termination",
+                    "family": "termination",
+                    "quantity": float(r.lugs),
+                    "unit": "pcs",
+                    "cores_x_size": cores,
+                    "conductor_class": cls,
+                    "designation": lug_d["text"].format(
+                        lug=lug, size=f"{r.size_mm2:g}", material=r.material, cls=cls
+                    ),
+                    "standard": "IEC 61238-1",
+                    "source": _source(lug_d),
+                    "tag": lug_d["tag"],
+                }
+            )
+        if r.pairs:
+            amps = math.ceil(r.current_a - 1e-9)
+            lines.append(
+                {
+                    **common,
+                    "item": "connector pair",
+                    "family": "connector",
+                    "quantity": float(r.pairs),
+                    "unit": "pcs",
+                    "cores_x_size": cores,
+                    "rated_voltage": f"{dc_rated_v:g} V DC",
+                    "designation": con_d["text"].format(
+                        size=f"{r.size_mm2:g}", volts=f"{dc_rated_v:g}", amps=amps
+                    ),
+                    "standard": "IEC 62852",
+                    "source": _source(con_d),
+                    "tag": con_d["tag"],
+                    "note": _over_1500(dc_rated_v, "IEC 62852"),
+                }
+            )
+    lines += _trench_lines(segments)
+    lines += _fuse_lines(circuits, dc_rated_v)
+    lines += _breaker_lines(circuits, c["phases"].to_numpy(), breaker_device)
+    bill = pd.DataFrame(lines).reindex(columns=BILL_COLUMNS)
+    bill = _ordered(bill)
+    return _with_totals(bill)
+
+
+def _over_1500(dc_v: float, standard: str) -> str:
+    if dc_v <= 1500 + 1e-9:
+        return ""
+    return f"design.dc_rated_v {dc_v:g} V is beyond {standard}'s 1500 V DC scope: check the product"
+
+
+def _trench_lines(segments: pd.DataFrame) -> list[dict]:
+    d = designation("trench")
+    t = segments.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
+    return [
+        {
+            "item": "trench",
+            "family": "trench",
+            "laying": r.laying,
+            "depth_m": float(r.depth_m),
+            "quantity": float(r.length_m),
+            "unit": "m",
+            "designation": d["text"].format(laying=r.laying, depth=f"{r.depth_m:g}"),
+            "tag": d["tag"],
+        }
+        for r in t.itertuples(index=False)
+    ]
+
+
+def _fuse_lines(circuits: pd.DataFrame, dc_v: float) -> list[dict]:
+    d = designation("gpv_fuse")
+    kind = circuits["kind"].to_numpy(dtype=object)
+    lines = []
+    for k, column, item in _FUSE_ITEMS:
+        rating = circuits[column].to_numpy(dtype=float)[kind == k]
+        rating = rating[np.isfinite(rating)]
+        values, counts = np.unique(rating, return_counts=True)
+        for v, n in zip(values.tolist(), counts.tolist(), strict=True):
+            lines.append(
+                {
+                    "item": item,
+                    "kind": k,
+                    "family": "fuse",
+                    "rating_a": v,
+                    "quantity": 2.0 * n,  # one per pole
+                    "unit": "pcs",
+                    "rated_voltage": f"{dc_v:g} V DC",
+                    "designation": d["text"].format(rating=f"{v:g}", volts=f"{dc_v:g}"),
+                    "standard": "IEC 60269-6",
+                    "source": _source(d),
+                    "tag": d["tag"],
+                    "note": _over_1500(dc_v, "IEC 60269-6"),
+                }
+            )
+    return lines
+
+
+def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> list[dict]:
+    d = designation(f"breaker_{device}")
+    ac = (circuits["kind"] == "ac").to_numpy()
+    frame = pd.DataFrame(
+        {
+            "rating_a": circuits["ac_breaker_a"].to_numpy(dtype=float)[ac],
+            "poles": phases[ac],
+            "voltage_v": circuits["voltage_v"].to_numpy(dtype=float)[ac],
+        }
+    )
+    frame = frame[np.isfinite(frame["rating_a"])]
+    g = frame.groupby(["rating_a", "poles"]).agg(
+        n=("voltage_v", "size"), voltage_v=("voltage_v", "max")
+    )
+    lines = []
+    limit = 440.0 if device == "iec60898-1" else 1000.0  # the scope clauses quoted in the data
+    for (rating, poles), r in g.iterrows():
+        volts = f"{r.voltage_v:g}"
+        note = ""
+        if r.voltage_v > limit + 1e-9:
+            note = f"{volts} V AC is beyond {d['standard']}'s {limit:g} V AC scope"
+        lines.append(
+            {
+                "item": "AC breaker",
+                "kind": "ac",
+                "family": "breaker",
+                "rating_a": float(rating),
+                "poles": int(poles),
+                "quantity": float(r.n),
+                "unit": "pcs",
+                "rated_voltage": f"{volts} V AC",
+                "designation": d["text"].format(
+                    rating=f"{rating:g}", poles=int(poles), volts=volts
+                ),
+                "standard": d["standard"],
+                "source": _source(d),
+                "tag": d["tag"],
+                "note": note,
+            }
+        )
+    return lines
+
+
+def _ordered(bill: pd.DataFrame) -> pd.DataFrame:
+    """Families in :data:`FAMILIES` order; within one, the kinds as power flows (string →
+    AC), then material, size, rating, poles, laying, depth."""
+    rank = {f: i for i, f in enumerate(FAMILIES)}
+    items = {"string fuse": 0, "sub-array fuse": 1, "array fuse": 2}
+    bill = bill.assign(
+        _f=bill["family"].map(rank),
+        _i=bill["item"].map(items).fillna(0),
+        _k=bill["kind"].map(_KIND_ORDER).fillna(9),
+    )
+    by = ["_f", "_i", "_k", "material", "size_mm2", "rating_a", "poles", "laying", "depth_m"]
+    bill = bill.sort_values(by, na_position="last", kind="stable")
+    return bill.drop(columns=["_f", "_i", "_k"]).reset_index(drop=True)
+
+
+def _with_totals(bill: pd.DataFrame) -> pd.DataFrame:
+    """The bill with a total line after each family's lines (metres or pieces)."""
+    parts = []
+    for family in FAMILIES:
+        lines = bill[bill["family"] == family]
+        if lines.empty:
+            continue
+        total = {c: np.nan for c in BILL_COLUMNS}
+        total.update(
+            item=TOTAL_ITEM[family],
+            family=family,
+            quantity=float(lines["quantity"].sum()),
+            unit=lines["unit"].iloc[0],
+        )
+        parts += [lines, pd.DataFrame([total], columns=BILL_COLUMNS)]
+    if not parts:
+        return bill
+    out = pd.concat(parts, ignore_index=True)
+    for col in ("size_mm2", "depth_m", "quantity", "rating_a", "poles", "conductor_class"):
+        out[col] = pd.to_numeric(out[col]).astype(float)
+    return out
