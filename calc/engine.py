@@ -1136,7 +1136,8 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     arrays of the input feed into a fault; 0 otherwise), ``i_protected`` (the capacity needed
     instead where the cable does not carry the backfeed: an array fuse's max(In, I2/1.45);
     infinite where no fuse is used or none fits), ``i_op`` (drop and losses), the string
-    protection ``prot``, the ``array_fuse`` pick and the ``breaker`` of a.c. circuits.
+    protection ``prot`` and the strings in parallel it counted (``n_par``), the ``array_fuse``
+    pick and the ``breaker`` of a.c. circuits.
     """
     kind = a["kind"]
     n = kind.size
@@ -1209,6 +1210,7 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
         "i_protected": i_protected,
         "i_op": i_op,
         "prot": prot,
+        "n_par": n_par,
         "fuse_required": prot.required & is_str,
         "fuse_a": fuse_a,
         "array_fuse": array_fuse,
@@ -1569,7 +1571,7 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     is_str, is_ac = kind == KIND_STRING, kind == KIND_AC
     is_arr = np.isin(kind, FEEDER_KINDS)
     what = np.where(kind == KIND_SUBARRAY, "sub-array", "array")
-    s_par = a["strings_in_parallel"]
+    s_par = c["n_par"]  # the count the string rule used (a combiner's: its input's strings)
     fused = is_str & np.isfinite(c["fuse_a"])
     _fill(
         text,
