@@ -80,7 +80,6 @@ ENV_NAMES = ("air", "D1", "D2")  # governing environment codes 0, 1, 2
 #: how array cables are protected against the backfeed of the other arrays on their input
 ARRAY_PROTECTION = ("fuse", "cable")
 _LAYING_OF_ENV = {"D1": 1, "D2": 0}  # D1 = in duct (laying 1), D2 = direct (laying 0)
-_MAX_ITERATIONS = 100
 _EPS = 1e-9
 
 
@@ -1074,7 +1073,11 @@ def size_circuits(
     counts = prev = air_counts = air_prev = None
     affected = np.ones(n, dtype=bool)
     iterations = 0
-    for iteration in range(1, _MAX_ITERATIONS + 1):
+    # a pass that does not settle adds at least one conductor set (a circuit's count never falls:
+    # _select starts from it) and no circuit exceeds max_parallel, so the iteration settles
+    # within 1 + n · (max_parallel − 1) passes (a fixed cap could refuse a plan still settling)
+    max_passes = 1 + n * (int(design.max_parallel) - 1)
+    for iteration in range(1, max_passes + 1):
         iterations = iteration
         counts = a["seg_count"] + np.bincount(
             a["inc_segment"], weights=(p - 1)[a["inc_circuit"]].astype(float), minlength=m
@@ -1119,8 +1122,8 @@ def size_circuits(
         if np.array_equal(new_p, p):
             break
         p = new_p
-    else:  # pragma: no cover - counts only grow, bounded by max_parallel
-        raise ConvergenceError(f"parallel/grouping iteration did not settle in {_MAX_ITERATIONS}")
+    else:  # pragma: no cover - unreachable: counts only grow, bounded by max_parallel (above)
+        raise ConvergenceError(f"parallel/grouping iteration did not settle in {max_passes} passes")
     child_max = _child_max(a["parent"], below, n)
 
     c.update(p_w=p_w)

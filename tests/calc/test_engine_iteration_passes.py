@@ -63,3 +63,12 @@ def test_a_plan_settling_in_its_99th_or_100th_pass_is_sized(c):
     assert r.parallel.tolist() == [2] * c
     assert r.seg_count_final.tolist() == [2.0 * c]
     assert r.ok.all()
+
+
+def test_a_plan_settling_after_100_passes_is_sized_not_refused():
+    # 100 arrays: 101 passes, which is also the bound the engine allows itself,
+    # 1 + n × (max_parallel − 1) = 1 + 100 × 1 (each unsettled pass adds a set; none exceeds 2)
+    r = size_circuits(_cascade(100), DESIGN)
+    assert r.iterations == 101
+    assert r.parallel.tolist() == [2] * 100
+    assert r.ok.all()
