@@ -80,7 +80,6 @@ ENV_NAMES = ("air", "D1", "D2")  # governing environment codes 0, 1, 2
 #: how array cables are protected against the backfeed of the other arrays on their input
 ARRAY_PROTECTION = ("fuse", "cable")
 _LAYING_OF_ENV = {"D1": 1, "D2": 0}  # D1 = in duct (laying 1), D2 = direct (laying 0)
-_MAX_ITERATIONS = 100
 _EPS = 1e-9
 
 
@@ -1117,7 +1116,11 @@ def size_circuits(
     counts = prev = air_counts = air_prev = None
     affected = np.ones(n, dtype=bool)
     iterations = 0
-    for iteration in range(1, _MAX_ITERATIONS + 1):
+    # a pass that does not settle adds at least one conductor set (a circuit's count never falls:
+    # _select starts from it) and no circuit exceeds max_parallel, so the iteration settles
+    # within 1 + n · (max_parallel − 1) passes (a fixed cap could refuse a plan still settling)
+    max_passes = 1 + n * (int(design.max_parallel) - 1)
+    for iteration in range(1, max_passes + 1):
         iterations = iteration
         counts = a["seg_count"] + np.bincount(
             a["inc_segment"], weights=(p - 1)[a["inc_circuit"]].astype(float), minlength=m
@@ -1162,8 +1165,8 @@ def size_circuits(
         if np.array_equal(new_p, p):
             break
         p = new_p
-    else:  # pragma: no cover - counts only grow, bounded by max_parallel
-        raise ConvergenceError(f"parallel/grouping iteration did not settle in {_MAX_ITERATIONS}")
+    else:  # pragma: no cover - unreachable: counts only grow, bounded by max_parallel (above)
+        raise ConvergenceError(f"parallel/grouping iteration did not settle in {max_passes} passes")
     child_max = _child_max(a["parent"], below, n)
 
     c.update(p_w=p_w)
@@ -1179,7 +1182,8 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     arrays of the input feed into a fault; 0 otherwise), ``i_protected`` (the capacity needed
     instead where the cable does not carry the backfeed: an array fuse's max(In, I2/1.45);
     infinite where no fuse is used or none fits), ``i_op`` (drop and losses), the string
-    protection ``prot``, the ``array_fuse`` pick and the ``breaker`` of a.c. circuits.
+    protection ``prot`` and the strings in parallel it counted (``n_par``), the ``array_fuse``
+    pick and the ``breaker`` of a.c. circuits.
     """
     kind = a["kind"]
     n = kind.size
@@ -1252,6 +1256,7 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
         "i_protected": i_protected,
         "i_op": i_op,
         "prot": prot,
+        "n_par": n_par,
         "fuse_required": prot.required & is_str,
         "fuse_a": fuse_a,
         "array_fuse": array_fuse,
@@ -1612,7 +1617,7 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     is_str, is_ac = kind == KIND_STRING, kind == KIND_AC
     is_arr = np.isin(kind, FEEDER_KINDS)
     what = np.where(kind == KIND_SUBARRAY, "sub-array", "array")
-    s_par = a["strings_in_parallel"]
+    s_par = c["n_par"]  # the count the string rule used (a combiner's: its input's strings)
     fused = is_str & np.isfinite(c["fuse_a"])
     _fill(
         text,

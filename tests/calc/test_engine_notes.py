@@ -54,10 +54,12 @@ def test_array_drop_beyond_what_its_strings_leave():
     assert causes["drop"].tolist() == [True, False, False]
     assert causes["other"].tolist() == [False, True, True]
     assert not causes["capacity"].any()
+    # the array's 2 strings are in parallel at its combiner: (2 − 1) × 1.25 × 13 A = 16.25 A,
+    # and no module maximum series fuse is given (2 strings: no fuse assumed, common practice)
     assert r.protection.tolist() == [
         "alone on its inverter input: no backfeed",
-        "no string fuse needed; 1 string(s) in parallel",
-        "no string fuse needed; 1 string(s) in parallel",
+        "no string fuse needed; 2 string(s) in parallel",
+        "no string fuse needed; 2 string(s) in parallel",
     ]
     # with two conductors per pole allowed the array takes 2 × 25 mm²: half the drop, 0.89 %
     r = size_circuits(_array_with_strings(400.0), DesignParams(sizes_array_mm2=(16.0, 25.0)))

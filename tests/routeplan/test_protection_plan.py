@@ -190,9 +190,11 @@ def test_strings_bifacial_isc_fuse_and_grouping_in_air(tmp_path):
     s = c[c["kind"] == "string"]
     assert len(s) == 3 * STRINGS_PER_TABLE and (s["status"] == "ok").all()
     assert s["isc_design_a"].to_numpy() == pytest.approx(ISC_DESIGN, abs=0.005)
-    # (S − 1) × 1.25 × Isc = 4 × 18.0 A = 72 A > 25 A module maximum fuse: string fuses
+    # the three combiners' array cables share the inverter's one input without a fuse between
+    # the combiners, so S = 3 × 5 = 15 strings (IEC 62548, from memory):
+    # (S − 1) × 1.25 × Isc = 14 × 18.0 A = 252 A > 25 A module maximum fuse: string fuses
     assert (s["fuse_a"] == STRING_FUSE_A).all() and (s["design_current_a"] == STRING_FUSE_A).all()
-    assert set(s["protection"]) == {"string fuse 25 A gPV; 5 strings in parallel"}
+    assert set(s["protection"]) == {"string fuse 25 A gPV; 15 strings in parallel"}
     # in air only: the row run behind the table (70 °C) governs over the table's stub (40 °C),
     # both with the 5 strings of the table bunched
     assert set(s["governing"]) == {"row run R1", "row run R2", "row run R3"}
