@@ -192,6 +192,10 @@ TARGETS = {
             *(f"{_NET}/test_trench_checks.py::{t}" for t in _TRENCH_CHECKS_CLI),
         ),
     ),
+    # what a failing circuit's remedy says: whole plans sized again (the tests plan the demo)
+    "remedy": Target("routeplan/remedy.py", ("tests/routeplan/test_remedy.py",)),
+    # the bill of quantities
+    "quantities": Target("routeplan/quantities.py", ("tests/routeplan/test_quantities.py",)),
     "routing": Target(
         "routeplan/routing.py",
         (
