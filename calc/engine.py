@@ -463,6 +463,9 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     bad = dc & ~np.isnan(a["bifaciality"]) & ~((a["bifaciality"] >= 0) & (a["bifaciality"] <= 1))
     if np.any(bad):
         problems.append(f"bifaciality must be within 0-1 at d.c. circuits {_where(bad)}")
+    bad = dc & ~np.isnan(a["voc_v"]) & ~(a["voc_v"] > 0)
+    if np.any(bad):
+        problems.append(f"voc_v must be > 0 (or NaN: not checked) at d.c. circuits {_where(bad)}")
     bad = dc & ~np.isnan(a["isc_bifacial_a"]) & ~(a["isc_bifacial_a"] >= a["isc_a"])
     if np.any(bad):
         problems.append(f"isc_bifacial_a must be >= isc_a at d.c. circuits {_where(bad)}")

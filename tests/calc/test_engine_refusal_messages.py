@@ -48,3 +48,12 @@ def test_a_depth_left_blank_is_not_deep_enough():
     depth = np.array([0.7, None, 0.03, 0.05, 0.06], dtype=object)
     in_duct = np.array([False, False, False, True, True])
     assert buried_deep_enough(depth, in_duct, design).tolist() == [True, False, True, False, True]
+
+
+def test_an_open_circuit_voltage_of_zero_or_below_is_refused():
+    # V_OC of a string is a positive number of volts (IEC 60891 / the module datasheet); NaN
+    # leaves the maximum-voltage check out, zero or a negative value is an input error
+    inp = _input(kind=[1, 0, 0], parent=[-1, 0, 0], voc_v=[np.nan, 0.0, -1200.0])
+    assert _refusal(inp) == "voc_v must be > 0 (or NaN: not checked) at d.c. circuits [1, 2]"
+    ok = size_circuits(_input(kind=[1, 0], parent=[-1, 0], voc_v=[np.nan, 1200.0]))
+    assert ok.voc_max_v[1] > 1200.0  # colder than 25 °C: above the STC value
