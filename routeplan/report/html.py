@@ -31,6 +31,7 @@ KIND_LABEL = {"string": "string", "subarray": "sub-array", "array": "array", "ac
 CSS = """
 :root { color-scheme: light; }
 body { font: 10.5pt/1.4 "DejaVu Sans", "Liberation Sans", Arial, sans-serif; color: #111;
+       font-variant-ligatures: none;
        margin: 0 auto; max-width: 60rem; padding: 1.5rem; }
 h1 { font-size: 20pt; margin: 0 0 .4rem; }
 h2 { font-size: 15pt; border-bottom: 2px solid #234; padding-bottom: .15rem; margin-top: 2rem; }
