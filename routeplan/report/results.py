@@ -83,52 +83,44 @@ class Results:
     conductor_m_total: float
 
 
-def _worst(frame: pd.DataFrame, column: str) -> tuple[float, str]:
-    """The largest value of ``column`` and its circuit's id (first in schedule order)."""
-    values = frame[column].to_numpy(dtype=float)
-    if not len(values) or np.isnan(values).all():
-        return float("nan"), ""
-    i = int(np.nanargmax(values))
-    return float(values[i]), str(frame["circuit_id"].iloc[i])
-
-
-def _aggregate(c: pd.DataFrame, keys: list[str]) -> dict[tuple, KindRow]:
-    """One :class:`KindRow` per group of ``keys`` (the last key is the kind), vectorised:
-    sums by group-by, the worst values as the first row of each group after a stable sort
-    (the first in schedule order among equals; NaN last)."""
-    g = c.groupby(keys, sort=False)
-    sums = g.agg(
-        circuits=("circuit_id", "size"),
-        failing=("failing", "sum"),
-        loss_w=("loss_w", "sum"),
-        energy_loss_kwh=("energy_loss_kwh", "sum"),
-        conductor_m=("metres", "sum"),
-    )
+def _aggregate(
+    codes: np.ndarray, labels: list[tuple], kinds: list[str], v: dict[str, np.ndarray]
+) -> dict[tuple, KindRow]:
+    """One :class:`KindRow` per group: ``codes`` numbers each circuit's group (0 …
+    len(labels) − 1), ``labels`` names the groups, ``kinds`` gives each group's kind, ``v``
+    holds the circuits' columns. Sums by :func:`numpy.bincount`; the worst value of a group
+    is its largest (NaN never), the first in schedule order among equals."""
+    n = len(labels)
+    count = np.bincount(codes, minlength=n)
+    sums = {
+        k: np.bincount(codes, weights=v[k], minlength=n)
+        for k in ("failing", "loss_w", "energy_loss_kwh", "metres")
+    }
     worst = {}
+    position = np.arange(len(codes))
     for column in ("utilisation", "vdrop_pct"):
-        top = c.sort_values(column, ascending=False, kind="stable", na_position="last")
-        top = top.groupby(keys, sort=False).head(1).set_index(keys).reindex(sums.index)
-        worst[column] = (
-            top[column].to_numpy(dtype=float),
-            top["circuit_id"].to_numpy(dtype=object),
-        )
-    cols = {k: sums[k].to_numpy() for k in sums.columns}
+        x = np.where(np.isnan(v[column]), -np.inf, v[column])
+        order = np.lexsort((position, -x, codes))
+        first = order[np.r_[True, codes[order][1:] != codes[order][:-1]]] if len(order) else order
+        top = np.full(n, -1, dtype=np.int64)
+        top[codes[first]] = first
+        worst[column] = top
+    ids = v["circuit_id"]
     out: dict[tuple, KindRow] = {}
-    for i, key in enumerate(sums.index):
-        key = key if isinstance(key, tuple) else (key,)
-        u, u_id = worst["utilisation"][0][i], worst["utilisation"][1][i]
-        d, d_id = worst["vdrop_pct"][0][i], worst["vdrop_pct"][1][i]
+    for g, key in enumerate(labels):
+        iu, idr = worst["utilisation"][g], worst["vdrop_pct"][g]
+        u, d = float(v["utilisation"][iu]), float(v["vdrop_pct"][idr])
         out[key] = KindRow(
-            kind=str(key[-1]),
-            circuits=int(cols["circuits"][i]),
-            failing=int(cols["failing"][i]),
-            worst_utilisation=float(u),
-            worst_utilisation_id=str(u_id) if np.isfinite(u) else "",
-            worst_drop_pct=float(d),
-            worst_drop_id=str(d_id) if np.isfinite(d) else "",
-            loss_w=float(cols["loss_w"][i]),
-            energy_loss_kwh=float(cols["energy_loss_kwh"][i]),
-            conductor_m=float(cols["conductor_m"][i]),
+            kind=kinds[g],
+            circuits=int(count[g]),
+            failing=round(sums["failing"][g]),
+            worst_utilisation=u,
+            worst_utilisation_id=str(ids[iu]) if np.isfinite(u) else "",
+            worst_drop_pct=d,
+            worst_drop_id=str(ids[idr]) if np.isfinite(d) else "",
+            loss_w=float(sums["loss_w"][g]),
+            energy_loss_kwh=float(sums["energy_loss_kwh"][g]),
+            conductor_m=float(sums["metres"][g]),
         )
     return out
 
@@ -143,47 +135,56 @@ def results(
     circuits: pd.DataFrame, segments: pd.DataFrame, inputs: pd.DataFrame | None = None
 ) -> Results:
     """Aggregate the circuit schedule, trench schedule and inverter inputs of a plan."""
-    c = pd.DataFrame(
-        {
-            col: circuits[col].to_numpy()
-            for col in (
-                "circuit_id",
-                "kind",
-                "utilisation",
-                "vdrop_pct",
-                "vdrop_total_pct",
-                "loss_w",
-                "energy_loss_kwh",
-                "cable_m",
-                "conductors",
-                "status",
-                "note",
-                "material",
-                "size_mm2",
-            )
-        }
-    )
-    c["block"] = blocks(circuits)
-    c["failing"] = (c["status"] != "ok").astype(np.int64)
-    c["metres"] = c["cable_m"].astype(float) * c["conductors"].astype(float)
-    c["utilisation"] = c["utilisation"].astype(float)
-    c["vdrop_pct"] = c["vdrop_pct"].astype(float)
-    order = _kind_order(c["kind"])
-    per_kind = _aggregate(c, ["kind"])
+    v = {
+        "circuit_id": circuits["circuit_id"].to_numpy(dtype=object),
+        "utilisation": circuits["utilisation"].to_numpy(dtype=float),
+        "vdrop_pct": circuits["vdrop_pct"].to_numpy(dtype=float),
+        "loss_w": circuits["loss_w"].to_numpy(dtype=float),
+        "energy_loss_kwh": circuits["energy_loss_kwh"].to_numpy(dtype=float),
+        "metres": circuits["cable_m"].to_numpy(dtype=float)
+        * circuits["conductors"].to_numpy(dtype=float),
+    }
+    status = circuits["status"].to_numpy(dtype=object)
+    fails = status != "ok"
+    v["failing"] = fails.astype(float)
+    kind_code, kind_names = pd.factorize(circuits["kind"].to_numpy(dtype=object))
+    order = _kind_order(kind_names)
+    names = [str(k) for k in kind_names]
+    per_kind = _aggregate(kind_code, [(k,) for k in names], names, v)
     kinds = [per_kind[(k,)] for k in order]
-    per_block = _aggregate(c, ["block", "kind"])
-    block_rows = [
-        (str(b), row)
-        for (b, _), row in sorted(
-            per_block.items(), key=lambda item: (_natural(str(item[0][0])), order.index(item[0][1]))
-        )
-    ]
-    strings = c[c["kind"] == "string"]
-    dc, dc_id = _worst(strings, "vdrop_total_pct") if len(strings) else (float("nan"), "")
+    block = blocks(circuits)
+    block_code, block_names = pd.factorize(block)
+    pair = block_code * len(names) + kind_code
+    pair_code, pair_uniques = pd.factorize(pair)
+    labels = [(str(block_names[p // len(names)]), names[p % len(names)]) for p in pair_uniques]
+    per_block = _aggregate(pair_code, labels, [k for _, k in labels], v)
+    block_rows = sorted(
+        ((b, row) for (b, _), row in per_block.items()),
+        key=lambda item: (_natural(item[0]), order.index(item[1].kind)),
+    )
+    is_string = kind_code == (names.index("string") if "string" in names else -1)
+    dc, dc_id = float("nan"), ""
+    if is_string.any():
+        total = circuits["vdrop_total_pct"].to_numpy(dtype=float)
+        at = np.flatnonzero(is_string)
+        if not np.isnan(total[at]).all():
+            i = at[int(np.nanargmax(total[at]))]
+            dc, dc_id = float(total[i]), str(v["circuit_id"][i])
 
-    grouped = c.groupby(["kind", "material", "size_mm2"], sort=False)["metres"].sum()
+    grouped = (
+        pd.DataFrame(
+            {
+                "kind": circuits["kind"].to_numpy(dtype=object),
+                "material": circuits["material"].to_numpy(dtype=object),
+                "size_mm2": circuits["size_mm2"].to_numpy(dtype=float),
+                "metres": v["metres"],
+            }
+        )
+        .groupby(["kind", "material", "size_mm2"], sort=False)["metres"]
+        .sum()
+    )
     metres = sorted(
-        ((str(k), str(mat), float(s), float(v)) for (k, mat, s), v in grouped.items()),
+        ((str(k), str(mat), float(s), float(m)) for (k, mat, s), m in grouped.items()),
         key=lambda r: (order.index(r[0]) if r[0] in order else 99, r[1], r[2]),
     )
 
@@ -205,10 +206,12 @@ def results(
         for i in over_idx
     ]
 
-    bad = c[c["status"] != "ok"]
+    bad = np.flatnonzero(fails)
+    kind_all = circuits["kind"].to_numpy(dtype=object)
+    note = circuits["note"].to_numpy(dtype=object)
     failing = [
-        (str(r.circuit_id), str(r.kind), str(r.block), str(r.note))
-        for r in bad.head(LIST_CAP).itertuples(index=False)
+        (str(v["circuit_id"][i]), str(kind_all[i]), str(block[i]), str(note[i]))
+        for i in bad[:LIST_CAP]
     ]
     inputs_over: list[tuple[str, str, str]] = []
     n_inputs_over = 0
@@ -232,9 +235,9 @@ def results(
         failing_count=len(bad),
         inputs_over=inputs_over,
         inputs_over_count=n_inputs_over,
-        loss_w_total=float(c["loss_w"].sum()),
-        energy_loss_kwh_total=float(c["energy_loss_kwh"].sum()),
-        conductor_m_total=float(c["metres"].sum()),
+        loss_w_total=float(v["loss_w"].sum()),
+        energy_loss_kwh_total=float(v["energy_loss_kwh"].sum()),
+        conductor_m_total=float(v["metres"].sum()),
     )
 
 
