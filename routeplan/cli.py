@@ -504,12 +504,19 @@ def report(
             "file of that name that routeplan did not write is never replaced.",
         ),
     ],
+    paper: Annotated[
+        str,
+        typer.Option("--paper", help="Paper size of the PDF: a4 or letter."),
+    ] = "a4",
 ) -> None:
     """Print a plan's calculation report (report.html) to PDF with headless Chromium."""
-    from .report.pdf import write_report_pdf
+    from .report.pdf import PAPER, write_report_pdf
 
+    if paper.lower() not in PAPER:
+        err.print(f"error: --paper: {paper!r}; expected one of {', '.join(PAPER)}", markup=False)
+        raise typer.Exit(2)
     try:
-        path = write_report_pdf(out_dir, pdf)
+        path = write_report_pdf(out_dir, pdf, paper.lower())
     except FolderError as exc:
         _fail_input(exc)
         return

@@ -26,6 +26,9 @@ TITLE = "routeplan calculation report"
 #: routeplan's mark in report.html (within its first bytes)
 HTML_MARK = '<meta name="generator" content="routeplan report">'
 
+#: the start of the print CSS's page rule (the paper size: the browser's, or ``--pdf``'s)
+PAGE_RULE = "@page { size: auto;"
+
 KIND_LABEL = {"string": "string", "subarray": "sub-array", "array": "array", "ac": "AC"}
 
 CSS = """

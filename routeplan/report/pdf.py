@@ -19,7 +19,7 @@ from pathlib import Path
 
 from ..errors import FolderError
 from ..folder import MANIFEST, MARK_WINDOW, Manifest, check_own_file, reading, write_own_file
-from .html import TITLE
+from .html import PAGE_RULE, TITLE
 
 #: executables looked for on PATH, in this order
 CHROMIUM_NAMES: tuple[str, ...] = (
@@ -42,6 +42,8 @@ CHROMIUM_FLAGS: tuple[str, ...] = (
     "--no-first-run",
     "--no-pdf-header-footer",
 )
+#: paper sizes of ``--paper``: the CSS ``@page`` size the PDF is printed on
+PAPER: dict[str, str] = {"a4": "A4", "letter": "letter"}
 #: longest time Chromium may take to print, s
 TIMEOUT_S = 300
 
@@ -98,17 +100,19 @@ def check_report(out_dir: Path | str, pdf: Path | str) -> tuple[Path, str]:
     return report, chromium
 
 
-def write_report_pdf(out_dir: Path | str, pdf: Path | str) -> Path:
+def write_report_pdf(out_dir: Path | str, pdf: Path | str, paper: str = "a4") -> Path:
     """Print ``OUT/report.html`` to the PDF file ``pdf`` with headless Chromium (see the
-    module docstring); returns ``pdf``. Raises :class:`FolderError` when a check fails or
-    Chromium writes no PDF."""
+    module docstring) on ``paper`` (a key of :data:`PAPER`); returns ``pdf``. Raises
+    :class:`FolderError` when a check fails or Chromium writes no PDF."""
+    size = PAPER[paper]
     out = Path(out_dir)
     report, chromium = check_report(out, pdf)
     with tempfile.TemporaryDirectory(prefix="routeplan-pdf-") as tmp:
         target = Path(tmp) / "report.pdf"
         with reading(out):
-            page = Path(tmp) / "report.html"
-            shutil.copyfile(report, page)
+            text = report.read_text(encoding="utf-8")
+        page = Path(tmp) / "report.html"
+        page.write_text(text.replace(PAGE_RULE, f"@page {{ size: {size};", 1), encoding="utf-8")
         cmd = [
             chromium,
             *CHROMIUM_FLAGS,

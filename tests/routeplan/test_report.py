@@ -396,3 +396,11 @@ def test_report_without_chromium_names_what_it_looked_for(planned, tmp_path, mon
         "Debian's chromium package"
     )
     assert not pdf.exists()
+
+
+def test_report_refuses_an_unknown_paper(planned, tmp_path):
+    pdf = tmp_path / "r.pdf"
+    r = runner.invoke(app, ["report", str(planned["demo"]), "--pdf", str(pdf), "--paper", "a3"])
+    assert r.exit_code == 2
+    assert r.output.strip() == "error: --paper: 'a3'; expected one of a4, letter"
+    assert not pdf.exists()

@@ -118,6 +118,11 @@ def test_pdf_has_pages_with_the_design_basis_and_the_caution(planned, tmp_path):
     assert r.output.strip() == f"report: {pdf}"
     reader = pypdf.PdfReader(pdf)
     assert len(reader.pages) > 1
+    # A4 by default: 210 mm x 297 mm (ISO 216) in PostScript points (72 per inch, 25.4 mm)
+    box = reader.pages[0].mediabox
+    assert (
+        abs(float(box.width) - 210 / 25.4 * 72) < 1 and abs(float(box.height) - 297 / 25.4 * 72) < 1
+    )
     text = " ".join(" ".join(page.extract_text() for page in reader.pages).split())
     for heading in (
         "Calculation report",
@@ -134,9 +139,12 @@ def test_pdf_has_pages_with_the_design_basis_and_the_caution(planned, tmp_path):
         assert heading in text, heading
     assert " ".join(CAUTION.split()) in text
     assert "Cerro Pardo Solar" in text
-    # routeplan's own PDF is replaced on the next run (a user's is not: test_report.py)
+    # routeplan's own PDF is replaced on the next run (a user's is not: test_report.py);
+    # US letter is 8.5 in x 11 in
     pdf.write_bytes(pdf.read_bytes() + b"%an earlier run's tail\n")
-    again = runner.invoke(app, ["report", str(planned["demo"]), "--pdf", str(pdf)])
+    args = ["report", str(planned["demo"]), "--pdf", str(pdf), "--paper", "letter"]
+    again = runner.invoke(app, args)
     assert again.exit_code == 0, again.output
     assert b"earlier run" not in pdf.read_bytes()
-    assert len(pypdf.PdfReader(pdf).pages) == len(reader.pages)
+    box = pypdf.PdfReader(pdf).pages[0].mediabox
+    assert (float(box.width), float(box.height)) == (8.5 * 72, 11 * 72)
