@@ -404,3 +404,25 @@ def test_report_refuses_an_unknown_paper(planned, tmp_path):
     assert r.exit_code == 2
     assert r.output.strip() == "error: --paper: 'a3'; expected one of a4, letter"
     assert not pdf.exists()
+
+
+# -- the sections fed by other modules ---------------------------------------------------------
+
+
+def test_worked_and_chart_sections_appear_only_with_their_fragments(site_dir):
+    from routeplan.pipeline import plan as run_plan
+    from routeplan.report.html import report_html
+
+    p = run_plan(site_dir)
+    worked = '<div id="w-frag"><p>I = 12.3 A</p></div>'
+    charts = '<div id="c-frag"><svg width="10" height="10"></svg></div>'
+    both = Tables(report_html(p, worked=worked, charts=charts))
+    assert both.texts["worked"] == "3. Worked calculations" + "I = 12.3 A"  # h2, then the fragment
+    assert both.texts["w-frag"] == "I = 12.3 A"
+    assert both.texts["charts"].startswith("4. Charts")
+    assert "svg" in both.tags
+    only = report_html(p, charts=charts)
+    assert 'id="worked"' not in only
+    assert Tables(only).texts["charts"].startswith("3. Charts")
+    none = report_html(p, worked="", charts=None)
+    assert "Worked calculations" not in none and "Charts" not in none
