@@ -48,13 +48,20 @@ _UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
 )
 
 #: data tables that only a setting brings into use: (setting, value that uses it; None =
-#: any value set). Every other table of the rule set is read on every plan.
+#: any value set). Every other table of the rule set is read on every plan, but those of
+#: :data:`UNUSED_TABLES`.
 CONDITIONAL_TABLES: dict[str, tuple[str, str | None]] = {
     "iec60364_4_43_2008_table_43a_k.csv": ("fault_ka", None),
-    "iec60949_adiabatic_constants.csv": ("fault_ka", None),
     "iec60898_1_breaker_ratings.csv": ("ac_breaker_device", "iec60898-1"),
     "iec60947_2_breaker_ratings.csv": ("ac_breaker_device", "iec60947-2"),
 }
+#: data tables calc holds that the plan pipeline never reads, and why
+UNUSED_TABLES: dict[str, str] = {
+    "iec60269_1_fuse_ratings.csv": "no (string fuses are chosen from the gPV list)",
+    "iec60949_adiabatic_constants.csv": "no (the adiabatic k is read from Table 43A)",
+}
+#: the rule set's default size lists: read unless site.toml sets every kind's sizes
+DEFAULT_SIZES_TABLE = "default_size_lists.csv"
 
 
 def unit_of(name: str) -> str:
@@ -256,7 +263,11 @@ def data_tables(design: DesignConfig) -> list[DataTable]:
         t = load_table(name)
         tags = Counter(str(v) for v in t["tag"])
         used = "yes"
-        if name in CONDITIONAL_TABLES:
+        if name in UNUSED_TABLES:
+            used = UNUSED_TABLES[name]
+        elif name == DEFAULT_SIZES_TABLE and all(k in design.sizes_mm2 for k in KINDS):
+            used = "no (site.toml sets every kind's sizes)"
+        elif name in CONDITIONAL_TABLES:
             key, wanted = CONDITIONAL_TABLES[name]
             value = design.values[key]
             if wanted is None:

@@ -14,6 +14,7 @@ import json
 import math
 import re
 import shutil
+import sys
 import tomllib
 from collections import Counter, defaultdict
 from pathlib import Path
@@ -426,3 +427,38 @@ def test_worked_and_chart_sections_appear_only_with_their_fragments(site_dir):
     assert Tables(only).texts["charts"].startswith("3. Charts")
     none = report_html(p, worked="", charts=None)
     assert "Worked calculations" not in none and "Charts" not in none
+
+
+@pytest.mark.parametrize("site", ["demo", "base"])
+def test_tables_marked_used_are_the_tables_a_plan_reads(site, site_dir, monkeypatch):
+    """The tables calc reads while a site is planned (every load of a data file recorded,
+    the loader's cache emptied first) are those the report marks used."""
+    import calc.tables
+    from routeplan.pipeline import plan as run_plan
+    from routeplan.report.basis import data_tables
+
+    read: set[str] = set()
+    parse = calc.tables.parse_table
+
+    def recording(text, name="<text>"):
+        read.add(name)
+        return parse(text, name)
+
+    def clear_caches() -> None:  # the loader's, and those of functions built on tables
+        for module in list(sys.modules.values()):
+            if getattr(module, "__name__", "").startswith("calc"):
+                for value in list(vars(module).values()):
+                    if callable(getattr(value, "cache_clear", None)):
+                        value.cache_clear()
+
+    monkeypatch.setattr(calc.tables, "parse_table", recording)
+    clear_caches()
+    try:
+        p = run_plan(DEMO if site == "demo" else site_dir)
+        by_plan = set(read)  # what the plan read, not what the report reads below
+    finally:
+        clear_caches()
+    # read when routeplan.config is imported (the bifacial default of rear_irradiance_ratio)
+    by_plan.add("iec61215_1_2021_bifacial_irradiance.csv")
+    marked = {t.name for t in data_tables(p.design) if t.used == "yes"}
+    assert marked == by_plan
