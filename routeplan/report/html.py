@@ -47,6 +47,8 @@ td.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowra
 td.id, td.key { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; }
 td.id { overflow-wrap: anywhere; }
 td.key { white-space: nowrap; }
+td.file { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-size: 8pt;
+          word-break: break-all; width: 11rem; }
 .caution { border: 2px solid #a40; background: #fff4ec; padding: .6rem .8rem; margin: 1rem 0; }
 .meta td:first-child { width: 14rem; font-weight: bold; }
 .fail { color: #a00; font-weight: bold; }
@@ -235,7 +237,7 @@ def _basis(plan: Any, summary: dict) -> str:
             ("table", "source, edition, table", "tags (rows)", "tag note", "used"),
             (
                 [
-                    ("key", esc(t.name)),
+                    ("file", esc(t.name)),
                     _t(t.source),
                     ("tags", esc("; ".join(f"{k} {n}" for k, n in t.tags.items()))),
                     _t(t.tag_note),
