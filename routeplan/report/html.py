@@ -51,10 +51,16 @@ td.file { font-family: "DejaVu Sans Mono", "Liberation Mono", monospace; font-si
           word-break: break-all; width: 11rem; }
 .caution { border: 2px solid #a40; background: #fff4ec; padding: .6rem .8rem; margin: 1rem 0; }
 .meta td:first-child { width: 14rem; font-weight: bold; }
+.signoff td { height: 2.2rem; }
+.signoff td:first-child { width: 9rem; }
 .fail { color: #a00; font-weight: bold; }
 .small { font-size: 8.5pt; color: #333; }
 nav ol { margin: .3rem 0; }
-@page { size: auto; margin: 16mm 14mm 18mm 14mm; }
+@page { size: auto; margin: 16mm 14mm 18mm 14mm;
+  @bottom-left { content: "routeplan calculation report"; font: 8pt sans-serif; color: #555; }
+  @bottom-right { content: "page " counter(page) " of " counter(pages); font: 8pt sans-serif;
+                  color: #555; }
+}
 @media print {
   body { max-width: none; padding: 0; font-size: 9.5pt; }
   section.major { break-before: page; page-break-before: always; }
@@ -104,6 +110,18 @@ def _i(value: object) -> tuple[str, str]:
 
 def _n(value: float, digits: int) -> tuple[str, str]:
     return ("n", _num(value, digits))
+
+
+#: the review and approval block of the cover, filled in by hand on the printed report
+_SIGN_OFF = (
+    '<table class="signoff" id="signoff"><thead><tr><th>role</th><th>name</th>'
+    "<th>signature</th><th>date</th></tr></thead><tbody>"
+    + "".join(
+        f"<tr><td>{role}</td><td></td><td></td><td></td></tr>"
+        for role in ("prepared by", "checked by", "approved by")
+    )
+    + "</tbody></table>"
+)
 
 
 def report_html(
@@ -160,6 +178,7 @@ def report_html(
             ],
         ).replace("<table>", '<table class="meta">', 1)
         + f'<div class="caution" id="caution"><strong>Caution.</strong> {esc(CAUTION)}</div>'
+        + _SIGN_OFF
         + f"<nav><strong>Contents</strong><ol>{toc}</ol></nav></section>"
     )
     return (

@@ -134,6 +134,13 @@ def test_design_basis_has_site_crs_modules_methods_and_the_caution(planned):
     for method in ("Dijkstra", "Ohm's law", "IEC 60228:2004", "BS 7671", "IEC 60364-5-52:2009"):
         assert method in html.unescape(text)
     assert p.texts["caution"] == "Caution. " + CAUTION
+    # the cover's review block, left blank for the reviewers' hands
+    assert p.tables["signoff"] == [
+        ["role", "name", "signature", "date"],
+        ["prepared by", "", "", ""],
+        ["checked by", "", "", ""],
+        ["approved by", "", "", ""],
+    ]
     # no section without its fragment: the worked calculations and charts come separately
     assert 'id="worked"' not in text and 'id="charts"' not in text
 

@@ -139,6 +139,9 @@ def test_pdf_has_pages_with_the_design_basis_and_the_caution(planned, tmp_path):
         assert heading in text, heading
     assert " ".join(CAUTION.split()) in text
     assert "Cerro Pardo Solar" in text
+    n = len(reader.pages)  # each page numbered in its footer
+    for i in (0, n - 1):
+        assert f"page {i + 1} of {n}" in reader.pages[i].extract_text()
     # routeplan's own PDF is replaced on the next run (a user's is not: test_report.py);
     # US letter is 8.5 in x 11 in
     pdf.write_bytes(pdf.read_bytes() + b"%an earlier run's tail\n")
