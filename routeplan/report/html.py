@@ -174,9 +174,21 @@ def report_html(
                 [_t("working CRS"), _t(summary.get("site", {}).get("crs", ""))],
                 [_t("rule set"), _t(design.values["rules"])],
                 [_t("result"), _t(status)],
+                [
+                    _t("circuits"),
+                    _t(
+                        f"{sum(r.circuits for r in res.kinds):,} "
+                        f"({sum(r.failing for r in res.kinds):,} failing)"
+                    ),
+                ],
+                [
+                    _t("trench segments"),
+                    _t(f"{sum(n for _, n, _ in res.fill):,} ({res.over_count:,} over capacity)"),
+                ],
                 [_t("written by"), _t(f"routeplan {__version__}")],
             ],
-        ).replace("<table>", '<table class="meta">', 1)
+            ident="cover",
+        ).replace("<table ", '<table class="meta" ', 1)
         + f'<div class="caution" id="caution"><strong>Caution.</strong> {esc(CAUTION)}</div>'
         + _SIGN_OFF
         + f"<nav><strong>Contents</strong><ol>{toc}</ol></nav></section>"

@@ -202,6 +202,12 @@ def test_results_by_kind_and_block_equal_the_schedule(planned, which):
     label = {v: k for k, v in KIND_LABEL.items()}
     for line in table[1:]:
         check_line(line[1:], kinds[label[line[0]]])
+    cover = dict(p.tables["cover"][1:])
+    bad = sum(r["status"] != "ok" for r in rows)
+    assert cover["circuits"] == f"{len(rows):,} ({bad:,} failing)"
+    segments = read_rows(out / "trench_schedule.csv")
+    over = sum(s["status"] != "ok" for s in segments)
+    assert cover["trench segments"] == f"{len(segments):,} ({over:,} over capacity)"
     blocks = block_of(rows)
     groups = expected_groups(rows, lambda r: (blocks[r["circuit_id"]], r["kind"]))
     table = p.tables["blocks"]
