@@ -89,6 +89,7 @@ def _table(
     rows: Iterable[Sequence[tuple[str, str]]],
     *,
     ident: str = "",
+    cls: str = "",
 ) -> str:
     """A table; each cell is (css class, already escaped HTML)."""
     head = "".join(f"<th>{esc(h)}</th>" for h in headers)
@@ -96,7 +97,7 @@ def _table(
         "<tr>" + "".join(f'<td class="{cls}">{cell}</td>' for cls, cell in row) + "</tr>"
         for row in rows
     )
-    attr = f' id="{ident}"' if ident else ""
+    attr = (f' class="{cls}"' if cls else "") + (f' id="{ident}"' if ident else "")
     return f"<table{attr}><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
 
 
@@ -188,7 +189,8 @@ def report_html(
                 [_t("written by"), _t(f"routeplan {__version__}")],
             ],
             ident="cover",
-        ).replace("<table ", '<table class="meta" ', 1)
+            cls="meta",
+        )
         + f'<div class="caution" id="caution"><strong>Caution.</strong> {esc(CAUTION)}</div>'
         + _SIGN_OFF
         + f"<nav><strong>Contents</strong><ol>{toc}</ol></nav></section>"
