@@ -94,7 +94,9 @@ def _table(
     """A table; each cell is (css class, already escaped HTML)."""
     head = "".join(f"<th>{esc(h)}</th>" for h in headers)
     body = "".join(
-        "<tr>" + "".join(f'<td class="{cls}">{cell}</td>' for cls, cell in row) + "</tr>"
+        "<tr>"
+        + "".join(f'<td class="{c}">{cell}</td>' if c else f"<td>{cell}</td>" for c, cell in row)
+        + "</tr>"
         for row in rows
     )
     attr = (f' class="{cls}"' if cls else "") + (f' id="{ident}"' if ident else "")
