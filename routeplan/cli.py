@@ -601,6 +601,40 @@ def map_cmd(
 
 @app.command()
 @_guarded
+def report(
+    out_dir: Annotated[Path, typer.Argument(help="Output folder of 'routeplan plan'.")],
+    pdf: Annotated[
+        Path,
+        typer.Option(
+            "--pdf",
+            help="Print the folder's report.html to this PDF file with headless Chromium. A "
+            "file of that name that routeplan did not write is never replaced.",
+        ),
+    ],
+    paper: Annotated[
+        str,
+        typer.Option("--paper", help="Paper size of the PDF: a4 or letter."),
+    ] = "a4",
+) -> None:
+    """Print a plan's calculation report (report.html) to PDF with headless Chromium."""
+    from .report.pdf import PAPER, write_report_pdf
+
+    if paper.lower() not in PAPER:
+        err.print(f"error: --paper: {paper!r}; expected one of {', '.join(PAPER)}", markup=False)
+        raise typer.Exit(2)
+    try:
+        path = write_report_pdf(out_dir, pdf, paper.lower())
+    except FolderError as exc:
+        _fail_input(exc)
+        return
+    except OSError as exc:
+        _fail_os(exc, pdf)
+        return
+    out.print(f"report: {path}", markup=False)
+
+
+@app.command()
+@_guarded
 def synth(
     mw: Annotated[float, typer.Option("--mw", help="Plant size, MWdc.")],
     out_dir: Annotated[

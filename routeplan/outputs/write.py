@@ -2,7 +2,8 @@
 
 Files (the contract, see README "Outputs"): ``cable_schedule.csv``, ``trench_schedule.csv``,
 ``quantities.csv``, ``routes.gpkg`` (layers ``circuits``, ``segments``, ``rows``,
-``equipment``), ``cable_schedule.xlsx``, ``summary.json`` and ``map.html``, and the plan
+``equipment``), ``cable_schedule.xlsx``, ``summary.json``, ``map.html`` and ``report.html``
+(:mod:`routeplan.report`), and the plan
 cache (``.routeplan-cache/``). Everything is written into the output folder's work folder,
 then committed (:mod:`routeplan.folder`): a failed or killed run never leaves a half-written
 folder, and no file routeplan did not write is ever touched.
@@ -32,6 +33,7 @@ from ..cache import (
 )
 from ..folder import OutputFolder, file_sha256
 from ..pipeline import Plan
+from ..report.html import report_html
 from .columns import CIRCUIT_COLUMNS, INPUT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
 from .schedules import Previous, Schedule, write_csv, write_workbook
@@ -45,6 +47,7 @@ FILES: tuple[str, ...] = (
     "cable_schedule.xlsx",
     "summary.json",
     "map.html",
+    "report.html",
 )
 #: the CSV files, in the order of :func:`schedules`
 CSV_FILES: tuple[str, ...] = (
@@ -288,6 +291,10 @@ def _write_files(
     (tmp / "summary.json").write_text(
         json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
     )
+    say("write report")
+    t0 = time.perf_counter()
+    (tmp / "report.html").write_text(report_html(plan, summary), encoding="utf-8")
+    t["report"] = time.perf_counter() - t0
     digests: dict[str, str] = {}
     if cache is not None:  # while the map is drawn
         t0 = time.perf_counter()
