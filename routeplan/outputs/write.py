@@ -258,6 +258,10 @@ def _write_files(
     say("draw map")
     job = parallel.start(lambda: _write_map(plan, tmp, map_options, rows, equipment, layers))
     jobs.append(job)
+    say("write report")
+    summary = dict(plan.summary, inputs=input_digest(plan))
+    report = parallel.start(lambda: _write_report(plan, summary, tmp))
+    jobs.append(report)
 
     say("write GeoPackage")
     t0 = time.perf_counter()
@@ -279,7 +283,6 @@ def _write_files(
 
     say("write workbook")
     t0 = time.perf_counter()
-    summary = dict(plan.summary, inputs=input_digest(plan))
     sheets = {
         **tables,
         "summary": Schedule.of(_summary_rows(summary)),
@@ -291,15 +294,16 @@ def _write_files(
     (tmp / "summary.json").write_text(
         json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
     )
-    say("write report")
-    t0 = time.perf_counter()
-    (tmp / "report.html").write_text(report_html(plan, summary), encoding="utf-8")
-    t["report"] = time.perf_counter() - t0
     digests: dict[str, str] = {}
     if cache is not None:  # while the map is drawn
         t0 = time.perf_counter()
-        digests = {n: file_sha256(tmp / n) for n in FILES if n != "map.html"}
+        digests = {n: file_sha256(tmp / n) for n in FILES if n not in _CHILD_FILES}
         t["file digests"] = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    report.wait()
+    if cache is not None:
+        digests["report.html"] = file_sha256(tmp / "report.html")
+    t["report (wait)"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     job.wait()
     t["map (wait)"] = time.perf_counter() - t0
@@ -332,6 +336,23 @@ def _gpkg_layers(
         "rows": GpkgLayer.of(rows, None, ("id",)),
         "equipment": GpkgLayer.of(equipment, None, ("kind", "id")),
     }
+
+
+#: the files written by child processes (:mod:`routeplan.parallel`) while the main process
+#: writes the others
+_CHILD_FILES = ("map.html", "report.html")
+
+
+def _write_report(plan: Plan, summary: dict, tmp: Path) -> None:
+    """Write ``report.html``: the design basis and results, the worked calculations of each
+    kind's governing circuits and the charts (:mod:`routeplan.report`)."""
+    from ..report.plots import plan_plots
+    from ..report.worked import worked_calculation
+
+    worked = worked_calculation(plan.circuits, plan.segments, plan.design).html
+    charts = plan_plots(plan.circuits, plan.segments, plan.design).html
+    html = report_html(plan, summary, worked=worked, charts=charts)
+    (tmp / "report.html").write_text(html, encoding="utf-8")
 
 
 #: the map job's time and count of reused tiles, for the parent (removed once read)

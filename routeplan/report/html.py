@@ -429,10 +429,10 @@ def _results(res: Results, design: Any) -> str:
         parts.append(f'<p id="failing-count">{res.failing_count} circuit(s) fail.{more}</p>')
         parts.append(
             _table(
-                ("circuit", "kind", "block", "reason"),
+                ("circuit", "kind", "block", "reason", "what would make it pass"),
                 (
-                    [_i(cid), _t(KIND_LABEL.get(k, k)), _i(b), _t(note)]
-                    for cid, k, b, note in res.failing
+                    [_i(cid), _t(KIND_LABEL.get(k, k)), _i(b), _t(note), _t(remedy)]
+                    for cid, k, b, note, remedy in res.failing
                 ),
                 ident="failing",
             )

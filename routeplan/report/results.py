@@ -74,7 +74,7 @@ class Results:
     fill: list[tuple[str, int, float]]  # band, segments, trench metres
     over: list[tuple[str, int, float]]  # segment id, cable sets, fill
     over_count: int
-    failing: list[tuple[str, str, str, str]]  # circuit id, kind, block, note
+    failing: list[tuple[str, str, str, str, str]]  # circuit id, kind, block, note, remedy
     failing_count: int
     inputs_over: list[tuple[str, str, str]]  # inverter id, input, note
     inputs_over_count: int
@@ -209,8 +209,9 @@ def results(
     bad = np.flatnonzero(fails)
     kind_all = circuits["kind"].to_numpy(dtype=object)
     note = circuits["note"].to_numpy(dtype=object)
+    remedy = circuits["remedy"].to_numpy(dtype=object)
     failing = [
-        (str(v["circuit_id"][i]), str(kind_all[i]), str(block[i]), str(note[i]))
+        (str(v["circuit_id"][i]), str(kind_all[i]), str(block[i]), str(note[i]), str(remedy[i]))
         for i in bad[:LIST_CAP]
     ]
     inputs_over: list[tuple[str, str, str]] = []

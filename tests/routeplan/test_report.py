@@ -141,8 +141,8 @@ def test_design_basis_has_site_crs_modules_methods_and_the_caution(planned):
         ["checked by", "", "", ""],
         ["approved by", "", "", ""],
     ]
-    # no section without its fragment: the worked calculations and charts come separately
-    assert 'id="worked"' not in text and 'id="charts"' not in text
+    # a plan's report carries the worked calculations and the charts
+    assert 'id="worked"' in text and 'id="charts"' in text
 
 
 # -- results against the schedules ----------------------------------------------------------
@@ -273,7 +273,10 @@ def test_failing_circuits_are_listed_with_their_reasons(planned):
     assert failing and all(r["kind"] == "string" for r in failing)
     p = page(out)
     listed = p.tables["failing"][1:]
-    assert [(r[0], r[3]) for r in listed] == [(r["circuit_id"], r["note"]) for r in failing]
+    assert [(r[0], r[3], r[4]) for r in listed] == [
+        (r["circuit_id"], r["note"], r["remedy"]) for r in failing
+    ]
+    assert all(r[4] for r in listed)  # every failing circuit has a remedy or its limits
     assert {r[2] for r in listed} == {HOSTILE_IDS["INV1"]}
     assert p.texts["failing-count"] == f"{len(failing)} circuit(s) fail."
     assert page(planned["demo"]).texts["failing-none"].startswith("None")
@@ -296,6 +299,7 @@ def test_the_failing_list_is_capped_at_plant_scale():
             "conductors": 2,
             "status": "fail",
             "note": "needs more",
+            "remedy": "passes with 6 mm²",
             "material": "Cu",
             "size_mm2": 4.0,
         }
@@ -320,8 +324,11 @@ def test_the_failing_list_is_capped_at_plant_scale():
 def test_hostile_site_name_and_ids_are_text_not_markup(planned):
     text = (planned["hostile"] / "report.html").read_text(encoding="utf-8")
     p = Tables(text)
-    # the only elements are the report's own: no script, no img, no b from the user's text
-    assert not {"script", "img", "b"} & set(p.tags)
+    # the only elements are the report's own: no script, no b from the user's text, and the
+    # only images the charts' own (one per chart, each an embedded SVG)
+    assert not {"script", "b"} & set(p.tags)
+    charts = text[text.index('id="charts"') :]
+    assert text.count("<img") == charts.count("<img") == charts.count('src="data:image/svg+xml')
     site = dict(r for r in p.tables["site"][1:])
     assert site["project / site name"] == HOSTILE_NAME
     ids = {r[0] for r in p.tables["failing"][1:]}
