@@ -446,7 +446,10 @@ def _print_summary(summary: dict, out_dir: Path, failing: list[str] | None = Non
         + (
             "every circuit and trench segment within its limits"
             if summary["ok"]
-            else "SOME CIRCUITS, TRENCH SEGMENTS OR INVERTER INPUTS FAIL A LIMIT (see status, note and remedy)"
+            else (
+                "SOME CIRCUITS, TRENCH SEGMENTS OR INVERTER INPUTS FAIL A LIMIT "
+                "(see status, note and remedy)"
+            )
         ),
         markup=False,
     )

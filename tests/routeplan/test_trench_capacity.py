@@ -27,7 +27,10 @@ from ..conftest import E0, N0, SITE_TOML, UTM33, base_frames, write_site
 
 runner = CliRunner()
 WITHIN = "result: every circuit and trench segment within its limits"
-FAILING = "result: SOME CIRCUITS, TRENCH SEGMENTS OR INVERTER INPUTS FAIL A LIMIT (see status, note and remedy)"
+FAILING = (
+    "result: SOME CIRCUITS, TRENCH SEGMENTS OR INVERTER INPUTS FAIL A LIMIT "
+    "(see status, note and remedy)"
+)
 
 
 def plan(tmp_path: Path, frames, toml: str = SITE_TOML):
