@@ -339,3 +339,37 @@ def test_a_string_exactly_at_the_dc_total_is_not_limited_by_it():
     assert _remedies(inp, dp) == [
         f"governed by G0; {STRING_LIMIT}; passes with 6 mm² (add 6 to design.sizes_mm2.string)"
     ]
+
+
+def test_circuits_without_trench_segments_are_given_their_remedy():
+    # calc sizes a plan with no trench segment (every circuit in air, the segment fields left
+    # out): the remedy too. A 400 m string in air, alone (EN 50618:2014 Table A.3, from memory:
+    # 4 mm² two adjacent on a surface 44 A ≥ 16.25 A), its drop at the PV cable's 120 °C
+    # (EN 50618:2014, the conductor temperature of Table A.3), R20 · (1 + 0.00393 · 100):
+    # 4 mm² 5.09 · 1.393 → 2 · 0.4 · 12 · 7.090 / 1000 = 6.81 %; 25 mm² 0.795 · 1.393
+    # → 1.063 % > 1 %; 35 mm² 0.565 · 1.393 → 0.756 % ≤ 1 %. No segment: no spacing remedy.
+    inp = _input(kind=[0], cable_m=[400.0], air_m=[400.0])
+    dp = calc.DesignParams(sizes_string_mm2=(4,))
+    assert _remedies(inp, dp, segments=0) == [
+        "limited by largest size in design.sizes_mm2.string (4 mm²), design.drop_pct.string, "
+        "design.drop_pct.dc_total (the drop through its feeders); "
+        "passes with 35 mm² (add 35 to design.sizes_mm2.string)"
+    ]
+
+
+def test_whole_number_float_incidences_name_the_same_trenches():
+    # calc takes incidences as whole-number floats (and the spacing left out as 0 m): two
+    # strings of I_SC 28 A touching in T-0 (as in the spacing test above)
+    inp = _input(
+        kind=[0, 0],
+        isc_a=[28.0, 28.0],
+        inc_circuit=[0.0, 1.0],
+        inc_segment=[0.0, 0.0],
+        seg_depth_m=[0.7],
+    )
+    dp = calc.DesignParams(sizes_string_mm2=(4,))
+    text = (
+        f"{STRING_LIMIT}; passes with 6 mm² (add 6 to design.sizes_mm2.string); or passes with "
+        f"spacing_m = 0.25 on trench T-0 {SPACING_TEXT}"
+    )
+    assert _remedies(inp, dp) == [f"governed by G0; {text}", f"governed by G1; {text}"]
