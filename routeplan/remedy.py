@@ -146,8 +146,14 @@ def remedies(
     # 4. more space between the circuits in the trenches of the circuits failing on
     # grouping, with the sizes as listed (also offered beside a larger cable)
     grouped = fail & why["capacity"] & (np.asarray(result.factor_group) < 1.0 - 1e-9)
-    spacing = np.asarray(inp.seg_spacing_m, dtype=float)
-    inc_c, inc_s = np.asarray(inp.inc_circuit), np.asarray(inp.inc_segment)
+    # the trench fields as calc reads them: left out, none (spacing 0 m); incidences whole
+    # numbers of any dtype
+    m = len(segment_trench)
+    spacing = np.zeros(m) if inp.seg_spacing_m is None else np.asarray(inp.seg_spacing_m, float)
+    inc_c, inc_s = (
+        np.zeros(0, np.int64) if v is None else np.asarray(v).astype(np.int64).ravel()
+        for v in (inp.inc_circuit, inp.inc_segment)
+    )
     order = np.argsort(inc_c, kind="stable")  # each circuit's incidences: first[i]:first[i+1]
     first = np.searchsorted(inc_c[order], np.arange(n + 1))
     for gap in SPACINGS_M:

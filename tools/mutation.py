@@ -192,8 +192,12 @@ TARGETS = {
             *(f"{_NET}/test_trench_checks.py::{t}" for t in _TRENCH_CHECKS_CLI),
         ),
     ),
-    # what a failing circuit's remedy says: whole plans sized again (the tests plan the demo)
-    "remedy": Target("routeplan/remedy.py", ("tests/routeplan/test_remedy.py",)),
+    # what a failing circuit's remedy says: whole plans sized again (the tests plan the demo),
+    # and the exact texts on small hand-built circuits
+    "remedy": Target(
+        "routeplan/remedy.py",
+        ("tests/routeplan/test_remedy.py", "tests/routeplan/test_remedy_units.py"),
+    ),
     # the bill of quantities
     "quantities": Target("routeplan/quantities.py", ("tests/routeplan/test_quantities.py",)),
     "routing": Target(
