@@ -89,7 +89,9 @@ def by_id(frame: pd.DataFrame, key: str) -> pd.DataFrame:
 
 def test_cable_schedule_per_kind(small):
     c = by_id(small.circuits, "circuit_id")
-    assert c.index.tolist() == ["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3", "A:CB1", "AC:INV1"]
+    # block order: the inverter's AC circuit, the combiner's array cable, its rows' strings
+    assert c.index.tolist() == ["AC:INV1", "A:CB1", "R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3"]
+    c = c.loc[["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3", "A:CB1", "AC:INV1"]]
     assert c["kind"].tolist() == ["string"] * 5 + ["array", "ac"]
     assert c["from_id"].tolist() == ["R1", "R1", "R2", "R2", "R2", "CB1", "INV1"]
     assert c["to_id"].tolist() == ["CB1"] * 5 + ["INV1", "G1"]
@@ -392,7 +394,8 @@ def test_the_first_trench_segment_can_govern(tmp_path):
     t["laying"] = ["duct", "duct"]
     frames["trenches"] = t.iloc[::-1].reset_index(drop=True)
     c = by_id(plan(write_site(tmp_path / "site", frames)).circuits, "circuit_id")
-    assert c["governing"].tolist()[:5] == ["T2@0.0-3.0"] * 5
+    strings = c[c["kind"] == "string"]
+    assert len(strings) == 5 and strings["governing"].tolist() == ["T2@0.0-3.0"] * 5
     assert c.loc["AC:INV1", "governing"] == "T2@58.0-108.0"
 
 
