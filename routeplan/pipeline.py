@@ -752,11 +752,14 @@ def summarise(
             "count": len(inputs),
             "over_limit": int((inputs["status"] == "over").sum()),
         },
-        "cable_m": [
-            {"material": mat, "size_mm2": float(size), "metres": round(float(v), 2)}
+        # conductor metres (cable length × current-carrying conductors) and run metres (each
+        # circuit's cable length once), allowances included in both
+        "conductor_m": [
+            {"material": mat, "size_mm2": float(size), "conductor_m": round(float(v), 2)}
             for (mat, size), v in metres.items()
         ],
-        "cable_m_total": round(float(metres.sum()), 2),
+        "conductor_m_total": round(float(metres.sum()), 2),
+        "run_m_total": round(float(circuits["cable_m"].sum()), 2),
         "loss_w_total": float(circuits["loss_w"].sum()),
         "energy_loss_kwh_total": float(circuits["energy_loss_kwh"].sum()),
         "caution": CAUTION,

@@ -60,7 +60,7 @@ CIRCUIT_FIELDS = (
     ("current", "Design current"),
     ("ampacity", "Ampacity (base × derating)"),
     ("utilisation", "Utilisation"),
-    ("length", "Route / cable"),
+    ("length", "Route / run metres (cable length)"),
     ("grouping", "Most circuits grouped"),
     ("vdrop", "Voltage drop"),
     ("vdrop_total", "Voltage drop, total"),
@@ -77,7 +77,7 @@ STRING_GROUP_FIELDS = (
     ("conductor", "Conductor"),
     ("utilisation", "Utilisation, worst"),
     ("vdrop_total", "Voltage drop, total, worst"),
-    ("cable", "Cable, sum"),
+    ("cable", "Run metres, sum"),
     ("loss", "Loss, sum"),
     ("failing", "Failing"),
 )

@@ -131,7 +131,8 @@ def summary_rows(summary: dict[str, Any]) -> pd.DataFrame:
         if key in s:
             add(("Totals", item, _value(s.pop(key)), readable(key.removesuffix("_total"))[1]))
     for a in s.pop("assigned", []):
-        item = f"{a.get('layer', '')} {a.get('id', '')} → {a.get('to', '')} ({a.get('rule', '')})"
+        layer = {"rows": "row", "combiners": "combiner"}.get(a.get("layer"), a.get("layer", ""))
+        item = f"{layer} {a.get('id', '')} → {a.get('to', '')} ({a.get('rule', '')})"
         add(("Destinations assigned by the planner", item, _value(a.get("route_m")), "m"))
     caution = s.pop("caution", None)
     digests = s.pop("inputs", {})

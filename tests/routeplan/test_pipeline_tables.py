@@ -319,14 +319,14 @@ def test_summary_counts_and_worst_values_by_kind(small):
     assert s["segments"] == {"count": 3, "over_capacity": 0, "trench_m": 60.0}
     assert s["inverter_inputs"] == {"count": 2, "over_limit": 0}
     # conductor metres by material and size (sorted), rounded to the centimetre
-    assert s["cable_m"] == [
-        {"material": "Al", "size_mm2": 16.0, "metres": 80.01},  # 2 x 40.004 = 80.008 m
-        {"material": "Al", "size_mm2": 240.0, "metres": 600.0},
-        {"material": "Cu", "size_mm2": 4.0, "metres": 61.0},
-        {"material": "Cu", "size_mm2": 6.0, "metres": 60.0},
-        {"material": "Cu", "size_mm2": 95.0, "metres": 400.0},
+    assert s["conductor_m"] == [
+        {"material": "Al", "size_mm2": 16.0, "conductor_m": 80.01},  # 2 x 40.004 = 80.008 m
+        {"material": "Al", "size_mm2": 240.0, "conductor_m": 600.0},
+        {"material": "Cu", "size_mm2": 4.0, "conductor_m": 61.0},
+        {"material": "Cu", "size_mm2": 6.0, "conductor_m": 60.0},
+        {"material": "Cu", "size_mm2": 95.0, "conductor_m": 400.0},
     ]
-    assert s["cable_m_total"] == 1201.01  # 1201.008 m
+    assert s["conductor_m_total"] == 1201.01  # 1201.008 m
     assert s["loss_w_total"] == 28.0
     assert s["energy_loss_kwh_total"] == 280.0
     assert s["drop_limits_pct"] == dict(DESIGN.drop_pct)
