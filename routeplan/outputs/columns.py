@@ -152,7 +152,7 @@ QUANTITY_COLUMNS: tuple[Col, ...] = (
     Col("size_mm2", "mm²", 1),
     Col("laying", doc="trench laying (trench)"),
     Col("depth_m", "m", 2, "trench depth (trench)"),
-    Col("quantity", "", 2, "metres (cable, trench) or count"),
+    Col("quantity", "", 2, "conductor metres (cable), trench metres (trench) or count"),
     Col("unit", doc="m or pcs"),
 )
 
