@@ -101,16 +101,56 @@ def combiner_of(kind: pd.Series, from_id: pd.Series, to_id: pd.Series) -> np.nda
     return np.where(kind == "string", string_cb, np.where(kind == "ac", None, frm))
 
 
+def string_number(ids: np.ndarray) -> np.ndarray:
+    """The number ``k`` ending each id of the form ``…/S<k>`` (int64; -1 where an id does
+    not end so, or has more than 15 digits there), from the ids' code points on arrays.
+
+    Examples
+    --------
+    >>> string_number(np.array(["R1/S2", "R10/S12", "AC:INV1", "R2/S", "B/S7x"])).tolist()
+    [2, 12, -1, -1, -1]
+    """
+    ids = np.asarray(ids, dtype=str)
+    n = len(ids)
+    if n == 0 or ids.dtype.itemsize == 0:
+        return np.full(n, -1, dtype=np.int64)
+    width = ids.dtype.itemsize // 4
+    cp = ids.view(np.uint32).reshape(n, width)
+    length = (cp != 0).sum(axis=1)  # numpy pads with NUL (an id's own trailing NULs: -1)
+    digit = (cp >= 48) & (cp <= 57)
+    # trailing digits: digits from each position to the end of the text
+    from_end = np.arange(width)[None, :] >= length[:, None]
+    tail = np.flip(np.cumprod(np.flip(digit | from_end, axis=1), axis=1), axis=1).astype(bool)
+    tail &= ~from_end
+    n_digits = tail.sum(axis=1)
+    start = length - n_digits  # first trailing digit
+    at = np.arange(n)
+    before = np.clip(start - 2, 0, None)
+    marked = (
+        (start >= 2)
+        & (cp[at, before] == ord("/"))
+        & (cp[at, np.clip(start - 1, 0, None)] == ord("S"))
+    )
+    ok = marked & (n_digits > 0) & (n_digits <= 15)
+    power = np.where(tail, length[:, None] - 1 - np.arange(width)[None, :], 0)
+    value = (np.where(tail, cp.astype(np.int64) - 48, 0) * 10 ** np.clip(power, 0, 15)).sum(axis=1)
+    return np.where(ok, value, -1)
+
+
 def schedule_order(circuits: pd.DataFrame) -> np.ndarray:
     """Positions of ``circuits`` (columns ``inverter_id``, ``kind``, ``from_id``, ``to_id``,
     ``circuit_id``) in schedule order: inverter, combiner (the inverter's own circuits
     first), kind (:data:`KIND_RANK`: the cable leaving a combiner before what it collects),
-    row, then circuit id (``<row>/S<k>`` by k), each in natural order."""
+    row, then string number (``<row>/S<k>`` by k), each in natural order, then the id."""
     kind = circuits["kind"].to_numpy(dtype=object)
     frm = circuits["from_id"].to_numpy(dtype=object)
-    row = np.where(kind == "string", frm, None)
+    is_string = kind == "string"
+    row = np.where(is_string, frm, None)
+    # a string's number k of "<row>/S<k>" (the ids of one row differ only there); the few
+    # ties left (one array or AC circuit per combiner or inverter) keep the routes' order
+    k = np.where(is_string, string_number(circuits["circuit_id"].to_numpy(dtype=str)), -1)
     keys = (
-        natural_rank(circuits["circuit_id"]),
+        k,
         natural_rank(row),
         pd.Series(kind).map(KIND_RANK).fillna(9).to_numpy(dtype=np.int64),
         natural_rank(combiner_of(kind, frm, circuits["to_id"])),
