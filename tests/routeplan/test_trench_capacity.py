@@ -138,6 +138,10 @@ def test_parallel_sets_fill_a_trench_given_in_cable_sets(tmp_path):
     assert segments["T2@0.0-3.0"]["fill_basis"] == "circuits"
     assert result.exit_code == 0, result.output
     assert_rule(segments)
+    # the map's trench tooltip says both counts and the capacity in its own terms
+    html = (tmp_path / "full" / "out" / "map.html").read_text(encoding="utf-8")
+    assert '"1 (strings 0, arrays 0, AC 1) · 3 cable sets"' in html
+    assert '"max 3 cable sets"' in html and '"max 5 circuits"' in html
 
     result, segments, circuits, summary = plan(tmp_path / "over", *parallel_site(2))
     s = segments["T3@0.0-50.0"]
@@ -184,3 +188,31 @@ def test_both_capacities_on_one_trench_are_refused(tmp_path):
         ]
         assert "Traceback" not in result.output
     assert not out.exists()
+
+
+def test_the_design_default_fills_only_a_trench_that_gives_no_capacity(tmp_path):
+    # [design] max_circuits = 2 where a trench gives none: T1 (none given) holds 2 circuits,
+    # its busiest segment carries 5 strings, 5 / 2 = 2.500, over; T3 gives 3 cable sets and
+    # takes no default circuits (it would be both); T2 gives 5 circuits
+    frames, toml = parallel_site(3)
+    frames["trenches"]["max_circuits"] = [None, 5, None]
+    toml = toml.replace("snap_m = 20.0", "snap_m = 20.0\nmax_circuits = 2")
+    result, segments, _, summary = plan(tmp_path, frames, toml)
+    assert result.exit_code == 1, result.output
+    t1, t3 = segments["T1@20.0-30.0"], segments["T3@0.0-50.0"]
+    assert (t1["max_circuits"], t1["fill"], t1["fill_basis"], t1["status"]) == (
+        "2",
+        "2.500",
+        "circuits",
+        "over",
+    )
+    assert (t3["max_circuits"], t3["max_cable_sets"], t3["fill"], t3["fill_basis"]) == (
+        "",
+        "3",
+        "1.000",
+        "cable_sets",
+    )
+    assert_rule(segments)
+    assert summary["segments"]["over_capacity"] == sum(
+        s["status"] == "over" for s in segments.values()
+    )
