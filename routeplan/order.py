@@ -110,7 +110,8 @@ def string_number(ids: np.ndarray) -> np.ndarray:
     >>> string_number(np.array(["R1/S2", "R10/S12", "AC:INV1", "R2/S", "B/S7x"])).tolist()
     [2, 12, -1, -1, -1]
     """
-    ids = np.asarray(ids, dtype=str)
+    # the last 24 characters hold "/S" and up to 15 digits (and a long id costs no memory)
+    ids = pd.Series(np.asarray(ids, dtype=object)).str[-24:].to_numpy(dtype=str)
     n = len(ids)
     if n == 0 or ids.dtype.itemsize == 0:
         return np.full(n, -1, dtype=np.int64)
@@ -141,7 +142,8 @@ def schedule_order(circuits: pd.DataFrame) -> np.ndarray:
     """Positions of ``circuits`` (columns ``inverter_id``, ``kind``, ``from_id``, ``to_id``,
     ``circuit_id``) in schedule order: inverter, combiner (the inverter's own circuits
     first), kind (:data:`KIND_RANK`: the cable leaving a combiner before what it collects),
-    row, then string number (``<row>/S<k>`` by k), each in natural order, then the id."""
+    row, then string number (``<row>/S<k>`` by k), each in natural order; ties (none among
+    the ids routeplan makes) keep their order (the sort is stable)."""
     kind = circuits["kind"].to_numpy(dtype=object)
     frm = circuits["from_id"].to_numpy(dtype=object)
     is_string = kind == "string"

@@ -56,8 +56,6 @@ class Totals:
     trench_m: float
     over_capacity: int
     extra: list[str] = field(default_factory=list)
-    #: conductor metres: Σ ``cable_m`` × ``conductors`` (empty when the column is missing)
-    conductor_m_by_kind: dict[str, float] = field(default_factory=dict)
 
 
 def _worst(values: np.ndarray, ids: np.ndarray) -> tuple[float, str]:
@@ -72,8 +70,8 @@ def plan_totals(circuits: pd.DataFrame, segments: pd.DataFrame, over: np.ndarray
 
     The worst DC drop is the largest ``vdrop_total_pct`` of string and array circuits; the worst
     AC drop the largest ``vdrop_total_pct`` of AC circuits (``vdrop_pct`` where the total is
-    missing). Run metres are the sum of ``cable_m`` by kind (each circuit's cable once);
-    conductor metres that sum times each circuit's ``conductors``.
+    missing). Run metres are the sum of ``cable_m`` by kind (each circuit's cable once; the
+    conductor metres, × conductors, are in the bill of quantities).
     """
     kinds = circuit_kind(circuits)
     ids = circuits["circuit_id"].astype(str).to_numpy() if len(circuits) else np.array([])
@@ -94,12 +92,6 @@ def plan_totals(circuits: pd.DataFrame, segments: pd.DataFrame, over: np.ndarray
     order = [*known, *sorted(set(kinds) - set(known))]
     by_kind = {k: int((kinds == k).sum()) for k in order if (kinds == k).any()}
     cable_by_kind = {k: float(np.nansum(cable[kinds == k])) for k in by_kind}
-    conductors = num("conductors")
-    conductor_by_kind = (
-        {k: float(np.nansum((cable * conductors)[kinds == k])) for k in by_kind}
-        if np.isfinite(conductors).any()
-        else {}
-    )
     seg_len = (
         pd.to_numeric(segments["length_m"], errors="coerce").to_numpy(dtype=float)
         if "length_m" in segments.columns
@@ -117,7 +109,6 @@ def plan_totals(circuits: pd.DataFrame, segments: pd.DataFrame, over: np.ndarray
         segments=len(segments),
         trench_m=float(np.nansum(seg_len)),
         over_capacity=int(np.sum(over)),
-        conductor_m_by_kind=conductor_by_kind,
     )
 
 
@@ -222,8 +213,8 @@ def legend_html(*, segment_reference: int, aggregated: bool) -> str:
     )
     parts += [
         "<b>Trench segments: fill</b>",
-        '<div class="rp-note">circuits ÷ max circuits, or cable sets ÷ max cable sets (the '
-        f"capacity the trench gives){'; ' + no_cap if no_cap else ''}</div>",
+        f'<div class="rp-note">circuits or cable sets ÷ capacity{"; " + no_cap if no_cap else ""}'
+        "</div>",
         f'<div class="rp-bar" style="background:{FILL.css_gradient()};opacity:.55"></div>',
         '<div class="rp-ticks"><span>0 %</span><span>50 %</span><span>≥ 100 %</span></div>',
         _key(
@@ -267,14 +258,10 @@ def summary_html(site_name: str, totals: Totals, *, crs_name: str) -> str:
             return MISSING
         return f"{fmt_number([value], 2, '%')[0]} ({escape_text(cid)})"
 
-    def by_kind(metres: dict[str, float]) -> str:
-        return " · ".join(
-            f"{escape_text(_KIND.get(k, k))} {fmt_number([m], 0, 'm')[0]}"
-            for k, m in metres.items()
-        )
-
-    cable = by_kind(totals.cable_m_by_kind)
-    conductor = by_kind(totals.conductor_m_by_kind)
+    cable = " · ".join(
+        f"{escape_text(_KIND.get(k, k))} {fmt_number([m], 0, 'm')[0]}"
+        for k, m in totals.cable_m_by_kind.items()
+    )
     over = (
         f'<span class="rp-fail">{totals.over_capacity} over capacity</span>'
         if totals.over_capacity
@@ -285,8 +272,7 @@ def summary_html(site_name: str, totals: Totals, *, crs_name: str) -> str:
         _row("Failing", failing),
         _row("Worst DC drop, total", drop(totals.worst_dc_drop_pct, totals.worst_dc_drop_id)),
         _row("Worst AC drop", drop(totals.worst_ac_drop_pct, totals.worst_ac_drop_id)),
-        _row("Run metres (cable runs)", cable or MISSING),
-        *([_row("Conductor metres", conductor)] if conductor else []),
+        _row("Run metres", cable or MISSING),
         _row("Cable losses", fmt_number([totals.loss_w], 0, "W")[0]),
         _row(
             "Trench segments",

@@ -19,7 +19,13 @@ import pytest
 from typer.testing import CliRunner
 
 from routeplan.cli import app
-from routeplan.order import inverter_of, natural_key, natural_rank, schedule_order
+from routeplan.order import (
+    inverter_of,
+    natural_key,
+    natural_rank,
+    schedule_order,
+    string_number,
+)
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 runner = CliRunner()
@@ -145,3 +151,10 @@ def test_schedule_order_of_a_frame():
     )
     got = frame["circuit_id"].to_numpy()[schedule_order(frame)].tolist()
     assert got == ["AC:INV2", "A:CB1", "R2/S2", "R2/S10", "R10/S1", "AC:INV10"]
+
+
+def test_string_number_of_long_and_odd_ids():
+    ids = ["X" * 500 + "/S17", "R1/S" + "9" * 15, "R1/S" + "9" * 16, "/S3", "S3", "R/S03", ""]
+    assert string_number(np.array(ids, dtype=object)).tolist() == [
+        17, 999_999_999_999_999, -1, 3, -1, 3, -1,
+    ]  # fmt: skip
