@@ -1,8 +1,8 @@
 """One name per quantity (README, "Outputs"): conductor metres (cable length × conductors)
 and run metres (each circuit's cable length once) named as such in the command line's
 summary and ``summary.json``, run metres in the map's panel; and ``routeplan diff`` still
-compares a plan written before the rename (``cable_m``/``metres``/``cable_m_total``, no ``inverter_id``,
-``max_cable_sets`` or ``fill_basis`` columns) with a new one.
+compares a plan written before the rename (``cable_m``/``metres``/``cable_m_total``, no
+``inverter_id``, ``max_cable_sets`` or ``fill_basis`` columns) with a new one.
 
 Expected figures are summed here from ``cable_schedule.csv`` with the csv module.
 """
