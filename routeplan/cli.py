@@ -366,12 +366,12 @@ def _print_summary(summary: dict, out_dir: Path) -> None:
         )
     cables = ", ".join(
         f"{c['material']} {c['size_mm2']:g} mm² {c['conductor_m']:,.0f} m"
-        for c in summary["conductor_m"]
+        for c in summary.get("conductor_m", [])
     )
     out.print(f"conductor metres: {cables} (allowances included)", markup=False)
-    out.print(
-        f"run metres: {summary['run_m_total']:,.0f} m (each circuit's cable once)", markup=False
-    )
+    if "run_m_total" in summary:
+        run = summary["run_m_total"]
+        out.print(f"run metres: {run:,.0f} m (each circuit's cable once)", markup=False)
     out.print(
         f"losses: {summary['loss_w_total'] / 1000:,.2f} kW at operating current; "
         f"≈ {summary['energy_loss_kwh_total'] / 1000:,.1f} MWh/year (estimate)",
