@@ -63,7 +63,8 @@ class Site:
       short-circuit current), ``input_max_strings`` (string terminals), NaN = not given;
       Point or Polygon.
     - ``trenches``: ``id``, ``depth_m``, ``laying`` (str or None), ``spacing_m``, ``soil_k_m_w``,
-      ``max_circuits`` (NaN where not given); LineString/MultiLineString.
+      ``max_circuits`` or ``max_cable_sets`` (the capacity, one way; NaN where not given);
+      LineString/MultiLineString.
     - ``grid``: ``id``; Point. Empty frame when the site has no grid layer.
 
     ``config`` is the parsed ``site.toml`` (a plain mapping); ``design`` and ``allowances`` are its

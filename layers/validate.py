@@ -115,6 +115,7 @@ FIELDS: dict[str, tuple[Field, ...]] = {
         Field("spacing_m", "float", low=0, high=5),
         Field("soil_k_m_w", "float", low=0, low_open=True, high=10),
         Field("max_circuits", "int", low=1, high=MAX_CAPACITY),
+        Field("max_cable_sets", "int", low=1, high=MAX_CAPACITY),
     ),
     "grid": (),
 }
@@ -551,6 +552,19 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
             frame[fld.name] = pd.Series(out, index=frame.index, dtype=object)
     if name == "inverters" and "phases" in frame.columns:
         frame["phases"] = frame["phases"].fillna(3).astype(int)
+    if name == "trenches" and n:
+        both = frame["max_circuits"].notna() & frame["max_cable_sets"].notna()
+        if both.any():
+            labeller = _labeller(frame)
+            problems += [
+                Problem(
+                    name,
+                    labeller(i),
+                    "gives both max_circuits and max_cable_sets: give the trench's capacity "
+                    "one way",
+                )
+                for i in np.flatnonzero(both.to_numpy()).tolist()
+            ]
     return frame, problems
 
 

@@ -425,9 +425,13 @@ def _print_summary(summary: dict, out_dir: Path, failing: list[str] | None = Non
             markup=False,
         )
     cables = ", ".join(
-        f"{c['material']} {c['size_mm2']:g} mm² {c['metres']:,.0f} m" for c in summary["cable_m"]
+        f"{c['material']} {c['size_mm2']:g} mm² {c['conductor_m']:,.0f} m"
+        for c in summary.get("conductor_m", [])
     )
-    out.print(f"cable: {cables} (conductor metres, allowances included)", markup=False)
+    out.print(f"conductor metres: {cables} (allowances included)", markup=False)
+    if "run_m_total" in summary:
+        run = summary["run_m_total"]
+        out.print(f"run metres: {run:,.0f} m (each circuit's cable once)", markup=False)
     out.print(
         f"losses: {summary['loss_w_total'] / 1000:,.2f} kW at operating current; "
         f"≈ {summary['energy_loss_kwh_total'] / 1000:,.1f} MWh/year (estimate)",

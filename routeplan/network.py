@@ -85,7 +85,11 @@ TRENCH_ATTRIBUTES: tuple[str, ...] = (
     "spacing_m",
     "soil_k_m_w",
     "max_circuits",
+    "max_cable_sets",
 )
+#: the two ways to give a trench's capacity (at most one per trench, :mod:`layers.validate`):
+#: circuits, or cable sets (a circuit laid as n parallel sets counted n times)
+CAPACITY_ATTRIBUTES: tuple[str, str] = ("max_circuits", "max_cable_sets")
 
 
 @contextlib.contextmanager
@@ -323,7 +327,7 @@ def _fill(trenches: gpd.GeoDataFrame, defaults: TrenchDefaults) -> pd.DataFrame:
     """Trench attributes with missing values (or missing columns) filled from ``defaults``."""
     out = {}
     for name in TRENCH_ATTRIBUTES:
-        default = getattr(defaults, name)
+        default = getattr(defaults, name, math.nan)
         if name not in trenches:
             col = pd.Series([default] * len(trenches), index=trenches.index)
         elif name == "laying":
@@ -332,6 +336,16 @@ def _fill(trenches: gpd.GeoDataFrame, defaults: TrenchDefaults) -> pd.DataFrame:
         else:
             col = pd.to_numeric(trenches[name], errors="coerce").astype(float).fillna(default)
         out[name] = col.to_numpy()
+    # a trench that gives its capacity one way takes no default the other way
+    given = {
+        name: pd.to_numeric(trenches[name], errors="coerce").notna().to_numpy()
+        if name in trenches
+        else np.zeros(len(trenches), dtype=bool)
+        for name in CAPACITY_ATTRIBUTES
+    }
+    a, b = CAPACITY_ATTRIBUTES
+    out[a] = np.where(given[b] & ~given[a], np.nan, out[a].astype(float))
+    out[b] = np.where(given[a] & ~given[b], np.nan, out[b].astype(float))
     return pd.DataFrame(out)
 
 
@@ -599,7 +613,7 @@ def build_network(
     ----------
     trenches : geopandas.GeoDataFrame
         ``id`` and optional attributes (``depth_m``, ``laying``, ``spacing_m``,
-        ``soil_k_m_w``, ``max_circuits``; NaN/None where not given);
+        ``soil_k_m_w``, ``max_circuits`` or ``max_cable_sets``; NaN/None where not given);
         LineString/MultiLineString in a projected CRS [m].
     equipment : geopandas.GeoDataFrame, optional
         ``layer``, ``feature_id`` and any geometry (see :func:`site_equipment`).

@@ -30,6 +30,7 @@ from .check import load
 from .config import DESIGN_KEYS, DesignConfig, parse_design
 from .errors import DesignError, Problem
 from .inputs import INPUT_COLUMNS, assign_inputs, input_table, landing_input
+from .order import inverter_of, schedule_order
 from .quantities import bill_of_quantities
 from .remedy import remedies
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
@@ -457,6 +458,7 @@ def plan_site(
     quantities = quantity_table(circuits, segments, design)
     summary = summarise(site, design, circuits, segments, result, inputs)
     summary["assigned"] = assigned_destinations(routes)
+    circuits = circuits.iloc[schedule_order(circuits)].reset_index(drop=True)  # block order
     t["tables"] = time.perf_counter() - t0
     return Plan(
         site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
@@ -499,9 +501,11 @@ def circuit_table(
     governing: np.ndarray | None = None,
     remedy: np.ndarray | None = None,
 ) -> gpd.GeoDataFrame:
-    """The cable schedule: contract columns first (see :mod:`routeplan.outputs.columns`).
-    ``governing`` (:func:`governing_ids`) and ``remedy`` (:func:`routeplan.remedy.remedies`)
-    are computed here when not given (``remedy`` then left blank)."""
+    """The cable schedule: contract columns first (see :mod:`routeplan.outputs.columns`), in
+    the order of ``routes.circuits`` (:func:`plan_site` sorts it by block afterwards,
+    :func:`routeplan.order.schedule_order`). ``governing`` (:func:`governing_ids`) and
+    ``remedy`` (:func:`routeplan.remedy.remedies`) are computed here when not given
+    (``remedy`` then left blank)."""
     c = routes.circuits
     final = np.asarray(r.seg_count_final)
     group_max = np.zeros(len(c), dtype=np.int64)
@@ -521,6 +525,7 @@ def circuit_table(
             "kind": c["kind"].to_numpy(),
             "from_id": c["from_id"].to_numpy(),
             "to_id": c["to_id"].to_numpy(),
+            "inverter_id": inverter_of(c["kind"], c["from_id"], c["to_id"]),
             "material": r.material,
             "size_mm2": r.size_mm2,
             "parallel": r.parallel,
@@ -591,14 +596,23 @@ def _pf(pf: np.ndarray, design: DesignConfig) -> np.ndarray:
 
 
 def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
-    """The trench schedule: one line per segment. ``cable_sets`` counts a circuit laid as n
-    parallel sets n times — it is the count the grouping factor uses and the one compared with
-    ``max_circuits`` (each set takes a place in the trench)."""
+    """The trench schedule: one line per segment. ``circuits`` counts circuits, ``cable_sets``
+    counts a circuit laid as n parallel sets n times (the count the grouping factor uses).
+    ``fill`` is measured against the capacity the trench gives (``fill_basis``): ``circuits /
+    max_circuits``, or ``cable_sets / max_cable_sets`` (a trench gives at most one)."""
     s = routes.segments
     sets = np.asarray(r.seg_count_final, dtype=np.int64)
+    count = s["circuits"].to_numpy(dtype=float)
     cap = s["max_circuits"].to_numpy(dtype=float)
+    cap_sets = (
+        s["max_cable_sets"].to_numpy(dtype=float)
+        if "max_cable_sets" in s
+        else np.full(len(s), np.nan)
+    )
+    by_sets = np.isnan(cap) & np.isfinite(cap_sets)
     with np.errstate(invalid="ignore", divide="ignore"):
-        fill = np.where(np.isfinite(cap), sets / cap, np.nan)
+        fill = np.where(by_sets, sets / cap_sets, np.where(np.isfinite(cap), count / cap, np.nan))
+    basis = np.where(by_sets, "cable_sets", np.where(np.isfinite(cap), "circuits", ""))
     frame = pd.DataFrame(
         {
             "segment_id": s["segment_id"].to_numpy(),
@@ -612,6 +626,8 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "fill": fill,
             "status": np.where(np.isfinite(fill) & (fill > 1 + _EPS), "over", "ok"),
             "circuit_ids": s["circuit_ids"].to_numpy(),
+            "max_cable_sets": cap_sets,
+            "fill_basis": basis,
             "depth_m": s["depth_m"].to_numpy(),
             "laying": s["laying"].to_numpy(),
             "spacing_m": s["spacing_m"].to_numpy(),
@@ -719,11 +735,14 @@ def summarise(
             "count": len(inputs),
             "over_limit": int((inputs["status"] == "over").sum()),
         },
-        "cable_m": [
-            {"material": mat, "size_mm2": float(size), "metres": round(float(v), 2)}
+        # conductor metres (cable length × current-carrying conductors) and run metres (each
+        # circuit's cable length once), allowances included in both
+        "conductor_m": [
+            {"material": mat, "size_mm2": float(size), "conductor_m": round(float(v), 2)}
             for (mat, size), v in metres.items()
         ],
-        "cable_m_total": round(float(metres.sum()), 2),
+        "conductor_m_total": round(float(metres.sum()), 2),
+        "run_m_total": round(float(circuits["cable_m"].sum()), 2),
         "loss_w_total": float(circuits["loss_w"].sum()),
         "energy_loss_kwh_total": float(circuits["energy_loss_kwh"].sum()),
         "caution": CAUTION,

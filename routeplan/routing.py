@@ -497,8 +497,8 @@ class RoutePlan:
         One row per segment of each route, by circuit and in route order: ``circuit`` and
         ``segment`` (indices into :attr:`circuits` and :attr:`segments`), ``circuit_id``,
         ``segment_id``, ``length_m``, ``circuits`` (circuits sharing the segment),
-        ``depth_m``, ``laying``, ``spacing_m``, ``soil_k_m_w``, ``max_circuits``: the
-        per-circuit segment attributes :mod:`calc` needs, as plain columns.
+        ``depth_m``, ``laying``, ``spacing_m``, ``soil_k_m_w``, ``max_circuits``,
+        ``max_cable_sets``: the per-circuit segment attributes :mod:`calc` needs, as plain columns.
         """
         c, s = self.incidence_circuit, self.incidence_segment
         seg = self.segments

@@ -569,8 +569,9 @@ def quantity_rows(old: pd.DataFrame, new: pd.DataFrame) -> list[dict]:
 
 
 def plant_block(old: dict, new: dict) -> pd.DataFrame:
-    """The plant-level block: cable metres by kind, material and size (the bill of
-    quantities' cable lines), cable and trench metres (summary), losses [kW] and annual
+    """The plant-level block: cable conductor metres by kind, material and size (the bill of
+    quantities' cable lines), all conductor metres and trench metres (summary, the earlier
+    ``cable_m_total`` of older plans read as ``conductor_m_total``), losses [kW] and annual
     energy loss [MWh/year], failing circuits, over-capacity trench segments and inverter
     inputs over a limit: old, new and new − old."""
 
@@ -588,7 +589,7 @@ def plant_block(old: dict, new: dict) -> pd.DataFrame:
         s = plan["summary"]
         fail = sum(int(v["fail"]) for v in s["circuits"].values())
         return {
-            "cable, all": ("m", float(s["cable_m_total"])),
+            "cable, all (conductor metres)": ("m", float(s["conductor_m_total"])),
             "trench": ("m", float(s["segments"]["trench_m"])),
             "losses at operating current": ("kW", float(s["loss_w_total"]) / 1000),
             "energy loss": ("MWh/year", float(s["energy_loss_kwh_total"]) / 1000),

@@ -348,10 +348,12 @@ SUMMARY_KEYS: tuple[tuple[str, ...], ...] = (
     ("segments", "over_capacity"),
     ("segments", "trench_m"),
     ("inverter_inputs", "over_limit"),
-    ("cable_m_total",),
+    ("conductor_m_total",),
     ("loss_w_total",),
     ("energy_loss_kwh_total",),
 )
+#: keys of ``summary.json`` renamed since: new name → the name plans written before used
+RENAMED_KEYS: dict[str, str] = {"conductor_m_total": "cable_m_total"}
 
 
 def read_summary(folder: Path) -> dict:
@@ -365,7 +367,11 @@ def read_summary(folder: Path) -> dict:
         summary = json.loads(path.read_text(encoding="utf-8"))
     except (OSError, ValueError) as exc:
         raise DiffError(f"{path}: unreadable ({type(exc).__name__}: {exc})") from None
+    written = []  # the keys as this file names them (older plans: the earlier names)
     for keys in SUMMARY_KEYS:
+        old = RENAMED_KEYS.get(keys[0]) if len(keys) == 1 else None
+        if old and isinstance(summary, dict) and keys[0] not in summary and old in summary:
+            keys = (old,)
         value = summary
         for k in keys:
             if not isinstance(value, dict) or k not in value:
@@ -373,6 +379,7 @@ def read_summary(folder: Path) -> dict:
                     f"{path}: no key {'.'.join(keys)} (not a summary of 'routeplan plan')"
                 )
             value = value[k]
+        written.append(keys)
     if summary["tool"]["name"] != "routeplan":
         raise DiffError(f"{path}: tool.name is {summary['tool']['name']!r}, not 'routeplan'")
     circuits = summary["circuits"]
@@ -386,12 +393,15 @@ def read_summary(folder: Path) -> dict:
                     f"{path}: no key circuits.{kind}.{f} (not a summary of 'routeplan plan')"
                 )
             numbers.append((f"circuits.{kind}.{f}", v[f], True))
-    numbers += [(".".join(k), _get(summary, k), k[-1] in _COUNTS) for k in SUMMARY_KEYS[3:]]
+    numbers += [(".".join(k), _get(summary, k), k[-1] in _COUNTS) for k in written[3:]]
     for name, v, count in numbers:
         if isinstance(v, bool) or not isinstance(v, int | float) or not _finite(v):
             raise DiffError(f"{path}: {name} is {v!r}, not a number")
         if count and (v < 0 or v != int(v)):
             raise DiffError(f"{path}: {name} is {v!r}, not a count")
+    for new, old in RENAMED_KEYS.items():  # read under the current names
+        if new not in summary:
+            summary[new] = summary.pop(old)
     return summary
 
 

@@ -60,7 +60,7 @@ CIRCUIT_FIELDS = (
     ("current", "Design current"),
     ("ampacity", "Ampacity (base × derating)"),
     ("utilisation", "Utilisation"),
-    ("length", "Route / cable"),
+    ("length", "Route / run metres (cable length)"),
     ("grouping", "Most circuits grouped"),
     ("vdrop", "Voltage drop"),
     ("vdrop_total", "Voltage drop, total"),
@@ -77,7 +77,7 @@ STRING_GROUP_FIELDS = (
     ("conductor", "Conductor"),
     ("utilisation", "Utilisation, worst"),
     ("vdrop_total", "Voltage drop, total, worst"),
-    ("cable", "Cable, sum"),
+    ("cable", "Run metres, sum"),
     ("loss", "Loss, sum"),
     ("failing", "Failing"),
 )
@@ -734,8 +734,9 @@ def segment_values(
 ) -> tuple[np.ndarray, np.ndarray, int]:
     """Scale position, over-capacity flag and reference count of trench segments.
 
-    Where a capacity is set, the position is the fill (``fill``, or circuits ÷ ``max_circuits``
-    when ``fill`` is missing). Where none is set, it is the number of circuits divided by the
+    Where a capacity is set, the position is the fill (``fill``, or when it is missing
+    circuits ÷ ``max_circuits``, or cable sets ÷ ``max_cable_sets`` for a trench that gives
+    that). Where none is set, it is the number of circuits divided by the
     largest number of circuits in any segment (the reference count, returned for the legend),
     so such a segment is as dark as the busiest trench only if it carries as many circuits.
     A segment is over capacity when its ``status`` is "over" or its fill exceeds 1.
@@ -750,11 +751,11 @@ def segment_values(
         capacity); ``reference`` when given (the whole plant's, for a part of its segments).
     """
     circuits = _num(df, "circuits")
-    cap = _num(df, "max_circuits")
+    count, cap = _capacity(df)
     fill = _num(df, "fill")
     has_cap = ~np.isnan(cap) & (cap > 0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        fill = np.where(np.isnan(fill) & has_cap, circuits / cap, fill)
+        fill = np.where(np.isnan(fill) & has_cap, count / cap, fill)
     if reference is None:
         busiest = np.nanmax(circuits) if np.isfinite(circuits).any() else 0.0
         ref = int(busiest) if (~has_cap).any() and busiest > 0 else 0
@@ -765,6 +766,15 @@ def segment_values(
     status_over = _text(df, "status").str.strip().str.lower().eq("over").to_numpy()
     over = status_over | (has_cap & (np.nan_to_num(fill, nan=0.0) > 1.0 + 1e-9))
     return t, over, ref
+
+
+def _capacity(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """What each segment's fill counts and its capacity: circuits and ``max_circuits``, or
+    cable sets and ``max_cable_sets`` where only that is given (NaN capacity: none)."""
+    cap = _num(df, "max_circuits")
+    by_sets = np.isnan(cap) & ~np.isnan(_num(df, "max_cable_sets"))
+    count = np.where(by_sets, _num(df, "cable_sets"), _num(df, "circuits"))
+    return count, np.where(by_sets, _num(df, "max_cable_sets"), cap)
 
 
 def _circuits_text(total, s, sa, a, c) -> str:
@@ -796,9 +806,19 @@ def segment_props(df: pd.DataFrame, t: np.ndarray, over: np.ndarray) -> Props:
         _circuits_text, _num(df, "circuits"), _num(df, "strings"), _num(df, "subarrays"),
         _num(df, "arrays"), _num(df, "ac"),
     )  # fmt: skip
-    cap = _num(df, "max_circuits")
+    _, cap = _capacity(df)
     has_cap = ~np.isnan(cap) & (cap > 0)
-    capacity = per_distinct(lambda c, h: f"max {c:g} circuits" if h else "not set", cap, has_cap)
+    unit = np.where(np.isnan(_num(df, "max_circuits")), 1.0, 0.0)  # 1: cable sets
+    capacity = per_distinct(
+        lambda c, h, u: f"max {c:g} {'cable sets' if u else 'circuits'}" if h else "not set",
+        cap,
+        has_cap,
+        unit,
+    )
+    sets = _num(df, "cable_sets")
+    more = np.flatnonzero(~np.isnan(sets) & (sets != _num(df, "circuits"))).tolist()
+    for i in more:  # parallel sets: the count the grouping and a cable-set capacity use
+        circuits[i] = f"{circuits[i]} · {sets[i]:g} cable sets"
     fill = fmt_number(np.where(has_cap, t, np.nan), 0, "%", scale=100)
     ids = [_ids_text(s) for s in _text(df, "circuit_ids").tolist()]
     status = np.where(over, "OVER CAPACITY", _text(df, "status").to_numpy())

@@ -49,6 +49,7 @@ class Totals:
     worst_dc_drop_id: str
     worst_ac_drop_pct: float
     worst_ac_drop_id: str
+    #: run metres: Σ ``cable_m`` (one cable length per circuit, allowances included)
     cable_m_by_kind: dict[str, float]
     loss_w: float
     segments: int
@@ -69,7 +70,8 @@ def plan_totals(circuits: pd.DataFrame, segments: pd.DataFrame, over: np.ndarray
 
     The worst DC drop is the largest ``vdrop_total_pct`` of string and array circuits; the worst
     AC drop the largest ``vdrop_total_pct`` of AC circuits (``vdrop_pct`` where the total is
-    missing). Cable is the sum of ``cable_m`` by kind.
+    missing). Run metres are the sum of ``cable_m`` by kind (each circuit's cable once; the
+    conductor metres, × conductors, are in the bill of quantities).
     """
     kinds = circuit_kind(circuits)
     ids = circuits["circuit_id"].astype(str).to_numpy() if len(circuits) else np.array([])
@@ -211,7 +213,8 @@ def legend_html(*, segment_reference: int, aggregated: bool) -> str:
     )
     parts += [
         "<b>Trench segments: fill</b>",
-        f'<div class="rp-note">cable sets ÷ max circuits{"; " + no_cap if no_cap else ""}</div>',
+        f'<div class="rp-note">circuits or cable sets ÷ capacity{"; " + no_cap if no_cap else ""}'
+        "</div>",
         f'<div class="rp-bar" style="background:{FILL.css_gradient()};opacity:.55"></div>',
         '<div class="rp-ticks"><span>0 %</span><span>50 %</span><span>≥ 100 %</span></div>',
         _key(
@@ -269,7 +272,7 @@ def summary_html(site_name: str, totals: Totals, *, crs_name: str) -> str:
         _row("Failing", failing),
         _row("Worst DC drop, total", drop(totals.worst_dc_drop_pct, totals.worst_dc_drop_id)),
         _row("Worst AC drop", drop(totals.worst_ac_drop_pct, totals.worst_ac_drop_id)),
-        _row("Cable runs", cable or MISSING),
+        _row("Run metres", cable or MISSING),
         _row("Cable losses", fmt_number([totals.loss_w], 0, "W")[0]),
         _row(
             "Trench segments",

@@ -27,7 +27,16 @@ import pandas as pd
 from .columns import Col
 from .reuse import chunk_bounds, chunk_keys, layout, row_hashes
 from .tables import TextTable, format_table, ordered
-from .xlsx import SHEET_TAIL, Piece, cell_lengths, package_parts, sheet_head, sheet_rows, write_zip
+from .xlsx import (
+    Piece,
+    cell_lengths,
+    filter_range,
+    package_parts,
+    sheet_head,
+    sheet_rows,
+    sheet_tail,
+    write_zip,
+)
 
 #: first characters that make a spreadsheet read a CSV cell as a formula: ``= + - @``, TAB
 #: and CR (OWASP, "CSV Injection"; from memory) and NUL (OWASP ASVS 5.0, requirement 1.2.10)
@@ -224,10 +233,23 @@ def write_csv(schedule: Schedule, path: Path, previous: Previous) -> tuple[dict,
     return {"csv": index}, len(schedule.keys) - len(fresh)
 
 
-def write_workbook(sheets: dict[str, Schedule], path: Path, previous: Previous) -> tuple[dict, int]:
+def write_workbook(
+    sheets: dict[str, Schedule],
+    path: Path,
+    previous: Previous,
+    filtered: Iterable[str] = (),
+) -> tuple[dict, int]:
     """Write the sheets (name → schedule, in order) as an .xlsx workbook. Returns its index
-    (per sheet) and the number of chunks copied."""
-    entries = [(name, [Piece.of(data)]) for name, data in package_parts(list(sheets))]
+    (per sheet) and the number of chunks copied. Every sheet's header row is frozen; the
+    ``filtered`` sheets (data tables) also get an autofilter over their header and columns
+    and a frozen first (id) column."""
+    filtered = set(filtered)
+    filters = {
+        name: filter_range(len(s.data), len(s.titles))
+        for name, s in sheets.items()
+        if name in filtered
+    }
+    entries = [(name, [Piece.of(data)]) for name, data in package_parts(list(sheets), filters)]
     plan: list[tuple[str, Schedule, list[Piece], list[np.ndarray]]] = []
     copied = 0
     for name, s in sheets.items():
@@ -248,7 +270,8 @@ def write_workbook(sheets: dict[str, Schedule], path: Path, previous: Previous) 
                 longest.append(most)
         copied += len(s.keys) - len(fresh)
         widest = np.max(longest, axis=0) if longest else np.zeros(len(s.titles), dtype=np.int64)
-        head, tail = Piece.of(sheet_head(s.titles, widest)), Piece.of(SHEET_TAIL)
+        head = Piece.of(sheet_head(s.titles, widest, freeze_cols=int(name in filters)))
+        tail = Piece.of(sheet_tail(filters.get(name)))
         entries.append((f"xl/worksheets/sheet{len(plan) + 1}.xml", [head, *pieces, tail]))
         plan.append((name, s, pieces, longest))
     where = write_zip(path, entries)

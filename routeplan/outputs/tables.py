@@ -124,13 +124,24 @@ class TextColumn:
     decimals: int | None
     cells: list[bytes]
     array: np.ndarray
+    #: the values themselves, for a column of mixed types (numbers, booleans, text: the
+    #: workbook writes each cell by its type); None for a column of one type
+    values: list | None = None
 
     @classmethod
-    def of(cls, name: str, title: str, numeric: bool, decimals: int | None, cells) -> TextColumn:
+    def of(
+        cls,
+        name: str,
+        title: str,
+        numeric: bool,
+        decimals: int | None,
+        cells,
+        values: list | None = None,
+    ) -> TextColumn:
         """A column from a list or array of bytes cells."""
         if isinstance(cells, np.ndarray):
-            return cls(name, title, numeric, decimals, cells.tolist(), cells)
-        return cls(name, title, numeric, decimals, cells, np.array(cells, dtype=object))
+            return cls(name, title, numeric, decimals, cells.tolist(), cells, values)
+        return cls(name, title, numeric, decimals, cells, np.array(cells, dtype=object), values)
 
 
 @dataclass(frozen=True, eq=False)
@@ -178,5 +189,8 @@ def format_table(frame: pd.DataFrame, cols: tuple[Col, ...] = ()) -> TextTable:
             text = fixed_text(values, decimals) if decimals is not None else general_text(values)
             out.append(TextColumn.of(str(name), title, True, decimals, text))
         else:
-            out.append(TextColumn.of(str(name), title, False, None, _text_cells(col)))
+            values = col.to_numpy(dtype=object)
+            mixed = pd.api.types.infer_dtype(values, skipna=True) not in ("string", "empty")
+            typed = values.tolist() if mixed else None
+            out.append(TextColumn.of(str(name), title, False, None, _text_cells(col), typed))
     return TextTable(tuple(out), len(data))

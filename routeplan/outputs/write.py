@@ -37,6 +37,7 @@ from ..report.html import report_html
 from .columns import CIRCUIT_COLUMNS, INPUT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
 from .schedules import Previous, Schedule, write_csv, write_workbook
+from .summary_sheet import summary_rows
 
 FILES: tuple[str, ...] = (
     "cable_schedule.csv",
@@ -285,11 +286,13 @@ def _write_files(
     t0 = time.perf_counter()
     sheets = {
         **tables,
-        "summary": Schedule.of(_summary_rows(summary)),
+        "summary": Schedule.of(summary_rows(summary)),
         "caution": Schedule.of(pd.DataFrame({"caution": [CAUTION]})),
     }
     xlsx = "cable_schedule.xlsx"
-    index[xlsx], copied[xlsx] = write_workbook(sheets, tmp / xlsx, _previous(plan, xlsx, last))
+    index[xlsx], copied[xlsx] = write_workbook(
+        sheets, tmp / xlsx, _previous(plan, xlsx, last), filtered=tables
+    )
     t["xlsx"] = time.perf_counter() - t0
     (tmp / "summary.json").write_text(
         json.dumps(summary, indent=2, sort_keys=False, default=_json) + "\n", encoding="utf-8"
@@ -394,24 +397,6 @@ def _write_map(
         "sha256": hashlib.sha256(data).hexdigest(),
     }
     (tmp / _MAP_STATS).write_text(json.dumps(stats), encoding="utf-8")
-
-
-def _summary_rows(summary: dict) -> pd.DataFrame:
-    """The summary flattened to (item, value) rows for the workbook."""
-    rows = []
-
-    def walk(prefix: str, value) -> None:
-        if isinstance(value, dict):
-            for k, v in value.items():
-                walk(f"{prefix}.{k}" if prefix else str(k), v)
-        elif isinstance(value, list):
-            for i, v in enumerate(value):
-                walk(f"{prefix}[{i}]", v)
-        else:
-            rows.append((prefix, value))
-
-    walk("", summary)
-    return pd.DataFrame(rows, columns=["item", "value"])
 
 
 def _json(value):

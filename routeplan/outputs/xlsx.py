@@ -142,13 +142,51 @@ def _text_cells(cells: list[bytes]) -> list[bytes]:
     return made[codes].tolist()
 
 
+def typed_cells(values: Sequence[object]) -> list[bytes]:
+    """Cells of a column of mixed values, each by its type (ECMA-376 Part 1, §18.3.1.4
+    ``c``, ``t`` attribute): a bool as a boolean cell (``t="b"``, 1 or 0), an int or float
+    as a number (shortest text that reads back as the same float, general format), text as
+    an inline string (:func:`xml_text`); None and NaN or infinite numbers as an empty cell.
+
+    Examples
+    --------
+    >>> cells = typed_cells([True, 3, 0.25, "a<b", None, float("nan")])
+    >>> cells[:3]
+    [b'<c t="b"><v>1</v></c>', b'<c><v>3</v></c>', b'<c><v>0.25</v></c>']
+    >>> cells[3:]
+    [b'<c s="2" t="inlineStr"><is><t>a&lt;b</t></is></c>', b'<c s="2"/>', b'<c s="2"/>']
+    """
+    out = []
+    for v in values:
+        if isinstance(v, (bool, np.bool_)):
+            out.append(b'<c t="b"><v>1</v></c>' if v else b'<c t="b"><v>0</v></c>')
+        elif isinstance(v, (int, float, np.integer, np.floating)):
+            x = float(v)
+            if not np.isfinite(x):
+                out.append(b'<c s="2"/>')
+            elif isinstance(v, (int, np.integer)) and abs(int(v)) < 2**53:
+                out.append(b"<c><v>%d</v></c>" % int(v))
+            else:
+                out.append(b"<c><v>" + repr(x).encode("ascii") + b"</v></c>")
+        elif v is None or (isinstance(v, str) and v == ""):
+            out.append(b'<c s="2"/>')
+        else:
+            text = xml_text(str(v).encode("utf-8", "surrogatepass"))
+            out.append(b'<c s="2" t="inlineStr"><is><t>' + text + b"</t></is></c>")
+    return out
+
+
+def _column_cells(c) -> list[bytes]:
+    """The cells of one formatted column (:class:`routeplan.outputs.tables.TextColumn`)."""
+    if c.values is not None:
+        return typed_cells(c.values)
+    return _number_cells(c.array, c.decimals) if c.numeric else _text_cells(c.cells)
+
+
 def sheet_rows(table: TextTable, bounds: Sequence[int]) -> list[bytes]:
     """The ``<row>`` elements of ``table`` (cells without references: in order), joined per
     run of rows between successive ``bounds`` (row offsets in ``table``)."""
-    cells = [
-        _number_cells(c.array, c.decimals) if c.numeric else _text_cells(c.cells)
-        for c in table.columns
-    ]
+    cells = [_column_cells(c) for c in table.columns]
     out = []
     for a, b in itertools.pairwise(bounds):
         rows = zip(
@@ -177,25 +215,72 @@ def cell_lengths(table: TextTable) -> np.ndarray:
     return out
 
 
-def sheet_head(titles: list[str], longest: np.ndarray) -> bytes:
+def column_letters(j: int) -> str:
+    """The column's letters in an A1 reference, of the 1-based column number ``j``.
+
+    Examples
+    --------
+    >>> [column_letters(j) for j in (1, 26, 27, 52, 703)]
+    ['A', 'Z', 'AA', 'AZ', 'AAA']
+    """
+    out = ""
+    while j > 0:
+        j, r = divmod(j - 1, 26)
+        out = chr(ord("A") + r) + out
+    return out
+
+
+def filter_range(n_rows: int, n_cols: int) -> str:
+    """The A1 range of a table with its header row (``A1:X{n_rows + 1}``), for the autofilter.
+
+    Examples
+    --------
+    >>> filter_range(3, 28)
+    'A1:AB4'
+    """
+    return f"A1:{column_letters(max(n_cols, 1))}{n_rows + 1}"
+
+
+def sheet_head(titles: list[str], longest: np.ndarray, freeze_cols: int = 0) -> bytes:
     """The sheet's XML up to and with its bold header row; column widths from the titles and
-    the longest cell of each column (``longest``), between 6 and 50 characters."""
+    the longest cell of each column (``longest``), between 6 and 50 characters. The header row
+    is frozen, and with it the first ``freeze_cols`` columns (the id column of a schedule):
+    ECMA-376 Part 1, §18.3.1.66 ``pane``."""
     widths = [min(max(len(t), int(n), 6) + 2, 50) for t, n in zip(titles, longest, strict=True)]
     cols = "".join(
         f'<col min="{j}" max="{j}" width="{w}" customWidth="1"/>'
         for j, w in enumerate(widths, start=1)
     )
     header = "".join(f'<c s="1" t="inlineStr"><is><t>{xml_str(t)}</t></is></c>' for t in titles)
+    if freeze_cols > 0:
+        corner = f"{column_letters(freeze_cols + 1)}2"
+        pane = (
+            f'<sheetView workbookViewId="0"><pane xSplit="{freeze_cols}" ySplit="1" '
+            f'topLeftCell="{corner}" activePane="bottomRight" state="frozen"/>'
+            '<selection pane="bottomRight"/></sheetView>'
+        )
+    else:
+        pane = (
+            '<sheetView workbookViewId="0"><pane ySplit="1" topLeftCell="A2" '
+            'activePane="bottomLeft" state="frozen"/></sheetView>'
+        )
     return (
         '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
         '<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
-        '<sheetViews><sheetView workbookViewId="0"><pane ySplit="1" topLeftCell="A2" '
-        'activePane="bottomLeft" state="frozen"/></sheetView></sheetViews>'
+        f"<sheetViews>{pane}</sheetViews>"
         f"<cols>{cols}</cols><sheetData><row>{header}</row>"
     ).encode()
 
 
 SHEET_TAIL = b"</sheetData></worksheet>"
+
+
+def sheet_tail(autofilter: str | None = None) -> bytes:
+    """The sheet's XML after its rows, with an autofilter over the A1 range ``autofilter``
+    when given (ECMA-376 Part 1, §18.3.1.2 ``autoFilter``, after ``sheetData``)."""
+    if autofilter is None:
+        return SHEET_TAIL
+    return f'</sheetData><autoFilter ref="{autofilter}"/></worksheet>'.encode()
 
 
 @dataclass(frozen=True)
@@ -290,8 +375,13 @@ def write_zip(path: Path, entries: list[tuple[str, list[Piece]]]) -> list[list[i
     return offsets
 
 
-def package_parts(names: list[str]) -> list[tuple[str, bytes]]:
-    """The workbook's parts other than the sheets, for sheets called ``names`` (in order)."""
+def package_parts(
+    names: list[str], filters: dict[str, str] | None = None
+) -> list[tuple[str, bytes]]:
+    """The workbook's parts other than the sheets, for sheets called ``names`` (in order);
+    ``filters``: sheet name → the A1 range of its autofilter, declared as the sheet's hidden
+    ``_xlnm._FilterDatabase`` name (ECMA-376 Part 1, §18.2.5; spreadsheets expect it beside
+    the sheet's ``autoFilter``)."""
     ct_sheets = "".join(
         f'<Override PartName="/xl/worksheets/sheet{i}.xml" ContentType="application/'
         'vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
@@ -321,7 +411,7 @@ def package_parts(names: list[str]) -> list[tuple[str, bytes]]:
         '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
         '<workbook xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
         'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships">'
-        f"<sheets>{wb_sheets}</sheets></workbook>"
+        f"<sheets>{wb_sheets}</sheets>{_defined_names(names, filters or {})}</workbook>"
     )
     wb_rels = (
         '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
@@ -341,3 +431,20 @@ def package_parts(names: list[str]) -> list[tuple[str, bytes]]:
         ("xl/_rels/workbook.xml.rels", wb_rels.encode("utf-8")),
         ("xl/styles.xml", _styles_xml().encode("utf-8")),
     ]
+
+
+def _defined_names(names: list[str], filters: dict[str, str]) -> str:
+    """``definedNames`` of the autofilters: ``'sheet'!$A$1:$X$n`` per filtered sheet."""
+    items = []
+    for i, name in enumerate(names):
+        ref = filters.get(name)
+        if ref is None:
+            continue
+        a, b = ref.split(":")
+        absolute = ":".join("$" + re.sub(r"(\d+)$", r"$\1", x) for x in (a, b))
+        quoted = "'" + name[:31].replace("'", "''") + "'"
+        items.append(
+            f'<definedName name="_xlnm._FilterDatabase" localSheetId="{i}" hidden="1">'
+            f"{escape(quoted)}!{absolute}</definedName>"
+        )
+    return f"<definedNames>{''.join(items)}</definedNames>" if items else ""

@@ -77,8 +77,10 @@ def lengths_frames(
     max_circuits: dict[str, float] | None = None,
     strings: tuple[int, int] = (2, 3),
     cb: tuple[float, float] = (203.0, 4.0),
+    capacity_key: str = "max_circuits",
 ) -> dict[str, gpd.GeoDataFrame]:
-    """The lengths site (see the module docstring and :data:`HAND`).
+    """The lengths site (see the module docstring and :data:`HAND`); the trenches'
+    capacities ``max_circuits`` given as the attribute ``capacity_key``.
 
     T1 runs (0, 0) → (200, 0), direct at 0.8 m; T2 (100, 0) → (100, 80), in duct at the
     default depth: a T at (100, 0). R1 is the line x = 10, y 5…45 (40 m); R2 a rectangle
@@ -108,7 +110,7 @@ def lengths_frames(
             "id": ["T1", "T2"],
             "depth_m": [0.8, np.nan],
             "laying": ["direct", "duct"],
-            "max_circuits": [cap.get("T1", np.nan), cap.get("T2", np.nan)],
+            capacity_key: [cap.get("T1", np.nan), cap.get("T2", np.nan)],
         },
         geometry=[LineString([xy(0, 0), xy(200, 0)]), LineString([xy(100, 0), xy(100, 80)])],
         crs=UTM33,

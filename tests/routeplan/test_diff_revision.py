@@ -223,8 +223,8 @@ def test_plant_deltas_are_the_difference_of_the_two_runs_totals(pad_move):
         total("new", "energy_loss_kwh_total") - total("old", "energy_loss_kwh_total")
     ) / 1000
     assert float(energy["delta"]) == pytest.approx(expected, abs=1e-3)
-    cable = plant["cable, all"]
-    expected = total("new", "cable_m_total") - total("old", "cable_m_total")
+    cable = plant["cable, all (conductor metres)"]
+    expected = total("new", "conductor_m_total") - total("old", "conductor_m_total")
     assert float(cable["delta"]) == pytest.approx(expected, abs=0.01)
     assert float(cable["delta"]) == pytest.approx(
         float(cable["new"]) - float(cable["old"]), abs=1e-9

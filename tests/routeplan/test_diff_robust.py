@@ -146,7 +146,7 @@ DAMAGE = {
     ),
     "cut at a line end": (
         cut_bytes(CABLE, lambda d: d.rindex(b"\n", 0, len(d) - 1) + 1),
-        f"{CABLE}: 0 ac circuits where summary.json counts 1 (truncated or edited?)",
+        f"{CABLE}: 4 string circuits where summary.json counts 5 (truncated or edited?)",
     ),
     "header only": (
         cut_bytes(QTY, lambda d: d.index(b"\n") + 1),
@@ -175,7 +175,7 @@ DAMAGE = {
     ),
     "duplicate circuit": (
         duplicate_row(CABLE, 1),
-        f"{CABLE}: circuit_id 'R1/S1' on lines 2 and 3",
+        f"{CABLE}: circuit_id 'AC:INV1' on lines 2 and 3",
     ),
     "duplicate segment": (
         # the base site's trench T1 from chainage 0 to 10 m (its first segment), twice
@@ -365,12 +365,12 @@ def test_a_duplicate_hostile_id_is_named_safely(tmp_path):
     """An id with control characters is shown escaped in the message (no raw escape code
     reaches the terminal)."""
     out = plan(write_site(tmp_path / "s", hostile_frames(), toml=hostile_toml()), tmp_path / "o")
-    duplicate_row(CABLE, 1)(out)
+    duplicate_row(CABLE, 3)(out)  # the first string (after the AC and array circuits)
     result = diff(out, out)
     assert result.exit_code == 2
-    first = rows_of(out / CABLE)[1][0]
+    first = rows_of(out / CABLE)[3][0]
     assert first.startswith("'")  # guarded in the file, named as planned
-    assert result.stderr == (f"error: {out / CABLE}: circuit_id {first[1:]!r} on lines 2 and 3\n")
+    assert result.stderr == (f"error: {out / CABLE}: circuit_id {first[1:]!r} on lines 4 and 5\n")
     assert "\x1b" not in result.stderr and "\x01" not in result.stderr
 
 

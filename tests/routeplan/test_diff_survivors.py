@@ -93,7 +93,7 @@ PLANT = [
     "  cable array Cu 10.0 mm²        - → 120.00 (+120.00) m",
     "  cable array Cu 6.0 mm²         100.00 → - (-100.00) m",
     "  cable string Cu 4.0 mm²        252.00 → 252.00 (+0.00) m",
-    "  cable, all                     2016.00 → 2026.00 (+10.00) m",
+    "  cable, all (conductor metres)  2016.00 → 2026.00 (+10.00) m",
     "  trench                         290.00 → 290.00 (+0.00) m",
     "  losses at operating current    0.051 → 2.048 (+1.997) kW",
     "  energy loss                    0.051 → 2.048 (+1.997) MWh/year",
@@ -171,7 +171,10 @@ def test_the_terminal_lines_of_a_diff_with_every_kind_of_change(tmp_path):
     assert changes(d, "plant") == [
         ("plant", "cable array Cu 10.0 mm²", "changed", "m", "", "120.00", "+120.00", "", "", ""),
         ("plant", "cable array Cu 6.0 mm²", "changed", "m", "100.00", "", "-100.00", "", "", ""),
-        ("plant", "cable, all", "changed", "m", "2016.00", "2026.00", "+10.00", "", "", ""),
+        (
+            "plant", "cable, all (conductor metres)", "changed", "m", "2016.00", "2026.00",
+            "+10.00", "", "", "",
+        ),
         (
             "plant", "losses at operating current", "changed", "kW", "0.051", "2.048", "+1.997",
             "", "", "",

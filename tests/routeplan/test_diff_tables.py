@@ -114,7 +114,7 @@ def summary_of(circuits: list[list[str]], segments: list[list[str]]) -> dict:
             "trench_m": sum(float(r[SEGMENT_HEADER.index("length_m")]) for r in segments),
         },
         "inverter_inputs": {"count": 1, "over_limit": 0},
-        "cable_m_total": sum(float(r[col["cable_m"]]) for r in circuits),
+        "conductor_m_total": sum(float(r[col["cable_m"]]) for r in circuits),
         "loss_w_total": loss_w,
         "energy_loss_kwh_total": loss_w * 1000 / 1000,  # W × h / (1000 W/kW)
     }
@@ -663,7 +663,7 @@ def test_no_summary_json_is_refused(tmp_path):
         ("segments", "trench_m"),
         ("inverter_inputs",),
         ("inverter_inputs", "over_limit"),
-        ("cable_m_total",),
+        ("conductor_m_total",),
         ("loss_w_total",),
         ("energy_loss_kwh_total",),
     ],
@@ -714,7 +714,7 @@ def test_a_summary_json_of_another_tool_or_not_an_object(tmp_path):
         (("segments", "over_capacity"), None, "None"),
         (("segments", "trench_m"), [120.0], "[120.0]"),
         (("inverter_inputs", "over_limit"), True, "True"),  # a JSON true is no count
-        (("cable_m_total",), float("nan"), "nan"),  # JSON as Python writes it: NaN
+        (("conductor_m_total",), float("nan"), "nan"),  # JSON as Python writes it: NaN
         (("loss_w_total",), float("inf"), "inf"),
         (("energy_loss_kwh_total",), "1.5", "'1.5'"),
         (("circuits", "string", "circuits"), "2", "'2'"),

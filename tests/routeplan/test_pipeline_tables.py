@@ -89,7 +89,9 @@ def by_id(frame: pd.DataFrame, key: str) -> pd.DataFrame:
 
 def test_cable_schedule_per_kind(small):
     c = by_id(small.circuits, "circuit_id")
-    assert c.index.tolist() == ["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3", "A:CB1", "AC:INV1"]
+    # block order: the inverter's AC circuit, the combiner's array cable, its rows' strings
+    assert c.index.tolist() == ["AC:INV1", "A:CB1", "R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3"]
+    c = c.loc[["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3", "A:CB1", "AC:INV1"]]
     assert c["kind"].tolist() == ["string"] * 5 + ["array", "ac"]
     assert c["from_id"].tolist() == ["R1", "R1", "R2", "R2", "R2", "CB1", "INV1"]
     assert c["to_id"].tolist() == ["CB1"] * 5 + ["INV1", "G1"]
@@ -348,14 +350,14 @@ def test_summary_counts_and_worst_values_by_kind(small):
     assert s["segments"] == {"count": 3, "over_capacity": 0, "trench_m": 60.0}
     assert s["inverter_inputs"] == {"count": 2, "over_limit": 0}
     # conductor metres by material and size (sorted), rounded to the centimetre
-    assert s["cable_m"] == [
-        {"material": "Al", "size_mm2": 16.0, "metres": 80.01},  # 2 x 40.004 = 80.008 m
-        {"material": "Al", "size_mm2": 240.0, "metres": 600.0},
-        {"material": "Cu", "size_mm2": 4.0, "metres": 61.0},
-        {"material": "Cu", "size_mm2": 6.0, "metres": 60.0},
-        {"material": "Cu", "size_mm2": 95.0, "metres": 400.0},
+    assert s["conductor_m"] == [
+        {"material": "Al", "size_mm2": 16.0, "conductor_m": 80.01},  # 2 x 40.004 = 80.008 m
+        {"material": "Al", "size_mm2": 240.0, "conductor_m": 600.0},
+        {"material": "Cu", "size_mm2": 4.0, "conductor_m": 61.0},
+        {"material": "Cu", "size_mm2": 6.0, "conductor_m": 60.0},
+        {"material": "Cu", "size_mm2": 95.0, "conductor_m": 400.0},
     ]
-    assert s["cable_m_total"] == 1201.01  # 1201.008 m
+    assert s["conductor_m_total"] == 1201.01  # 1201.008 m
     assert s["loss_w_total"] == 28.0
     assert s["energy_loss_kwh_total"] == 280.0
     assert s["drop_limits_pct"] == dict(DESIGN.drop_pct)
@@ -423,7 +425,8 @@ def test_the_first_trench_segment_can_govern(tmp_path):
     t["laying"] = ["duct", "duct"]
     frames["trenches"] = t.iloc[::-1].reset_index(drop=True)
     c = by_id(plan(write_site(tmp_path / "site", frames)).circuits, "circuit_id")
-    assert c["governing"].tolist()[:5] == ["T2@0.0-3.0"] * 5
+    strings = c[c["kind"] == "string"]
+    assert len(strings) == 5 and strings["governing"].tolist() == ["T2@0.0-3.0"] * 5
     assert c.loc["AC:INV1", "governing"] == "T2@58.0-108.0"
 
 

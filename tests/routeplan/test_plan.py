@@ -29,10 +29,10 @@ DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 runner = CliRunner()
 
 CONTRACT_CIRCUIT = [
-    "circuit_id", "kind", "from_id", "to_id", "material", "size_mm2", "parallel", "route_m",
-    "cable_m", "trench_segments", "group_max", "design_current_a", "ampacity_base_a", "derating",
-    "ampacity_a", "utilisation", "vdrop_v", "vdrop_pct", "vdrop_total_pct", "loss_w", "status",
-    "note",
+    "circuit_id", "kind", "from_id", "to_id", "inverter_id", "material", "size_mm2", "parallel",
+    "route_m", "cable_m", "trench_segments", "group_max", "design_current_a", "ampacity_base_a",
+    "derating", "ampacity_a", "utilisation", "vdrop_v", "vdrop_pct", "vdrop_total_pct", "loss_w",
+    "status", "note",
 ]  # fmt: skip
 CONTRACT_SEGMENT = [
     "segment_id", "trench_id", "length_m", "circuits", "strings", "arrays", "ac", "max_circuits",
@@ -125,7 +125,8 @@ def test_workbook_reopens_with_typed_numbers(demo_out):
     ws = wb["circuits"]
     header = [c.value for c in ws[1]]
     assert header[0] == "circuit_id" and "route_m [m]" in header and "vdrop_pct [%]" in header
-    assert all(c.font.bold for c in ws[1]) and ws.freeze_panes == "A2"
+    # header row and id column frozen, an autofilter over the header (openpyxl)
+    assert all(c.font.bold for c in ws[1]) and ws.freeze_panes == "B2"
     j = header.index("route_m [m]")
     assert isinstance(ws.cell(row=2, column=j + 1).value, float)
     assert "qualified, licensed person" in wb["caution"]["A2"].value

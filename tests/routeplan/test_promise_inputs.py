@@ -51,8 +51,16 @@ def assert_same_plan(a: Path, b: Path) -> None:
     wa, wb = load_workbook(a / XLSX), load_workbook(b / XLSX)
     assert wa.sheetnames == wb.sheetnames
     for sheet in wa.sheetnames:
-        ra = [r for r in wa[sheet].iter_rows(values_only=True) if not str(r[0]).startswith("inp")]
-        rb = [r for r in wb[sheet].iter_rows(values_only=True) if not str(r[0]).startswith("inp")]
+        ra = [
+            r
+            for r in wa[sheet].iter_rows(values_only=True)
+            if not str(r[0]).startswith(("inp", "Input files"))
+        ]
+        rb = [
+            r
+            for r in wb[sheet].iter_rows(values_only=True)
+            if not str(r[0]).startswith(("inp", "Input files"))
+        ]
         assert ra == rb, sheet
     layers = [name for name, _ in pyogrio.list_layers(a / "routes.gpkg")]
     assert layers == [name for name, _ in pyogrio.list_layers(b / "routes.gpkg")]

@@ -169,8 +169,12 @@ def test_trench_fill_counts_parallel_sets_exactly_full_is_ok_over_full_fails(tmp
     t1 = max(v for k, v in sets.items() if k.startswith("T1@"))
     full = [k for k, v in sets.items() if k.startswith("T1@") and v == t1]
 
+    # capacities given in cable sets (README: fill = cable_sets / max_cable_sets)
+    def frames(cap: dict[str, float]):
+        return lengths_frames(cap, capacity_key="max_cable_sets")
+
     # T1 at exactly its busiest segment's sets: fill 1.000, ok, exit 0
-    _, out1, exact = write_and_plan(tmp_path / "exact", lengths_frames({"T1": t1}), LENGTHS_TOML)
+    _, out1, exact = write_and_plan(tmp_path / "exact", frames({"T1": t1}), LENGTHS_TOML)
     assert exact.exit_code == 0, exact.output
     t = by_id(out1 / "trench_schedule.csv", "segment_id")
     for sid, n in sets.items():
@@ -180,14 +184,14 @@ def test_trench_fill_counts_parallel_sets_exactly_full_is_ok_over_full_fails(tmp
     for sid in SEGMENT_M:
         if sid.startswith("T1@"):
             assert t[sid]["fill"] == f"{sets[sid] / t1:.3f}" and t[sid]["status"] == "ok"
+            assert t[sid]["fill_basis"] == "cable_sets"
         else:
-            assert (t[sid]["max_circuits"], t[sid]["fill"]) == ("", "")  # no capacity
+            assert (t[sid]["max_cable_sets"], t[sid]["fill"]) == ("", "")  # no capacity
     assert "trench segments: 5, over capacity: 0" in exact.stdout
 
-    # T2 for as many circuits as it carries (2), but they need 3 or more sets: over, exit 1
-    _, out2, over = write_and_plan(
-        tmp_path / "over", lengths_frames({"T1": t1, "T2": 2}), LENGTHS_TOML
-    )
+    # T2 for 2 cable sets, as many as the circuits it carries, but they need 3 or more sets:
+    # over, exit 1
+    _, out2, over = write_and_plan(tmp_path / "over", frames({"T1": t1, "T2": 2}), LENGTHS_TOML)
     assert over.exit_code == 1, over.output
     t = by_id(out2 / "trench_schedule.csv", "segment_id")
     assert (

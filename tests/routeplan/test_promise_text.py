@@ -189,8 +189,8 @@ def test_every_csv_text_cell_is_guarded_and_the_workbook_opens(planned):
             for text, value in zip(csv_row, xl_row, strict=True):
                 if isinstance(value, str) or value is None:
                     assert (value or "") == as_in_workbook(csv_unguard(text))
-    summary = dict(book["summary"].iter_rows(min_row=2, values_only=True))
-    assert summary["site.name"] == as_in_workbook(SITE)
+    summary = {(r[0], r[1]): r[2] for r in book["summary"].iter_rows(min_row=2, values_only=True)}
+    assert summary["Site", "name"] == as_in_workbook(SITE)
     # the module key and the ids are kept exactly in the GeoPackage and summary.json
     rows = pyogrio.read_dataframe(out / "routes.gpkg", layer="rows", read_geometry=False)
     assert set(rows["module"]) == {MODULE} and set(rows["id"]) == {HOSTILE["R1"], HOSTILE["R2"]}

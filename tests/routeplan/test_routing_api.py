@@ -297,6 +297,7 @@ def test_incidence_frame_has_the_documented_columns(two_clusters):
         "spacing_m",
         "soil_k_m_w",
         "max_circuits",
+        "max_cable_sets",
     ]
     # one row per segment of each route, by circuit, in route order
     c = plan.circuits

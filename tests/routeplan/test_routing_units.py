@@ -309,6 +309,7 @@ def test_segment_table_counts_every_kind(small_site):
         "spacing_m",
         "soil_k_m_w",
         "max_circuits",
+        "max_cable_sets",
         "fill",
         "over_capacity",
         "node_u",

@@ -123,12 +123,16 @@ def check_summary(summary: dict, circuits: list[dict], segments: list[dict], con
         key = (c["material"], float(c["size_mm2"]))
         metres[key] += num(c["cable_m"]) * int(c["conductors"])
         conductors[key] += int(c["conductors"])
-    listed = summary["cable_m"]
+    listed = summary["conductor_m"]
     assert [(x["material"], x["size_mm2"]) for x in listed] == sorted(metres)
     for x in listed:
         key = (x["material"], x["size_mm2"])
-        assert x["metres"] == pytest.approx(metres[key], abs=0.005 * conductors[key] + 0.005)
-    assert summary["cable_m_total"] == pytest.approx(sum(x["metres"] for x in listed), abs=0.01)
+        assert x["conductor_m"] == pytest.approx(metres[key], abs=0.005 * conductors[key] + 0.005)
+    total = sum(x["conductor_m"] for x in listed)
+    assert summary["conductor_m_total"] == pytest.approx(total, abs=0.01)
+    # run metres: each circuit's cable length once
+    run = sum(num(c["cable_m"]) for c in circuits)
+    assert summary["run_m_total"] == pytest.approx(run, abs=0.005 * len(circuits) + 0.005)
     # the whole plan
     ok = all(c["status"] == "ok" for c in circuits) and not over
     assert summary["ok"] is ok
@@ -149,7 +153,7 @@ def check_summary(summary: dict, circuits: list[dict], segments: list[dict], con
         for name in ("worst_vdrop_pct", "worst_utilisation"):
             v = summary["circuits"][k][name]
             assert v is None or v == round(v, 4), (k, name)
-    for v in [x["metres"] for x in listed] + [summary["cable_m_total"]]:
+    for v in [x["conductor_m"] for x in listed] + [summary["conductor_m_total"]]:
         assert v == round(v, 2)
     # assigned destinations: each with the route length of its circuits in the schedule
     by_source = {(c["from_id"], c["to_id"]): c["route_m"] for c in circuits}

@@ -219,8 +219,8 @@ def test_the_workbook_opens_in_openpyxl_with_each_text_as_xml_allows(planned):
                     assert (value or "") == as_in_workbook(csv_unguard(text))
     circuits = {r[0] for r in wb["circuits"].iter_rows(min_row=2, values_only=True)}
     assert "=R\ufffd1/S1" in circuits and "AC:@INV\x7f\x851\x9f" in circuits  # C1 kept
-    summary = dict(wb["summary"].iter_rows(min_row=2, values_only=True))
-    assert summary["site.name"] == as_in_workbook(SITE_NAME) == "Site \ufffd=1+2 \ufffd[2J"
+    summary = {(r[0], r[1]): r[2] for r in wb["summary"].iter_rows(min_row=2, values_only=True)}
+    assert summary["Site", "name"] == as_in_workbook(SITE_NAME) == "Site \ufffd=1+2 \ufffd[2J"
 
 
 def test_the_workbook_opens_in_libreoffice_with_the_texts_openpyxl_reads(planned):
@@ -235,7 +235,9 @@ def test_the_workbook_opens_in_libreoffice_with_the_texts_openpyxl_reads(planned
         for lo_row, xl_row in zip(lo[sheet], ours, strict=True):
             assert len(lo_row) == len(xl_row), sheet
             for text, value in zip(lo_row, xl_row, strict=True):
-                if isinstance(value, (int, float)):
+                if isinstance(value, bool):  # a boolean cell (the summary's)
+                    assert text == ("TRUE" if value else "FALSE"), sheet
+                elif isinstance(value, (int, float)):
                     assert float(text) == pytest.approx(value, rel=1e-12)
                 else:
                     assert text == (value or ""), sheet

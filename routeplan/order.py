@@ -1,0 +1,161 @@
+"""The order of the cable schedule: by inverter block, then combiner, row and string.
+
+A team works a schedule block by block: every circuit carries the inverter it ultimately
+feeds (``inverter_id``: a string or sub-array circuit's through its combiners, an array
+circuit's directly, an AC circuit its own), and the rows are sorted inverter → combiner →
+row → string, each in *natural* order (text compared with its digit runs as numbers, so
+``R2`` comes before ``R10``). The order is a pure function of the ids, so the schedules stay
+deterministic, and it is computed on arrays (the ids are factorised first, so each distinct id
+is keyed once).
+"""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+import pandas as pd
+
+#: most combiner levels between a row and its inverter (``layers.validate``) plus one
+_MAX_HOPS = 8
+#: a digit run; runs are zero-padded to this width for comparison (longer runs stay as they
+#: are and compare by their padded prefix, then by the raw text)
+_DIGITS = re.compile(r"\d+")
+_WIDTH = 20
+#: order of the kinds within one combiner: the cable leaving it first, then what it collects
+KIND_RANK = {"ac": 0, "array": 1, "subarray": 2, "string": 3}
+
+
+def natural_key(text: str) -> str:
+    """``text`` with each digit run left-padded with zeros to 20 digits: comparing the keys
+    as text compares the digit runs as numbers (natural order).
+
+    Examples
+    --------
+    >>> sorted(["R10", "R2", "R1-S3", "R1"], key=natural_key)
+    ['R1', 'R1-S3', 'R2', 'R10']
+    """
+    return _DIGITS.sub(lambda m: m.group().zfill(_WIDTH), text)
+
+
+def natural_rank(values: np.ndarray | pd.Series) -> np.ndarray:
+    """Rank (int64, 0 = first) of each value in natural order (:func:`natural_key`; equal
+    keys, such as ``R01`` and ``R1``, by their text). Missing values rank first, all alike.
+
+    Examples
+    --------
+    >>> natural_rank(np.array(["R10", "R2", None, "R2", "R1/S3", "R1/S10"], dtype=object))
+    array([4, 3, 0, 3, 1, 2])
+    """
+    codes, uniques = pd.factorize(np.asarray(values, dtype=object), use_na_sentinel=True)
+    text = [str(u) for u in uniques.tolist()]
+    # key, NUL, text: compared as fixed-width unicode by numpy (an object array would compare
+    # through Python); NUL sorts below any character, so a key that is a prefix comes first
+    joined = np.array([f"{natural_key(t)}\x00{t}" for t in text], dtype=str)
+    by = np.argsort(joined, kind="stable")
+    rank = np.empty(len(text) + 1, dtype=np.int64)
+    rank[by] = np.arange(1, len(text) + 1)
+    rank[-1] = 0  # code -1: missing
+    return rank[codes]
+
+
+def _among(values: np.ndarray, choices) -> np.ndarray:
+    """``values`` (object array) found in ``choices``, by hashing (``np.isin`` compares
+    objects by sorting them, through Python)."""
+    return pd.Series(values, dtype=object).isin(list(choices)).to_numpy(dtype=bool)
+
+
+def inverter_of(kind: pd.Series, from_id: pd.Series, to_id: pd.Series) -> np.ndarray:
+    """The inverter each circuit ultimately feeds (its block), as object array.
+
+    AC circuits: their own inverter (``from_id``). Others: ``to_id``, followed up through the
+    combiners' own circuits (a sub-array or array circuit leaves its combiner, ``from_id``,
+    for ``to_id``) until it reaches a feature no combiner circuit leaves: the inverter.
+    """
+    kind = np.asarray(kind, dtype=object)
+    leaving = _among(kind, ("array", "subarray"))
+    up = pd.Series(
+        np.asarray(to_id, dtype=object)[leaving],
+        index=np.asarray(from_id, dtype=object)[leaving],
+    )
+    up = up[~up.index.duplicated()]
+    target = pd.Series(np.asarray(to_id, dtype=object))
+    for _ in range(_MAX_HOPS):
+        nxt = target.map(up)
+        more = nxt.notna().to_numpy()
+        if not more.any():
+            break
+        target = target.where(~more, nxt)
+    return np.where(kind == "ac", np.asarray(from_id, dtype=object), target.to_numpy())
+
+
+def combiner_of(kind: pd.Series, from_id: pd.Series, to_id: pd.Series) -> np.ndarray:
+    """The combiner a circuit belongs to in the schedule's order: a string's destination
+    when that is a combiner (``to_id`` leaving as a combiner circuit), the combiner an array
+    or sub-array circuit leaves; None for AC circuits and strings landing on an inverter."""
+    kind = np.asarray(kind, dtype=object)
+    frm = np.asarray(from_id, dtype=object)
+    to = np.asarray(to_id, dtype=object)
+    combiners = frm[_among(kind, ("array", "subarray"))]
+    string_cb = np.where(_among(to, combiners), to, None)
+    return np.where(kind == "string", string_cb, np.where(kind == "ac", None, frm))
+
+
+def string_number(ids: np.ndarray) -> np.ndarray:
+    """The number ``k`` ending each id of the form ``…/S<k>`` (int64; -1 where an id does
+    not end so, or has more than 15 digits there), from the ids' code points on arrays.
+
+    Examples
+    --------
+    >>> string_number(np.array(["R1/S2", "R10/S12", "AC:INV1", "R2/S", "B/S7x"])).tolist()
+    [2, 12, -1, -1, -1]
+    """
+    # the last 24 characters hold "/S" and up to 15 digits (and a long id costs no memory)
+    ids = pd.Series(np.asarray(ids, dtype=object)).str[-24:].to_numpy(dtype=str)
+    n = len(ids)
+    if n == 0 or ids.dtype.itemsize == 0:
+        return np.full(n, -1, dtype=np.int64)
+    width = ids.dtype.itemsize // 4
+    cp = ids.view(np.uint32).reshape(n, width)
+    length = (cp != 0).sum(axis=1)  # numpy pads with NUL (an id's own trailing NULs: -1)
+    digit = (cp >= 48) & (cp <= 57)
+    # trailing digits: digits from each position to the end of the text
+    from_end = np.arange(width)[None, :] >= length[:, None]
+    tail = np.flip(np.cumprod(np.flip(digit | from_end, axis=1), axis=1), axis=1).astype(bool)
+    tail &= ~from_end
+    n_digits = tail.sum(axis=1)
+    start = length - n_digits  # first trailing digit
+    at = np.arange(n)
+    before = np.clip(start - 2, 0, None)
+    marked = (
+        (start >= 2)
+        & (cp[at, before] == ord("/"))
+        & (cp[at, np.clip(start - 1, 0, None)] == ord("S"))
+    )
+    ok = marked & (n_digits > 0) & (n_digits <= 15)
+    power = np.where(tail, length[:, None] - 1 - np.arange(width)[None, :], 0)
+    value = (np.where(tail, cp.astype(np.int64) - 48, 0) * 10 ** np.clip(power, 0, 15)).sum(axis=1)
+    return np.where(ok, value, -1)
+
+
+def schedule_order(circuits: pd.DataFrame) -> np.ndarray:
+    """Positions of ``circuits`` (columns ``inverter_id``, ``kind``, ``from_id``, ``to_id``,
+    ``circuit_id``) in schedule order: inverter, combiner (the inverter's own circuits
+    first), kind (:data:`KIND_RANK`: the cable leaving a combiner before what it collects),
+    row, then string number (``<row>/S<k>`` by k), each in natural order; ties (none among
+    the ids routeplan makes) keep their order (the sort is stable)."""
+    kind = circuits["kind"].to_numpy(dtype=object)
+    frm = circuits["from_id"].to_numpy(dtype=object)
+    is_string = kind == "string"
+    row = np.where(is_string, frm, None)
+    # a string's number k of "<row>/S<k>" (the ids of one row differ only there); the few
+    # ties left (one array or AC circuit per combiner or inverter) keep the routes' order
+    k = np.where(is_string, string_number(circuits["circuit_id"].to_numpy(dtype=str)), -1)
+    keys = (
+        k,
+        natural_rank(row),
+        pd.Series(kind).map(KIND_RANK).fillna(9).to_numpy(dtype=np.int64),
+        natural_rank(combiner_of(kind, frm, circuits["to_id"])),
+        natural_rank(circuits["inverter_id"]),
+    )
+    return np.lexsort(keys)
