@@ -163,8 +163,8 @@ def test_piped_summary_is_plain_and_whole(tmp_path, columns):
     # plain text: no box drawing, no escape sequence, nothing cut short; the same at any width
     assert not any(ch in r.stdout for ch in "┃│┏━└…\x1b")
     assert lines[-1].startswith("Results are a design aid")
-    cable = next(x for x in lines if x.startswith("cable: "))
-    assert cable.endswith("(conductor metres, allowances included)")
+    cable = next(x for x in lines if x.startswith("conductor metres: "))
+    assert cable.endswith("(allowances included)")
 
 
 def test_narrow_terminal_gives_one_line_per_kind(monkeypatch, tmp_path):
