@@ -339,8 +339,9 @@ METHODS: tuple[tuple[str, str], ...] = (
     ),
     (
         "Trench fill",
-        "Per trench segment: the circuits and cable sets routed through it; fill = cable sets "
-        "÷ the segment's capacity (max_circuits); a segment over 100 % is over capacity.",
+        "Per trench segment: the circuits and cable sets routed through it; fill = circuits "
+        "÷ max_circuits, or cable sets ÷ max_cable_sets, whichever capacity the trench gives "
+        "(fill_basis); a segment over 100 % is over capacity.",
     ),
 )
 

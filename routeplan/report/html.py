@@ -381,8 +381,9 @@ def _results(res: Results, design: Any) -> str:
         )
     )
     parts.append(
-        "<h3>Trench fill</h3><p>Fill = cable sets in the segment ÷ its capacity "
-        "(<code>max_circuits</code>).</p>"
+        "<h3>Trench fill</h3><p>Fill = circuits in the segment ÷ <code>max_circuits</code>, or "
+        "cable sets ÷ <code>max_cable_sets</code>, whichever capacity the trench gives "
+        "(<code>fill_basis</code>).</p>"
     )
     parts.append(
         _table(

@@ -1,10 +1,8 @@
 """The results of a plan, aggregated for the report (cheap at plant scale: one pass of
 pandas group-bys over the circuit and segment tables; long lists are capped).
 
-A circuit's *block* is the inverter it ultimately feeds, found from the schedule's circuit
-tree: an AC circuit's ``from_id``; a string's, sub-array's or array's ``to_id`` followed
-through the combiners (``from_id`` → ``to_id`` of the sub-array and array circuits) until it
-is no combiner's.
+A circuit's *block* is the inverter it ultimately feeds: the schedule's ``inverter_id``
+(:func:`routeplan.order.inverter_of`).
 """
 
 from __future__ import annotations
@@ -15,6 +13,7 @@ import numpy as np
 import pandas as pd
 
 from ..config import KINDS
+from ..order import inverter_of
 
 #: most rows of a listed failure (failing circuits, over-capacity segments) in the report
 LIST_CAP = 200
@@ -28,22 +27,11 @@ FILL_BANDS: tuple[tuple[str, float, float], ...] = (
 
 
 def blocks(circuits: pd.DataFrame) -> np.ndarray:
-    """The inverter each circuit ultimately feeds (its block), from ``kind``, ``from_id`` and
-    ``to_id`` (see the module docstring). Object array of ids."""
-    kind = circuits["kind"].to_numpy(dtype=object)
-    src = circuits["from_id"].to_numpy(dtype=object)
-    dst = circuits["to_id"].to_numpy(dtype=object)
-    feeder = np.isin(kind, ("subarray", "array"))
-    up = pd.Series(dst[feeder], index=src[feeder])
-    up = up[~up.index.duplicated()]
-    block = pd.Series(np.where(kind == "ac", src, dst))
-    for _ in range(16):  # the combiner tree is at most a few levels deep
-        nxt = block.map(up)
-        step = nxt.notna() & (kind != "ac")
-        if not step.any():
-            break
-        block = block.where(~step, nxt)
-    return block.to_numpy(dtype=object)
+    """The inverter each circuit ultimately feeds (its block): the schedule's ``inverter_id``,
+    or, for a table without it, :func:`routeplan.order.inverter_of`. Object array of ids."""
+    if "inverter_id" in circuits:
+        return circuits["inverter_id"].to_numpy(dtype=object)
+    return inverter_of(circuits["kind"], circuits["from_id"], circuits["to_id"])
 
 
 @dataclass(frozen=True)
