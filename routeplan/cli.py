@@ -13,7 +13,6 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Annotated, Any
 
-import click
 import typer
 from rich.cells import cell_len
 from rich.console import Console
@@ -52,7 +51,7 @@ class _Commands(TyperGroup):
     paragraph as one line (rich would keep the docstring's own line breaks there, breaking
     sentences in the middle at any terminal width)."""
 
-    def get_command(self, ctx: click.Context, cmd_name: str) -> click.Command | None:
+    def get_command(self, ctx: typer.Context, cmd_name: str) -> Any:
         command = super().get_command(ctx, cmd_name)
         if command is not None and command.short_help is None and command.help:
             command.short_help = " ".join(command.help.split("\n\n")[0].split())
