@@ -33,6 +33,7 @@ from ..cache import (
 )
 from ..folder import OutputFolder, file_sha256
 from ..pipeline import Plan
+from ..report.basis import basis_sheets
 from ..report.html import report_html
 from .columns import CIRCUIT_COLUMNS, INPUT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
@@ -287,6 +288,10 @@ def _write_files(
     sheets = {
         **tables,
         "summary": Schedule.of(summary_rows(summary)),
+        **{
+            name: Schedule.of(frame)
+            for name, frame in basis_sheets(plan.design, plan.site.config).items()
+        },
         "caution": Schedule.of(pd.DataFrame({"caution": [CAUTION]})),
     }
     xlsx = "cable_schedule.xlsx"

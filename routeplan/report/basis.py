@@ -14,6 +14,8 @@ from collections import Counter
 from dataclasses import dataclass
 from typing import Any
 
+import pandas as pd
+
 import calc
 from calc.tables import load_table, table_names
 
@@ -362,3 +364,39 @@ ASSUMPTIONS: tuple[str, ...] = (
     "'common practice' marks rules of thumb without a published source. Check them against "
     "the standards in force before relying on them.",
 )
+
+
+def _number_or_text(value: str) -> float | str:
+    """A setting's shown value as a number where it is one (for the workbook), else text."""
+    try:
+        return float(value)
+    except ValueError:
+        return value
+
+
+def basis_sheets(design: DesignConfig, config: dict[str, Any]) -> dict[str, pd.DataFrame]:
+    """The design basis as workbook sheets: ``design basis`` (every setting in force: key,
+    value — a number where it is one —, unit, source, note) and ``data tables`` (every calc
+    data table: file, source, tag statement, rows per tag, used by this plan)."""
+    rows = settings(design, config)
+    tables = data_tables(design)
+    return {
+        "design basis": pd.DataFrame(
+            {
+                "key": [s.key for s in rows],
+                "value": [_number_or_text(s.value) for s in rows],
+                "unit": [s.unit for s in rows],
+                "source": [s.source for s in rows],
+                "note": [s.note for s in rows],
+            }
+        ),
+        "data tables": pd.DataFrame(
+            {
+                "table": [t.name for t in tables],
+                "source": [t.source for t in tables],
+                "tag": [t.tag_note for t in tables],
+                "rows per tag": [", ".join(f"{k} {v}" for k, v in t.tags.items()) for t in tables],
+                "used": [t.used for t in tables],
+            }
+        ),
+    }

@@ -117,7 +117,16 @@ HOSTILE = {
     "G1": "'=G\ufffe1",
 }
 SITE_NAME = "Site \x01=1+2 \x1b[2J"
-SHEETS = ["circuits", "trenches", "quantities", "inputs", "summary", "caution"]
+SHEETS = [
+    "circuits",
+    "trenches",
+    "quantities",
+    "inputs",
+    "summary",
+    "design basis",
+    "data tables",
+    "caution",
+]
 
 
 def hostile_frames() -> dict:
