@@ -29,38 +29,25 @@ reference conditions of the tables, so no other factor applies).
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
 import calc
+from routeplan.pipeline import MAX_PARALLEL
 from routeplan.remedy import remedies
-
-#: the highest design.max_parallel site.toml accepts (routeplan.config)
-MAX_PARALLEL = 12
+from tests.calc.test_engine_input_edges import _input as calc_input
 
 SPACING_TEXT = "(design.spacing_m where a trench has none)"
 STRING_LIMIT = "limited by largest size in design.sizes_mm2.string (4 mm²)"
 
 
 def _input(**changes):
-    """Circuits of 20 m (see the module docstring); ``changes`` sets any field (lists allowed;
-    None leaves a field out, to its calc default)."""
-    n = len(changes["kind"])
-    base = dict(
-        cable_m=np.full(n, 20.0),
-        air_m=np.zeros(n),
-        parent=np.full(n, -1),
-        isc_a=np.full(n, 13.0),
-        imp_a=np.full(n, 12.0),
-        vmp_v=np.full(n, 1000.0),
-        n_strings=np.ones(n),
-        ac_kva=np.full(n, 100.0),
-        ac_v=np.full(n, 400.0),
-        phases=np.full(n, 3),
-    )
-    base.update({k: np.asarray(v) for k, v in changes.items() if v is not None})
-    for k in [k for k, v in changes.items() if v is None]:
-        base.pop(k, None)
-    return calc.SizingInput(**base)
+    """Circuits of 20 m (tests/calc's invented circuits, see the module docstring); ``changes``
+    sets any field (lists allowed; None leaves a field to its calc default)."""
+    left = [k for k, v in changes.items() if v is None]
+    inp = calc_input(**{k: v for k, v in changes.items() if v is not None})
+    return dataclasses.replace(inp, **dict.fromkeys(left))
 
 
 def _segments(spacing_m):
