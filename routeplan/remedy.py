@@ -35,14 +35,32 @@ route, another equipment position or another project limit are the designer's ch
 from __future__ import annotations
 
 import dataclasses
+import re
 
 import numpy as np
 
 import calc
+from calc.tables import load_table
 
-#: trench spacings tried for a capacity failure caused by grouping [m] (IEC 60364-5-52:2009
-#: Tables B.52.18 (direct) and B.52.19 (ducts) both tabulate 0.25 m and 0.5 m)
-SPACINGS_M: tuple[float, ...] = (0.25, 0.5)
+
+def _common_spacings_m() -> tuple[float, ...]:
+    """The clear spacings [m] tabulated both for cables direct in the ground and in ducts
+    (IEC 60364-5-52:2009 Tables B.52.18 and B.52.19, calc/data: columns such as ``s_0_25_m``)."""
+    found = []
+    for name in (
+        "iec60364_5_52_2009_b52_18_group_direct.csv",
+        "iec60364_5_52_2009_b52_19_group_duct.csv",
+    ):
+        cols = load_table(name).columns
+        found.append(
+            {float(f"{a}.{b}") for a, b in re.findall(r"^s_(\d+)_(\d+)_m$", "\n".join(cols), re.M)}
+        )
+    return tuple(sorted(set.intersection(*found)))
+
+
+#: trench spacings tried for a capacity failure caused by grouping [m]: those both grouping
+#: tables give (0.25 m and 0.5 m)
+SPACINGS_M: tuple[float, ...] = _common_spacings_m()
 
 _SIZE_FIELD = {
     calc.KIND_STRING: "sizes_string_mm2",
