@@ -587,7 +587,7 @@ def map_cmd(
     force: ForceOption = False,
 ) -> None:
     """Redraw map.html from an output folder, without planning again."""
-    from .outputs.map import MapError, write_map
+    from .map.page import MapError, write_map
 
     try:
         path = write_map(

@@ -150,7 +150,7 @@ TARGETS = {
         ),
     ),
     "map_text": Target(
-        "routeplan/outputs/map_text.py",
+        "routeplan/map/text.py",
         ("tests/map/test_map_text.py", "tests/map/test_map_text_paths.py"),
     ),
     # the comparison, its reading and its terminal lines (the change map is a map: its

@@ -14,9 +14,9 @@ What it shows
 * the new plan's rows, trench segments and unchanged equipment as a faint background;
 * a panel with the counts, the plant-level table and the safety caution; a legend.
 
-It is the plan map's page (:mod:`routeplan.outputs.map`): the same inlined Leaflet and jQuery,
+It is the plan map's page (:mod:`routeplan.map.page`): the same inlined Leaflet and jQuery,
 page script, layer control, scale bar and panel boxes, and every text escaped with
-:func:`routeplan.outputs.map_text.escape_text`. Geometry is read from each folder's
+:func:`routeplan.map.text.escape_text`. Geometry is read from each folder's
 ``routes.gpkg``; the old plan is reprojected onto the new plan's CRS when they differ, and
 distances are measured there (in a UTM zone estimated by geopandas when that CRS is not
 projected).
@@ -35,8 +35,8 @@ import pyproj
 import shapely
 
 from routeplan.folder import reading
-from routeplan.network import paused_gc
-from routeplan.outputs.map import (
+from routeplan.map.features import Layer, text_values
+from routeplan.map.page import (
     CANVAS_ABOVE,
     ROUTES_FILE,
     ROWS_SHOWN_UP_TO,
@@ -46,8 +46,8 @@ from routeplan.outputs.map import (
     page_parts,
     site_name_from_summary,
 )
-from routeplan.outputs.map_features import Layer, text_values
-from routeplan.outputs.map_script import layer_script, script_json
+from routeplan.map.script import layer_script, script_json
+from routeplan.network import paused_gc
 
 from .changemap_features import (
     LOOKS,

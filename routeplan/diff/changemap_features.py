@@ -1,11 +1,11 @@
 """The drawn layers of the change map: changed circuits in both plans, changed trench segments,
 moved, added and removed equipment, and the new plan as a faint background.
 
-Every layer is a :class:`routeplan.outputs.map_features.Layer` (the plan map's GeoJSON by
+Every layer is a :class:`routeplan.map.features.Layer` (the plan map's GeoJSON by
 column, its style table and tooltip fields), so the page draws it with the plan map's script
-(:func:`routeplan.outputs.map_script.layer_script`). Every text property is escaped here with
-:func:`routeplan.outputs.map_text.escape_text`; geometries go through the plan map's
-:func:`routeplan.outputs.map_features.display_geometry` (light simplification, EPSG:4326,
+(:func:`routeplan.map.script.layer_script`). Every text property is escaped here with
+:func:`routeplan.map.text.escape_text`; geometries go through the plan map's
+:func:`routeplan.map.features.display_geometry` (light simplification, EPSG:4326,
 6 decimals). Nothing here imports folium.
 
 Colours
@@ -32,7 +32,7 @@ import numpy as np
 import pandas as pd
 import shapely
 
-from routeplan.outputs.map_features import (
+from routeplan.map.features import (
     EQUIPMENT_LABEL,
     EQUIPMENT_POLYGON_STYLE,
     EQUIPMENT_STYLE,
@@ -50,7 +50,7 @@ from routeplan.outputs.map_features import (
     make_layer,
     text_values,
 )
-from routeplan.outputs.map_text import MISSING, escape_all, fmt_number, join_limited
+from routeplan.map.text import MISSING, escape_all, fmt_number, join_limited
 
 #: The kinds of change of a circuit (``look`` of the diff's circuits table), in legend order.
 LOOKS: tuple[str, ...] = (

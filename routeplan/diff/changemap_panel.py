@@ -1,8 +1,8 @@
 """The change map's panel (what changed, the plant-level table, the safety caution) and its
-legend, as plain HTML and CSS in the plan map's boxes (:mod:`routeplan.outputs.map_panel`).
+legend, as plain HTML and CSS in the plan map's boxes (:mod:`routeplan.map.panel`).
 
 No script and no external resource. Every data string (site names, folders, kinds of change,
-bill items and units) is escaped with :func:`routeplan.outputs.map_text.escape_text`; numbers
+bill items and units) is escaped with :func:`routeplan.map.text.escape_text`; numbers
 are written with fixed decimals.
 """
 
@@ -15,9 +15,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from routeplan.outputs.map_features import EQUIPMENT_STYLE
-from routeplan.outputs.map_panel import CAUTION, CSS, _key, _svg_circle, _svg_line
-from routeplan.outputs.map_text import MISSING, escape_text
+from routeplan.map.features import EQUIPMENT_STYLE
+from routeplan.map.panel import CAUTION, CSS, _key, _svg_circle, _svg_line
+from routeplan.map.text import MISSING, escape_text
 
 from .changemap_features import (
     ADDED_RING,

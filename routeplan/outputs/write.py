@@ -376,8 +376,8 @@ def _write_map(
     layers: dict[str, GpkgLayer],
 ) -> None:
     """Write ``map.html`` (and, with a cache, the map's memo for the next run)."""
-    from .map import render_map
-    from .map_tiles import MapMemo
+    from routeplan.map.page import render_map
+    from routeplan.map.tiles import MapMemo
 
     t0 = time.perf_counter()
     cache = plan.cache

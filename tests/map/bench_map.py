@@ -5,7 +5,7 @@
 Builds the synthetic plan of :func:`tests.map.map_fixtures.synthetic_frames` (default: 64,800
 strings, 2,700 arrays, 100 AC circuits, 16,200 trench segments, 16,200 rows; ``--blocks 2250``
 gives about 70,000 lines), writes it as an output folder, then times
-:func:`routeplan.outputs.map.write_map` (read + draw + write) and reports the file size.
+:func:`routeplan.map.page.write_map` (read + draw + write) and reports the file size.
 ``--all-strings`` draws every string instead of one line per row; ``--browser`` also times
 opening the page in headless Chromium (until the map's scripts have run).
 """
@@ -18,7 +18,7 @@ import tempfile
 import time
 from pathlib import Path
 
-from routeplan.outputs.map import render_map, write_map
+from routeplan.map.page import render_map, write_map
 
 from .map_fixtures import synthetic_frames, write_output_folder
 

@@ -15,8 +15,8 @@ import pytest
 
 from routeplan.diff.changemap import GROUPS, render_change_map
 from routeplan.diff.changemap_features import LOOK_COLOUR, OLD_COLOUR, look_class
-from routeplan.outputs.map_panel import CAUTION
-from routeplan.outputs.map_text import escape_text
+from routeplan.map.panel import CAUTION
+from routeplan.map.text import escape_text
 
 from ..routeplan.test_changemap import HOSTILE, diff_tables, plan_pair
 from . import test_map_browser as plan_map

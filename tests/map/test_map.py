@@ -14,15 +14,20 @@ import pytest
 import shapely
 from branca.colormap import _schemes
 
-from routeplan.outputs import map as rpmap
-from routeplan.outputs import (
-    map_features,
-    map_panel,
-    map_scales,
-    map_script,
-    map_text,
+from routeplan.map import features as map_features
+from routeplan.map import page as rpmap
+from routeplan.map import panel as map_panel
+from routeplan.map import scales as map_scales
+from routeplan.map import script as map_script
+from routeplan.map import text as map_text
+from routeplan.map.assets import offline_header
+from routeplan.map.features import (
+    aggregate_strings,
+    circuit_layers,
+    segment_layers,
+    string_group_layers,
 )
-from routeplan.outputs.map import (
+from routeplan.map.page import (
     MapError,
     escape_text,
     read_output_folder,
@@ -30,14 +35,7 @@ from routeplan.outputs.map import (
     render_map,
     write_map,
 )
-from routeplan.outputs.map_assets import offline_header
-from routeplan.outputs.map_features import (
-    aggregate_strings,
-    circuit_layers,
-    segment_layers,
-    string_group_layers,
-)
-from routeplan.outputs.map_scales import (
+from routeplan.map.scales import (
     FILL,
     NAN_COLOUR,
     PROBLEM_COLOUR,
@@ -608,7 +606,7 @@ def test_non_finite_coordinates_are_refused():
 
 
 # --------------------------------------------------------------------------------------------
-# tiles and the memo of the last map (routeplan.outputs.map_tiles)
+# tiles and the memo of the last map (routeplan.map.tiles)
 
 
 def _features_by_class(html: str) -> dict[str, list]:
@@ -620,7 +618,7 @@ def _features_by_class(html: str) -> dict[str, list]:
 
 
 def test_tiles_are_content_defined_and_keep_ids_together():
-    from routeplan.outputs.map_tiles import TILE_MAX, tiles
+    from routeplan.map.tiles import TILE_MAX, tiles
 
     ids = np.array([f"R{i // 3:05d}" for i in range(30_000)], dtype=object)  # 3 per id
     parts = tiles(ids[::-1])
@@ -636,7 +634,7 @@ def test_tiles_are_content_defined_and_keep_ids_together():
 
 
 def test_a_memo_of_the_last_map_gives_the_same_page():
-    from routeplan.outputs.map_tiles import MapMemo
+    from routeplan.map.tiles import MapMemo
 
     frames, site = synthetic_frames(n_blocks=600)
     first = MapMemo()
@@ -648,7 +646,7 @@ def test_a_memo_of_the_last_map_gives_the_same_page():
 
 
 def test_an_edit_draws_only_its_tiles_and_the_page_matches_a_fresh_one():
-    from routeplan.outputs.map_tiles import MapMemo
+    from routeplan.map.tiles import MapMemo
 
     frames, site = synthetic_frames(n_blocks=600)
     first = MapMemo()

@@ -14,11 +14,11 @@ from pathlib import Path
 
 import pytest
 
-from routeplan.outputs import map as rpmap
-from routeplan.outputs.map import render_folder, write_map
-from routeplan.outputs.map_features import expand
-from routeplan.outputs.map_scales import PROBLEM_COLOUR, UTILISATION
-from routeplan.outputs.map_text import escape_text
+from routeplan.map import page as rpmap
+from routeplan.map.features import expand
+from routeplan.map.page import render_folder, write_map
+from routeplan.map.scales import PROBLEM_COLOUR, UTILISATION
+from routeplan.map.text import escape_text
 
 from .map_fixtures import HOSTILE, expected_counts, make_frames, write_output_folder
 
@@ -377,7 +377,7 @@ def test_a_map_in_many_tiles(browser, demo_html: Path, tmp_path, monkeypatch):
     # group's tiles switch off and on together, hidden rows are made tile by tile when asked
     import numpy as np
 
-    from routeplan.outputs import map_tiles
+    from routeplan.map import tiles as map_tiles
 
     monkeypatch.setattr(map_tiles, "TILE_MASK", np.uint64(3))
     monkeypatch.setattr(map_tiles, "TILE_MAX", 8)

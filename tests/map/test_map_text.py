@@ -1,4 +1,4 @@
-"""The map's text helpers (:mod:`routeplan.outputs.map_text`) against outside references:
+"""The map's text helpers (:mod:`routeplan.map.text`) against outside references:
 the standard library's HTML parser (``html.unescape``) undoes every escape exactly, numbers
 read as Python's format mini-language writes them, lists as ``str.join`` joins them.
 
@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from routeplan.outputs.map_text import MISSING, escape_all, escape_text, fmt_number, join_limited
+from routeplan.map.text import MISSING, escape_all, escape_text, fmt_number, join_limited
 
 #: characters live in HTML, in an attribute, in a JavaScript template literal or in Jinja
 LIVE = set("<>\"'`$\\{}&")

@@ -1,4 +1,4 @@
-"""The map's text helpers (:mod:`routeplan.outputs.map_text`) on the paths the older tests do
+"""The map's text helpers (:mod:`routeplan.map.text`) on the paths the older tests do
 not take: a list of text only, one item of which needs escaping (the quick path must not
 return it as it is), and a unit that numpy's fixed-width text would cut. References: the
 standard library's HTML parser (``html.unescape``) and Python's format mini-language."""
@@ -9,7 +9,7 @@ import html
 
 import numpy as np
 
-from routeplan.outputs.map_text import escape_all, escape_text, fmt_number
+from routeplan.map.text import escape_all, escape_text, fmt_number
 
 
 def test_escape_all_of_text_only_escapes_the_hostile_items():

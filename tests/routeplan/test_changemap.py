@@ -44,9 +44,9 @@ from routeplan.diff.changemap_features import (
     ids_of,
     look_key,
 )
-from routeplan.outputs.map_features import expand
-from routeplan.outputs.map_panel import CAUTION
-from routeplan.outputs.map_text import escape_text
+from routeplan.map.features import expand
+from routeplan.map.panel import CAUTION
+from routeplan.map.text import escape_text
 
 from ..conftest import E0, N0, SITE_TOML, base_frames, write_site
 

@@ -24,8 +24,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from routeplan.outputs.map_features import Layer
-from routeplan.outputs.map_script import layer_script
+from routeplan.map.features import Layer
+from routeplan.map.script import layer_script
 from routeplan.outputs.reuse import hashes_key, row_hashes
 
 #: a feature whose id hashes with these low bits zero ends a tile (about 1,024 per tile) …

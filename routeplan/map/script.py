@@ -2,7 +2,7 @@
 layer uses (:data:`PAGE_SCRIPT`) and each GeoJSON layer's script (:func:`layer_script`).
 
 Data is embedded as ``JSON.parse('…')`` of compact JSON made safe for ``<script>``
-(:func:`parsed_json_text`); see :mod:`routeplan.outputs.map_elements` for why it never passes
+(:func:`parsed_json_text`); see :mod:`routeplan.map.elements` for why it never passes
 through a template.
 """
 
@@ -10,11 +10,11 @@ from __future__ import annotations
 
 import json
 
-from routeplan.outputs.map_features import STYLE_KEY, Layer
+from routeplan.map.features import STYLE_KEY, Layer
 
 #: Functions shared by every layer, placed in the page header after Leaflet.
 #: rpFeatures(d) rebuilds a layer's FeatureCollection from its columns
-#: (routeplan.outputs.map_features.columns_text; ``expand`` is the same in Python).
+#: (routeplan.map.features.columns_text; ``expand`` is the same in Python).
 #: rpTooltip(fields) builds a tooltip from [property, label] pairs; property values are
 #: escaped when the map is written (map_text.escape_text), labels are constants.
 #: rpHover thickens a shape under the pointer and gives it back its weight after; it is bound

@@ -4,9 +4,9 @@ Why not ``folium.GeoJson``: branca renders every element's script into a new Jin
 (``Element(script)``) and renders that again. The embedded data is therefore parsed as a Jinja
 template: a feature id ``{{ 7*7 }}`` comes out as ``49`` (and a crafted one runs Python while the
 map is written), and a 1 GW plant's 20 MB of GeoJSON costs seconds of template compilation.
-The layers' scripts are therefore plain text (:func:`routeplan.outputs.map_script.layer_script`)
+The layers' scripts are therefore plain text (:func:`routeplan.map.script.layer_script`)
 that never meets Jinja: folium renders the page around a :class:`ScriptSlot`, and the scripts
-go into the slot afterwards (:mod:`routeplan.outputs.map`).
+go into the slot afterwards (:mod:`routeplan.map.page`).
 """
 
 from __future__ import annotations

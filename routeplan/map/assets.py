@@ -6,7 +6,7 @@ ship exactly those files; this module reads them once and returns one ``<style>`
 ``<script>`` blocks for the page header. Their licence texts are in ``THIRD_PARTY_NOTICES.txt``
 beside this file, and are repeated in an HTML comment of every map written.
 
-Only :mod:`routeplan.outputs.map` uses this module.
+Only :mod:`routeplan.map.page` uses this module.
 """
 
 from __future__ import annotations

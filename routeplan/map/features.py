@@ -32,14 +32,14 @@ import pandas as pd
 import shapely
 from numpy.dtypes import StringDType
 
-from routeplan.outputs.map_scales import (
+from routeplan.map.scales import (
     CASING_COLOUR,
     FILL,
     PROBLEM_COLOUR,
     UTILISATION,
     circuit_weight,
 )
-from routeplan.outputs.map_text import MISSING, escape_all, escape_text, fmt_number, join_limited
+from routeplan.map.text import MISSING, escape_all, escape_text, fmt_number, join_limited
 
 #: Tolerance of the light simplification, in the working CRS [m].
 SIMPLIFY_M = 0.1

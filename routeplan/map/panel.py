@@ -2,7 +2,7 @@
 
 No script and no external resource: the colour bars are CSS gradients and the symbols small
 inline SVG drawings. Every data string is escaped with
-:func:`routeplan.outputs.map_text.escape_text`.
+:func:`routeplan.map.text.escape_text`.
 """
 
 from __future__ import annotations
@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 
 import routeplan
-from routeplan.outputs.map_features import (
+from routeplan.map.features import (
     CASING_EXTRA,
     EQUIPMENT_POLYGON_STYLE,
     EQUIPMENT_STYLE,
@@ -25,7 +25,7 @@ from routeplan.outputs.map_features import (
     circuit_kind,
     is_fail,
 )
-from routeplan.outputs.map_scales import (
+from routeplan.map.scales import (
     CASING_COLOUR,
     FILL,
     NAN_COLOUR,
@@ -33,7 +33,7 @@ from routeplan.outputs.map_scales import (
     UTILISATION,
     circuit_weight,
 )
-from routeplan.outputs.map_text import MISSING, escape_text, fmt_number, join_limited
+from routeplan.map.text import MISSING, escape_text, fmt_number, join_limited
 
 #: Shown on every map, always visible (the project's one caution text).
 CAUTION = routeplan.CAUTION

@@ -13,23 +13,23 @@ What the map shows
   wide, hatched vermillion halo;
 * module rows, combiners, inverters (point or pad) and the grid point, with tooltips;
 * a panel with the site, totals and the safety caution, and a plain HTML/CSS legend.
-See :mod:`routeplan.outputs.map_scales` for the colour scales and their sources.
+See :mod:`routeplan.map.scales` for the colour scales and their sources.
 
 Above ``aggregate_strings_above`` string circuits, strings are drawn one line per row and
-destination (:func:`routeplan.outputs.map_features.aggregate_strings`).
+destination (:func:`routeplan.map.features.aggregate_strings`).
 
 Every layer group is drawn in tiles of about 1,000 features by id, the most loaded circuits on
 top within each tile; a re-plan redraws only the tiles whose features changed
-(:mod:`routeplan.outputs.map_tiles`).
+(:mod:`routeplan.map.tiles`).
 
 Every drawn thing is one interactive SVG path; casings and halos are drawn as separate,
 non-interactive paths (CSS classes ``rp-fail-casing`` and ``rp-over-halo``). Above
 ``CANVAS_ABOVE`` drawn features (large plants) everything is drawn on one canvas instead, which
 opens about three times faster; above ``ROWS_SHOWN_UP_TO`` rows, the rows start switched off.
 
-Leaflet and jQuery are inlined (:mod:`routeplan.outputs.map_assets`); the only network use is the
+Leaflet and jQuery are inlined (:mod:`routeplan.map.assets`); the only network use is the
 optional online basemap. Every string shown is escaped
-(:func:`routeplan.outputs.map_text.escape_text`).
+(:func:`routeplan.map.text.escape_text`).
 """
 
 from __future__ import annotations
@@ -42,8 +42,7 @@ import numpy as np
 import pyproj
 import shapely
 
-from routeplan.network import paused_gc
-from routeplan.outputs.map_features import (
+from routeplan.map.features import (
     CircuitLayers,
     circuit_kind,
     circuit_layers,
@@ -57,9 +56,10 @@ from routeplan.outputs.map_features import (
     string_group_layers,
     text_values,
 )
-from routeplan.outputs.map_panel import legend_html, panel_html, plan_totals
-from routeplan.outputs.map_text import escape_text
-from routeplan.outputs.map_tiles import MapMemo, Role, mixed, tiles
+from routeplan.map.panel import legend_html, panel_html, plan_totals
+from routeplan.map.text import escape_text
+from routeplan.map.tiles import MapMemo, Role, mixed, tiles
+from routeplan.network import paused_gc
 from routeplan.outputs.reuse import row_hashes
 
 __all__ = [
@@ -148,9 +148,9 @@ def page_parts(spec: dict) -> list[str]:
     panel and the layers' scripts, after them]. Imports folium only here."""
     import folium
 
-    from routeplan.outputs.map_assets import offline_header
-    from routeplan.outputs.map_elements import MetricScale, RawHTML, ScriptSlot
-    from routeplan.outputs.map_script import PAGE_SCRIPT
+    from routeplan.map.assets import offline_header
+    from routeplan.map.elements import MetricScale, RawHTML, ScriptSlot
+    from routeplan.map.script import PAGE_SCRIPT
 
     m = folium.Map(
         location=None,
@@ -248,7 +248,7 @@ def render_map(
         When there are more string circuits than this, draw one line per row and destination
         instead of one per string.
     memo : MapMemo, optional
-        The last map's tiles and page (:mod:`routeplan.outputs.map_tiles`): tiles whose rows
+        The last map's tiles and page (:mod:`routeplan.map.tiles`): tiles whose rows
         did not change are reused; the memo then holds what this map used.
     hashes : dict, optional
         Content hashes of the frames' rows (:func:`routeplan.outputs.reuse.row_hashes` of
