@@ -22,7 +22,8 @@ Interface (stable; the routing/pipeline side calls only this)::
   ``inc_circuit`` / ``inc_segment``; per stretch in air ``air_count`` and the incidence
   ``air_inc_circuit`` / ``air_inc_stretch``.
 * ``DesignParams`` — temperatures, materials, insulation, drop limits, size lists, parallel limit,
-  conductor-temperature mode, power factor, loss hours, fault level, marking convention.
+  conductor-temperature mode, power factor, loss hours, fault level, conductor identification
+  system.
 * ``SizingResult`` — per circuit: size, parallel sets, currents, capacities and every factor at the
   governing environment, drops, losses, fuse, status ``ok`` and ``note``, marking; per segment the
   factors and final counts; per kind the loss totals.
@@ -37,7 +38,8 @@ Modules: :mod:`calc.resistance` (IEC 60228, IEC 60287-1-1, BS 7671 reactance), :
 :mod:`calc.protection` (array backfeed and fuses, bifacial I_SC, gPV fuse and breaker ratings,
 IEC 60364-4-43 433.1), :mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortcircuit`
 (IEC 60364-4-43, IEC 60949),
-:mod:`calc.marking` (IEC 60445, NEC), :mod:`calc.engine`, :mod:`calc.rules`, :mod:`calc.tables`,
+:mod:`calc.marking` (IEC 60445 and eight regional systems), :mod:`calc.engine`,
+:mod:`calc.rules`, :mod:`calc.tables`,
 :mod:`calc.errors` (``CalcError`` and its subclasses).
 """
 
@@ -66,6 +68,7 @@ from calc.errors import (
     TableRangeError,
     UnknownOptionError,
 )
+from calc.marking import MARKING_SYSTEMS, default_marking, identification_rows
 from calc.protection import bnpi_rear_ratio
 from calc.rules import get_rules, rule_names
 
@@ -77,6 +80,7 @@ __all__ = [
     "KIND_NAMES",
     "KIND_STRING",
     "KIND_SUBARRAY",
+    "MARKING_SYSTEMS",
     "CalcError",
     "ConvergenceError",
     "DataFileError",
@@ -88,8 +92,10 @@ __all__ = [
     "UnknownOptionError",
     "bnpi_rear_ratio",
     "buried_deep_enough",
+    "default_marking",
     "failure_causes",
     "get_rules",
+    "identification_rows",
     "larger_sizes_mm2",
     "rule_names",
     "size_circuits",

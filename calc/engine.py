@@ -48,7 +48,7 @@ import numpy as np
 
 from calc.errors import ConvergenceError, InputError, TableRangeError, check_option
 from calc.losses import energy_loss_kwh, loss_w
-from calc.marking import MARKING_CONVENTIONS, conductor_marking
+from calc.marking import MARKING_SYSTEMS, conductor_marking
 from calc.pv import voc_max_v
 from calc.resistance import r_at_temp_ohm_km
 from calc.rules import RuleSet, get_rules
@@ -213,7 +213,8 @@ class DesignParams:
         is an order-of-magnitude placeholder (common practice), to be replaced by Σ(I/I_op)²Δt of
         the site.
     fault_ka, clear_s : prospective a.c. fault current [kA] and clearing time [s]; None = no check.
-    marking : conductor identification convention, "iec" (IEC 60445) or "us" (NEC).
+    marking : conductor identification system (calc.marking.MARKING_SYSTEMS: "iec" = IEC 60445,
+        "us" = NEC, or an ISO 3166 country code).
     pv_installation : EN 50618 Table A.3 column for string cables in air: "two_adjacent_surface"
         (default, conservative: + and − touching along the racking), "on_surface" or "free_air".
     air_arrangement : how the cables of each kind (string, array, a.c., sub-array: by kind code)
@@ -600,7 +601,7 @@ def _check_design(design: DesignParams, rs: RuleSet) -> None:
     check_option("insulation_array", design.insulation_array, rs.insulations)
     check_option("insulation_ac", design.insulation_ac, rs.insulations)
     check_option("conductor_temp", design.conductor_temp, CONDUCTOR_TEMP_MODES)
-    check_option("marking", design.marking, MARKING_CONVENTIONS)
+    check_option("marking", design.marking, MARKING_SYSTEMS)
     check_option("array_protection", design.array_protection, ARRAY_PROTECTION)
     check_option("ac_breaker_device", design.ac_breaker_device, rs.breaker_devices)
     if len(design.air_arrangement) != len(KIND_NAMES):

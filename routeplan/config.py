@@ -120,7 +120,13 @@ DESIGN_KEYS: tuple[Key, ...] = (
     ),
     Key("fault_ka", math.nan, 0.0, 200.0, note="prospective AC fault current; unset = no check"),
     Key("clear_s", math.nan, 0.0, 5.0, note="AC protective device clearing time"),
-    Key("marking", "iec", choices=("iec", "us"), note="conductor identification convention"),
+    Key(
+        "marking",
+        "iec",
+        choices=calc.MARKING_SYSTEMS,
+        note="conductor identification system: 'iec' (IEC 60445) or an ISO 3166 country code "
+        "(gb, au, in, us, ca, cn, jp, ru); default: the rule set's (iec: iec, nec: us)",
+    ),
     Key(
         "rear_irradiance_ratio",
         calc.bnpi_rear_ratio(),
@@ -270,6 +276,8 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
 
     values, defaulted = _scalars("design", design, DESIGN_KEYS, problems)
     allow, defaulted2 = _scalars("allowances", allowances, ALLOWANCE_KEYS, problems)
+    if "design.marking" in defaulted:  # the identification system follows the rule set
+        values["marking"] = calc.default_marking(values["rules"])
 
     if math.isnan(values["fault_ka"]) != math.isnan(values["clear_s"]):
         given, missing = ("fault_ka", "clear_s")[:: 1 if math.isnan(values["clear_s"]) else -1]

@@ -714,6 +714,7 @@ def summarise(
         "tool": {"name": "routeplan", "version": __version__},
         "site": {"name": site.name, "crs": site.crs.to_string(), "crs_note": site.crs_note},
         "rules": design.values["rules"],
+        "marking": design.values["marking"],
         "ok": bool(
             (circuits["status"] == "ok").all()
             and (segments["status"] == "ok").all()

@@ -142,11 +142,13 @@ def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
 
 
 def _notes(old: dict, new: dict) -> tuple[str, ...]:
-    """The plans' bases that differ: routeplan version, rule set, site name."""
+    """The plans' bases that differ: routeplan version, rule set, conductor identification
+    system, site name."""
     notes = []
     for what, keys in (
         ("routeplan version", ("tool", "version")),
         ("rule set", ("rules",)),
+        ("conductor identification", ("marking",)),
         ("site name", ("site", "name")),
     ):
         a, b = _value(old, keys), _value(new, keys)

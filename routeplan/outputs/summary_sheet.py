@@ -93,6 +93,8 @@ def summary_rows(summary: dict[str, Any]) -> pd.DataFrame:
         add(("Site", readable(k)[0], v, ""))
     if "rules" in s:
         add(("Design", "rule set", s.pop("rules"), ""))
+    if "marking" in s:
+        add(("Design", "conductor identification", s.pop("marking"), ""))
     if "ok" in s:
         add(("Result", "every circuit, trench segment and inverter input within its limits",
              s.pop("ok"), ""))  # fmt: skip

@@ -176,6 +176,7 @@ def report_html(
                 [_t("project / site"), _t(site.name)],
                 [_t("working CRS"), _t(summary.get("site", {}).get("crs", ""))],
                 [_t("rule set"), _t(design.values["rules"])],
+                [_t("conductor identification"), _t(design.values["marking"])],
                 [_t("result"), _t(status)],
                 [
                     _t("circuits"),
@@ -283,6 +284,7 @@ def _basis(plan: Any, summary: dict) -> str:
             ident="tables",
         )
     )
+    parts.append(_identification(design.values["marking"]))
     parts.append("<h3>Methods</h3><dl>")
     for name, text in METHODS:
         parts.append(f"<dt><strong>{esc(name)}</strong></dt><dd>{esc(text)}</dd>")
@@ -291,6 +293,50 @@ def _basis(plan: Any, summary: dict) -> str:
     parts.append("</ul>")
     parts.append(f'<div class="caution"><strong>Caution.</strong> {esc(CAUTION)}</div>')
     return "".join(parts)
+
+
+#: the circuit types of the identification table, as the report names them
+CIRCUIT_TYPES = {
+    "dc": "d.c., two-wire",
+    "dc3": "d.c. with mid-point",
+    "ac1": "a.c. single-phase",
+    "ac3": "a.c. three-phase",
+}
+#: what each row basis means for the site team
+BASES = {
+    "standard": "the standard's colour",
+    "practice": "common practice",
+    "older": "older colour, still met on site (not for new work)",
+}
+
+
+def _identification(system: str) -> str:
+    """The conductor identification system in force, every colour with its source and tag
+    (calc.marking): the colours the site team terminates to."""
+    rows = calc.identification_rows(system)
+    return (
+        f"<h3>Conductor identification</h3><p>System <code>{esc(system)}</code> "
+        "(<code>[design] marking</code>). The schedule's <code>marking</code> column gives each "
+        "circuit the colours below; where the standard names no colour it says "
+        "<em>per project specification</em> (with the common practice, where one is recorded, "
+        "as a hint); colours marked common practice are a convention, not a requirement.</p>"
+        + _table(
+            ("circuit", "up to V (a.c.)", "conductor", "colour", "basis", "source", "tag"),
+            (
+                [
+                    _t(CIRCUIT_TYPES.get(r["circuit"], r["circuit"])),
+                    _t(r["ac_v_max"] or "any"),
+                    _t(r["conductor"]),
+                    _t(r["colour"]),
+                    _t(BASES.get(r["basis"], r["basis"])),
+                    _t(r["source"]),
+                    _t(r["tag"]),
+                ]
+                for r in rows
+            ),
+            ident="identification",
+        )
+    )
 
 
 def _rules_text(design: Any) -> str:

@@ -180,7 +180,12 @@ def test_air_stretch_problems():
         ("insulation_array", "EPR", "insulation_array must be one of 'XLPE', 'PVC'; got 'EPR'"),
         ("insulation_ac", "EPR", "insulation_ac must be one of 'XLPE', 'PVC'; got 'EPR'"),
         ("conductor_temp", "hot", "conductor_temp must be one of 'max', 'loading'; got 'hot'"),
-        ("marking", "uk", "marking must be one of 'iec', 'us'; got 'uk'"),
+        (
+            "marking",
+            "uk",
+            "marking must be one of 'iec', 'gb', 'au', 'in', 'us', 'ca', 'cn', 'jp', 'ru'; "
+            "got 'uk'",
+        ),
         (
             "array_protection",
             "none",

@@ -96,7 +96,7 @@ def test_kind_with_no_power_has_no_loss_percentage():
 
 def test_marking_of_each_circuit():
     r = size_circuits(_plant())
-    dc = "L+ red (marked L+), L- black (marked L-) [colours: common practice]"
+    dc = "L+ red, L- white"  # IEC 60445:2021 6.2.4
     assert r.marking.tolist() == [
         dc,
         dc,
