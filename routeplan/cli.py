@@ -306,6 +306,117 @@ def plan(
     raise typer.Exit(0 if result.ok else 1)
 
 
+@app.command()
+@_guarded
+def place(
+    site: Annotated[Path, typer.Argument(help="Site folder holding site.toml and the layers.")],
+    out_dir: Annotated[
+        Path,
+        typer.Option(
+            "--out",
+            "-o",
+            help="Output folder: the ranked candidates (placement.csv, placement.gpkg) and the "
+            "best position's plan; new, empty, or written by routeplan before.",
+        ),
+    ],
+    inverter: Annotated[
+        str | None, typer.Option("--inverter", help="Id of the inverter pad to place.")
+    ] = None,
+    combiner: Annotated[
+        str | None, typer.Option("--combiner", help="Id of the combiner to place.")
+    ] = None,
+    radius: Annotated[
+        float,
+        typer.Option(
+            help="Candidates within this straight-line distance of the current position, m."
+        ),
+    ] = 100.0,
+    step: Annotated[
+        float, typer.Option(help="Spacing of the candidates along each trench, m.")
+    ] = 10.0,
+    quiet: Annotated[bool, typer.Option("--quiet", "-q", help="No progress or summary.")] = False,
+    force: ForceOption = False,
+) -> None:
+    """Rank candidate positions of one inverter pad or combiner along the trenches: each is
+    planned in full and ranked by conductor cost and capitalised losses ([costs] in site.toml;
+    without prices, by conductor mass), feasible positions first. Writes placement.csv,
+    placement.gpkg and the best position's plan. Exit 0 when the best position meets every
+    limit, 1 when none does, 2 on bad input or an unusable output folder."""
+    from .check import load
+    from .outputs.write import open_output_folder, write_plan
+    from .placement import PlacementError, search, write_placement
+
+    if (inverter is None) == (combiner is None):
+        err.print("error: give exactly one of --inverter ID and --combiner ID", markup=False)
+        raise typer.Exit(2)
+    kind, feature = ("inverter", inverter) if inverter is not None else ("combiner", combiner)
+    try:  # the output folder is checked (and locked) before any computation
+        folder = open_output_folder(out_dir, site, force=force)
+    except InputError as exc:
+        _fail_input(exc)
+        return
+    show = not quiet and out.is_terminal
+    status = out.status("starting", spinner="dots") if show else None
+    with folder:
+        try:
+            if status:
+                status.start()
+            layout, design = load(site)
+            table, plans = search(
+                layout,
+                design,
+                kind,
+                str(feature),
+                radius,
+                step,
+                progress=(lambda i, n: status.update(f"candidate {i + 1} of {n}"))
+                if status
+                else None,
+            )
+            if not plans:
+                raise PlacementError(f"{kind} {feature!r}: no candidate position could be routed")
+            best = next(iter(plans.values()))
+            write_plan(
+                best,
+                folder,
+                extra=lambda work: write_placement(table, layout.crs, work),
+            )
+        except (PlacementError, *InputError) as exc:
+            if status:
+                status.stop()
+            _fail_input(exc)
+            return
+        except OSError as exc:
+            if status:
+                status.stop()
+            _fail_os(exc, out_dir)
+            return
+        finally:
+            if status:
+                status.stop()
+    if not quiet:
+        top = table.iloc[0]
+        out.print(
+            f"{len(table)} candidate position(s) of {kind} {feature} within {radius:g} m "
+            f"(every {step:g} m along the trenches); "
+            f"{int(table['feasible'].sum())} meet every limit",
+            markup=False,
+        )
+        unit = str(top["objective_unit"])
+        out.print(
+            f"best: candidate {int(top['candidate'])} at ({top['x']:.2f}, {top['y']:.2f}), "
+            f"{top['moved_m']:.1f} m from the current position on trench "
+            f"{top['trench_id'] or '(current)'}; objective {top['objective']:,.1f} {unit} "
+            f"({top['delta_objective']:+,.1f} {unit} against the current position)",
+            markup=False,
+        )
+        out.print(
+            f"outputs: {out_dir} (placement.csv, placement.gpkg, the best plan)", markup=False
+        )
+        out.print(CAUTION, markup=False)
+    raise typer.Exit(0 if bool(table.iloc[0]["feasible"]) else 1)
+
+
 #: how the cache line names a stage, where its name alone says too little
 _STAGE_WORDS = {"noding": "trench noding"}
 

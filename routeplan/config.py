@@ -214,6 +214,102 @@ ALLOWANCE_KEYS: tuple[Key, ...] = (
 
 
 @dataclass(frozen=True)
+class CostConfig:
+    """``[costs]``: prices for ranking design alternatives (``routeplan place``).
+
+    ``conductor_per_m``: price per metre of one conductor (core), by (material, size in mm²);
+    ``energy_price_per_kwh`` (nan = not given), ``lifetime_years`` and ``discount_rate_pct``
+    capitalise the yearly losses (calc.costs); ``currency`` is a label only.
+    """
+
+    conductor_per_m: dict[tuple[str, float], float] = field(default_factory=dict)
+    energy_price_per_kwh: float = math.nan
+    lifetime_years: float = math.nan
+    discount_rate_pct: float = math.nan
+    currency: str = ""
+
+    @property
+    def priced(self) -> bool:
+        """Whether conductor prices are given (else placement ranks by conductor mass)."""
+        return bool(self.conductor_per_m)
+
+    @property
+    def energy_priced(self) -> bool:
+        return not math.isnan(self.energy_price_per_kwh)
+
+
+#: ``[costs]`` number keys: (name, low, high, note)
+COST_KEYS: tuple[tuple[str, float, float, str], ...] = (
+    ("energy_price_per_kwh", 0.0, 10.0, "price of a lost kWh, in the currency"),
+    ("lifetime_years", 1.0, 100.0, "years over which losses are capitalised"),
+    ("discount_rate_pct", 0.0, 50.0, "yearly discount rate for the present value, %"),
+)
+
+
+def parse_costs(raw: dict[str, Any], problems: list[Problem]) -> CostConfig:
+    """Read ``[costs]`` (see :class:`CostConfig`); plain numbers only, every problem named by
+    its key. With ``energy_price_per_kwh``, ``lifetime_years`` and ``discount_rate_pct`` are
+    required (no default stands for a project's finance)."""
+    known = ("currency", "conductor_per_m", *(k[0] for k in COST_KEYS))
+    for key in raw:
+        if key not in known:
+            problems.append(unknown_key(f"costs.{key}", key, known))
+    numbers: dict[str, float] = {}
+    for name, low, high, _ in COST_KEYS:
+        if name not in raw:
+            continue
+        v = raw[name]
+        where = f"costs.{name}"
+        if isinstance(v, bool) or not isinstance(v, int | float):
+            problems.append(Problem(SITE_TOML, where, f"must be a number, not {toml_type(v)}"))
+        elif not (low <= v <= high):
+            problems.append(Problem(SITE_TOML, where, f"{v:g} is outside {low:g}–{high:g}"))
+        else:
+            numbers[name] = float(v)
+    if "energy_price_per_kwh" in raw:
+        for name in ("lifetime_years", "discount_rate_pct"):
+            if name not in raw:
+                problems.append(
+                    Problem(SITE_TOML, f"costs.{name}", "is needed with costs.energy_price_per_kwh")
+                )
+    currency = raw.get("currency", "")
+    if not isinstance(currency, str):
+        problems.append(
+            Problem(SITE_TOML, "costs.currency", f"must be a string, not {toml_type(currency)}")
+        )
+        currency = ""
+    prices: dict[tuple[str, float], float] = {}
+    table = raw.get("conductor_per_m", {})
+    if not isinstance(table, dict):
+        problems.append(
+            Problem(SITE_TOML, "costs.conductor_per_m", f"must be a table, not {toml_type(table)}")
+        )
+        table = {}
+    for key, v in table.items():
+        where = f"costs.conductor_per_m.{key}"
+        material, _, size = str(key).partition(" ")
+        try:
+            size_mm2 = float(size)
+        except ValueError:
+            size_mm2 = math.nan
+        if material not in MATERIALS or not math.isfinite(size_mm2) or size_mm2 <= 0:
+            problems.append(
+                Problem(SITE_TOML, where, 'key must be "<Cu|Al> <size in mm²>", e.g. "Cu 10"')
+            )
+        elif isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v) or v < 0:
+            problems.append(Problem(SITE_TOML, where, "must be a price ≥ 0 (a number)"))
+        else:
+            prices[(material, size_mm2)] = float(v)
+    return CostConfig(
+        prices,
+        numbers.get("energy_price_per_kwh", math.nan),
+        numbers.get("lifetime_years", math.nan),
+        numbers.get("discount_rate_pct", math.nan),
+        currency,
+    )
+
+
+@dataclass(frozen=True)
 class DesignConfig:
     """Parsed design settings, SI, defaults filled. ``values`` holds the ``[design]`` scalars."""
 
@@ -227,13 +323,15 @@ class DesignConfig:
     air_arrangement: dict[str, str] = field(default_factory=lambda: dict(AIR_ARRANGEMENT_DEFAULT))
     #: only lists set in site.toml (``string_fuse``, ``array_fuse``, ``ac_breaker``)
     ratings_a: dict[str, tuple[float, ...]] = field(default_factory=dict)
+    #: the ``[costs]`` table (placement's objective); empty when site.toml has none
+    costs: CostConfig = field(default_factory=lambda: CostConfig())
 
     def __getitem__(self, key: str) -> Any:
         return self.values[key]
 
 
 #: top-level tables of site.toml read here (``layers.SITE_TABLES`` are read by ``layers``)
-DESIGN_TABLES: tuple[str, ...] = ("design", "allowances")
+DESIGN_TABLES: tuple[str, ...] = ("design", "allowances", "costs")
 #: sub-tables of ``[design]``
 DESIGN_SUBTABLES: tuple[str, ...] = (
     "material",
@@ -265,6 +363,7 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
             problems.append(unknown_key(str(key), key, top, what))
     design = _table(config, "design", "design", problems)
     allowances = _table(config, "allowances", "allowances", problems)
+    costs = parse_costs(_table(config, "costs", "costs", problems), problems)
     known = (*(k.name for k in DESIGN_KEYS), *DESIGN_SUBTABLES)
     for key in design:
         if key not in known:
@@ -380,6 +479,7 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
         defaulted + defaulted2,
         arrangement,
         ratings,
+        costs,
     )
     return cfg, problems
 

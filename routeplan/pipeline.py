@@ -30,6 +30,7 @@ from .check import load
 from .config import DESIGN_KEYS, DesignConfig, parse_design
 from .errors import DesignError, Problem
 from .inputs import INPUT_COLUMNS, assign_inputs, input_table, landing_input
+from .network import NetworkMemo
 from .order import inverter_of, schedule_order
 from .quantities import bill_of_quantities
 from .remedy import remedies
@@ -383,9 +384,12 @@ def plan_site(
     progress: Callable[[str], None] | None = None,
     timings: dict[str, float] | None = None,
     cache: PlanCache | None = None,
+    noding_memo: NetworkMemo | None = None,
 ) -> Plan:
     """Route and size a validated site (see :func:`plan`; ``cache`` only after its ``site``
-    stage, as :func:`plan` uses it)."""
+    stage, as :func:`plan` uses it). ``noding_memo``: without a cache, the ``network.memo`` of
+    a plan of the same trenches, whose noding and taps are reused where they still hold
+    (:func:`routeplan.network.build_network`)."""
     say = progress or (lambda stage: None)
     t = timings if timings is not None else {}
     if cache is not None and "site" not in cache.keys:
@@ -398,7 +402,7 @@ def plan_site(
         route_key = digest("route", cache.keys["site"], repr(params))
         routes = cache.get("route", route_key)
     if routes is None:
-        memo = cache.latest("noding") if cache is not None else None
+        memo = cache.latest("noding") if cache is not None else noding_memo
         routes = route_site(site, params, memo=memo)
         for k, v in routes.timings_s.items():
             t[f"route.{k}"] = v

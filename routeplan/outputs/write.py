@@ -144,6 +144,7 @@ def write_plan(
     map_options: dict | None = None,
     progress: Callable[[str], None] | None = None,
     force: bool = False,
+    extra: Callable[[Path], list[str]] | None = None,
 ) -> dict[str, float]:
     """Write every output of ``plan`` into the output folder ``out`` (an open
     :class:`~routeplan.folder.OutputFolder`, or a path opened here with ``force``), all or
@@ -153,7 +154,9 @@ def write_plan(
     outputs. When nothing that the outputs depend on changed since the last run, the last
     run's files are reused (if their bytes are still the ones written then); otherwise the
     schedules and the GeoPackage reuse the last run's unchanged rows
-    (:mod:`routeplan.outputs.reuse`).
+    (:mod:`routeplan.outputs.reuse`). ``extra(folder)`` writes more files of the same run into
+    the work folder and returns their names (``routeplan place``: the candidate table); they
+    are committed with the others.
 
     Raises
     ------
@@ -161,9 +164,9 @@ def write_plan(
         When the folder cannot be used (see :meth:`routeplan.folder.OutputFolder.open`).
     """
     if isinstance(out, OutputFolder):
-        return _write_into(plan, out, map_options, progress)
+        return _write_into(plan, out, map_options, progress, extra)
     with open_output_folder(out, plan.site.root, plan.site.sources, force=force) as folder:
-        return _write_into(plan, folder, map_options, progress)
+        return _write_into(plan, folder, map_options, progress, extra)
 
 
 def _write_into(
@@ -171,6 +174,7 @@ def _write_into(
     folder: OutputFolder,
     map_options: dict | None,
     progress: Callable[[str], None] | None,
+    extra: Callable[[Path], list[str]] | None = None,
 ) -> dict[str, float]:
     say = progress or (lambda stage: None)
     t: dict[str, float] = {}
@@ -195,6 +199,8 @@ def _write_into(
         else:
             digests = _write_files(plan, tmp, map_options, say, t, jobs)
         files = list(FILES)
+        if extra is not None:
+            files += extra(tmp)
         if cache is not None:
             say("save cache")
             t0 = time.perf_counter()

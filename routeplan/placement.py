@@ -1,0 +1,436 @@
+"""Where should an inverter pad (or a combiner) go? Candidate positions, each planned, ranked.
+
+``routeplan place SITE --inverter ID --out DIR`` (or ``--combiner ID``):
+
+1. **Candidates**: the feature's current position, and points every ``step_m`` along every
+   trench (its centreline, from each trench's start) within ``radius_m`` (straight-line) of the
+   current position. The feature is moved there (a pad polygon by its centroid) and joins the
+   network as the site's rules join any equipment (the nearest trench, a straight stub).
+2. **Evaluation**: the whole site is planned for each candidate (routing, sizing, protection,
+   drop, trench fill: :func:`routeplan.pipeline.plan_site`); the trench noding of the site is
+   reused between candidates, since only the moved feature's tap changes.
+3. **Objective** (smaller is better; plant totals):
+
+   * with conductor prices (``[costs] conductor_per_m``): conductor cost = Σ conductor metres
+     (cable length × conductors, allowances included) × price per metre of its material and
+     size, plus — with ``energy_price_per_kwh`` — the capitalised losses: yearly energy loss
+     (the plan's estimate, ``energy_loss_kwh``) × price × the uniform-series present-worth
+     factor ``(1 − (1 + r)^−n) / r`` (:func:`calc.costs.annuity_factor`);
+   * without prices: the conductor mass [kg] (nominal cross-section × conductor metres ×
+     density, :func:`calc.costs.conductor_mass_kg`); the capitalised losses, when priced, are
+     then reported beside it but not added (a mass and a currency do not add up).
+
+   A candidate is *feasible* when no circuit of the moved feature's block fails, no circuit
+   fails that passes at the current position, and no more trench segments or inverter inputs
+   are over a limit than there: failures elsewhere in the plant, which the move does not
+   cause, do not disqualify a position. Feasible candidates rank first, by objective; the
+   others follow, by their block's and new failures.
+
+Speed: each candidate is a whole plan (the noding reused): about 0.3 s on the 3.5 MW demo
+and a few seconds on a 1 GW plant, per candidate. Re-planning only what a move can change
+is not done yet.
+
+What the search does not consider: terrain, access roads, civil works and their cost, the
+pad's footprint clashing with rows, cable pulling limits, and any position off the trenches.
+It is a local search around the current position, not a layout optimiser.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import shapely
+
+import calc
+import calc.costs
+from layers import Site
+
+from .config import KINDS, CostConfig, DesignConfig
+from .errors import RoutingError
+from .pipeline import Plan, plan_site
+
+__all__ = [
+    "CANDIDATE_COLUMNS",
+    "Evaluation",
+    "PlacementError",
+    "candidate_points",
+    "check_prices",
+    "evaluate",
+    "moved_site",
+    "rank",
+    "search",
+]
+
+#: the columns of placement.csv, in order
+CANDIDATE_COLUMNS: tuple[str, ...] = (
+    "rank",
+    "candidate",
+    "x",
+    "y",
+    "trench_id",
+    "moved_m",
+    "feasible",
+    "objective",
+    "objective_unit",
+    "delta_objective",
+    "conductor_mass_kg",
+    "conductor_cost",
+    "loss_kw",
+    "energy_loss_kwh",
+    "capitalised_loss",
+    "failing_in_block",
+    "new_failures",
+    "failing_circuits",
+    "segments_over",
+    "inputs_over",
+    "worst_utilisation",
+    "worst_vdrop_total_pct",
+    "note",
+)
+
+
+#: decimals written per column (coordinates and lengths to 1 cm, masses and money to 0.01,
+#: energy to 0.1 kWh, ratios to 1e-4)
+DECIMALS: dict[str, int] = {
+    "x": 2,
+    "y": 2,
+    "moved_m": 2,
+    "objective": 2,
+    "delta_objective": 2,
+    "conductor_mass_kg": 2,
+    "conductor_cost": 2,
+    "loss_kw": 3,
+    "energy_loss_kwh": 1,
+    "capitalised_loss": 2,
+    "worst_utilisation": 4,
+    "worst_vdrop_total_pct": 4,
+}
+
+
+class PlacementError(ValueError):
+    """A placement request that cannot be evaluated (one line naming the key or feature)."""
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    """One candidate's plan figures (plant totals)."""
+
+    conductor_mass_kg: float
+    conductor_cost: float
+    loss_kw: float
+    energy_loss_kwh: float
+    capitalised_loss: float
+    failing_in_block: int
+    new_failures: int
+    failing_circuits: int
+    segments_over: int
+    inputs_over: int
+    worst_utilisation: float
+    worst_vdrop_total_pct: float
+    feasible: bool
+
+
+@dataclass(frozen=True)
+class Reference:
+    """What a candidate is judged against: the moved feature's block (the inverter it feeds)
+    and the failures of the plan at the current position."""
+
+    block: str
+    failing: frozenset[str]
+    segments_over: int
+    inputs_over: int
+
+    @classmethod
+    def of(cls, plan: Plan, kind: str, feature_id: str) -> Reference:
+        c = plan.circuits
+        if kind == "inverter":
+            block = feature_id
+        else:
+            own = c.loc[c["from_id"].astype(str) == feature_id, "inverter_id"]
+            block = str(own.iloc[0]) if len(own) else ""
+        return cls(
+            block,
+            frozenset(c.loc[c["status"] != "ok", "circuit_id"].astype(str)),
+            int((plan.segments["status"] != "ok").sum()),
+            int((plan.inputs["status"] != "ok").sum()),
+        )
+
+
+def _layer(site: Site, kind: str) -> gpd.GeoDataFrame:
+    return site.inverters if kind == "inverter" else site.combiners
+
+
+def feature_index(site: Site, kind: str, feature_id: str) -> int:
+    """Row of the inverter or combiner ``feature_id``; a one-line error when there is none."""
+    frame = _layer(site, kind)
+    hits = np.flatnonzero(frame["id"].astype(str).to_numpy() == feature_id)
+    if not hits.size:
+        layer = "inverters" if kind == "inverter" else "combiners"
+        raise PlacementError(f"{layer}: no feature with id {feature_id!r}")
+    return int(hits[0])
+
+
+def _anchor(geom: shapely.Geometry) -> shapely.Point:
+    """The point that stands for a feature's position: the point itself, a pad's centroid."""
+    return geom if geom.geom_type == "Point" else geom.centroid
+
+
+def candidate_points(
+    trenches: gpd.GeoDataFrame, origin: tuple[float, float], radius_m: float, step_m: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """Points every ``step_m`` along each trench (from its first vertex, and its end point),
+    within ``radius_m`` of ``origin`` (straight-line distance); coordinates rounded to 1 cm and
+    de-duplicated (trench ends shared). Returns ``(xy (n, 2), trench ids (n,))`` sorted by
+    distance from ``origin``, then x, then y (deterministic)."""
+    if not (step_m > 0 and math.isfinite(step_m)):
+        raise PlacementError(f"--step must be > 0 m, got {step_m}")
+    if not (radius_m >= 0 and math.isfinite(radius_m)):
+        raise PlacementError(f"--radius must be ≥ 0 m, got {radius_m}")
+    parts, owner = shapely.get_parts(trenches.geometry.to_numpy(), return_index=True)
+    lengths = shapely.length(parts)
+    counts = np.floor(lengths / step_m).astype(int) + 1
+    line = np.repeat(np.arange(parts.size), counts)
+    first = np.repeat(np.cumsum(counts) - counts, counts)
+    distance = (np.arange(line.size) - first) * step_m
+    points = shapely.line_interpolate_point(parts[line], distance)
+    ends = shapely.get_point(parts, -1)  # every end, whatever the step
+    points = np.concatenate([points, ends])
+    line = np.concatenate([line, np.arange(parts.size)])
+    xy = np.round(shapely.get_coordinates(points), 2)
+    near = np.hypot(xy[:, 0] - origin[0], xy[:, 1] - origin[1]) <= radius_m + 1e-9
+    xy, line = xy[near], line[near]
+    ids = trenches["id"].astype(str).to_numpy()[owner[line]]
+    d = np.hypot(xy[:, 0] - origin[0], xy[:, 1] - origin[1])
+    order = np.lexsort((xy[:, 1], xy[:, 0], d))
+    xy, ids = xy[order], ids[order]
+    _, first_seen = np.unique(xy, axis=0, return_index=True)
+    keep = np.sort(first_seen)
+    return xy[keep], ids[keep]
+
+
+def moved_site(site: Site, kind: str, row: int, xy: tuple[float, float]) -> Site:
+    """The site with feature ``row`` of the inverter or combiner layer moved so that its
+    anchor (point, or pad centroid) is at ``xy``."""
+    frame = _layer(site, kind)
+    geom = frame.geometry.iloc[row]
+    a = _anchor(geom)
+    moved = shapely.transform(geom, lambda c: c + np.array([xy[0] - a.x, xy[1] - a.y]))
+    geoms = frame.geometry.to_numpy().copy()
+    geoms[row] = moved
+    new = frame.set_geometry(gpd.GeoSeries(geoms, index=frame.index, crs=frame.crs))
+    field = "inverters" if kind == "inverter" else "combiners"
+    return dataclasses.replace(site, **{field: new})
+
+
+def _candidate_sizes(design: DesignConfig, kinds: Iterable[str]) -> set[tuple[str, float]]:
+    """Every (material, size) a plan may choose for circuits of ``kinds``: their candidate
+    sizes."""
+    rules = calc.get_rules(design.values["rules"])
+    code = {
+        "string": calc.KIND_STRING,
+        "subarray": calc.KIND_SUBARRAY,
+        "array": calc.KIND_ARRAY,
+        "ac": calc.KIND_AC,
+    }
+    out: set[tuple[str, float]] = set()
+    for kind in KINDS:
+        if kind not in kinds:
+            continue
+        material = design.material[kind]
+        sizes = design.sizes_mm2.get(kind) or rules.default_sizes_mm2(code[kind], material)
+        out |= {(material, float(s)) for s in sizes}
+    return out
+
+
+def check_prices(design: DesignConfig, kinds: Iterable[str] = KINDS) -> None:
+    """With conductor prices given, every size a plan may choose for circuits of ``kinds``
+    must have one (one line listing the missing keys). :func:`search` checks after planning
+    the current position, which tells the kinds the site has, and before any candidate."""
+    costs = design.costs
+    if not costs.priced:
+        return
+    missing = sorted(_candidate_sizes(design, set(kinds)) - set(costs.conductor_per_m))
+    if missing:
+        keys = ", ".join(f'"{m} {s:g}"' for m, s in missing)
+        raise PlacementError(
+            f"site.toml: costs.conductor_per_m has no price for {keys} (every candidate size "
+            "needs one, or give no prices to rank by conductor mass)"
+        )
+
+
+def evaluate(plan: Plan, costs: CostConfig, ref: Reference) -> Evaluation:
+    """A plan's objective parts (plant totals) and checks. *Feasible*: no circuit of the
+    moved feature's block fails, no circuit fails that passes at the current position, and no
+    more trench segments or inverter inputs are over a limit than there (failures elsewhere in
+    the plant, which the move does not cause, do not disqualify a position)."""
+    c = plan.circuits
+    conductor_m = (c["cable_m"] * c["conductors"]).to_numpy(dtype=float)
+    size = c["size_mm2"].to_numpy(dtype=float)
+    material = c["material"].astype(str).to_numpy()
+    mass = float(calc.costs.conductor_mass_kg(size, conductor_m, material).sum())
+    cost = math.nan
+    if costs.priced:
+        price = np.array(
+            [costs.conductor_per_m[(m, float(s))] for m, s in zip(material, size, strict=True)]
+        )
+        cost = float((price * conductor_m).sum())
+    energy = float(c["energy_loss_kwh"].sum())
+    capital = math.nan
+    if costs.energy_priced:
+        capital = float(
+            calc.costs.capitalised_loss(
+                energy, costs.energy_price_per_kwh, costs.discount_rate_pct, costs.lifetime_years
+            )
+        )
+    failing = c["status"] != "ok"
+    ids = c.loc[failing, "circuit_id"].astype(str)
+    in_block = int((failing & (c["inverter_id"].astype(str) == ref.block)).sum())
+    new = int((~ids.isin(ref.failing)).sum())
+    seg_over = int((plan.segments["status"] != "ok").sum())
+    inp_over = int((plan.inputs["status"] != "ok").sum())
+    return Evaluation(
+        conductor_mass_kg=mass,
+        conductor_cost=cost,
+        loss_kw=float(c["loss_w"].sum()) / 1000.0,
+        energy_loss_kwh=energy,
+        capitalised_loss=capital,
+        failing_in_block=in_block,
+        new_failures=new,
+        failing_circuits=int(failing.sum()),
+        segments_over=seg_over,
+        inputs_over=inp_over,
+        worst_utilisation=float(c["utilisation"].max()),
+        worst_vdrop_total_pct=float(c["vdrop_total_pct"].max()),
+        feasible=in_block == 0
+        and new == 0
+        and seg_over <= ref.segments_over
+        and inp_over <= ref.inputs_over,
+    )
+
+
+def objective(e: Evaluation, costs: CostConfig) -> tuple[float, str]:
+    """The value ranked and its unit (see the module docstring)."""
+    if costs.priced:
+        value = e.conductor_cost + (e.capitalised_loss if costs.energy_priced else 0.0)
+        return value, costs.currency or "currency"
+    return e.conductor_mass_kg, "kg"
+
+
+def rank(table: pd.DataFrame) -> pd.DataFrame:
+    """Feasible candidates first by objective, then the others by their block's and new
+    failures, then objective; ties by candidate number. Adds ``rank`` (1 = best)."""
+    failures = (table["failing_in_block"] + table["new_failures"]).fillna(
+        np.inf
+    )  # not routable: after every plan that routes
+    order = np.lexsort(
+        (
+            table["candidate"].to_numpy(),
+            table["objective"].fillna(np.inf).to_numpy(),
+            np.where(table["feasible"], 0, failures.to_numpy()),
+            ~table["feasible"].to_numpy(dtype=bool),
+        )
+    )
+    out = table.iloc[order].reset_index(drop=True)
+    out["rank"] = np.arange(1, len(out) + 1)
+    return out
+
+
+def search(
+    site: Site,
+    design: DesignConfig,
+    kind: str,
+    feature_id: str,
+    radius_m: float,
+    step_m: float,
+    progress: Callable[[int, int], None] | None = None,
+) -> tuple[pd.DataFrame, dict[int, Plan]]:
+    """Evaluate every candidate position of one inverter or combiner (see the module
+    docstring). Returns the ranked candidate table (:data:`CANDIDATE_COLUMNS`) and the best
+    candidate's plan under its candidate number."""
+    row = feature_index(site, kind, feature_id)
+    anchor = _anchor(_layer(site, kind).geometry.iloc[row])
+    origin = (anchor.x, anchor.y)
+    xy, trench = candidate_points(site.trenches, origin, radius_m, step_m)
+    xy = np.vstack([np.array([origin]), xy])
+    trench = np.concatenate([np.array([""]), trench])
+    records = []
+    ref: Reference | None = None
+    best: tuple[tuple, int, Plan] | None = None
+    memo = None
+    for i, (x, y) in enumerate(xy):
+        if progress:
+            progress(i, len(xy))
+        candidate = site if i == 0 else moved_site(site, kind, row, (float(x), float(y)))
+        note = "current position" if i == 0 else ""
+        try:
+            plan = plan_site(candidate, design, noding_memo=memo)
+        except RoutingError as exc:
+            records.append(_unroutable(i, x, y, trench[i], origin, str(exc)))
+            continue
+        memo = plan.routes.network.memo
+        if ref is None:  # the first plan that routes: the kinds the site has, the reference
+            check_prices(design, plan.circuits["kind"].unique())
+            ref = Reference.of(plan, kind, feature_id)
+        e = evaluate(plan, design.costs, ref)
+        value, unit = objective(e, design.costs)
+        records.append(
+            {
+                "candidate": i,
+                "x": float(x),
+                "y": float(y),
+                "trench_id": trench[i],
+                "moved_m": float(np.hypot(x - origin[0], y - origin[1])),
+                "objective": value,
+                "objective_unit": unit,
+                **{f.name: getattr(e, f.name) for f in dataclasses.fields(Evaluation)},
+                "note": note,
+            }
+        )
+        key = (not e.feasible, 0 if e.feasible else e.failing_in_block + e.new_failures, value, i)
+        if best is None or key < best[0]:
+            best = (key, i, plan)
+    table = pd.DataFrame.from_records(records)
+    current = table.loc[table["candidate"] == 0, "objective"]
+    table["delta_objective"] = table["objective"] - (current.iloc[0] if len(current) else np.nan)
+    table = rank(table)
+    plans = {best[1]: best[2]} if best is not None else {}
+    return table[list(CANDIDATE_COLUMNS)], plans
+
+
+def _unroutable(i, x, y, trench, origin, reason: str) -> dict:
+    return {
+        "candidate": i,
+        "x": float(x),
+        "y": float(y),
+        "trench_id": trench,
+        "moved_m": float(np.hypot(x - origin[0], y - origin[1])),
+        "objective": math.nan,
+        "objective_unit": "",
+        **{f.name: math.nan for f in dataclasses.fields(Evaluation)},
+        "feasible": False,
+        "note": "not routable here: " + " ".join(reason.split())[:200],
+    }
+
+
+def candidate_layer(table: pd.DataFrame, crs) -> gpd.GeoDataFrame:
+    """The ranked candidates as points (a GeoPackage layer of ``placement.gpkg``)."""
+    return gpd.GeoDataFrame(
+        table.copy(), geometry=gpd.points_from_xy(table["x"], table["y"]), crs=crs
+    )
+
+
+def write_placement(table: pd.DataFrame, crs, folder: Path) -> list[str]:
+    """Write ``placement.csv`` and ``placement.gpkg`` (layer ``candidates``) into ``folder``;
+    returns the file names."""
+    table.round(DECIMALS).to_csv(folder / "placement.csv", index=False)
+    candidate_layer(table, crs).to_file(
+        folder / "placement.gpkg", layer="candidates", engine="pyogrio"
+    )
+    return ["placement.csv", "placement.gpkg"]

@@ -1,0 +1,278 @@
+"""``routeplan place``: candidate positions along the trenches, each planned, ranked.
+
+The known optimum: three combiners beside one straight trench and a grid point at its end.
+With one candidate size per kind, no slack and equal stubs, moving the inverter along the trench
+changes only the array and a.c. route lengths, so the conductor mass of a position x differs
+from another's by Σ w_i (|x − x_i| − |x' − x_i|), w_i = the cable's mass per metre: the
+weighted median of the cable ends minimises it (a classical result of location theory, the
+1-median on a line). The masses use IEC 60028's copper density (8.89 g/cm³) and aluminium
+2.703 g/cm³ (IEC 60889, from memory); the candidate points are checked against shapely.
+"""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pytest
+import shapely
+from shapely.geometry import LineString, Point
+from typer.testing import CliRunner
+
+from routeplan.check import load
+from routeplan.cli import app
+from routeplan.placement import PlacementError, candidate_points, search
+
+from ..conftest import E0, N0, UTM33, write_site
+
+runner = CliRunner()
+COMBINER_X = (20.0, 60.0, 180.0)
+GRID_X = 200.0
+
+TOML = """
+[site]
+name = "Straight trench"
+
+[modules.mod1]
+isc_a = 13.0
+imp_a = 12.3
+voc_v = 49.5
+vmp_v = 41.2
+per_string = 26
+max_fuse_a = 25
+voc_temp_coeff_pct_per_c = -0.28
+
+[design]
+snap_m = 20.0
+
+[design.material]
+array = "Al"
+ac = "Cu"
+
+[design.sizes_mm2]
+string = [6]
+array = [95]
+ac = [50]
+
+[design.drop_pct]
+ac = 3.0
+
+[allowances]
+slack_pct = 0.0
+termination_m = 1.0
+"""
+
+
+def xy(x: float, y: float) -> tuple[float, float]:
+    return (E0 + x, N0 + y)
+
+
+def straight_site(root: Path, toml: str = TOML, second_block: bool = False) -> Path:
+    """The straight-trench site; ``second_block`` adds inverter INV2 whose one row lies 150 m
+    from its combiner, so that its strings fail their drop limit wherever INV1 stands."""
+    rows = gpd.GeoDataFrame(
+        {
+            "id": [f"R{i}" for i in range(3)],
+            "strings": [4, 4, 4],
+            "module": ["mod1"] * 3,
+            "to": [f"C{i}" for i in range(3)],
+        },
+        geometry=[LineString([xy(x - 10, -12), xy(x + 10, -12)]) for x in COMBINER_X],
+        crs=UTM33,
+    )
+    combiners = gpd.GeoDataFrame(
+        {"id": [f"C{i}" for i in range(3)], "to": ["INV1"] * 3, "max_strings": [8] * 3},
+        geometry=[Point(xy(x, -3)) for x in COMBINER_X],
+        crs=UTM33,
+    )
+    inverters = gpd.GeoDataFrame(
+        {"id": ["INV1"], "ac_kva": [60.0], "ac_v": [800.0], "phases": [3], "to": ["G1"]},
+        geometry=[Point(xy(100, 3))],
+        crs=UTM33,
+    )
+    trenches = gpd.GeoDataFrame(
+        {"id": ["T1"], "depth_m": [0.8], "laying": ["direct"]},
+        geometry=[LineString([xy(0, 0), xy(GRID_X, 0)])],
+        crs=UTM33,
+    )
+    grid = gpd.GeoDataFrame({"id": ["G1"]}, geometry=[Point(xy(GRID_X, 3))], crs=UTM33)
+    if second_block:
+        rows.loc[3] = ["R9", 4, "mod1", "C9", LineString([xy(140, -12), xy(160, -12)])]
+        combiners.loc[3] = ["C9", "INV2", 8, Point(xy(0, -3))]
+        inverters.loc[1] = ["INV2", 60.0, 800.0, 3, "G1", Point(xy(5, 3))]
+    frames = {"rows": rows, "combiners": combiners, "inverters": inverters,
+              "trenches": trenches, "grid": grid}  # fmt: skip
+    return write_site(root, frames, toml=toml)
+
+
+@pytest.fixture(scope="module")
+def placed(tmp_path_factory):
+    site, design = load(straight_site(tmp_path_factory.mktemp("straight")))
+    table, plans = search(site, design, "inverter", "INV1", radius_m=250.0, step_m=10.0)
+    return table, plans
+
+
+def test_candidates_are_every_step_along_the_trench_within_the_radius():
+    trench = gpd.GeoDataFrame(
+        {"id": ["T"]}, geometry=[LineString([(0, 0), (100, 0), (100, 55)])], crs=UTM33
+    )
+    got, ids = candidate_points(trench, (50.0, 0.0), radius_m=60.0, step_m=20.0)
+    # along the line every 20 m: (0,0) (20,0) … (100,0) (100,20) (100,40) and the end (100,55);
+    # shapely's distances select those within 60 m of (50, 0)
+    line = trench.geometry.iloc[0]
+    every = [line.interpolate(d) for d in np.arange(0, line.length + 1e-9, 20.0)]
+    every.append(Point(100, 55))
+    want = {(round(p.x, 2), round(p.y, 2)) for p in every if p.distance(Point(50, 0)) <= 60.0}
+    assert {tuple(p) for p in got.tolist()} == want
+    assert set(ids) == {"T"}
+    d = shapely.distance(shapely.points(got), Point(50, 0))
+    assert np.all(np.diff(d) >= 0)  # nearest first
+
+
+def test_the_best_position_is_the_weighted_median_of_the_cable_ends(placed):
+    table, plans = placed
+    on_trench = table[table["candidate"] > 0]
+    assert on_trench["feasible"].all()
+    (plan,) = plans.values()
+    c = plan.circuits.set_index("circuit_id")
+    arrays = c[c["kind"] == "array"]
+    ac = c[c["kind"] == "ac"]
+    assert set(arrays["size_mm2"]) == {95.0} and set(ac["size_mm2"]) == {50.0}
+    # mass per metre of each cable: size × conductors × density (IEC 60028 / IEC 60889)
+    w_array = 95e-6 * float(arrays["conductors"].iloc[0]) * 2703.0
+    w_ac = 50e-6 * float(ac["conductors"].iloc[0]) * 8890.0
+    ends = np.array([*COMBINER_X, GRID_X])
+    w = np.array([w_array] * 3 + [w_ac])
+    x = on_trench["x"].to_numpy() - E0
+    cost = np.array([(w * np.abs(xi - ends)).sum() for xi in x])
+    # every candidate's mass differs from the best's exactly as the hand formula says
+    best = on_trench.iloc[0]
+    mass = on_trench["conductor_mass_kg"].to_numpy()
+    np.testing.assert_allclose(mass - mass[0], cost - cost[0], atol=0.02)
+    # and the best is the weighted median (within one step)
+    order = np.argsort(ends)
+    cum = np.cumsum(w[order])
+    median = ends[order][np.searchsorted(cum, cum[-1] / 2)]
+    assert abs(best["x"] - E0 - median) <= 10.0
+    assert best["rank"] == 1 and best["delta_objective"] < 0
+
+
+def test_the_table_names_the_current_position_and_ranks_every_candidate(placed):
+    table, _ = placed
+    assert table["rank"].tolist() == list(range(1, len(table) + 1))
+    current = table[table["candidate"] == 0].iloc[0]
+    assert current["note"] == "current position" and current["moved_m"] == 0.0
+    assert current["delta_objective"] == 0.0
+    # 21 points along 200 m every 10 m, all within 250 m of the pad, and the current position
+    assert len(table) == 22
+    assert (table["objective_unit"] == "kg").all()  # no prices: ranked by conductor mass
+
+
+def test_with_prices_the_objective_is_conductor_cost_plus_capitalised_losses(tmp_path):
+    toml = (
+        TOML
+        + """
+[costs]
+currency = "EUR"
+energy_price_per_kwh = 0.05
+lifetime_years = 20
+discount_rate_pct = 5
+
+[costs.conductor_per_m]
+"Cu 6" = 0.9
+"Al 95" = 2.5
+"Cu 50" = 9.0
+"""
+    )
+    site, design = load(straight_site(tmp_path / "s", toml))
+    table, plans = search(site, design, "inverter", "INV1", radius_m=30.0, step_m=10.0)
+    (plan,) = plans.values()
+    c = plan.circuits
+    price = c["size_mm2"].map({6.0: 0.9, 95.0: 2.5, 50.0: 9.0})
+    cost = float((c["cable_m"] * c["conductors"] * price).sum())
+    # capitalised losses: yearly kWh × 0.05 × (P/A, 5 %, 20) = 12.4622 (interest tables)
+    capital = float(c["energy_loss_kwh"].sum()) * 0.05 * 12.4622
+    best = table.iloc[0]
+    assert best["objective_unit"] == "EUR"
+    assert best["conductor_cost"] == pytest.approx(cost, rel=1e-9)
+    assert best["capitalised_loss"] == pytest.approx(capital, rel=1e-4)
+    assert best["objective"] == pytest.approx(cost + capital, rel=1e-4)
+
+
+def test_a_size_without_a_price_is_refused_before_planning(tmp_path):
+    toml = TOML + '\n[costs.conductor_per_m]\n"Cu 6" = 0.9\n'
+    site, design = load(straight_site(tmp_path / "s", toml))
+    with pytest.raises(PlacementError, match=r'no price for "Al 95", "Cu 50"'):
+        search(site, design, "inverter", "INV1", radius_m=30.0, step_m=10.0)
+
+
+@pytest.mark.parametrize(
+    ("extra", "where"),
+    [
+        ("[costs]\nenergy_price_per_kwh = 0.05\n", "costs.lifetime_years"),
+        ('[costs]\nenergy_price_per_kwh = "cheap"\n', "costs.energy_price_per_kwh"),
+        ("[costs]\ndiscount = 5\n", "costs.discount"),
+        ('[costs.conductor_per_m]\n"Fe 10" = 1.0\n', "costs.conductor_per_m.Fe 10"),
+        ('[costs.conductor_per_m]\n"Cu 10" = -1\n', "costs.conductor_per_m.Cu 10"),
+    ],
+)
+def test_bad_costs_are_named_by_key(tmp_path, extra, where):
+    site = straight_site(tmp_path / "s", TOML + extra)
+    result = runner.invoke(app, ["place", str(site), "--inverter", "INV1", "--out",
+                                 str(tmp_path / "out")])  # fmt: skip
+    assert result.exit_code == 2
+    assert where in result.output
+    assert "Traceback" not in result.output
+
+
+def test_the_command_writes_the_candidates_and_the_best_plan(tmp_path):
+    site = straight_site(tmp_path / "s")
+    out = tmp_path / "out"
+    args = ["place", str(site), "--inverter", "INV1", "--radius", "40", "--step", "20"]
+    result = runner.invoke(app, [*args, "--out", str(out)])
+    assert result.exit_code == 0, result.output
+    with (out / "placement.csv").open(encoding="utf-8", newline="") as f:
+        rows = list(csv.DictReader(f))
+    assert [int(r["rank"]) for r in rows] == list(range(1, len(rows) + 1))
+    layer = gpd.read_file(out / "placement.gpkg", layer="candidates")
+    assert len(layer) == len(rows)
+    assert (out / "cable_schedule.csv").is_file() and (out / "report.html").is_file()
+    assert "best: candidate" in result.output and "qualified" in result.output
+    # a second run into the same folder replaces routeplan's files
+    again = runner.invoke(app, [*args, "--out", str(out)])
+    assert again.exit_code == 0, again.output
+
+
+def test_requests_that_name_no_feature_are_refused(tmp_path):
+    site = straight_site(tmp_path / "s")
+    out = str(tmp_path / "out")
+    r = runner.invoke(app, ["place", str(site), "--inverter", "NOPE", "--out", out])
+    assert r.exit_code == 2 and "inverters: no feature with id 'NOPE'" in r.output
+    r = runner.invoke(app, ["place", str(site), "--out", out])
+    assert r.exit_code == 2 and "exactly one of --inverter" in r.output
+    r = runner.invoke(app, ["place", str(site), "--combiner", "C0", "--inverter", "INV1",
+                            "--out", out])  # fmt: skip
+    assert r.exit_code == 2
+    r = runner.invoke(app, ["place", str(site), "--inverter", "INV1", "--step", "0",
+                            "--out", out])  # fmt: skip
+    assert r.exit_code == 2 and "--step must be > 0 m" in r.output
+
+
+def test_a_combiner_can_be_placed(tmp_path):
+    site, design = load(straight_site(tmp_path / "s"))
+    table, plans = search(site, design, "combiner", "C2", radius_m=25.0, step_m=10.0)
+    assert len(plans) == 1 and table["rank"].iloc[0] == 1
+    moved = table[table["candidate"] > 0]
+    assert ((moved["x"] - E0 - 180.0).abs() <= 25.0).all()
+
+
+def test_failures_elsewhere_in_the_plant_do_not_disqualify_a_position(tmp_path):
+    site, design = load(straight_site(tmp_path / "s", second_block=True))
+    table, _ = search(site, design, "inverter", "INV1", radius_m=40.0, step_m=20.0)
+    # INV2's strings run 150 m to their combiner: over the 1 % string drop limit (common
+    # practice default) at every position of INV1
+    assert (table["failing_circuits"] >= 4).all()
+    assert (table["failing_in_block"] == 0).all() and (table["new_failures"] == 0).all()
+    assert table["feasible"].all()
