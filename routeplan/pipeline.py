@@ -385,11 +385,13 @@ def plan_site(
     timings: dict[str, float] | None = None,
     cache: PlanCache | None = None,
     noding_memo: NetworkMemo | None = None,
+    with_remedies: bool = True,
 ) -> Plan:
     """Route and size a validated site (see :func:`plan`; ``cache`` only after its ``site``
     stage, as :func:`plan` uses it). ``noding_memo``: without a cache, the ``network.memo`` of
     a plan of the same trenches, whose noding and taps are reused where they still hold
-    (:func:`routeplan.network.build_network`)."""
+    (:func:`routeplan.network.build_network`). ``with_remedies=False`` leaves the ``remedy``
+    column blank (a plan compared, not delivered: ``routeplan place``'s candidates)."""
     say = progress or (lambda stage: None)
     t = timings if timings is not None else {}
     if cache is not None and "site" not in cache.keys:
@@ -439,7 +441,7 @@ def plan_site(
     remedy = None
     if cache is not None and not np.all(result.ok):  # a plan that passes needs no remedy
         remedy = cache.get("remedy", digest("remedy", size_key))
-    if remedy is None:
+    if remedy is None and with_remedies:
         ids = routes.circuits["circuit_id"].to_numpy(dtype=object)
         trench = routes.segments["trench_id"].to_numpy(dtype=object)
         remedy = remedies(inp, dp, rules, result, ids, governing, trench, MAX_PARALLEL)

@@ -362,7 +362,7 @@ def search(
     trench = np.concatenate([np.array([""]), trench])
     records = []
     ref: Reference | None = None
-    best: tuple[tuple, int, Plan] | None = None
+    best: tuple[tuple, int] | None = None
     memo = None
     for i, (x, y) in enumerate(xy):
         if progress:
@@ -370,7 +370,7 @@ def search(
         candidate = site if i == 0 else moved_site(site, kind, row, (float(x), float(y)))
         note = "current position" if i == 0 else ""
         try:
-            plan = plan_site(candidate, design, noding_memo=memo)
+            plan = plan_site(candidate, design, noding_memo=memo, with_remedies=False)
         except RoutingError as exc:
             records.append(_unroutable(i, x, y, trench[i], origin, str(exc)))
             continue
@@ -395,12 +395,16 @@ def search(
         )
         key = (not e.feasible, 0 if e.feasible else e.failing_in_block + e.new_failures, value, i)
         if best is None or key < best[0]:
-            best = (key, i, plan)
+            best = (key, i)
     table = pd.DataFrame.from_records(records)
     current = table.loc[table["candidate"] == 0, "objective"]
     table["delta_objective"] = table["objective"] - (current.iloc[0] if len(current) else np.nan)
     table = rank(table)
-    plans = {best[1]: best[2]} if best is not None else {}
+    plans = {}
+    if best is not None:  # the plan delivered: sized again with its remedies
+        i = best[1]
+        chosen = site if i == 0 else moved_site(site, kind, row, (float(xy[i][0]), float(xy[i][1])))
+        plans[i] = plan_site(chosen, design, noding_memo=memo)
     return table[list(CANDIDATE_COLUMNS)], plans
 
 
