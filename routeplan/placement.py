@@ -114,6 +114,11 @@ DECIMALS: dict[str, int] = {
 }
 
 
+#: most candidate positions one search plans (each is a whole plan: a larger request is refused
+#: with the count, before any planning)
+MAX_CANDIDATES = 2000
+
+
 class PlacementError(ValueError):
     """A placement request that cannot be evaluated (one line naming the key or feature)."""
 
@@ -358,6 +363,11 @@ def search(
     anchor = _anchor(_layer(site, kind).geometry.iloc[row])
     origin = (anchor.x, anchor.y)
     xy, trench = candidate_points(site.trenches, origin, radius_m, step_m)
+    if len(xy) + 1 > MAX_CANDIDATES:
+        raise PlacementError(
+            f"{len(xy) + 1:,} candidate positions within {radius_m:g} m every {step_m:g} m; at "
+            f"most {MAX_CANDIDATES:,} are planned: use a smaller --radius or a larger --step"
+        )
     xy = np.vstack([np.array([origin]), xy])
     trench = np.concatenate([np.array([""]), trench])
     records = []

@@ -280,3 +280,10 @@ def test_failures_elsewhere_in_the_plant_do_not_disqualify_a_position(tmp_path):
     (plan,) = plans.values()
     failing = plan.circuits[plan.circuits["status"] != "ok"]
     assert len(failing) >= 4 and (failing["remedy"].str.len() > 0).all()
+
+
+def test_a_search_too_large_is_refused_before_planning(tmp_path):
+    site, design = load(straight_site(tmp_path / "s"))
+    # 200 m of trench every 0.05 m: 4,001 points, over the 2,000 candidates a search plans
+    with pytest.raises(PlacementError, match=r"4,002 candidate positions .* at most 2,000"):
+        search(site, design, "inverter", "INV1", radius_m=500.0, step_m=0.05)
