@@ -23,8 +23,9 @@ Missing before it can be registered:
 
 Insulation names are the temperature ratings ``"90C"``, ``"75C"``, ``"60C"`` (e.g. THWN-2, XHHW-2,
 USE-2 are 90 °C types) and ``"PV"`` for PV wire (90 °C wet/dry, from memory). Sizes are mm² of the
-NEC sizes (:func:`calc.nec.sizes.size_from_label`). Terminations are taken at 75 °C (110.14(C),
-``nec_2023_rules.csv``) unless a design sets otherwise.
+NEC sizes (:func:`calc.nec.sizes.size_from_label`). The 110.14(C) terminal limit (75 °C by default,
+``nec_2023_rules.csv``; :func:`calc.nec.ampacity.ampacity_a`) is not applied through this interface
+yet: :meth:`NecRules.base_capacity_a` returns the insulation's column (next step, with 690.8(B)).
 """
 
 from __future__ import annotations
