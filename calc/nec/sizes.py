@@ -23,6 +23,7 @@ __all__ = [
     "cmil_mm2",
     "foot_m",
     "kcmil_area_mm2",
+    "round_up_size_mm2",
     "size_from_label",
     "size_index",
     "size_label",
@@ -118,6 +119,19 @@ def size_label(sizes: ArrayLike) -> np.ndarray:
     ['10 AWG', '1/0 AWG', '250 kcmil']
     """
     return np.asarray(size_labels())[size_index(sizes)]
+
+
+def round_up_size_mm2(area_mm2: ArrayLike) -> np.ndarray:
+    """Smallest NEC size (14 AWG … 1000 kcmil) whose area is ≥ ``area_mm2`` [mm²]; nan above
+    1000 kcmil (e.g. an equipment grounding conductor increased per 250.122(B)).
+
+    >>> size_label(round_up_size_mm2([5.0, 5.261154954510373])).tolist()
+    ['10 AWG', '10 AWG']
+    """
+    ref = sizes_mm2()
+    a = np.asarray(area_mm2, dtype=float)
+    idx = np.searchsorted(ref, a * (1.0 - _REL), side="left")
+    return np.where(idx < len(ref), ref[np.minimum(idx, len(ref) - 1)], np.nan)
 
 
 _LABEL = re.compile(r"^\s*(?:(\d+)/0\s*AWG|(\d+)\s*AWG|(\d+(?:\.\d+)?)\s*kcmil)\s*$", re.IGNORECASE)

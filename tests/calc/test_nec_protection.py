@@ -14,7 +14,7 @@ from calc.nec.protection import (
     small_conductor_limit_a,
     standard_ratings_a,
 )
-from calc.nec.sizes import size_from_label
+from calc.nec.sizes import round_up_size_mm2, size_from_label, size_label
 
 # NEC 2023 240.6(A) standard ampere ratings (confirmed, two public code summaries of the 2023 text)
 STANDARD = [15, 20, 25, 30, 35, 40, 45, 50, 60, 70, 80, 90, 100, 110, 125, 150, 175, 200, 225,
@@ -90,6 +90,8 @@ def test_egc_increase_250_122_b_by_hand():
     eight, three, one_0 = size_from_label(["8 AWG", "3 AWG", "1/0 AWG"])
     got = egc_size_mm2([100], "Cu", [one_0], [three])
     assert got[0] == pytest.approx(eight * one_0 / three)
+    # 16 510 × 105 600 / 52 620 ≈ 33 130 cmil (Table 8 areas): above 6 AWG (26 240), so 4 AWG
+    assert size_label(round_up_size_mm2(got)).tolist() == ["4 AWG"]
     # never larger than the ungrounded conductors (250.122(A)): 10 AWG conductors on a 100 A
     # device (e.g. a tap) need no more than 10 AWG
     ten = size_from_label(["10 AWG"])
