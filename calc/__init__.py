@@ -41,6 +41,10 @@ IEC 60364-4-43 433.1), :mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortci
 :mod:`calc.marking` (IEC 60445 and eight regional systems), :mod:`calc.engine`,
 :mod:`calc.rules`, :mod:`calc.tables`,
 :mod:`calc.errors` (``CalcError`` and its subclasses).
+
+NEC: :mod:`calc.nec` (NFPA 70 NEC 2023: AWG/kcmil sizes, Tables 310.16/310.17 and their
+corrections, Chapter 9 Tables 8 and 9, 690.7/690.8/690.9, 240.4/240.6(A), Table 250.122) and
+:class:`calc.rules.nec.NecRules`, not yet registered as a rule set (see its docstring).
 """
 
 from calc.engine import (

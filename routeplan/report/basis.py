@@ -56,6 +56,12 @@ CONDITIONAL_TABLES: dict[str, tuple[str, str | None]] = {
     "iec60364_4_43_2008_table_43a_k.csv": ("fault_ka", None),
     "iec60898_1_breaker_ratings.csv": ("ac_breaker_device", "iec60898-1"),
     "iec60947_2_breaker_ratings.csv": ("ac_breaker_device", "iec60947-2"),
+    # the NEC 2023 rule set's tables (calc.nec; read only when rules = "nec")
+    **{
+        name: ("rules", "nec")
+        for name in table_names()
+        if name.startswith("nec_2023_") or name in ("astm_b258_awg.csv", "us_customary_units.csv")
+    },
 }
 #: data tables calc holds that the plan pipeline never reads, and why
 UNUSED_TABLES: dict[str, str] = {

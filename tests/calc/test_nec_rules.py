@@ -1,0 +1,88 @@
+"""The NEC 2023 rule set class: what it supports, what it refuses, and that it is not registered."""
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from calc.errors import InputError, UnknownOptionError
+from calc.nec.sizes import size_from_label, size_label
+from calc.rules import get_rules, rule_names
+from calc.rules.nec import NecRules
+
+FT = 0.3048
+
+
+def test_nec_is_not_registered_yet():
+    assert rule_names() == ("iec",)
+    with pytest.raises(UnknownOptionError, match="rules must be one of 'iec'; got 'nec'"):
+        get_rules("nec")
+
+
+def test_default_sizes_are_awg_and_kcmil():
+    r = NecRules()
+    assert size_label(r.default_sizes_mm2(0, "Cu")).tolist() == [
+        "12 AWG", "10 AWG", "8 AWG", "6 AWG"
+    ]  # fmt: skip
+    feeders = size_label(r.default_sizes_mm2(1, "Al")).tolist()
+    assert feeders[0] == "6 AWG" and feeders[-1] == "1000 kcmil"
+
+
+def test_resistance_at_20_c_and_alpha20_reproduce_table8_at_75_c():
+    # NEC 2023 Chapter 9 Table 8: 10 AWG Cu 1.24, 4/0 AWG Al 0.100 Ω/kft at 75 °C; the engine's
+    # R20 (1 + α20 (θ − 20)) must give these back at θ = 75 °C
+    r = NecRules()
+    for label, m, r75 in (("10 AWG", "Cu", 1.24), ("4/0 AWG", "Al", 0.100)):
+        s = size_from_label([label])
+        back = r.r20_ohm_km(1, m, s) * (1 + r.alpha20_per_k(m) * 55.0) * FT
+        assert back[0] == pytest.approx(r75, rel=1e-12)
+
+
+def test_capacity_in_air_and_in_raceway_in_the_ground():
+    r = NecRules()
+    s = size_from_label(["4/0 AWG"])
+    # Table 310.17 Cu 90 °C 405 A (from memory); Table 310.16 Cu 90 °C 260 A (confirmed)
+    assert r.base_capacity_a(1, "Cu", "90C", 3, "air", s, "")[0] == 405.0
+    assert r.base_capacity_a(1, "Cu", "90C", 3, "D1", s, "")[0] == 260.0
+    assert r.theta_max_c("75C", "air") == 75.0
+    assert r.air_temp_factor(45.0, "90C") == 0.87
+
+
+def test_direct_burial_and_other_unsupported_parts_are_refused_with_the_reason():
+    r = NecRules()
+    s = size_from_label(["4/0 AWG"])
+    with pytest.raises(InputError, match="direct burial is not available yet"):
+        r.base_capacity_a(1, "Cu", "90C", 3, "D2", s, "")
+    with pytest.raises(InputError, match="soil thermal resistivity"):
+        r.soil_factor(np.array([1.0]), np.array([0]))
+    with pytest.raises(InputError, match="grouping in air"):
+        r.air_group_factor(np.array([2]), "bunched")
+    with pytest.raises(InputError, match="overload check"):
+        r.overload_check(1.0, 1.0, 1.0, 1.0)
+
+
+def test_ac_resistance_factor_from_tables_9_and_8():
+    # 500 kcmil Cu: Table 9 (PVC conduit) 0.027 / Table 8 0.0258 Ω/kft = 1.0465 at 60 Hz; d.c. 1
+    r = NecRules()
+    s = size_from_label(["500 kcmil"])
+    got = r.ac_resistance_factor(s, "Cu", np.array([1.0]), 60.0, np.array([3]))
+    assert got[0] == pytest.approx(0.027 / 0.0258)
+    assert r.ac_resistance_factor(s, "Cu", np.array([1.0]), 60.0, np.array([0]))[0] == 1.0
+    # 14 AWG: Table 9 rounds to 3.1 (< Table 8's 3.14): floored at 1
+    small = size_from_label(["14 AWG"])
+    assert r.ac_resistance_factor(small, "Cu", np.array([1.0]), 60.0, np.array([3]))[0] == 1.0
+    with pytest.raises(InputError, match="60 Hz"):
+        r.ac_resistance_factor(s, "Cu", np.array([1.0]), 50.0, np.array([3]))
+
+
+def test_design_currents_690_8_a():
+    r = NecRules()
+    assert_allclose(r.string_design_current_a(np.array([13.0]), 1, np.nan), [16.25])
+    assert_allclose(r.array_design_current_a(np.array([13.0]), np.array([12])), [195.0])
+
+
+def test_ratings_from_240_6_a_and_restriction():
+    r = NecRules()
+    assert r.breaker_ratings_a("nec240.6a")[:3].tolist() == [15.0, 20.0, 25.0]
+    assert r.gpv_fuse_ratings_a([20, 15]).tolist() == [15.0, 20.0]
+    with pytest.raises(InputError, match=r"16 A not in the NEC 2023 240\.6"):
+        r.gpv_fuse_ratings_a([16])
