@@ -67,6 +67,7 @@ CONDITIONAL_TABLES: dict[str, tuple[str, str | None]] = {
 UNUSED_TABLES: dict[str, str] = {
     "iec60269_1_fuse_ratings.csv": "no (string fuses are chosen from the gPV list)",
     "iec60949_adiabatic_constants.csv": "no (the adiabatic k is read from Table 43A)",
+    "conductor_density.csv": "no (read by routeplan place, for the conductor mass)",
 }
 #: the rule set's default size lists: read unless site.toml sets every kind's sizes
 DEFAULT_SIZES_TABLE = "default_size_lists.csv"
