@@ -100,6 +100,8 @@ def column_json(values: list) -> str:
     return coded if len(coded) < len(plain) else plain
 
 
+#: Columns that name a row: never in a profile.
+_ID_COLUMNS = {"circuit_id", "segment_id", "id"}
 #: A column joins the shared profile when it has at most this share of distinct values …
 PROFILE_DISTINCT = 0.01
 #: … and while the profiles stay at most this share of the rows.
@@ -131,7 +133,7 @@ def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
     codes = {}
     for name, v in values.items():
         c, u = pd.factorize(pd.Series(v, dtype=object), use_na_sentinel=False)
-        if 1 < len(u) <= max(16, PROFILE_DISTINCT * n):
+        if name not in _ID_COLUMNS and 1 < len(u) <= max(16, PROFILE_DISTINCT * n):
             codes[name] = (c, len(u))
     profile: list[str] = []
     key = np.zeros(n, dtype=np.int64)

@@ -754,9 +754,10 @@ var rpReview = (function() {
                 history.replaceState(null, '', location.pathname + location.search);
             } catch (err) { /* a file: page may refuse */ }
         });
-        document.addEventListener('keydown', function(ev) {
-            if (ev.key === 'Escape' && ev.target === document.body) {
-                document.getElementById('rp-details').hidden = true;
+        document.addEventListener('keydown', function(ev) {  // Escape closes the details
+            var box = document.getElementById('rp-details');
+            if (ev.key === 'Escape' && !box.hidden && ev.target !== input) {
+                box.hidden = true;
                 clear();
             }
         });

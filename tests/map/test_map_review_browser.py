@@ -415,3 +415,30 @@ def test_hostile_ids_are_shown_as_text(browser, hostile_out):  # noqa: F811
         page.assert_clean()  # no dialog, no console error, no request but file: and data:
     finally:
         page.close()
+
+
+def test_strings_drawn_per_row_are_still_found(browser, demo_out, tmp_path):  # noqa: F811
+    # above aggregate_strings_above, strings are drawn one line per row: each string id is
+    # still searchable and its details come from the review data
+    from routeplan.map.page import render_folder
+
+    html = tmp_path / "aggregated.html"
+    html.write_text(render_folder(demo_out, aggregate_strings_above=10), encoding="utf-8")
+    rows = _csv(demo_out / "cable_schedule.csv")
+    row = next(r for r in rows if r["kind"] == "string")
+    page = Review(browser, html, "#find=" + quote(row["circuit_id"], safe=""))
+    try:
+        assert page.page.locator(".rp-string").count() < sum(r["kind"] == "string" for r in rows)
+        shown = page.details()
+        assert shown["_title"] == row["circuit_id"]
+        _check_values(shown, row, CIRCUIT_KEYS)
+        assert page.page.locator(".leaflet-rpSelect-pane path").count() >= 2  # row line, ends
+        page.page.keyboard.press("Escape")  # closes the details
+        assert page.page.locator("#rp-details").is_hidden()
+        page.page.locator("#rp-q").focus()
+        page.page.keyboard.type(row["circuit_id"])
+        page.page.keyboard.press("Enter")
+        assert page.details()["_title"] == row["circuit_id"]
+        page.assert_clean()
+    finally:
+        page.close()
