@@ -162,6 +162,8 @@ def review_constants() -> dict:
         # Okabe–Ito: black casing, sky blue route, reddish purple governing stretch
         "hl": {"casing": "#000000", "line": "#56B4E9", "governing": "#CC79A7"},
         "hits": 20,
+        # circuits of a selected trench segment drawn side by side, this many px apart
+        "fan": 4,
     }
 
 

@@ -261,6 +261,7 @@ var rpReview = (function() {
     // ---- highlight ------------------------------------------------------------------------
     function clear() {
         if (hl) { hl.clearLayers(); }
+        if (fan) { fanOut(null); }
         current = null;
     }
     function copy(f, style) {
@@ -472,7 +473,48 @@ var rpReview = (function() {
             return copy(x, {color: C.hl.casing, weight: 18, opacity: 0.35});
         }));
         f.forEach(function(x) { copy(x, {color: C.hl.line, weight: 6, opacity: 1}); });
+        fanOut(s, f);
     }
+    // the circuits of a selected trench segment side by side, C.fan px apart across it (the
+    // map draws them on top of each other): each one can be pointed at and clicked
+    var fan = null, fanned = null;
+    function offsetLine(lls, d) {
+        var pts = lls.map(function(ll) { return map.latLngToLayerPoint(ll); }), out = [];
+        for (var j = 0; j < pts.length; j++) {
+            var a = pts[Math.max(0, j - 1)], b = pts[Math.min(pts.length - 1, j + 1)];
+            var dx = b.x - a.x, dy = b.y - a.y, len = Math.sqrt(dx * dx + dy * dy) || 1;
+            out.push(map.layerPointToLatLng(L.point(pts[j].x - dy / len * d,
+                                                    pts[j].y + dx / len * d)));
+        }
+        return out;
+    }
+    function fanOut(s, layers) {
+        if (!fan) { fan = L.featureGroup().addTo(map); }
+        fan.clearLayers();
+        fanned = s === null ? null : [s, layers];
+        if (s === null) { return; }
+        var list = circuitsOf(s), n = list.length;
+        if (n < 2) { return; }
+        layers.forEach(function(x) {
+            if (!x.getLatLngs) { return; }
+            var lls = x.getLatLngs();
+            if (Array.isArray(lls[0])) { lls = lls[0]; }
+            list.forEach(function(i, k) {
+                var fail = data.c.get('status', i) === 'fail', u = data.c.get('utilisation', i);
+                var line = L.polyline(offsetLine(lls, (k - (n - 1) / 2) * C.fan), {
+                    pane: 'rpSelect', renderer: fanRenderer, weight: C.fan - 1, opacity: 1,
+                    color: fail ? C.status.fail : colour(C.stops.util, u === null ? NaN : u),
+                    lineCap: 'butt', className: 'rp-fan'});
+                line.bindTooltip(el('span', data.c.id(i)), {sticky: true, className: 'rp-tip'});
+                line.on('click', function(ev) {
+                    L.DomEvent.stopPropagation(ev);
+                    select(data.c.id(i), 'c');
+                });
+                line.addTo(fan);
+            });
+        });
+    }
+    var fanRenderer = null;
     function rowDetails(r) {
         var id = data.r.id(r), body = box(id, 'Module row');
         rows(body, [
@@ -739,6 +781,8 @@ var rpReview = (function() {
         map.createPane('rpSelect').style.zIndex = 450;
         map.getPane('rpSelect').style.pointerEvents = 'none';
         hl = L.featureGroup().addTo(map);
+        fanRenderer = L.svg({pane: 'rpSelect'});
+        map.on('zoomend', function() { if (fanned) { fanOut(fanned[0], fanned[1]); } });
         var input = document.getElementById('rp-q');
         input.addEventListener('input', update);
         input.addEventListener('keydown', onKey);

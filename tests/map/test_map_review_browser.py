@@ -218,6 +218,18 @@ def test_clicking_a_trench_segment_lists_its_circuits(browser, demo_out, screens
         assert shown["_title"] == busy["segment_id"]
         assert page.listed() == busy["circuit_ids"].split(";")
         page.page.screenshot(path=screenshots / "demo_trench_panel.png", animations="disabled")
+        # the segment's circuits are drawn side by side across it, one line each; pointing
+        # at one names it, clicking it selects it
+        ids = busy["circuit_ids"].split(";")
+        fan = page.page.locator("path.rp-fan")
+        assert fan.count() == len(ids)
+        box = fan.nth(len(ids) - 1).bounding_box()
+        x, y = box["x"] + box["width"] / 2, box["y"] + box["height"] / 2
+        assert page.hover_tooltip(x, y) == ids[-1]
+        page.page.mouse.click(x, y)
+        assert page.details()["_title"] == ids[-1]
+        page.page.locator(f"#rp-details button[data-find='{busy['segment_id']}']").first.click()
+        assert page.details()["_title"] == busy["segment_id"]
         # a circuit of the list selects it
         first = busy["circuit_ids"].split(";")[0]
         page.page.locator("#rp-details .rp-list button").first.click()
