@@ -15,6 +15,13 @@ What the map shows
 * a panel with the site, totals and the safety caution, and a plain HTML/CSS legend.
 See :mod:`routeplan.map.scales` for the colour scales and their sources.
 
+Review tools (:data:`routeplan.map.script._REVIEW_JS`, data from :mod:`routeplan.map.details`):
+a search box and ``map.html#find=<id>`` select any circuit, row, item of equipment or trench
+segment, zoom to it and show its details; a circuit's route, ends and governing stretch are
+highlighted; a trench segment lists its circuits and draws them side by side; a colour view
+control recolours circuits (utilisation spread, voltage drop ÷ limit, status); the failing
+circuits are listed by block.
+
 Above ``aggregate_strings_above`` string circuits, strings are drawn one line per row and
 destination (:func:`routeplan.map.features.aggregate_strings`).
 

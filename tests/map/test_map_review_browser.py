@@ -18,6 +18,7 @@ from urllib.parse import quote
 
 import pytest
 
+from routeplan.map.scales import PASS_COLOUR
 from routeplan.order import natural_key
 from routeplan.outputs.schedules import csv_unguard
 from tests.routeplan.promise_sites import plan_cli
@@ -334,6 +335,19 @@ def test_failing_list_is_grouped_by_block_and_zooms_to_each(browser, tight_out):
         page.close()
 
 
+#: [circuit id, stroke colour] of every drawn circuit line
+STROKES = """() => {
+    const map = window[document.querySelector('.folium-map').id], out = [];
+    map.eachLayer(l => {
+        const p = l.feature && l.feature.properties;
+        if (p && p.circuit !== undefined && l._path) {
+            out.push([rpReview.raw(p.circuit), l._path.getAttribute('stroke')]);
+        }
+    });
+    return out;
+}"""
+
+
 def _luminance(colour: str) -> float:
     r, g, b = (int(colour[k : k + 2], 16) for k in (1, 3, 5))
     return 0.2126 * r + 0.7152 * g + 0.0722 * b
@@ -344,22 +358,12 @@ def test_drop_view_spreads_and_orders_the_colours(browser, demo_out, screenshots
     page = _open(browser, demo_out)
     try:
         page.page.screenshot(path=screenshots / "demo_whole_site.png", animations="disabled")
+        drawn = page.page.evaluate(STROKES)
         page.page.locator("#rp-view > summary").click()  # the colour view control unfolds
         page.page.locator("input[name=rp-view][value=drop]").check()
         key = page.page.locator("#rp-view-key .rp-ticks")
         key.wait_for(state="visible")
-        strokes = page.page.evaluate(
-            """() => {
-                const map = window[document.querySelector('.folium-map').id], out = [];
-                map.eachLayer(l => {
-                    const p = l.feature && l.feature.properties;
-                    if (p && p.circuit !== undefined && l._path) {
-                        out.push([rpReview.raw(p.circuit), l._path.getAttribute('stroke')]);
-                    }
-                });
-                return out;
-            }"""
-        )
+        strokes = page.page.evaluate(STROKES)
         limits = {"string": 1.0, "subarray": 1.0, "array": 1.5, "ac": 1.0}  # demo site.toml
         shares = []
         for cid, stroke in strokes:
@@ -373,6 +377,12 @@ def test_drop_view_spreads_and_orders_the_colours(browser, demo_out, screenshots
         for (s1, l1), (s2, l2) in itertools.pairwise(shares):
             assert s2 == s1 or l2 <= l1 + 1.0, (s1, l1, s2, l2)
         assert len({round(lum) for _, lum in shares}) > 10  # spread: many distinct colours
+        # status: every passing circuit Okabe–Ito bluish green (the demo has no failing one)
+        page.page.locator("input[name=rp-view][value=status]").check()
+        assert {s.lower() for _, s in page.page.evaluate(STROKES)} == {PASS_COLOUR.lower()}
+        # back to the colours as drawn
+        page.page.locator("input[name=rp-view][value=drawn]").check()
+        assert page.page.evaluate(STROKES) == drawn
         page.assert_clean()
     finally:
         page.close()
