@@ -199,7 +199,8 @@ def page_parts(spec: dict) -> list[str]:
     # after branca's <meta charset>, which the Figure added first
     root.header.add_child(RawHTML(offline_header()), name="rp_offline_libraries")
     root.header.add_child(RawHTML(PAGE_SCRIPT), name="rp_page_script")
-    root.header.add_child(RawHTML(review_script(review_constants())), name="rp_review_script")
+    if spec.get("review"):  # the plan's map (not the change map of routeplan diff)
+        root.header.add_child(RawHTML(review_script(review_constants())), name="rp_review")
     if spec["basemap"]:
         folium.TileLayer(
             "OpenStreetMap",
@@ -433,6 +434,7 @@ def render_map(
         "canvas": drawn > CANVAS_ABOVE,
         "bounds": _bounds([frames[k][ok[k]] for k in frames]),
         "groups": groups,
+        "review": True,
     }
     head, middle, tail = memo.page(json.dumps(spec, sort_keys=True), lambda: page_parts(spec))
     return "".join([head, panel, middle, "\n".join(scripts), tail])
