@@ -144,6 +144,7 @@ CSS = """
 #rp-hits li{padding:2px 6px;cursor:pointer;overflow-wrap:anywhere}
 #rp-hits li[aria-selected=true]{background:#0072B2;color:#fff}
 #rp-hits .rp-hit-kind{color:#616161;margin-left:6px;font-size:11px}
+#rp-hits .rp-hit-more{color:#616161;cursor:default;font-style:italic}
 #rp-hits li[aria-selected=true] .rp-hit-kind{color:#fff}
 #rp-views{border:0;padding:0;margin:4px 0}
 #rp-views legend{font-weight:600;padding:0}

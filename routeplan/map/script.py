@@ -623,7 +623,7 @@ var rpReview = (function() {
     function setActive(j) {
         var list = document.getElementById('rp-hits'), input = document.getElementById('rp-q');
         active = j;
-        Array.prototype.forEach.call(list.children, function(li, n) {
+        Array.prototype.forEach.call(list.querySelectorAll('[role=option]'), function(li, n) {
             li.setAttribute('aria-selected', n === j ? 'true' : 'false');
             if (n === j) { li.scrollIntoView({block: 'nearest'}); }
         });
@@ -642,7 +642,9 @@ var rpReview = (function() {
         var input = document.getElementById('rp-q'), list = document.getElementById('rp-hits');
         var q = input.value.trim();
         list.textContent = '';
-        hits = q ? matches(q, C.hits) : [];
+        hits = q ? matches(q, C.hits + 1) : [];
+        var more = hits.length > C.hits;
+        if (more) { hits = hits.slice(0, C.hits); }
         hits.forEach(function(h, j) {
             var li = el('li');
             li.id = 'rp-hit-' + j;
@@ -652,6 +654,11 @@ var rpReview = (function() {
             li.addEventListener('mousedown', function(ev) { ev.preventDefault(); pick(j); });
             list.appendChild(li);
         });
+        if (more) {
+            var li = el('li', 'more … type more of the id', 'rp-hit-more');
+            li.setAttribute('role', 'presentation');
+            list.appendChild(li);
+        }
         list.hidden = !hits.length;
         input.setAttribute('aria-expanded', hits.length ? 'true' : 'false');
         setActive(hits.length ? 0 : -1);

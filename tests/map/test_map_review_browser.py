@@ -251,7 +251,7 @@ def test_search_box_finds_by_prefix_with_the_keyboard(browser, demo_out):  # noq
     try:
         page.page.locator("#rp-q").focus()
         page.page.keyboard.type(prefix)
-        hits = page.page.locator("#rp-hits li")
+        hits = page.page.locator("#rp-hits li[role=option]")
         hits.first.wait_for(state="visible")
         texts = [t.split("\n")[0] for t in hits.all_inner_texts()]
         shown = [page.page.locator("#rp-hits li > span:first-child").nth(i).inner_text()
@@ -268,6 +268,12 @@ def test_search_box_finds_by_prefix_with_the_keyboard(browser, demo_out):  # noq
         page.page.locator("#rp-q").focus()
         page.page.keyboard.press("Escape")
         assert page.page.locator("#rp-q").input_value() == ""
+        # a prefix of many ids: the first 20, and a line saying there are more
+        many = sum(c["circuit_id"].lower().startswith("w") for c in circuits)
+        assert many > 20
+        page.page.keyboard.type("w")
+        page.page.locator("#rp-hits .rp-hit-more").wait_for(state="visible")
+        assert page.page.locator("#rp-hits li[role=option]").count() == 20
         page.assert_clean()
     finally:
         page.close()
