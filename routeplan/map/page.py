@@ -15,6 +15,13 @@ What the map shows
 * a panel with the site, totals and the safety caution, and a plain HTML/CSS legend.
 See :mod:`routeplan.map.scales` for the colour scales and their sources.
 
+Review tools (:data:`routeplan.map.script._REVIEW_JS`, data from :mod:`routeplan.map.details`):
+a search box and ``map.html#find=<id>`` select any circuit, row, item of equipment or trench
+segment, zoom to it and show its details; a circuit's route, ends and governing stretch are
+highlighted; a trench segment lists its circuits and draws them side by side; a colour view
+control recolours circuits (utilisation spread, voltage drop ÷ limit, status); the failing
+circuits are listed by block.
+
 Above ``aggregate_strings_above`` string circuits, strings are drawn one line per row and
 destination (:func:`routeplan.map.features.aggregate_strings`).
 
@@ -42,6 +49,7 @@ import numpy as np
 import pyproj
 import shapely
 
+from routeplan.map.details import review_data_html, review_json
 from routeplan.map.features import (
     CircuitLayers,
     circuit_kind,
@@ -49,6 +57,7 @@ from routeplan.map.features import (
     drawable_mask,
     equipment_layer,
     equipment_stats,
+    is_fail,
     row_layer,
     row_stats,
     segment_layers,
@@ -56,7 +65,7 @@ from routeplan.map.features import (
     string_group_layers,
     text_values,
 )
-from routeplan.map.panel import legend_html, panel_html, plan_totals
+from routeplan.map.panel import failing_html, legend_html, panel_html, plan_totals, review_html
 from routeplan.map.text import escape_text
 from routeplan.map.tiles import MapMemo, Role, mixed, tiles
 from routeplan.network import paused_gc
@@ -143,6 +152,28 @@ _SEGMENT_ROLES = (
 )
 
 
+def review_constants() -> dict:
+    """What the review script needs to know of the page: the layer groups, labels, the
+    colours of the views and of the highlight (:mod:`routeplan.map.scales`)."""
+    from routeplan.map.features import EQUIPMENT_LABEL, KIND_LABEL
+    from routeplan.map.scales import DROP_SHARE, NAN_COLOUR, STATUS_COLOURS, UTILISATION
+
+    return {
+        "groups": ["rows", "segments", "string", "subarray", "array", "ac", "equipment"],
+        "kinds": KIND_LABEL,
+        "equipment": EQUIPMENT_LABEL,
+        "stops": {"util": list(UTILISATION.stops), "drop": list(DROP_SHARE.stops)},
+        "gradients": {"util": UTILISATION.css_gradient(), "drop": DROP_SHARE.css_gradient()},
+        "status": STATUS_COLOURS,
+        "nan": NAN_COLOUR,
+        # Okabe–Ito: black casing, sky blue route, reddish purple governing stretch
+        "hl": {"casing": "#000000", "line": "#56B4E9", "governing": "#CC79A7"},
+        "hits": 20,
+        # circuits of a selected trench segment drawn side by side, this many px apart
+        "fan": 4,
+    }
+
+
 def page_parts(spec: dict) -> list[str]:
     """The page around the layers (folium), cut at the slots: [before the panel, between the
     panel and the layers' scripts, after them]. Imports folium only here."""
@@ -150,7 +181,7 @@ def page_parts(spec: dict) -> list[str]:
 
     from routeplan.map.assets import offline_header
     from routeplan.map.elements import MetricScale, RawHTML, ScriptSlot
-    from routeplan.map.script import PAGE_SCRIPT
+    from routeplan.map.script import PAGE_SCRIPT, review_script
 
     m = folium.Map(
         location=None,
@@ -168,6 +199,8 @@ def page_parts(spec: dict) -> list[str]:
     # after branca's <meta charset>, which the Figure added first
     root.header.add_child(RawHTML(offline_header()), name="rp_offline_libraries")
     root.header.add_child(RawHTML(PAGE_SCRIPT), name="rp_page_script")
+    if spec.get("review"):  # the plan's map (not the change map of routeplan diff)
+        root.header.add_child(RawHTML(review_script(review_constants())), name="rp_review")
     if spec["basemap"]:
         folium.TileLayer(
             "OpenStreetMap",
@@ -231,6 +264,7 @@ def render_map(
     aggregate_strings_above: int = 20000,
     memo: MapMemo | None = None,
     hashes: dict[str, np.ndarray] | None = None,
+    drop_limits_pct: dict[str, float] | None = None,
 ) -> str:
     """Draw a plan as one self-contained HTML page.
 
@@ -253,6 +287,9 @@ def render_map(
     hashes : dict, optional
         Content hashes of the frames' rows (:func:`routeplan.outputs.reuse.row_hashes` of
         attributes and geometry, by layer name), when the caller has them already.
+    drop_limits_pct : dict, optional
+        Voltage-drop limits [%] by circuit kind and ``dc_total`` (``summary.json``'s
+        ``drop_limits_pct``), for the view "voltage drop ÷ its limit".
 
     Returns
     -------
@@ -383,7 +420,13 @@ def render_map(
     crs = circuits.crs or segments.crs
     crs_name = crs.to_string() if crs is not None else "unknown"
     legend = legend_html(segment_reference=reference, aggregated=aggregated)
-    panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend)
+    fail = is_fail(circuits)
+    blocks = text_values(circuits, "inverter_id")[fail].tolist()
+    review = review_html(failing_html(circuit_ids[fail].tolist(), blocks))
+    panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend, review=review)
+    panel += review_data_html(
+        review_json(circuits, segments, rows, equipment, drop_limits_pct=drop_limits_pct)
+    )
 
     spec = {
         "title": f"{site_name} – cable routes",
@@ -391,6 +434,7 @@ def render_map(
         "canvas": drawn > CANVAS_ABOVE,
         "bounds": _bounds([frames[k][ok[k]] for k in frames]),
         "groups": groups,
+        "review": True,
     }
     head, middle, tail = memo.page(json.dumps(spec, sort_keys=True), lambda: page_parts(spec))
     return "".join([head, panel, middle, "\n".join(scripts), tail])
@@ -489,6 +533,12 @@ def render_folder(
     """The map page of an output folder of ``routeplan plan`` as HTML text, written nowhere
     (:func:`write_map` writes it into the folder). Raises :class:`MapError` as it does."""
     frames, site_name = read_output_folder(out_dir)
+    limits = None
+    try:
+        summary = json.loads((Path(out_dir) / SUMMARY_FILE).read_text(encoding="utf-8"))
+        limits = summary.get("drop_limits_pct")
+    except (OSError, ValueError, AttributeError):
+        pass
     return render_map(
         frames["circuits"],
         frames["segments"],
@@ -497,4 +547,5 @@ def render_folder(
         site_name=site_name,
         basemap=basemap,
         aggregate_strings_above=aggregate_strings_above,
+        drop_limits_pct=limits if isinstance(limits, dict) else None,
     )

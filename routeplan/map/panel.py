@@ -132,6 +132,36 @@ CSS = """
 .rp-key svg{flex:none}
 .rp-note{font-size:11px;color:#424242;margin:1px 0 4px}
 .rp-fail{color:#000;font-weight:600}
+.rp-box button{font:inherit;cursor:pointer}
+.rp-box button:focus-visible,.rp-box input:focus-visible,.rp-box summary:focus-visible{
+ outline:2px solid #0072B2;outline-offset:1px}
+#rp-review{top:10px;left:50%;transform:translateX(-50%);width:300px;max-height:calc(100vh - 60px)}
+#rp-find{position:relative;margin:2px 0 4px}
+#rp-find label{display:block;font-weight:600}
+#rp-q{width:100%;box-sizing:border-box;font:inherit;padding:2px 4px}
+#rp-hits{position:absolute;left:0;right:0;z-index:1002;margin:0;padding:0;list-style:none;
+ background:#fff;border:1px solid #757575;max-height:240px;overflow:auto}
+#rp-hits li{padding:2px 6px;cursor:pointer;overflow-wrap:anywhere}
+#rp-hits li[aria-selected=true]{background:#0072B2;color:#fff}
+#rp-hits .rp-hit-kind{color:#616161;margin-left:6px;font-size:11px}
+#rp-hits .rp-hit-more{color:#616161;cursor:default;font-style:italic}
+#rp-hits li[aria-selected=true] .rp-hit-kind{color:#fff}
+#rp-views{border:0;padding:0;margin:4px 0}
+#rp-views legend{font-weight:600;padding:0}
+#rp-views label{display:block}
+.rp-go{background:none;border:0;padding:0;color:#0050a0;text-decoration:underline;
+ text-align:left;overflow-wrap:anywhere}
+.rp-fails ul{margin:2px 0 4px;padding-left:16px}
+#rp-details{right:10px;top:10px;max-width:390px;width:390px;max-height:calc(100vh - 50px);
+ z-index:1003}
+#rp-details[hidden]{display:none}
+#rp-details h2{font-size:13px;margin:2px 24px 4px 0;overflow-wrap:anywhere}
+#rp-details td{overflow-wrap:anywhere}
+#rp-details .rp-list th,#rp-details .rp-list td{padding:1px 6px 1px 0;white-space:nowrap}
+#rp-details .rp-list td:first-child{white-space:normal}
+#rp-close{position:absolute;right:4px;top:2px;border:1px solid #9e9e9e;background:#fff;
+ border-radius:3px;padding:0 6px}
+.rp-swatch{display:inline-block;width:18px;height:8px;margin-right:4px;vertical-align:middle}
 .leaflet-container{background:#fafafa}
 .leaflet-tooltip.rp-tip{padding:4px 7px}
 .rp-tip table{font-size:12px;border-collapse:collapse}
@@ -287,9 +317,12 @@ def summary_html(site_name: str, totals: Totals, *, crs_name: str) -> str:
     )
 
 
-def panel_html(site_name: str, totals: Totals, *, crs_name: str, legend: str) -> str:
-    """The two boxes: summary with the caution (always visible) at the top left, legend at the
-    bottom right; both fold away."""
+def panel_html(
+    site_name: str, totals: Totals, *, crs_name: str, legend: str, review: str = ""
+) -> str:
+    """The boxes: summary with the caution (always visible) at the top left, legend at the
+    bottom right; both fold away. ``review`` (:func:`review_html`), when given, comes with
+    the details box (:func:`details_html`)."""
     return (
         f"<style>{CSS}</style>"
         '<div class="rp-box" id="rp-panel">'
@@ -300,4 +333,78 @@ def panel_html(site_name: str, totals: Totals, *, crs_name: str, legend: str) ->
         '<div class="rp-box" id="rp-legend">'
         f"<details open><summary>Legend</summary>{legend}</details>"
         "</div>"
+        f"{review}{details_html() if review else ''}"
+    )
+
+
+#: Choices of the colour view: (value, label). "drawn" is how the page opens.
+VIEWS = (
+    ("drawn", "utilisation, 0–100 % (as drawn)"),
+    ("util", "utilisation, spread over the values that occur"),
+    ("drop", "voltage drop ÷ its limit"),
+    ("status", "status"),
+)
+
+
+def failing_html(ids: list[str], blocks: list[str]) -> str:
+    """The failing circuits as buttons that select each one (``data-find``: the id), grouped
+    by block (``blocks``: each one's inverter id) in natural order (:mod:`routeplan.order`)
+    when more than one block has failures. Ids and blocks are escaped here."""
+    from routeplan.order import natural_rank
+
+    if not ids:
+        return ""
+    ids_a = np.asarray(ids, dtype=object)
+    blk = np.asarray(blocks, dtype=object)
+    order = np.lexsort((natural_rank(ids_a), natural_rank(blk)))
+    ids_a, blk = ids_a[order], blk[order]
+
+    def items(sel: np.ndarray) -> str:
+        return "".join(
+            f'<li><button type="button" class="rp-go" data-find="{e}">{e}</button></li>'
+            for e in (escape_text(i) for i in sel.tolist())
+        )
+
+    head = f"<summary>Failing circuits ({len(ids_a):,})</summary>"
+    names = list(dict.fromkeys(blk.tolist()))
+    if len(names) <= 1:
+        body = f"<ul>{items(ids_a)}</ul>"
+    else:
+        body = "".join(
+            f"<details><summary>Block {escape_text(b) or MISSING} "
+            f"({int((blk == b).sum()):,})</summary><ul>{items(ids_a[blk == b])}</ul></details>"
+            for b in names
+        )
+    return f'<details class="rp-fails" id="rp-failing">{head}{body}</details>'
+
+
+def review_html(failing: str) -> str:
+    """The review box at the top centre: the search box, the colour view control and the
+    failing list (both folded at first, so the box stays small)."""
+    views = "".join(
+        f'<label><input type="radio" name="rp-view" value="{v}"'
+        f"{' checked' if v == 'drawn' else ''}> {label}</label>"
+        for v, label in VIEWS
+    )
+    return (
+        '<div class="rp-box" id="rp-review" role="region" aria-label="Review">'
+        '<div id="rp-find" role="search">'
+        '<label for="rp-q">Find an id</label>'
+        '<input id="rp-q" type="search" autocomplete="off" spellcheck="false" role="combobox" '
+        'aria-autocomplete="list" aria-expanded="false" aria-controls="rp-hits" '
+        'placeholder="circuit, row, combiner, inverter, trench segment">'
+        '<ul id="rp-hits" role="listbox" aria-label="Matching ids" hidden></ul></div>'
+        '<details id="rp-view"><summary>Colour view</summary>'
+        f'<fieldset id="rp-views"><legend>Colour circuits by</legend>{views}</fieldset>'
+        '<div id="rp-view-key" aria-live="polite"></div></details>'
+        f"{failing}</div>"
+    )
+
+
+def details_html() -> str:
+    """The (empty, hidden) box where the page shows a feature's details."""
+    return (
+        '<div class="rp-box" id="rp-details" role="region" aria-label="Details" hidden>'
+        '<button type="button" id="rp-close" aria-label="Close the details">×</button>'
+        '<div id="rp-details-body" aria-live="polite"></div></div>'
     )

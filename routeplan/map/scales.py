@@ -14,6 +14,18 @@ lightness changes monotonically and darker always means "more":
     (Harrower & Brewer, 2003), from its second class (#deebf7) to its darkest (#08306b): a
     single hue, so it never looks like a circuit's colour or like the problem colour.
 
+The review views (:data:`routeplan.map.script.REVIEW_SCRIPT`) recolour circuits in the page,
+each over the range of values that occur (so that 76–96 % does not look all alike):
+
+``UTILISATION``
+    again, for "utilisation, spread";
+``DROP_SHARE``
+    voltage drop as a share of its limit. ColorBrewer *YlGnBu*, 9 classes (Harrower & Brewer,
+    2003; marked colour-blind safe there), from its second class (#edf8b1) to its darkest
+    (#081d58): light yellow-green to dark blue, lightness monotonic;
+``STATUS_COLOURS``
+    passing circuits Okabe–Ito *bluish green* #009E73, failing ones vermillion.
+
 Problems use one colour that neither scale contains, *vermillion* #D55E00 from the Okabe–Ito
 palette (Okabe & Ito, 2008, "Color Universal Design"), always together with a shape cue so that
 greyscale print still shows it: a failing circuit has a dashed black outline; an over-capacity
@@ -51,6 +63,15 @@ BLUES_9 = (
     "#4292c6", "#2171b5", "#08519c", "#08306b",
 )  # fmt: skip
 
+#: ColorBrewer "YlGnBu", 9 classes, light to dark.
+#: Source: branca 0.8 ``_schemes.json`` key "YlGnBu_09" (a test compares the two).
+YLGNBU_9 = (
+    "#ffffd9", "#edf8b1", "#c7e9b4", "#7fcdbb", "#41b6c4",
+    "#1d91c0", "#225ea8", "#253494", "#081d58",
+)  # fmt: skip
+
+#: Okabe–Ito "bluish green": passing circuits in the status view.
+PASS_COLOUR = "#009E73"
 #: Okabe–Ito "vermillion": failing circuits and over-capacity segments.
 PROBLEM_COLOUR = "#D55E00"
 #: Casing under a failing circuit.
@@ -119,6 +140,9 @@ def _hex_to_rgb(colour: str) -> tuple[int, int, int]:
 UTILISATION = ColourScale(
     "viridis (matplotlib), reversed, t = 0.79…0", tuple(reversed(VIRIDIS_20[:16]))
 )
+DROP_SHARE = ColourScale("YlGnBu (ColorBrewer, 9 classes), classes 2–9", YLGNBU_9[1:])
+#: Colours of the status view, by status.
+STATUS_COLOURS = {"ok": PASS_COLOUR, "fail": PROBLEM_COLOUR}
 FILL = ColourScale("Blues (ColorBrewer, 9 classes), classes 2–9", BLUES_9[1:])
 
 

@@ -137,3 +137,715 @@ def layer_script(
         ]
     lines.append(f"{name}.addTo({parent});")
     return "\n".join(lines)
+
+
+#: The review tools of the page (find, details, trench panel, route, colour views), placed
+#: in the header after :data:`PAGE_SCRIPT`; they start when the document is parsed. They read
+#: the review data (:mod:`routeplan.map.details`) when first needed, and show every data text
+#: with ``textContent`` (never as HTML). Texts of the drawn layers' properties are escaped
+#: HTML (``escape_text``); ``rpRaw`` turns them back into the ids they stand for.
+_REVIEW_JS = r"""
+var rpReview = (function() {
+    'use strict';
+    var C = RP_CONST, data = null, map = null, index = null, keys = null, hl = null;
+    var current = null, view = 'drawn', active = -1, hits = [];
+    var ENT = {'&amp;': '&', '&lt;': '<', '&gt;': '>', '&quot;': '"', '&#x27;': "'",
+               '&#96;': '`', '&#36;': '$', '&#92;': '\\', '&#123;': '{', '&#125;': '}'};
+    function rpRaw(s) {
+        if (typeof s !== 'string' || s.indexOf('&') < 0) { return s; }
+        return s.replace(/&(amp|lt|gt|quot|#x27|#96|#36|#92|#123|#125);/g,
+                         function(m) { return ENT[m]; });
+    }
+    function el(tag, text, cls) {
+        var e = document.createElement(tag);
+        if (text !== undefined && text !== null) { e.textContent = String(text); }
+        if (cls) { e.className = cls; }
+        return e;
+    }
+    // ---- data -----------------------------------------------------------------------------
+    function column(t, name) {
+        var c = t.k[name];
+        if (c === undefined) { return function() { return null; }; }
+        if (Array.isArray(c)) { return function(i) { return c[i]; }; }
+        if (c.i) { return function(i) { return c.v[c.i[i]]; }; }
+        return function() { return c.v[0]; };
+    }
+    function table(t) {
+        var cols = {};
+        Object.keys(t.k).forEach(function(k) { cols[k] = column(t, k); });
+        if (t.p) {  // columns stored together: one profile index per row
+            t.p.k.forEach(function(k, j) {
+                cols[k] = function(i) { return t.p.v[t.p.i[i]][j]; };
+            });
+        }
+        var idCol = cols.circuit_id || cols.segment_id || cols.id, byId = new Map();
+        for (var i = 0; i < t.n; i++) {
+            var id = idCol ? idCol(i) : null;
+            if (id !== null && !byId.has(id)) { byId.set(id, i); }
+        }
+        return {n: t.n, get: function(name, i) {
+            return cols[name] ? cols[name](i) : null; }, byId: byId, id: idCol};
+    }
+    function load() {
+        if (data) { return data; }
+        var node = document.getElementById('rp-data');
+        var d = JSON.parse(node ? node.textContent : '{"c":{"n":0,"k":{}},"s":{"n":0,"k":{}},' +
+                           '"r":{"n":0,"k":{}},"e":{"n":0,"k":{}},"sc":{"k":[],"x":[]},' +
+                           '"lim":{},"dec":{}}');
+        function starts(k) {
+            var start = new Array(k.length + 1);
+            start[0] = 0;
+            for (var i = 0; i < k.length; i++) { start[i + 1] = start[i] + k[i]; }
+            return start;
+        }
+        var cs = d.cs || {k: [], x: []};
+        data = {c: table(d.c), s: table(d.s), r: table(d.r), e: table(d.e), sx: d.sc.x,
+                start: starts(d.sc.k), cx: cs.x, cstart: starts(cs.k), lim: d.lim, dec: d.dec};
+        return data;
+    }
+    function fmt(t, name, i, unit) {
+        var v = data[t].get(name, i);
+        if (v === null || v === undefined || v === '') { return '–'; }
+        if (typeof v === 'number') {
+            var d = data.dec[name];
+            v = d ? v.toFixed(d) : String(v);
+        }
+        return unit ? v + ' ' + unit : String(v);
+    }
+    function circuitsOf(s) {  // positions of the circuits of segment s
+        return data.sx.slice(data.start[s], data.start[s + 1]);
+    }
+    function segmentsOf(c) {  // positions of the segments circuit c runs in, in route order
+        return c < data.cstart.length - 1 ? data.cx.slice(data.cstart[c], data.cstart[c + 1]) : [];
+    }
+    // ---- drawn features -------------------------------------------------------------------
+    function layerIndex() {
+        if (index) { return index; }
+        index = new Map();
+        C.groups.forEach(function(k) {
+            var g = window['feature_group_' + k];
+            if (!g) { return; }
+            g.eachLayer(function(gj) {
+                if (!gj.eachLayer) { return; }
+                gj.eachLayer(function(f) {
+                    var p = f.feature && f.feature.properties, key = null;
+                    if (!p) { return; }
+                    if (p.circuit !== undefined) { key = 'c:' + rpRaw(p.circuit); }
+                    else if (p.segment !== undefined) { key = 's:' + rpRaw(p.segment); }
+                    else if (p.equipment !== undefined) { key = 'e:' + rpRaw(p.equipment); }
+                    else if (p.row !== undefined) {
+                        key = (k === 'rows' ? 'r:' : 'g:') + rpRaw(p.row);
+                    }
+                    if (key === null) { return; }
+                    f._rpGj = gj;
+                    f._rpKey = key;
+                    var a = index.get(key);
+                    if (a) { a.push(f); } else { index.set(key, [f]); }
+                });
+            });
+        });
+        return index;
+    }
+    function drawn(key, wake) {
+        var found = layerIndex().get(key);
+        if (!found && wake && key.charAt(0) === 'r') {  // rows start switched off on large plants
+            var g = window.feature_group_rows;
+            if (g && !map.hasLayer(g)) {
+                map.addLayer(g);
+                index = null;
+                found = layerIndex().get(key);
+            }
+        }
+        return found || [];
+    }
+    // ---- highlight ------------------------------------------------------------------------
+    function clear() {
+        if (hl) { hl.clearLayers(); }
+        if (fan) { fanOut(null); }
+        current = null;
+    }
+    function copy(f, style) {
+        var g = L.geoJson(f.feature, {
+            pane: 'rpSelect', interactive: false, style: function() { return style; },
+            pointToLayer: function(ft, ll) {
+                return L.circleMarker(ll, L.extend({radius: 14, pane: 'rpSelect',
+                                                    interactive: false}, style));
+            }
+        });
+        g.addTo(hl);
+        return g;
+    }
+    function end(ll, first) {
+        L.circleMarker(ll, {pane: 'rpSelect', interactive: false, radius: 7, weight: 3,
+                            color: first ? '#000000' : '#FFFFFF', fillOpacity: 1,
+                            fillColor: first ? '#FFFFFF' : '#000000'}).addTo(hl);
+    }
+    function centre(f) {
+        if (f.getLatLng) { return f.getLatLng(); }
+        return f.getBounds().getCenter();
+    }
+    function show(layers) {
+        var b = null;
+        layers.forEach(function(l) {
+            var lb = l.getBounds ? l.getBounds() : null;
+            if (lb && lb.isValid()) {
+                b = b ? b.extend(lb) : L.latLngBounds(lb.getSouthWest(), lb.getNorthEast());
+            }
+        });
+        if (b) { map.fitBounds(b, {maxZoom: 19, paddingTopLeft: [60, 60],
+                                       paddingBottomRight: [420, 60], animate: false}); }
+    }
+    // ---- details box ----------------------------------------------------------------------
+    function box(title, kind) {
+        var body = document.getElementById('rp-details-body');
+        body.textContent = '';
+        var h = el('h2');
+        h.appendChild(el('span', kind + ' '));
+        h.appendChild(el('span', title, 'rp-id'));
+        body.appendChild(h);
+        document.getElementById('rp-details').hidden = false;
+        return body;
+    }
+    function rows(parent, list) {
+        var t = el('table');
+        list.forEach(function(r) {
+            var tr = el('tr');
+            if (r[2]) { tr.setAttribute('data-k', r[2]); }
+            tr.appendChild(el('th', r[0]));
+            var td = el('td');
+            if (r[1] instanceof Node) { td.appendChild(r[1]); } else { td.textContent = r[1]; }
+            tr.appendChild(td);
+            t.appendChild(tr);
+        });
+        parent.appendChild(t);
+        return t;
+    }
+    function go(id, text) {
+        var b = el('button', text === undefined ? id : text, 'rp-go');
+        b.type = 'button';
+        b.setAttribute('data-find', id);
+        return b;
+    }
+    function links(ids) {
+        var span = el('span');
+        ids.forEach(function(id, j) {
+            if (j) { span.appendChild(document.createTextNode(', ')); }
+            span.appendChild(go(id));
+        });
+        if (!ids.length) { span.textContent = '–'; }
+        return span;
+    }
+    function limitText(kind) {
+        var l = data.lim[kind];
+        return l ? ' (limit ' + l + ' %)' : '';
+    }
+    function circuitDetails(i) {
+        var c = data.c, id = c.id(i), kind = c.get('kind', i);
+        var body = box(id, C.kinds[kind] || kind || 'circuit');
+        var dc = kind === 'string' || kind === 'subarray' || kind === 'array';
+        var gov = c.get('governing', i);
+        var govNode = gov ? (data.s.byId.has(gov) ? go(gov) : gov) : '–';
+        var segs = segmentsOf(i).map(function(s) { return data.s.id(s); });
+        var st = c.get('status', i);
+        var list = [
+            ['Circuit', id, 'circuit_id'],
+            ['From', links(c.get('from_id', i) ? [c.get('from_id', i)] : []), 'from_id'],
+            ['To', links(c.get('to_id', i) ? [c.get('to_id', i)] : []), 'to_id'],
+            ['Block (inverter)', fmt('c', 'inverter_id', i), 'inverter_id'],
+            ['Conductor', fmt('c', 'material', i) + ' ' + fmt('c', 'insulation', i), 'material'],
+            ['Size', fmt('c', 'size_mm2', i, 'mm²'), 'size_mm2'],
+            ['Parallel', fmt('c', 'parallel', i), 'parallel'],
+            ['Route length', fmt('c', 'route_m', i, 'm'), 'route_m'],
+            ['Cable length', fmt('c', 'cable_m', i, 'm'), 'cable_m'],
+            ['Design current', fmt('c', 'design_current_a', i, 'A'), 'design_current_a'],
+            ['Ampacity, tabulated', fmt('c', 'ampacity_base_a', i, 'A'), 'ampacity_base_a'],
+            ['Derating', fmt('c', 'derating', i), 'derating'],
+            ['Ampacity, derated', fmt('c', 'ampacity_a', i, 'A'), 'ampacity_a'],
+            ['Governing stretch', govNode, 'governing'],
+            ['Factor: temperature', fmt('c', 'factor_temp', i), 'factor_temp'],
+            ['Factor: soil', fmt('c', 'factor_soil', i), 'factor_soil'],
+            ['Factor: depth', fmt('c', 'factor_depth', i), 'factor_depth'],
+            ['Factor: grouping', fmt('c', 'factor_group', i) + ' (' +
+                fmt('c', 'group_count', i) + ' grouped)', 'factor_group'],
+            ['Utilisation', fmt('c', 'utilisation', i), 'utilisation'],
+            ['Voltage drop', fmt('c', 'vdrop_v', i, 'V'), 'vdrop_v'],
+            ['Voltage drop, own', fmt('c', 'vdrop_pct', i, '%') + limitText(kind), 'vdrop_pct'],
+            ['Voltage drop, cumulative', fmt('c', 'vdrop_total_pct', i, '%') +
+                (dc ? limitText('dc_total') : ''), 'vdrop_total_pct'],
+            ['Loss', fmt('c', 'loss_w', i, 'W'), 'loss_w'],
+            ['Protection', fmt('c', 'protection', i), 'protection'],
+            ['Status', st === 'fail' ? 'FAIL' : fmt('c', 'status', i), 'status'],
+            ['Note', fmt('c', 'note', i), 'note']
+        ];
+        if (st === 'fail' || c.get('remedy', i)) {
+            list.push(['Remedy', fmt('c', 'remedy', i), 'remedy']);
+        }
+        list.push(['Trench segments', links(segs), 'trench_segments']);
+        rows(body, list);
+        var key = el('div', null, 'rp-note');
+        key.appendChild(el('span', null, 'rp-swatch')).style.background = C.hl.line;
+        key.appendChild(document.createTextNode('route  '));
+        key.appendChild(el('span', null, 'rp-swatch')).style.background = C.hl.governing;
+        key.appendChild(document.createTextNode('governing stretch  ○ from  ● to'));
+        body.appendChild(key);
+        // the route: the circuit's line (or its row's line), its segments, the governing one
+        var shown = [], own = drawn('c:' + id);
+        if (!own.length && kind === 'string') { own = drawn('g:' + c.get('from_id', i)); }
+        segs.forEach(function(s) {
+            drawn('s:' + s).forEach(function(f) {
+                shown.push(copy(f, {color: C.hl.casing, weight: 14, opacity: 0.25}));
+            });
+        });
+        own.forEach(function(f) {
+            shown.push(copy(f, {color: C.hl.casing, weight: 10, opacity: 0.9}));
+            copy(f, {color: C.hl.line, weight: 5, opacity: 1});
+        });
+        if (gov) {
+            drawn('s:' + gov).forEach(function(f) {
+                copy(f, {color: C.hl.governing, weight: 16, opacity: 0.85, dashArray: '10 6',
+                         lineCap: 'butt'});
+            });
+        }
+        var a = drawn('e:' + c.get('from_id', i));  // a row: the line's own first point
+        var z = drawn('e:' + c.get('to_id', i));
+        if (own.length && own[0].getLatLngs) {
+            var ll = own[0].getLatLngs();
+            if (Array.isArray(ll[0])) { ll = ll[0]; }
+            if (!a.length && ll.length) { end(ll[0], true); }
+            if (!z.length && ll.length) { end(ll[ll.length - 1], false); }
+        }
+        if (a.length) { end(centre(a[0]), true); }
+        if (z.length) { end(centre(z[0]), false); }
+        show(shown.length ? shown : own);
+    }
+    function circuitTable(parent, list) {
+        var t = el('table', null, 'rp-list'), head = el('tr');
+        var heads = ['Circuit', 'Kind', 'Size × parallel', 'Sets', 'Utilisation', 'Status'];
+        heads.forEach(function(h) {
+            head.appendChild(el('th', h));
+        });
+        t.appendChild(head);
+        list.forEach(function(i) {
+            var tr = el('tr'), td = el('td'), st = data.c.get('status', i);
+            td.appendChild(go(data.c.id(i)));
+            tr.appendChild(td);
+            var k = data.c.get('kind', i);
+            tr.appendChild(el('td', C.kinds[k] || k || '–'));
+            tr.appendChild(el('td', fmt('c', 'size_mm2', i, 'mm²') + ' × ' +
+                              fmt('c', 'parallel', i)));
+            tr.appendChild(el('td', fmt('c', 'parallel', i)));
+            tr.appendChild(el('td', fmt('c', 'utilisation', i)));
+            tr.appendChild(el('td', st === 'fail' ? 'FAIL' : fmt('c', 'status', i),
+                              st === 'fail' ? 'rp-fail' : null));
+            t.appendChild(tr);
+        });
+        parent.appendChild(t);
+    }
+    function segmentDetails(s) {
+        var id = data.s.id(s), body = box(id, 'Trench segment');
+        var cap = 'not set';
+        if (data.s.get('max_circuits', s) !== null) {
+            cap = fmt('s', 'max_circuits', s) + ' circuits';
+        } else if (data.s.get('max_cable_sets', s) !== null) {
+            cap = fmt('s', 'max_cable_sets', s) + ' cable sets';
+        }
+        var st = data.s.get('status', s);
+        rows(body, [
+            ['Trench segment', id, 'segment_id'],
+            ['Trench', fmt('s', 'trench_id', s), 'trench_id'],
+            ['Length', fmt('s', 'length_m', s, 'm'), 'length_m'],
+            ['Circuits', fmt('s', 'circuits', s), 'circuits'],
+            ['Cable sets', fmt('s', 'cable_sets', s), 'cable_sets'],
+            ['Capacity', cap, 'max_circuits'],
+            ['Fill', fmt('s', 'fill', s) + (data.s.get('fill_basis', s) ?
+                ' (' + data.s.get('fill_basis', s) + ')' : ''), 'fill'],
+            ['Status', st === 'over' ? 'OVER CAPACITY' : fmt('s', 'status', s), 'status'],
+            ['Grouping factor', fmt('s', 'group_factor', s), 'group_factor'],
+            ['Depth', fmt('s', 'depth_m', s, 'm'), 'depth_m'],
+            ['Laying', fmt('s', 'laying', s), 'laying'],
+            ['Spacing', fmt('s', 'spacing_m', s, 'm'), 'spacing_m'],
+            ['Soil thermal resistivity', fmt('s', 'soil_k_m_w', s, 'K·m/W'), 'soil_k_m_w']
+        ]);
+        body.appendChild(el('div', 'Circuits in this segment:', 'rp-note'));
+        circuitTable(body, circuitsOf(s));
+        var f = drawn('s:' + id);
+        show(f.map(function(x) {
+            return copy(x, {color: C.hl.casing, weight: 18, opacity: 0.35});
+        }));
+        f.forEach(function(x) { copy(x, {color: C.hl.line, weight: 6, opacity: 1}); });
+        fanOut(s, f);
+    }
+    // the circuits of a selected trench segment side by side, C.fan px apart across it (the
+    // map draws them on top of each other): each one can be pointed at and clicked
+    var fan = null, fanned = null;
+    function offsetLine(lls, d) {
+        var pts = lls.map(function(ll) { return map.latLngToLayerPoint(ll); }), out = [];
+        for (var j = 0; j < pts.length; j++) {
+            var a = pts[Math.max(0, j - 1)], b = pts[Math.min(pts.length - 1, j + 1)];
+            var dx = b.x - a.x, dy = b.y - a.y, len = Math.sqrt(dx * dx + dy * dy) || 1;
+            out.push(map.layerPointToLatLng(L.point(pts[j].x - dy / len * d,
+                                                    pts[j].y + dx / len * d)));
+        }
+        return out;
+    }
+    function fanOut(s, layers) {
+        if (!fan) { fan = L.featureGroup().addTo(map); }
+        fan.clearLayers();
+        fanned = s === null ? null : [s, layers];
+        if (s === null) { return; }
+        var list = circuitsOf(s), n = list.length;
+        if (n < 2) { return; }
+        layers.forEach(function(x) {
+            if (!x.getLatLngs) { return; }
+            var lls = x.getLatLngs();
+            if (Array.isArray(lls[0])) { lls = lls[0]; }
+            list.forEach(function(i, k) {
+                var fail = data.c.get('status', i) === 'fail', u = data.c.get('utilisation', i);
+                var line = L.polyline(offsetLine(lls, (k - (n - 1) / 2) * C.fan), {
+                    pane: 'rpSelect', renderer: fanRenderer, weight: C.fan - 1, opacity: 1,
+                    color: fail ? C.status.fail : colour(C.stops.util, u === null ? NaN : u),
+                    lineCap: 'butt', className: 'rp-fan'});
+                line.bindTooltip(el('span', data.c.id(i)), {sticky: true, className: 'rp-tip'});
+                line.on('click', function(ev) {
+                    L.DomEvent.stopPropagation(ev);
+                    select(data.c.id(i), 'c');
+                });
+                line.addTo(fan);
+            });
+        });
+    }
+    var fanRenderer = null;
+    function rowDetails(r) {
+        var id = data.r.id(r), body = box(id, 'Module row');
+        rows(body, [
+            ['Module row', id, 'id'],
+            ['Strings declared', fmt('r', 'strings', r), 'strings'],
+            ['Module', fmt('r', 'module', r), 'module'],
+            ['To', links(data.r.get('to', r) ? [data.r.get('to', r)] : []), 'to']
+        ]);
+        var mine = [], from = data.c.get.bind(null, 'from_id');
+        for (var i = 0; i < data.c.n; i++) { if (from(i) === id) { mine.push(i); } }
+        body.appendChild(el('div', 'Strings of this row:', 'rp-note'));
+        circuitTable(body, mine);
+        var f = drawn('r:' + id, true).concat(drawn('g:' + id));
+        mine.forEach(function(i) { f = f.concat(drawn('c:' + data.c.id(i))); });
+        show(f.map(function(x) { return copy(x, {color: C.hl.casing, weight: 8, opacity: 0.6}); }));
+        f.forEach(function(x) { copy(x, {color: C.hl.line, weight: 4, opacity: 1}); });
+    }
+    function equipmentDetails(e) {
+        var id = data.e.id(e), k = data.e.get('kind', e);
+        var body = box(id, C.equipment[k] || k || 'Equipment');
+        var ins = [], outs = [];
+        for (var i = 0; i < data.c.n; i++) {
+            if (data.c.get('to_id', i) === id) { ins.push(i); }
+            if (data.c.get('from_id', i) === id) { outs.push(i); }
+        }
+        rows(body, [['Id', id, 'id'], ['Kind', C.equipment[k] || k || '–', 'kind'],
+                    ['Circuits in', String(ins.length)], ['Circuits out', String(outs.length)]]);
+        if (outs.length) {
+            body.appendChild(el('div', 'Circuits out:', 'rp-note'));
+            circuitTable(body, outs);
+        }
+        if (ins.length) {
+            body.appendChild(el('div', 'Circuits in:', 'rp-note'));
+            circuitTable(body, ins);
+        }
+        var f = drawn('e:' + id);
+        show(f.map(function(x) {
+            return copy(x, {color: C.hl.line, weight: 4, opacity: 1, fillOpacity: 0});
+        }));
+    }
+    function missing(id) {
+        var body = box(id, 'Not found:');
+        body.appendChild(el('div', 'No circuit, row, equipment or trench segment has this id.'));
+    }
+    // ---- select ---------------------------------------------------------------------------
+    function lookup(id) {
+        load();
+        var order = [['c', data.c], ['s', data.s], ['e', data.e], ['r', data.r]];
+        for (var j = 0; j < order.length; j++) {
+            if (order[j][1].byId.has(id)) { return [order[j][0], order[j][1].byId.get(id)]; }
+        }
+        return null;
+    }
+    function select(id, kind) {
+        load();
+        var hit = kind ? [kind, data[kind].byId.get(id)] : lookup(id);
+        clear();
+        if (!hit || hit[1] === undefined) { missing(id); return false; }
+        current = id;
+        var details = {c: circuitDetails, s: segmentDetails, r: rowDetails, e: equipmentDetails};
+        details[hit[0]](hit[1]);
+        try {
+            history.replaceState(null, '', '#find=' + encodeURIComponent(id));
+        } catch (err) { /* a file: page may refuse; the selection stands */ }
+        return true;
+    }
+    function fromHash() {
+        var m = /^#find=(.*)$/.exec(location.hash);
+        if (!m) { return; }
+        var id;
+        try { id = decodeURIComponent(m[1]); } catch (err) { id = m[1]; }
+        if (id !== current) { select(id); }
+    }
+    // ---- search ---------------------------------------------------------------------------
+    function searchKeys() {
+        if (keys) { return keys; }
+        load();
+        keys = [];
+        var tables = [['c', 'circuit'], ['s', 'trench segment'], ['e', null], ['r', 'module row']];
+        tables.forEach(function(t) {
+            var tb = data[t[0]];
+            for (var i = 0; i < tb.n; i++) {
+                var id = tb.id(i);
+                if (id === null || id === '') { continue; }
+                var label = t[1] || C.equipment[tb.get('kind', i)] || 'equipment';
+                if (t[0] === 'c') { label = C.kinds[tb.get('kind', i)] || 'circuit'; }
+                keys.push([String(id).toLowerCase(), id, label, t[0]]);
+            }
+        });
+        keys.sort(function(a, b) { return a[0] < b[0] ? -1 : a[0] > b[0] ? 1 : 0; });
+        return keys;
+    }
+    function matches(q, limit) {
+        var k = searchKeys(), lo = 0, hi = k.length, out = [];
+        q = q.toLowerCase();
+        while (lo < hi) {
+            var mid = (lo + hi) >> 1;
+            if (k[mid][0] < q) { lo = mid + 1; } else { hi = mid; }
+        }
+        for (var j = lo; j < k.length && out.length < limit; j++) {
+            if (k[j][0].lastIndexOf(q, 0) !== 0) { break; }
+            out.push(k[j]);
+        }
+        return out;
+    }
+    function setActive(j) {
+        var list = document.getElementById('rp-hits'), input = document.getElementById('rp-q');
+        active = j;
+        Array.prototype.forEach.call(list.querySelectorAll('[role=option]'), function(li, n) {
+            li.setAttribute('aria-selected', n === j ? 'true' : 'false');
+            if (n === j) { li.scrollIntoView({block: 'nearest'}); }
+        });
+        if (j >= 0) { input.setAttribute('aria-activedescendant', 'rp-hit-' + j); }
+        else { input.removeAttribute('aria-activedescendant'); }
+    }
+    function closeHits() {
+        var list = document.getElementById('rp-hits');
+        list.hidden = true;
+        list.textContent = '';
+        hits = [];
+        document.getElementById('rp-q').setAttribute('aria-expanded', 'false');
+        setActive(-1);
+    }
+    function update() {
+        var input = document.getElementById('rp-q'), list = document.getElementById('rp-hits');
+        var q = input.value.trim();
+        list.textContent = '';
+        hits = q ? matches(q, C.hits + 1) : [];
+        var more = hits.length > C.hits;
+        if (more) { hits = hits.slice(0, C.hits); }
+        hits.forEach(function(h, j) {
+            var li = el('li');
+            li.id = 'rp-hit-' + j;
+            li.setAttribute('role', 'option');
+            li.appendChild(el('span', h[1]));
+            li.appendChild(el('span', h[2], 'rp-hit-kind'));
+            li.addEventListener('mousedown', function(ev) { ev.preventDefault(); pick(j); });
+            list.appendChild(li);
+        });
+        if (more) {
+            var li = el('li', 'more … type more of the id', 'rp-hit-more');
+            li.setAttribute('role', 'presentation');
+            list.appendChild(li);
+        }
+        list.hidden = !hits.length;
+        input.setAttribute('aria-expanded', hits.length ? 'true' : 'false');
+        setActive(hits.length ? 0 : -1);
+    }
+    function pick(j) {
+        var h = hits[j];
+        if (!h) { return; }
+        document.getElementById('rp-q').value = h[1];
+        closeHits();
+        select(h[1], h[3]);
+    }
+    function onKey(ev) {
+        if (ev.key === 'ArrowDown' || ev.key === 'ArrowUp') {
+            if (!hits.length) { update(); }
+            if (hits.length) {
+                var n = hits.length, j = active + (ev.key === 'ArrowDown' ? 1 : -1);
+                setActive((j + n) % n);
+            }
+            ev.preventDefault();
+        } else if (ev.key === 'Enter') {
+            if (hits.length) { pick(active < 0 ? 0 : active); }
+            else if (this.value.trim()) { select(this.value.trim()); }
+            ev.preventDefault();
+        } else if (ev.key === 'Escape') {
+            if (hits.length) { closeHits(); } else { this.value = ''; }
+            ev.preventDefault();
+        }
+    }
+    // ---- colour views ---------------------------------------------------------------------
+    function quantile(v, q) {
+        if (!v.length) { return NaN; }
+        var s = v.slice().sort(function(a, b) { return a - b; });
+        return s[Math.min(s.length - 1, Math.max(0, Math.floor(q * (s.length - 1))))];
+    }
+    function domain(values) {
+        var lo = Math.floor(quantile(values, 0.02) * 10) / 10;
+        var hi = Math.ceil(quantile(values, 1) * 10) / 10;
+        if (!(hi > lo)) { hi = lo + 0.1; }
+        return [lo, hi];
+    }
+    function hex(c) { return [1, 3, 5].map(function(k) { return parseInt(c.substr(k, 2), 16); }); }
+    function colour(stops, t) {
+        if (!(t === t)) { return C.nan; }
+        t = Math.max(0, Math.min(1, t)) * (stops.length - 1);
+        var lo = Math.min(Math.floor(t), stops.length - 2), f = t - lo;
+        var a = hex(stops[lo]), b = hex(stops[lo + 1]);
+        return '#' + [0, 1, 2].map(function(k) {
+            var x = Math.round(a[k] * (1 - f) + b[k] * f);
+            return ('0' + x.toString(16)).slice(-2);
+        }).join('');
+    }
+    function value(v, i) {
+        var c = data.c, k = c.get('kind', i);
+        if (v === 'util') { var u = c.get('utilisation', i); return u === null ? NaN : u; }
+        if (v === 'drop') {
+            var own = c.get('vdrop_pct', i), tot = c.get('vdrop_total_pct', i), share = NaN;
+            if (own !== null && data.lim[k]) { share = own / data.lim[k]; }
+            var dc = k === 'string' || k === 'subarray' || k === 'array';
+            if (tot !== null && data.lim.dc_total && dc) {
+                var t = tot / data.lim.dc_total;
+                share = share === share ? Math.max(share, t) : t;
+            }
+            return share;
+        }
+        return c.get('status', i) === 'fail' ? 1 : 0;
+    }
+    function key(v, dom) {
+        var k = document.getElementById('rp-view-key');
+        k.textContent = '';
+        if (v === 'drawn') { return; }
+        if (v === 'status') {
+            [['ok', C.status.ok], ['fail', C.status.fail]].forEach(function(s) {
+                var d = el('div', null, 'rp-key');
+                d.appendChild(el('span', null, 'rp-swatch')).style.background = s[1];
+                d.appendChild(el('span', s[0]));
+                k.appendChild(d);
+            });
+            return;
+        }
+        var bar = el('div', null, 'rp-bar');
+        bar.style.background = v === 'util' ? C.gradients.util : C.gradients.drop;
+        k.appendChild(bar);
+        var ticks = el('div', null, 'rp-ticks');
+        [dom[0], (dom[0] + dom[1]) / 2, dom[1]].forEach(function(x) {
+            ticks.appendChild(el('span', Math.round(x * 100) + ' %'));
+        });
+        k.appendChild(ticks);
+        k.appendChild(el('div', v === 'util' ? 'utilisation (design current ÷ derated ampacity)'
+            : 'voltage drop ÷ its limit (the larger of own and cumulative DC)', 'rp-note'));
+    }
+    function recolour(v) {
+        load();
+        view = v;
+        var idx = layerIndex(), vals = new Float64Array(data.c.n), seen = [], perRow = new Map();
+        for (var i = 0; i < data.c.n; i++) {
+            vals[i] = v === 'drawn' ? NaN : value(v, i);
+            if (vals[i] === vals[i]) { seen.push(vals[i]); }
+            if (data.c.get('kind', i) === 'string') {
+                var r = data.c.get('from_id', i), w = perRow.get(r);
+                if (w === undefined || vals[i] > w || w !== w) { perRow.set(r, vals[i]); }
+            }
+        }
+        var dom = v === 'status' ? [0, 1] : domain(seen);
+        var stops = v === 'drop' ? C.stops.drop : C.stops.util;
+        idx.forEach(function(fs, k) {
+            var t = k.charAt(0);
+            if (t !== 'c' && t !== 'g') { return; }
+            fs.forEach(function(f) {
+                if (v === 'drawn' || (f.options.className || '').indexOf('rp-fail') >= 0) {
+                    f._rpGj.resetStyle(f);
+                    return;
+                }
+                var x = t === 'c' ? vals[data.c.byId.get(k.slice(2))] : perRow.get(k.slice(2));
+                if (x === undefined) { x = NaN; }
+                var col = v === 'status' ? (x === 1 ? C.status.fail : x === 0 ? C.status.ok : C.nan)
+                    : colour(stops, (x - dom[0]) / (dom[1] - dom[0]));
+                f.setStyle({color: col});
+            });
+        });
+        key(v, dom);
+    }
+    // ---- start ----------------------------------------------------------------------------
+    function start() {
+        var node = document.querySelector('.folium-map');
+        map = node ? window[node.id] : null;
+        if (!map || !document.getElementById('rp-q')) { return; }
+        map.createPane('rpSelect').style.zIndex = 450;
+        map.getPane('rpSelect').style.pointerEvents = 'none';
+        hl = L.featureGroup().addTo(map);
+        fanRenderer = L.svg({pane: 'rpSelect'});
+        map.on('zoomend', function() { if (fanned) { fanOut(fanned[0], fanned[1]); } });
+        var input = document.getElementById('rp-q');
+        input.addEventListener('input', update);
+        input.addEventListener('keydown', onKey);
+        input.addEventListener('blur', function() { setTimeout(closeHits, 150); });
+        document.addEventListener('click', function(ev) {
+            var t = ev.target.closest ? ev.target.closest('[data-find]') : null;
+            if (t) { ev.preventDefault(); select(t.getAttribute('data-find')); }
+        });
+        document.getElementById('rp-close').addEventListener('click', function() {
+            document.getElementById('rp-details').hidden = true;
+            clear();
+            try {
+                history.replaceState(null, '', location.pathname + location.search);
+            } catch (err) { /* a file: page may refuse */ }
+        });
+        document.addEventListener('keydown', function(ev) {  // Escape closes the details
+            var box = document.getElementById('rp-details');
+            if (ev.key === 'Escape' && !box.hidden && ev.target !== input) {
+                box.hidden = true;
+                clear();
+            }
+        });
+        Array.prototype.forEach.call(document.querySelectorAll('input[name=rp-view]'), function(r) {
+            r.addEventListener('change', function() { if (r.checked) { recolour(r.value); } });
+        });
+        C.groups.forEach(function(k) {
+            var g = window['feature_group_' + k];
+            if (!g) { return; }
+            g.on('click', function(e) {
+                var f = e.propagatedFrom || e.layer, p = f && f.feature && f.feature.properties;
+                if (!p) { return; }
+                load();
+                if (p.circuit !== undefined) { select(rpRaw(p.circuit), 'c'); }
+                else if (p.segment !== undefined) { select(rpRaw(p.segment), 's'); }
+                else if (p.equipment !== undefined) { select(rpRaw(p.equipment), 'e'); }
+                else if (p.row !== undefined) {
+                    var r = rpRaw(p.row);
+                    if (data.r.byId.has(r)) { select(r, 'r'); } else { select(r); }
+                }
+            });
+        });
+        window.addEventListener('hashchange', fromHash);
+        fromHash();
+    }
+    if (document.readyState === 'loading') {
+        document.addEventListener('DOMContentLoaded', start);
+    } else {
+        start();
+    }
+    return {select: select, recolour: recolour, load: load, raw: rpRaw,
+            state: function() { return {current: current, view: view}; }};
+})();
+"""
+
+
+def review_script(constants: dict) -> str:
+    """The ``<script>`` of the review tools with its constants (colours, labels, group names)
+    as JSON safe for ``<script>``."""
+    return "<script>" + _REVIEW_JS.replace("RP_CONST", script_json(constants), 1) + "</script>"

@@ -396,6 +396,7 @@ def _write_map(
         site_name=plan.site.name,
         memo=memo,
         hashes={name: layer.hashes for name, layer in layers.items()},
+        drop_limits_pct=dict(plan.design.drop_pct),
         **(map_options or {}),
     )
     data = html.encode("utf-8")

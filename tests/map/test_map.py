@@ -10,10 +10,12 @@ from pathlib import Path
 
 import folium
 import numpy as np
+import pandas as pd
 import pytest
 import shapely
 from branca.colormap import _schemes
 
+from routeplan.map import details as map_details
 from routeplan.map import features as map_features
 from routeplan.map import page as rpmap
 from routeplan.map import panel as map_panel
@@ -126,6 +128,7 @@ def test_scale_tables_are_the_published_ones():
     # traceability: the tables in code equal the samples branca ships
     assert list(map_scales.VIRIDIS_20) == _schemes["viridis"]
     assert [c.lower() for c in map_scales.BLUES_9] == _schemes["Blues_09"]
+    assert [c.lower() for c in map_scales.YLGNBU_9] == _schemes["YlGnBu_09"]
 
 
 def test_utilisation_endpoints():
@@ -226,7 +229,7 @@ def test_every_shown_string_is_escaped():
     assert escape_text(HOSTILE["site"]) in html  # in the panel and title, escaped
     # the page has the same elements as a harmless one: no text ended a script early
     plain = render(*make_frames())
-    assert script_elements(html) == script_elements(plain) == (5, 5)
+    assert script_elements(html) == script_elements(plain) == (7, 7)
 
 
 def test_template_syntax_in_data_is_not_evaluated():
@@ -320,7 +323,14 @@ def test_size_per_drawn_feature_is_small():
     html = render(frames, site, aggregate_strings_above=1000)
     drawn = sum(len(fc["features"]) for fc in layer_data(html) if fc["interactive"])
     libraries = len(offline_header().encode()) + len(map_script.PAGE_SCRIPT) + 20_000
-    assert (len(html.encode()) - libraries) / drawn < 200
+    review = re.search(r'<script type="application/json" id="rp-data">(.*?)</script>', html)
+    assert review is not None
+    data = len(review.group(1).encode())
+    assert (len(html.encode()) - libraries - data) / drawn < 200
+    # the review data (routeplan.map.details) holds every circuit, also the aggregated
+    # strings: < 120 bytes per circuit keeps a 1 GW plant's page far below 30 MB (measured:
+    # 79 bytes here; 7.1 MB, 106 bytes per circuit, for a 1000 MW synth plant of 67,200)
+    assert data / len(frames["circuits"]) < 120
 
 
 # --------------------------------------------------------------------------------------------
@@ -664,3 +674,59 @@ def test_an_edit_draws_only_its_tiles_and_the_page_matches_a_fresh_one():
     # an unusable memo is an empty one, never an error
     assert MapMemo.load({"scripts": "garbage"}).last_scripts == {}
     assert MapMemo.load(None).last_pages == {}
+
+
+# --------------------------------------------------------------------------------------------
+# review data (routeplan.map.details)
+
+
+def _review_column(table: dict, name: str) -> list:
+    """A column of a review-data table, decoded as the page reads it (list, distinct values
+    and indices, one value, or a profile's column)."""
+    c = table["k"].get(name)
+    if c is None:
+        p = table["p"]
+        j = p["k"].index(name)
+        return [p["v"][i][j] for i in p["i"]]
+    if isinstance(c, list):
+        return c
+    if "i" in c:
+        return [c["v"][i] for i in c["i"]]
+    return c["v"] * table["n"]
+
+
+def test_review_data_lists_each_segments_circuits_in_order():
+    segments = pd.DataFrame({"circuit_ids": ["B;A", "", "C;X;A"]})
+    counts, flat = map_details.segment_circuits(segments, np.array(["A", "B", "C"], dtype=object))
+    assert counts == [2, 0, 2]  # X is no circuit of the table: left out
+    assert flat == [1, 0, 2, 0]
+
+
+def test_review_data_numbers_have_the_schedules_digits():
+    # cable_schedule.csv writes route_m with 2 decimals, utilisation with 3, parallel as is
+    df = pd.DataFrame(
+        {
+            "circuit_id": ["a", "b", "c"],
+            "route_m": [12.3449, 7.0, np.nan],
+            "utilisation": [0.98765, 1.0004, 0.5],
+            "parallel": [1, 2, 4],
+        }
+    )
+    data = json.loads(map_details.table_json(df, ("circuit_id", "route_m", "utilisation",
+                                                     "parallel")))  # fmt: skip
+    assert data["n"] == 3
+    assert _review_column(data, "route_m") == [12.34, 7.0, None]
+    assert _review_column(data, "utilisation") == [0.988, 1.0, 0.5]
+    assert _review_column(data, "parallel") == [1, 2, 4]
+
+
+def test_review_data_shows_no_user_text_as_it_is():
+    frames, _ = make_frames(HOSTILE)
+    text = map_details.review_json(
+        frames["circuits"], frames["segments"], frames["rows"], frames["equipment"]
+    )
+    for raw in HOSTILE.values():
+        assert raw not in text
+    data = json.loads(text)  # and the JSON gives the ids back as they are
+    assert HOSTILE["R1/S1"] in _review_column(data["c"], "circuit_id")
+    assert HOSTILE["T1#2"] in _review_column(data["s"], "segment_id")

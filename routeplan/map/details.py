@@ -1,0 +1,246 @@
+"""The map's review data: every feature's id and the values its details show, by column.
+
+The search box, the ``#find=<id>`` address, the details of a circuit, the trench panel and the
+colour views (:data:`routeplan.map.script.REVIEW_SCRIPT`) read one JSON object embedded in the
+page as ``<script type="application/json" id="rp-data">``; the page parses it only when it is
+first needed (a search, a click, an address with ``#find``), so it costs nothing at opening.
+
+Every circuit is in it, also where strings are drawn one line per row
+(``aggregate_strings_above``): the ids of all strings stay searchable and their details come
+from here. The tables are columnar, like the drawn layers (:func:`table_json`): one list per
+column, or a list of its distinct values and each row's index into it where that is shorter.
+Numbers are rounded to the decimals the schedules write (:mod:`routeplan.outputs.columns`), so
+the details show the schedule's digits; ``null`` is a missing value. Texts are raw (not
+escaped): the page shows them with ``textContent`` only.
+
+Which circuits run in a trench segment is given once, from the segment's ``circuit_ids``
+(positions in the circuits table, as counts per segment and one flat list): the trench panel
+lists exactly what ``trench_schedule.csv`` says; a circuit's route is the inverse.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Mapping
+
+import numpy as np
+import pandas as pd
+
+from routeplan.map.features import _num, _text, circuit_kind
+from routeplan.map.script import script_safe
+from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
+
+#: Circuit columns the details show, in the order of the table (text or number).
+CIRCUIT_DETAIL_COLUMNS = (
+    "circuit_id", "kind", "from_id", "to_id", "inverter_id", "material", "insulation",
+    "size_mm2", "parallel", "route_m", "cable_m", "design_current_a", "ampacity_base_a",
+    "derating", "ampacity_a", "governing", "factor_temp", "factor_soil", "factor_depth",
+    "factor_group", "group_count", "utilisation", "vdrop_v", "vdrop_pct", "vdrop_total_pct",
+    "loss_w", "protection", "status", "note", "remedy",
+)  # fmt: skip
+#: Trench segment columns the trench panel shows.
+SEGMENT_DETAIL_COLUMNS = (
+    "segment_id", "trench_id", "length_m", "circuits", "cable_sets", "max_circuits",
+    "max_cable_sets", "fill", "fill_basis", "status", "depth_m", "laying", "spacing_m",
+    "soil_k_m_w", "group_factor",
+)  # fmt: skip
+#: Text columns (everything else is a number).
+TEXT_COLUMNS = {
+    "circuit_id", "kind", "from_id", "to_id", "inverter_id", "material", "insulation",
+    "governing", "protection", "status", "note", "remedy", "segment_id", "trench_id",
+    "fill_basis", "laying", "id", "module", "to",
+}  # fmt: skip
+
+#: Decimals of each number column, as the schedules write it (None: integer).
+DECIMALS: dict[str, int | None] = {
+    c.name: c.decimals for c in (*CIRCUIT_COLUMNS, *SEGMENT_COLUMNS) if c.name not in TEXT_COLUMNS
+}
+
+
+def _rounded(values: np.ndarray, decimals: int | None) -> list:
+    """Numbers rounded as the schedule writes them (``f"{x:.{d}f}"``), NaN → None; integers
+    where ``decimals`` is None (or 0)."""
+    v = np.asarray(values, dtype=float)
+    out: list = []
+    if decimals:
+        # the schedule's text, read back: the nearest double of that decimal (JavaScript's
+        # toFixed(d) gives the same digits back)
+        uniq, inverse = np.unique(v.view(np.int64), return_inverse=True)
+        conv = [None if np.isnan(x) else float(f"{x:.{decimals}f}") for x in uniq.view(np.float64)]
+        table = np.empty(len(conv), dtype=object)
+        table[:] = conv
+        return table[inverse.reshape(-1)].tolist()
+    for x in np.round(v).tolist() if len(v) else []:
+        out.append(None if x != x else int(x))
+    return out
+
+
+#: characters of users' text written as \u escapes in the data too, so that no text of a
+#: user's file appears in the page as it is (``<``, ``>``, ``&`` are escaped for
+#: ``<script>`` later; these are live in JavaScript template literals and Jinja templates)
+_LIVE = str.maketrans({"$": "\\u0024", "`": "\\u0060", "{": "\\u007b", "}": "\\u007d"})
+
+
+def _list_json(values: list) -> str:
+    """A JSON list of values (text, numbers, null), with the characters of :data:`_LIVE`
+    escaped (a list's own syntax holds none of them)."""
+    text = json.dumps(values, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+    return text.translate(_LIVE)
+
+
+def column_json(values: list) -> str:
+    """One column: a JSON list, or ``{"v": distinct values, "i": indices}`` where shorter
+    (``{"v": [value]}`` when all are equal)."""
+    codes, uniques = pd.factorize(pd.Series(values, dtype=object), use_na_sentinel=False)
+    plain = _list_json(values)
+    if len(values) and len(uniques) == 1:
+        return '{"v":' + _list_json(_clean([values[0]])) + "}"
+    distinct = _list_json(_clean(uniques.tolist()))
+    coded = '{"v":' + distinct + ',"i":[' + ",".join(codes.astype(str).tolist()) + "]}"
+    return coded if len(coded) < len(plain) else plain
+
+
+#: Columns that name a row: never in a profile.
+_ID_COLUMNS = {"circuit_id", "segment_id", "id"}
+#: A column joins the shared profile when it has at most this share of distinct values …
+PROFILE_DISTINCT = 0.01
+#: … and while the profiles stay at most this share of the rows.
+PROFILE_ROWS = 0.05
+
+
+def _clean(values) -> list:
+    return [None if isinstance(u, float) and u != u else u for u in values]
+
+
+def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
+    """A table by column: ``{"n": rows, "k": {name: column}, "p": profile}`` (columns missing
+    in ``df`` are left out; see :func:`column_json`).
+
+    Columns with few distinct values (a plant's strings mostly share size, factors, status,
+    protection …) are stored together as a *profile*: ``{"k": names, "v": [[values], …],
+    "i": each row's profile}``, one small index per row instead of one per column; columns join
+    it, fewest distinct values first, while the profiles stay few.
+    """
+    n = len(df)
+    values: dict[str, list] = {}
+    for name in columns:
+        if name not in df.columns:
+            continue
+        if name in TEXT_COLUMNS:
+            values[name] = _text(df, name).tolist()
+        else:
+            values[name] = _rounded(_num(df, name), DECIMALS.get(name))
+    codes = {}
+    for name, v in values.items():
+        c, u = pd.factorize(pd.Series(v, dtype=object), use_na_sentinel=False)
+        if name not in _ID_COLUMNS and 1 < len(u) <= max(16, PROFILE_DISTINCT * n):
+            codes[name] = (c, len(u))
+    profile: list[str] = []
+    key = np.zeros(n, dtype=np.int64)
+    for name in sorted(codes, key=lambda k: codes[k][1]):
+        c, m = codes[name]
+        trial = key * m + c
+        distinct = len(np.unique(trial))
+        if distinct > max(16, PROFILE_ROWS * n):
+            continue
+        key = np.unique(trial, return_inverse=True)[1].reshape(-1)
+        profile.append(name)
+    parts = [
+        f"{json.dumps(name)}:{column_json(v)}" for name, v in values.items() if name not in profile
+    ]
+    text = f'{{"n":{n},"k":{{' + ",".join(parts) + "}"
+    if len(profile) > 1:
+        _, first, inverse = np.unique(key, return_index=True, return_inverse=True)
+        table = [[values[name][i] for name in profile] for i in first.tolist()]
+        body = (
+            '{"k":'
+            + _list_json(profile)
+            + ',"v":['
+            + ",".join(_list_json(_clean(r)) for r in table)
+            + "]}"
+        )
+        index = ",".join(inverse.reshape(-1).astype(str).tolist())
+        text += ',"p":' + body[:-1] + ',"i":[' + index + "]}"
+    elif profile:  # one column only: as a column of its own
+        name = profile[0]
+        text = (
+            text[:-1] + ("," if parts else "") + f"{json.dumps(name)}:{column_json(values[name])}}}"
+        )
+    return text + "}"
+
+
+def _positions(lists: pd.Series, ids: np.ndarray) -> tuple[list, list]:
+    """Per item of ``lists`` (';'-separated ids), the positions of its ids in ``ids``, in
+    their order: counts per item and the flat list; ids not in ``ids`` are skipped."""
+    split = lists.str.split(";")
+    flat = split.explode()
+    position = pd.Series(np.arange(len(ids)), index=pd.Index(ids, dtype=object))
+    position = position[~position.index.duplicated()]
+    pos = position.reindex(flat.to_numpy(dtype=object)).to_numpy()
+    known = ~np.isnan(pos)
+    owner = np.repeat(np.arange(len(split)), split.str.len().to_numpy())
+    counts = np.bincount(owner[known], minlength=len(split))
+    return counts.tolist(), pos[known].astype(np.int64).tolist()
+
+
+def segment_circuits(segments: pd.DataFrame, circuit_ids: np.ndarray) -> tuple[list, list]:
+    """Per segment, the positions of its circuits (``circuit_ids`` column, ';'-separated) in
+    the circuits table: counts per segment and the flat list; ids not in the table are
+    skipped."""
+    return _positions(_text(segments, "circuit_ids"), circuit_ids)
+
+
+def circuit_segments(circuits: pd.DataFrame, segment_ids: np.ndarray) -> tuple[list, list]:
+    """Per circuit, the positions of its trench segments (``trench_segments``, in route
+    order) in the segments table, as :func:`segment_circuits` gives them."""
+    return _positions(_text(circuits, "trench_segments"), segment_ids)
+
+
+def review_json(
+    circuits: pd.DataFrame,
+    segments: pd.DataFrame,
+    rows: pd.DataFrame,
+    equipment: pd.DataFrame,
+    *,
+    drop_limits_pct: Mapping[str, float] | None = None,
+) -> str:
+    """The review data as compact JSON text (made safe for ``<script>``).
+
+    Keys: ``c`` circuits, ``s`` trench segments, ``r`` rows, ``e`` equipment (tables, see
+    :func:`table_json`); ``sc`` the circuits of each segment (``{"k": counts, "x": positions}``);
+    ``cs`` the trench segments of each circuit in route order (the same form);
+    ``lim`` the voltage-drop limits [%] by circuit kind and ``dc_total`` (empty if unknown);
+    ``dec`` the decimals of the number columns.
+    """
+    cdf = circuits.drop(columns=circuits.geometry.name, errors="ignore").copy()
+    if "kind" in cdf.columns:
+        cdf["kind"] = circuit_kind(cdf)
+    counts, flat = segment_circuits(segments, _text(cdf, "circuit_id").to_numpy(dtype=object))
+    c_counts, c_flat = circuit_segments(cdf, _text(segments, "segment_id").to_numpy(dtype=object))
+    limits = {
+        str(k): float(v)
+        for k, v in (drop_limits_pct or {}).items()
+        if isinstance(v, int | float) and np.isfinite(v) and v > 0
+    }
+    dec = {k: v for k, v in DECIMALS.items() if v}
+    parts = [
+        f'"c":{table_json(cdf, CIRCUIT_DETAIL_COLUMNS)}',
+        f'"s":{table_json(segments, SEGMENT_DETAIL_COLUMNS)}',
+        f'"r":{table_json(rows, ("id", "strings", "module", "to"))}',
+        f'"e":{table_json(equipment, ("id", "kind"))}',
+        '"sc":{"k":' + _ints(counts) + ',"x":' + _ints(flat) + "}",
+        '"cs":{"k":' + _ints(c_counts) + ',"x":' + _ints(c_flat) + "}",
+        f'"lim":{json.dumps(limits, sort_keys=True)}',
+        f'"dec":{json.dumps(dec, sort_keys=True, separators=(",", ":"))}',
+    ]
+    return script_safe("{" + ",".join(parts) + "}")
+
+
+def _ints(values: list) -> str:
+    return "[" + ",".join(map(str, values)) + "]"
+
+
+def review_data_html(text: str) -> str:
+    """The ``<script type="application/json">`` element holding :func:`review_json`'s text
+    (``<``, ``>``, ``&`` are escaped in it, so it cannot end the element)."""
+    return f'<script type="application/json" id="rp-data">{text}</script>'
