@@ -39,6 +39,7 @@ from pathlib import Path
 
 import geopandas as gpd
 import numpy as np
+import pandas as pd
 import pyproj
 import shapely
 
@@ -57,6 +58,7 @@ from routeplan.map.features import (
     text_values,
 )
 from routeplan.map.panel import legend_html, panel_html, plan_totals
+from routeplan.map.plantview import BLOCK_GROUP, BLOCK_GROUP_NAME, DETAIL_GROUPS, plant_view
 from routeplan.map.text import escape_text
 from routeplan.map.tiles import MapMemo, Role, mixed, tiles
 from routeplan.network import paused_gc
@@ -120,6 +122,8 @@ def _check_columns(name: str, gdf: gpd.GeoDataFrame) -> None:
 #: never contain: it holds "<").
 _LAYERS_SLOT = "<!--rp:layers-->"
 _PANEL_SLOT = "<!--rp:panel-->"
+#: … and the plant view's script, after the layer list and scale bar exist
+_PLANT_SLOT = "<!--rp:plantview-->"
 
 
 def group_var(key: str) -> str:
@@ -145,7 +149,8 @@ _SEGMENT_ROLES = (
 
 def page_parts(spec: dict) -> list[str]:
     """The page around the layers (folium), cut at the slots: [before the panel, between the
-    panel and the layers' scripts, after them]. Imports folium only here."""
+    panel and the layers' scripts, between them and the plant view's script, after it].
+    Imports folium only here."""
     import folium
 
     from routeplan.map.assets import offline_header
@@ -190,9 +195,11 @@ def page_parts(spec: dict) -> list[str]:
     folium.LayerControl(collapsed=False, position="topright").add_to(m)
     root.html.add_child(RawHTML(_PANEL_SLOT), name="rp_panel")
     MetricScale().add_to(m)
+    ScriptSlot(_PLANT_SLOT).add_to(m)
     head, rest = root.render().split(_PANEL_SLOT)  # the panel, in the body …
-    middle, tail = rest.split(_LAYERS_SLOT)  # … comes before the scripts
-    return [head, middle, tail]
+    middle, rest = rest.split(_LAYERS_SLOT)  # … comes before the scripts
+    between, tail = rest.split(_PLANT_SLOT)
+    return [head, middle, between, tail]
 
 
 def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
@@ -212,6 +219,33 @@ def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
         return None
     b = np.array(boxes)
     return [[b[:, 1].min(), b[:, 0].min()], [b[:, 3].max(), b[:, 2].max()]]
+
+
+def _plant_scale(
+    frames: dict[str, gpd.GeoDataFrame], ok: dict[str, np.ndarray], kinds, aggregated: bool
+) -> int:
+    """The number of features the map draws (rows as shown at first; strings one per row and
+    destination when aggregated) when it calls for a plant view
+    (:func:`routeplan.map.plantview.detail_delta`), else 0."""
+    from routeplan.map.plantview import detail_delta
+
+    c = frames["circuits"]
+    strings = (kinds == "string") & ok["circuits"]
+    n_strings = int(strings.sum())
+    if aggregated:
+        pairs = pd.MultiIndex.from_arrays(
+            [text_values(c, "from_id")[strings], text_values(c, "to_id")[strings]]
+        )
+        n_strings = len(pairs.unique())
+    n_rows = int(ok["rows"].sum())
+    n = (
+        int(ok["segments"].sum())
+        + int((ok["circuits"] & (kinds != "string")).sum())
+        + n_strings
+        + int(ok["equipment"].sum())
+        + (n_rows if n_rows <= ROWS_SHOWN_UP_TO else 0)
+    )
+    return n if detail_delta(n) is not None else 0
 
 
 def _parts(ids: np.ndarray, hashes: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
@@ -284,6 +318,8 @@ def render_map(
     groups: list[tuple[str, str, bool]] = []
     scripts: list[str] = []
     drawn = 0
+    # plant view (routeplan.map.plantview): above a size, the detail groups start unmade
+    lod = _plant_scale(frames, ok, kinds, aggregated)
 
     # module rows (hidden at first, and made when switched on, for very large plants)
     row_pos = np.flatnonzero(ok["rows"])
@@ -299,7 +335,7 @@ def render_map(
 
     s, n = memo.group(
         "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
-        _parts(row_ids, row_h), draw_rows, lazy=not show_rows,
+        _parts(row_ids, row_h), draw_rows, lazy=not show_rows or lod,
     )  # fmt: skip
     scripts += s
     n_rows = n["ok"]
@@ -314,7 +350,7 @@ def render_map(
     s, n = memo.group(
         "segments", (reference, wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
         _parts(text_values(seg, "segment_id"), seg_h),
-        lambda p: vars(segment_layers(seg.iloc[p], reference)),
+        lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lod,
     )  # fmt: skip
     if n["ok"] + n["over"]:
         groups.append(("segments", LAYER_NAMES["segments"], True))
@@ -344,7 +380,7 @@ def render_map(
         keys = from_ids[pos] if grouped else circuit_ids[pos]
         s, n = memo.group(
             kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
-            _parts(keys, h["circuits"][pos]), draw_circuits,
+            _parts(keys, h["circuits"][pos]), draw_circuits, lazy=lod and kind in DETAIL_GROUPS,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
             groups.append((kind, LAYER_NAMES[label], True))
@@ -364,7 +400,7 @@ def render_map(
 
     s, n = memo.group(
         "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
-        _parts(eq_ids, eq_h), draw_equipment,
+        _parts(eq_ids, eq_h), draw_equipment, lazy=lod,
     )  # fmt: skip
     scripts += s
     drawn += n["ok"]
@@ -380,20 +416,32 @@ def render_map(
     not_drawn = sum(int((~m).sum()) for m in ok.values())
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
+    bounds = _bounds([frames[k][ok[k]] for k in frames])
+    plant = plant_view(circuits, rows, n_features=lod, groups=groups, bounds=bounds)
+    if plant.note():
+        totals.extra.append(plant.note())
+    if plant.blocks:  # under the others; shown at plant zoom
+        groups.insert(0, (BLOCK_GROUP, BLOCK_GROUP_NAME, True))
+    if lod:  # detail groups are added when the user zooms in
+        groups = [(k, name, show and k not in DETAIL_GROUPS) for k, name, show in groups]
     crs = circuits.crs or segments.crs
     crs_name = crs.to_string() if crs is not None else "unknown"
     legend = legend_html(segment_reference=reference, aggregated=aggregated)
+    legend += plant.legend_html()
     panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend)
 
     spec = {
         "title": f"{site_name} – cable routes",
         "basemap": bool(basemap),
         "canvas": drawn > CANVAS_ABOVE,
-        "bounds": _bounds([frames[k][ok[k]] for k in frames]),
+        "bounds": bounds,
         "groups": groups,
+        "parts": 4,  # page_parts' pieces (a memo of an older page has fewer)
     }
-    head, middle, tail = memo.page(json.dumps(spec, sort_keys=True), lambda: page_parts(spec))
-    return "".join([head, panel, middle, "\n".join(scripts), tail])
+    head, middle, between, tail = memo.page(
+        json.dumps(spec, sort_keys=True), lambda: page_parts(spec)
+    )
+    return "".join([head, panel, middle, "\n".join(scripts), between, plant.script, tail])
 
 
 def _read_layer(path: Path, layer: str) -> gpd.GeoDataFrame:
