@@ -248,9 +248,39 @@ def _plant_scale(
     return n if detail_delta(n) is not None else 0
 
 
-def _parts(ids: np.ndarray, hashes: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
-    """Tiles of features (positions in the frame) with their rows' hashes."""
-    return [(p, hashes[p]) for p in tiles(ids)]
+def _parts(
+    ids: np.ndarray, hashes: np.ndarray, cells: np.ndarray | None = None
+) -> list[tuple[np.ndarray, np.ndarray]]:
+    """Tiles of features (positions in the frame) with their rows' hashes; cut by ``cells``
+    too when given (:func:`routeplan.map.tiles.tiles`)."""
+    return [(p, hashes[p]) for p in tiles(ids, cells)]
+
+
+#: At plant scale, the site is cut into squares of about 1/12 of its size a side for the tiles
+#: of the groups made when zoomed in (each tile then covers one square: the page makes those
+#: near the view).
+CELLS_A_SIDE = 12
+
+
+def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
+    """The square that each feature's box centre lies in (an integer), or None without a box.
+
+    The squares are a fixed grid in EPSG:4326 whose side is the power of two degrees nearest
+    to 1/``CELLS_A_SIDE`` of the site's ``box`` [west, south, east, north]: an edit that
+    changes the site's box a little leaves every square, and so every other tile, as it was.
+    """
+    if box is None or not len(gdf):
+        return None
+    g = gdf.geometry
+    if g.crs is not None and not g.crs.equals("EPSG:4326"):
+        g = g.to_crs("EPSG:4326")
+    b = shapely.bounds(g.to_numpy())
+    x, y = (b[:, 0] + b[:, 2]) / 2, (b[:, 1] + b[:, 3]) / 2
+    extent = max(box[2] - box[0], box[3] - box[1], 1e-9)
+    side = 2.0 ** round(np.log2(extent / CELLS_A_SIDE))
+    i = np.nan_to_num(np.floor(x / side), nan=0).astype(np.int64)
+    j = np.nan_to_num(np.floor(y / side), nan=0).astype(np.int64)
+    return j * (1 << 32) + i
 
 
 @paused_gc()
@@ -320,6 +350,10 @@ def render_map(
     drawn = 0
     # plant view (routeplan.map.plantview): above a size, the detail groups start unmade
     lod = _plant_scale(frames, ok, kinds, aggregated)
+    bounds = _bounds([frames[k][ok[k]] for k in frames])
+    box = None  # [west, south, east, north] of the site, for the tiles' squares
+    if lod and bounds is not None:
+        box = np.array([bounds[0][1], bounds[0][0], bounds[1][1], bounds[1][0]])
 
     # module rows (hidden at first, and made when switched on, for very large plants)
     row_pos = np.flatnonzero(ok["rows"])
@@ -335,7 +369,8 @@ def render_map(
 
     s, n = memo.group(
         "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
-        _parts(row_ids, row_h), draw_rows, lazy=not show_rows or lod,
+        _parts(row_ids, row_h, _cells(rows.iloc[row_pos], box)), draw_rows,
+        lazy=not show_rows or lod,
     )  # fmt: skip
     scripts += s
     n_rows = n["ok"]
@@ -349,7 +384,7 @@ def render_map(
     seg_h = h["segments"][ok["segments"]]
     s, n = memo.group(
         "segments", (reference, wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
-        _parts(text_values(seg, "segment_id"), seg_h),
+        _parts(text_values(seg, "segment_id"), seg_h, _cells(seg, box)),
         lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lod,
     )  # fmt: skip
     if n["ok"] + n["over"]:
@@ -380,7 +415,8 @@ def render_map(
         keys = from_ids[pos] if grouped else circuit_ids[pos]
         s, n = memo.group(
             kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
-            _parts(keys, h["circuits"][pos]), draw_circuits, lazy=lod and kind in DETAIL_GROUPS,
+            _parts(keys, h["circuits"][pos], _cells(sub, box) if kind in DETAIL_GROUPS else None),
+            draw_circuits, lazy=lod and kind in DETAIL_GROUPS,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
             groups.append((kind, LAYER_NAMES[label], True))
@@ -400,7 +436,7 @@ def render_map(
 
     s, n = memo.group(
         "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
-        _parts(eq_ids, eq_h), draw_equipment, lazy=lod,
+        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lod,
     )  # fmt: skip
     scripts += s
     drawn += n["ok"]
@@ -416,7 +452,6 @@ def render_map(
     not_drawn = sum(int((~m).sum()) for m in ok.values())
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
-    bounds = _bounds([frames[k][ok[k]] for k in frames])
     plant = plant_view(circuits, rows, n_features=lod, groups=groups, bounds=bounds)
     if plant.note():
         totals.extra.append(plant.note())

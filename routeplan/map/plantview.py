@@ -514,6 +514,7 @@ function place(items, box, make, placed, cap) {
     return n;
 }
 function placeLabels() {
+    rpMakeInView(map);  // the tiles now in view first
     labelBox.replaceChildren();
     buttonBox.replaceChildren();
     var placed = [];
@@ -550,7 +551,9 @@ function placeLabels() {
 window.rpPlantView = {
     detailZoom: detailZoom, blocks: blockLayers.length, labels: 0,
     // show a detail group now and keep it (e.g. to find a feature in it)
-    showDetails: function(key) { pinned[key] = true; want[key] = true; applyDetail(); }
+    showDetails: function(key) {
+        pinned[key] = true; want[key] = true; applyDetail(); rpMakeAll(groups[key]);
+    }
 };
 var style = document.createElement('style');
 style.textContent = '.rp-labels{position:absolute;left:0;top:0}' +

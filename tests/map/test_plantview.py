@@ -129,5 +129,5 @@ def test_plant_scale_page_has_blocks_and_lazy_details(plan_frames, monkeypatch):
     assert "feature_group_blocks" in html
     assert '"blocks":[{"id":"INV1"' in html
     # detail groups are made when first shown
-    assert 'feature_group_string.once("add"' in html
-    assert 'feature_group_ac.once("add"' not in html
+    assert "rpLazy(feature_group_string, [" in html
+    assert "rpLazy(feature_group_ac," not in html
