@@ -263,7 +263,8 @@ CELLS_A_SIDE = 12
 
 
 def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
-    """The square that each feature's box centre lies in (an integer), or None without a box.
+    """The square that each feature's box centre lies in (its band, the row of squares, in
+    the bits above 32; :func:`routeplan.map.tiles.tiles`), or None without a box.
 
     The squares are a fixed grid in EPSG:4326 whose side is the power of two degrees nearest
     to 1/``CELLS_A_SIDE`` of the site's ``box`` [west, south, east, north]: an edit that
@@ -280,7 +281,7 @@ def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
     side = 2.0 ** round(np.log2(extent / CELLS_A_SIDE))
     i = np.nan_to_num(np.floor(x / side), nan=0).astype(np.int64)
     j = np.nan_to_num(np.floor(y / side), nan=0).astype(np.int64)
-    return j * (1 << 32) + i
+    return (j << 32) + (i & 0xFFFFFFFF)
 
 
 @paused_gc()

@@ -131,3 +131,38 @@ def test_plant_scale_page_has_blocks_and_lazy_details(plan_frames, monkeypatch):
     # detail groups are made when first shown
     assert "rpLazy(feature_group_string, [" in html
     assert "rpLazy(feature_group_ac," not in html
+
+
+def test_tiles_by_square_keep_ids_together_and_stay_in_one_band():
+    from routeplan.map.tiles import TILE_MAX, tiles
+
+    rng = np.random.default_rng(3)
+    n = 20_000
+    ids = np.array([f"R{i // 2:05d}" for i in range(n)], dtype=object)  # 2 per id
+    band, col = rng.integers(0, 6, n), rng.integers(-3, 3, n)
+    cells = (band << 32) + (col & 0xFFFFFFFF)
+    parts = tiles(ids, cells)
+    assert sorted(np.concatenate(parts).tolist()) == list(range(n))
+    assert max(len(p) for p in parts) <= TILE_MAX
+    first = pd.Series(cells).groupby(ids).transform("first").to_numpy()
+    for p in parts:
+        assert len(set((first[p] >> 32).tolist())) == 1  # one band
+        assert set(ids[p]).isdisjoint(ids[np.setdiff1d(np.arange(n), p)])  # ids whole
+    # one id more: the tiles of the other bands are the same
+    more_ids = np.r_[ids, ["R99999"]]
+    more_cells = np.r_[cells, [int(cells[0])]]
+    a = {tuple(sorted(set(ids[p]))) for p in parts}
+    b = {tuple(sorted(set(more_ids[p]))) for p in tiles(more_ids, more_cells)}
+    assert len(a - b) == 1 and len(b - a) == 1
+
+
+def test_squares_are_a_fixed_grid_of_the_site(synthetic):
+    from routeplan.map.page import _cells
+
+    c = synthetic["circuits"]
+    box = c.to_crs("EPSG:4326").total_bounds
+    cells = _cells(c, box)
+    assert len(np.unique(cells >> 32)) > 3  # several bands
+    # a site box a little larger (an edit at its edge) gives the same squares
+    wider = box + np.array([-1e-4, 0, 1e-4, 0])
+    np.testing.assert_array_equal(_cells(c, wider), cells)
