@@ -226,8 +226,9 @@ def _plant_scale(
 ) -> int:
     """The number of features the map draws (rows as shown at first; strings one per row and
     destination when aggregated) when it calls for a plant view
-    (:func:`routeplan.map.plantview.detail_delta`), else 0."""
-    from routeplan.map.plantview import detail_delta
+    (:func:`routeplan.map.plantview.detail_delta`) and its circuits name their blocks
+    (:func:`routeplan.map.plantview.block_of`), else 0."""
+    from routeplan.map.plantview import block_of, detail_delta
 
     c = frames["circuits"]
     strings = (kinds == "string") & ok["circuits"]
@@ -245,7 +246,9 @@ def _plant_scale(
         + int(ok["equipment"].sum())
         + (n_rows if n_rows <= ROWS_SHOWN_UP_TO else 0)
     )
-    return n if detail_delta(n) is not None else 0
+    if detail_delta(n) is None or not (block_of(c[ok["circuits"]]) != "").any():
+        return 0
+    return n
 
 
 def _parts(

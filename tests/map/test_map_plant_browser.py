@@ -22,11 +22,12 @@ from routeplan.cli import app
 from routeplan.map import plantview
 from routeplan.map.page import render_map
 
-from .map_fixtures import make_frames
+from .map_fixtures import HOSTILE, make_frames
 from .test_map_browser import (  # noqa: F401  (fixtures)
     VIEWPORT,
     Page,
     browser,
+    demo,
     demo_html,
     screenshots,
 )
@@ -230,3 +231,37 @@ def test_hostile_block_ids_are_shown_as_text(browser, tmp_path, monkeypatch):  #
         page.assert_clean()
     finally:
         page.close()
+
+
+def test_id_labels_show_hostile_ids_as_typed(browser, tmp_path):  # noqa: F811
+    frames, site = make_frames(HOSTILE)
+    html = render_map(*(frames[k] for k in ("circuits", "segments", "rows", "equipment")),
+                      site_name=site)  # fmt: skip
+    path = tmp_path / "map.html"
+    path.write_text(html, encoding="utf-8")
+    page = Page(browser, path)
+    try:
+        page.page.wait_for_function(PLANT_READY)
+        texts = page.page.locator(".rp-id-label").all_inner_texts()
+        assert HOSTILE["CB2"] in texts and HOSTILE["R2"] in texts
+        assert page.page.locator(".leaflet-container img, .rp-labels b").count() == 0
+        page.assert_clean()
+    finally:
+        page.close()
+
+
+def test_legend_and_panel_fold_by_keyboard(demo):  # noqa: F811
+    pg = demo.page
+    for box in ("#rp-legend", "#rp-panel"):
+        details = pg.locator(f"{box} details")
+        was = details.evaluate("d => d.open")
+        pg.locator(f"{box} summary").focus()
+        pg.keyboard.press("Enter")
+        assert details.evaluate("d => d.open") is (not was)
+        pg.keyboard.press("Enter")
+        assert details.evaluate("d => d.open") is was
+    # the caution stays in view with the summary folded
+    pg.locator("#rp-panel summary").focus()
+    pg.keyboard.press("Enter")
+    assert pg.locator("#rp-panel .rp-caution").is_visible()
+    demo.assert_clean()

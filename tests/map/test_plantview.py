@@ -166,3 +166,12 @@ def test_squares_are_a_fixed_grid_of_the_site(synthetic):
     # a site box a little larger (an edit at its edge) gives the same squares
     wider = box + np.array([-1e-4, 0, 1e-4, 0])
     np.testing.assert_array_equal(_cells(c, wider), cells)
+
+
+def test_without_blocks_a_large_map_opens_on_its_details(plan_frames, monkeypatch):
+    monkeypatch.setattr(plantview, "PLANT_VIEW_ABOVE", 0)
+    frames, site = plan_frames
+    c = frames["circuits"]
+    c = c[c["kind"] != "ac"]  # no AC circuit: no inverter to name a block
+    html = render_map(c, *(frames[k] for k in ("segments", "rows", "equipment")), site_name=site)
+    assert "feature_group_blocks" not in html and "rpLazy(feature_group_string" not in html
