@@ -169,12 +169,12 @@ def block_table(
             parts_b.append(rb.to_numpy()[keep][ridx])
     pts = np.concatenate(parts_xy)
     codes, names = pd.factorize(np.concatenate(parts_b).astype(str))
-    # one point per metre per block is enough for its outline
-    key = np.column_stack([codes, np.round(pts).astype(np.int64)])
-    _, first = np.unique(key, axis=0, return_index=True)
-    first.sort()
-    order = np.argsort(codes[first], kind="stable")
-    sel = first[order]
+    # one point per square metre per block is enough for its outline: a key of the block and
+    # the rounded coordinates (each within 2**21 m of the site's corner) in one integer
+    grid = np.round(pts - np.nanmin(pts, axis=0)).astype(np.int64)
+    grid = np.clip(grid, 0, (1 << 21) - 1)
+    key = (codes.astype(np.int64) << 42) | (grid[:, 0] << 21) | grid[:, 1]
+    _, sel = np.unique(key, return_index=True)  # sorted by key: by block
     multi = shapely.multipoints(pts[sel], indices=codes[sel])
     hull = shapely.concave_hull(multi, ratio=HULL_RATIO)
     area = shapely.simplify(shapely.buffer(hull, BLOCK_BUFFER_M, quad_segs=4), BLOCK_SIMPLIFY_M)
