@@ -259,10 +259,10 @@ def _parts(
     return [(p, hashes[p]) for p in tiles(ids, cells)]
 
 
-#: At plant scale, the site is cut into squares of about 1/12 of its size a side for the tiles
+#: At plant scale, the site is cut into squares of about 1/8 of its size a side for the tiles
 #: of the groups made when zoomed in (each tile then covers one square: the page makes those
 #: near the view).
-CELLS_A_SIDE = 12
+CELLS_A_SIDE = 8
 
 
 def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
@@ -275,11 +275,11 @@ def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
     """
     if box is None or not len(gdf):
         return None
-    g = gdf.geometry
-    if g.crs is not None and not g.crs.equals("EPSG:4326"):
-        g = g.to_crs("EPSG:4326")
-    b = shapely.bounds(g.to_numpy())
+    b = shapely.bounds(gdf.geometry.to_numpy())
     x, y = (b[:, 0] + b[:, 2]) / 2, (b[:, 1] + b[:, 3]) / 2
+    if gdf.crs is not None and not gdf.crs.equals("EPSG:4326"):  # the centres only
+        to_geo = pyproj.Transformer.from_crs(gdf.crs, "EPSG:4326", always_xy=True)
+        x, y = to_geo.transform(x, y)
     extent = max(box[2] - box[0], box[3] - box[1], 1e-9)
     side = 2.0 ** round(np.log2(extent / CELLS_A_SIDE))
     i = np.nan_to_num(np.floor(x / side), nan=0).astype(np.int64)
