@@ -14,17 +14,21 @@ opening the page in headless Chromium (until the map's scripts have run).
 (``routeplan plan``, in-process), then times ``write_map`` and the opening of its plant view in
 headless Chromium (until the plant view is ready and drawn), and counts what it draws.
 
-Measured on the 2-core build machine (shared, Chromium headless, 1280 × 800), 1 GW synthetic
-plant (64,080 strings, 2,880 arrays, 240 AC circuits, 32,079 trench segments, 21,840 rows):
+Measured on the 2-core build machine (shared: load average 8–10 while measuring, so times
+vary by ±50 %), Chromium headless at 1280 × 800, the 1 GW synthetic plant of
+``routeplan synth --mw 1000`` (64,080 strings, 2,880 arrays, 240 AC circuits, 32,079 trench
+segments, 21,840 rows, 240 blocks):
 
 =============================  ==========================  ===========================
                                before the plant view       with the plant view
 =============================  ==========================  ===========================
-map.html                       10.5 MB                     12.2 MB
-opens (scripts run, drawn)     1.9–2.1 s                   0.8–1.4 s
-drawn at the opening view      62,079 features (canvas)    480 features, 243 paths,
+map.html                       10.5 MB                     11.1 MB
+opens (scripts run, drawn)     1.9–3.1 s                   0.8–1.6 s
+drawn at the opening view      62,079 features (canvas)    480 features, 243 SVG paths,
                                                            240 labels
-first zoom-in to the details   (all drawn at opening)      1.1–1.3 s (~23,000 made)
+first zoom-in to the details   (all drawn at opening)      1.1–2.0 s (~33,000 made)
+render_map                     7.9–8.0 s                   9.5 s (blocks ~0.9 s, more
+                                                           tiles ~0.7 s)
 =============================  ==========================  ===========================
 """
 
