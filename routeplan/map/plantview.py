@@ -15,7 +15,14 @@ Above ``PLANT_VIEW_ABOVE`` drawn features the map therefore opens on a *plant vi
   stay unmade until the user zooms to ``detail zoom`` = the opening zoom + ``delta``
   (:func:`detail_delta`: about ``DETAIL_FEATURES`` features in view), where the blocks give way
   to them; AC circuits are drawn at every zoom. A layer switched off in the layer list stays
-  off; one switched on at plant zoom stays on.
+  off; one switched on at plant zoom stays on. The detail groups are cut into tiles by band
+  of squares of the site (:func:`routeplan.map.page._cells`, :func:`routeplan.map.tiles.tiles`)
+  and a tile is made only when it comes near the view (``rpLazy`` in
+  :data:`routeplan.map.script.PAGE_SCRIPT`).
+
+Smaller maps have no plant view: they open on their details, labels included. Code that
+needs a detail group at once (e.g. to find a feature in it) calls
+``rpPlantView.showDetails(key)`` (shows and makes the group ``key``) or ``rpMakeAll(group)``.
 
 At every zoom from the detail zoom in, ids of equipment, rows and array/AC circuits are
 labelled where their boxes do not overlap labels already placed (inverters first), at most
