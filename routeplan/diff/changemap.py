@@ -360,9 +360,9 @@ def render_change_map(
         "bounds": bounds,
         "groups": groups,
     }
-    head, middle, tail = page_parts(spec)
+    head, middle, *rest = page_parts(spec)  # rest: the page after the layers (empty slots)
     body = [view_script(bounds), *(s for key, _ in GROUPS for s in scripts[key])]
-    return "".join([head, panel, middle, "\n".join(body), tail])
+    return "".join([head, panel, middle, "\n".join(body), *rest])
 
 
 def _present(frame: gpd.GeoDataFrame, circuits: pd.DataFrame, other: str) -> np.ndarray:

@@ -169,6 +169,8 @@ class Layer:
     styles: list[dict]
     fields: tuple[tuple[str, str], ...] = ()
     style_index: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    #: [west, south, east, north] of the features in EPSG:4326 (None when empty)
+    bounds: tuple[float, float, float, float] | None = None
 
     def __len__(self) -> int:
         return len(self.style_index)
@@ -436,7 +438,9 @@ def make_layer(geoms, props: Props | None, styles: Sequence[dict] | StyleTable, 
     table, index = styles if isinstance(styles, tuple) else style_table(styles)
     geoms = np.asarray(geoms, dtype=object)
     text = columns_text(geoms, props, index)
-    return Layer(text, list(table), tuple(fields), np.asarray(index, dtype=np.int64))
+    box = shapely.total_bounds(geoms) if len(geoms) else None
+    bounds = tuple(box.tolist()) if box is not None and np.isfinite(box).all() else None
+    return Layer(text, list(table), tuple(fields), np.asarray(index, dtype=np.int64), bounds)
 
 
 def _escaped(table: dict) -> Props:

@@ -46,6 +46,7 @@ from pathlib import Path
 
 import geopandas as gpd
 import numpy as np
+import pandas as pd
 import pyproj
 import shapely
 
@@ -66,6 +67,7 @@ from routeplan.map.features import (
     text_values,
 )
 from routeplan.map.panel import failing_html, legend_html, panel_html, plan_totals, review_html
+from routeplan.map.plantview import BLOCK_GROUP, BLOCK_GROUP_NAME, DETAIL_GROUPS, plant_view
 from routeplan.map.text import escape_text
 from routeplan.map.tiles import MapMemo, Role, mixed, tiles
 from routeplan.network import paused_gc
@@ -129,6 +131,8 @@ def _check_columns(name: str, gdf: gpd.GeoDataFrame) -> None:
 #: never contain: it holds "<").
 _LAYERS_SLOT = "<!--rp:layers-->"
 _PANEL_SLOT = "<!--rp:panel-->"
+#: … and the plant view's script, after the layer list and scale bar exist
+_PLANT_SLOT = "<!--rp:plantview-->"
 
 
 def group_var(key: str) -> str:
@@ -176,7 +180,8 @@ def review_constants() -> dict:
 
 def page_parts(spec: dict) -> list[str]:
     """The page around the layers (folium), cut at the slots: [before the panel, between the
-    panel and the layers' scripts, after them]. Imports folium only here."""
+    panel and the layers' scripts, between them and the plant view's script, after it].
+    Imports folium only here."""
     import folium
 
     from routeplan.map.assets import offline_header
@@ -223,9 +228,11 @@ def page_parts(spec: dict) -> list[str]:
     folium.LayerControl(collapsed=False, position="topright").add_to(m)
     root.html.add_child(RawHTML(_PANEL_SLOT), name="rp_panel")
     MetricScale().add_to(m)
+    ScriptSlot(_PLANT_SLOT).add_to(m)
     head, rest = root.render().split(_PANEL_SLOT)  # the panel, in the body …
-    middle, tail = rest.split(_LAYERS_SLOT)  # … comes before the scripts
-    return [head, middle, tail]
+    middle, rest = rest.split(_LAYERS_SLOT)  # … comes before the scripts
+    between, tail = rest.split(_PLANT_SLOT)
+    return [head, middle, between, tail]
 
 
 def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
@@ -247,9 +254,70 @@ def _bounds(frames: list[gpd.GeoDataFrame]) -> list[list[float]] | None:
     return [[b[:, 1].min(), b[:, 0].min()], [b[:, 3].max(), b[:, 2].max()]]
 
 
-def _parts(ids: np.ndarray, hashes: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
-    """Tiles of features (positions in the frame) with their rows' hashes."""
-    return [(p, hashes[p]) for p in tiles(ids)]
+def _plant_scale(
+    frames: dict[str, gpd.GeoDataFrame], ok: dict[str, np.ndarray], kinds, aggregated: bool
+) -> int:
+    """The number of features the map draws (rows as shown at first; strings one per row and
+    destination when aggregated) when it calls for a plant view
+    (:func:`routeplan.map.plantview.detail_delta`) and its circuits name their blocks
+    (:func:`routeplan.map.plantview.block_of`), else 0."""
+    from routeplan.map.plantview import block_of, detail_delta
+
+    c = frames["circuits"]
+    strings = (kinds == "string") & ok["circuits"]
+    n_strings = int(strings.sum())
+    if aggregated:
+        pairs = pd.MultiIndex.from_arrays(
+            [text_values(c, "from_id")[strings], text_values(c, "to_id")[strings]]
+        )
+        n_strings = len(pairs.unique())
+    n_rows = int(ok["rows"].sum())
+    n = (
+        int(ok["segments"].sum())
+        + int((ok["circuits"] & (kinds != "string")).sum())
+        + n_strings
+        + int(ok["equipment"].sum())
+        + (n_rows if n_rows <= ROWS_SHOWN_UP_TO else 0)
+    )
+    if detail_delta(n) is None or not (block_of(c[ok["circuits"]]) != "").any():
+        return 0
+    return n
+
+
+def _parts(
+    ids: np.ndarray, hashes: np.ndarray, cells: np.ndarray | None = None
+) -> list[tuple[np.ndarray, np.ndarray]]:
+    """Tiles of features (positions in the frame) with their rows' hashes; cut by ``cells``
+    too when given (:func:`routeplan.map.tiles.tiles`)."""
+    return [(p, hashes[p]) for p in tiles(ids, cells)]
+
+
+#: At plant scale, the site is cut into squares of about 1/8 of its size a side for the tiles
+#: of the groups made when zoomed in (each tile then covers one square: the page makes those
+#: near the view).
+CELLS_A_SIDE = 8
+
+
+def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
+    """The square that each feature's box centre lies in (its band, the row of squares, in
+    the bits above 32; :func:`routeplan.map.tiles.tiles`), or None without a box.
+
+    The squares are a fixed grid in EPSG:4326 whose side is the power of two degrees nearest
+    to 1/``CELLS_A_SIDE`` of the site's ``box`` [west, south, east, north]: an edit that
+    changes the site's box a little leaves every square, and so every other tile, as it was.
+    """
+    if box is None or not len(gdf):
+        return None
+    b = shapely.bounds(gdf.geometry.to_numpy())
+    x, y = (b[:, 0] + b[:, 2]) / 2, (b[:, 1] + b[:, 3]) / 2
+    if gdf.crs is not None and not gdf.crs.equals("EPSG:4326"):  # the centres only
+        to_geo = pyproj.Transformer.from_crs(gdf.crs, "EPSG:4326", always_xy=True)
+        x, y = to_geo.transform(x, y)
+    extent = max(box[2] - box[0], box[3] - box[1], 1e-9)
+    side = 2.0 ** round(np.log2(extent / CELLS_A_SIDE))
+    i = np.nan_to_num(np.floor(x / side), nan=0).astype(np.int64)
+    j = np.nan_to_num(np.floor(y / side), nan=0).astype(np.int64)
+    return (j << 32) + (i & 0xFFFFFFFF)
 
 
 @paused_gc()
@@ -321,6 +389,12 @@ def render_map(
     groups: list[tuple[str, str, bool]] = []
     scripts: list[str] = []
     drawn = 0
+    # plant view (routeplan.map.plantview): above a size, the detail groups start unmade
+    lod = _plant_scale(frames, ok, kinds, aggregated)
+    bounds = _bounds([frames[k][ok[k]] for k in frames])
+    box = None  # [west, south, east, north] of the site, for the tiles' squares
+    if lod and bounds is not None:
+        box = np.array([bounds[0][1], bounds[0][0], bounds[1][1], bounds[1][0]])
 
     # module rows (hidden at first, and made when switched on, for very large plants)
     row_pos = np.flatnonzero(ok["rows"])
@@ -336,7 +410,8 @@ def render_map(
 
     s, n = memo.group(
         "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
-        _parts(row_ids, row_h), draw_rows, lazy=not show_rows,
+        _parts(row_ids, row_h, _cells(rows.iloc[row_pos], box)), draw_rows,
+        lazy=not show_rows or lod,
     )  # fmt: skip
     scripts += s
     n_rows = n["ok"]
@@ -350,8 +425,8 @@ def render_map(
     seg_h = h["segments"][ok["segments"]]
     s, n = memo.group(
         "segments", (reference, wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
-        _parts(text_values(seg, "segment_id"), seg_h),
-        lambda p: vars(segment_layers(seg.iloc[p], reference)),
+        _parts(text_values(seg, "segment_id"), seg_h, _cells(seg, box)),
+        lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lod,
     )  # fmt: skip
     if n["ok"] + n["over"]:
         groups.append(("segments", LAYER_NAMES["segments"], True))
@@ -381,7 +456,8 @@ def render_map(
         keys = from_ids[pos] if grouped else circuit_ids[pos]
         s, n = memo.group(
             kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
-            _parts(keys, h["circuits"][pos]), draw_circuits,
+            _parts(keys, h["circuits"][pos], _cells(sub, box) if kind in DETAIL_GROUPS else None),
+            draw_circuits, lazy=lod and kind in DETAIL_GROUPS,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
             groups.append((kind, LAYER_NAMES[label], True))
@@ -401,7 +477,7 @@ def render_map(
 
     s, n = memo.group(
         "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
-        _parts(eq_ids, eq_h), draw_equipment,
+        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lod,
     )  # fmt: skip
     scripts += s
     drawn += n["ok"]
@@ -417,9 +493,17 @@ def render_map(
     not_drawn = sum(int((~m).sum()) for m in ok.values())
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
+    plant = plant_view(circuits, rows, n_features=lod, groups=groups, bounds=bounds)
+    if plant.note():
+        totals.extra.append(plant.note())
+    if plant.blocks:  # under the others; shown at plant zoom
+        groups.insert(0, (BLOCK_GROUP, BLOCK_GROUP_NAME, True))
+    if lod:  # detail groups are added when the user zooms in
+        groups = [(k, name, show and k not in DETAIL_GROUPS) for k, name, show in groups]
     crs = circuits.crs or segments.crs
     crs_name = crs.to_string() if crs is not None else "unknown"
     legend = legend_html(segment_reference=reference, aggregated=aggregated)
+    legend += plant.legend_html()
     fail = is_fail(circuits)
     blocks = text_values(circuits, "inverter_id")[fail].tolist()
     review = review_html(failing_html(circuit_ids[fail].tolist(), blocks))
@@ -432,12 +516,15 @@ def render_map(
         "title": f"{site_name} – cable routes",
         "basemap": bool(basemap),
         "canvas": drawn > CANVAS_ABOVE,
-        "bounds": _bounds([frames[k][ok[k]] for k in frames]),
+        "bounds": bounds,
         "groups": groups,
         "review": True,
+        "parts": 4,  # page_parts' pieces (a memo of an older page has fewer)
     }
-    head, middle, tail = memo.page(json.dumps(spec, sort_keys=True), lambda: page_parts(spec))
-    return "".join([head, panel, middle, "\n".join(scripts), tail])
+    head, middle, between, tail = memo.page(
+        json.dumps(spec, sort_keys=True), lambda: page_parts(spec)
+    )
+    return "".join([head, panel, middle, "\n".join(scripts), between, plant.script, tail])
 
 
 def _read_layer(path: Path, layer: str) -> gpd.GeoDataFrame:

@@ -31,6 +31,11 @@ palette (Okabe & Ito, 2008, "Color Universal Design"), always together with a sh
 greyscale print still shows it: a failing circuit has a dashed black outline; an over-capacity
 trench segment sits on a wide, dashed (hatched) vermillion halo.
 
+The plant view's block areas (:mod:`routeplan.map.plantview`) use the same colours: a block is
+filled by its worst utilisation on ``UTILISATION``; a block holding a failing circuit is filled
+vermillion with a dashed black outline and labelled with its number of failing circuits. The
+keyboard focus ring of its label is Okabe–Ito *blue* #0072B2, a colour of neither scale.
+
 Values outside [0, 1] are clamped; NaN gets ``NAN_COLOUR`` (mid grey, not on either scale).
 
 References

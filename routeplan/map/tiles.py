@@ -34,17 +34,33 @@ TILE_MASK = np.uint64(1023)
 TILE_MAX = 4096
 
 
-def tiles(keys: np.ndarray) -> list[np.ndarray]:
+def tiles(keys: np.ndarray, cells: np.ndarray | None = None) -> list[np.ndarray]:
     """Positions of the features of each tile, tiles in order of their ids (``keys``: one id
-    per feature; features with equal ids always share a tile)."""
+    per feature; features with equal ids always share a tile).
+
+    With ``cells`` (an integer per feature: the square of the site it lies in, its band of
+    squares in the bits above 32), features are taken square by square, ids in order within
+    each (a feature's id takes the square of its first feature), and a tile also ends where a
+    band ends: a tile then covers part of one band, a small box, so a page can make only the
+    tiles near the view (:func:`routeplan.map.script.layer_script`, ``lazy``). Cutting at
+    every square instead would make several times as many tiles (each costs time to draw)."""
     keys = np.asarray(keys, dtype=object)
     if len(keys) == 0:
         return []
-    order = np.argsort(keys.astype(str), kind="stable")
+    text = keys.astype(str)
+    if cells is None:
+        order = np.argsort(text, kind="stable")
+    else:
+        cells = pd.Series(np.asarray(cells)).groupby(text).transform("first").to_numpy()
+        order = np.lexsort((text, cells))
     k = keys[order]
     h = pd.util.hash_array(k.astype(str).astype(object), categorize=False)
     last = np.r_[k[1:] != k[:-1], True]  # only after the last feature of an id
-    ends = np.flatnonzero(last & ((h & TILE_MASK) == 0)) + 1
+    cut = (h & TILE_MASK) == 0
+    if cells is not None:
+        band = cells[order] >> 32
+        cut |= np.r_[band[1:] != band[:-1], True]
+    ends = np.flatnonzero(last & cut) + 1
     bounds = [0]
     cuts = np.flatnonzero(last) + 1
     for end in [*ends.tolist(), len(k)]:

@@ -553,7 +553,8 @@ def test_many_rows_start_hidden_and_lazy(plan_frames, monkeypatch):
     frames, site = plan_frames
     monkeypatch.setattr(rpmap, "ROWS_SHOWN_UP_TO", 2)
     html = render(frames, site)
-    assert html.count('.once("add", function()') == 1  # only the rows wait to be switched on
+    assert html.count("rpLazy(feature_group_rows, [") == 1  # only the rows wait to be shown
+    assert html.count("rpLazy(") == 1 + html.count("function rpLazy(")
     assert "4 module rows: switch them on in the layer list" in html
 
 
