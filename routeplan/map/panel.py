@@ -153,7 +153,7 @@ CSS = """
  text-align:left;overflow-wrap:anywhere}
 .rp-fails ul{margin:2px 0 4px;padding-left:16px}
 #rp-details{right:10px;top:10px;max-width:390px;width:390px;max-height:calc(100vh - 50px);
- z-index:1003}
+ z-index:1003;background:#fff}
 #rp-details[hidden]{display:none}
 #rp-details h2{font-size:13px;margin:2px 24px 4px 0;overflow-wrap:anywhere}
 #rp-details td{overflow-wrap:anywhere}

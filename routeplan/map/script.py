@@ -293,6 +293,21 @@ var rpReview = (function() {
                 found = layerIndex().get(key);
             }
         }
+        if (!found && window.rpPlantView && typeof rpMakeAll === 'function') {
+            // plant view: the detail groups are made near the view only; make the groups
+            // the feature can be in (off the map: shown once the view zooms to it)
+            var need = {c: ['string', 'subarray', 'array', 'ac'], s: ['segments'],
+                        e: ['equipment'], r: ['rows'], g: ['string']}[key.charAt(0)] || [];
+            var made = false;
+            need.forEach(function(k) {
+                var g = window['feature_group_' + k];
+                if (g) { rpMakeAll(g); made = true; }
+            });
+            if (made) {
+                index = null;
+                found = layerIndex().get(key);
+            }
+        }
         return found || [];
     }
     // ---- highlight ------------------------------------------------------------------------
@@ -329,8 +344,12 @@ var rpReview = (function() {
                 b = b ? b.extend(lb) : L.latLngBounds(lb.getSouthWest(), lb.getNorthEast());
             }
         });
-        if (b) { map.fitBounds(b, {maxZoom: 19, paddingTopLeft: [60, 60],
-                                       paddingBottomRight: [420, 60], animate: false}); }
+        if (b) {  // beside the summary panel (left) and the details box (right)
+            var w = map.getSize().x;
+            map.fitBounds(b, {maxZoom: 19, animate: false,
+                              paddingTopLeft: [Math.min(390, Math.round(w * 0.3)), 110],
+                              paddingBottomRight: [Math.min(420, Math.round(w * 0.33)), 60]});
+        }
     }
     // ---- details box ----------------------------------------------------------------------
     function box(title, kind) {

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import time
 from pathlib import Path
+from urllib.parse import quote
 
 import pandas as pd
 import pytest
@@ -265,3 +266,30 @@ def test_legend_and_panel_fold_by_keyboard(demo):  # noqa: F811
     pg.keyboard.press("Enter")
     assert pg.locator("#rp-panel .rp-caution").is_visible()
     demo.assert_clean()
+
+
+def test_find_at_plant_scale_zooms_to_a_string_not_yet_drawn(plant_page, plant, screenshots):  # noqa: F811
+    """At the plant view the strings are not drawn yet: ``#find=`` makes them, zooms in to the
+    string and highlights its route, and the details name it with the schedule's values."""
+    pg = plant_page.page
+    schedule = pd.read_csv(plant / "cable_schedule.csv", dtype=str)
+    fail = schedule["status"].str.lower().eq("fail")
+    row = schedule[(schedule["kind"] == "string") & fail].iloc[-1]
+    pg.evaluate("(h) => { location.hash = h; }", "#find=" + quote(row["circuit_id"], safe=""))
+    pg.wait_for_function(
+        "window[document.querySelector('.folium-map').id].getZoom()"
+        " >= window.rpPlantView.detailZoom",
+        timeout=30_000,
+    )
+    pg.evaluate(RAF)
+    # the highlight (drawn on the canvas at this scale): the route and its two ends
+    highlighted = pg.evaluate(
+        "() => { var m = window[document.querySelector('.folium-map').id], n = 0;"
+        " m.eachLayer(function(l) { if (l.options && l.options.pane === 'rpSelect' && !l.eachLayer)"
+        " { n++; } }); return n; }"
+    )
+    assert highlighted >= 3
+    body = pg.locator("#rp-details-body").inner_text()
+    assert row["circuit_id"] in body and row["cable_m"] in body
+    pg.screenshot(path=screenshots / "plant_1gw_find.png", animations="disabled")
+    plant_page.assert_clean()
