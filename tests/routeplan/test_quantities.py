@@ -589,7 +589,13 @@ def _line(bill: pd.DataFrame, item: str, kind: str | None = None, **match) -> pd
 
 @pytest.mark.parametrize(
     ("dc_v", "pv_kept", "over_1500"),
-    [(1500.0, True, False), (1500.5, False, True), (1499.5, True, False)],
+    # 1e-9 V above 1500 V is 1500 V (the comparisons' tolerance for rounding)
+    [
+        (1500.0, True, False),
+        (1500.5, False, True),
+        (1499.5, True, False),
+        (1500 + 1e-9, True, False),
+    ],
 )
 def test_the_1500_v_limits_are_inclusive(dc_v, pv_kept, over_1500):
     """EN 50618:2014 clause 1 rates the PV cable 1.5 kV DC; IEC 62852:2014 and IEC 60269-6:2010
@@ -623,6 +629,7 @@ def test_the_1500_v_limits_are_inclusive(dc_v, pv_kept, over_1500):
         # IEC 60502-1:2004 clause 4.1 (from memory), d.c. 1.5 × U0/U (HD 516 practice, memory):
         # 0.6/1 kV is 0.9/1.5 kV d.c., 1.8/3 kV is 2.7/4.5 kV d.c.; to earth the full dc_rated_v
         (900.0, "0.6/1 (1.2) kV, 0.9/1.5 kV DC"),
+        (900.0 + 1e-9, "0.6/1 (1.2) kV, 0.9/1.5 kV DC"),  # within the rounding tolerance
         (900.5, "1.8/3 (3.6) kV, 2.7/4.5 kV DC"),
         (2700.0, "1.8/3 (3.6) kV, 2.7/4.5 kV DC"),
         (2700.5, ""),
@@ -655,6 +662,7 @@ def test_dc_feeder_voltage_class_boundaries(dc_v, rated):
     [
         # three-phase: U between phases, U/√3 to earth; single-phase (2 conductors): U to earth
         (1000.0, 3, "0.6/1 (1.2) kV"),
+        (1000.0 + 1e-9, 3, "0.6/1 (1.2) kV"),  # within the rounding tolerance
         (1000.5, 3, "1.8/3 (3.6) kV"),
         (600.5, 3, "0.6/1 (1.2) kV"),  # 347 V to earth
         (600.0, 2, "0.6/1 (1.2) kV"),
@@ -689,6 +697,7 @@ def test_ac_feeder_voltage_class_boundaries(volts, conductors, rated):
     ("device", "volts", "scope"),
     [
         ("iec60898-1", 440.0, ""),
+        ("iec60898-1", 440.0 + 1e-9, ""),  # within the rounding tolerance
         ("iec60898-1", 440.5, "440"),
         ("iec60947-2", 440.5, ""),
         ("iec60947-2", 1000.0, ""),
@@ -796,3 +805,50 @@ def test_an_empty_schedule_gives_an_empty_bill():
     segments = HAND_SEGMENTS.iloc[:0]
     bill = bill_of_quantities(empty, segments, 1500.0, "iec60947-2")
     assert bill.empty and list(bill.columns) == list(BILL_COLUMNS)
+
+
+def test_dc_rating_between_conductors_is_the_dc_u_not_the_ac_u():
+    # IEC 60502-1:2004 clause 4.1 (from memory) with the d.c. rule of 1.5 × U (HD 516 practice,
+    # from memory): a 0.6/1 kV cable takes 1.5 kV d.c. between conductors, more than its a.c. U
+    assert voltage_class(0.0, 1500.0, dc=True)["u_kv"] == 1.0
+    assert voltage_class(0.0, 1500.5, dc=True)["u_kv"] == 3.0
+    assert voltage_class(0.0, 4500.0, dc=True)["u_kv"] == 3.0
+    assert voltage_class(0.0, 4500.5, dc=True) is None
+
+
+def test_a_bill_without_connectors_and_fuses_keeps_the_families_after_them():
+    """Only feeders (no string, so no connector pair; no fuse): the trench and breaker families
+    still follow the cable and termination ones, each with its total, rows numbered 0..n-1."""
+    keep = [3, 4, 5, 6]
+    frame = hand_schedule().iloc[keep].reset_index(drop=True)
+    frame["array_fuse_a"] = NAN
+    bill = bill_of_quantities(frame, HAND_SEGMENTS.copy(), 1500.0, "iec60947-2")
+    assert list(bill.index) == list(range(len(bill)))
+    totals = bill[bill["item"].str.endswith(" total")]
+    assert cells(totals, ["item", "quantity"]) == [
+        ("cable total", 240.0 + 800.0 + 3000.0 + 180.0),
+        ("termination total", 4.0 + 8.0 + 12.0 + 6.0),
+        ("trench total", 200.0),
+        ("breaker total", 2.0),
+    ]
+
+
+def test_a_schedule_of_python_objects_gives_the_same_bill():
+    """The schedule's columns as object columns of Python numbers (as a frame built from
+    records may hold them): the same bill, line by line, as the hand computation."""
+    plain = hand_bill()
+    objects = bill_of_quantities(
+        hand_schedule().astype(object), HAND_SEGMENTS.astype(object), 1500.0, "iec60947-2"
+    )
+    cols = ["item", "kind", "material", "size_mm2", "laying", "depth_m", "quantity", "unit"]
+    cols += ["rating_a", "poles", "designation", "rated_voltage", "note"]
+    assert cells(objects, cols) == cells(plain, cols)
+    assert cells(plain, ["quantity"])[:7] == [
+        (160.0,),
+        (80.0,),
+        (240.0,),
+        (800.0,),
+        (3000.0,),
+        (180.0,),
+        (4460.0,),
+    ]
