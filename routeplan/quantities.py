@@ -129,9 +129,16 @@ def _kv(v: float) -> str:
 
 
 def _cable_line(
-    kind: str, material: str, size: float, insulation: str, u_ac_v: float, phases: int, dc_v: float
+    kind: str,
+    material: str,
+    size: float,
+    insulation: str,
+    u_ac_v: float,
+    u0_ac_v: float,
+    dc_v: float,
 ) -> dict:
-    """Designation columns of one cable type."""
+    """Designation columns of one cable type: a.c. feeders need ``u_ac_v`` between phases and
+    ``u0_ac_v`` to earth [V] (each the highest of the type's circuits)."""
     size_text = f"{size:g}"
     if insulation == "PV":
         d = designation("pv_cable")
@@ -152,8 +159,7 @@ def _cable_line(
         return {**line, "standard": "EN 50618", "source": _source(d), "tag": d["tag"]}
     d = designation("feeder_cable")
     if kind == "ac":
-        u0_need = u_ac_v / math.sqrt(3) if phases == 3 else u_ac_v
-        vc = voltage_class(u0_need, u_ac_v, dc=False)
+        vc = voltage_class(u0_ac_v, u_ac_v, dc=False)
         need = f"{u_ac_v:g} V AC"
     else:
         vc = voltage_class(dc_v, dc_v, dc=True)
@@ -215,6 +221,7 @@ def bill_of_quantities(
     kind = circuits["kind"].to_numpy(dtype=object)
     conductors = circuits["conductors"].to_numpy(dtype=np.int64)
     parallel = np.maximum(circuits["parallel"].to_numpy(dtype=np.int64), 1)
+    voltage = circuits["voltage_v"].to_numpy(dtype=float)
     string = kind == "string"
     combiners = circuits.loc[~string & (kind != "ac"), "from_id"]
     to_combiner = string & circuits["to_id"].isin(set(combiners)).to_numpy()
@@ -227,8 +234,11 @@ def bill_of_quantities(
             "metres": circuits["cable_m"].to_numpy(dtype=float) * conductors,
             "lugs": np.where(string, np.where(to_combiner, 1, 0), 2) * conductors,
             "pairs": np.where(string, np.where(to_combiner, 1, 2), 0) * conductors,
-            "voltage_v": circuits["voltage_v"].to_numpy(dtype=float),
+            "voltage_v": voltage,
             "phases": conductors // parallel,
+            # to earth: the phase voltage of a three-phase circuit, the whole voltage of a
+            # single-phase one (per circuit: a line of one type may hold both)
+            "u0_v": voltage / np.where(conductors // parallel == 3, math.sqrt(3), 1.0),
             "current_a": circuits["design_current_a"].to_numpy(dtype=float),
         }
     )
@@ -241,7 +251,7 @@ def bill_of_quantities(
             pairs=("pairs", "sum"),
             insulation=("insulation", "first"),
             voltage_v=("voltage_v", "max"),
-            phases=("phases", "max"),
+            u0_v=("u0_v", "max"),
             current_a=("current_a", "max"),
         )
         .reset_index()
@@ -251,7 +261,7 @@ def bill_of_quantities(
     con_d = designation("connector")
     for r in g.itertuples(index=False):
         cable = _cable_line(
-            r.kind, r.material, r.size_mm2, r.insulation, r.voltage_v, int(r.phases), dc_rated_v
+            r.kind, r.material, r.size_mm2, r.insulation, r.voltage_v, r.u0_v, dc_rated_v
         )
         common = {"kind": r.kind, "material": r.material, "size_mm2": r.size_mm2}
         cores = f"1×{r.size_mm2:g}"

@@ -57,3 +57,7 @@ def test_an_open_circuit_voltage_of_zero_or_below_is_refused():
     assert _refusal(inp) == "voc_v must be > 0 (or NaN: not checked) at d.c. circuits [1, 2]"
     ok = size_circuits(_input(kind=[1, 0], parent=[-1, 0], voc_v=[np.nan, 1200.0]))
     assert ok.voc_max_v[1] > 1200.0  # colder than 25 °C: above the STC value
+    # any positive value is a voltage, however small (one cell's V_OC is about 0.6-0.7 V,
+    # common practice): 0.5 V and 1 V are accepted
+    small = size_circuits(_input(kind=[1, 0, 0], parent=[-1, 0, 0], voc_v=[np.nan, 0.5, 1.0]))
+    assert (small.voc_max_v[1:] > [0.5, 1.0]).all()

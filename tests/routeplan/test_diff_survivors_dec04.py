@@ -11,6 +11,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pandas as pd
 import pytest
 
 from routeplan.diff import CIRCUITS, QUANTITIES, SEGMENTS, parse_schedule, read_plan
@@ -118,3 +119,36 @@ def test_a_route_length_that_rounds_to_no_change_is_neither_longer_nor_shorter(
     d = diff_outputs(old, new)
     got = dict(zip(d.circuits["circuit_id"], d.circuits["look"], strict=True))
     assert got == {"C1": look}
+
+
+@pytest.mark.parametrize("written", ["earlier", "current", "both"])
+def test_a_summary_with_the_earlier_conductor_metre_key_is_read_under_the_current_one(
+    tmp_path, written
+):
+    # summary.json's "cable_m_total" was renamed "conductor_m_total" (routeplan.diff.core
+    # RENAMED_KEYS): a plan written before the rename is read under the new name, with its value;
+    # where both are written, the current one is kept
+    circuits, segments = [circuit("C1"), circuit("C2")], [segment(), segment("T1", 60, 120)]
+    summary = summary_of(circuits, segments)
+    value = summary.pop("conductor_m_total")
+    if written in ("earlier", "both"):
+        summary["cable_m_total"] = value + (1.0 if written == "both" else 0.0)
+    if written in ("current", "both"):
+        summary["conductor_m_total"] = value
+    folder = write_folder(tmp_path / "a", circuits, segments, summary=summary)
+    read = read_plan(folder)["summary"]
+    assert read["conductor_m_total"] == value
+    assert ("cable_m_total" in read) is (written == "both")
+
+
+def test_a_breaker_line_is_named_with_its_rating_in_amperes_and_its_poles():
+    # one more 32 A three-pole breaker: the line names its rating with the unit (A) and its
+    # poles as "3-pole", as the bill's designation says them
+    from routeplan.diff.compare import quantity_rows
+
+    cols = ["item", "kind", "material", "size_mm2", "laying", "depth_m", "unit"]
+    cols += ["rating_a", "poles", "quantity"]
+    old = pd.DataFrame([["AC breaker", "ac", "", "", "", "", "pcs", "32", "3", "1"]], columns=cols)
+    new = pd.DataFrame([["AC breaker", "ac", "", "", "", "", "pcs", "32", "3", "2"]], columns=cols)
+    rows = [(r["id"], r["change"], r["delta"]) for r in quantity_rows(old, new)]
+    assert rows == [("AC breaker ac pcs 32 A 3-pole", "changed", "+1.00")]

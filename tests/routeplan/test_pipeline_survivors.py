@@ -104,3 +104,23 @@ def test_a_site_whose_trenches_make_no_segment_is_refused(tmp_path):
         "error: trenches: no trench to route on\n1 problem(s) in the input; nothing was planned.\n"
     )
     assert not out.exists()
+
+
+def test_trench_fill_in_cable_sets_or_circuits_whichever_the_trench_gives(tmp_path):
+    # tests/conftest.py's tiny site (see test_pipeline_tables.py::test_trench_schedule_fill_
+    # against_capacity for the segments, counted by hand): T1 limited to 4 cable sets, T2 to 5
+    # circuits. Every circuit is one set, so T1's fill is 0/4, 3/4, 5/4 (over) in cable sets,
+    # T2's 5/5, 1/5, 1/5 in circuits
+    frames = base_frames()
+    frames["trenches"]["max_cable_sets"] = [4.0, float("nan")]
+    frames["trenches"]["max_circuits"] = [float("nan"), 5.0]
+    s = plan(write_site(tmp_path / "site", frames)).segments.set_index("segment_id")
+    assert s["fill_basis"].tolist() == ["cable_sets"] * 3 + ["circuits"] * 3
+    assert s["fill"].tolist() == pytest.approx([0.0, 0.75, 1.25, 1.0, 0.2, 0.2])
+    assert s["status"].tolist() == ["ok", "ok", "over", "ok", "ok", "ok"]
+    assert s["max_cable_sets"].tolist()[:3] == [4.0] * 3
+    # a trench giving neither: no fill, no basis, never over
+    frames = base_frames()
+    s = plan(write_site(tmp_path / "site2", frames)).segments.set_index("segment_id")
+    assert s["fill_basis"].tolist() == [""] * 6
+    assert s["fill"].isna().all() and (s["status"] == "ok").all()

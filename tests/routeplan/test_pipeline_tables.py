@@ -72,6 +72,9 @@ def test_a_circuit_that_cannot_be_sized_is_fail(tmp_path):
     c = by_id(p.circuits, "circuit_id")
     assert c.loc["AC:INV1", "status"] == "fail"
     assert (c.drop(index="AC:INV1")["status"] == "ok").all()
+    # the plan gives the failing circuit its remedy (routeplan.remedy), the others none
+    assert c.loc["AC:INV1", "remedy"].startswith("governed by ")
+    assert (c.drop(index="AC:INV1")["remedy"] == "").all()
     assert p.summary["circuits"]["ac"]["fail"] == 1
 
 
@@ -81,6 +84,14 @@ def test_circuit_table_without_inverter_inputs_has_no_input(small):
     assert table["input"].dtype == np.float64
     assert np.isnan(table["input"].to_numpy()).all()
     assert len(table) == 7
+    # governing and remedy not given: the governing stretches are worked out here (those the
+    # plan wrote), and the remedies are left blank (the tiny site passes anyway)
+    assert table["remedy"].tolist() == [""] * 7
+    plan_governing = dict(
+        zip(small.circuits["circuit_id"], small.circuits["governing"], strict=True)
+    )
+    assert all(isinstance(g, str) and g for g in table["governing"])
+    assert dict(zip(table["circuit_id"], table["governing"], strict=True)) == plan_governing
 
 
 def by_id(frame: pd.DataFrame, key: str) -> pd.DataFrame:
@@ -358,6 +369,8 @@ def test_summary_counts_and_worst_values_by_kind(small):
         {"material": "Cu", "size_mm2": 95.0, "conductor_m": 400.0},
     ]
     assert s["conductor_m_total"] == 1201.01  # 1201.008 m
+    # run metres: 10 + 20.5 + 30 + 40.004 + 100 + 50 + 200 = 450.504 m, to 2 decimals
+    assert s["run_m_total"] == 450.5
     assert s["loss_w_total"] == 28.0
     assert s["energy_loss_kwh_total"] == 280.0
     assert s["drop_limits_pct"] == dict(DESIGN.drop_pct)

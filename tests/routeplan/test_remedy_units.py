@@ -401,3 +401,36 @@ def test_a_passing_feeder_given_a_larger_size_frees_its_trench_for_a_string():
         f"governed by G1; {STRING_LIMIT}; passes once C0 is 35 mm² (add 35 to "
         f"design.sizes_mm2.array); or passes with spacing_m = 0.25 on trench T-0 {SPACING_TEXT}",
     ]
+
+
+def test_the_spacings_tried_are_those_both_grouping_tables_give():
+    # IEC 60364-5-52:2009 Table B.52.18 (direct in ground) tabulates clearances of nil, one
+    # cable diameter, 0.125 m, 0.25 m and 0.5 m; Table B.52.19 (ducts in the ground) nil,
+    # 0.25 m, 0.5 m and 1.0 m (both from memory): a clear spacing both give is 0.25 m or 0.5 m
+    from routeplan.remedy import _common_spacings_m
+
+    assert _common_spacings_m() == (0.25, 0.5)
+
+
+def test_circuits_grouped_in_air_without_any_trench_are_given_a_size_not_a_spacing():
+    # Two strings of I_SC 32 A (design 1.25 · 32 = 40 A) bunched on one air stretch, no trench
+    # segment and the incidences left out. EN 50618:2014 Table A.3 (from memory), two adjacent
+    # on a surface: 4 mm² 44 A, 6 mm² 57 A; Table A.4 starts at 60 °C with 1.00 (calc takes
+    # the first row below it: the 40 °C air); IEC 60364-5-52:2009 Table B.52.17, 2 circuits
+    # bunched 0.80. 4 mm²: 0.80 · 44 = 35.2 A < 40 A, fails on grouping; 6 mm²: 0.80 · 57 =
+    # 45.6 A ≥ 40 A. Spacing is a trench remedy: none is offered where no trench exists.
+    inp = _input(
+        kind=[0, 0],
+        isc_a=[32.0, 32.0],
+        air_m=[20.0, 20.0],
+        air_count=[2],
+        air_inc_circuit=[0, 1],
+        air_inc_stretch=[0, 0],
+        inc_circuit=None,
+        inc_segment=None,
+    )
+    dp = calc.DesignParams(sizes_string_mm2=(4,))
+    result = calc.size_circuits(inp, dp, rules="iec")
+    assert result.factor_group.tolist() == [0.8, 0.8] and not result.ok.any()
+    text = f"{STRING_LIMIT}; passes with 6 mm² (add 6 to design.sizes_mm2.string)"
+    assert _remedies(inp, dp, segments=0) == [f"governed by G0; {text}", f"governed by G1; {text}"]
