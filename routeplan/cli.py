@@ -6,10 +6,11 @@ limit; 2 = bad input (every problem listed, one per line, on stderr).
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import os
 import sys
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Annotated, Any
 
@@ -109,6 +110,25 @@ def _fail_os(exc: OSError, where: Path) -> None:
         markup=False,
     )
     raise typer.Exit(2)
+
+
+@contextlib.contextmanager
+def _reported(status: Any, out_dir: Path, errors: tuple = InputError) -> Iterator[None]:
+    """Around a command's work: stop the progress display, and turn an input failure
+    (``errors``) or a file system failure into one line and exit 2."""
+    try:
+        yield
+    except errors as exc:
+        if status:
+            status.stop()
+        _fail_input(exc)
+    except OSError as exc:
+        if status:
+            status.stop()
+        _fail_os(exc, out_dir)
+    finally:
+        if status:
+            status.stop()
 
 
 def _guarded(command: Callable[..., Any]) -> Callable[..., Any]:
@@ -270,31 +290,17 @@ def plan(
     show = not quiet and out.is_terminal
     status = out.status("starting", spinner="dots") if show else None
     say = (lambda stage: status.update(stage)) if status else (lambda stage: None)
-    with folder:
-        try:
-            if status:
-                status.start()
-            cache = PlanCache(folder) if use_cache else None
-            result = run_plan(site, progress=say, cache=cache)
-            write_plan(
-                result,
-                folder,
-                progress=say,
-                map_options={"basemap": basemap, "aggregate_strings_above": aggregate_above},
-            )
-        except InputError as exc:
-            if status:
-                status.stop()
-            _fail_input(exc)
-            return
-        except OSError as exc:
-            if status:
-                status.stop()
-            _fail_os(exc, out_dir)
-            return
-        finally:
-            if status:
-                status.stop()
+    with folder, _reported(status, out_dir):
+        if status:
+            status.start()
+        cache = PlanCache(folder) if use_cache else None
+        result = run_plan(site, progress=say, cache=cache)
+        write_plan(
+            result,
+            folder,
+            progress=say,
+            map_options={"basemap": basemap, "aggregate_strings_above": aggregate_above},
+        )
     if not quiet:
         failing = failing_lines(result.circuits, result.segments, result.inputs)
         failing += bill_notes(result.quantities)
@@ -357,43 +363,27 @@ def place(
         return
     show = not quiet and out.is_terminal
     status = out.status("starting", spinner="dots") if show else None
-    with folder:
-        try:
-            if status:
-                status.start()
-            layout, design = load(site)
-            table, plans = search(
-                layout,
-                design,
-                kind,
-                str(feature),
-                radius,
-                step,
-                progress=(lambda i, n: status.update(f"candidate {i + 1} of {n}"))
-                if status
-                else None,
-            )
-            if not plans:
-                raise PlacementError(f"{kind} {feature!r}: no candidate position could be routed")
-            best = next(iter(plans.values()))
-            write_plan(
-                best,
-                folder,
-                extra=lambda work: write_placement(table, layout.crs, work),
-            )
-        except (PlacementError, *InputError) as exc:
-            if status:
-                status.stop()
-            _fail_input(exc)
-            return
-        except OSError as exc:
-            if status:
-                status.stop()
-            _fail_os(exc, out_dir)
-            return
-        finally:
-            if status:
-                status.stop()
+    with folder, _reported(status, out_dir, (PlacementError, *InputError)):
+        if status:
+            status.start()
+        layout, design = load(site)
+        table, plans = search(
+            layout,
+            design,
+            kind,
+            str(feature),
+            radius,
+            step,
+            progress=(lambda i, n: status.update(f"candidate {i + 1} of {n}")) if status else None,
+        )
+        if not plans:
+            raise PlacementError(f"{kind} {feature!r}: no candidate position could be routed")
+        best = next(iter(plans.values()))
+        write_plan(
+            best,
+            folder,
+            extra=lambda work: write_placement(table, layout.crs, work),
+        )
     if not quiet:
         top = table.iloc[0]
         out.print(

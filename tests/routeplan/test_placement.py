@@ -25,27 +25,15 @@ from routeplan.check import load
 from routeplan.cli import app
 from routeplan.placement import PlacementError, candidate_points, search
 
-from ..conftest import E0, N0, UTM33, write_site
+from ..conftest import E0, N0, SITE_TOML, UTM33, write_site
 
 runner = CliRunner()
 COMBINER_X = (20.0, 60.0, 180.0)
 GRID_X = 200.0
 
-TOML = """
-[site]
-name = "Straight trench"
-
-[modules.mod1]
-isc_a = 13.0
-imp_a = 12.3
-voc_v = 49.5
-vmp_v = 41.2
-per_string = 26
-max_fuse_a = 25
-voc_temp_coeff_pct_per_c = -0.28
-
-[design]
-snap_m = 20.0
+TOML = (
+    SITE_TOML.replace('name = "Test site"', 'name = "Straight trench"')
+    + """
 
 [design.material]
 array = "Al"
@@ -63,6 +51,7 @@ ac = 3.0
 slack_pct = 0.0
 termination_m = 1.0
 """
+)
 
 
 def xy(x: float, y: float) -> tuple[float, float]:
