@@ -57,3 +57,11 @@ def test_bad_inputs_are_refused():
         capitalised_loss([1.0], -0.1, 5.0, 10)
     with pytest.raises(InputError):
         conductor_mass_kg([-1.0], [10.0], ["Cu"])
+
+
+def test_zero_years_and_zero_lengths_are_valid_and_give_zero():
+    # no year of losses is worth nothing; a conductor of no length or no area weighs nothing
+    assert annuity_factor(5.0, 0) == 0.0
+    assert annuity_factor(0.0, 0) == 0.0
+    assert conductor_mass_kg([10.0, 0.0], [0.0, 100.0], ["Cu", "Al"]).tolist() == [0.0, 0.0]
+    assert capitalised_loss([0.0], 0.05, 5.0, 20).tolist() == [0.0]
