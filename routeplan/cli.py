@@ -112,6 +112,17 @@ def _fail_os(exc: OSError, where: Path) -> None:
     raise typer.Exit(2)
 
 
+def _open_folder(out_dir: Path, site: Path, force: bool) -> Any:
+    """The output folder of a plan, checked (and locked) before any computation; a folder
+    that cannot be used is one line and exit 2."""
+    from .outputs.write import open_output_folder
+
+    try:
+        return open_output_folder(out_dir, site, force=force)
+    except InputError as exc:
+        _fail_input(exc)
+
+
 @contextlib.contextmanager
 def _reported(status: Any, out_dir: Path, errors: tuple = InputError) -> Iterator[None]:
     """Around a command's work: stop the progress display, and turn an input failure
@@ -279,14 +290,10 @@ def plan(
     a limit (outputs written), 2 on bad input or an unusable output folder (nothing
     written)."""
     from .cache import PlanCache
-    from .outputs.write import open_output_folder, write_plan
+    from .outputs.write import write_plan
     from .pipeline import plan as run_plan
 
-    try:  # the output folder is checked (and locked) before any computation
-        folder = open_output_folder(out_dir, site, force=force)
-    except InputError as exc:
-        _fail_input(exc)
-        return
+    folder = _open_folder(out_dir, site, force)
     show = not quiet and out.is_terminal
     status = out.status("starting", spinner="dots") if show else None
     say = (lambda stage: status.update(stage)) if status else (lambda stage: None)
@@ -349,18 +356,14 @@ def place(
     placement.gpkg and the best position's plan. Exit 0 when the best position meets every
     limit, 1 when none does, 2 on bad input or an unusable output folder."""
     from .check import load
-    from .outputs.write import open_output_folder, write_plan
+    from .outputs.write import write_plan
     from .placement import PlacementError, search, write_placement
 
     if (inverter is None) == (combiner is None):
         err.print("error: give exactly one of --inverter ID and --combiner ID", markup=False)
         raise typer.Exit(2)
     kind, feature = ("inverter", inverter) if inverter is not None else ("combiner", combiner)
-    try:  # the output folder is checked (and locked) before any computation
-        folder = open_output_folder(out_dir, site, force=force)
-    except InputError as exc:
-        _fail_input(exc)
-        return
+    folder = _open_folder(out_dir, site, force)
     show = not quiet and out.is_terminal
     status = out.status("starting", spinner="dots") if show else None
     with folder, _reported(status, out_dir, (PlacementError, *InputError)):

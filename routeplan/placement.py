@@ -54,7 +54,7 @@ from layers import Site
 
 from .config import KINDS, CostConfig, DesignConfig
 from .errors import RoutingError
-from .pipeline import Plan, plan_site
+from .pipeline import KIND_CODE, Plan, design_params, plan_site
 
 __all__ = [
     "CANDIDATE_COLUMNS",
@@ -235,23 +235,15 @@ def moved_site(site: Site, kind: str, row: int, xy: tuple[float, float]) -> Site
 
 
 def _candidate_sizes(design: DesignConfig, kinds: Iterable[str]) -> set[tuple[str, float]]:
-    """Every (material, size) a plan may choose for circuits of ``kinds``: their candidate
-    sizes."""
-    rules = calc.get_rules(design.values["rules"])
-    code = {
-        "string": calc.KIND_STRING,
-        "subarray": calc.KIND_SUBARRAY,
-        "array": calc.KIND_ARRAY,
-        "ac": calc.KIND_AC,
+    """Every (material, size) a plan may choose for circuits of ``kinds``: their size lists as
+    the engine reads them (:func:`calc.size_list_mm2`)."""
+    dp, rules = design_params(design), design.values["rules"]
+    return {
+        (design.material[kind], float(s))
+        for kind in KINDS
+        if kind in kinds
+        for s in calc.size_list_mm2(KIND_CODE[kind], dp, rules)
     }
-    out: set[tuple[str, float]] = set()
-    for kind in KINDS:
-        if kind not in kinds:
-            continue
-        material = design.material[kind]
-        sizes = design.sizes_mm2.get(kind) or rules.default_sizes_mm2(code[kind], material)
-        out |= {(material, float(s)) for s in sizes}
-    return out
 
 
 def check_prices(design: DesignConfig, kinds: Iterable[str] = KINDS) -> None:

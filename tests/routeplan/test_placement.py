@@ -276,3 +276,20 @@ def test_a_search_too_large_is_refused_before_planning(tmp_path):
     # 200 m of trench every 0.05 m: 4,001 points, over the 2,000 candidates a search plans
     with pytest.raises(PlacementError, match=r"4,002 candidate positions .* at most 2,000"):
         search(site, design, "inverter", "INV1", radius_m=500.0, step_m=0.05)
+
+
+def test_a_folder_holding_a_users_file_is_refused_before_planning(tmp_path):
+    site = straight_site(tmp_path / "s")
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "notes.txt").write_text("mine", encoding="utf-8")
+    r = runner.invoke(app, ["place", str(site), "--inverter", "INV1", "--radius", "-5",
+                            "--out", str(out)])  # fmt: skip
+    assert r.exit_code == 2
+    assert "was not written by routeplan" in " ".join(r.output.split())
+    assert (out / "notes.txt").read_text(encoding="utf-8") == "mine"
+    assert sorted(p.name for p in out.iterdir()) == ["notes.txt"]
+    # a negative radius, in a folder of its own, is one line naming the option
+    r = runner.invoke(app, ["place", str(site), "--inverter", "INV1", "--radius", "-5",
+                            "--out", str(tmp_path / "o2")])  # fmt: skip
+    assert r.exit_code == 2 and "--radius must be ≥ 0 m" in r.output
