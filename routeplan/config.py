@@ -164,6 +164,13 @@ DESIGN_KEYS: tuple[Key, ...] = (
         note="rated DC voltage of cables and equipment the maximum Voc is checked against",
     ),
     Key(
+        "units",
+        "si",
+        choices=("si", "us"),
+        note="lengths of the bill of quantities: 'si' metres, 'us' international feet "
+        "(0.3048 m); the schedules give both (route_m/route_ft, cable_m/cable_ft)",
+    ),
+    Key(
         "frequency_hz",
         50.0,
         0.0,

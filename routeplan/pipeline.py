@@ -35,6 +35,7 @@ from .order import inverter_of, schedule_order
 from .quantities import bill_of_quantities
 from .remedy import remedies
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
+from .units import feet, size_labels
 
 KIND_CODE = {
     "string": calc.KIND_STRING,
@@ -578,6 +579,9 @@ def circuit_table(
             "loss_pct": r.loss_pct,
             "energy_loss_kwh": r.energy_loss_kwh,
             "marking": r.marking,
+            "size_label": size_labels(r.size_mm2, design.values["rules"]),
+            "route_ft": feet(c["route_m"].to_numpy(dtype=float)),
+            "cable_ft": feet(c["cable_m"].to_numpy(dtype=float)),
         }
     )
     return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
@@ -660,6 +664,8 @@ def quantity_table(
         segments,
         float(design.values["dc_rated_v"]),
         str(design.values["ac_breaker_device"]),
+        rules=str(design.values["rules"]),
+        units=str(design.values["units"]),
     )
 
 
@@ -721,6 +727,8 @@ def summarise(
         "site": {"name": site.name, "crs": site.crs.to_string(), "crs_note": site.crs_note},
         "rules": design.values["rules"],
         "marking": design.values["marking"],
+        # the bill's length unit (design.units); the schedules give metres and feet either way
+        "units": design.values["units"],
         "ok": bool(
             (circuits["status"] == "ok").all()
             and (segments["status"] == "ok").all()

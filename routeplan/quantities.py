@@ -21,6 +21,23 @@ Counting rules (each a stated convention the tests check):
   mated halves must match — IEC 62548:2016, from memory);
 - fuses: one per pole (2) of each protected d.c. circuit (unearthed PV arrays are protected in
   both poles — IEC 62548, from memory); breakers: one per a.c. circuit, by rating and poles.
+- equipment grounding conductors (``rules = "nec"`` only; family ``grounding``): one per circuit
+  and parallel set (250.122(F), one EGC in each parallel raceway or cable), ``cable_m`` long, sized
+  by NEC 2023 Table 250.122 for the rating of the circuit's overcurrent device — the string fuse
+  (``fuse_a``), the array or sub-array fuse (``array_fuse_a``) or the a.c. breaker
+  (``ac_breaker_a``); a d.c. circuit without a device takes the assumed device of 690.45: the
+  690.9(B) rating for 1.25 × its 690.8(A) maximum current (1.25 × ``isc_design_a``); never larger
+  than the circuit's own conductors (250.122(A)). The 250.122(B) increase for conductors enlarged
+  beyond the size the ampacity needs (e.g. for voltage drop) is not applied: each EGC line says so.
+  Under ``rules = "iec"`` the bill has no protective-conductor lines (the IEC rule set does not
+  size them; IEC 60364-5-54 is not implemented).
+
+Under ``rules = "nec"`` the designations name the NEC 2023 clause and the product listing (UL 4703
+PV wire, UL 44/854 conductor types of Table 310.4(A), UL 486A-486B lugs, UL 6703 connectors, UL
+2579 PV fuses, UL 489 breakers — all from memory) instead of the IEC/EN product standards, and
+sizes are written as AWG/kcmil (``size_label``; ``size_mm2`` stays). With ``units = "us"`` every
+length (cable, grounding and trench lines and their totals) is in international feet
+(``unit`` ``ft``, metres / 0.3048); ``depth_m`` stays in metres.
 
 Rated voltages: the PV cable's 1.5 kV DC (EN 50618) is checked against ``design.dc_rated_v``;
 a plan rated above it gets no PV cable designation and a note saying so (the line keeps its
@@ -41,10 +58,22 @@ import math
 import numpy as np
 import pandas as pd
 
+from calc.nec import protection as nec_protection
+from calc.nec import pv as nec_pv
 from calc.tables import Table, parse_table
 
+from .units import FOOT_M, length_unit, size_labels
+
 #: item families in bill order, each followed by its total line
-FAMILIES: tuple[str, ...] = ("cable", "termination", "connector", "trench", "fuse", "breaker")
+FAMILIES: tuple[str, ...] = (
+    "cable",
+    "grounding",
+    "termination",
+    "connector",
+    "trench",
+    "fuse",
+    "breaker",
+)
 #: the total line's item per family
 TOTAL_ITEM = {f: f"{f} total" for f in FAMILIES}
 TOTAL_ITEM["connector"] = "connector pair total"
@@ -61,6 +90,7 @@ BILL_COLUMNS: tuple[str, ...] = (
     "rating_a",
     "poles",
     "family",
+    "size_label",
     "designation",
     "cores_x_size",
     "conductor_class",
@@ -200,6 +230,8 @@ def bill_of_quantities(
     segments: pd.DataFrame,
     dc_rated_v: float,
     breaker_device: str,
+    rules: str = "iec",
+    units: str = "si",
 ) -> pd.DataFrame:
     """The bill of quantities (:data:`BILL_COLUMNS`; see the module docstring for the rules).
 
@@ -211,13 +243,19 @@ def bill_of_quantities(
         ``ac_breaker_a`` [A]).
     segments : the trench schedule (``laying``, ``depth_m`` [m], ``length_m`` [m]).
     dc_rated_v : ``design.dc_rated_v`` [V], the d.c. rating cables and devices must have.
-    breaker_device : ``design.ac_breaker_device`` (``iec60947-2`` or ``iec60898-1``).
+    breaker_device : ``design.ac_breaker_device`` (``iec60947-2`` or ``iec60898-1``; not used
+        under ``rules = "nec"``, whose breakers are UL 489 at 240.6(A) ratings).
+    rules : ``design.rules`` (``iec`` or ``nec``): the designations, the size labels and the
+        equipment grounding conductors (nec) follow it.
+    units : ``design.units``: ``si`` lengths in metres, ``us`` in international feet.
 
     Returns
     -------
-    One row per line; ``quantity`` in metres (cable, trench) or pieces; empty cells where a
-    column does not apply.
+    One row per line; ``quantity`` in metres or feet (cable, grounding, trench) or pieces;
+    empty cells where a column does not apply.
     """
+    unit = length_unit(units)
+    nec = rules == "nec"
     kind = circuits["kind"].to_numpy(dtype=object)
     conductors = circuits["conductors"].to_numpy(dtype=np.int64)
     parallel = np.maximum(circuits["parallel"].to_numpy(dtype=np.int64), 1)
@@ -257,14 +295,25 @@ def bill_of_quantities(
         .reset_index()
     )
     lines: list[dict] = []
-    lug_d = designation("lug")
-    con_d = designation("connector")
+    lug_d = designation("nec_lug" if nec else "lug")
+    con_d = designation("nec_connector" if nec else "connector")
+    g["size_label"] = size_labels(g["size_mm2"].to_numpy(dtype=float), rules)
     for r in g.itertuples(index=False):
-        cable = _cable_line(
-            r.kind, r.material, r.size_mm2, r.insulation, r.voltage_v, r.u0_v, dc_rated_v
-        )
-        common = {"kind": r.kind, "material": r.material, "size_mm2": r.size_mm2}
-        cores = f"1×{r.size_mm2:g}"
+        if nec:
+            cable = _nec_cable_line(r.kind, r.material, r.size_label, r.insulation, r.voltage_v,
+                                    dc_rated_v)  # fmt: skip
+        else:
+            cable = _cable_line(
+                r.kind, r.material, r.size_mm2, r.insulation, r.voltage_v, r.u0_v, dc_rated_v
+            )
+        common = {
+            "kind": r.kind,
+            "material": r.material,
+            "size_mm2": r.size_mm2,
+            "size_label": r.size_label,
+        }
+        cores = f"1×{r.size_label}" if nec else f"1×{r.size_mm2:g}"
+        size_text = r.size_label if nec else f"{r.size_mm2:g}"
         lines.append(
             {
                 **common,
@@ -289,9 +338,9 @@ def bill_of_quantities(
                     "cores_x_size": cores,
                     "conductor_class": cls,
                     "designation": lug_d["text"].format(
-                        lug=lug, size=f"{r.size_mm2:g}", material=r.material, cls=cls
+                        lug=lug, size=size_text, material=r.material, cls=cls
                     ),
-                    "standard": "IEC 61238-1",
+                    "standard": "UL 486A-486B" if nec else "IEC 61238-1",
                     "source": _source(lug_d),
                     "tag": lug_d["tag"],
                 }
@@ -308,20 +357,160 @@ def bill_of_quantities(
                     "cores_x_size": cores,
                     "rated_voltage": f"{dc_rated_v:g} V DC",
                     "designation": con_d["text"].format(
-                        size=f"{r.size_mm2:g}", volts=f"{dc_rated_v:g}", amps=amps
+                        size=size_text, volts=f"{dc_rated_v:g}", amps=amps
                     ),
-                    "standard": "IEC 62852",
+                    "standard": "UL 6703" if nec else "IEC 62852",
                     "source": _source(con_d),
                     "tag": con_d["tag"],
-                    "note": _over_1500(dc_rated_v, "IEC 62852"),
+                    "note": "" if nec else _over_1500(dc_rated_v, "IEC 62852"),
                 }
             )
+    if nec:
+        lines += _egc_lines(circuits)
     lines += _trench_lines(segments)
-    lines += _fuse_lines(circuits, dc_rated_v)
-    lines += _breaker_lines(circuits, c["phases"].to_numpy(), breaker_device)
+    lines += _fuse_lines(circuits, dc_rated_v, nec)
+    lines += _breaker_lines(circuits, c["phases"].to_numpy(), "nec" if nec else breaker_device)
     bill = pd.DataFrame(lines).reindex(columns=BILL_COLUMNS)
     bill = _ordered(bill)
-    return _with_totals(bill)
+    bill = _with_totals(bill)
+    if unit != "m":  # lengths in feet: the same sums, divided once by the foot
+        metres = (bill["unit"] == "m").to_numpy()
+        bill.loc[metres, "quantity"] = bill.loc[metres, "quantity"].to_numpy(dtype=float) / FOOT_M
+        bill.loc[metres, "unit"] = unit
+    return bill
+
+
+def _nec_cable_line(
+    kind: str, material: str, label: str, insulation: str, u_ac_v: float, dc_v: float
+) -> dict:
+    """Designation columns of one cable type under the NEC rule set: PV wire (UL 4703) for
+    strings, a Table 310.4(A) conductor type of the insulation's temperature rating for feeders;
+    rated for ``dc_v`` (d.c.) or the inverter's line voltage ``u_ac_v`` (a.c.)."""
+    d = designation("nec_pv_wire" if insulation == "PV" or kind == "string" else "nec_feeder_cable")
+    volts = f"{u_ac_v:g} V AC" if kind == "ac" else f"{dc_v:g} V DC"
+    text = d["text"].format(
+        size=label,
+        material=material,
+        insulation=insulation,
+        volts=f"{u_ac_v:g}" if kind == "ac" else f"{dc_v:g}",
+    )
+    return {
+        "conductor_class": np.nan,
+        "insulation": insulation,
+        "rated_voltage": volts,
+        "designation": text,
+        "standard": "UL 4703" if d["item"] == "nec_pv_wire" else "NEC 2023 Table 310.4(A)",
+        "source": _source(d),
+        "tag": d["tag"],
+        "note": "",
+    }
+
+
+#: the overcurrent device of each kind's circuits (schedule column)
+_OCPD_COLUMN = {"string": "fuse_a", "subarray": "array_fuse_a", "array": "array_fuse_a",
+                "ac": "ac_breaker_a"}  # fmt: skip
+
+
+def egc_ratings_a(circuits: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Per circuit, the overcurrent device rating its equipment grounding conductor is sized
+    for [A], and whether that device is assumed (NEC 2023 690.45: a d.c. circuit without a
+    device takes the 690.9(B) rating for 1.25 × its 690.8(A) maximum current, here
+    1.25 × ``isc_design_a``); NaN for an a.c. circuit without a breaker rating."""
+    kind = circuits["kind"].to_numpy(dtype=object)
+    rating = np.full(len(kind), np.nan)
+    for k, column in _OCPD_COLUMN.items():
+        m = kind == k
+        rating[m] = circuits[column].to_numpy(dtype=float)[m]
+    assumed = np.isnan(rating) & (kind != "ac")
+    if assumed.any():
+        i_max = nec_pv.source_circuit_max_current_a(
+            circuits["isc_design_a"].to_numpy(dtype=float)[assumed]
+        )
+        rating[assumed] = nec_protection.pv_ocpd(i_max).rating_a
+    return rating, assumed
+
+
+def _egc_lines(circuits: pd.DataFrame) -> list[dict]:
+    """Equipment grounding conductors (NEC 2023 250.122; see the module docstring)."""
+    d = designation("nec_egc")
+    rating, assumed = egc_ratings_a(circuits)
+    size = circuits["size_mm2"].to_numpy(dtype=float)
+    ok = np.isfinite(rating) & np.isfinite(size)
+    if not ok.any():
+        return []
+    material = circuits["material"].to_numpy(dtype=object)[ok]
+    r = rating[ok]
+    egc_label = np.empty(len(r), dtype=object)
+    egc_mm2 = np.empty(len(r))
+    for mat in ("Cu", "Al"):  # Table 250.122's two columns
+        m = material == mat
+        if m.any():
+            egc_label[m] = nec_protection.egc_size_label(r[m], mat)
+            egc_mm2[m] = nec_protection.egc_size_mm2(r[m], mat)
+    own = size[ok]
+    capped = egc_mm2 > own * (1.0 + 1e-9)  # 250.122(A): never larger than the circuit's own
+    if capped.any():
+        egc_mm2[capped] = own[capped]
+        egc_label[capped] = size_labels(own[capped], "nec")
+    frame = pd.DataFrame(
+        {
+            "kind": circuits["kind"].to_numpy(dtype=object)[ok],
+            "material": material,
+            "size_mm2": egc_mm2,
+            "size_label": egc_label,
+            "rating_a": r,
+            "assumed": assumed[ok],
+            "capped": capped,
+            "metres": circuits["cable_m"].to_numpy(dtype=float)[ok]
+            * np.maximum(circuits["parallel"].to_numpy(dtype=float)[ok], 1.0),
+        }
+    )
+    g = (
+        frame.groupby(["kind", "material", "size_mm2", "rating_a"], sort=False)
+        .agg(
+            metres=("metres", "sum"),
+            size_label=("size_label", "first"),
+            assumed=("assumed", "any"),
+            capped=("capped", "any"),
+        )
+        .reset_index()
+    )
+    lines = []
+    for x in g.itertuples(index=False):
+        notes = []
+        if x.assumed:
+            notes.append(
+                "sized for the assumed device of 690.45 where the circuit has none (690.9(B) "
+                "rating for 1.25 × the 690.8(A) maximum current)"
+            )
+        if x.capped:
+            notes.append("limited to the circuit's own conductor size (250.122(A))")
+        notes.append(
+            "250.122(B): increase in proportion where the ungrounded conductors were enlarged "
+            "beyond the size the ampacity needs (e.g. for voltage drop) — not applied, check"
+        )
+        lines.append(
+            {
+                "item": "equipment grounding conductor",
+                "kind": x.kind,
+                "family": "grounding",
+                "material": x.material,
+                "size_mm2": float(x.size_mm2),
+                "size_label": x.size_label,
+                "rating_a": float(x.rating_a),
+                "quantity": float(x.metres),
+                "unit": "m",
+                "cores_x_size": f"1×{x.size_label}",
+                "designation": d["text"].format(
+                    size=x.size_label, material=x.material, rating=f"{x.rating_a:g}"
+                ),
+                "standard": "NEC 2023 Table 250.122",
+                "source": _source(d),
+                "tag": d["tag"],
+                "note": "; ".join(notes),
+            }
+        )
+    return lines
 
 
 def _over_1500(dc_v: float, standard: str) -> str:
@@ -348,8 +537,8 @@ def _trench_lines(segments: pd.DataFrame) -> list[dict]:
     ]
 
 
-def _fuse_lines(circuits: pd.DataFrame, dc_v: float) -> list[dict]:
-    d = designation("gpv_fuse")
+def _fuse_lines(circuits: pd.DataFrame, dc_v: float, nec: bool = False) -> list[dict]:
+    d = designation("nec_pv_fuse" if nec else "gpv_fuse")
     kind = circuits["kind"].to_numpy(dtype=object)
     lines = []
     for k, column, item in _FUSE_ITEMS:
@@ -367,17 +556,17 @@ def _fuse_lines(circuits: pd.DataFrame, dc_v: float) -> list[dict]:
                     "unit": "pcs",
                     "rated_voltage": f"{dc_v:g} V DC",
                     "designation": d["text"].format(rating=f"{v:g}", volts=f"{dc_v:g}"),
-                    "standard": "IEC 60269-6",
+                    "standard": "UL 2579" if nec else "IEC 60269-6",
                     "source": _source(d),
                     "tag": d["tag"],
-                    "note": _over_1500(dc_v, "IEC 60269-6"),
+                    "note": "" if nec else _over_1500(dc_v, "IEC 60269-6"),
                 }
             )
     return lines
 
 
 def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> list[dict]:
-    d = designation(f"breaker_{device}")
+    d = designation("nec_breaker" if device == "nec" else f"breaker_{device}")
     ac = (circuits["kind"] == "ac").to_numpy()
     frame = pd.DataFrame(
         {
@@ -391,7 +580,8 @@ def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> l
         n=("voltage_v", "size"), voltage_v=("voltage_v", "max")
     )
     lines = []
-    limit = 440.0 if device == "iec60898-1" else 1000.0  # the scope clauses quoted in the data
+    # the scope clauses quoted in the data (UL 489: no scope limit in the data, none checked)
+    limit = {"iec60898-1": 440.0, "nec": math.inf}.get(device, 1000.0)
     for (rating, poles), r in g.iterrows():
         volts = f"{r.voltage_v:g}"
         note = ""
@@ -410,7 +600,7 @@ def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> l
                 "designation": d["text"].format(
                     rating=f"{rating:g}", poles=int(poles), volts=volts
                 ),
-                "standard": d["standard"],
+                "standard": "UL 489" if device == "nec" else d["standard"],
                 "source": _source(d),
                 "tag": d["tag"],
                 "note": note,

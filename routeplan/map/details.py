@@ -33,10 +33,10 @@ from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
 #: Circuit columns the details show, in the order of the table (text or number).
 CIRCUIT_DETAIL_COLUMNS = (
     "circuit_id", "kind", "from_id", "to_id", "inverter_id", "material", "insulation",
-    "size_mm2", "parallel", "route_m", "cable_m", "design_current_a", "ampacity_base_a",
-    "derating", "ampacity_a", "governing", "factor_temp", "factor_soil", "factor_depth",
-    "factor_group", "group_count", "utilisation", "vdrop_v", "vdrop_pct", "vdrop_total_pct",
-    "loss_w", "protection", "status", "note", "remedy",
+    "size_mm2", "size_label", "parallel", "route_m", "cable_m", "design_current_a",
+    "ampacity_base_a", "derating", "ampacity_a", "governing", "factor_temp", "factor_soil",
+    "factor_depth", "factor_group", "group_count", "utilisation", "vdrop_v", "vdrop_pct",
+    "vdrop_total_pct", "loss_w", "protection", "status", "note", "remedy",
 )  # fmt: skip
 #: Trench segment columns the trench panel shows.
 SEGMENT_DETAIL_COLUMNS = (
@@ -47,7 +47,7 @@ SEGMENT_DETAIL_COLUMNS = (
 #: Text columns (everything else is a number).
 TEXT_COLUMNS = {
     "circuit_id", "kind", "from_id", "to_id", "inverter_id", "material", "insulation",
-    "governing", "protection", "status", "note", "remedy", "segment_id", "trench_id",
+    "governing", "protection", "status", "note", "remedy", "segment_id", "trench_id", "size_label",
     "fill_basis", "laying", "id", "module", "to",
 }  # fmt: skip
 

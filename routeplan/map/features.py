@@ -470,21 +470,26 @@ def _compact(table: list[dict], index: np.ndarray) -> StyleTable:
 # circuits
 
 
-def _conductor_text(s, p, m) -> str:
+def _conductor_text(s, p, m, label="") -> str:
     if np.isnan(s):
         text = MISSING
     else:
-        text = f"{s:g} mm²"
+        text = label or f"{s:g} mm²"
         if not np.isnan(p) and p > 1:
             text = f"{p:g} × {text}"
     return f"{text} {m}".strip()
 
 
 def _conductor(df: pd.DataFrame) -> list[str]:
+    """``[parallel ×] size material``; the size as the schedule's ``size_label`` names it
+    (``10 AWG`` under nec), mm² where a table has no labels."""
     size = _num(df, "size_mm2")
     par = _num(df, "parallel")
     mat = _text(df, "material").to_numpy()
-    return per_distinct(_conductor_text, size, par, mat)
+    if "size_label" not in df:
+        return per_distinct(_conductor_text, size, par, mat)
+    label = _text(df, "size_label").to_numpy()
+    return per_distinct(_conductor_text, size, par, mat, label)
 
 
 def _str_array(values) -> np.ndarray:

@@ -409,7 +409,7 @@ var rpReview = (function() {
             ['To', links(c.get('to_id', i) ? [c.get('to_id', i)] : []), 'to_id'],
             ['Block (inverter)', fmt('c', 'inverter_id', i), 'inverter_id'],
             ['Conductor', fmt('c', 'material', i) + ' ' + fmt('c', 'insulation', i), 'material'],
-            ['Size', fmt('c', 'size_mm2', i, 'mm²'), 'size_mm2'],
+            ['Size', c.get('size_label', i) || fmt('c', 'size_mm2', i, 'mm²'), 'size_label'],
             ['Parallel', fmt('c', 'parallel', i), 'parallel'],
             ['Route length', fmt('c', 'route_m', i, 'm'), 'route_m'],
             ['Cable length', fmt('c', 'cable_m', i, 'm'), 'cable_m'],
@@ -487,7 +487,8 @@ var rpReview = (function() {
             tr.appendChild(td);
             var k = data.c.get('kind', i);
             tr.appendChild(el('td', C.kinds[k] || k || '–'));
-            tr.appendChild(el('td', fmt('c', 'size_mm2', i, 'mm²') + ' × ' +
+            tr.appendChild(el('td', (data.c.get('size_label', i) ||
+                                     fmt('c', 'size_mm2', i, 'mm²')) + ' × ' +
                               fmt('c', 'parallel', i)));
             tr.appendChild(el('td', fmt('c', 'parallel', i)));
             tr.appendChild(el('td', fmt('c', 'utilisation', i)));

@@ -98,6 +98,13 @@ CIRCUIT_COLUMNS: tuple[Col, ...] = (
     Col("loss_pct", "%", 3, "loss, % of the circuit's power"),
     Col("energy_loss_kwh", "kWh", 0, "annual energy-loss estimate (equivalent loss hours)"),
     Col("marking", doc="conductor identification colours"),
+    Col(
+        "size_label",
+        doc="conductor size as the rule set names it: '10 mm²' (iec, IEC 60228), '10 AWG' or "
+        "'250 kcmil' (nec, NEC 2023 Chapter 9 Table 8)",
+    ),
+    Col("route_ft", "ft", 2, "route_m in international feet (1 ft = 0.3048 m exactly)"),
+    Col("cable_ft", "ft", 2, "cable_m in international feet (1 ft = 0.3048 m exactly)"),
 )
 
 SEGMENT_COLUMNS: tuple[Col, ...] = (
@@ -153,25 +160,36 @@ INPUT_COLUMNS: tuple[Col, ...] = (
 QUANTITY_COLUMNS: tuple[Col, ...] = (
     Col(
         "item",
-        doc="cable, termination, connector pair, trench, string/sub-array/array fuse, AC "
-        "breaker, or '<family> total'",
+        doc="cable, equipment grounding conductor (nec), termination, connector pair, trench, "
+        "string/sub-array/array fuse, AC breaker, or '<family> total'",
     ),
     Col("kind", doc="circuit kind (cable, termination, connector pair, fuse, breaker)"),
     Col("material", doc="conductor material, Cu or Al (cable, termination, connector pair)"),
     Col("size_mm2", "mm²", None, "conductor cross-section (cable, termination, connector pair)"),
     Col("laying", doc="trench laying (trench)"),
     Col("depth_m", "m", 2, "trench depth (trench)"),
-    Col("quantity", "", 2, "conductor metres (cable), trench metres (trench) or pieces"),
-    Col("unit", doc="m or pcs"),
+    Col(
+        "quantity",
+        "",
+        2,
+        "conductor metres (cable, grounding), trench metres (trench) or pieces; feet with "
+        "design.units = 'us'",
+    ),
+    Col("unit", doc="m, ft (design.units = 'us') or pcs"),
     # -- beyond the contract
     Col("rating_a", "A", None, "rated current In (fuse, breaker)"),
     Col("poles", "", None, "poles (breaker)"),
     Col(
         "family",
-        doc="item family: cable, termination, connector, trench, fuse, breaker (its total last)",
+        doc="item family: cable, grounding (nec), termination, connector, trench, fuse, breaker "
+        "(its total last)",
+    ),
+    Col(
+        "size_label",
+        doc="conductor size as the rule set names it ('10 mm²'; '10 AWG', '250 kcmil' under nec)",
     ),
     Col("designation", doc="what to order, by open standard (no maker's code)"),
-    Col("cores_x_size", doc="cores × conductor size [mm²]"),
+    Col("cores_x_size", doc="cores × conductor size [mm²; AWG/kcmil under nec]"),
     Col("conductor_class", "", None, "IEC 60228 conductor class"),
     Col("insulation", doc="insulation (cable)"),
     Col("rated_voltage", doc="rated voltage: U0/U (Um) of a cable, or the device's"),
