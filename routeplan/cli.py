@@ -527,12 +527,21 @@ def _print_summary(summary: dict, out_dir: Path, failing: list[str] | None = Non
             "(inverter_inputs.csv)",
             markup=False,
         )
+    us = summary.get("units") == "us"
     cables = ", ".join(
-        f"{c['material']} {c['size_mm2']:g} mm² {c['conductor_m']:,.0f} m"
+        f"{c['material']} {c.get('size_label') or format(c['size_mm2'], 'g') + ' mm²'} "
+        + (f"{c['conductor_ft']:,.0f} ft" if us and "conductor_ft" in c else "")
+        + ("" if us and "conductor_ft" in c else f"{c['conductor_m']:,.0f} m")
         for c in summary.get("conductor_m", [])
     )
-    out.print(f"conductor metres: {cables} (allowances included)", markup=False)
-    if "run_m_total" in summary:
+    what = "conductor feet" if us else "conductor metres"
+    out.print(f"{what}: {cables} (allowances included)", markup=False)
+    if us and "run_ft_total" in summary:
+        run = summary["run_ft_total"]
+        out.print(
+            f"run feet: {run:,.0f} ft (each circuit's cable once; 1 ft = 0.3048 m)", markup=False
+        )
+    elif "run_m_total" in summary:
         run = summary["run_m_total"]
         out.print(f"run metres: {run:,.0f} m (each circuit's cable once)", markup=False)
     out.print(

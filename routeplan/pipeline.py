@@ -722,6 +722,17 @@ def summarise(
         .groupby(["material", "size_mm2"])["m"]
         .sum()
     )
+    us = design.values["units"] == "us"
+    labels = size_labels(metres.index.get_level_values("size_mm2"), design.values["rules"])
+    # in feet too where the plan's units are US customary (summary.json, the CLI's lines)
+    in_feet = (
+        {
+            "conductor_ft_total": round(float(feet(metres.sum())), 2),
+            "run_ft_total": round(float(feet(circuits["cable_m"].sum())), 2),
+        }
+        if us
+        else {}
+    )
     return {
         "tool": {"name": "routeplan", "version": __version__},
         "site": {"name": site.name, "crs": site.crs.to_string(), "crs_note": site.crs_note},
@@ -753,11 +764,18 @@ def summarise(
         # conductor metres (cable length × current-carrying conductors) and run metres (each
         # circuit's cable length once), allowances included in both
         "conductor_m": [
-            {"material": mat, "size_mm2": float(size), "conductor_m": round(float(v), 2)}
-            for (mat, size), v in metres.items()
+            {
+                "material": mat,
+                "size_mm2": float(size),
+                "size_label": str(label),
+                "conductor_m": round(float(v), 2),
+                **({"conductor_ft": round(float(feet(v)), 2)} if us else {}),
+            }
+            for ((mat, size), v), label in zip(metres.items(), labels, strict=True)
         ],
         "conductor_m_total": round(float(metres.sum()), 2),
         "run_m_total": round(float(circuits["cable_m"].sum()), 2),
+        **in_feet,
         "loss_w_total": float(circuits["loss_w"].sum()),
         "energy_loss_kwh_total": float(circuits["energy_loss_kwh"].sum()),
         "caution": CAUTION,

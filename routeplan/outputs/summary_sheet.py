@@ -41,6 +41,7 @@ UNITS: tuple[tuple[str, str], ...] = (
     ("_kwh", "kWh"),
     ("_mm2", "mm²"),
     ("_m", "m"),
+    ("_ft", "ft"),
     ("_w", "W"),
     ("_a", "A"),
     ("_v", "V"),
@@ -118,14 +119,19 @@ def summary_rows(summary: dict[str, Any]) -> pd.DataFrame:
     for key in ("conductor_m", "cable_m"):  # by material and size (cable_m: earlier name)
         for c in s.pop(key, []):
             size = c.get("size_mm2")
-            item = f"{c.get('material', '')} {size:g} mm²" if size is not None else "?"
+            label = c.get("size_label") or (f"{size:g} mm²" if size is not None else "?")
+            item = f"{c.get('material', '')} {label}"
             metres = c.get("conductor_m", c.get("metres"))
             add(("Conductor metres, allowances included", item, _value(metres), "m"))
+            if "conductor_ft" in c:
+                add(("Conductor feet, allowances included", item, _value(c["conductor_ft"]), "ft"))
     totals = {
         "conductor_m_total": "conductor metres (cable length × conductors)",
         "cable_m_total": "conductor metres (cable length × conductors)",
         "run_m_total": "run metres (cable length per circuit, allowances included)",
         "route_m_total": "route metres (circuit routes, no allowances)",
+        "conductor_ft_total": "conductor feet (international foot, 0.3048 m)",
+        "run_ft_total": "run feet (international foot, 0.3048 m)",
         "loss_w_total": "losses at operating current",
         "energy_loss_kwh_total": "annual energy loss (estimate)",
     }

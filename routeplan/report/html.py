@@ -14,9 +14,12 @@ import math
 from collections.abc import Iterable, Sequence
 from typing import Any
 
+import numpy as np
+
 import calc
 
 from .. import CAUTION, __version__
+from ..units import feet, size_labels
 from .basis import ASSUMPTIONS, METHODS, data_tables, module_rows, settings
 from .results import LIST_CAP, Results, results
 
@@ -209,6 +212,22 @@ def report_html(
     )
 
 
+def _units_text(design: Any) -> str:
+    """What ``design.units`` means for this report and the bill."""
+    sizes = (
+        "conductor sizes in AWG/kcmil (NEC 2023 Chapter 9 Table 8; mm² from circular mils)"
+        if design.values["rules"] == "nec"
+        else "conductor sizes in mm² (IEC 60228)"
+    )
+    if design.values.get("units", "si") == "us":
+        return (
+            "us: the bill of quantities gives lengths in feet, and the results give conductor "
+            "feet beside conductor metres (international foot, 1 ft = 0.3048 m exactly); "
+            f"{sizes}; the schedules carry route_m/cable_m and route_ft/cable_ft"
+        )
+    return f"si: lengths in metres (the schedules also give route_ft/cable_ft); {sizes}"
+
+
 def _basis(plan: Any, summary: dict) -> str:
     site, design = plan.site, plan.design
     info = summary.get("site", {})
@@ -221,6 +240,7 @@ def _basis(plan: Any, summary: dict) -> str:
                 [_t("working CRS"), _t(info.get("crs", ""))],
                 [_t("CRS note"), _t(info.get("crs_note", ""))],
                 [_t("rule set"), _t(f"{design.values['rules']}: {_rules_text(design)}")],
+                [_t("units"), _t(_units_text(design))],
             ],
             ident="site",
         )
@@ -378,6 +398,10 @@ _KIND_HEAD = (
 
 def _results(res: Results, design: Any) -> str:
     limits = design.drop_pct
+    us = design.values.get("units", "si") == "us"
+    nec = design.values["rules"] == "nec"
+    sizes = np.array([s for _, _, s, _ in res.metres], dtype=float)
+    labels = size_labels(sizes, design.values["rules"]) if nec else None
     parts = [
         "<h3>By kind</h3><p>Utilisation = design current ÷ current-carrying capacity after "
         "derating; drop = the circuit's own voltage drop, % of its operating voltage; conductor "
@@ -393,7 +417,9 @@ def _results(res: Results, design: Any) -> str:
         '<p id="totals">Totals: losses '
         f"<span>{_num(res.loss_w_total / 1000.0, 2)}</span> kW, energy loss "
         f"<span>{_num(res.energy_loss_kwh_total / 1000.0, 2)}</span> MWh/year, conductor "
-        f"<span>{_num(res.conductor_m_total, 1)}</span> m.</p>",
+        f"<span>{_num(res.conductor_m_total, 1)}</span> m"
+        + (f" (<span>{_num(float(feet(res.conductor_m_total)), 1)}</span> ft)" if us else "")
+        + ".</p>",
     ]
     if res.dc_total_drop_id:
         parts.append(
@@ -418,10 +444,24 @@ def _results(res: Results, design: Any) -> str:
     parts.append("<h3>Conductor metres by size</h3>")
     parts.append(
         _table(
-            ("kind", "material", "size mm²", "conductor m"),
             (
-                [_t(KIND_LABEL.get(k, k)), _t(mat), _n(s, 1 if s != int(s) else 0), _n(v, 1)]
-                for k, mat, s, v in res.metres
+                "kind",
+                "material",
+                "size mm²",
+                "conductor m",
+                *(["size"] if nec else []),
+                *(["conductor ft"] if us else []),
+            ),
+            (
+                [
+                    _t(KIND_LABEL.get(k, k)),
+                    _t(mat),
+                    _n(s, 1 if s != int(s) else 0),
+                    _n(v, 1),
+                    *([_t(str(labels[i]))] if nec else []),
+                    *([_n(float(feet(v)), 1)] if us else []),
+                ]
+                for i, (k, mat, s, v) in enumerate(res.metres)
             ),
             ident="metres",
         )

@@ -31,6 +31,7 @@ import pandas as pd
 from routeplan.config import DesignConfig
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS, Col
 from routeplan.outputs.tables import fixed_text
+from routeplan.units import size_labels
 
 __all__ = ["Chart", "Histogram", "Plots", "as_written", "histogram_edges", "plan_plots"]
 
@@ -195,10 +196,6 @@ def _kinds(circuits: pd.DataFrame) -> list[tuple[str, np.ndarray]]:
     return [(k, kinds == k) for k in KIND_LABELS if np.any(kinds == k)]
 
 
-def _size_text(size: float) -> str:
-    return f"{size:g} mm²"
-
-
 def plan_plots(circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignConfig) -> Plots:
     """Charts of a finished plan and the HTML fragment that embeds them.
 
@@ -249,9 +246,11 @@ def plan_plots(circuits: pd.DataFrame, segments: pd.DataFrame, design: DesignCon
     order = {k: i for i, k in enumerate(KIND_LABELS)}
     sums = frame.groupby(["kind", "material", "size_mm2"], sort=False)["m"].sum().reset_index()
     sums = sums.assign(_k=sums["kind"].map(order)).sort_values(["_k", "material", "size_mm2"])
+    sums = sums.assign(
+        size_label=size_labels(sums["size_mm2"].to_numpy(dtype=float), design.values["rules"])
+    )
     bars = {
-        f"{KIND_LABELS[r.kind]} {r.material} {_size_text(r.size_mm2)}": float(r.m)
-        for r in sums.itertuples()
+        f"{KIND_LABELS[r.kind]} {r.material} {r.size_label}": float(r.m) for r in sums.itertuples()
     }
     title = "Conductor metres by kind, material and size (allowances included)"
     charts.append(Chart("conductor_m", title, bars=bars, svg=_draw_bars("conductor metres", bars)))
