@@ -21,10 +21,12 @@ as a :class:`layers.Problem` on ``site.toml`` naming the dotted key:
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from typing import Any
 
 import calc
+from calc.nec.sizes import size_from_label
 from layers import SITE_TABLES, Problem
 from layers.sources import SITE_TOML, toml_type, unknown_key
 from layers.validate import setting_number
@@ -337,6 +339,9 @@ class DesignConfig:
         return self.values[key]
 
 
+#: a candidate size written as an AWG or kcmil label (NEC sizes) rather than in mm²
+_AWG_LABEL = re.compile(r"(awg|kcmil)\s*$", re.IGNORECASE)
+
 #: top-level tables of site.toml read here (``layers.SITE_TABLES`` are read by ``layers``)
 DESIGN_TABLES: tuple[str, ...] = ("design", "allowances", "costs")
 #: sub-tables of ``[design]``
@@ -534,7 +539,22 @@ def _sizes(
     out: list[float] = []
     for i, v in enumerate(value, start=1):
         try:
-            x = setting_number(v, key)
+            if unit == "mm²" and isinstance(v, str) and _AWG_LABEL.search(v):
+                # an AWG or kcmil size ("10 AWG", "1/0 AWG", "250 kcmil"): its area in mm²
+                # from the definitions (calc.nec.sizes: ASTM B258, circular mils)
+                x = float(size_from_label([v])[0])
+            else:
+                x = setting_number(v, key)
+        except calc.InputError:
+            problems.append(
+                Problem(
+                    SITE_TOML,
+                    where,
+                    f"{item} {i}: {v!r} is not an AWG or kcmil size ('10 AWG', '1/0 AWG', "
+                    "'250 kcmil')",
+                )
+            )
+            return None
         except ValueError as exc:
             problems.append(Problem(SITE_TOML, where, f"{item} {i}: {exc}"))
             return None

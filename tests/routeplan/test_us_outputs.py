@@ -344,3 +344,22 @@ def test_nec_bill_names_nec_sizes_and_listings():
     assert breaker["standard"] == "UL 489" and "400 A" in breaker["designation"]
     fuse = bill[bill["item"] == "string fuse"].iloc[0]
     assert fuse["standard"] == "UL 2579"
+
+
+def test_size_lists_take_awg_and_kcmil_labels():
+    # NEC 2023 Chapter 9 Table 8 sizes by name: their areas (circular mils → mm², within the
+    # table's 3–4 significant digits)
+    cfg, problems = parse_design(
+        {"design": {"sizes_mm2": {"string": ["10 AWG", "12 AWG"], "ac": ["250 kcmil", "4/0 AWG"]}}}
+    )
+    assert not problems
+    assert cfg.sizes_mm2["string"] == pytest.approx((6530 * CMIL_MM2, 10380 * CMIL_MM2), rel=1e-3)
+    assert cfg.sizes_mm2["ac"] == pytest.approx((211600 * CMIL_MM2, 250000 * CMIL_MM2), rel=1e-3)
+    # a label that is no AWG or kcmil size: one problem naming the key and the item
+    _, problems = parse_design({"design": {"sizes_mm2": {"ac": ["250 kcmil", "4/0 kcmil"]}}})
+    assert [(p.feature_id, p.message) for p in problems] == [
+        (
+            "design.sizes_mm2.ac",
+            "size 2: '4/0 kcmil' is not an AWG or kcmil size ('10 AWG', '1/0 AWG', '250 kcmil')",
+        )
+    ]
