@@ -367,7 +367,7 @@ def bill_of_quantities(
             )
     if nec:
         lines += _egc_lines(circuits)
-    lines += _trench_lines(segments)
+    lines += _trench_lines(segments, unit)
     lines += _fuse_lines(circuits, dc_rated_v, nec)
     lines += _breaker_lines(circuits, c["phases"].to_numpy(), "nec" if nec else breaker_device)
     bill = pd.DataFrame(lines).reindex(columns=BILL_COLUMNS)
@@ -519,7 +519,14 @@ def _over_1500(dc_v: float, standard: str) -> str:
     return f"design.dc_rated_v {dc_v:g} V is beyond {standard}'s 1500 V DC scope: check the product"
 
 
-def _trench_lines(segments: pd.DataFrame) -> list[dict]:
+def _depth_text(depth_m: float, unit: str) -> str:
+    """A trench depth for the designation: metres, or feet with the metres (``unit`` ft)."""
+    if unit == "ft":
+        return f"{depth_m / FOOT_M:.2f} ft ({depth_m:g} m)"
+    return f"{depth_m:g} m"
+
+
+def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
     d = designation("trench")
     t = segments.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
     return [
@@ -530,7 +537,7 @@ def _trench_lines(segments: pd.DataFrame) -> list[dict]:
             "depth_m": float(r.depth_m),
             "quantity": float(r.length_m),
             "unit": "m",
-            "designation": d["text"].format(laying=r.laying, depth=f"{r.depth_m:g}"),
+            "designation": d["text"].format(laying=r.laying, depth=_depth_text(r.depth_m, unit)),
             "tag": d["tag"],
         }
         for r in t.itertuples(index=False)

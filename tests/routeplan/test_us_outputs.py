@@ -189,6 +189,9 @@ def test_bill_in_feet_equals_the_schedules_metres_over_0_3048(us_plan):
             key = (q["laying"], float(q["depth_m"]))
             assert q["unit"] == "ft"
             assert float(q["quantity"]) == pytest.approx(trench_m[key] / 0.3048, abs=0.1)
+            # the depth in feet, then metres: 0.8 m = 2.62 ft
+            depth = float(q["depth_m"])
+            assert f"cables at {depth / 0.3048:.2f} ft ({depth:g} m) depth" in q["designation"]
             seen_trench.add(key)
         elif q["item"] in ("termination", "connector pair", "AC breaker", "string fuse"):
             assert q["unit"] == "pcs"  # pieces stay pieces
