@@ -33,6 +33,7 @@ from scipy.sparse import csgraph
 
 from ..folder import reading
 from ..outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
+from ..units import FOOT_M
 from .core import (
     CHANGE_COLUMNS,
     CIRCUIT_FIELDS,
@@ -580,10 +581,12 @@ def plant_block(old: dict, new: dict) -> pd.DataFrame:
     def cables(plan: dict) -> dict[str, float]:
         q = plan["quantities"]
         q = q[q["item"] == "cable"]
+        # conductor metres: a bill in feet (design.units = "us") is read back in metres
+        per = {"ft": FOOT_M}
         return {
-            f"cable {k} {m} {float(s):.1f} mm²": float(v)
-            for k, m, s, v in zip(
-                q["kind"], q["material"], q["size_mm2"], q["quantity"], strict=True
+            f"cable {k} {m} {float(s):.1f} mm²": float(v) * per.get(u, 1.0)
+            for k, m, s, v, u in zip(
+                q["kind"], q["material"], q["size_mm2"], q["quantity"], q["unit"], strict=True
             )
         }
 

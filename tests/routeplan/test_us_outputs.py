@@ -366,3 +366,23 @@ def test_size_lists_take_awg_and_kcmil_labels():
             "size 2: '4/0 kcmil' is not an AWG or kcmil size ('10 AWG', '1/0 AWG', '250 kcmil')",
         )
     ]
+
+
+def test_diff_of_the_same_site_in_si_and_us_shows_no_cable_change(us_plan, tmp_path):
+    # the plant block compares conductor metres: a bill in feet is read back × 0.3048
+    from routeplan.diff import diff_outputs
+
+    site = write_site(tmp_path / "site")
+    si = tmp_path / "si"
+    result = runner.invoke(app, ["plan", str(site), "--out", str(si), "--quiet", "--no-cache"])
+    assert result.exit_code == 0, result.output
+    plant = diff_outputs(si, us_plan).plant.set_index("item")
+    cables = [i for i in plant.index if i.startswith("cable ") and i.endswith(" mm²")]
+    assert cables
+    for item in cables:
+        assert plant.at[item, "unit"] == "m"
+        # the feet are written to 2 decimals: 0.005 ft = 1.5 mm each way
+        assert abs(plant.at[item, "delta"]) <= 0.01, item
+    # the schedules themselves: the same circuits, no value changed
+    changed = diff_outputs(si, us_plan).changes
+    assert not (changed["section"] == "circuit").any()
