@@ -442,11 +442,12 @@ def _egc_lines(circuits: pd.DataFrame) -> list[dict]:
     r = rating[ok]
     egc_label = np.empty(len(r), dtype=object)
     egc_mm2 = np.empty(len(r))
-    for mat in ("Cu", "Al"):  # Table 250.122's two columns
+    for mat in ("Cu", "Al"):  # Table 250.122's two columns, once per distinct rating
         m = material == mat
         if m.any():
-            egc_label[m] = nec_protection.egc_size_label(r[m], mat)
-            egc_mm2[m] = nec_protection.egc_size_mm2(r[m], mat)
+            uniq, inverse = np.unique(r[m], return_inverse=True)
+            egc_label[m] = nec_protection.egc_size_label(uniq, mat)[inverse]
+            egc_mm2[m] = nec_protection.egc_size_mm2(uniq, mat)[inverse]
     own = size[ok]
     capped = egc_mm2 > own * (1.0 + 1e-9)  # 250.122(A): never larger than the circuit's own
     if capped.any():
