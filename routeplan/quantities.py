@@ -369,7 +369,9 @@ def bill_of_quantities(
         lines += _egc_lines(circuits)
     lines += _trench_lines(segments, unit)
     lines += _fuse_lines(circuits, dc_rated_v, nec)
-    lines += _breaker_lines(circuits, c["phases"].to_numpy(), "nec" if nec else breaker_device)
+    lines += _breaker_lines(
+        circuits, c["phases"].to_numpy(), "nec240.6a" if nec else breaker_device
+    )
     bill = pd.DataFrame(lines).reindex(columns=BILL_COLUMNS)
     bill = _ordered(bill)
     bill = _with_totals(bill)
@@ -520,15 +522,8 @@ def _over_1500(dc_v: float, standard: str) -> str:
     return f"design.dc_rated_v {dc_v:g} V is beyond {standard}'s 1500 V DC scope: check the product"
 
 
-def _depth_text(depth_m: float, unit: str) -> str:
-    """A trench depth for the designation: metres, or feet with the metres (``unit`` ft)."""
-    if unit == "ft":
-        return f"{depth_m / FOOT_M:.2f} ft ({depth_m:g} m)"
-    return f"{depth_m:g} m"
-
-
 def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
-    d = designation("trench")
+    d = designation("trench_us" if unit == "ft" else "trench")
     t = segments.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
     return [
         {
@@ -538,7 +533,9 @@ def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
             "depth_m": float(r.depth_m),
             "quantity": float(r.length_m),
             "unit": "m",
-            "designation": d["text"].format(laying=r.laying, depth=_depth_text(r.depth_m, unit)),
+            "designation": d["text"].format(
+                laying=r.laying, depth=f"{r.depth_m:g}", depth_ft=f"{r.depth_m / FOOT_M:.2f}"
+            ),
             "tag": d["tag"],
         }
         for r in t.itertuples(index=False)
@@ -574,7 +571,7 @@ def _fuse_lines(circuits: pd.DataFrame, dc_v: float, nec: bool = False) -> list[
 
 
 def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> list[dict]:
-    d = designation("nec_breaker" if device == "nec" else f"breaker_{device}")
+    d = designation(f"breaker_{device}")
     ac = (circuits["kind"] == "ac").to_numpy()
     frame = pd.DataFrame(
         {
@@ -589,7 +586,7 @@ def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> l
     )
     lines = []
     # the scope clauses quoted in the data (UL 489: no scope limit in the data, none checked)
-    limit = {"iec60898-1": 440.0, "nec": math.inf}.get(device, 1000.0)
+    limit = {"iec60898-1": 440.0, "nec240.6a": math.inf}.get(device, 1000.0)
     for (rating, poles), r in g.iterrows():
         volts = f"{r.voltage_v:g}"
         note = ""
@@ -608,7 +605,7 @@ def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> l
                 "designation": d["text"].format(
                     rating=f"{rating:g}", poles=int(poles), volts=volts
                 ),
-                "standard": "UL 489" if device == "nec" else d["standard"],
+                "standard": "UL 489" if device == "nec240.6a" else d["standard"],
                 "source": _source(d),
                 "tag": d["tag"],
                 "note": note,
