@@ -96,6 +96,10 @@ def summary_rows(summary: dict[str, Any]) -> pd.DataFrame:
         add(("Design", "rule set", s.pop("rules"), ""))
     if "marking" in s:
         add(("Design", "conductor identification", s.pop("marking"), ""))
+    if "units" in s:
+        units = s.pop("units")
+        text = {"si": "si (metres)", "us": "us (feet: international foot, 0.3048 m)"}
+        add(("Design", "units of the bill of quantities", text.get(units, units), ""))
     if "ok" in s:
         add(("Result", "every circuit, trench segment and inverter input within its limits",
              s.pop("ok"), ""))  # fmt: skip

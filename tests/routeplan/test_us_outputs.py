@@ -214,6 +214,17 @@ def test_summary_and_report_say_feet(us_plan):
     for c in summary["conductor_m"]:
         assert c["conductor_ft"] == pytest.approx(c["conductor_m"] / 0.3048, abs=0.02)
         assert c["size_label"] == f"{c['size_mm2']:g} mm²"
+    # the workbook's summary sheet names the unit system
+    import openpyxl
+
+    wb = openpyxl.load_workbook(us_plan / "cable_schedule.xlsx", read_only=True)
+    rows = list(wb["summary"].iter_rows(values_only=True))
+    assert (
+        "Design",
+        "units of the bill of quantities",
+        "us (feet: international foot, 0.3048 m)",
+        None,
+    ) in rows
     report = (us_plan / "report.html").read_text(encoding="utf-8")
     assert "conductor ft" in report and "international foot, 1 ft = 0.3048 m exactly" in report
 
