@@ -49,8 +49,6 @@ import numpy as np
 from calc.errors import ConvergenceError, InputError, TableRangeError, check_option
 from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_SYSTEMS, conductor_marking
-from calc.pv import voc_max_v
-from calc.resistance import r_at_temp_ohm_km
 from calc.rules import RuleSet, get_rules
 from calc.tables import load_table
 from calc.vdrop import CONDUCTOR_TEMP_MODES, conductor_temp_c, vdrop_pct, vdrop_v
@@ -238,7 +236,14 @@ class DesignParams:
     min_ambient_c : lowest expected ambient (= module) temperature [°C] for the maximum d.c.
         voltage; −10 °C by default (common practice: set the site's record low).
     dc_rated_v : rated d.c. voltage of the cables and equipment [V] the strings' maximum Voc is
-        checked against; 1500 by default (the usual PV system voltage class, common practice).
+        checked against; 1500 by default (the usual PV system voltage class, common practice;
+        NEC equipment is rated 600, 1000 or 1500 V).
+    terminal_temp_c : nec only: temperature rating of the terminations [°C] (110.14(C)), 60, 75
+        or 90; None = 75 (equipment marked 75 °C, common practice). Set 90 only where the
+        equipment is marked for 90 °C.
+    buried_rating : how buried circuits are rated: "table" (the rule set's tables; under nec
+        Table 310.16 with a review note on every buried circuit). "engineered" (an IEC 60287 /
+        Neher–McGrath calculation, NEC 310.14(B)) is refused until it exists.
     """
 
     ground_temp_c: float = 20.0
@@ -279,6 +284,8 @@ class DesignParams:
     frequency_hz: float = 50.0
     min_ambient_c: float = -10.0
     dc_rated_v: float = 1500.0
+    terminal_temp_c: float | None = None
+    buried_rating: str = "table"
 
 
 @dataclass
@@ -305,6 +312,14 @@ class SizingResult:
     Ib), ac_breaker_a (In); protection (which rule governed, text); governing_air (the air
     stretch that governs, −1 if none or not air); ok; note (reason or assumption, "" if none) and
     marking (conductor identification) as object arrays of str.
+
+    Rule sets with a second, uncorrected ampacity condition (nec: 690.8(B)(1) with the 110.14(C)
+    termination column): terminal_required_a (1.25 × the maximum current, all parallel sets) and
+    terminal_ampacity_a (the table value in the termination's column, uncorrected, × parallel);
+    nan under iec. design_current_a / ampacity_a are then the 690.8(B)(2) condition (maximum
+    current against the corrected and adjusted ampacity) and utilisation is the larger of the two
+    ratios — the governing condition. Under nec, group_count and factor_group count
+    current-carrying conductors (Table 310.15(C)(1)), not circuits.
 
     Per segment: seg_soil_factor, seg_depth_factor, seg_group_factor (in force with the final
     counts), seg_count_final (routing count incl. extra parallel sets). Per air stretch:
@@ -360,6 +375,8 @@ class SizingResult:
     total_loss_w: np.ndarray
     total_loss_pct: np.ndarray
     total_energy_loss_kwh: np.ndarray
+    terminal_required_a: np.ndarray
+    terminal_ampacity_a: np.ndarray
     iterations: int = 0
     rules: str = "iec"
 
@@ -594,6 +611,7 @@ def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
 
 
 def _check_design(design: DesignParams, rs: RuleSet) -> None:
+    rs.check_design(design)
     check_option("material_array", design.material_array, rs.materials)
     check_option("material_subarray", design.material_subarray, rs.materials)
     check_option("insulation_subarray", design.insulation_subarray, rs.insulations)
@@ -658,6 +676,7 @@ class _KindData:
     x: dict  # phases -> [S]
     k_sc: np.ndarray | None  # [S]
     p_max: int
+    term: np.ndarray | None = None  # [3, S] uncorrected capacity per environment (nec 690.8(B)(1))
 
 
 def _cable_of(kind: int, design: DesignParams, rs: RuleSet) -> tuple[str, str, np.ndarray]:
@@ -687,16 +706,17 @@ def size_list_mm2(kind: int, design: DesignParams | None = None, rules: str = "i
 def larger_sizes_mm2(
     kind: int, design: DesignParams | None = None, rules: str = "iec"
 ) -> np.ndarray:
-    """The IEC 60228 nominal cross-sections larger than every size in a kind's list that the
-    rule set can size for that kind's cable (a resistance and a tabulated capacity in every
+    """The rule set's standard sizes larger than every size in a kind's list that the rule
+    set can size for that kind's cable (a resistance and a tabulated capacity in every
     environment), ascending [mm²]: the sizes a failing circuit could still be given.
 
-    Source of the candidates: IEC 60228:2004 Tables 2 and 3 (calc/data's resistance table).
+    Source of the candidates: :meth:`calc.rules.RuleSet.nominal_sizes_mm2` (iec: IEC 60228:2004
+    Tables 2 and 3; nec: Chapter 9 Table 8).
     """
     design = design if design is not None else DesignParams()
     rs = get_rules(rules)
     material, insulation, sizes = _cable_of(kind, design, rs)
-    nominal = np.unique(load_table("iec60228_2004_conductor_resistance.csv")["size_mm2"])
+    nominal = rs.nominal_sizes_mm2()
     out = []
     for s in nominal[nominal > sizes.max(initial=0.0)].tolist():
         try:
@@ -738,8 +758,10 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
             )
     x = {ph: rs.reactance_ohm_km(s, insulation, ph) for ph in (1, 3)}
     k_sc = None
-    if kind == KIND_AC and design.fault_ka is not None:
+    if kind == KIND_AC and design.fault_ka is not None and not rs.short_circuit_note():
         k_sc = rs.k_adiabatic(material, insulation, s)
+    term = [rs.terminal_capacity_a(kind, material, insulation, e, s, design) for e in ENV_NAMES]
+    term = None if term[0] is None else np.stack(term)
     return _KindData(
         kind=kind,
         idx=idx,
@@ -753,6 +775,7 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
         x=x,
         k_sc=k_sc,
         p_max=1 if kind == KIND_STRING else int(design.max_parallel),
+        term=term,
     )
 
 
@@ -833,7 +856,7 @@ def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_op
 # selection for one kind
 
 
-def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) -> dict:
+def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs, per_set=None) -> dict:
     """Pick (parallel, size) for the circuits ``kd.idx[sub]``; per-circuit details in that order."""
     idx = kd.idx[sub]
     k = idx.size
@@ -855,6 +878,8 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
         mask_c[gi] = True
         delta = np.zeros(n)
         delta[gi] = pp - p_cur[gi]
+        if per_set is not None:  # grouping counts conductors
+            delta[gi] *= per_set[gi]
         bur = _governing_buried(a, seg["fixed"], counts[0], mask_c, delta, rs)
         t_open, t_row = c["t_open"][kd.kind], c["t_air"][kd.kind]
         air = _governing_air(a, counts[1], mask_c, delta, rs, c["arrangement"], t_open, t_row)
@@ -880,6 +905,33 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
     det["s_idx"] = out_s
     det["size"] = kd.sizes[out_s]
     return det
+
+
+def _group_units(a: dict, rs: RuleSet) -> np.ndarray | None:
+    """Per circuit, what one cable set adds to a grouping count: None where the rule set counts
+    circuits (cable sets), else its current-carrying conductors."""
+    if rs.group_counts == "circuits":
+        return None
+    phases = np.where(a["kind"] == KIND_AC, a["phases"], 0)
+    return np.asarray(rs.current_carrying_conductors(a["kind"], phases), dtype=float)
+
+
+def _group_base(a: dict, per_set: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Conductors per trench segment and per air stretch with one set per circuit: those of the
+    incident circuits, plus, for circuits counted by routing but not given to calc, the most
+    conductors of any circuit there (2 where none is given) each (conservative)."""
+    out = []
+    for inc_c, inc_s, count in (
+        (a["inc_circuit"], a["inc_segment"], a["seg_count"]),
+        (a["air_inc_circuit"], a["air_inc_stretch"], a["air_count"]),
+    ):
+        size = count.size
+        given = np.bincount(inc_s, weights=per_set[inc_c], minlength=size)
+        incident = np.bincount(inc_s, minlength=size)
+        most = np.full(size, 2.0)
+        np.maximum.at(most, inc_s, per_set[inc_c])
+        out.append(given + np.maximum(count - incident, 0) * most)
+    return out[0], out[1]
 
 
 def _air_temp_c(design: DesignParams, kind: int) -> float:
@@ -935,7 +987,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     theta_max = np.where(env == 0, kd.theta_air, kd.theta_bur)
     amb = np.where(env == 0, _air_temp_c(design, kd.kind), design.ground_temp_c)
     theta = conductor_temp_c(design.conductor_temp, theta_max, amb, i_op, cap_tot)
-    r = r_at_temp_ohm_km(kd.r20[None, :], theta, kd.material)
+    r = rs.r_at_temp_ohm_km(kd.r20[None, :], theta, kd.material)
     ph = c["phases_eff"][gi]
     if kd.kind == KIND_AC:  # skin and proximity effect, IEC 60287-1-1
         r = r * rs.ac_resistance_factor(
@@ -951,6 +1003,20 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     # carry the backfeed itself: that is what it is held to, fitting or not
     fusable = np.isfinite(i_prot)
     i_req = np.where(carries | ~fusable, np.maximum(i_des, i_bf), np.maximum(i_des, i_prot))
+    req1 = cap1 = np.full(ok_cap.shape, np.nan)
+    if kd.term is not None:  # a second condition before correction (nec 690.8(B)(1))
+        present = np.isfinite(f_env)[:, :, None]  # [3, k, 1]
+        cap1 = np.min(np.where(present, kd.term[:, None, :], np.inf), axis=0) * pp  # [k, S]
+        req1 = np.broadcast_to(rs.terminal_required_a(i_des), ok_cap.shape)
+        ok_cap = ok_cap & (cap1 >= req1 * (1.0 - _EPS))
+        # the device each size would have: string fuse / a.c. breaker, or the array fuse where
+        # the size does not carry the backfeed; protection with the limited ampacity (240.4)
+        ocpd = np.where(carries, c["ocpd"][gi][:, None], c["array_fuse"][gi][:, None])
+        prot = rs.conductor_protected(
+            ocpd, np.minimum(cap_tot, cap1), kd.sizes[None, :], kd.material
+        )
+        if prot is not None:
+            ok_cap = ok_cap & prot
     ok_vd = pct <= budget[:, None] + _EPS
     ok = ok_cap & ok_vd
     if kd.k_sc is not None:
@@ -978,6 +1044,8 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
         "pct": pct,
         "smin": smin_m,
         "no_env": np.broadcast_to(no_env[:, None], env.shape),
+        "req1": req1,
+        "cap1": cap1,
     }
 
 
@@ -1119,6 +1187,9 @@ def size_circuits(
     below = np.zeros(n)
     counts = prev = air_counts = air_prev = None
     affected = np.ones(n, dtype=bool)
+    # what the grouping factors count: circuits (cable sets), or current-carrying conductors
+    per_set = _group_units(a, rs)
+    group_base = None if per_set is None else _group_base(a, per_set)
     iterations = 0
     # a pass that does not settle adds at least one conductor set (a circuit's count never falls:
     # _select starts from it) and no circuit exceeds max_parallel, so the iteration settles
@@ -1133,6 +1204,17 @@ def size_circuits(
             a["air_inc_stretch"], weights=(p - 1)[a["air_inc_circuit"]].astype(float),
             minlength=r_air,
         )  # fmt: skip
+        if per_set is None:
+            group = (counts, air_counts)
+        else:  # conductors: each extra set adds its circuit's conductors
+            extra = ((p - 1) * per_set).astype(float)
+            group = (
+                group_base[0]
+                + np.bincount(a["inc_segment"], weights=extra[a["inc_circuit"]], minlength=m),
+                group_base[1]
+                + np.bincount(a["air_inc_stretch"], weights=extra[a["air_inc_circuit"]],
+                              minlength=r_air),
+            )  # fmt: skip
         if prev is not None:
             changed = counts != prev
             air_changed = air_counts != air_prev
@@ -1154,7 +1236,7 @@ def size_circuits(
             if sub.size == 0:
                 continue
             new = _select(
-                kd[k], sub, a, c, seg, (counts, air_counts), p, budgets[kinds[k][sub]], design, rs
+                kd[k], sub, a, c, seg, group, p, budgets[kinds[k][sub]], design, rs, per_set
             )
             if k not in det:
                 det[k] = {key: np.zeros(kinds[k].size, val.dtype) for key, val in new.items()}
@@ -1173,7 +1255,7 @@ def size_circuits(
         raise ConvergenceError(f"parallel/grouping iteration did not settle in {max_passes} passes")
     child_max = _child_max(a["parent"], below, n)
 
-    c.update(p_w=p_w)
+    c.update(p_w=p_w, group_final=group)
     settled = _Settled(det, counts, air_counts, budgets, child_max, iterations)
     return _assemble(a, c, kd, kinds, settled, design, rs)
 
@@ -1254,6 +1336,7 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     )
     i_op = np.where(dc, a["imp_a"] * a["n_strings"], ib)
     return {
+        "ocpd": np.where(is_str, fuse_a, breaker_in),  # the device fitted (nan: none)
         "isc_design": np.where(dc, isc_total, np.nan),
         "i_design": i_design,
         "i_backfeed": i_backfeed,
@@ -1272,15 +1355,15 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     }
 
 
-def _voc_max(a: dict, design: DesignParams) -> np.ndarray:
+def _voc_max(a: dict, design: DesignParams, rs: RuleSet) -> np.ndarray:
     """Each d.c. circuit's highest open-circuit voltage [V] (:func:`calc.pv.voc_max_v`): a
     string's at ``min_ambient_c``; a feeder's, the highest of the strings below it."""
     kind, par, level = a["kind"], a["parent"], a["level"]
     out = np.full(kind.size, np.nan)
     s = kind == KIND_STRING
-    out[s] = voc_max_v(a["voc_v"][s], a["voc_coeff_pct_per_c"][s], design.min_ambient_c)
+    out[s] = rs.voc_max_v(a["voc_v"][s], a["voc_coeff_pct_per_c"][s], design.min_ambient_c)
     given = np.isin(kind, FEEDER_KINDS)
-    out[given] = voc_max_v(
+    out[given] = rs.voc_max_v(
         a["voc_v"][given], a["voc_coeff_pct_per_c"][given], design.min_ambient_c
     )  # a feeder given without its strings
     top = np.full(kind.size, -np.inf)
@@ -1371,8 +1454,9 @@ def _with_feeders_above(parent: np.ndarray, affected: np.ndarray) -> np.ndarray:
     return out
 
 
-def _fmt_size(pp: int, size: float, material: str) -> str:
-    return f"{pp}×{size:g} mm² {material}" if pp > 1 else f"{size:g} mm² {material}"
+def _fmt_size(pp: int, size: float, material: str, rs: RuleSet | None = None) -> str:
+    text = f"{size:g} mm²" if rs is None else rs.size_text(size)
+    return f"{pp}×{text} {material}" if pp > 1 else f"{text} {material}"
 
 
 def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
@@ -1407,6 +1491,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         "r_ohm_km": np.full(n, np.nan),
     }
     i_req = np.full(n, np.nan)
+    req1, cap1 = np.full(n, np.nan), np.full(n, np.nan)
     carries = np.ones(n, bool)
     fail_cap = np.zeros(n, bool)
     fail_vd = np.zeros(n, bool)
@@ -1434,6 +1519,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         out["sc_min_mm2"][idx] = d["smin"]
         out["r_ohm_km"][idx] = d["r"]
         i_req[idx] = d["i_req"]
+        req1[idx], cap1[idx] = d["req1"], d["cap1"]
         carries[idx] = d["carries"]
         fail_cap[idx] = ~d["ok_cap"]
         fail_vd[idx] = ~d["ok_vd"]
@@ -1445,6 +1531,9 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     i_op = c["i_op"]
     i_design = i_req  # the capacity each circuit is held to, backfeed and protection included
     utilisation = i_design / out["ampacity_a"]
+    has_term = np.isfinite(req1)
+    if has_term.any():  # the governing of the two conditions (nec 690.8(B))
+        utilisation = np.where(has_term, np.fmax(utilisation, req1 / cap1), utilisation)
 
     # cumulative d.c. drop: the worst path through each circuit, from a string to the inverter
     # (the drop below it, its own, and the feeders' above it)
@@ -1478,7 +1567,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     arr_check = _check(is_arr, lambda i: rs.array_cable_check(iz[i], bf[i], arr_fuse[i]))
     ac_check = _check(is_ac, lambda i: rs.overload_check(c["ib"][i], b_in[i], iz[i], b_i2[i]))
     prot_ok = np.where(is_str, prot.ok, np.where(is_ac, c["breaker_ok"], True))
-    voc_max = _voc_max(a, design)
+    voc_max = _voc_max(a, design, rs)
     over_voltage = voc_max > design.dc_rated_v * (1.0 + _EPS)
     prot_ok &= ~over_voltage
     ok = ~(fail_cap | fail_vd | fail_sc | fail_path) & prot_ok & arr_check[0] & ac_check[0]
@@ -1488,7 +1577,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         over_voltage,
         lambda i: (
             f"Voc {voc_max[i]:.0f} V at {design.min_ambient_c:g} °C exceeds the rated "
-            f"{design.dc_rated_v:g} V (IEC 62548)"
+            f"{design.dc_rated_v:g} V ({rs.voc_source})"
         ),
         (voc_max,),
     )
@@ -1512,6 +1601,15 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         (c["isc_design"],),
     )
     _add_notes(notes, no_env, lambda i: "no route environment given: in air assumed")
+    for env, lay in _LAYING_OF_ENV.items():  # buried ratings the rule set flags for review
+        text = rs.buried_note(env)
+        if text and m:
+            on = a["inc_circuit"][a["seg_laying"][a["inc_segment"]] == lay]
+            routed = np.zeros(n, dtype=bool)
+            routed[on] = True
+            _add_notes(notes, routed, lambda i, t=text: t)
+    if design.fault_ka is not None and rs.short_circuit_note():
+        _add_notes(notes, is_ac, lambda i: rs.short_circuit_note())
     deriv = out["derating"]
 
     def cap_note(i):
@@ -1521,7 +1619,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
             why = f" (backfeed {c['i_backfeed'][i]:.0f} A from its input, with {how})"
         return (
             f"needs {i_design[i]:.0f} A{why} after derating {deriv[i]:.2f}; largest allowed "
-            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i])} "
+            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)} "
             f"carries {out['ampacity_a'][i]:.0f} A"
         )
 
@@ -1534,7 +1632,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
             )
         return (
             f"voltage drop {own[i]:.2f} % exceeds {budgets[i]:.2f} %{extra} with largest "
-            f"allowed {_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i])}"
+            f"allowed {_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)}"
         )
 
     def sc_note(i):
@@ -1550,9 +1648,32 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         )
 
     size_keys = (out["parallel"], out["size_mm2"], out["material"])
+    # nec: the uncorrected condition (690.8(B)(1)) or the 240.4 protection may fail instead
+    term_fail = fail_cap & (req1 > cap1 * (1.0 + _EPS))
+    main_fail = fail_cap & ~(has_term & ~(i_design > out["ampacity_a"] * (1.0 + _EPS)))
+    prot_fail = fail_cap & ~term_fail & ~main_fail
+
+    def term_note(i):
+        return (
+            f"needs 1.25 × {i_design[i]:.0f} A = {req1[i]:.0f} A before correction in the "
+            f"{rs.terminal_c(design)} °C terminal column (690.8(B)(1), 110.14(C)); largest allowed "
+            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)} has "
+            f"{cap1[i]:.0f} A"
+        )
+
+    def prot_note(i):
+        dev = c["ocpd"][i] if np.isfinite(c["ocpd"][i]) else c["array_fuse"][i]
+        return (
+            f"the {dev:g} A device does not protect the largest allowed "
+            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)} "
+            f"(ampacity {min(out['ampacity_a'][i], cap1[i]):.0f} A with the terminal limit; 240.4)"
+        )
+
+    _add_notes(notes, term_fail, term_note, (i_design, req1, cap1, *_size_keys(out)))
+    _add_notes(notes, prot_fail, prot_note, (c["ocpd"], c["array_fuse"], cap1, *_size_keys(out)))
     _add_notes(
         notes,
-        fail_cap,
+        main_fail,
         cap_note,
         (i_design, deriv, out["ampacity_a"], c["i_backfeed"], *size_keys),
     )
@@ -1561,10 +1682,11 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     _add_notes(notes, fail_path, path_note, (total, par))
     for check, mask in ((arr_check, is_arr), (ac_check, is_ac)):
         _add_notes(notes, mask & ~check[0] & ~fail_cap, lambda i, t=check[1]: t[i], (check[1],))
-    protection = _protection_text(a, c, carries, arr_fuse, iz, design)
+    protection = _protection_text(a, c, carries, arr_fuse, iz, design, rs)
 
     seg_cnt = counts
-    seg_group = rs.group_factor(seg_cnt, a["seg_spacing_m"], a["seg_laying"]) if m else np.zeros(0)
+    grouped = c["group_final"][0]  # circuits, or conductors (rs.group_counts)
+    seg_group = rs.group_factor(grouped, a["seg_spacing_m"], a["seg_laying"]) if m else np.zeros(0)
     marking = conductor_marking(kind, c["phases_eff"], a["ac_v"], design.marking)
     out.pop("r_ohm_km")
     return SizingResult(
@@ -1597,9 +1719,16 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         total_loss_w=tot_loss,
         total_loss_pct=tot_pct,
         total_energy_loss_kwh=energy_loss_kwh(tot_loss, design.loss_hours_h),
+        terminal_required_a=req1,
+        terminal_ampacity_a=cap1,
         iterations=iterations,
         rules=rs.name,
     )
+
+
+def _size_keys(out: dict) -> tuple:
+    """The per-circuit arrays a note naming the chosen size depends on."""
+    return (out["parallel"], out["size_mm2"], out["material"])
 
 
 def _check(mask: np.ndarray, run) -> tuple[np.ndarray, np.ndarray]:
@@ -1614,7 +1743,7 @@ def _check(mask: np.ndarray, run) -> tuple[np.ndarray, np.ndarray]:
     return ok, note
 
 
-def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
+def _protection_text(a, c, carries, arr_fuse, iz, design, rs) -> np.ndarray:
     """Which protection rule governed each circuit, in words (the schedule's ``protection``)."""
     kind = a["kind"]
     text = np.full(kind.size, "", dtype=object)
@@ -1626,7 +1755,9 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     _fill(
         text,
         fused,
-        lambda i: f"string fuse {c['fuse_a'][i]:g} A gPV; {s_par[i]:g} strings in parallel",
+        lambda i: (
+            f"string fuse {c['fuse_a'][i]:g} A {rs.fuse_word}; {s_par[i]:g} strings in parallel"
+        ),
         (c["fuse_a"], s_par),
     )
     _fill(
@@ -1641,7 +1772,8 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
         text,
         is_arr & (bf > 0) & np.isfinite(arr_fuse),
         lambda i: (
-            f"{what[i]} fuse {arr_fuse[i]:g} A gPV: backfeed {bf[i]:.0f} A > Iz {iz[i]:.0f} A"
+            f"{what[i]} fuse {arr_fuse[i]:g} A {rs.fuse_word}: backfeed {bf[i]:.0f} A > Iz "
+            f"{iz[i]:.0f} A"
         ),
         (arr_fuse, bf, iz, what),
     )
@@ -1659,10 +1791,7 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     _fill(
         text,
         is_ac & np.isfinite(b_in),
-        lambda i: (
-            f"breaker {b_in[i]:g} A ({design.ac_breaker_device}): Ib {ib[i]:.0f} A ≤ In ≤ "
-            f"Iz {iz[i]:.0f} A"
-        ),
+        lambda i: rs.breaker_text(b_in[i], ib[i], iz[i], design.ac_breaker_device),
         (b_in, ib, iz),
     )
     return text

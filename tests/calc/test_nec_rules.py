@@ -1,4 +1,4 @@
-"""The NEC 2023 rule set class: what it supports, what it refuses, and that it is not registered."""
+"""The NEC 2023 rule set class: what it supports, what it refuses, and its registration."""
 
 import numpy as np
 import pytest
@@ -12,10 +12,11 @@ from calc.rules.nec import NecRules
 FT = 0.3048
 
 
-def test_nec_is_not_registered_yet():
-    assert rule_names() == ("iec",)
-    with pytest.raises(UnknownOptionError, match="rules must be one of 'iec'; got 'nec'"):
-        get_rules("nec")
+def test_nec_is_registered():
+    assert rule_names() == ("iec", "nec")
+    assert isinstance(get_rules("nec"), NecRules)
+    with pytest.raises(UnknownOptionError, match="rules must be one of 'iec', 'nec'; got 'NEC'"):
+        get_rules("NEC")
 
 
 def test_default_sizes_are_awg_and_kcmil():
@@ -47,17 +48,47 @@ def test_capacity_in_air_and_in_raceway_in_the_ground():
     assert r.air_temp_factor(45.0, "90C") == 0.87
 
 
-def test_direct_burial_and_other_unsupported_parts_are_refused_with_the_reason():
+def test_direct_burial_uses_table_310_16_with_a_review_note_and_no_soil_or_depth_factor():
     r = NecRules()
     s = size_from_label(["4/0 AWG"])
-    with pytest.raises(InputError, match="direct burial is not available yet"):
-        r.base_capacity_a(1, "Cu", "90C", 3, "D2", s, "")
-    with pytest.raises(InputError, match="soil thermal resistivity"):
-        r.soil_factor(np.array([1.0]), np.array([0]))
-    with pytest.raises(InputError, match="grouping in air"):
-        r.air_group_factor(np.array([2]), "bunched")
-    with pytest.raises(InputError, match="overload check"):
-        r.overload_check(1.0, 1.0, 1.0, 1.0)
+    # NEC 2023 Table 310.16 (raceway, cable or earth) Cu 90 °C 4/0 AWG 260 A (confirmed)
+    assert r.base_capacity_a(1, "Cu", "90C", 3, "D2", s, "")[0] == 260.0
+    assert r.soil_factor(np.array([1.0, 3.0]), np.array([0, 1])).tolist() == [1.0, 1.0]
+    assert r.depth_factor(np.array([0.5]), np.array([0.04])).tolist() == [1.0]
+    assert "review" in r.buried_note("D2") and "soil" in r.buried_note("D2")
+    assert "direct-buried" in r.buried_note("D2") and "in duct" in r.buried_note("D1")
+
+
+def test_grouping_counts_conductors_by_table_310_15_c_1():
+    # NEC 2023 Table 310.15(C)(1): 4-6 conductors 80 %, 7-9 70 %, 10-20 50 % (confirmed)
+    r = NecRules()
+    assert r.group_counts == "conductors"
+    got = r.air_group_factor(np.array([3, 4, 9, 20]), "bunched")
+    assert got.tolist() == [1.0, 0.8, 0.7, 0.5]
+    assert r.air_group_factor(np.array([20]), "spaced").tolist() == [1.0]
+    assert r.group_factor(
+        np.array([6.0, 7.0]), np.array([0.0, 0.3]), np.array([0, 1])
+    ).tolist() == [
+        0.8,
+        0.7,
+    ]
+    # 2 per d.c. circuit, 3 per three-phase a.c. circuit (310.15(E): neutral not counted)
+    assert r.current_carrying_conductors(
+        np.array([0, 1, 2, 2]), np.array([0, 0, 3, 1])
+    ).tolist() == [
+        2,
+        2,
+        3,
+        2,
+    ]
+
+
+def test_iec_only_parts_are_refused_with_the_reason():
+    r = NecRules()
+    with pytest.raises(InputError, match="I2"):
+        r.i2_factor("nec240.6a")
+    with pytest.raises(InputError, match="adiabatic"):
+        r.k_adiabatic("Cu", "90C", size_from_label(["4/0 AWG"]))
 
 
 def test_ac_resistance_factor_from_tables_9_and_8():
