@@ -144,6 +144,8 @@ def design_params(design: DesignConfig) -> calc.DesignParams:
         frequency_hz=v["frequency_hz"],
         min_ambient_c=v["min_ambient_c"],
         dc_rated_v=v["dc_rated_v"],
+        terminal_temp_c=unset(v["terminal_temp_c"]),
+        buried_rating=v["buried_rating"],
     )
 
 

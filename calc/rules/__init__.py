@@ -208,6 +208,8 @@ class RuleSet(abc.ABC):
     group_counts: ClassVar[str] = "circuits"
     #: where the maximum d.c. voltage rule comes from (named in the circuit's note)
     voc_source: ClassVar[str] = "IEC 62548"
+    #: a.c. frequency a design takes unless it sets one [Hz]
+    default_frequency_hz: ClassVar[float] = 50.0
     #: the PV fuses' designation in the protection text
     fuse_word: ClassVar[str] = "gPV"
 

@@ -89,6 +89,8 @@ class NecRules(RuleSet):
     group_counts: ClassVar[str] = "conductors"
     voc_source: ClassVar[str] = "NEC 2023 690.7"
     fuse_word: ClassVar[str] = "(240.6(A), 690.9)"
+    #: Chapter 9 Table 9 is for 60 Hz
+    default_frequency_hz: ClassVar[float] = 60.0
 
     def breaker_text(self, in_a, ib_a, iz_a, device):
         """Breaker ≥ 1.25 × the continuous current; 240.4 against the ampacity."""
