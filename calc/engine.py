@@ -130,6 +130,9 @@ class SizingInput:
     circuits routed through it as counted by routing (calc uses at least the number of incident
     circuits given).
 
+    ``seg_length_m`` (optional, nan = not given) the segment's length [m], used only by a rule set
+    with a short-section exception (nec 310.15(A)); likewise ``air_length_m`` per air stretch.
+
     Incidence (length q): ``inc_circuit[k]`` passes ``inc_segment[k]``.
 
     Stretches in air (length r, e.g. a shared stub or a row's run): ``air_count`` circuits
@@ -167,12 +170,14 @@ class SizingInput:
     seg_spacing_m: np.ndarray | None = None
     seg_soil_k_m_w: np.ndarray | None = None
     seg_count: np.ndarray | None = None
+    seg_length_m: np.ndarray | None = None
     inc_circuit: np.ndarray | None = None
     inc_segment: np.ndarray | None = None
     air_count: np.ndarray | None = None
     air_behind_modules: np.ndarray | None = None
     air_inc_circuit: np.ndarray | None = None
     air_inc_stretch: np.ndarray | None = None
+    air_length_m: np.ndarray | None = None
 
 
 def design_default(name: str) -> float:
@@ -512,10 +517,18 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     a["seg_spacing_m"] = _arr(inp.seg_spacing_m, m, 0.0)
     a["seg_soil_k_m_w"] = _arr(inp.seg_soil_k_m_w, m, 2.5)
     a["seg_count"] = _arr(inp.seg_count, m, 1.0)
+    a["seg_length_m"] = _arr(inp.seg_length_m, m, np.nan)
     for name in ("inc_circuit", "inc_segment"):
         value = getattr(inp, name)
         a[name] = np.zeros(0, np.int64) if value is None else np.asarray(value, np.int64).ravel()
-    for name in ("seg_depth_m", "seg_laying", "seg_spacing_m", "seg_soil_k_m_w", "seg_count"):
+    for name in (
+        "seg_depth_m",
+        "seg_laying",
+        "seg_spacing_m",
+        "seg_soil_k_m_w",
+        "seg_count",
+        "seg_length_m",
+    ):
         if a[name].shape != (m,):
             problems.append(f"{name} must have length {m} (one per segment)")
     if a["inc_circuit"].shape != a["inc_segment"].shape:
@@ -602,6 +615,10 @@ def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
     if behind.shape != (r,):
         raise InputError(f"air_behind_modules must have length {r} (one per air stretch)")
     a["air_behind_modules"] = behind
+    length = _arr(inp.air_length_m, r, np.nan)
+    if length.shape != (r,):
+        raise InputError(f"air_length_m must have length {r} (one per air stretch)")
+    a["air_length_m"] = length
     bad = (ic < 0) | (ic >= n) | (ks < 0)
     if np.any(bad):
         raise InputError(f"air incidence pairs out of range at positions {_where(bad)}")
@@ -783,13 +800,26 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
 # governing buried segment per circuit
 
 
-def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> dict:
+def _runner_up(cr: np.ndarray, pr: np.ndarray, keep: np.ndarray, starts: np.ndarray):
+    """Position of the second smallest ``pr`` in each run of ``cr`` (``keep``: the smallest's);
+    ``cr.size`` where a run has one element."""
+    pr2 = pr.copy()
+    pr2[keep] = np.inf
+    lo2 = np.minimum.reduceat(pr2, starts)
+    rep2 = np.repeat(lo2, np.diff(np.r_[starts, cr.size]))
+    pos2 = np.where((pr2 == rep2) & np.isfinite(pr2), np.arange(cr.size), cr.size)
+    return np.minimum.reduceat(pos2, starts)
+
+
+def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet, short=False) -> dict:
     """Per circuit and laying, the incident segment with the smallest soil·depth·group product.
 
     Only incidences of circuits with ``rows_mask_c`` are evaluated; ``delta`` (per circuit) is added
     to the counts of that circuit's own segments (its candidate extra parallel sets). The incidence
     is sorted by circuit (see ``_prepare``), so minima are taken with ``reduceat`` over circuit
-    runs.
+    runs. With ``short`` (a rule set's short-section exception), ``out["alt"][env]`` also gives
+    whether that segment is short enough to be disregarded and the runner-up segment's
+    (product, segment, group factor, count) — inf / −1 where there is none.
     """
     n = rows_mask_c.size
     ic, js = a["inc_circuit"], a["inc_segment"]
@@ -799,7 +829,10 @@ def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> 
     g = rs.group_factor(cnt, a["seg_spacing_m"][s], a["seg_laying"][s])
     prod = seg_fixed[s] * g
     out = {}
+    alt = {}
     for env, lay in _LAYING_OF_ENV.items():
+        is_short, minp2 = np.zeros(n, dtype=bool), np.full(n, np.inf)
+        seg2, grp2, gcnt2 = np.full(n, -1, dtype=np.int64), np.ones(n), np.zeros(n)
         minp = np.full(n, np.inf)
         seg = np.full(n, -1, dtype=np.int64)
         grp = np.ones(n)
@@ -817,11 +850,26 @@ def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> 
             seg[who] = s[r][keep]
             grp[who] = g[r][keep]
             gcnt[who] = cnt[r][keep]
+            if short:
+                sr = s[r]
+                is_short[who] = rs.short_section(a["seg_length_m"][sr[keep]], a["cable_m"][who])
+                k2 = _runner_up(cr, pr, keep, starts)
+                has2 = k2 < cr.size
+                k2c = np.minimum(k2, cr.size - 1)
+                minp2[who] = np.where(has2, pr[k2c], np.inf)
+                seg2[who] = np.where(has2, sr[k2c], -1)
+                grp2[who] = np.where(has2, g[r][k2c], 1.0)
+                gcnt2[who] = np.where(has2, cnt[r][k2c], 0.0)
         out[env] = (minp, seg, grp, gcnt)
+        alt[env] = (is_short, minp2, seg2, grp2, gcnt2)
+    if short:
+        out["alt"] = alt
     return out
 
 
-def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_open, t_row):
+def _governing_air(
+    a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_open, t_row, short=False
+):
     """Per circuit, the air stretch with the smallest product of temperature and grouping
     factors: (product, stretch, count, grouping factor, temperature factor); a circuit without
     a stretch gets (nan, −1, 0, 1.0, nan).
@@ -830,6 +878,9 @@ def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_op
     added to the counts of that circuit's own stretches (its candidate extra parallel sets);
     ``arrangement`` is each circuit's arrangement in air; ``t_open`` / ``t_row`` the kind's
     temperature factor in open air / behind the modules. The incidence is sorted by circuit.
+    A sixth element is None, or with ``short`` (a rule set's short-section exception): whether
+    the governing stretch may be disregarded and the runner-up's (product, stretch, count,
+    grouping factor, temperature factor) — inf / −1 where there is none.
     """
     n = rows_mask_c.size
     ic, ks = a["air_inc_circuit"], a["air_inc_stretch"]
@@ -849,7 +900,21 @@ def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_op
         who = c[keep]
         f_min[who], stretch[who], gcnt[who] = f[keep], k[keep], cnt[keep]
         g_min[who], t_min[who] = g[keep], t[keep]
-    return f_min, stretch, gcnt, g_min, t_min
+    if not short:
+        return f_min, stretch, gcnt, g_min, t_min, None
+    is_short, f2, stretch2 = np.zeros(n, dtype=bool), np.full(n, np.inf), np.full(n, -1)
+    gcnt2, g2, t2 = np.zeros(n), np.ones(n), np.full(n, np.nan)
+    if c.size:
+        is_short[who] = rs.short_section(a["air_length_m"][k[keep]], a["cable_m"][who])
+        k2 = _runner_up(c, f, keep, starts)
+        has2 = k2 < c.size
+        k2c = np.minimum(k2, c.size - 1)
+        f2[who] = np.where(has2, f[k2c], np.inf)
+        stretch2[who] = np.where(has2, k[k2c], -1)
+        gcnt2[who] = np.where(has2, cnt[k2c], 0.0)
+        g2[who] = np.where(has2, g[k2c], 1.0)
+        t2[who] = np.where(has2, t[k2c], np.nan)
+    return f_min, stretch, gcnt, g_min, t_min, (is_short, f2, stretch2, gcnt2, g2, t2)
 
 
 # --------------------------------------------------------------------------------------------
@@ -880,9 +945,12 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs, pe
         delta[gi] = pp - p_cur[gi]
         if per_set is not None:  # grouping counts conductors
             delta[gi] *= per_set[gi]
-        bur = _governing_buried(a, seg["fixed"], counts[0], mask_c, delta, rs)
+        short = c["short"]
+        bur = _governing_buried(a, seg["fixed"], counts[0], mask_c, delta, rs, short)
         t_open, t_row = c["t_open"][kd.kind], c["t_air"][kd.kind]
-        air = _governing_air(a, counts[1], mask_c, delta, rs, c["arrangement"], t_open, t_row)
+        air = _governing_air(
+            a, counts[1], mask_c, delta, rs, c["arrangement"], t_open, t_row, short
+        )
         ev = _evaluate(kd, a, c, gi, pp, bur, air, budget[li], design, rs)
         ok = ev["ok"]
         anyok = ok.any(axis=1)
@@ -894,7 +962,7 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs, pe
         out_s[li[rows]] = s_idx[rows]
         chosen[li[rows]] = True
         picked = {key: mat[rows, s_idx[rows]] for key, mat in ev.items() if key != "ok"}
-        picked.update(_details(picked["env"], gi[rows], bur, air, c, kd))
+        picked.update(_details(picked["env"], gi[rows], bur, air, c, kd, picked.get("alt")))
         for key, vec in picked.items():
             if key not in det:
                 det[key] = np.zeros(k, dtype=vec.dtype)
@@ -976,6 +1044,9 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     with np.errstate(invalid="ignore"):
         cap_env = np.where(np.isfinite(f_env)[:, :, None], base * f_env[:, :, None], np.inf)
     env = np.argmin(cap_env, axis=0)  # [k, S]
+    alt = None
+    if "alt" in bur:  # a short governing stretch may be disregarded (nec 310.15(A) exception)
+        cap_env, env, alt = _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd)
     cap = np.take_along_axis(cap_env, env[None], axis=0)[0]  # per conductor set, derated
     base_g = np.take_along_axis(base, env[None], axis=0)[0]
     cap_tot = cap * pp
@@ -1046,24 +1117,61 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
         "no_env": np.broadcast_to(no_env[:, None], env.shape),
         "req1": req1,
         "cap1": cap1,
+        **({} if alt is None else {"alt": alt}),
     }
 
 
-def _details(env: np.ndarray, gi: np.ndarray, bur: dict, air_g: tuple, c: dict, kd) -> dict:
-    """Factors at the governing environment of the chosen size (vectors over circuits ``gi``)."""
+def _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd):
+    """Disregard the governing stretch where it is short (the rule set's
+    :meth:`~calc.rules.RuleSet.short_section`): its environment's capacity becomes that of the
+    environment's runner-up stretch (none: absent), and the governing environment is chosen
+    again. Only the one governing stretch is disregarded, and only where another stretch
+    remains. Returns (capacities [3, k, S], environment [k, S], whether the runner-up of the
+    environment governs [k, S])."""
+    a_short, a_f2 = air[5][0][gi], air[5][1][gi]
+    f2 = np.stack([a_f2, t_gnd * bur["alt"]["D1"][1][gi], t_gnd * bur["alt"]["D2"][1][gi]])
+    shorts = np.stack([a_short, bur["alt"]["D1"][0][gi], bur["alt"]["D2"][0][gi]])  # [3, k]
+    gshort = np.take_along_axis(np.broadcast_to(shorts[:, :, None], cap_env.shape), env[None], 0)[0]
+    with np.errstate(invalid="ignore"):
+        cap2 = np.where(np.isfinite(f2)[:, :, None], base * f2[:, :, None], np.inf)
+    mod = cap_env.copy()
+    e = env[None]
+    np.put_along_axis(mod, e, np.take_along_axis(cap2, e, 0), 0)
+    env2 = np.argmin(mod, axis=0)
+    applies = gshort & np.isfinite(np.min(mod, axis=0))
+    new_env = np.where(applies, env2, env)
+    used2 = applies & (env2 == env)
+    out = np.where(applies[None], mod, cap_env)
+    return out, new_env, used2
+
+
+def _details(
+    env: np.ndarray, gi: np.ndarray, bur: dict, air_g: tuple, c: dict, kd, alt=None
+) -> dict:
+    """Factors at the governing environment of the chosen size (vectors over circuits ``gi``);
+    ``alt``: where the environment's runner-up stretch governs (short-section exception)."""
     air = env == 0
-    t_air = np.where(np.isnan(air_g[4][gi]), c["t_air"][kd.kind], air_g[4][gi])
+    t_sel, g_sel, n_sel, k_sel = air_g[4][gi], air_g[3][gi], air_g[2][gi], air_g[1][gi]
+    if alt is not None and air_g[5] is not None:  # the runner-up stretch in air governs
+        _, _, k2, n2, g2, t2 = air_g[5]
+        t_sel, g_sel = np.where(alt, t2[gi], t_sel), np.where(alt, g2[gi], g_sel)
+        n_sel, k_sel = np.where(alt, n2[gi], n_sel), np.where(alt, k2[gi], k_sel)
+    t_air = np.where(np.isnan(t_sel), c["t_air"][kd.kind], t_sel)
     temp_f = np.where(air, t_air, c["t_gnd"][kd.kind])
     seg_i = np.full(env.shape, -1, dtype=np.int64)
-    group = np.where(air, air_g[3][gi], 1.0)
-    gcount = np.where(air, air_g[2][gi], 0.0)
-    stretch = np.where(air, air_g[1][gi], -1)
+    group = np.where(air, g_sel, 1.0)
+    gcount = np.where(air, n_sel, 0.0)
+    stretch = np.where(air, k_sel, -1)
     for e, name in ((1, "D1"), (2, "D2")):
         sel = env == e
         _, sg, gr, gc = bur[name]
-        seg_i = np.where(sel, sg[gi], seg_i)
-        group = np.where(sel, gr[gi], group)
-        gcount = np.where(sel, gc[gi], gcount)
+        sg, gr, gc = sg[gi], gr[gi], gc[gi]
+        if alt is not None and "alt" in bur:  # the runner-up segment governs
+            _, _, sg2, gr2, gc2 = bur["alt"][name]
+            sg, gr, gc = (np.where(alt, x2[gi], x) for x, x2 in ((sg, sg2), (gr, gr2), (gc, gc2)))
+        seg_i = np.where(sel, sg, seg_i)
+        group = np.where(sel, gr, group)
+        gcount = np.where(sel, gc, gcount)
     has = seg_i >= 0
     safe = np.maximum(seg_i, 0)
     soil = np.where(has, c["seg_soil"][safe] if c["seg_soil"].size else 1.0, 1.0)
@@ -1155,6 +1263,9 @@ def size_circuits(
         "phases_eff": phases_eff,
         "loaded": np.where(is_ac & (a["phases"] == 3), 3, 2),
         "arrangement": np.asarray(design.air_arrangement, dtype=object)[kind],
+        # the rule set's short-section exception, where the stretches' lengths are given
+        "short": rs.short_section(np.zeros(0), np.zeros(0)) is not None
+        and bool(np.isfinite(a["seg_length_m"]).any() or np.isfinite(a["air_length_m"]).any()),
         "t_air": {
             k: rs.air_temp_factor(_air_temp_c(design, k), d.insulation) for k, d in kd.items()
         },

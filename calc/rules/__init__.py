@@ -261,9 +261,11 @@ class RuleSet(abc.ABC):
         the rule set's buried ratings represent the installation (IEC: soil, depth, grouping)."""
         return ""
 
-    def short_section_max_m(self, cable_m: np.ndarray) -> np.ndarray | None:
-        """Longest stretch [m] whose lower capacity may be disregarded at a transition (NEC
-        310.15(A) exception); ``None`` where the rule set has no such exception (IEC)."""
+    def short_section(self, stretch_m: np.ndarray, circuit_m: np.ndarray) -> np.ndarray | None:
+        """Per stretch, whether it is short enough for its lower capacity to be disregarded at a
+        transition (the higher capacity of the rest of the circuit applies; NEC 310.15(A)
+        exception); ``None`` where the rule set has no such exception (IEC). nan lengths: not
+        short."""
         return None
 
     def voc_max_v(self, voc_v, voc_coeff_pct_per_c, min_temp_c: float) -> np.ndarray:

@@ -24,8 +24,10 @@ Registered in :mod:`calc.rules` (``[design] rules = "nec"``). The functions are 
   and spacing are not represented (factors 1), so every such circuit carries a review note
   (:meth:`NecRules.buried_note`). ``buried_rating = "engineered"`` (310.14(B): IEC 60287 /
   Neher–McGrath) is refused until that method exists.
-* **310.15(A) exception**: the governing stretch may be disregarded where it is no longer than
-  10 ft or 10 % of the circuit, whichever is less (:meth:`NecRules.short_section_max_m`).
+* **310.15(A) exception**: the governing stretch (trench segment or air stretch) may be
+  disregarded where it is no longer than 10 ft or 10 % of the rest of the circuit, whichever is
+  less (:meth:`NecRules.short_section`); only that one stretch, and only where another remains.
+  Needs the stretches' lengths (``seg_length_m``, ``air_length_m``).
 * **Protection**: source-circuit fuses where the other parallel strings can feed more than the
   module's maximum series fuse (690.9(A)), rated ≥ 1.25 × I_max (690.9(B)) at the next 240.6(A)
   rating and ≤ the module's maximum series fuse; an unfused source circuit carries the others'
@@ -234,9 +236,13 @@ class NecRules(RuleSet):
             "(310.14(B) engineering method not applied): review"
         )
 
-    def short_section_max_m(self, cable_m):
-        """310.15(A) exception: the lesser of 10 ft and 10 % of the circuit length."""
-        return ampacity.short_section_max_m(cable_m)
+    def short_section(self, stretch_m, circuit_m):
+        """310.15(A) exception: a stretch no longer than 10 ft and than 10 % of the circuit
+        length at the higher ampacity (the circuit less the stretch; conservative reading of
+        "the circuit length figured at the higher ampacity")."""
+        stretch = np.asarray(stretch_m, dtype=float)
+        rest = np.asarray(circuit_m, dtype=float) - stretch
+        return stretch <= ampacity.short_section_max_m(rest) * (1.0 + _REL)
 
     # ---- impedance
 

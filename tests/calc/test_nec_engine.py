@@ -229,3 +229,35 @@ def test_size_lists_are_nec_sizes():
     assert size_label(size_circuits(inp, d, "nec").size_mm2[0]) == "10 AWG"
     with pytest.raises(InputError):
         size_circuits(inp, _design(sizes_string_mm2=(4.0, 6.0)), "nec")
+
+
+def _short_section_case(short_m: float, cable_m: float):
+    # circuit 0 runs through a long raceway alone (segment 0) and a short stretch of a raceway
+    # shared with 9 other source circuits (segment 1: 20 conductors, Table 310.15(C)(1) 0.50);
+    # the 9 others run only there
+    c = [_dc(0, cable_m, 13.0, 12.0, 1200.0) for _ in range(10)]
+    inc = [(0, 0), *((i, 1) for i in range(10))]
+    inp = _inp(c, [(1, 1), (1, 10)], inc)
+    inp.seg_length_m = np.array([cable_m - short_m, short_m])
+    return inp
+
+
+def test_310_15_a_short_section_exception():
+    # 310.15(A) exception: the higher ampacity may be used beyond the transition for 10 ft
+    # (3.048 m) or 10 % of the circuit length at the higher ampacity, whichever is less.
+    # 12 AWG in the crowded raceway: 30 A × 0.50 = 15 A < I_max 16.25 A; alone: 30 A.
+    d = _design()
+    r = size_circuits(_short_section_case(2.5, 60.0), d, "nec")  # 2.5 ≤ 3.048 and ≤ 5.75 m
+    assert size_label(r.size_mm2[0]) == "12 AWG"
+    assert r.governing_segment[0] == 0 and r.factor_group[0] == 1.0
+    assert r.ampacity_a[0] == 30.0
+    # the others have no other stretch: the exception does not apply
+    assert set(size_label(r.size_mm2[1:]).tolist()) == {"10 AWG"}
+    # longer than 10 ft; or longer than 10 % of the rest (0.1 × 17.5 m = 1.75 m < 2.5 m)
+    for short_m, cable_m in ((3.5, 60.0), (2.5, 20.0)):
+        r = size_circuits(_short_section_case(short_m, cable_m), d, "nec")
+        assert size_label(r.size_mm2[0]) == "10 AWG" and r.governing_segment[0] == 1
+    # no lengths given: no exception
+    inp = _short_section_case(2.5, 60.0)
+    inp.seg_length_m = None
+    assert size_label(size_circuits(inp, d, "nec").size_mm2[0]) == "10 AWG"
