@@ -261,3 +261,27 @@ def test_310_15_a_short_section_exception():
     inp = _short_section_case(2.5, 60.0)
     inp.seg_length_m = None
     assert size_label(size_circuits(inp, d, "nec").size_mm2[0]) == "10 AWG"
+
+
+def _three_outputs(protection: str):
+    # three output circuits of 12 source circuits each (Isc 13 A) on one inverter input, each
+    # alone in its raceway at 20 °C (90 °C: 1.08)
+    arrays = [_dc(1, 60.0, 13.0, 12.0, 1200.0, n_strings=12.0) for _ in range(3)]
+    inp = _inp(arrays, [(1, 1)] * 3, [(0, 0), (1, 1), (2, 2)])
+    inp.dc_group = np.zeros(3, dtype=np.int64)
+    return size_circuits(inp, _design(ground_temp_c=20.0, array_protection=protection), "nec")
+
+
+def test_output_circuit_backfeed_fuse_or_conductor():
+    # the other two feed 2 × 12 × 1.25 × 13 = 390 A into a fault on one (their 690.8(A) currents)
+    r = _three_outputs("fuse")
+    assert r.backfeed_a[0] == pytest.approx(390.0)
+    # 250 kcmil (as for one output circuit alone, 690.8(B)(1)): 290 × 1.08 = 313.2 A < 390 A, so
+    # a device: ≥ 1.25 × 195 = 243.75 A → 250 A (240.6(A)); it protects min(313.2, 255) = 255 A
+    assert set(size_label(r.size_mm2).tolist()) == {"250 kcmil"}
+    assert (r.array_fuse_a == 250.0).all() and r.ok.all()
+    # no devices: the conductor carries 390 A after correction: 350 kcmil 350 × 1.08 = 378 A <
+    # 390 ≤ 400 kcmil 380 × 1.08 = 410.4 A
+    r = _three_outputs("cable")
+    assert set(size_label(r.size_mm2).tolist()) == {"400 kcmil"}
+    assert np.isnan(r.array_fuse_a).all() and r.design_current_a[0] == pytest.approx(390.0)
