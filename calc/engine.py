@@ -1712,13 +1712,15 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         (c["isc_design"],),
     )
     _add_notes(notes, no_env, lambda i: "no route environment given: in air assumed")
-    for env, lay in _LAYING_OF_ENV.items():  # buried ratings the rule set flags for review
-        text = rs.buried_note(env)
-        if text and m:
-            on = a["inc_circuit"][a["seg_laying"][a["inc_segment"]] == lay]
-            routed = np.zeros(n, dtype=bool)
-            routed[on] = True
-            _add_notes(notes, routed, lambda i, t=text: t)
+    if m and rs.buried_note("D2"):  # buried ratings the rule set flags for review
+        routed = {}
+        for env, lay in _LAYING_OF_ENV.items():
+            routed[env] = np.zeros(n, dtype=bool)
+            routed[env][a["inc_circuit"][a["seg_laying"][a["inc_segment"]] == lay]] = True
+        d1, d2 = routed["D1"], routed["D2"]
+        for mask, envs in ((d1 & ~d2, "D1"), (d2 & ~d1, "D2"), (d1 & d2, "D1+D2")):
+            text = rs.buried_note(envs)
+            _add_notes(notes, mask, lambda i, t=text: t)
     if design.fault_ka is not None and rs.short_circuit_note():
         _add_notes(notes, is_ac, lambda i: rs.short_circuit_note())
     deriv = out["derating"]
@@ -1942,14 +1944,18 @@ def _add_notes(notes: np.ndarray, mask: np.ndarray, text, keys: tuple = ()) -> N
 def failure_causes(result: SizingResult) -> dict[str, np.ndarray]:
     """Which limit each failing circuit breaks, from the result's own numbers (bool arrays).
 
-    ``capacity``: design current above the governing derated capacity; ``drop``: voltage drop
+    ``capacity``: design current above the governing derated capacity (nec: or 1.25 × the maximum
+    current above the uncorrected terminal-column ampacity, 690.8(B)(1)); ``drop``: voltage drop
     above the budget applied to the circuit (``vdrop_limit_pct``: its kind's limit, shared with
     the DC total as described in the module docstring); ``other``: failing for another reason
-    (short-circuit withstand, a fixed fuse outside its range, no standard fuse rating).
+    (short-circuit withstand, a fixed fuse outside its range, no standard fuse rating; nec: a
+    device that does not protect the conductor, 240.4).
     A circuit may fail on capacity and drop at once.
     """
     fail = ~np.asarray(result.ok, dtype=bool)
     tol = 1e-6
     cap = fail & (result.design_current_a > result.ampacity_a * (1.0 + tol))
+    # nec: the uncorrected condition (690.8(B)(1)) is a capacity limit too (nan under iec)
+    cap |= fail & (result.terminal_required_a > result.terminal_ampacity_a * (1.0 + tol))
     drop = fail & (result.vdrop_pct > result.vdrop_limit_pct + tol)
     return {"capacity": cap, "drop": drop, "other": fail & ~cap & ~drop}

@@ -257,8 +257,9 @@ class RuleSet(abc.ABC):
         return None
 
     def buried_note(self, env: str) -> str:
-        """Review note for every circuit routed in the ground in ``env`` ("D1", "D2"); "" when
-        the rule set's buried ratings represent the installation (IEC: soil, depth, grouping)."""
+        """Review note for every circuit routed in the ground in ``env`` ("D1", "D2" or both,
+        "D1+D2"); "" when the rule set's buried ratings represent the installation (IEC: soil,
+        depth, grouping)."""
         return ""
 
     def short_section(self, stretch_m: np.ndarray, circuit_m: np.ndarray) -> np.ndarray | None:

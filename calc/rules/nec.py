@@ -229,11 +229,12 @@ class NecRules(RuleSet):
         return np.where(arr == "spaced", 1.0, ampacity.adjustment_factor(np.ceil(n)))
 
     def buried_note(self, env: str) -> str:
-        where = "in duct" if env == "D1" else "direct-buried"
+        where = {"D1": "in duct", "D2": "direct-buried", "D1+D2": "in duct and direct-buried"}
+        check_option("buried environment", env, tuple(where))
         return (
-            f"{where}: rated by NEC 2023 Table 310.16 at the ground temperature, all conductors "
-            "in the trench as one bundle; soil resistivity, depth and spacing not represented "
-            "(310.14(B) engineering method not applied): review"
+            f"{where[env]}: NEC 2023 Table 310.16 at the ground temperature, the trench's "
+            "conductors as one bundle; soil, depth and spacing not represented (no 310.14(B) "
+            "calculation): review"
         )
 
     def short_section(self, stretch_m, circuit_m):

@@ -26,7 +26,7 @@ import math
 import numpy as np
 import pytest
 
-from calc.engine import DesignParams, SizingInput, size_circuits
+from calc.engine import DesignParams, SizingInput, failure_causes, size_circuits
 from calc.errors import InputError
 from calc.nec.sizes import size_from_label, size_label
 
@@ -285,3 +285,25 @@ def test_output_circuit_backfeed_fuse_or_conductor():
     r = _three_outputs("cable")
     assert set(size_label(r.size_mm2).tolist()) == {"400 kcmil"}
     assert np.isnan(r.array_fuse_a).all() and r.design_current_a[0] == pytest.approx(390.0)
+
+
+def test_failing_condition_1_is_a_capacity_failure_with_its_numbers():
+    # the output circuit of 12 strings limited to 4/0 AWG, one set: (2) holds (260 × 1.08 =
+    # 280.8 A ≥ 195 A) but (1) fails: 1.25 × 195 = 243.75 A > 230 A (75 °C column)
+    strings = [_dc(0, 30.0, 13.0, 12.0, 1200.0, parent=12) for _ in range(12)]
+    array = _dc(1, 100.0, 13.0, 12.0, 1200.0, n_strings=12.0)
+    inp = _inp([*strings, array], [(1, 12), (1, 1)], [*((i, 0) for i in range(12)), (12, 1)])
+    d = _design(ground_temp_c=20.0, max_parallel=1, sizes_array_mm2=tuple(
+        size_from_label(["3/0 AWG", "4/0 AWG"]).tolist()))  # fmt: skip
+    r = size_circuits(inp, d, "nec")
+    assert not r.ok[12] and r.ampacity_a[12] >= r.design_current_a[12]
+    assert failure_causes(r)["capacity"][12]
+    assert "244 A before correction in the 75 °C terminal column" in r.note[12]
+    assert "4/0 AWG Cu has 230 A" in r.note[12]
+    assert r.utilisation[12] == pytest.approx(243.75 / 230.0)
+
+
+def test_a_circuit_in_duct_and_direct_buried_has_one_note():
+    inp = _inp([_dc(0, 40.0, 13.0, 12.0, 1200.0)], [(0, 1), (1, 1)], [(0, 0), (0, 1)])
+    note = size_circuits(inp, _design(), "nec").note[0]
+    assert note.startswith("in duct and direct-buried:") and note.count("Table 310.16") == 1
