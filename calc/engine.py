@@ -1956,6 +1956,8 @@ def failure_causes(result: SizingResult) -> dict[str, np.ndarray]:
     tol = 1e-6
     cap = fail & (result.design_current_a > result.ampacity_a * (1.0 + tol))
     # nec: the uncorrected condition (690.8(B)(1)) is a capacity limit too (nan under iec)
-    cap |= fail & (result.terminal_required_a > result.terminal_ampacity_a * (1.0 + tol))
+    req1 = getattr(result, "terminal_required_a", None)
+    if req1 is not None:
+        cap |= fail & (req1 > result.terminal_ampacity_a * (1.0 + tol))
     drop = fail & (result.vdrop_pct > result.vdrop_limit_pct + tol)
     return {"capacity": cap, "drop": drop, "other": fail & ~cap & ~drop}
