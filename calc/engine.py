@@ -32,6 +32,15 @@ Method (all steps vectorised over circuits × sizes):
    so all circuits are re-evaluated until the parallel counts stop changing (counts only grow, so
    this ends).
 
+Rule sets (:mod:`calc.rules`) supply every table and rule above; the steps are those of the IEC
+rule set. A rule set changes them through its hooks (defaults: the IEC behaviour): the NEC 2023
+rule set (:mod:`calc.rules.nec`) holds each circuit to 690.8(B)'s two conditions (the 690.8(A)
+maximum current against the corrected and adjusted ampacity, and 1.25 × it against the
+termination's column uncorrected — ``terminal_required_a`` / ``terminal_ampacity_a``; the
+utilisation is the governing one), counts current-carrying conductors for grouping, checks each
+candidate size's protection by its device (240.4), disregards a short governing stretch (310.15(A)
+exception) and notes every buried circuit for review.
+
 DC voltage-drop budget (decision): strings are sized first against min(drop_string_pct,
 drop_dc_total_pct); each array cable then gets min(drop_array_pct, drop_dc_total_pct − the largest
 drop of its own strings). So every string path meets ``drop_dc_total_pct`` by construction; the
