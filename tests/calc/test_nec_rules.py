@@ -117,3 +117,50 @@ def test_ratings_from_240_6_a_and_restriction():
     assert r.gpv_fuse_ratings_a([20, 15]).tolist() == [15.0, 20.0]
     with pytest.raises(InputError, match=r"16 A not in the NEC 2023 240\.6"):
         r.gpv_fuse_ratings_a([16])
+
+
+def test_source_circuit_fuse_decision_690_9():
+    # 690.9(A): required where the other parallel strings feed (n − 1) × 1.25 × Isc > the module's
+    # maximum series fuse; 690.9(B): ≥ 1.25 × 1.25 × Isc, next 240.6(A) rating, ≤ the maximum fuse
+    r = NecRules()
+    ratings = r.gpv_fuse_ratings_a()
+    p = r.string_protection(
+        np.array([13.0, 13.0, 13.0, 13.0, 13.0]),
+        np.array([2.0, 3.0, 3.0, 3.0, 3.0]),
+        np.array([25.0, 25.0, 20.0, np.nan, 25.0]),
+        np.array([np.nan, np.nan, np.nan, np.nan, 20.0]),
+        ratings,
+    )
+    # 2 strings: 16.25 A ≤ 25 A → none; 3: 32.5 A > 25 A → 25 A (≥ 20.3125 A); max fuse 20 A:
+    # no rating in 20.3125…20 A; not given: assumed required from 3 strings; fixed 20 A < 20.3125 A
+    assert p.required.tolist() == [False, True, True, True, True]
+    assert_allclose(p.fuse_a, [np.nan, 25.0, np.nan, 25.0, 20.0])
+    assert p.ok.tolist() == [True, True, False, True, False]
+    assert "max_fuse_a not given" in p.note[3] and "690.9(B)" in p.note[2]
+    # an unfused source circuit carries the others' currents: (n − 1) × 16.25 A
+    got = r.string_design_current_a(np.array([13.0, 13.0]), np.array([2.0, 3.0]), np.nan)
+    assert_allclose(got, [16.25, 32.5])
+
+
+def test_inverter_output_breaker_and_240_4():
+    # breaker ≥ 1.25 × 240 A = 300 A → 300 A (240.6(A)); 240.4(B) (≤ 800 A): 300 A protects an
+    # ampacity of 285 A or 251 A (300 A is the next standard rating above each), not 249 A (250 A)
+    r = NecRules()
+    b = r.ac_breaker(np.array([240.0, 4000.0]), "nec240.6a")
+    assert_allclose(b.in_a, [300.0, 5000.0]) and np.isnan(b.i2_a).all()
+    chk = r.overload_check(np.array([240.0] * 3), np.array([300.0] * 3), [285.0, 251.0, 249.0], 0)
+    assert chk.ok.tolist() == [True, True, False] and "240.4" in chk.note[2]
+    # 240.4(C): above 800 A the device may not exceed the ampacity
+    big = r.overload_check(np.array([700.0]), np.array([1000.0]), [990.0], 0)
+    assert not big.ok[0]
+    # 240.4(D): 12 AWG Cu at most 20 A whatever its ampacity
+    s = size_from_label(["12 AWG", "10 AWG"])
+    assert r.conductor_protected(
+        np.array([25.0, 25.0]), np.array([26.0, 26.0]), s, "Cu"
+    ).tolist() == [
+        False,
+        True,
+    ]
+    assert r.conductor_protected(np.array([np.nan]), np.array([1.0]), s[:1], "Cu").tolist() == [
+        True
+    ]
