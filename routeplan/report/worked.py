@@ -853,8 +853,17 @@ def _protection_steps(row: pd.Series, design: DesignConfig) -> list[Step]:
 
 
 def _worked_circuit(
-    row: pd.Series, reason: str, segments: pd.DataFrame, design: DesignConfig
+    row: pd.Series,
+    reason: str,
+    segments: pd.DataFrame,
+    design: DesignConfig,
+    circuits: pd.DataFrame | None = None,
 ) -> WorkedCircuit:
+    if design.values["rules"] == "nec":  # NEC 2023: routeplan.report.worked_nec
+        from routeplan.report.worked_nec import nec_steps
+
+        steps = nec_steps(row, row.to_frame().T if circuits is None else circuits, design)
+        return WorkedCircuit(str(row["kind"]), str(row["circuit_id"]), reason, tuple(steps))
     steps = (
         _design_current_steps(row, design)
         + _capacity_steps(row, segments, design)
@@ -882,14 +891,22 @@ text-align:left}
 </style>"""
 
 
-def _html(worked: list[WorkedCircuit]) -> str:
+def _html(worked: list[WorkedCircuit], rules: str = "iec") -> str:
     e = html.escape
+    nec = rules == "nec"
+    if nec:
+        from routeplan.report.worked_nec import KIND_LABELS_NEC
+
+        labels = KIND_LABELS_NEC
+    else:
+        labels = KIND_LABELS
     parts = ['<div class="rp-worked">', _STYLE]
     if not worked:
         parts.append("<p>No circuits: nothing to work out.</p>")
     for w in worked:
         parts.append('<section class="rp-worked-circuit">')
-        parts.append(f"<h3>{e(KIND_LABELS[w.kind])} circuit {e(w.circuit_id)}</h3>")
+        title = labels[w.kind] if nec else f"{labels[w.kind]} circuit"
+        parts.append(f"<h3>{e(title)} {e(w.circuit_id)}</h3>")
         parts.append(f"<p>Chosen for the {e(w.reason)}.</p>")
         parts.append(
             '<table><colgroup><col style="width:12%"><col style="width:20%">'
@@ -905,11 +922,25 @@ def _html(worked: list[WorkedCircuit]) -> str:
                 f'<td>{e(s.unit)}</td><td class="rp-source">{e(s.source)}</td></tr>'
             )
         parts.append("</tbody></table></section>")
+    if nec:
+        read = (
+            "the NEC 2023 table values (Tables 310.16 / 310.17 cells, the 310.15(B)(1) and "
+            "310.15(C)(1) factors, Chapter 9 Tables 8 and 9, the 240.6(A) ratings)"
+        )
+        review = (
+            "routeplan is a design aid: the NEC as adopted by the authority having "
+            "jurisdiction, the equipment listings and a qualified, licensed engineer of "
+            "record govern."
+        )
+    else:
+        read = "R20, R at θ, AC resistance and reactance"
+        review = (
+            "routeplan is a design aid: check with local codes and have the design reviewed "
+            "by a qualified, licensed person."
+        )
     parts.append(
-        "<p><small>Values are the engine's, from the cable schedule, except R20, R at θ, AC "
-        "resistance and reactance, which are read from calc's tables as the engine reads them. "
-        "routeplan is a design aid: check with local codes and have the design reviewed by a "
-        "qualified, licensed person.</small></p></div>"
+        f"<p><small>Values are the engine's, from the cable schedule, except {read}, which "
+        f"are read from calc's tables as the engine reads them. {review}</small></p></div>"
     )
     return "\n".join(parts)
 
@@ -929,12 +960,12 @@ def worked_circuit(
     where = np.flatnonzero(circuits["circuit_id"].astype(str).to_numpy() == circuit_id)
     if where.size == 0:
         raise KeyError(circuit_id)
-    return _worked_circuit(circuits.iloc[int(where[0])], reason, segments, design)
+    return _worked_circuit(circuits.iloc[int(where[0])], reason, segments, design, circuits)
 
 
-def worked_html(worked: list[WorkedCircuit] | tuple[WorkedCircuit, ...]) -> str:
+def worked_html(worked: list[WorkedCircuit] | tuple[WorkedCircuit, ...], rules: str = "iec") -> str:
     """The HTML fragment of some worked circuits (as :func:`worked_calculation` gives it)."""
-    return _html(list(worked))
+    return _html(list(worked), rules)
 
 
 def worked_calculation(
@@ -958,13 +989,15 @@ def worked_calculation(
         fragment (one ``<section>`` per circuit, a table of steps with formula, numbers, value,
         unit and source).
     """
-    if design.values["rules"] != "iec":  # the steps below cite the IEC tables only
+    if design.values["rules"] not in ("iec", "nec"):  # the steps cite IEC or NEC tables only
         rules = html.escape(str(design.values["rules"]))
         return WorkedCalculation(
-            (), f"<p>Worked calculations are given for rules 'iec' only (rules '{rules}').</p>"
+            (),
+            "<p>Worked calculations are given for rules 'iec' and 'nec' only (rules "
+            f"'{rules}').</p>",
         )
     worked = [
-        _worked_circuit(circuits.iloc[i], reason, segments, design)
+        _worked_circuit(circuits.iloc[i], reason, segments, design, circuits)
         for i, reason in governing_circuits(circuits, design)
     ]
-    return WorkedCalculation(tuple(worked), _html(worked))
+    return WorkedCalculation(tuple(worked), _html(worked, design.values["rules"]))
