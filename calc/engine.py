@@ -733,8 +733,9 @@ def larger_sizes_mm2(
     kind: int, design: DesignParams | None = None, rules: str = "iec"
 ) -> np.ndarray:
     """The rule set's standard sizes larger than every size in a kind's list that the rule
-    set can size for that kind's cable (a resistance and a tabulated capacity in every
-    environment), ascending [mm²]: the sizes a failing circuit could still be given.
+    set can size for that kind's cable (a resistance, for a.c. circuits an a.c. resistance, and
+    a tabulated capacity in every environment), ascending [mm²]: the sizes a failing circuit
+    could still be given.
 
     Source of the candidates: :meth:`calc.rules.RuleSet.nominal_sizes_mm2` (iec: IEC 60228:2004
     Tables 2 and 3; nec: Chapter 9 Table 8).
@@ -749,6 +750,13 @@ def larger_sizes_mm2(
             rs.r20_ohm_km(kind, material, np.array([s]))
         except TableRangeError:
             continue
+        if kind == KIND_AC:  # and an a.c. resistance (nec: Table 9 lacks 700-900 kcmil)
+            try:
+                rs.ac_resistance_factor(
+                    np.array([s]), material, np.ones(1), design.frequency_hz, np.array([3])
+                )
+            except InputError:
+                continue
         base = _base_capacities(kind, material, insulation, np.array([s]), design, rs)
         if not any(np.isnan(b).any() for b in base.values()):
             out.append(s)

@@ -62,6 +62,50 @@ def _common_spacings_m() -> tuple[float, ...]:
 #: tables give (0.25 m and 0.5 m)
 SPACINGS_M: tuple[float, ...] = _common_spacings_m()
 
+
+def protection_failures(result: calc.SizingResult, rules: str) -> np.ndarray:
+    """Failing circuits whose overcurrent device does not protect the conductor (NEC 2023
+    240.4(B)/(C)/(D), the rule set's :meth:`~calc.rules.RuleSet.conductor_protected` with the
+    ampacity after correction, adjustment and the 110.14(C) terminal limit) and that break no
+    capacity or drop limit (``calc.failure_causes`` counts them as ``other``). All False for a
+    rule set without such a check (IEC).
+
+    The device is the circuit's own: the source-circuit fuse, the output-circuit (array) device,
+    the inverter output breaker; nan = none fitted (protected).
+    """
+    n = len(result.ok)
+    rs = calc.get_rules(rules)
+    why = calc.failure_causes(result)
+    other = np.asarray(why["other"], dtype=bool)
+    out = np.zeros(n, dtype=bool)
+    if not other.any():
+        return out
+    device = np.asarray(result.fuse_a, dtype=float).copy()
+    arr = np.asarray(result.array_fuse_a, dtype=float)
+    acb = np.asarray(result.ac_breaker_a, dtype=float)
+    device = np.where(np.isfinite(device), device, np.where(np.isfinite(arr), arr, acb))
+    amp = np.asarray(result.ampacity_a, dtype=float)
+    term = np.asarray(getattr(result, "terminal_ampacity_a", np.full(n, np.nan)), dtype=float)
+    amp = np.where(np.isfinite(term), np.minimum(amp, term), amp)
+    size = np.asarray(result.size_mm2, dtype=float)
+    material = np.asarray(result.material).astype(str)
+    for mat in np.unique(material[other]).tolist():
+        m = other & (material == mat) & np.isfinite(size)
+        if not m.any():
+            continue
+        prot = rs.conductor_protected(device[m], amp[m], size[m], mat)
+        if prot is None:
+            return out
+        out[np.flatnonzero(m)] = ~np.asarray(prot, dtype=bool)
+    return out
+
+
+def _size_setting(size_mm2: float, rs) -> str:
+    """A size as a ``design.sizes_mm2`` entry: ``16`` (mm², IEC) or ``"8 AWG"`` (a label, NEC)."""
+    text = rs.size_text(size_mm2)
+    return f"{size_mm2:g}" if text == f"{size_mm2:g} mm²" else f'"{text}"'
+
+
 _SIZE_FIELD = {
     calc.KIND_STRING: "sizes_string_mm2",
     calc.KIND_ARRAY: "sizes_array_mm2",
@@ -95,6 +139,10 @@ def remedies(
     kind = np.asarray(inp.kind)
     parent = np.asarray(inp.parent) if inp.parent is not None else np.full(n, -1)
     why = calc.failure_causes(result)
+    rs = calc.get_rules(rules)
+    # nec: a device that does not protect the conductor (240.4) is met like a capacity limit,
+    # by a larger size or more parallel sets (the what-ifs below re-size every failing circuit)
+    unprotected = protection_failures(result, rules)
     size = np.asarray(result.size_mm2, dtype=float)
     parallel = np.asarray(result.parallel)
     found = np.full(n, "", dtype=object)
@@ -119,13 +167,15 @@ def remedies(
             while j >= 0:
                 if moved[j]:
                     sets = int(r_par[j])
-                    cable = f"{sets} × {r_size[j]:g} mm²" if sets > 1 else f"{r_size[j]:g} mm²"
+                    text = rs.size_text(float(r_size[j]))
+                    cable = f"{sets} × {text}" if sets > 1 else text
                     cables.append(
                         f"with {cable}" if j == i else f"once {circuit_ids[j]} is {cable}"
                     )
                     if not np.isin(r_size[j], listed[kind[j]]):
                         name = calc.KIND_NAMES[kind[j]]
-                        settings.append(f"add {r_size[j]:g} to design.sizes_mm2.{name}")
+                        entry = _size_setting(float(r_size[j]), rs)
+                        settings.append(f"add {entry} to design.sizes_mm2.{name}")
                     sets_needed = max(sets_needed, sets)
                 j = int(parent[j])
             settings = list(dict.fromkeys(settings))
@@ -202,8 +252,12 @@ def remedies(
         parts, limits = [], []
         if why["capacity"][i]:
             parts.append(f"governed by {governing[i]}")
-        if why["capacity"][i] or why["drop"][i]:
-            limits.append(f"largest size in design.sizes_mm2.{name} ({size[i]:g} mm²)")
+        if unprotected[i]:
+            parts.append("its overcurrent device does not protect the conductor (240.4)")
+        if why["capacity"][i] or why["drop"][i] or unprotected[i]:
+            limits.append(
+                f"largest size in design.sizes_mm2.{name} ({rs.size_text(float(size[i]))})"
+            )
             if kind[i] != calc.KIND_STRING:
                 limits.append(f"design.max_parallel ({int(parallel[i])})")
         if why["drop"][i]:
