@@ -6,14 +6,17 @@ again on the same routes (:func:`calc.size_circuits`, the whole plan, so that tr
 settles as it would after the change) with the settings relaxed in turn, smallest change first:
 
 1. **sizes**: the size lists of the failing circuits' kinds and of their feeders' kinds
-   extended by every larger IEC 60228 size the rule set tabulates for that cable
+   extended by every larger standard size the rule set tabulates for that cable (IEC 60228;
+   nec: Chapter 9 Table 8, named by their AWG / kcmil labels)
    (:func:`calc.larger_sizes_mm2`); a circuit that passes is given the size it was sized to:
    "passes with 16 mm² (add 16 to design.sizes_mm2.string)";
 2. **parallel**: ``design.max_parallel`` at the highest value site.toml accepts (array,
    sub-array and AC cables; a string is one cable); a circuit that passes is given the sets
    it was sized to, the setting it needs: "passes with 3 × 300 mm² (design.max_parallel = 3)";
 3. **both** of these, for the circuits neither makes pass alone;
-4. **spacing**: for circuits failing on capacity with a group factor below 1, the clear
+4. **spacing** (rule sets whose grouping factor depends on it: not nec, whose Table
+   310.15(C)(1) counts the trench's conductors as one bundle): for circuits failing on
+   capacity with a group factor below 1, the clear
    distance between circuits in their trenches raised to 0.25 m, then to 0.5 m (both
    spacings are tabulated in IEC 60364-5-52:2009 Tables B.52.18 and B.52.19), offered as an
    alternative where a larger cable passes too ("…; or passes with spacing_m = 0.25 on
@@ -25,6 +28,10 @@ A:CB-1 is 240 mm² (add 6 to design.sizes_mm2.string; add 240 to design.sizes_mm
 Where the change would make circuits that pass now fail (more cable sets in a shared trench),
 the remedy says how many. Each remedy is what the re-sizing found for that circuit; changing
 the settings of several remedies at once can interact through the trench grouping.
+
+Under nec a circuit whose overcurrent device does not protect the conductor (240.4; counted as
+``other`` by :func:`calc.failure_causes`) is named so (:func:`protection_failures`) and given
+the larger size or the parallel sets that the re-sizing finds protected.
 
 Before the change, a remedy names the stretch that governs the capacity (a trench segment id,
 a row run or stub) and the settings that stop the sizing (the size list, ``max_parallel``,
@@ -98,6 +105,17 @@ def protection_failures(result: calc.SizingResult, rules: str) -> np.ndarray:
             return out
         out[np.flatnonzero(m)] = ~np.asarray(prot, dtype=bool)
     return out
+
+
+def _spacing_matters(rs) -> bool:
+    """Whether the rule set's grouping factor in a trench changes with the clear spacing (IEC
+    60364-5-52 Tables B.52.18 / B.52.19: yes; NEC 2023 Table 310.15(C)(1), the trench's
+    conductors as one bundle: no), probed at a few group sizes, direct and in duct."""
+    count = np.array([2.0, 6.0, 12.0, 2.0, 6.0, 12.0])
+    laying = np.array([0, 0, 0, 1, 1, 1])
+    touching = rs.group_factor(count, np.zeros(6), laying)
+    apart = rs.group_factor(count, np.full(6, max(SPACINGS_M)), laying)
+    return not np.allclose(touching, apart)
 
 
 def _size_setting(size_mm2: float, rs) -> str:
@@ -214,6 +232,8 @@ def remedies(
     # 4. more space between the circuits in the trenches of the circuits failing on
     # grouping, with the sizes as listed (also offered beside a larger cable)
     grouped = fail & why["capacity"] & (np.asarray(result.factor_group) < 1.0 - 1e-9)
+    if not _spacing_matters(rs):  # nec: Table 310.15(C)(1) counts conductors whatever the gap
+        grouped[:] = False
     # the trench fields as calc reads them: left out, none (spacing 0 m); incidences whole
     # numbers of any dtype
     m = len(segment_trench)

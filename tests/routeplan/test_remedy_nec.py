@@ -119,3 +119,17 @@ def test_larger_ac_sizes_are_those_table_9_has():
     d = _design(sizes_array_mm2=tuple(size_from_label(["500 kcmil"])))
     more = size_label(calc.larger_sizes_mm2(calc.KIND_ARRAY, d, "nec")).tolist()
     assert more == ["600 kcmil", "700 kcmil", "750 kcmil", "800 kcmil", "900 kcmil", "1000 kcmil"]
+
+
+def test_no_trench_spacing_is_offered_under_nec():
+    # 12 source circuits limited to 12 AWG: (2) 30 × 1.08 × 0.45 (24 conductors) = 14.58 A
+    # < 16.25 A fails on capacity through the adjustment; Table 310.15(C)(1) counts the trench's
+    # conductors as one bundle whatever their spacing, so only a larger size is offered
+    inp, d = _combiner_10_awg()
+    d = _design(ground_temp_c=20.0, sizes_string_mm2=tuple(size_from_label(["12 AWG"])))
+    r = calc.size_circuits(inp, d, "nec")
+    assert calc.failure_causes(r)["capacity"][:12].all() and r.factor_group[0] == 0.45
+    out = _remedies(inp, d, r, [f"S{i}" for i in range(12)] + ["A"])
+    assert "spacing_m" not in out[0] and UNPROTECTED not in out[0]
+    assert out[0].startswith("governed by seg; limited by largest size in design.sizes_mm2.string")
+    assert "passes with " in out[0]
