@@ -378,6 +378,24 @@ INSULATIONS: tuple[str, ...] = ("XLPE", "PVC", "PV")
 MAX_SIZES = 64
 
 
+#: the string cable each rule set names, and why it is copper (the bill's designations,
+#: routeplan/data/bill_designations.csv: pv_cable, nec_pv_wire)
+_PV_CABLE: dict[str, tuple[str, str]] = {
+    "iec": (
+        "PV cable (EN 50618 / IEC 62930)",
+        "PV cable, whose tabulated ratings are for copper conductors",
+    ),
+    "nec": (
+        "PV wire (UL 4703, NEC 2023 690.31(C)(1))",
+        "PV wire (UL 4703, NEC 2023 690.31(C)(1)), sized here as copper conductors",
+    ),
+}
+#: the feeder conductor types a rule set's insulation names stand for (nec: Table 310.4(A))
+_FEEDER_TYPES: dict[str, str] = {
+    "nec": " (e.g. USE-2, XHHW-2 or THWN-2 at 90 °C, NEC 2023 Table 310.4(A))",
+}
+
+
 def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
     """Read ``[design]`` and ``[allowances]`` from a parsed site.toml; return (config, problems).
 
@@ -442,12 +460,13 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
         insulation_default.update(dict.fromkeys(feeders, rule_set.insulations[0]))
         insulations = (*rule_set.insulations, "PV")
     insulation = _choices("insulation", design, insulation_default, insulations, problems)
+    cable, copper = _PV_CABLE.get(values["rules"], _PV_CABLE["iec"])
     if insulation["string"] != "PV":
         problems.append(
             Problem(
                 SITE_TOML,
                 "design.insulation.string",
-                "string circuits use PV cable (EN 50618 / IEC 62930): set 'PV'",
+                f"string circuits use {cable}: set 'PV'",
             )
         )
     for kind in ("subarray", "array", "ac"):
@@ -456,8 +475,9 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
                 Problem(
                     SITE_TOML,
                     f"design.insulation.{kind}",
-                    "PV cable (EN 50618 / IEC 62930) is rated here for string circuits only: "
-                    f"set {' or '.join(repr(x) for x in insulations if x != 'PV')}",
+                    f"{cable} is rated here for string circuits only: "
+                    f"set {' or '.join(repr(x) for x in insulations if x != 'PV')}"
+                    + _FEEDER_TYPES.get(values["rules"], ""),
                 )
             )
     if material["string"] != "Cu":
@@ -465,8 +485,7 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
             Problem(
                 SITE_TOML,
                 "design.material.string",
-                "string circuits use PV cable, whose tabulated ratings are for copper "
-                "conductors: set 'Cu'",
+                f"string circuits use {copper}: set 'Cu'",
             )
         )
     drop = dict(DROP_PCT_DEFAULT)
