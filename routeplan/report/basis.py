@@ -373,6 +373,81 @@ ASSUMPTIONS: tuple[str, ...] = (
 )
 
 
+#: the methods under rules = "nec" (NFPA 70 NEC 2023; calc.rules.nec states each rule)
+NEC_METHODS: tuple[tuple[str, str], ...] = (
+    METHODS[0],
+    METHODS[1],
+    (
+        "Design currents and protection",
+        "NEC 2023 690.8(A): PV source circuit maximum current 1.25 × Isc (the bifacial Isc "
+        "where given); PV output circuit the sum of its source circuits'; inverter output "
+        "circuit the inverter's continuous output current. Source-circuit fuses where the other "
+        "parallel circuits can feed more than the module's maximum series fuse (690.9(A)), "
+        "rated ≥ 1.25 × the maximum current at the next 240.6(A) standard rating (690.9(B)); "
+        "output circuits protected or rated for the backfeed of their inverter input; the "
+        "inverter output breaker ≥ 1.25 × its continuous current (240.6(A)). Every device "
+        "protects its conductor per 240.4(B)/(C)/(D).",
+    ),
+    (
+        "Conductor ampacity",
+        "NEC 2023 690.8(B), both conditions: (1) 1.25 × the maximum current against Table "
+        "310.16 (raceway, cable or earth) or 310.17 (free air) in the termination's column "
+        "(110.14(C), 75 °C unless the equipment is marked for 90 °C: terminal_temp_c), "
+        "uncorrected; (2) the maximum current against the insulation's column corrected for the "
+        "ambient or earth temperature (310.15(B)(1)) and adjusted for the current-carrying "
+        "conductors sharing the stretch (Table 310.15(C)(1); the conductors in a trench segment "
+        "taken as one bundle), evaluated for every stretch of the route; the lowest ampacity "
+        "governs, except a stretch short enough for the 310.15(A) exception (10 ft or 10 % of "
+        "the circuit, whichever is less). The smallest candidate AWG / kcmil size (with "
+        "parallel sets up to max_parallel) meeting both conditions, 240.4 and the voltage drop "
+        "is chosen; the schedule's utilisation is the governing condition's ratio.",
+    ),
+    (
+        "Voltage drop",
+        "Ohm's law on the circuit's loop: NEC 2023 Chapter 9 Table 8 d.c. resistance at "
+        "75 °C, corrected to the conductor temperature by the table's note; a.c. circuits with "
+        "the Table 9 a.c. resistance and reactance (PVC conduit, 60 Hz) and the effective "
+        "impedance at the power factor (Table 9 note 2). Drop limits are design choices: the "
+        "NEC gives informational notes only.",
+    ),
+    METHODS[5],
+    (
+        "Short circuit",
+        "Not checked: NEC 2023 has no adiabatic table (ICEA P-32-382 not applied); every a.c. "
+        "circuit says so when fault_ka and clear_s are set.",
+    ),
+    METHODS[7],
+)
+
+#: the assumptions under rules = "nec"
+NEC_ASSUMPTIONS: tuple[str, ...] = (
+    "Current-carrying conductors per circuit: DC + and −; three-phase AC L1, L2, L3 (the "
+    "neutral of a balanced three-phase circuit is not counted, 310.15(E)); equipment grounding "
+    "conductors (Table 250.122) are not counted.",
+    "PV source circuits are PV wire (UL 4703, 90 °C wet or dry, from memory), copper; feeders "
+    "are single insulated conductors of a Table 310.4(A) type of the insulation's rating "
+    "(e.g. USE-2, XHHW-2 at 90 °C).",
+    "Conductors in the ground are rated by Table 310.16 at the earth temperature; soil "
+    "thermal resistivity, depth and spacing are not represented (no 310.14(B) engineering "
+    "calculation): every such circuit carries a review note.",
+    "Where conductors share a stretch in air their arrangement is the kind's air_arrangement "
+    "(bunched: Table 310.15(C)(1) applies; spaced: not adjusted).",
+    ASSUMPTIONS[-1],
+)
+
+
+def methods(rules: str) -> tuple[tuple[str, str], ...]:
+    """The report's methods for a rule set (``"nec"``: :data:`NEC_METHODS`, else
+    :data:`METHODS`)."""
+    return NEC_METHODS if rules == "nec" else METHODS
+
+
+def assumptions(rules: str) -> tuple[str, ...]:
+    """The report's assumptions for a rule set (``"nec"``: :data:`NEC_ASSUMPTIONS`, else
+    :data:`ASSUMPTIONS`)."""
+    return NEC_ASSUMPTIONS if rules == "nec" else ASSUMPTIONS
+
+
 def _number_or_text(value: str) -> float | str:
     """A setting's shown value as a number where it is one (for the workbook), else text."""
     try:

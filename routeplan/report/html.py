@@ -20,7 +20,7 @@ import calc
 
 from .. import CAUTION, __version__
 from ..units import feet, size_labels
-from .basis import ASSUMPTIONS, METHODS, data_tables, module_rows, settings
+from .basis import assumptions, data_tables, methods, module_rows, settings
 from .results import LIST_CAP, Results, results
 
 #: the document's title; also routeplan's mark in the PDF made from it (its first object,
@@ -306,10 +306,10 @@ def _basis(plan: Any, summary: dict) -> str:
     )
     parts.append(_identification(design.values["marking"]))
     parts.append("<h3>Methods</h3><dl>")
-    for name, text in METHODS:
+    for name, text in methods(design.values["rules"]):
         parts.append(f"<dt><strong>{esc(name)}</strong></dt><dd>{esc(text)}</dd>")
     parts.append("</dl><h3>Assumptions</h3><ul>")
-    parts.extend(f"<li>{esc(a)}</li>" for a in ASSUMPTIONS)
+    parts.extend(f"<li>{esc(a)}</li>" for a in assumptions(design.values["rules"]))
     parts.append("</ul>")
     parts.append(f'<div class="caution"><strong>Caution.</strong> {esc(CAUTION)}</div>')
     return "".join(parts)

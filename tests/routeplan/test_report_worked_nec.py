@@ -82,6 +82,11 @@ def test_each_kind_is_worked_under_nec_with_its_690_name(planned):
     # the report written by `routeplan plan` carries them (no "iec only" placeholder)
     assert "PV source circuit R1/S1" in report
     assert "given for rules" not in report
+    # the methods and assumptions are the NEC's, not the IEC ones
+    assert "NEC 2023 690.8(B), both conditions" in report
+    assert "PV source circuits are PV wire (UL 4703" in report
+    assert "IEC 60364-5-52:2009 Annex B tabulated capacities" not in report
+    assert "String cables are PV cable (EN 50618" not in report
 
 
 def test_source_circuit_by_hand(planned):
