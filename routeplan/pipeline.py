@@ -586,9 +586,33 @@ def circuit_table(
             "size_label": size_labels(r.size_mm2, design.values["rules"]),
             "route_ft": feet(c["route_m"].to_numpy(dtype=float)),
             "cable_ft": feet(c["cable_m"].to_numpy(dtype=float)),
+            "governing_condition": governing_condition(
+                r.design_current_a, r.ampacity_a, r.terminal_required_a, r.terminal_ampacity_a
+            ),
         }
     )
     return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
+
+
+def governing_condition(
+    design_current_a: np.ndarray,
+    ampacity_a: np.ndarray,
+    terminal_required_a: np.ndarray,
+    terminal_ampacity_a: np.ndarray,
+) -> np.ndarray:
+    """Which 690.8(B) condition governs each circuit: ``"690.8(B)(1)"`` where 1.25 × I_max over
+    the uncorrected terminal-column ampacity is the larger ratio, ``"690.8(B)(2)"`` otherwise;
+    ``""`` where the rule set has no condition (1) (nan, IEC).
+
+    >>> governing_condition([81.25, 16.25, 5.0], [140.4, 21.6, 9.0], [101.5625, 20.3125, np.nan],
+    ...                     [115.0, 35.0, np.nan]).tolist()
+    ['690.8(B)(1)', '690.8(B)(2)', '']
+    """
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r2 = np.asarray(design_current_a, dtype=float) / np.asarray(ampacity_a, dtype=float)
+        r1 = np.asarray(terminal_required_a, dtype=float) / np.asarray(terminal_ampacity_a, float)
+        one = r1 > r2
+    return np.where(np.isnan(r1), "", np.where(one, "690.8(B)(1)", "690.8(B)(2)"))
 
 
 def governing_ids(routes: RoutePlan, r: calc.SizingResult) -> np.ndarray:

@@ -105,6 +105,12 @@ CIRCUIT_COLUMNS: tuple[Col, ...] = (
     ),
     Col("route_ft", "ft", 2, "route_m in international feet (1 ft = 0.3048 m exactly)"),
     Col("cable_ft", "ft", 2, "cable_m in international feet (1 ft = 0.3048 m exactly)"),
+    Col(
+        "governing_condition",
+        doc="nec: the NEC 2023 690.8(B) condition that governs the size, '690.8(B)(1)' (1.25 × "
+        "the maximum current in the 110.14(C) terminal column, uncorrected) or '690.8(B)(2)' "
+        "(the maximum current after correction and adjustment); empty under iec",
+    ),
 )
 
 SEGMENT_COLUMNS: tuple[Col, ...] = (

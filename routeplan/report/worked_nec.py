@@ -33,7 +33,7 @@ from calc.nec.sizes import foot_m, size_label
 from calc.tables import load_table
 from calc.vdrop import vdrop_v
 from routeplan.config import DesignConfig
-from routeplan.pipeline import design_params
+from routeplan.pipeline import design_params, governing_condition
 from routeplan.report.worked import Step, _rows, _source
 from routeplan.report.worked import _num as n
 
@@ -101,28 +101,6 @@ def _location(row: pd.Series, governing_only: bool) -> str:
         return "raceway" if in_trench else "free_air"
     segs = str(row.get("trench_segments", "") or "")
     return "raceway" if segs.strip() and segs != "nan" else "free_air"
-
-
-def governing_condition(
-    design_current_a: np.ndarray,
-    ampacity_a: np.ndarray,
-    terminal_required_a: np.ndarray,
-    terminal_ampacity_a: np.ndarray,
-) -> np.ndarray:
-    """Which 690.8(B) condition governs each circuit: ``"690.8(B)(1)"`` where 1.25 × I_max over
-    the uncorrected terminal-column ampacity is the larger ratio, ``"690.8(B)(2)"`` otherwise;
-    ``""`` where the rule set has no condition (1) (nan, IEC).
-
-    >>> governing_condition([81.25, 16.25, 5.0], [140.4, 21.6, 9.0], [101.5625, 20.3125, np.nan],
-    ...                     [115.0, 35.0, np.nan]).tolist()
-    ['690.8(B)(1)', '690.8(B)(2)', '']
-    """
-    i = np.asarray(design_current_a, dtype=float)
-    r2 = i / np.asarray(ampacity_a, dtype=float)
-    r1 = np.asarray(terminal_required_a, dtype=float) / np.asarray(terminal_ampacity_a, float)
-    with np.errstate(invalid="ignore"):
-        one = r1 > r2
-    return np.where(np.isnan(r1), "", np.where(one, "690.8(B)(1)", "690.8(B)(2)"))
 
 
 # --------------------------------------------------------------------------------------------

@@ -119,7 +119,7 @@ def test_source_circuit_by_hand(planned):
         "Overcurrent device": (25.0, "fuse_a"),  # 1.25 × 16.25 = 20.3 A → 25 A (240.6(A))
     }
     _check(w, _fragment_values(worked)["R1/S1"], row, hand)
-    assert w.step("Governing condition").value == "690.8(B)(2)"
+    assert w.step("Governing condition").value == row["governing_condition"] == "690.8(B)(2)"
     # 240.4(B): 25 A is the next standard rating above 21.6 A; 240.4(D) 10 AWG Cu ≤ 30 A
     prot = w.step("Conductor protection (240.4)")
     assert prot.value == "passes"
@@ -156,7 +156,7 @@ def test_output_circuit_by_hand(planned):
         "Voltage drop ΔU": (drop_v, "vdrop_v"),
     }
     _check(w, _fragment_values(worked)["A:CB1"], row, hand)
-    assert w.step("Governing condition").value == "690.8(B)(1)"
+    assert w.step("Governing condition").value == row["governing_condition"] == "690.8(B)(1)"
 
 
 def test_inverter_output_circuit_by_hand(planned):
@@ -184,7 +184,14 @@ def test_inverter_output_circuit_by_hand(planned):
         "Overcurrent device": (250.0, "ac_breaker_a"),  # 225.5 A → 250 A (240.6(A))
     }
     _check(w, _fragment_values(worked)["AC:INV1"], row, hand)
-    assert w.step("Governing condition").value == "690.8(B)(1)"
+    assert w.step("Governing condition").value == row["governing_condition"] == "690.8(B)(1)"
     prot = w.step("Conductor protection (240.4)")
     # ampacity with the terminal limit: min(280.8, 230) A; 250 A is the next rating up (240.4(B))
     assert prot.value == "passes" and "= 230 A" in prot.substituted
+
+
+def test_governing_condition_is_empty_under_iec(tmp_path):
+    # the same site under the default rules = "iec": no 690.8(B)(1) condition, the column empty
+    p = plan(write_site(tmp_path / "site"))
+    assert p.design.values["rules"] == "iec"
+    assert (p.circuits["governing_condition"] == "").all()
