@@ -409,7 +409,7 @@ var rpReview = (function() {
             ['To', links(c.get('to_id', i) ? [c.get('to_id', i)] : []), 'to_id'],
             ['Block (inverter)', fmt('c', 'inverter_id', i), 'inverter_id'],
             ['Conductor', fmt('c', 'material', i) + ' ' + fmt('c', 'insulation', i), 'material'],
-            ['Size', c.get('size_label', i) || fmt('c', 'size_mm2', i, 'mm²'), 'size_label'],
+            ['Size', fmt('c', 'size_mm2', i, 'mm²'), 'size_mm2'],
             ['Parallel', fmt('c', 'parallel', i), 'parallel'],
             ['Route length', fmt('c', 'route_m', i, 'm'), 'route_m'],
             ['Cable length', fmt('c', 'cable_m', i, 'm'), 'cable_m'],
@@ -433,6 +433,10 @@ var rpReview = (function() {
             ['Status', st === 'fail' ? 'FAIL' : fmt('c', 'status', i), 'status'],
             ['Note', fmt('c', 'note', i), 'note']
         ];
+        var label = c.get('size_label', i);
+        if (label && !/mm²$/.test(label)) {  // an AWG/kcmil size (rules nec): its name too
+            list.splice(6, 0, ['Size, AWG/kcmil', label, 'size_label']);
+        }
         if (st === 'fail' || c.get('remedy', i)) {
             list.push(['Remedy', fmt('c', 'remedy', i), 'remedy']);
         }
@@ -487,7 +491,8 @@ var rpReview = (function() {
             tr.appendChild(td);
             var k = data.c.get('kind', i);
             tr.appendChild(el('td', C.kinds[k] || k || '–'));
-            tr.appendChild(el('td', (data.c.get('size_label', i) ||
+            var lab = data.c.get('size_label', i);
+            tr.appendChild(el('td', (lab && !/mm²$/.test(lab) ? lab :
                                      fmt('c', 'size_mm2', i, 'mm²')) + ' × ' +
                               fmt('c', 'parallel', i)));
             tr.appendChild(el('td', fmt('c', 'parallel', i)));

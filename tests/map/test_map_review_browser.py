@@ -470,3 +470,21 @@ def test_strings_drawn_per_row_are_still_found(browser, demo_out, tmp_path):  # 
         page.assert_clean()
     finally:
         page.close()
+
+
+def test_us_demo_details_name_the_awg_kcmil_size(browser, tmp_path):  # noqa: F811
+    # demo_site_us (rules nec): the details give the schedule's size_label beside size_mm2, and
+    # the map's conductor texts use it; the IEC demo's details have no such row (test above)
+    out = _plan(tmp_path, DEMO.parent / "demo_site_us")
+    rows = _csv(out / "cable_schedule.csv")
+    for row in (next(r for r in rows if r["kind"] == "ac"), rows[-1]):
+        page = _open(browser, out, "#find=" + quote(row["circuit_id"], safe=""))
+        try:
+            shown = page.details()
+            assert shown["_title"] == row["circuit_id"]
+            assert re.fullmatch(r"(\d+|\d/0) AWG|\d+ kcmil", row["size_label"])
+            assert shown["size_label"] == row["size_label"]
+            _check_values(shown, row, ("size_mm2", "route_m", "cable_m"))
+            page.assert_clean()
+        finally:
+            page.close()

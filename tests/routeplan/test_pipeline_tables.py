@@ -362,11 +362,12 @@ def test_summary_counts_and_worst_values_by_kind(small):
     assert s["inverter_inputs"] == {"count": 2, "over_limit": 0}
     # conductor metres by material and size (sorted), rounded to the centimetre
     assert s["conductor_m"] == [
-        {"material": "Al", "size_mm2": 16.0, "conductor_m": 80.01},  # 2 x 40.004 = 80.008 m
-        {"material": "Al", "size_mm2": 240.0, "conductor_m": 600.0},
-        {"material": "Cu", "size_mm2": 4.0, "conductor_m": 61.0},
-        {"material": "Cu", "size_mm2": 6.0, "conductor_m": 60.0},
-        {"material": "Cu", "size_mm2": 95.0, "conductor_m": 400.0},
+        # 2 x 40.004 = 80.008 m
+        {"material": "Al", "size_mm2": 16.0, "size_label": "16 mm²", "conductor_m": 80.01},
+        {"material": "Al", "size_mm2": 240.0, "size_label": "240 mm²", "conductor_m": 600.0},
+        {"material": "Cu", "size_mm2": 4.0, "size_label": "4 mm²", "conductor_m": 61.0},
+        {"material": "Cu", "size_mm2": 6.0, "size_label": "6 mm²", "conductor_m": 60.0},
+        {"material": "Cu", "size_mm2": 95.0, "size_label": "95 mm²", "conductor_m": 400.0},
     ]
     assert s["conductor_m_total"] == 1201.01  # 1201.008 m
     # run metres: 10 + 20.5 + 30 + 40.004 + 100 + 50 + 200 = 450.504 m, to 2 decimals
