@@ -195,3 +195,31 @@ def test_governing_condition_is_empty_under_iec(tmp_path):
     p = plan(write_site(tmp_path / "site"))
     assert p.design.values["rules"] == "iec"
     assert (p.circuits["governing_condition"] == "").all()
+
+
+def test_source_circuit_governed_in_air_behind_the_modules(tmp_path):
+    # the same site with the air behind the modules at 85 °C: the row run governs, rated by
+    # NEC 2023 Table 310.17 (free air; Cu 90 °C column 8 AWG 80 A, 6 AWG 105 A — from memory,
+    # calc/data tags them so), 310.15(B)(1) 81–85 °C row, 90 °C column 0.29 (confirmed) and
+    # Table 310.15(C)(1) for the 4 conductors of row R1's two strings bunched along it, 0.80
+    toml = NEC_TOML.replace("frequency_hz = 60", "frequency_hz = 60\nrow_air_temp_c = 85")
+    p = plan(write_site(tmp_path / "site", toml=toml))
+    w = worked_calculation(p.circuits, p.segments, p.design).circuits[0]
+    row = p.circuits.set_index("circuit_id").loc[w.circuit_id]
+    assert w.circuit_id == "R1/S1" and row["governing"] == "row run R1"
+    # 8 AWG carries I_max (80 × 0.29 × 0.80 = 18.56 A ≥ 16.25 A) but its 25 A fuse is not the
+    # next 240.6(A) rating above 18.56 A (20 A): 240.4 fails, 6 AWG is chosen
+    assert row["size_label"] == "6 AWG"
+    amp = 105.0 * 0.29 * 0.80
+    assert w.step("Condition (2): table ampacity").value == 105.0
+    assert "Table 310.17" in w.step("Condition (2): table ampacity").source
+    assert w.step("Ambient correction F_T").value == 0.29
+    assert "air behind the modules 85 °C (185 °F)" in w.step("Ambient correction F_T").substituted
+    assert w.step("Adjustment F_C").value == 0.80
+    assert w.step("Ampacity I").value == pytest.approx(amp)
+    # condition (1) in Table 310.16 (the route's buried stretches: the lower table), 6 AWG Cu
+    # 75 °C: 65 A (confirmed)
+    assert w.step("Condition (1): terminal column").value == 65.0
+    assert w.step("Governing condition").value == "690.8(B)(2)"
+    assert w.step("Utilisation").value == pytest.approx(16.25 / amp)
+    assert w.step("Conductor protection (240.4)").value == "passes"
