@@ -594,6 +594,9 @@ def circuit_table(
     return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
 
 
+_CONDITIONS = np.array(["", "690.8(B)(1)", "690.8(B)(2)"], dtype=object)
+
+
 def governing_condition(
     design_current_a: np.ndarray,
     ampacity_a: np.ndarray,
@@ -611,8 +614,8 @@ def governing_condition(
     with np.errstate(invalid="ignore", divide="ignore"):
         r2 = np.asarray(design_current_a, dtype=float) / np.asarray(ampacity_a, dtype=float)
         r1 = np.asarray(terminal_required_a, dtype=float) / np.asarray(terminal_ampacity_a, float)
-        one = r1 > r2
-    return np.where(np.isnan(r1), "", np.where(one, "690.8(B)(1)", "690.8(B)(2)"))
+        code = np.where(np.isnan(r1), 0, np.where(r1 > r2, 1, 2))
+    return _CONDITIONS[code]
 
 
 def governing_ids(routes: RoutePlan, r: calc.SizingResult) -> np.ndarray:
