@@ -19,6 +19,7 @@ listings and the engineer of record govern.
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pandas as pd
@@ -57,6 +58,8 @@ _T8A = "nec_2023_chapter9_table8_temperature.csv"
 _T9 = "nec_2023_chapter9_table9_ac_impedance.csv"
 _R240_6 = "nec_2023_240_6_a_standard_ratings.csv"
 _R240_4D = "nec_2023_240_4_d_small_conductors.csv"
+#: the strings in parallel, as the schedule's protection text gives them
+_PARALLEL = re.compile(r"([\d.]+) string(?:s|\(s\))? in parallel")
 _RATING = {"90C": 90, "75C": 75, "60C": 60, "PV": 90}
 _REL = 1e-9
 
@@ -127,8 +130,8 @@ def _current_steps(row: pd.Series, circuits: pd.DataFrame, design: DesignConfig)
         )  # fmt: skip
         fuse = float(row["fuse_a"])
         if not np.isfinite(fuse):
-            m = pd.Series([str(row["protection"])]).str.extract(r"(\d+) strings? in parallel")
-            s_par = float(m.iloc[0, 0]) if pd.notna(m.iloc[0, 0]) else 1.0
+            m = _PARALLEL.search(str(row["protection"]))
+            s_par = float(m.group(1)) if m else 1.0
             value = max(i_max, (s_par - 1.0) * i_max)
             steps.append(
                 Step("Conductor current (unfused)",

@@ -37,7 +37,7 @@ import pytest
 
 from routeplan.pipeline import plan
 from routeplan.report.worked import worked_calculation
-from tests.conftest import SITE_TOML, write_site
+from tests.conftest import SITE_TOML, base_frames, write_site
 from tests.routeplan.promise_sites import plan_cli
 from tests.routeplan.test_report_worked import _check, _fragment_values
 
@@ -223,3 +223,30 @@ def test_source_circuit_governed_in_air_behind_the_modules(tmp_path):
     assert w.step("Governing condition").value == "690.8(B)(2)"
     assert w.step("Utilisation").value == pytest.approx(16.25 / amp)
     assert w.step("Conductor protection (240.4)").value == "passes"
+
+
+def test_unfused_source_circuit_carries_the_others_current(tmp_path):
+    # three strings on CB1 (R1: 2, R2: 1) and a module maximum series fuse of 40 A: the other
+    # two can feed (3 − 1) × 16.25 = 32.5 A ≤ 40 A, so no fuse (690.9(A)) and the conductor
+    # carries 32.5 A. 10 AWG fails (1), 1.25 × 32.5 = 40.6 A > 35 A (Table 310.16 75 °C,
+    # confirmed). The row run governs (2): the air behind the modules at row_air_temp_c's
+    # 70 °C default (common practice), 310.15(B)(1) 66–70 °C row 0.58 (confirmed), R1's two
+    # strings' 4 conductors bunched 0.80, Table 310.17 Cu 90 °C (from memory) 10 AWG 55 A:
+    # 25.5 A < 32.5 A; 8 AWG 80 A: 37.12 A. So 8 AWG, where (2) governs: 32.5 / 37.12 = 0.876
+    # against (1) 40.625 / 50 = 0.8125
+    frames = base_frames()
+    frames["rows"]["strings"] = [2, 1]
+    toml = NEC_TOML.replace("max_fuse_a = 25", "max_fuse_a = 40")
+    p = plan(write_site(tmp_path / "site", frames, toml=toml))
+    w = worked_calculation(p.circuits, p.segments, p.design).circuits[0]
+    row = p.circuits.set_index("circuit_id").loc[w.circuit_id]
+    assert w.kind == "string" and row["size_label"] == "8 AWG"
+    assert w.step("Conductor current (unfused)").value == pytest.approx(2 * 16.25)
+    assert "3 − 1" in w.step("Conductor current (unfused)").substituted
+    assert w.step("Condition (1): required").value == pytest.approx(1.25 * 32.5)
+    assert w.step("Condition (1): terminal column").value == 50.0
+    assert w.step("Ambient correction F_T").value == 0.58
+    assert w.step("Ampacity I").value == pytest.approx(80.0 * 0.58 * 0.80)
+    assert w.step("Governing condition").value == row["governing_condition"] == "690.8(B)(2)"
+    assert w.step("Utilisation").value == pytest.approx(32.5 / (80.0 * 0.58 * 0.80))
+    assert w.step("Overcurrent device").value == "none"
