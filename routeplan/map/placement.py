@@ -15,7 +15,8 @@
 * the best position (rank 1) in a thick black ring labelled "best", the current position in a
   dashed ring labelled "current";
 * a details box that a click on a candidate fills with its row of ``placement.csv``, each value
-  exactly as the CSV file holds it (the page is made from the written file);
+  exactly as the CSV file holds it (the page is made from the written file; a text cell less
+  the ``'`` that guards it against formulas);
 * the safety caution (:data:`routeplan.CAUTION`), always visible.
 
 Leaflet is inlined (:func:`routeplan.map.assets.offline_header`). Data from users' files (ids,
@@ -41,6 +42,7 @@ from routeplan.map.features import EQUIPMENT_POLYGON_STYLE, EQUIPMENT_STYLE, ROW
 from routeplan.map.scales import OBJECTIVE
 from routeplan.map.script import script_json
 from routeplan.map.text import MISSING, escape_text
+from routeplan.outputs.schedules import csv_unguard
 
 __all__ = ["PLACEMENT_MAP", "placement_map_html", "write_placement_map"]
 
@@ -199,9 +201,10 @@ ring(c.current, S.current, 'rp-current-ring', 'current', 'left');
 
 
 def _read_csv(path: Path) -> tuple[list[str], list[list[str]]]:
-    """Header and rows of ``placement.csv``, each cell the text the file holds."""
+    """Header and rows of ``placement.csv``, each cell the text the file holds, less the guard
+    against formulas (:func:`routeplan.outputs.schedules.csv_unguard`): the value itself."""
     with path.open(encoding="utf-8", newline="") as f:
-        rows = list(csv.reader(f))
+        rows = [[csv_unguard(c) for c in r] for r in csv.reader(f)]
     if not rows:
         raise ValueError(f"{path.name}: empty")
     return rows[0], rows[1:]

@@ -20,6 +20,7 @@ from typer.testing import CliRunner
 
 from routeplan.cli import app
 from routeplan.map.text import MISSING
+from routeplan.outputs.schedules import csv_unguard
 
 from ..routeplan.test_placement import straight_site
 from .test_map_browser import CHROMIUM_ARGS, VIEWPORT, _chromium
@@ -27,7 +28,7 @@ from .test_map_browser import CHROMIUM_ARGS, VIEWPORT, _chromium
 pytestmark = pytest.mark.browser
 
 #: ids and a site name that would run as script or markup if not escaped
-TRENCH = "T1</script><script>alert(2)</script>"
+TRENCH = "=1+2</script><script>alert(2)</script>"
 INVERTER = "INV<img src=x onerror=alert(1)>${alert(3)}`"
 SITE_NAME = "Site <b>bold</b> ${alert(4)}"
 
@@ -62,6 +63,10 @@ def placed(tmp_path_factory) -> tuple[Path, list[dict[str, str]]]:
     assert result.exit_code == 0, result.output
     with (out / "placement.csv").open(encoding="utf-8", newline="") as f:
         rows = list(csv.DictReader(f))
+    # the trench id is guarded against formulas in the CSV (OWASP "CSV Injection"); the map
+    # shows the value (csv_unguard), so the rows compared below are unguarded
+    assert {r["trench_id"] for r in rows} == {"", "'" + TRENCH}
+    rows = [{k: csv_unguard(v) for k, v in r.items()} for r in rows]
     return out, rows
 
 
