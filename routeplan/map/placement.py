@@ -49,9 +49,12 @@ __all__ = ["PLACEMENT_MAP", "placement_map_html", "write_placement_map"]
 #: The file name in the plan folder.
 PLACEMENT_MAP = "placement.html"
 
-#: The view reaches this share of the candidates' and the block's extent beyond them; the
-#: trenches drawn are those that come into it.
+#: The trenches drawn are those within this share of the candidates' and the block's extent
+#: around them; the view opens on the candidates with the same share around them.
 MARGIN = 0.25
+
+#: The view opens on the candidates, at least this far around them [m].
+VIEW_PAD_M = 10.0
 
 #: Candidate circles [px]: radius, the rings of the best and the current position.
 CANDIDATE_RADIUS = 7
@@ -105,7 +108,7 @@ html,body{margin:0;height:100%}
 .rp-key{display:flex;align-items:center;gap:6px;margin:2px 0}
 .rp-note{font-size:11px;color:#424242;margin:1px 0 4px}
 .rp-why{margin:2px 0 6px;padding:3px 6px;border-left:4px solid #616161;background:#f5f5f5}
-.leaflet-tooltip.rp-tip{padding:3px 6px;max-width:320px;white-space:normal}
+.leaflet-tooltip.rp-tip{padding:3px 6px;width:max-content;max-width:320px;white-space:normal}
 """
 
 #: The page script: draws the layers from the JSON data and fills the details box. Every
@@ -441,7 +444,12 @@ def placement_map_html(
         t["id"].astype(str).to_numpy()[near].tolist(),
         to_geo,
     )
-    corners = _latlng(np.array([[x0 - pad, y0 - pad], [x1 + pad, y1 + pad]]), to_geo)
+    # the view opens on the candidates (the block is drawn around them, for zooming out)
+    c = xy[np.isfinite(xy).all(axis=1)]
+    c = c if len(c) else pts
+    (cx0, cy0), (cx1, cy1) = c.min(axis=0), c.max(axis=0)
+    cpad = max(MARGIN * max(cx1 - cx0, cy1 - cy0), VIEW_PAD_M)
+    corners = _latlng(np.array([[cx0 - cpad, cy0 - cpad], [cx1 + cpad, cy1 + cpad]]), to_geo)
 
     unit = _texts(header, rows, "objective_unit")
     unit = next((u for u in unit if u), "")
