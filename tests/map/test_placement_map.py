@@ -4,9 +4,11 @@ routeplan's files in the output folder (DEVELOPERS.md, "Files the user owns").""
 
 from __future__ import annotations
 
+import csv
 import json
 
 import numpy as np
+import pyproj
 import pytest
 from matplotlib import colormaps
 from typer.testing import CliRunner
@@ -105,3 +107,45 @@ def test_placement_html_is_routeplans_file_and_a_users_file_of_that_name_is_kept
         r.output.split()
     )
     assert (out / "placement.html").read_text(encoding="utf-8") == "my notes"
+
+
+def _page_data(html: str) -> dict:
+    start = html.index('<script type="application/json" id="rp-place-data">')
+    body = html[html.index(">", start) + 1 : html.index("</script>", start)]
+    return json.loads(body)
+
+
+@pytest.mark.parametrize(
+    ("kind", "feature", "radius"), [("inverter", "INV1", 40.0), ("combiner", "C2", 20.0)]
+)
+def test_the_map_draws_the_block_of_the_placed_feature_and_every_candidate(
+    tmp_path, kind, feature, radius
+):
+    from routeplan.check import load
+    from routeplan.map.placement import write_placement_map
+    from routeplan.placement import search, write_placement
+
+    site, design = load(straight_site(tmp_path / "s", second_block=True))
+    table, plans = search(site, design, kind, feature, radius_m=radius, step_m=20.0)
+    (plan,) = plans.values()
+    folder = tmp_path / "out"
+    folder.mkdir()
+    write_placement(table, site.crs, folder)
+    assert write_placement_map(folder, site, kind, feature, plan) == ["placement.html"]
+    data = _page_data((folder / "placement.html").read_text(encoding="utf-8"))
+    # INV1's block: its three combiners and rows, the grid point; never INV2's (C9, R9)
+    assert {q["id"] for q in data["equipment"]} == {"INV1", "C0", "C1", "C2", "G1"}
+    assert [q["id"] for q in data["equipment"] if q["moved"]] == [feature]
+    assert {r["id"] for r in data["rows"]} == {"R0", "R1", "R2"}
+    with (folder / "placement.csv").open(encoding="utf-8", newline="") as f:
+        rows = list(csv.reader(f))
+    cand = data["candidates"]
+    assert [cand["columns"], *cand["rows"]] == rows
+    assert cand["rows"][cand["best"]][cand["col"]["rank"]] == "1"
+    assert cand["rows"][cand["current"]][cand["col"]["candidate"]] == "0"
+    # positions: the CSV's x, y taken to WGS 84 by pyproj (the reference library)
+    to_geo = pyproj.Transformer.from_crs(site.crs, "EPSG:4326", always_xy=True)
+    x = np.array([float(r[cand["col"]["x"]]) for r in cand["rows"]])
+    y = np.array([float(r[cand["col"]["y"]]) for r in cand["rows"]])
+    lon, lat = to_geo.transform(x, y)
+    np.testing.assert_allclose(np.array(cand["ll"]), np.column_stack([lat, lon]), atol=1e-7)
