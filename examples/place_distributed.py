@@ -25,17 +25,23 @@ first time a task on that worker needs it:
 
 * :class:`PlantOnWorker` is a ``distributed.WorkerPlugin`` registered once
   (``client.register_plugin``); the scheduler gives it to every worker, including those that
-  join later. It carries only the site's path: each worker reads the site itself (the site
-  folder must be on a file system every worker sees). It loads lazily, in the first task's
-  thread and under a lock, so the worker's event loop never blocks on a plan.
+  join later. Tasks name the site by its path and the feature by its id: each worker reads a
+  site once and plans each feature's current position once, both lazily, in the first task's
+  thread and under a lock, so the worker's event loop never blocks on a plan. The site folder
+  must be on a file system every worker sees.
 * Where workers cannot read the site's files, load it once on the client and send the loaded
   :class:`layers.Site` to every worker with ``client.scatter(site, broadcast=True)``; pass
   the resulting future to the tasks instead of the path (Dask then hands each task the
   worker's local copy).
 
-Each task evaluates a batch of candidates (``batch`` positions), so that the scheduler's
-overhead per task (milliseconds) stays small against a plan. Results come back as the rows of
-``placement.csv`` (plain dicts) and the client ranks them exactly as ``search`` does.
+Each task evaluates a batch of candidates of one feature (``batch`` positions), so that the
+scheduler's overhead per task (milliseconds) stays small against a plan.
+:func:`portfolio_search` submits the batches of every request (features of one site or of
+many sites) at once, so workers never wait for one feature's stragglers. Results come back as
+the rows of ``placement.csv`` (plain dicts) and the client ranks each feature's exactly as
+``search`` does. A worker keeps every plant it made until it closes; for a portfolio whose
+sites do not all fit into a worker's memory, restrict each site's tasks to a few workers
+(``client.map(..., workers=[...])``) so that each worker holds few sites.
 
 Differences from ``routeplan place``: the reference is always the plan at the current position
 (``search`` takes the first candidate that routes, which is the current position whenever it
@@ -94,8 +100,9 @@ PLUGIN = "routeplan-plant"
 
 @dataclass
 class Plant:
-    """What a worker keeps between tasks: the site as read, its design settings, the placed
-    feature's row, its current position, the reference plan's figures and the noding memo."""
+    """What a worker keeps for one placed feature: the site as read (shared by the features
+    of one site), its design settings, the feature's row and current position, the reference
+    plan's figures and the trench noding memo of its last plan."""
 
     site: object
     design: object
@@ -107,48 +114,58 @@ class Plant:
     memo: object
 
 
-def load_plant(site_path: str | Path, kind: str, feature_id: str) -> Plant:
-    """Read the site and plan the current position (the reference); errors as ``place``'s."""
-    site, design = load(Path(site_path))
-    row = feature_index(site, kind, feature_id)
+def _origin(site, kind: str, row: int) -> tuple[float, float]:
     frame = site.inverters if kind == "inverter" else site.combiners
     geom = frame.geometry.iloc[row]
     anchor = geom if geom.geom_type == "Point" else geom.centroid
+    return (float(anchor.x), float(anchor.y))
+
+
+def make_plant(site, design, kind: str, feature_id: str) -> Plant:
+    """Plan the feature's current position (the reference); errors as ``place``'s."""
+    row = feature_index(site, kind, feature_id)
     plan = plan_site(site, design, with_remedies=False)  # RoutingError: current not routable
     check_prices(design, plan.circuits["kind"].unique())
     return Plant(
-        site, design, kind, feature_id, row, (anchor.x, anchor.y),
+        site, design, kind, feature_id, row, _origin(site, kind, row),
         Reference.of(plan, kind, feature_id), plan.routes.network.memo,
     )  # fmt: skip
 
 
 class PlantOnWorker(WorkerPlugin):
-    """Loads the plant once per worker, on first use (see the module docstring)."""
+    """Each worker's plants: a site is read once per worker (``loads`` counts the reads), a
+    feature's reference planned once per worker, both on first use (see the module
+    docstring). Registered once under :data:`PLUGIN`; ``idempotent``, so registering it again
+    keeps what the workers hold."""
 
-    idempotent = False
+    idempotent = True
 
-    def __init__(self, site_path: str | Path, kind: str, feature_id: str):
-        self.args = (str(site_path), kind, feature_id)
-        self._plant: Plant | None = None
+    def __init__(self):
+        self._reset()
+
+    def _reset(self) -> None:
+        self._sites: dict[str, tuple] = {}
+        self._plants: dict[tuple[str, str, str], Plant] = {}
         self._lock = threading.Lock()
-
-    def __getstate__(self) -> dict:  # the path and ids travel; the lock and the plant do not
-        return {"args": self.args}
-
-    def __setstate__(self, state: dict) -> None:
-        self.args = state["args"]
-        self._plant = None
-        self._lock = threading.Lock()
-
-    def setup(self, worker) -> None:
         self.loads = 0
 
-    def plant(self) -> Plant:
+    def __getstate__(self) -> dict:  # nothing travels: each worker fills its own
+        return {}
+
+    def __setstate__(self, state: dict) -> None:
+        self._reset()
+
+    def plant(self, site_path: str, kind: str, feature_id: str) -> Plant:
+        key = (site_path, kind, feature_id)
         with self._lock:
-            if self._plant is None:
-                self._plant = load_plant(*self.args)
-                self.loads = getattr(self, "loads", 0) + 1
-            return self._plant
+            plant = self._plants.get(key)
+            if plant is None:
+                if site_path not in self._sites:
+                    self._sites[site_path] = load(Path(site_path))
+                    self.loads += 1
+                site, design = self._sites[site_path]
+                plant = self._plants[key] = make_plant(site, design, kind, feature_id)
+            return plant
 
 
 def evaluate_position(plant: Plant, i: int, x: float, y: float, trench_id: str) -> dict:
@@ -186,27 +203,49 @@ def evaluate_position(plant: Plant, i: int, x: float, y: float, trench_id: str) 
     }
 
 
-def evaluate_batch(batch: list[tuple[int, float, float, str]]) -> list[dict]:
-    """A task: the rows of a batch of candidates, with the worker's plant."""
-    plant = get_worker().plugins[PLUGIN].plant()
+#: one placement request: site folder, "inverter" or "combiner", feature id, radius and step [m]
+Request = tuple[str, str, str, float, float]
+
+
+def evaluate_batch(request: Request, batch: list[tuple[int, float, float, str]]) -> list[dict]:
+    """A task: the rows of a batch of one request's candidates, with the worker's plant."""
+    plant = get_worker().plugins[PLUGIN].plant(*request[:3])
     return [evaluate_position(plant, i, x, y, t) for i, x, y, t in batch]
 
 
-def candidates(
-    site_path: str | Path, kind: str, feature_id: str, radius_m: float, step_m: float
-) -> list[tuple[int, float, float, str]]:
+def candidates(request: Request) -> list[tuple[int, float, float, str]]:
     """The candidates as ``routeplan place`` numbers them: 0 the current position, then the
     points along the trenches (:func:`routeplan.placement.candidate_points`)."""
+    site_path, kind, feature_id, radius_m, step_m = request
     site, _ = load(Path(site_path))
-    row = feature_index(site, kind, feature_id)
-    frame = site.inverters if kind == "inverter" else site.combiners
-    geom = frame.geometry.iloc[row]
-    a = geom if geom.geom_type == "Point" else geom.centroid
-    xy, trench = candidate_points(site.trenches, (a.x, a.y), radius_m, step_m)
-    out = [(0, float(a.x), float(a.y), "")]
+    origin = _origin(site, kind, feature_index(site, kind, feature_id))
+    xy, trench = candidate_points(site.trenches, origin, radius_m, step_m)
     pairs = enumerate(zip(xy.tolist(), trench.tolist(), strict=True), start=1)
-    out += [(k, p[0], p[1], str(t)) for k, (p, t) in pairs]
-    return out
+    return [(0, *origin, ""), *((k, p[0], p[1], str(t)) for k, (p, t) in pairs)]
+
+
+def ranked(records: list[dict]) -> pd.DataFrame:
+    """The candidate table ranked as ``place`` ranks it (:data:`CANDIDATE_COLUMNS`, unrounded)."""
+    table = pd.DataFrame.from_records(records)
+    current = table.loc[table["candidate"] == 0, "objective"]
+    table["delta_objective"] = table["objective"] - (current.iloc[0] if len(current) else np.nan)
+    return rank(table)[list(CANDIDATE_COLUMNS)]
+
+
+def portfolio_search(
+    client: Client, requests: list[Request], batch: int = 4
+) -> dict[Request, pd.DataFrame]:
+    """The ranked candidate table of each request (features of one site or of many), every
+    candidate of every request submitted at once and evaluated on the cluster of ``client``."""
+    client.register_plugin(PlantOnWorker(), name=PLUGIN)
+    requests = [(str(r[0]), r[1], r[2], float(r[3]), float(r[4])) for r in requests]
+    futures = {}
+    for r in requests:
+        todo = candidates(r)
+        batches = [todo[k : k + batch] for k in range(0, len(todo), batch)]
+        futures[r] = client.map(evaluate_batch, [r] * len(batches), batches, pure=False)
+    done = client.gather(futures)
+    return {r: ranked([row for rows in done[r] for row in rows]) for r in requests}
 
 
 def distributed_search(
@@ -218,17 +257,10 @@ def distributed_search(
     step_m: float,
     batch: int = 4,
 ) -> pd.DataFrame:
-    """The ranked candidate table of ``routeplan place`` (:data:`CANDIDATE_COLUMNS`, unrounded),
-    each candidate evaluated on the cluster of ``client``."""
-    todo = candidates(site_path, kind, feature_id, radius_m, step_m)
-    client.register_plugin(PlantOnWorker(site_path, kind, feature_id), name=PLUGIN)
-    batches = [todo[k : k + batch] for k in range(0, len(todo), batch)]
-    futures = client.map(evaluate_batch, batches, pure=False)
-    records = [r for rows in client.gather(futures) for r in rows]
-    table = pd.DataFrame.from_records(records)
-    current = table.loc[table["candidate"] == 0, "objective"]
-    table["delta_objective"] = table["objective"] - (current.iloc[0] if len(current) else np.nan)
-    return rank(table)[list(CANDIDATE_COLUMNS)]
+    """The ranked candidate table of ``routeplan place`` for one feature
+    (:func:`portfolio_search` of one request)."""
+    request = (str(site_path), kind, feature_id, float(radius_m), float(step_m))
+    return portfolio_search(client, [request], batch)[request]
 
 
 def main(argv: list[str] | None = None) -> None:
