@@ -13,7 +13,8 @@
   segments or inverter inputs over a limit, or why the position could not be routed) on hover
   and in the details;
 * the best position (rank 1) in a thick black ring labelled "best", the current position in a
-  dashed ring labelled "current";
+  dashed ring labelled "current"; where circles overlap, better ranks are drawn on top
+  (:func:`draw_order`);
 * a details box that a click on a candidate fills with its row of ``placement.csv``, each value
   exactly as the CSV file holds it (the page is made from the written file; a text cell less
   the ``'`` that guards it against formulas);
@@ -174,8 +175,9 @@ function show(i) {
     box.setAttribute('data-candidate', row[c.col.candidate]);
 }
 var c = d.candidates;
-window.rpCandidates = [];
-for (var i = 0; i < c.rows.length; i++) {
+window.rpCandidates = new Array(c.rows.length);
+for (var k = 0; k < c.order.length; k++) {
+    var i = c.order[k];
     var ok = c.feasible[i];
     var st = ok ? S.feasible : S.infeasible;
     var o = opts(st, 'rp-cand ' + (ok ? 'rp-feasible' : 'rp-infeasible') +
@@ -188,7 +190,7 @@ for (var i = 0; i < c.rows.length; i++) {
                    : 'not feasible: ' + c.why[i]);
     tip(m, text);
     m.on('click', (function(k) { return function() { show(k); }; })(i));
-    window.rpCandidates.push(m);
+    window.rpCandidates[i] = m;
 }
 function ring(i, style, cls, label, dir) {
     if (i === null || i === undefined) { return; }
@@ -311,6 +313,19 @@ def objective_colours(
     t = (objective - lo) / (hi - lo) if hi > lo else np.zeros_like(objective)
     t = np.where(ok, t, np.nan)
     return OBJECTIVE.colours(t).tolist(), lo, hi
+
+
+def draw_order(rank: np.ndarray, feasible: np.ndarray) -> np.ndarray:
+    """The order the candidates are drawn in (later on top, where circles overlap): the
+    infeasible ones first, then the feasible ones from the worst rank to the best, so that the
+    best position is never hidden.
+
+    Examples
+    --------
+    >>> draw_order(np.array([3.0, 1.0, 4.0, 2.0]), np.array([True, True, False, True])).tolist()
+    [2, 0, 3, 1]
+    """
+    return np.lexsort((-rank, feasible))
 
 
 def _block(plan, kind: str, feature_id: str) -> str:
@@ -470,6 +485,7 @@ def placement_map_html(
             "why": reasons(header, rows, block),
             "best": best,
             "current": current,
+            "order": draw_order(rank, feasible).tolist(),
         },
     }
     panel = _panel_html(
