@@ -135,6 +135,9 @@ def test_one_marker_per_candidate_and_the_best_is_rank_one(page, placed, tmp_pat
     assert pg.locator("path.rp-cand.rp-current").count() == 1
     best = next(i for i, r in enumerate(rows) if r["rank"] == "1")
     assert "rp-best" in pg.evaluate(MARKER, best)["cls"]
+    # drawn last, so that no other candidate covers it
+    last = "[...document.querySelectorAll('path.rp-cand')].pop().getAttribute('class')"
+    assert "rp-best" in pg.evaluate(last)
     # the best ring stands on the rank-1 candidate and takes no clicks
     ring, marker = pg.evaluate(RING, "rp-best-ring"), pg.evaluate(MARKER, best)
     assert ring["interactive"] is False
