@@ -223,10 +223,7 @@ def sizing_input(
 
     # inverter inputs, the strings in parallel at each destination, each feeder's input group
     own_input = inputs if inputs is not None else assign_inputs(site, c, imp * n_strings)
-    at = pd.DataFrame({"to": to_id[s_idx], "input": np.nan_to_num(own_input[s_idx], nan=0.0)})
-    n_par = np.ones(n)
-    n_par[s_idx] = at.groupby(["to", "input"])["to"].transform("size").to_numpy(dtype=float)
-    dc_group = _dc_groups(site, kind, parent, to_id, own_input)
+    n_par, dc_group = input_groups(site, kind, parent, to_id, own_input)
 
     fuse_fixed = np.full(n, np.nan)
     comb_fuse = pd.Series(
@@ -285,6 +282,19 @@ def sizing_input(
         air_inc_stretch=routes.air_incidence_stretch,
     )
     return inp, own_input
+
+
+def input_groups(
+    site: Site, kind: np.ndarray, parent: np.ndarray, to_id: np.ndarray, own_input: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """What follows from the inverter inputs (``own_input``, :func:`routeplan.inputs.assign_inputs`)
+    for calc: each string's ``strings_in_parallel`` (the strings joined at its destination and
+    input; 1 for other circuits) and each feeder's ``dc_group`` (:func:`_dc_groups`)."""
+    s_idx = np.flatnonzero(kind == calc.KIND_STRING)
+    at = pd.DataFrame({"to": to_id[s_idx], "input": np.nan_to_num(own_input[s_idx], nan=0.0)})
+    n_par = np.ones(len(kind))
+    n_par[s_idx] = at.groupby(["to", "input"])["to"].transform("size").to_numpy(dtype=float)
+    return n_par, _dc_groups(site, kind, parent, to_id, own_input)
 
 
 def _levels_up(parent: np.ndarray, is_string: np.ndarray) -> list[np.ndarray]:

@@ -1,0 +1,623 @@
+"""Local re-plans: after an edit, recompute only the circuits the edit can change.
+
+:func:`baseline` plans a site in full and keeps what a re-plan needs (the sizing input, the
+inverter inputs, each circuit's taps and block). :func:`replan` takes a baseline and an edited
+site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the edited site gives
+(``plan_site(..., with_remedies=False)``), value for value, recomputing only:
+
+1. **Network**: the trench noding is reused (:class:`routeplan.network.NetworkMemo`); only the
+   moved equipment is tapped again. Segments are matched to the baseline's by ``segment_id``:
+   a moved tap splits a segment where it now joins and frees the one where it joined before.
+2. **Routes** of the circuits of a moved feature and of every circuit whose route used a
+   segment that no longer exists (same path, new segments); one Dijkstra search per
+   destination, as a full plan searches. Segment counts, their circuit lists and each
+   circuit's ``group_max`` follow from the new incidence.
+3. **Sizing** (:func:`calc.size_circuits`, on a subset): the *affected* circuits are those
+   rerouted, those sharing a trench segment or an air stretch whose circuit count changed,
+   and those whose inverter input changed; each is closed over its whole block (the inverter
+   it feeds: its combiner trees — a feeder's drop budget follows from its strings' drops and a
+   string's total drop from its feeders' — and its inputs' backfeed and strings in parallel).
+   The subset is sized with the cable sets of the circuits outside it on its segments and
+   stretches held as they were; where the sized subset changes the final cable sets of a
+   segment or stretch that outside circuits share, their blocks join the subset and it is
+   sized again, until no outside circuit sees a change (the grouping's fixed point over the
+   affected segments). Everything else is carried over from the baseline.
+4. **Tables**: the cable schedule, trench schedule, inputs, bill and summary from the spliced
+   arrays (their row order is the baseline's: the circuits do not change).
+
+Anything else — trenches, rows, modules, strings, attributes of equipment, destinations
+chosen by route length, design settings — falls back to a full plan (:func:`replan` says which
+it did in ``Plan.timings_s["local"]``: 1.0 local, 0.0 full). The result is a design aid, to be
+reviewed by a qualified, licensed person.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import time
+from dataclasses import dataclass
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import shapely
+
+import calc
+from calc.losses import energy_loss_kwh
+from layers import Site
+
+from .circuits import KINDS
+from .config import DesignConfig
+from .errors import DesignError
+from .inputs import assign_inputs, input_table, landing_input
+from .network import TRENCH_ATTRIBUTES, build_network, site_equipment
+from .order import inverter_of
+from .pipeline import (
+    Plan,
+    assigned_destinations,
+    circuit_table,
+    design_params,
+    governing_ids,
+    input_groups,
+    plan_site,
+    quantity_table,
+    segment_table,
+    sizing_input,
+    summarise,
+)
+from .routing import (
+    RoutePlan,
+    _route_geometry,
+    air_stretches,
+    joined,
+    shortest_paths,
+)
+
+__all__ = ["Baseline", "baseline", "replan"]
+
+#: equipment layers whose features a local re-plan may move
+MOVABLE = ("combiners", "inverters")
+
+
+@dataclass(frozen=True, eq=False)
+class Baseline:
+    """A full plan and what a local re-plan of an edit of its site needs (routes order)."""
+
+    plan: Plan
+    inp: calc.SizingInput
+    own_input: np.ndarray
+    tap_from: np.ndarray
+    tap_to: np.ndarray
+    from_index: np.ndarray
+    block: np.ndarray  # each circuit's block (its inverter), as an integer code
+    rank: np.ndarray  # each circuit's position in circuit-id order (segments' circuit lists)
+    order: np.ndarray  # routes order → schedule order of plan.circuits
+    load_a: np.ndarray  # each circuit's Σ Imp [A] (inverter input balancing)
+
+
+def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=None) -> Baseline:
+    """Plan ``site`` in full (``with_remedies=False``; or take ``plan``, a plan of it) and keep
+    what :func:`replan` needs."""
+    if plan is None:
+        plan = plan_site(site, design, noding_memo=memo, with_remedies=False)
+    routes = plan.routes
+    c = routes.circuits
+    inp, own_input = sizing_input(site, routes)
+    taps = routes.network.taps
+    tap_key = pd.Index(taps["layer"].astype(str) + "\x00" + taps["feature_id"].astype(str))
+    tap_from = tap_key.get_indexer(c["from_layer"].astype(str) + "\x00" + c["from_id"].astype(str))
+    tap_to = tap_key.get_indexer(c["to_layer"].astype(str) + "\x00" + c["to_id"].astype(str))
+    rows = pd.Index(site.rows["id"].astype(str))
+    from_index = np.where(
+        c["from_layer"].to_numpy() == "rows", rows.get_indexer(c["from_id"].astype(str)), -1
+    )
+    # from_index of other circuits: their row in their own layer (as routing numbers them)
+    for layer in ("combiners", "inverters", "grid"):
+        m = c["from_layer"].to_numpy() == layer
+        if m.any():
+            ids = pd.Index(site.layer(layer)["id"].astype(str))
+            from_index[m] = ids.get_indexer(c.loc[m, "from_id"].astype(str))
+    block_ids = inverter_of(c["kind"], c["from_id"], c["to_id"])
+    _, block = np.unique(block_ids.astype(str), return_inverse=True)
+    cid = c["circuit_id"].to_numpy(dtype=object)
+    rank = np.empty(len(c), dtype=np.int64)
+    rank[np.argsort(cid, kind="stable")] = np.arange(len(c))
+    order = pd.Index(cid).get_indexer(plan.circuits["circuit_id"].to_numpy(dtype=object))
+    return Baseline(
+        plan,
+        inp,
+        own_input,
+        tap_from.astype(np.int64),
+        tap_to.astype(np.int64),
+        from_index.astype(np.int64),
+        block.reshape(-1).astype(np.int64),
+        rank,
+        order,
+        inp.imp_a * inp.n_strings,
+    )
+
+
+def _same_frame(a: pd.DataFrame, b: pd.DataFrame, geometry: bool = True) -> bool:
+    if a is b:
+        return True
+    if len(a) != len(b) or list(a.columns) != list(b.columns):
+        return False
+    cols = [k for k in a.columns if k != a.geometry.name] if not geometry else list(a.columns)
+    for k in cols:
+        if k == getattr(a, "_geometry_column_name", None):
+            if not np.array_equal(shapely.to_wkb(a[k].array), shapely.to_wkb(b[k].array)):
+                return False
+        elif not a[k].equals(b[k]):
+            return False
+    return True
+
+
+def moved_features(old: Site, new: Site) -> dict[str, np.ndarray] | None:
+    """Rows of the combiner and inverter layers whose geometry differs between the sites, or
+    None when anything else differs (a local re-plan does not apply)."""
+    if old.crs != new.crs or old.modules != new.modules:
+        return None
+    for name in ("trenches", "rows", "grid"):
+        if not _same_frame(old.layer(name), new.layer(name)):
+            return None
+    moved = {}
+    for name in MOVABLE:
+        a, b = old.layer(name), new.layer(name)
+        if a is b:
+            moved[name] = np.zeros(0, dtype=np.int64)
+            continue
+        if not _same_frame(a, b, geometry=False):
+            return None
+        ga, gb = np.asarray(a.geometry.array), np.asarray(b.geometry.array)
+        moved[name] = np.flatnonzero(~shapely.equals_exact(ga, gb, 0.0) | (ga is None))
+    return moved
+
+
+def replan(base: Baseline, site: Site, design: DesignConfig | None = None) -> Plan:
+    """The plan of ``site`` (the baseline's site with combiners or inverters moved), recomputing
+    only what the move can change (see the module docstring); a full plan where the edit is of
+    another kind. Raises as :func:`routeplan.pipeline.plan_site` does."""
+    t0 = time.perf_counter()
+    old = base.plan
+    design = old.design if design is None else design
+    memo = old.routes.network.memo
+    moved = moved_features(old.site, site)
+    local = (
+        moved is not None
+        and (design is old.design or design == old.design)
+        and not assigned_destinations(old.routes)
+    )
+    if local:
+        out = _local(base, site, design, moved, t0)
+        if out is not None:
+            return out
+    plan = plan_site(site, design, noding_memo=memo, with_remedies=False)
+    plan.timings_s["local"] = 0.0
+    return plan
+
+
+def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -> Plan | None:
+    t: dict[str, float] = {}
+    old = base.plan
+    r0 = old.routes
+    params = r0.params
+    net0 = r0.network
+    net = build_network(
+        site.trenches,
+        site_equipment(site),
+        node_tol_m=params.node_tol_m,
+        snap_m=params.snap_m,
+        defaults=params.trench,
+        memo=net0.memo,
+    )
+    taps0, taps = net0.taps, net.taps
+    if not taps["connected"].to_numpy(bool).all():
+        return None  # a feature left unconnected: the full plan reports it
+    t["route.network"] = time.perf_counter() - t0
+    t1 = time.perf_counter()
+
+    # --- segments: new ↔ old by id (same length), and what no longer exists
+    seg0, seg = net0.segments, net.segments
+    n_seg = len(seg)
+    new_of_old = pd.Index(seg["segment_id"].to_numpy(dtype=object)).get_indexer(
+        seg0["segment_id"].to_numpy(dtype=object)
+    )
+    ok = new_of_old >= 0
+    ok[ok] = seg["length_m"].to_numpy()[new_of_old[ok]] == seg0["length_m"].to_numpy()[ok]
+    new_of_old[~ok] = -1
+    old_of_new = np.full(n_seg, -1, dtype=np.int64)
+    old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
+    born = old_of_new < 0
+
+    # --- circuits to route again: a changed tap at either end, or a segment gone
+    node0, node = taps0["node"].to_numpy(np.int64), taps["node"].to_numpy(np.int64)
+    stub0, stub = taps0["stub_m"].to_numpy(float), taps["stub_m"].to_numpy(float)
+    tap_changed = (stub0 != stub) | np.any(net0.node_xy[node0] != net.node_xy[node], axis=1)
+    tap_changed |= ~shapely.equals_exact(
+        np.asarray(taps0.geometry.array), np.asarray(taps.geometry.array), 0.0
+    )
+    ic0, is0 = r0.incidence_circuit, r0.incidence_segment
+    n_c = len(r0.circuits)
+    reroute = tap_changed[base.tap_from] | tap_changed[base.tap_to]
+    reroute[ic0[new_of_old[is0] < 0]] = True
+    rr = np.flatnonzero(reroute)
+
+    # --- route them (one search per destination)
+    pair_key, pair_of = np.unique(
+        base.tap_from[rr] * len(taps) + base.tap_to[rr], return_inverse=True
+    )
+    pair_of = pair_of.reshape(-1)
+    p_from, p_to = pair_key // len(taps), pair_key % len(taps)
+    paths = shortest_paths(net, node[p_from], node[p_to])
+    geom = _route_geometry(net, paths, p_from, p_to)
+    plen = np.diff(paths.offset)
+    pair_route = stub[p_from] + stub[p_to] + paths.trench_m
+    seg_ids = seg["segment_id"].to_numpy(dtype=object)
+    pair_seg_ids = joined(seg_ids[paths.segment].tolist(), paths.offset)
+    t["route.search"] = time.perf_counter() - t1
+    t1 = time.perf_counter()
+
+    # --- incidence: the others' (segments renumbered), the rerouted circuits' new routes
+    keep = ~reroute[ic0]
+    c_len = plen[pair_of]
+    within = np.arange(c_len.sum()) - np.repeat(np.cumsum(c_len) - c_len, c_len)
+    inc_new_s = paths.segment[np.repeat(paths.offset[:-1][pair_of], c_len) + within]
+    inc_c = np.concatenate([ic0[keep], np.repeat(rr, c_len)])
+    inc_s = np.concatenate([new_of_old[is0[keep]], inc_new_s])
+    by_c = np.argsort(inc_c, kind="stable")
+    inc_c, inc_s = inc_c[by_c], inc_s[by_c]
+
+    # --- circuits table (routes order)
+    c0 = r0.circuits
+    c = c0.copy()
+    route_m = pair_route[pair_of]
+    row_run = c0["row_run_m"].to_numpy(float)[rr]
+    if len(rr):
+        c.loc[rr, "route_m"] = route_m
+        c.loc[rr, "trench_m"] = paths.trench_m[pair_of]
+        c.loc[rr, "stub_m"] = (stub[p_from] + stub[p_to])[pair_of]
+        c.loc[rr, "cable_m"] = (
+            route_m * (1 + params.slack_pct / 100) + 2 * params.termination_m + row_run
+        )
+        c.loc[rr, "n_segments"] = plen[pair_of]
+        c.loc[rr, "segment_ids"] = pair_seg_ids[pair_of]
+        geoms = np.asarray(c.geometry.array, dtype=object).copy()
+        geoms[rr] = geom[pair_of]
+        c = c.set_geometry(gpd.GeoSeries(geoms, index=c.index, crs=c0.crs))
+
+    # --- segment counts, their circuit lists
+    kind_code = pd.Categorical(c0["kind"], categories=KINDS).codes.astype(np.int64)
+    count = np.bincount(inc_s, minlength=n_seg).astype(np.int64)
+    by_kind = [
+        np.bincount(inc_s, weights=kind_code[inc_c] == i, minlength=n_seg).astype(np.int64)
+        for i in range(len(KINDS))
+    ]
+    s0 = r0.segments
+    count0 = s0["circuits"].to_numpy(np.int64)
+    carried_count = np.where(born, -1, count0[np.maximum(old_of_new, 0)])
+    touched = np.zeros(n_seg, dtype=bool)
+    touched[inc_new_s] = True
+    old_touch = new_of_old[is0[~keep]]
+    touched[old_touch[old_touch >= 0]] = True
+    touched |= born
+    ids_new = s0["circuit_ids"].to_numpy(dtype=object)[np.maximum(old_of_new, 0)].copy()
+    redo = np.flatnonzero(touched)
+    if len(redo):
+        sel = np.isin(inc_s, redo)
+        cc, ss = inc_c[sel], inc_s[sel]
+        o = np.lexsort((base.rank[cc], ss))
+        cid = c0["circuit_id"].to_numpy(dtype=object)
+        b = np.searchsorted(ss[o], np.r_[redo, redo[-1] + 1])
+        texts = joined(cid[cc[o]].tolist(), np.r_[b[:-1], b[-1]])
+        ids_new[redo] = texts
+    cap = seg["max_circuits"].to_numpy(float)
+    segments = gpd.GeoDataFrame(
+        {
+            "segment_id": seg_ids,
+            "trench_id": seg["trench_id"].to_numpy(dtype=object),
+            "length_m": seg["length_m"].to_numpy(float),
+            "circuits": count,
+            "strings": by_kind[KINDS.index("string")],
+            "arrays": by_kind[KINDS.index("array")],
+            "ac": by_kind[KINDS.index("ac")],
+            "subarrays": by_kind[KINDS.index("subarray")],
+            "circuit_ids": ids_new,
+            **{k: seg[k].to_numpy() for k in TRENCH_ATTRIBUTES},
+            "fill": np.where(np.isnan(cap), np.nan, count / np.where(np.isnan(cap), 1.0, cap)),
+            "over_capacity": ~np.isnan(cap) & (count > np.nan_to_num(cap, nan=np.inf)),
+            **{
+                k: seg[k].to_numpy()
+                for k in ("node_u", "node_v", "start_m", "end_m", "trench_index")
+            },
+        },
+        geometry=np.asarray(seg.geometry.array, dtype=object),
+        crs=net.crs,
+    )
+    group = np.zeros(n_c, dtype=np.int64)
+    if len(inc_c):
+        starts = np.flatnonzero(np.r_[True, inc_c[1:] != inc_c[:-1]])
+        group[inc_c[starts]] = np.maximum.reduceat(count[inc_s], starts)
+    c["group_max"] = group
+
+    # --- air stretches (stubs and row runs)
+    air, air_c, air_s = air_stretches(
+        taps, site.rows, base.tap_from, base.tap_to, base.from_index,
+        c["row_run_m"].to_numpy(float),
+    )  # fmt: skip
+    routes = RoutePlan(
+        circuits=c,
+        segments=segments,
+        incidence_circuit=inc_c,
+        incidence_segment=inc_s,
+        air=air,
+        air_incidence_circuit=air_c,
+        air_incidence_stretch=air_s,
+        assignment=r0.assignment,
+        network=net,
+        params=params,
+        timings_s={},
+    )
+    t["route.tables"] = time.perf_counter() - t1
+    t["route"] = time.perf_counter() - t0
+    t1 = time.perf_counter()
+
+    # --- inverter inputs (assigned by route length where not given)
+    try:
+        own_input = assign_inputs(site, c, base.load_a)
+    except DesignError:
+        return None
+    inp0 = base.inp
+    kind = inp0.kind
+    parent = inp0.parent
+    to_id = c0["to_id"].to_numpy(dtype=object)
+    n_par, dc_group = input_groups(site, kind, parent, to_id, own_input)
+    air0 = r0.air
+    air_old_of_new = pd.Index(air0["stretch_id"].to_numpy(dtype=object)).get_indexer(
+        air["stretch_id"].to_numpy(dtype=object)
+    )
+    inp = dataclasses.replace(
+        inp0,
+        cable_m=c["cable_m"].to_numpy(dtype=float),
+        air_m=(c["stub_m"] + c["row_run_m"]).to_numpy(dtype=float),
+        strings_in_parallel=n_par,
+        dc_group=dc_group,
+        seg_depth_m=segments["depth_m"].to_numpy(dtype=float),
+        seg_laying=(segments["laying"] == "duct").to_numpy(dtype=np.int8),
+        seg_spacing_m=segments["spacing_m"].to_numpy(dtype=float),
+        seg_soil_k_m_w=segments["soil_k_m_w"].to_numpy(dtype=float),
+        seg_count=count,
+        inc_circuit=inc_c,
+        inc_segment=inc_s,
+        air_count=np.zeros(len(air)),
+        air_behind_modules=(air["kind"] == "row run").to_numpy(dtype=bool),
+        air_inc_circuit=air_c,
+        air_inc_stretch=air_s,
+    )
+
+    # --- the affected circuits, closed over their blocks
+    affected = reroute.copy()
+    count_changed = count != carried_count
+    affected[inc_c[count_changed[inc_s]]] = True
+    air_n = np.bincount(air_s, minlength=len(air))
+    air_n0 = np.bincount(r0.air_incidence_stretch, minlength=len(air0))
+    len0 = air0["length_m"].to_numpy(float)
+    air_changed = air_old_of_new < 0
+    have = ~air_changed
+    air_changed[have] = (air_n0[air_old_of_new[have]] != air_n[have]) | (
+        len0[air_old_of_new[have]] != air["length_m"].to_numpy(float)[have]
+    )
+    affected[air_c[air_changed[air_s]]] = True
+    affected |= ~_same_nan(own_input, base.own_input)
+    affected |= n_par != inp0.strings_in_parallel
+    affected |= dc_group != inp0.dc_group
+    gone_air = np.setdiff1d(np.arange(len(air0)), air_old_of_new[air_old_of_new >= 0])
+    if len(gone_air):
+        affected[r0.air_incidence_circuit[np.isin(r0.air_incidence_stretch, gone_air)]] = True
+
+    dp = design_params(design)
+    rules = design.values["rules"]
+    r_old = old.sizing
+    p_old = np.asarray(r_old.parallel, dtype=np.int64)
+    final0 = np.asarray(r_old.seg_count_final, dtype=float)
+    final0_new = np.where(born, np.nan, final0[np.maximum(old_of_new, 0)])
+    air_final0 = np.asarray(r_old.air_count_final, dtype=float)
+    air_final0_new = np.where(air_old_of_new < 0, np.nan, air_final0[np.maximum(air_old_of_new, 0)])
+    in_block = np.zeros(int(base.block.max(initial=-1)) + 1, dtype=bool)
+    passes = 0
+    while True:
+        passes += 1
+        in_block[:] = False
+        in_block[base.block[affected]] = True
+        affected = in_block[base.block]
+        sub = np.flatnonzero(affected)
+        p = p_old.copy()
+        res, seg_sub, air_sub = _size_subset(
+            inp, dp, rules, affected, sub, p_old, born, air_old_of_new < 0
+        )
+        p[sub] = np.asarray(res.parallel, dtype=np.int64)
+        final = count + np.bincount(inc_s, weights=(p - 1)[inc_c].astype(float), minlength=n_seg)
+        air_final = air_n + np.bincount(
+            air_s, weights=(p - 1)[air_c].astype(float), minlength=len(air)
+        )
+        # outside circuits on a segment or stretch whose final cable sets differ: join them
+        seg_diff = final != final0_new
+        air_diff = air_final != air_final0_new
+        more = np.zeros(n_c, dtype=bool)
+        more[inc_c[seg_diff[inc_s]]] = True
+        more[air_c[air_diff[air_s]]] = True
+        more &= ~affected
+        if not more.any():
+            break
+        affected = affected | more
+    t["size"] = time.perf_counter() - t1
+    t["local.passes"] = float(passes)
+    t["local.circuits"] = float(len(sub))
+    t1 = time.perf_counter()
+
+    result = _splice(
+        r_old, res, sub, seg_sub, air_sub, new_of_old, air_old_of_new, n_seg, len(air), inp, dp
+    )
+    governing = governing_ids(routes, result)
+    landing = landing_input(inp.parent, own_input)
+    inputs = input_table(
+        site, c, own_input, base.load_a, np.asarray(result.isc_design_a), inp.n_strings
+    )
+    circuits = circuit_table(routes, result, inp, design, landing, governing, None)
+    seg_table = segment_table(routes, result)
+    quantities = quantity_table(circuits, seg_table, design)
+    summary = summarise(site, design, circuits, seg_table, result, inputs)
+    summary["assigned"] = assigned_destinations(routes)
+    circuits = circuits.iloc[base.order].reset_index(drop=True)
+    t["tables"] = time.perf_counter() - t1
+    t["local"] = 1.0
+    return Plan(
+        site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs
+    )
+
+
+def _same_nan(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+    return (a == b) | (np.isnan(a) & np.isnan(b))
+
+
+def _size_subset(
+    inp: calc.SizingInput,
+    dp: calc.DesignParams,
+    rules: str,
+    affected: np.ndarray,
+    sub: np.ndarray,
+    p_old: np.ndarray,
+    born_seg: np.ndarray,
+    born_air: np.ndarray,
+) -> tuple[calc.SizingResult, np.ndarray, np.ndarray]:
+    """Size the circuits ``sub`` (closed over their blocks) with the cable sets of the others
+    held at ``p_old`` on the segments and stretches they share. Returns the result and the
+    segments and stretches of the subset (positions in the whole plan)."""
+    ic, js = inp.inc_circuit, inp.inc_segment
+    ac, ak = inp.air_inc_circuit, inp.air_inc_stretch
+    m, r = len(inp.seg_count), len(inp.air_count)
+    out_extra = (p_old - 1) * ~affected
+    seg_extra = np.bincount(js, weights=out_extra[ic].astype(float), minlength=m)
+    air_extra = np.bincount(ak, weights=out_extra[ac].astype(float), minlength=r)
+    mine = affected[ic]
+    seg_sub = np.union1d(js[mine], np.flatnonzero(born_seg))
+    air_mine = affected[ac]
+    air_sub = np.union1d(ak[air_mine], np.flatnonzero(born_air))
+    local_c = np.full(len(affected), -1, dtype=np.int64)
+    local_c[sub] = np.arange(len(sub))
+    local_s = np.full(m, -1, dtype=np.int64)
+    local_s[seg_sub] = np.arange(len(seg_sub))
+    local_a = np.full(r, -1, dtype=np.int64)
+    local_a[air_sub] = np.arange(len(air_sub))
+    air_all = np.bincount(ak, minlength=r).astype(float)
+    parent = inp.parent[sub]
+    parent = np.where(parent >= 0, local_c[np.maximum(parent, 0)], -1)
+    per_circuit = {
+        f.name: np.asarray(getattr(inp, f.name))[sub]
+        for f in dataclasses.fields(inp)
+        if f.name not in _NOT_PER_CIRCUIT and getattr(inp, f.name) is not None
+    }
+    sub_inp = calc.SizingInput(
+        **per_circuit,
+        parent=parent,
+        seg_depth_m=inp.seg_depth_m[seg_sub],
+        seg_laying=inp.seg_laying[seg_sub],
+        seg_spacing_m=inp.seg_spacing_m[seg_sub],
+        seg_soil_k_m_w=inp.seg_soil_k_m_w[seg_sub],
+        seg_count=(np.asarray(inp.seg_count, dtype=float) + seg_extra)[seg_sub],
+        inc_circuit=local_c[ic[mine]],
+        inc_segment=local_s[js[mine]],
+        air_count=(air_all + air_extra)[air_sub],
+        air_behind_modules=np.asarray(inp.air_behind_modules)[air_sub],
+        air_inc_circuit=local_c[ac[air_mine]],
+        air_inc_stretch=local_a[ak[air_mine]],
+    )
+    return calc.size_circuits(sub_inp, dp, rules=rules), seg_sub, air_sub
+
+
+_NOT_PER_CIRCUIT = {
+    "parent",
+    "seg_depth_m",
+    "seg_laying",
+    "seg_spacing_m",
+    "seg_soil_k_m_w",
+    "seg_count",
+    "inc_circuit",
+    "inc_segment",
+    "air_count",
+    "air_behind_modules",
+    "air_inc_circuit",
+    "air_inc_stretch",
+}
+
+
+def _splice(
+    r_old: calc.SizingResult,
+    res: calc.SizingResult,
+    sub: np.ndarray,
+    seg_sub: np.ndarray,
+    air_sub: np.ndarray,
+    new_of_old: np.ndarray,
+    air_old_of_new: np.ndarray,
+    n_seg: int,
+    n_air: int,
+    inp: calc.SizingInput,
+    dp: calc.DesignParams,
+) -> calc.SizingResult:
+    """The whole plan's sizing: the baseline's, with the subset's circuits, segments and
+    stretches replaced; segment and stretch indices in the new numbering."""
+    fields = {}
+    old_of_new = np.full(n_seg, -1, dtype=np.int64)
+    ok = new_of_old >= 0
+    old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
+    for f in dataclasses.fields(r_old):
+        name = f.name
+        v_old = getattr(r_old, name)
+        if name in ("iterations", "rules"):
+            fields[name] = getattr(res, name) if name == "rules" else v_old
+            continue
+        if name.startswith("total_"):
+            continue
+        v_old, v_sub = np.asarray(v_old), np.asarray(getattr(res, name))
+        if name.startswith("seg_"):
+            v = np.empty(n_seg, dtype=np.result_type(v_old, v_sub))
+            have = old_of_new >= 0
+            v[have] = v_old[old_of_new[have]]
+            v[seg_sub] = v_sub
+        elif name == "air_count_final":
+            v = np.empty(n_air, dtype=np.result_type(v_old, v_sub))
+            have = air_old_of_new >= 0
+            v[have] = v_old[air_old_of_new[have]]
+            v[air_sub] = v_sub
+        elif name == "governing_segment":
+            v = np.where(v_old >= 0, new_of_old[np.maximum(v_old, 0)], -1)
+            v[sub] = np.where(v_sub >= 0, seg_sub[np.maximum(v_sub, 0)], -1)
+        elif name == "governing_air":
+            new_of_air = np.full(len(np.asarray(r_old.air_count_final)), -1, dtype=np.int64)
+            have = air_old_of_new >= 0
+            new_of_air[air_old_of_new[have]] = np.flatnonzero(have)
+            v = np.where(v_old >= 0, new_of_air[np.maximum(v_old, 0)], -1)
+            v[sub] = np.where(v_sub >= 0, air_sub[np.maximum(v_sub, 0)], -1)
+        else:
+            v = (
+                v_old.copy()
+                if v_old.dtype == np.result_type(v_old, v_sub)
+                else v_old.astype(np.result_type(v_old, v_sub))
+            )
+            v[sub] = v_sub
+        fields[name] = v
+    # per-kind totals, summed as the engine sums them (over the whole plan)
+    kind = np.asarray(inp.kind)
+    loss = fields["loss_w"]
+    dc = kind != calc.KIND_AC
+    pf = np.where(np.isnan(inp.pf), dp.power_factor, inp.pf)
+    p_w = np.where(dc, inp.vmp_v * np.asarray(fields["operating_current_a"]), inp.ac_kva * 1e3 * pf)
+    n_k = len(calc.KIND_NAMES)
+    tot_loss = np.array([loss[kind == k].sum() for k in range(n_k)])
+    tot_p = np.array([p_w[kind == k].sum() for k in range(n_k)])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tot_pct = np.where(tot_p > 0, 100.0 * tot_loss / tot_p, 0.0)
+    fields["total_loss_w"] = tot_loss
+    fields["total_loss_pct"] = tot_pct
+    fields["total_energy_loss_kwh"] = energy_loss_kwh(tot_loss, dp.loss_hours_h)
+    return calc.SizingResult(**fields)
