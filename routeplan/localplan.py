@@ -34,6 +34,7 @@ reviewed by a qualified, licensed person.
 from __future__ import annotations
 
 import dataclasses
+import re
 import time
 from dataclasses import dataclass
 
@@ -432,7 +433,7 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
         sub = np.flatnonzero(affected)
         p = p_old.copy()
         res, seg_sub, air_sub = _size_subset(
-            inp, dp, rules, affected, sub, p_old, born, air_old_of_new < 0
+            inp, dp, rules, affected, sub, p_old, born | count_changed, air_changed
         )
         p[sub] = np.asarray(res.parallel, dtype=np.int64)
         final = count + np.bincount(inc_s, weights=(p - 1)[inc_c].astype(float), minlength=n_seg)
@@ -475,6 +476,18 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
     )
 
 
+#: calc's notes name a circuit by its position in the sizing input (the subset's, here)
+_FEEDER = re.compile(r"\(feeder circuit (\d+)\)")
+
+
+def _global_notes(notes: np.ndarray, sub: np.ndarray) -> np.ndarray:
+    """The subset's notes with each ``(feeder circuit k)`` naming the plan's position ``sub[k]``."""
+    out = notes.copy()
+    for i in np.flatnonzero(np.char.find(notes.astype(str), "feeder circuit") >= 0).tolist():
+        out[i] = _FEEDER.sub(lambda m: f"(feeder circuit {sub[int(m.group(1))]})", notes[i])
+    return out
+
+
 def _same_nan(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
     return (a == b) | (np.isnan(a) & np.isnan(b))
@@ -491,8 +504,11 @@ def _size_subset(
     born_air: np.ndarray,
 ) -> tuple[calc.SizingResult, np.ndarray, np.ndarray]:
     """Size the circuits ``sub`` (closed over their blocks) with the cable sets of the others
-    held at ``p_old`` on the segments and stretches they share. Returns the result and the
-    segments and stretches of the subset (positions in the whole plan)."""
+    held at ``p_old`` on the segments and stretches they share. ``born_seg``, ``born_air``:
+    segments and stretches whose figures are recomputed even where no circuit of the subset
+    uses them (new ones, and those whose circuits changed: one left empty has none).
+    Returns the result and the segments and stretches of the subset (positions in the whole
+    plan)."""
     ic, js = inp.inc_circuit, inp.inc_segment
     ac, ak = inp.air_inc_circuit, inp.air_inc_stretch
     m, r = len(inp.seg_count), len(inp.air_count)
@@ -598,6 +614,9 @@ def _splice(
             new_of_air[air_old_of_new[have]] = np.flatnonzero(have)
             v = np.where(v_old >= 0, new_of_air[np.maximum(v_old, 0)], -1)
             v[sub] = np.where(v_sub >= 0, air_sub[np.maximum(v_sub, 0)], -1)
+        elif name == "note":
+            v = v_old.copy()
+            v[sub] = _global_notes(v_sub, sub)
         else:
             v = (
                 v_old.copy()
