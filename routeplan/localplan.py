@@ -37,6 +37,7 @@ import dataclasses
 import re
 import time
 from dataclasses import dataclass
+from types import SimpleNamespace
 
 import geopandas as gpd
 import numpy as np
@@ -51,17 +52,19 @@ from .circuits import KINDS
 from .config import DesignConfig
 from .errors import DesignError
 from .inputs import assign_inputs, input_table, landing_input
-from .network import TRENCH_ATTRIBUTES, build_network, site_equipment
+from .network import TRENCH_ATTRIBUTES, TrenchNetwork, build_network, retap, site_equipment
 from .order import inverter_of
 from .pipeline import (
     Plan,
     assigned_destinations,
     circuit_table,
+    conductor_poles,
     design_params,
     governing_ids,
     input_groups,
     plan_site,
     quantity_table,
+    segment_fill,
     segment_table,
     sizing_input,
     summarise,
@@ -74,7 +77,7 @@ from .routing import (
     shortest_paths,
 )
 
-__all__ = ["Baseline", "baseline", "replan"]
+__all__ = ["Baseline", "Figures", "MoveSearch", "baseline", "figures", "moved_features", "replan"]
 
 #: equipment layers whose features a local re-plan may move
 MOVABLE = ("combiners", "inverters")
@@ -94,6 +97,10 @@ class Baseline:
     rank: np.ndarray  # each circuit's position in circuit-id order (segments' circuit lists)
     order: np.ndarray  # routes order → schedule order of plan.circuits
     load_a: np.ndarray  # each circuit's Σ Imp [A] (inverter input balancing)
+    kind_code: np.ndarray  # each circuit's kind as its position in KINDS
+    free_input: np.ndarray  # circuits landing on an inverter input chosen by route length
+    dp: calc.DesignParams
+    stub_of: dict[int, int]  # equipment (tap row) → its stub's row of the air stretches
 
 
 def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=None) -> Baseline:
@@ -135,7 +142,45 @@ def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=No
         rank,
         order,
         inp.imp_a * inp.n_strings,
+        pd.Categorical(c["kind"], categories=KINDS).codes.astype(np.int64),
+        _free_inputs(site, c),
+        design_params(design),
+        _stubs(routes),
     )
+
+
+def _stubs(routes: RoutePlan) -> dict[int, int]:
+    air = routes.air
+    stub = np.flatnonzero((air["kind"] == "stub").to_numpy())
+    taps = routes.network.taps
+    key = pd.MultiIndex.from_arrays(
+        [taps["layer"].astype(str).to_numpy(), taps["feature_id"].astype(str).to_numpy()]
+    )
+    rows = key.get_indexer(
+        pd.MultiIndex.from_arrays(
+            [
+                air["layer"].astype(str).to_numpy()[stub],
+                air["feature_id"].astype(str).to_numpy()[stub],
+            ]
+        )
+    )
+    return dict(zip(rows.tolist(), stub.tolist(), strict=True))
+
+
+def _free_inputs(site: Site, c: pd.DataFrame) -> np.ndarray:
+    """Circuits that land on an inverter with no ``input`` given (their input follows from
+    the route lengths, :func:`routeplan.inputs.assign_inputs`)."""
+    kind = c["kind"].to_numpy(dtype=object)
+    lands = (c["to_layer"] == "inverters").to_numpy() & np.isin(kind, ("string", "array"))
+    given = np.zeros(len(c), dtype=bool)
+    from_id = c["from_id"].to_numpy(dtype=object)
+    for layer, k in (("rows", "string"), ("combiners", "array")):
+        frame = site.layer(layer)
+        if "input" not in frame.columns or not len(frame):
+            continue
+        named = frame.loc[frame["input"].notna(), "id"].to_numpy(dtype=object)
+        given |= (kind == k) & np.isin(from_id, named)
+    return lands & ~given
 
 
 def _same_frame(a: pd.DataFrame, b: pd.DataFrame, geometry: bool = True) -> bool:
@@ -174,43 +219,104 @@ def moved_features(old: Site, new: Site) -> dict[str, np.ndarray] | None:
     return moved
 
 
-def replan(base: Baseline, site: Site, design: DesignConfig | None = None) -> Plan:
+def replan(
+    base: Baseline,
+    site: Site,
+    design: DesignConfig | None = None,
+    *,
+    network: TrenchNetwork | None = None,
+) -> Plan:
     """The plan of ``site`` (the baseline's site with combiners or inverters moved), recomputing
     only what the move can change (see the module docstring); a full plan where the edit is of
-    another kind. Raises as :func:`routeplan.pipeline.plan_site` does."""
+    another kind. ``network``: the edited site's network when the caller has it
+    (:func:`routeplan.network.retap`). Raises as :func:`routeplan.pipeline.plan_site` does."""
     t0 = time.perf_counter()
     old = base.plan
     design = old.design if design is None else design
-    memo = old.routes.network.memo
-    moved = moved_features(old.site, site)
-    local = (
-        moved is not None
-        and (design is old.design or design == old.design)
-        and not assigned_destinations(old.routes)
-    )
-    if local:
-        out = _local(base, site, design, moved, t0)
+    if _applies(base, site, design):
+        out = _local(base, site, design, t0, network=network, light=False)
         if out is not None:
             return out
-    plan = plan_site(site, design, noding_memo=memo, with_remedies=False)
+    plan = plan_site(site, design, noding_memo=old.routes.network.memo, with_remedies=False)
     plan.timings_s["local"] = 0.0
     return plan
 
 
-def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -> Plan | None:
+def _applies(base: Baseline, site: Site, design: DesignConfig) -> bool:
+    old = base.plan
+    return (
+        (design is old.design or design == old.design)
+        and not assigned_destinations(old.routes)
+        and moved_features(old.site, site) is not None
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class Figures:
+    """What ranking a candidate needs of its plan, without the whole tables: ``circuits`` (the
+    cable schedule's ``circuit_id``, ``kind``, ``from_id``, ``inverter_id``, ``material``,
+    ``size_mm2``, ``parallel``, ``cable_m``, ``conductors``, ``loss_w``, ``energy_loss_kwh``,
+    ``utilisation``, ``vdrop_total_pct``, ``status``, in the schedule's order), ``segments`` and
+    ``inputs`` (their ``status``), as :class:`~routeplan.pipeline.Plan` has them."""
+
+    circuits: pd.DataFrame
+    segments: pd.DataFrame
+    inputs: pd.DataFrame
+    timings_s: dict[str, float]
+
+
+#: the sizing fields :class:`Figures` needs
+_FIGURE_FIELDS = (
+    "size_mm2",
+    "parallel",
+    "material",
+    "loss_w",
+    "energy_loss_kwh",
+    "utilisation",
+    "vdrop_total_pct",
+    "ok",
+    "seg_count_final",
+)
+
+
+def figures(base: Baseline, site: Site, network: TrenchNetwork | None = None) -> Figures | Plan:
+    """:class:`Figures` of ``site`` (the baseline's site with features moved) by a local
+    re-plan; where one does not apply, the full plan (which has the same columns)."""
+    t0 = time.perf_counter()
+    old = base.plan
+    if _applies(base, site, old.design):
+        out = _local(base, site, old.design, t0, network=network, light=True)
+        if out is not None:
+            return out
+    plan = plan_site(site, old.design, noding_memo=old.routes.network.memo, with_remedies=False)
+    plan.timings_s["local"] = 0.0
+    return plan
+
+
+def _local(
+    base: Baseline,
+    site: Site,
+    design: DesignConfig,
+    t0: float,
+    *,
+    network: TrenchNetwork | None,
+    light: bool,
+) -> Plan | Figures | None:
     t: dict[str, float] = {}
     old = base.plan
     r0 = old.routes
     params = r0.params
     net0 = r0.network
-    net = build_network(
-        site.trenches,
-        site_equipment(site),
-        node_tol_m=params.node_tol_m,
-        snap_m=params.snap_m,
-        defaults=params.trench,
-        memo=net0.memo,
-    )
+    net = network
+    if net is None:
+        net = build_network(
+            site.trenches,
+            site_equipment(site),
+            node_tol_m=params.node_tol_m,
+            snap_m=params.snap_m,
+            defaults=params.trench,
+            memo=net0.memo,
+        )
     taps0, taps = net0.taps, net.taps
     if not taps["connected"].to_numpy(bool).all():
         return None  # a feature left unconnected: the full plan reports it
@@ -220,14 +326,7 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
     # --- segments: new ↔ old by id (same length), and what no longer exists
     seg0, seg = net0.segments, net.segments
     n_seg = len(seg)
-    new_of_old = pd.Index(seg["segment_id"].to_numpy(dtype=object)).get_indexer(
-        seg0["segment_id"].to_numpy(dtype=object)
-    )
-    ok = new_of_old >= 0
-    ok[ok] = seg["length_m"].to_numpy()[new_of_old[ok]] == seg0["length_m"].to_numpy()[ok]
-    new_of_old[~ok] = -1
-    old_of_new = np.full(n_seg, -1, dtype=np.int64)
-    old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
+    new_of_old, old_of_new = _segment_map(seg0, seg)
     born = old_of_new < 0
 
     # --- circuits to route again: a changed tap at either end, or a segment gone
@@ -240,7 +339,9 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
     ic0, is0 = r0.incidence_circuit, r0.incidence_segment
     n_c = len(r0.circuits)
     reroute = tap_changed[base.tap_from] | tap_changed[base.tap_to]
-    reroute[ic0[new_of_old[is0] < 0]] = True
+    gone = np.flatnonzero(new_of_old < 0)
+    if len(gone):
+        reroute[ic0[np.isin(is0, gone)]] = True
     rr = np.flatnonzero(reroute)
 
     # --- route them (one search per destination)
@@ -250,142 +351,77 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
     pair_of = pair_of.reshape(-1)
     p_from, p_to = pair_key // len(taps), pair_key % len(taps)
     paths = shortest_paths(net, node[p_from], node[p_to])
-    geom = _route_geometry(net, paths, p_from, p_to)
     plen = np.diff(paths.offset)
     pair_route = stub[p_from] + stub[p_to] + paths.trench_m
-    seg_ids = seg["segment_id"].to_numpy(dtype=object)
-    pair_seg_ids = joined(seg_ids[paths.segment].tolist(), paths.offset)
     t["route.search"] = time.perf_counter() - t1
     t1 = time.perf_counter()
 
     # --- incidence: the others' (segments renumbered), the rerouted circuits' new routes
-    keep = ~reroute[ic0]
     c_len = plen[pair_of]
     within = np.arange(c_len.sum()) - np.repeat(np.cumsum(c_len) - c_len, c_len)
     inc_new_s = paths.segment[np.repeat(paths.offset[:-1][pair_of], c_len) + within]
-    inc_c = np.concatenate([ic0[keep], np.repeat(rr, c_len)])
-    inc_s = np.concatenate([new_of_old[is0[keep]], inc_new_s])
-    by_c = np.argsort(inc_c, kind="stable")
-    inc_c, inc_s = inc_c[by_c], inc_s[by_c]
+    inc_c, inc_s, old_rows = _splice_incidence(ic0, is0, new_of_old, rr, c_len, inc_new_s)
 
-    # --- circuits table (routes order)
+    # --- per circuit (routes order)
     c0 = r0.circuits
-    c = c0.copy()
-    route_m = pair_route[pair_of]
-    row_run = c0["row_run_m"].to_numpy(float)[rr]
-    if len(rr):
-        c.loc[rr, "route_m"] = route_m
-        c.loc[rr, "trench_m"] = paths.trench_m[pair_of]
-        c.loc[rr, "stub_m"] = (stub[p_from] + stub[p_to])[pair_of]
-        c.loc[rr, "cable_m"] = (
-            route_m * (1 + params.slack_pct / 100) + 2 * params.termination_m + row_run
-        )
-        c.loc[rr, "n_segments"] = plen[pair_of]
-        c.loc[rr, "segment_ids"] = pair_seg_ids[pair_of]
-        geoms = np.asarray(c.geometry.array, dtype=object).copy()
-        geoms[rr] = geom[pair_of]
-        c = c.set_geometry(gpd.GeoSeries(geoms, index=c.index, crs=c0.crs))
+    route_m = c0["route_m"].to_numpy(float).copy()
+    stub_m = c0["stub_m"].to_numpy(float).copy()
+    cable_m = c0["cable_m"].to_numpy(float).copy()
+    row_run = c0["row_run_m"].to_numpy(float)
+    route_m[rr] = pair_route[pair_of]
+    stub_m[rr] = (stub[p_from] + stub[p_to])[pair_of]
+    cable_m[rr] = (
+        route_m[rr] * (1 + params.slack_pct / 100) + 2 * params.termination_m + row_run[rr]
+    )
 
-    # --- segment counts, their circuit lists
-    kind_code = pd.Categorical(c0["kind"], categories=KINDS).codes.astype(np.int64)
-    count = np.bincount(inc_s, minlength=n_seg).astype(np.int64)
-    by_kind = [
-        np.bincount(inc_s, weights=kind_code[inc_c] == i, minlength=n_seg).astype(np.int64)
-        for i in range(len(KINDS))
-    ]
+    # --- segment counts (the carried counts less the old routes, plus the new ones)
+    kind_code = base.kind_code
     s0 = r0.segments
-    count0 = s0["circuits"].to_numpy(np.int64)
-    carried_count = np.where(born, -1, count0[np.maximum(old_of_new, 0)])
-    touched = np.zeros(n_seg, dtype=bool)
-    touched[inc_new_s] = True
-    old_touch = new_of_old[is0[~keep]]
-    touched[old_touch[old_touch >= 0]] = True
-    touched |= born
-    ids_new = s0["circuit_ids"].to_numpy(dtype=object)[np.maximum(old_of_new, 0)].copy()
-    redo = np.flatnonzero(touched)
-    if len(redo):
-        sel = np.isin(inc_s, redo)
-        cc, ss = inc_c[sel], inc_s[sel]
-        o = np.lexsort((base.rank[cc], ss))
-        cid = c0["circuit_id"].to_numpy(dtype=object)
-        b = np.searchsorted(ss[o], np.r_[redo, redo[-1] + 1])
-        texts = joined(cid[cc[o]].tolist(), np.r_[b[:-1], b[-1]])
-        ids_new[redo] = texts
-    cap = seg["max_circuits"].to_numpy(float)
-    segments = gpd.GeoDataFrame(
-        {
-            "segment_id": seg_ids,
-            "trench_id": seg["trench_id"].to_numpy(dtype=object),
-            "length_m": seg["length_m"].to_numpy(float),
-            "circuits": count,
-            "strings": by_kind[KINDS.index("string")],
-            "arrays": by_kind[KINDS.index("array")],
-            "ac": by_kind[KINDS.index("ac")],
-            "subarrays": by_kind[KINDS.index("subarray")],
-            "circuit_ids": ids_new,
-            **{k: seg[k].to_numpy() for k in TRENCH_ATTRIBUTES},
-            "fill": np.where(np.isnan(cap), np.nan, count / np.where(np.isnan(cap), 1.0, cap)),
-            "over_capacity": ~np.isnan(cap) & (count > np.nan_to_num(cap, nan=np.inf)),
-            **{
-                k: seg[k].to_numpy()
-                for k in ("node_u", "node_v", "start_m", "end_m", "trench_index")
-            },
-        },
-        geometry=np.asarray(seg.geometry.array, dtype=object),
-        crs=net.crs,
-    )
-    group = np.zeros(n_c, dtype=np.int64)
-    if len(inc_c):
-        starts = np.flatnonzero(np.r_[True, inc_c[1:] != inc_c[:-1]])
-        group[inc_c[starts]] = np.maximum.reduceat(count[inc_s], starts)
-    c["group_max"] = group
-
-    # --- air stretches (stubs and row runs)
-    air, air_c, air_s = air_stretches(
-        taps, site.rows, base.tap_from, base.tap_to, base.from_index,
-        c["row_run_m"].to_numpy(float),
-    )  # fmt: skip
-    routes = RoutePlan(
-        circuits=c,
-        segments=segments,
-        incidence_circuit=inc_c,
-        incidence_segment=inc_s,
-        air=air,
-        air_incidence_circuit=air_c,
-        air_incidence_stretch=air_s,
-        assignment=r0.assignment,
-        network=net,
-        params=params,
-        timings_s={},
-    )
+    old_s = is0[old_rows]
+    old_k = kind_code[ic0[old_rows]]
+    new_k = kind_code[np.repeat(rr, c_len)]
+    carried = np.where(born, 0, s0["circuits"].to_numpy(np.int64)[np.maximum(old_of_new, 0)])
+    count0_new = np.where(born, -1, carried)
+    count = carried + _delta(old_s, new_of_old, inc_new_s, n_seg)
     t["route.tables"] = time.perf_counter() - t1
-    t["route"] = time.perf_counter() - t0
     t1 = time.perf_counter()
 
-    # --- inverter inputs (assigned by route length where not given)
-    try:
-        own_input = assign_inputs(site, c, base.load_a)
-    except DesignError:
-        return None
-    inp0 = base.inp
-    kind = inp0.kind
-    parent = inp0.parent
-    to_id = c0["to_id"].to_numpy(dtype=object)
-    n_par, dc_group = input_groups(site, kind, parent, to_id, own_input)
+    # --- air stretches (stubs and row runs): only a stub's length can change, unless a
+    # stub appears or vanishes (zero length)
     air0 = r0.air
+    air, air_c, air_s = _air(base, r0, taps, site, stub0, stub, row_run)
     air_old_of_new = pd.Index(air0["stretch_id"].to_numpy(dtype=object)).get_indexer(
         air["stretch_id"].to_numpy(dtype=object)
     )
+
+    # --- inverter inputs (assigned by route length where not given)
+    inp0 = base.inp
+    own_input = base.own_input
+    n_par, dc_group = inp0.strings_in_parallel, inp0.dc_group
+    if (reroute & base.free_input).any():
+        frame = c0[["circuit_id", "kind", "from_id", "to_layer", "to_id", "strings"]].assign(
+            route_m=route_m
+        )
+        try:
+            own_input = assign_inputs(site, frame, base.load_a)
+        except DesignError:
+            return None
+        if not np.array_equal(own_input, base.own_input, equal_nan=True):
+            to_id = c0["to_id"].to_numpy(dtype=object)
+            n_par, dc_group = input_groups(site, inp0.kind, inp0.parent, to_id, own_input)
+    seg_cols = {
+        "seg_depth_m": seg["depth_m"].to_numpy(dtype=float),
+        "seg_laying": (seg["laying"] == "duct").to_numpy(dtype=np.int8),
+        "seg_spacing_m": seg["spacing_m"].to_numpy(dtype=float),
+        "seg_soil_k_m_w": seg["soil_k_m_w"].to_numpy(dtype=float),
+    }
     inp = dataclasses.replace(
         inp0,
-        cable_m=c["cable_m"].to_numpy(dtype=float),
-        air_m=(c["stub_m"] + c["row_run_m"]).to_numpy(dtype=float),
+        cable_m=cable_m,
+        air_m=stub_m + row_run,
         strings_in_parallel=n_par,
         dc_group=dc_group,
-        seg_depth_m=segments["depth_m"].to_numpy(dtype=float),
-        seg_laying=(segments["laying"] == "duct").to_numpy(dtype=np.int8),
-        seg_spacing_m=segments["spacing_m"].to_numpy(dtype=float),
-        seg_soil_k_m_w=segments["soil_k_m_w"].to_numpy(dtype=float),
+        **seg_cols,
         seg_count=count,
         inc_circuit=inc_c,
         inc_segment=inc_s,
@@ -397,8 +433,9 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
 
     # --- the affected circuits, closed over their blocks
     affected = reroute.copy()
-    count_changed = count != carried_count
-    affected[inc_c[count_changed[inc_s]]] = True
+    count_changed = count != count0_new
+    if count_changed.any():
+        affected[inc_c[count_changed[inc_s]]] = True
     air_n = np.bincount(air_s, minlength=len(air))
     air_n0 = np.bincount(r0.air_incidence_stretch, minlength=len(air0))
     len0 = air0["length_m"].to_numpy(float)
@@ -407,15 +444,17 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
     air_changed[have] = (air_n0[air_old_of_new[have]] != air_n[have]) | (
         len0[air_old_of_new[have]] != air["length_m"].to_numpy(float)[have]
     )
-    affected[air_c[air_changed[air_s]]] = True
-    affected |= ~_same_nan(own_input, base.own_input)
-    affected |= n_par != inp0.strings_in_parallel
-    affected |= dc_group != inp0.dc_group
+    if air_changed.any():
+        affected[air_c[air_changed[air_s]]] = True
+    if own_input is not base.own_input:
+        affected |= ~_same_nan(own_input, base.own_input)
+        affected |= n_par != inp0.strings_in_parallel
+        affected |= dc_group != inp0.dc_group
     gone_air = np.setdiff1d(np.arange(len(air0)), air_old_of_new[air_old_of_new >= 0])
     if len(gone_air):
         affected[r0.air_incidence_circuit[np.isin(r0.air_incidence_stretch, gone_air)]] = True
 
-    dp = design_params(design)
+    dp = base.dp
     rules = design.values["rules"]
     r_old = old.sizing
     p_old = np.asarray(r_old.parallel, dtype=np.int64)
@@ -431,21 +470,21 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
         in_block[base.block[affected]] = True
         affected = in_block[base.block]
         sub = np.flatnonzero(affected)
-        p = p_old.copy()
         res, seg_sub, air_sub = _size_subset(
             inp, dp, rules, affected, sub, p_old, born | count_changed, air_changed
         )
-        p[sub] = np.asarray(res.parallel, dtype=np.int64)
-        final = count + np.bincount(inc_s, weights=(p - 1)[inc_c].astype(float), minlength=n_seg)
-        air_final = air_n + np.bincount(
-            air_s, weights=(p - 1)[air_c].astype(float), minlength=len(air)
-        )
         # outside circuits on a segment or stretch whose final cable sets differ: join them
-        seg_diff = final != final0_new
-        air_diff = air_final != air_final0_new
+        # (a segment without a circuit of the subset keeps its count and final sets)
+        seg_diff = np.zeros(n_seg, dtype=bool)
+        final_sub = np.asarray(res.seg_count_final, dtype=float)
+        seg_diff[seg_sub] = final_sub != final0_new[seg_sub]
+        air_diff = np.zeros(len(air), dtype=bool)
+        air_diff[air_sub] = np.asarray(res.air_count_final, dtype=float) != air_final0_new[air_sub]
         more = np.zeros(n_c, dtype=bool)
-        more[inc_c[seg_diff[inc_s]]] = True
-        more[air_c[air_diff[air_s]]] = True
+        if seg_diff.any():
+            more[inc_c[seg_diff[inc_s]]] = True
+        if air_diff.any():
+            more[air_c[air_diff[air_s]]] = True
         more &= ~affected
         if not more.any():
             break
@@ -455,14 +494,98 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
     t["local.circuits"] = float(len(sub))
     t1 = time.perf_counter()
 
+    names = _FIGURE_FIELDS if light else None
     result = _splice(
-        r_old, res, sub, seg_sub, air_sub, new_of_old, air_old_of_new, n_seg, len(air), inp, dp
+        r_old, res, sub, seg_sub, air_sub, new_of_old, air_old_of_new, n_seg, len(air), inp, dp,
+        names,
+    )  # fmt: skip
+    if light:
+        out = _figures(base, result, inp, cable_m, count, seg, own_input, site)
+        t["tables"] = time.perf_counter() - t1
+        t["local"] = 1.0
+        return dataclasses.replace(out, timings_s=t)
+
+    # --- the route tables
+    geom = _route_geometry(net, paths, p_from, p_to)
+    seg_ids = seg["segment_id"].to_numpy(dtype=object)
+    pair_seg_ids = joined(seg_ids[paths.segment].tolist(), paths.offset)
+    c = c0.copy()
+    c["route_m"] = route_m
+    c["stub_m"] = stub_m
+    c["cable_m"] = cable_m
+    if len(rr):
+        c.loc[rr, "trench_m"] = paths.trench_m[pair_of]
+        c.loc[rr, "n_segments"] = plen[pair_of]
+        c.loc[rr, "segment_ids"] = pair_seg_ids[pair_of]
+        geoms = np.asarray(c.geometry.array, dtype=object).copy()
+        geoms[rr] = geom[pair_of]
+        c = c.set_geometry(gpd.GeoSeries(geoms, index=c.index, crs=c0.crs))
+    group = np.zeros(n_c, dtype=np.int64)
+    if len(inc_c):
+        starts = np.flatnonzero(np.r_[True, inc_c[1:] != inc_c[:-1]])
+        group[inc_c[starts]] = np.maximum.reduceat(count[inc_s], starts)
+    c["group_max"] = group
+    by_kind = []
+    for i in range(len(KINDS)):
+        col = s0[KINDS_COLUMN[KINDS[i]]].to_numpy(np.int64)
+        carried_k = np.where(born, 0, col[np.maximum(old_of_new, 0)])
+        by_kind.append(
+            carried_k + _delta(old_s[old_k == i], new_of_old, inc_new_s[new_k == i], n_seg)
+        )
+    touched = np.zeros(n_seg, dtype=bool)
+    touched[inc_new_s] = True
+    old_touch = new_of_old[old_s]
+    touched[old_touch[old_touch >= 0]] = True
+    touched |= born
+    ids_new = s0["circuit_ids"].to_numpy(dtype=object)[np.maximum(old_of_new, 0)].copy()
+    redo = np.flatnonzero(touched)
+    if len(redo):
+        sel = np.isin(inc_s, redo)
+        cc, ss = inc_c[sel], inc_s[sel]
+        o = np.lexsort((base.rank[cc], ss))
+        cid = c0["circuit_id"].to_numpy(dtype=object)
+        b = np.searchsorted(ss[o], np.r_[redo, redo[-1] + 1])
+        ids_new[redo] = joined(cid[cc[o]].tolist(), np.r_[b[:-1], b[-1]])
+    cap = seg["max_circuits"].to_numpy(float)
+    segments = gpd.GeoDataFrame(
+        {
+            "segment_id": seg_ids,
+            "trench_id": seg["trench_id"].to_numpy(dtype=object),
+            "length_m": seg["length_m"].to_numpy(float),
+            "circuits": count,
+            **{KINDS_COLUMN[k]: by_kind[i] for i, k in enumerate(KINDS)},
+            "circuit_ids": ids_new,
+            **{k: seg[k].to_numpy() for k in TRENCH_ATTRIBUTES},
+            "fill": np.where(np.isnan(cap), np.nan, count / np.where(np.isnan(cap), 1.0, cap)),
+            "over_capacity": ~np.isnan(cap) & (count > np.nan_to_num(cap, nan=np.inf)),
+            **{
+                k: seg[k].to_numpy()
+                for k in ("node_u", "node_v", "start_m", "end_m", "trench_index")
+            },
+        },
+        geometry=np.asarray(seg.geometry.array, dtype=object),
+        crs=net.crs,
+    )[list(s0.columns)]
+    routes = RoutePlan(
+        circuits=c,
+        segments=segments,
+        incidence_circuit=inc_c,
+        incidence_segment=inc_s,
+        air=air,
+        air_incidence_circuit=air_c,
+        air_incidence_stretch=air_s,
+        assignment=r0.assignment,
+        network=net,
+        params=params,
+        timings_s={},
     )
     governing = governing_ids(routes, result)
     landing = landing_input(inp.parent, own_input)
-    inputs = input_table(
-        site, c, own_input, base.load_a, np.asarray(result.isc_design_a), inp.n_strings
-    )
+    inputs = old.inputs
+    if own_input is not base.own_input:
+        inputs = input_table(
+            site, c, own_input, base.load_a, np.asarray(result.isc_design_a), inp.n_strings
+        )
     circuits = circuit_table(routes, result, inp, design, landing, governing, None)
     seg_table = segment_table(routes, result)
     quantities = quantity_table(circuits, seg_table, design)
@@ -474,6 +597,126 @@ def _local(base: Baseline, site: Site, design: DesignConfig, moved, t0: float) -
     return Plan(
         site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs
     )
+
+
+#: the trench schedule's count column of each circuit kind
+KINDS_COLUMN = {"string": "strings", "array": "arrays", "ac": "ac", "subarray": "subarrays"}
+
+
+def _segment_map(seg0: pd.DataFrame, seg: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Each old segment's index in the new network (-1: gone) and each new one's old index
+    (-1: new), matched by id and length. Fast path: the same segments but for a few inserted
+    or removed rows (retap splits one), found by comparing the id columns shifted."""
+    ids0 = seg0["segment_id"].to_numpy(dtype=object)
+    ids = seg["segment_id"].to_numpy(dtype=object)
+    new_of_old = pd.Index(ids).get_indexer(ids0)
+    ok = new_of_old >= 0
+    ok[ok] = seg["length_m"].to_numpy()[new_of_old[ok]] == seg0["length_m"].to_numpy()[ok]
+    new_of_old[~ok] = -1
+    old_of_new = np.full(len(ids), -1, dtype=np.int64)
+    old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
+    return new_of_old, old_of_new
+
+
+def _splice_incidence(
+    ic0: np.ndarray,
+    is0: np.ndarray,
+    new_of_old: np.ndarray,
+    rr: np.ndarray,
+    c_len: np.ndarray,
+    inc_new_s: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The incidence with the rerouted circuits ``rr`` (sorted) replaced by their new routes
+    (``c_len`` segments each, ``inc_new_s``), by circuit and in route order; and the old rows
+    removed. Old segments are renumbered (``new_of_old``)."""
+    lo = np.searchsorted(ic0, rr, side="left")
+    hi = np.searchsorted(ic0, rr, side="right")
+    n_old = hi - lo
+    old_rows = np.repeat(lo, n_old) + (
+        np.arange(n_old.sum()) - np.repeat(np.cumsum(n_old) - n_old, n_old)
+    )
+    keep = np.ones(len(ic0), dtype=bool)
+    keep[old_rows] = False
+    kept_c, kept_s = ic0[keep], new_of_old[is0[keep]]
+    at = np.searchsorted(kept_c, rr, side="left")  # where each rerouted circuit goes
+    inc_c = np.insert(kept_c, np.repeat(at, c_len), np.repeat(rr, c_len))
+    inc_s = np.insert(kept_s, np.repeat(at, c_len), inc_new_s)
+    return inc_c, inc_s, old_rows
+
+
+def _delta(old_s: np.ndarray, new_of_old: np.ndarray, new_s: np.ndarray, n_seg: int) -> np.ndarray:
+    """Per new segment: the circuits the new routes add less those the old routes leave
+    (old segments renumbered; gone ones dropped)."""
+    out = np.zeros(n_seg, dtype=np.int64)
+    np.add.at(out, new_s, 1)
+    o = new_of_old[old_s]
+    np.subtract.at(out, o[o >= 0], 1)
+    return out
+
+
+def _air(base, r0, taps, site, stub0, stub, row_run):
+    """The air stretches and their incidence: the baseline's where no stub appears or
+    vanishes (lengths updated), else made again (:func:`routeplan.routing.air_stretches`)."""
+    has0, has = np.nan_to_num(stub0) > 0, np.nan_to_num(stub) > 0
+    if np.array_equal(has0, has):
+        air = r0.air
+        changed = np.flatnonzero(stub0 != stub)
+        if len(changed):
+            pos = np.array([base.stub_of.get(int(i), -1) for i in changed.tolist()])
+            if (pos >= 0).all():
+                air = air.copy()
+                length = air["length_m"].to_numpy(float).copy()
+                length[pos] = stub[changed]
+                air["length_m"] = length
+                return air, r0.air_incidence_circuit, r0.air_incidence_stretch
+        else:
+            return air, r0.air_incidence_circuit, r0.air_incidence_stretch
+    return air_stretches(taps, site.rows, base.tap_from, base.tap_to, base.from_index, row_run)
+
+
+def _figures(base, result, inp, cable_m, count, seg, own_input, site) -> Figures:
+    """:class:`Figures` from the spliced sizing (the schedule's order and columns)."""
+    old = base.plan
+    o = base.order
+    parallel = np.asarray(result.parallel)
+    conductors = conductor_poles(inp.kind, inp.phases) * parallel
+    c = old.circuits
+    circuits = pd.DataFrame(
+        {
+            "circuit_id": c["circuit_id"].to_numpy(),
+            "kind": c["kind"].to_numpy(),
+            "from_id": c["from_id"].to_numpy(),
+            "inverter_id": c["inverter_id"].to_numpy(),
+            "material": np.asarray(result.material)[o],
+            "size_mm2": np.asarray(result.size_mm2)[o],
+            "parallel": parallel[o],
+            "cable_m": cable_m[o],
+            "conductors": conductors[o],
+            "loss_w": np.asarray(result.loss_w)[o],
+            "energy_loss_kwh": np.asarray(result.energy_loss_kwh)[o],
+            "utilisation": np.asarray(result.utilisation)[o],
+            "vdrop_total_pct": np.asarray(result.vdrop_total_pct)[o],
+            "status": np.where(np.asarray(result.ok)[o], "ok", "fail"),
+        }
+    )
+    cap_sets = (
+        seg["max_cable_sets"].to_numpy(dtype=float)
+        if "max_cable_sets" in seg
+        else np.full(len(seg), np.nan)
+    )
+    _, _, status = segment_fill(
+        count.astype(float),
+        seg["max_circuits"].to_numpy(float),
+        cap_sets,
+        np.asarray(result.seg_count_final, dtype=np.int64),
+    )
+    inputs = old.inputs
+    if own_input is not base.own_input:
+        inputs = input_table(
+            site, old.routes.circuits, own_input, base.load_a,
+            np.asarray(old.sizing.isc_design_a), inp.n_strings,
+        )  # fmt: skip
+    return Figures(circuits, pd.DataFrame({"status": status}), inputs[["status"]], {})
 
 
 #: calc's notes name a circuit by its position in the sizing input (the subset's, here)
@@ -579,15 +822,19 @@ def _splice(
     n_air: int,
     inp: calc.SizingInput,
     dp: calc.DesignParams,
+    names: tuple[str, ...] | None = None,
 ) -> calc.SizingResult:
     """The whole plan's sizing: the baseline's, with the subset's circuits, segments and
-    stretches replaced; segment and stretch indices in the new numbering."""
+    stretches replaced; segment and stretch indices in the new numbering. ``names``: only
+    these fields (a namespace of them instead of a :class:`calc.SizingResult`)."""
     fields = {}
     old_of_new = np.full(n_seg, -1, dtype=np.int64)
     ok = new_of_old >= 0
     old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
     for f in dataclasses.fields(r_old):
         name = f.name
+        if names is not None and name not in names:
+            continue
         v_old = getattr(r_old, name)
         if name in ("iterations", "rules"):
             fields[name] = getattr(res, name) if name == "rules" else v_old
@@ -625,6 +872,8 @@ def _splice(
             )
             v[sub] = v_sub
         fields[name] = v
+    if names is not None:
+        return SimpleNamespace(**fields)
     # per-kind totals, summed as the engine sums them (over the whole plan)
     kind = np.asarray(inp.kind)
     loss = fields["loss_w"]
@@ -640,3 +889,52 @@ def _splice(
     fields["total_loss_pct"] = tot_pct
     fields["total_energy_loss_kwh"] = energy_loss_kwh(tot_loss, dp.loss_hours_h)
     return calc.SizingResult(**fields)
+
+
+class MoveSearch:
+    """Many positions of one inverter or combiner, each a local re-plan of one baseline.
+
+    The network without the feature is built once (the feature set beyond reach of every
+    trench); each position then joins it by :func:`routeplan.network.retap` where it can (a
+    node of its own), else the network is built with the memo."""
+
+    def __init__(
+        self, site: Site, design: DesignConfig, layer: str, row: int, plan: Plan | None = None
+    ) -> None:
+        self.base = baseline(site, design, plan)
+        self.layer, self.row = layer, row
+        net = self.base.plan.routes.network
+        feature_id = str(site.layer(layer)["id"].iloc[row])
+        self.tap = net.tap(layer, feature_id)
+        x0, y0 = site.trenches.total_bounds[:2]
+        params = self.base.plan.routes.params
+        far = _with_anchor(site, layer, row, (x0 - 10 * params.snap_m - 1e3, y0))
+        self.minus = build_network(
+            far.trenches,
+            site_equipment(far),
+            node_tol_m=params.node_tol_m,
+            snap_m=params.snap_m,
+            defaults=params.trench,
+            memo=net.memo,
+        )
+
+    def site_at(self, xy: tuple[float, float]) -> Site:
+        """The baseline's site with the feature's anchor (a point, a pad's centroid) at ``xy``."""
+        return _with_anchor(self.base.plan.site, self.layer, self.row, xy)
+
+    def figures(self, site: Site) -> Figures | Plan:
+        """:func:`figures` of ``site`` (the feature moved, nothing else)."""
+        geom = site.layer(self.layer).geometry.iloc[self.row]
+        net = retap(self.minus, self.tap, geom)
+        return figures(self.base, site, network=net)
+
+
+def _with_anchor(site: Site, layer: str, row: int, xy: tuple[float, float]) -> Site:
+    frame = site.layer(layer)
+    geom = frame.geometry.iloc[row]
+    a = geom if geom.geom_type == "Point" else geom.centroid
+    moved = shapely.transform(geom, lambda c: c + np.array([xy[0] - a.x, xy[1] - a.y]))
+    geoms = frame.geometry.to_numpy().copy()
+    geoms[row] = moved
+    new = frame.set_geometry(gpd.GeoSeries(geoms, index=frame.index, crs=frame.crs))
+    return dataclasses.replace(site, **{layer: new})

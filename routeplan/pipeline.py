@@ -528,9 +528,7 @@ def circuit_table(
     if len(routes.incidence_circuit):
         np.maximum.at(group_max, routes.incidence_circuit, final[routes.incidence_segment])
     kind = inp.kind
-    poles = np.where(
-        kind != calc.KIND_AC, POLES["dc"], np.where(inp.phases == 3, POLES["ac3"], POLES["ac1"])
-    )
+    poles = conductor_poles(kind, inp.phases)
     u_ref = np.where(kind == calc.KIND_AC, inp.ac_v, inp.vmp_v)
     governing = governing_ids(routes, r) if governing is None else governing
     remedy = np.full(len(c), "", dtype=object) if remedy is None else remedy
@@ -593,6 +591,26 @@ def circuit_table(
     return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
 
 
+def conductor_poles(kind: np.ndarray, phases: np.ndarray) -> np.ndarray:
+    """Current-carrying conductors of each circuit per parallel set (:data:`POLES`)."""
+    return np.where(
+        kind != calc.KIND_AC, POLES["dc"], np.where(phases == 3, POLES["ac3"], POLES["ac1"])
+    )
+
+
+def segment_fill(
+    count: np.ndarray, cap: np.ndarray, cap_sets: np.ndarray, sets: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Each trench segment's fill, its basis and status (:func:`segment_table`) from its
+    circuits, ``max_circuits``, ``max_cable_sets`` (NaN: none) and cable sets."""
+    by_sets = np.isnan(cap) & np.isfinite(cap_sets)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        fill = np.where(by_sets, sets / cap_sets, np.where(np.isfinite(cap), count / cap, np.nan))
+    basis = np.where(by_sets, "cable_sets", np.where(np.isfinite(cap), "circuits", ""))
+    status = np.where(np.isfinite(fill) & (fill > 1 + _EPS), "over", "ok")
+    return fill, basis, status
+
+
 def governing_ids(routes: RoutePlan, r: calc.SizingResult) -> np.ndarray:
     """Per circuit, the id of the stretch that governs its capacity: a trench segment, an air
     stretch (a row run or stub), or "air" where the circuit has neither."""
@@ -625,10 +643,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
         if "max_cable_sets" in s
         else np.full(len(s), np.nan)
     )
-    by_sets = np.isnan(cap) & np.isfinite(cap_sets)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        fill = np.where(by_sets, sets / cap_sets, np.where(np.isfinite(cap), count / cap, np.nan))
-    basis = np.where(by_sets, "cable_sets", np.where(np.isfinite(cap), "circuits", ""))
+    fill, basis, status = segment_fill(count, cap, cap_sets, sets)
     frame = pd.DataFrame(
         {
             "segment_id": s["segment_id"].to_numpy(),
@@ -640,7 +655,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "ac": s["ac"].to_numpy(),
             "max_circuits": cap,
             "fill": fill,
-            "status": np.where(np.isfinite(fill) & (fill > 1 + _EPS), "over", "ok"),
+            "status": status,
             "circuit_ids": s["circuit_ids"].to_numpy(),
             "max_cable_sets": cap_sets,
             "fill_basis": basis,

@@ -31,7 +31,7 @@ from hypothesis import strategies as st
 
 from routeplan.check import load
 from routeplan.errors import RoutingError
-from routeplan.localplan import baseline, moved_features, replan
+from routeplan.localplan import MoveSearch, baseline, moved_features, replan
 from routeplan.pipeline import plan_site
 from routeplan.placement import _anchor, moved_site
 from routeplan.synth import generate_site
@@ -189,3 +189,47 @@ def test_other_edits_fall_back_to_a_full_plan(plants):
     combiners = site.combiners.copy()
     combiners.loc[combiners.index[0], "fuse_a"] = 20.0
     assert moved_features(site, dataclasses.replace(site, combiners=combiners)) is None
+
+
+_searches: dict[tuple[str, str, int], MoveSearch] = {}
+
+
+def _search(plants, name: str, layer: str, row: int) -> MoveSearch:
+    key = (name, layer, row)
+    if key not in _searches:
+        site, design, base = plants[name]
+        _searches[key] = MoveSearch(site, design, layer, row, base.plan)
+    return _searches[key]
+
+
+@pytest.mark.parametrize("name", ["plain", "tight"])
+@settings(
+    max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_placement_figures_equal_cold_plan(plants, name, data):
+    """What placement ranks a candidate by (:func:`routeplan.localplan.figures`, through
+    :func:`routeplan.network.retap` from the network without the feature) equals the same
+    columns of a cold plan of the moved site, in the schedule's order."""
+    site, design, _ = plants[name]
+    layer = data.draw(st.sampled_from(["inverters", "combiners"]))
+    row = data.draw(st.integers(0, min(len(site.layer(layer)), 4) - 1))
+    search = _search(plants, name, layer, row)
+    trenches = np.asarray(site.trenches.geometry.array)
+    a = _anchor(site.layer(layer).geometry.iloc[row])
+    near = np.flatnonzero(shapely.distance(trenches, a) < 150.0)
+    line = trenches[data.draw(st.sampled_from(near.tolist()))]
+    p = shapely.line_interpolate_point(line, data.draw(st.floats(0.0, 1.0)), normalized=True)
+    moved = search.site_at((round(p.x, 2), round(p.y, 2)))
+    try:
+        cold = _cold(moved, design, search.base.plan.routes.network.memo)
+    except RoutingError as exc:
+        with pytest.raises(type(exc)):
+            search.figures(moved)
+        return
+    fig = search.figures(moved)
+    assert fig.timings_s["local"] == 1.0
+    cols = list(fig.circuits.columns)
+    assert _frames_equal(fig.circuits, cold.circuits[cols]) == []
+    assert fig.segments["status"].reset_index(drop=True).equals(cold.segments["status"])
+    assert fig.inputs["status"].reset_index(drop=True).equals(cold.inputs["status"])
