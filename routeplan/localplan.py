@@ -72,7 +72,6 @@ from .pipeline import (
 from .routing import (
     RoutePlan,
     _route_geometry,
-    air_stretches,
     joined,
     shortest_paths,
 )
@@ -100,7 +99,10 @@ class Baseline:
     kind_code: np.ndarray  # each circuit's kind as its position in KINDS
     free_input: np.ndarray  # circuits landing on an inverter input chosen by route length
     dp: calc.DesignParams
-    stub_of: dict[int, int]  # equipment (tap row) → its stub's row of the air stretches
+    to_inverter: np.ndarray  # the inverter (row) each circuit lands on; -1: none
+    inputs_given: bool  # an ``input`` given on some row or combiner
+    input_frame: pd.DataFrame  # the columns assign_inputs and input_table read
+    figure_static: pd.DataFrame  # the schedule's columns a move does not change (Figures)
 
 
 def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=None) -> Baseline:
@@ -145,26 +147,18 @@ def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=No
         pd.Categorical(c["kind"], categories=KINDS).codes.astype(np.int64),
         _free_inputs(site, c),
         design_params(design),
-        _stubs(routes),
+        np.where(
+            (c["to_layer"] == "inverters").to_numpy(),
+            pd.Index(site.inverters["id"].astype(str)).get_indexer(c["to_id"].astype(str)),
+            -1,
+        ),
+        any(
+            "input" in site.layer(name).columns and site.layer(name)["input"].notna().any()
+            for name in ("rows", "combiners")
+        ),
+        c[["circuit_id", "kind", "from_id", "to_layer", "to_id", "strings"]],
+        plan.circuits[["circuit_id", "kind", "from_id", "inverter_id"]].reset_index(drop=True),
     )
-
-
-def _stubs(routes: RoutePlan) -> dict[int, int]:
-    air = routes.air
-    stub = np.flatnonzero((air["kind"] == "stub").to_numpy())
-    taps = routes.network.taps
-    key = pd.MultiIndex.from_arrays(
-        [taps["layer"].astype(str).to_numpy(), taps["feature_id"].astype(str).to_numpy()]
-    )
-    rows = key.get_indexer(
-        pd.MultiIndex.from_arrays(
-            [
-                air["layer"].astype(str).to_numpy()[stub],
-                air["feature_id"].astype(str).to_numpy()[stub],
-            ]
-        )
-    )
-    return dict(zip(rows.tolist(), stub.tolist(), strict=True))
 
 
 def _free_inputs(site: Site, c: pd.DataFrame) -> np.ndarray:
@@ -389,24 +383,31 @@ def _local(
     # --- air stretches (stubs and row runs): only a stub's length can change, unless a
     # stub appears or vanishes (zero length)
     air0 = r0.air
-    air, air_c, air_s = _air(base, r0, taps, site, stub0, stub, row_run)
-    air_old_of_new = pd.Index(air0["stretch_id"].to_numpy(dtype=object)).get_indexer(
-        air["stretch_id"].to_numpy(dtype=object)
-    )
+    air, air_c, air_s = _air(r0, stub0, stub, base.tap_from, base.tap_to)
+    air_old_of_new = np.arange(len(air))  # one stretch per tap and per row, always
 
-    # --- inverter inputs (assigned by route length where not given)
+    # --- inverter inputs (assigned by route length where not given): those of the inverters
+    # a rerouted circuit lands on, each inverter's on its own (as a full assignment does)
     inp0 = base.inp
     own_input = base.own_input
     n_par, dc_group = inp0.strings_in_parallel, inp0.dc_group
+    input_rows = None  # circuits landing on the inverters whose inputs were assigned again
     if (reroute & base.free_input).any():
-        frame = c0[["circuit_id", "kind", "from_id", "to_layer", "to_id", "strings"]].assign(
-            route_m=route_m
-        )
+        if base.inputs_given:  # an ``input`` given somewhere: the checks need every circuit
+            input_rows = np.arange(n_c)
+        else:
+            inverters = np.unique(base.to_inverter[reroute & base.free_input])
+            input_rows = np.flatnonzero(np.isin(base.to_inverter, inverters))
+        frame = base.input_frame.iloc[input_rows].assign(route_m=route_m[input_rows])
         try:
-            own_input = assign_inputs(site, frame, base.load_a)
+            part = assign_inputs(site, frame, base.load_a[input_rows])
         except DesignError:
             return None
-        if not np.array_equal(own_input, base.own_input, equal_nan=True):
+        if np.array_equal(part, base.own_input[input_rows], equal_nan=True):
+            input_rows = None
+        else:
+            own_input = base.own_input.copy()
+            own_input[input_rows] = part
             to_id = c0["to_id"].to_numpy(dtype=object)
             n_par, dc_group = input_groups(site, inp0.kind, inp0.parent, to_id, own_input)
     seg_cols = {
@@ -446,7 +447,7 @@ def _local(
     )
     if air_changed.any():
         affected[air_c[air_changed[air_s]]] = True
-    if own_input is not base.own_input:
+    if input_rows is not None:
         affected |= ~_same_nan(own_input, base.own_input)
         affected |= n_par != inp0.strings_in_parallel
         affected |= dc_group != inp0.dc_group
@@ -500,7 +501,7 @@ def _local(
         names,
     )  # fmt: skip
     if light:
-        out = _figures(base, result, inp, cable_m, count, seg, own_input, site)
+        out = _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site)
         t["tables"] = time.perf_counter() - t1
         t["local"] = 1.0
         return dataclasses.replace(out, timings_s=t)
@@ -582,7 +583,7 @@ def _local(
     governing = governing_ids(routes, result)
     landing = landing_input(inp.parent, own_input)
     inputs = old.inputs
-    if own_input is not base.own_input:
+    if input_rows is not None:
         inputs = input_table(
             site, c, own_input, base.load_a, np.asarray(result.isc_design_a), inp.n_strings
         )
@@ -605,16 +606,36 @@ KINDS_COLUMN = {"string": "strings", "array": "arrays", "ac": "ac", "subarray": 
 
 def _segment_map(seg0: pd.DataFrame, seg: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     """Each old segment's index in the new network (-1: gone) and each new one's old index
-    (-1: new), matched by id and length. Fast path: the same segments but for a few inserted
-    or removed rows (retap splits one), found by comparing the id columns shifted."""
+    (-1: new), matched by id and length. Segments keep their order, so an equipment edit
+    shifts the others by at most a few places: ids are compared at shifts −2…2 first, and only
+    the few left over are looked up (an id is unique, so a match found is the match)."""
     ids0 = seg0["segment_id"].to_numpy(dtype=object)
     ids = seg["segment_id"].to_numpy(dtype=object)
-    new_of_old = pd.Index(ids).get_indexer(ids0)
+    len0 = seg0["length_m"].to_numpy(float)
+    len1 = seg["length_m"].to_numpy(float)
+    n0, n = len(ids0), len(ids)
+    new_of_old = np.full(n0, -1, dtype=np.int64)
+    for d in (0, -1, 1, -2, 2):
+        i = np.flatnonzero(new_of_old < 0)
+        j = i + d
+        inside = (j >= 0) & (j < n)
+        i, j = i[inside], j[inside]
+        hit = ids0[i] == ids[j]
+        new_of_old[i[hit]] = j[hit]
+    old_of_new = np.full(n, -1, dtype=np.int64)
+    old_of_new[new_of_old[new_of_old >= 0]] = np.flatnonzero(new_of_old >= 0)
+    rest_old, rest_new = np.flatnonzero(new_of_old < 0), np.flatnonzero(old_of_new < 0)
+    if len(rest_old) and len(rest_new):
+        where = {v: k for k, v in zip(rest_new.tolist(), ids[rest_new].tolist(), strict=True)}
+        for i in rest_old.tolist():
+            j = where.get(ids0[i], -1)
+            if j >= 0:
+                new_of_old[i], old_of_new[j] = j, i
     ok = new_of_old >= 0
-    ok[ok] = seg["length_m"].to_numpy()[new_of_old[ok]] == seg0["length_m"].to_numpy()[ok]
-    new_of_old[~ok] = -1
-    old_of_new = np.full(len(ids), -1, dtype=np.int64)
-    old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
+    same = np.zeros(n0, dtype=bool)
+    same[ok] = len1[new_of_old[ok]] == len0[ok]
+    old_of_new[new_of_old[ok & ~same]] = -1
+    new_of_old[~same] = -1
     return new_of_old, old_of_new
 
 
@@ -654,51 +675,59 @@ def _delta(old_s: np.ndarray, new_of_old: np.ndarray, new_s: np.ndarray, n_seg: 
     return out
 
 
-def _air(base, r0, taps, site, stub0, stub, row_run):
-    """The air stretches and their incidence: the baseline's where no stub appears or
-    vanishes (lengths updated), else made again (:func:`routeplan.routing.air_stretches`)."""
+def _air(
+    r0: RoutePlan, stub0: np.ndarray, stub: np.ndarray, tap_from: np.ndarray, tap_to: np.ndarray
+) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
+    """The air stretches and their incidence (:func:`routeplan.routing.air_stretches`: one
+    stretch per tap, then one per row): the stub lengths updated, and the circuits of a tap
+    whose stub appears (length > 0) or vanishes put on or taken off it."""
+    air, c, k = r0.air, r0.air_incidence_circuit, r0.air_incidence_stretch
+    changed = np.flatnonzero(~_same_nan(stub0, stub))
+    if not len(changed):
+        return air, c, k
+    air = air.copy()
+    length = air["length_m"].to_numpy(float).copy()
+    length[changed] = np.nan_to_num(stub[changed])
+    air["length_m"] = length
     has0, has = np.nan_to_num(stub0) > 0, np.nan_to_num(stub) > 0
-    if np.array_equal(has0, has):
-        air = r0.air
-        changed = np.flatnonzero(stub0 != stub)
-        if len(changed):
-            pos = np.array([base.stub_of.get(int(i), -1) for i in changed.tolist()])
-            if (pos >= 0).all():
-                air = air.copy()
-                length = air["length_m"].to_numpy(float).copy()
-                length[pos] = stub[changed]
-                air["length_m"] = length
-                return air, r0.air_incidence_circuit, r0.air_incidence_stretch
-        else:
-            return air, r0.air_incidence_circuit, r0.air_incidence_stretch
-    return air_stretches(taps, site.rows, base.tap_from, base.tap_to, base.from_index, row_run)
+    gone, new = changed[has0[changed] & ~has[changed]], changed[~has0[changed] & has[changed]]
+    if len(gone):
+        keep = ~np.isin(k, gone)
+        c, k = c[keep], k[keep]
+    if len(new):
+        n = len(air)
+        add_c = np.concatenate(
+            [np.flatnonzero(np.isin(tap_from, new)), np.flatnonzero(np.isin(tap_to, new))]
+        )
+        add_k = np.concatenate([tap_from[np.isin(tap_from, new)], tap_to[np.isin(tap_to, new)]])
+        key = np.unique(add_c * n + add_k)
+        at = np.searchsorted(c * n + k, key)
+        c = np.insert(c, at, key // n)
+        k = np.insert(k, at, key % n)
+    return air, c, k
 
 
-def _figures(base, result, inp, cable_m, count, seg, own_input, site) -> Figures:
+def _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site) -> Figures:
     """:class:`Figures` from the spliced sizing (the schedule's order and columns)."""
     old = base.plan
     o = base.order
     parallel = np.asarray(result.parallel)
     conductors = conductor_poles(inp.kind, inp.phases) * parallel
-    c = old.circuits
-    circuits = pd.DataFrame(
-        {
-            "circuit_id": c["circuit_id"].to_numpy(),
-            "kind": c["kind"].to_numpy(),
-            "from_id": c["from_id"].to_numpy(),
-            "inverter_id": c["inverter_id"].to_numpy(),
-            "material": np.asarray(result.material)[o],
-            "size_mm2": np.asarray(result.size_mm2)[o],
-            "parallel": parallel[o],
-            "cable_m": cable_m[o],
-            "conductors": conductors[o],
-            "loss_w": np.asarray(result.loss_w)[o],
-            "energy_loss_kwh": np.asarray(result.energy_loss_kwh)[o],
-            "utilisation": np.asarray(result.utilisation)[o],
-            "vdrop_total_pct": np.asarray(result.vdrop_total_pct)[o],
-            "status": np.where(np.asarray(result.ok)[o], "ok", "fail"),
-        }
-    )
+    circuits = base.figure_static.copy(deep=False)
+    idx = circuits.index
+    for name, values in (
+        ("material", np.asarray(result.material, dtype=object)[o]),
+        ("size_mm2", np.asarray(result.size_mm2)[o]),
+        ("parallel", parallel[o]),
+        ("cable_m", cable_m[o]),
+        ("conductors", conductors[o]),
+        ("loss_w", np.asarray(result.loss_w)[o]),
+        ("energy_loss_kwh", np.asarray(result.energy_loss_kwh)[o]),
+        ("utilisation", np.asarray(result.utilisation)[o]),
+        ("vdrop_total_pct", np.asarray(result.vdrop_total_pct)[o]),
+        ("status", np.where(np.asarray(result.ok)[o], "ok", "fail").astype(object)),
+    ):
+        circuits[name] = pd.Series(values, index=idx, dtype=values.dtype, copy=False)
     cap_sets = (
         seg["max_cable_sets"].to_numpy(dtype=float)
         if "max_cable_sets" in seg
@@ -710,13 +739,18 @@ def _figures(base, result, inp, cable_m, count, seg, own_input, site) -> Figures
         cap_sets,
         np.asarray(result.seg_count_final, dtype=np.int64),
     )
-    inputs = old.inputs
-    if own_input is not base.own_input:
-        inputs = input_table(
-            site, old.routes.circuits, own_input, base.load_a,
-            np.asarray(old.sizing.isc_design_a), inp.n_strings,
+    inputs = old.inputs[["status"]]
+    if input_rows is not None:  # the inverters assigned again: their rows anew
+        rows = input_rows
+        again = input_table(
+            site, base.input_frame.iloc[rows], own_input[rows], base.load_a[rows],
+            np.asarray(old.sizing.isc_design_a)[rows], inp.n_strings[rows],
         )  # fmt: skip
-    return Figures(circuits, pd.DataFrame({"status": status}), inputs[["status"]], {})
+        others = ~old.inputs["inverter_id"].isin(again["inverter_id"]).to_numpy()
+        inputs = pd.DataFrame(
+            {"status": np.r_[old.inputs["status"].to_numpy()[others], again["status"].to_numpy()]}
+        )
+    return Figures(circuits, pd.DataFrame({"status": status}), inputs, {})
 
 
 #: calc's notes name a circuit by its position in the sizing input (the subset's, here)
