@@ -174,7 +174,12 @@ def _free_inputs(site: Site, c: pd.DataFrame) -> np.ndarray:
             continue
         named = frame.loc[frame["input"].notna(), "id"].to_numpy(dtype=object)
         given |= (kind == k) & np.isin(from_id, named)
-    return lands & ~given
+    n_inputs = (
+        site.inverters.set_index("id")["dc_inputs"]
+        .reindex(c["to_id"].to_numpy(dtype=object))
+        .to_numpy(dtype=float)
+    )
+    return lands & ~given & ~(n_inputs == 1)  # a single input takes everything
 
 
 def _same_frame(a: pd.DataFrame, b: pd.DataFrame, geometry: bool = True) -> bool:
@@ -410,12 +415,19 @@ def _local(
             own_input[input_rows] = part
             to_id = c0["to_id"].to_numpy(dtype=object)
             n_par, dc_group = input_groups(site, inp0.kind, inp0.parent, to_id, own_input)
-    seg_cols = {
-        "seg_depth_m": seg["depth_m"].to_numpy(dtype=float),
-        "seg_laying": (seg["laying"] == "duct").to_numpy(dtype=np.int8),
-        "seg_spacing_m": seg["spacing_m"].to_numpy(dtype=float),
-        "seg_soil_k_m_w": seg["soil_k_m_w"].to_numpy(dtype=float),
-    }
+    # segment attributes: carried over, those of new segments read
+    nb = np.flatnonzero(born)
+    seg_cols = {}
+    for name, col in (
+        ("seg_depth_m", "depth_m"),
+        ("seg_laying", "laying"),
+        ("seg_spacing_m", "spacing_m"),
+        ("seg_soil_k_m_w", "soil_k_m_w"),
+    ):
+        v = np.asarray(getattr(inp0, name))[np.maximum(old_of_new, 0)]
+        fresh = seg[col].iloc[nb]
+        v[nb] = (fresh == "duct").to_numpy(dtype=np.int8) if col == "laying" else fresh
+        seg_cols[name] = v
     inp = dataclasses.replace(
         inp0,
         cable_m=cable_m,
@@ -451,9 +463,6 @@ def _local(
         affected |= ~_same_nan(own_input, base.own_input)
         affected |= n_par != inp0.strings_in_parallel
         affected |= dc_group != inp0.dc_group
-    gone_air = np.setdiff1d(np.arange(len(air0)), air_old_of_new[air_old_of_new >= 0])
-    if len(gone_air):
-        affected[r0.air_incidence_circuit[np.isin(r0.air_incidence_stretch, gone_air)]] = True
 
     dp = base.dp
     rules = design.values["rules"]
