@@ -24,6 +24,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyogrio
 import pytest
 import shapely
 from hypothesis import HealthCheck, given, settings
@@ -45,19 +46,28 @@ ac = [95, 120]
 """
 
 
-def _site(root: Path, mw: float, seed: int, extra: str = ""):
+def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0):
     generate_site(mw, seed, root)
     if extra:
         toml = root / "site.toml"
         toml.write_text(toml.read_text() + extra)
+    if dc_inputs:  # arrays spread over the inputs by route length (routeplan.inputs)
+        inv = pyogrio.read_dataframe(root / "site.gpkg", layer="inverters")
+        inv["dc_inputs"] = dc_inputs
+        pyogrio.write_dataframe(inv, root / "site.gpkg", layer="inverters", driver="GPKG")
     return load(root)
+
+
+#: the plants: plain; tight sizes (parallel sets); inverters with 3 DC inputs each, which the
+#: arrays are spread over nearest first, so a move can change an array's input and backfeed
+PLANTS = (("plain", 8, 5, "", 0), ("tight", 6, 7, TIGHT, 0), ("inputs", 6, 9, "", 3))
 
 
 @pytest.fixture(scope="module")
 def plants(tmp_path_factory):
     out = {}
-    for name, mw, seed, extra in (("plain", 8, 5, ""), ("tight", 6, 7, TIGHT)):
-        site, design = _site(tmp_path_factory.mktemp(name), mw, seed, extra)
+    for name, mw, seed, extra, dc_inputs in PLANTS:
+        site, design = _site(tmp_path_factory.mktemp(name), mw, seed, extra, dc_inputs)
         out[name] = (site, design, baseline(site, design))
     return out
 
@@ -133,7 +143,7 @@ def _cold(site, design, memo):
     return plan_site(site, design, noding_memo=memo, with_remedies=False)
 
 
-@pytest.mark.parametrize("name", ["plain", "tight"])
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
 @settings(
     max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
@@ -158,6 +168,13 @@ def test_tight_site_has_parallel_sets(plants):
     """The tight site does exercise the grouping's coupling through extra cable sets."""
     _, _, base = plants["tight"]
     assert int(np.max(base.plan.sizing.parallel)) > 1
+
+
+def test_inputs_site_spreads_arrays_by_route(plants):
+    """The inputs site does exercise inputs chosen by route length (more than one in use)."""
+    _, _, base = plants["inputs"]
+    assert base.free_input.any()
+    assert len(np.unique(base.own_input[base.free_input])) > 1
 
 
 def test_a_move_changes_the_plan(plants):
@@ -202,7 +219,7 @@ def _search(plants, name: str, layer: str, row: int) -> MoveSearch:
     return _searches[key]
 
 
-@pytest.mark.parametrize("name", ["plain", "tight"])
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
 @settings(
     max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
