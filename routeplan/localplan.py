@@ -383,6 +383,7 @@ def _local(
     count0_new = np.where(born, -1, carried)
     count = carried + _delta(old_s, new_of_old, inc_new_s, n_seg)
     t["route.tables"] = time.perf_counter() - t1
+    t["route"] = time.perf_counter() - t0
     t1 = time.perf_counter()
 
     # --- air stretches (stubs and row runs): only a stub's length can change, unless a
