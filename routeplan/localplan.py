@@ -726,7 +726,7 @@ def _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site
     circuits = base.figure_static.copy(deep=False)
     idx = circuits.index
     for name, values in (
-        ("material", np.asarray(result.material, dtype=object)[o]),
+        ("material", pd.Categorical(np.asarray(result.material, dtype=object)[o])),
         ("size_mm2", np.asarray(result.size_mm2)[o]),
         ("parallel", parallel[o]),
         ("cable_m", cable_m[o]),
@@ -735,9 +735,12 @@ def _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site
         ("energy_loss_kwh", np.asarray(result.energy_loss_kwh)[o]),
         ("utilisation", np.asarray(result.utilisation)[o]),
         ("vdrop_total_pct", np.asarray(result.vdrop_total_pct)[o]),
-        ("status", np.where(np.asarray(result.ok)[o], "ok", "fail").astype(object)),
+        (
+            "status",
+            pd.Categorical.from_codes(np.asarray(result.ok)[o].astype(np.int8), ["fail", "ok"]),
+        ),
     ):
-        circuits[name] = pd.Series(values, index=idx, dtype=values.dtype, copy=False)
+        circuits[name] = pd.Series(values, index=idx, copy=False)
     cap_sets = (
         seg["max_cable_sets"].to_numpy(dtype=float)
         if "max_cable_sets" in seg
