@@ -33,8 +33,9 @@ from hypothesis import strategies as st
 from routeplan.check import load
 from routeplan.errors import RoutingError
 from routeplan.localplan import MoveSearch, baseline, moved_features, replan
-from routeplan.pipeline import plan_site
-from routeplan.placement import _anchor, moved_site
+from routeplan.network import build_network, retap, site_equipment
+from routeplan.pipeline import plan_site, route_params
+from routeplan.placement import _anchor, candidate_points, moved_site
 from routeplan.synth import generate_site
 
 #: cable sizes that force parallel sets on a generated plant's array and a.c. cables
@@ -254,3 +255,54 @@ def test_placement_figures_equal_cold_plan(plants, name, data):
         )
     assert fig.segments["status"].reset_index(drop=True).equals(cold.segments["status"])
     assert fig.inputs["status"].reset_index(drop=True).equals(cold.inputs["status"])
+
+
+def _network(site, design, memo=None):
+    params = route_params(design)
+    return build_network(
+        site.trenches,
+        site_equipment(site),
+        node_tol_m=params.node_tol_m,
+        snap_m=params.snap_m,
+        defaults=params.trench,
+        memo=memo,
+    )
+
+
+@settings(
+    max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_retap_equals_a_build(plants, data):
+    """:func:`routeplan.network.retap` (the feature joined to the network built without it)
+    gives the network a build of the moved site gives: nodes, segments (ids, chainage, nodes,
+    geometry) and taps, value for value; where it declines (None) a build is made instead."""
+    site, design, _ = plants["plain"]
+    layer = data.draw(st.sampled_from(["inverters", "combiners"]))
+    row = data.draw(st.integers(0, min(len(site.layer(layer)), 4) - 1))
+    search = _search(plants, "plain", layer, row)
+    trenches = np.asarray(site.trenches.geometry.array)
+    line = trenches[data.draw(st.integers(0, len(trenches) - 1))]
+    p = shapely.line_interpolate_point(line, data.draw(st.floats(0.0, 1.0)), normalized=True)
+    moved = search.site_at((round(p.x, 2), round(p.y, 2)))
+    got = retap(search.minus, search.tap, moved.layer(layer).geometry.iloc[row])
+    if got is None:
+        return
+    want = _network(moved, design)
+    assert np.array_equal(got.node_xy, want.node_xy)
+    assert _frames_equal(got.segments, want.segments) == []
+    assert _frames_equal(got.taps, want.taps) == []
+
+
+def test_retap_joins_most_points_along_trenches(plants):
+    """retap takes the common case itself: points every 7 m along the trenches near a pad
+    (a few, near nodes, are left to a build)."""
+    site, _, _ = plants["plain"]
+    search = _search(plants, "plain", "inverters", 0)
+    a = _anchor(site.inverters.geometry.iloc[0])
+    xy, _ = candidate_points(site.trenches, (a.x, a.y), 80.0, 7.0)
+    done = [
+        retap(search.minus, search.tap, search.site_at(tuple(p)).inverters.geometry.iloc[0])
+        for p in xy
+    ]
+    assert sum(d is not None for d in done) > len(xy) // 2
