@@ -6,12 +6,20 @@ site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the e
 (``plan_site(..., with_remedies=False)``), value for value, recomputing only:
 
 1. **Network**: the trench noding is reused (:class:`routeplan.network.NetworkMemo`); only the
-   moved equipment is tapped again. Segments are matched to the baseline's by ``segment_id``:
-   a moved tap splits a segment where it now joins and frees the one where it joined before.
+   moved equipment is tapped again (or, for many positions of one feature, :class:`MoveSearch`
+   joins it to the network built once without it, :func:`routeplan.network.retap`). Segments
+   are matched to the baseline's by ``segment_id`` and length (compared at small shifts of
+   position first: the order of segments is kept): a moved tap splits a segment where it now
+   joins and frees the one where it joined before.
 2. **Routes** of the circuits of a moved feature and of every circuit whose route used a
    segment that no longer exists (same path, new segments); one Dijkstra search per
-   destination, as a full plan searches. Segment counts, their circuit lists and each
-   circuit's ``group_max`` follow from the new incidence.
+   destination, as a full plan searches. The incidence is the baseline's with those circuits'
+   rows replaced; segment counts are the carried counts less the old routes plus the new
+   ones; circuit lists are joined again only for the segments whose circuits changed. The air
+   stretches keep their rows (one per tap and per row): a moved stub's length changes, and
+   its circuits join or leave it where its length becomes or stops being zero. Inverter
+   inputs chosen by route length are assigned again for the inverters a rerouted circuit
+   lands on (each inverter's assignment is its own).
 3. **Sizing** (:func:`calc.size_circuits`, on a subset): the *affected* circuits are those
    rerouted, those sharing a trench segment or an air stretch whose circuit count changed,
    and those whose inverter input changed; each is closed over its whole block (the inverter
@@ -23,7 +31,13 @@ site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the e
    sized again, until no outside circuit sees a change (the grouping's fixed point over the
    affected segments). Everything else is carried over from the baseline.
 4. **Tables**: the cable schedule, trench schedule, inputs, bill and summary from the spliced
-   arrays (their row order is the baseline's: the circuits do not change).
+   arrays (their row order is the baseline's: the circuits do not change). calc's notes that
+   name a feeder by its position in the sizing input are renumbered to the plan's positions.
+   :func:`figures` skips the tables: the columns ``routeplan place`` ranks by, from the spliced
+   arrays (:class:`Figures`).
+
+Remedies (:mod:`routeplan.remedy`) are not computed: a local re-plan is the plan
+``plan_site(..., with_remedies=False)`` gives.
 
 Anything else — trenches, rows, modules, strings, attributes of equipment, destinations
 chosen by route length, design settings — falls back to a full plan (:func:`replan` says which
