@@ -117,8 +117,8 @@ DECIMALS: dict[str, int] = {
 }
 
 
-#: most candidate positions one search plans (each is a whole plan: a larger request is refused
-#: with the count, before any planning)
+#: most candidate positions one search plans (a larger request is refused with the count,
+#: before any planning)
 MAX_CANDIDATES = 2000
 
 
