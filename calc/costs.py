@@ -31,11 +31,11 @@ def density_kg_m3(material: ArrayLike) -> np.ndarray:
     t = load_table("conductor_density.csv")
     names = tuple(t["material"].tolist())
     m = np.asarray(material, dtype=str)
-    for value in np.unique(m):
+    values, inverse = np.unique(m.ravel(), return_inverse=True)
+    for value in values:
         check_option("material", str(value), names)
-    index = {name: i for i, name in enumerate(names)}
-    rows = np.array([index[str(v)] for v in m.ravel()], dtype=int).reshape(m.shape)
-    return t["density_kg_m3"][rows]
+    rows = np.array([names.index(str(v)) for v in values], dtype=int)[inverse.ravel()]
+    return t["density_kg_m3"][rows.reshape(m.shape)]
 
 
 def conductor_mass_kg(

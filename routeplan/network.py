@@ -60,6 +60,7 @@ __all__ = [
     "node_trenches",
     "overlap_min_m",
     "paused_gc",
+    "retap",
     "site_equipment",
     "trench_fingerprint",
     "trench_problems",
@@ -207,6 +208,14 @@ class TrenchNetwork:
     snap_m: float
     _index: dict[tuple[str, str], int] = field(default_factory=dict, repr=False)
     memo: NetworkMemo | None = field(default=None, repr=False, metadata={"transient": True})
+    #: how the build made the nodes and segments (:func:`retap` needs it; not cached):
+    #: ``node_tap`` (per node: the equipment row of its first member where every member is a
+    #: tap, else -1), ``seg_part``, ``seg_a``, ``seg_b`` (per segment: its simple part and the
+    #: positions of its ends along it [m]), ``tap_xy`` (per equipment feature: its tap point,
+    #: NaN where unconnected)
+    build: dict[str, np.ndarray] | None = field(
+        default=None, repr=False, metadata={"transient": True}
+    )
 
     @property
     def n_nodes(self) -> int:
@@ -697,6 +706,7 @@ def build_network(
     node_of_label[order] = np.arange(len(rep))
     act_xy = np.concatenate([noded.cand_xy[t_act], tap_xy])
     node_xy = act_xy[rep[order]]
+    node_first = rep[order]  # each node's first member (trench candidates, then the taps)
     cand_node = np.full(len(noded.cand_xy), -1, dtype=np.int64)
     cand_node[t_act] = node_of_label[label[:n_ta]]
     tap_node = node_of_label[label[n_ta:]]
@@ -786,6 +796,19 @@ def build_network(
         strict=True,
     )
     index = dict(zip(pairs, range(n_eq), strict=True))
+    all_tap_xy = np.full((n_eq, 2), np.nan)
+    all_tap_xy[ceq] = tap_xy
+    build = {
+        "node_tap": np.where(
+            node_first >= n_ta, ceq[np.clip(node_first - n_ta, 0, max(len(ceq) - 1, 0))], -1
+        )
+        if len(ceq)
+        else np.full(len(node_first), -1, dtype=np.int64),
+        "seg_part": p_part,
+        "seg_a": p_a,
+        "seg_b": p_b,
+        "tap_xy": all_tap_xy,
+    }
     return TrenchNetwork(
         crs=trenches.crs,
         node_xy=node_xy,
@@ -794,6 +817,7 @@ def build_network(
         node_tol_m=float(node_tol_m),
         snap_m=float(snap_m),
         _index=index,
+        build=build,
         memo=NetworkMemo(
             noded=noded,
             snap_m=float(snap_m),
@@ -801,6 +825,125 @@ def build_network(
                 {"part": eq_part, "distance_m": eq_dist}, geometry=eq_geoms, crs=trenches.crs
             ),
         ),
+    )
+
+
+def retap(network: TrenchNetwork, row: int, geometry: shapely.Geometry) -> TrenchNetwork | None:
+    """The network with equipment feature ``row`` — not connected in ``network`` (e.g. moved
+    beyond ``snap_m`` when it was built) — connected at ``geometry``, without building again:
+    the same network :func:`build_network` gives for the site with the feature there.
+
+    Only the common case is done here: the feature's tap point lies farther than twice the
+    tolerance from every node candidate and every other tap, so it becomes a node of its own
+    that splits one segment in two (the node numbered as a build numbers it). Anything else —
+    within reach of a candidate or tap, beyond ``snap_m``, a split that would make two ids
+    alike, a network without build data — returns None (build the network instead)."""
+    b = network.build
+    memo = network.memo
+    if b is None or memo is None or network.taps["node"].iloc[row] >= 0:
+        return None
+    noded = memo.noded
+    tol, snap = noded.tol_m, network.snap_m
+    geom = np.array([geometry], dtype=object)
+    part, dist = np.full(1, -1, dtype=np.int64), np.full(1, np.inf)
+    todo = np.arange(1)
+    for radius in [r for r in _NEAREST_RADII_M if r < snap] + [max(snap, MIN_TOL_M)]:
+        _nearest(noded.tree, geom[todo], todo, radius, part, dist)
+        todo = todo[part[todo] < 0]
+        if not len(todo):
+            break
+    if part[0] < 0 or not dist[0] <= snap:
+        return None
+    j = int(part[0])
+    parts = noded.parts
+    line = shapely.shortest_line(geom, parts[j : j + 1])
+    (near_xy, tap_xy) = shapely.get_coordinates(line).reshape(2, 2)
+    reach = 2.0 * tol + 1e-6
+    t_act = noded.cand_xy[noded.active]
+    if len(t_act) and np.min(np.hypot(*(t_act - tap_xy).T)) <= reach:
+        return None
+    others = b["tap_xy"]
+    ok = ~np.isnan(others[:, 0])
+    if ok.any() and np.min(np.hypot(*(others[ok] - tap_xy).T)) <= reach:
+        return None
+    pos = float(shapely.line_locate_point(parts[j], shapely.points(tap_xy)))
+    seg_part, seg_a, seg_b = b["seg_part"], b["seg_a"], b["seg_b"]
+    hit = np.flatnonzero((seg_part == j) & (seg_a < pos) & (seg_b > pos))
+    if len(hit) != 1:
+        return None
+    s = int(hit[0])
+    # the new node's number: after every node with a trench candidate and the tap-only nodes
+    # whose first tap comes earlier in the equipment order
+    node_tap = b["node_tap"]
+    k = int(np.sum(node_tap < 0) + np.sum((node_tap >= 0) & (node_tap < row)))
+    node_xy = np.insert(network.node_xy, k, tap_xy, axis=0)
+    seg = network.segments
+    u_old, v_old = int(seg["node_u"].iloc[s]), int(seg["node_v"].iloc[s])
+    u, v = u_old + (u_old >= k), v_old + (v_old >= k)
+    part_len, part_off, gkey = noded._chainage
+    start_m, end_m = float(seg["start_m"].iloc[s]), float(seg["end_m"].iloc[s])
+    trench_at = _trench_offsets(noded.owner, part_len)[j]
+    mid_m = trench_at + pos
+    tid = noded.trench_ids[noded.owner[j]]
+    new_ids = segment_ids(
+        np.array([tid, tid]), np.array([start_m, mid_m]), np.array([mid_m, end_m])
+    )
+    old_id = seg["segment_id"].iloc[s]
+    if segment_ids(np.array([tid]), np.array([start_m]), np.array([end_m]))[0] != old_id:
+        return None  # the old id was widened against a twin: the build decides
+    same_trench = np.flatnonzero(seg["trench_index"].to_numpy() == noded.owner[j])
+    twins = set(seg["segment_id"].to_numpy(dtype=object)[same_trench[same_trench != s]].tolist())
+    if new_ids[0] == new_ids[1] or twins & set(new_ids.tolist()):
+        return None
+    geoms = _pieces(
+        noded.xy, gkey, part_off, np.array([j, j]), np.array([seg_a[s], pos]),
+        np.array([pos, seg_b[s]]), node_xy[[u, k]], node_xy[[k, v]],
+    )  # fmt: skip
+    two = seg.iloc[[s, s]].copy()
+    two["segment_id"] = new_ids
+    two["node_u"] = np.array([u, k], dtype=two["node_u"].dtype)
+    two["node_v"] = np.array([k, v], dtype=two["node_v"].dtype)
+    two["start_m"] = np.array([start_m, mid_m])
+    two["end_m"] = np.array([mid_m, end_m])
+    two["length_m"] = shapely.length(geoms)
+    two = two.set_geometry(gpd.GeoSeries(geoms, index=two.index, crs=seg.crs))
+    segments = pd.concat([seg.iloc[:s], two, seg.iloc[s + 1 :]], ignore_index=True)
+    for col in ("node_u", "node_v"):
+        x = segments[col].to_numpy().copy()
+        keep = np.r_[np.arange(s), np.arange(s + 2, len(x))]
+        x[keep] += x[keep] >= k
+        segments[col] = x
+    taps = network.taps.copy()
+    node = taps["node"].to_numpy(np.int64).copy()
+    node += node >= k
+    node[row] = k
+    taps["node"] = node
+    stub = shapely.linestrings(np.stack([near_xy, tap_xy]))
+    geoms_t = np.asarray(taps.geometry.array, dtype=object).copy()
+    geoms_t[row] = stub
+    conn = taps["connected"].to_numpy(bool).copy()
+    conn[row] = True
+    taps["connected"] = conn
+    for col, value in (
+        ("distance_m", float(dist[0])),
+        ("trench_id", tid),
+        ("stub_m", float(shapely.length(stub))),
+    ):
+        x = taps[col].to_numpy().copy()
+        x[row] = value
+        taps[col] = x
+    taps = taps.set_geometry(gpd.GeoSeries(geoms_t, index=taps.index, crs=taps.crs))
+    tap_all = others.copy()
+    tap_all[row] = tap_xy
+    build = {
+        "node_tap": np.insert(node_tap, k, row),
+        "seg_part": np.insert(seg_part, s + 1, j),
+        "seg_a": np.r_[seg_a[:s], seg_a[s], pos, seg_a[s + 1 :]],
+        "seg_b": np.r_[seg_b[:s], pos, seg_b[s], seg_b[s + 1 :]],
+        "tap_xy": tap_all,
+    }
+    return dataclasses.replace(
+        network, node_xy=node_xy, segments=segments, taps=taps, build=build, memo=memo
     )
 
 

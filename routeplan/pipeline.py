@@ -226,10 +226,7 @@ def sizing_input(
 
     # inverter inputs, the strings in parallel at each destination, each feeder's input group
     own_input = inputs if inputs is not None else assign_inputs(site, c, imp * n_strings)
-    at = pd.DataFrame({"to": to_id[s_idx], "input": np.nan_to_num(own_input[s_idx], nan=0.0)})
-    n_par = np.ones(n)
-    n_par[s_idx] = at.groupby(["to", "input"])["to"].transform("size").to_numpy(dtype=float)
-    dc_group = _dc_groups(site, kind, parent, to_id, own_input)
+    n_par, dc_group = input_groups(site, kind, parent, to_id, own_input)
 
     fuse_fixed = np.full(n, np.nan)
     comb_fuse = pd.Series(
@@ -290,6 +287,19 @@ def sizing_input(
         air_length_m=routes.air["length_m"].to_numpy(dtype=float),
     )
     return inp, own_input
+
+
+def input_groups(
+    site: Site, kind: np.ndarray, parent: np.ndarray, to_id: np.ndarray, own_input: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """What follows from the inverter inputs (``own_input``, :func:`routeplan.inputs.assign_inputs`)
+    for calc: each string's ``strings_in_parallel`` (the strings joined at its destination and
+    input; 1 for other circuits) and each feeder's ``dc_group`` (:func:`_dc_groups`)."""
+    s_idx = np.flatnonzero(kind == calc.KIND_STRING)
+    at = pd.DataFrame({"to": to_id[s_idx], "input": np.nan_to_num(own_input[s_idx], nan=0.0)})
+    n_par = np.ones(len(kind))
+    n_par[s_idx] = at.groupby(["to", "input"])["to"].transform("size").to_numpy(dtype=float)
+    return n_par, _dc_groups(site, kind, parent, to_id, own_input)
 
 
 def _levels_up(parent: np.ndarray, is_string: np.ndarray) -> list[np.ndarray]:
@@ -523,9 +533,7 @@ def circuit_table(
     if len(routes.incidence_circuit):
         np.maximum.at(group_max, routes.incidence_circuit, final[routes.incidence_segment])
     kind = inp.kind
-    poles = np.where(
-        kind != calc.KIND_AC, POLES["dc"], np.where(inp.phases == 3, POLES["ac3"], POLES["ac1"])
-    )
+    poles = conductor_poles(kind, inp.phases)
     u_ref = np.where(kind == calc.KIND_AC, inp.ac_v, inp.vmp_v)
     governing = governing_ids(routes, r) if governing is None else governing
     remedy = np.full(len(c), "", dtype=object) if remedy is None else remedy
@@ -618,6 +626,26 @@ def governing_condition(
     return _CONDITIONS[code]
 
 
+def conductor_poles(kind: np.ndarray, phases: np.ndarray) -> np.ndarray:
+    """Current-carrying conductors of each circuit per parallel set (:data:`POLES`)."""
+    return np.where(
+        kind != calc.KIND_AC, POLES["dc"], np.where(phases == 3, POLES["ac3"], POLES["ac1"])
+    )
+
+
+def segment_fill(
+    count: np.ndarray, cap: np.ndarray, cap_sets: np.ndarray, sets: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Each trench segment's fill, its basis and status (:func:`segment_table`) from its
+    circuits, ``max_circuits``, ``max_cable_sets`` (NaN: none) and cable sets."""
+    by_sets = np.isnan(cap) & np.isfinite(cap_sets)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        fill = np.where(by_sets, sets / cap_sets, np.where(np.isfinite(cap), count / cap, np.nan))
+    basis = np.where(by_sets, "cable_sets", np.where(np.isfinite(cap), "circuits", ""))
+    status = np.where(np.isfinite(fill) & (fill > 1 + _EPS), "over", "ok")
+    return fill, basis, status
+
+
 def governing_ids(routes: RoutePlan, r: calc.SizingResult) -> np.ndarray:
     """Per circuit, the id of the stretch that governs its capacity: a trench segment, an air
     stretch (a row run or stub), or "air" where the circuit has neither."""
@@ -650,10 +678,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
         if "max_cable_sets" in s
         else np.full(len(s), np.nan)
     )
-    by_sets = np.isnan(cap) & np.isfinite(cap_sets)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        fill = np.where(by_sets, sets / cap_sets, np.where(np.isfinite(cap), count / cap, np.nan))
-    basis = np.where(by_sets, "cable_sets", np.where(np.isfinite(cap), "circuits", ""))
+    fill, basis, status = segment_fill(count, cap, cap_sets, sets)
     frame = pd.DataFrame(
         {
             "segment_id": s["segment_id"].to_numpy(),
@@ -665,7 +690,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "ac": s["ac"].to_numpy(),
             "max_circuits": cap,
             "fill": fill,
-            "status": np.where(np.isfinite(fill) & (fill > 1 + _EPS), "over", "ok"),
+            "status": status,
             "circuit_ids": s["circuit_ids"].to_numpy(),
             "max_cable_sets": cap_sets,
             "fill_basis": basis,

@@ -26,9 +26,11 @@
    cause, do not disqualify a position. Feasible candidates rank first, by objective; the
    others follow, by their block's and new failures.
 
-Speed: each candidate is a whole plan (the noding reused): about 0.3 s on the 3.5 MW demo
-and a few seconds on a 1 GW plant, per candidate. Re-planning only what a move can change
-is not done yet.
+Speed: the current position is planned in full; every other candidate is a local re-plan of
+that plan (:class:`routeplan.localplan.MoveSearch`): the feature joins the network built once
+without it, only its circuits are routed again and only the blocks whose circuits, trench
+segments or air stretches change are sized again; the objective's columns come from the
+spliced arrays (the same values as a full plan of the candidate, which the tests check).
 
 What the search does not consider: terrain, access roads, civil works and their cost, the
 pad's footprint clashing with rows, cable pulling limits, and any position off the trenches.
@@ -54,6 +56,7 @@ from layers import Site
 
 from .config import KINDS, CostConfig, DesignConfig
 from .errors import RoutingError
+from .localplan import MoveSearch
 from .pipeline import KIND_CODE, Plan, design_params, plan_site
 
 __all__ = [
@@ -114,8 +117,8 @@ DECIMALS: dict[str, int] = {
 }
 
 
-#: most candidate positions one search plans (each is a whole plan: a larger request is refused
-#: with the count, before any planning)
+#: most candidate positions one search plans (a larger request is refused with the count,
+#: before any planning)
 MAX_CANDIDATES = 2000
 
 
@@ -366,20 +369,27 @@ def search(
     ref: Reference | None = None
     best: tuple[tuple, int] | None = None
     memo = None
+    mover: MoveSearch | None = None
+    layer = "inverters" if kind == "inverter" else "combiners"
     for i, (x, y) in enumerate(xy):
         if progress:
             progress(i, len(xy))
         candidate = site if i == 0 else moved_site(site, kind, row, (float(x), float(y)))
         note = "current position" if i == 0 else ""
         try:
-            plan = plan_site(candidate, design, noding_memo=memo, with_remedies=False)
+            if mover is not None:  # a local re-plan of the current position's plan
+                plan = mover.figures(candidate)
+            else:
+                plan = plan_site(candidate, design, noding_memo=memo, with_remedies=False)
+                memo = plan.routes.network.memo
         except RoutingError as exc:
             records.append(_unroutable(i, x, y, trench[i], origin, str(exc)))
             continue
-        memo = plan.routes.network.memo
         if ref is None:  # the first plan that routes: the kinds the site has, the reference
             check_prices(design, plan.circuits["kind"].unique())
             ref = Reference.of(plan, kind, feature_id)
+            if i == 0:  # the current position's plan is the baseline of every other
+                mover = MoveSearch(site, design, layer, row, plan)
         e = evaluate(plan, design.costs, ref)
         value, unit = objective(e, design.costs)
         records.append(
@@ -434,8 +444,16 @@ def candidate_layer(table: pd.DataFrame, crs) -> gpd.GeoDataFrame:
 
 def write_placement(table: pd.DataFrame, crs, folder: Path) -> list[str]:
     """Write ``placement.csv`` and ``placement.gpkg`` (layer ``candidates``) into ``folder``;
-    returns the file names."""
-    table.round(DECIMALS).to_csv(folder / "placement.csv", index=False)
+    returns the file names. The CSV's text cells (a trench id, the currency, a note quoting an
+    id) are guarded against formulas as the schedules' are
+    (:func:`routeplan.outputs.schedules.csv_guard`)."""
+    from .outputs.schedules import csv_guard
+
+    out = table.round(DECIMALS)
+    for col in ("trench_id", "objective_unit", "note"):
+        text = out[col].fillna("").astype(str).tolist()
+        out[col] = [c.decode("utf-8") for c in csv_guard([t.encode("utf-8") for t in text])]
+    out.to_csv(folder / "placement.csv", index=False)
     candidate_layer(table, crs).to_file(
         folder / "placement.gpkg", layer="candidates", engine="pyogrio"
     )

@@ -1,0 +1,156 @@
+"""Benchmark: local re-plans after a pad move, and a placement search, on a generated plant.
+
+    python bench/place.py [--mw 1000] [--seed 1] [--candidates 200] [--work DIR] [--json FILE]
+
+Not part of the test suite. It generates a plant with :func:`routeplan.synth.generate_site`
+(an invented scenario), then measures in this process:
+
+* **pad move**: the first inverter pad moved 8 m along y (as ``bench/run.py`` moves it), the
+  site read again and re-planned locally from the plan before the move
+  (:func:`routeplan.localplan.replan`): read, route, size (the planning part) and tables,
+  against a full plan of the same site (``plan_site(..., with_remedies=False)``);
+* **placement**: ``routeplan place``'s search (:func:`routeplan.placement.search`) for one
+  inverter of the plant, the radius the smallest that gives at least ``--candidates``
+  positions every 5 m: the current position planned in full, each other a local re-plan, the
+  best planned again with its remedies.
+
+Each figure is given as wall-clock and as CPU seconds of this process: on a shared machine
+the CPU seconds are what the work costs, the wall-clock what it took there. Every plant is
+invented; the numbers are timings of a design aid.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import sys
+import tempfile
+import time
+import types
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parent.parent
+if str(ROOT) not in sys.path:  # run from a clone without installing
+    sys.path.insert(0, str(ROOT))
+
+
+def _clock() -> tuple[float, float]:
+    return time.perf_counter(), time.process_time()
+
+
+def _since(t: tuple[float, float]) -> dict[str, float]:
+    w, c = _clock()
+    return {"wall_s": w - t[0], "cpu_s": c - t[1]}
+
+
+def pad_move(site_dir: Path) -> dict:
+    """Full plan, then the pad moved and re-planned locally (stage times in CPU seconds)."""
+    from run import move_pad  # bench/run.py: the same edit
+
+    import routeplan.localplan as lp
+    from routeplan.check import load
+    from routeplan.pipeline import plan_site
+
+    t = _clock()
+    site, design = load(site_dir)
+    read = _since(t)
+    t = _clock()
+    plan = plan_site(site, design, with_remedies=False)
+    full = _since(t)
+    base = lp.baseline(site, design, plan)
+    move_pad(site_dir)
+    cpu_time = types.SimpleNamespace(perf_counter=time.process_time)
+    wall_time = lp.time
+    lp.time = cpu_time  # the re-plan's stage times in CPU seconds
+    try:
+        t = _clock()
+        site2, _ = load(site_dir)
+        read2 = _since(t)
+        t = _clock()
+        local = lp.replan(base, site2)
+        replan = _since(t)
+    finally:
+        lp.time = wall_time
+    s = local.timings_s
+    planning_cpu = read2["cpu_s"] + s["route"] + s["size"]
+    return {
+        "full_read": read,
+        "full_plan": full,
+        "replan_read": read2,
+        "replan": replan,
+        "replan_stages_cpu_s": {k: s[k] for k in ("route", "size", "tables")},
+        "replan_planning_cpu_s": planning_cpu,
+        "local": bool(s["local"]),
+        "circuits_sized_again": int(s.get("local.circuits", 0)),
+        "circuits": len(local.circuits),
+    }
+
+
+def placement(site_dir: Path, candidates: int) -> dict:
+    """One inverter's placement search with at least ``candidates`` positions."""
+    from routeplan.check import load
+    from routeplan.placement import _anchor, candidate_points, search
+
+    site, design = load(site_dir)
+    row = len(site.inverters) // 2
+    inv = str(site.inverters["id"].iloc[row])
+    a = _anchor(site.inverters.geometry.iloc[row])
+    radius = 20.0
+    while len(candidate_points(site.trenches, (a.x, a.y), radius, 5.0)[0]) + 1 < candidates:
+        radius += 2.0
+    ticks: list[tuple[float, float]] = []
+    t = _clock()
+    table, _ = search(
+        site, design, "inverter", inv, radius, 5.0, lambda i, n: ticks.append(_clock())
+    )
+    ticks.append(_clock())
+    total = _since(t)
+    w = np.diff([x[0] for x in ticks])
+    c = np.diff([x[1] for x in ticks])
+    lw, lc = w[1:-1], c[1:-1]  # the local candidates
+    return {
+        "inverter": inv,
+        "radius_m": radius,
+        "positions": len(table),
+        "search": total,
+        "current_plan_and_setup": {"wall_s": float(w[0]), "cpu_s": float(c[0])},
+        "local_candidates": len(w) - 2,
+        "local_candidates_total": {"wall_s": float(lw.sum()), "cpu_s": float(lc.sum())},
+        "local_candidate_median": {"wall_s": float(np.median(lw)), "cpu_s": float(np.median(lc))},
+        "best_plan_with_remedies": {"wall_s": float(w[-1]), "cpu_s": float(c[-1])},
+    }
+
+
+def main(argv: list[str] | None = None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--mw", type=float, default=1000.0, help="plant size [MWdc] (1000)")
+    ap.add_argument("--seed", type=int, default=1, help="generator seed (1)")
+    ap.add_argument("--candidates", type=int, default=200, help="positions searched at least")
+    ap.add_argument("--work", type=Path, default=None, help="folder for the site (temporary)")
+    ap.add_argument("--json", type=Path, default=None, help="also write the numbers as JSON")
+    args = ap.parse_args(argv)
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    from routeplan.synth import generate_site
+
+    work = args.work or Path(tempfile.mkdtemp(prefix="routeplan-place-"))
+    try:
+        site_dir = work / f"site_{args.mw:g}"
+        generate_site(args.mw, args.seed, site_dir, force=True)
+        out = {"mw": args.mw, "seed": args.seed, "cores": os.cpu_count(), "load": os.getloadavg()}
+        out["placement"] = placement(site_dir, args.candidates)
+        out["pad_move"] = pad_move(site_dir)
+    finally:
+        if args.work is None:
+            shutil.rmtree(work, ignore_errors=True)
+    text = json.dumps(out, indent=2)
+    print(text)
+    if args.json:
+        args.json.write_text(text + "\n")
+
+
+if __name__ == "__main__":
+    main()

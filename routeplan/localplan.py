@@ -1,0 +1,1001 @@
+"""Local re-plans: after an edit, recompute only the circuits the edit can change.
+
+:func:`baseline` plans a site in full and keeps what a re-plan needs (the sizing input, the
+inverter inputs, each circuit's taps and block). :func:`replan` takes a baseline and an edited
+site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the edited site gives
+(``plan_site(..., with_remedies=False)``), value for value, recomputing only:
+
+1. **Network**: the trench noding is reused (:class:`routeplan.network.NetworkMemo`); only the
+   moved equipment is tapped again (or, for many positions of one feature, :class:`MoveSearch`
+   joins it to the network built once without it, :func:`routeplan.network.retap`). Segments
+   are matched to the baseline's by ``segment_id`` and length (compared at small shifts of
+   position first: the order of segments is kept): a moved tap splits a segment where it now
+   joins and frees the one where it joined before.
+2. **Routes** of the circuits of a moved feature and of every circuit whose route used a
+   segment that no longer exists (same path, new segments); one Dijkstra search per
+   destination, as a full plan searches. The incidence is the baseline's with those circuits'
+   rows replaced; segment counts are the carried counts less the old routes plus the new
+   ones; circuit lists are joined again only for the segments whose circuits changed. The air
+   stretches keep their rows (one per tap and per row): a moved stub's length changes, and
+   its circuits join or leave it where its length becomes or stops being zero. Inverter
+   inputs chosen by route length are assigned again for the inverters a rerouted circuit
+   lands on (each inverter's assignment is its own).
+3. **Sizing** (:func:`calc.size_circuits`, on a subset): the *affected* circuits are those
+   rerouted, those sharing a trench segment or an air stretch whose circuit count changed,
+   and those whose inverter input changed; each is closed over its whole block (the inverter
+   it feeds: its combiner trees — a feeder's drop budget follows from its strings' drops and a
+   string's total drop from its feeders' — and its inputs' backfeed and strings in parallel).
+   The subset is sized with the cable sets of the circuits outside it on its segments and
+   stretches held as they were; where the sized subset changes the final cable sets of a
+   segment or stretch that outside circuits share, their blocks join the subset and it is
+   sized again, until no outside circuit sees a change (the grouping's fixed point over the
+   affected segments). Everything else is carried over from the baseline.
+4. **Tables**: the cable schedule, trench schedule, inputs, bill and summary from the spliced
+   arrays (their row order is the baseline's: the circuits do not change). calc's notes that
+   name a feeder by its position in the sizing input are renumbered to the plan's positions.
+   :func:`figures` skips the tables: the columns ``routeplan place`` ranks by, from the spliced
+   arrays (:class:`Figures`).
+
+Remedies (:mod:`routeplan.remedy`) are not computed: a local re-plan is the plan
+``plan_site(..., with_remedies=False)`` gives.
+
+Anything else — trenches, rows, modules, strings, attributes of equipment, destinations
+chosen by route length, design settings — falls back to a full plan (:func:`replan` says which
+it did in ``Plan.timings_s["local"]``: 1.0 local, 0.0 full). The result is a design aid, to be
+reviewed by a qualified, licensed person.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+import time
+from dataclasses import dataclass
+from types import SimpleNamespace
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import shapely
+
+import calc
+from calc.losses import energy_loss_kwh
+from layers import Site
+
+from .circuits import KINDS
+from .config import DesignConfig
+from .errors import DesignError
+from .inputs import assign_inputs, input_table, landing_input
+from .network import TRENCH_ATTRIBUTES, TrenchNetwork, build_network, retap, site_equipment
+from .order import inverter_of
+from .pipeline import (
+    Plan,
+    assigned_destinations,
+    circuit_table,
+    conductor_poles,
+    design_params,
+    governing_ids,
+    input_groups,
+    plan_site,
+    quantity_table,
+    segment_fill,
+    segment_table,
+    sizing_input,
+    summarise,
+)
+from .routing import (
+    RoutePlan,
+    _route_geometry,
+    joined,
+    shortest_paths,
+)
+
+__all__ = ["Baseline", "Figures", "MoveSearch", "baseline", "figures", "moved_features", "replan"]
+
+#: equipment layers whose features a local re-plan may move
+MOVABLE = ("combiners", "inverters")
+
+
+@dataclass(frozen=True, eq=False)
+class Baseline:
+    """A full plan and what a local re-plan of an edit of its site needs (routes order)."""
+
+    plan: Plan
+    inp: calc.SizingInput
+    own_input: np.ndarray
+    tap_from: np.ndarray
+    tap_to: np.ndarray
+    from_index: np.ndarray
+    block: np.ndarray  # each circuit's block (its inverter), as an integer code
+    rank: np.ndarray  # each circuit's position in circuit-id order (segments' circuit lists)
+    order: np.ndarray  # routes order → schedule order of plan.circuits
+    load_a: np.ndarray  # each circuit's Σ Imp [A] (inverter input balancing)
+    kind_code: np.ndarray  # each circuit's kind as its position in KINDS
+    free_input: np.ndarray  # circuits landing on an inverter input chosen by route length
+    dp: calc.DesignParams
+    to_inverter: np.ndarray  # the inverter (row) each circuit lands on; -1: none
+    inputs_given: bool  # an ``input`` given on some row or combiner
+    input_frame: pd.DataFrame  # the columns assign_inputs and input_table read
+    figure_static: pd.DataFrame  # the schedule's columns a move does not change (Figures)
+
+
+def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=None) -> Baseline:
+    """Plan ``site`` in full (``with_remedies=False``; or take ``plan``, a plan of it) and keep
+    what :func:`replan` needs."""
+    if plan is None:
+        plan = plan_site(site, design, noding_memo=memo, with_remedies=False)
+    routes = plan.routes
+    c = routes.circuits
+    inp, own_input = sizing_input(site, routes)
+    taps = routes.network.taps
+    tap_key = pd.Index(taps["layer"].astype(str) + "\x00" + taps["feature_id"].astype(str))
+    tap_from = tap_key.get_indexer(c["from_layer"].astype(str) + "\x00" + c["from_id"].astype(str))
+    tap_to = tap_key.get_indexer(c["to_layer"].astype(str) + "\x00" + c["to_id"].astype(str))
+    rows = pd.Index(site.rows["id"].astype(str))
+    from_index = np.where(
+        c["from_layer"].to_numpy() == "rows", rows.get_indexer(c["from_id"].astype(str)), -1
+    )
+    # from_index of other circuits: their row in their own layer (as routing numbers them)
+    for layer in ("combiners", "inverters", "grid"):
+        m = c["from_layer"].to_numpy() == layer
+        if m.any():
+            ids = pd.Index(site.layer(layer)["id"].astype(str))
+            from_index[m] = ids.get_indexer(c.loc[m, "from_id"].astype(str))
+    block_ids = inverter_of(c["kind"], c["from_id"], c["to_id"])
+    _, block = np.unique(block_ids.astype(str), return_inverse=True)
+    cid = c["circuit_id"].to_numpy(dtype=object)
+    rank = np.empty(len(c), dtype=np.int64)
+    rank[np.argsort(cid, kind="stable")] = np.arange(len(c))
+    order = pd.Index(cid).get_indexer(plan.circuits["circuit_id"].to_numpy(dtype=object))
+    return Baseline(
+        plan,
+        inp,
+        own_input,
+        tap_from.astype(np.int64),
+        tap_to.astype(np.int64),
+        from_index.astype(np.int64),
+        block.reshape(-1).astype(np.int64),
+        rank,
+        order,
+        inp.imp_a * inp.n_strings,
+        pd.Categorical(c["kind"], categories=KINDS).codes.astype(np.int64),
+        _free_inputs(site, c),
+        design_params(design),
+        np.where(
+            (c["to_layer"] == "inverters").to_numpy(),
+            pd.Index(site.inverters["id"].astype(str)).get_indexer(c["to_id"].astype(str)),
+            -1,
+        ),
+        any(
+            "input" in site.layer(name).columns and site.layer(name)["input"].notna().any()
+            for name in ("rows", "combiners")
+        ),
+        c[["circuit_id", "kind", "from_id", "to_layer", "to_id", "strings"]],
+        plan.circuits[["circuit_id", "kind", "from_id", "inverter_id"]].reset_index(drop=True),
+    )
+
+
+def _free_inputs(site: Site, c: pd.DataFrame) -> np.ndarray:
+    """Circuits that land on an inverter with no ``input`` given (their input follows from
+    the route lengths, :func:`routeplan.inputs.assign_inputs`)."""
+    kind = c["kind"].to_numpy(dtype=object)
+    lands = (c["to_layer"] == "inverters").to_numpy() & np.isin(kind, ("string", "array"))
+    given = np.zeros(len(c), dtype=bool)
+    from_id = c["from_id"].to_numpy(dtype=object)
+    for layer, k in (("rows", "string"), ("combiners", "array")):
+        frame = site.layer(layer)
+        if "input" not in frame.columns or not len(frame):
+            continue
+        named = frame.loc[frame["input"].notna(), "id"].to_numpy(dtype=object)
+        given |= (kind == k) & np.isin(from_id, named)
+    n_inputs = (
+        site.inverters.set_index("id")["dc_inputs"]
+        .reindex(c["to_id"].to_numpy(dtype=object))
+        .to_numpy(dtype=float)
+    )
+    return lands & ~given & ~(n_inputs == 1)  # a single input takes everything
+
+
+def _same_frame(a: pd.DataFrame, b: pd.DataFrame, geometry: bool = True) -> bool:
+    if a is b:
+        return True
+    if len(a) != len(b) or list(a.columns) != list(b.columns):
+        return False
+    cols = [k for k in a.columns if k != a.geometry.name] if not geometry else list(a.columns)
+    for k in cols:
+        if k == getattr(a, "_geometry_column_name", None):
+            if not np.array_equal(shapely.to_wkb(a[k].array), shapely.to_wkb(b[k].array)):
+                return False
+        elif not a[k].equals(b[k]):
+            return False
+    return True
+
+
+def moved_features(old: Site, new: Site) -> dict[str, np.ndarray] | None:
+    """Rows of the combiner and inverter layers whose geometry differs between the sites, or
+    None when anything else differs (a local re-plan does not apply)."""
+    if old.crs != new.crs or old.modules != new.modules:
+        return None
+    for name in ("trenches", "rows", "grid"):
+        if not _same_frame(old.layer(name), new.layer(name)):
+            return None
+    moved = {}
+    for name in MOVABLE:
+        a, b = old.layer(name), new.layer(name)
+        if a is b:
+            moved[name] = np.zeros(0, dtype=np.int64)
+            continue
+        if not _same_frame(a, b, geometry=False):
+            return None
+        ga, gb = np.asarray(a.geometry.array), np.asarray(b.geometry.array)
+        moved[name] = np.flatnonzero(~shapely.equals_exact(ga, gb, 0.0) | (ga is None))
+    return moved
+
+
+def replan(
+    base: Baseline,
+    site: Site,
+    design: DesignConfig | None = None,
+    *,
+    network: TrenchNetwork | None = None,
+) -> Plan:
+    """The plan of ``site`` (the baseline's site with combiners or inverters moved), recomputing
+    only what the move can change (see the module docstring); a full plan where the edit is of
+    another kind. ``network``: the edited site's network when the caller has it
+    (:func:`routeplan.network.retap`). Raises as :func:`routeplan.pipeline.plan_site` does."""
+    t0 = time.perf_counter()
+    old = base.plan
+    design = old.design if design is None else design
+    if _applies(base, site, design):
+        out = _local(base, site, design, t0, network=network, light=False)
+        if out is not None:
+            return out
+    plan = plan_site(site, design, noding_memo=old.routes.network.memo, with_remedies=False)
+    plan.timings_s["local"] = 0.0
+    return plan
+
+
+def _applies(base: Baseline, site: Site, design: DesignConfig) -> bool:
+    old = base.plan
+    return (
+        (design is old.design or design == old.design)
+        and not assigned_destinations(old.routes)
+        and moved_features(old.site, site) is not None
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class Figures:
+    """What ranking a candidate needs of its plan, without the whole tables: ``circuits`` (the
+    cable schedule's ``circuit_id``, ``kind``, ``from_id``, ``inverter_id``, ``material``,
+    ``size_mm2``, ``parallel``, ``cable_m``, ``conductors``, ``loss_w``, ``energy_loss_kwh``,
+    ``utilisation``, ``vdrop_total_pct``, ``status``, in the schedule's order), ``segments`` and
+    ``inputs`` (their ``status``), as :class:`~routeplan.pipeline.Plan` has them."""
+
+    circuits: pd.DataFrame
+    segments: pd.DataFrame
+    inputs: pd.DataFrame
+    timings_s: dict[str, float]
+
+
+#: the sizing fields :class:`Figures` needs
+_FIGURE_FIELDS = (
+    "size_mm2",
+    "parallel",
+    "material",
+    "loss_w",
+    "energy_loss_kwh",
+    "utilisation",
+    "vdrop_total_pct",
+    "ok",
+    "seg_count_final",
+)
+
+
+def figures(base: Baseline, site: Site, network: TrenchNetwork | None = None) -> Figures | Plan:
+    """:class:`Figures` of ``site`` (the baseline's site with features moved) by a local
+    re-plan; where one does not apply, the full plan (which has the same columns)."""
+    t0 = time.perf_counter()
+    old = base.plan
+    if _applies(base, site, old.design):
+        out = _local(base, site, old.design, t0, network=network, light=True)
+        if out is not None:
+            return out
+    plan = plan_site(site, old.design, noding_memo=old.routes.network.memo, with_remedies=False)
+    plan.timings_s["local"] = 0.0
+    return plan
+
+
+def _local(
+    base: Baseline,
+    site: Site,
+    design: DesignConfig,
+    t0: float,
+    *,
+    network: TrenchNetwork | None,
+    light: bool,
+) -> Plan | Figures | None:
+    t: dict[str, float] = {}
+    old = base.plan
+    r0 = old.routes
+    params = r0.params
+    net0 = r0.network
+    net = network
+    if net is None:
+        net = build_network(
+            site.trenches,
+            site_equipment(site),
+            node_tol_m=params.node_tol_m,
+            snap_m=params.snap_m,
+            defaults=params.trench,
+            memo=net0.memo,
+        )
+    taps0, taps = net0.taps, net.taps
+    if not taps["connected"].to_numpy(bool).all():
+        return None  # a feature left unconnected: the full plan reports it
+    t["route.network"] = time.perf_counter() - t0
+    t1 = time.perf_counter()
+
+    # --- segments: new ↔ old by id (same length), and what no longer exists
+    seg0, seg = net0.segments, net.segments
+    n_seg = len(seg)
+    new_of_old, old_of_new = _segment_map(seg0, seg)
+    born = old_of_new < 0
+
+    # --- circuits to route again: a changed tap at either end, or a segment gone
+    node0, node = taps0["node"].to_numpy(np.int64), taps["node"].to_numpy(np.int64)
+    stub0, stub = taps0["stub_m"].to_numpy(float), taps["stub_m"].to_numpy(float)
+    tap_changed = (stub0 != stub) | np.any(net0.node_xy[node0] != net.node_xy[node], axis=1)
+    tap_changed |= ~shapely.equals_exact(
+        np.asarray(taps0.geometry.array), np.asarray(taps.geometry.array), 0.0
+    )
+    ic0, is0 = r0.incidence_circuit, r0.incidence_segment
+    n_c = len(r0.circuits)
+    reroute = tap_changed[base.tap_from] | tap_changed[base.tap_to]
+    gone = np.flatnonzero(new_of_old < 0)
+    if len(gone):
+        reroute[ic0[np.isin(is0, gone)]] = True
+    rr = np.flatnonzero(reroute)
+
+    # --- route them (one search per destination)
+    pair_key, pair_of = np.unique(
+        base.tap_from[rr] * len(taps) + base.tap_to[rr], return_inverse=True
+    )
+    pair_of = pair_of.reshape(-1)
+    p_from, p_to = pair_key // len(taps), pair_key % len(taps)
+    paths = shortest_paths(net, node[p_from], node[p_to])
+    plen = np.diff(paths.offset)
+    pair_route = stub[p_from] + stub[p_to] + paths.trench_m
+    t["route.search"] = time.perf_counter() - t1
+    t1 = time.perf_counter()
+
+    # --- incidence: the others' (segments renumbered), the rerouted circuits' new routes
+    c_len = plen[pair_of]
+    within = np.arange(c_len.sum()) - np.repeat(np.cumsum(c_len) - c_len, c_len)
+    inc_new_s = paths.segment[np.repeat(paths.offset[:-1][pair_of], c_len) + within]
+    inc_c, inc_s, old_rows = _splice_incidence(ic0, is0, new_of_old, rr, c_len, inc_new_s)
+
+    # --- per circuit (routes order)
+    c0 = r0.circuits
+    route_m = c0["route_m"].to_numpy(float).copy()
+    stub_m = c0["stub_m"].to_numpy(float).copy()
+    cable_m = c0["cable_m"].to_numpy(float).copy()
+    row_run = c0["row_run_m"].to_numpy(float)
+    route_m[rr] = pair_route[pair_of]
+    stub_m[rr] = (stub[p_from] + stub[p_to])[pair_of]
+    cable_m[rr] = (
+        route_m[rr] * (1 + params.slack_pct / 100) + 2 * params.termination_m + row_run[rr]
+    )
+
+    # --- segment counts (the carried counts less the old routes, plus the new ones)
+    kind_code = base.kind_code
+    s0 = r0.segments
+    old_s = is0[old_rows]
+    old_k = kind_code[ic0[old_rows]]
+    new_k = kind_code[np.repeat(rr, c_len)]
+    carried = np.where(born, 0, s0["circuits"].to_numpy(np.int64)[np.maximum(old_of_new, 0)])
+    count0_new = np.where(born, -1, carried)
+    count = carried + _delta(old_s, new_of_old, inc_new_s, n_seg)
+    t["route.tables"] = time.perf_counter() - t1
+    t["route"] = time.perf_counter() - t0
+    t1 = time.perf_counter()
+
+    # --- air stretches (stubs and row runs): only a stub's length can change, unless a
+    # stub appears or vanishes (zero length)
+    air0 = r0.air
+    air, air_c, air_s = _air(r0, stub0, stub, base.tap_from, base.tap_to)
+    air_old_of_new = np.arange(len(air))  # one stretch per tap and per row, always
+
+    # --- inverter inputs (assigned by route length where not given): those of the inverters
+    # a rerouted circuit lands on, each inverter's on its own (as a full assignment does)
+    inp0 = base.inp
+    own_input = base.own_input
+    n_par, dc_group = inp0.strings_in_parallel, inp0.dc_group
+    input_rows = None  # circuits landing on the inverters whose inputs were assigned again
+    if (reroute & base.free_input).any():
+        if base.inputs_given:  # an ``input`` given somewhere: the checks need every circuit
+            input_rows = np.arange(n_c)
+        else:
+            inverters = np.unique(base.to_inverter[reroute & base.free_input])
+            input_rows = np.flatnonzero(np.isin(base.to_inverter, inverters))
+        frame = base.input_frame.iloc[input_rows].assign(route_m=route_m[input_rows])
+        try:
+            part = assign_inputs(site, frame, base.load_a[input_rows])
+        except DesignError:
+            return None
+        if np.array_equal(part, base.own_input[input_rows], equal_nan=True):
+            input_rows = None
+        else:
+            own_input = base.own_input.copy()
+            own_input[input_rows] = part
+            to_id = c0["to_id"].to_numpy(dtype=object)
+            n_par, dc_group = input_groups(site, inp0.kind, inp0.parent, to_id, own_input)
+    # segment attributes: carried over, those of new segments read
+    nb = np.flatnonzero(born)
+    seg_cols = {}
+    for name, col in (
+        ("seg_depth_m", "depth_m"),
+        ("seg_laying", "laying"),
+        ("seg_spacing_m", "spacing_m"),
+        ("seg_soil_k_m_w", "soil_k_m_w"),
+    ):
+        v = np.asarray(getattr(inp0, name))[np.maximum(old_of_new, 0)]
+        fresh = seg[col].iloc[nb]
+        v[nb] = (fresh == "duct").to_numpy(dtype=np.int8) if col == "laying" else fresh
+        seg_cols[name] = v
+    inp = dataclasses.replace(
+        inp0,
+        cable_m=cable_m,
+        air_m=stub_m + row_run,
+        strings_in_parallel=n_par,
+        dc_group=dc_group,
+        **seg_cols,
+        seg_count=count,
+        inc_circuit=inc_c,
+        inc_segment=inc_s,
+        air_count=np.zeros(len(air)),
+        air_behind_modules=(air["kind"] == "row run").to_numpy(dtype=bool),
+        air_inc_circuit=air_c,
+        air_inc_stretch=air_s,
+    )
+
+    # --- the affected circuits, closed over their blocks
+    affected = reroute.copy()
+    count_changed = count != count0_new
+    if count_changed.any():
+        affected[inc_c[count_changed[inc_s]]] = True
+    air_n = np.bincount(air_s, minlength=len(air))
+    air_n0 = np.bincount(r0.air_incidence_stretch, minlength=len(air0))
+    len0 = air0["length_m"].to_numpy(float)
+    air_changed = air_old_of_new < 0
+    have = ~air_changed
+    air_changed[have] = (air_n0[air_old_of_new[have]] != air_n[have]) | (
+        len0[air_old_of_new[have]] != air["length_m"].to_numpy(float)[have]
+    )
+    if air_changed.any():
+        affected[air_c[air_changed[air_s]]] = True
+    if input_rows is not None:
+        affected |= ~_same_nan(own_input, base.own_input)
+        affected |= n_par != inp0.strings_in_parallel
+        affected |= dc_group != inp0.dc_group
+
+    dp = base.dp
+    rules = design.values["rules"]
+    r_old = old.sizing
+    p_old = np.asarray(r_old.parallel, dtype=np.int64)
+    final0 = np.asarray(r_old.seg_count_final, dtype=float)
+    final0_new = np.where(born, np.nan, final0[np.maximum(old_of_new, 0)])
+    air_final0 = np.asarray(r_old.air_count_final, dtype=float)
+    air_final0_new = np.where(air_old_of_new < 0, np.nan, air_final0[np.maximum(air_old_of_new, 0)])
+    in_block = np.zeros(int(base.block.max(initial=-1)) + 1, dtype=bool)
+    passes = 0
+    while True:
+        passes += 1
+        in_block[:] = False
+        in_block[base.block[affected]] = True
+        affected = in_block[base.block]
+        sub = np.flatnonzero(affected)
+        res, seg_sub, air_sub = _size_subset(
+            inp, dp, rules, affected, sub, p_old, born | count_changed, air_changed
+        )
+        # outside circuits on a segment or stretch whose final cable sets differ: join them
+        # (a segment without a circuit of the subset keeps its count and final sets)
+        seg_diff = np.zeros(n_seg, dtype=bool)
+        final_sub = np.asarray(res.seg_count_final, dtype=float)
+        seg_diff[seg_sub] = final_sub != final0_new[seg_sub]
+        air_diff = np.zeros(len(air), dtype=bool)
+        air_diff[air_sub] = np.asarray(res.air_count_final, dtype=float) != air_final0_new[air_sub]
+        more = np.zeros(n_c, dtype=bool)
+        if seg_diff.any():
+            more[inc_c[seg_diff[inc_s]]] = True
+        if air_diff.any():
+            more[air_c[air_diff[air_s]]] = True
+        more &= ~affected
+        if not more.any():
+            break
+        affected = affected | more
+    t["size"] = time.perf_counter() - t1
+    t["local.passes"] = float(passes)
+    t["local.circuits"] = float(len(sub))
+    t1 = time.perf_counter()
+
+    names = _FIGURE_FIELDS if light else None
+    result = _splice(
+        r_old, res, sub, seg_sub, air_sub, new_of_old, air_old_of_new, n_seg, len(air), inp, dp,
+        names,
+    )  # fmt: skip
+    if light:
+        out = _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site)
+        t["tables"] = time.perf_counter() - t1
+        t["local"] = 1.0
+        return dataclasses.replace(out, timings_s=t)
+
+    # --- the route tables
+    geom = _route_geometry(net, paths, p_from, p_to)
+    seg_ids = seg["segment_id"].to_numpy(dtype=object)
+    pair_seg_ids = joined(seg_ids[paths.segment].tolist(), paths.offset)
+    c = c0.copy()
+    c["route_m"] = route_m
+    c["stub_m"] = stub_m
+    c["cable_m"] = cable_m
+    if len(rr):
+        c.loc[rr, "trench_m"] = paths.trench_m[pair_of]
+        c.loc[rr, "n_segments"] = plen[pair_of]
+        c.loc[rr, "segment_ids"] = pair_seg_ids[pair_of]
+        geoms = np.asarray(c.geometry.array, dtype=object).copy()
+        geoms[rr] = geom[pair_of]
+        c = c.set_geometry(gpd.GeoSeries(geoms, index=c.index, crs=c0.crs))
+    group = np.zeros(n_c, dtype=np.int64)
+    if len(inc_c):
+        starts = np.flatnonzero(np.r_[True, inc_c[1:] != inc_c[:-1]])
+        group[inc_c[starts]] = np.maximum.reduceat(count[inc_s], starts)
+    c["group_max"] = group
+    by_kind = []
+    for i in range(len(KINDS)):
+        col = s0[KINDS_COLUMN[KINDS[i]]].to_numpy(np.int64)
+        carried_k = np.where(born, 0, col[np.maximum(old_of_new, 0)])
+        by_kind.append(
+            carried_k + _delta(old_s[old_k == i], new_of_old, inc_new_s[new_k == i], n_seg)
+        )
+    touched = np.zeros(n_seg, dtype=bool)
+    touched[inc_new_s] = True
+    old_touch = new_of_old[old_s]
+    touched[old_touch[old_touch >= 0]] = True
+    touched |= born
+    ids_new = s0["circuit_ids"].to_numpy(dtype=object)[np.maximum(old_of_new, 0)].copy()
+    redo = np.flatnonzero(touched)
+    if len(redo):
+        sel = np.isin(inc_s, redo)
+        cc, ss = inc_c[sel], inc_s[sel]
+        o = np.lexsort((base.rank[cc], ss))
+        cid = c0["circuit_id"].to_numpy(dtype=object)
+        b = np.searchsorted(ss[o], np.r_[redo, redo[-1] + 1])
+        ids_new[redo] = joined(cid[cc[o]].tolist(), np.r_[b[:-1], b[-1]])
+    cap = seg["max_circuits"].to_numpy(float)
+    segments = gpd.GeoDataFrame(
+        {
+            "segment_id": seg_ids,
+            "trench_id": seg["trench_id"].to_numpy(dtype=object),
+            "length_m": seg["length_m"].to_numpy(float),
+            "circuits": count,
+            **{KINDS_COLUMN[k]: by_kind[i] for i, k in enumerate(KINDS)},
+            "circuit_ids": ids_new,
+            **{k: seg[k].to_numpy() for k in TRENCH_ATTRIBUTES},
+            "fill": np.where(np.isnan(cap), np.nan, count / np.where(np.isnan(cap), 1.0, cap)),
+            "over_capacity": ~np.isnan(cap) & (count > np.nan_to_num(cap, nan=np.inf)),
+            **{
+                k: seg[k].to_numpy()
+                for k in ("node_u", "node_v", "start_m", "end_m", "trench_index")
+            },
+        },
+        geometry=np.asarray(seg.geometry.array, dtype=object),
+        crs=net.crs,
+    )[list(s0.columns)]
+    routes = RoutePlan(
+        circuits=c,
+        segments=segments,
+        incidence_circuit=inc_c,
+        incidence_segment=inc_s,
+        air=air,
+        air_incidence_circuit=air_c,
+        air_incidence_stretch=air_s,
+        assignment=r0.assignment,
+        network=net,
+        params=params,
+        timings_s={},
+    )
+    governing = governing_ids(routes, result)
+    landing = landing_input(inp.parent, own_input)
+    inputs = old.inputs
+    if input_rows is not None:
+        inputs = input_table(
+            site, c, own_input, base.load_a, np.asarray(result.isc_design_a), inp.n_strings
+        )
+    circuits = circuit_table(routes, result, inp, design, landing, governing, None)
+    seg_table = segment_table(routes, result)
+    quantities = quantity_table(circuits, seg_table, design)
+    summary = summarise(site, design, circuits, seg_table, result, inputs)
+    summary["assigned"] = assigned_destinations(routes)
+    circuits = circuits.iloc[base.order].reset_index(drop=True)
+    t["tables"] = time.perf_counter() - t1
+    t["local"] = 1.0
+    return Plan(
+        site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs
+    )
+
+
+#: the trench schedule's count column of each circuit kind
+KINDS_COLUMN = {"string": "strings", "array": "arrays", "ac": "ac", "subarray": "subarrays"}
+
+
+def _segment_map(seg0: pd.DataFrame, seg: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Each old segment's index in the new network (-1: gone) and each new one's old index
+    (-1: new), matched by id and length. Segments keep their order, so an equipment edit
+    shifts the others by at most a few places: ids are compared at shifts −2…2 first, and only
+    the few left over are looked up (an id is unique, so a match found is the match)."""
+    ids0 = seg0["segment_id"].to_numpy(dtype=object)
+    ids = seg["segment_id"].to_numpy(dtype=object)
+    len0 = seg0["length_m"].to_numpy(float)
+    len1 = seg["length_m"].to_numpy(float)
+    n0, n = len(ids0), len(ids)
+    new_of_old = np.full(n0, -1, dtype=np.int64)
+    for d in (0, -1, 1, -2, 2):
+        i = np.flatnonzero(new_of_old < 0)
+        j = i + d
+        inside = (j >= 0) & (j < n)
+        i, j = i[inside], j[inside]
+        hit = ids0[i] == ids[j]
+        new_of_old[i[hit]] = j[hit]
+    old_of_new = np.full(n, -1, dtype=np.int64)
+    old_of_new[new_of_old[new_of_old >= 0]] = np.flatnonzero(new_of_old >= 0)
+    rest_old, rest_new = np.flatnonzero(new_of_old < 0), np.flatnonzero(old_of_new < 0)
+    if len(rest_old) and len(rest_new):
+        where = {v: k for k, v in zip(rest_new.tolist(), ids[rest_new].tolist(), strict=True)}
+        for i in rest_old.tolist():
+            j = where.get(ids0[i], -1)
+            if j >= 0:
+                new_of_old[i], old_of_new[j] = j, i
+    ok = new_of_old >= 0
+    same = np.zeros(n0, dtype=bool)
+    same[ok] = len1[new_of_old[ok]] == len0[ok]
+    old_of_new[new_of_old[ok & ~same]] = -1
+    new_of_old[~same] = -1
+    return new_of_old, old_of_new
+
+
+def _splice_incidence(
+    ic0: np.ndarray,
+    is0: np.ndarray,
+    new_of_old: np.ndarray,
+    rr: np.ndarray,
+    c_len: np.ndarray,
+    inc_new_s: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The incidence with the rerouted circuits ``rr`` (sorted) replaced by their new routes
+    (``c_len`` segments each, ``inc_new_s``), by circuit and in route order; and the old rows
+    removed. Old segments are renumbered (``new_of_old``)."""
+    lo = np.searchsorted(ic0, rr, side="left")
+    hi = np.searchsorted(ic0, rr, side="right")
+    n_old = hi - lo
+    old_rows = np.repeat(lo, n_old) + (
+        np.arange(n_old.sum()) - np.repeat(np.cumsum(n_old) - n_old, n_old)
+    )
+    keep = np.ones(len(ic0), dtype=bool)
+    keep[old_rows] = False
+    kept_c, kept_s = ic0[keep], new_of_old[is0[keep]]
+    at = np.searchsorted(kept_c, rr, side="left")  # where each rerouted circuit goes
+    inc_c = np.insert(kept_c, np.repeat(at, c_len), np.repeat(rr, c_len))
+    inc_s = np.insert(kept_s, np.repeat(at, c_len), inc_new_s)
+    return inc_c, inc_s, old_rows
+
+
+def _delta(old_s: np.ndarray, new_of_old: np.ndarray, new_s: np.ndarray, n_seg: int) -> np.ndarray:
+    """Per new segment: the circuits the new routes add less those the old routes leave
+    (old segments renumbered; gone ones dropped)."""
+    out = np.zeros(n_seg, dtype=np.int64)
+    np.add.at(out, new_s, 1)
+    o = new_of_old[old_s]
+    np.subtract.at(out, o[o >= 0], 1)
+    return out
+
+
+def _air(
+    r0: RoutePlan, stub0: np.ndarray, stub: np.ndarray, tap_from: np.ndarray, tap_to: np.ndarray
+) -> tuple[pd.DataFrame, np.ndarray, np.ndarray]:
+    """The air stretches and their incidence (:func:`routeplan.routing.air_stretches`: one
+    stretch per tap, then one per row): the stub lengths updated, and the circuits of a tap
+    whose stub appears (length > 0) or vanishes put on or taken off it."""
+    air, c, k = r0.air, r0.air_incidence_circuit, r0.air_incidence_stretch
+    changed = np.flatnonzero(~_same_nan(stub0, stub))
+    if not len(changed):
+        return air, c, k
+    air = air.copy()
+    length = air["length_m"].to_numpy(float).copy()
+    length[changed] = np.nan_to_num(stub[changed])
+    air["length_m"] = length
+    has0, has = np.nan_to_num(stub0) > 0, np.nan_to_num(stub) > 0
+    gone, new = changed[has0[changed] & ~has[changed]], changed[~has0[changed] & has[changed]]
+    if len(gone):
+        keep = ~np.isin(k, gone)
+        c, k = c[keep], k[keep]
+    if len(new):
+        n = len(air)
+        add_c = np.concatenate(
+            [np.flatnonzero(np.isin(tap_from, new)), np.flatnonzero(np.isin(tap_to, new))]
+        )
+        add_k = np.concatenate([tap_from[np.isin(tap_from, new)], tap_to[np.isin(tap_to, new)]])
+        key = np.unique(add_c * n + add_k)
+        at = np.searchsorted(c * n + k, key)
+        c = np.insert(c, at, key // n)
+        k = np.insert(k, at, key % n)
+    return air, c, k
+
+
+def _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site) -> Figures:
+    """:class:`Figures` from the spliced sizing (the schedule's order and columns)."""
+    old = base.plan
+    o = base.order
+    parallel = np.asarray(result.parallel)
+    conductors = conductor_poles(inp.kind, inp.phases) * parallel
+    circuits = base.figure_static.copy(deep=False)
+    idx = circuits.index
+    for name, values in (
+        ("material", pd.Categorical(np.asarray(result.material, dtype=object)[o])),
+        ("size_mm2", np.asarray(result.size_mm2)[o]),
+        ("parallel", parallel[o]),
+        ("cable_m", cable_m[o]),
+        ("conductors", conductors[o]),
+        ("loss_w", np.asarray(result.loss_w)[o]),
+        ("energy_loss_kwh", np.asarray(result.energy_loss_kwh)[o]),
+        ("utilisation", np.asarray(result.utilisation)[o]),
+        ("vdrop_total_pct", np.asarray(result.vdrop_total_pct)[o]),
+        (
+            "status",
+            pd.Categorical.from_codes(np.asarray(result.ok)[o].astype(np.int8), ["fail", "ok"]),
+        ),
+    ):
+        circuits[name] = pd.Series(values, index=idx, copy=False)
+    cap_sets = (
+        seg["max_cable_sets"].to_numpy(dtype=float)
+        if "max_cable_sets" in seg
+        else np.full(len(seg), np.nan)
+    )
+    _, _, status = segment_fill(
+        count.astype(float),
+        seg["max_circuits"].to_numpy(float),
+        cap_sets,
+        np.asarray(result.seg_count_final, dtype=np.int64),
+    )
+    inputs = old.inputs[["status"]]
+    if input_rows is not None:  # the inverters assigned again: their rows anew
+        rows = input_rows
+        again = input_table(
+            site, base.input_frame.iloc[rows], own_input[rows], base.load_a[rows],
+            np.asarray(old.sizing.isc_design_a)[rows], inp.n_strings[rows],
+        )  # fmt: skip
+        others = ~old.inputs["inverter_id"].isin(again["inverter_id"]).to_numpy()
+        inputs = pd.DataFrame(
+            {"status": np.r_[old.inputs["status"].to_numpy()[others], again["status"].to_numpy()]}
+        )
+    return Figures(circuits, pd.DataFrame({"status": status}), inputs, {})
+
+
+#: calc's notes name a circuit by its position in the sizing input (the subset's, here)
+_FEEDER = re.compile(r"\(feeder circuit (\d+)\)")
+
+
+def _global_notes(notes: np.ndarray, sub: np.ndarray) -> np.ndarray:
+    """The subset's notes with each ``(feeder circuit k)`` naming the plan's position ``sub[k]``."""
+    out = notes.copy()
+    for i in np.flatnonzero(np.char.find(notes.astype(str), "feeder circuit") >= 0).tolist():
+        out[i] = _FEEDER.sub(lambda m: f"(feeder circuit {sub[int(m.group(1))]})", notes[i])
+    return out
+
+
+def _same_nan(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+    return (a == b) | (np.isnan(a) & np.isnan(b))
+
+
+def _size_subset(
+    inp: calc.SizingInput,
+    dp: calc.DesignParams,
+    rules: str,
+    affected: np.ndarray,
+    sub: np.ndarray,
+    p_old: np.ndarray,
+    born_seg: np.ndarray,
+    born_air: np.ndarray,
+) -> tuple[calc.SizingResult, np.ndarray, np.ndarray]:
+    """Size the circuits ``sub`` (closed over their blocks) with the cable sets of the others
+    held at ``p_old`` on the segments and stretches they share. ``born_seg``, ``born_air``:
+    segments and stretches whose figures are recomputed even where no circuit of the subset
+    uses them (new ones, and those whose circuits changed: one left empty has none).
+    Returns the result and the segments and stretches of the subset (positions in the whole
+    plan)."""
+    ic, js = inp.inc_circuit, inp.inc_segment
+    ac, ak = inp.air_inc_circuit, inp.air_inc_stretch
+    m, r = len(inp.seg_count), len(inp.air_count)
+    out_extra = (p_old - 1) * ~affected
+    seg_extra = np.bincount(js, weights=out_extra[ic].astype(float), minlength=m)
+    air_extra = np.bincount(ak, weights=out_extra[ac].astype(float), minlength=r)
+    mine = affected[ic]
+    seg_sub = np.union1d(js[mine], np.flatnonzero(born_seg))
+    air_mine = affected[ac]
+    air_sub = np.union1d(ak[air_mine], np.flatnonzero(born_air))
+    local_c = np.full(len(affected), -1, dtype=np.int64)
+    local_c[sub] = np.arange(len(sub))
+    local_s = np.full(m, -1, dtype=np.int64)
+    local_s[seg_sub] = np.arange(len(seg_sub))
+    local_a = np.full(r, -1, dtype=np.int64)
+    local_a[air_sub] = np.arange(len(air_sub))
+    air_all = np.bincount(ak, minlength=r).astype(float)
+    parent = inp.parent[sub]
+    parent = np.where(parent >= 0, local_c[np.maximum(parent, 0)], -1)
+    per_circuit = {
+        f.name: np.asarray(getattr(inp, f.name))[sub]
+        for f in dataclasses.fields(inp)
+        if f.name not in _NOT_PER_CIRCUIT and getattr(inp, f.name) is not None
+    }
+    sub_inp = calc.SizingInput(
+        **per_circuit,
+        parent=parent,
+        seg_depth_m=inp.seg_depth_m[seg_sub],
+        seg_laying=inp.seg_laying[seg_sub],
+        seg_spacing_m=inp.seg_spacing_m[seg_sub],
+        seg_soil_k_m_w=inp.seg_soil_k_m_w[seg_sub],
+        seg_count=(np.asarray(inp.seg_count, dtype=float) + seg_extra)[seg_sub],
+        inc_circuit=local_c[ic[mine]],
+        inc_segment=local_s[js[mine]],
+        air_count=(air_all + air_extra)[air_sub],
+        air_behind_modules=np.asarray(inp.air_behind_modules)[air_sub],
+        air_inc_circuit=local_c[ac[air_mine]],
+        air_inc_stretch=local_a[ak[air_mine]],
+    )
+    return calc.size_circuits(sub_inp, dp, rules=rules), seg_sub, air_sub
+
+
+_NOT_PER_CIRCUIT = {
+    "parent",
+    "seg_depth_m",
+    "seg_laying",
+    "seg_spacing_m",
+    "seg_soil_k_m_w",
+    "seg_count",
+    "inc_circuit",
+    "inc_segment",
+    "air_count",
+    "air_behind_modules",
+    "air_inc_circuit",
+    "air_inc_stretch",
+}
+
+
+def _splice(
+    r_old: calc.SizingResult,
+    res: calc.SizingResult,
+    sub: np.ndarray,
+    seg_sub: np.ndarray,
+    air_sub: np.ndarray,
+    new_of_old: np.ndarray,
+    air_old_of_new: np.ndarray,
+    n_seg: int,
+    n_air: int,
+    inp: calc.SizingInput,
+    dp: calc.DesignParams,
+    names: tuple[str, ...] | None = None,
+) -> calc.SizingResult:
+    """The whole plan's sizing: the baseline's, with the subset's circuits, segments and
+    stretches replaced; segment and stretch indices in the new numbering. ``names``: only
+    these fields (a namespace of them instead of a :class:`calc.SizingResult`)."""
+    fields = {}
+    old_of_new = np.full(n_seg, -1, dtype=np.int64)
+    ok = new_of_old >= 0
+    old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
+    for f in dataclasses.fields(r_old):
+        name = f.name
+        if names is not None and name not in names:
+            continue
+        v_old = getattr(r_old, name)
+        if name in ("iterations", "rules"):
+            fields[name] = getattr(res, name) if name == "rules" else v_old
+            continue
+        if name.startswith("total_"):
+            continue
+        v_old, v_sub = np.asarray(v_old), np.asarray(getattr(res, name))
+        if name.startswith("seg_"):
+            v = np.empty(n_seg, dtype=np.result_type(v_old, v_sub))
+            have = old_of_new >= 0
+            v[have] = v_old[old_of_new[have]]
+            v[seg_sub] = v_sub
+        elif name == "air_count_final":
+            v = np.empty(n_air, dtype=np.result_type(v_old, v_sub))
+            have = air_old_of_new >= 0
+            v[have] = v_old[air_old_of_new[have]]
+            v[air_sub] = v_sub
+        elif name == "governing_segment":
+            v = np.where(v_old >= 0, new_of_old[np.maximum(v_old, 0)], -1)
+            v[sub] = np.where(v_sub >= 0, seg_sub[np.maximum(v_sub, 0)], -1)
+        elif name == "governing_air":
+            new_of_air = np.full(len(np.asarray(r_old.air_count_final)), -1, dtype=np.int64)
+            have = air_old_of_new >= 0
+            new_of_air[air_old_of_new[have]] = np.flatnonzero(have)
+            v = np.where(v_old >= 0, new_of_air[np.maximum(v_old, 0)], -1)
+            v[sub] = np.where(v_sub >= 0, air_sub[np.maximum(v_sub, 0)], -1)
+        elif name == "note":
+            v = v_old.copy()
+            v[sub] = _global_notes(v_sub, sub)
+        else:
+            v = (
+                v_old.copy()
+                if v_old.dtype == np.result_type(v_old, v_sub)
+                else v_old.astype(np.result_type(v_old, v_sub))
+            )
+            v[sub] = v_sub
+        fields[name] = v
+    if names is not None:
+        return SimpleNamespace(**fields)
+    # per-kind totals, summed as the engine sums them (over the whole plan)
+    kind = np.asarray(inp.kind)
+    loss = fields["loss_w"]
+    dc = kind != calc.KIND_AC
+    pf = np.where(np.isnan(inp.pf), dp.power_factor, inp.pf)
+    p_w = np.where(dc, inp.vmp_v * np.asarray(fields["operating_current_a"]), inp.ac_kva * 1e3 * pf)
+    n_k = len(calc.KIND_NAMES)
+    tot_loss = np.array([loss[kind == k].sum() for k in range(n_k)])
+    tot_p = np.array([p_w[kind == k].sum() for k in range(n_k)])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tot_pct = np.where(tot_p > 0, 100.0 * tot_loss / tot_p, 0.0)
+    fields["total_loss_w"] = tot_loss
+    fields["total_loss_pct"] = tot_pct
+    fields["total_energy_loss_kwh"] = energy_loss_kwh(tot_loss, dp.loss_hours_h)
+    return calc.SizingResult(**fields)
+
+
+class MoveSearch:
+    """Many positions of one inverter or combiner, each a local re-plan of one baseline.
+
+    The network without the feature is built once (the feature set beyond reach of every
+    trench); each position then joins it by :func:`routeplan.network.retap` where it can (a
+    node of its own), else the network is built with the memo."""
+
+    def __init__(
+        self, site: Site, design: DesignConfig, layer: str, row: int, plan: Plan | None = None
+    ) -> None:
+        self.base = baseline(site, design, plan)
+        self.layer, self.row = layer, row
+        net = self.base.plan.routes.network
+        feature_id = str(site.layer(layer)["id"].iloc[row])
+        self.tap = net.tap(layer, feature_id)
+        x0, y0 = site.trenches.total_bounds[:2]
+        params = self.base.plan.routes.params
+        far = _with_anchor(site, layer, row, (x0 - 10 * params.snap_m - 1e3, y0))
+        self.minus = build_network(
+            far.trenches,
+            site_equipment(far),
+            node_tol_m=params.node_tol_m,
+            snap_m=params.snap_m,
+            defaults=params.trench,
+            memo=net.memo,
+        )
+
+    def site_at(self, xy: tuple[float, float]) -> Site:
+        """The baseline's site with the feature's anchor (a point, a pad's centroid) at ``xy``."""
+        return _with_anchor(self.base.plan.site, self.layer, self.row, xy)
+
+    def figures(self, site: Site) -> Figures | Plan:
+        """:func:`figures` of ``site`` (the feature moved, nothing else)."""
+        geom = site.layer(self.layer).geometry.iloc[self.row]
+        net = retap(self.minus, self.tap, geom)
+        return figures(self.base, site, network=net)
+
+
+def _with_anchor(site: Site, layer: str, row: int, xy: tuple[float, float]) -> Site:
+    frame = site.layer(layer)
+    geom = frame.geometry.iloc[row]
+    a = geom if geom.geom_type == "Point" else geom.centroid
+    moved = shapely.transform(geom, lambda c: c + np.array([xy[0] - a.x, xy[1] - a.y]))
+    geoms = frame.geometry.to_numpy().copy()
+    geoms[row] = moved
+    new = frame.set_geometry(gpd.GeoSeries(geoms, index=frame.index, crs=frame.crs))
+    return dataclasses.replace(site, **{layer: new})

@@ -1,0 +1,308 @@
+"""Local re-plans (:mod:`routeplan.localplan`) against cold plans, value for value.
+
+Property: for any move of inverter pads and combiners of a generated plant (an invented
+scenario, :func:`routeplan.synth.generate_site`) — onto points along the trenches, trench
+ends (where the tap joins an existing node), or off the trenches within the snap distance —
+the local re-plan of the baseline gives the same cable schedule, trench schedule, inverter
+inputs, bill of quantities, summary, routes and sizing arrays as planning the moved site from
+scratch (``plan_site(..., with_remedies=False)``). The comparison is exact, floats included:
+the local re-plan computes every changed value with the same expressions on the same operands
+as a cold plan (route lengths are sums over the same segments in the same order; per-kind
+totals are summed over the whole plan, as the engine sums them), so no tolerance is needed.
+The one field left out is ``SizingResult.iterations`` (how many passes the sizing loop took —
+a count of work done, not a result: the subset settles in its own number of passes).
+
+A second site restricts the array and a.c. size lists so that cables need parallel sets:
+there the grouping couples circuits through their extra cable sets and the fixed point over
+the affected segments is exercised.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyogrio
+import pytest
+import shapely
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from routeplan.check import load
+from routeplan.errors import RoutingError
+from routeplan.localplan import MoveSearch, baseline, moved_features, replan
+from routeplan.network import build_network, retap, site_equipment
+from routeplan.pipeline import plan_site, route_params
+from routeplan.placement import _anchor, candidate_points, moved_site
+from routeplan.synth import generate_site
+
+#: cable sizes that force parallel sets on a generated plant's array and a.c. cables
+#: (invented design settings of the test)
+TIGHT = """
+[design.sizes_mm2]
+array = [16, 25]
+ac = [95, 120]
+"""
+
+
+def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0):
+    generate_site(mw, seed, root)
+    if extra:
+        toml = root / "site.toml"
+        toml.write_text(toml.read_text() + extra)
+    if dc_inputs:  # arrays spread over the inputs by route length (routeplan.inputs)
+        inv = pyogrio.read_dataframe(root / "site.gpkg", layer="inverters")
+        inv["dc_inputs"] = dc_inputs
+        pyogrio.write_dataframe(inv, root / "site.gpkg", layer="inverters", driver="GPKG")
+    return load(root)
+
+
+#: the plants: plain; tight sizes (parallel sets); inverters with 3 DC inputs each, which the
+#: arrays are spread over nearest first, so a move can change an array's input and backfeed
+PLANTS = (("plain", 8, 5, "", 0), ("tight", 6, 7, TIGHT, 0), ("inputs", 6, 9, "", 3))
+
+
+@pytest.fixture(scope="module")
+def plants(tmp_path_factory):
+    out = {}
+    for name, mw, seed, extra, dc_inputs in PLANTS:
+        site, design = _site(tmp_path_factory.mktemp(name), mw, seed, extra, dc_inputs)
+        out[name] = (site, design, baseline(site, design))
+    return out
+
+
+def _frames_equal(a: pd.DataFrame, b: pd.DataFrame) -> list[str]:
+    """Columns that differ (geometry by WKB; NaN equals NaN)."""
+    assert list(a.columns) == list(b.columns)
+    assert len(a) == len(b)
+    bad = []
+    for k in a.columns:
+        if k == getattr(a, "_geometry_column_name", None):
+            if not np.array_equal(shapely.to_wkb(a[k].array), shapely.to_wkb(b[k].array)):
+                bad.append(k)
+        elif not a[k].reset_index(drop=True).equals(b[k].reset_index(drop=True)):
+            bad.append(k)
+    return bad
+
+
+def assert_same_plan(local, cold) -> None:
+    assert _frames_equal(local.circuits, cold.circuits) == []
+    assert _frames_equal(local.segments, cold.segments) == []
+    assert _frames_equal(local.inputs, cold.inputs) == []
+    assert local.quantities.equals(cold.quantities)
+    assert local.summary == cold.summary
+    rl, rc = local.routes, cold.routes
+    assert np.array_equal(rl.incidence_circuit, rc.incidence_circuit)
+    assert np.array_equal(rl.incidence_segment, rc.incidence_segment)
+    assert rl.air.equals(rc.air)
+    assert np.array_equal(rl.air_incidence_circuit, rc.air_incidence_circuit)
+    assert np.array_equal(rl.air_incidence_stretch, rc.air_incidence_stretch)
+    for f in dataclasses.fields(cold.sizing):
+        if f.name == "iterations":
+            continue
+        a, b = np.asarray(getattr(local.sizing, f.name)), np.asarray(getattr(cold.sizing, f.name))
+        same = np.array_equal(a, b, equal_nan=True) if a.dtype.kind == "f" else np.array_equal(a, b)
+        assert same, f.name
+
+
+@st.composite
+def moves(draw, site):
+    """One to three features moved: onto a point along a trench near them, onto a trench's
+    end, or off the trench by a few metres."""
+    n = draw(st.integers(1, 3))
+    out = []
+    trenches = np.asarray(site.trenches.geometry.array)
+    for _ in range(n):
+        kind = draw(st.sampled_from(["inverter", "combiner"]))
+        layer = site.inverters if kind == "inverter" else site.combiners
+        row = draw(st.integers(0, len(layer) - 1))
+        a = _anchor(layer.geometry.iloc[row])
+        near = np.flatnonzero(shapely.distance(trenches, a) < 120.0)
+        line = trenches[draw(st.sampled_from(near.tolist()))]
+        how = draw(st.sampled_from(["along", "end", "off"]))
+        if how == "end":
+            p = shapely.get_point(line, draw(st.sampled_from([0, -1])))
+            xy = (p.x, p.y)
+        else:
+            f = draw(st.floats(0.0, 1.0))
+            p = shapely.line_interpolate_point(line, f, normalized=True)
+            d = (0.0, 0.0) if how == "along" else draw(st.tuples(*[st.floats(-6.0, 6.0)] * 2))
+            xy = (round(p.x + d[0], 2), round(p.y + d[1], 2))
+        out.append((kind, row, xy))
+    return out
+
+
+def _apply(site, edits):
+    for kind, row, xy in edits:
+        site = moved_site(site, kind, row, xy)
+    return site
+
+
+def _cold(site, design, memo):
+    return plan_site(site, design, noding_memo=memo, with_remedies=False)
+
+
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@settings(
+    max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_local_replan_equals_cold_plan(plants, name, data):
+    site, design, base = plants[name]
+    edits = data.draw(moves(site))
+    moved = _apply(site, edits)
+    memo = base.plan.routes.network.memo
+    try:
+        cold = _cold(moved, design, memo)
+    except RoutingError as exc:  # a move the plan refuses: the re-plan refuses it alike
+        with pytest.raises(type(exc)):
+            replan(base, moved)
+        return
+    local = replan(base, moved)
+    assert local.timings_s["local"] == 1.0  # the local path ran, not the fallback
+    assert_same_plan(local, cold)
+
+
+def test_tight_site_has_parallel_sets(plants):
+    """The tight site does exercise the grouping's coupling through extra cable sets."""
+    _, _, base = plants["tight"]
+    assert int(np.max(base.plan.sizing.parallel)) > 1
+
+
+def test_inputs_site_spreads_arrays_by_route(plants):
+    """The inputs site does exercise inputs chosen by route length (more than one in use)."""
+    _, _, base = plants["inputs"]
+    assert base.free_input.any()
+    assert len(np.unique(base.own_input[base.free_input])) > 1
+
+
+def test_a_move_changes_the_plan(plants):
+    """A pad moved 40 m along its trench changes its block's routes (the property above is
+    not met by plans that never change)."""
+    site, _design, base = plants["plain"]
+    inv = site.inverters.geometry.iloc[0]
+    a = _anchor(inv)
+    trenches = np.asarray(site.trenches.geometry.array)
+    line = trenches[int(np.argmin(shapely.distance(trenches, a)))]
+    pos = shapely.line_locate_point(line, a)
+    p = shapely.line_interpolate_point(line, pos + (40.0 if pos + 40 < line.length else -40.0))
+    local = replan(base, moved_site(site, "inverter", 0, (p.x, p.y)))
+    assert local.timings_s["local"] == 1.0
+    before = base.plan.circuits.set_index("circuit_id")["route_m"]
+    after = local.circuits.set_index("circuit_id")["route_m"]
+    assert (before != after.reindex(before.index)).sum() > 0
+
+
+def test_other_edits_fall_back_to_a_full_plan(plants):
+    """A trench edit is not a move: a full plan is made; an attribute edit is not a move."""
+    site, _design, base = plants["plain"]
+    trenches = site.trenches.copy()
+    trenches.loc[trenches.index[0], "depth_m"] = 1.2
+    edited = dataclasses.replace(site, trenches=trenches)
+    assert moved_features(site, edited) is None
+    plan = replan(base, edited)
+    assert plan.timings_s["local"] == 0.0
+    combiners = site.combiners.copy()
+    combiners.loc[combiners.index[0], "fuse_a"] = 20.0
+    assert moved_features(site, dataclasses.replace(site, combiners=combiners)) is None
+
+
+_searches: dict[tuple[str, str, int], MoveSearch] = {}
+
+
+def _search(plants, name: str, layer: str, row: int) -> MoveSearch:
+    key = (name, layer, row)
+    if key not in _searches:
+        site, design, base = plants[name]
+        _searches[key] = MoveSearch(site, design, layer, row, base.plan)
+    return _searches[key]
+
+
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@settings(
+    max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_placement_figures_equal_cold_plan(plants, name, data):
+    """What placement ranks a candidate by (:func:`routeplan.localplan.figures`, through
+    :func:`routeplan.network.retap` from the network without the feature) equals the same
+    columns of a cold plan of the moved site, in the schedule's order."""
+    site, design, _ = plants[name]
+    layer = data.draw(st.sampled_from(["inverters", "combiners"]))
+    row = data.draw(st.integers(0, min(len(site.layer(layer)), 4) - 1))
+    search = _search(plants, name, layer, row)
+    trenches = np.asarray(site.trenches.geometry.array)
+    a = _anchor(site.layer(layer).geometry.iloc[row])
+    near = np.flatnonzero(shapely.distance(trenches, a) < 150.0)
+    line = trenches[data.draw(st.sampled_from(near.tolist()))]
+    p = shapely.line_interpolate_point(line, data.draw(st.floats(0.0, 1.0)), normalized=True)
+    moved = search.site_at((round(p.x, 2), round(p.y, 2)))
+    try:
+        cold = _cold(moved, design, search.base.plan.routes.network.memo)
+    except RoutingError as exc:
+        with pytest.raises(type(exc)):
+            search.figures(moved)
+        return
+    fig = search.figures(moved)
+    assert fig.timings_s["local"] == 1.0
+    for col in fig.circuits.columns:  # values exact; text as object or str alike
+        pd.testing.assert_series_equal(
+            fig.circuits[col].reset_index(drop=True).astype(object),
+            cold.circuits[col].reset_index(drop=True).astype(object),
+            check_exact=True,
+        )
+    assert fig.segments["status"].reset_index(drop=True).equals(cold.segments["status"])
+    assert fig.inputs["status"].reset_index(drop=True).equals(cold.inputs["status"])
+
+
+def _network(site, design, memo=None):
+    params = route_params(design)
+    return build_network(
+        site.trenches,
+        site_equipment(site),
+        node_tol_m=params.node_tol_m,
+        snap_m=params.snap_m,
+        defaults=params.trench,
+        memo=memo,
+    )
+
+
+@settings(
+    max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_retap_equals_a_build(plants, data):
+    """:func:`routeplan.network.retap` (the feature joined to the network built without it)
+    gives the network a build of the moved site gives: nodes, segments (ids, chainage, nodes,
+    geometry) and taps, value for value; where it declines (None) a build is made instead."""
+    site, design, _ = plants["plain"]
+    layer = data.draw(st.sampled_from(["inverters", "combiners"]))
+    row = data.draw(st.integers(0, min(len(site.layer(layer)), 4) - 1))
+    search = _search(plants, "plain", layer, row)
+    trenches = np.asarray(site.trenches.geometry.array)
+    line = trenches[data.draw(st.integers(0, len(trenches) - 1))]
+    p = shapely.line_interpolate_point(line, data.draw(st.floats(0.0, 1.0)), normalized=True)
+    moved = search.site_at((round(p.x, 2), round(p.y, 2)))
+    got = retap(search.minus, search.tap, moved.layer(layer).geometry.iloc[row])
+    if got is None:
+        return
+    want = _network(moved, design)
+    assert np.array_equal(got.node_xy, want.node_xy)
+    assert _frames_equal(got.segments, want.segments) == []
+    assert _frames_equal(got.taps, want.taps) == []
+
+
+def test_retap_joins_most_points_along_trenches(plants):
+    """retap takes the common case itself: points every 7 m along the trenches near a pad
+    (a few, near nodes, are left to a build)."""
+    site, _, _ = plants["plain"]
+    search = _search(plants, "plain", "inverters", 0)
+    a = _anchor(site.inverters.geometry.iloc[0])
+    xy, _ = candidate_points(site.trenches, (a.x, a.y), 80.0, 7.0)
+    done = [
+        retap(search.minus, search.tap, search.site_at(tuple(p)).inverters.geometry.iloc[0])
+        for p in xy
+    ]
+    assert sum(d is not None for d in done) > len(xy) // 2
