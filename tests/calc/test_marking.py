@@ -171,3 +171,9 @@ def test_unknown_system_or_rule_set_is_refused_naming_the_setting():
         conductor_marking([STRING], [0], [None], "uk")
     with pytest.raises(UnknownOptionError, match=r"^rules must be one of 'iec', 'nec'; got 'bs'"):
         default_marking("bs")
+
+
+def test_the_texts_are_an_object_array_of_python_str_as_documented():
+    # the schedule's column takes Python str (not numpy's fixed-width str) per circuit
+    got = conductor_marking([STRING, AC], [0, 3], [None, 480.0], "us")
+    assert got.dtype == object and all(type(t) is str for t in got)
