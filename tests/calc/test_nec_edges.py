@@ -366,3 +366,10 @@ def test_protection_uses_the_ampacity_after_the_terminal_limit():
     # (380 A at the terminals, next standard rating 400 A) is
     got = smallest_size_mm2(FEEDER, "Cu", [250.0], 90, 75, 30.0, 3, ocpd_a=[400.0])
     assert size_label(got).tolist() == ["500 kcmil"]
+
+
+def test_candidate_sizes_and_ratings_given_as_text_are_read_as_numbers():
+    # numbers read from a text file arrive as text; calc reads numeric arguments as float
+    text = [f"{v!r}" for v in STRING.tolist()]
+    got = smallest_size_mm2(text, "Cu", [16.25], 90, 75, "45", "4", ocpd_a=["25"])
+    assert got.dtype == float and size_label(got).tolist() == ["10 AWG"]
