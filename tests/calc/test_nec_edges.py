@@ -373,3 +373,11 @@ def test_candidate_sizes_and_ratings_given_as_text_are_read_as_numbers():
     text = [f"{v!r}" for v in STRING.tolist()]
     got = smallest_size_mm2(text, "Cu", [16.25], 90, 75, "45", "4", ocpd_a=["25"])
     assert got.dtype == float and size_label(got).tolist() == ["10 AWG"]
+
+
+def test_a_device_equal_to_the_ampacity_within_tolerance_protects():
+    # 240.4: a device at the ampacity protects; a rating equal to it up to a rounding error
+    # (relative 1e-9) counts as equal — 52 A is no standard rating, so 240.4(B) cannot help
+    eight = size_from_label(["8 AWG"])
+    assert conductor_protected([52.0 * (1 + 1e-9)], [52.0], eight, "Cu")[0]
+    assert not conductor_protected([52.0 * (1 + 1e-8)], [52.0], eight, "Cu")[0]
