@@ -221,14 +221,33 @@ def test_ampacity_without_a_count_is_not_adjusted():
     assert ampacity_a(TEN, "Cu", 90, 30.0, location="free_air")[0] == 55.0
 
 
-def test_690_8_b_in_free_air_uses_table_310_17_for_both_conditions():
-    # 10 AWG Cu, 40 A at 45 °C in free air (Table 310.17, from memory: 50 A at 75 °C, 55 A at
-    # 90 °C): (B)(1) 50 ≥ 1.25 × 40 = 50; (B)(2) 55 × 0.87 = 47.85 ≥ 40. In a raceway (Table
-    # 310.16: 35 A at 75 °C) (B)(1) fails.
-    assert conductor_ampacity_ok(TEN, "Cu", 40.0, 90, 75, 45.0, 3, "free_air")[0]
-    assert not conductor_ampacity_ok(TEN, "Cu", 40.0, 90, 75, 45.0, 3)[0]
-    got = smallest_size_mm2(STRING, "Cu", [40.0], 90, 75, 45.0, 3, "free_air")
-    assert size_label(got).tolist() == ["10 AWG"]
+def test_690_8_b_in_free_air_uses_table_310_17_for_the_conductor():
+    # 10 AWG Cu, 90 °C insulation and terminals, 32 A at 45 °C (0.87) with 4 conductors (0.80):
+    # (B)(1) 1.25 × 32 = 40 A ≤ Table 310.16 90 °C 40 A (the terminals, 110.14(C)(1)) and
+    # Table 310.17 55 A (from memory); (B)(2) in free air 55 × 0.696 = 38.3 A ≥ 32 A, in a raceway
+    # 40 × 0.696 = 27.8 A < 32 A
+    assert conductor_ampacity_ok(TEN, "Cu", 32.0, 90, 90, 45.0, 4, "free_air")[0]
+    assert not conductor_ampacity_ok(TEN, "Cu", 32.0, 90, 90, 45.0, 4)[0]
+    got = smallest_size_mm2(STRING, "Cu", [32.0, 32.0], 90, 90, 45.0, 4, "free_air")
+    assert size_label(got).tolist() == ["10 AWG", "10 AWG"]
+    assert size_label(smallest_size_mm2(STRING, "Cu", [32.0], 90, 90, 45.0, 4)).tolist() == [
+        "8 AWG"
+    ]
+    # 75 °C insulation on 90 °C terminals, 30 A at 30 °C: (B)(1) 37.5 A ≤ Table 310.17 75 °C
+    # 50 A (from memory) and Table 310.16 90 °C 40 A; in a raceway Table 310.16 75 °C 35 A < 37.5 A
+    assert conductor_ampacity_ok(TEN, "Cu", 30.0, 75, 90, 30.0, 3, "free_air")[0]
+    assert not conductor_ampacity_ok(TEN, "Cu", 30.0, 75, 90, 30.0, 3)[0]
+
+
+def test_terminations_are_rated_from_table_310_16_also_in_free_air():
+    # NEC 2023 110.14(C)(1): "conductor ampacities used in determining equipment termination
+    # provisions shall be based on Table 310.16" unless the equipment is listed and marked
+    # otherwise (confirmed in a public reproduction of the text). 10 AWG Cu 90 °C in free air
+    # (Table 310.17: 55 A) on 75 °C terminals: limited to Table 310.16's 35 A, not 310.17's 50 A
+    assert ampacity_a(TEN, "Cu", 90, 30.0, 3, "free_air", terminal_c=75)[0] == 35.0
+    # 690.8(B)(1) at the terminals: 30 A needs 37.5 A > 35 A → not ok, also in free air
+    assert not conductor_ampacity_ok(TEN, "Cu", 30.0, 90, 75, 30.0, 3, "free_air")[0]
+    assert conductor_ampacity_ok(TEN, "Cu", 28.0, 90, 75, 30.0, 3, "free_air")[0]
 
 
 def test_690_8_b_on_the_limit_of_both_conditions():
