@@ -18,16 +18,17 @@ Interface (stable; the routing/pipeline side calls only this)::
   ``isc_a``, ``imp_a``, ``vmp_v``, ``n_strings``, ``strings_in_parallel``, ``max_fuse_a``,
   ``fuse_a``, ``bifaciality``, ``isc_bifacial_a``, ``dc_group``, ``ac_kva``, ``ac_v``,
   ``phases``, ``pf``, ``ac_max_a``), per trench segment (``seg_depth_m``, ``seg_laying``,
-  ``seg_spacing_m``, ``seg_soil_k_m_w``, ``seg_count``) and the incidence pairs
-  ``inc_circuit`` / ``inc_segment``; per stretch in air ``air_count`` and the incidence
-  ``air_inc_circuit`` / ``air_inc_stretch``.
+  ``seg_spacing_m``, ``seg_soil_k_m_w``, ``seg_count``, ``seg_length_m``) and the incidence
+  pairs ``inc_circuit`` / ``inc_segment``; per stretch in air ``air_count``, ``air_length_m``
+  and the incidence ``air_inc_circuit`` / ``air_inc_stretch``.
 * ``DesignParams`` — temperatures, materials, insulation, drop limits, size lists, parallel limit,
   conductor-temperature mode, power factor, loss hours, fault level, conductor identification
   system.
 * ``SizingResult`` — per circuit: size, parallel sets, currents, capacities and every factor at the
   governing environment, drops, losses, fuse, status ``ok`` and ``note``, marking; per segment the
   factors and final counts; per kind the loss totals.
-* ``calc.rules.get_rules(name)`` — rule sets (``"iec"``); an unknown name lists the valid ones.
+* ``calc.rules.get_rules(name)`` — rule sets (``"iec"``; ``"nec"``, NFPA 70 NEC 2023 with AWG /
+  kcmil sizes, :mod:`calc.rules.nec`); an unknown name lists the valid ones.
 
 Units: SI floats, the unit in every name (``_m``, ``_a``, ``_v``, ``_mm2``, ``_pct``, ``_k_m_w``,
 ``_c``, ``_kva``, ``_w``, ``_kwh``). No geometry, no file I/O beyond the packaged tables, no

@@ -32,6 +32,15 @@ Method (all steps vectorised over circuits × sizes):
    so all circuits are re-evaluated until the parallel counts stop changing (counts only grow, so
    this ends).
 
+Rule sets (:mod:`calc.rules`) supply every table and rule above; the steps are those of the IEC
+rule set. A rule set changes them through its hooks (defaults: the IEC behaviour): the NEC 2023
+rule set (:mod:`calc.rules.nec`) holds each circuit to 690.8(B)'s two conditions (the 690.8(A)
+maximum current against the corrected and adjusted ampacity, and 1.25 × it against the
+termination's column uncorrected — ``terminal_required_a`` / ``terminal_ampacity_a``; the
+utilisation is the governing one), counts current-carrying conductors for grouping, checks each
+candidate size's protection by its device (240.4), disregards a short governing stretch (310.15(A)
+exception) and notes every buried circuit for review.
+
 DC voltage-drop budget (decision): strings are sized first against min(drop_string_pct,
 drop_dc_total_pct); each array cable then gets min(drop_array_pct, drop_dc_total_pct − the largest
 drop of its own strings). So every string path meets ``drop_dc_total_pct`` by construction; the
@@ -49,8 +58,6 @@ import numpy as np
 from calc.errors import ConvergenceError, InputError, TableRangeError, check_option
 from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_SYSTEMS, conductor_marking
-from calc.pv import voc_max_v
-from calc.resistance import r_at_temp_ohm_km
 from calc.rules import RuleSet, get_rules
 from calc.tables import load_table
 from calc.vdrop import CONDUCTOR_TEMP_MODES, conductor_temp_c, vdrop_pct, vdrop_v
@@ -132,6 +139,9 @@ class SizingInput:
     circuits routed through it as counted by routing (calc uses at least the number of incident
     circuits given).
 
+    ``seg_length_m`` (optional, nan = not given) the segment's length [m], used only by a rule set
+    with a short-section exception (nec 310.15(A)); likewise ``air_length_m`` per air stretch.
+
     Incidence (length q): ``inc_circuit[k]`` passes ``inc_segment[k]``.
 
     Stretches in air (length r, e.g. a shared stub or a row's run): ``air_count`` circuits
@@ -169,12 +179,14 @@ class SizingInput:
     seg_spacing_m: np.ndarray | None = None
     seg_soil_k_m_w: np.ndarray | None = None
     seg_count: np.ndarray | None = None
+    seg_length_m: np.ndarray | None = None
     inc_circuit: np.ndarray | None = None
     inc_segment: np.ndarray | None = None
     air_count: np.ndarray | None = None
     air_behind_modules: np.ndarray | None = None
     air_inc_circuit: np.ndarray | None = None
     air_inc_stretch: np.ndarray | None = None
+    air_length_m: np.ndarray | None = None
 
 
 def design_default(name: str) -> float:
@@ -238,7 +250,14 @@ class DesignParams:
     min_ambient_c : lowest expected ambient (= module) temperature [°C] for the maximum d.c.
         voltage; −10 °C by default (common practice: set the site's record low).
     dc_rated_v : rated d.c. voltage of the cables and equipment [V] the strings' maximum Voc is
-        checked against; 1500 by default (the usual PV system voltage class, common practice).
+        checked against; 1500 by default (the usual PV system voltage class, common practice;
+        NEC equipment is rated 600, 1000 or 1500 V).
+    terminal_temp_c : nec only: temperature rating of the terminations [°C] (110.14(C)), 60, 75
+        or 90; None = 75 (equipment marked 75 °C, common practice). Set 90 only where the
+        equipment is marked for 90 °C.
+    buried_rating : how buried circuits are rated: "table" (the rule set's tables; under nec
+        Table 310.16 with a review note on every buried circuit). "engineered" (an IEC 60287 /
+        Neher–McGrath calculation, NEC 310.14(B)) is refused until it exists.
     """
 
     ground_temp_c: float = 20.0
@@ -279,6 +298,8 @@ class DesignParams:
     frequency_hz: float = 50.0
     min_ambient_c: float = -10.0
     dc_rated_v: float = 1500.0
+    terminal_temp_c: float | None = None
+    buried_rating: str = "table"
 
 
 @dataclass
@@ -305,6 +326,14 @@ class SizingResult:
     Ib), ac_breaker_a (In); protection (which rule governed, text); governing_air (the air
     stretch that governs, −1 if none or not air); ok; note (reason or assumption, "" if none) and
     marking (conductor identification) as object arrays of str.
+
+    Rule sets with a second, uncorrected ampacity condition (nec: 690.8(B)(1) with the 110.14(C)
+    termination column): terminal_required_a (1.25 × the maximum current, all parallel sets) and
+    terminal_ampacity_a (the table value in the termination's column, uncorrected, × parallel);
+    nan under iec. design_current_a / ampacity_a are then the 690.8(B)(2) condition (maximum
+    current against the corrected and adjusted ampacity) and utilisation is the larger of the two
+    ratios — the governing condition. Under nec, group_count and factor_group count
+    current-carrying conductors (Table 310.15(C)(1)), not circuits.
 
     Per segment: seg_soil_factor, seg_depth_factor, seg_group_factor (in force with the final
     counts), seg_count_final (routing count incl. extra parallel sets). Per air stretch:
@@ -360,6 +389,8 @@ class SizingResult:
     total_loss_w: np.ndarray
     total_loss_pct: np.ndarray
     total_energy_loss_kwh: np.ndarray
+    terminal_required_a: np.ndarray
+    terminal_ampacity_a: np.ndarray
     iterations: int = 0
     rules: str = "iec"
 
@@ -495,10 +526,18 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     a["seg_spacing_m"] = _arr(inp.seg_spacing_m, m, 0.0)
     a["seg_soil_k_m_w"] = _arr(inp.seg_soil_k_m_w, m, 2.5)
     a["seg_count"] = _arr(inp.seg_count, m, 1.0)
+    a["seg_length_m"] = _arr(inp.seg_length_m, m, np.nan)
     for name in ("inc_circuit", "inc_segment"):
         value = getattr(inp, name)
         a[name] = np.zeros(0, np.int64) if value is None else np.asarray(value, np.int64).ravel()
-    for name in ("seg_depth_m", "seg_laying", "seg_spacing_m", "seg_soil_k_m_w", "seg_count"):
+    for name in (
+        "seg_depth_m",
+        "seg_laying",
+        "seg_spacing_m",
+        "seg_soil_k_m_w",
+        "seg_count",
+        "seg_length_m",
+    ):
         if a[name].shape != (m,):
             problems.append(f"{name} must have length {m} (one per segment)")
     if a["inc_circuit"].shape != a["inc_segment"].shape:
@@ -585,6 +624,10 @@ def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
     if behind.shape != (r,):
         raise InputError(f"air_behind_modules must have length {r} (one per air stretch)")
     a["air_behind_modules"] = behind
+    length = _arr(inp.air_length_m, r, np.nan)
+    if length.shape != (r,):
+        raise InputError(f"air_length_m must have length {r} (one per air stretch)")
+    a["air_length_m"] = length
     bad = (ic < 0) | (ic >= n) | (ks < 0)
     if np.any(bad):
         raise InputError(f"air incidence pairs out of range at positions {_where(bad)}")
@@ -594,6 +637,7 @@ def _prepare_air(a: dict, inp: SizingInput, n: int) -> None:
 
 
 def _check_design(design: DesignParams, rs: RuleSet) -> None:
+    rs.check_design(design)
     check_option("material_array", design.material_array, rs.materials)
     check_option("material_subarray", design.material_subarray, rs.materials)
     check_option("insulation_subarray", design.insulation_subarray, rs.insulations)
@@ -658,6 +702,7 @@ class _KindData:
     x: dict  # phases -> [S]
     k_sc: np.ndarray | None  # [S]
     p_max: int
+    term: np.ndarray | None = None  # [3, S] uncorrected capacity per environment (nec 690.8(B)(1))
 
 
 def _cable_of(kind: int, design: DesignParams, rs: RuleSet) -> tuple[str, str, np.ndarray]:
@@ -687,16 +732,17 @@ def size_list_mm2(kind: int, design: DesignParams | None = None, rules: str = "i
 def larger_sizes_mm2(
     kind: int, design: DesignParams | None = None, rules: str = "iec"
 ) -> np.ndarray:
-    """The IEC 60228 nominal cross-sections larger than every size in a kind's list that the
-    rule set can size for that kind's cable (a resistance and a tabulated capacity in every
+    """The rule set's standard sizes larger than every size in a kind's list that the rule
+    set can size for that kind's cable (a resistance and a tabulated capacity in every
     environment), ascending [mm²]: the sizes a failing circuit could still be given.
 
-    Source of the candidates: IEC 60228:2004 Tables 2 and 3 (calc/data's resistance table).
+    Source of the candidates: :meth:`calc.rules.RuleSet.nominal_sizes_mm2` (iec: IEC 60228:2004
+    Tables 2 and 3; nec: Chapter 9 Table 8).
     """
     design = design if design is not None else DesignParams()
     rs = get_rules(rules)
     material, insulation, sizes = _cable_of(kind, design, rs)
-    nominal = np.unique(load_table("iec60228_2004_conductor_resistance.csv")["size_mm2"])
+    nominal = rs.nominal_sizes_mm2()
     out = []
     for s in nominal[nominal > sizes.max(initial=0.0)].tolist():
         try:
@@ -738,8 +784,10 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
             )
     x = {ph: rs.reactance_ohm_km(s, insulation, ph) for ph in (1, 3)}
     k_sc = None
-    if kind == KIND_AC and design.fault_ka is not None:
+    if kind == KIND_AC and design.fault_ka is not None and not rs.short_circuit_note():
         k_sc = rs.k_adiabatic(material, insulation, s)
+    term = [rs.terminal_capacity_a(kind, material, insulation, e, s, design) for e in ENV_NAMES]
+    term = None if term[0] is None else np.stack(term)
     return _KindData(
         kind=kind,
         idx=idx,
@@ -753,6 +801,7 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
         x=x,
         k_sc=k_sc,
         p_max=1 if kind == KIND_STRING else int(design.max_parallel),
+        term=term,
     )
 
 
@@ -760,13 +809,26 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
 # governing buried segment per circuit
 
 
-def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> dict:
+def _runner_up(cr: np.ndarray, pr: np.ndarray, keep: np.ndarray, starts: np.ndarray):
+    """Position of the second smallest ``pr`` in each run of ``cr`` (``keep``: the smallest's);
+    ``cr.size`` where a run has one element."""
+    pr2 = pr.copy()
+    pr2[keep] = np.inf
+    lo2 = np.minimum.reduceat(pr2, starts)
+    rep2 = np.repeat(lo2, np.diff(np.r_[starts, cr.size]))
+    pos2 = np.where((pr2 == rep2) & np.isfinite(pr2), np.arange(cr.size), cr.size)
+    return np.minimum.reduceat(pos2, starts)
+
+
+def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet, short=False) -> dict:
     """Per circuit and laying, the incident segment with the smallest soil·depth·group product.
 
     Only incidences of circuits with ``rows_mask_c`` are evaluated; ``delta`` (per circuit) is added
     to the counts of that circuit's own segments (its candidate extra parallel sets). The incidence
     is sorted by circuit (see ``_prepare``), so minima are taken with ``reduceat`` over circuit
-    runs.
+    runs. With ``short`` (a rule set's short-section exception), ``out["alt"][env]`` also gives
+    whether that segment is short enough to be disregarded and the runner-up segment's
+    (product, segment, group factor, count) — inf / −1 where there is none.
     """
     n = rows_mask_c.size
     ic, js = a["inc_circuit"], a["inc_segment"]
@@ -776,7 +838,10 @@ def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> 
     g = rs.group_factor(cnt, a["seg_spacing_m"][s], a["seg_laying"][s])
     prod = seg_fixed[s] * g
     out = {}
+    alt = {}
     for env, lay in _LAYING_OF_ENV.items():
+        is_short, minp2 = np.zeros(n, dtype=bool), np.full(n, np.inf)
+        seg2, grp2, gcnt2 = np.full(n, -1, dtype=np.int64), np.ones(n), np.zeros(n)
         minp = np.full(n, np.inf)
         seg = np.full(n, -1, dtype=np.int64)
         grp = np.ones(n)
@@ -794,11 +859,26 @@ def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet) -> 
             seg[who] = s[r][keep]
             grp[who] = g[r][keep]
             gcnt[who] = cnt[r][keep]
+            if short:
+                sr = s[r]
+                is_short[who] = rs.short_section(a["seg_length_m"][sr[keep]], a["cable_m"][who])
+                k2 = _runner_up(cr, pr, keep, starts)
+                has2 = k2 < cr.size
+                k2c = np.minimum(k2, cr.size - 1)
+                minp2[who] = np.where(has2, pr[k2c], np.inf)
+                seg2[who] = np.where(has2, sr[k2c], -1)
+                grp2[who] = np.where(has2, g[r][k2c], 1.0)
+                gcnt2[who] = np.where(has2, cnt[r][k2c], 0.0)
         out[env] = (minp, seg, grp, gcnt)
+        alt[env] = (is_short, minp2, seg2, grp2, gcnt2)
+    if short:
+        out["alt"] = alt
     return out
 
 
-def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_open, t_row):
+def _governing_air(
+    a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_open, t_row, short=False
+):
     """Per circuit, the air stretch with the smallest product of temperature and grouping
     factors: (product, stretch, count, grouping factor, temperature factor); a circuit without
     a stretch gets (nan, −1, 0, 1.0, nan).
@@ -807,6 +887,9 @@ def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_op
     added to the counts of that circuit's own stretches (its candidate extra parallel sets);
     ``arrangement`` is each circuit's arrangement in air; ``t_open`` / ``t_row`` the kind's
     temperature factor in open air / behind the modules. The incidence is sorted by circuit.
+    A sixth element is None, or with ``short`` (a rule set's short-section exception): whether
+    the governing stretch may be disregarded and the runner-up's (product, stretch, count,
+    grouping factor, temperature factor) — inf / −1 where there is none.
     """
     n = rows_mask_c.size
     ic, ks = a["air_inc_circuit"], a["air_inc_stretch"]
@@ -826,14 +909,28 @@ def _governing_air(a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_op
         who = c[keep]
         f_min[who], stretch[who], gcnt[who] = f[keep], k[keep], cnt[keep]
         g_min[who], t_min[who] = g[keep], t[keep]
-    return f_min, stretch, gcnt, g_min, t_min
+    if not short:
+        return f_min, stretch, gcnt, g_min, t_min, None
+    is_short, f2, stretch2 = np.zeros(n, dtype=bool), np.full(n, np.inf), np.full(n, -1)
+    gcnt2, g2, t2 = np.zeros(n), np.ones(n), np.full(n, np.nan)
+    if c.size:
+        is_short[who] = rs.short_section(a["air_length_m"][k[keep]], a["cable_m"][who])
+        k2 = _runner_up(c, f, keep, starts)
+        has2 = k2 < c.size
+        k2c = np.minimum(k2, c.size - 1)
+        f2[who] = np.where(has2, f[k2c], np.inf)
+        stretch2[who] = np.where(has2, k[k2c], -1)
+        gcnt2[who] = np.where(has2, cnt[k2c], 0.0)
+        g2[who] = np.where(has2, g[k2c], 1.0)
+        t2[who] = np.where(has2, t[k2c], np.nan)
+    return f_min, stretch, gcnt, g_min, t_min, (is_short, f2, stretch2, gcnt2, g2, t2)
 
 
 # --------------------------------------------------------------------------------------------
 # selection for one kind
 
 
-def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) -> dict:
+def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs, per_set=None) -> dict:
     """Pick (parallel, size) for the circuits ``kd.idx[sub]``; per-circuit details in that order."""
     idx = kd.idx[sub]
     k = idx.size
@@ -855,9 +952,14 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
         mask_c[gi] = True
         delta = np.zeros(n)
         delta[gi] = pp - p_cur[gi]
-        bur = _governing_buried(a, seg["fixed"], counts[0], mask_c, delta, rs)
+        if per_set is not None:  # grouping counts conductors
+            delta[gi] *= per_set[gi]
+        short = c["short"]
+        bur = _governing_buried(a, seg["fixed"], counts[0], mask_c, delta, rs, short)
         t_open, t_row = c["t_open"][kd.kind], c["t_air"][kd.kind]
-        air = _governing_air(a, counts[1], mask_c, delta, rs, c["arrangement"], t_open, t_row)
+        air = _governing_air(
+            a, counts[1], mask_c, delta, rs, c["arrangement"], t_open, t_row, short
+        )
         ev = _evaluate(kd, a, c, gi, pp, bur, air, budget[li], design, rs)
         ok = ev["ok"]
         anyok = ok.any(axis=1)
@@ -869,7 +971,7 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
         out_s[li[rows]] = s_idx[rows]
         chosen[li[rows]] = True
         picked = {key: mat[rows, s_idx[rows]] for key, mat in ev.items() if key != "ok"}
-        picked.update(_details(picked["env"], gi[rows], bur, air, c, kd))
+        picked.update(_details(picked["env"], gi[rows], bur, air, c, kd, picked.get("alt")))
         for key, vec in picked.items():
             if key not in det:
                 det[key] = np.zeros(k, dtype=vec.dtype)
@@ -880,6 +982,33 @@ def _select(kd: _KindData, sub, a, c, seg, counts, p_cur, budget, design, rs) ->
     det["s_idx"] = out_s
     det["size"] = kd.sizes[out_s]
     return det
+
+
+def _group_units(a: dict, rs: RuleSet) -> np.ndarray | None:
+    """Per circuit, what one cable set adds to a grouping count: None where the rule set counts
+    circuits (cable sets), else its current-carrying conductors."""
+    if rs.group_counts == "circuits":
+        return None
+    phases = np.where(a["kind"] == KIND_AC, a["phases"], 0)
+    return np.asarray(rs.current_carrying_conductors(a["kind"], phases), dtype=float)
+
+
+def _group_base(a: dict, per_set: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Conductors per trench segment and per air stretch with one set per circuit: those of the
+    incident circuits, plus, for circuits counted by routing but not given to calc, the most
+    conductors of any circuit there (2 where none is given) each (conservative)."""
+    out = []
+    for inc_c, inc_s, count in (
+        (a["inc_circuit"], a["inc_segment"], a["seg_count"]),
+        (a["air_inc_circuit"], a["air_inc_stretch"], a["air_count"]),
+    ):
+        size = count.size
+        given = np.bincount(inc_s, weights=per_set[inc_c], minlength=size)
+        incident = np.bincount(inc_s, minlength=size)
+        most = np.full(size, 2.0)
+        np.maximum.at(most, inc_s, per_set[inc_c])
+        out.append(given + np.maximum(count - incident, 0) * most)
+    return out[0], out[1]
 
 
 def _air_temp_c(design: DesignParams, kind: int) -> float:
@@ -924,6 +1053,9 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     with np.errstate(invalid="ignore"):
         cap_env = np.where(np.isfinite(f_env)[:, :, None], base * f_env[:, :, None], np.inf)
     env = np.argmin(cap_env, axis=0)  # [k, S]
+    alt = None
+    if "alt" in bur:  # a short governing stretch may be disregarded (nec 310.15(A) exception)
+        cap_env, env, alt = _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd)
     cap = np.take_along_axis(cap_env, env[None], axis=0)[0]  # per conductor set, derated
     base_g = np.take_along_axis(base, env[None], axis=0)[0]
     cap_tot = cap * pp
@@ -935,7 +1067,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     theta_max = np.where(env == 0, kd.theta_air, kd.theta_bur)
     amb = np.where(env == 0, _air_temp_c(design, kd.kind), design.ground_temp_c)
     theta = conductor_temp_c(design.conductor_temp, theta_max, amb, i_op, cap_tot)
-    r = r_at_temp_ohm_km(kd.r20[None, :], theta, kd.material)
+    r = rs.r_at_temp_ohm_km(kd.r20[None, :], theta, kd.material)
     ph = c["phases_eff"][gi]
     if kd.kind == KIND_AC:  # skin and proximity effect, IEC 60287-1-1
         r = r * rs.ac_resistance_factor(
@@ -951,6 +1083,20 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     # carry the backfeed itself: that is what it is held to, fitting or not
     fusable = np.isfinite(i_prot)
     i_req = np.where(carries | ~fusable, np.maximum(i_des, i_bf), np.maximum(i_des, i_prot))
+    req1 = cap1 = np.full(ok_cap.shape, np.nan)
+    if kd.term is not None:  # a second condition before correction (nec 690.8(B)(1))
+        present = np.isfinite(f_env)[:, :, None]  # [3, k, 1]
+        cap1 = np.min(np.where(present, kd.term[:, None, :], np.inf), axis=0) * pp  # [k, S]
+        req1 = np.broadcast_to(rs.terminal_required_a(i_des), ok_cap.shape)
+        ok_cap = ok_cap & (cap1 >= req1 * (1.0 - _EPS))
+        # the device each size would have: string fuse / a.c. breaker, or the array fuse where
+        # the size does not carry the backfeed; protection with the limited ampacity (240.4)
+        ocpd = np.where(carries, c["ocpd"][gi][:, None], c["array_fuse"][gi][:, None])
+        prot = rs.conductor_protected(
+            ocpd, np.minimum(cap_tot, cap1), kd.sizes[None, :], kd.material
+        )
+        if prot is not None:
+            ok_cap = ok_cap & prot
     ok_vd = pct <= budget[:, None] + _EPS
     ok = ok_cap & ok_vd
     if kd.k_sc is not None:
@@ -978,24 +1124,63 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
         "pct": pct,
         "smin": smin_m,
         "no_env": np.broadcast_to(no_env[:, None], env.shape),
+        "req1": req1,
+        "cap1": cap1,
+        **({} if alt is None else {"alt": alt}),
     }
 
 
-def _details(env: np.ndarray, gi: np.ndarray, bur: dict, air_g: tuple, c: dict, kd) -> dict:
-    """Factors at the governing environment of the chosen size (vectors over circuits ``gi``)."""
+def _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd):
+    """Disregard the governing stretch where it is short (the rule set's
+    :meth:`~calc.rules.RuleSet.short_section`): its environment's capacity becomes that of the
+    environment's runner-up stretch (none: absent), and the governing environment is chosen
+    again. Only the one governing stretch is disregarded, and only where another stretch
+    remains. Returns (capacities [3, k, S], environment [k, S], whether the runner-up of the
+    environment governs [k, S])."""
+    a_short, a_f2 = air[5][0][gi], air[5][1][gi]
+    f2 = np.stack([a_f2, t_gnd * bur["alt"]["D1"][1][gi], t_gnd * bur["alt"]["D2"][1][gi]])
+    shorts = np.stack([a_short, bur["alt"]["D1"][0][gi], bur["alt"]["D2"][0][gi]])  # [3, k]
+    gshort = np.take_along_axis(np.broadcast_to(shorts[:, :, None], cap_env.shape), env[None], 0)[0]
+    with np.errstate(invalid="ignore"):
+        cap2 = np.where(np.isfinite(f2)[:, :, None], base * f2[:, :, None], np.inf)
+    mod = cap_env.copy()
+    e = env[None]
+    np.put_along_axis(mod, e, np.take_along_axis(cap2, e, 0), 0)
+    env2 = np.argmin(mod, axis=0)
+    applies = gshort & np.isfinite(np.min(mod, axis=0))
+    new_env = np.where(applies, env2, env)
+    used2 = applies & (env2 == env)
+    out = np.where(applies[None], mod, cap_env)
+    return out, new_env, used2
+
+
+def _details(
+    env: np.ndarray, gi: np.ndarray, bur: dict, air_g: tuple, c: dict, kd, alt=None
+) -> dict:
+    """Factors at the governing environment of the chosen size (vectors over circuits ``gi``);
+    ``alt``: where the environment's runner-up stretch governs (short-section exception)."""
     air = env == 0
-    t_air = np.where(np.isnan(air_g[4][gi]), c["t_air"][kd.kind], air_g[4][gi])
+    t_sel, g_sel, n_sel, k_sel = air_g[4][gi], air_g[3][gi], air_g[2][gi], air_g[1][gi]
+    if alt is not None and air_g[5] is not None:  # the runner-up stretch in air governs
+        _, _, k2, n2, g2, t2 = air_g[5]
+        t_sel, g_sel = np.where(alt, t2[gi], t_sel), np.where(alt, g2[gi], g_sel)
+        n_sel, k_sel = np.where(alt, n2[gi], n_sel), np.where(alt, k2[gi], k_sel)
+    t_air = np.where(np.isnan(t_sel), c["t_air"][kd.kind], t_sel)
     temp_f = np.where(air, t_air, c["t_gnd"][kd.kind])
     seg_i = np.full(env.shape, -1, dtype=np.int64)
-    group = np.where(air, air_g[3][gi], 1.0)
-    gcount = np.where(air, air_g[2][gi], 0.0)
-    stretch = np.where(air, air_g[1][gi], -1)
+    group = np.where(air, g_sel, 1.0)
+    gcount = np.where(air, n_sel, 0.0)
+    stretch = np.where(air, k_sel, -1)
     for e, name in ((1, "D1"), (2, "D2")):
         sel = env == e
         _, sg, gr, gc = bur[name]
-        seg_i = np.where(sel, sg[gi], seg_i)
-        group = np.where(sel, gr[gi], group)
-        gcount = np.where(sel, gc[gi], gcount)
+        sg, gr, gc = sg[gi], gr[gi], gc[gi]
+        if alt is not None and "alt" in bur:  # the runner-up segment governs
+            _, _, sg2, gr2, gc2 = bur["alt"][name]
+            sg, gr, gc = (np.where(alt, x2[gi], x) for x, x2 in ((sg, sg2), (gr, gr2), (gc, gc2)))
+        seg_i = np.where(sel, sg, seg_i)
+        group = np.where(sel, gr, group)
+        gcount = np.where(sel, gc, gcount)
     has = seg_i >= 0
     safe = np.maximum(seg_i, 0)
     soil = np.where(has, c["seg_soil"][safe] if c["seg_soil"].size else 1.0, 1.0)
@@ -1087,6 +1272,9 @@ def size_circuits(
         "phases_eff": phases_eff,
         "loaded": np.where(is_ac & (a["phases"] == 3), 3, 2),
         "arrangement": np.asarray(design.air_arrangement, dtype=object)[kind],
+        # the rule set's short-section exception, where the stretches' lengths are given
+        "short": rs.short_section(np.zeros(0), np.zeros(0)) is not None
+        and bool(np.isfinite(a["seg_length_m"]).any() or np.isfinite(a["air_length_m"]).any()),
         "t_air": {
             k: rs.air_temp_factor(_air_temp_c(design, k), d.insulation) for k, d in kd.items()
         },
@@ -1119,6 +1307,9 @@ def size_circuits(
     below = np.zeros(n)
     counts = prev = air_counts = air_prev = None
     affected = np.ones(n, dtype=bool)
+    # what the grouping factors count: circuits (cable sets), or current-carrying conductors
+    per_set = _group_units(a, rs)
+    group_base = None if per_set is None else _group_base(a, per_set)
     iterations = 0
     # a pass that does not settle adds at least one conductor set (a circuit's count never falls:
     # _select starts from it) and no circuit exceeds max_parallel, so the iteration settles
@@ -1133,6 +1324,17 @@ def size_circuits(
             a["air_inc_stretch"], weights=(p - 1)[a["air_inc_circuit"]].astype(float),
             minlength=r_air,
         )  # fmt: skip
+        if per_set is None:
+            group = (counts, air_counts)
+        else:  # conductors: each extra set adds its circuit's conductors
+            extra = ((p - 1) * per_set).astype(float)
+            group = (
+                group_base[0]
+                + np.bincount(a["inc_segment"], weights=extra[a["inc_circuit"]], minlength=m),
+                group_base[1]
+                + np.bincount(a["air_inc_stretch"], weights=extra[a["air_inc_circuit"]],
+                              minlength=r_air),
+            )  # fmt: skip
         if prev is not None:
             changed = counts != prev
             air_changed = air_counts != air_prev
@@ -1154,7 +1356,7 @@ def size_circuits(
             if sub.size == 0:
                 continue
             new = _select(
-                kd[k], sub, a, c, seg, (counts, air_counts), p, budgets[kinds[k][sub]], design, rs
+                kd[k], sub, a, c, seg, group, p, budgets[kinds[k][sub]], design, rs, per_set
             )
             if k not in det:
                 det[k] = {key: np.zeros(kinds[k].size, val.dtype) for key, val in new.items()}
@@ -1173,7 +1375,7 @@ def size_circuits(
         raise ConvergenceError(f"parallel/grouping iteration did not settle in {max_passes} passes")
     child_max = _child_max(a["parent"], below, n)
 
-    c.update(p_w=p_w)
+    c.update(p_w=p_w, group_final=group)
     settled = _Settled(det, counts, air_counts, budgets, child_max, iterations)
     return _assemble(a, c, kd, kinds, settled, design, rs)
 
@@ -1254,6 +1456,7 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     )
     i_op = np.where(dc, a["imp_a"] * a["n_strings"], ib)
     return {
+        "ocpd": np.where(is_str, fuse_a, breaker_in),  # the device fitted (nan: none)
         "isc_design": np.where(dc, isc_total, np.nan),
         "i_design": i_design,
         "i_backfeed": i_backfeed,
@@ -1272,15 +1475,15 @@ def _protection(a: dict, design: DesignParams, rs: RuleSet) -> dict:
     }
 
 
-def _voc_max(a: dict, design: DesignParams) -> np.ndarray:
+def _voc_max(a: dict, design: DesignParams, rs: RuleSet) -> np.ndarray:
     """Each d.c. circuit's highest open-circuit voltage [V] (:func:`calc.pv.voc_max_v`): a
     string's at ``min_ambient_c``; a feeder's, the highest of the strings below it."""
     kind, par, level = a["kind"], a["parent"], a["level"]
     out = np.full(kind.size, np.nan)
     s = kind == KIND_STRING
-    out[s] = voc_max_v(a["voc_v"][s], a["voc_coeff_pct_per_c"][s], design.min_ambient_c)
+    out[s] = rs.voc_max_v(a["voc_v"][s], a["voc_coeff_pct_per_c"][s], design.min_ambient_c)
     given = np.isin(kind, FEEDER_KINDS)
-    out[given] = voc_max_v(
+    out[given] = rs.voc_max_v(
         a["voc_v"][given], a["voc_coeff_pct_per_c"][given], design.min_ambient_c
     )  # a feeder given without its strings
     top = np.full(kind.size, -np.inf)
@@ -1371,8 +1574,9 @@ def _with_feeders_above(parent: np.ndarray, affected: np.ndarray) -> np.ndarray:
     return out
 
 
-def _fmt_size(pp: int, size: float, material: str) -> str:
-    return f"{pp}×{size:g} mm² {material}" if pp > 1 else f"{size:g} mm² {material}"
+def _fmt_size(pp: int, size: float, material: str, rs: RuleSet | None = None) -> str:
+    text = f"{size:g} mm²" if rs is None else rs.size_text(size)
+    return f"{pp}×{text} {material}" if pp > 1 else f"{text} {material}"
 
 
 def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
@@ -1407,6 +1611,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         "r_ohm_km": np.full(n, np.nan),
     }
     i_req = np.full(n, np.nan)
+    req1, cap1 = np.full(n, np.nan), np.full(n, np.nan)
     carries = np.ones(n, bool)
     fail_cap = np.zeros(n, bool)
     fail_vd = np.zeros(n, bool)
@@ -1434,6 +1639,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         out["sc_min_mm2"][idx] = d["smin"]
         out["r_ohm_km"][idx] = d["r"]
         i_req[idx] = d["i_req"]
+        req1[idx], cap1[idx] = d["req1"], d["cap1"]
         carries[idx] = d["carries"]
         fail_cap[idx] = ~d["ok_cap"]
         fail_vd[idx] = ~d["ok_vd"]
@@ -1445,6 +1651,9 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     i_op = c["i_op"]
     i_design = i_req  # the capacity each circuit is held to, backfeed and protection included
     utilisation = i_design / out["ampacity_a"]
+    has_term = np.isfinite(req1)
+    if has_term.any():  # the governing of the two conditions (nec 690.8(B))
+        utilisation = np.where(has_term, np.fmax(utilisation, req1 / cap1), utilisation)
 
     # cumulative d.c. drop: the worst path through each circuit, from a string to the inverter
     # (the drop below it, its own, and the feeders' above it)
@@ -1478,7 +1687,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     arr_check = _check(is_arr, lambda i: rs.array_cable_check(iz[i], bf[i], arr_fuse[i]))
     ac_check = _check(is_ac, lambda i: rs.overload_check(c["ib"][i], b_in[i], iz[i], b_i2[i]))
     prot_ok = np.where(is_str, prot.ok, np.where(is_ac, c["breaker_ok"], True))
-    voc_max = _voc_max(a, design)
+    voc_max = _voc_max(a, design, rs)
     over_voltage = voc_max > design.dc_rated_v * (1.0 + _EPS)
     prot_ok &= ~over_voltage
     ok = ~(fail_cap | fail_vd | fail_sc | fail_path) & prot_ok & arr_check[0] & ac_check[0]
@@ -1488,7 +1697,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         over_voltage,
         lambda i: (
             f"Voc {voc_max[i]:.0f} V at {design.min_ambient_c:g} °C exceeds the rated "
-            f"{design.dc_rated_v:g} V (IEC 62548)"
+            f"{design.dc_rated_v:g} V ({rs.voc_source})"
         ),
         (voc_max,),
     )
@@ -1512,6 +1721,17 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         (c["isc_design"],),
     )
     _add_notes(notes, no_env, lambda i: "no route environment given: in air assumed")
+    if m and rs.buried_note("D2"):  # buried ratings the rule set flags for review
+        routed = {}
+        for env, lay in _LAYING_OF_ENV.items():
+            routed[env] = np.zeros(n, dtype=bool)
+            routed[env][a["inc_circuit"][a["seg_laying"][a["inc_segment"]] == lay]] = True
+        d1, d2 = routed["D1"], routed["D2"]
+        for mask, envs in ((d1 & ~d2, "D1"), (d2 & ~d1, "D2"), (d1 & d2, "D1+D2")):
+            text = rs.buried_note(envs)
+            _add_notes(notes, mask, lambda i, t=text: t)
+    if design.fault_ka is not None and rs.short_circuit_note():
+        _add_notes(notes, is_ac, lambda i: rs.short_circuit_note())
     deriv = out["derating"]
 
     def cap_note(i):
@@ -1521,7 +1741,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
             why = f" (backfeed {c['i_backfeed'][i]:.0f} A from its input, with {how})"
         return (
             f"needs {i_design[i]:.0f} A{why} after derating {deriv[i]:.2f}; largest allowed "
-            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i])} "
+            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)} "
             f"carries {out['ampacity_a'][i]:.0f} A"
         )
 
@@ -1534,7 +1754,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
             )
         return (
             f"voltage drop {own[i]:.2f} % exceeds {budgets[i]:.2f} %{extra} with largest "
-            f"allowed {_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i])}"
+            f"allowed {_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)}"
         )
 
     def sc_note(i):
@@ -1550,9 +1770,32 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         )
 
     size_keys = (out["parallel"], out["size_mm2"], out["material"])
+    # nec: the uncorrected condition (690.8(B)(1)) or the 240.4 protection may fail instead
+    term_fail = fail_cap & (req1 > cap1 * (1.0 + _EPS))
+    main_fail = fail_cap & ~(has_term & ~(i_design > out["ampacity_a"] * (1.0 + _EPS)))
+    prot_fail = fail_cap & ~term_fail & ~main_fail
+
+    def term_note(i):
+        return (
+            f"needs 1.25 × {i_design[i]:.0f} A = {req1[i]:.0f} A before correction in the "
+            f"{rs.terminal_c(design)} °C terminal column (690.8(B)(1), 110.14(C)); largest allowed "
+            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)} has "
+            f"{cap1[i]:.0f} A"
+        )
+
+    def prot_note(i):
+        dev = c["ocpd"][i] if np.isfinite(c["ocpd"][i]) else c["array_fuse"][i]
+        return (
+            f"the {dev:g} A device does not protect the largest allowed "
+            f"{_fmt_size(out['parallel'][i], out['size_mm2'][i], out['material'][i], rs)} "
+            f"(ampacity {min(out['ampacity_a'][i], cap1[i]):.0f} A with the terminal limit; 240.4)"
+        )
+
+    _add_notes(notes, term_fail, term_note, (i_design, req1, cap1, *_size_keys(out)))
+    _add_notes(notes, prot_fail, prot_note, (c["ocpd"], c["array_fuse"], cap1, *_size_keys(out)))
     _add_notes(
         notes,
-        fail_cap,
+        main_fail,
         cap_note,
         (i_design, deriv, out["ampacity_a"], c["i_backfeed"], *size_keys),
     )
@@ -1561,10 +1804,11 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     _add_notes(notes, fail_path, path_note, (total, par))
     for check, mask in ((arr_check, is_arr), (ac_check, is_ac)):
         _add_notes(notes, mask & ~check[0] & ~fail_cap, lambda i, t=check[1]: t[i], (check[1],))
-    protection = _protection_text(a, c, carries, arr_fuse, iz, design)
+    protection = _protection_text(a, c, carries, arr_fuse, iz, design, rs)
 
     seg_cnt = counts
-    seg_group = rs.group_factor(seg_cnt, a["seg_spacing_m"], a["seg_laying"]) if m else np.zeros(0)
+    grouped = c["group_final"][0]  # circuits, or conductors (rs.group_counts)
+    seg_group = rs.group_factor(grouped, a["seg_spacing_m"], a["seg_laying"]) if m else np.zeros(0)
     marking = conductor_marking(kind, c["phases_eff"], a["ac_v"], design.marking)
     out.pop("r_ohm_km")
     return SizingResult(
@@ -1597,9 +1841,16 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         total_loss_w=tot_loss,
         total_loss_pct=tot_pct,
         total_energy_loss_kwh=energy_loss_kwh(tot_loss, design.loss_hours_h),
+        terminal_required_a=req1,
+        terminal_ampacity_a=cap1,
         iterations=iterations,
         rules=rs.name,
     )
+
+
+def _size_keys(out: dict) -> tuple:
+    """The per-circuit arrays a note naming the chosen size depends on."""
+    return (out["parallel"], out["size_mm2"], out["material"])
 
 
 def _check(mask: np.ndarray, run) -> tuple[np.ndarray, np.ndarray]:
@@ -1614,7 +1865,7 @@ def _check(mask: np.ndarray, run) -> tuple[np.ndarray, np.ndarray]:
     return ok, note
 
 
-def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
+def _protection_text(a, c, carries, arr_fuse, iz, design, rs) -> np.ndarray:
     """Which protection rule governed each circuit, in words (the schedule's ``protection``)."""
     kind = a["kind"]
     text = np.full(kind.size, "", dtype=object)
@@ -1626,7 +1877,9 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     _fill(
         text,
         fused,
-        lambda i: f"string fuse {c['fuse_a'][i]:g} A gPV; {s_par[i]:g} strings in parallel",
+        lambda i: (
+            f"string fuse {c['fuse_a'][i]:g} A {rs.fuse_word}; {s_par[i]:g} strings in parallel"
+        ),
         (c["fuse_a"], s_par),
     )
     _fill(
@@ -1641,7 +1894,8 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
         text,
         is_arr & (bf > 0) & np.isfinite(arr_fuse),
         lambda i: (
-            f"{what[i]} fuse {arr_fuse[i]:g} A gPV: backfeed {bf[i]:.0f} A > Iz {iz[i]:.0f} A"
+            f"{what[i]} fuse {arr_fuse[i]:g} A {rs.fuse_word}: backfeed {bf[i]:.0f} A > Iz "
+            f"{iz[i]:.0f} A"
         ),
         (arr_fuse, bf, iz, what),
     )
@@ -1659,10 +1913,7 @@ def _protection_text(a, c, carries, arr_fuse, iz, design) -> np.ndarray:
     _fill(
         text,
         is_ac & np.isfinite(b_in),
-        lambda i: (
-            f"breaker {b_in[i]:g} A ({design.ac_breaker_device}): Ib {ib[i]:.0f} A ≤ In ≤ "
-            f"Iz {iz[i]:.0f} A"
-        ),
+        lambda i: rs.breaker_text(b_in[i], ib[i], iz[i], design.ac_breaker_device),
         (b_in, ib, iz),
     )
     return text
@@ -1702,14 +1953,20 @@ def _add_notes(notes: np.ndarray, mask: np.ndarray, text, keys: tuple = ()) -> N
 def failure_causes(result: SizingResult) -> dict[str, np.ndarray]:
     """Which limit each failing circuit breaks, from the result's own numbers (bool arrays).
 
-    ``capacity``: design current above the governing derated capacity; ``drop``: voltage drop
+    ``capacity``: design current above the governing derated capacity (nec: or 1.25 × the maximum
+    current above the uncorrected terminal-column ampacity, 690.8(B)(1)); ``drop``: voltage drop
     above the budget applied to the circuit (``vdrop_limit_pct``: its kind's limit, shared with
     the DC total as described in the module docstring); ``other``: failing for another reason
-    (short-circuit withstand, a fixed fuse outside its range, no standard fuse rating).
+    (short-circuit withstand, a fixed fuse outside its range, no standard fuse rating; nec: a
+    device that does not protect the conductor, 240.4).
     A circuit may fail on capacity and drop at once.
     """
     fail = ~np.asarray(result.ok, dtype=bool)
     tol = 1e-6
     cap = fail & (result.design_current_a > result.ampacity_a * (1.0 + tol))
+    # nec: the uncorrected condition (690.8(B)(1)) is a capacity limit too (nan under iec)
+    req1 = getattr(result, "terminal_required_a", None)
+    if req1 is not None:
+        cap |= fail & (req1 > result.terminal_ampacity_a * (1.0 + tol))
     drop = fail & (result.vdrop_pct > result.vdrop_limit_pct + tol)
     return {"capacity": cap, "drop": drop, "other": fail & ~cap & ~drop}

@@ -112,13 +112,13 @@ def _fail_os(exc: OSError, where: Path) -> None:
     raise typer.Exit(2)
 
 
-def _open_folder(out_dir: Path, site: Path, force: bool) -> Any:
+def _open_folder(out_dir: Path, site: Path, force: bool, also: tuple[str, ...] = ()) -> Any:
     """The output folder of a plan, checked (and locked) before any computation; a folder
-    that cannot be used is one line and exit 2."""
+    that cannot be used is one line and exit 2. ``also``: files written beside the plan's."""
     from .outputs.write import open_output_folder
 
     try:
-        return open_output_folder(out_dir, site, force=force)
+        return open_output_folder(out_dir, site, force=force, also=also)
     except InputError as exc:
         _fail_input(exc)
 
@@ -328,8 +328,9 @@ def place(
         typer.Option(
             "--out",
             "-o",
-            help="Output folder: the ranked candidates (placement.csv, placement.gpkg) and the "
-            "best position's plan; new, empty, or written by routeplan before.",
+            help="Output folder: the ranked candidates (placement.csv, placement.gpkg, the map "
+            "placement.html) and the best position's plan; new, empty, or written by routeplan "
+            "before.",
         ),
     ],
     inverter: Annotated[
@@ -353,19 +354,28 @@ def place(
     """Rank candidate positions of one inverter pad or combiner along the trenches: each is
     planned in full and ranked by conductor cost and capitalised losses ([costs] in site.toml;
     without prices, by conductor mass), feasible positions first. Writes placement.csv,
-    placement.gpkg and the best position's plan. Exit 0 when the best position meets every
-    limit, 1 when none does, 2 on bad input or an unusable output folder."""
+    placement.gpkg, the map placement.html and the best position's plan. Exit 0 when the
+    best position meets every limit, 1 when none does, 2 on bad input or an unusable output
+    folder."""
     from .check import load
-    from .outputs.write import write_plan
+    from .map.placement import write_placement_map
+    from .outputs.write import PLACE_FILES, write_plan
     from .placement import PlacementError, search, write_placement
 
     if (inverter is None) == (combiner is None):
         err.print("error: give exactly one of --inverter ID and --combiner ID", markup=False)
         raise typer.Exit(2)
     kind, feature = ("inverter", inverter) if inverter is not None else ("combiner", combiner)
-    folder = _open_folder(out_dir, site, force)
+    folder = _open_folder(out_dir, site, force, PLACE_FILES)
     show = not quiet and out.is_terminal
     status = out.status("starting", spinner="dots") if show else None
+
+    def placement_files(work: Path) -> list[str]:
+        names = write_placement(table, layout.crs, work)
+        return names + write_placement_map(
+            work, layout, kind, str(feature), best, radius_m=radius, step_m=step
+        )
+
     with folder, _reported(status, out_dir, (PlacementError, *InputError)):
         if status:
             status.start()
@@ -382,11 +392,7 @@ def place(
         if not plans:
             raise PlacementError(f"{kind} {feature!r}: no candidate position could be routed")
         best = next(iter(plans.values()))
-        write_plan(
-            best,
-            folder,
-            extra=lambda work: write_placement(table, layout.crs, work),
-        )
+        write_plan(best, folder, extra=placement_files)
     if not quiet:
         top = table.iloc[0]
         out.print(
@@ -404,7 +410,8 @@ def place(
             markup=False,
         )
         out.print(
-            f"outputs: {out_dir} (placement.csv, placement.gpkg, the best plan)", markup=False
+            f"outputs: {out_dir} (placement.csv, placement.gpkg, placement.html, the best plan)",
+            markup=False,
         )
         out.print(CAUTION, markup=False)
     raise typer.Exit(0 if bool(table.iloc[0]["feasible"]) else 1)

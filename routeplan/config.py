@@ -50,7 +50,10 @@ class Key:
 #: (ground 20 °C, soil 2.5 K·m/W, depth 0.7 m, air 30 °C) where a default is a reference value.
 DESIGN_KEYS: tuple[Key, ...] = (
     Key(
-        "rules", "iec", choices=("iec",), note="rule set; 'iec' = IEC 60364-5-52/62548/60228/60287"
+        "rules",
+        "iec",
+        choices=calc.rule_names(),
+        note="rule set; 'iec' = IEC 60364-5-52/62548/60228/60287, 'nec' = NFPA 70 NEC 2023",
     ),
     Key("ground_temp_c", 20.0, -20, 60, note="IEC 60364-5-52 reference ground temperature"),
     Key(
@@ -145,8 +148,9 @@ DESIGN_KEYS: tuple[Key, ...] = (
     Key(
         "ac_breaker_device",
         "iec60947-2",
-        choices=calc.get_rules("iec").breaker_devices,
-        note="AC circuit-breaker kind: 'iec60947-2' (moulded-case) or 'iec60898-1' (≤ 125 A)",
+        choices=tuple(d for r in calc.rule_names() for d in calc.get_rules(r).breaker_devices),
+        note="AC circuit-breaker kind: 'iec60947-2' (moulded-case) or 'iec60898-1' (≤ 125 A); "
+        "nec: 'nec240.6a' (the default under nec)",
     ),
     Key(
         "min_ambient_c",
@@ -169,7 +173,21 @@ DESIGN_KEYS: tuple[Key, ...] = (
         0.0,
         60.0,
         note="AC frequency for the skin and proximity effect (IEC 60287-1-1; power grids: 50 or "
-        "60 Hz)",
+        "60 Hz; nec: 60, the default under nec, Chapter 9 Table 9)",
+    ),
+    Key(
+        "terminal_temp_c",
+        math.nan,
+        60.0,
+        90.0,
+        note="nec: temperature rating of the terminations (110.14(C)): 60, 75 or 90; unset = 75",
+    ),
+    Key(
+        "buried_rating",
+        "table",
+        choices=("table", "engineered"),
+        note="buried circuits rated by the rule set's tables ('table'); 'engineered' (IEC 60287 / "
+        "Neher–McGrath) is not available yet",
     ),
 )
 
@@ -377,6 +395,22 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
     allow, defaulted2 = _scalars("allowances", allowances, ALLOWANCE_KEYS, problems)
     if "design.marking" in defaulted:  # the identification system follows the rule set
         values["marking"] = calc.default_marking(values["rules"])
+    rule_set = calc.get_rules(values["rules"])
+    if "design.frequency_hz" in defaulted:  # nec: Chapter 9 Table 9 is for 60 Hz
+        values["frequency_hz"] = rule_set.default_frequency_hz
+    if values["ac_breaker_device"] not in rule_set.breaker_devices:
+        if "design.ac_breaker_device" in defaulted:
+            values["ac_breaker_device"] = rule_set.breaker_devices[0]
+        else:
+            problems.append(
+                Problem(
+                    SITE_TOML,
+                    "design.ac_breaker_device",
+                    f"{values['ac_breaker_device']!r} is not a breaker of rules "
+                    f"'{values['rules']}'; expected one of {', '.join(rule_set.breaker_devices)}",
+                )
+            )
+            values["ac_breaker_device"] = rule_set.breaker_devices[0]
 
     if math.isnan(values["fault_ka"]) != math.isnan(values["clear_s"]):
         given, missing = ("fault_ka", "clear_s")[:: 1 if math.isnan(values["clear_s"]) else -1]
@@ -389,7 +423,13 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
             )
         )
     material = _choices("material", design, MATERIAL_DEFAULT, MATERIALS, problems)
-    insulation = _choices("insulation", design, INSULATION_DEFAULT, INSULATIONS, problems)
+    insulation_default = dict(INSULATION_DEFAULT)
+    insulations = INSULATIONS
+    if values["rules"] != "iec":  # the rule set's names (nec: temperature ratings "90C" …)
+        feeders = ("subarray", "array", "ac")
+        insulation_default.update(dict.fromkeys(feeders, rule_set.insulations[0]))
+        insulations = (*rule_set.insulations, "PV")
+    insulation = _choices("insulation", design, insulation_default, insulations, problems)
     if insulation["string"] != "PV":
         problems.append(
             Problem(
@@ -405,7 +445,7 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
                     SITE_TOML,
                     f"design.insulation.{kind}",
                     "PV cable (EN 50618 / IEC 62930) is rated here for string circuits only: "
-                    "set 'XLPE' or 'PVC'",
+                    f"set {' or '.join(repr(x) for x in insulations if x != 'PV')}",
                 )
             )
     if material["string"] != "Cu":

@@ -144,6 +144,8 @@ def design_params(design: DesignConfig) -> calc.DesignParams:
         frequency_hz=v["frequency_hz"],
         min_ambient_c=v["min_ambient_c"],
         dc_rated_v=v["dc_rated_v"],
+        terminal_temp_c=unset(v["terminal_temp_c"]),
+        buried_rating=v["buried_rating"],
     )
 
 
@@ -277,12 +279,14 @@ def sizing_input(
         seg_spacing_m=seg["spacing_m"].to_numpy(dtype=float),
         seg_soil_k_m_w=seg["soil_k_m_w"].to_numpy(dtype=float),
         seg_count=seg["circuits"].to_numpy(dtype=np.int64),
+        seg_length_m=seg["length_m"].to_numpy(dtype=float),
         inc_circuit=routes.incidence_circuit,
         inc_segment=routes.incidence_segment,
         air_count=np.zeros(len(routes.air)),
         air_behind_modules=(routes.air["kind"] == "row run").to_numpy(dtype=bool),
         air_inc_circuit=routes.air_incidence_circuit,
         air_inc_stretch=routes.air_incidence_stretch,
+        air_length_m=routes.air["length_m"].to_numpy(dtype=float),
     )
     return inp, own_input
 

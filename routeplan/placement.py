@@ -434,8 +434,16 @@ def candidate_layer(table: pd.DataFrame, crs) -> gpd.GeoDataFrame:
 
 def write_placement(table: pd.DataFrame, crs, folder: Path) -> list[str]:
     """Write ``placement.csv`` and ``placement.gpkg`` (layer ``candidates``) into ``folder``;
-    returns the file names."""
-    table.round(DECIMALS).to_csv(folder / "placement.csv", index=False)
+    returns the file names. The CSV's text cells (a trench id, the currency, a note quoting an
+    id) are guarded against formulas as the schedules' are
+    (:func:`routeplan.outputs.schedules.csv_guard`)."""
+    from .outputs.schedules import csv_guard
+
+    out = table.round(DECIMALS)
+    for col in ("trench_id", "objective_unit", "note"):
+        text = out[col].fillna("").astype(str).tolist()
+        out[col] = [c.decode("utf-8") for c in csv_guard([t.encode("utf-8") for t in text])]
+    out.to_csv(folder / "placement.csv", index=False)
     candidate_layer(table, crs).to_file(
         folder / "placement.gpkg", layer="candidates", engine="pyogrio"
     )

@@ -4,12 +4,16 @@ A rule set is a :class:`RuleSet` subclass in its own module under ``calc/rules/`
 files in ``calc/data/``; the engine only calls the methods below. Adding a rule set (e.g. NEC with
 AWG sizes) means one new module, its data files and one line in ``_MODULES`` — no edits elsewhere.
 
->>> get_rules("iec").name
-'iec'
->>> get_rules("nec")
+The methods after the abstract ones are *hooks* with the IEC behaviour as their default; a rule
+set whose rules differ in structure (NEC 2023: two ampacity conditions, conductors counted for
+grouping, protection by 240.4) overrides them (see :mod:`calc.rules.nec`).
+
+>>> get_rules("iec").name, get_rules("nec").name
+('iec', 'nec')
+>>> get_rules("bs7671")
 Traceback (most recent call last):
 ...
-calc.errors.UnknownOptionError: rules must be one of 'iec'; got 'nec'
+calc.errors.UnknownOptionError: rules must be one of 'iec', 'nec'; got 'bs7671'
 """
 
 from __future__ import annotations
@@ -21,12 +25,13 @@ from typing import ClassVar
 
 import numpy as np
 
-from calc.errors import check_option
+from calc import pv, resistance
+from calc.errors import InputError, check_option
 
 __all__ = ["RuleSet", "get_rules", "rule_names"]
 
 # rule set name -> "module:class"
-_MODULES: dict[str, str] = {"iec": "calc.rules.iec:IecRules"}
+_MODULES: dict[str, str] = {"iec": "calc.rules.iec:IecRules", "nec": "calc.rules.nec:NecRules"}
 
 
 class RuleSet(abc.ABC):
@@ -194,6 +199,100 @@ class RuleSet(abc.ABC):
     @abc.abstractmethod
     def overload_check(self, ib_a, in_a, iz_a, i2_a):
         """Cable / overload-device coordination (a :class:`calc.protection.OverloadCheck`)."""
+
+    # ---- hooks (the defaults are the IEC behaviour; see the module docstring)
+
+    #: what the grouping factors (:meth:`group_factor`, :meth:`air_group_factor`) count:
+    #: ``"circuits"`` (cable sets) or ``"conductors"`` (current-carrying conductors, see
+    #: :meth:`current_carrying_conductors`)
+    group_counts: ClassVar[str] = "circuits"
+    #: where the maximum d.c. voltage rule comes from (named in the circuit's note)
+    voc_source: ClassVar[str] = "IEC 62548"
+    #: a.c. frequency a design takes unless it sets one [Hz]
+    default_frequency_hz: ClassVar[float] = 50.0
+    #: the PV fuses' designation in the protection text
+    fuse_word: ClassVar[str] = "gPV"
+
+    def breaker_text(self, in_a: float, ib_a: float, iz_a: float, device: str) -> str:
+        """The a.c. breaker's line of the schedule's protection text."""
+        return f"breaker {in_a:g} A ({device}): Ib {ib_a:.0f} A ≤ In ≤ Iz {iz_a:.0f} A"
+
+    def check_design(self, design) -> None:
+        """Refuse design settings the rule set does not support (raises
+        :class:`~calc.errors.InputError` naming the key). IEC: ``terminal_temp_c`` is an NEC
+        110.14(C) setting; ``buried_rating`` must be ``"table"``."""
+        if design.terminal_temp_c is not None:
+            raise InputError(f"terminal_temp_c applies to rules 'nec' only (rules '{self.name}')")
+        if design.buried_rating != "table":
+            raise InputError(
+                f"buried_rating = '{design.buried_rating}' is not available (rules "
+                f"'{self.name}' rate buried circuits by the tables only)"
+            )
+
+    def current_carrying_conductors(self, kind: np.ndarray, phases: np.ndarray) -> np.ndarray:
+        """Current-carrying conductors of one cable set of each circuit [1]: 2 for d.c. and
+        single-phase, 3 for three-phase (a balanced neutral carries no current). Used only
+        when :attr:`group_counts` is ``"conductors"``."""
+        return np.where((np.asarray(kind) == 2) & (np.asarray(phases) == 3), 3, 2)
+
+    def terminal_capacity_a(
+        self, kind: int, material: str, insulation: str, env: str, sizes_mm2: np.ndarray, design
+    ) -> np.ndarray | None:
+        """Capacity one conductor set must have *before* correction and adjustment [A] (e.g.
+        NEC 690.8(B)(1) with the 110.14(C) termination column), per size; ``None`` where the
+        rule set has no such condition (IEC)."""
+        return None
+
+    def terminal_required_a(self, i_design_a: np.ndarray) -> np.ndarray:
+        """Current the :meth:`terminal_capacity_a` condition must carry [A] (NEC: 1.25 × the
+        690.8(A) maximum current); only called where that method gives a capacity."""
+        return np.asarray(i_design_a, dtype=float)
+
+    def conductor_protected(
+        self, ocpd_a: np.ndarray, ampacity_a: np.ndarray, sizes_mm2: np.ndarray, material: str
+    ) -> np.ndarray | None:
+        """Per circuit and size, whether the circuit's overcurrent device (nan = none)
+        protects the conductors (NEC 240.4); ``None`` where the rule set holds the cable to a
+        current instead (IEC 60364-4-43 433.1 through the design current)."""
+        return None
+
+    def buried_note(self, env: str) -> str:
+        """Review note for every circuit routed in the ground in ``env`` ("D1", "D2" or both,
+        "D1+D2"); "" when the rule set's buried ratings represent the installation (IEC: soil,
+        depth, grouping)."""
+        return ""
+
+    def short_section(self, stretch_m: np.ndarray, circuit_m: np.ndarray) -> np.ndarray | None:
+        """Per stretch, whether it is short enough for its lower capacity to be disregarded at a
+        transition (the higher capacity of the rest of the circuit applies; NEC 310.15(A)
+        exception); ``None`` where the rule set has no such exception (IEC). nan lengths: not
+        short."""
+        return None
+
+    def voc_max_v(self, voc_v, voc_coeff_pct_per_c, min_temp_c: float) -> np.ndarray:
+        """Highest string open-circuit voltage at the lowest expected temperature [V]
+        (IEC: :func:`calc.pv.voc_max_v`)."""
+        return pv.voc_max_v(voc_v, voc_coeff_pct_per_c, min_temp_c)
+
+    def r_at_temp_ohm_km(self, r20_ohm_km, temp_c, material: str) -> np.ndarray:
+        """Conductor resistance at temperature [Ω/km] (IEC 60287-1-1:
+        :func:`calc.resistance.r_at_temp_ohm_km`)."""
+        return resistance.r_at_temp_ohm_km(r20_ohm_km, temp_c, material)
+
+    def nominal_sizes_mm2(self) -> np.ndarray:
+        """Every standard conductor size of the rule set, ascending [mm²] (IEC 60228:2004)."""
+        from calc.tables import load_table
+
+        return np.unique(load_table("iec60228_2004_conductor_resistance.csv")["size_mm2"])
+
+    def size_text(self, size_mm2: float) -> str:
+        """A size as the schedule's notes name it (IEC: ``"16 mm²"``)."""
+        return f"{size_mm2:g} mm²"
+
+    def short_circuit_note(self) -> str:
+        """Note for a.c. circuits whose adiabatic withstand is not checked when a fault level
+        is given ("" = :meth:`k_adiabatic` checks it)."""
+        return ""
 
 
 def rule_names() -> tuple[str, ...]:

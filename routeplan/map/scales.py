@@ -26,6 +26,13 @@ each over the range of values that occur (so that 76–96 % does not look all al
 ``STATUS_COLOURS``
     passing circuits Okabe–Ito *bluish green* #009E73, failing ones vermillion.
 
+The placement map (:mod:`routeplan.map.placement`) colours candidate positions by objective:
+
+``OBJECTIVE``
+    viridis again, whole and reversed (t = 1 … 0): the smallest objective of the feasible
+    candidates (the best) is yellow, the largest dark purple — darker is more cost or mass.
+    Candidates are outlined in dark grey, so that the yellow end shows on a white page.
+
 Problems use one colour that neither scale contains, *vermillion* #D55E00 from the Okabe–Ito
 palette (Okabe & Ito, 2008, "Color Universal Design"), always together with a shape cue so that
 greyscale print still shows it: a failing circuit has a dashed black outline; an over-capacity
@@ -149,6 +156,8 @@ DROP_SHARE = ColourScale("YlGnBu (ColorBrewer, 9 classes), classes 2–9", YLGNB
 #: Colours of the status view, by status.
 STATUS_COLOURS = {"ok": PASS_COLOUR, "fail": PROBLEM_COLOUR}
 FILL = ColourScale("Blues (ColorBrewer, 9 classes), classes 2–9", BLUES_9[1:])
+#: Candidates of a placement search (``placement.html``), by objective: viridis reversed, whole.
+OBJECTIVE = ColourScale("viridis (matplotlib), reversed, t = 1…0", tuple(reversed(VIRIDIS_20)))
 
 
 def circuit_weight(size_mm2, parallel) -> np.ndarray:

@@ -51,6 +51,9 @@ FILES: tuple[str, ...] = (
     "map.html",
     "report.html",
 )
+#: the files ``routeplan place`` writes beside a plan's (:mod:`routeplan.placement`,
+#: :mod:`routeplan.map.placement`): refused up front when a user's file has one of these names
+PLACE_FILES: tuple[str, ...] = ("placement.csv", "placement.gpkg", "placement.html")
 #: the CSV files, in the order of :func:`schedules`
 CSV_FILES: tuple[str, ...] = (
     "cable_schedule.csv",
@@ -118,11 +121,14 @@ def open_output_folder(
     sources: dict[str, str] | None = None,
     *,
     force: bool = False,
+    also: tuple[str, ...] = (),
 ) -> OutputFolder:
     """Open ``out_dir`` for a plan of the site at ``site_root`` (:mod:`routeplan.folder`):
     checked before any computation, and never the site folder, a folder holding it or any
     of its input files (``sources``: the layers' specs as :func:`layers.sources.locate_layers`
-    gives them; found from site.toml when None), or a folder inside an input dataset."""
+    gives them; found from site.toml when None), or a folder inside an input dataset.
+    ``also``: more files the run writes beside the plan's (``routeplan place``:
+    :data:`PLACE_FILES`), refused up front like the plan's when a user's file has the name."""
     from layers.sources import layer_file, site_inputs, source_files
 
     root = Path(site_root)
@@ -133,7 +139,7 @@ def open_output_folder(
         for spec in sources.values():
             protect += [layer_file(root, spec), *(source_files(root, spec) or [])]
     return OutputFolder.open(
-        out_dir, "plan", force=force, protect=protect, protect_root=root, expect=FILES
+        out_dir, "plan", force=force, protect=protect, protect_root=root, expect=FILES + also
     )
 
 

@@ -958,6 +958,11 @@ def worked_calculation(
         fragment (one ``<section>`` per circuit, a table of steps with formula, numbers, value,
         unit and source).
     """
+    if design.values["rules"] != "iec":  # the steps below cite the IEC tables only
+        rules = html.escape(str(design.values["rules"]))
+        return WorkedCalculation(
+            (), f"<p>Worked calculations are given for rules 'iec' only (rules '{rules}').</p>"
+        )
     worked = [
         _worked_circuit(circuits.iloc[i], reason, segments, design)
         for i, reason in governing_circuits(circuits, design)

@@ -50,8 +50,8 @@ def test_module_docstring_states_design_aid():
 
 
 def test_unknown_rule_set_lists_valid_names():
-    with pytest.raises(UnknownOptionError, match="'iec'"):
-        get_rules("nec")
+    with pytest.raises(UnknownOptionError, match="'iec', 'nec'"):
+        get_rules("bs7671")
 
 
 def _site(ac_kva=250.0, seg_count=4, spacing=0.0, air=(10.0, 10.0, 30.0, 5.0)):

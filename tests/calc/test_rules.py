@@ -14,7 +14,7 @@ IEC = get_rules("iec")
 
 
 def test_registered_rule_sets():
-    assert rule_names() == ("iec",)
+    assert rule_names() == ("iec", "nec")
     assert IEC.name == "iec"
 
 

@@ -295,7 +295,9 @@ def test_voltage_classes_of_iec60502_1():
     assert voltage_class(1001 / math.sqrt(3), 1001, dc=False)["u_kv"] == 3.0
     assert voltage_class(3001 / math.sqrt(3), 3001, dc=False) is None  # IEC 60502-2's range
     d = data_table("bill_designations.csv")
-    assert len(d) == 8 and d["standard"][d["item"] == "pv_cable"].tolist() == ["EN 50618"]
+    assert len(d) == 9 and d["standard"][d["item"] == "pv_cable"].tolist() == ["EN 50618"]
+    # the NEC rule set's breaker: NEC 2023 240.6(A) standard ratings
+    assert "240.6(A)" in d["clause"][d["item"] == "breaker_nec240.6a"][0]
 
 
 def test_demo_bill_in_the_workbook_has_numbers(demo_out):

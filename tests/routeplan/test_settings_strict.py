@@ -192,7 +192,7 @@ def test_whole_float_is_taken_as_an_integer():
         ({"design": {"max_parallel": True}}, "design.max_parallel", "must be a number, not a "),
         ({"design": {"snap_m": [1]}}, "design.snap_m", "must be a number or a quantity such as"),
         ({"design": {"laying": 1}}, "design.laying", "must be a string, one of direct, duct"),
-        ({"design": {"rules": "IEC"}}, "design.rules", "'IEC'; expected one of iec"),
+        ({"design": {"rules": "IEC"}}, "design.rules", "'IEC'; expected one of iec, nec"),
         ({"design": {"dept_m": 1}}, "design.dept_m", "unknown key; did you mean 'depth_m'?"),
         ({"design": {"materials": {}}}, "design.materials", "did you mean 'material'?"),
         ({"design": {"depth_m": {"x": 1}}}, "design.depth_m", "must be a number or a quantity"),
