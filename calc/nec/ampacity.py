@@ -165,8 +165,9 @@ def ampacity_a(
 ) -> np.ndarray:
     """Ampacity after correction and adjustment, limited by the terminations [A].
 
-    I = min(I_table(insulation) · F_ambient · F_adjustment, I_table(terminal)), the second term
-    only when ``terminal_c`` is given (110.14(C): the termination's column, uncorrected).
+    I = min(I_table(insulation) · F_ambient · F_adjustment, I_310.16(terminal)), the second term
+    only when ``terminal_c`` is given (110.14(C)(1): the termination's column of Table 310.16,
+    uncorrected, whatever the location — unless the equipment is listed and marked otherwise).
     ``formula`` chooses the 310.15(B) formula instead of the table for the ambient factor.
 
     Examples
@@ -182,7 +183,8 @@ def ampacity_a(
     f_amb = (ambient_factor_formula if formula else ambient_factor)(ambient_c, insulation_c)
     amp = base * f_amb * adjustment_factor(current_carrying)
     if terminal_c is not None:
-        amp = np.fmin(amp, table_ampacity_a(sizes_mm2, material, terminal_c, location))
+        # 110.14(C)(1): termination provisions are based on Table 310.16, also in free air
+        amp = np.fmin(amp, table_ampacity_a(sizes_mm2, material, terminal_c, "raceway"))
         amp = np.where(np.isnan(base * f_amb), np.nan, amp)
     return amp
 

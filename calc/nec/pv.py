@@ -90,7 +90,9 @@ def conductor_ampacity_ok(
 ) -> np.ndarray:
     """690.8(B) with 110.14(C): True where the size carries ``i_max_a`` (broadcasting).
 
-    (B)(1): table ampacity at min(insulation, terminal) °C ≥ 1.25 · I_max (no correction);
+    (B)(1): table ampacity at min(insulation, terminal) °C ≥ 1.25 · I_max (no correction), and
+    the terminal column of Table 310.16 too (110.14(C)(1): termination provisions are based on
+    Table 310.16 also where the conductor is in free air, Table 310.17);
     (B)(2): table ampacity at the insulation rating × ambient factor × adjustment ≥ I_max.
     A size not tabulated (nan) or an ambient beyond the column is not ok.
     """
@@ -98,6 +100,8 @@ def conductor_ampacity_ok(
     i = np.asarray(i_max_a, dtype=float)
     k = ampacity.nec_rule("conductor_factor")
     b1 = ampacity.table_ampacity_a(sizes_mm2, material, col1, location) >= k * i
+    # 110.14(C)(1): the terminations' column of Table 310.16, also for conductors in free air
+    b1 &= ampacity.table_ampacity_a(sizes_mm2, material, terminal_c, "raceway") >= k * i
     corrected = ampacity.ampacity_a(
         sizes_mm2, material, insulation_c, ambient_c, current_carrying, location
     )

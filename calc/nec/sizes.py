@@ -151,7 +151,7 @@ def size_from_label(labels: ArrayLike) -> np.ndarray:
     for idx, lab in np.ndenumerate(arr):
         m = _LABEL.match(lab)
         if m is None:
-            bad.append(lab)
+            bad.append(str(lab))  # np.str_ would print as np.str_(...)
             continue
         aught, gauge, kcmil = m.groups()
         if aught is not None:

@@ -8,6 +8,7 @@
   Aluminium 2.703 g/cm³ (IEC 60889:1987, from memory).
 """
 
+import numpy as np
 import pytest
 
 from calc.costs import annuity_factor, capitalised_loss, conductor_mass_kg, density_kg_m3
@@ -65,3 +66,52 @@ def test_zero_years_and_zero_lengths_are_valid_and_give_zero():
     assert annuity_factor(0.0, 0) == 0.0
     assert conductor_mass_kg([10.0, 0.0], [0.0, 100.0], ["Cu", "Al"]).tolist() == [0.0, 0.0]
     assert capitalised_loss([0.0], 0.05, 5.0, 20).tolist() == [0.0]
+
+
+def test_each_refusal_names_the_value_refused():
+    # one line naming the input (DEVELOPERS.md: every failure names what is wrong)
+    with pytest.raises(InputError, match=r"^discount rate -1\.0 % and 10 years must be ≥ 0$"):
+        annuity_factor(-1.0, 10)
+    with pytest.raises(InputError, match=r"^discount rate 5\.0 % and -2 years must be ≥ 0$"):
+        annuity_factor(5.0, -2)
+    with pytest.raises(InputError, match=r"^energy price -0\.1 must be ≥ 0$"):
+        capitalised_loss([1.0], -0.1, 5.0, 10)
+    with pytest.raises(InputError, match=r"^conductor size and length must be ≥ 0$"):
+        conductor_mass_kg([10.0], [-1.0], ["Cu"])
+    with pytest.raises(UnknownOptionError, match=r"^material must be one of 'Cu', 'Al'; got 'Fe'"):
+        density_kg_m3(["Cu", "Fe"])
+
+
+def test_a_rate_or_price_that_is_not_finite_is_refused():
+    # an infinite rate would give a factor of 0 and an infinite price an infinite cost: refused
+    for rate, years in ((float("inf"), 10), (float("nan"), 10), (5.0, float("inf"))):
+        with pytest.raises(InputError):
+            annuity_factor(rate, years)
+    for price in (float("inf"), float("nan")):
+        with pytest.raises(InputError):
+            capitalised_loss([1.0], price, 5.0, 10)
+
+
+def test_a_free_energy_price_is_valid_and_costs_nothing():
+    assert capitalised_loss([12_000.0], 0.0, 5.0, 20).tolist() == [0.0]
+
+
+def test_missing_values_give_an_unknown_result_not_an_error():
+    # as elsewhere in calc (tests/calc/test_drop_loss_missing_values.py): a None from a user's
+    # table is read as nan (not known), never a TypeError
+    got = conductor_mass_kg([1.0, None, 1.0], [1000.0, 1000.0, None], ["Cu", "Cu", "Cu"])
+    assert got[0] == pytest.approx(8.89)  # IEC 60028: 8.89 g/cm³
+    assert np.isnan(got[1:]).all()
+    got = capitalised_loss([1000.0, None], 0.05, 0.0, 10)  # 1,000 kWh × 0.05 × 10 years
+    assert got[0] == pytest.approx(500.0) and np.isnan(got[1])
+
+
+def test_no_circuits_give_empty_results():
+    assert density_kg_m3([]).tolist() == []
+    assert conductor_mass_kg([], [], []).tolist() == []
+
+
+def test_material_names_given_as_byte_strings_are_read_as_text():
+    # a numpy byte-string array (dtype "S", as binary readers return text) names the same metals
+    names = np.array([b"Cu", b"Al"])
+    assert density_kg_m3(names).tolist() == [8890.0, 2703.0]

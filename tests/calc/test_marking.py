@@ -149,3 +149,31 @@ def test_tags_say_how_each_colour_is_known():
     assert tags <= {"confirmed", "memory", "common practice"}
     iec = {(r["conductor"], r["tag"]) for r in identification_rows("iec") if r["circuit"] == "dc"}
     assert iec == {("L+", "confirmed"), ("L-", "confirmed")}
+
+
+def test_the_report_rows_give_the_voltage_limit_of_the_us_phase_colours():
+    # the us phase colours (common practice) change above 250 V line-to-line: the design basis
+    # says so on the rows it applies to; rows for any voltage leave the limit blank
+    ac3 = [r for r in identification_rows("us") if r["circuit"] == "ac3"]
+    assert [
+        (r["ac_v_max"], r["conductor"], r["colour"]) for r in ac3 if r["conductor"] == "L1"
+    ] == [
+        ("250", "L1", "black"),
+        ("", "L1", "brown"),
+    ]
+    assert {r["ac_v_max"] for r in identification_rows("iec")} == {""}
+
+
+def test_unknown_system_or_rule_set_is_refused_naming_the_setting():
+    with pytest.raises(UnknownOptionError, match=r"^marking must be one of 'iec', 'gb'.*got 'uk'"):
+        identification_rows("uk")
+    with pytest.raises(UnknownOptionError, match=r"^marking must be one of 'iec', 'gb'.*got 'uk'"):
+        conductor_marking([STRING], [0], [None], "uk")
+    with pytest.raises(UnknownOptionError, match=r"^rules must be one of 'iec', 'nec'; got 'bs'"):
+        default_marking("bs")
+
+
+def test_the_texts_are_an_object_array_of_python_str_as_documented():
+    # the schedule's column takes Python str (not numpy's fixed-width str) per circuit
+    got = conductor_marking([STRING, AC], [0, 3], [None, 480.0], "us")
+    assert got.dtype == object and all(type(t) is str for t in got)

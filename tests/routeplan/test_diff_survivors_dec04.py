@@ -152,3 +152,39 @@ def test_a_breaker_line_is_named_with_its_rating_in_amperes_and_its_poles():
     new = pd.DataFrame([["AC breaker", "ac", "", "", "", "", "pcs", "32", "3", "2"]], columns=cols)
     rows = [(r["id"], r["change"], r["delta"]) for r in quantity_rows(old, new)]
     assert rows == [("AC breaker ac pcs 32 A 3-pole", "changed", "+1.00")]
+
+
+def _segments(rows: list[list[str]]) -> pd.DataFrame:
+    return pd.DataFrame(rows, columns=SEGMENT_HEADER, dtype=object)
+
+
+def test_a_split_segment_line_has_an_empty_field_as_every_text_cell():
+    # diff.csv's segment event lines name no field: the cell is empty text (""), as every
+    # cell of the changes table is text, not a missing value
+    from routeplan.diff.compare import compare_segments
+
+    old = _segments([segment("T1", 0, 120)])
+    new = _segments([segment("T1", 0, 50), segment("T1", 50, 120)])
+    rows, events = compare_segments(old, new)
+    assert [(r["change"], r["field"]) for r in rows] == [("split", "")]
+    assert events["event"].tolist() == ["split"]
+
+
+def test_a_total_length_change_below_the_shown_centimetre_is_not_a_change():
+    # a split whose parts add up to the old length within 0.005 m (a hand-edited plan with
+    # three decimals): the length line would read "120.00 → 120.00", so none is written;
+    # a change of 0.01 m is written
+    from routeplan.diff.compare import compare_segments
+
+    old = _segments([segment("T1", 0, 120)])
+    new = _segments([segment("T1", 0, 50), segment("T1", 50, 120, length_m="70.004")])
+    rows, _ = compare_segments(old, new)
+    assert [r["change"] for r in rows] == ["split"]
+    new = _segments([segment("T1", 0, 50), segment("T1", 50, 120, length_m="70.01")])
+    rows, _ = compare_segments(old, new)
+    assert [(r["change"], r["field"], r["old"], r["new"]) for r in rows][1] == (
+        "changed",
+        "length_m",
+        "120.00",
+        "120.01",
+    )
