@@ -451,12 +451,14 @@ def _local(
         dc_group=dc_group,
         **seg_cols,
         seg_count=count,
+        seg_length_m=seg["length_m"].to_numpy(dtype=float),
         inc_circuit=inc_c,
         inc_segment=inc_s,
         air_count=np.zeros(len(air)),
         air_behind_modules=(air["kind"] == "row run").to_numpy(dtype=bool),
         air_inc_circuit=air_c,
         air_inc_stretch=air_s,
+        air_length_m=air["length_m"].to_numpy(dtype=float),
     )
 
     # --- the affected circuits, closed over their blocks
@@ -845,14 +847,21 @@ def _size_subset(
         seg_spacing_m=inp.seg_spacing_m[seg_sub],
         seg_soil_k_m_w=inp.seg_soil_k_m_w[seg_sub],
         seg_count=(np.asarray(inp.seg_count, dtype=float) + seg_extra)[seg_sub],
+        seg_length_m=_part(inp.seg_length_m, seg_sub),
         inc_circuit=local_c[ic[mine]],
         inc_segment=local_s[js[mine]],
         air_count=(air_all + air_extra)[air_sub],
         air_behind_modules=np.asarray(inp.air_behind_modules)[air_sub],
         air_inc_circuit=local_c[ac[air_mine]],
         air_inc_stretch=local_a[ak[air_mine]],
+        air_length_m=_part(inp.air_length_m, air_sub),
     )
     return calc.size_circuits(sub_inp, dp, rules=rules), seg_sub, air_sub
+
+
+def _part(values: np.ndarray | None, which: np.ndarray) -> np.ndarray | None:
+    """``values[which]``; None (not given) stays None."""
+    return None if values is None else np.asarray(values)[which]
 
 
 _NOT_PER_CIRCUIT = {
@@ -862,12 +871,14 @@ _NOT_PER_CIRCUIT = {
     "seg_spacing_m",
     "seg_soil_k_m_w",
     "seg_count",
+    "seg_length_m",
     "inc_circuit",
     "inc_segment",
     "air_count",
     "air_behind_modules",
     "air_inc_circuit",
     "air_inc_stretch",
+    "air_length_m",
 }
 
 
