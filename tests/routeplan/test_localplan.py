@@ -12,6 +12,11 @@ totals are summed over the whole plan, as the engine sums them), so no tolerance
 The one field left out is ``SizingResult.iterations`` (how many passes the sizing loop took —
 a count of work done, not a result: the subset settles in its own number of passes).
 
+Other edits — a trench added, removed or redrawn, a row's strings changed, a design setting
+changed, alone or with a move in the same re-plan — are re-planned in full today (the
+re-plan says so, ``timings_s["local"] == 0``) and must equal a cold plan (no noding memo)
+all the same; an edit a cold plan refuses (a feature left unreachable) is refused alike.
+
 A second site restricts the array and a.c. size lists so that cables need parallel sets:
 there the grouping couples circuits through their extra cable sets and the fixed point over
 the affected segments is exercised.
@@ -22,16 +27,17 @@ from __future__ import annotations
 import dataclasses
 from pathlib import Path
 
+import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyogrio
 import pytest
 import shapely
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from routeplan.check import load
-from routeplan.errors import RoutingError
+from routeplan.errors import DesignError, RoutingError
 from routeplan.localplan import MoveSearch, baseline, moved_features, replan
 from routeplan.network import build_network, retap, site_equipment
 from routeplan.pipeline import plan_site, route_params
@@ -306,3 +312,140 @@ def test_retap_joins_most_points_along_trenches(plants):
         for p in xy
     ]
     assert sum(d is not None for d in done) > len(xy) // 2
+
+
+# --- other edits: trenches, rows' strings, design settings (and with moves) ------------------
+
+
+class _Edit:
+    """An edited site and design, shown by its label alone (hypothesis prints drawn values)."""
+
+    def __init__(self, label: str, site, design):
+        self.label, self.site, self.design = label, site, design
+
+    def __repr__(self) -> str:
+        return f"_Edit({self.label!r})"
+
+
+def _with_trenches(site, trenches):
+    trenches = trenches.reset_index(drop=True)
+    return dataclasses.replace(site, trenches=trenches)
+
+
+@st.composite
+def other_edit(draw, site, design):
+    """One edit that is not a move, as an :class:`_Edit`: a trench added (a spur off a
+    point along a trench, or a link between points of two nearby trenches), removed, or
+    redrawn (a vertex shifted a few metres, the line reversed, or a vertex inserted on it);
+    one row's strings changed; or a design setting changed (ground temperature, air
+    temperature, a voltage-drop limit)."""
+    how = draw(
+        st.sampled_from(
+            ["trench_add", "trench_remove", "trench_redraw", "strings", "setting", "drop"]
+        )
+    )
+    tr = site.trenches
+    geoms = np.asarray(tr.geometry.array)
+    if how == "trench_add":
+        i = draw(st.integers(0, len(tr) - 1))
+        a = shapely.line_interpolate_point(geoms[i], draw(st.floats(0.05, 0.95)), normalized=True)
+        near = np.flatnonzero((shapely.distance(geoms, a) < 80.0) & (np.arange(len(tr)) != i))
+        if len(near) and draw(st.booleans()):  # a link to a nearby trench
+            j = int(near[draw(st.integers(0, len(near) - 1))])
+            b = shapely.line_interpolate_point(geoms[j], draw(st.floats(0.0, 1.0)), normalized=True)
+        else:  # a spur
+            d = draw(st.tuples(*[st.floats(-60.0, 60.0)] * 2))
+            b = shapely.Point(a.x + d[0], a.y + d[1])
+        line = shapely.LineString([(round(a.x, 2), round(a.y, 2)), (round(b.x, 2), round(b.y, 2))])
+        if line.length < 1.0:
+            line = shapely.LineString(
+                [line.coords[0], (line.coords[0][0] + 5.0, line.coords[0][1])]
+            )
+        new = tr.iloc[[i]].copy()
+        new["id"] = "T-added"
+        new = new.set_geometry(gpd.GeoSeries([line], index=new.index, crs=tr.crs))
+        return _Edit(how, _with_trenches(site, pd.concat([tr, new])), design)
+    if how == "trench_remove":
+        i = draw(st.integers(0, len(tr) - 1))
+        return _Edit(how, _with_trenches(site, tr.drop(index=tr.index[i])), design)
+    if how == "trench_redraw":
+        i = draw(st.integers(0, len(tr) - 1))
+        xy = shapely.get_coordinates(geoms[i])
+        way = draw(st.sampled_from(["shift", "reverse", "insert"]))
+        if way == "shift":
+            k = draw(st.integers(0, len(xy) - 1))
+            d = draw(st.tuples(*[st.sampled_from([-5.0, -2.5, -0.5, 0.5, 2.5, 5.0])] * 2))
+            xy = xy.copy()
+            xy[k] = np.round(xy[k] + np.array(d), 2)
+        elif way == "reverse":
+            xy = xy[::-1]
+        else:  # the same line drawn with one vertex more
+            k = draw(st.integers(0, len(xy) - 2))
+            xy = np.insert(xy, k + 1, (xy[k] + xy[k + 1]) / 2.0, axis=0)
+        out = tr.geometry.to_numpy().copy()
+        out[i] = shapely.LineString(xy)
+        redrawn = tr.set_geometry(gpd.GeoSeries(out, index=tr.index, crs=tr.crs))
+        return _Edit(f"{how}:{way}", _with_trenches(site, redrawn), design)
+    if how == "strings":
+        rows = site.rows.copy()
+        i = draw(st.integers(0, len(rows) - 1))
+        now = int(rows["strings"].iloc[i])
+        rows.loc[rows.index[i], "strings"] = draw(
+            st.sampled_from([n for n in (1, 2, 3, 5, 6) if n != now])
+        )
+        return _Edit(how, dataclasses.replace(site, rows=rows), design)
+    if how == "setting":
+        key = draw(st.sampled_from(["ground_temp_c", "air_temp_c"]))
+        value = float(draw(st.integers(5, 45).filter(lambda v: v != design.values[key])))
+        values = {**design.values, key: value}
+        return _Edit(f"{how}:{key}", site, dataclasses.replace(design, values=values))
+    key = draw(st.sampled_from(sorted(design.drop_pct)))
+    value = draw(
+        st.sampled_from([0.5, 0.8, 1.2, 2.5, 3.0]).filter(lambda v: v != design.drop_pct[key])
+    )
+    drop = {**design.drop_pct, key: value}
+    return _Edit(f"{how}:{key}", site, dataclasses.replace(design, drop_pct=drop))
+
+
+def _check_fallback(base, site, design) -> None:
+    """The re-plan of ``site`` under ``design`` equals a cold plan (no noding memo), value for
+    value, and says that it was a full plan; an edit the plan refuses is refused alike."""
+    try:
+        cold = plan_site(site, design, with_remedies=False)
+    except (RoutingError, DesignError) as exc:
+        event(f"refused: {type(exc).__name__}")
+        with pytest.raises(type(exc)):
+            replan(base, site, design)
+        return
+    local = replan(base, site, design)
+    assert local.timings_s["local"] == 0.0
+    assert_same_plan(local, cold)
+
+
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@settings(
+    max_examples=20, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_other_edits_equal_cold_plan(plants, name, data):
+    """A trench added, removed or redrawn, a row's strings changed, or a design setting
+    changed: the re-plan (today a full plan, ``timings_s["local"] == 0``) equals a cold plan
+    of the edited site, value for value."""
+    site, design, base = plants[name]
+    edit = data.draw(other_edit(site, design))
+    event(edit.label.split(":")[0])
+    _check_fallback(base, edit.site, edit.design)
+
+
+@pytest.mark.parametrize("name", ["plain", "inputs"])
+@settings(
+    max_examples=10, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_a_move_and_another_edit_equal_cold_plan(plants, name, data):
+    """A pad or combiner move together with another edit in one re-plan equals a cold plan."""
+    site, design, base = plants[name]
+    moved = _apply(site, data.draw(moves(site)))
+    edit = data.draw(other_edit(moved, design))
+    event(edit.label.split(":")[0])
+    _check_fallback(base, edit.site, edit.design)
