@@ -39,10 +39,18 @@ site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the e
 Remedies (:mod:`routeplan.remedy`) are not computed: a local re-plan is the plan
 ``plan_site(..., with_remedies=False)`` gives.
 
+A change of design settings alone (the site the baseline's, nothing moved) that leaves the
+routing parameters as they were (:func:`routeplan.pipeline.route_params`: snap and noding
+distances, trench defaults, allowances) — a temperature, a drop limit, a material, a rule
+set — reuses the baseline's routes (network, paths, segment counts) and sizes every circuit
+again, with every table, as a full plan does after routing: a setting of that kind can change
+any circuit's size, so nothing smaller is re-sized.
+
 Anything else — trenches, rows, modules, strings, attributes of equipment, destinations
-chosen by route length, design settings — falls back to a full plan (:func:`replan` says which
-it did in ``Plan.timings_s["local"]``: 1.0 local, 0.0 full). The result is a design aid, to be
-reviewed by a qualified, licensed person.
+chosen by route length, settings that route, a move together with a settings change — falls
+back to a full plan. :func:`replan` says which it did in ``Plan.timings_s["local"]``: 1.0
+local, 0.5 routes reused and every circuit sized again, 0.0 full. The result is a design aid,
+to be reviewed by a qualified, licensed person.
 """
 
 from __future__ import annotations
@@ -78,6 +86,7 @@ from .pipeline import (
     input_groups,
     plan_site,
     quantity_table,
+    route_params,
     segment_fill,
     segment_table,
     sizing_input,
@@ -250,9 +259,24 @@ def replan(
         out = _local(base, site, design, t0, network=network, light=False)
         if out is not None:
             return out
+    if _settings_only(base, site, design):  # the routes hold: every circuit sized again
+        plan = plan_site(site, design, with_remedies=False, routes=old.routes)
+        plan.timings_s["local"] = 0.5
+        return plan
     plan = plan_site(site, design, noding_memo=old.routes.network.memo, with_remedies=False)
     plan.timings_s["local"] = 0.0
     return plan
+
+
+def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:
+    """Only design settings that do not route changed: the site is the baseline's, feature
+    for feature (nothing moved), and the routing parameters (:func:`routeplan.pipeline.
+    route_params`: snap and noding distances, trench defaults, allowances) are the same."""
+    old = base.plan
+    if repr(route_params(design)) != repr(old.routes.params):
+        return False
+    moved = moved_features(old.site, site)
+    return moved is not None and not any(len(v) for v in moved.values())
 
 
 def _applies(base: Baseline, site: Site, design: DesignConfig) -> bool:

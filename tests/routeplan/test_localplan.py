@@ -338,10 +338,19 @@ def other_edit(draw, site, design):
     point along a trench, or a link between points of two nearby trenches), removed, or
     redrawn (a vertex shifted a few metres, the line reversed, or a vertex inserted on it);
     one row's strings changed; or a design setting changed (ground temperature, air
-    temperature, a voltage-drop limit)."""
+    temperature, a voltage-drop limit, a conductor material; the cable slack, which routes)."""
     how = draw(
         st.sampled_from(
-            ["trench_add", "trench_remove", "trench_redraw", "strings", "setting", "drop"]
+            [
+                "trench_add",
+                "trench_remove",
+                "trench_redraw",
+                "strings",
+                "setting",
+                "drop",
+                "material",
+                "allowance",
+            ]
         )
     )
     tr = site.trenches
@@ -399,6 +408,13 @@ def other_edit(draw, site, design):
         value = float(draw(st.integers(5, 45).filter(lambda v: v != design.values[key])))
         values = {**design.values, key: value}
         return _Edit(f"{how}:{key}", site, dataclasses.replace(design, values=values))
+    if how == "material":  # a conductor material: sizing only
+        key = draw(st.sampled_from(["array", "ac"]))
+        material = {**design.material, key: "Cu" if design.material[key] == "Al" else "Al"}
+        return _Edit(f"{how}:{key}", site, dataclasses.replace(design, material=material))
+    if how == "allowance":  # the cable slack: it routes (cable lengths), so a full plan
+        slack = {**design.allowances, "slack_pct": design.allowances["slack_pct"] + 2.0}
+        return _Edit(how, site, dataclasses.replace(design, allowances=slack))
     key = draw(st.sampled_from(sorted(design.drop_pct)))
     value = draw(
         st.sampled_from([0.5, 0.8, 1.2, 2.5, 3.0]).filter(lambda v: v != design.drop_pct[key])
@@ -407,9 +423,24 @@ def other_edit(draw, site, design):
     return _Edit(f"{how}:{key}", site, dataclasses.replace(design, drop_pct=drop))
 
 
-def _check_fallback(base, site, design) -> None:
+#: edits of design settings that do not route (the baseline's routes are reused)
+SIZING_ONLY = ("setting", "drop", "material")
+
+
+def _unmoved(a, b) -> bool:
+    """No inverter or combiner of ``b`` is elsewhere than in ``a`` (geometry, exactly)."""
+    return all(
+        shapely.equals_exact(
+            np.asarray(a.layer(n).geometry.array), np.asarray(b.layer(n).geometry.array), 0.0
+        ).all()
+        for n in ("inverters", "combiners")
+    )
+
+
+def _check_fallback(base, site, design, expect: float) -> None:
     """The re-plan of ``site`` under ``design`` equals a cold plan (no noding memo), value for
-    value, and says that it was a full plan; an edit the plan refuses is refused alike."""
+    value, and says which path it took (``expect``: 0.0 a full plan; 0.5 the baseline's routes
+    reused, every circuit sized again); an edit the plan refuses is refused alike."""
     try:
         cold = plan_site(site, design, with_remedies=False)
     except (RoutingError, DesignError) as exc:
@@ -418,7 +449,9 @@ def _check_fallback(base, site, design) -> None:
             replan(base, site, design)
         return
     local = replan(base, site, design)
-    assert local.timings_s["local"] == 0.0
+    assert local.timings_s["local"] == expect
+    if expect == 0.5:
+        assert local.routes is base.plan.routes
     assert_same_plan(local, cold)
 
 
@@ -433,8 +466,9 @@ def test_other_edits_equal_cold_plan(plants, name, data):
     of the edited site, value for value."""
     site, design, base = plants[name]
     edit = data.draw(other_edit(site, design))
-    event(edit.label.split(":")[0])
-    _check_fallback(base, edit.site, edit.design)
+    kind = edit.label.split(":")[0]
+    event(kind)
+    _check_fallback(base, edit.site, edit.design, 0.5 if kind in SIZING_ONLY else 0.0)
 
 
 @pytest.mark.parametrize("name", ["plain", "inputs"])
@@ -447,5 +481,22 @@ def test_a_move_and_another_edit_equal_cold_plan(plants, name, data):
     site, design, base = plants[name]
     moved = _apply(site, data.draw(moves(site)))
     edit = data.draw(other_edit(moved, design))
-    event(edit.label.split(":")[0])
-    _check_fallback(base, edit.site, edit.design)
+    kind = edit.label.split(":")[0]
+    event(kind)
+    sizing_only = kind in SIZING_ONLY and _unmoved(site, moved)  # a move back onto itself
+    _check_fallback(base, edit.site, edit.design, 0.5 if sizing_only else 0.0)
+
+
+def test_a_setting_change_resizes_on_the_same_routes(plants):
+    """The ground 25 → 45 °C on the plain plant: the routes are the baseline's, the buried
+    circuits' figures change (a hotter ground derates them, IEC 60364-5-52 Table B.52.15,
+    from memory), and the plan equals a cold plan."""
+    site, design, base = plants["plain"]
+    hot = dataclasses.replace(design, values={**design.values, "ground_temp_c": 45.0})
+    local = replan(base, site, hot)
+    assert local.timings_s["local"] == 0.5
+    assert local.routes is base.plan.routes
+    assert not np.array_equal(
+        np.asarray(local.sizing.utilisation), np.asarray(base.plan.sizing.utilisation)
+    )
+    assert_same_plan(local, plan_site(site, hot, with_remedies=False))
