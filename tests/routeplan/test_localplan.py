@@ -19,12 +19,14 @@ all the same; an edit a cold plan refuses (a feature left unreachable) is refuse
 
 A second site restricts the array and a.c. size lists so that cables need parallel sets:
 there the grouping couples circuits through their extra cable sets and the fixed point over
-the affected segments is exercised.
+the affected segments is exercised. A fourth plans under the NEC rule set (NFPA 70 NEC 2023),
+whose 310.15(A) short-section exception reads the segments' and air stretches' lengths.
 """
 
 from __future__ import annotations
 
 import dataclasses
+import re
 from pathlib import Path
 
 import geopandas as gpd
@@ -53,11 +55,14 @@ ac = [95, 120]
 """
 
 
-def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0):
+def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0, rules="iec"):
     generate_site(mw, seed, root)
+    toml = root / "site.toml"
     if extra:
-        toml = root / "site.toml"
         toml.write_text(toml.read_text() + extra)
+    if rules == "nec":  # the NEC rule set's own size lists, insulations and air arrangements
+        text = toml.read_text().replace('rules = "iec"', 'rules = "nec"')
+        toml.write_text(re.sub(r"\n\[design\.air_arrangement\].*?\n\n", "\n\n", text, flags=re.S))
     if dc_inputs:  # arrays spread over the inputs by route length (routeplan.inputs)
         inv = pyogrio.read_dataframe(root / "site.gpkg", layer="inverters")
         inv["dc_inputs"] = dc_inputs
@@ -66,15 +71,22 @@ def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0)
 
 
 #: the plants: plain; tight sizes (parallel sets); inverters with 3 DC inputs each, which the
-#: arrays are spread over nearest first, so a move can change an array's input and backfeed
-PLANTS = (("plain", 8, 5, "", 0), ("tight", 6, 7, TIGHT, 0), ("inputs", 6, 9, "", 3))
+#: arrays are spread over nearest first, so a move can change an array's input and backfeed;
+#: the NEC rule set (NFPA 70 NEC 2023), whose 310.15(A) short-section exception reads the
+#: lengths of the segments and air stretches a move splits or changes
+PLANTS = (
+    ("plain", 8, 5, "", 0, "iec"),
+    ("tight", 6, 7, TIGHT, 0, "iec"),
+    ("inputs", 6, 9, "", 3, "iec"),
+    ("nec", 6, 11, "", 0, "nec"),
+)
 
 
 @pytest.fixture(scope="module")
 def plants(tmp_path_factory):
     out = {}
-    for name, mw, seed, extra, dc_inputs in PLANTS:
-        site, design = _site(tmp_path_factory.mktemp(name), mw, seed, extra, dc_inputs)
+    for name, mw, seed, extra, dc_inputs, rules in PLANTS:
+        site, design = _site(tmp_path_factory.mktemp(name), mw, seed, extra, dc_inputs, rules)
         out[name] = (site, design, baseline(site, design))
     return out
 
@@ -150,7 +162,7 @@ def _cold(site, design, memo):
     return plan_site(site, design, noding_memo=memo, with_remedies=False)
 
 
-@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs", "nec"])
 @settings(
     max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
@@ -226,7 +238,7 @@ def _search(plants, name: str, layer: str, row: int) -> MoveSearch:
     return _searches[key]
 
 
-@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs", "nec"])
 @settings(
     max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
