@@ -4,7 +4,9 @@ Why it maps onto a cluster
 --------------------------
 ``routeplan place`` (:func:`routeplan.placement.search`) evaluates each candidate position of
 one inverter pad or combiner on its own: the site moved to that position
-(:func:`~routeplan.placement.moved_site`), planned (:func:`routeplan.pipeline.plan_site`),
+(:func:`~routeplan.placement.moved_site`), re-planned locally from the plan at the current
+position (:class:`routeplan.localplan.MoveSearch`: only the moved feature's circuits are
+routed again and only the blocks they touch sized again; the figures equal a full plan's),
 judged against the plan at the current position (:class:`~routeplan.placement.Reference`)
 and turned into a row of ``placement.csv`` (:func:`~routeplan.placement.evaluate`,
 :func:`~routeplan.placement.objective`). No candidate needs another's result; only the
@@ -16,26 +18,32 @@ scheduler spreads them over the workers.
 
 What each worker holds: the plant, loaded once
 ----------------------------------------------
-Reading and validating a 1 GW site, and planning its current position (the reference every
-candidate is judged against), costs seconds; a candidate costs far less once they are in
-memory (and with the trench noding memo, :class:`routeplan.network.NetworkMemo`, reused).
-Shipping the site with every task would repeat that cost. Instead each worker keeps one
-:class:`Plant` — the site, its design settings, the reference and the noding memo — made the
-first time a task on that worker needs it:
+Reading and validating a 1 GW site, planning its current position (the reference every
+candidate is judged against, and the baseline every candidate is re-planned from) and
+building the trench network once without the feature cost seconds; a candidate then costs a
+local re-plan, a small part of a full plan. Shipping the site with every task would repeat
+that cost. Instead each worker keeps one :class:`Plant` per placed feature (site, feature)
+— the site, its design settings, the plan at the current position, the reference and the
+feature's :class:`~routeplan.localplan.MoveSearch` — made the first time a task on that
+worker needs it; every candidate of that feature on that worker is a local re-plan of it, as
+in ``routeplan place``:
 
 * :class:`PlantOnWorker` is a ``distributed.WorkerPlugin`` registered once
   (``client.register_plugin``); the scheduler gives it to every worker, including those that
   join later. Tasks name the site by its path and the feature by its id: each worker reads a
-  site once and plans each feature's current position once, both lazily, in the first task's
-  thread and under a lock, so the worker's event loop never blocks on a plan. The site folder
-  must be on a file system every worker sees.
+  site once and plans each feature's current position (its baseline) once, both lazily, in
+  the first task's thread and under a lock, so the worker's event loop never blocks on a
+  plan. A baseline is only read by the re-plans, so a worker's threads may share it. The
+  site folder must be on a file system every worker sees.
 * Where workers cannot read the site's files, load it once on the client and send the loaded
   :class:`layers.Site` to every worker with ``client.scatter(site, broadcast=True)``; pass
   the resulting future to the tasks instead of the path (Dask then hands each task the
   worker's local copy).
 
 Each task evaluates a batch of candidates of one feature (``batch`` positions), so that the
-scheduler's overhead per task (milliseconds) stays small against a plan.
+scheduler's overhead per task (milliseconds) stays small against a local re-plan (a
+candidate costs about what its block costs to route and size: raise ``batch`` for small
+blocks).
 :func:`portfolio_search` submits the batches of every request (features of one site or of
 many sites) at once, so workers never wait for one feature's stragglers. Results come back as
 the rows of ``placement.csv`` (plain dicts) and the client ranks each feature's exactly as
@@ -43,9 +51,10 @@ the rows of ``placement.csv`` (plain dicts) and the client ranks each feature's 
 sites do not all fit into a worker's memory, restrict each site's tasks to a few workers
 (``client.map(..., workers=[...])``) so that each worker holds few sites.
 
-Differences from ``routeplan place``: the reference is always the plan at the current position
-(``search`` takes the first candidate that routes, which is the current position whenever it
-routes; here a current position that cannot be routed is an error); the best position's plan
+Differences from ``routeplan place``: the reference and the baseline are always the plan at
+the current position (``search`` takes the first candidate that routes, which is the current
+position whenever it routes, and re-plans locally only from that; here a current position that
+cannot be routed is an error); the best position's plan
 (with remedies) and the output files are not made here — run ``routeplan place`` or
 :func:`routeplan.pipeline.plan_site` on the best position for them. The safety caution holds
 as for every output: results are a design aid, subject to local codes and to review by a
@@ -80,6 +89,7 @@ from distributed import Client, LocalCluster, WorkerPlugin, get_worker
 
 from routeplan.check import load
 from routeplan.errors import RoutingError
+from routeplan.localplan import MoveSearch
 from routeplan.pipeline import plan_site
 from routeplan.placement import (
     CANDIDATE_COLUMNS,
@@ -101,8 +111,10 @@ PLUGIN = "routeplan-plant"
 @dataclass
 class Plant:
     """What a worker keeps for one placed feature: the site as read (shared by the features
-    of one site), its design settings, the feature's row and current position, the reference
-    plan's figures and the trench noding memo of its last plan."""
+    of one site), its design settings, the feature's row and current position, the plan at the
+    current position and its figures (the reference), and the local re-plan baseline of the
+    feature (:class:`routeplan.localplan.MoveSearch`: that plan, and the network built once
+    without the feature)."""
 
     site: object
     design: object
@@ -111,7 +123,9 @@ class Plant:
     row: int
     origin: tuple[float, float]
     ref: Reference
-    memo: object
+    plan: object
+    mover: MoveSearch
+    local: int = 0  # candidates this worker re-planned locally (not by the full-plan fallback)
 
 
 def _origin(site, kind: str, row: int) -> tuple[float, float]:
@@ -122,13 +136,15 @@ def _origin(site, kind: str, row: int) -> tuple[float, float]:
 
 
 def make_plant(site, design, kind: str, feature_id: str) -> Plant:
-    """Plan the feature's current position (the reference); errors as ``place``'s."""
+    """Plan the feature's current position (the reference and the baseline of every local
+    re-plan); errors as ``place``'s."""
     row = feature_index(site, kind, feature_id)
     plan = plan_site(site, design, with_remedies=False)  # RoutingError: current not routable
     check_prices(design, plan.circuits["kind"].unique())
+    layer = "inverters" if kind == "inverter" else "combiners"
     return Plant(
         site, design, kind, feature_id, row, _origin(site, kind, row),
-        Reference.of(plan, kind, feature_id), plan.routes.network.memo,
+        Reference.of(plan, kind, feature_id), plan, MoveSearch(site, design, layer, row, plan),
     )  # fmt: skip
 
 
@@ -167,11 +183,16 @@ class PlantOnWorker(WorkerPlugin):
                 plant = self._plants[key] = make_plant(site, design, kind, feature_id)
             return plant
 
+    def local_replans(self) -> int:
+        """How many candidates this worker evaluated by a local re-plan (all its plants)."""
+        return sum(p.local for p in self._plants.values())
+
 
 def evaluate_position(plant: Plant, i: int, x: float, y: float, trench_id: str) -> dict:
     """The ``placement.csv`` row of candidate ``i`` at (x, y) [m] (before ranking and the
-    difference to the current position): the moved site planned, judged against the
-    reference. Updates the plant's noding memo."""
+    difference to the current position): the moved site re-planned locally from the plant's
+    baseline (:meth:`routeplan.localplan.MoveSearch.figures`, as ``place`` does; the current
+    position is the baseline's own plan), judged against the reference."""
     site = plant.site if i == 0 else moved_site(plant.site, plant.kind, plant.row, (x, y))
     base = {
         "candidate": i,
@@ -181,7 +202,7 @@ def evaluate_position(plant: Plant, i: int, x: float, y: float, trench_id: str) 
         "moved_m": float(np.hypot(x - plant.origin[0], y - plant.origin[1])),
     }
     try:
-        plan = plan_site(site, plant.design, noding_memo=plant.memo, with_remedies=False)
+        plan = plant.plan if i == 0 else plant.mover.figures(site)
     except RoutingError as exc:
         return {
             **base,
@@ -191,7 +212,8 @@ def evaluate_position(plant: Plant, i: int, x: float, y: float, trench_id: str) 
             "feasible": False,
             "note": "not routable here: " + " ".join(str(exc).split())[:200],
         }
-    plant.memo = plan.routes.network.memo
+    if i and plan.timings_s.get("local") == 1.0:
+        plant.local += 1
     e = evaluate(plan, plant.design.costs, plant.ref)
     value, unit = objective(e, plant.design.costs)
     return {

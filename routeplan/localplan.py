@@ -39,10 +39,18 @@ site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the e
 Remedies (:mod:`routeplan.remedy`) are not computed: a local re-plan is the plan
 ``plan_site(..., with_remedies=False)`` gives.
 
+A change of design settings alone (the site the baseline's, nothing moved) that leaves the
+routing parameters as they were (:func:`routeplan.pipeline.route_params`: snap and noding
+distances, trench defaults, allowances) — a temperature, a drop limit, a material, a rule
+set — reuses the baseline's routes (network, paths, segment counts) and sizes every circuit
+again, with every table, as a full plan does after routing: a setting of that kind can change
+any circuit's size, so nothing smaller is re-sized.
+
 Anything else — trenches, rows, modules, strings, attributes of equipment, destinations
-chosen by route length, design settings — falls back to a full plan (:func:`replan` says which
-it did in ``Plan.timings_s["local"]``: 1.0 local, 0.0 full). The result is a design aid, to be
-reviewed by a qualified, licensed person.
+chosen by route length, settings that route, a move together with a settings change — falls
+back to a full plan. :func:`replan` says which it did in ``Plan.timings_s["local"]``: 1.0
+local, 0.5 routes reused and every circuit sized again, 0.0 full. The result is a design aid,
+to be reviewed by a qualified, licensed person.
 """
 
 from __future__ import annotations
@@ -78,6 +86,7 @@ from .pipeline import (
     input_groups,
     plan_site,
     quantity_table,
+    route_params,
     segment_fill,
     segment_table,
     sizing_input,
@@ -250,9 +259,24 @@ def replan(
         out = _local(base, site, design, t0, network=network, light=False)
         if out is not None:
             return out
+    if _settings_only(base, site, design):  # the routes hold: every circuit sized again
+        plan = plan_site(site, design, with_remedies=False, routes=old.routes)
+        plan.timings_s["local"] = 0.5
+        return plan
     plan = plan_site(site, design, noding_memo=old.routes.network.memo, with_remedies=False)
     plan.timings_s["local"] = 0.0
     return plan
+
+
+def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:
+    """Only design settings that do not route changed: the site is the baseline's, feature
+    for feature (nothing moved), and the routing parameters (:func:`routeplan.pipeline.
+    route_params`: snap and noding distances, trench defaults, allowances) are the same."""
+    old = base.plan
+    if repr(route_params(design)) != repr(old.routes.params):
+        return False
+    moved = moved_features(old.site, site)
+    return moved is not None and not any(len(v) for v in moved.values())
 
 
 def _applies(base: Baseline, site: Site, design: DesignConfig) -> bool:
@@ -451,12 +475,14 @@ def _local(
         dc_group=dc_group,
         **seg_cols,
         seg_count=count,
+        seg_length_m=seg["length_m"].to_numpy(dtype=float),
         inc_circuit=inc_c,
         inc_segment=inc_s,
         air_count=np.zeros(len(air)),
         air_behind_modules=(air["kind"] == "row run").to_numpy(dtype=bool),
         air_inc_circuit=air_c,
         air_inc_stretch=air_s,
+        air_length_m=air["length_m"].to_numpy(dtype=float),
     )
 
     # --- the affected circuits, closed over their blocks
@@ -845,14 +871,21 @@ def _size_subset(
         seg_spacing_m=inp.seg_spacing_m[seg_sub],
         seg_soil_k_m_w=inp.seg_soil_k_m_w[seg_sub],
         seg_count=(np.asarray(inp.seg_count, dtype=float) + seg_extra)[seg_sub],
+        seg_length_m=_part(inp.seg_length_m, seg_sub),
         inc_circuit=local_c[ic[mine]],
         inc_segment=local_s[js[mine]],
         air_count=(air_all + air_extra)[air_sub],
         air_behind_modules=np.asarray(inp.air_behind_modules)[air_sub],
         air_inc_circuit=local_c[ac[air_mine]],
         air_inc_stretch=local_a[ak[air_mine]],
+        air_length_m=_part(inp.air_length_m, air_sub),
     )
     return calc.size_circuits(sub_inp, dp, rules=rules), seg_sub, air_sub
+
+
+def _part(values: np.ndarray | None, which: np.ndarray) -> np.ndarray | None:
+    """``values[which]``; None (not given) stays None."""
+    return None if values is None else np.asarray(values)[which]
 
 
 _NOT_PER_CIRCUIT = {
@@ -862,12 +895,14 @@ _NOT_PER_CIRCUIT = {
     "seg_spacing_m",
     "seg_soil_k_m_w",
     "seg_count",
+    "seg_length_m",
     "inc_circuit",
     "inc_segment",
     "air_count",
     "air_behind_modules",
     "air_inc_circuit",
     "air_inc_stretch",
+    "air_length_m",
 }
 
 

@@ -401,12 +401,15 @@ def plan_site(
     cache: PlanCache | None = None,
     noding_memo: NetworkMemo | None = None,
     with_remedies: bool = True,
+    routes: RoutePlan | None = None,
 ) -> Plan:
     """Route and size a validated site (see :func:`plan`; ``cache`` only after its ``site``
     stage, as :func:`plan` uses it). ``noding_memo``: without a cache, the ``network.memo`` of
     a plan of the same trenches, whose noding and taps are reused where they still hold
     (:func:`routeplan.network.build_network`). ``with_remedies=False`` leaves the ``remedy``
-    column blank (a plan compared, not delivered: ``routeplan place``'s candidates)."""
+    column blank (a plan compared, not delivered: ``routeplan place``'s candidates).
+    ``routes``: the routing of this very site under ``route_params(design)`` (a plan's
+    ``routes`` when only settings that do not route changed): not routed again."""
     say = progress or (lambda stage: None)
     t = timings if timings is not None else {}
     if cache is not None and "site" not in cache.keys:
@@ -414,7 +417,8 @@ def plan_site(
     say("route")
     t0 = time.perf_counter()
     params = route_params(design)
-    routes = None
+    if routes is not None:
+        cache = None
     if cache is not None:
         route_key = digest("route", cache.keys["site"], repr(params))
         routes = cache.get("route", route_key)

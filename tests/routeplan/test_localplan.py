@@ -12,26 +12,34 @@ totals are summed over the whole plan, as the engine sums them), so no tolerance
 The one field left out is ``SizingResult.iterations`` (how many passes the sizing loop took —
 a count of work done, not a result: the subset settles in its own number of passes).
 
+Other edits — a trench added, removed or redrawn, a row's strings changed, a design setting
+changed, alone or with a move in the same re-plan — are re-planned in full today (the
+re-plan says so, ``timings_s["local"] == 0``) and must equal a cold plan (no noding memo)
+all the same; an edit a cold plan refuses (a feature left unreachable) is refused alike.
+
 A second site restricts the array and a.c. size lists so that cables need parallel sets:
 there the grouping couples circuits through their extra cable sets and the fixed point over
-the affected segments is exercised.
+the affected segments is exercised. A fourth plans under the NEC rule set (NFPA 70 NEC 2023),
+whose 310.15(A) short-section exception reads the segments' and air stretches' lengths.
 """
 
 from __future__ import annotations
 
 import dataclasses
+import re
 from pathlib import Path
 
+import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyogrio
 import pytest
 import shapely
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from routeplan.check import load
-from routeplan.errors import RoutingError
+from routeplan.errors import DesignError, RoutingError
 from routeplan.localplan import MoveSearch, baseline, moved_features, replan
 from routeplan.network import build_network, retap, site_equipment
 from routeplan.pipeline import plan_site, route_params
@@ -47,11 +55,14 @@ ac = [95, 120]
 """
 
 
-def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0):
+def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0, rules="iec"):
     generate_site(mw, seed, root)
+    toml = root / "site.toml"
     if extra:
-        toml = root / "site.toml"
         toml.write_text(toml.read_text() + extra)
+    if rules == "nec":  # the NEC rule set's own size lists, insulations and air arrangements
+        text = toml.read_text().replace('rules = "iec"', 'rules = "nec"')
+        toml.write_text(re.sub(r"\n\[design\.air_arrangement\].*?\n\n", "\n\n", text, flags=re.S))
     if dc_inputs:  # arrays spread over the inputs by route length (routeplan.inputs)
         inv = pyogrio.read_dataframe(root / "site.gpkg", layer="inverters")
         inv["dc_inputs"] = dc_inputs
@@ -60,15 +71,22 @@ def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0)
 
 
 #: the plants: plain; tight sizes (parallel sets); inverters with 3 DC inputs each, which the
-#: arrays are spread over nearest first, so a move can change an array's input and backfeed
-PLANTS = (("plain", 8, 5, "", 0), ("tight", 6, 7, TIGHT, 0), ("inputs", 6, 9, "", 3))
+#: arrays are spread over nearest first, so a move can change an array's input and backfeed;
+#: the NEC rule set (NFPA 70 NEC 2023), whose 310.15(A) short-section exception reads the
+#: lengths of the segments and air stretches a move splits or changes
+PLANTS = (
+    ("plain", 8, 5, "", 0, "iec"),
+    ("tight", 6, 7, TIGHT, 0, "iec"),
+    ("inputs", 6, 9, "", 3, "iec"),
+    ("nec", 6, 11, "", 0, "nec"),
+)
 
 
 @pytest.fixture(scope="module")
 def plants(tmp_path_factory):
     out = {}
-    for name, mw, seed, extra, dc_inputs in PLANTS:
-        site, design = _site(tmp_path_factory.mktemp(name), mw, seed, extra, dc_inputs)
+    for name, mw, seed, extra, dc_inputs, rules in PLANTS:
+        site, design = _site(tmp_path_factory.mktemp(name), mw, seed, extra, dc_inputs, rules)
         out[name] = (site, design, baseline(site, design))
     return out
 
@@ -144,7 +162,7 @@ def _cold(site, design, memo):
     return plan_site(site, design, noding_memo=memo, with_remedies=False)
 
 
-@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs", "nec"])
 @settings(
     max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
@@ -220,7 +238,7 @@ def _search(plants, name: str, layer: str, row: int) -> MoveSearch:
     return _searches[key]
 
 
-@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs", "nec"])
 @settings(
     max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
@@ -306,3 +324,191 @@ def test_retap_joins_most_points_along_trenches(plants):
         for p in xy
     ]
     assert sum(d is not None for d in done) > len(xy) // 2
+
+
+# --- other edits: trenches, rows' strings, design settings (and with moves) ------------------
+
+
+class _Edit:
+    """An edited site and design, shown by its label alone (hypothesis prints drawn values)."""
+
+    def __init__(self, label: str, site, design):
+        self.label, self.site, self.design = label, site, design
+
+    def __repr__(self) -> str:
+        return f"_Edit({self.label!r})"
+
+
+def _with_trenches(site, trenches):
+    trenches = trenches.reset_index(drop=True)
+    return dataclasses.replace(site, trenches=trenches)
+
+
+@st.composite
+def other_edit(draw, site, design):
+    """One edit that is not a move, as an :class:`_Edit`: a trench added (a spur off a
+    point along a trench, or a link between points of two nearby trenches), removed, or
+    redrawn (a vertex shifted a few metres, the line reversed, or a vertex inserted on it);
+    one row's strings changed; or a design setting changed (ground temperature, air
+    temperature, a voltage-drop limit, a conductor material; the cable slack, which routes)."""
+    how = draw(
+        st.sampled_from(
+            [
+                "trench_add",
+                "trench_remove",
+                "trench_redraw",
+                "strings",
+                "setting",
+                "drop",
+                "material",
+                "allowance",
+            ]
+        )
+    )
+    tr = site.trenches
+    geoms = np.asarray(tr.geometry.array)
+    if how == "trench_add":
+        i = draw(st.integers(0, len(tr) - 1))
+        a = shapely.line_interpolate_point(geoms[i], draw(st.floats(0.05, 0.95)), normalized=True)
+        near = np.flatnonzero((shapely.distance(geoms, a) < 80.0) & (np.arange(len(tr)) != i))
+        if len(near) and draw(st.booleans()):  # a link to a nearby trench
+            j = int(near[draw(st.integers(0, len(near) - 1))])
+            b = shapely.line_interpolate_point(geoms[j], draw(st.floats(0.0, 1.0)), normalized=True)
+        else:  # a spur
+            d = draw(st.tuples(*[st.floats(-60.0, 60.0)] * 2))
+            b = shapely.Point(a.x + d[0], a.y + d[1])
+        line = shapely.LineString([(round(a.x, 2), round(a.y, 2)), (round(b.x, 2), round(b.y, 2))])
+        if line.length < 1.0:
+            line = shapely.LineString(
+                [line.coords[0], (line.coords[0][0] + 5.0, line.coords[0][1])]
+            )
+        new = tr.iloc[[i]].copy()
+        new["id"] = "T-added"
+        new = new.set_geometry(gpd.GeoSeries([line], index=new.index, crs=tr.crs))
+        return _Edit(how, _with_trenches(site, pd.concat([tr, new])), design)
+    if how == "trench_remove":
+        i = draw(st.integers(0, len(tr) - 1))
+        return _Edit(how, _with_trenches(site, tr.drop(index=tr.index[i])), design)
+    if how == "trench_redraw":
+        i = draw(st.integers(0, len(tr) - 1))
+        xy = shapely.get_coordinates(geoms[i])
+        way = draw(st.sampled_from(["shift", "reverse", "insert"]))
+        if way == "shift":
+            k = draw(st.integers(0, len(xy) - 1))
+            d = draw(st.tuples(*[st.sampled_from([-5.0, -2.5, -0.5, 0.5, 2.5, 5.0])] * 2))
+            xy = xy.copy()
+            xy[k] = np.round(xy[k] + np.array(d), 2)
+        elif way == "reverse":
+            xy = xy[::-1]
+        else:  # the same line drawn with one vertex more
+            k = draw(st.integers(0, len(xy) - 2))
+            xy = np.insert(xy, k + 1, (xy[k] + xy[k + 1]) / 2.0, axis=0)
+        out = tr.geometry.to_numpy().copy()
+        out[i] = shapely.LineString(xy)
+        redrawn = tr.set_geometry(gpd.GeoSeries(out, index=tr.index, crs=tr.crs))
+        return _Edit(f"{how}:{way}", _with_trenches(site, redrawn), design)
+    if how == "strings":
+        rows = site.rows.copy()
+        i = draw(st.integers(0, len(rows) - 1))
+        now = int(rows["strings"].iloc[i])
+        rows.loc[rows.index[i], "strings"] = draw(
+            st.sampled_from([n for n in (1, 2, 3, 5, 6) if n != now])
+        )
+        return _Edit(how, dataclasses.replace(site, rows=rows), design)
+    if how == "setting":
+        key = draw(st.sampled_from(["ground_temp_c", "air_temp_c"]))
+        value = float(draw(st.integers(5, 45).filter(lambda v: v != design.values[key])))
+        values = {**design.values, key: value}
+        return _Edit(f"{how}:{key}", site, dataclasses.replace(design, values=values))
+    if how == "material":  # a conductor material: sizing only
+        key = draw(st.sampled_from(["array", "ac"]))
+        material = {**design.material, key: "Cu" if design.material[key] == "Al" else "Al"}
+        return _Edit(f"{how}:{key}", site, dataclasses.replace(design, material=material))
+    if how == "allowance":  # the cable slack: it routes (cable lengths), so a full plan
+        slack = {**design.allowances, "slack_pct": design.allowances["slack_pct"] + 2.0}
+        return _Edit(how, site, dataclasses.replace(design, allowances=slack))
+    key = draw(st.sampled_from(sorted(design.drop_pct)))
+    value = draw(
+        st.sampled_from([0.5, 0.8, 1.2, 2.5, 3.0]).filter(lambda v: v != design.drop_pct[key])
+    )
+    drop = {**design.drop_pct, key: value}
+    return _Edit(f"{how}:{key}", site, dataclasses.replace(design, drop_pct=drop))
+
+
+#: edits of design settings that do not route (the baseline's routes are reused)
+SIZING_ONLY = ("setting", "drop", "material")
+
+
+def _unmoved(a, b) -> bool:
+    """No inverter or combiner of ``b`` is elsewhere than in ``a`` (geometry, exactly)."""
+    return all(
+        shapely.equals_exact(
+            np.asarray(a.layer(n).geometry.array), np.asarray(b.layer(n).geometry.array), 0.0
+        ).all()
+        for n in ("inverters", "combiners")
+    )
+
+
+def _check_fallback(base, site, design, expect: float) -> None:
+    """The re-plan of ``site`` under ``design`` equals a cold plan (no noding memo), value for
+    value, and says which path it took (``expect``: 0.0 a full plan; 0.5 the baseline's routes
+    reused, every circuit sized again); an edit the plan refuses is refused alike."""
+    try:
+        cold = plan_site(site, design, with_remedies=False)
+    except (RoutingError, DesignError) as exc:
+        event(f"refused: {type(exc).__name__}")
+        with pytest.raises(type(exc)):
+            replan(base, site, design)
+        return
+    local = replan(base, site, design)
+    assert local.timings_s["local"] == expect
+    if expect == 0.5:
+        assert local.routes is base.plan.routes
+    assert_same_plan(local, cold)
+
+
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@settings(
+    max_examples=20, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_other_edits_equal_cold_plan(plants, name, data):
+    """A trench added, removed or redrawn, a row's strings changed, or a design setting
+    changed: the re-plan (today a full plan, ``timings_s["local"] == 0``) equals a cold plan
+    of the edited site, value for value."""
+    site, design, base = plants[name]
+    edit = data.draw(other_edit(site, design))
+    kind = edit.label.split(":")[0]
+    event(kind)
+    _check_fallback(base, edit.site, edit.design, 0.5 if kind in SIZING_ONLY else 0.0)
+
+
+@pytest.mark.parametrize("name", ["plain", "inputs"])
+@settings(
+    max_examples=10, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_a_move_and_another_edit_equal_cold_plan(plants, name, data):
+    """A pad or combiner move together with another edit in one re-plan equals a cold plan."""
+    site, design, base = plants[name]
+    moved = _apply(site, data.draw(moves(site)))
+    edit = data.draw(other_edit(moved, design))
+    kind = edit.label.split(":")[0]
+    event(kind)
+    sizing_only = kind in SIZING_ONLY and _unmoved(site, moved)  # a move back onto itself
+    _check_fallback(base, edit.site, edit.design, 0.5 if sizing_only else 0.0)
+
+
+def test_a_setting_change_resizes_on_the_same_routes(plants):
+    """The ground 25 → 45 °C on the plain plant: the routes are the baseline's, the buried
+    circuits' figures change (a hotter ground derates them, IEC 60364-5-52 Table B.52.15,
+    from memory), and the plan equals a cold plan."""
+    site, design, base = plants["plain"]
+    hot = dataclasses.replace(design, values={**design.values, "ground_temp_c": 45.0})
+    local = replan(base, site, hot)
+    assert local.timings_s["local"] == 0.5
+    assert local.routes is base.plan.routes
+    assert not np.array_equal(
+        np.asarray(local.sizing.utilisation), np.asarray(base.plan.sizing.utilisation)
+    )
+    assert_same_plan(local, plan_site(site, hot, with_remedies=False))

@@ -1,7 +1,8 @@
 """``examples/place_distributed.py``: the candidates of ``routeplan place`` evaluated on a Dask
 ``LocalCluster`` (two workers, threads of this process) rank as ``place`` ranks them, for one
 feature and for a portfolio of two (an inverter and a combiner of one site), with the site read
-at most once per worker.
+at most once per worker and every candidate but the current position evaluated by a local
+re-plan of the worker's baseline (:class:`routeplan.localplan.MoveSearch`), not a full plan.
 
 The site is the straight-trench site of ``test_placement`` with a second block, so that one
 candidate is infeasible and the ranking's two keys (feasible first, then objective) both
@@ -79,6 +80,7 @@ def test_the_distributed_ranking_equals_place(tmp_path):
             batch=2,
         )
         loads = client.run(lambda dask_worker: dask_worker.plugins[ex.PLUGIN].loads)
+        local = client.run(lambda dask_worker: dask_worker.plugins[ex.PLUGIN].local_replans())
     assert len(got) == 8 and len(both) == 2
     _assert_same(got, want_inv)
     inv, cmb = both.values()
@@ -86,3 +88,8 @@ def test_the_distributed_ranking_equals_place(tmp_path):
     _assert_same(cmb, want_cmb)
     # each worker read the site at most once, for both calls and both features
     assert 1 <= sum(loads.values()) <= 2 and max(loads.values()) == 1
+    # every routable candidate but the current position was a local re-plan of the worker's
+    # baseline (none fell back to a full plan): the inverter's twice, the combiner's once
+    routable = [(t["candidate"] > 0) & t["objective"].notna() for t in (want_inv, want_cmb)]
+    assert routable[0].sum() > 0 and routable[1].sum() > 0
+    assert sum(local.values()) == 2 * routable[0].sum() + routable[1].sum()
