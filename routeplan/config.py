@@ -25,6 +25,8 @@ import re
 from dataclasses import dataclass, field
 from typing import Any
 
+import numpy as np
+
 import calc
 from calc.nec.sizes import size_from_label
 from layers import SITE_TABLES, Problem
@@ -357,6 +359,10 @@ class DesignConfig:
         return self.values[key]
 
 
+#: relative tolerance of a candidate size against the rule set's standard sizes (that of
+#: calc.nec.sizes.size_index: NEC sizes are written as labels, their areas from the definitions)
+_SIZE_RTOL = 1e-6
+
 #: a candidate size written as an AWG or kcmil label (NEC sizes) rather than in mm²
 _AWG_LABEL = re.compile(r"(awg|kcmil)\s*$", re.IGNORECASE)
 
@@ -518,7 +524,7 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
         if key not in KINDS:
             problems.append(unknown_key(where, key, KINDS, "kind"))
             continue
-        lst = _sizes(value, where, problems)
+        lst = _sizes(value, where, problems, rule_set=rule_set)
         if lst is not None:
             sizes[key] = lst
     rules = values["rules"]
@@ -574,9 +580,12 @@ def _sizes(
     key: str = "size_mm2",
     example: str = "[4, 6, 10]",
     item: str = "size",
+    rule_set: calc.rules.RuleSet | None = None,
 ) -> tuple[float, ...] | None:
     """A list of positive values in ``unit`` (candidate sizes [mm²], ratings [A]), sorted; None
-    (and a problem) when it is not one."""
+    (and a problem) when it is not one. With ``rule_set``, each value must be one of its
+    standard sizes (:meth:`calc.RuleSet.nominal_sizes_mm2`: IEC 60228, NEC Chapter 9 Table 8);
+    the problem names the value as written."""
     what = "sizes in mm²" if unit == "mm²" else f"values in {unit}"
     if not isinstance(value, list):
         problems.append(
@@ -620,6 +629,19 @@ def _sizes(
         if x <= 0:
             problems.append(Problem(SITE_TOML, where, f"{item} {i}: {x:g} {unit} must be > 0"))
             return None
+        if rule_set is not None:
+            nominal = rule_set.nominal_sizes_mm2()
+            if not np.isclose(x, nominal, rtol=_SIZE_RTOL, atol=0.0).any():
+                first, last = rule_set.size_text(nominal[0]), rule_set.size_text(nominal[-1])
+                problems.append(
+                    Problem(
+                        SITE_TOML,
+                        where,
+                        f"{item} {i}: {v!r} is not a conductor size of rules "
+                        f"'{rule_set.name}' ({first} … {last})",
+                    )
+                )
+                return None
         out.append(x)
     return tuple(sorted(out))
 

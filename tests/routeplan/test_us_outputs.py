@@ -363,20 +363,47 @@ def test_nec_bill_names_nec_sizes_and_listings():
 def test_size_lists_take_awg_and_kcmil_labels():
     # NEC 2023 Chapter 9 Table 8 sizes by name: their areas (circular mils → mm², within the
     # table's 3–4 significant digits)
-    cfg, problems = parse_design(
-        {"design": {"sizes_mm2": {"string": ["10 AWG", "12 AWG"], "ac": ["250 kcmil", "4/0 AWG"]}}}
-    )
+    sizes = {"string": ["10 AWG", "12 AWG"], "ac": ["250 kcmil", "4/0 AWG"]}
+    cfg, problems = parse_design({"design": {"rules": "nec", "sizes_mm2": sizes}})
     assert not problems
     assert cfg.sizes_mm2["string"] == pytest.approx((6530 * CMIL_MM2, 10380 * CMIL_MM2), rel=1e-3)
     assert cfg.sizes_mm2["ac"] == pytest.approx((211600 * CMIL_MM2, 250000 * CMIL_MM2), rel=1e-3)
     # a label that is no AWG or kcmil size: one problem naming the key and the item
-    _, problems = parse_design({"design": {"sizes_mm2": {"ac": ["250 kcmil", "4/0 kcmil"]}}})
+    _, problems = parse_design(
+        {"design": {"rules": "nec", "sizes_mm2": {"ac": ["250 kcmil", "4/0 kcmil"]}}}
+    )
     assert [(p.feature_id, p.message) for p in problems] == [
         (
             "design.sizes_mm2.ac",
             "size 2: '4/0 kcmil' is not an AWG or kcmil size ('10 AWG', '1/0 AWG', '250 kcmil')",
         )
     ]
+
+
+@pytest.mark.parametrize(
+    ("rules", "sizes", "message"),
+    [
+        # 11 AWG is an AWG gauge (ASTM B258) but no NEC 2023 Chapter 9 Table 8 row
+        (
+            "nec",
+            ["10 AWG", "11 AWG"],
+            "size 2: '11 AWG' is not a conductor size of rules 'nec' (14 AWG … 1000 kcmil)",
+        ),
+        # 10 mm² (IEC 60228) lies between 8 AWG (8.367 mm²) and 6 AWG (13.30 mm²)
+        ("nec", [10], "size 1: 10 is not a conductor size of rules 'nec' (14 AWG … 1000 kcmil)"),
+        # 10 AWG (5.261 mm²) is no IEC 60228:2004 nominal cross-section
+        (
+            "iec",
+            ["10 AWG"],
+            "size 1: '10 AWG' is not a conductor size of rules 'iec' (1.5 mm² … 400 mm²)",
+        ),
+        # 7 mm² lies between the IEC 60228 sizes 6 and 10 mm²
+        ("iec", [4, 7], "size 2: 7 is not a conductor size of rules 'iec' (1.5 mm² … 400 mm²)"),
+    ],
+)
+def test_a_size_the_rule_set_does_not_have_is_named_as_written(rules, sizes, message):
+    _, problems = parse_design({"design": {"rules": rules, "sizes_mm2": {"string": sizes}}})
+    assert [(p.feature_id, p.message) for p in problems] == [("design.sizes_mm2.string", message)]
 
 
 def test_diff_of_the_same_site_in_si_and_us_shows_no_cable_change(us_plan, tmp_path):
