@@ -451,7 +451,7 @@ def plan_site(
         try:
             result = calc.size_circuits(inp, dp, rules=rules)
         except (calc.InputError, calc.UnknownOptionError, calc.TableRangeError) as exc:
-            raise DesignError([Problem("site.toml", "design", str(exc))]) from exc
+            raise DesignError([Problem("site.toml", _design_key_of(str(exc)), str(exc))]) from exc
         if cache is not None:
             cache.put("size", size_key, result)
     t["size"] = time.perf_counter() - t0
@@ -488,6 +488,15 @@ def plan_site(
     return Plan(
         site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
     )
+
+
+def _design_key_of(message: str) -> str:
+    """The site.toml key a calc refusal is about: ``design.<key>`` where the message begins
+    with a ``[design]`` key's name (calc names the setting it refuses), else ``design``."""
+    for key in DESIGN_KEYS:
+        if message.startswith((f"{key.name} ", f"{key.name} =")):
+            return f"design.{key.name}"
+    return "design"
 
 
 def _shallow_trenches(segments: pd.DataFrame, dp: calc.DesignParams) -> list[Problem]:

@@ -74,3 +74,24 @@ def test_engineered_buried_rating_is_refused_naming_the_key(tmp_path):
     with pytest.raises(DesignError, match="buried_rating = 'engineered'") as exc:
         plan(site)
     assert "\n" not in str(exc.value)
+
+
+@pytest.mark.parametrize(
+    ("extra", "rules", "message"),
+    [
+        # NEC 2023 110.14(C): terminations are rated 60, 75 or 90 °C
+        ("\nterminal_temp_c = 80.0", "nec", "terminal_temp_c must be 60, 75 or 90"),
+        ("\nterminal_temp_c = 90.0", "iec", "terminal_temp_c applies to rules 'nec' only"),
+        ('\nburied_rating = "engineered"', "nec", "buried_rating = 'engineered'"),
+    ],
+)
+def test_a_refused_nec_setting_is_named_by_its_key(tmp_path, extra, rules, message):
+    site = _nec_site(tmp_path, extra)
+    if rules != "nec":
+        toml = site / "site.toml"
+        toml.write_text(toml.read_text().replace('rules = "nec"', f'rules = "{rules}"'))
+    with pytest.raises(DesignError) as exc:
+        plan(site)
+    [problem] = exc.value.problems
+    assert problem.feature_id == "design." + extra.split("=")[0].strip()
+    assert problem.message.startswith(message)
