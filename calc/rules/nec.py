@@ -97,8 +97,8 @@ class NecRules(RuleSet):
     def breaker_text(self, in_a, ib_a, iz_a, device):
         """Breaker ≥ 1.25 × the continuous current; 240.4 against the ampacity."""
         return (
-            f"breaker {in_a:g} A (240.6(A)): ≥ 1.25 × {ib_a:.0f} A continuous; conductor "
-            f"ampacity {iz_a:.0f} A (240.4)"
+            f"breaker {in_a:g} A (240.6(A)): ≥ {ampacity.nec_rule('ocpd_factor'):g} × {ib_a:.0f} A "
+            f"continuous; conductor ampacity {iz_a:.0f} A (240.4)"
         )
 
     def _rating(self, insulation: str) -> int:
@@ -380,7 +380,8 @@ class NecRules(RuleSet):
         idx = np.searchsorted(r, lower * (1.0 - _REL), side="left")
         pick = np.where(idx < len(r), r[np.minimum(idx, len(r) - 1)], np.nan)
         ok = np.isfinite(pick)
-        note = np.where(ok, "", "no 240.6(A) rating ≥ 1.25 × I_max").astype(str)
+        factor = ampacity.nec_rule("ocpd_factor")
+        note = np.where(ok, "", f"no 240.6(A) rating ≥ {factor:g} × I_max").astype(str)
         return ArrayFuse(pick, lower, np.full(isc.shape, np.inf), ok, note)
 
     def array_min_capacity_a(self, isc_array_a, backfeed_current_a, fuse_a):
@@ -412,13 +413,14 @@ class NecRules(RuleSet):
         check_option("breaker device", device, self.breaker_devices)
         ratings = _restricted(protection.standard_ratings_a(), allowed_a, setting)
         ib = np.atleast_1d(np.asarray(ib_a, dtype=float))
-        lower = ampacity.nec_rule("ocpd_factor") * ib
+        factor = ampacity.nec_rule("ocpd_factor")
+        lower = factor * ib
         idx = np.searchsorted(ratings, lower * (1.0 - _REL), side="left")
         pick = np.where(idx < len(ratings), ratings[np.minimum(idx, len(ratings) - 1)], np.nan)
         ok = np.isfinite(pick)
         note = np.full(ib.shape, "", dtype=object)
         for i in np.flatnonzero(~ok):
-            note[i] = f"1.25 × I {lower[i]:.1f} A above the largest rating {ratings[-1]:g} A"
+            note[i] = f"{factor:g} × I {lower[i]:.1f} A above the largest rating {ratings[-1]:g} A"
         return Breaker(pick, np.full(ib.shape, np.nan), ib.copy(), ok, note.astype(str))
 
     def overload_check(self, ib_a, in_a, iz_a, i2_a):
@@ -428,7 +430,8 @@ class NecRules(RuleSet):
         ib = np.asarray(ib_a, dtype=float)
         inn = np.asarray(in_a, dtype=float)
         iz = np.asarray(iz_a, dtype=float)
-        ib_ok = inn >= ampacity.nec_rule("ocpd_factor") * ib * (1.0 - _REL)
+        factor = ampacity.nec_rule("ocpd_factor")
+        ib_ok = inn >= factor * ib * (1.0 - _REL)
         next_up = (inn <= ampacity.nec_rule("next_size_up_max_a")) & (
             inn == protection.next_standard_rating_a(iz)
         )
@@ -438,7 +441,7 @@ class NecRules(RuleSet):
         for i in np.flatnonzero(~ok):
             parts = []
             if not ib_ok[i]:
-                parts.append(f"In {inn[i]:g} A < 1.25 × I {1.25 * ib[i]:.1f} A")
+                parts.append(f"In {inn[i]:g} A < {factor:g} × I {factor * ib[i]:.1f} A")
             if not iz_ok[i]:
                 parts.append(f"In {inn[i]:g} A does not protect ampacity {iz[i]:.1f} A (240.4)")
             note[i] = "; ".join(parts)
