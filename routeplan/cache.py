@@ -565,14 +565,19 @@ class PlanCache:
         self.reused[stage] = value is not None
         return value
 
+    def last_key(self, stage: str) -> str | None:
+        """The key the last run stored ``stage`` under (None if it stored none)."""
+        e = self._manifest.get("entries", {}).get(stage)
+        key = e.get("key") if isinstance(e, dict) else None
+        return key if isinstance(key, str) else None
+
     def latest(self, stage: str) -> Any | None:
         """The value the last run stored for ``stage``, whatever its key (None if there is
         none, or it is damaged): for a *memo* (``noding``), a value that says itself which of
         its parts are still valid. Records nothing: :meth:`put` a new value, or
         :meth:`carry` this one, to keep one for the next run."""
-        e = self._manifest.get("entries", {}).get(stage)
-        key = e.get("key") if isinstance(e, dict) else None
-        path = self._entry(stage, key) if isinstance(key, str) else None
+        key = self.last_key(stage)
+        path = self._entry(stage, key) if key is not None else None
         try:
             return loads(path) if path is not None else None
         except Exception:  # a damaged entry is a miss, never an error

@@ -418,7 +418,10 @@ def place(
 
 
 #: how the cache line names a stage, where its name alone says too little
-_STAGE_WORDS = {"noding": "trench noding"}
+_STAGE_WORDS = {
+    "noding": "trench noding",
+    "local": "the last plan (re-planned locally: only the moved equipment's blocks)",
+}
 
 
 def _cache_line(cache) -> str:

@@ -58,6 +58,7 @@ from __future__ import annotations
 import dataclasses
 import re
 import time
+from collections.abc import Callable
 from dataclasses import dataclass
 from types import SimpleNamespace
 
@@ -70,12 +71,13 @@ import calc
 from calc.losses import energy_loss_kwh
 from layers import Site
 
+from .cache import PlanCache, digest
 from .circuits import KINDS
 from .config import DesignConfig
 from .errors import DesignError
 from .inputs import assign_inputs, input_table, landing_input
 from .network import TRENCH_ATTRIBUTES, TrenchNetwork, build_network, retap, site_equipment
-from .order import inverter_of
+from .order import inverter_of, schedule_order
 from .pipeline import (
     Plan,
     assigned_destinations,
@@ -84,6 +86,7 @@ from .pipeline import (
     design_params,
     governing_ids,
     input_groups,
+    plan_remedies,
     plan_site,
     quantity_table,
     route_params,
@@ -99,7 +102,16 @@ from .routing import (
     shortest_paths,
 )
 
-__all__ = ["Baseline", "Figures", "MoveSearch", "baseline", "figures", "moved_features", "replan"]
+__all__ = [
+    "Baseline",
+    "Figures",
+    "MoveSearch",
+    "baseline",
+    "figures",
+    "from_cache",
+    "moved_features",
+    "replan",
+]
 
 #: equipment layers whose features a local re-plan may move
 MOVABLE = ("combiners", "inverters")
@@ -117,7 +129,7 @@ class Baseline:
     from_index: np.ndarray
     block: np.ndarray  # each circuit's block (its inverter), as an integer code
     rank: np.ndarray  # each circuit's position in circuit-id order (segments' circuit lists)
-    order: np.ndarray  # routes order → schedule order of plan.circuits
+    order: np.ndarray | None  # routes order → schedule order of plan.circuits (None: no table)
     load_a: np.ndarray  # each circuit's Σ Imp [A] (inverter input balancing)
     kind_code: np.ndarray  # each circuit's kind as its position in KINDS
     free_input: np.ndarray  # circuits landing on an inverter input chosen by route length
@@ -125,7 +137,9 @@ class Baseline:
     to_inverter: np.ndarray  # the inverter (row) each circuit lands on; -1: none
     inputs_given: bool  # an ``input`` given on some row or combiner
     input_frame: pd.DataFrame  # the columns assign_inputs and input_table read
-    figure_static: pd.DataFrame  # the schedule's columns a move does not change (Figures)
+    #: the schedule's columns a move does not change (:class:`Figures`; None: a baseline
+    #: rebuilt from a cache, without the last plan's tables, :func:`from_cache`)
+    figure_static: pd.DataFrame | None
 
 
 def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=None) -> Baseline:
@@ -155,7 +169,12 @@ def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=No
     cid = c["circuit_id"].to_numpy(dtype=object)
     rank = np.empty(len(c), dtype=np.int64)
     rank[np.argsort(cid, kind="stable")] = np.arange(len(c))
-    order = pd.Index(cid).get_indexer(plan.circuits["circuit_id"].to_numpy(dtype=object))
+    tables = plan.circuits is not None
+    order = (
+        pd.Index(cid).get_indexer(plan.circuits["circuit_id"].to_numpy(dtype=object))
+        if tables
+        else None
+    )
     return Baseline(
         plan,
         inp,
@@ -180,7 +199,11 @@ def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=No
             for name in ("rows", "combiners")
         ),
         c[["circuit_id", "kind", "from_id", "to_layer", "to_id", "strings"]],
-        plan.circuits[["circuit_id", "kind", "from_id", "inverter_id"]].reset_index(drop=True),
+        (
+            plan.circuits[["circuit_id", "kind", "from_id", "inverter_id"]].reset_index(drop=True)
+            if tables
+            else None
+        ),
     )
 
 
@@ -220,10 +243,16 @@ def _same_frame(a: pd.DataFrame, b: pd.DataFrame, geometry: bool = True) -> bool
     return True
 
 
+def _same_modules(a: dict, b: dict) -> bool:
+    """The same module table: compared by each module's ``repr`` (exact for floats, and a
+    ``nan`` field — no bifacial data — equals a ``nan`` read again, which ``==`` denies)."""
+    return a.keys() == b.keys() and all(repr(a[k]) == repr(b[k]) for k in a)
+
+
 def moved_features(old: Site, new: Site) -> dict[str, np.ndarray] | None:
     """Rows of the combiner and inverter layers whose geometry differs between the sites, or
     None when anything else differs (a local re-plan does not apply)."""
-    if old.crs != new.crs or old.modules != new.modules:
+    if old.crs != new.crs or not _same_modules(old.modules, new.modules):
         return None
     for name in ("trenches", "rows", "grid"):
         if not _same_frame(old.layer(name), new.layer(name)):
@@ -266,6 +295,91 @@ def replan(
     plan = plan_site(site, design, noding_memo=old.routes.network.memo, with_remedies=False)
     plan.timings_s["local"] = 0.0
     return plan
+
+
+def from_cache(
+    site: Site,
+    design: DesignConfig,
+    cache: PlanCache,
+    progress: Callable[[str], None] | None = None,
+    timings: dict[str, float] | None = None,
+) -> Plan | None:
+    """The plan of ``site`` as a local re-plan of the last run's plan kept in ``cache`` (the
+    output folder's :class:`~routeplan.cache.PlanCache`, after :func:`routeplan.pipeline.plan`
+    read the site through it), with remedies, as :func:`routeplan.pipeline.plan_site` would
+    give it with the same cache; None where a local re-plan does not apply — the last run kept
+    no site, routes or sizing, the site differs by more than moved combiners or inverters
+    (:func:`moved_features`), nothing moved (the cached routes hold), or a design setting that
+    routes or sizes changed — and the caller plans as usual.
+
+    The new routes, sizing and remedies are kept in the cache for the next run, under the keys
+    a full plan would use; ``cache.reused["local"]`` says the last plan was re-planned."""
+    say = progress or (lambda stage: None)
+    t = timings if timings is not None else {}
+    site_key = cache.keys.get("site")
+    old_route_key, old_size_key = cache.last_key("route"), cache.last_key("size")
+    if site_key is None or old_route_key is None or old_size_key is None:
+        return None
+    params, dp, rules = route_params(design), design_params(design), design.values["rules"]
+    route_key = digest("route", site_key, repr(params))
+    # the same routing settings give the same key for the same site: a moved feature is seen
+    # by the site's key; the sizing settings must be the last run's
+    if route_key == old_route_key or digest("size", old_route_key, repr(dp), rules) != old_size_key:
+        return None
+    say("route")
+    t0 = time.perf_counter()
+    old_site = cache.latest("site")
+    moved = moved_features(old_site, site) if old_site is not None else None
+    if moved is None or not any(len(v) for v in moved.values()):
+        return None
+    routes0, result0 = cache.latest("route"), cache.latest("size")
+    if routes0 is None or result0 is None or repr(routes0.params) != repr(params):
+        return None
+    if assigned_destinations(routes0):
+        return None
+    inp0, own0 = sizing_input(old_site, routes0)
+    inputs0 = input_table(
+        old_site,
+        routes0.circuits,
+        own0,
+        inp0.imp_a * inp0.n_strings,
+        np.asarray(result0.isc_design_a),
+        inp0.n_strings,
+    )
+    # the last plan without its tables (none is read back: the local re-plan builds them)
+    old = Plan(old_site, design, routes0, result0, None, None, None, {}, {}, None, inputs0)
+    base = baseline(old_site, design, plan=old)
+    t["local.baseline"] = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    memo0 = cache.latest("noding")  # the route entry keeps no memo
+    net = build_network(
+        site.trenches,
+        site_equipment(site),
+        node_tol_m=params.node_tol_m,
+        snap_m=params.snap_m,
+        defaults=params.trench,
+        memo=memo0,
+    )
+    plan = _local(base, site, design, t0, network=net, light=False, with_remedies=True)
+    if plan is None:
+        return None
+    t.update(plan.timings_s)
+    size_key = digest("size", route_key, repr(dp), rules)
+    memo = net.memo
+    cache.reused.update(
+        route=False,
+        size=False,
+        noding=memo0 is not None and memo is not None and memo.noded is memo0.noded,
+        local=True,
+    )
+    cache.put("route", route_key, plan.routes)
+    cache.put("noding", digest("noding", route_key), memo)
+    cache.put("size", size_key, plan.sizing)
+    if not np.all(plan.sizing.ok):  # each circuit's remedy in routes order, as plan_site keeps it
+        ids = plan.routes.circuits["circuit_id"].to_numpy(dtype=object)
+        at = pd.Index(plan.circuits["circuit_id"].to_numpy(dtype=object)).get_indexer(ids)
+        cache.put("remedy", digest("remedy", size_key), plan.circuits["remedy"].to_numpy()[at])
+    return dataclasses.replace(plan, timings_s=t, cache=cache)
 
 
 def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:
@@ -321,7 +435,7 @@ def figures(base: Baseline, site: Site, network: TrenchNetwork | None = None) ->
     re-plan; where one does not apply, the full plan (which has the same columns)."""
     t0 = time.perf_counter()
     old = base.plan
-    if _applies(base, site, old.design):
+    if base.figure_static is not None and _applies(base, site, old.design):
         out = _local(base, site, old.design, t0, network=network, light=True)
         if out is not None:
             return out
@@ -338,6 +452,7 @@ def _local(
     *,
     network: TrenchNetwork | None,
     light: bool,
+    with_remedies: bool = False,
 ) -> Plan | Figures | None:
     t: dict[str, float] = {}
     old = base.plan
@@ -637,12 +752,18 @@ def _local(
         inputs = input_table(
             site, c, own_input, base.load_a, np.asarray(result.isc_design_a), inp.n_strings
         )
-    circuits = circuit_table(routes, result, inp, design, landing, governing, None)
+    remedy = None
+    if with_remedies:
+        t2 = time.perf_counter()
+        remedy = plan_remedies(routes, inp, dp, rules, result, governing)
+        t["remedy"] = time.perf_counter() - t2
+        t1 += t["remedy"]  # the tables' time leaves the remedies out
+    circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
     seg_table = segment_table(routes, result)
     quantities = quantity_table(circuits, seg_table, design)
     summary = summarise(site, design, circuits, seg_table, result, inputs)
     summary["assigned"] = assigned_destinations(routes)
-    circuits = circuits.iloc[base.order].reset_index(drop=True)
+    circuits = circuits.iloc[schedule_order(circuits)].reset_index(drop=True)  # as plan_site
     t["tables"] = time.perf_counter() - t1
     t["local"] = 1.0
     return Plan(

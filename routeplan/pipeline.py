@@ -352,7 +352,9 @@ def plan(
     ``progress(stage)`` is called as each stage starts (for the CLI's display). With
     ``cache`` (the output folder's :class:`routeplan.cache.PlanCache`), stages whose inputs
     did not change since the run that wrote it are reused, and the new results are kept for
-    the next run; the results are the same as without it. Raises :class:`layers.SiteError` /
+    the next run; after a move of combiners or inverters alone, the last run's plan is
+    re-planned locally (:func:`routeplan.localplan.from_cache`). The results are the same as
+    without it. Raises :class:`layers.SiteError` /
     :class:`routeplan.errors.RoutingError` on bad input.
     """
     say = progress or (lambda stage: None)
@@ -361,6 +363,12 @@ def plan(
     say("read and validate")
     site, design = _load(Path(path), cache)
     t["read_validate"] = time.perf_counter() - t0
+    if cache is not None:
+        from .localplan import from_cache  # it builds on this module
+
+        local = from_cache(site, design, cache, progress=say, timings=t)
+        if local is not None:
+            return local
     return plan_site(site, design, progress=say, timings=t, cache=cache)
 
 
@@ -461,9 +469,7 @@ def plan_site(
     if cache is not None and not np.all(result.ok):  # a plan that passes needs no remedy
         remedy = cache.get("remedy", digest("remedy", size_key))
     if remedy is None and with_remedies:
-        ids = routes.circuits["circuit_id"].to_numpy(dtype=object)
-        trench = routes.segments["trench_id"].to_numpy(dtype=object)
-        remedy = remedies(inp, dp, rules, result, ids, governing, trench, MAX_PARALLEL)
+        remedy = plan_remedies(routes, inp, dp, rules, result, governing)
         if cache is not None and not np.all(result.ok):
             cache.put("remedy", digest("remedy", size_key), remedy)
     t["remedy"] = time.perf_counter() - t0
@@ -488,6 +494,21 @@ def plan_site(
     return Plan(
         site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
     )
+
+
+def plan_remedies(
+    routes: RoutePlan,
+    inp: calc.SizingInput,
+    dp: calc.DesignParams,
+    rules: str,
+    result: calc.SizingResult,
+    governing: np.ndarray,
+) -> np.ndarray:
+    """Each circuit's remedy text in routes order (:func:`routeplan.remedy.remedies`; ""
+    for a circuit that passes)."""
+    ids = routes.circuits["circuit_id"].to_numpy(dtype=object)
+    trench = routes.segments["trench_id"].to_numpy(dtype=object)
+    return remedies(inp, dp, rules, result, ids, governing, trench, MAX_PARALLEL)
 
 
 def _design_key_of(message: str) -> str:

@@ -1,0 +1,171 @@
+"""``routeplan plan`` into the same output folder after a pad or combiner move: the last run's
+plan, kept in the folder's cache, is re-planned locally (:func:`routeplan.localplan.from_cache`)
+and every output equals a cold plan of the edited site.
+
+The sites are invented scenarios (:func:`routeplan.synth.generate_site`). The reference is a
+cold plan of the same edited files, without a cache: the output CSV files and summary.json are
+compared byte for byte, the plan's tables, routes and sizing value for value (remedies
+included: one plant restricts its size lists and parallel sets so that circuits fail and carry
+a remedy). Edits a local re-plan does not cover, and a cache it cannot trust, plan as before.
+"""
+
+from __future__ import annotations
+
+import re
+import shutil
+from pathlib import Path
+
+import pyogrio
+import pytest
+import shapely
+
+from routeplan.cache import CACHE_DIR, PlanCache
+from routeplan.outputs.write import CSV_FILES, write_plan
+from routeplan.pipeline import plan
+from routeplan.synth import generate_site
+from tests.routeplan.test_localplan import assert_same_plan
+
+#: invented design settings that make array and a.c. cables fail (two sizes, one set each):
+#: failing circuits get a remedy, which the local re-plan must give as a cold plan does
+FAILING = """
+[design.sizes_mm2]
+array = [16, 25]
+ac = [95, 120]
+"""
+
+COMPARED = (*CSV_FILES, "summary.json")
+
+
+def _make(root: Path, mw: float, seed: int, failing: bool = False, nec: bool = False) -> Path:
+    generate_site(mw, seed, root)
+    toml = root / "site.toml"
+    text = toml.read_text()
+    if failing:
+        text = text.replace("max_parallel = 12", "max_parallel = 1", 1) + FAILING
+    if nec:  # the NEC rule set's own size lists, insulations and air arrangements
+        text = text.replace('rules = "iec"', 'rules = "nec"')
+        text = re.sub(r"\n\[design\.air_arrangement\].*?\n\n", "\n\n", text, flags=re.S)
+    toml.write_text(text)
+    return root
+
+
+def _move(site: Path, layer: str, row: int, dx: float, dy: float) -> None:
+    frame = pyogrio.read_dataframe(site / "site.gpkg", layer=layer)
+    geoms = frame.geometry.to_numpy().copy()
+    geoms[row] = shapely.affinity.translate(geoms[row], xoff=dx, yoff=dy)
+    frame = frame.set_geometry(geoms, crs=frame.crs)
+    pyogrio.write_dataframe(frame, site / "site.gpkg", layer=layer, driver="GPKG")
+
+
+def _replan(site: Path, out: Path):
+    p = plan(site, cache=PlanCache(out))
+    write_plan(p, out)
+    return p
+
+
+def _same_as_cold(p, site: Path, out: Path, tmp: Path) -> None:
+    cold_dir = tmp / "cold"
+    shutil.rmtree(cold_dir, ignore_errors=True)
+    cold = plan(site)
+    write_plan(cold, cold_dir)
+    for name in COMPARED:
+        assert (out / name).read_bytes() == (cold_dir / name).read_bytes(), name
+    assert_same_plan(p, cold)
+    assert list(p.circuits["remedy"]) == list(cold.circuits["remedy"])
+
+
+@pytest.fixture(scope="module")
+def failing_site(tmp_path_factory):
+    src = _make(tmp_path_factory.mktemp("failing") / "site", 8, 5, failing=True)
+    return src
+
+
+def test_failing_site_has_remedies(failing_site, tmp_path):
+    p = plan(failing_site)
+    assert (p.circuits["status"] != "ok").sum() > 0
+    assert (p.circuits["remedy"] != "").sum() > 0
+
+
+@pytest.mark.parametrize(
+    ("case", "moves"),
+    [
+        ("pad", [("inverters", 0, 0.0, 6.0)]),
+        ("combiner", [("combiners", 1, -4.0, 3.0)]),
+        ("both", [("inverters", 1, 5.0, 0.0), ("combiners", 0, 0.0, -5.0)]),
+    ],
+)
+def test_a_move_replans_locally_and_equals_a_cold_plan(failing_site, tmp_path, case, moves):
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    for layer, row, dx, dy in moves:
+        _move(site, layer, row, dx, dy)
+    p = _replan(site, out)
+    assert p.cache.reused.get("local") is True
+    assert p.timings_s["local"] == 1.0
+    _same_as_cold(p, site, out, tmp_path)
+
+
+def test_chained_moves_and_an_unchanged_run_reuse_what_the_local_replan_kept(
+    failing_site, tmp_path
+):
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    _move(site, "inverters", 0, 0.0, 5.0)
+    assert _replan(site, out).cache.reused.get("local") is True
+    _move(site, "inverters", 0, 3.0, 0.0)  # a second move: the baseline is the local re-plan
+    p = _replan(site, out)
+    assert p.cache.reused.get("local") is True
+    _same_as_cold(p, site, out, tmp_path)
+    again = _replan(site, out)  # nothing changed: the entries the local re-plan kept
+    assert again.cache.reused == {"site": True, "route": True, "size": True, "remedy": True,
+                                  "outputs": True}  # fmt: skip
+    _same_as_cold(again, site, out, tmp_path)
+
+
+def test_nec_plant_move(tmp_path):
+    site, out = _make(tmp_path / "site", 4, 3, nec=True), tmp_path / "out"
+    _replan(site, out)
+    _move(site, "inverters", 0, -4.0, 4.0)
+    p = _replan(site, out)
+    assert p.cache.reused.get("local") is True
+    _same_as_cold(p, site, out, tmp_path)
+
+
+def _with_setting(site: Path, old: str, new: str) -> None:
+    toml = site / "site.toml"
+    text = toml.read_text()
+    assert old in text
+    toml.write_text(text.replace(old, new, 1))
+
+
+@pytest.mark.parametrize("edit", ["drop limit", "routing allowance", "trench", "nothing"])
+def test_other_edits_with_a_move_plan_in_full(failing_site, tmp_path, edit):
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    if edit != "nothing":
+        _move(site, "inverters", 0, 0.0, 6.0)
+    if edit == "drop limit":  # a sizing setting: every circuit sized again
+        _with_setting(site, "dc_total = 2.0\nac = 1.0", "dc_total = 2.0\nac = 0.9")
+    elif edit == "routing allowance":  # a setting that routes
+        _with_setting(site, "termination_m = 1.5", "termination_m = 2.25")
+    elif edit == "trench":
+        _move(site, "trenches", 0, 0.5, 0.0)
+    p = _replan(site, out)
+    assert not p.cache.reused.get("local")
+    _same_as_cold(p, site, out, tmp_path)
+
+
+@pytest.mark.parametrize("entry", ["route", "size", "site", "noding"])
+def test_a_damaged_or_missing_entry_plans_without_it(failing_site, tmp_path, entry):
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    _move(site, "combiners", 0, 2.0, 2.0)
+    (found,) = (out / CACHE_DIR).glob(f"{entry}-*.npz")
+    found.write_bytes(found.read_bytes()[:-40] + b"\0" * 40)  # damaged: its SHA-256 differs
+    p = _replan(site, out)
+    assert bool(p.cache.reused.get("local")) is (entry == "noding")  # the memo only saves time
+    _same_as_cold(p, site, out, tmp_path)
