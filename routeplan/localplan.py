@@ -36,8 +36,13 @@ site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the e
    :func:`figures` skips the tables: the columns ``routeplan place`` ranks by, from the spliced
    arrays (:class:`Figures`).
 
-Remedies (:mod:`routeplan.remedy`) are not computed: a local re-plan is the plan
-``plan_site(..., with_remedies=False)`` gives.
+Remedies (:mod:`routeplan.remedy`) are not computed by :func:`replan` and :func:`figures`:
+they give the plan ``plan_site(..., with_remedies=False)`` gives. :func:`from_cache` — what
+``routeplan plan`` does when the output folder's cache holds the last run's plan — computes
+them too, as a full plan does, with each of the remedies' what-if sizings (the plan sized
+again with longer size lists, more parallel sets or wider spacing) re-sized from the last
+run's by the same fixed point as the plan itself (:class:`routeplan.remedy.WhatIfs`); a
+what-if the last run did not make is sized whole.
 
 A change of design settings alone (the site the baseline's, nothing moved) that leaves the
 routing parameters as they were (:func:`routeplan.pipeline.route_params`: snap and noding
@@ -95,6 +100,7 @@ from .pipeline import (
     sizing_input,
     summarise,
 )
+from .remedy import WHATIF_FIELDS, WhatIfs
 from .routing import (
     RoutePlan,
     _route_geometry,
@@ -360,10 +366,18 @@ def from_cache(
         defaults=params.trench,
         memo=memo0,
     )
-    plan = _local(base, site, design, t0, network=net, light=False, with_remedies=True)
+    whatifs = WhatIfs(rules)
+    before = None
+    if cache.last_key("whatif") == digest("whatif", old_size_key):
+        before = cache.latest("whatif")
+    plan = _local(
+        base, site, design, t0, network=net, light=False, whatifs=whatifs, whatifs_before=before
+    )
     if plan is None:
         return None
     t.update(plan.timings_s)
+    t["local.whatifs"] = float(whatifs.resized)  # what-ifs re-sized locally
+    t["local.whatifs_whole"] = float(len(whatifs.kept) - whatifs.resized)
     size_key = digest("size", route_key, repr(dp), rules)
     memo = net.memo
     cache.reused.update(
@@ -379,6 +393,7 @@ def from_cache(
         ids = plan.routes.circuits["circuit_id"].to_numpy(dtype=object)
         at = pd.Index(plan.circuits["circuit_id"].to_numpy(dtype=object)).get_indexer(ids)
         cache.put("remedy", digest("remedy", size_key), plan.circuits["remedy"].to_numpy()[at])
+        cache.put("whatif", digest("whatif", size_key), whatifs.kept)
     return dataclasses.replace(plan, timings_s=t, cache=cache)
 
 
@@ -452,8 +467,14 @@ def _local(
     *,
     network: TrenchNetwork | None,
     light: bool,
-    with_remedies: bool = False,
+    whatifs: WhatIfs | None = None,
+    whatifs_before: dict | None = None,
 ) -> Plan | Figures | None:
+    """The local re-plan (see the module docstring); None where it cannot be made (a feature
+    left unconnected, inputs that cannot be assigned: the full plan reports why). ``light``:
+    :class:`Figures` only. ``whatifs``: remedies are computed, their what-ifs re-sized from
+    ``whatifs_before`` (the last run's, :class:`routeplan.remedy.WhatIfs`'s ``kept``) and
+    kept in ``whatifs``."""
     t: dict[str, float] = {}
     old = base.plan
     r0 = old.routes
@@ -622,49 +643,16 @@ def _local(
 
     dp = base.dp
     rules = design.values["rules"]
-    r_old = old.sizing
-    p_old = np.asarray(r_old.parallel, dtype=np.int64)
-    final0 = np.asarray(r_old.seg_count_final, dtype=float)
-    final0_new = np.where(born, np.nan, final0[np.maximum(old_of_new, 0)])
-    air_final0 = np.asarray(r_old.air_count_final, dtype=float)
-    air_final0_new = np.where(air_old_of_new < 0, np.nan, air_final0[np.maximum(air_old_of_new, 0)])
-    in_block = np.zeros(int(base.block.max(initial=-1)) + 1, dtype=bool)
-    passes = 0
-    while True:
-        passes += 1
-        in_block[:] = False
-        in_block[base.block[affected]] = True
-        affected = in_block[base.block]
-        sub = np.flatnonzero(affected)
-        res, seg_sub, air_sub = _size_subset(
-            inp, dp, rules, affected, sub, p_old, born | count_changed, air_changed
-        )
-        # outside circuits on a segment or stretch whose final cable sets differ: join them
-        # (a segment without a circuit of the subset keeps its count and final sets)
-        seg_diff = np.zeros(n_seg, dtype=bool)
-        final_sub = np.asarray(res.seg_count_final, dtype=float)
-        seg_diff[seg_sub] = final_sub != final0_new[seg_sub]
-        air_diff = np.zeros(len(air), dtype=bool)
-        air_diff[air_sub] = np.asarray(res.air_count_final, dtype=float) != air_final0_new[air_sub]
-        more = np.zeros(n_c, dtype=bool)
-        if seg_diff.any():
-            more[inc_c[seg_diff[inc_s]]] = True
-        if air_diff.any():
-            more[air_c[air_diff[air_s]]] = True
-        more &= ~affected
-        if not more.any():
-            break
-        affected = affected | more
+    edit = _Edit(
+        base.block, inc_c, inc_s, air_c, air_s, born | count_changed, air_changed, new_of_old,
+        old_of_new, air_old_of_new, affected,
+    )  # fmt: skip
+    names = _FIGURE_FIELDS if light else None
+    result, sub, passes = edit.resize(inp, dp, rules, old.sizing, names=names)
     t["size"] = time.perf_counter() - t1
     t["local.passes"] = float(passes)
     t["local.circuits"] = float(len(sub))
     t1 = time.perf_counter()
-
-    names = _FIGURE_FIELDS if light else None
-    result = _splice(
-        r_old, res, sub, seg_sub, air_sub, new_of_old, air_old_of_new, n_seg, len(air), inp, dp,
-        names,
-    )  # fmt: skip
     if light:
         out = _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site)
         t["tables"] = time.perf_counter() - t1
@@ -753,9 +741,10 @@ def _local(
             site, c, own_input, base.load_a, np.asarray(result.isc_design_a), inp.n_strings
         )
     remedy = None
-    if with_remedies:
+    if whatifs is not None:  # each what-if re-sized from the last run's, where it has one
         t2 = time.perf_counter()
-        remedy = plan_remedies(routes, inp, dp, rules, result, governing)
+        whatifs.resize = lambda key, i, d: edit.whatif(whatifs_before, key, i, d, rules)
+        remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]  # the tables' time leaves the remedies out
     circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
@@ -944,6 +933,118 @@ def _same_nan(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return (a == b) | (np.isnan(a) & np.isnan(b))
 
 
+@dataclass(frozen=True, eq=False)
+class _Edit:
+    """What an edit changed, as the sizing sees it: each circuit's block, the new plan's
+    incidences, the segments and air stretches whose figures are recomputed whoever uses them
+    (new ones and those whose circuits changed), the segment and stretch numbering (new ↔ old)
+    and the circuits whose own input changed."""
+
+    block: np.ndarray
+    inc_c: np.ndarray
+    inc_s: np.ndarray
+    air_c: np.ndarray
+    air_s: np.ndarray
+    born_seg: np.ndarray
+    born_air: np.ndarray
+    new_of_old: np.ndarray
+    old_of_new: np.ndarray
+    air_old_of_new: np.ndarray
+    affected: np.ndarray
+
+    def resize(
+        self,
+        inp: calc.SizingInput,
+        dp: calc.DesignParams,
+        rules: str,
+        prev,
+        names: tuple[str, ...] | None = None,
+        affected: np.ndarray | None = None,
+        born_seg: np.ndarray | None = None,
+    ) -> tuple:
+        """The whole plan's sizing of ``inp`` from ``prev`` (the same sizing of the plan before
+        the edit: a :class:`calc.SizingResult`, or a namespace of ``names`` and the fields the
+        fixed point reads), re-sizing only the affected circuits closed over their blocks,
+        grown until no outside circuit shares a segment or stretch whose final cable sets
+        changed (the grouping's fixed point over the affected segments). Returns the spliced
+        result (of ``names`` only, when given), the circuits sized and the passes taken."""
+        affected = self.affected if affected is None else affected
+        born_seg = self.born_seg if born_seg is None else born_seg
+        n_c, n_seg, n_air = len(affected), len(self.old_of_new), len(self.air_old_of_new)
+        inc_c, inc_s, air_c, air_s = self.inc_c, self.inc_s, self.air_c, self.air_s
+        p_old = np.asarray(prev.parallel, dtype=np.int64)
+        final0 = np.asarray(prev.seg_count_final, dtype=float)
+        final0_new = np.where(self.old_of_new < 0, np.nan, final0[np.maximum(self.old_of_new, 0)])
+        aon = self.air_old_of_new
+        air_final0 = np.asarray(prev.air_count_final, dtype=float)
+        air_final0_new = np.where(aon < 0, np.nan, air_final0[np.maximum(aon, 0)])
+        in_block = np.zeros(int(self.block.max(initial=-1)) + 1, dtype=bool)
+        passes = 0
+        while True:
+            passes += 1
+            in_block[:] = False
+            in_block[self.block[affected]] = True
+            affected = in_block[self.block]
+            sub = np.flatnonzero(affected)
+            res, seg_sub, air_sub = _size_subset(
+                inp, dp, rules, affected, sub, p_old, born_seg, self.born_air
+            )
+            # outside circuits on a segment or stretch whose final cable sets differ: join them
+            # (a segment without a circuit of the subset keeps its count and final sets)
+            seg_diff = np.zeros(n_seg, dtype=bool)
+            final_sub = np.asarray(res.seg_count_final, dtype=float)
+            seg_diff[seg_sub] = final_sub != final0_new[seg_sub]
+            air_diff = np.zeros(n_air, dtype=bool)
+            air_diff[air_sub] = (
+                np.asarray(res.air_count_final, dtype=float) != air_final0_new[air_sub]
+            )
+            more = np.zeros(n_c, dtype=bool)
+            if seg_diff.any():
+                more[inc_c[seg_diff[inc_s]]] = True
+            if air_diff.any():
+                more[air_c[air_diff[air_s]]] = True
+            more &= ~affected
+            if not more.any():
+                break
+            affected = affected | more
+        result = _splice(
+            prev, res, sub, seg_sub, air_sub, self.new_of_old, aon, n_seg, n_air, inp, dp, names
+        )
+        return result, sub, passes
+
+    def whatif(
+        self,
+        kept: dict | None,
+        key: str,
+        inp: calc.SizingInput,
+        dp: calc.DesignParams,
+        rules: str,
+    ):
+        """A remedy's what-if sizing ``key`` (:class:`routeplan.remedy.WhatIfs`) of the edited
+        plan, re-sized from the last run's (``kept[key]``) as the plan itself is; None where
+        the last run has none under that key (its settings differ). Segments whose trench
+        spacing differs from the last run's what-if (a spacing what-if of other trenches) are
+        recomputed, and their circuits re-sized."""
+        prev = (kept or {}).get(key)
+        if prev is None:
+            return None
+        sp_prev, sp = prev.get("seg_spacing_m"), inp.seg_spacing_m
+        if (sp_prev is None) != (sp is None):
+            return None
+        affected, born_seg = self.affected, self.born_seg
+        if sp is not None:
+            o = self.old_of_new
+            before = np.where(o < 0, np.nan, np.asarray(sp_prev, float)[np.maximum(o, 0)])
+            differ = before != np.asarray(sp, float)
+            if differ.any():
+                born_seg = born_seg | differ
+                affected = affected.copy()
+                affected[self.inc_c[differ[self.inc_s]]] = True
+        prev_ns = SimpleNamespace(**{k: prev[k] for k in WHATIF_FIELDS})
+        result, _, _ = self.resize(inp, dp, rules, prev_ns, WHATIF_FIELDS, affected, born_seg)
+        return result
+
+
 def _size_subset(
     inp: calc.SizingInput,
     dp: calc.DesignParams,
@@ -1048,10 +1149,7 @@ def _splice(
     old_of_new = np.full(n_seg, -1, dtype=np.int64)
     ok = new_of_old >= 0
     old_of_new[new_of_old[ok]] = np.flatnonzero(ok)
-    for f in dataclasses.fields(r_old):
-        name = f.name
-        if names is not None and name not in names:
-            continue
+    for name in names if names is not None else [f.name for f in dataclasses.fields(r_old)]:
         v_old = getattr(r_old, name)
         if name in ("iterations", "rules"):
             fields[name] = getattr(res, name) if name == "rules" else v_old

@@ -33,7 +33,7 @@ from .inputs import INPUT_COLUMNS, assign_inputs, input_table, landing_input
 from .network import NetworkMemo
 from .order import inverter_of, schedule_order
 from .quantities import bill_of_quantities
-from .remedy import remedies
+from .remedy import WhatIfs, remedies
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
 from .units import feet, size_labels
 
@@ -468,10 +468,14 @@ def plan_site(
     remedy = None
     if cache is not None and not np.all(result.ok):  # a plan that passes needs no remedy
         remedy = cache.get("remedy", digest("remedy", size_key))
+        if remedy is not None:
+            cache.carry("whatif")  # the what-ifs of those remedies, for a local re-plan
     if remedy is None and with_remedies:
-        remedy = plan_remedies(routes, inp, dp, rules, result, governing)
+        whatifs = WhatIfs(rules)
+        remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
         if cache is not None and not np.all(result.ok):
             cache.put("remedy", digest("remedy", size_key), remedy)
+            cache.put("whatif", digest("whatif", size_key), whatifs.kept)
     t["remedy"] = time.perf_counter() - t0
     say("tables")
     t0 = time.perf_counter()
@@ -503,12 +507,13 @@ def plan_remedies(
     rules: str,
     result: calc.SizingResult,
     governing: np.ndarray,
+    whatifs: WhatIfs | None = None,
 ) -> np.ndarray:
     """Each circuit's remedy text in routes order (:func:`routeplan.remedy.remedies`; ""
-    for a circuit that passes)."""
+    for a circuit that passes); ``whatifs``: how its what-if sizings are made and kept."""
     ids = routes.circuits["circuit_id"].to_numpy(dtype=object)
     trench = routes.segments["trench_id"].to_numpy(dtype=object)
-    return remedies(inp, dp, rules, result, ids, governing, trench, MAX_PARALLEL)
+    return remedies(inp, dp, rules, result, ids, governing, trench, MAX_PARALLEL, whatifs)
 
 
 def _design_key_of(message: str) -> str:

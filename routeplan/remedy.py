@@ -33,6 +33,10 @@ Under nec a circuit whose overcurrent device does not protect the conductor (240
 ``other`` by :func:`calc.failure_causes`) is named so (:func:`protection_failures`) and given
 the larger size or the parallel sets that the re-sizing finds protected.
 
+Each what-if sizing goes through a :class:`WhatIfs` (by default: the whole plan sized again),
+which keeps what a remedy reads of it: a local re-plan (:mod:`routeplan.localplan`) re-sizes
+only the circuits an edit can change in each what-if, from the last run's.
+
 Before the change, a remedy names the stretch that governs the capacity (a trench segment id,
 a row run or stub) and the settings that stop the sizing (the size list, ``max_parallel``,
 the drop limit). A circuit that none of the changes makes pass keeps only these: a shorter
@@ -43,6 +47,8 @@ from __future__ import annotations
 
 import dataclasses
 import re
+from collections.abc import Callable
+from typing import Any
 
 import numpy as np
 
@@ -132,6 +138,41 @@ _SIZE_FIELD = {
 }
 
 
+#: what a remedy reads of a what-if sizing, and what a local re-plan needs to re-size one
+WHATIF_FIELDS = ("ok", "size_mm2", "parallel", "seg_count_final", "air_count_final")
+
+
+class WhatIfs:
+    """The what-if sizings of :func:`remedies`. Each is named by what it changes (``key``)
+    and kept (:data:`WHATIF_FIELDS` and the trench spacings it was sized with) in ``kept``,
+    for a local re-plan of a later edit. ``resize(key, inp, dp)``: a what-if from the last
+    run's (:func:`routeplan.localplan.from_cache`), or None where it has none — then, and
+    without ``resize``, the whole plan is sized (:func:`calc.size_circuits`)."""
+
+    def __init__(
+        self,
+        rules: str,
+        resize: Callable[[str, calc.SizingInput, calc.DesignParams], Any] | None = None,
+    ) -> None:
+        self.rules = rules
+        self.resize = resize
+        self.kept: dict[str, dict[str, Any]] = {}
+        #: how many what-ifs ``resize`` gave (the others were sized whole)
+        self.resized = 0
+
+    def __call__(self, key: str, inp: calc.SizingInput, dp: calc.DesignParams) -> Any:
+        r = self.resize(key, inp, dp) if self.resize is not None else None
+        self.resized += r is not None
+        if r is None:
+            r = calc.size_circuits(inp, dp, rules=self.rules)
+        spacing = None if inp.seg_spacing_m is None else np.asarray(inp.seg_spacing_m, float)
+        self.kept[key] = {
+            **{name: np.asarray(getattr(r, name)) for name in WHATIF_FIELDS},
+            "seg_spacing_m": spacing,
+        }
+        return r
+
+
 def remedies(
     inp: calc.SizingInput,
     dp: calc.DesignParams,
@@ -141,14 +182,16 @@ def remedies(
     governing: np.ndarray,
     segment_trench: np.ndarray,
     max_parallel: int,
+    whatifs: WhatIfs | None = None,
 ) -> np.ndarray:
     """One remedy text per circuit ("" for a circuit that passes), see the module docstring.
 
     ``circuit_ids``: the circuits' ids; ``governing``: per circuit, the id of the stretch that
     governs its capacity (the schedule's ``governing`` column); ``segment_trench``: per trench
     segment, its trench's id; ``max_parallel``: the highest ``design.max_parallel`` site.toml
-    accepts.
+    accepts; ``whatifs``: how the what-ifs are sized (and kept; default: the whole plan).
     """
+    size_whatif = WhatIfs(rules) if whatifs is None else whatifs
     n = len(result.ok)
     out = np.full(n, "", dtype=object)
     fail = ~np.asarray(result.ok, dtype=bool)
@@ -226,7 +269,8 @@ def remedies(
     fixed = np.zeros(n, dtype=bool)
     for change in (extended, wide, {**extended, **wide} if extended and wide else {}):
         if change and (fail & ~fixed).any():
-            r = calc.size_circuits(inp, dataclasses.replace(dp, **change), rules=rules)
+            key = repr(sorted((k, repr(v)) for k, v in change.items()))
+            r = size_whatif(key, inp, dataclasses.replace(dp, **change))
             fixed |= apply(r, fail & ~fixed)
 
     # 4. more space between the circuits in the trenches of the circuits failing on
@@ -251,7 +295,7 @@ def remedies(
         if not narrow.any():
             break
         wider = dataclasses.replace(inp, seg_spacing_m=np.where(narrow, gap, spacing))
-        r = calc.size_circuits(wider, dp, rules=rules)
+        r = size_whatif(f"spacing_m {gap!r}", wider, dp)
         hit = grouped & np.asarray(r.ok, dtype=bool)
 
         def trenches(i: int, gap: float = gap, narrow: np.ndarray = narrow) -> str:
