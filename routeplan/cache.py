@@ -599,6 +599,24 @@ class PlanCache:
         path = self._staging_dir() / _entry_name(stage, key)
         self._jobs[stage] = parallel.start(lambda: _dump_entry(value, path))
 
+    def put_all(self, entries: Iterable[tuple[str, str, Any]]) -> None:
+        """:meth:`put` each ``(stage, key, value)``, packed one after another in one child
+        process (one fork instead of one per entry)."""
+        entries = list(entries)
+        paths = []
+        for stage, key, value in entries:
+            self.keys[stage] = key
+            self._new[stage] = value
+            paths.append(self._staging_dir() / _entry_name(stage, key))
+
+        def dump_all() -> None:
+            for (_, _, value), path in zip(entries, paths, strict=True):
+                _dump_entry(value, path)
+
+        job = parallel.start(dump_all)
+        for stage, _, _ in entries:
+            self._jobs[stage] = job
+
     def _staging_dir(self) -> Path:
         """Where new entries are packed: inside the output folder's work folder (removed with
         it), or, for a cache opened on a bare path, in the system's temporary folder —

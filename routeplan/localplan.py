@@ -156,6 +156,16 @@ def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=No
     routes = plan.routes
     c = routes.circuits
     inp, own_input = sizing_input(site, routes)
+    if plan.inputs is None:  # a plan without its tables (from_cache)
+        inputs = input_table(
+            site,
+            routes.circuits,
+            own_input,
+            inp.imp_a * inp.n_strings,
+            np.asarray(plan.sizing.isc_design_a),
+            inp.n_strings,
+        )
+        plan = dataclasses.replace(plan, inputs=inputs)
     taps = routes.network.taps
     tap_key = pd.Index(taps["layer"].astype(str) + "\x00" + taps["feature_id"].astype(str))
     tap_from = tap_key.get_indexer(c["from_layer"].astype(str) + "\x00" + c["from_id"].astype(str))
@@ -343,17 +353,9 @@ def from_cache(
         return None
     if assigned_destinations(routes0):
         return None
-    inp0, own0 = sizing_input(old_site, routes0)
-    inputs0 = input_table(
-        old_site,
-        routes0.circuits,
-        own0,
-        inp0.imp_a * inp0.n_strings,
-        np.asarray(result0.isc_design_a),
-        inp0.n_strings,
-    )
-    # the last plan without its tables (none is read back: the local re-plan builds them)
-    old = Plan(old_site, design, routes0, result0, None, None, None, {}, {}, None, inputs0)
+    # the last plan without its tables (none is read back: the local re-plan builds them;
+    # baseline() makes the inverter inputs' table)
+    old = Plan(old_site, design, routes0, result0, None, None, None, {}, {}, None, None)
     base = baseline(old_site, design, plan=old)
     t["local.baseline"] = time.perf_counter() - t0
     t0 = time.perf_counter()
@@ -386,14 +388,20 @@ def from_cache(
         noding=memo0 is not None and memo is not None and memo.noded is memo0.noded,
         local=True,
     )
-    cache.put("route", route_key, plan.routes)
-    cache.put("noding", digest("noding", route_key), memo)
-    cache.put("size", size_key, plan.sizing)
+    entries = [
+        ("route", route_key, plan.routes),
+        ("noding", digest("noding", route_key), memo),
+        ("size", size_key, plan.sizing),
+    ]
     if not np.all(plan.sizing.ok):  # each circuit's remedy in routes order, as plan_site keeps it
         ids = plan.routes.circuits["circuit_id"].to_numpy(dtype=object)
         at = pd.Index(plan.circuits["circuit_id"].to_numpy(dtype=object)).get_indexer(ids)
-        cache.put("remedy", digest("remedy", size_key), plan.circuits["remedy"].to_numpy()[at])
-        cache.put("whatif", digest("whatif", size_key), whatifs.kept)
+        remedy = plan.circuits["remedy"].to_numpy()[at]
+        entries += [
+            ("remedy", digest("remedy", size_key), remedy),
+            ("whatif", digest("whatif", size_key), whatifs.kept),
+        ]
+    cache.put_all(entries)
     return dataclasses.replace(plan, timings_s=t, cache=cache)
 
 
@@ -743,7 +751,19 @@ def _local(
     remedy = None
     if whatifs is not None:  # each what-if re-sized from the last run's, where it has one
         t2 = time.perf_counter()
-        whatifs.resize = lambda key, i, d: edit.whatif(whatifs_before, key, i, d, rules)
+        # a what-if of the plan's own settings (wider spacing: the inputs alone change) that
+        # the last run did not make starts from the last plan's sizing, the same what-if with
+        # no spacing widened
+        own = {k: getattr(old.sizing, k) for k in WHATIF_FIELDS}
+        own["seg_spacing_m"] = inp0.seg_spacing_m
+        dp_text = repr(dp)
+
+        def resize(key: str, i: calc.SizingInput, d: calc.DesignParams):
+            kept = whatifs_before or {}
+            prev = kept.get(key, own if repr(d) == dp_text else None)
+            return edit.whatif(prev, i, d, rules)
+
+        whatifs.resize = resize
         remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]  # the tables' time leaves the remedies out
@@ -1014,18 +1034,16 @@ class _Edit:
 
     def whatif(
         self,
-        kept: dict | None,
-        key: str,
+        prev: dict | None,
         inp: calc.SizingInput,
         dp: calc.DesignParams,
         rules: str,
     ):
-        """A remedy's what-if sizing ``key`` (:class:`routeplan.remedy.WhatIfs`) of the edited
-        plan, re-sized from the last run's (``kept[key]``) as the plan itself is; None where
-        the last run has none under that key (its settings differ). Segments whose trench
-        spacing differs from the last run's what-if (a spacing what-if of other trenches) are
-        recomputed, and their circuits re-sized."""
-        prev = (kept or {}).get(key)
+        """A remedy's what-if sizing (:class:`routeplan.remedy.WhatIfs`) of the edited plan,
+        re-sized as the plan itself is from ``prev`` (the same what-if of the last run: its
+        :data:`~routeplan.remedy.WHATIF_FIELDS` and ``seg_spacing_m``); None without one.
+        Segments whose trench spacing differs from ``prev``'s (a spacing what-if of other
+        trenches) are recomputed, and their circuits re-sized."""
         if prev is None:
             return None
         sp_prev, sp = prev.get("seg_spacing_m"), inp.seg_spacing_m
