@@ -30,9 +30,9 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from calc.engine import DesignParams
+from calc.engine import DesignParams, SizingInput, size_circuits
 from calc.errors import InputError, UnknownOptionError
-from calc.nec.sizes import size_from_label
+from calc.nec.sizes import size_from_label, size_label
 from calc.rules.nec import NecRules
 
 R = NecRules()
@@ -330,3 +330,40 @@ def test_terminal_capacity_is_table_310_16_in_the_lower_of_the_two_columns():
         R.terminal_capacity_a(0, "Cu", "90C", "D3", ten, d75)
     # 690.8(B)(1): 1.25 × the maximum current
     assert_allclose(R.terminal_required_a([16.25, 195.0]), [20.3125, 243.75])
+
+
+# ---- 110.14(C)(1): terminations rated from Table 310.16 also in free air
+
+
+def test_terminal_capacity_in_free_air_is_table_310_16():
+    # a conductor in free air is rated by Table 310.17, but its terminations by Table 310.16
+    # (110.14(C)(1)): 10 AWG Cu at a 75 °C termination 35 A (Table 310.16), not 50 A (310.17)
+    ten = size_from_label(["10 AWG"])
+    assert R.terminal_capacity_a(0, "Cu", "90C", "air", ten, DesignParams()).tolist() == [35.0]
+    assert R.base_capacity_a(0, "Cu", "90C", 2, "air", ten, "").tolist() == [55.0]
+
+
+def test_a_string_in_free_air_is_sized_for_its_terminations_by_table_310_16():
+    # one source circuit, Isc 20 A, all of its 10 m in free air at 30 °C (310.15(B)(1) 1.00), alone
+    # (2 conductors: no adjustment). 690.8(A): I_max = 25 A; (B)(2): 12 AWG in Table 310.17 at
+    # 90 °C, 40 A ≥ 25 A; (B)(1): 1.25 × 25 = 31.25 A in the 75 °C column of Table 310.16 (110.14(C)
+    # (1)): 12 AWG 25 A < 31.25 A, 10 AWG 35 A ≥ 31.25 A → 10 AWG. (Table 310.17's 75 °C column
+    # would have let 12 AWG through: 35 A ≥ 31.25 A.)
+    inp = SizingInput(
+        kind=np.zeros(1, dtype=np.int8),
+        cable_m=np.array([10.0]),
+        air_m=np.array([10.0]),
+        isc_a=np.array([20.0]),
+        imp_a=np.array([19.0]),
+        vmp_v=np.array([1000.0]),
+    )
+    d = DesignParams(insulation_array="90C", insulation_subarray="90C", insulation_ac="90C",
+                     ac_breaker_device="nec240.6a", frequency_hz=60.0, air_temp_c=30.0)  # fmt: skip
+    r = size_circuits(inp, d, "nec")
+    assert r.governing_env[0] == "air"
+    assert r.design_current_a[0] == pytest.approx(25.0)
+    assert r.terminal_required_a[0] == pytest.approx(31.25)
+    assert size_label(r.size_mm2[0]) == "10 AWG"
+    assert r.terminal_ampacity_a[0] == 35.0
+    assert r.ampacity_a[0] == pytest.approx(55.0)
+    assert r.ok[0]
