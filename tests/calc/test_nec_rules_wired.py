@@ -367,3 +367,133 @@ def test_a_string_in_free_air_is_sized_for_its_terminations_by_table_310_16():
     assert r.terminal_ampacity_a[0] == 35.0
     assert r.ampacity_a[0] == pytest.approx(55.0)
     assert r.ok[0]
+
+
+# ---- the other wired hooks
+
+
+def test_short_circuit_note_says_the_withstand_is_not_checked():
+    assert R.short_circuit_note() == (
+        "short-circuit withstand not checked: NEC 2023 has no adiabatic table (ICEA P-32-382 "
+        "not applied): review"
+    )
+
+
+def test_backfeed_of_sub_array_cables_counts_only_the_source_cables():
+    # one output circuit (Isc 100 A) alone on its inverter input, with two sub-array circuits
+    # (40 A, 60 A) below it: a fault on the 40 A one is fed by the rest, 1.25 × (100 − 40) = 75 A
+    # (690.8(A) maximum currents), on the 60 A one by 1.25 × 40 = 50 A; the output circuit by none
+    got = R.backfeed_a([100.0, 40.0, 60.0], [1, 1, 1], [True, False, False])
+    assert_allclose(got, [0.0, 75.0, 50.0])
+
+
+def test_bifacial_isc_takes_each_of_its_inputs():
+    # the IEC rule set's design Isc (calc.protection.bifacial_isc_a): Isc (1 + φ G_rear/G_front)
+    # (from memory), 14 × (1 + 0.8 × 0.1) = 15.12 A; a datasheet bifacial Isc where given; Isc
+    # alone for a monofacial module (φ nan)
+    got = R.bifacial_isc_a([14.0, 14.0, 14.0], [0.8, 0.8, NAN], 0.1, [NAN, 15.2, NAN])
+    assert_allclose(got, [15.12, 15.2, 14.0])
+
+
+def test_depth_factor_takes_the_shape_of_both_inputs():
+    # Table 310.16 has no depth correction: ones, shaped as the depths and diameters broadcast
+    assert R.depth_factor(np.array([0.5, 0.8, 1.0]), 0.04).tolist() == [1.0, 1.0, 1.0]
+    assert R.depth_factor(0.8, np.array([0.02, 0.04])).tolist() == [1.0, 1.0]
+
+
+def test_ambient_beyond_the_column_is_refused_in_one_line():
+    # 310.15(B)(1): the 60 °C column has no factor above 55 °C
+    with pytest.raises(InputError) as e:
+        R.air_temp_factor(58.0, "60C")
+    assert str(e.value) == (
+        "NEC 2023 310.15(B)(1): no ambient correction for 60C conductors at 58 °C (the ambient "
+        "reaches the conductor's rating)"
+    )
+
+
+def test_resistance_at_75_c_is_chapter_9_table_8():
+    # Chapter 9 Table 8: 10 AWG stranded uncoated Cu 1.24 Ω/kft at 75 °C (confirmed); a missing
+    # resistance stays unknown
+    r20 = R.r20_ohm_km(0, "Cu", size_from_label(["10 AWG"]))[0]
+    got = R.r_at_temp_ohm_km([r20, None], 75.0, "Cu")
+    assert got[0] * 0.3048 == pytest.approx(1.24, rel=1e-12) and np.isnan(got[1])
+
+
+# ---- missing numbers (None) are read as unknown (nan), never a TypeError
+
+
+def test_missing_numbers_are_unknown_in_the_currents_and_protection():
+    # 690.8(A): an unknown Isc or string count gives an unknown maximum current
+    got = R.array_design_current_a([None, 13.0], [12, 12])
+    assert np.isnan(got[0]) and got[1] == pytest.approx(195.0)
+    assert_allclose(R.terminal_required_a([None, 16.25]), [NAN, 20.3125])
+    got = R.string_design_current_a([13.0, 13.0, 13.0], [None, 3.0, 3.0], [NAN, None, 25.0])
+    # an unknown count: unknown; an unknown fuse is no fuse: the others' 2 × 16.25 A; fused: 16.25
+    assert np.isnan(got[0]) and got[1:].tolist() == [32.5, 16.25]
+    # no device given: the conductor needs none to be protected (240.4 not applied)
+    ten = size_from_label(["10 AWG"])
+    assert R.conductor_protected([None], [1.0], ten, "Cu").tolist() == [True]
+
+
+def test_missing_numbers_in_the_protection_checks_fail_safe():
+    # an unknown ampacity, backfeed or device: the conductor is not shown to carry the backfeed
+    c = R.array_cable_check([None, 378.0, 378.0], [390.0, None, 390.0], [NAN, NAN, None])
+    assert c.needed.tolist() == [True, True, True] and c.ok.tolist() == [False] * 3
+    # an unknown current, device or ampacity: not shown to be protected
+    c = R.overload_check([None, 20.0, 20.0], [25.0, None, 25.0], [25.0, 25.0, None], NAN)
+    assert c.ok.tolist() == [False, False, False]
+    assert c.ib_ok.tolist() == [False, False, True] and c.iz_ok.tolist() == [True, False, False]
+    # an unknown stretch or circuit length: not a short section (no exception taken)
+    assert R.short_section([None, 2.0], [22.0, None]).tolist() == [False, False]
+    # an unknown conductor count cannot be adjusted: refused in one line
+    for call in (
+        lambda: R.group_factor([None], 0.0, 0),
+        lambda: R.air_group_factor([None], "bunched"),
+    ):
+        with pytest.raises(InputError, match="current-carrying conductors must be a whole number"):
+            call()
+
+
+def test_missing_numbers_in_the_source_circuit_fuse_decision():
+    # string count unknown: nothing shows the others can backfeed, no fuse required
+    p = R.string_protection([8.0], [None], [20.0], [NAN], FUSES)
+    assert p.required.tolist() == [False] and p.ok.tolist() == [True]
+    # maximum series fuse unknown: as not given (assumed required from 3 strings, noted)
+    p = R.string_protection([8.0], [3.0], [None], [NAN], FUSES)
+    assert p.required.tolist() == [True] and p.fuse_a.tolist() == [15.0]
+    assert p.note.tolist() == [ASSUMED]
+    # fixed fuse unknown: none fixed, one is chosen
+    p = R.string_protection([8.0], [3.0], [19.0], [None], FUSES)
+    assert p.fuse_a.tolist() == [15.0] and p.ok.tolist() == [True]
+    # ratings written as text are read as numbers
+    p = R.string_protection([16.0], [4.0], [30.0], [NAN], ["35", "25"])
+    assert p.fuse_a.tolist() == [25.0]
+
+
+# ---- comparisons hold within a relative 1e-9 (floating point), as the rule set's _REL
+
+
+def test_limits_hold_within_a_relative_billionth():
+    rel = 1e-9
+    # 690.9(A): the other string feeds exactly the maximum series fuse × (1 + 1e-9): no fuse
+    t = 20.0 * (1.0 + rel)
+    isc = t / 1.25
+    assert 1.25 * isc == t  # I_max is exactly that current
+    assert R.string_protection([isc], [2.0], [20.0], [NAN], FUSES).required.tolist() == [False]
+    # 690.9(B): a 25 A rating against a maximum series fuse 25 / (1 + 1e-9) still fits
+    ocpr = 25.0 / (1.0 + rel)
+    assert ocpr * (1.0 + rel) == 25.0
+    p = R.string_protection([16.0], [4.0], [ocpr], [NAN], FUSES)
+    assert p.fuse_a.tolist() == [25.0] and p.ok.tolist() == [True]
+    # a fixed fuse at 1.25 × I_max × (1 − 1e-9) and one at the maximum fuse × (1 + 1e-9) fit
+    p = R.string_protection(16.0, 4.0, 30.0, [25.0 * (1.0 - rel), 30.0 * (1.0 + rel)], FUSES)
+    assert p.ok.tolist() == [True, True]
+    # 240.4: a breaker 1.25 × I × (1 − 1e-9) is large enough; above 800 A one equal to the
+    # ampacity × (1 + 1e-9) protects it
+    c = R.overload_check([20.0, 800.0], [1.25 * 20.0 * (1.0 - rel), 1000.0 * (1.0 + rel)],
+                         [25.0, 1000.0], NAN)  # fmt: skip
+    assert c.ib_ok.tolist() == [True, True] and c.iz_ok.tolist() == [True, True]
+    # 690.9(A): an ampacity of the backfeed × (1 − 1e-9) carries it
+    assert R.array_cable_check([390.0 * (1.0 - rel)], [390.0], [NAN]).ok.tolist() == [True]
+    # 310.15(A): a stretch of 10 ft × (1 + 1e-9) is still short
+    assert R.short_section([10 * 0.3048 * (1.0 + rel)], [100.0]).tolist() == [True]
