@@ -10,8 +10,10 @@ Registered in :mod:`calc.rules` (``[design] rules = "nec"``). The functions are 
   ambient correction (310.15(B)(1)) and adjustment (310.15(C)(1)) — condition (2); condition (1)
   holds 1.25 × I_max (1.5625 × Isc for a source circuit) against the table column of the
   termination (110.14(C): ``terminal_temp_c``, 75 °C unless the equipment is marked for 90 °C;
-  never above the insulation's rating) uncorrected, in the lowest-rated table of the circuit's
-  environments. The schedule's utilisation is the larger of the two ratios (the governing one).
+  never above the insulation's rating) of Table 310.16, uncorrected, whatever the environment
+  (110.14(C)(1): termination provisions are based on Table 310.16 unless the equipment is listed
+  and marked otherwise, also for a conductor in free air). The schedule's utilisation is the
+  larger of the two ratios (the governing one).
 * **Grouping** counts current-carrying conductors (Table 310.15(C)(1)): 2 per d.c. or
   single-phase circuit, 3 per three-phase circuit (the neutral of a balanced three-phase circuit
   is not counted, 310.15(E)), each parallel set counted. In air the arrangement ``"bunched"``
@@ -176,12 +178,13 @@ class NecRules(RuleSet):
         return ampacity.table_ampacity_a(sizes_mm2, material, self._rating(insulation), loc)
 
     def terminal_capacity_a(self, kind, material, insulation, env, sizes_mm2, design):
-        """690.8(B)(1) with 110.14(C): the table value (Table 310.17 in air, 310.16 in the
-        ground) in the column of min(insulation rating, termination temperature), uncorrected."""
+        """690.8(B)(1) with 110.14(C): the Table 310.16 value in the column of min(insulation
+        rating, termination temperature), uncorrected; in every environment, also in air
+        (110.14(C)(1): termination provisions are based on Table 310.16 unless the equipment is
+        listed and marked otherwise)."""
         check_option("environment", env, ("air", "D1", "D2"))
         col = min(self._rating(insulation), self.terminal_c(design))
-        loc = "free_air" if env == "air" else "raceway"
-        return ampacity.table_ampacity_a(sizes_mm2, material, col, loc)
+        return ampacity.table_ampacity_a(sizes_mm2, material, col, "raceway")
 
     def terminal_required_a(self, i_design_a):
         """690.8(B)(1): 1.25 × the 690.8(A) maximum current [A]."""

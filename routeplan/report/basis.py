@@ -391,8 +391,8 @@ NEC_METHODS: tuple[tuple[str, str], ...] = (
     (
         "Conductor ampacity",
         "NEC 2023 690.8(B), both conditions: (1) 1.25 × the maximum current against Table "
-        "310.16 (raceway, cable or earth) or 310.17 (free air) in the termination's column "
-        "(110.14(C), 75 °C unless the equipment is marked for 90 °C: terminal_temp_c), "
+        "310.16 in the termination's column, also for conductors in free air (110.14(C)(1); "
+        "75 °C unless the equipment is marked for 90 °C: terminal_temp_c), "
         "uncorrected; (2) the maximum current against the insulation's column corrected for the "
         "ambient or earth temperature (310.15(B)(1)) and adjusted for the current-carrying "
         "conductors sharing the stretch (Table 310.15(C)(1); the conductors in a trench segment "

@@ -92,18 +92,17 @@ def _length(m: float, us: bool) -> str:
     return f"{n(m / foot_m())} ft ({n(m)} m)" if us else f"{n(m)} m"
 
 
-def _location(row: pd.Series, governing_only: bool) -> str:
-    """``"raceway"`` (Table 310.16: raceway, cable or earth) or ``"free_air"`` (Table 310.17).
+#: the table of condition (1), the terminations: Table 310.16 in every environment, also for a
+#: conductor in free air (NEC 2023 110.14(C)(1), as the engine takes it)
+_TERMINAL_LOC = "raceway"
 
-    ``governing_only``: the table of the governing stretch (condition 2); otherwise the lowest
-    table among the circuit's environments (condition 1, as the engine takes it): Table 310.16
-    wherever the route has a trench segment."""
-    if governing_only:
-        gov = str(row["governing"])
-        in_trench = gov in str(row["trench_segments"]).split(";") if gov else False
-        return "raceway" if in_trench else "free_air"
-    segs = str(row.get("trench_segments", "") or "")
-    return "raceway" if segs.strip() and segs != "nan" else "free_air"
+
+def _location(row: pd.Series) -> str:
+    """The table of the governing stretch (condition 2): ``"raceway"`` (Table 310.16: raceway,
+    cable or earth) or ``"free_air"`` (Table 310.17)."""
+    gov = str(row["governing"])
+    in_trench = gov in str(row["trench_segments"]).split(";") if gov else False
+    return "raceway" if in_trench else "free_air"
 
 
 # --------------------------------------------------------------------------------------------
@@ -211,8 +210,8 @@ def _capacity_steps(row: pd.Series, design: DesignConfig) -> list:
     p = int(row["parallel"])
     i_des = float(row["design_current_a"])
     gov = str(row["governing"])
-    loc2 = _location(row, governing_only=True)
-    loc1 = _location(row, governing_only=False)
+    loc2 = _location(row)
+    loc1 = _TERMINAL_LOC
     table = {"raceway": ("Table 310.16", _T16), "free_air": ("Table 310.17", _T17)}
     steps = [
         Step("Governing stretch", "the stretch with the lowest ampacity after correction and "
@@ -490,7 +489,7 @@ def _protection_steps(row: pd.Series, design: DesignConfig) -> list:
                  + _rule_src("ocpd_factor") + f"; schedule column {col}")
         )  # fmt: skip
         # 240.4 against the ampacity with the terminal limit
-        loc1 = _location(row, governing_only=False)
+        loc1 = _TERMINAL_LOC
         rs = calc.get_rules("nec")
         col1 = min(_RATING[str(row["insulation"])], rs.terminal_c(design_params(design)))
         term = float(nec_amp.table_ampacity_a([size], material, col1, loc1)[0]) * p
