@@ -703,11 +703,20 @@ def report(res: dict) -> str:
         t, w = e["replan_timings"], e["replan_written"]
         parts = [
             ("read + validate", t.get("read_validate")),
+            ("last plan from the cache", t.get("local.baseline")),
             ("route", t.get("route")),
             ("size", t.get("size")),
+            ("remedies", t.get("remedy")),
             ("tables", t.get("tables")),
             *[(k, v) for k, v in w.items()],
         ]
+        local = (
+            f" Planned locally: {t['local.circuits']:,.0f} circuits re-sized, "
+            f"{t.get('local.whatifs', 0):.0f} remedy what-ifs re-sized from the last run's, "
+            f"{t.get('local.whatifs_whole', 0):.0f} sized whole."
+            if t.get("local") == 1.0
+            else " Planned in full (the local re-plan did not apply)."
+        )
         cpu_main, cpu_kids = e["replan_cpu_main_s"], e["replan_cpu_children_s"]
         cores = os.cpu_count() or 1
         floor = (cpu_main + cpu_kids) / cores
@@ -716,7 +725,8 @@ def report(res: dict) -> str:
             f"Re-plan of the {plants[-1]['mw']:g} MW plant, by stage [s] (the map and the "
             "cache entries in child processes, in parallel): "
             + ", ".join(f"{k} {v:.2f}" for k, v in parts if v is not None)
-            + ".",
+            + "."
+            + local,
             "",
             f"Its CPU time: {cpu_main:.2f} s in the main process and {cpu_kids:.2f} s in "
             f"child processes (the map, the cache entries), {cpu_main + cpu_kids:.2f} s in "
