@@ -474,8 +474,12 @@ def plan_site(
         whatifs = WhatIfs(rules)
         remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
         if cache is not None and not np.all(result.ok):
-            cache.put("remedy", digest("remedy", size_key), remedy)
-            cache.put("whatif", digest("whatif", size_key), whatifs.kept)
+            cache.put_all(
+                [
+                    ("remedy", digest("remedy", size_key), remedy),
+                    ("whatif", digest("whatif", size_key), whatifs.kept),
+                ]
+            )
     t["remedy"] = time.perf_counter() - t0
     say("tables")
     t0 = time.perf_counter()
