@@ -172,3 +172,17 @@ def test_a_damaged_or_missing_entry_plans_without_it(failing_site, tmp_path, ent
     p = _replan(site, out)
     assert bool(p.cache.reused.get("local")) is (entry == "noding")  # the memo only saves time
     _same_as_cold(p, site, out, tmp_path)
+
+
+def test_a_move_off_the_network_is_refused_as_a_cold_plan_refuses_it(failing_site, tmp_path):
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    _move(site, "inverters", 0, 3000.0, 0.0)  # far beyond snap_m of every trench
+    messages = []
+    for cache in (PlanCache(out), None):
+        with pytest.raises(Exception) as caught:
+            plan(site, cache=cache)
+        messages.append((type(caught.value).__name__, str(caught.value)))
+    assert messages[0] == messages[1]
+    assert "INV001" in messages[0][1] and "snap_m" in messages[0][1]
