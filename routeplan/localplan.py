@@ -51,11 +51,14 @@ set — reuses the baseline's routes (network, paths, segment counts) and sizes 
 again, with every table, as a full plan does after routing: a setting of that kind can change
 any circuit's size, so nothing smaller is re-sized.
 
-Anything else — trenches, rows, modules, strings, attributes of equipment, destinations
-chosen by route length, settings that route, a move together with a settings change — falls
-back to a full plan. :func:`replan` says which it did in ``Plan.timings_s["local"]``: 1.0
-local, 0.5 routes reused and every circuit sized again, 0.0 full. The result is a design aid,
-to be reviewed by a qualified, licensed person.
+Destinations chosen by route length (a row, combiner or inverter without ``to``) are chosen
+again on the edited network, as routing chooses them; where every feature keeps its
+destination the re-plan stays local (with the new route lengths in the plan's ``assignment``),
+where one changes it falls back to a full plan. Anything else — trenches, rows, modules,
+strings, attributes of equipment, settings that route, a move together with a settings
+change — falls back to a full plan. :func:`replan` says which it did in
+``Plan.timings_s["local"]``: 1.0 local, 0.5 routes reused and every circuit sized again, 0.0
+full. The result is a design aid, to be reviewed by a qualified, licensed person.
 """
 
 from __future__ import annotations
@@ -77,7 +80,7 @@ from calc.losses import energy_loss_kwh
 from layers import Site
 
 from .cache import PlanCache, digest
-from .circuits import KINDS
+from .circuits import KINDS, assign_destinations
 from .config import DesignConfig
 from .errors import DesignError
 from .inputs import assign_inputs, input_table, landing_input
@@ -104,6 +107,7 @@ from .remedy import WHATIF_FIELDS, WhatIfs
 from .routing import (
     RoutePlan,
     _route_geometry,
+    _route_lengths_fn,
     joined,
     shortest_paths,
 )
@@ -351,8 +355,6 @@ def from_cache(
     routes0, result0 = cache.latest("route"), cache.latest("size")
     if routes0 is None or result0 is None or repr(routes0.params) != repr(params):
         return None
-    if assigned_destinations(routes0):
-        return None
     # the last plan without its tables (none is read back: the local re-plan builds them;
     # baseline() makes the inverter inputs' table)
     old = Plan(old_site, design, routes0, result0, None, None, None, {}, {}, None, None)
@@ -418,11 +420,9 @@ def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:
 
 def _applies(base: Baseline, site: Site, design: DesignConfig) -> bool:
     old = base.plan
-    return (
-        (design is old.design or design == old.design)
-        and not assigned_destinations(old.routes)
-        and moved_features(old.site, site) is not None
-    )
+    return (design is old.design or design == old.design) and moved_features(
+        old.site, site
+    ) is not None
 
 
 @dataclass(frozen=True, eq=False)
@@ -501,6 +501,11 @@ def _local(
     taps0, taps = net0.taps, net.taps
     if not taps["connected"].to_numpy(bool).all():
         return None  # a feature left unconnected: the full plan reports it
+    assignment = r0.assignment
+    if assigned_destinations(r0):  # destinations chosen by route length: chosen again
+        assignment = _reassigned(site, net, r0.assignment)
+        if assignment is None:
+            return None  # a feature's destination changed: other circuits, a full plan
     t["route.network"] = time.perf_counter() - t0
     t1 = time.perf_counter()
 
@@ -736,7 +741,7 @@ def _local(
         air=air,
         air_incidence_circuit=air_c,
         air_incidence_stretch=air_s,
-        assignment=r0.assignment,
+        assignment=assignment,
         network=net,
         params=params,
         timings_s={},
@@ -946,6 +951,27 @@ def _global_notes(notes: np.ndarray, sub: np.ndarray) -> np.ndarray:
     for i in np.flatnonzero(np.char.find(notes.astype(str), "feeder circuit") >= 0).tolist():
         out[i] = _FEEDER.sub(lambda m: f"(feeder circuit {sub[int(m.group(1))]})", notes[i])
     return out
+
+
+def _reassigned(site: Site, net: TrenchNetwork, before: pd.DataFrame) -> pd.DataFrame | None:
+    """The destinations of the features without a ``to``, chosen again on the edited
+    network as routing chooses them (:func:`routeplan.circuits.assign_destinations`): their
+    report (the plan's ``assignment``: the route lengths change with a move) where every
+    feature keeps the destination it had, else None (its circuits change: a full plan)."""
+    taps = net.taps
+    joined_taps = set(zip(taps["layer"].astype(str), taps["feature_id"].astype(str), strict=True))
+    dest, problems = assign_destinations(
+        site, _route_lengths_fn(net), lambda layer, fid: (layer, fid) in joined_taps
+    )
+    if problems:
+        return None
+    cols = ["layer", "feature_id", "to_layer", "to_id", "rule"]
+    now = dest.report
+    same = len(now) == len(before) and all(
+        np.array_equal(now[k].to_numpy(dtype=object), before[k].to_numpy(dtype=object))
+        for k in cols
+    )
+    return now if same else None
 
 
 def _same_nan(a: np.ndarray, b: np.ndarray) -> np.ndarray:

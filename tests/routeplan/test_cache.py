@@ -355,8 +355,12 @@ def test_the_command_says_what_an_edit_reused(demo, tmp_path):
     again = runner.invoke(app, ["plan", str(demo), "--out", str(out)])
     assert again.exit_code in (0, 1), again.output
     line = next(t for t in again.output.splitlines() if t.startswith("cache:"))
-    # the trenches did not change: their noding is reused
-    assert line.startswith("cache: reused trench noding; outputs updated: ")
+    # the trenches did not change: their noding is reused, and only the pad moved: the last
+    # plan is re-planned locally
+    assert line.startswith(
+        "cache: reused trench noding, the last plan (re-planned locally: only the moved "
+        "equipment's blocks); outputs updated: "
+    )
     assert "GeoPackage rows rewritten" in line
 
 

@@ -11,6 +11,7 @@ a remedy). Edits a local re-plan does not cover, and a cache it cannot trust, pl
 
 from __future__ import annotations
 
+import json
 import re
 import shutil
 from pathlib import Path
@@ -18,6 +19,7 @@ from pathlib import Path
 import pyogrio
 import pytest
 import shapely
+import shapely.geometry
 
 from routeplan.cache import CACHE_DIR, PlanCache
 from routeplan.outputs.write import CSV_FILES, write_plan
@@ -186,3 +188,44 @@ def test_a_move_off_the_network_is_refused_as_a_cold_plan_refuses_it(failing_sit
         messages.append((type(caught.value).__name__, str(caught.value)))
     assert messages[0] == messages[1]
     assert "INV001" in messages[0][1] and "snap_m" in messages[0][1]
+
+
+# -- destinations chosen by route length (the US demo: row B2-T5 has no ``to``) --------------
+
+US_DEMO = Path(__file__).resolve().parents[2] / "demo_site_us"
+
+
+def _move_json(site: Path, layer_file: str, fid: str, dx: float, dy: float) -> None:
+    """Move feature ``fid`` of a GeoJSON layer by (dx, dy) in the layer's CRS units."""
+    path = site / layer_file
+    data = json.loads(path.read_text(encoding="utf-8"))
+    (feature,) = [f for f in data["features"] if f["properties"]["id"] == fid]
+    geom = shapely.geometry.shape(feature["geometry"])
+    feature["geometry"] = shapely.geometry.mapping(shapely.affinity.translate(geom, dx, dy))
+    path.write_text(json.dumps(data), encoding="utf-8")
+
+
+@pytest.mark.parametrize(
+    ("layer_file", "fid", "dx", "dy", "local"),
+    [
+        # the pad of block A: B2-T5 keeps CB-B2, the nearest
+        ("inverters.geojson", "INV-A", 0.0, 10.0, True),
+        # CB-B2 40 ft along its trench: B2-T5 keeps it, by a longer route (the assignment's
+        # route length changes, and the summary says so)
+        ("combiners.geojson", "CB-B2", 40.0, 0.0, True),
+        # CB-B2 250 ft along: B2-T5 keeps it only as the nearest with room — the rule that
+        # chose it changed: planned in full
+        ("combiners.geojson", "CB-B2", 250.0, 0.0, False),
+    ],
+)
+def test_a_move_with_destinations_chosen_by_route(tmp_path, layer_file, fid, dx, dy, local):
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(US_DEMO, site)
+    before = _replan(site, out).summary["assigned"]
+    assert [a["id"] for a in before] == ["B2-T5"]
+    _move_json(site, layer_file, fid, dx, dy)
+    p = _replan(site, out)
+    assert bool(p.cache.reused.get("local")) is local
+    _same_as_cold(p, site, out, tmp_path)
+    if fid == "CB-B2":
+        assert p.summary["assigned"][0]["route_m"] > before[0]["route_m"]
