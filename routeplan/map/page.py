@@ -391,6 +391,9 @@ def render_map(
     drawn = 0
     # plant view (routeplan.map.plantview): above a size, the detail groups start unmade
     lod = _plant_scale(frames, ok, kinds, aggregated)
+    # whether the detail groups are made near the view: a tile's key holds this flag, never
+    # the count (one feature more would change every lazy tile's key)
+    lazy = lod > 0
     bounds = _bounds([frames[k][ok[k]] for k in frames])
     box = None  # [west, south, east, north] of the site, for the tiles' squares
     if lod and bounds is not None:
@@ -411,7 +414,7 @@ def render_map(
     s, n = memo.group(
         "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
         _parts(row_ids, row_h, _cells(rows.iloc[row_pos], box)), draw_rows,
-        lazy=not show_rows or lod,
+        lazy=not show_rows or lazy,
     )  # fmt: skip
     scripts += s
     n_rows = n["ok"]
@@ -426,7 +429,7 @@ def render_map(
     s, n = memo.group(
         "segments", (reference, wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
         _parts(text_values(seg, "segment_id"), seg_h, _cells(seg, box)),
-        lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lod,
+        lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lazy,
     )  # fmt: skip
     if n["ok"] + n["over"]:
         groups.append(("segments", LAYER_NAMES["segments"], True))
@@ -457,7 +460,7 @@ def render_map(
         s, n = memo.group(
             kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
             _parts(keys, h["circuits"][pos], _cells(sub, box) if kind in DETAIL_GROUPS else None),
-            draw_circuits, lazy=lod and kind in DETAIL_GROUPS,
+            draw_circuits, lazy=lazy and kind in DETAIL_GROUPS,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
             groups.append((kind, LAYER_NAMES[label], True))
@@ -477,7 +480,7 @@ def render_map(
 
     s, n = memo.group(
         "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
-        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lod,
+        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lazy,
     )  # fmt: skip
     scripts += s
     drawn += n["ok"]

@@ -167,6 +167,7 @@ class MapMemo:
         and hashes, in ``parts``), ``draw(positions)`` gives its layers by part. Returns the
         scripts in drawing order (each role over every tile in turn) and the number of features
         of each part."""
+        lazy = bool(lazy)  # a flag in the key: a truthy count would make every key new
         per_role: list[list[str]] = [[] for _ in roles]
         counts = {r.part: 0 for r in roles}
         seen: set[str] = set()

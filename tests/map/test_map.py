@@ -677,6 +677,59 @@ def test_an_edit_draws_only_its_tiles_and_the_page_matches_a_fresh_one():
     assert MapMemo.load(None).last_pages == {}
 
 
+def _same_page(html: str) -> str:
+    """A page with folium's random element names (``map_<32 hex digits>``) made equal: the
+    page around the layers comes from the memo with the names of the run that made it."""
+    return re.sub(r"_[0-9a-f]{32}(?![0-9a-f])", "_ID", html)
+
+
+def _moved_pad(frames: dict) -> dict:
+    """``frames`` after an inverter pad moved 8 m: the inverter's point, its AC circuit's first
+    vertex and the drop segment of one of its blocks (split in two, so the plant holds one
+    trench segment more) change; the rest is as it was."""
+    eq = frames["equipment"].copy()
+    i = int(np.flatnonzero(eq["id"].to_numpy() == "INV3")[0])
+    geoms = eq.geometry.to_numpy().copy()
+    geoms[i] = shapely.affinity.translate(geoms[i], yoff=8.0)
+    eq = eq.set_geometry(geoms, crs=eq.crs)
+    c = frames["circuits"].copy()
+    j = int(np.flatnonzero(c["circuit_id"].to_numpy() == "AC:INV3")[0])
+    cg = c.geometry.to_numpy().copy()
+    cg[j] = shapely.linestrings([geoms[i].coords[0], cg[j].coords[-1]])
+    c = c.set_geometry(cg, crs=c.crs)
+    c.loc[c.index[j], "route_m"] = float(shapely.length(cg[j]))
+    c.loc[c.index[j], "utilisation"] = 0.93
+    s = frames["segments"]
+    k = int(np.flatnonzero(s["segment_id"].to_numpy() == "T81#9")[0])
+    line = s.geometry.iloc[k]
+    halves = [shapely.ops.substring(line, 0, 5.0), shapely.ops.substring(line, 5.0, line.length)]
+    split = s.iloc[[k, k]].copy()
+    split["segment_id"] = ["T81#9", "T81#9b"]
+    split["length_m"] = shapely.length(np.array(halves))
+    split = split.set_geometry(np.array(halves), crs=s.crs)
+    seg = pd.concat([s.iloc[:k], split, s.iloc[k + 1 :]], ignore_index=True)
+    return {"circuits": c, "segments": seg, "rows": frames["rows"], "equipment": eq}
+
+
+def test_a_pad_move_redraws_its_tiles_only_and_the_page_equals_a_cold_one():
+    """One trench segment more (as when a moved pad splits the trench it taps) changes the
+    number of drawn features; no tile outside the edit is drawn again for it, and the page
+    is the one a render without memo gives (folium's random element names aside)."""
+    import shapely.ops  # noqa: F401  (substring)
+
+    from routeplan.map.tiles import MapMemo
+
+    frames, site = synthetic_frames(n_blocks=600)
+    first = MapMemo()
+    render(frames, site, aggregate_strings_above=1000, memo=first)
+    edited = _moved_pad(frames)
+    memo = MapMemo.load(first.export())
+    html = render(edited, site, aggregate_strings_above=1000, memo=memo)
+    # the segments' tile of the split segment, the equipment tile of the pad, the AC tile
+    assert memo.drawn_tiles <= 3 and memo.reused_tiles > 3 * memo.drawn_tiles
+    assert _same_page(html) == _same_page(render(edited, site, aggregate_strings_above=1000))
+
+
 # --------------------------------------------------------------------------------------------
 # review data (routeplan.map.details)
 
