@@ -774,6 +774,31 @@ def test_review_data_numbers_have_the_schedules_digits():
     assert _review_column(data, "parallel") == [1, 2, 4]
 
 
+def test_review_data_writes_each_value_as_the_json_module_does():
+    """The review data's columns are built from each distinct value's JSON text: joined, they
+    are the text json.dumps gives for the whole list (Python's json module, the reference),
+    with ``$ ` { }`` as \\u escapes; -0.0 stays -0.0, a text needing escapes is escaped."""
+    values = ["plain", 'q"uote', "back\\slash", "new\nline", "\x01", "${x}", "`t`", "é\u2028",
+              "<b>&", "", None, 0.0, -0.0, 1e20, 12.5, 3, -7]  # fmt: skip
+    expected = json.dumps(values, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+    for raw, escaped in (("$", "\\u0024"), ("`", "\\u0060"), ("{", "\\u007b"), ("}", "\\u007d")):
+        expected = expected.replace(raw, escaped)
+    assert "[" + ",".join(map_details._tokens(values)) + "]" == expected
+    texts = [v for v in values if isinstance(v, str)]
+    assert "[" + ",".join(map_details._tokens(texts)) + "]" == json.dumps(
+        texts, ensure_ascii=False, separators=(",", ":")
+    ).replace("$", "\\u0024").replace("`", "\\u0060").replace("{", "\\u007b").replace(
+        "}", "\\u007d"
+    )
+    with pytest.raises(ValueError):  # as json.dumps(..., allow_nan=False)
+        map_details._tokens([float("inf")])
+    # a column with 0.0 and -0.0: each row keeps its own value
+    df = pd.DataFrame({"circuit_id": ["a", "b", "c"], "route_m": [0.0, -0.0, np.nan]})
+    data = json.loads(map_details.table_json(df, ("circuit_id", "route_m")))
+    column = _review_column(data, "route_m")
+    assert column == [0.0, 0.0, None] and [np.signbit(x) for x in column[:2]] == [False, True]
+
+
 def test_review_data_shows_no_user_text_as_it_is():
     frames, _ = make_frames(HOSTILE)
     text = map_details.review_json(
