@@ -496,7 +496,9 @@ def render_map(
     not_drawn = sum(int((~m).sum()) for m in ok.values())
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
-    plant = plant_view(circuits, rows, n_features=lod, groups=groups, bounds=bounds)
+    plant = plant_view(
+        circuits, rows, n_features=lod, groups=groups, bounds=bounds, areas=memo.geometries
+    )
     if plant.note():
         totals.extra.append(plant.note())
     if plant.blocks:  # under the others; shown at plant zoom
