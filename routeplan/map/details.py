@@ -90,12 +90,7 @@ def _tokens(values: list) -> list[str]:
     """Each value (text, int, float, None) as :func:`_list_json` writes it in a list: the
     list's text is ``"[" + ",".join(tokens) + "]"``."""
     if all(type(v) is str for v in values):
-        if not _SPECIAL.search("".join(values)):  # one scan of the column
-            return [f'"{v}"' for v in values]
-        return [
-            json.dumps(v, ensure_ascii=False).translate(_LIVE) if _SPECIAL.search(v) else f'"{v}"'
-            for v in values
-        ]
+        return _text_tokens(values)
     out = []
     for v in values:
         if v is None:
@@ -105,6 +100,22 @@ def _tokens(values: list) -> list[str]:
         else:  # text, int, a float out of range (json refuses it)
             out.append(_list_json([v])[1:-1])
     return out
+
+
+def _text_tokens(values: list[str]) -> list[str]:
+    """:func:`_tokens` of texts."""
+    if not _SPECIAL.search("".join(values)):  # one scan of the column
+        return [f'"{v}"' for v in values]
+    return [
+        json.dumps(v, ensure_ascii=False).translate(_LIVE) if _SPECIAL.search(v) else f'"{v}"'
+        for v in values
+    ]
+
+
+def _ints(values) -> str:
+    """A JSON list of integers (a list or an integer array)."""
+    values = values.tolist() if isinstance(values, np.ndarray) else values
+    return "[" + ",".join(map(str, values)) + "]"
 
 
 @dataclass
@@ -123,7 +134,7 @@ class _Column:
         as the schedules write them (:func:`_converted`)."""
         if name in TEXT_COLUMNS:
             codes, distinct = pd.factorize(_text(df, name).to_numpy(dtype=object))
-            tokens = _tokens(distinct.tolist())
+            tokens = _text_tokens(distinct.tolist())
             table = np.empty(len(tokens), dtype=object)
             table[:] = tokens
             return cls(table[codes], codes.astype(np.int64), tokens)
@@ -151,13 +162,7 @@ class _Column:
         distinct = 2 + max(m - 1, 0) + int(lengths.sum())
         coded = 5 + distinct + 6 + int(counts @ digits) + max(n - 1, 0) + 2
         if coded < plain:
-            return (
-                '{"v":['
-                + ",".join(self.distinct)
-                + '],"i":['
-                + ",".join(self.codes.astype(str).tolist())
-                + "]}"
-            )
+            return '{"v":[' + ",".join(self.distinct) + '],"i":' + _ints(self.codes) + "}"
         return "[" + ",".join(self.tokens.tolist()) + "]"
 
 
@@ -206,8 +211,7 @@ def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
             + ",".join("[" + ",".join(r) + "]" for r in table)
             + "]}"
         )
-        index = ",".join(inverse.reshape(-1).astype(str).tolist())
-        text += ',"p":' + body[:-1] + ',"i":[' + index + "]}"
+        text += ',"p":' + body[:-1] + ',"i":' + _ints(inverse.reshape(-1)) + "}"
     elif profile:  # one column only: as a column of its own
         name = profile[0]
         text = text[:-1] + ("," if parts else "") + f"{json.dumps(name)}:{cols[name].json()}}}"
@@ -285,10 +289,6 @@ def review_json(
         f'"dec":{json.dumps(dec, sort_keys=True, separators=(",", ":"))}',
     ]
     return script_safe("{" + ",".join(parts) + "}")
-
-
-def _ints(values: list) -> str:
-    return "[" + ",".join(map(str, values)) + "]"
 
 
 def review_data_html(text: str) -> str:
