@@ -41,6 +41,7 @@ optional online basemap. Every string shown is escaped
 
 from __future__ import annotations
 
+import hashlib
 import json
 from pathlib import Path
 
@@ -178,6 +179,13 @@ def review_constants() -> dict:
     }
 
 
+def _element_id(spec: dict, element: str) -> str:
+    """The name of one of the page's folium elements (32 hex digits, as folium's random ones):
+    from the page's spec, so the same page always has the same bytes."""
+    text = json.dumps([element, spec], sort_keys=True, default=str)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:32]
+
+
 def page_parts(spec: dict) -> list[str]:
     """The page around the layers (folium), cut at the slots: [before the panel, between the
     panel and the layers' scripts, between them and the plant view's script, after it].
@@ -196,6 +204,9 @@ def page_parts(spec: dict) -> list[str]:
         zoom_control=True,
         prefer_canvas=spec["canvas"],
     )
+    # a name of the page's own, not folium's random one: a page made again from the same spec
+    # (a cold run, or the memo's copy) has the same bytes
+    m._id = _element_id(spec, "map")
     # never the module-level lists (add_js_link/add_css_link mutate them for every map)
     m.default_js = []
     m.default_css = []
@@ -225,7 +236,9 @@ def page_parts(spec: dict) -> list[str]:
             raise RuntimeError(f"folium named a group {group.get_name()!r}: not {group_var(key)}")
         group.add_to(m)
     ScriptSlot(_LAYERS_SLOT).add_to(m)
-    folium.LayerControl(collapsed=False, position="topright").add_to(m)
+    control = folium.LayerControl(collapsed=False, position="topright")
+    control._id = _element_id(spec, "layer_control")
+    control.add_to(m)
     root.html.add_child(RawHTML(_PANEL_SLOT), name="rp_panel")
     MetricScale().add_to(m)
     ScriptSlot(_PLANT_SLOT).add_to(m)
