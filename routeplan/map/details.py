@@ -20,6 +20,7 @@ lists exactly what ``trench_schedule.csv`` says; a circuit's route is the invers
 
 from __future__ import annotations
 
+import itertools
 import json
 import math
 import re
@@ -225,7 +226,7 @@ def _positions(lists: pd.Series, ids: np.ndarray) -> tuple[list, list]:
     if not texts:
         return [], []
     flat = np.array(";".join(texts).split(";"), dtype=object)  # every item's ids, in turn
-    per_item = np.fromiter((t.count(";") + 1 for t in texts), dtype=np.int64, count=len(texts))
+    per_item = np.fromiter(map(str.count, texts, itertools.repeat(";")), np.int64, len(texts)) + 1
     index = pd.Index(np.asarray(ids, dtype=object))
     first = np.arange(len(index))
     if not index.is_unique:  # an id twice: its first position
