@@ -264,19 +264,25 @@ def block_data(blocks: gpd.GeoDataFrame) -> list[dict]:
     label = _round_coords(shapely.point_on_surface(g))
     colour = UTILISATION.colours(blocks["worst_utilisation"].to_numpy(dtype=float))
     fail = blocks["failing"].to_numpy() > 0
+    columns = zip(
+        blocks["block"].tolist(),
+        blocks["circuits"].to_numpy().tolist(),
+        blocks["failing"].to_numpy().tolist(),
+        blocks["worst_utilisation"].to_numpy(dtype=float).tolist(),
+        blocks["worst_vdrop_total_pct"].to_numpy(dtype=float).tolist(),
+        shapely.to_geojson(g).tolist(),
+        shapely.get_coordinates(label).tolist(),
+        strict=True,
+    )
     out = []
-    for i, (gj, p) in enumerate(
-        zip(shapely.to_geojson(g).tolist(), shapely.get_coordinates(label).tolist(), strict=True)
-    ):
-        u = float(blocks["worst_utilisation"].iat[i])
-        d = float(blocks["worst_vdrop_total_pct"].iat[i])
+    for i, (block, n, failing, u, d, gj, p) in enumerate(columns):
         out.append(
             {
-                "id": str(blocks["block"].iat[i]),
+                "id": str(block),
                 "g": json.loads(gj),
                 "at": [p[1], p[0]],
-                "n": int(blocks["circuits"].iat[i]),
-                "fail": int(blocks["failing"].iat[i]),
+                "n": int(n),
+                "fail": int(failing),
                 "util": None if math.isnan(u) else round(u, 4),
                 "drop": None if math.isnan(d) else round(d, 3),
                 "fill": PROBLEM_COLOUR if fail[i] else str(colour[i]),
