@@ -12,7 +12,14 @@ circuits and over-capacity segments of every tile come after all passing ones.
 
 The page around the layers (folium's map, groups, layer control, scale, the inlined Leaflet)
 depends only on a few values (title, basemap, canvas, view, groups): the memo keeps it too, so
-a re-plan that does not change those does not even import folium.
+a re-plan that does not change those does not even import folium. Its folium elements are
+named from those values (not at random), so a page made with the memo is byte for byte the
+page a run without it makes. The plant view's block areas are kept as WKB under a digest of
+each block's outline points (:meth:`MapMemo.geometries`): an edit redraws its blocks' areas
+only.
+
+A tile's key holds flags and plant-wide values, never a count of the plant's features: one
+feature more (a trench split by a moved pad) must leave the other tiles' keys as they were.
 """
 
 from __future__ import annotations
