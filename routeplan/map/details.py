@@ -20,8 +20,12 @@ lists exactly what ``trench_schedule.csv`` says; a circuit's route is the invers
 
 from __future__ import annotations
 
+import itertools
 import json
+import math
+import re
 from collections.abc import Mapping
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -57,28 +61,23 @@ DECIMALS: dict[str, int | None] = {
 }
 
 
-def _rounded(values: np.ndarray, decimals: int | None) -> list:
+def _converted(distinct: np.ndarray, decimals: int | None) -> list:
     """Numbers rounded as the schedule writes them (``f"{x:.{d}f}"``), NaN → None; integers
     where ``decimals`` is None (or 0)."""
-    v = np.asarray(values, dtype=float)
-    out: list = []
     if decimals:
         # the schedule's text, read back: the nearest double of that decimal (JavaScript's
         # toFixed(d) gives the same digits back)
-        uniq, inverse = np.unique(v.view(np.int64), return_inverse=True)
-        conv = [None if np.isnan(x) else float(f"{x:.{decimals}f}") for x in uniq.view(np.float64)]
-        table = np.empty(len(conv), dtype=object)
-        table[:] = conv
-        return table[inverse.reshape(-1)].tolist()
-    for x in np.round(v).tolist() if len(v) else []:
-        out.append(None if x != x else int(x))
-    return out
+        return [None if x != x else float(f"{x:.{decimals}f}") for x in distinct.tolist()]
+    return [None if x != x else int(x) for x in np.round(distinct).tolist()]
 
 
 #: characters of users' text written as \u escapes in the data too, so that no text of a
 #: user's file appears in the page as it is (``<``, ``>``, ``&`` are escaped for
 #: ``<script>`` later; these are live in JavaScript template literals and Jinja templates)
 _LIVE = str.maketrans({"$": "\\u0024", "`": "\\u0060", "{": "\\u007b", "}": "\\u007d"})
+#: a text holding none of these is written in JSON as it is, between quotes (json escapes
+#: the quote, the backslash and control characters; :data:`_LIVE` the others)
+_SPECIAL = re.compile(r'["\\\x00-\x1f$`{}]')
 
 
 def _list_json(values: list) -> str:
@@ -88,16 +87,84 @@ def _list_json(values: list) -> str:
     return text.translate(_LIVE)
 
 
-def column_json(values: list) -> str:
-    """One column: a JSON list, or ``{"v": distinct values, "i": indices}`` where shorter
-    (``{"v": [value]}`` when all are equal)."""
-    codes, uniques = pd.factorize(pd.Series(values, dtype=object), use_na_sentinel=False)
-    plain = _list_json(values)
-    if len(values) and len(uniques) == 1:
-        return '{"v":' + _list_json(_clean([values[0]])) + "}"
-    distinct = _list_json(_clean(uniques.tolist()))
-    coded = '{"v":' + distinct + ',"i":[' + ",".join(codes.astype(str).tolist()) + "]}"
-    return coded if len(coded) < len(plain) else plain
+def _tokens(values: list) -> list[str]:
+    """Each value (text, int, float, None) as :func:`_list_json` writes it in a list: the
+    list's text is ``"[" + ",".join(tokens) + "]"``."""
+    if all(type(v) is str for v in values):
+        return _text_tokens(values)
+    out = []
+    for v in values:
+        if v is None:
+            out.append("null")
+        elif type(v) is float and math.isfinite(v):
+            out.append(float.__repr__(v))  # json writes a float so
+        else:  # text, int, a float out of range (json refuses it)
+            out.append(_list_json([v])[1:-1])
+    return out
+
+
+def _text_tokens(values: list[str]) -> list[str]:
+    """:func:`_tokens` of texts."""
+    if not _SPECIAL.search("".join(values)):  # one scan of the column
+        return [f'"{v}"' for v in values]
+    return [
+        json.dumps(v, ensure_ascii=False).translate(_LIVE) if _SPECIAL.search(v) else f'"{v}"'
+        for v in values
+    ]
+
+
+def _ints(values) -> str:
+    """A JSON list of integers (a list or an integer array)."""
+    values = values.tolist() if isinstance(values, np.ndarray) else values
+    return "[" + ",".join(map(str, values)) + "]"
+
+
+@dataclass
+class _Column:
+    """One column of a review table, encoded: each row's JSON text (``tokens``), its code
+    among the column's distinct values (in order of first appearance, as
+    :func:`pandas.factorize` of the values gives them) and the distinct values' texts."""
+
+    tokens: np.ndarray
+    codes: np.ndarray
+    distinct: list[str]
+
+    @classmethod
+    def of(cls, df: pd.DataFrame, name: str) -> _Column:
+        """The column ``name`` of ``df`` as the details show it: text raw, numbers rounded
+        as the schedules write them (:func:`_converted`)."""
+        if name in TEXT_COLUMNS:
+            codes, distinct = pd.factorize(_text(df, name).to_numpy(dtype=object))
+            tokens = _text_tokens(distinct.tolist())
+            table = np.empty(len(tokens), dtype=object)
+            table[:] = tokens
+            return cls(table[codes], codes.astype(np.int64), tokens)
+        v = np.ascontiguousarray(_num(df, name), dtype=np.float64)
+        # every distinct float (bit for bit: -0.0 and 0.0 are written apart) …
+        bits, distinct_bits = pd.factorize(v.view(np.int64))
+        values = _converted(distinct_bits.view(np.float64), DECIMALS.get(name))
+        table = np.empty(len(values), dtype=object)
+        table[:] = _tokens(values)
+        # … and the distinct values as pandas.factorize of the values sees them (-0.0 == 0.0)
+        merged, _ = pd.factorize(pd.Series(values, dtype=object), use_na_sentinel=False)
+        first = np.unique(merged, return_index=True)[1]
+        return cls(table[bits], merged[bits].astype(np.int64), table[first].tolist())
+
+    def json(self) -> str:
+        """The column: a JSON list, or ``{"v": distinct values, "i": indices}`` where shorter
+        (``{"v": [value]}`` when all are equal)."""
+        n, m = len(self.tokens), len(self.distinct)
+        if n and m == 1:
+            return '{"v":[' + self.tokens[0] + "]}"
+        counts = np.bincount(self.codes, minlength=m)
+        lengths = np.fromiter(map(len, self.distinct), dtype=np.int64, count=m)
+        plain = 2 + max(n - 1, 0) + int(counts @ lengths) if n else 2
+        digits = np.char.str_len(np.arange(m).astype(str)) if m else np.zeros(0, np.int64)
+        distinct = 2 + max(m - 1, 0) + int(lengths.sum())
+        coded = 5 + distinct + 6 + int(counts @ digits) + max(n - 1, 0) + 2
+        if coded < plain:
+            return '{"v":[' + ",".join(self.distinct) + '],"i":' + _ints(self.codes) + "}"
+        return "[" + ",".join(self.tokens.tolist()) + "]"
 
 
 #: Columns that name a row: never in a profile.
@@ -108,13 +175,9 @@ PROFILE_DISTINCT = 0.01
 PROFILE_ROWS = 0.05
 
 
-def _clean(values) -> list:
-    return [None if isinstance(u, float) and u != u else u for u in values]
-
-
 def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
     """A table by column: ``{"n": rows, "k": {name: column}, "p": profile}`` (columns missing
-    in ``df`` are left out; see :func:`column_json`).
+    in ``df`` are left out; see :meth:`_Column.json`).
 
     Columns with few distinct values (a plant's strings mostly share size, factors, status,
     protection …) are stored together as a *profile*: ``{"k": names, "v": [[values], …],
@@ -122,19 +185,11 @@ def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
     it, fewest distinct values first, while the profiles stay few.
     """
     n = len(df)
-    values: dict[str, list] = {}
-    for name in columns:
-        if name not in df.columns:
-            continue
-        if name in TEXT_COLUMNS:
-            values[name] = _text(df, name).tolist()
-        else:
-            values[name] = _rounded(_num(df, name), DECIMALS.get(name))
+    cols = {name: _Column.of(df, name) for name in columns if name in df.columns}
     codes = {}
-    for name, v in values.items():
-        c, u = pd.factorize(pd.Series(v, dtype=object), use_na_sentinel=False)
-        if name not in _ID_COLUMNS and 1 < len(u) <= max(16, PROFILE_DISTINCT * n):
-            codes[name] = (c, len(u))
+    for name, c in cols.items():
+        if name not in _ID_COLUMNS and 1 < len(c.distinct) <= max(16, PROFILE_DISTINCT * n):
+            codes[name] = (c.codes, len(c.distinct))
     profile: list[str] = []
     key = np.zeros(n, dtype=np.int64)
     for name in sorted(codes, key=lambda k: codes[k][1]):
@@ -145,42 +200,43 @@ def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
             continue
         key = np.unique(trial, return_inverse=True)[1].reshape(-1)
         profile.append(name)
-    parts = [
-        f"{json.dumps(name)}:{column_json(v)}" for name, v in values.items() if name not in profile
-    ]
+    parts = [f"{json.dumps(name)}:{c.json()}" for name, c in cols.items() if name not in profile]
     text = f'{{"n":{n},"k":{{' + ",".join(parts) + "}"
     if len(profile) > 1:
         _, first, inverse = np.unique(key, return_index=True, return_inverse=True)
-        table = [[values[name][i] for name in profile] for i in first.tolist()]
+        table = zip(*(cols[name].tokens[first].tolist() for name in profile), strict=True)
         body = (
             '{"k":'
             + _list_json(profile)
             + ',"v":['
-            + ",".join(_list_json(_clean(r)) for r in table)
+            + ",".join("[" + ",".join(r) + "]" for r in table)
             + "]}"
         )
-        index = ",".join(inverse.reshape(-1).astype(str).tolist())
-        text += ',"p":' + body[:-1] + ',"i":[' + index + "]}"
+        text += ',"p":' + body[:-1] + ',"i":' + _ints(inverse.reshape(-1)) + "}"
     elif profile:  # one column only: as a column of its own
         name = profile[0]
-        text = (
-            text[:-1] + ("," if parts else "") + f"{json.dumps(name)}:{column_json(values[name])}}}"
-        )
+        text = text[:-1] + ("," if parts else "") + f"{json.dumps(name)}:{cols[name].json()}}}"
     return text + "}"
 
 
 def _positions(lists: pd.Series, ids: np.ndarray) -> tuple[list, list]:
     """Per item of ``lists`` (';'-separated ids), the positions of its ids in ``ids``, in
     their order: counts per item and the flat list; ids not in ``ids`` are skipped."""
-    split = lists.str.split(";")
-    flat = split.explode()
-    position = pd.Series(np.arange(len(ids)), index=pd.Index(ids, dtype=object))
-    position = position[~position.index.duplicated()]
-    pos = position.reindex(flat.to_numpy(dtype=object)).to_numpy()
-    known = ~np.isnan(pos)
-    owner = np.repeat(np.arange(len(split)), split.str.len().to_numpy())
-    counts = np.bincount(owner[known], minlength=len(split))
-    return counts.tolist(), pos[known].astype(np.int64).tolist()
+    texts = lists.tolist()
+    if not texts:
+        return [], []
+    flat = np.array(";".join(texts).split(";"), dtype=object)  # every item's ids, in turn
+    per_item = np.fromiter(map(str.count, texts, itertools.repeat(";")), np.int64, len(texts)) + 1
+    index = pd.Index(np.asarray(ids, dtype=object))
+    first = np.arange(len(index))
+    if not index.is_unique:  # an id twice: its first position
+        keep = ~index.duplicated()
+        index, first = index[keep], first[keep]
+    found = index.get_indexer(flat)
+    known = found >= 0
+    owner = np.repeat(np.arange(len(texts)), per_item)
+    counts = np.bincount(owner[known], minlength=len(texts))
+    return counts.tolist(), first[found[known]].tolist()
 
 
 def segment_circuits(segments: pd.DataFrame, circuit_ids: np.ndarray) -> tuple[list, list]:
@@ -234,10 +290,6 @@ def review_json(
         f'"dec":{json.dumps(dec, sort_keys=True, separators=(",", ":"))}',
     ]
     return script_safe("{" + ",".join(parts) + "}")
-
-
-def _ints(values: list) -> str:
-    return "[" + ",".join(map(str, values)) + "]"
 
 
 def review_data_html(text: str) -> str:

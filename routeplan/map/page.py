@@ -41,6 +41,7 @@ optional online basemap. Every string shown is escaped
 
 from __future__ import annotations
 
+import hashlib
 import json
 from pathlib import Path
 
@@ -178,6 +179,13 @@ def review_constants() -> dict:
     }
 
 
+def _element_id(spec: dict, element: str) -> str:
+    """The name of one of the page's folium elements (32 hex digits, as folium's random ones):
+    from the page's spec, so the same page always has the same bytes."""
+    text = json.dumps([element, spec], sort_keys=True, default=str)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:32]
+
+
 def page_parts(spec: dict) -> list[str]:
     """The page around the layers (folium), cut at the slots: [before the panel, between the
     panel and the layers' scripts, between them and the plant view's script, after it].
@@ -196,6 +204,9 @@ def page_parts(spec: dict) -> list[str]:
         zoom_control=True,
         prefer_canvas=spec["canvas"],
     )
+    # a name of the page's own, not folium's random one: a page made again from the same spec
+    # (a cold run, or the memo's copy) has the same bytes
+    m._id = _element_id(spec, "map")
     # never the module-level lists (add_js_link/add_css_link mutate them for every map)
     m.default_js = []
     m.default_css = []
@@ -225,7 +236,9 @@ def page_parts(spec: dict) -> list[str]:
             raise RuntimeError(f"folium named a group {group.get_name()!r}: not {group_var(key)}")
         group.add_to(m)
     ScriptSlot(_LAYERS_SLOT).add_to(m)
-    folium.LayerControl(collapsed=False, position="topright").add_to(m)
+    control = folium.LayerControl(collapsed=False, position="topright")
+    control._id = _element_id(spec, "layer_control")
+    control.add_to(m)
     root.html.add_child(RawHTML(_PANEL_SLOT), name="rp_panel")
     MetricScale().add_to(m)
     ScriptSlot(_PLANT_SLOT).add_to(m)
@@ -391,6 +404,9 @@ def render_map(
     drawn = 0
     # plant view (routeplan.map.plantview): above a size, the detail groups start unmade
     lod = _plant_scale(frames, ok, kinds, aggregated)
+    # whether the detail groups are made near the view: a tile's key holds this flag, never
+    # the count (one feature more would change every lazy tile's key)
+    lazy = lod > 0
     bounds = _bounds([frames[k][ok[k]] for k in frames])
     box = None  # [west, south, east, north] of the site, for the tiles' squares
     if lod and bounds is not None:
@@ -411,7 +427,7 @@ def render_map(
     s, n = memo.group(
         "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
         _parts(row_ids, row_h, _cells(rows.iloc[row_pos], box)), draw_rows,
-        lazy=not show_rows or lod,
+        lazy=not show_rows or lazy,
     )  # fmt: skip
     scripts += s
     n_rows = n["ok"]
@@ -426,7 +442,7 @@ def render_map(
     s, n = memo.group(
         "segments", (reference, wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
         _parts(text_values(seg, "segment_id"), seg_h, _cells(seg, box)),
-        lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lod,
+        lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lazy,
     )  # fmt: skip
     if n["ok"] + n["over"]:
         groups.append(("segments", LAYER_NAMES["segments"], True))
@@ -457,7 +473,7 @@ def render_map(
         s, n = memo.group(
             kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
             _parts(keys, h["circuits"][pos], _cells(sub, box) if kind in DETAIL_GROUPS else None),
-            draw_circuits, lazy=lod and kind in DETAIL_GROUPS,
+            draw_circuits, lazy=lazy and kind in DETAIL_GROUPS,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
             groups.append((kind, LAYER_NAMES[label], True))
@@ -477,7 +493,7 @@ def render_map(
 
     s, n = memo.group(
         "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
-        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lod,
+        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lazy,
     )  # fmt: skip
     scripts += s
     drawn += n["ok"]
@@ -493,7 +509,9 @@ def render_map(
     not_drawn = sum(int((~m).sum()) for m in ok.values())
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
-    plant = plant_view(circuits, rows, n_features=lod, groups=groups, bounds=bounds)
+    plant = plant_view(
+        circuits, rows, n_features=lod, groups=groups, bounds=bounds, areas=memo.geometries
+    )
     if plant.note():
         totals.extra.append(plant.note())
     if plant.blocks:  # under the others; shown at plant zoom

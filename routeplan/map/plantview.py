@@ -41,8 +41,11 @@ ids read back from the other layers (escaped there with
 
 from __future__ import annotations
 
+import hashlib
+import itertools
 import json
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import geopandas as gpd
@@ -129,8 +132,16 @@ def _metric(gdf: gpd.GeoDataFrame) -> gpd.GeoDataFrame:
     return gdf.to_crs(gdf.estimate_utm_crs())
 
 
+#: ``areas(keys, make)``: a block area for each key, the last run's where it has the key,
+#: else ``make(positions in keys)`` (:meth:`routeplan.map.tiles.MapMemo.geometries`)
+Areas = Callable[[list[str], Callable[[np.ndarray], np.ndarray]], np.ndarray]
+
+
 def block_table(
-    circuits: gpd.GeoDataFrame, rows: gpd.GeoDataFrame | None = None
+    circuits: gpd.GeoDataFrame,
+    rows: gpd.GeoDataFrame | None = None,
+    *,
+    areas: Areas | None = None,
 ) -> gpd.GeoDataFrame:
     """One row per block: its area and values, in the circuits' CRS.
 
@@ -142,6 +153,10 @@ def block_table(
 
     Columns: ``block`` (id), ``circuits``, ``failing`` (count of status "fail"),
     ``worst_utilisation`` [–], ``worst_vdrop_total_pct`` [%], ``geometry``.
+
+    With ``areas`` (the memo of the last map), a block whose outline points are exactly
+    those of the last run keeps its area; only the others are drawn (each area depends on its
+    own points alone).
     """
     crs = circuits.crs
     cols = ["block", "circuits", "failing", "worst_utilisation", "worst_vdrop_total_pct"]
@@ -182,12 +197,30 @@ def block_table(
     grid = np.clip(grid, 0, (1 << 21) - 1)
     key = (codes.astype(np.int64) << 42) | (grid[:, 0] << 21) | grid[:, 1]
     _, sel = np.unique(key, return_index=True)  # sorted by key: by block
-    multi = shapely.multipoints(pts[sel], indices=codes[sel])
-    hull = shapely.concave_hull(multi, ratio=HULL_RATIO)
-    area = shapely.simplify(shapely.buffer(hull, BLOCK_BUFFER_M, quad_segs=4), BLOCK_SIMPLIFY_M)
-    area = gpd.GeoSeries(area, crs=metric.crs)
-    if crs is not None and not metric.crs.equals(crs):
-        area = area.to_crs(crs)
+    pts, codes = pts[sel], codes[sel]
+    ends = np.searchsorted(codes, np.arange(len(names) + 1))
+
+    def make(which: np.ndarray) -> np.ndarray:
+        """The areas of the blocks ``which`` (codes), in ``crs``."""
+        take = np.isin(codes, which)
+        multi = shapely.multipoints(pts[take], indices=np.searchsorted(which, codes[take]))
+        hull = shapely.concave_hull(multi, ratio=HULL_RATIO)
+        area = shapely.buffer(hull, BLOCK_BUFFER_M, quad_segs=4)
+        area = gpd.GeoSeries(shapely.simplify(area, BLOCK_SIMPLIFY_M), crs=metric.crs)
+        if crs is not None and not metric.crs.equals(crs):
+            area = area.to_crs(crs)
+        return area.to_numpy()
+
+    if areas is None:
+        area = make(np.arange(len(names)))
+    else:  # a block's area by the digest of its points, the CRSs and the drawing's values
+        wkt = [c.to_wkt() if c is not None else None for c in (metric.crs, crs)]
+        frame = repr((HULL_RATIO, BLOCK_BUFFER_M, BLOCK_SIMPLIFY_M, *wkt)).encode()
+        keys = [
+            hashlib.blake2b(frame + pts[a:b].tobytes(), digest_size=16).hexdigest()
+            for a, b in itertools.pairwise(ends.tolist())
+        ]
+        area = areas(keys, make)
 
     df = circuits[ok]
     util = pd.to_numeric(df.get("utilisation"), errors="coerce")
@@ -212,7 +245,7 @@ def block_table(
             "worst_utilisation": stats["util"].max().to_numpy(dtype=float),
             "worst_vdrop_total_pct": stats["drop"].max().to_numpy(dtype=float),
         },
-        geometry=area.to_numpy(),
+        geometry=area,
         crs=crs,
     )
 
@@ -231,19 +264,25 @@ def block_data(blocks: gpd.GeoDataFrame) -> list[dict]:
     label = _round_coords(shapely.point_on_surface(g))
     colour = UTILISATION.colours(blocks["worst_utilisation"].to_numpy(dtype=float))
     fail = blocks["failing"].to_numpy() > 0
+    columns = zip(
+        blocks["block"].tolist(),
+        blocks["circuits"].to_numpy().tolist(),
+        blocks["failing"].to_numpy().tolist(),
+        blocks["worst_utilisation"].to_numpy(dtype=float).tolist(),
+        blocks["worst_vdrop_total_pct"].to_numpy(dtype=float).tolist(),
+        shapely.to_geojson(g).tolist(),
+        shapely.get_coordinates(label).tolist(),
+        strict=True,
+    )
     out = []
-    for i, (gj, p) in enumerate(
-        zip(shapely.to_geojson(g).tolist(), shapely.get_coordinates(label).tolist(), strict=True)
-    ):
-        u = float(blocks["worst_utilisation"].iat[i])
-        d = float(blocks["worst_vdrop_total_pct"].iat[i])
+    for i, (block, n, failing, u, d, gj, p) in enumerate(columns):
         out.append(
             {
-                "id": str(blocks["block"].iat[i]),
+                "id": str(block),
                 "g": json.loads(gj),
                 "at": [p[1], p[0]],
-                "n": int(blocks["circuits"].iat[i]),
-                "fail": int(blocks["failing"].iat[i]),
+                "n": int(n),
+                "fail": int(failing),
                 "util": None if math.isnan(u) else round(u, 4),
                 "drop": None if math.isnan(d) else round(d, 3),
                 "fill": PROBLEM_COLOUR if fail[i] else str(colour[i]),
@@ -296,6 +335,7 @@ def plant_view(
     n_features: int,
     groups: list[tuple[str, str, bool]],
     bounds: list[list[float]] | None,
+    areas: Areas | None = None,
 ) -> PlantView:
     """The plant view of a map of ``n_features`` drawn features (see the module docstring).
 
@@ -304,7 +344,7 @@ def plant_view(
     fits the site beside the panels and labels ids.
     """
     delta = detail_delta(n_features)
-    blocks = block_table(circuits, rows) if delta is not None else None
+    blocks = block_table(circuits, rows, areas=areas) if delta is not None else None
     data = block_data(blocks) if blocks is not None else []
     spec = {
         "delta": delta,

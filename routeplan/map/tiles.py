@@ -12,7 +12,14 @@ circuits and over-capacity segments of every tile come after all passing ones.
 
 The page around the layers (folium's map, groups, layer control, scale, the inlined Leaflet)
 depends only on a few values (title, basemap, canvas, view, groups): the memo keeps it too, so
-a re-plan that does not change those does not even import folium.
+a re-plan that does not change those does not even import folium. Its folium elements are
+named from those values (not at random), so a page made with the memo is byte for byte the
+page a run without it makes. The plant view's block areas are kept as WKB under a digest of
+each block's outline points (:meth:`MapMemo.geometries`): an edit redraws its blocks' areas
+only.
+
+A tile's key holds flags and plant-wide values, never a count of the plant's features: one
+feature more (a trench split by a moved pad) must leave the other tiles' keys as they were.
 """
 
 from __future__ import annotations
@@ -23,6 +30,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
+import shapely
 
 from routeplan.map.features import Layer
 from routeplan.map.script import layer_script
@@ -85,6 +93,28 @@ def tile_key(kind: str, params: object, hashes: np.ndarray) -> str:
     return hashes_key(repr((kind, params)), hashes)
 
 
+def _blobs(items: dict[str, bytes]) -> dict:
+    """``items`` as arrays for the plan cache (no pickle)."""
+    keys = list(items)
+    return {
+        "keys": keys,
+        "data": np.frombuffer(b"".join(items[k] for k in keys), dtype=np.uint8),
+        "length": np.array([len(items[k]) for k in keys], dtype=np.int64),
+    }
+
+
+def _load_blobs(stored: object) -> dict[str, bytes]:
+    """:func:`_blobs`' value back (None: an empty dict; raises ValueError when damaged)."""
+    if stored is None:
+        return {}
+    data = np.asarray(stored["data"], dtype=np.uint8).tobytes()  # type: ignore[index]
+    ends = np.cumsum(np.asarray(stored["length"], dtype=np.int64)).tolist()  # type: ignore[index]
+    keys = [str(k) for k in stored["keys"]]  # type: ignore[index]
+    if len(keys) != len(ends) or (ends and ends[-1] != len(data)):
+        raise ValueError("damaged")
+    return {k: data[a:b] for k, a, b in zip(keys, [0, *ends][: len(ends)], ends, strict=True)}
+
+
 @dataclass(frozen=True)
 class Role:
     """One layer of each tile of a group: its part of the tile's layers, CSS classes and
@@ -97,13 +127,17 @@ class Role:
 
 @dataclass
 class MapMemo:
-    """Scripts of tiles and the page around them, by key: those of the last run (``last``)
-    and those used in this one (:meth:`export` gives them to the plan cache)."""
+    """Scripts of tiles, the page around them and the plant view's block areas, by key: those
+    of the last run (``last``) and those used in this one (:meth:`export` gives them to the
+    plan cache)."""
 
     last_scripts: dict[str, tuple[str, int]] = field(default_factory=dict)
     last_pages: dict[str, list[str]] = field(default_factory=dict)
+    #: geometries by key, as WKB (the plant view's block areas: :meth:`geometries`)
+    last_shapes: dict[str, bytes] = field(default_factory=dict)
     scripts: dict[str, tuple[str, int]] = field(default_factory=dict)
     pages: dict[str, list[str]] = field(default_factory=dict)
+    shapes: dict[str, bytes] = field(default_factory=dict)
     drawn_tiles: int = 0
     reused_tiles: int = 0
 
@@ -114,7 +148,7 @@ class MapMemo:
             s = stored["scripts"]  # type: ignore[index]
             text = np.asarray(s["text"], dtype=np.uint8).tobytes().decode("utf-8")
             ends = np.cumsum(np.asarray(s["length"], dtype=np.int64)).tolist()
-            starts = [0, *ends[:-1]]
+            starts = [0, *ends][: len(ends)]
             counts = np.asarray(s["count"], dtype=np.int64).tolist()
             keys = list(s["keys"])
             if not (len(keys) == len(ends) == len(counts)):
@@ -126,9 +160,10 @@ class MapMemo:
                 str(k): [str(p) for p in parts]
                 for k, parts in dict(stored["pages"]).items()  # type: ignore[index]
             }
-        except (KeyError, TypeError, ValueError, UnicodeDecodeError):
+            shapes = _load_blobs(stored.get("shapes"))  # type: ignore[union-attr]
+        except (KeyError, TypeError, ValueError, UnicodeDecodeError, AttributeError):
             return cls()
-        return cls(last_scripts=scripts, last_pages=pages)
+        return cls(last_scripts=scripts, last_pages=pages, last_shapes=shapes)
 
     def export(self) -> dict:
         """What this run used, for the next one (arrays, no pickle: :mod:`routeplan.cache`)."""
@@ -142,7 +177,24 @@ class MapMemo:
                 "count": np.array([self.scripts[k][1] for k in keys], dtype=np.int64),
             },
             "pages": dict(self.pages),
+            "shapes": _blobs(self.shapes),
         }
+
+    def geometries(self, keys: list[str], make: Callable[[np.ndarray], np.ndarray]) -> np.ndarray:
+        """A geometry for each of ``keys``: the last run's where it had the key, else made by
+        ``make(positions)`` (positions in ``keys``, ascending; one call for all of them)."""
+        out = np.empty(len(keys), dtype=object)
+        known = [i for i, k in enumerate(keys) if k in self.last_shapes]
+        missing = sorted(set(range(len(keys))) - set(known))
+        if known:
+            wkb = [self.last_shapes[keys[i]] for i in known]
+            out[known] = shapely.from_wkb(wkb)
+            self.shapes.update(zip((keys[i] for i in known), wkb, strict=True))
+        if missing:
+            made = make(np.array(missing, dtype=np.int64))
+            out[missing] = made
+            self.shapes.update(zip((keys[i] for i in missing), shapely.to_wkb(made), strict=True))
+        return out
 
     def page(self, key: str, make: Callable[[], list[str]]) -> list[str]:
         """The page around the layers for ``key``, made when the last run had none."""
@@ -167,6 +219,7 @@ class MapMemo:
         and hashes, in ``parts``), ``draw(positions)`` gives its layers by part. Returns the
         scripts in drawing order (each role over every tile in turn) and the number of features
         of each part."""
+        lazy = bool(lazy)  # a flag in the key: a truthy count would make every key new
         per_role: list[list[str]] = [[] for _ in roles]
         counts = {r.part: 0 for r in roles}
         seen: set[str] = set()

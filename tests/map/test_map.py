@@ -677,6 +677,53 @@ def test_an_edit_draws_only_its_tiles_and_the_page_matches_a_fresh_one():
     assert MapMemo.load(None).last_pages == {}
 
 
+def _moved_pad(frames: dict) -> dict:
+    """``frames`` after an inverter pad moved 8 m: the inverter's point, its AC circuit's first
+    vertex and the drop segment of one of its blocks (split in two, so the plant holds one
+    trench segment more) change; the rest is as it was."""
+    eq = frames["equipment"].copy()
+    i = int(np.flatnonzero(eq["id"].to_numpy() == "INV3")[0])
+    geoms = eq.geometry.to_numpy().copy()
+    geoms[i] = shapely.affinity.translate(geoms[i], yoff=8.0)
+    eq = eq.set_geometry(geoms, crs=eq.crs)
+    c = frames["circuits"].copy()
+    j = int(np.flatnonzero(c["circuit_id"].to_numpy() == "AC:INV3")[0])
+    cg = c.geometry.to_numpy().copy()
+    cg[j] = shapely.linestrings([geoms[i].coords[0], cg[j].coords[-1]])
+    c = c.set_geometry(cg, crs=c.crs)
+    c.loc[c.index[j], "route_m"] = float(shapely.length(cg[j]))
+    c.loc[c.index[j], "utilisation"] = 0.93
+    s = frames["segments"]
+    k = int(np.flatnonzero(s["segment_id"].to_numpy() == "T81#9")[0])
+    line = s.geometry.iloc[k]
+    halves = [shapely.ops.substring(line, 0, 5.0), shapely.ops.substring(line, 5.0, line.length)]
+    split = s.iloc[[k, k]].copy()
+    split["segment_id"] = ["T81#9", "T81#9b"]
+    split["length_m"] = shapely.length(np.array(halves))
+    split = split.set_geometry(np.array(halves), crs=s.crs)
+    seg = pd.concat([s.iloc[:k], split, s.iloc[k + 1 :]], ignore_index=True)
+    return {"circuits": c, "segments": seg, "rows": frames["rows"], "equipment": eq}
+
+
+def test_a_pad_move_redraws_its_tiles_only_and_the_page_equals_a_cold_one():
+    """One trench segment more (as when a moved pad splits the trench it taps) changes the
+    number of drawn features; no tile outside the edit is drawn again for it, and the page
+    is the one a render without memo gives, byte for byte (folium's element names included)."""
+    import shapely.ops  # noqa: F401  (substring)
+
+    from routeplan.map.tiles import MapMemo
+
+    frames, site = synthetic_frames(n_blocks=600)
+    first = MapMemo()
+    render(frames, site, aggregate_strings_above=1000, memo=first)
+    edited = _moved_pad(frames)
+    memo = MapMemo.load(first.export())
+    html = render(edited, site, aggregate_strings_above=1000, memo=memo)
+    # the segments' tile of the split segment, the equipment tile of the pad, the AC tile
+    assert memo.drawn_tiles <= 3 and memo.reused_tiles > 3 * memo.drawn_tiles
+    assert html == render(edited, site, aggregate_strings_above=1000)  # byte for byte
+
+
 # --------------------------------------------------------------------------------------------
 # review data (routeplan.map.details)
 
@@ -719,6 +766,31 @@ def test_review_data_numbers_have_the_schedules_digits():
     assert _review_column(data, "route_m") == [12.34, 7.0, None]
     assert _review_column(data, "utilisation") == [0.988, 1.0, 0.5]
     assert _review_column(data, "parallel") == [1, 2, 4]
+
+
+def test_review_data_writes_each_value_as_the_json_module_does():
+    """The review data's columns are built from each distinct value's JSON text: joined, they
+    are the text json.dumps gives for the whole list (Python's json module, the reference),
+    with ``$ ` { }`` as \\u escapes; -0.0 stays -0.0, a text needing escapes is escaped."""
+    values = ["plain", 'q"uote', "back\\slash", "new\nline", "\x01", "${x}", "`t`", "é\u2028",
+              "<b>&", "", None, 0.0, -0.0, 1e20, 12.5, 3, -7]  # fmt: skip
+    expected = json.dumps(values, ensure_ascii=False, separators=(",", ":"), allow_nan=False)
+    for raw, escaped in (("$", "\\u0024"), ("`", "\\u0060"), ("{", "\\u007b"), ("}", "\\u007d")):
+        expected = expected.replace(raw, escaped)
+    assert "[" + ",".join(map_details._tokens(values)) + "]" == expected
+    texts = [v for v in values if isinstance(v, str)]
+    assert "[" + ",".join(map_details._tokens(texts)) + "]" == json.dumps(
+        texts, ensure_ascii=False, separators=(",", ":")
+    ).replace("$", "\\u0024").replace("`", "\\u0060").replace("{", "\\u007b").replace(
+        "}", "\\u007d"
+    )
+    with pytest.raises(ValueError):  # as json.dumps(..., allow_nan=False)
+        map_details._tokens([float("inf")])
+    # a column with 0.0 and -0.0: each row keeps its own value
+    df = pd.DataFrame({"circuit_id": ["a", "b", "c"], "route_m": [0.0, -0.0, np.nan]})
+    data = json.loads(map_details.table_json(df, ("circuit_id", "route_m")))
+    column = _review_column(data, "route_m")
+    assert column == [0.0, 0.0, None] and [np.signbit(x) for x in column[:2]] == [False, True]
 
 
 def test_review_data_shows_no_user_text_as_it_is():

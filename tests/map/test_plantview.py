@@ -175,3 +175,35 @@ def test_without_blocks_a_large_map_opens_on_its_details(plan_frames, monkeypatc
     c = c[c["kind"] != "ac"]  # no AC circuit: no inverter to name a block
     html = render_map(c, *(frames[k] for k in ("segments", "rows", "equipment")), site_name=site)
     assert "feature_group_blocks" not in html and "rpLazy(feature_group_string" not in html
+
+
+@pytest.mark.parametrize("crs", [None, "EPSG:4326"])
+def test_a_memo_of_the_last_areas_draws_only_the_changed_block(synthetic, crs):
+    """Block areas kept from the last map (routeplan.map.tiles.MapMemo) are those a fresh
+    drawing gives, bit for bit; a moved string redraws its block's area only."""
+    from routeplan.map.tiles import MapMemo
+
+    c, rows = synthetic["circuits"], synthetic["rows"]
+    if crs is not None:  # drawn in a metric CRS, given back in the frames' own
+        c, rows = c.to_crs(crs), rows.to_crs(crs)
+    first = MapMemo()
+    block_table(c, rows, areas=first.geometries)
+    moved = c.copy()
+    i = int(np.flatnonzero(circuit_kind(c) == "string")[5])
+    g = moved.geometry.to_numpy().copy()
+    g[i] = shapely.affinity.translate(g[i], yoff=6.0 if crs is None else 6e-5)
+    moved = moved.set_geometry(g, crs=c.crs)
+    memo = MapMemo.load(first.export())
+    made = []
+
+    def areas(keys, make):
+        return memo.geometries(keys, lambda which: made.append(which.tolist()) or make(which))
+
+    kept = block_table(moved, rows, areas=areas)
+    fresh = block_table(moved, rows)
+    assert len(made) == 1 and len(made[0]) == 1  # one call, one block
+    assert kept["block"].iloc[made[0][0]] == block_of(moved)[i]
+    assert shapely.to_wkb(kept.geometry.to_numpy()).tolist() == (
+        shapely.to_wkb(fresh.geometry.to_numpy()).tolist()
+    )
+    assert set(memo.export()["shapes"]["keys"]) - set(first.shapes) != set()  # the new area
