@@ -158,14 +158,15 @@ def test_a_short_crowded_stretch_in_free_air_gives_way_to_the_next_stretch():
     # 75 °C column for the terminations, 110.14(C)(1); the rule set's terminal column in free air
     # is corrected to Table 310.16 on another branch, so its value is not checked here).
     # Circuit 0 has no other stretch: no exception, 10 AWG 55 × 0.91 × 0.35 = 17.52 A.
+    # (Stretch 2: one circuit routing counted, not given here.)
     inp = _strings(
         [100.0, 100.0],
         air_m=100.0,
-        air_count=np.array([21.0, 4.0]),
-        air_behind_modules=np.array([True, False]),
+        air_count=np.array([21.0, 4.0, 1.0]),
+        air_behind_modules=np.array([True, False, False]),
         air_inc_circuit=np.array([0, 1, 1]),
         air_inc_stretch=np.array([0, 0, 1]),
-        air_length_m=np.array([2.0, 40.0]),
+        air_length_m=np.array([2.0, 40.0, 10.0]),
     )
     d = _nec(row_air_temp_c=40.0)
     r = size_circuits(inp, d, "nec")
@@ -177,7 +178,7 @@ def test_a_short_crowded_stretch_in_free_air_gives_way_to_the_next_stretch():
     assert r.factor_temp.tolist() == [0.91, 1.0]
     assert r.ampacity_a == pytest.approx([55 * 0.91 * 0.35, 28.0]) and r.ok.all()
     # stretch 0 4 m long (over 10 ft) is not short: it governs circuit 1 too, 10 AWG 17.52 A
-    inp.air_length_m = np.array([4.0, 40.0])
+    inp.air_length_m = np.array([4.0, 40.0, 10.0])
     r = size_circuits(inp, d, "nec")
     assert size_label(r.size_mm2[1]) == "10 AWG" and r.governing_air[1] == 0
     assert r.factor_group[1] == 0.35 and r.group_count[1] == 42 and r.factor_temp[1] == 0.91
