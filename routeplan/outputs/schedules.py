@@ -181,8 +181,9 @@ class Schedule:
         return self._rendered[chunk]
 
     def csv_header(self) -> bytes:
-        """The CSV header line with its line end."""
-        return format_table(self.data.iloc[:0], self.cols).csv_header() + b"\n"
+        """The CSV header line with its line end: the column names, as
+        :meth:`routeplan.outputs.tables.TextTable.csv_header` writes them."""
+        return b",".join(str(c).encode("utf-8") for c in self.data.columns) + b"\n"
 
 
 @dataclass
