@@ -181,7 +181,8 @@ def _update_layer(
     blobs = encode_geometries(lay.geometry[rows], int(geom[1]))
     if blobs is None:
         return None
-    values = [_bind(lay.data.iloc[:, j].to_numpy()[rows], k) for j, k in enumerate(kinds)]
+    sub = lay.data.iloc[rows]  # only the rows written
+    values = [_bind(sub.iloc[:, j].to_numpy(), k) for j, k in enumerate(kinds)]
     records = list(zip(blobs, *values, fids[rows].tolist(), strict=True))
     quoted = [f'"{c}"' for c in names[1:]]
     k = len(changed)

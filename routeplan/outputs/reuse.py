@@ -45,6 +45,18 @@ def _mix(x: np.ndarray) -> np.ndarray:
     return x ^ (x >> np.uint64(31))
 
 
+def _mix_into(x: np.ndarray, tmp: np.ndarray) -> None:
+    """:func:`_mix` of ``x`` in place (``tmp``: scratch of the same shape and dtype)."""
+    np.right_shift(x, np.uint64(30), out=tmp)
+    x ^= tmp
+    x *= np.uint64(0xBF58476D1CE4E5B9)
+    np.right_shift(x, np.uint64(27), out=tmp)
+    x ^= tmp
+    x *= np.uint64(0x94D049BB133111EB)
+    np.right_shift(x, np.uint64(31), out=tmp)
+    x ^= tmp
+
+
 def geometry_hashes(geometry: np.ndarray) -> np.ndarray:
     """A uint64 content hash per geometry (``None`` allowed): of the type and the exact
     coordinates, in order, for points and line strings (vectorised); of the WKB for others."""
@@ -87,8 +99,12 @@ def combine_hashes(
     in column order) for ``n`` rows: a table's hashes and those of some of its columns (a
     layer's key) share the work of hashing each column."""
     h = np.zeros(n, dtype=np.uint64)
-    for j, c in enumerate(columns):
-        h = _mix(h * _GOLDEN ^ c ^ np.uint64(j))
+    t = np.empty(n, dtype=np.uint64)
+    for j, c in enumerate(columns):  # h = _mix(h * _GOLDEN ^ c ^ j), in place
+        h *= _GOLDEN
+        h ^= c
+        h ^= np.uint64(j)
+        _mix_into(h, t)
     if geometry is not None:
         h = _mix(h * _GOLDEN ^ geometry_hashes(geometry))
     return h
