@@ -34,7 +34,7 @@ import pandas as pd
 import shapely
 
 from .columns import Col
-from .reuse import layout, row_hashes
+from .reuse import column_hashes, combine_hashes, layout
 from .tables import ordered
 
 #: declared SQLite column types → how a value is bound
@@ -66,10 +66,11 @@ class GpkgLayer:
         data = data.reset_index(drop=True)
         geometry = np.asarray(frame.geometry.values, dtype=object)
         crs = frame.crs.to_wkt() if frame.crs is not None else None
-        keys = row_hashes(data[list(key)])
-        return cls(
-            data, geometry, frame.crs, row_hashes(data, geometry), layout(data, crs, key), keys
-        )
+        columns = [column_hashes(data.iloc[:, j]) for j in range(data.shape[1])]
+        hashes = combine_hashes(columns, len(data), geometry)
+        # the key's hashes are row_hashes(data[key]), from the columns hashed already
+        keys = combine_hashes([columns[data.columns.get_loc(k)] for k in key], len(data))
+        return cls(data, geometry, frame.crs, hashes, layout(data, crs, key), keys)
 
 
 def write_gpkg(layers: dict[str, GpkgLayer], path: Path) -> dict:
@@ -147,7 +148,8 @@ def _update_layer(
     old_fids = np.asarray(last["fids"], dtype=np.int64)
     if not (len(old_keys) == len(old_hashes) == len(old_fids)):
         return None
-    if len(np.unique(old_keys)) != len(old_keys) or len(np.unique(lay.keys)) != len(lay.keys):
+    old_index, new_index = pd.Index(old_keys), pd.Index(lay.keys)
+    if not (old_index.is_unique and new_index.is_unique):
         return None  # keys that do not name one feature each
     columns = [(r[1], str(r[2]).upper()) for r in con.execute(f'PRAGMA table_info("{name}")')]
     geom = con.execute(
@@ -165,11 +167,13 @@ def _update_layer(
     kinds = [_kind(t) for _, t in columns[2:]]
     if None in kinds:
         return None
-    at = pd.Index(old_keys).get_indexer(lay.keys)  # the old row of each new row, or -1
+    at = old_index.get_indexer(new_index)  # the old row of each new row, or -1
     kept = at >= 0
     changed = np.flatnonzero(kept & (old_hashes[np.maximum(at, 0)] != lay.hashes))
     added = np.flatnonzero(~kept)
-    gone = np.setdiff1d(np.arange(len(old_keys)), at[kept])
+    still = np.zeros(len(old_keys), dtype=bool)
+    still[at[kept]] = True
+    gone = np.flatnonzero(~still)  # old rows no new row names (in fid order of the index)
     fids = np.empty(len(lay.keys), dtype=np.int64)
     fids[kept] = old_fids[at[kept]]
     fids[added] = top + 1 + np.arange(len(added))
@@ -177,7 +181,8 @@ def _update_layer(
     blobs = encode_geometries(lay.geometry[rows], int(geom[1]))
     if blobs is None:
         return None
-    values = [_bind(lay.data.iloc[:, j].to_numpy()[rows], k) for j, k in enumerate(kinds)]
+    sub = lay.data.iloc[rows]  # only the rows written
+    values = [_bind(sub.iloc[:, j].to_numpy(), k) for j, k in enumerate(kinds)]
     records = list(zip(blobs, *values, fids[rows].tolist(), strict=True))
     quoted = [f'"{c}"' for c in names[1:]]
     k = len(changed)

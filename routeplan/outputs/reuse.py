@@ -45,6 +45,18 @@ def _mix(x: np.ndarray) -> np.ndarray:
     return x ^ (x >> np.uint64(31))
 
 
+def _mix_into(x: np.ndarray, tmp: np.ndarray) -> None:
+    """:func:`_mix` of ``x`` in place (``tmp``: scratch of the same shape and dtype)."""
+    np.right_shift(x, np.uint64(30), out=tmp)
+    x ^= tmp
+    x *= np.uint64(0xBF58476D1CE4E5B9)
+    np.right_shift(x, np.uint64(27), out=tmp)
+    x ^= tmp
+    x *= np.uint64(0x94D049BB133111EB)
+    np.right_shift(x, np.uint64(31), out=tmp)
+    x ^= tmp
+
+
 def geometry_hashes(geometry: np.ndarray) -> np.ndarray:
     """A uint64 content hash per geometry (``None`` allowed): of the type and the exact
     coordinates, in order, for points and line strings (vectorised); of the WKB for others."""
@@ -76,9 +88,23 @@ def row_hashes(frame: pd.DataFrame, geometry: np.ndarray | None = None) -> np.nd
     """A uint64 content hash per row of ``frame`` (every column, in order) and, when given,
     of its geometry (:func:`geometry_hashes`). Equal rows hash equal; column names and dtypes
     are not part of it (see :func:`layout`)."""
-    h = np.zeros(len(frame), dtype=np.uint64)
-    for j in range(frame.shape[1]):
-        h = _mix(h * _GOLDEN ^ column_hashes(frame.iloc[:, j]) ^ np.uint64(j))
+    columns = [column_hashes(frame.iloc[:, j]) for j in range(frame.shape[1])]
+    return combine_hashes(columns, len(frame), geometry)
+
+
+def combine_hashes(
+    columns: list[np.ndarray], n: int, geometry: np.ndarray | None = None
+) -> np.ndarray:
+    """The row hashes of :func:`row_hashes` from its columns' hashes (:func:`column_hashes`,
+    in column order) for ``n`` rows: a table's hashes and those of some of its columns (a
+    layer's key) share the work of hashing each column."""
+    h = np.zeros(n, dtype=np.uint64)
+    t = np.empty(n, dtype=np.uint64)
+    for j, c in enumerate(columns):  # h = _mix(h * _GOLDEN ^ c ^ j), in place
+        h *= _GOLDEN
+        h ^= c
+        h ^= np.uint64(j)
+        _mix_into(h, t)
     if geometry is not None:
         h = _mix(h * _GOLDEN ^ geometry_hashes(geometry))
     return h
@@ -94,18 +120,28 @@ def column_hashes(column: pd.Series) -> np.ndarray:
     values = column.to_numpy()
     if values.dtype.kind in "biuf":
         return pd.util.hash_array(values)
-    missing = column.isna().to_numpy()
     if isinstance(column.dtype, pd.StringDtype):  # text only
-        text = column.to_numpy(dtype=object, na_value="")
-    else:
-        values = np.asarray(values, dtype=object)
-        present = values[~missing]
-        if len(present) and pd.api.types.infer_dtype(present, skipna=False) != "string":
-            present = np.array([f"{type(v).__name__}:{v!r}" for v in present], dtype=object)
-        text = np.full(len(values), "", dtype=object)
-        text[~missing] = present
+        return _text_hashes(column.to_numpy(dtype=object))
+    missing = column.isna().to_numpy()
+    values = np.asarray(values, dtype=object)
+    present = values[~missing]
+    if not len(present) or pd.api.types.infer_dtype(present, skipna=False) == "string":
+        return _text_hashes(np.where(missing, None, values))
+    present = np.array([f"{type(v).__name__}:{v!r}" for v in present], dtype=object)
+    text = np.full(len(values), "", dtype=object)
+    text[~missing] = present
     flag = np.where(missing, _MISSING, np.uint64(0)).astype(np.uint64)
     return pd.util.hash_array(text, categorize=False) ^ flag
+
+
+def _text_hashes(text: np.ndarray) -> np.ndarray:
+    """:func:`column_hashes` of text values (``str``, or missing: None, NaN, ``pd.NA``): each
+    distinct text hashed once. Schedules repeat few texts (kinds, materials, statuses)."""
+    codes, uniques = pd.factorize(text)  # missing → -1
+    table = np.empty(len(uniques) + 1, dtype=np.uint64)
+    table[:-1] = pd.util.hash_array(np.asarray(uniques, dtype=object), categorize=False)
+    table[-1] = pd.util.hash_array(np.array([""], dtype=object), categorize=False)[0] ^ _MISSING
+    return table[codes]
 
 
 def layout(frame: pd.DataFrame, *extra: object) -> str:

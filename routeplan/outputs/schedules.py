@@ -16,6 +16,7 @@ cannot carry replaced (:func:`routeplan.outputs.xlsx.xml_text`).
 
 from __future__ import annotations
 
+import hashlib
 import re
 from collections.abc import Iterable
 from dataclasses import dataclass, field
@@ -181,8 +182,9 @@ class Schedule:
         return self._rendered[chunk]
 
     def csv_header(self) -> bytes:
-        """The CSV header line with its line end."""
-        return format_table(self.data.iloc[:0], self.cols).csv_header() + b"\n"
+        """The CSV header line with its line end: the column names, as
+        :meth:`routeplan.outputs.tables.TextTable.csv_header` writes them."""
+        return b",".join(str(c).encode("utf-8") for c in self.data.columns) + b"\n"
 
 
 @dataclass
@@ -208,9 +210,17 @@ class Previous:
         a = int(e["offset"][i])
         return self.data[a : a + int(e["length"][i])]
 
+    def view(self, name: str, i: int) -> memoryview:
+        """:meth:`piece` without copying its bytes."""
+        e = self.index[name]
+        a = int(e["offset"][i])
+        return memoryview(self.data)[a : a + int(e["length"][i])]
+
 
 def write_csv(schedule: Schedule, path: Path, previous: Previous) -> tuple[dict, int]:
-    """Write ``schedule`` as a CSV file. Returns its index and the number of chunks copied."""
+    """Write ``schedule`` as a CSV file. Returns its index (with the file's SHA-256 under
+    ``"sha256"``, taken from the bytes as they are written) and the number of chunks copied.
+    Copied chunks are written from the last file's bytes as they lie (no copy of their own)."""
     old = previous.chunks("csv", schedule)
     fresh = [j for j, k in enumerate(schedule.keys) if k not in old]
     schedule.render(fresh)
@@ -218,19 +228,23 @@ def write_csv(schedule: Schedule, path: Path, previous: Previous) -> tuple[dict,
     parts, offset, length = [header], [], []
     pos = len(header)
     for j, k in enumerate(schedule.keys):
-        text = schedule.rendered(j)[0] if k not in old else previous.piece("csv", old[k])
+        text = schedule.rendered(j)[0] if k not in old else previous.view("csv", old[k])
         parts.append(text)
         offset.append(pos)
         length.append(len(text))
         pos += len(text)
-    Path(path).write_bytes(b"".join(parts))
+    digest = hashlib.sha256()
+    with open(path, "wb") as fh:
+        for part in parts:
+            digest.update(part)
+            fh.write(part)
     index = {
         "layout": schedule.layout,
         "keys": list(schedule.keys),
         "offset": np.asarray(offset, dtype=np.int64),
         "length": np.asarray(length, dtype=np.int64),
     }
-    return {"csv": index}, len(schedule.keys) - len(fresh)
+    return {"csv": index, "sha256": digest.hexdigest()}, len(schedule.keys) - len(fresh)
 
 
 def write_workbook(

@@ -30,6 +30,8 @@ def ordered(frame: pd.DataFrame, cols: tuple[Col, ...]) -> pd.DataFrame:
     if missing:
         raise KeyError(f"output frame lacks columns {missing}")
     rest = [c for c in frame.columns if c not in first and c != "geometry"]
+    if list(frame.columns) == first + rest:
+        return frame  # in order already (a layer's data): no copy
     return frame[first + rest]
 
 

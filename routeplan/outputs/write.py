@@ -13,12 +13,12 @@ from __future__ import annotations
 
 import hashlib
 import json
+import stat
 import time
 from collections.abc import Callable
 from pathlib import Path
 
 import geopandas as gpd
-import numpy as np
 import pandas as pd
 
 from .. import CAUTION, parallel
@@ -31,7 +31,7 @@ from ..cache import (
     input_files,
     link_or_copy,
 )
-from ..folder import OutputFolder, file_sha256
+from ..folder import OutputFolder, Written, file_sha256
 from ..pipeline import Plan
 from ..report.basis import basis_sheets
 from ..report.html import report_html
@@ -63,13 +63,19 @@ CSV_FILES: tuple[str, ...] = (
 )
 
 
-def schedules(plan: Plan, hashes: dict[str, np.ndarray] | None = None) -> dict[str, Schedule]:
-    """The schedules, for the CSVs and the workbook's sheets (by sheet name); ``hashes`` of
-    the rows of ``circuits`` and ``segments`` when known (the GeoPackage's)."""
-    hashes = hashes or {}
+def schedules(plan: Plan, layers: dict[str, GpkgLayer] | None = None) -> dict[str, Schedule]:
+    """The schedules, for the CSVs and the workbook's sheets (by sheet name); ``layers``: the
+    GeoPackage's (:func:`_gpkg_layers`), when made already, whose ``circuits`` and
+    ``segments`` hold the same rows in the same order, hashed."""
+    layers = layers or {}
+    circuits, segments = layers.get("circuits"), layers.get("segments")
     return {
-        "circuits": Schedule.of(plan.circuits, CIRCUIT_COLUMNS, hashes.get("circuits")),
-        "trenches": Schedule.of(plan.segments, SEGMENT_COLUMNS, hashes.get("segments")),
+        "circuits": Schedule.of(plan.circuits, CIRCUIT_COLUMNS)
+        if circuits is None
+        else Schedule.of(circuits.data, CIRCUIT_COLUMNS, circuits.hashes),
+        "trenches": Schedule.of(plan.segments, SEGMENT_COLUMNS)
+        if segments is None
+        else Schedule.of(segments.data, SEGMENT_COLUMNS, segments.hashes),
         "quantities": Schedule.of(plan.quantities, QUANTITY_COLUMNS),
         "inputs": Schedule.of(plan.inputs, INPUT_COLUMNS),
     }
@@ -203,7 +209,7 @@ def _write_into(
                     link_or_copy(aux, tmp / CACHE_DIR / aux.name)
             t["reused_outputs"] = time.perf_counter() - t0
         else:
-            digests = _write_files(plan, tmp, map_options, say, t, jobs)
+            digests = _write_files(plan, tmp, map_options, say, t, jobs, folder)
         files = list(FILES)
         if extra is not None:
             files += extra(tmp)
@@ -241,10 +247,65 @@ def _outputs_key(plan: Plan, map_options: dict | None) -> str | None:
     )
 
 
-def _previous(plan: Plan, name: str, index: dict) -> Previous:
-    """The last run's file ``name`` and its index, when both are there and intact."""
+def _last_output(plan: Plan, folder: OutputFolder | None, name: str) -> Path | None:
+    """The last run's output file ``name`` if its bytes are still the ones the cache recorded.
+
+    The folder's manifest records each file's SHA-256, size and modification time: a file
+    whose size and time are still the recorded ones is taken as unchanged
+    (:meth:`routeplan.folder.Written.matches`, the rule the folder applied when it was opened,
+    as ``make`` and ``git`` do), so a large last file is not read once more to be hashed.
+    Without such a record, the cache hashes the file (:meth:`PlanCache.previous_output`)."""
     cache = plan.cache
-    data = cache.previous_bytes(name) if cache is not None and name in index else None
+    if cache is None:
+        return None
+    fast = _unchanged_output(plan, folder, name)
+    return fast[0] if fast is not None else cache.previous_output(name)
+
+
+def _unchanged_output(
+    plan: Plan, folder: OutputFolder | None, name: str
+) -> tuple[Path, Written] | None:
+    """The last run's file ``name`` and the folder manifest's record of it, when that record
+    holds the SHA-256 the cache recorded and the file still has the recorded size and time."""
+    cache = plan.cache
+    if cache is None or folder is None or folder.previous is None:
+        return None
+    rec = folder.previous.files.get(name)
+    recorded = cache.recorded_digest(name)
+    if rec is None or not recorded or rec.sha256 != recorded:
+        return None
+    path = folder.real / name
+    return (path, rec) if _same_stat(path, rec) else None
+
+
+def _same_stat(path: Path, rec: Written) -> bool:
+    """Whether ``path`` is a regular file of the recorded size and modification time."""
+    try:
+        st = path.lstat()
+    except OSError:
+        return False
+    return stat.S_ISREG(st.st_mode) and (st.st_size, st.st_mtime_ns) == (rec.size, rec.mtime_ns)
+
+
+def _previous(plan: Plan, name: str, index: dict, folder: OutputFolder | None = None) -> Previous:
+    """The last run's file ``name`` and its index, when both are there and intact (see
+    :func:`_last_output`; the bytes read are checked against the record's size and time
+    again after reading, else hashed)."""
+    cache = plan.cache
+    if cache is None or name not in index:
+        return Previous()
+    data = None
+    fast = _unchanged_output(plan, folder, name)
+    if fast is not None:
+        path, rec = fast
+        try:
+            data = path.read_bytes()
+        except OSError:
+            data = None
+        if data is not None and (len(data) != rec.size or not _same_stat(path, rec)):
+            data = None
+    if data is None:
+        data = cache.previous_bytes(name)
     return Previous() if data is None else Previous(data, index[name])
 
 
@@ -255,11 +316,13 @@ def _write_files(
     say: Callable[[str], None],
     t: dict[str, float],
     jobs: list[parallel.Job],
+    folder: OutputFolder | None = None,
 ) -> dict[str, str]:
     """Write every output file of ``plan`` into the folder ``tmp`` (the map in a child process
     when it can, added to ``jobs``), with the writers' records for the next run
-    (:mod:`routeplan.outputs.reuse`) when the plan has a cache. Returns the files' SHA-256
-    (with a cache: taken while the map is still being drawn)."""
+    (:mod:`routeplan.outputs.reuse`) when the plan has a cache; ``folder``: the output folder,
+    whose manifest tells whether the last run's files are still as written. Returns the files'
+    SHA-256 (with a cache: taken while the map is still being drawn)."""
     cache = plan.cache
     last = cache.output_aux("index") if cache is not None else None
     last = last if isinstance(last, dict) else {}
@@ -280,7 +343,7 @@ def _write_files(
     say("write GeoPackage")
     t0 = time.perf_counter()
     gpkg = "routes.gpkg"
-    old = cache.previous_output(gpkg) if cache is not None and gpkg in last else None
+    old = _last_output(plan, folder, gpkg) if gpkg in last else None
     updated = update_gpkg(old, tmp / gpkg, layers, last[gpkg]) if old is not None else None
     if updated is None:
         index[gpkg] = write_gpkg(layers, tmp / gpkg)
@@ -290,9 +353,11 @@ def _write_files(
 
     say("write schedules")
     t0 = time.perf_counter()
-    tables = schedules(plan, {name: layers[name].hashes for name in ("circuits", "segments")})
+    tables = schedules(plan, layers)
     for name, table in zip(CSV_FILES, tables.values(), strict=True):
-        index[name], copied[name] = write_csv(table, tmp / name, _previous(plan, name, last))
+        index[name], copied[name] = write_csv(
+            table, tmp / name, _previous(plan, name, last, folder)
+        )
     t["csv"] = time.perf_counter() - t0
 
     say("write workbook")
@@ -308,7 +373,7 @@ def _write_files(
     }
     xlsx = "cable_schedule.xlsx"
     index[xlsx], copied[xlsx] = write_workbook(
-        sheets, tmp / xlsx, _previous(plan, xlsx, last), filtered=tables
+        sheets, tmp / xlsx, _previous(plan, xlsx, last, folder), filtered=tables
     )
     t["xlsx"] = time.perf_counter() - t0
     (tmp / "summary.json").write_text(
@@ -317,7 +382,8 @@ def _write_files(
     digests: dict[str, str] = {}
     if cache is not None:  # while the map is drawn
         t0 = time.perf_counter()
-        digests = {n: file_sha256(tmp / n) for n in FILES if n not in _CHILD_FILES}
+        known = {n: index[n]["sha256"] for n in CSV_FILES}  # taken as they were written
+        digests = {n: known.get(n) or file_sha256(tmp / n) for n in FILES if n not in _CHILD_FILES}
         t["file digests"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     report.wait()

@@ -1,0 +1,124 @@
+"""Writing a re-plan after an edit: the last run's files are taken as the base when the output
+folder's manifest still records them (size and modification time, with the SHA-256 the cache
+recorded), without hashing them again; a file edited since is never a base. What is written
+equals a cold run's: the CSV files and the workbook byte for byte, the GeoPackage feature for
+feature (SQLite, and GDAL through pyogrio)."""
+
+from __future__ import annotations
+
+import shutil
+import sqlite3
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import pytest
+import shapely
+
+from routeplan.cache import PlanCache
+from routeplan.outputs.gpkg import GpkgLayer, _register_functions
+from routeplan.outputs.reuse import column_hashes, row_hashes
+
+from .test_cache import GPKG, GPKG_LAYERS, XLSX, move_gpkg_pad, run, same_csvs, same_gpkg
+
+
+@pytest.fixture(scope="module")
+def generated(tmp_path_factory) -> Path:
+    from routeplan.synth import generate_site
+
+    site = tmp_path_factory.mktemp("gen") / "site"
+    generate_site(20.0, 5, site)
+    return site
+
+
+@pytest.fixture
+def gen(generated, tmp_path) -> Path:
+    site = tmp_path / "gen"
+    shutil.copytree(generated, site)
+    return site
+
+
+def same_as_gdal_reads(a: Path, b: Path) -> None:
+    """GDAL (pyogrio) reads the same features from both GeoPackages, in key order: every
+    attribute and the exact geometry."""
+    for layer, key in GPKG_LAYERS.items():
+        x = pyogrio.read_dataframe(a, layer=layer).sort_values(list(key), ignore_index=True)
+        y = pyogrio.read_dataframe(b, layer=layer).sort_values(list(key), ignore_index=True)
+        pd.testing.assert_frame_equal(x.drop(columns="geometry"), y.drop(columns="geometry"))
+        assert (shapely.to_wkb(x.geometry.values) == shapely.to_wkb(y.geometry.values)).all()
+
+
+def test_a_pad_move_builds_on_the_recorded_files_without_hashing_them(gen, tmp_path, monkeypatch):
+    out, cold = tmp_path / "out", tmp_path / "cold"
+    run(gen, out)
+    move_gpkg_pad(gen)
+
+    def not_hashed(self, name):
+        raise AssertionError(f"{name} hashed again although the manifest records it")
+
+    with monkeypatch.context() as m:
+        m.setattr(PlanCache, "previous_output", not_hashed)
+        m.setattr(PlanCache, "previous_bytes", not_hashed)
+        again = run(gen, out)
+    stats = again.cache.output_reuse
+    assert stats.gpkg_rows_rewritten > 0  # updated, not written whole
+    assert stats.chunks_copied["cable_schedule.xlsx"] > 0
+    run(gen, cold, cache=False)
+    same_csvs(out, cold)
+    assert (out / XLSX).read_bytes() == (cold / XLSX).read_bytes()
+    same_gpkg(out / GPKG, cold / GPKG)
+    same_as_gdal_reads(out / GPKG, cold / GPKG)
+
+
+def test_outputs_edited_in_place_are_not_a_base(gen, tmp_path):
+    """Edits that keep the files' sizes (a text of equal length) change their modification
+    time: the files are hashed, do not match, and are written anew (with --force)."""
+    out, cold = tmp_path / "out", tmp_path / "cold"
+    run(gen, out)
+    con = sqlite3.connect(out / GPKG)
+    _register_functions(con)  # the GeoPackage functions GDAL's R-tree triggers call
+    with con:
+        con.execute("UPDATE circuits SET status = upper(status) WHERE fid = 1")
+    con.close()
+    csv = out / "cable_schedule.csv"
+    data = csv.read_bytes()
+    assert b"ok" in data
+    csv.write_bytes(data.replace(b"ok", b"OK", 1))
+    move_gpkg_pad(gen)
+    again = run(gen, out, force=True)
+    stats = again.cache.output_reuse
+    assert stats.gpkg_rows_rewritten == -1  # written whole
+    assert stats.chunks_copied["cable_schedule.csv"] == 0
+    run(gen, cold, cache=False)
+    same_csvs(out, cold)
+    same_gpkg(out / GPKG, cold / GPKG)
+    same_as_gdal_reads(out / GPKG, cold / GPKG)
+
+
+def test_text_hashes_are_pandas_siphash_of_each_text():
+    """Each text, hashed once per distinct value, hashes as pandas' SipHash-2-4 of the text
+    (``pandas.util.hash_array``, the reference), missing values as the empty text marked."""
+    texts = ["CB-1", None, "ok", "CB-1", np.nan, "", "é ü", "ok", "a,b"]
+    missing = np.array([t is None or t != t for t in texts])
+    plain = np.array(["" if m else t for t, m in zip(texts, missing, strict=True)], dtype=object)
+    sip = pd.util.hash_array(plain, categorize=False)
+    for series in (pd.Series(texts, dtype=object), pd.Series(texts, dtype="string")):
+        got = column_hashes(series)
+        assert (got[~missing] == sip[~missing]).all()
+        # missing values: one hash, apart from every text (the empty text included)
+        assert len(set(got[missing].tolist())) == 1
+        assert got[missing][0] not in set(sip.tolist())
+
+
+def test_a_layers_key_hash_is_the_row_hash_of_its_key_columns():
+    frame = gpd.GeoDataFrame(
+        {"kind": ["a", "b", "a"], "id": ["1", "1", "2"], "v": [1.5, np.nan, 2.0]},
+        geometry=shapely.points([(0, 0), (1, 1), (2, 2)]),
+        crs=32633,
+    )
+    lay = GpkgLayer.of(frame, None, ("kind", "id"))
+    assert (lay.keys == row_hashes(frame[["kind", "id"]])).all()
+    assert (lay.hashes == row_hashes(lay.data, lay.geometry)).all()
+    assert len(set(lay.keys.tolist())) == 3
