@@ -362,14 +362,7 @@ def from_cache(
     t["local.baseline"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     memo0 = cache.latest("noding")  # the route entry keeps no memo
-    net = build_network(
-        site.trenches,
-        site_equipment(site),
-        node_tol_m=params.node_tol_m,
-        snap_m=params.snap_m,
-        defaults=params.trench,
-        memo=memo0,
-    )
+    net = _network(site, params, memo0)
     whatifs = WhatIfs(rules)
     before = None
     if cache.last_key("whatif") == digest("whatif", old_size_key):
@@ -405,6 +398,19 @@ def from_cache(
         ]
     cache.put_all(entries)
     return dataclasses.replace(plan, timings_s=t, cache=cache)
+
+
+def _network(site: Site, params, memo) -> TrenchNetwork:
+    """The trench network of ``site`` as routing builds it under ``params``
+    (:class:`routeplan.routing.RouteParams`), from the noding ``memo`` where it still holds."""
+    return build_network(
+        site.trenches,
+        site_equipment(site),
+        node_tol_m=params.node_tol_m,
+        snap_m=params.snap_m,
+        defaults=params.trench,
+        memo=memo,
+    )
 
 
 def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:
@@ -488,16 +494,7 @@ def _local(
     r0 = old.routes
     params = r0.params
     net0 = r0.network
-    net = network
-    if net is None:
-        net = build_network(
-            site.trenches,
-            site_equipment(site),
-            node_tol_m=params.node_tol_m,
-            snap_m=params.snap_m,
-            defaults=params.trench,
-            memo=net0.memo,
-        )
+    net = network if network is not None else _network(site, params, net0.memo)
     taps0, taps = net0.taps, net.taps
     if not taps["connected"].to_numpy(bool).all():
         return None  # a feature left unconnected: the full plan reports it
