@@ -38,7 +38,7 @@ rule set (:mod:`calc.rules.nec`) holds each circuit to 690.8(B)'s two conditions
 maximum current against the corrected and adjusted ampacity, and 1.25 × it against the
 termination's column uncorrected — ``terminal_required_a`` / ``terminal_ampacity_a``; the
 utilisation is the governing one), counts current-carrying conductors for grouping, checks each
-candidate size's protection by its device (240.4), disregards a short governing stretch (310.15(A)
+candidate size's protection by its device (240.4), disregards a short governing stretch (310.14(A)(2)
 exception) and notes every buried circuit for review.
 
 DC voltage-drop budget (decision): strings are sized first against min(drop_string_pct,
@@ -140,7 +140,7 @@ class SizingInput:
     circuits given).
 
     ``seg_length_m`` (optional, nan = not given) the segment's length [m], used only by a rule set
-    with a short-section exception (nec 310.15(A)); likewise ``air_length_m`` per air stretch.
+    with a short-section exception (nec 310.14(A)(2)); likewise ``air_length_m`` per air stretch.
 
     Incidence (length q): ``inc_circuit[k]`` passes ``inc_segment[k]``.
 
@@ -1062,7 +1062,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
         cap_env = np.where(np.isfinite(f_env)[:, :, None], base * f_env[:, :, None], np.inf)
     env = np.argmin(cap_env, axis=0)  # [k, S]
     alt = None
-    if "alt" in bur:  # a short governing stretch may be disregarded (nec 310.15(A) exception)
+    if "alt" in bur:  # a short governing stretch may be disregarded (nec 310.14(A)(2) exception)
         cap_env, env, alt = _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd)
     cap = np.take_along_axis(cap_env, env[None], axis=0)[0]  # per conductor set, derated
     base_g = np.take_along_axis(base, env[None], axis=0)[0]

@@ -84,24 +84,21 @@ from .circuits import KINDS, assign_destinations
 from .config import DesignConfig
 from .errors import DesignError
 from .inputs import assign_inputs, input_table, landing_input
-from .network import TRENCH_ATTRIBUTES, TrenchNetwork, build_network, retap, site_equipment
-from .order import inverter_of, schedule_order
+from .network import TRENCH_ATTRIBUTES, TrenchNetwork, retap
+from .order import inverter_of
 from .pipeline import (
     Plan,
     assigned_destinations,
-    circuit_table,
     conductor_poles,
     design_params,
     governing_ids,
     input_groups,
     plan_remedies,
     plan_site,
-    quantity_table,
+    plan_tables,
     route_params,
     segment_fill,
-    segment_table,
     sizing_input,
-    summarise,
 )
 from .remedy import WHATIF_FIELDS, WhatIfs
 from .routing import (
@@ -110,6 +107,7 @@ from .routing import (
     _route_lengths_fn,
     joined,
     shortest_paths,
+    site_network,
 )
 
 __all__ = [
@@ -362,7 +360,7 @@ def from_cache(
     t["local.baseline"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     memo0 = cache.latest("noding")  # the route entry keeps no memo
-    net = _network(site, params, memo0)
+    net = site_network(site, params, memo0)
     whatifs = WhatIfs(rules)
     before = None
     if cache.last_key("whatif") == digest("whatif", old_size_key):
@@ -398,19 +396,6 @@ def from_cache(
         ]
     cache.put_all(entries)
     return dataclasses.replace(plan, timings_s=t, cache=cache)
-
-
-def _network(site: Site, params, memo) -> TrenchNetwork:
-    """The trench network of ``site`` as routing builds it under ``params``
-    (:class:`routeplan.routing.RouteParams`), from the noding ``memo`` where it still holds."""
-    return build_network(
-        site.trenches,
-        site_equipment(site),
-        node_tol_m=params.node_tol_m,
-        snap_m=params.snap_m,
-        defaults=params.trench,
-        memo=memo,
-    )
 
 
 def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:
@@ -494,7 +479,7 @@ def _local(
     r0 = old.routes
     params = r0.params
     net0 = r0.network
-    net = network if network is not None else _network(site, params, net0.memo)
+    net = network if network is not None else site_network(site, params, net0.memo)
     taps0, taps = net0.taps, net.taps
     if not taps["connected"].to_numpy(bool).all():
         return None  # a feature left unconnected: the full plan reports it
@@ -769,12 +754,9 @@ def _local(
         remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]  # the tables' time leaves the remedies out
-    circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
-    seg_table = segment_table(routes, result)
-    quantities = quantity_table(circuits, seg_table, design)
-    summary = summarise(site, design, circuits, seg_table, result, inputs)
-    summary["assigned"] = assigned_destinations(routes)
-    circuits = circuits.iloc[schedule_order(circuits)].reset_index(drop=True)  # as plan_site
+    circuits, seg_table, quantities, summary = plan_tables(
+        site, design, routes, result, inp, inputs, landing, governing, remedy
+    )
     t["tables"] = time.perf_counter() - t1
     t["local"] = 1.0
     return Plan(
@@ -1265,14 +1247,7 @@ class MoveSearch:
         x0, y0 = site.trenches.total_bounds[:2]
         params = self.base.plan.routes.params
         far = _with_anchor(site, layer, row, (x0 - 10 * params.snap_m - 1e3, y0))
-        self.minus = build_network(
-            far.trenches,
-            site_equipment(far),
-            node_tol_m=params.node_tol_m,
-            snap_m=params.snap_m,
-            defaults=params.trench,
-            memo=net.memo,
-        )
+        self.minus = site_network(far, params, net.memo)
 
     def site_at(self, xy: tuple[float, float]) -> Site:
         """The baseline's site with the feature's anchor (a point, a pad's centroid) at ``xy``."""

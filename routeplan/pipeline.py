@@ -492,16 +492,35 @@ def plan_site(
         np.asarray(result.isc_design_a),
         inp.n_strings,
     )
+    circuits, segments, quantities, summary = plan_tables(
+        site, design, routes, result, inp, inputs, landing, governing, remedy
+    )
+    t["tables"] = time.perf_counter() - t0
+    return Plan(
+        site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
+    )
+
+
+def plan_tables(
+    site: Site,
+    design: DesignConfig,
+    routes: RoutePlan,
+    result: calc.SizingResult,
+    inp: calc.SizingInput,
+    inputs: pd.DataFrame,
+    landing: np.ndarray,
+    governing: np.ndarray,
+    remedy: np.ndarray | None,
+) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame, pd.DataFrame, dict[str, Any]]:
+    """A plan's cable schedule (in schedule order, :func:`routeplan.order.schedule_order`),
+    trench schedule, bill of quantities and summary, from its routes and sizing."""
     circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
     segments = segment_table(routes, result)
     quantities = quantity_table(circuits, segments, design)
     summary = summarise(site, design, circuits, segments, result, inputs)
     summary["assigned"] = assigned_destinations(routes)
     circuits = circuits.iloc[schedule_order(circuits)].reset_index(drop=True)  # block order
-    t["tables"] = time.perf_counter() - t0
-    return Plan(
-        site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
-    )
+    return circuits, segments, quantities, summary
 
 
 def plan_remedies(

@@ -522,6 +522,19 @@ class _Prepared:
     timings_s: dict[str, float]
 
 
+def site_network(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -> TrenchNetwork:
+    """The trench network of ``site`` with its equipment tapped on, as routing builds it under
+    ``params`` (``memo``: the last noding, :func:`routeplan.network.build_network`)."""
+    return build_network(
+        site.trenches,
+        site_equipment(site),
+        node_tol_m=params.node_tol_m,
+        snap_m=params.snap_m,
+        defaults=params.trench,
+        memo=memo,
+    )
+
+
 def _prepare(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -> _Prepared:
     """Network, destinations and circuits of ``site``, and every problem found on the way
     (``memo``: see :func:`routeplan.network.build_network`)."""
@@ -538,14 +551,7 @@ def _prepare(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -
     ]
     timings["trench_check"] = time.perf_counter() - t
     t = time.perf_counter()
-    network = build_network(
-        site.trenches,
-        site_equipment(site),
-        node_tol_m=params.node_tol_m,
-        snap_m=params.snap_m,
-        defaults=params.trench,
-        memo=memo,
-    )
+    network = site_network(site, params, memo)
     timings["network"] = time.perf_counter() - t
     found += [(NotConnectedError, p) for p in far_problems(network)]
     taps = network.taps

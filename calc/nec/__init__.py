@@ -11,7 +11,7 @@ Modules:
 * :mod:`calc.nec.sizes` — AWG and kcmil conductor sizes, areas in mm² from circular mils
   (ASTM B258 diameters), ``size_label`` both ways, feet;
 * :mod:`calc.nec.ampacity` — Tables 310.16 / 310.17, ambient correction 310.15(B)(1) (table and
-  formula), adjustment Table 310.15(C)(1), terminal limit 110.14(C), the 310.15(A) exception;
+  formula), adjustment Table 310.15(C)(1), terminal limit 110.14(C), the 310.14(A)(2) exception;
 * :mod:`calc.nec.impedance` — Chapter 9 Table 8 d.c. resistance and its temperature note, Table 9
   a.c. resistance and reactance, effective Z (Table 9 note 2);
 * :mod:`calc.nec.pv` — 690.8(A) maximum currents, 690.8(B) conductor ampacity, 690.7 maximum

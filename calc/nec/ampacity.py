@@ -7,7 +7,7 @@
 * Table 310.15(C)(1) adjustment for more than three current-carrying conductors;
 * 110.14(C) terminal limit: the conductor's corrected ampacity may not exceed the table value of
   the termination's temperature column;
-* 310.15(A) exception: the higher ampacity of two adjacent portions may be used beyond the
+* 310.14(A)(2) exception: the higher ampacity of two adjacent portions may be used beyond the
   transition for 10 ft or 10 % of the circuit length, whichever is less.
 
 Columns are the conductor temperature ratings 60, 75 and 90 °C (e.g. 90 °C: THWN-2, XHHW-2,
@@ -190,7 +190,7 @@ def ampacity_a(
 
 
 def short_section_max_m(circuit_m: ArrayLike) -> np.ndarray:
-    """Longest stretch [m] beyond a transition where 310.15(A)'s exception lets the higher
+    """Longest stretch [m] beyond a transition where 310.14(A)(2)'s exception lets the higher
     ampacity apply: the lesser of 10 ft and 10 % of the circuit length.
 
     >>> short_section_max_m([20.0, 200.0])  # 10 % of 20 m = 2 m; 10 ft = 3.048 m

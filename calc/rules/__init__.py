@@ -264,7 +264,7 @@ class RuleSet(abc.ABC):
 
     def short_section(self, stretch_m: np.ndarray, circuit_m: np.ndarray) -> np.ndarray | None:
         """Per stretch, whether it is short enough for its lower capacity to be disregarded at a
-        transition (the higher capacity of the rest of the circuit applies; NEC 310.15(A)
+        transition (the higher capacity of the rest of the circuit applies; NEC 310.14(A)(2)
         exception); ``None`` where the rule set has no such exception (IEC). nan lengths: not
         short."""
         return None

@@ -26,7 +26,7 @@ Registered in :mod:`calc.rules` (``[design] rules = "nec"``). The functions are 
   and spacing are not represented (factors 1), so every such circuit carries a review note
   (:meth:`NecRules.buried_note`). ``buried_rating = "engineered"`` (310.14(B): IEC 60287 /
   Neher–McGrath) is refused until that method exists.
-* **310.15(A) exception**: the governing stretch (trench segment or air stretch) may be
+* **310.14(A)(2) exception**: the governing stretch (trench segment or air stretch) may be
   disregarded where it is no longer than 10 ft or 10 % of the rest of the circuit, whichever is
   less (:meth:`NecRules.short_section`); only that one stretch, and only where another remains.
   Needs the stretches' lengths (``seg_length_m``, ``air_length_m``).
@@ -241,7 +241,7 @@ class NecRules(RuleSet):
         )
 
     def short_section(self, stretch_m, circuit_m):
-        """310.15(A) exception: a stretch no longer than 10 ft and than 10 % of the circuit
+        """310.14(A)(2) exception: a stretch no longer than 10 ft and than 10 % of the circuit
         length at the higher ampacity (the circuit less the stretch; conservative reading of
         "the circuit length figured at the higher ampacity")."""
         stretch = np.asarray(stretch_m, dtype=float)

@@ -397,7 +397,7 @@ NEC_METHODS: tuple[tuple[str, str], ...] = (
         "ambient or earth temperature (310.15(B)(1)) and adjusted for the current-carrying "
         "conductors sharing the stretch (Table 310.15(C)(1); the conductors in a trench segment "
         "taken as one bundle), evaluated for every stretch of the route; the lowest ampacity "
-        "governs, except a stretch short enough for the 310.15(A) exception (10 ft or 10 % of "
+        "governs, except a stretch short enough for the 310.14(A)(2) exception (10 ft or 10 % of "
         "the circuit, whichever is less). The smallest candidate AWG / kcmil size (with "
         "parallel sets up to max_parallel) meeting both conditions, 240.4 and the voltage drop "
         "is chosen; the schedule's utilisation is the governing condition's ratio.",

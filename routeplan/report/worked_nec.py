@@ -215,7 +215,7 @@ def _capacity_steps(row: pd.Series, design: DesignConfig) -> list:
     table = {"raceway": ("Table 310.16", _T16), "free_air": ("Table 310.17", _T17)}
     steps = [
         Step("Governing stretch", "the stretch with the lowest ampacity after correction and "
-             "adjustment (310.15(A): the lower ampacity governs, but for a short stretch)",
+             "adjustment (310.14(A)(2): the lower ampacity governs, but for a short stretch)",
              f"{gov}: " + ("in the ground, Table 310.16 (raceway, cable or earth)"
                            if loc2 == "raceway" else "in air, Table 310.17 (free air)"),
              gov, "", "schedule column governing")

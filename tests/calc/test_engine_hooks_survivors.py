@@ -1,4 +1,4 @@
-"""The engine's rule-set hooks on small hand-built circuits: the NEC 2023 310.15(A) short-section
+"""The engine's rule-set hooks on small hand-built circuits: the NEC 2023 310.14(A)(2) short-section
 exception with the runner-up stretch, grouping by current-carrying conductors (and the IEC
 default by circuits), the a.c. size restriction of Chapter 9 Table 9, and the hooks' IEC defaults.
 
@@ -13,7 +13,7 @@ calc.rules: the rule-set hooks"). Every expected value is computed here by hand 
   7–9 0.70, 10–20 0.50, 21–30 0.45, 41 and above 0.35;
 * 690.8(A)(1)(a)(1): I_max = 1.25 × Isc = 16.25 A for Isc 13 A; 690.8(B)(1): 1.25 × I_max =
   20.3125 A before correction in the 75 °C termination column (110.14(C), confirmed);
-* 310.15(A) exception: where two ampacities apply to portions of a circuit, the higher may be
+* 310.14(A)(2) exception: where two ampacities apply to portions of a circuit, the higher may be
   used beyond the transition for 10 ft (3.048 m) or 10 % of the circuit length at the higher
   ampacity, whichever is less (confirmed, the rule set's reading: the circuit less the stretch);
 * IEC 60364-5-52:2009 Table B.52.18 (circuits direct in the ground, touching; memory, §3.8):
@@ -94,7 +94,7 @@ def _segments(laying, count, length_m, incidence) -> dict:
     )
 
 
-# ---- 310.15(A) exception: the runner-up stretch governs
+# ---- 310.14(A)(2) exception: the runner-up stretch governs
 
 
 def test_a_short_crowded_raceway_gives_way_to_the_next_most_onerous_one():

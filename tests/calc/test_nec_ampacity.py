@@ -1,5 +1,5 @@
 """NEC 2023 ampacity: Tables 310.16 / 310.17, 310.15(B)(1), Table 310.15(C)(1), 110.14(C),
-310.15(A).
+310.14(A)(2).
 
 Published values transcribed below name their table; "confirmed" = seen in the public
 reproductions listed in the data files' seen_in columns, "from memory" otherwise.

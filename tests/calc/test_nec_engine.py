@@ -243,7 +243,7 @@ def _short_section_case(short_m: float, cable_m: float):
 
 
 def test_310_15_a_short_section_exception():
-    # 310.15(A) exception: the higher ampacity may be used beyond the transition for 10 ft
+    # 310.14(A)(2) exception: the higher ampacity may be used beyond the transition for 10 ft
     # (3.048 m) or 10 % of the circuit length at the higher ampacity, whichever is less.
     # 12 AWG in the crowded raceway: 30 A × 0.50 = 15 A < I_max 16.25 A; alone: 30 A.
     d = _design()

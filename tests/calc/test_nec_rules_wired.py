@@ -14,7 +14,7 @@ Values (NFPA 70 NEC 2023; tags as in ../shared/REFERENCE_VALUES.md and calc/data
   above 800 A the device may not exceed the ampacity (confirmed);
 * Table 310.15(C)(1): 1–3 current-carrying conductors 1.00, 4–6 0.80, 7–9 0.70, 10–20 0.50
   (confirmed);
-* 310.15(A) exception: 10 ft (3.048 m) or 10 % of the circuit length, whichever is less
+* 310.14(A)(2) exception: 10 ft (3.048 m) or 10 % of the circuit length, whichever is less
   (confirmed, calc/data/nec_2023_rules.csv);
 * Table 310.16 Cu 60/75/90 °C: 12 AWG 20/25/30 A, 10 AWG 30/35/40 A (confirmed); Table 310.17 Cu
   12 AWG 30/35/40 A, 10 AWG 40/50/55 A (from memory);
@@ -495,5 +495,5 @@ def test_limits_hold_within_a_relative_billionth():
     assert c.ib_ok.tolist() == [True, True] and c.iz_ok.tolist() == [True, True]
     # 690.9(A): an ampacity of the backfeed × (1 − 1e-9) carries it
     assert R.array_cable_check([390.0 * (1.0 - rel)], [390.0], [NAN]).ok.tolist() == [True]
-    # 310.15(A): a stretch of 10 ft × (1 + 1e-9) is still short
+    # 310.14(A)(2): a stretch of 10 ft × (1 + 1e-9) is still short
     assert R.short_section([10 * 0.3048 * (1.0 + rel)], [100.0]).tolist() == [True]

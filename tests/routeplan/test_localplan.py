@@ -20,7 +20,7 @@ all the same; an edit a cold plan refuses (a feature left unreachable) is refuse
 A second site restricts the array and a.c. size lists so that cables need parallel sets:
 there the grouping couples circuits through their extra cable sets and the fixed point over
 the affected segments is exercised. A fourth plans under the NEC rule set (NFPA 70 NEC 2023),
-whose 310.15(A) short-section exception reads the segments' and air stretches' lengths.
+whose 310.14(A)(2) short-section exception reads the segments' and air stretches' lengths.
 """
 
 from __future__ import annotations
@@ -72,7 +72,7 @@ def _site(root: Path, mw: float, seed: int, extra: str = "", dc_inputs: int = 0,
 
 #: the plants: plain; tight sizes (parallel sets); inverters with 3 DC inputs each, which the
 #: arrays are spread over nearest first, so a move can change an array's input and backfeed;
-#: the NEC rule set (NFPA 70 NEC 2023), whose 310.15(A) short-section exception reads the
+#: the NEC rule set (NFPA 70 NEC 2023), whose 310.14(A)(2) short-section exception reads the
 #: lengths of the segments and air stretches a move splits or changes
 PLANTS = (
     ("plain", 8, 5, "", 0, "iec"),
