@@ -16,8 +16,9 @@ calc.rules: the rule-set hooks"). Every expected value is computed here by hand 
 * 310.14(A)(2) exception: where two ampacities apply to portions of a circuit, the higher may be
   used beyond the transition for 10 ft (3.048 m) or 10 % of the circuit length at the higher
   ampacity, whichever is less (confirmed, the rule set's reading: the circuit less the stretch);
-* IEC 60364-5-52:2009 Table B.52.18 (circuits direct in the ground, touching; memory, §3.8):
-  2 circuits 0.75, 3 circuits 0.65, 4 circuits 0.60, 5 circuits 0.55 (confirmed).
+* IEC 60364-5-52:2009 Table B.52.18 (circuits direct in the ground, touching; from memory,
+  ../shared/REFERENCE_VALUES.md §3.8): 2 circuits 0.75, 3 circuits 0.65, 4 circuits 0.60,
+  5 circuits 0.55.
 
 Sites invented.
 """
@@ -109,7 +110,7 @@ def test_a_short_crowded_raceway_gives_way_to_the_next_most_onerous_one():
     r = size_circuits(_strings([100.0, 100.0, 100.0], **seg), _nec(), "nec")
     # circuit 0: 12 AWG 30 A × 0.70 = 21 A ≥ 16.25 A (without the exception 30 × 0.50 = 15 A
     # would fail); 690.8(B)(1) 20.3125 A ≤ 25 A (75 °C column)
-    assert 30 * 0.50 < I_MAX <= 30 * 0.70
+    # the hand calculation above: 30 * 0.50 < I_MAX <= 30 * 0.70
     assert size_label(r.size_mm2[0]) == "12 AWG" and r.governing_env[0] == "D1"
     assert r.governing_segment[0] == 2 and r.governing_segment.dtype == np.int64
     assert r.factor_group[0] == 0.70 and r.group_count[0] == 8
@@ -137,8 +138,8 @@ def test_a_short_raceway_gives_way_to_another_environment_and_direct_burial_runn
         [1, 0, 0, 0], [11, 1, 21, 4], [2.0, 98.0, 2.0, 98.0], [(0, 0), (0, 1), (1, 2), (1, 3)]
     )
     r = size_circuits(_strings([100.0, 100.0], **seg), _nec(ground_temp_c=20.0), "nec")
-    assert I_MAX > 30 * 1.08 * 0.45
-    assert 30 * 1.08 * 0.35 < I_MAX <= 30 * 1.08 * 0.70
+    # the hand calculation above: I_MAX > 30 * 1.08 * 0.45
+    # the hand calculation above: 30 * 1.08 * 0.35 < I_MAX <= 30 * 1.08 * 0.70
     assert size_label(r.size_mm2.tolist()).tolist() == ["12 AWG", "12 AWG"]
     assert r.governing_env.tolist() == ["D2", "D2"]
     assert r.governing_segment.tolist() == [1, 3]
@@ -155,8 +156,7 @@ def test_a_short_crowded_stretch_in_free_air_gives_way_to_the_next_stretch():
     # runs along stretch 0 only, circuit 1 along both.
     # Circuit 1: 12 AWG 40 A × 0.91 × 0.35 = 12.74 A < 16.25 A on stretch 0, which is short, so
     # stretch 1 governs: 40 × 1.00 × 0.70 = 28 A. 690.8(B)(1): 20.3125 A ≤ 25 A (Table 310.16's
-    # 75 °C column for the terminations, 110.14(C)(1); the rule set's terminal column in free air
-    # is corrected to Table 310.16 on another branch, so its value is not checked here).
+    # 75 °C column for the terminations, 110.14(C)(1), also in free air).
     # Circuit 0 has no other stretch: no exception, 10 AWG 55 × 0.91 × 0.35 = 17.52 A.
     # (Stretch 2: one circuit routing counted, not given here.)
     inp = _strings(
@@ -170,13 +170,17 @@ def test_a_short_crowded_stretch_in_free_air_gives_way_to_the_next_stretch():
     )
     d = _nec(row_air_temp_c=40.0)
     r = size_circuits(inp, d, "nec")
-    assert 40 * 0.91 * 0.35 < I_MAX <= 40 * 0.70 and I_MAX <= 55 * 0.91 * 0.35
+    # by hand: 40 × 0.91 × 0.35 < I_MAX ≤ 40 × 0.70 and I_MAX ≤ 55 × 0.91 × 0.35
     assert size_label(r.size_mm2.tolist()).tolist() == ["10 AWG", "12 AWG"]
     assert r.governing_env.tolist() == ["air", "air"]
     assert r.governing_air.tolist() == [0, 1] and r.governing_air.dtype == np.int64
     assert r.factor_group.tolist() == [0.35, 0.70] and r.group_count.tolist() == [42, 8]
     assert r.factor_temp.tolist() == [0.91, 1.0]
     assert r.ampacity_a == pytest.approx([55 * 0.91 * 0.35, 28.0]) and r.ok.all()
+    # 690.8(B)(1) in free air: Table 310.16's 75 °C column (110.14(C)(1)), 10 AWG 35 A, 12 AWG
+    # 25 A, against 1.25 × I_MAX
+    assert r.terminal_ampacity_a.tolist() == [35.0, 25.0]
+    assert r.terminal_required_a.tolist() == pytest.approx([1.25 * I_MAX] * 2)
     # stretch 0 4 m long (over 10 ft) is not short: it governs circuit 1 too, 10 AWG 17.52 A
     inp.air_length_m = np.array([4.0, 40.0, 10.0])
     r = size_circuits(inp, d, "nec")

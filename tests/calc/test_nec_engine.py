@@ -93,7 +93,7 @@ def test_source_circuits_grouped_condition_2_governs():
     r = size_circuits(inp, _design(ground_temp_c=35.0), "nec")
     i_max = 1.25 * 13.0
     # 12 AWG: 30 × 0.96 × 0.50 = 14.4 A < 16.25 A fails (2); 10 AWG: 40 × 0.96 × 0.50 = 19.2 A
-    assert 30 * 0.96 * 0.50 < i_max <= 40 * 0.96 * 0.50
+    # the hand calculation above: 30 * 0.96 * 0.50 < i_max <= 40 * 0.96 * 0.50
     assert set(size_label(r.size_mm2).tolist()) == {"10 AWG"}
     assert r.factor_group[0] == 0.50 and r.group_count[0] == 20 and r.factor_temp[0] == 0.96
     assert r.design_current_a[0] == pytest.approx(i_max)
@@ -155,7 +155,7 @@ def test_source_circuit_fuse_and_240_4_protection_choose_the_size():
     assert r.group_count[s] == 24 and r.factor_group[s] == 0.45
     # 10 AWG carries I_max (40 × 1.08 × 0.45 = 19.44 ≥ 16.25 A) but is not protected by 25 A:
     # 240.4(B) allows only the next rating above 19.44 A, 20 A; 8 AWG 55 × 1.08 × 0.45 = 26.73 A
-    assert 40 * 1.08 * 0.45 >= 16.25 and 55 * 1.08 * 0.45 >= 25.0
+    # the hand calculation above: 40 * 1.08 * 0.45 >= 16.25 and 55 * 1.08 * 0.45 >= 25.0
     assert set(size_label(r.size_mm2[:12]).tolist()) == {"8 AWG"}
     assert r.ampacity_a[s] == pytest.approx(55 * 1.08 * 0.45)
     assert "25 A (240.6(A), 690.9)" in r.protection[s]
