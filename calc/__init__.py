@@ -62,6 +62,7 @@ from calc.engine import (
     buried_deep_enough,
     failure_causes,
     larger_sizes_mm2,
+    protection_failures,
     size_circuits,
     size_list_mm2,
 )
@@ -102,6 +103,7 @@ __all__ = [
     "get_rules",
     "identification_rows",
     "larger_sizes_mm2",
+    "protection_failures",
     "rule_names",
     "size_circuits",
     "size_list_mm2",

@@ -38,8 +38,8 @@ rule set (:mod:`calc.rules.nec`) holds each circuit to 690.8(B)'s two conditions
 maximum current against the corrected and adjusted ampacity, and 1.25 × it against the
 termination's column uncorrected — ``terminal_required_a`` / ``terminal_ampacity_a``; the
 utilisation is the governing one), counts current-carrying conductors for grouping, checks each
-candidate size's protection by its device (240.4), disregards a short governing stretch (310.14(A)(2)
-exception) and notes every buried circuit for review.
+candidate size's protection by its device (240.4), disregards a short governing stretch
+(310.14(A)(2) exception) and notes every buried circuit for review.
 
 DC voltage-drop budget (decision): strings are sized first against min(drop_string_pct,
 drop_dc_total_pct); each array cable then gets min(drop_array_pct, drop_dc_total_pct − the largest
@@ -1978,3 +1978,40 @@ def failure_causes(result: SizingResult) -> dict[str, np.ndarray]:
         cap |= fail & (req1 > result.terminal_ampacity_a * (1.0 + tol))
     drop = fail & (result.vdrop_pct > result.vdrop_limit_pct + tol)
     return {"capacity": cap, "drop": drop, "other": fail & ~cap & ~drop}
+
+
+def protection_failures(result: SizingResult, rules: str) -> np.ndarray:
+    """Failing circuits whose overcurrent device does not protect the conductor (NEC 2023
+    240.4(B)/(C)/(D), the rule set's :meth:`~calc.rules.RuleSet.conductor_protected` with the
+    ampacity after correction, adjustment and the 110.14(C) terminal limit) and that break no
+    capacity or drop limit (:func:`failure_causes` counts them as ``other``). All False for a
+    rule set without such a check (IEC).
+
+    The device is the circuit's own: the source-circuit fuse, the output-circuit (array) device,
+    the inverter output breaker; nan = none fitted (protected).
+    """
+    n = len(result.ok)
+    rs = get_rules(rules)
+    why = failure_causes(result)
+    other = np.asarray(why["other"], dtype=bool)
+    out = np.zeros(n, dtype=bool)
+    if not other.any():
+        return out
+    device = np.asarray(result.fuse_a, dtype=float).copy()
+    arr = np.asarray(result.array_fuse_a, dtype=float)
+    acb = np.asarray(result.ac_breaker_a, dtype=float)
+    device = np.where(np.isfinite(device), device, np.where(np.isfinite(arr), arr, acb))
+    amp = np.asarray(result.ampacity_a, dtype=float)
+    term = np.asarray(getattr(result, "terminal_ampacity_a", np.full(n, np.nan)), dtype=float)
+    amp = np.where(np.isfinite(term), np.minimum(amp, term), amp)
+    size = np.asarray(result.size_mm2, dtype=float)
+    material = np.asarray(result.material).astype(str)
+    for mat in np.unique(material[other]).tolist():
+        m = other & (material == mat) & np.isfinite(size)
+        if not m.any():
+            continue
+        prot = rs.conductor_protected(device[m], amp[m], size[m], mat)
+        if prot is None:
+            return out
+        out[np.flatnonzero(m)] = ~np.asarray(prot, dtype=bool)
+    return out

@@ -30,7 +30,7 @@ the remedy says how many. Each remedy is what the re-sizing found for that circu
 the settings of several remedies at once can interact through the trench grouping.
 
 Under nec a circuit whose overcurrent device does not protect the conductor (240.4; counted as
-``other`` by :func:`calc.failure_causes`) is named so (:func:`protection_failures`) and given
+``other`` by :func:`calc.failure_causes`) is named so (:func:`calc.protection_failures`) and given
 the larger size or the parallel sets that the re-sizing finds protected.
 
 Each what-if sizing goes through a :class:`WhatIfs` (by default: the whole plan sized again),
@@ -74,43 +74,6 @@ def _common_spacings_m() -> tuple[float, ...]:
 #: trench spacings tried for a capacity failure caused by grouping [m]: those both grouping
 #: tables give (0.25 m and 0.5 m)
 SPACINGS_M: tuple[float, ...] = _common_spacings_m()
-
-
-def protection_failures(result: calc.SizingResult, rules: str) -> np.ndarray:
-    """Failing circuits whose overcurrent device does not protect the conductor (NEC 2023
-    240.4(B)/(C)/(D), the rule set's :meth:`~calc.rules.RuleSet.conductor_protected` with the
-    ampacity after correction, adjustment and the 110.14(C) terminal limit) and that break no
-    capacity or drop limit (``calc.failure_causes`` counts them as ``other``). All False for a
-    rule set without such a check (IEC).
-
-    The device is the circuit's own: the source-circuit fuse, the output-circuit (array) device,
-    the inverter output breaker; nan = none fitted (protected).
-    """
-    n = len(result.ok)
-    rs = calc.get_rules(rules)
-    why = calc.failure_causes(result)
-    other = np.asarray(why["other"], dtype=bool)
-    out = np.zeros(n, dtype=bool)
-    if not other.any():
-        return out
-    device = np.asarray(result.fuse_a, dtype=float).copy()
-    arr = np.asarray(result.array_fuse_a, dtype=float)
-    acb = np.asarray(result.ac_breaker_a, dtype=float)
-    device = np.where(np.isfinite(device), device, np.where(np.isfinite(arr), arr, acb))
-    amp = np.asarray(result.ampacity_a, dtype=float)
-    term = np.asarray(getattr(result, "terminal_ampacity_a", np.full(n, np.nan)), dtype=float)
-    amp = np.where(np.isfinite(term), np.minimum(amp, term), amp)
-    size = np.asarray(result.size_mm2, dtype=float)
-    material = np.asarray(result.material).astype(str)
-    for mat in np.unique(material[other]).tolist():
-        m = other & (material == mat) & np.isfinite(size)
-        if not m.any():
-            continue
-        prot = rs.conductor_protected(device[m], amp[m], size[m], mat)
-        if prot is None:
-            return out
-        out[np.flatnonzero(m)] = ~np.asarray(prot, dtype=bool)
-    return out
 
 
 def _spacing_matters(rs) -> bool:
@@ -203,7 +166,7 @@ def remedies(
     rs = calc.get_rules(rules)
     # nec: a device that does not protect the conductor (240.4) is met like a capacity limit,
     # by a larger size or more parallel sets (the what-ifs below re-size every failing circuit)
-    unprotected = protection_failures(result, rules)
+    unprotected = calc.protection_failures(result, rules)
     size = np.asarray(result.size_mm2, dtype=float)
     parallel = np.asarray(result.parallel)
     found = np.full(n, "", dtype=object)

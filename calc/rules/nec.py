@@ -107,6 +107,11 @@ class NecRules(RuleSet):
         check_option("insulation", insulation, tuple(_RATING))
         return _RATING[insulation]
 
+    def insulation_rating_c(self, insulation: str) -> int:
+        """The insulation's temperature rating [°C], the Table 310.16/310.17 column of its
+        ampacity (``PV`` wire: 90 °C); refused for an insulation the rule set lacks."""
+        return self._rating(insulation)
+
     # ---- design settings
 
     def terminal_c(self, design) -> int:

@@ -60,7 +60,6 @@ _R240_6 = "nec_2023_240_6_a_standard_ratings.csv"
 _R240_4D = "nec_2023_240_4_d_small_conductors.csv"
 #: the strings in parallel, as the schedule's protection text gives them
 _PARALLEL = re.compile(r"([\d.]+) string(?:s|\(s\))? in parallel")
-_RATING = {"90C": 90, "75C": 75, "60C": 60, "PV": 90}
 _REL = 1e-9
 
 
@@ -204,7 +203,7 @@ def _capacity_steps(row: pd.Series, design: DesignConfig) -> list:
     size = float(row["size_mm2"])
     lab = _label(size)
     material, insulation = str(row["material"]), str(row["insulation"])
-    rating = _RATING[insulation]
+    rating = rs.insulation_rating_c(insulation)
     term_c = rs.terminal_c(dp)
     col1 = min(rating, term_c)
     p = int(row["parallel"])
@@ -345,7 +344,7 @@ def _drop_steps(row: pd.Series, design: DesignConfig) -> list:
     poles = int(row["conductors"]) // p
     phases = 0 if kind != "ac" else (3 if poles == 3 else 1)
     theta = float(row["conductor_temp_c"])
-    rating = _RATING[str(row["insulation"])]
+    rating = rs.insulation_rating_c(str(row["insulation"]))
     steps = [
         Step("Conductor temperature θ",
              "θ = the insulation's rating (conductor_temp = max)" if dp.conductor_temp == "max"
@@ -491,7 +490,9 @@ def _protection_steps(row: pd.Series, design: DesignConfig) -> list:
         # 240.4 against the ampacity with the terminal limit
         loc1 = _TERMINAL_LOC
         rs = calc.get_rules("nec")
-        col1 = min(_RATING[str(row["insulation"])], rs.terminal_c(design_params(design)))
+        col1 = min(
+            rs.insulation_rating_c(str(row["insulation"])), rs.terminal_c(design_params(design))
+        )
         term = float(nec_amp.table_ampacity_a([size], material, col1, loc1)[0]) * p
         amp = min(float(row["ampacity_a"]), term)
         ok = bool(nec_prot.conductor_protected([dev], [amp], [size], material)[0])

@@ -21,9 +21,10 @@ from __future__ import annotations
 import numpy as np
 
 import calc
+from calc import protection_failures
 from calc.nec.sizes import size_from_label, size_label
 from routeplan.pipeline import MAX_PARALLEL
-from routeplan.remedy import protection_failures, remedies
+from routeplan.remedy import remedies
 from tests.calc.test_nec_engine import _ac, _dc, _design, _inp
 
 UNPROTECTED = "its overcurrent device does not protect the conductor (240.4)"
