@@ -299,8 +299,9 @@ class NecRules(RuleSet):
         """690.9(A)/(B) source-circuit fuses (a :class:`calc.pv.StringProtection`).
 
         Required where the other parallel source circuits can feed a fault more than the
-        module's maximum series fuse: (n − 1) · 1.25 · Isc > max fuse (not given: required from
-        3 strings in parallel, as 2 cannot backfeed more than one string's own current). Rating:
+        module's maximum series fuse: (n − 1) · 1.25 · Isc > max fuse (not given: required above
+        ``unfused_max_strings_no_ocpr`` strings in parallel, 2: common practice, as 2 cannot
+        backfeed more than one string's own current). Rating:
         the smallest of ``ratings_a`` ≥ 1.25 · I_max = 1.5625 · Isc, which must not exceed the
         module's maximum series fuse; a fuse fixed by the combiner is checked against the same
         range.
@@ -312,7 +313,10 @@ class NecRules(RuleSet):
         isc, n, ocpr, fixed = np.broadcast_arrays(isc, n, ocpr, fixed)
         i_max = _i_max(isc)
         no_ocpr = np.isnan(ocpr)
-        required = np.where(no_ocpr, n >= 3, (n - 1.0) * i_max > np.nan_to_num(ocpr) * (1 + _REL))
+        unfused = ampacity.nec_rule("unfused_max_strings_no_ocpr")
+        required = np.where(
+            no_ocpr, n > unfused, (n - 1.0) * i_max > np.nan_to_num(ocpr) * (1 + _REL)
+        )
         lower = ampacity.nec_rule("ocpd_factor") * i_max
         upper = np.where(no_ocpr, np.inf, ocpr)
         ratings = np.sort(np.asarray(ratings_a, dtype=float))
