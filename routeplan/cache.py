@@ -495,6 +495,51 @@ def loads(data: bytes | Path) -> Any:
 # the cache of one output folder
 
 
+class Resident:
+    """The last run's cache values, as decoded objects, kept by a process that plans into the
+    same output folder again and again (``routeplan plan --watch``, :mod:`routeplan.watch`).
+
+    A :class:`PlanCache` opened with it takes an entry from memory instead of reading,
+    checking and decoding its file, when the folder's manifest still records that entry under
+    the same key and SHA-256 (so it is the value that file holds: the manifest and the file
+    are written by the run that kept it) and the file is still there (the next run links
+    it). Only the last run's values are kept (:meth:`keep`), those the run computed or read;
+    values are shared between runs, so nothing may change them in place (the plan code
+    builds new arrays and frames; the watch tests re-plan edits and undo them and compare
+    every output with cold runs)."""
+
+    def __init__(self) -> None:
+        self._entries: dict[tuple[str, str, str], Any] = {}
+        self._aux: dict[tuple[str, str], Any] = {}
+
+    def entry(self, stage: str, key: str, sha256: Any) -> Any | None:
+        """The kept value of the entry ``stage`` stored under ``key`` with ``sha256``."""
+        return self._entries.get((stage, key, str(sha256)))
+
+    def aux(self, name: str, sha256: Any) -> Any | None:
+        """The kept writer's record ``name`` whose file has ``sha256``."""
+        return self._aux.get((name, str(sha256)))
+
+    def keep(self, cache: PlanCache) -> None:
+        """Keep the values of the entries and records ``cache`` saved (:meth:`PlanCache.save`)
+        that its run computed or read, in place of the last run's."""
+        manifest = cache._saved
+        entries, aux = {}, {}
+        for stage, e in manifest.get("entries", {}).items():
+            value = cache._new.get(stage, cache._values.get(stage))
+            if value is None:  # carried without being read: kept if this process has it
+                value = self.entry(stage, e["key"], e["sha256"])
+            if value is not None:
+                entries[(stage, e["key"], e["sha256"])] = value
+        for name, e in manifest.get("outputs", {}).get("aux", {}).items():
+            value = cache._aux_values.get(name)
+            if value is None:
+                value = self.aux(name, e["sha256"])
+            if value is not None:
+                aux[(name, e["sha256"])] = value
+        self._entries, self._aux = entries, aux
+
+
 class PlanCache:
     """The cache of the output folder ``out_dir`` for one run (see the module docstring).
 
@@ -504,7 +549,9 @@ class PlanCache:
     are hard-linked from the old folder when possible, never copied through memory.
     """
 
-    def __init__(self, out: Path | str | OutputFolder) -> None:
+    def __init__(self, out: Path | str | OutputFolder, resident: Resident | None = None) -> None:
+        #: the values a watching process kept from its last run (:class:`Resident`)
+        self.resident = resident
         #: the open output folder, whose work folder holds the staging folder (None: a
         #: cache opened on a path, staged in the system's temporary folder)
         self.folder = out if isinstance(out, OutputFolder) else None
@@ -520,6 +567,9 @@ class PlanCache:
         self._jobs: dict[str, parallel.Job] = {}
         self._staging: Path | None = None
         self._carried: set[str] = set()
+        self._values: dict[str, Any] = {}  # values read this run, by stage (for Resident)
+        self._aux_values: dict[str, Any] = {}  # writers' records read or saved this run
+        self._saved: dict = {}  # the manifest save() wrote
         self._manifest = self._read_manifest()
 
     def _read_manifest(self) -> dict:
@@ -552,16 +602,32 @@ class PlanCache:
             return None
         return path
 
+    def _in_memory(self, stage: str, key: str) -> Any | None:
+        """The value of the entry ``stage`` under ``key`` kept by :attr:`resident`, when the
+        manifest still records that entry (same key and SHA-256) and its file is there."""
+        e = self._manifest.get("entries", {}).get(stage)
+        if self.resident is None or not isinstance(e, dict) or e.get("key") != key:
+            return None
+        if not isinstance(e.get("file"), str) or not (self.dir / Path(e["file"]).name).is_file():
+            return None
+        return self.resident.entry(stage, key, e.get("sha256"))
+
+    def _load(self, stage: str, key: str) -> Any | None:
+        value = self._in_memory(stage, key)
+        if value is None:
+            path = self._entry(stage, key)
+            try:
+                value = loads(path) if path is not None else None
+            except Exception:  # a damaged entry is a miss, never an error
+                value = None
+        if value is not None:
+            self._values[stage] = value
+        return value
+
     def get(self, stage: str, key: str) -> Any | None:
         """The value stored for ``stage`` under ``key``, or None."""
         self.keys[stage] = key
-        path = self._entry(stage, key)
-        value = None
-        if path is not None:
-            try:
-                value = loads(path)
-            except Exception:  # a damaged entry is a miss, never an error
-                value = None
+        value = self._load(stage, key)
         self.reused[stage] = value is not None
         return value
 
@@ -577,11 +643,7 @@ class PlanCache:
         its parts are still valid. Records nothing: :meth:`put` a new value, or
         :meth:`carry` this one, to keep one for the next run."""
         key = self.last_key(stage)
-        path = self._entry(stage, key) if key is not None else None
-        try:
-            return loads(path) if path is not None else None
-        except Exception:  # a damaged entry is a miss, never an error
-            return None
+        return self._load(stage, key) if key is not None else None
 
     def carry(self, stage: str) -> None:
         """Keep the last run's entry for ``stage`` as it is (a memo this run did not need)."""
@@ -658,11 +720,20 @@ class PlanCache:
         """What the last run's writers recorded beside their files under ``name`` (``index``:
         to update them row by row, :mod:`routeplan.outputs.reuse`; ``map``: the map's memo);
         None when missing or damaged."""
+        e = self._outputs().get("aux", {}).get(name)
+        if self.resident is not None and isinstance(e, dict):
+            value = self.resident.aux(name, e.get("sha256"))
+            if value is not None and (self.dir / str(e.get("file"))).is_file():
+                self._aux_values[name] = value
+                return value
         path = self.output_aux_file(name)
         try:
-            return loads(path) if path is not None else None
+            value = loads(path) if path is not None else None
         except Exception:  # a damaged entry is a miss, never an error
             return None
+        if value is not None:
+            self._aux_values[name] = value
+        return value
 
     def output_aux_file(self, name: str) -> Path | None:
         """The file of :meth:`output_aux`, if it is the one recorded."""
@@ -692,9 +763,9 @@ class PlanCache:
             out[name] = path
         return out
 
-    @staticmethod
-    def save_aux(new_out: Path, name: str, value: Any) -> None:
+    def save_aux(self, new_out: Path, name: str, value: Any) -> None:
         """Store a writer's record ``value`` as ``name`` (see :meth:`output_aux`)."""
+        self._aux_values[name] = value
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
         _dump_entry(value, target / f"{name}.npz")
@@ -750,6 +821,7 @@ class PlanCache:
         }
         text = json.dumps(manifest, indent=1) + "\n"
         (target / MANIFEST).write_text(text, encoding="utf-8")
+        self._saved = manifest
         written = {e["file"]: e["sha256"] for e in (*entries.values(), *aux.values())}
         written[MANIFEST] = hashlib.sha256(text.encode("utf-8")).hexdigest()
         return {f"{CACHE_DIR}/{name}": sha for name, sha in written.items()}

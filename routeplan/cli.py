@@ -284,11 +284,24 @@ def plan(
         ),
     ] = True,
     force: ForceOption = False,
+    watch: Annotated[
+        bool,
+        typer.Option(
+            "--watch",
+            help="Keep running after the plan: plan into --out again whenever site.toml or a "
+            "layer's file changes (bad input is reported and the last outputs stay); Ctrl-C "
+            "stops, with the last run's exit status.",
+        ),
+    ] = False,
 ) -> None:
     """Route and size every circuit; write the cable and trench schedules, quantities, GIS
     layers, workbook, summary and map. Exit 0 when every limit is met, 1 when something fails
     a limit (outputs written), 2 on bad input or an unusable output folder (nothing
     written)."""
+    map_options = {"basemap": basemap, "aggregate_strings_above": aggregate_above}
+    if watch:
+        _watch(site, out_dir, quiet, map_options, use_cache, force)
+        return
     from .cache import PlanCache
     from .outputs.write import write_plan
     from .pipeline import plan as run_plan
@@ -302,21 +315,73 @@ def plan(
             status.start()
         cache = PlanCache(folder) if use_cache else None
         result = run_plan(site, progress=say, cache=cache)
-        write_plan(
-            result,
-            folder,
-            progress=say,
-            map_options={"basemap": basemap, "aggregate_strings_above": aggregate_above},
-        )
+        write_plan(result, folder, progress=say, map_options=map_options)
     if not quiet:
-        failing = failing_lines(result.circuits, result.segments, result.inputs)
-        failing += bill_notes(result.quantities)
-        _print_summary(result.summary, out_dir, failing)
-        if cache is not None and cache.bypassed:
-            out.print(f"cache: not used: {cache.bypassed}", markup=False)
-        elif result.cache is not None:
-            out.print(_cache_line(result.cache), markup=False)
+        _print_plan(result, out_dir, cache)
     raise typer.Exit(0 if result.ok else 1)
+
+
+def _print_plan(result: Any, out_dir: Path, cache: Any) -> None:
+    """The plan's summary, its failing circuits and what the cache saved."""
+    failing = failing_lines(result.circuits, result.segments, result.inputs)
+    failing += bill_notes(result.quantities)
+    _print_summary(result.summary, out_dir, failing)
+    if cache is not None and cache.bypassed:
+        out.print(f"cache: not used: {cache.bypassed}", markup=False)
+    elif result.cache is not None:
+        out.print(_cache_line(result.cache), markup=False)
+
+
+def _watch(
+    site: Path, out_dir: Path, quiet: bool, map_options: dict, use_cache: bool, force: bool
+) -> None:
+    """``routeplan plan --watch``: plan, then plan again at every change of the site's files
+    (:mod:`routeplan.watch`) until Ctrl-C; exit with the last run's status. Bad input or a
+    file system failure is reported and waited out; an unusable output folder ends it."""
+    import time
+
+    from .watch import Watcher
+
+    watcher = Watcher(site, out_dir, map_options, force=force, use_cache=use_cache)
+    code = 2
+    try:
+        while True:
+            try:
+                result, seconds = watcher.run()
+            except FolderError as exc:
+                _fail_input(exc)
+            except InputError as exc:
+                problems = getattr(exc, "problems", None) or [exc]
+                for p in problems:
+                    err.print(f"error: {p}", markup=False)
+                err.print(
+                    f"{len(problems)} problem(s) in the input; nothing was planned ({out_dir} "
+                    "keeps the last outputs)",
+                    markup=False,
+                )
+                code = 2
+            except OSError as exc:
+                name = exc.filename or out_dir
+                err.print(
+                    f"error: {name}: {exc.strerror or exc}; nothing was written ({out_dir} "
+                    "keeps the last outputs)",
+                    markup=False,
+                )
+                code = 2
+            else:
+                code = 0 if result.ok else 1
+                if not quiet:
+                    _print_plan(result, out_dir, result.cache)
+                    out.print(
+                        f"{time.strftime('%H:%M:%S')} planned in {seconds:.1f} s", markup=False
+                    )
+            if not quiet:
+                out.print(f"watching {site} for changes (Ctrl-C stops)", markup=False)
+            watcher.wait()
+    except KeyboardInterrupt:
+        if not quiet:
+            out.print("stopped watching", markup=False)
+        raise typer.Exit(code) from None
 
 
 @app.command()

@@ -8,6 +8,7 @@ a Site.
 from __future__ import annotations
 
 import math
+import shutil
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
@@ -178,3 +179,21 @@ def make_site():
 def comb():
     """Factory of generated comb sites (see :func:`comb_site`)."""
     return comb_site
+
+
+@pytest.fixture(scope="module")
+def generated(tmp_path_factory) -> Path:
+    """A generated 20 MW site (routeplan.synth, invented), made once per test module."""
+    from routeplan.synth import generate_site
+
+    site = tmp_path_factory.mktemp("gen") / "site"
+    generate_site(20.0, 5, site)
+    return site
+
+
+@pytest.fixture
+def gen(generated, tmp_path) -> Path:
+    """A copy of :func:`generated` this test may edit."""
+    site = tmp_path / "gen"
+    shutil.copytree(generated, site)
+    return site

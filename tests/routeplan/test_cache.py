@@ -155,22 +155,6 @@ def demo(tmp_path) -> Path:
     return site
 
 
-@pytest.fixture(scope="module")
-def generated(tmp_path_factory) -> Path:
-    from routeplan.synth import generate_site
-
-    site = tmp_path_factory.mktemp("gen") / "site"
-    generate_site(20.0, 5, site)
-    return site
-
-
-@pytest.fixture
-def gen(generated, tmp_path) -> Path:
-    site = tmp_path / "gen"
-    shutil.copytree(generated, site)
-    return site
-
-
 # -- warm equals cold --------------------------------------------------------------------------
 
 

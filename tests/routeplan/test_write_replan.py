@@ -6,7 +6,6 @@ feature (SQLite, and GDAL through pyogrio)."""
 
 from __future__ import annotations
 
-import shutil
 import sqlite3
 from pathlib import Path
 
@@ -14,7 +13,6 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyogrio
-import pytest
 import shapely
 
 from routeplan.cache import PlanCache
@@ -22,22 +20,6 @@ from routeplan.outputs.gpkg import GpkgLayer, _register_functions
 from routeplan.outputs.reuse import column_hashes, row_hashes
 
 from .test_cache import GPKG, GPKG_LAYERS, XLSX, move_gpkg_pad, run, same_csvs, same_gpkg
-
-
-@pytest.fixture(scope="module")
-def generated(tmp_path_factory) -> Path:
-    from routeplan.synth import generate_site
-
-    site = tmp_path_factory.mktemp("gen") / "site"
-    generate_site(20.0, 5, site)
-    return site
-
-
-@pytest.fixture
-def gen(generated, tmp_path) -> Path:
-    site = tmp_path / "gen"
-    shutil.copytree(generated, site)
-    return site
 
 
 def same_as_gdal_reads(a: Path, b: Path) -> None:

@@ -1,0 +1,105 @@
+"""Planning again whenever the site's files change: ``routeplan plan SITE --out DIR --watch``.
+
+A designer moves a pad or redraws a trench in a GIS and saves; the process that watches the
+site folder sees the files change and plans into the same output folder again, as
+``routeplan plan`` would (the same outputs, byte for byte), without the work a new process
+repeats: starting the interpreter and importing the libraries, and reading, checking and
+decoding the last run's cache entries — it keeps the last run's values in memory
+(:class:`routeplan.cache.Resident`), so a move of combiners or inverters is re-planned
+locally from the plan in memory (:func:`routeplan.localplan.from_cache`).
+
+What is watched: site.toml and every file a layer is read from
+(:func:`layers.sources.source_files`; the layer's file alone when they cannot all be listed),
+by size and modification time, read again at every poll (a layer added in site.toml is
+watched from then on). A change is planned once the files have stayed the same for one more
+poll (a save that writes several files, or writes one in steps, is planned when it is done).
+A change made while a plan runs is seen by the next poll and planned after it.
+
+Each run opens the output folder again, as a new ``routeplan plan`` would: a user's file in
+it is never touched, and a run that fails on bad input writes nothing (the last outputs stay).
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from layers.sources import SITE_TOML, layer_file, locate_layers, read_config, source_files
+
+from .cache import PlanCache, Resident
+from .outputs.write import open_output_folder, write_plan
+from .pipeline import Plan
+from .pipeline import plan as run_plan
+
+__all__ = ["Watcher", "site_state"]
+
+#: one watched file: (path, size in bytes, modification time in ns); size -1 when missing
+FileState = tuple[str, int, int]
+
+
+def site_state(root: Path | str) -> tuple[FileState, ...]:
+    """Size and modification time of site.toml and of every file the site's layers are read
+    from (see the module docstring), sorted by path."""
+    root = Path(root)
+    paths = {root / SITE_TOML}
+    config, problems = read_config(root)
+    if not problems:
+        sources, _ = locate_layers(root, config)
+        for spec in sources.values():
+            files = source_files(root, spec)
+            paths.update(files if files is not None else [layer_file(root, spec)])
+    state = []
+    for path in sorted(paths):
+        try:
+            st = path.stat()
+            state.append((str(path), st.st_size, st.st_mtime_ns))
+        except OSError:
+            state.append((str(path), -1, 0))
+    return tuple(state)
+
+
+@dataclass
+class Watcher:
+    """Plans ``site`` into ``out_dir`` (:meth:`run`) and waits for its files to change
+    (:meth:`wait`), keeping the last run's cache values in memory between runs.
+
+    ``map_options`` and ``force`` as for :func:`routeplan.outputs.write.write_plan`;
+    ``use_cache=False`` plans every run from scratch (nothing kept)."""
+
+    site: Path
+    out_dir: Path
+    map_options: dict | None = None
+    force: bool = False
+    use_cache: bool = True
+    resident: Resident = field(default_factory=Resident)
+    #: the site's files as the last run (or :meth:`wait`) saw them
+    state: tuple[FileState, ...] = ()
+
+    def run(self, progress: Callable[[str], None] | None = None) -> tuple[Plan, float]:
+        """Plan the site as it is now and write every output (all or nothing); the plan and
+        its wall time [s]. Raises as ``routeplan plan`` fails (bad input, an unusable
+        folder, a file system error): nothing is written then."""
+        t0 = time.perf_counter()
+        self.state = site_state(self.site)  # before reading: a save during the run is seen
+        folder = open_output_folder(self.out_dir, self.site, force=self.force)
+        with folder:
+            cache = PlanCache(folder, resident=self.resident) if self.use_cache else None
+            plan = run_plan(self.site, progress=progress, cache=cache)
+            write_plan(plan, folder, progress=progress, map_options=self.map_options)
+        if cache is not None and not cache.bypassed:
+            self.resident.keep(cache)
+        return plan, time.perf_counter() - t0
+
+    def wait(self, interval_s: float = 0.25, sleep: Callable[[float], None] = time.sleep) -> None:
+        """Return once the site's files differ from :attr:`state` and have stayed the same
+        for one more poll ``interval_s`` [s] later."""
+        while True:
+            sleep(interval_s)
+            now = site_state(self.site)
+            if now == self.state:
+                continue
+            sleep(interval_s)
+            if site_state(self.site) == now:
+                return

@@ -1,0 +1,181 @@
+"""Planning again as the site's files change (:mod:`routeplan.watch`, ``routeplan plan
+--watch``): every run of a watching process writes what a cold run of the site as it is then
+writes (CSVs, workbook and summary byte for byte, GeoPackage feature for feature), although
+it takes the last run's cache entries from memory (:class:`routeplan.cache.Resident`) — also
+after an edit is undone (values kept in memory are never changed in place); bad input is
+reported and the last outputs stay; a change is seen in any file a layer is read from."""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from layers import LayerError
+from routeplan import cache as cache_mod
+from routeplan.errors import RoutingError
+from routeplan.watch import Watcher, site_state
+
+from .test_cache import (
+    CSVS,
+    GPKG,
+    XLSX,
+    edit_gpkg_trench,
+    move_gpkg_pad,
+    run,
+    same_csvs,
+    same_gpkg,
+)
+
+STAGE_ENTRIES = ("site-", "route-", "size-", "noding-", "whatif-", "remedy-")
+
+
+def same_as_cold(site: Path, out: Path, cold: Path) -> None:
+    """``out`` holds what a cold run of ``site`` (no cache) writes into ``cold``."""
+    run(site, cold, cache=False)
+    same_csvs(out, cold)
+    for name in (XLSX, "summary.json"):
+        assert (out / name).read_bytes() == (cold / name).read_bytes(), name
+    same_gpkg(out / GPKG, cold / GPKG)
+
+
+def test_a_pad_move_is_replanned_from_memory(gen, tmp_path, monkeypatch):
+    out = tmp_path / "out"
+    watcher = Watcher(gen, out)
+    watcher.run()
+    move_gpkg_pad(gen)
+    decoded: list[str] = []
+    real_loads = cache_mod.loads
+
+    def counting_loads(path):
+        decoded.append(Path(path).name)
+        return real_loads(path)
+
+    monkeypatch.setattr(cache_mod, "loads", counting_loads)
+    plan, seconds = watcher.run()
+    assert plan.cache.reused["local"]  # re-planned locally, from the last plan
+    # no stage entry read back from its file: the watching process had them in memory
+    assert not [n for n in decoded if n.startswith(STAGE_ENTRIES)]
+    assert seconds > 0
+    same_as_cold(gen, out, tmp_path / "cold")
+
+
+def test_edits_undone_and_repeated_give_cold_outputs(gen, tmp_path):
+    """Move, move back (the first run's site again: its entries come from memory, from the
+    run before last), an unchanged run, a trench edit (a full plan), each against a cold run."""
+    out = tmp_path / "out"
+    original = (gen / "site.gpkg").read_bytes()
+    watcher = Watcher(gen, out)
+    watcher.run()
+    move_gpkg_pad(gen)
+    watcher.run()
+    (gen / "site.gpkg").write_bytes(original)
+    plan, _ = watcher.run()
+    same_as_cold(gen, out, tmp_path / "cold1")
+    plan, _ = watcher.run()  # nothing changed: every stage and the outputs reused
+    assert plan.cache.reused["outputs"] and plan.cache.reused["size"]
+    same_as_cold(gen, out, tmp_path / "cold2")
+    move_gpkg_pad(gen, dy=-5.0)
+    watcher.run()
+    same_as_cold(gen, out, tmp_path / "cold3")
+    edit_gpkg_trench(gen, nudge=1.5)
+    plan, _ = watcher.run()
+    assert not plan.cache.reused.get("local")
+    same_as_cold(gen, out, tmp_path / "cold4")
+
+
+def test_bad_input_keeps_the_last_outputs_and_the_next_fix_plans(gen, tmp_path):
+    out = tmp_path / "out"
+    watcher = Watcher(gen, out)
+    watcher.run()
+    before = {n: (out / n).read_bytes() for n in CSVS}
+    toml = (gen / "site.toml").read_text(encoding="utf-8")
+    (gen / "site.toml").write_text(toml + "\n[design\n", encoding="utf-8")  # not TOML
+    with pytest.raises((LayerError, RoutingError), match=r"site\.toml"):
+        watcher.run()
+    assert {n: (out / n).read_bytes() for n in CSVS} == before
+    (gen / "site.toml").write_text(toml, encoding="utf-8")
+    move_gpkg_pad(gen)
+    watcher.run()
+    same_as_cold(gen, out, tmp_path / "cold")
+
+
+def test_wait_returns_once_a_change_has_settled(gen):
+    watcher = Watcher(gen, gen.parent / "out")
+    watcher.state = site_state(gen)
+    polls: list[int] = []
+    side = gen / "site.gpkg.aux.xml"  # a side file GDAL reads with the layers' GeoPackage
+
+    def sleep(_s: float) -> None:
+        polls.append(1)
+        if len(polls) == 2:
+            side.write_bytes(b"<a/>")
+        elif len(polls) == 3:
+            side.write_bytes(b"<ab/>")  # still being written: not yet planned
+        elif len(polls) > 6:
+            raise AssertionError("the change was never seen")
+
+    watcher.wait(0.0, sleep=sleep)
+    # polls 1-2: unchanged then changed (poll 2), poll 3 differs again, 4 sees it, 5 settles
+    assert len(polls) == 5
+    assert site_state(gen) != watcher.state
+
+
+def test_wait_ignores_files_no_layer_reads(gen):
+    watcher = Watcher(gen, gen.parent / "out")
+    watcher.state = site_state(gen)
+    polls: list[int] = []
+
+    def sleep(_s: float) -> None:
+        polls.append(1)
+        (gen / "notes.txt").write_text(f"{len(polls)}")
+        if len(polls) > 4:
+            raise StopIteration
+
+    with pytest.raises(StopIteration):
+        watcher.wait(0.0, sleep=sleep)
+
+
+def test_cli_watch_replans_on_save_and_stops_on_interrupt(gen, tmp_path):
+    out = tmp_path / "out"
+    cmd = [sys.executable, "-m", "routeplan", "plan", str(gen), "--out", str(out), "--watch"]
+    env = {**os.environ, "COLUMNS": "200"}
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    try:
+        manifest = out / ".routeplan-cache" / "manifest.json"
+        first = _wait_for(lambda: manifest.is_file() and json.loads(manifest.read_text()))
+        move_gpkg_pad(gen)
+        _wait_for(
+            lambda: (
+                manifest.is_file()
+                and json.loads(manifest.read_text())["entries"]["site"] != first["entries"]["site"]
+            )
+        )
+        time.sleep(0.5)  # the run prints its summary after committing
+    finally:
+        proc.send_signal(signal.SIGINT)
+        stdout, stderr = proc.communicate(timeout=60)
+    assert proc.returncode in (0, 1), stderr  # the last run's status: 1 = a limit failed
+    assert stdout.count("planned in") == 2, stdout
+    assert "stopped watching" in stdout
+    assert "Traceback" not in stderr
+    same_as_cold(gen, out, tmp_path / "cold")
+
+
+def _wait_for(check, timeout_s: float = 120.0):
+    end = time.monotonic() + timeout_s
+    while time.monotonic() < end:
+        try:
+            value = check()
+        except (OSError, ValueError, KeyError):
+            value = None
+        if value:
+            return value
+        time.sleep(0.1)
+    raise AssertionError("timed out")
