@@ -45,6 +45,7 @@ import itertools
 import json
 import os
 import platform
+import re
 import resource
 import subprocess
 import sys
@@ -105,6 +106,38 @@ def _cli_plan_s(site: Path, out: Path) -> float:
     return seconds
 
 
+def _watch_replan_s(site: Path, out: Path) -> tuple[float, float]:
+    """A watching process (``routeplan plan SITE --out OUT --watch``) after its first plan:
+    one inverter pad moved and saved; the wall time from the save to the re-plan's summary
+    printed (the poll that sees the change included) and the time the process reports for the
+    re-plan itself (from reading the site to the outputs committed)."""
+    import signal
+
+    cmd = [sys.executable, "-m", "routeplan", "plan", str(site), "--out", str(out), "--watch"]
+    proc = subprocess.Popen(
+        cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env={**os.environ}
+    )
+
+    def planned() -> float:
+        for line in proc.stdout:
+            m = re.search(r"planned in ([0-9.]+) s", line)
+            if m:
+                return float(m.group(1))
+        raise SystemExit("the watching process stopped: " + proc.stderr.read())
+
+    try:
+        planned()
+        time.sleep(2.0)  # idle, as between a designer's edits
+        move_pad(site)
+        t0 = time.perf_counter()
+        reported = planned()
+        wall = time.perf_counter() - t0
+    finally:
+        proc.send_signal(signal.SIGINT)
+        proc.communicate(timeout=120)
+    return wall, reported
+
+
 def edit_and_replan(site_dir: Path, work: Path) -> dict:
     """The edit-and-regenerate measurement: plan a copy of the site with its cache (the full
     run, as ``routeplan plan`` does it), move one inverter pad, plan again into the same
@@ -138,7 +171,12 @@ def edit_and_replan(site_dir: Path, work: Path) -> dict:
     cli_full_s = _cli_plan_s(cli_site, cli_out)
     move_pad(cli_site)
     cli_replan_s = _cli_plan_s(cli_site, cli_out)
+    watch_site = work / "edit_site_watch"
+    shutil.copytree(site_dir, watch_site)
+    watch_wall_s, watch_replan_s = _watch_replan_s(watch_site, work / "edit_out_watch")
     return {
+        "watch_wall_s": watch_wall_s,
+        "watch_replan_s": watch_replan_s,
         "pad": pad,
         "full_s": full_s,
         "replan_s": replan_s,
@@ -677,13 +715,18 @@ def report(res: dict) -> str:
             "output folder. *Full run*: the same plant planned with its cache written, as "
             "`routeplan plan` does it. In-process: plan + write after the imports. As "
             "processes: wall time of `routeplan plan SITE --out OUT -q`, interpreter start and "
-            "imports included. The re-plan's CSV files are compared byte for byte with a cold "
-            "run of the edited site.",
+            "imports included. *Watching*: a `routeplan plan SITE --out OUT --watch` process "
+            "left idle after its first plan, the pad moved and saved; the re-plan as the "
+            "process reports it (site read to outputs committed) and the wall time from the "
+            "save to its summary (the 0.1 s polls that see the change and see it settled "
+            "included); its ratio is to the full run as a process. The re-plan's CSV files are "
+            "compared byte for byte with a cold run of the edited site.",
             "",
             "| plant | full run [s] | re-plan [s] | ratio | · planning [s] | process: full [s] "
-            "| process: re-plan [s] | ratio | routes.gpkg rows rewritten | CSV chunks copied "
+            "| process: re-plan [s] | ratio | watching: re-plan [s] | ratio | save → summary [s] "
+            "| routes.gpkg rows rewritten | CSV chunks copied "
             "| workbook chunks copied | map tiles reused | CSVs = cold run |",
-            "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|",
+            "|---|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---|",
         ]
         for r in plants:
             e, u = r["edit"], r["edit"]["reuse"]
@@ -694,6 +737,9 @@ def report(res: dict) -> str:
                 f"| **{100 * e['replan_s'] / e['full_s']:.0f} %** | {_s(e['replan_plan_s'])} "
                 f"| {_s(e['cli_full_s'])} | {_s(e['cli_replan_s'])} "
                 f"| **{100 * e['cli_replan_s'] / e['cli_full_s']:.0f} %** "
+                f"| {_s(e['watch_replan_s'])} "
+                f"| **{100 * e['watch_replan_s'] / e['cli_full_s']:.0f} %** "
+                f"| {_s(e['watch_wall_s'])} "
                 f"| {u['gpkg_rows_rewritten']:,} of {e['rows']:,} | {csv:,} "
                 f"| {chunks.get('cable_schedule.xlsx', -1):,} "
                 f"| {u['map_tiles_reused']:,} "
@@ -759,9 +805,11 @@ def report(res: dict) -> str:
         e = big["edit"]
         ratio = e["replan_s"] / e["full_s"]
         cli = e["cli_replan_s"] / e["cli_full_s"]
+        watching = e["watch_replan_s"] / e["cli_full_s"]
         out.append(
             f"| edit and regenerate ≤ 25 % of the full run | {100 * ratio:.0f} % in-process, "
-            f"{100 * cli:.0f} % as processes | {'yes' if max(ratio, cli) <= 0.25 else 'no'} |"
+            f"{100 * cli:.0f} % as processes, {100 * watching:.0f} % in a watching process "
+            f"| {'yes' if max(ratio, cli) <= 0.25 else 'no'} |"
         )
     out.append("")
     return "\n".join(out)

@@ -92,7 +92,7 @@ class Watcher:
             self.resident.keep(cache)
         return plan, time.perf_counter() - t0
 
-    def wait(self, interval_s: float = 0.25, sleep: Callable[[float], None] = time.sleep) -> None:
+    def wait(self, interval_s: float = 0.1, sleep: Callable[[float], None] = time.sleep) -> None:
         """Return once the site's files differ from :attr:`state` and have stayed the same
         for one more poll ``interval_s`` [s] later."""
         while True:
