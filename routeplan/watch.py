@@ -76,6 +76,8 @@ class Watcher:
     resident: Resident = field(default_factory=Resident)
     #: the site's files as the last run (or :meth:`wait`) saw them
     state: tuple[FileState, ...] = ()
+    #: the last run's writing, by step [s] (:func:`~routeplan.outputs.write.write_plan`)
+    written: dict[str, float] = field(default_factory=dict)
 
     def run(self, progress: Callable[[str], None] | None = None) -> tuple[Plan, float]:
         """Plan the site as it is now and write every output (all or nothing); the plan and
@@ -87,7 +89,7 @@ class Watcher:
         with folder:
             cache = PlanCache(folder, resident=self.resident) if self.use_cache else None
             plan = run_plan(self.site, progress=progress, cache=cache)
-            write_plan(plan, folder, progress=progress, map_options=self.map_options)
+            self.written = write_plan(plan, folder, progress=progress, map_options=self.map_options)
         if cache is not None and not cache.bypassed:
             self.resident.keep(cache)
         return plan, time.perf_counter() - t0
