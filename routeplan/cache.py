@@ -511,6 +511,18 @@ class Resident:
     def __init__(self) -> None:
         self._entries: dict[tuple[str, str, str], Any] = {}
         self._aux: dict[tuple[str, str], Any] = {}
+        self._derived: dict[str, tuple[Any, Any]] = {}
+
+    def derived(self, name: str, key: Any) -> Any | None:
+        """A value computed from the kept entries (``baseline``: the last plan made ready for
+        a local re-plan, :func:`routeplan.localplan.from_cache`) under ``key`` (the keys of
+        the entries it comes from and anything else it depends on), or None."""
+        kept = self._derived.get(name)
+        return kept[1] if kept is not None and kept[0] == key else None
+
+    def keep_derived(self, name: str, key: Any, value: Any) -> None:
+        """Keep ``value`` as :meth:`derived` ``name`` under ``key`` (one per name)."""
+        self._derived[name] = (key, value)
 
     def entry(self, stage: str, key: str, sha256: Any) -> Any | None:
         """The kept value of the entry ``stage`` stored under ``key`` with ``sha256``."""

@@ -375,6 +375,7 @@ def _watch(
                     out.print(
                         f"{time.strftime('%H:%M:%S')} planned in {seconds:.1f} s", markup=False
                     )
+                watcher.prepare(result.design)
             if not quiet:
                 out.print(f"watching {site} for changes (Ctrl-C stops)", markup=False)
             watcher.wait()

@@ -117,6 +117,7 @@ __all__ = [
     "baseline",
     "figures",
     "from_cache",
+    "last_baseline",
     "moved_features",
     "replan",
 ]
@@ -350,13 +351,9 @@ def from_cache(
     moved = moved_features(old_site, site) if old_site is not None else None
     if moved is None or not any(len(v) for v in moved.values()):
         return None
-    routes0, result0 = cache.latest("route"), cache.latest("size")
-    if routes0 is None or result0 is None or repr(routes0.params) != repr(params):
+    base = last_baseline(cache, design, old_site)
+    if base is None or repr(base.plan.routes.params) != repr(params):
         return None
-    # the last plan without its tables (none is read back: the local re-plan builds them;
-    # baseline() makes the inverter inputs' table)
-    old = Plan(old_site, design, routes0, result0, None, None, None, {}, {}, None, None)
-    base = baseline(old_site, design, plan=old)
     t["local.baseline"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     memo0 = cache.latest("noding")  # the route entry keeps no memo
@@ -396,6 +393,33 @@ def from_cache(
         ]
     cache.put_all(entries)
     return dataclasses.replace(plan, timings_s=t, cache=cache)
+
+
+def last_baseline(
+    cache: PlanCache, design: DesignConfig, old_site: Site | None = None
+) -> Baseline | None:
+    """The last run's plan kept in ``cache`` (its ``site``, ``route`` and ``size`` entries;
+    ``old_site``: the site entry when the caller has it), without its tables, as the
+    :class:`Baseline` of a local re-plan under ``design``; None when an entry is missing. A
+    watching process (``cache.resident``, :class:`routeplan.cache.Resident`) keeps it: built
+    once per run, while the process waits for the next edit (:mod:`routeplan.watch`)."""
+    key = tuple(cache.last_key(stage) for stage in ("site", "route", "size"))
+    resident = cache.resident
+    if resident is not None:
+        kept = resident.derived("baseline", key)
+        if kept is not None and kept.plan.design == design:
+            return kept
+    old_site = cache.latest("site") if old_site is None else old_site
+    routes0, result0 = cache.latest("route"), cache.latest("size")
+    if old_site is None or routes0 is None or result0 is None:
+        return None
+    # the last plan without its tables (none is read back: the local re-plan builds them;
+    # baseline() makes the inverter inputs' table)
+    old = Plan(old_site, design, routes0, result0, None, None, None, {}, {}, None, None)
+    base = baseline(old_site, design, plan=old)
+    if resident is not None:
+        resident.keep_derived("baseline", key, base)
+    return base
 
 
 def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:

@@ -29,6 +29,8 @@ from pathlib import Path
 from layers.sources import SITE_TOML, layer_file, locate_layers, read_config, source_files
 
 from .cache import PlanCache, Resident
+from .config import DesignConfig
+from .localplan import last_baseline
 from .outputs.write import open_output_folder, write_plan
 from .pipeline import Plan
 from .pipeline import plan as run_plan
@@ -90,9 +92,17 @@ class Watcher:
             cache = PlanCache(folder, resident=self.resident) if self.use_cache else None
             plan = run_plan(self.site, progress=progress, cache=cache)
             self.written = write_plan(plan, folder, progress=progress, map_options=self.map_options)
+        seconds = time.perf_counter() - t0
         if cache is not None and not cache.bypassed:
             self.resident.keep(cache)
-        return plan, time.perf_counter() - t0
+        return plan, seconds
+
+    def prepare(self, design: DesignConfig) -> None:
+        """Ready what the next run needs while waiting for an edit (the last run planned under
+        ``design``): the last plan as the baseline of a local re-plan
+        (:func:`routeplan.localplan.last_baseline`)."""
+        if self.use_cache:
+            last_baseline(PlanCache(self.out_dir, resident=self.resident), design)
 
     def wait(self, interval_s: float = 0.1, sleep: Callable[[float], None] = time.sleep) -> None:
         """Return once the site's files differ from :attr:`state` and have stayed the same

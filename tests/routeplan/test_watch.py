@@ -19,6 +19,7 @@ import pytest
 
 from layers import LayerError
 from routeplan import cache as cache_mod
+from routeplan import localplan
 from routeplan.errors import RoutingError
 from routeplan.watch import Watcher, site_state
 
@@ -48,7 +49,8 @@ def same_as_cold(site: Path, out: Path, cold: Path) -> None:
 def test_a_pad_move_is_replanned_from_memory(gen, tmp_path, monkeypatch):
     out = tmp_path / "out"
     watcher = Watcher(gen, out)
-    watcher.run()
+    first, _ = watcher.run()
+    watcher.prepare(first.design)  # the baseline of the next local re-plan, made while idle
     move_gpkg_pad(gen)
     decoded: list[str] = []
     real_loads = cache_mod.loads
@@ -58,6 +60,7 @@ def test_a_pad_move_is_replanned_from_memory(gen, tmp_path, monkeypatch):
         return real_loads(path)
 
     monkeypatch.setattr(cache_mod, "loads", counting_loads)
+    monkeypatch.setattr(localplan, "baseline", None)  # not built again: prepared
     plan, seconds = watcher.run()
     assert plan.cache.reused["local"]  # re-planned locally, from the last plan
     # no stage entry read back from its file: the watching process had them in memory
@@ -72,9 +75,10 @@ def test_edits_undone_and_repeated_give_cold_outputs(gen, tmp_path):
     out = tmp_path / "out"
     original = (gen / "site.gpkg").read_bytes()
     watcher = Watcher(gen, out)
-    watcher.run()
+    first, _ = watcher.run()
     move_gpkg_pad(gen)
     watcher.run()
+    watcher.prepare(first.design)
     (gen / "site.gpkg").write_bytes(original)
     plan, _ = watcher.run()
     same_as_cold(gen, out, tmp_path / "cold1")
