@@ -56,6 +56,14 @@ from typing import NamedTuple
 import numpy as np
 
 from calc.errors import ConvergenceError, InputError, TableRangeError, check_option
+from calc.kinds import (
+    FEEDER_KINDS,
+    KIND_AC,
+    KIND_ARRAY,
+    KIND_NAMES,
+    KIND_STRING,
+    KIND_SUBARRAY,
+)
 from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_SYSTEMS, conductor_marking
 from calc.rules import RuleSet, get_rules
@@ -74,14 +82,6 @@ __all__ = [
     "failure_causes",
     "size_circuits",
 ]
-
-KIND_STRING = 0
-KIND_ARRAY = 1
-KIND_AC = 2
-KIND_SUBARRAY = 3
-KIND_NAMES = ("string", "array", "ac", "subarray")
-#: the d.c. cables between a combiner and the next combiner or the inverter
-FEEDER_KINDS = (KIND_ARRAY, KIND_SUBARRAY)
 
 ENV_NAMES = ("air", "D1", "D2")  # governing environment codes 0, 1, 2
 #: how array cables are protected against the backfeed of the other arrays on their input

@@ -27,6 +27,7 @@ import numpy as np
 
 from calc import pv, resistance
 from calc.errors import InputError, check_option
+from calc.kinds import KIND_AC
 
 __all__ = ["RuleSet", "get_rules", "rule_names"]
 
@@ -37,8 +38,9 @@ _MODULES: dict[str, str] = {"iec": "calc.rules.iec:IecRules", "nec": "calc.rules
 class RuleSet(abc.ABC):
     """Interface of a rule set (all arrays SI floats; sizes in mm²).
 
-    Kinds: 0 string, 1 array, 2 ac, 3 sub-array. Environments: "air", "D1" (duct in ground),
-    "D2" (direct in ground). Insulation "PV" denotes the PV string cable of the rule set.
+    Kinds: the codes of :mod:`calc.kinds` (0 string, 1 array, 2 ac, 3 sub-array). Environments:
+    "air", "D1" (duct in ground), "D2" (direct in ground). Insulation "PV" denotes the PV string
+    cable of the rule set.
     """
 
     name: ClassVar[str]
@@ -233,7 +235,7 @@ class RuleSet(abc.ABC):
         """Current-carrying conductors of one cable set of each circuit [1]: 2 for d.c. and
         single-phase, 3 for three-phase (a balanced neutral carries no current). Used only
         when :attr:`group_counts` is ``"conductors"``."""
-        return np.where((np.asarray(kind) == 2) & (np.asarray(phases) == 3), 3, 2)
+        return np.where((np.asarray(kind) == KIND_AC) & (np.asarray(phases) == 3), 3, 2)
 
     def terminal_capacity_a(
         self, kind: int, material: str, insulation: str, env: str, sizes_mm2: np.ndarray, design

@@ -59,6 +59,7 @@ import numpy as np
 from calc import protection as iec_protection
 from calc import pv
 from calc.errors import InputError, check_option
+from calc.kinds import KIND_STRING
 from calc.nec import ampacity, impedance, protection, sizes
 from calc.nec import pv as nec_pv
 from calc.protection import ArrayFuse, Breaker, OverloadCheck, ProtectionCheck
@@ -140,7 +141,7 @@ class NecRules(RuleSet):
         """String: 12–6 AWG; feeders 6 AWG–1000 kcmil (``nec_2023_default_size_lists.csv``,
         common practice)."""
         t = load_table("nec_2023_default_size_lists.csv")
-        labels = t["size_label"][t.where(kind="string" if kind == 0 else "feeder")]
+        labels = t["size_label"][t.where(kind="string" if kind == KIND_STRING else "feeder")]
         return tuple(float(v) for v in sizes.size_from_label(labels))
 
     def size_text(self, size_mm2: float) -> str:
