@@ -792,7 +792,7 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
             )
     x = {ph: rs.reactance_ohm_km(s, insulation, ph) for ph in (1, 3)}
     k_sc = None
-    if kind == KIND_AC and design.fault_ka is not None and not rs.short_circuit_note():
+    if kind == KIND_AC and design.fault_ka is not None and rs.short_circuit_checked:
         k_sc = rs.k_adiabatic(material, insulation, s)
     term = [rs.terminal_capacity_a(kind, material, insulation, e, s, design) for e in ENV_NAMES]
     term = None if term[0] is None else np.stack(term)
@@ -1281,7 +1281,7 @@ def size_circuits(
         "loaded": np.where(is_ac & (a["phases"] == 3), 3, 2),
         "arrangement": np.asarray(design.air_arrangement, dtype=object)[kind],
         # the rule set's short-section exception, where the stretches' lengths are given
-        "short": rs.short_section(np.zeros(0), np.zeros(0)) is not None
+        "short": rs.short_section_exception
         and bool(np.isfinite(a["seg_length_m"]).any() or np.isfinite(a["air_length_m"]).any()),
         "t_air": {
             k: rs.air_temp_factor(_air_temp_c(design, k), d.insulation) for k, d in kd.items()
@@ -1729,7 +1729,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         (c["isc_design"],),
     )
     _add_notes(notes, no_env, lambda i: "no route environment given: in air assumed")
-    if m and rs.buried_note("D2"):  # buried ratings the rule set flags for review
+    if m and rs.buried_review:  # buried ratings the rule set flags for review
         routed = {}
         for env, lay in _LAYING_OF_ENV.items():
             routed[env] = np.zeros(n, dtype=bool)
@@ -1738,8 +1738,9 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         for mask, envs in ((d1 & ~d2, "D1"), (d2 & ~d1, "D2"), (d1 & d2, "D1+D2")):
             text = rs.buried_note(envs)
             _add_notes(notes, mask, lambda i, t=text: t)
-    if design.fault_ka is not None and rs.short_circuit_note():
-        _add_notes(notes, is_ac, lambda i: rs.short_circuit_note())
+    if design.fault_ka is not None and not rs.short_circuit_checked:
+        sc_text = rs.short_circuit_note()
+        _add_notes(notes, is_ac, lambda i: sc_text)
     deriv = out["derating"]
 
     def cap_note(i):

@@ -99,6 +99,11 @@ class RuleSet(abc.ABC):
     ) -> np.ndarray:
         """Reduction factor for grouped buried circuits [1]."""
 
+    #: whether :meth:`group_factor` changes with the clear spacing between circuits (iec: IEC
+    #: 60364-5-52 Tables B.52.18 / B.52.19; nec: no, Table 310.15(C)(1) takes the trench's
+    #: conductors as one bundle); a wider spacing is a remedy only where it does
+    grouping_uses_spacing: ClassVar[bool]
+
     @abc.abstractmethod
     def reactance_ohm_km(self, sizes_mm2: np.ndarray, insulation: str, phases: int) -> np.ndarray:
         """Series reactance per conductor [Ω/km]."""
@@ -215,6 +220,23 @@ class RuleSet(abc.ABC):
     #: the PV fuses' designation in the protection text
     fuse_word: ClassVar[str] = "gPV"
 
+    # which hooks below change the IEC steps, declared: the engine reads these rather than
+    # calling a hook to find out
+
+    #: each conductor set is held to a second capacity, before correction and adjustment
+    #: (:meth:`terminal_capacity_a`, :meth:`terminal_required_a`; nec: 690.8(B)(1), 110.14(C))
+    terminal_condition: ClassVar[bool] = False
+    #: a short governing stretch may be disregarded (:meth:`short_section`; nec: the
+    #: 310.14(A)(2) exception)
+    short_section_exception: ClassVar[bool] = False
+    #: every circuit routed in the ground carries :meth:`buried_note`, for review (nec: Table
+    #: 310.16 represents neither soil, depth nor spacing)
+    buried_review: ClassVar[bool] = False
+    #: with a fault level given, the a.c. cables' adiabatic withstand is checked with
+    #: :meth:`k_adiabatic`; where False, each a.c. circuit carries :meth:`short_circuit_note`
+    #: instead (nec: no adiabatic table)
+    short_circuit_checked: ClassVar[bool] = True
+
     def breaker_text(self, in_a: float, ib_a: float, iz_a: float, device: str) -> str:
         """The a.c. breaker's line of the schedule's protection text."""
         return f"breaker {in_a:g} A ({device}): Ib {ib_a:.0f} A ≤ In ≤ Iz {iz_a:.0f} A"
@@ -242,12 +264,12 @@ class RuleSet(abc.ABC):
     ) -> np.ndarray | None:
         """Capacity one conductor set must have *before* correction and adjustment [A] (e.g.
         NEC 690.8(B)(1) with the 110.14(C) termination column), per size; ``None`` where the
-        rule set has no such condition (IEC)."""
+        rule set has no such condition (IEC; :attr:`terminal_condition` False)."""
         return None
 
     def terminal_required_a(self, i_design_a: np.ndarray) -> np.ndarray:
         """Current the :meth:`terminal_capacity_a` condition must carry [A] (NEC: 1.25 × the
-        690.8(A) maximum current); only called where that method gives a capacity."""
+        690.8(A) maximum current); only called where :attr:`terminal_condition`."""
         return np.asarray(i_design_a, dtype=float)
 
     def conductor_protected(
@@ -260,15 +282,15 @@ class RuleSet(abc.ABC):
 
     def buried_note(self, env: str) -> str:
         """Review note for every circuit routed in the ground in ``env`` ("D1", "D2" or both,
-        "D1+D2"); "" when the rule set's buried ratings represent the installation (IEC: soil,
-        depth, grouping)."""
+        "D1+D2"); only called where :attr:`buried_review`. "" when the rule set's buried
+        ratings represent the installation (IEC: soil, depth, grouping)."""
         return ""
 
     def short_section(self, stretch_m: np.ndarray, circuit_m: np.ndarray) -> np.ndarray | None:
         """Per stretch, whether it is short enough for its lower capacity to be disregarded at a
         transition (the higher capacity of the rest of the circuit applies; NEC 310.14(A)(2)
-        exception); ``None`` where the rule set has no such exception (IEC). nan lengths: not
-        short."""
+        exception); only called where :attr:`short_section_exception`; ``None`` where the rule
+        set has no such exception (IEC). nan lengths: not short."""
         return None
 
     def voc_max_v(self, voc_v, voc_coeff_pct_per_c, min_temp_c: float) -> np.ndarray:
@@ -293,7 +315,8 @@ class RuleSet(abc.ABC):
 
     def short_circuit_note(self) -> str:
         """Note for a.c. circuits whose adiabatic withstand is not checked when a fault level
-        is given ("" = :meth:`k_adiabatic` checks it)."""
+        is given; only called where :attr:`short_circuit_checked` is False ("" = :meth:`k_adiabatic`
+        checks it)."""
         return ""
 
 

@@ -81,6 +81,9 @@ class IecRules(RuleSet):
     def depth_factor(self, depth_m, diameter_m):
         return ampacity.depth_factor(depth_m, diameter_m, ampacity.reference_condition("depth_m"))
 
+    #: IEC 60364-5-52:2009 Tables B.52.18 / B.52.19 give factors per clear spacing
+    grouping_uses_spacing: ClassVar[bool] = True
+
     def group_factor(self, count, spacing_m, laying):
         return ampacity.group_factor(count, spacing_m, laying)
 

@@ -96,6 +96,12 @@ class NecRules(RuleSet):
     fuse_word: ClassVar[str] = "(240.6(A), 690.9)"
     #: Chapter 9 Table 9 is for 60 Hz
     default_frequency_hz: ClassVar[float] = 60.0
+    #: Table 310.15(C)(1) takes a trench's conductors as one bundle, whatever the spacing
+    grouping_uses_spacing: ClassVar[bool] = False
+    terminal_condition: ClassVar[bool] = True
+    short_section_exception: ClassVar[bool] = True
+    buried_review: ClassVar[bool] = True
+    short_circuit_checked: ClassVar[bool] = False
 
     def breaker_text(self, in_a, ib_a, iz_a, device):
         """Breaker ≥ 1.25 × the continuous current; 240.4 against the ampacity."""
