@@ -702,7 +702,7 @@ class _KindData:
     x: dict  # phases -> [S]
     k_sc: np.ndarray | None  # [S]
     p_max: int
-    term: np.ndarray | None = None  # [3, S] uncorrected capacity per environment (nec 690.8(B)(1))
+    term: np.ndarray | None = None  # [S] capacity before correction (nec 690.8(B)(1)), any env
 
 
 def _cable_of(kind: int, design: DesignParams, rs: RuleSet) -> tuple[str, str, np.ndarray]:
@@ -794,8 +794,9 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
     k_sc = None
     if kind == KIND_AC and design.fault_ka is not None and rs.short_circuit_checked:
         k_sc = rs.k_adiabatic(material, insulation, s)
-    term = [rs.terminal_capacity_a(kind, material, insulation, e, s, design) for e in ENV_NAMES]
-    term = None if term[0] is None else np.stack(term)
+    term = None  # the terminations' capacity: the same in every environment (nec 110.14(C)(1))
+    if rs.terminal_condition:
+        term = rs.terminal_capacity_a(kind, material, insulation, ENV_NAMES[0], s, design)
     return _KindData(
         kind=kind,
         idx=idx,
@@ -1093,8 +1094,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     i_req = np.where(carries | ~fusable, np.maximum(i_des, i_bf), np.maximum(i_des, i_prot))
     req1 = cap1 = np.full(ok_cap.shape, np.nan)
     if kd.term is not None:  # a second condition before correction (nec 690.8(B)(1))
-        present = np.isfinite(f_env)[:, :, None]  # [3, k, 1]
-        cap1 = np.min(np.where(present, kd.term[:, None, :], np.inf), axis=0) * pp  # [k, S]
+        cap1 = np.broadcast_to(kd.term * pp, ok_cap.shape)  # [k, S]
         req1 = np.broadcast_to(rs.terminal_required_a(i_des), ok_cap.shape)
         ok_cap = ok_cap & (cap1 >= req1 * (1.0 - _EPS))
         # the device each size would have: string fuse / a.c. breaker, or the array fuse where

@@ -264,7 +264,9 @@ class RuleSet(abc.ABC):
     ) -> np.ndarray | None:
         """Capacity one conductor set must have *before* correction and adjustment [A] (e.g.
         NEC 690.8(B)(1) with the 110.14(C) termination column), per size; ``None`` where the
-        rule set has no such condition (IEC; :attr:`terminal_condition` False)."""
+        rule set has no such condition (IEC; :attr:`terminal_condition` False). It is the
+        terminations' capacity and must not depend on ``env`` (one of the route's
+        environments, checked): the engine asks for it once per kind."""
         return None
 
     def terminal_required_a(self, i_design_a: np.ndarray) -> np.ndarray:
