@@ -1027,6 +1027,22 @@ def _group_base(a: dict, per_set: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return out[0], out[1]
 
 
+def _on_routes(
+    a: dict, base: tuple[np.ndarray, np.ndarray], per_circuit: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """``base`` (per trench segment, per air stretch) plus each circuit's ``per_circuit`` on
+    every segment and air stretch of its route."""
+    seg, air = base
+    return (
+        seg
+        + np.bincount(a["inc_segment"], weights=per_circuit[a["inc_circuit"]], minlength=seg.size),
+        air
+        + np.bincount(
+            a["air_inc_stretch"], weights=per_circuit[a["air_inc_circuit"]], minlength=air.size
+        ),
+    )
+
+
 def _air_temp_c(design: DesignParams, kind: int) -> float:
     """Air temperature of a kind's air environment [°C]: strings run behind the modules."""
     if kind == KIND_STRING and design.row_air_temp_c is not None:
@@ -1321,17 +1337,19 @@ def size_circuits(
     # count changed (and the feeders above them) are re-evaluated. ``below``: each d.c.
     # circuit's own drop plus the worst path below it, filled as the levels are sized
     p = np.ones(n, dtype=np.int64)
-    r_air = a["air_count"].size
     budgets = np.full(n, np.nan)
     budgets[is_str] = min(design.drop_string_pct, design.drop_dc_total_pct)
     budgets[is_ac] = design.drop_ac_pct
     det: dict[int, dict] = {}
     below = np.zeros(n)
-    counts = prev = air_counts = air_prev = None
+    prev = None
     affected = np.ones(n, dtype=bool)
     # what the grouping factors count: circuits (cable sets), or current-carrying conductors
+    # (each extra set then adds its circuit's conductors)
     per_set = _group_units(a, rs)
-    group_base = None if per_set is None else _group_base(a, per_set)
+    sets_base = (a["seg_count"], a["air_count"])
+    group_base = sets_base if per_set is None else _group_base(a, per_set)
+    unit = 1.0 if per_set is None else per_set
     iterations = 0
     # a pass that does not settle adds at least one conductor set (a circuit's count never falls:
     # _select starts from it) and no circuit exceeds max_parallel, so the iteration settles
@@ -1339,32 +1357,15 @@ def size_circuits(
     max_passes = 1 + n * (int(design.max_parallel) - 1)
     for iteration in range(1, max_passes + 1):
         iterations = iteration
-        counts = a["seg_count"] + np.bincount(
-            a["inc_segment"], weights=(p - 1)[a["inc_circuit"]].astype(float), minlength=m
-        )
-        air_counts = a["air_count"] + np.bincount(
-            a["air_inc_stretch"], weights=(p - 1)[a["air_inc_circuit"]].astype(float),
-            minlength=r_air,
-        )  # fmt: skip
-        if per_set is None:
-            group = (counts, air_counts)
-        else:  # conductors: each extra set adds its circuit's conductors
-            extra = ((p - 1) * per_set).astype(float)
-            group = (
-                group_base[0]
-                + np.bincount(a["inc_segment"], weights=extra[a["inc_circuit"]], minlength=m),
-                group_base[1]
-                + np.bincount(a["air_inc_stretch"], weights=extra[a["air_inc_circuit"]],
-                              minlength=r_air),
-            )  # fmt: skip
-        if prev is not None:
-            changed = counts != prev
-            air_changed = air_counts != air_prev
+        group = _on_routes(a, group_base, (p - 1) * unit)
+        if prev is not None:  # a count of conductors changes where one of cable sets does
+            changed = group[0] != prev[0]
+            air_changed = group[1] != prev[1]
             affected = np.zeros(n, dtype=bool)
             affected[a["inc_circuit"][changed[a["inc_segment"]]]] = True
             affected[a["air_inc_circuit"][air_changed[a["air_inc_stretch"]]]] = True
             affected = _with_feeders_above(a["parent"], affected)
-        prev, air_prev = counts, air_counts
+        prev = group
         for k, lv in steps:
             if k not in kd:
                 continue
@@ -1396,6 +1397,8 @@ def size_circuits(
     else:  # pragma: no cover - unreachable: counts only grow, bounded by max_parallel (above)
         raise ConvergenceError(f"parallel/grouping iteration did not settle in {max_passes} passes")
     child_max = _child_max(a["parent"], below, n)
+    # cable sets per segment and air stretch: the grouping count, unless that counts conductors
+    counts, air_counts = group if per_set is None else _on_routes(a, sets_base, p - 1.0)
 
     c.update(p_w=p_w, group_final=group)
     settled = _Settled(det, counts, air_counts, budgets, child_max, iterations)
