@@ -63,6 +63,7 @@ from calc.kinds import KIND_STRING
 from calc.nec import ampacity, impedance, protection, sizes
 from calc.nec import pv as nec_pv
 from calc.protection import ArrayFuse, Breaker, OverloadCheck, ProtectionCheck
+from calc.ratings import fuse_in_range, smallest_rating_a
 from calc.rules import RuleSet
 from calc.tables import load_table
 
@@ -327,13 +328,8 @@ class NecRules(RuleSet):
         lower = ampacity.nec_rule("ocpd_factor") * i_max
         upper = np.where(no_ocpr, np.inf, ocpr)
         ratings = np.sort(np.asarray(ratings_a, dtype=float))
-        idx = np.searchsorted(ratings, lower * (1.0 - _REL), side="left")
-        pick = np.where(idx < len(ratings), ratings[np.minimum(idx, len(ratings) - 1)], np.nan)
-        pick_ok = pick <= upper * (1.0 + _REL)
+        fuse, ok = fuse_in_range(lower, upper, required, fixed, ratings)
         has_fixed = ~np.isnan(fixed)
-        fixed_ok = (fixed >= lower * (1.0 - _REL)) & (fixed <= upper * (1.0 + _REL))
-        fuse = np.where(has_fixed, fixed, np.where(required & pick_ok, pick, np.nan))
-        ok = np.where(has_fixed, fixed_ok, ~required | pick_ok)
         note = np.full(isc.shape, "", dtype=object)
         assumed = no_ocpr & (required | has_fixed)
         note[assumed] = (
@@ -396,8 +392,7 @@ class NecRules(RuleSet):
         isc = np.asarray(isc_array_a, dtype=float)
         lower = ampacity.nec_rule("ocpd_factor") * _i_max(isc)
         r = np.sort(np.asarray(self.gpv_fuse_ratings_a() if ratings_a is None else ratings_a))
-        idx = np.searchsorted(r, lower * (1.0 - _REL), side="left")
-        pick = np.where(idx < len(r), r[np.minimum(idx, len(r) - 1)], np.nan)
+        pick = smallest_rating_a(r, lower)
         ok = np.isfinite(pick)
         factor = ampacity.nec_rule("ocpd_factor")
         note = np.where(ok, "", f"no 240.6(A) rating ≥ {factor:g} × I_max").astype(str)
@@ -434,8 +429,7 @@ class NecRules(RuleSet):
         ib = np.atleast_1d(np.asarray(ib_a, dtype=float))
         factor = ampacity.nec_rule("ocpd_factor")
         lower = factor * ib
-        idx = np.searchsorted(ratings, lower * (1.0 - _REL), side="left")
-        pick = np.where(idx < len(ratings), ratings[np.minimum(idx, len(ratings) - 1)], np.nan)
+        pick = smallest_rating_a(ratings, lower)
         ok = np.isfinite(pick)
         note = np.full(ib.shape, "", dtype=object)
         for i in np.flatnonzero(~ok):
