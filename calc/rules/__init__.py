@@ -6,7 +6,10 @@ AWG sizes) means one new module, its data files and one line in ``_MODULES`` —
 
 The methods after the abstract ones are *hooks* with the IEC behaviour as their default; a rule
 set whose rules differ in structure (NEC 2023: two ampacity conditions, conductors counted for
-grouping, protection by 240.4) overrides them (see :mod:`calc.rules.nec`).
+grouping, protection by 240.4) overrides them (see :mod:`calc.rules.nec`) and declares so in the
+capability attributes beside them (``terminal_condition``, ``short_section_exception``,
+``buried_review``, ``short_circuit_checked``; ``grouping_uses_spacing`` for every rule set),
+which the engine and ``routeplan.remedy`` read instead of calling a hook to find out.
 
 >>> get_rules("iec").name, get_rules("nec").name
 ('iec', 'nec')
