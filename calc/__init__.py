@@ -40,7 +40,8 @@ Modules: :mod:`calc.resistance` (IEC 60228, IEC 60287-1-1, BS 7671 reactance), :
 IEC 60364-4-43 433.1), :mod:`calc.vdrop`, :mod:`calc.losses`, :mod:`calc.shortcircuit`
 (IEC 60364-4-43, IEC 60949),
 :mod:`calc.marking` (IEC 60445 and eight regional systems), :mod:`calc.engine`,
-:mod:`calc.rules`, :mod:`calc.tables`,
+:mod:`calc.rules`, :mod:`calc.tables`, :mod:`calc.kinds` (the circuit kind codes),
+:mod:`calc.ratings` (the smallest standard device rating at or above a current),
 :mod:`calc.errors` (``CalcError`` and its subclasses).
 
 NEC: :mod:`calc.nec` (NFPA 70 NEC 2023: AWG/kcmil sizes, Tables 310.16/310.17 and their

@@ -56,6 +56,7 @@ from typing import NamedTuple
 import numpy as np
 
 from calc.errors import ConvergenceError, InputError, TableRangeError, check_option
+from calc.kinds import FEEDER_KINDS, KIND_AC, KIND_ARRAY, KIND_NAMES, KIND_STRING, KIND_SUBARRAY
 from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_SYSTEMS, conductor_marking
 from calc.rules import RuleSet, get_rules
@@ -74,14 +75,6 @@ __all__ = [
     "failure_causes",
     "size_circuits",
 ]
-
-KIND_STRING = 0
-KIND_ARRAY = 1
-KIND_AC = 2
-KIND_SUBARRAY = 3
-KIND_NAMES = ("string", "array", "ac", "subarray")
-#: the d.c. cables between a combiner and the next combiner or the inverter
-FEEDER_KINDS = (KIND_ARRAY, KIND_SUBARRAY)
 
 ENV_NAMES = ("air", "D1", "D2")  # governing environment codes 0, 1, 2
 #: how array cables are protected against the backfeed of the other arrays on their input
@@ -702,7 +695,7 @@ class _KindData:
     x: dict  # phases -> [S]
     k_sc: np.ndarray | None  # [S]
     p_max: int
-    term: np.ndarray | None = None  # [3, S] uncorrected capacity per environment (nec 690.8(B)(1))
+    term: np.ndarray | None = None  # [S] capacity before correction (nec 690.8(B)(1)), any env
 
 
 def _cable_of(kind: int, design: DesignParams, rs: RuleSet) -> tuple[str, str, np.ndarray]:
@@ -792,10 +785,11 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
             )
     x = {ph: rs.reactance_ohm_km(s, insulation, ph) for ph in (1, 3)}
     k_sc = None
-    if kind == KIND_AC and design.fault_ka is not None and not rs.short_circuit_note():
+    if kind == KIND_AC and design.fault_ka is not None and rs.short_circuit_checked:
         k_sc = rs.k_adiabatic(material, insulation, s)
-    term = [rs.terminal_capacity_a(kind, material, insulation, e, s, design) for e in ENV_NAMES]
-    term = None if term[0] is None else np.stack(term)
+    term = None  # the terminations' capacity: the same in every environment (nec 110.14(C)(1))
+    if rs.terminal_condition:
+        term = rs.terminal_capacity_a(kind, material, insulation, ENV_NAMES[0], s, design)
     return _KindData(
         kind=kind,
         idx=idx,
@@ -814,7 +808,22 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
 
 
 # --------------------------------------------------------------------------------------------
-# governing buried segment per circuit
+# governing stretch per circuit (trench segments of each laying, stretches in air)
+
+
+class _Governing(NamedTuple):
+    """Per circuit, the governing stretch of one environment (the trench segments of one
+    laying, or the stretches in air): the one with the smallest product of its factors."""
+
+    product: np.ndarray  # that product [1]
+    stretch: np.ndarray  # the segment or air stretch, −1 where the circuit has none
+    count: np.ndarray  # what the grouping counted there (circuits or conductors; 0: none)
+    group: np.ndarray  # grouping factor [1] (1: none)
+    temp: np.ndarray | None  # temperature factor [1] (in air, nan: none; None in the ground)
+    #: with a rule set's short-section exception (else None): whether the stretch may be
+    #: disregarded, and the runner-up stretch (product inf where there is none)
+    short: np.ndarray | None = None
+    runner_up: _Governing | None = None
 
 
 def _runner_up(cr: np.ndarray, pr: np.ndarray, keep: np.ndarray, starts: np.ndarray):
@@ -828,15 +837,59 @@ def _runner_up(cr: np.ndarray, pr: np.ndarray, keep: np.ndarray, starts: np.ndar
     return np.minimum.reduceat(pos2, starts)
 
 
-def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet, short=False) -> dict:
-    """Per circuit and laying, the incident segment with the smallest soil·depth·group product.
+def _governing(n: int, c, per_inc: tuple, none_product: float, short_of=None) -> _Governing:
+    """Per circuit, the incidence with the smallest product (the first of equals).
+
+    ``c``: each incidence's circuit (sorted by circuit); ``per_inc``: its (product, stretch,
+    count, group factor, temperature factor or None); a circuit without an incidence gets
+    ``none_product`` and the defaults of :class:`_Governing`. ``short_of(pos, who)`` (a rule
+    set's short-section exception): whether the stretches at the positions ``pos`` may be
+    disregarded on the circuits ``who``; with it the runner-up is gathered too.
+    """
+
+    def empty(product: float) -> _Governing:
+        temp = None if per_inc[4] is None else np.full(n, np.nan)
+        return _Governing(
+            np.full(n, product), np.full(n, -1, dtype=np.int64), np.zeros(n), np.ones(n), temp
+        )
+
+    def gather(into: _Governing, who: np.ndarray, pos: np.ndarray) -> None:
+        for dst, src in zip(into[:5], per_inc, strict=True):
+            if src is not None:
+                dst[who] = src[pos]
+
+    out = empty(none_product)
+    if short_of is not None:
+        short, second = np.zeros(n, dtype=bool), empty(np.inf)
+    if c.size:
+        prod = per_inc[0]
+        starts = np.flatnonzero(np.r_[True, c[1:] != c[:-1]])
+        lo = np.minimum.reduceat(prod, starts)
+        first = prod == np.repeat(lo, np.diff(np.r_[starts, c.size]))
+        keep = np.minimum.reduceat(np.where(first, np.arange(c.size), c.size), starts)
+        who = c[keep]
+        gather(out, who, keep)
+        if short_of is not None:
+            short[who] = short_of(keep, who)
+            k2 = _runner_up(c, prod, keep, starts)
+            has2 = k2 < c.size
+            gather(second, who[has2], k2[has2])
+    if short_of is None:
+        return out
+    return out._replace(short=short, runner_up=second)
+
+
+def _governing_buried(
+    a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet, short=False
+) -> dict[str, _Governing]:
+    """Per laying ("D1", "D2"), each circuit's incident segment with the smallest
+    soil·depth·group product (:class:`_Governing`, product inf where none).
 
     Only incidences of circuits with ``rows_mask_c`` are evaluated; ``delta`` (per circuit) is added
     to the counts of that circuit's own segments (its candidate extra parallel sets). The incidence
     is sorted by circuit (see ``_prepare``), so minima are taken with ``reduceat`` over circuit
-    runs. With ``short`` (a rule set's short-section exception), ``out["alt"][env]`` also gives
-    whether that segment is short enough to be disregarded and the runner-up segment's
-    (product, segment, group factor, count) — inf / −1 where there is none.
+    runs. With ``short`` (a rule set's short-section exception), whether that segment is short
+    enough to be disregarded and the runner-up segment.
     """
     n = rows_mask_c.size
     ic, js = a["inc_circuit"], a["inc_segment"]
@@ -846,92 +899,47 @@ def _governing_buried(a, seg_fixed, counts, rows_mask_c, delta, rs: RuleSet, sho
     g = rs.group_factor(cnt, a["seg_spacing_m"][s], a["seg_laying"][s])
     prod = seg_fixed[s] * g
     out = {}
-    alt = {}
     for env, lay in _LAYING_OF_ENV.items():
-        is_short, minp2 = np.zeros(n, dtype=bool), np.full(n, np.inf)
-        seg2, grp2, gcnt2 = np.full(n, -1, dtype=np.int64), np.ones(n), np.zeros(n)
-        minp = np.full(n, np.inf)
-        seg = np.full(n, -1, dtype=np.int64)
-        grp = np.ones(n)
-        gcnt = np.zeros(n)
         r = a["seg_laying"][s] == lay
-        if np.any(r):
-            cr, pr = c[r], prod[r]
-            starts = np.flatnonzero(np.r_[True, cr[1:] != cr[:-1]])
-            lo = np.minimum.reduceat(pr, starts)
-            rep = np.repeat(lo, np.diff(np.r_[starts, cr.size]))
-            pos = np.where(pr == rep, np.arange(cr.size), cr.size)
-            keep = np.minimum.reduceat(pos, starts)
-            who = cr[keep]
-            minp[who] = pr[keep]
-            seg[who] = s[r][keep]
-            grp[who] = g[r][keep]
-            gcnt[who] = cnt[r][keep]
-            if short:
-                sr = s[r]
-                is_short[who] = rs.short_section(a["seg_length_m"][sr[keep]], a["cable_m"][who])
-                k2 = _runner_up(cr, pr, keep, starts)
-                has2 = k2 < cr.size
-                k2c = np.minimum(k2, cr.size - 1)
-                minp2[who] = np.where(has2, pr[k2c], np.inf)
-                seg2[who] = np.where(has2, sr[k2c], -1)
-                grp2[who] = np.where(has2, g[r][k2c], 1.0)
-                gcnt2[who] = np.where(has2, cnt[r][k2c], 0.0)
-        out[env] = (minp, seg, grp, gcnt)
-        alt[env] = (is_short, minp2, seg2, grp2, gcnt2)
-    if short:
-        out["alt"] = alt
+        sr = s[r]
+        short_of = None
+        if short:
+
+            def short_of(pos, who, sr=sr):
+                return rs.short_section(a["seg_length_m"][sr[pos]], a["cable_m"][who])
+
+        out[env] = _governing(n, c[r], (prod[r], sr, cnt[r], g[r], None), np.inf, short_of)
     return out
 
 
 def _governing_air(
     a, counts, rows_mask_c, delta, rs: RuleSet, arrangement, t_open, t_row, short=False
-):
+) -> _Governing:
     """Per circuit, the air stretch with the smallest product of temperature and grouping
-    factors: (product, stretch, count, grouping factor, temperature factor); a circuit without
-    a stretch gets (nan, −1, 0, 1.0, nan).
+    factors (:class:`_Governing`; a circuit without a stretch: product nan, stretch −1, count 0,
+    grouping factor 1.0, temperature factor nan).
 
     Only incidences of circuits with ``rows_mask_c`` are evaluated; ``delta`` (per circuit) is
     added to the counts of that circuit's own stretches (its candidate extra parallel sets);
     ``arrangement`` is each circuit's arrangement in air; ``t_open`` / ``t_row`` the kind's
     temperature factor in open air / behind the modules. The incidence is sorted by circuit.
-    A sixth element is None, or with ``short`` (a rule set's short-section exception): whether
-    the governing stretch may be disregarded and the runner-up's (product, stretch, count,
-    grouping factor, temperature factor) — inf / −1 where there is none.
+    With ``short`` (a rule set's short-section exception): whether the governing stretch may be
+    disregarded, and the runner-up stretch.
     """
     n = rows_mask_c.size
     ic, ks = a["air_inc_circuit"], a["air_inc_stretch"]
     sel = rows_mask_c[ic]
     c, k = ic[sel], ks[sel]
-    f_min, t_min = np.full(n, np.nan), np.full(n, np.nan)
-    stretch, gcnt, g_min = np.full(n, -1, dtype=np.int64), np.zeros(n), np.ones(n)
-    if c.size:
-        cnt = counts[k] + delta[c]
-        g = rs.air_group_factor(cnt, arrangement[c])
-        t = np.where(a["air_behind_modules"][k], t_row, t_open)
-        f = t * g
-        starts = np.flatnonzero(np.r_[True, c[1:] != c[:-1]])
-        lo = np.minimum.reduceat(f, starts)
-        first = f == np.repeat(lo, np.diff(np.r_[starts, c.size]))
-        keep = np.minimum.reduceat(np.where(first, np.arange(c.size), c.size), starts)
-        who = c[keep]
-        f_min[who], stretch[who], gcnt[who] = f[keep], k[keep], cnt[keep]
-        g_min[who], t_min[who] = g[keep], t[keep]
-    if not short:
-        return f_min, stretch, gcnt, g_min, t_min, None
-    is_short, f2, stretch2 = np.zeros(n, dtype=bool), np.full(n, np.inf), np.full(n, -1)
-    gcnt2, g2, t2 = np.zeros(n), np.ones(n), np.full(n, np.nan)
-    if c.size:
-        is_short[who] = rs.short_section(a["air_length_m"][k[keep]], a["cable_m"][who])
-        k2 = _runner_up(c, f, keep, starts)
-        has2 = k2 < c.size
-        k2c = np.minimum(k2, c.size - 1)
-        f2[who] = np.where(has2, f[k2c], np.inf)
-        stretch2[who] = np.where(has2, k[k2c], -1)
-        gcnt2[who] = np.where(has2, cnt[k2c], 0.0)
-        g2[who] = np.where(has2, g[k2c], 1.0)
-        t2[who] = np.where(has2, t[k2c], np.nan)
-    return f_min, stretch, gcnt, g_min, t_min, (is_short, f2, stretch2, gcnt2, g2, t2)
+    cnt = counts[k] + delta[c]
+    g = rs.air_group_factor(cnt, arrangement[c]) if c.size else np.ones(0)
+    t = np.where(a["air_behind_modules"][k], t_row, t_open)
+    short_of = None
+    if short:
+
+        def short_of(pos, who):
+            return rs.short_section(a["air_length_m"][k[pos]], a["cable_m"][who])
+
+    return _governing(n, c, (t * g, k, cnt, g, t), np.nan, short_of)
 
 
 # --------------------------------------------------------------------------------------------
@@ -1019,6 +1027,22 @@ def _group_base(a: dict, per_set: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return out[0], out[1]
 
 
+def _on_routes(
+    a: dict, base: tuple[np.ndarray, np.ndarray], per_circuit: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """``base`` (per trench segment, per air stretch) plus each circuit's ``per_circuit`` on
+    every segment and air stretch of its route."""
+    seg, air = base
+    return (
+        seg
+        + np.bincount(a["inc_segment"], weights=per_circuit[a["inc_circuit"]], minlength=seg.size),
+        air
+        + np.bincount(
+            a["air_inc_stretch"], weights=per_circuit[a["air_inc_circuit"]], minlength=air.size
+        ),
+    )
+
+
 def _air_temp_c(design: DesignParams, kind: int) -> float:
     """Air temperature of a kind's air environment [°C]: strings run behind the modules."""
     if kind == KIND_STRING and design.row_air_temp_c is not None:
@@ -1037,15 +1061,15 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     """
     loaded = c["loaded"][gi]
     has_air = a["air_m"][gi] > 0
-    no_env = ~has_air & ~np.isfinite(bur["D1"][0][gi]) & ~np.isfinite(bur["D2"][0][gi])
+    no_env = ~has_air & ~np.isfinite(bur["D1"].product[gi]) & ~np.isfinite(bur["D2"].product[gi])
     has_air |= no_env
     t_air = c["t_air"][kd.kind]
     t_gnd = c["t_gnd"][kd.kind]
     f_env = np.stack(
         [
-            np.where(has_air, np.where(np.isnan(air[0][gi]), t_air, air[0][gi]), np.inf),
-            t_gnd * bur["D1"][0][gi],
-            t_gnd * bur["D2"][0][gi],
+            np.where(has_air, np.where(np.isnan(air.product[gi]), t_air, air.product[gi]), np.inf),
+            t_gnd * bur["D1"].product[gi],
+            t_gnd * bur["D2"].product[gi],
         ]
     )  # [3, k]; inf = environment absent
     base = np.stack(
@@ -1062,7 +1086,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
         cap_env = np.where(np.isfinite(f_env)[:, :, None], base * f_env[:, :, None], np.inf)
     env = np.argmin(cap_env, axis=0)  # [k, S]
     alt = None
-    if "alt" in bur:  # a short governing stretch may be disregarded (nec 310.14(A)(2) exception)
+    if air.short is not None:  # a short governing stretch may be disregarded (nec 310.14(A)(2))
         cap_env, env, alt = _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd)
     cap = np.take_along_axis(cap_env, env[None], axis=0)[0]  # per conductor set, derated
     base_g = np.take_along_axis(base, env[None], axis=0)[0]
@@ -1093,8 +1117,7 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
     i_req = np.where(carries | ~fusable, np.maximum(i_des, i_bf), np.maximum(i_des, i_prot))
     req1 = cap1 = np.full(ok_cap.shape, np.nan)
     if kd.term is not None:  # a second condition before correction (nec 690.8(B)(1))
-        present = np.isfinite(f_env)[:, :, None]  # [3, k, 1]
-        cap1 = np.min(np.where(present, kd.term[:, None, :], np.inf), axis=0) * pp  # [k, S]
+        cap1 = np.broadcast_to(kd.term * pp, ok_cap.shape)  # [k, S]
         req1 = np.broadcast_to(rs.terminal_required_a(i_des), ok_cap.shape)
         ok_cap = ok_cap & (cap1 >= req1 * (1.0 - _EPS))
         # the device each size would have: string fuse / a.c. breaker, or the array fuse where
@@ -1145,9 +1168,9 @@ def _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd):
     again. Only the one governing stretch is disregarded, and only where another stretch
     remains. Returns (capacities [3, k, S], environment [k, S], whether the runner-up of the
     environment governs [k, S])."""
-    a_short, a_f2 = air[5][0][gi], air[5][1][gi]
-    f2 = np.stack([a_f2, t_gnd * bur["alt"]["D1"][1][gi], t_gnd * bur["alt"]["D2"][1][gi]])
-    shorts = np.stack([a_short, bur["alt"]["D1"][0][gi], bur["alt"]["D2"][0][gi]])  # [3, k]
+    envs = (air, bur["D1"], bur["D2"])
+    f2 = np.stack([air.runner_up.product[gi], *(t_gnd * g.runner_up.product[gi] for g in envs[1:])])
+    shorts = np.stack([g.short[gi] for g in envs])  # [3, k]
     gshort = np.take_along_axis(np.broadcast_to(shorts[:, :, None], cap_env.shape), env[None], 0)[0]
     with np.errstate(invalid="ignore"):
         cap2 = np.where(np.isfinite(f2)[:, :, None], base * f2[:, :, None], np.inf)
@@ -1162,33 +1185,40 @@ def _short_section(cap_env, env, base, bur, air, gi, t_air, t_gnd):
     return out, new_env, used2
 
 
+def _chosen(g: _Governing, gi: np.ndarray, alt: np.ndarray | None) -> _Governing:
+    """``g`` at the circuits ``gi`` (product, stretch, count, group and temperature factors);
+    the runner-up's where ``alt`` (short-section exception)."""
+    first = [None if f is None else f[gi] for f in g[:5]]
+    if alt is None or g.runner_up is None:
+        return _Governing(*first)
+    second = g.runner_up[:5]
+    return _Governing(
+        *(
+            None if f is None else np.where(alt, f2[gi], f)
+            for f, f2 in zip(first, second, strict=True)
+        )
+    )
+
+
 def _details(
-    env: np.ndarray, gi: np.ndarray, bur: dict, air_g: tuple, c: dict, kd, alt=None
+    env: np.ndarray, gi: np.ndarray, bur: dict, air_g: _Governing, c: dict, kd, alt=None
 ) -> dict:
     """Factors at the governing environment of the chosen size (vectors over circuits ``gi``);
     ``alt``: where the environment's runner-up stretch governs (short-section exception)."""
     air = env == 0
-    t_sel, g_sel, n_sel, k_sel = air_g[4][gi], air_g[3][gi], air_g[2][gi], air_g[1][gi]
-    if alt is not None and air_g[5] is not None:  # the runner-up stretch in air governs
-        _, _, k2, n2, g2, t2 = air_g[5]
-        t_sel, g_sel = np.where(alt, t2[gi], t_sel), np.where(alt, g2[gi], g_sel)
-        n_sel, k_sel = np.where(alt, n2[gi], n_sel), np.where(alt, k2[gi], k_sel)
-    t_air = np.where(np.isnan(t_sel), c["t_air"][kd.kind], t_sel)
+    in_air = _chosen(air_g, gi, alt)
+    t_air = np.where(np.isnan(in_air.temp), c["t_air"][kd.kind], in_air.temp)
     temp_f = np.where(air, t_air, c["t_gnd"][kd.kind])
     seg_i = np.full(env.shape, -1, dtype=np.int64)
-    group = np.where(air, g_sel, 1.0)
-    gcount = np.where(air, n_sel, 0.0)
-    stretch = np.where(air, k_sel, -1)
+    group = np.where(air, in_air.group, 1.0)
+    gcount = np.where(air, in_air.count, 0.0)
+    stretch = np.where(air, in_air.stretch, -1)
     for e, name in ((1, "D1"), (2, "D2")):
         sel = env == e
-        _, sg, gr, gc = bur[name]
-        sg, gr, gc = sg[gi], gr[gi], gc[gi]
-        if alt is not None and "alt" in bur:  # the runner-up segment governs
-            _, _, sg2, gr2, gc2 = bur["alt"][name]
-            sg, gr, gc = (np.where(alt, x2[gi], x) for x, x2 in ((sg, sg2), (gr, gr2), (gc, gc2)))
-        seg_i = np.where(sel, sg, seg_i)
-        group = np.where(sel, gr, group)
-        gcount = np.where(sel, gc, gcount)
+        seg_g = _chosen(bur[name], gi, alt)
+        seg_i = np.where(sel, seg_g.stretch, seg_i)
+        group = np.where(sel, seg_g.group, group)
+        gcount = np.where(sel, seg_g.count, gcount)
     has = seg_i >= 0
     safe = np.maximum(seg_i, 0)
     soil = np.where(has, c["seg_soil"][safe] if c["seg_soil"].size else 1.0, 1.0)
@@ -1281,7 +1311,7 @@ def size_circuits(
         "loaded": np.where(is_ac & (a["phases"] == 3), 3, 2),
         "arrangement": np.asarray(design.air_arrangement, dtype=object)[kind],
         # the rule set's short-section exception, where the stretches' lengths are given
-        "short": rs.short_section(np.zeros(0), np.zeros(0)) is not None
+        "short": rs.short_section_exception
         and bool(np.isfinite(a["seg_length_m"]).any() or np.isfinite(a["air_length_m"]).any()),
         "t_air": {
             k: rs.air_temp_factor(_air_temp_c(design, k), d.insulation) for k, d in kd.items()
@@ -1307,17 +1337,19 @@ def size_circuits(
     # count changed (and the feeders above them) are re-evaluated. ``below``: each d.c.
     # circuit's own drop plus the worst path below it, filled as the levels are sized
     p = np.ones(n, dtype=np.int64)
-    r_air = a["air_count"].size
     budgets = np.full(n, np.nan)
     budgets[is_str] = min(design.drop_string_pct, design.drop_dc_total_pct)
     budgets[is_ac] = design.drop_ac_pct
     det: dict[int, dict] = {}
     below = np.zeros(n)
-    counts = prev = air_counts = air_prev = None
+    prev = None
     affected = np.ones(n, dtype=bool)
     # what the grouping factors count: circuits (cable sets), or current-carrying conductors
+    # (each extra set then adds its circuit's conductors)
     per_set = _group_units(a, rs)
-    group_base = None if per_set is None else _group_base(a, per_set)
+    sets_base = (a["seg_count"], a["air_count"])
+    group_base = sets_base if per_set is None else _group_base(a, per_set)
+    unit = 1.0 if per_set is None else per_set
     iterations = 0
     # a pass that does not settle adds at least one conductor set (a circuit's count never falls:
     # _select starts from it) and no circuit exceeds max_parallel, so the iteration settles
@@ -1325,32 +1357,15 @@ def size_circuits(
     max_passes = 1 + n * (int(design.max_parallel) - 1)
     for iteration in range(1, max_passes + 1):
         iterations = iteration
-        counts = a["seg_count"] + np.bincount(
-            a["inc_segment"], weights=(p - 1)[a["inc_circuit"]].astype(float), minlength=m
-        )
-        air_counts = a["air_count"] + np.bincount(
-            a["air_inc_stretch"], weights=(p - 1)[a["air_inc_circuit"]].astype(float),
-            minlength=r_air,
-        )  # fmt: skip
-        if per_set is None:
-            group = (counts, air_counts)
-        else:  # conductors: each extra set adds its circuit's conductors
-            extra = ((p - 1) * per_set).astype(float)
-            group = (
-                group_base[0]
-                + np.bincount(a["inc_segment"], weights=extra[a["inc_circuit"]], minlength=m),
-                group_base[1]
-                + np.bincount(a["air_inc_stretch"], weights=extra[a["air_inc_circuit"]],
-                              minlength=r_air),
-            )  # fmt: skip
-        if prev is not None:
-            changed = counts != prev
-            air_changed = air_counts != air_prev
+        group = _on_routes(a, group_base, (p - 1) * unit)
+        if prev is not None:  # a count of conductors changes where one of cable sets does
+            changed = group[0] != prev[0]
+            air_changed = group[1] != prev[1]
             affected = np.zeros(n, dtype=bool)
             affected[a["inc_circuit"][changed[a["inc_segment"]]]] = True
             affected[a["air_inc_circuit"][air_changed[a["air_inc_stretch"]]]] = True
             affected = _with_feeders_above(a["parent"], affected)
-        prev, air_prev = counts, air_counts
+        prev = group
         for k, lv in steps:
             if k not in kd:
                 continue
@@ -1382,6 +1397,8 @@ def size_circuits(
     else:  # pragma: no cover - unreachable: counts only grow, bounded by max_parallel (above)
         raise ConvergenceError(f"parallel/grouping iteration did not settle in {max_passes} passes")
     child_max = _child_max(a["parent"], below, n)
+    # cable sets per segment and air stretch: the grouping count, unless that counts conductors
+    counts, air_counts = group if per_set is None else _on_routes(a, sets_base, p - 1.0)
 
     c.update(p_w=p_w, group_final=group)
     settled = _Settled(det, counts, air_counts, budgets, child_max, iterations)
@@ -1729,7 +1746,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         (c["isc_design"],),
     )
     _add_notes(notes, no_env, lambda i: "no route environment given: in air assumed")
-    if m and rs.buried_note("D2"):  # buried ratings the rule set flags for review
+    if m and rs.buried_review:  # buried ratings the rule set flags for review
         routed = {}
         for env, lay in _LAYING_OF_ENV.items():
             routed[env] = np.zeros(n, dtype=bool)
@@ -1738,8 +1755,9 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
         for mask, envs in ((d1 & ~d2, "D1"), (d2 & ~d1, "D2"), (d1 & d2, "D1+D2")):
             text = rs.buried_note(envs)
             _add_notes(notes, mask, lambda i, t=text: t)
-    if design.fault_ka is not None and rs.short_circuit_note():
-        _add_notes(notes, is_ac, lambda i: rs.short_circuit_note())
+    if design.fault_ka is not None and not rs.short_circuit_checked:
+        sc_text = rs.short_circuit_note()
+        _add_notes(notes, is_ac, lambda i: sc_text)
     deriv = out["derating"]
 
     def cap_note(i):

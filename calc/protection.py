@@ -59,6 +59,7 @@ from numpy.typing import ArrayLike
 
 from calc.errors import InputError, check_option
 from calc.pv import pv_rule
+from calc.ratings import smallest_rating_a
 from calc.tables import load_table
 
 __all__ = [
@@ -369,13 +370,6 @@ class ArrayFuse:
     note: np.ndarray
 
 
-def _smallest_at_least(ratings: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """Smallest rating ≥ x (a rating equal to x within ``_REL`` fits); nan above the list."""
-    idx = np.searchsorted(ratings, x * (1.0 - _REL), side="left")
-    pick = ratings[np.minimum(idx, len(ratings) - 1)] if len(ratings) else np.full(x.shape, np.nan)
-    return np.where(idx < len(ratings), pick, np.nan)
-
-
 def array_fuse(isc_array_a: ArrayLike, ratings_a: ArrayLike | None = None) -> ArrayFuse:
     """Permitted range and smallest standard rating of a sub-array / array fuse.
 
@@ -406,7 +400,7 @@ def array_fuse(isc_array_a: ArrayLike, ratings_a: ArrayLike | None = None) -> Ar
     ratings = np.sort(np.asarray(gpv_fuse_ratings_a() if ratings_a is None else ratings_a, float))
     lower = pv_rule("array_fuse_min_x_isc") * isc
     upper = pv_rule("array_fuse_max_x_isc") * isc
-    pick = _smallest_at_least(ratings, lower)
+    pick = smallest_rating_a(ratings, lower)
     ok = pick <= upper * (1.0 + _REL)
     fuse = np.where(ok, pick, np.nan)
     note = np.full(isc.shape, "", dtype=object)
@@ -598,7 +592,7 @@ def ac_breaker(ib_a: ArrayLike, ratings_a: ArrayLike, i2_factor: ArrayLike) -> B
     if ratings.ndim != 1 or ratings.size == 0:
         raise InputError("ratings_a must be a non-empty list of ratings [A]")
     k2 = np.asarray(i2_factor, dtype=float)
-    pick = _smallest_at_least(ratings, ib)
+    pick = smallest_rating_a(ratings, ib)
     i2 = k2 * pick
     iz_min = np.maximum(pick, i2 / _i2_max_x_iz())
     ok = np.isfinite(pick)

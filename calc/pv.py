@@ -35,6 +35,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from calc.errors import InputError, check_option
+from calc.ratings import fuse_in_range
 from calc.tables import load_table
 
 __all__ = [
@@ -203,14 +204,8 @@ def string_protection(
     upper = pv_rule("fuse_max_x_isc") * isc
     upper = np.where(no_ocpr, upper, np.minimum(upper, ocpr))
 
-    idx = np.searchsorted(ratings, lower * (1.0 - 1e-9), side="left")
-    pick = np.where(idx < len(ratings), ratings[np.minimum(idx, len(ratings) - 1)], np.nan)
-    pick_ok = pick <= upper * (1.0 + 1e-9)
+    fuse, ok = fuse_in_range(lower, upper, required, fixed, ratings)
     has_fixed = ~np.isnan(fixed)
-    fixed_ok = (fixed >= lower * (1.0 - 1e-9)) & (fixed <= upper * (1.0 + 1e-9))
-
-    fuse = np.where(has_fixed, fixed, np.where(required & pick_ok, pick, np.nan))
-    ok = np.where(has_fixed, fixed_ok, ~required | pick_ok)
 
     note = np.full(isc.shape, "", dtype=object)
     assumed = no_ocpr & (required | has_fixed)
@@ -219,12 +214,12 @@ def string_protection(
         f"max_fuse_a not given: string fuses assumed required for {most + 1:g} or more parallel "
         "strings; check the fuse against the module maximum series fuse rating"
     )
-    for i in np.flatnonzero(has_fixed & ~fixed_ok):
+    for i in np.flatnonzero(has_fixed & ~ok):
         note[i] = (
             f"fixed string fuse {fixed[i]:g} A outside the IEC 62548 range "
             f"{lower[i]:.1f}-{upper[i]:.1f} A"
         )
-    for i in np.flatnonzero(~has_fixed & required & ~pick_ok):
+    for i in np.flatnonzero(~has_fixed & ~ok):  # a fuse required, none fits
         note[i] = (
             f"no standard fuse rating within the IEC 62548 range {lower[i]:.1f}-{upper[i]:.1f} A"
         )

@@ -76,17 +76,6 @@ def _common_spacings_m() -> tuple[float, ...]:
 SPACINGS_M: tuple[float, ...] = _common_spacings_m()
 
 
-def _spacing_matters(rs) -> bool:
-    """Whether the rule set's grouping factor in a trench changes with the clear spacing (IEC
-    60364-5-52 Tables B.52.18 / B.52.19: yes; NEC 2023 Table 310.15(C)(1), the trench's
-    conductors as one bundle: no), probed at a few group sizes, direct and in duct."""
-    count = np.array([2.0, 6.0, 12.0, 2.0, 6.0, 12.0])
-    laying = np.array([0, 0, 0, 1, 1, 1])
-    touching = rs.group_factor(count, np.zeros(6), laying)
-    apart = rs.group_factor(count, np.full(6, max(SPACINGS_M)), laying)
-    return not np.allclose(touching, apart)
-
-
 def _size_setting(size_mm2: float, rs) -> str:
     """A size as a ``design.sizes_mm2`` entry: ``16`` (mm², IEC) or ``"8 AWG"`` (a label, NEC)."""
     text = rs.size_text(size_mm2)
@@ -239,7 +228,7 @@ def remedies(
     # 4. more space between the circuits in the trenches of the circuits failing on
     # grouping, with the sizes as listed (also offered beside a larger cable)
     grouped = fail & why["capacity"] & (np.asarray(result.factor_group) < 1.0 - 1e-9)
-    if not _spacing_matters(rs):  # nec: Table 310.15(C)(1) counts conductors whatever the gap
+    if not rs.grouping_uses_spacing:  # nec: Table 310.15(C)(1), conductors whatever the gap
         grouped[:] = False
     # the trench fields as calc reads them: left out, none (spacing 0 m); incidences whole
     # numbers of any dtype

@@ -6,7 +6,10 @@ AWG sizes) means one new module, its data files and one line in ``_MODULES`` —
 
 The methods after the abstract ones are *hooks* with the IEC behaviour as their default; a rule
 set whose rules differ in structure (NEC 2023: two ampacity conditions, conductors counted for
-grouping, protection by 240.4) overrides them (see :mod:`calc.rules.nec`).
+grouping, protection by 240.4) overrides them (see :mod:`calc.rules.nec`) and declares so in the
+capability attributes beside them (``terminal_condition``, ``short_section_exception``,
+``buried_review``, ``short_circuit_checked``; ``grouping_uses_spacing`` for every rule set),
+which the engine and ``routeplan.remedy`` read instead of calling a hook to find out.
 
 >>> get_rules("iec").name, get_rules("nec").name
 ('iec', 'nec')
@@ -27,6 +30,7 @@ import numpy as np
 
 from calc import pv, resistance
 from calc.errors import InputError, check_option
+from calc.kinds import KIND_AC
 
 __all__ = ["RuleSet", "get_rules", "rule_names"]
 
@@ -37,8 +41,9 @@ _MODULES: dict[str, str] = {"iec": "calc.rules.iec:IecRules", "nec": "calc.rules
 class RuleSet(abc.ABC):
     """Interface of a rule set (all arrays SI floats; sizes in mm²).
 
-    Kinds: 0 string, 1 array, 2 ac, 3 sub-array. Environments: "air", "D1" (duct in ground),
-    "D2" (direct in ground). Insulation "PV" denotes the PV string cable of the rule set.
+    Kinds: the codes of :mod:`calc.kinds` (0 string, 1 array, 2 ac, 3 sub-array). Environments:
+    "air", "D1" (duct in ground), "D2" (direct in ground). Insulation "PV" denotes the PV string
+    cable of the rule set.
     """
 
     name: ClassVar[str]
@@ -96,6 +101,11 @@ class RuleSet(abc.ABC):
         self, count: np.ndarray, spacing_m: np.ndarray, laying: np.ndarray
     ) -> np.ndarray:
         """Reduction factor for grouped buried circuits [1]."""
+
+    #: whether :meth:`group_factor` changes with the clear spacing between circuits (iec: IEC
+    #: 60364-5-52 Tables B.52.18 / B.52.19; nec: no, Table 310.15(C)(1) takes the trench's
+    #: conductors as one bundle); a wider spacing is a remedy only where it does
+    grouping_uses_spacing: ClassVar[bool]
 
     @abc.abstractmethod
     def reactance_ohm_km(self, sizes_mm2: np.ndarray, insulation: str, phases: int) -> np.ndarray:
@@ -213,6 +223,23 @@ class RuleSet(abc.ABC):
     #: the PV fuses' designation in the protection text
     fuse_word: ClassVar[str] = "gPV"
 
+    # which hooks below change the IEC steps, declared: the engine reads these rather than
+    # calling a hook to find out
+
+    #: each conductor set is held to a second capacity, before correction and adjustment
+    #: (:meth:`terminal_capacity_a`, :meth:`terminal_required_a`; nec: 690.8(B)(1), 110.14(C))
+    terminal_condition: ClassVar[bool] = False
+    #: a short governing stretch may be disregarded (:meth:`short_section`; nec: the
+    #: 310.14(A)(2) exception)
+    short_section_exception: ClassVar[bool] = False
+    #: every circuit routed in the ground carries :meth:`buried_note`, for review (nec: Table
+    #: 310.16 represents neither soil, depth nor spacing)
+    buried_review: ClassVar[bool] = False
+    #: with a fault level given, the a.c. cables' adiabatic withstand is checked with
+    #: :meth:`k_adiabatic`; where False, each a.c. circuit carries :meth:`short_circuit_note`
+    #: instead (nec: no adiabatic table)
+    short_circuit_checked: ClassVar[bool] = True
+
     def breaker_text(self, in_a: float, ib_a: float, iz_a: float, device: str) -> str:
         """The a.c. breaker's line of the schedule's protection text."""
         return f"breaker {in_a:g} A ({device}): Ib {ib_a:.0f} A ≤ In ≤ Iz {iz_a:.0f} A"
@@ -233,19 +260,21 @@ class RuleSet(abc.ABC):
         """Current-carrying conductors of one cable set of each circuit [1]: 2 for d.c. and
         single-phase, 3 for three-phase (a balanced neutral carries no current). Used only
         when :attr:`group_counts` is ``"conductors"``."""
-        return np.where((np.asarray(kind) == 2) & (np.asarray(phases) == 3), 3, 2)
+        return np.where((np.asarray(kind) == KIND_AC) & (np.asarray(phases) == 3), 3, 2)
 
     def terminal_capacity_a(
         self, kind: int, material: str, insulation: str, env: str, sizes_mm2: np.ndarray, design
     ) -> np.ndarray | None:
         """Capacity one conductor set must have *before* correction and adjustment [A] (e.g.
         NEC 690.8(B)(1) with the 110.14(C) termination column), per size; ``None`` where the
-        rule set has no such condition (IEC)."""
+        rule set has no such condition (IEC; :attr:`terminal_condition` False). It is the
+        terminations' capacity and must not depend on ``env`` (one of the route's
+        environments, checked): the engine asks for it once per kind."""
         return None
 
     def terminal_required_a(self, i_design_a: np.ndarray) -> np.ndarray:
         """Current the :meth:`terminal_capacity_a` condition must carry [A] (NEC: 1.25 × the
-        690.8(A) maximum current); only called where that method gives a capacity."""
+        690.8(A) maximum current); only called where :attr:`terminal_condition`."""
         return np.asarray(i_design_a, dtype=float)
 
     def conductor_protected(
@@ -258,15 +287,15 @@ class RuleSet(abc.ABC):
 
     def buried_note(self, env: str) -> str:
         """Review note for every circuit routed in the ground in ``env`` ("D1", "D2" or both,
-        "D1+D2"); "" when the rule set's buried ratings represent the installation (IEC: soil,
-        depth, grouping)."""
+        "D1+D2"); only called where :attr:`buried_review`. "" when the rule set's buried
+        ratings represent the installation (IEC: soil, depth, grouping)."""
         return ""
 
     def short_section(self, stretch_m: np.ndarray, circuit_m: np.ndarray) -> np.ndarray | None:
         """Per stretch, whether it is short enough for its lower capacity to be disregarded at a
         transition (the higher capacity of the rest of the circuit applies; NEC 310.14(A)(2)
-        exception); ``None`` where the rule set has no such exception (IEC). nan lengths: not
-        short."""
+        exception); only called where :attr:`short_section_exception`; ``None`` where the rule
+        set has no such exception (IEC). nan lengths: not short."""
         return None
 
     def voc_max_v(self, voc_v, voc_coeff_pct_per_c, min_temp_c: float) -> np.ndarray:
@@ -291,7 +320,8 @@ class RuleSet(abc.ABC):
 
     def short_circuit_note(self) -> str:
         """Note for a.c. circuits whose adiabatic withstand is not checked when a fault level
-        is given ("" = :meth:`k_adiabatic` checks it)."""
+        is given; only called where :attr:`short_circuit_checked` is False ("" = :meth:`k_adiabatic`
+        checks it)."""
         return ""
 
 

@@ -21,6 +21,7 @@ import numpy as np
 
 from calc import ampacity, protection, pv, resistance, shortcircuit
 from calc.errors import InputError, check_option
+from calc.kinds import KIND_STRING
 from calc.rules import RuleSet
 from calc.tables import load_table
 
@@ -40,11 +41,11 @@ class IecRules(RuleSet):
         """String: 4, 6, 10 mm² (PV cable ≥ 4 mm² is common practice); feeders: IEC 60228 16–300 mm²
         (the sizes for which Cu and Al are tabulated in every environment)."""
         t = load_table("default_size_lists.csv")
-        sizes = t["size_mm2"][t.where(kind="string" if kind == 0 else "feeder")]
+        sizes = t["size_mm2"][t.where(kind="string" if kind == KIND_STRING else "feeder")]
         return tuple(float(v) for v in sizes)
 
     def r20_ohm_km(self, kind: int, material: str, sizes_mm2: np.ndarray) -> np.ndarray:
-        if kind == 0:
+        if kind == KIND_STRING:
             return resistance.r20_ohm_km(sizes_mm2, "Cu", 5, tinned=True)
         return resistance.r20_ohm_km(sizes_mm2, material, 2)
 
@@ -60,7 +61,7 @@ class IecRules(RuleSet):
         self, kind, material, insulation, loaded, env, sizes_mm2, pv_installation
     ) -> np.ndarray:
         check_option("environment", env, ("air", "D1", "D2"))
-        if kind == 0:
+        if kind == KIND_STRING:
             if env == "air":
                 return ampacity.pv_cable_capacity_a(sizes_mm2, pv_installation)
             return ampacity.pv_cable_buried_capacity_a(sizes_mm2, env)
@@ -79,6 +80,9 @@ class IecRules(RuleSet):
 
     def depth_factor(self, depth_m, diameter_m):
         return ampacity.depth_factor(depth_m, diameter_m, ampacity.reference_condition("depth_m"))
+
+    #: IEC 60364-5-52:2009 Tables B.52.18 / B.52.19 give factors per clear spacing
+    grouping_uses_spacing: ClassVar[bool] = True
 
     def group_factor(self, count, spacing_m, laying):
         return ampacity.group_factor(count, spacing_m, laying)

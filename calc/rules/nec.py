@@ -59,9 +59,11 @@ import numpy as np
 from calc import protection as iec_protection
 from calc import pv
 from calc.errors import InputError, check_option
+from calc.kinds import KIND_STRING
 from calc.nec import ampacity, impedance, protection, sizes
 from calc.nec import pv as nec_pv
 from calc.protection import ArrayFuse, Breaker, OverloadCheck, ProtectionCheck
+from calc.ratings import fuse_in_range, smallest_rating_a
 from calc.rules import RuleSet
 from calc.tables import load_table
 
@@ -95,6 +97,12 @@ class NecRules(RuleSet):
     fuse_word: ClassVar[str] = "(240.6(A), 690.9)"
     #: Chapter 9 Table 9 is for 60 Hz
     default_frequency_hz: ClassVar[float] = 60.0
+    #: Table 310.15(C)(1) takes a trench's conductors as one bundle, whatever the spacing
+    grouping_uses_spacing: ClassVar[bool] = False
+    terminal_condition: ClassVar[bool] = True
+    short_section_exception: ClassVar[bool] = True
+    buried_review: ClassVar[bool] = True
+    short_circuit_checked: ClassVar[bool] = False
 
     def breaker_text(self, in_a, ib_a, iz_a, device):
         """Breaker ≥ 1.25 × the continuous current; 240.4 against the ampacity."""
@@ -140,7 +148,7 @@ class NecRules(RuleSet):
         """String: 12–6 AWG; feeders 6 AWG–1000 kcmil (``nec_2023_default_size_lists.csv``,
         common practice)."""
         t = load_table("nec_2023_default_size_lists.csv")
-        labels = t["size_label"][t.where(kind="string" if kind == 0 else "feeder")]
+        labels = t["size_label"][t.where(kind="string" if kind == KIND_STRING else "feeder")]
         return tuple(float(v) for v in sizes.size_from_label(labels))
 
     def size_text(self, size_mm2: float) -> str:
@@ -320,13 +328,8 @@ class NecRules(RuleSet):
         lower = ampacity.nec_rule("ocpd_factor") * i_max
         upper = np.where(no_ocpr, np.inf, ocpr)
         ratings = np.sort(np.asarray(ratings_a, dtype=float))
-        idx = np.searchsorted(ratings, lower * (1.0 - _REL), side="left")
-        pick = np.where(idx < len(ratings), ratings[np.minimum(idx, len(ratings) - 1)], np.nan)
-        pick_ok = pick <= upper * (1.0 + _REL)
+        fuse, ok = fuse_in_range(lower, upper, required, fixed, ratings)
         has_fixed = ~np.isnan(fixed)
-        fixed_ok = (fixed >= lower * (1.0 - _REL)) & (fixed <= upper * (1.0 + _REL))
-        fuse = np.where(has_fixed, fixed, np.where(required & pick_ok, pick, np.nan))
-        ok = np.where(has_fixed, fixed_ok, ~required | pick_ok)
         note = np.full(isc.shape, "", dtype=object)
         assumed = no_ocpr & (required | has_fixed)
         note[assumed] = (
@@ -389,8 +392,7 @@ class NecRules(RuleSet):
         isc = np.asarray(isc_array_a, dtype=float)
         lower = ampacity.nec_rule("ocpd_factor") * _i_max(isc)
         r = np.sort(np.asarray(self.gpv_fuse_ratings_a() if ratings_a is None else ratings_a))
-        idx = np.searchsorted(r, lower * (1.0 - _REL), side="left")
-        pick = np.where(idx < len(r), r[np.minimum(idx, len(r) - 1)], np.nan)
+        pick = smallest_rating_a(r, lower)
         ok = np.isfinite(pick)
         factor = ampacity.nec_rule("ocpd_factor")
         note = np.where(ok, "", f"no 240.6(A) rating ≥ {factor:g} × I_max").astype(str)
@@ -427,8 +429,7 @@ class NecRules(RuleSet):
         ib = np.atleast_1d(np.asarray(ib_a, dtype=float))
         factor = ampacity.nec_rule("ocpd_factor")
         lower = factor * ib
-        idx = np.searchsorted(ratings, lower * (1.0 - _REL), side="left")
-        pick = np.where(idx < len(ratings), ratings[np.minimum(idx, len(ratings) - 1)], np.nan)
+        pick = smallest_rating_a(ratings, lower)
         ok = np.isfinite(pick)
         note = np.full(ib.shape, "", dtype=object)
         for i in np.flatnonzero(~ok):

@@ -1,0 +1,111 @@
+"""The rule sets' declared capabilities (``RuleSet.grouping_uses_spacing``,
+``terminal_condition``, ``short_section_exception``, ``buried_review``, ``short_circuit_checked``)
+against the hooks they stand for: the engine and ``routeplan.remedy`` read the declarations, so a
+declaration that the hook contradicts would change a plan silently.
+
+Sources of the values:
+
+* IEC 60364-5-52:2009 Table B.52.18 (direct in the ground; 4 circuits: touching 0.60, 0.5 m apart
+  0.80, the 0.5 m cell confirmed by BS 7671 Table 4C2) and Table B.52.19 part B (single-core in
+  ducts; 4 ducts: touching 0.65, 0.5 m apart 0.80, from memory) — ../shared/REFERENCE_VALUES.md
+  §3.8, §3.9;
+* NEC 2023 Table 310.15(C)(1) (4-6 conductors 0.80, 7-9 0.70, confirmed in calc/data), applied by
+  the nec rule set to a trench's conductors as one bundle whatever the spacing;
+* NEC 2023 110.14(C)(1): terminations rated from Table 310.16 (10 AWG Cu, 75 °C column 35 A,
+  confirmed, REFERENCE_VALUES §4.3) also for a conductor in free air;
+* NEC 2023 310.14(A)(2) exception: 10 ft (3.048 m) or 10 % of the circuit, whichever is less;
+* IEC 60364-4-43:2008 Table 43A: k = 143 for Cu/XLPE (confirmed).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from calc.engine import DesignParams
+from calc.nec.sizes import size_from_label, sizes_mm2
+from calc.rules import get_rules, rule_names
+
+
+@pytest.mark.parametrize("name", rule_names())
+def test_grouping_uses_spacing_as_the_group_factor_does(name):
+    rs = get_rules(name)
+    count = np.array([2.0, 4.0, 12.0, 2.0, 4.0, 12.0])
+    laying = np.array([0, 0, 0, 1, 1, 1])  # direct in the ground, then in ducts
+    touching = rs.group_factor(count, np.zeros(6), laying)
+    apart = rs.group_factor(count, np.full(6, 0.5), laying)
+    assert rs.grouping_uses_spacing == (not np.allclose(touching, apart))
+
+
+def test_iec_grouping_changes_with_spacing_and_nec_grouping_does_not():
+    iec, nec = get_rules("iec"), get_rules("nec")
+    assert iec.grouping_uses_spacing and not nec.grouping_uses_spacing
+    # 4 circuits: B.52.18 touching 0.60, 0.5 m 0.80; B.52.19 (B) touching 0.65, 0.5 m 0.80
+    got = iec.group_factor(np.array([4.0] * 4), np.array([0.0, 0.5, 0.0, 0.5]), [0, 0, 1, 1])
+    assert_allclose(got, [0.60, 0.80, 0.65, 0.80])
+    # Table 310.15(C)(1): 6 conductors 0.80, 7 conductors 0.70, at any spacing
+    got = nec.group_factor(
+        np.array([6.0, 6.0, 7.0, 7.0]), np.array([0.0, 0.5, 0.0, 0.5]), [0, 1, 0, 1]
+    )
+    assert_allclose(got, [0.80, 0.80, 0.70, 0.70])
+
+
+@pytest.mark.parametrize("name", rule_names())
+def test_terminal_condition_declared_as_the_hook_gives_it(name):
+    rs = get_rules(name)
+    ten = size_from_label(["10 AWG"]) if name == "nec" else np.array([10.0])
+    ins = "90C" if name == "nec" else "XLPE"
+    got = rs.terminal_capacity_a(1, "Cu", ins, "D1", ten, DesignParams())
+    assert rs.terminal_condition == (got is not None)
+
+
+def test_nec_terminal_capacity_is_the_same_in_every_environment():
+    # 110.14(C)(1): Table 310.16 rates the terminations whatever the run's environment, so the
+    # engine asks for it once per kind: every size, both materials, each column
+    rs = get_rules("nec")
+    s = sizes_mm2()
+    s = s[s >= size_from_label(["12 AWG"])[0]]
+    for material in ("Cu", "Al"):
+        for ins in ("60C", "75C", "90C"):
+            for t in (60, 75, 90):
+                d = DesignParams(terminal_temp_c=t)
+                rows = [
+                    rs.terminal_capacity_a(1, material, ins, e, s, d) for e in ("air", "D1", "D2")
+                ]
+                assert np.array_equal(rows[0], rows[1], equal_nan=True)
+                assert np.array_equal(rows[0], rows[2], equal_nan=True)
+    ten = size_from_label(["10 AWG"])
+    assert rs.terminal_capacity_a(0, "Cu", "90C", "D2", ten, DesignParams()).tolist() == [35.0]
+
+
+@pytest.mark.parametrize("name", rule_names())
+def test_short_section_exception_declared_as_the_hook_gives_it(name):
+    rs = get_rules(name)
+    got = rs.short_section(np.array([2.0, 4.0]), np.array([100.0, 100.0]))
+    assert rs.short_section_exception == (got is not None)
+    if got is not None:  # 2 m ≤ 3.048 m and ≤ 9.8 m; 4 m > 10 ft
+        assert got.tolist() == [True, False]
+
+
+@pytest.mark.parametrize("name", rule_names())
+def test_buried_review_declared_as_the_hook_gives_it(name):
+    rs = get_rules(name)
+    notes = [rs.buried_note(env) for env in ("D1", "D2", "D1+D2")]
+    assert rs.buried_review == all(notes)
+    assert rs.buried_review or not any(notes)
+
+
+@pytest.mark.parametrize("name", rule_names())
+def test_short_circuit_checked_declared_as_the_hook_gives_it(name):
+    rs = get_rules(name)
+    assert rs.short_circuit_checked == (rs.short_circuit_note() == "")
+
+
+def test_iec_checks_the_withstand_and_nec_says_it_does_not():
+    iec, nec = get_rules("iec"), get_rules("nec")
+    assert iec.short_circuit_checked and iec.k_adiabatic("Cu", "XLPE", np.array([95.0]))[0] == 143
+    assert not nec.short_circuit_checked and "not checked" in nec.short_circuit_note()
+    assert nec.terminal_condition and not iec.terminal_condition
+    assert nec.short_section_exception and not iec.short_section_exception
+    assert nec.buried_review and not iec.buried_review
