@@ -803,7 +803,8 @@ def _check_combiner_tree(
     both strings (rows) and other combiners (a combiner collects one level)."""
     problems: list[Problem] = []
     ids = combiners["id"].tolist()
-    up = {c: t for c, t in zip(ids, combiners["to"].tolist(), strict=True) if t in set(ids)}
+    known = set(ids)
+    up = {c: t for c, t in zip(ids, combiners["to"].tolist(), strict=True) if t in known}
     if not up:
         return problems
     position = {c: i for i, c in enumerate(ids)}
