@@ -471,7 +471,11 @@ def _check_geometry(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFram
     geoms = np.asarray(frame.geometry.values, dtype=object)
     missing = shapely.is_missing(geoms) | shapely.is_empty(geoms)
     allowed = GEOMETRY_TYPES[name]
-    geoms = shapely.force_2d(geoms)
+    # drop Z (and M) only where there is one: force_2d rebuilds every geometry
+    extra = shapely.has_z(geoms)
+    if hasattr(shapely, "has_m"):  # shapely 2.1 and later read M
+        extra |= shapely.has_m(geoms)
+    geoms = shapely.force_2d(geoms) if extra.any() else geoms.copy()
     # unpack single-part multi-geometries (common in GeoPackage exports)
     types = shapely.get_type_id(geoms)
     multi = np.isin(types, (4, 5, 6)) & ~missing

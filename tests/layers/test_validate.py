@@ -224,3 +224,21 @@ def test_every_problem_at_once(tmp_path):
     msgs = problems_of(write(tmp_path, frames, fmt="gpkg"))
     ids = {m.split(":")[0] for m in msgs}
     assert {"rows 'R1'", "rows 'R2'", "trenches 'T2'", "combiners 'CB1'"} <= ids
+
+
+@pytest.mark.parametrize("fmt", ["geojson", "gpkg"])
+def test_heights_are_dropped_from_every_layer(tmp_path, fmt):
+    """Surveyed layers often carry heights (Z): the site is planned in plan view, every
+    geometry read as 2D, with the same x and y."""
+    import shapely
+
+    flat = layers.read_site(write(tmp_path / "flat", fmt=fmt))
+    frames = base_frames()
+    for frame in frames.values():
+        frame.geometry = shapely.force_3d(frame.geometry.values, 12.5)
+    root = write(tmp_path / "z", frames, fmt=fmt)
+    site = layers.read_site(root)
+    for name in ("trenches", "rows", "combiners", "inverters"):
+        got = site.layer(name).geometry.values
+        assert not shapely.has_z(got).any(), name
+        assert shapely.equals_exact(got, flat.layer(name).geometry.values, 0.0).all(), name
