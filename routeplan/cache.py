@@ -522,6 +522,7 @@ class Resident:
 
     def keep_derived(self, name: str, key: Any, value: Any) -> None:
         """Keep ``value`` as :meth:`derived` ``name`` under ``key`` (one per name)."""
+        _freeze(value)
         self._derived[name] = (key, value)
 
     def entry(self, stage: str, key: str, sha256: Any) -> Any | None:
@@ -549,7 +550,28 @@ class Resident:
                 value = self.aux(name, e["sha256"])
             if value is not None:
                 aux[(name, e["sha256"])] = value
+        for value in (*entries.values(), *aux.values()):
+            _freeze(value)
         self._entries, self._aux = entries, aux
+
+
+def _freeze(value: Any, depth: int = 0) -> None:
+    """Make the numpy arrays of a kept value read-only (in dataclass fields, dicts, lists and
+    tuples, a few levels deep): code that would change a value :class:`Resident` shares
+    between runs in place fails loudly instead of changing the next run's input."""
+    if depth > 4:
+        return
+    if isinstance(value, np.ndarray):
+        value.flags.writeable = False
+    elif dataclasses.is_dataclass(value) and not isinstance(value, type):
+        for f in dataclasses.fields(value):
+            _freeze(getattr(value, f.name, None), depth + 1)
+    elif isinstance(value, dict):
+        for v in value.values():
+            _freeze(v, depth + 1)
+    elif isinstance(value, (list, tuple)):
+        for v in value:
+            _freeze(v, depth + 1)
 
 
 class PlanCache:
