@@ -255,11 +255,17 @@ def _same_frame(a: pd.DataFrame, b: pd.DataFrame, geometry: bool = True) -> bool
     cols = [k for k in a.columns if k != a.geometry.name] if not geometry else list(a.columns)
     for k in cols:
         if k == getattr(a, "_geometry_column_name", None):
-            if not np.array_equal(shapely.to_wkb(a[k].array), shapely.to_wkb(b[k].array)):
+            if not _equal_geometries(np.asarray(a[k].array), np.asarray(b[k].array)).all():
                 return False
         elif not a[k].equals(b[k]):
             return False
     return True
+
+
+def _equal_geometries(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Whether each geometry of ``a`` equals ``b``'s at its position: of the same type, with
+    the same coordinates in the same order, exactly (or both missing)."""
+    return shapely.equals_exact(a, b, 0.0) | (shapely.is_missing(a) & shapely.is_missing(b))
 
 
 def _same_modules(a: dict, b: dict) -> bool:
@@ -285,7 +291,7 @@ def moved_features(old: Site, new: Site) -> dict[str, np.ndarray] | None:
         if not _same_frame(a, b, geometry=False):
             return None
         ga, gb = np.asarray(a.geometry.array), np.asarray(b.geometry.array)
-        moved[name] = np.flatnonzero(~shapely.equals_exact(ga, gb, 0.0) | (ga is None))
+        moved[name] = np.flatnonzero(~_equal_geometries(ga, gb))
     return moved
 
 
