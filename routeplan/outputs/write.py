@@ -328,6 +328,10 @@ def _write_files(
     last = last if isinstance(last, dict) else {}
     index: dict = {}
     copied: dict[str, int] = {}
+    say("write report")  # first: it needs only the plan, and runs while the rows are hashed
+    summary = dict(plan.summary, inputs=input_digest(plan))
+    report = parallel.start(lambda: _write_report(plan, summary, tmp))
+    jobs.append(report)
     rows, equipment = rows_frame(plan), equipment_frame(plan)
     t0 = time.perf_counter()
     layers = _gpkg_layers(plan, rows, equipment)  # the rows' hashes, for every writer
@@ -335,10 +339,6 @@ def _write_files(
     say("draw map")
     job = parallel.start(lambda: _write_map(plan, tmp, map_options, rows, equipment, layers))
     jobs.append(job)
-    say("write report")
-    summary = dict(plan.summary, inputs=input_digest(plan))
-    report = parallel.start(lambda: _write_report(plan, summary, tmp))
-    jobs.append(report)
 
     say("write GeoPackage")
     t0 = time.perf_counter()
