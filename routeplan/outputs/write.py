@@ -431,14 +431,20 @@ _CHILD_FILES = ("map.html", "report.html")
 
 def _write_report(plan: Plan, summary: dict, tmp: Path) -> None:
     """Write ``report.html``: the design basis and results, the worked calculations of each
-    kind's governing circuits and the charts (:mod:`routeplan.report`)."""
-    from ..report.plots import plan_plots
+    kind's governing circuits and the charts (:mod:`routeplan.report`); with a cache, the
+    charts drawn from the same data as last run's are taken from its memo
+    (:class:`~routeplan.report.plots.ChartMemo`, kept for the next run)."""
+    from ..report.plots import ChartMemo, plan_plots
     from ..report.worked import worked_calculation
 
+    cache = plan.cache
+    memo = ChartMemo.load(cache.output_aux("report")) if cache is not None else ChartMemo()
     worked = worked_calculation(plan.circuits, plan.segments, plan.design).html
-    charts = plan_plots(plan.circuits, plan.segments, plan.design).html
+    charts = plan_plots(plan.circuits, plan.segments, plan.design, memo).html
     html = report_html(plan, summary, worked=worked, charts=charts)
     (tmp / "report.html").write_text(html, encoding="utf-8")
+    if cache is not None:
+        cache.save_aux(tmp, "report", memo.export())
 
 
 #: the map job's time and count of reused tiles, for the parent (removed once read)
