@@ -41,8 +41,8 @@ What is reused, and when (every key is a SHA-256 of everything the stage's resul
         still matches the one recorded (a file edited by hand is written anew). On a miss the
         writers still reuse the last files row by row (:mod:`routeplan.outputs.reuse`),
         through the records they keep beside them (``index.npz``: row hashes and chunk
-        offsets; ``map.npz``: the map's tiles; :meth:`PlanCache.output_aux`), again only from
-        files whose SHA-256 is the one recorded.
+        offsets; ``map.npz``: the map's tiles; ``report.npz``: the report's charts;
+        :meth:`PlanCache.output_aux`), again only from files whose SHA-256 is the one recorded.
 
     The tables (schedule, trench schedule, quantities, summary) are recomputed from the stage
     results every time (well under a second at 1 GW).
@@ -97,7 +97,7 @@ from .routing import RouteParams, RoutePlan
 CACHE_DIR = ".routeplan-cache"
 MANIFEST = "manifest.json"
 #: the writers' records kept beside the output files (see PlanCache.output_aux)
-AUX: tuple[str, ...] = ("index", "map")
+AUX: tuple[str, ...] = ("index", "map", "report")
 #: bump when what is stored, or how, changes
 FORMAT = 2
 STAGES: tuple[str, ...] = ("site", "route", "size")
@@ -752,8 +752,9 @@ class PlanCache:
 
     def output_aux(self, name: str) -> Any:
         """What the last run's writers recorded beside their files under ``name`` (``index``:
-        to update them row by row, :mod:`routeplan.outputs.reuse`; ``map``: the map's memo);
-        None when missing or damaged."""
+        to update them row by row, :mod:`routeplan.outputs.reuse`; ``map``: the map's memo;
+        ``report``: the report's charts, :class:`routeplan.report.plots.ChartMemo`); None when
+        missing or damaged."""
         e = self._outputs().get("aux", {}).get(name)
         if self.resident is not None and isinstance(e, dict):
             value = self.resident.aux(name, e.get("sha256"))

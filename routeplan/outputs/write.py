@@ -328,6 +328,10 @@ def _write_files(
     last = last if isinstance(last, dict) else {}
     index: dict = {}
     copied: dict[str, int] = {}
+    say("write report")  # first: it needs only the plan, and runs while the rows are hashed
+    summary = dict(plan.summary, inputs=input_digest(plan))
+    report = parallel.start(lambda: _write_report(plan, summary, tmp))
+    jobs.append(report)
     rows, equipment = rows_frame(plan), equipment_frame(plan)
     t0 = time.perf_counter()
     layers = _gpkg_layers(plan, rows, equipment)  # the rows' hashes, for every writer
@@ -335,10 +339,6 @@ def _write_files(
     say("draw map")
     job = parallel.start(lambda: _write_map(plan, tmp, map_options, rows, equipment, layers))
     jobs.append(job)
-    say("write report")
-    summary = dict(plan.summary, inputs=input_digest(plan))
-    report = parallel.start(lambda: _write_report(plan, summary, tmp))
-    jobs.append(report)
 
     say("write GeoPackage")
     t0 = time.perf_counter()
@@ -431,14 +431,20 @@ _CHILD_FILES = ("map.html", "report.html")
 
 def _write_report(plan: Plan, summary: dict, tmp: Path) -> None:
     """Write ``report.html``: the design basis and results, the worked calculations of each
-    kind's governing circuits and the charts (:mod:`routeplan.report`)."""
-    from ..report.plots import plan_plots
+    kind's governing circuits and the charts (:mod:`routeplan.report`); with a cache, the
+    charts drawn from the same data as last run's are taken from its memo
+    (:class:`~routeplan.report.plots.ChartMemo`, kept for the next run)."""
+    from ..report.plots import ChartMemo, plan_plots
     from ..report.worked import worked_calculation
 
+    cache = plan.cache
+    memo = ChartMemo.load(cache.output_aux("report")) if cache is not None else ChartMemo()
     worked = worked_calculation(plan.circuits, plan.segments, plan.design).html
-    charts = plan_plots(plan.circuits, plan.segments, plan.design).html
+    charts = plan_plots(plan.circuits, plan.segments, plan.design, memo).html
     html = report_html(plan, summary, worked=worked, charts=charts)
     (tmp / "report.html").write_text(html, encoding="utf-8")
+    if cache is not None:
+        cache.save_aux(tmp, "report", memo.export())
 
 
 #: the map job's time and count of reused tiles, for the parent (removed once read)
