@@ -34,6 +34,7 @@ from .localplan import last_baseline
 from .outputs.write import open_output_folder, write_plan
 from .pipeline import Plan
 from .pipeline import plan as run_plan
+from .report.plots import warm_up
 
 __all__ = ["Watcher", "site_state"]
 
@@ -100,9 +101,12 @@ class Watcher:
     def prepare(self, design: DesignConfig) -> None:
         """Ready what the next run needs while waiting for an edit (the last run planned under
         ``design``): the last plan as the baseline of a local re-plan
-        (:func:`routeplan.localplan.last_baseline`)."""
+        (:func:`routeplan.localplan.last_baseline`), and matplotlib loaded for the report's
+        charts (:func:`routeplan.report.plots.warm_up`: the report is drawn in a process
+        forked from this one, which then does not import it again)."""
         if self.use_cache:
             last_baseline(PlanCache(self.out_dir, resident=self.resident), design)
+        warm_up()
 
     def wait(self, interval_s: float = 0.1, sleep: Callable[[float], None] = time.sleep) -> None:
         """Return once the site's files differ from :attr:`state` and have stayed the same

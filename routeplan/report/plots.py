@@ -193,6 +193,13 @@ def _draw(chart: Chart) -> str:
     return _draw_histograms(chart.xlabel, list(chart.histograms))
 
 
+def warm_up() -> None:
+    """Import matplotlib and draw one small chart in this process (the SVG backend and the
+    fonts loaded), so that report processes forked from it later draw without importing
+    (:meth:`routeplan.watch.Watcher.prepare`, while a watching process waits)."""
+    _draw_bars("", {"": 1.0})
+
+
 def histogram_edges(values: np.ndarray, step: float, upper: float) -> np.ndarray:
     """Bin edges from 0 in ``step`` up to at least ``upper`` and the largest value.
 
