@@ -32,6 +32,7 @@ import pandas as pd
 
 from routeplan.map.features import _num, _text, circuit_kind
 from routeplan.map.script import script_safe
+from routeplan.map.text import ints_json
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
 
 #: Circuit columns the details show, in the order of the table (text or number).
@@ -115,8 +116,11 @@ def _text_tokens(values: list[str]) -> list[str]:
 
 def _ints(values) -> str:
     """A JSON list of integers (a list or an integer array)."""
-    values = values.tolist() if isinstance(values, np.ndarray) else values
-    return "[" + ",".join(map(str, values)) + "]"
+    return ints_json(values)
+
+
+#: 10, 100, … : the digits of an index ``i`` are ``1 + (powers <= i).sum()``
+_POWERS = 10 ** np.arange(1, 19, dtype=np.int64)
 
 
 @dataclass
@@ -159,7 +163,7 @@ class _Column:
         counts = np.bincount(self.codes, minlength=m)
         lengths = np.fromiter(map(len, self.distinct), dtype=np.int64, count=m)
         plain = 2 + max(n - 1, 0) + int(counts @ lengths) if n else 2
-        digits = np.char.str_len(np.arange(m).astype(str)) if m else np.zeros(0, np.int64)
+        digits = 1 + np.searchsorted(_POWERS, np.arange(m), side="right")  # of each index
         distinct = 2 + max(m - 1, 0) + int(lengths.sum())
         coded = 5 + distinct + 6 + int(counts @ digits) + max(n - 1, 0) + 2
         if coded < plain:
@@ -173,6 +177,16 @@ _ID_COLUMNS = {"circuit_id", "segment_id", "id"}
 PROFILE_DISTINCT = 0.01
 #: … and while the profiles stay at most this share of the rows.
 PROFILE_ROWS = 0.05
+
+
+def _values_of(values: np.ndarray, bound: int) -> np.ndarray:
+    """The distinct values of ``values`` (integers in ``[0, bound)``), ascending, as
+    :func:`numpy.unique` gives them (a table of ``bound`` flags where that is small)."""
+    if bound > (1 << 24):
+        return np.unique(values)
+    present = np.zeros(bound, dtype=bool)
+    present[values] = True
+    return np.flatnonzero(present)
 
 
 def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
@@ -192,13 +206,15 @@ def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
             codes[name] = (c.codes, len(c.distinct))
     profile: list[str] = []
     key = np.zeros(n, dtype=np.int64)
+    keys = 1  # distinct values of key, numbered 0, 1, … in order
     for name in sorted(codes, key=lambda k: codes[k][1]):
         c, m = codes[name]
         trial = key * m + c
-        distinct = len(np.unique(trial))
-        if distinct > max(16, PROFILE_ROWS * n):
+        seen = _values_of(trial, keys * m)
+        if len(seen) > max(16, PROFILE_ROWS * n):
             continue
-        key = np.unique(trial, return_inverse=True)[1].reshape(-1)
+        key = np.searchsorted(seen, trial)  # each row's rank among the distinct values
+        keys = len(seen)
         profile.append(name)
     parts = [f"{json.dumps(name)}:{c.json()}" for name, c in cols.items() if name not in profile]
     text = f'{{"n":{n},"k":{{' + ",".join(parts) + "}"
@@ -268,7 +284,7 @@ def review_json(
     ``lim`` the voltage-drop limits [%] by circuit kind and ``dc_total`` (empty if unknown);
     ``dec`` the decimals of the number columns.
     """
-    cdf = circuits.drop(columns=circuits.geometry.name, errors="ignore").copy()
+    cdf = circuits.drop(columns=circuits.geometry.name, errors="ignore")  # a new frame
     if "kind" in cdf.columns:
         cdf["kind"] = circuit_kind(cdf)
     counts, flat = segment_circuits(segments, _text(cdf, "circuit_id").to_numpy(dtype=object))

@@ -39,7 +39,14 @@ from routeplan.map.scales import (
     UTILISATION,
     circuit_weight,
 )
-from routeplan.map.text import MISSING, escape_all, escape_text, fmt_number, join_limited
+from routeplan.map.text import (
+    MISSING,
+    escape_all,
+    escape_text,
+    fmt_number,
+    ints_json,
+    join_limited,
+)
 
 #: Tolerance of the light simplification, in the working CRS [m].
 SIMPLIFY_M = 0.1
@@ -343,7 +350,7 @@ def _strings_json(bodies: np.ndarray) -> str:
 
 
 def _ints_json(values) -> str:
-    return "[" + ",".join(np.asarray(values, dtype=np.int64).astype(str).tolist()) + "]"
+    return ints_json(values)
 
 
 def _column_json(bodies: np.ndarray) -> str:

@@ -172,15 +172,19 @@ def block_table(
     b = block[ok]
     kinds = circuit_kind(circuits)[ok]
     ac = kinds == "ac"
+    # each point's block as a code into the circuits' blocks (factorized once, not per point)
+    block_code, block_names = pd.factorize(b)
     xy, idx = shapely.get_coordinates(g[~ac], return_index=True)
     parts_xy = [xy[:, :2]]
-    parts_b = [b[~ac][idx]]
+    parts_code = [block_code[~ac][idx]]
     if ac.any():
         parts_xy.append(shapely.get_coordinates(shapely.get_point(g[ac], 0))[:, :2])
-        parts_b.append(b[ac])
+        parts_code.append(block_code[ac])
     if rows is not None and len(rows) and "id" in rows.columns:
         strings = kinds == "string"
-        row_block = pd.Series(b[strings], index=text_values(circuits, "from_id")[ok][strings])
+        row_block = pd.Series(
+            block_code[strings], index=text_values(circuits, "from_id")[ok][strings]
+        )
         row_block = row_block[~row_block.index.duplicated()]
         rb = pd.Series(text_values(rows, "id")).map(row_block)
         keep = rb.notna().to_numpy() & drawable_mask(rows)
@@ -188,9 +192,14 @@ def block_table(
             rows_m = rows[keep].to_crs(metric.crs) if rows.crs is not None else rows[keep]
             rxy, ridx = shapely.get_coordinates(rows_m.geometry.to_numpy(), return_index=True)
             parts_xy.append(rxy[:, :2])
-            parts_b.append(rb.to_numpy()[keep][ridx])
+            parts_code.append(rb.to_numpy()[keep][ridx].astype(np.int64))
     pts = np.concatenate(parts_xy)
-    codes, names = pd.factorize(np.concatenate(parts_b).astype(str))
+    # blocks numbered in order of their first point (as factorizing the points' ids would)
+    point_code = np.concatenate(parts_code)
+    by_first = pd.unique(point_code)
+    renumber = np.zeros(len(block_names), dtype=np.int64)
+    renumber[by_first] = np.arange(len(by_first))
+    codes, names = renumber[point_code], np.asarray(block_names, dtype=object)[by_first]
     # one point per square metre per block is enough for its outline: a key of the block and
     # the rounded coordinates (each within 2**21 m of the site's corner) in one integer
     grid = np.round(pts - np.nanmin(pts, axis=0)).astype(np.int64)
