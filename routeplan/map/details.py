@@ -119,8 +119,20 @@ def _ints(values) -> str:
     return ints_json(values)
 
 
-#: 10, 100, … : the digits of an index ``i`` are ``1 + (powers <= i).sum()``
-_POWERS = 10 ** np.arange(1, 19, dtype=np.int64)
+def _index_digits(m: int) -> np.ndarray:
+    """The number of decimal digits of each of 0, 1, …, ``m`` - 1.
+
+    Examples
+    --------
+    >>> _index_digits(12).tolist()
+    [1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 2, 2]
+    """
+    out = np.ones(m, dtype=np.int64)
+    power = 10
+    while power < m:
+        out[power:] += 1
+        power *= 10
+    return out
 
 
 @dataclass
@@ -163,7 +175,7 @@ class _Column:
         counts = np.bincount(self.codes, minlength=m)
         lengths = np.fromiter(map(len, self.distinct), dtype=np.int64, count=m)
         plain = 2 + max(n - 1, 0) + int(counts @ lengths) if n else 2
-        digits = 1 + np.searchsorted(_POWERS, np.arange(m), side="right")  # of each index
+        digits = _index_digits(m)
         distinct = 2 + max(m - 1, 0) + int(lengths.sum())
         coded = 5 + distinct + 6 + int(counts @ digits) + max(n - 1, 0) + 2
         if coded < plain:
@@ -179,14 +191,20 @@ PROFILE_DISTINCT = 0.01
 PROFILE_ROWS = 0.05
 
 
-def _values_of(values: np.ndarray, bound: int) -> np.ndarray:
-    """The distinct values of ``values`` (integers in ``[0, bound)``), ascending, as
-    :func:`numpy.unique` gives them (a table of ``bound`` flags where that is small)."""
-    if bound > (1 << 24):
-        return np.unique(values)
+def _ranks(values: np.ndarray, bound: int, most: float) -> tuple[np.ndarray, int] | None:
+    """Each of ``values`` (integers in ``[0, bound)``) as its rank among the distinct values
+    (``numpy.unique(values, return_inverse=True)``), and their number; None when there are
+    more than ``most`` (with a table of ``bound`` flags where that is small: no sorting)."""
+    if bound > (1 << 22):
+        seen, rank = np.unique(values, return_inverse=True)
+        return (rank.reshape(-1), len(seen)) if len(seen) <= most else None
     present = np.zeros(bound, dtype=bool)
     present[values] = True
-    return np.flatnonzero(present)
+    count = int(np.count_nonzero(present))
+    if count > most:
+        return None
+    rank = np.cumsum(present, dtype=np.int32) - 1
+    return rank[values].astype(np.int64), count
 
 
 def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
@@ -210,11 +228,10 @@ def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
     for name in sorted(codes, key=lambda k: codes[k][1]):
         c, m = codes[name]
         trial = key * m + c
-        seen = _values_of(trial, keys * m)
-        if len(seen) > max(16, PROFILE_ROWS * n):
+        ranked = _ranks(trial, keys * m, max(16, PROFILE_ROWS * n))
+        if ranked is None:
             continue
-        key = np.searchsorted(seen, trial)  # each row's rank among the distinct values
-        keys = len(seen)
+        key, keys = ranked
         profile.append(name)
     parts = [f"{json.dumps(name)}:{c.json()}" for name, c in cols.items() if name not in profile]
     text = f'{{"n":{n},"k":{{' + ",".join(parts) + "}"

@@ -56,14 +56,18 @@ def tiles(keys: np.ndarray, cells: np.ndarray | None = None) -> list[np.ndarray]
     if len(keys) == 0:
         return []
     text = keys.astype(str)
-    if cells is None:
-        order = np.argsort(text, kind="stable")
-    else:
-        cells = pd.Series(np.asarray(cells)).groupby(text).transform("first").to_numpy()
-        order = np.lexsort((text, cells))
-    k = keys[order]
-    h = pd.util.hash_array(k.astype(str).astype(object), categorize=False)
+    order = np.argsort(text, kind="stable")
+    k = text[order]
     last = np.r_[k[1:] != k[:-1], True]  # only after the last feature of an id
+    if cells is not None:  # an id's square: that of its first feature
+        cells = np.asarray(cells)
+        start = np.r_[True, last[:-1]]  # the first feature of each id
+        first = np.empty_like(cells)
+        first[order] = cells[order][start][np.cumsum(start) - 1]
+        cells = first
+        by_cell = np.argsort(cells[order], kind="stable")  # ids in order within a square
+        order, k, last = order[by_cell], k[by_cell], last[by_cell]
+    h = pd.util.hash_array(k.astype(object), categorize=False)
     cut = (h & TILE_MASK) == 0
     if cells is not None:
         band = cells[order] >> 32
