@@ -279,11 +279,10 @@ def _plant_scale(
     c = frames["circuits"]
     strings = (kinds == "string") & ok["circuits"]
     n_strings = int(strings.sum())
-    if aggregated:
-        pairs = pd.MultiIndex.from_arrays(
-            [text_values(c, "from_id")[strings], text_values(c, "to_id")[strings]]
-        )
-        n_strings = len(pairs.unique())
+    if aggregated:  # distinct (from, to) pairs
+        a = pd.factorize(text_values(c, "from_id")[strings])[0].astype(np.int64)
+        b, to = pd.factorize(text_values(c, "to_id")[strings])
+        n_strings = len(np.unique(a * len(to) + b))
     n_rows = int(ok["rows"].sum())
     n = (
         int(ok["segments"].sum())
@@ -292,7 +291,12 @@ def _plant_scale(
         + int(ok["equipment"].sum())
         + (n_rows if n_rows <= ROWS_SHOWN_UP_TO else 0)
     )
-    if detail_delta(n) is None or not (block_of(c[ok["circuits"]]) != "").any():
+    if detail_delta(n) is None:
+        return 0
+    given = text_values(c, "inverter_id")[ok["circuits"]] if "inverter_id" in c.columns else None
+    if given is None or not (given != "").any():  # block_of follows the circuits' chain
+        given = block_of(c[ok["circuits"]])
+    if not (given != "").any():
         return 0
     return n
 
@@ -510,7 +514,13 @@ def render_map(
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
     plant = plant_view(
-        circuits, rows, n_features=lod, groups=groups, bounds=bounds, areas=memo.geometries
+        circuits,
+        rows,
+        n_features=lod,
+        groups=groups,
+        bounds=bounds,
+        areas=memo.geometries,
+        hashes=(h["circuits"], h["rows"]),
     )
     if plant.note():
         totals.extra.append(plant.note())
