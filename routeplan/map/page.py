@@ -323,12 +323,17 @@ def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
     to 1/``CELLS_A_SIDE`` of the site's ``box`` [west, south, east, north]: an edit that
     changes the site's box a little leaves every square, and so every other tile, as it was.
     """
-    if box is None or not len(gdf):
+    return _cells_of(gdf.geometry.to_numpy(), gdf.crs, box)
+
+
+def _cells_of(geoms: np.ndarray, crs, box: np.ndarray | None) -> np.ndarray | None:
+    """:func:`_cells` of geometries ``geoms`` in ``crs`` (pyproj CRS or None)."""
+    if box is None or not len(geoms):
         return None
-    b = shapely.bounds(gdf.geometry.to_numpy())
+    b = shapely.bounds(geoms)
     x, y = (b[:, 0] + b[:, 2]) / 2, (b[:, 1] + b[:, 3]) / 2
-    if gdf.crs is not None and not gdf.crs.equals("EPSG:4326"):  # the centres only
-        to_geo = pyproj.Transformer.from_crs(gdf.crs, "EPSG:4326", always_xy=True)
+    if crs is not None and not crs.equals("EPSG:4326"):  # the centres only
+        to_geo = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
         x, y = to_geo.transform(x, y)
     extent = max(box[2] - box[0], box[3] - box[1], 1e-9)
     side = 2.0 ** round(np.log2(extent / CELLS_A_SIDE))
@@ -430,7 +435,8 @@ def render_map(
 
     s, n = memo.group(
         "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
-        _parts(row_ids, row_h, _cells(rows.iloc[row_pos], box)), draw_rows,
+        _parts(row_ids, row_h, _cells_of(rows.geometry.to_numpy()[row_pos], rows.crs, box)),
+        draw_rows,
         lazy=not show_rows or lazy,
     )  # fmt: skip
     scripts += s
@@ -457,6 +463,7 @@ def render_map(
     # arrays, AC
     circuit_ids = text_values(circuits, "circuit_id")
     from_ids = text_values(circuits, "from_id")
+    circuit_geoms = circuits.geometry.to_numpy()
     for kind, label, css, mask in (
         ("string", "string_grouped" if aggregated else "string", "rp-string", kinds == "string"),
         ("subarray", "subarray", "rp-array", kinds == "subarray"),
@@ -464,20 +471,25 @@ def render_map(
         ("ac", "ac", "rp-ac", ~np.isin(kinds, ("string", "subarray", "array"))),
     ):
         pos = np.flatnonzero(mask & ok["circuits"])
-        sub = circuits.iloc[pos]
         grouped = kind == "string" and aggregated
 
-        def draw_circuits(p: np.ndarray, sub=sub, grouped=grouped) -> dict:
+        taken: list[gpd.GeoDataFrame] = []  # the kind's circuits, taken when a tile is
+        # first drawn (on a re-plan most tiles are kept)
+
+        def draw_circuits(p: np.ndarray, pos=pos, grouped=grouped, taken=taken) -> dict:
+            if not taken:
+                taken.append(circuits.iloc[pos])
             layers: CircuitLayers = (string_group_layers if grouped else circuit_layers)(
-                sub.iloc[p]
+                taken[0].iloc[p]
             )
             return vars(layers)
 
         keys = from_ids[pos] if grouped else circuit_ids[pos]
+        cells = _cells_of(circuit_geoms[pos], circuits.crs, box) if kind in DETAIL_GROUPS else None
         s, n = memo.group(
             kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
-            _parts(keys, h["circuits"][pos], _cells(sub, box) if kind in DETAIL_GROUPS else None),
-            draw_circuits, lazy=lazy and kind in DETAIL_GROUPS,
+            _parts(keys, h["circuits"][pos], cells), draw_circuits,
+            lazy=lazy and kind in DETAIL_GROUPS,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
             groups.append((kind, LAYER_NAMES[label], True))
@@ -497,7 +509,8 @@ def render_map(
 
     s, n = memo.group(
         "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
-        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lazy,
+        _parts(eq_ids, eq_h, _cells_of(equipment.geometry.to_numpy()[eq_pos], equipment.crs, box)),
+        draw_equipment, lazy=lazy,
     )  # fmt: skip
     scripts += s
     drawn += n["ok"]
