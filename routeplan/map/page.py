@@ -406,7 +406,9 @@ def render_map(
     wkt = {name: gdf.crs.to_wkt() if gdf.crs is not None else None for name, gdf in frames.items()}
 
     kinds = circuit_kind(circuits)
-    strings = circuits[kinds == "string"]
+    # the string circuits' columns the rows' tooltips need (not the whole frame)
+    strings = pd.DataFrame(circuits[[c for c in ("from_id", "vdrop_total_pct") if c in circuits]])
+    strings = strings[kinds == "string"]
     aggregated = len(strings) > aggregate_strings_above
     groups: list[tuple[str, str, bool]] = []
     scripts: list[str] = []
