@@ -80,6 +80,7 @@ __all__ = [
     "read_output_folder",
     "render_folder",
     "render_map",
+    "render_map_bytes",
     "write_map",
 ]
 
@@ -342,7 +343,6 @@ def _cells_of(geoms: np.ndarray, crs, box: np.ndarray | None) -> np.ndarray | No
     return (j << 32) + (i & 0xFFFFFFFF)
 
 
-@paused_gc()
 def render_map(
     circuits: gpd.GeoDataFrame,
     segments: gpd.GeoDataFrame,
@@ -356,7 +356,38 @@ def render_map(
     hashes: dict[str, np.ndarray] | None = None,
     drop_limits_pct: dict[str, float] | None = None,
 ) -> str:
-    """Draw a plan as one self-contained HTML page.
+    """Draw a plan as one self-contained HTML page: :func:`render_map_bytes` as text (see
+    there for the parameters)."""
+    return render_map_bytes(
+        circuits,
+        segments,
+        rows,
+        equipment,
+        site_name=site_name,
+        basemap=basemap,
+        aggregate_strings_above=aggregate_strings_above,
+        memo=memo,
+        hashes=hashes,
+        drop_limits_pct=drop_limits_pct,
+    ).decode("utf-8")
+
+
+@paused_gc()
+def render_map_bytes(
+    circuits: gpd.GeoDataFrame,
+    segments: gpd.GeoDataFrame,
+    rows: gpd.GeoDataFrame,
+    equipment: gpd.GeoDataFrame,
+    *,
+    site_name: str,
+    basemap: bool = False,
+    aggregate_strings_above: int = 20000,
+    memo: MapMemo | None = None,
+    hashes: dict[str, np.ndarray] | None = None,
+    drop_limits_pct: dict[str, float] | None = None,
+) -> bytes:
+    """Draw a plan as one self-contained HTML page, its UTF-8 bytes (the scripts of the tiles
+    the memo keeps are bytes already: :class:`routeplan.map.tiles.MapMemo`).
 
     Parameters
     ----------
@@ -383,8 +414,8 @@ def render_map(
 
     Returns
     -------
-    str
-        The HTML page.
+    bytes
+        The HTML page, UTF-8.
 
     Raises
     ------
@@ -411,7 +442,7 @@ def render_map(
     strings = strings[kinds == "string"]
     aggregated = len(strings) > aggregate_strings_above
     groups: list[tuple[str, str, bool]] = []
-    scripts: list[str] = []
+    scripts: list[bytes] = []
     drawn = 0
     # plant view (routeplan.map.plantview): above a size, the detail groups start unmade
     lod = _plant_scale(frames, ok, kinds, aggregated)
@@ -567,7 +598,8 @@ def render_map(
     head, middle, between, tail = memo.page(
         json.dumps(spec, sort_keys=True), lambda: page_parts(spec)
     )
-    return "".join([head, panel, middle, "\n".join(scripts), between, plant.script, tail])
+    page = [t.encode("utf-8") for t in (head, panel, middle, between, plant.script, tail)]
+    return b"".join([*page[:3], b"\n".join(scripts), *page[3:]])
 
 
 def _read_layer(path: Path, layer: str) -> gpd.GeoDataFrame:
