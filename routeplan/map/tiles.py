@@ -15,8 +15,10 @@ depends only on a few values (title, basemap, canvas, view, groups): the memo ke
 a re-plan that does not change those does not even import folium. Its folium elements are
 named from those values (not at random), so a page made with the memo is byte for byte the
 page a run without it makes. The plant view's block areas are kept as WKB under a digest of
-each block's outline points (:meth:`MapMemo.geometries`): an edit redraws its blocks' areas
-only.
+each block's circuits' and rows' content hashes (:meth:`MapMemo.geometries`,
+:func:`routeplan.map.plantview.block_table`): an edit redraws its blocks' areas only, and
+finds the outline points of those blocks only. Scripts are kept as UTF-8 bytes, so a kept
+tile is copied into the page without being decoded or encoded.
 
 A tile's key holds flags and plant-wide values, never a count of the plant's features: one
 feature more (a trench split by a moved pad) must leave the other tiles' keys as they were.
