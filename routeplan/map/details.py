@@ -32,6 +32,7 @@ import pandas as pd
 
 from routeplan.map.features import _num, _text, circuit_kind
 from routeplan.map.script import script_safe
+from routeplan.map.text import ints_json
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
 
 #: Circuit columns the details show, in the order of the table (text or number).
@@ -115,8 +116,23 @@ def _text_tokens(values: list[str]) -> list[str]:
 
 def _ints(values) -> str:
     """A JSON list of integers (a list or an integer array)."""
-    values = values.tolist() if isinstance(values, np.ndarray) else values
-    return "[" + ",".join(map(str, values)) + "]"
+    return ints_json(values)
+
+
+def _index_digits(m: int) -> np.ndarray:
+    """The number of decimal digits of each of 0, 1, …, ``m`` - 1.
+
+    Examples
+    --------
+    >>> _index_digits(12).tolist()
+    [1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 2, 2]
+    """
+    out = np.ones(m, dtype=np.int64)
+    power = 10
+    while power < m:
+        out[power:] += 1
+        power *= 10
+    return out
 
 
 @dataclass
@@ -159,7 +175,7 @@ class _Column:
         counts = np.bincount(self.codes, minlength=m)
         lengths = np.fromiter(map(len, self.distinct), dtype=np.int64, count=m)
         plain = 2 + max(n - 1, 0) + int(counts @ lengths) if n else 2
-        digits = np.char.str_len(np.arange(m).astype(str)) if m else np.zeros(0, np.int64)
+        digits = _index_digits(m)
         distinct = 2 + max(m - 1, 0) + int(lengths.sum())
         coded = 5 + distinct + 6 + int(counts @ digits) + max(n - 1, 0) + 2
         if coded < plain:
@@ -173,6 +189,22 @@ _ID_COLUMNS = {"circuit_id", "segment_id", "id"}
 PROFILE_DISTINCT = 0.01
 #: … and while the profiles stay at most this share of the rows.
 PROFILE_ROWS = 0.05
+
+
+def _ranks(values: np.ndarray, bound: int, most: float) -> tuple[np.ndarray, int] | None:
+    """Each of ``values`` (integers in ``[0, bound)``) as its rank among the distinct values
+    (``numpy.unique(values, return_inverse=True)``), and their number; None when there are
+    more than ``most`` (with a table of ``bound`` flags where that is small: no sorting)."""
+    if bound > (1 << 22):
+        seen, rank = np.unique(values, return_inverse=True)
+        return (rank.reshape(-1), len(seen)) if len(seen) <= most else None
+    present = np.zeros(bound, dtype=bool)
+    present[values] = True
+    count = int(np.count_nonzero(present))
+    if count > most:
+        return None
+    rank = np.cumsum(present, dtype=np.int32) - 1
+    return rank[values].astype(np.int64), count
 
 
 def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
@@ -192,13 +224,14 @@ def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
             codes[name] = (c.codes, len(c.distinct))
     profile: list[str] = []
     key = np.zeros(n, dtype=np.int64)
+    keys = 1  # distinct values of key, numbered 0, 1, … in order
     for name in sorted(codes, key=lambda k: codes[k][1]):
         c, m = codes[name]
         trial = key * m + c
-        distinct = len(np.unique(trial))
-        if distinct > max(16, PROFILE_ROWS * n):
+        ranked = _ranks(trial, keys * m, max(16, PROFILE_ROWS * n))
+        if ranked is None:
             continue
-        key = np.unique(trial, return_inverse=True)[1].reshape(-1)
+        key, keys = ranked
         profile.append(name)
     parts = [f"{json.dumps(name)}:{c.json()}" for name, c in cols.items() if name not in profile]
     text = f'{{"n":{n},"k":{{' + ",".join(parts) + "}"
@@ -268,7 +301,7 @@ def review_json(
     ``lim`` the voltage-drop limits [%] by circuit kind and ``dc_total`` (empty if unknown);
     ``dec`` the decimals of the number columns.
     """
-    cdf = circuits.drop(columns=circuits.geometry.name, errors="ignore").copy()
+    cdf = circuits.drop(columns=circuits.geometry.name, errors="ignore")  # a new frame
     if "kind" in cdf.columns:
         cdf["kind"] = circuit_kind(cdf)
     counts, flat = segment_circuits(segments, _text(cdf, "circuit_id").to_numpy(dtype=object))

@@ -39,7 +39,14 @@ from routeplan.map.scales import (
     UTILISATION,
     circuit_weight,
 )
-from routeplan.map.text import MISSING, escape_all, escape_text, fmt_number, join_limited
+from routeplan.map.text import (
+    MISSING,
+    escape_all,
+    escape_text,
+    fmt_number,
+    ints_json,
+    join_limited,
+)
 
 #: Tolerance of the light simplification, in the working CRS [m].
 SIMPLIFY_M = 0.1
@@ -343,7 +350,7 @@ def _strings_json(bodies: np.ndarray) -> str:
 
 
 def _ints_json(values) -> str:
-    return "[" + ",".join(np.asarray(values, dtype=np.int64).astype(str).tolist()) + "]"
+    return ints_json(values)
 
 
 def _column_json(bodies: np.ndarray) -> str:
@@ -898,14 +905,16 @@ def _row_strings_text(declared, routed) -> str:
 def row_stats(ids: np.ndarray, strings: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     """Per row id: the worst total drop of its strings [%] and its number of routed strings
     (NaN for a row without strings)."""
-    from_ids = _text(strings, "from_id").to_numpy()
-    worst = pd.Series(_num(strings, "vdrop_total_pct"), index=from_ids).groupby(level=0).max()
-    routed = pd.Series(1, index=from_ids).groupby(level=0).sum()
     ids = np.asarray(ids, dtype=object)
-    return (
-        worst.reindex(ids).to_numpy(dtype=float),
-        routed.reindex(ids).to_numpy(dtype=float),
-    )
+    codes, distinct = pd.factorize(ids)
+    row = pd.Index(distinct).get_indexer(_text(strings, "from_id").to_numpy())  # -1: no row
+    drop = _num(strings, "vdrop_total_pct")[row >= 0]
+    row = row[row >= 0]
+    worst = np.full(len(distinct), np.nan)
+    np.fmax.at(worst, row, drop)  # the largest, NaN ignored (NaN if all are)
+    routed = np.bincount(row, minlength=len(distinct)).astype(float)
+    routed[routed == 0] = np.nan
+    return worst[codes], routed[codes]
 
 
 def row_layer(

@@ -80,6 +80,7 @@ __all__ = [
     "read_output_folder",
     "render_folder",
     "render_map",
+    "render_map_bytes",
     "write_map",
 ]
 
@@ -279,11 +280,10 @@ def _plant_scale(
     c = frames["circuits"]
     strings = (kinds == "string") & ok["circuits"]
     n_strings = int(strings.sum())
-    if aggregated:
-        pairs = pd.MultiIndex.from_arrays(
-            [text_values(c, "from_id")[strings], text_values(c, "to_id")[strings]]
-        )
-        n_strings = len(pairs.unique())
+    if aggregated:  # distinct (from, to) pairs
+        a = pd.factorize(text_values(c, "from_id")[strings])[0].astype(np.int64)
+        b, to = pd.factorize(text_values(c, "to_id")[strings])
+        n_strings = len(np.unique(a * len(to) + b))
     n_rows = int(ok["rows"].sum())
     n = (
         int(ok["segments"].sum())
@@ -292,7 +292,12 @@ def _plant_scale(
         + int(ok["equipment"].sum())
         + (n_rows if n_rows <= ROWS_SHOWN_UP_TO else 0)
     )
-    if detail_delta(n) is None or not (block_of(c[ok["circuits"]]) != "").any():
+    if detail_delta(n) is None:
+        return 0
+    given = text_values(c, "inverter_id")[ok["circuits"]] if "inverter_id" in c.columns else None
+    if given is None or not (given != "").any():  # block_of follows the circuits' chain
+        given = block_of(c[ok["circuits"]])
+    if not (given != "").any():
         return 0
     return n
 
@@ -319,12 +324,17 @@ def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
     to 1/``CELLS_A_SIDE`` of the site's ``box`` [west, south, east, north]: an edit that
     changes the site's box a little leaves every square, and so every other tile, as it was.
     """
-    if box is None or not len(gdf):
+    return _cells_of(gdf.geometry.to_numpy(), gdf.crs, box)
+
+
+def _cells_of(geoms: np.ndarray, crs, box: np.ndarray | None) -> np.ndarray | None:
+    """:func:`_cells` of geometries ``geoms`` in ``crs`` (pyproj CRS or None)."""
+    if box is None or not len(geoms):
         return None
-    b = shapely.bounds(gdf.geometry.to_numpy())
+    b = shapely.bounds(geoms)
     x, y = (b[:, 0] + b[:, 2]) / 2, (b[:, 1] + b[:, 3]) / 2
-    if gdf.crs is not None and not gdf.crs.equals("EPSG:4326"):  # the centres only
-        to_geo = pyproj.Transformer.from_crs(gdf.crs, "EPSG:4326", always_xy=True)
+    if crs is not None and not crs.equals("EPSG:4326"):  # the centres only
+        to_geo = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
         x, y = to_geo.transform(x, y)
     extent = max(box[2] - box[0], box[3] - box[1], 1e-9)
     side = 2.0 ** round(np.log2(extent / CELLS_A_SIDE))
@@ -333,7 +343,6 @@ def _cells(gdf: gpd.GeoDataFrame, box: np.ndarray | None) -> np.ndarray | None:
     return (j << 32) + (i & 0xFFFFFFFF)
 
 
-@paused_gc()
 def render_map(
     circuits: gpd.GeoDataFrame,
     segments: gpd.GeoDataFrame,
@@ -347,7 +356,38 @@ def render_map(
     hashes: dict[str, np.ndarray] | None = None,
     drop_limits_pct: dict[str, float] | None = None,
 ) -> str:
-    """Draw a plan as one self-contained HTML page.
+    """Draw a plan as one self-contained HTML page: :func:`render_map_bytes` as text (see
+    there for the parameters)."""
+    return render_map_bytes(
+        circuits,
+        segments,
+        rows,
+        equipment,
+        site_name=site_name,
+        basemap=basemap,
+        aggregate_strings_above=aggregate_strings_above,
+        memo=memo,
+        hashes=hashes,
+        drop_limits_pct=drop_limits_pct,
+    ).decode("utf-8")
+
+
+@paused_gc()
+def render_map_bytes(
+    circuits: gpd.GeoDataFrame,
+    segments: gpd.GeoDataFrame,
+    rows: gpd.GeoDataFrame,
+    equipment: gpd.GeoDataFrame,
+    *,
+    site_name: str,
+    basemap: bool = False,
+    aggregate_strings_above: int = 20000,
+    memo: MapMemo | None = None,
+    hashes: dict[str, np.ndarray] | None = None,
+    drop_limits_pct: dict[str, float] | None = None,
+) -> bytes:
+    """Draw a plan as one self-contained HTML page, its UTF-8 bytes (the scripts of the tiles
+    the memo keeps are bytes already: :class:`routeplan.map.tiles.MapMemo`).
 
     Parameters
     ----------
@@ -374,8 +414,8 @@ def render_map(
 
     Returns
     -------
-    str
-        The HTML page.
+    bytes
+        The HTML page, UTF-8.
 
     Raises
     ------
@@ -397,10 +437,12 @@ def render_map(
     wkt = {name: gdf.crs.to_wkt() if gdf.crs is not None else None for name, gdf in frames.items()}
 
     kinds = circuit_kind(circuits)
-    strings = circuits[kinds == "string"]
+    # the string circuits' columns the rows' tooltips need (not the whole frame)
+    strings = pd.DataFrame(circuits[[c for c in ("from_id", "vdrop_total_pct") if c in circuits]])
+    strings = strings[kinds == "string"]
     aggregated = len(strings) > aggregate_strings_above
     groups: list[tuple[str, str, bool]] = []
-    scripts: list[str] = []
+    scripts: list[bytes] = []
     drawn = 0
     # plant view (routeplan.map.plantview): above a size, the detail groups start unmade
     lod = _plant_scale(frames, ok, kinds, aggregated)
@@ -426,7 +468,8 @@ def render_map(
 
     s, n = memo.group(
         "rows", wkt["rows"], group_var("rows"), (Role("ok", "rp-row"),),
-        _parts(row_ids, row_h, _cells(rows.iloc[row_pos], box)), draw_rows,
+        _parts(row_ids, row_h, _cells_of(rows.geometry.to_numpy()[row_pos], rows.crs, box)),
+        draw_rows,
         lazy=not show_rows or lazy,
     )  # fmt: skip
     scripts += s
@@ -453,6 +496,7 @@ def render_map(
     # arrays, AC
     circuit_ids = text_values(circuits, "circuit_id")
     from_ids = text_values(circuits, "from_id")
+    circuit_geoms = circuits.geometry.to_numpy()
     for kind, label, css, mask in (
         ("string", "string_grouped" if aggregated else "string", "rp-string", kinds == "string"),
         ("subarray", "subarray", "rp-array", kinds == "subarray"),
@@ -460,20 +504,25 @@ def render_map(
         ("ac", "ac", "rp-ac", ~np.isin(kinds, ("string", "subarray", "array"))),
     ):
         pos = np.flatnonzero(mask & ok["circuits"])
-        sub = circuits.iloc[pos]
         grouped = kind == "string" and aggregated
 
-        def draw_circuits(p: np.ndarray, sub=sub, grouped=grouped) -> dict:
+        taken: list[gpd.GeoDataFrame] = []  # the kind's circuits, taken when a tile is
+        # first drawn (on a re-plan most tiles are kept)
+
+        def draw_circuits(p: np.ndarray, pos=pos, grouped=grouped, taken=taken) -> dict:
+            if not taken:
+                taken.append(circuits.iloc[pos])
             layers: CircuitLayers = (string_group_layers if grouped else circuit_layers)(
-                sub.iloc[p]
+                taken[0].iloc[p]
             )
             return vars(layers)
 
         keys = from_ids[pos] if grouped else circuit_ids[pos]
+        cells = _cells_of(circuit_geoms[pos], circuits.crs, box) if kind in DETAIL_GROUPS else None
         s, n = memo.group(
             kind, (grouped, wkt["circuits"]), group_var(kind), _circuit_roles(css),
-            _parts(keys, h["circuits"][pos], _cells(sub, box) if kind in DETAIL_GROUPS else None),
-            draw_circuits, lazy=lazy and kind in DETAIL_GROUPS,
+            _parts(keys, h["circuits"][pos], cells), draw_circuits,
+            lazy=lazy and kind in DETAIL_GROUPS,
         )  # fmt: skip
         if n["ok"] + n["fail"]:
             groups.append((kind, LAYER_NAMES[label], True))
@@ -493,7 +542,8 @@ def render_map(
 
     s, n = memo.group(
         "equipment", wkt["equipment"], group_var("equipment"), (Role("ok", "rp-equipment"),),
-        _parts(eq_ids, eq_h, _cells(equipment.iloc[eq_pos], box)), draw_equipment, lazy=lazy,
+        _parts(eq_ids, eq_h, _cells_of(equipment.geometry.to_numpy()[eq_pos], equipment.crs, box)),
+        draw_equipment, lazy=lazy,
     )  # fmt: skip
     scripts += s
     drawn += n["ok"]
@@ -510,7 +560,13 @@ def render_map(
     if not_drawn:
         totals.extra.append(f"{not_drawn:,} features without geometry are not drawn")
     plant = plant_view(
-        circuits, rows, n_features=lod, groups=groups, bounds=bounds, areas=memo.geometries
+        circuits,
+        rows,
+        n_features=lod,
+        groups=groups,
+        bounds=bounds,
+        areas=memo.geometries,
+        hashes=(h["circuits"], h["rows"]),
     )
     if plant.note():
         totals.extra.append(plant.note())
@@ -542,7 +598,8 @@ def render_map(
     head, middle, between, tail = memo.page(
         json.dumps(spec, sort_keys=True), lambda: page_parts(spec)
     )
-    return "".join([head, panel, middle, "\n".join(scripts), between, plant.script, tail])
+    page = [t.encode("utf-8") for t in (head, panel, middle, between, plant.script, tail)]
+    return b"".join([*page[:3], b"\n".join(scripts), *page[3:]])
 
 
 def _read_layer(path: Path, layer: str) -> gpd.GeoDataFrame:

@@ -7,6 +7,7 @@ inline SVG drawings. Every data string is escaped with
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -366,14 +367,15 @@ def failing_html(ids: list[str], blocks: list[str]) -> str:
         )
 
     head = f"<summary>Failing circuits ({len(ids_a):,})</summary>"
-    names = list(dict.fromkeys(blk.tolist()))
-    if len(names) <= 1:
+    # sorted by block: each block's circuits are one run
+    starts = np.r_[0, np.flatnonzero(blk[1:] != blk[:-1]) + 1]
+    if len(starts) <= 1:
         body = f"<ul>{items(ids_a)}</ul>"
     else:
         body = "".join(
-            f"<details><summary>Block {escape_text(b) or MISSING} "
-            f"({int((blk == b).sum()):,})</summary><ul>{items(ids_a[blk == b])}</ul></details>"
-            for b in names
+            f"<details><summary>Block {escape_text(blk[a]) or MISSING} "
+            f"({b - a:,})</summary><ul>{items(ids_a[a:b])}</ul></details>"
+            for a, b in itertools.pairwise([*starts.tolist(), len(blk)])
         )
     return f'<details class="rp-fails" id="rp-failing">{head}{body}</details>'
 

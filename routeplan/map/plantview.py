@@ -56,6 +56,7 @@ import shapely
 from routeplan.map.features import circuit_kind, drawable_mask, is_fail, text_values
 from routeplan.map.scales import CASING_COLOUR, PROBLEM_COLOUR, UTILISATION
 from routeplan.map.script import script_json
+from routeplan.outputs.reuse import geometry_hashes
 
 #: Above this many drawn features (all layers) the map opens on the plant view.
 PLANT_VIEW_ABOVE = 5_000
@@ -142,6 +143,7 @@ def block_table(
     rows: gpd.GeoDataFrame | None = None,
     *,
     areas: Areas | None = None,
+    hashes: tuple[np.ndarray, np.ndarray | None] | None = None,
 ) -> gpd.GeoDataFrame:
     """One row per block: its area and values, in the circuits' CRS.
 
@@ -154,9 +156,13 @@ def block_table(
     Columns: ``block`` (id), ``circuits``, ``failing`` (count of status "fail"),
     ``worst_utilisation`` [–], ``worst_vdrop_total_pct`` [%], ``geometry``.
 
-    With ``areas`` (the memo of the last map), a block whose outline points are exactly
+    With ``areas`` (the memo of the last map), a block whose circuits and rows are exactly
     those of the last run keeps its area; only the others are drawn (each area depends on its
-    own points alone).
+    own points alone, rounded from the smallest coordinates of the site, which are found
+    without the points). A block is known by a digest of its circuits' and rows' content
+    hashes (``hashes``: one per row of ``circuits`` and of ``rows``, e.g. those of
+    :func:`routeplan.outputs.reuse.row_hashes`; by default those of their geometries), which
+    of its circuits are AC, the CRSs and the drawing's values.
     """
     crs = circuits.crs
     cols = ["block", "circuits", "failing", "worst_utilisation", "worst_vdrop_total_pct"]
@@ -172,38 +178,70 @@ def block_table(
     b = block[ok]
     kinds = circuit_kind(circuits)[ok]
     ac = kinds == "ac"
-    xy, idx = shapely.get_coordinates(g[~ac], return_index=True)
-    parts_xy = [xy[:, :2]]
-    parts_b = [b[~ac][idx]]
-    if ac.any():
-        parts_xy.append(shapely.get_coordinates(shapely.get_point(g[ac], 0))[:, :2])
-        parts_b.append(b[ac])
+    # each circuit's and row's block as a code (factorized once, not per point)
+    block_code, block_names = pd.factorize(b)
+    row_g = np.empty(0, dtype=object)
+    row_code = np.zeros(0, dtype=np.int64)
+    row_keep = np.zeros(0, dtype=bool)
     if rows is not None and len(rows) and "id" in rows.columns:
         strings = kinds == "string"
-        row_block = pd.Series(b[strings], index=text_values(circuits, "from_id")[ok][strings])
+        row_block = pd.Series(
+            block_code[strings], index=text_values(circuits, "from_id")[ok][strings]
+        )
         row_block = row_block[~row_block.index.duplicated()]
         rb = pd.Series(text_values(rows, "id")).map(row_block)
-        keep = rb.notna().to_numpy() & drawable_mask(rows)
-        if keep.any():
-            rows_m = rows[keep].to_crs(metric.crs) if rows.crs is not None else rows[keep]
-            rxy, ridx = shapely.get_coordinates(rows_m.geometry.to_numpy(), return_index=True)
-            parts_xy.append(rxy[:, :2])
-            parts_b.append(rb.to_numpy()[keep][ridx])
-    pts = np.concatenate(parts_xy)
-    codes, names = pd.factorize(np.concatenate(parts_b).astype(str))
+        row_keep = rb.notna().to_numpy() & drawable_mask(rows)
+        if row_keep.any():
+            rows_m = rows[row_keep].to_crs(metric.crs) if rows.crs is not None else rows[row_keep]
+            row_g = rows_m.geometry.to_numpy()
+            row_code = rb.to_numpy()[row_keep].astype(np.int64)
+    # the outline points, in this order: the DC circuits' vertices, the AC circuits' first
+    # points, the rows' vertices; blocks numbered in order of their first point
+    by_first = pd.unique(np.concatenate([block_code[~ac], block_code[ac], row_code]))
+    renumber = np.zeros(len(block_names), dtype=np.int64)
+    renumber[by_first] = np.arange(len(by_first))
+    names = np.asarray(block_names, dtype=object)[by_first]
+    circuit_block, row_block_code = renumber[block_code], renumber[row_code]
+    inverter = shapely.get_point(g[ac], 0)
     # one point per square metre per block is enough for its outline: a key of the block and
-    # the rounded coordinates (each within 2**21 m of the site's corner) in one integer
-    grid = np.round(pts - np.nanmin(pts, axis=0)).astype(np.int64)
-    grid = np.clip(grid, 0, (1 << 21) - 1)
-    key = (codes.astype(np.int64) << 42) | (grid[:, 0] << 21) | grid[:, 1]
-    _, sel = np.unique(key, return_index=True)  # sorted by key: by block
-    pts, codes = pts[sel], codes[sel]
-    ends = np.searchsorted(codes, np.arange(len(names) + 1))
+    # the coordinates rounded from the smallest of all points (each within 2**21 m of it)
+    low = np.concatenate(
+        [
+            shapely.bounds(g[~ac])[:, :2],
+            shapely.get_coordinates(inverter)[:, :2],
+            shapely.bounds(row_g)[:, :2],
+        ]
+    )
+    origin = np.nanmin(low, axis=0)
+
+    def outline_points(which: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The outline points of the blocks ``which`` (codes, ascending) and their blocks,
+        sorted by block."""
+        mine = np.isin(circuit_block, which)
+        dc, at = mine & ~ac, mine[ac]
+        xy, idx = shapely.get_coordinates(g[dc], return_index=True)
+        rxy, ridx = shapely.get_coordinates(
+            row_g[np.isin(row_block_code, which)], return_index=True
+        )
+        first = shapely.get_coordinates(inverter[at])[:, :2]
+        pts = np.concatenate([xy[:, :2], first, rxy[:, :2]])
+        codes = np.concatenate(
+            [
+                circuit_block[dc][idx],
+                circuit_block[ac][at],
+                row_block_code[np.isin(row_block_code, which)][ridx],
+            ]
+        )
+        grid = np.round(pts - origin).astype(np.int64)
+        grid = np.clip(grid, 0, (1 << 21) - 1)
+        key = (codes << 42) | (grid[:, 0] << 21) | grid[:, 1]
+        _, sel = np.unique(key, return_index=True)  # sorted by key: by block
+        return pts[sel], codes[sel]
 
     def make(which: np.ndarray) -> np.ndarray:
-        """The areas of the blocks ``which`` (codes), in ``crs``."""
-        take = np.isin(codes, which)
-        multi = shapely.multipoints(pts[take], indices=np.searchsorted(which, codes[take]))
+        """The areas of the blocks ``which`` (codes, ascending), in ``crs``."""
+        pts, codes = outline_points(which)
+        multi = shapely.multipoints(pts, indices=np.searchsorted(which, codes))
         hull = shapely.concave_hull(multi, ratio=HULL_RATIO)
         area = shapely.buffer(hull, BLOCK_BUFFER_M, quad_segs=4)
         area = gpd.GeoSeries(shapely.simplify(area, BLOCK_SIMPLIFY_M), crs=metric.crs)
@@ -213,13 +251,26 @@ def block_table(
 
     if areas is None:
         area = make(np.arange(len(names)))
-    else:  # a block's area by the digest of its points, the CRSs and the drawing's values
+    else:  # a block's area by a digest of what its points come from (see _block_keys)
+        circuit_h, row_h = hashes if hashes is not None else (None, None)
+        if circuit_h is None:
+            circuit_h = geometry_hashes(circuits.geometry.to_numpy())
         wkt = [c.to_wkt() if c is not None else None for c in (metric.crs, crs)]
+        if len(row_keep):
+            wkt.append(rows.crs.to_wkt() if rows.crs is not None else None)
+            row_h = row_h if row_h is not None else geometry_hashes(rows.geometry.to_numpy())
+            row_h = np.asarray(row_h)[row_keep]
+        else:
+            row_h = np.zeros(0, dtype=np.uint64)
+        # the origin of the rounding too: each block's points depend on it
         frame = repr((HULL_RATIO, BLOCK_BUFFER_M, BLOCK_SIMPLIFY_M, *wkt)).encode()
-        keys = [
-            hashlib.blake2b(frame + pts[a:b].tobytes(), digest_size=16).hexdigest()
-            for a, b in itertools.pairwise(ends.tolist())
-        ]
+        frame += origin.tobytes()
+        keys = _block_keys(
+            frame,
+            len(names),
+            (circuit_block, np.asarray(circuit_h)[ok], ac),
+            (row_block_code, row_h, np.zeros(len(row_h), dtype=bool)),
+        )
         area = areas(keys, make)
 
     df = circuits[ok]
@@ -248,6 +299,22 @@ def block_table(
         geometry=area,
         crs=crs,
     )
+
+
+def _block_keys(
+    frame: bytes, n: int, *members: tuple[np.ndarray, np.ndarray, np.ndarray]
+) -> list[str]:
+    """A digest for each of ``n`` blocks: of ``frame`` and, for each kind of member (block
+    code, content hash and a flag per member), its members' hashes and flags in order."""
+    parts: list[list[bytes]] = [[frame] for _ in range(n)]
+    for code, hashes, flag in members:
+        order = np.argsort(code, kind="stable")
+        ends = np.searchsorted(code[order], np.arange(n + 1))
+        h = np.asarray(hashes, dtype=np.uint64)[order].tobytes()
+        f = np.asarray(flag, dtype=np.uint8)[order].tobytes()
+        for k, (a, b) in enumerate(itertools.pairwise(ends.tolist())):
+            parts[k] += [b"|", h[8 * a : 8 * b], f[a:b]]
+    return [hashlib.blake2b(b"".join(p), digest_size=16).hexdigest() for p in parts]
 
 
 def _round_coords(geoms: np.ndarray) -> np.ndarray:
@@ -336,15 +403,17 @@ def plant_view(
     groups: list[tuple[str, str, bool]],
     bounds: list[list[float]] | None,
     areas: Areas | None = None,
+    hashes: tuple[np.ndarray, np.ndarray | None] | None = None,
 ) -> PlantView:
     """The plant view of a map of ``n_features`` drawn features (see the module docstring).
 
     ``groups`` are the page's layer groups (key, name, shown at first) as they will be made;
-    ``bounds`` the site's [[south, west], [north, east]]. Without a plant view the script still
-    fits the site beside the panels and labels ids.
+    ``bounds`` the site's [[south, west], [north, east]]; ``areas`` and ``hashes`` as for
+    :func:`block_table`. Without a plant view the script still fits the site beside the panels
+    and labels ids.
     """
     delta = detail_delta(n_features)
-    blocks = block_table(circuits, rows, areas=areas) if delta is not None else None
+    blocks = block_table(circuits, rows, areas=areas, hashes=hashes) if delta is not None else None
     data = block_data(blocks) if blocks is not None else []
     spec = {
         "delta": delta,

@@ -106,3 +106,33 @@ def join_limited(items: Iterable[object], limit: int = 8, sep: str = ", ") -> st
     if len(items) <= limit:
         return sep.join(items)
     return sep.join(items[:limit]) + f" … (+{len(items) - limit} more)"
+
+
+def ints_json(values) -> str:
+    """A JSON list of integers (a list or an integer array), as ``json.dumps`` writes it
+    without spaces, made with array operations: the digits of every value in one table of
+    bytes, leading zeros dropped (the map's columnar data holds lists of 100,000 indices).
+
+    Examples
+    --------
+    >>> ints_json([0, 7, 10, 1234, 99]), ints_json([]), ints_json([-3, 12])
+    ('[0,7,10,1234,99]', '[]', '[-3,12]')
+    """
+    a = np.asarray(values, dtype=np.int64).reshape(-1)
+    if len(a) == 0:
+        return "[]"
+    if a.min() < 0:  # signs: not worth a table
+        return "[" + ",".join(map(str, a.tolist())) + "]"
+    top = int(a.max())
+    width = len(str(top))
+    b = a.astype(np.uint32 if top < 2**32 else np.uint64)
+    table = np.empty((width + 1, len(a)), dtype=np.uint8)  # a value's bytes down a column
+    table[width] = ord(",")
+    for j in range(width - 1, -1, -1):  # the last digit first
+        q = b // 10
+        table[j] = b - q * 10 + ord("0")
+        b = q
+    keep = np.ones(table.shape, dtype=bool)
+    powers = 10 ** np.arange(width - 1, 0, -1, dtype=np.int64)
+    keep[: width - 1] = a >= powers[:, None]  # a digit, not a leading zero
+    return "[" + table.T[keep.T].tobytes()[:-1].decode("ascii") + "]"

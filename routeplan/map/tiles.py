@@ -15,8 +15,10 @@ depends only on a few values (title, basemap, canvas, view, groups): the memo ke
 a re-plan that does not change those does not even import folium. Its folium elements are
 named from those values (not at random), so a page made with the memo is byte for byte the
 page a run without it makes. The plant view's block areas are kept as WKB under a digest of
-each block's outline points (:meth:`MapMemo.geometries`): an edit redraws its blocks' areas
-only.
+each block's circuits' and rows' content hashes (:meth:`MapMemo.geometries`,
+:func:`routeplan.map.plantview.block_table`): an edit redraws its blocks' areas only, and
+finds the outline points of those blocks only. Scripts are kept as UTF-8 bytes, so a kept
+tile is copied into the page without being decoded or encoded.
 
 A tile's key holds flags and plant-wide values, never a count of the plant's features: one
 feature more (a trench split by a moved pad) must leave the other tiles' keys as they were.
@@ -56,14 +58,18 @@ def tiles(keys: np.ndarray, cells: np.ndarray | None = None) -> list[np.ndarray]
     if len(keys) == 0:
         return []
     text = keys.astype(str)
-    if cells is None:
-        order = np.argsort(text, kind="stable")
-    else:
-        cells = pd.Series(np.asarray(cells)).groupby(text).transform("first").to_numpy()
-        order = np.lexsort((text, cells))
-    k = keys[order]
-    h = pd.util.hash_array(k.astype(str).astype(object), categorize=False)
+    order = np.argsort(text, kind="stable")
+    k = text[order]
     last = np.r_[k[1:] != k[:-1], True]  # only after the last feature of an id
+    if cells is not None:  # an id's square: that of its first feature
+        cells = np.asarray(cells)
+        start = np.r_[True, last[:-1]]  # the first feature of each id
+        first = np.empty_like(cells)
+        first[order] = cells[order][start][np.cumsum(start) - 1]
+        cells = first
+        by_cell = np.argsort(cells[order], kind="stable")  # ids in order within a square
+        order, k, last = order[by_cell], k[by_cell], last[by_cell]
+    h = pd.util.hash_array(k.astype(object), categorize=False)
     cut = (h & TILE_MASK) == 0
     if cells is not None:
         band = cells[order] >> 32
@@ -129,13 +135,17 @@ class Role:
 class MapMemo:
     """Scripts of tiles, the page around them and the plant view's block areas, by key: those
     of the last run (``last``) and those used in this one (:meth:`export` gives them to the
-    plan cache)."""
+    plan cache).
 
-    last_scripts: dict[str, tuple[str, int]] = field(default_factory=dict)
+    A tile's scripts are kept as UTF-8 bytes (with their number of features): a page is
+    assembled from them as bytes (:func:`routeplan.map.page.render_map_bytes`), so the
+    scripts a re-plan keeps are never decoded or encoded again."""
+
+    last_scripts: dict[str, tuple[bytes, int]] = field(default_factory=dict)
     last_pages: dict[str, list[str]] = field(default_factory=dict)
     #: geometries by key, as WKB (the plant view's block areas: :meth:`geometries`)
     last_shapes: dict[str, bytes] = field(default_factory=dict)
-    scripts: dict[str, tuple[str, int]] = field(default_factory=dict)
+    scripts: dict[str, tuple[bytes, int]] = field(default_factory=dict)
     pages: dict[str, list[str]] = field(default_factory=dict)
     shapes: dict[str, bytes] = field(default_factory=dict)
     drawn_tiles: int = 0
@@ -146,12 +156,14 @@ class MapMemo:
         """A memo from :meth:`export`'s value (anything else: an empty memo)."""
         try:
             s = stored["scripts"]  # type: ignore[index]
-            text = np.asarray(s["text"], dtype=np.uint8).tobytes().decode("utf-8")
-            ends = np.cumsum(np.asarray(s["length"], dtype=np.int64)).tolist()
+            # the scripts' bytes, sliced without copies (an older memo, of text lengths in
+            # characters, has no "nbytes": an empty memo)
+            text = memoryview(np.ascontiguousarray(s["text"], dtype=np.uint8))
+            ends = np.cumsum(np.asarray(s["nbytes"], dtype=np.int64)).tolist()
             starts = [0, *ends][: len(ends)]
             counts = np.asarray(s["count"], dtype=np.int64).tolist()
             keys = list(s["keys"])
-            if not (len(keys) == len(ends) == len(counts)):
+            if not (len(keys) == len(ends) == len(counts)) or (ends and ends[-1] != len(text)):
                 return cls()
             scripts = {
                 k: (text[a:b], n) for k, a, b, n in zip(keys, starts, ends, counts, strict=True)
@@ -161,19 +173,19 @@ class MapMemo:
                 for k, parts in dict(stored["pages"]).items()  # type: ignore[index]
             }
             shapes = _load_blobs(stored.get("shapes"))  # type: ignore[union-attr]
-        except (KeyError, TypeError, ValueError, UnicodeDecodeError, AttributeError):
+        except (KeyError, TypeError, ValueError, AttributeError):
             return cls()
         return cls(last_scripts=scripts, last_pages=pages, last_shapes=shapes)
 
     def export(self) -> dict:
         """What this run used, for the next one (arrays, no pickle: :mod:`routeplan.cache`)."""
         keys = list(self.scripts)
-        texts = [self.scripts[k][0].encode("utf-8") for k in keys]
+        texts = [self.scripts[k][0] for k in keys]
         return {
             "scripts": {
                 "keys": keys,
                 "text": np.frombuffer(b"".join(texts), dtype=np.uint8),
-                "length": np.array([len(self.scripts[k][0]) for k in keys], dtype=np.int64),
+                "nbytes": np.array([len(t) for t in texts], dtype=np.int64),
                 "count": np.array([self.scripts[k][1] for k in keys], dtype=np.int64),
             },
             "pages": dict(self.pages),
@@ -214,13 +226,13 @@ class MapMemo:
         draw: Callable[[np.ndarray], dict[str, Layer]],
         *,
         lazy: bool = False,
-    ) -> tuple[list[str], dict[str, int]]:
+    ) -> tuple[list[bytes], dict[str, int]]:
         """The scripts of one layer group drawn in tiles: for each tile (its rows' positions
         and hashes, in ``parts``), ``draw(positions)`` gives its layers by part. Returns the
-        scripts in drawing order (each role over every tile in turn) and the number of features
-        of each part."""
+        scripts in drawing order (each role over every tile in turn; UTF-8) and the number of
+        features of each part."""
         lazy = bool(lazy)  # a flag in the key: a truthy count would make every key new
-        per_role: list[list[str]] = [[] for _ in roles]
+        per_role: list[list[bytes]] = [[] for _ in roles]
         counts = {r.part: 0 for r in roles}
         seen: set[str] = set()
         for positions, hashes in parts:
@@ -247,7 +259,7 @@ class MapMemo:
                         if len(layer)
                         else ""
                     )
-                    made.append((script, len(layer)))
+                    made.append((script.encode("utf-8"), len(layer)))
                 self.drawn_tiles += 1
             else:
                 self.reused_tiles += 1

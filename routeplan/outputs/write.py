@@ -460,13 +460,13 @@ def _write_map(
     layers: dict[str, GpkgLayer],
 ) -> None:
     """Write ``map.html`` (and, with a cache, the map's memo for the next run)."""
-    from routeplan.map.page import render_map
+    from routeplan.map.page import render_map_bytes
     from routeplan.map.tiles import MapMemo
 
     t0 = time.perf_counter()
     cache = plan.cache
     memo = MapMemo.load(cache.output_aux("map")) if cache is not None else MapMemo()
-    html = render_map(
+    data = render_map_bytes(
         plan.circuits,
         plan.segments,
         rows,
@@ -477,7 +477,6 @@ def _write_map(
         drop_limits_pct=dict(plan.design.drop_pct),
         **(map_options or {}),
     )
-    data = html.encode("utf-8")
     (tmp / "map.html").write_bytes(data)
     if cache is not None:
         cache.save_aux(tmp, "map", memo.export())

@@ -8,13 +8,21 @@ wrapped, and ``doctest`` skips functions defined outside the module. These tests
 from __future__ import annotations
 
 import html
+import json
 import math
 
 import numpy as np
 import pandas as pd
 import pytest
 
-from routeplan.map.text import MISSING, escape_all, escape_text, fmt_number, join_limited
+from routeplan.map.text import (
+    MISSING,
+    escape_all,
+    escape_text,
+    fmt_number,
+    ints_json,
+    join_limited,
+)
 
 #: characters live in HTML, in an attribute, in a JavaScript template literal or in Jinja
 LIVE = set("<>\"'`$\\{}&")
@@ -114,3 +122,21 @@ def test_join_limited_default_limit_is_eight():
     items = [f"S{i}" for i in range(9)]
     assert join_limited(items[:8]) == ", ".join(items[:8])
     assert join_limited(items) == ", ".join(items[:8]) + " … (+1 more)"
+
+
+@pytest.mark.parametrize("top", [0, 1, 9, 10, 11, 99, 100, 65_535, 2**32 - 1, 2**32, 10**15])
+def test_integer_lists_are_what_json_writes(top):
+    """ints_json against the standard library's json.dumps (no spaces): every width of
+    number, leading zeros dropped, 0 itself kept; lists and arrays alike."""
+    rng = np.random.default_rng(top % 1000)
+    values = np.r_[rng.integers(0, top + 1, 500), 0, top]
+    want = json.dumps(values.tolist(), separators=(",", ":"))
+    assert ints_json(values) == want
+    assert ints_json(values.tolist()) == want
+    assert ints_json(values[:1]) == json.dumps(values[:1].tolist())
+
+
+def test_integer_lists_empty_and_negative():
+    assert ints_json([]) == "[]" == json.dumps([])
+    values = [-1, 0, 5, -12345, 10]
+    assert ints_json(values) == json.dumps(values, separators=(",", ":"))

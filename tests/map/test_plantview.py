@@ -207,3 +207,41 @@ def test_a_memo_of_the_last_areas_draws_only_the_changed_block(synthetic, crs):
         shapely.to_wkb(fresh.geometry.to_numpy()).tolist()
     )
     assert set(memo.export()["shapes"]["keys"]) - set(first.shapes) != set()  # the new area
+
+
+@pytest.mark.parametrize("with_row_hashes", [False, True])
+def test_a_shift_of_the_sites_lowest_point_draws_every_area_again(synthetic, with_row_hashes):
+    """Each block's outline points are rounded from the smallest coordinates of the whole
+    site: a circuit moved below them (by a fraction of a metre's grid) changes every block's
+    points, so no area is kept from the memo, and each is the one a fresh drawing gives, bit
+    for bit (shapely WKB). With the writer's row hashes (routeplan.outputs.reuse.row_hashes)
+    or the geometries' own."""
+    from routeplan.map.tiles import MapMemo
+    from routeplan.outputs.reuse import row_hashes
+
+    c, rows = synthetic["circuits"], synthetic["rows"]
+
+    def hashes(circuits):
+        if not with_row_hashes:
+            return None
+        return tuple(
+            row_hashes(f.drop(columns=f.geometry.name), f.geometry.to_numpy())
+            for f in (circuits, rows)
+        )
+
+    first = MapMemo()
+    block_table(c, rows, areas=first.geometries, hashes=hashes(c))
+    moved = c.copy()
+    i = int(np.flatnonzero(circuit_kind(c) == "string")[3])
+    g = moved.geometry.to_numpy().copy()
+    x0, y0 = shapely.total_bounds(g)[:2]
+    low = shapely.bounds(g[i])
+    g[i] = shapely.affinity.translate(g[i], x0 - low[0] - 3.7, y0 - low[1] - 2.4)
+    moved = moved.set_geometry(g, crs=c.crs)
+    memo = MapMemo.load(first.export())
+    kept = block_table(moved, rows, areas=memo.geometries, hashes=hashes(moved))
+    fresh = block_table(moved, rows)
+    assert not set(memo.shapes) & set(first.shapes)  # every area drawn again
+    assert shapely.to_wkb(kept.geometry.to_numpy()).tolist() == (
+        shapely.to_wkb(fresh.geometry.to_numpy()).tolist()
+    )

@@ -104,3 +104,23 @@ def test_a_layers_key_hash_is_the_row_hash_of_its_key_columns():
     assert (lay.keys == row_hashes(frame[["kind", "id"]])).all()
     assert (lay.hashes == row_hashes(lay.data, lay.geometry)).all()
     assert len(set(lay.keys.tolist())) == 3
+
+
+def test_a_pad_moves_map_is_a_cold_runs_map_byte_for_byte(tmp_path):
+    """The map a re-plan writes with the last run's memo (tiles, page, block areas) is the
+    file a run without a cache writes, byte for byte (a 100 MW plant: plant view, several
+    tiles per layer group, tiles cut by the site's squares)."""
+    from routeplan.synth import generate_site
+
+    site = tmp_path / "site"
+    generate_site(100.0, 3, site)
+    out, cold = tmp_path / "out", tmp_path / "cold"
+    run(site, out)
+    move_gpkg_pad(site, dy=6.0)
+    warm = run(site, out)
+    reused = warm.cache.output_reuse.map_tiles_reused
+    run(site, cold, cache=False)
+    html = (cold / "map.html").read_bytes()
+    assert b"Plant view:" in html  # the block areas and the squares' tiles are drawn
+    assert reused > 10  # most tiles taken from the memo …
+    assert (out / "map.html").read_bytes() == html  # … and the same bytes
