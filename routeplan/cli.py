@@ -337,19 +337,28 @@ def _watch(
 ) -> None:
     """``routeplan plan --watch``: plan, then plan again at every change of the site's files
     (:mod:`routeplan.watch`) until Ctrl-C; exit with the last run's status. Bad input or a
-    file system failure is reported and waited out; an unusable output folder ends it."""
+    file system failure is reported and waited out, as is an output folder that cannot be used
+    after the first run (a file of routeplan's edited since: move it away and save again); an
+    output folder that cannot be used at the start ends it, as ``plan`` does."""
     import time
 
     from .watch import Watcher
 
     watcher = Watcher(site, out_dir, map_options, force=force, use_cache=use_cache)
-    code = 2
+    code, first = 2, True
     try:
         while True:
             try:
                 result, seconds = watcher.run()
             except FolderError as exc:
-                _fail_input(exc)
+                if first:
+                    _fail_input(exc)
+                err.print(f"error: {exc.problems[0]}", markup=False)
+                err.print(
+                    "nothing was planned; the next change of the site's files is planned again",
+                    markup=False,
+                )
+                code = 2
             except InputError as exc:
                 problems = getattr(exc, "problems", None) or [exc]
                 for p in problems:
@@ -376,6 +385,7 @@ def _watch(
                         f"{time.strftime('%H:%M:%S')} planned in {seconds:.1f} s", markup=False
                     )
                 watcher.prepare(result.design)
+            first = False
             if not quiet:
                 out.print(f"watching {site} for changes (Ctrl-C stops)", markup=False)
             watcher.wait()

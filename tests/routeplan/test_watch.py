@@ -184,3 +184,46 @@ def _wait_for(check, timeout_s: float = 120.0):
             return value
         time.sleep(0.1)
     raise AssertionError("timed out")
+
+
+def test_cli_watch_reports_an_edited_output_and_goes_on(gen, tmp_path, monkeypatch):
+    """A schedule edited by hand between two runs is never replaced: the run says so (one
+    line naming the file), the watch goes on, and Ctrl-C ends it with that run's status."""
+    from typer.testing import CliRunner
+
+    from routeplan.cli import app
+
+    out = tmp_path / "out"
+    waits: list[int] = []
+
+    def wait(self, interval_s: float = 0.1, sleep=None) -> None:
+        waits.append(1)
+        if len(waits) == 1:  # after the first run: a schedule annotated, then a site edit
+            with (out / "cable_schedule.csv").open("a", encoding="utf-8") as f:
+                f.write("checked,by hand\n")
+            move_gpkg_pad(gen)
+            return
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(Watcher, "wait", wait)
+    done = CliRunner().invoke(app, ["plan", str(gen), "--out", str(out), "--watch"])
+    assert done.exit_code == 2, done.output
+    assert "cable_schedule.csv" in done.output
+    assert "the next change of the site's files is planned again" in done.output
+    assert "stopped watching" in done.output
+    assert "Traceback" not in done.output
+    assert (out / "cable_schedule.csv").read_text(encoding="utf-8").endswith("checked,by hand\n")
+
+
+def test_cli_watch_refuses_an_unusable_folder_at_the_start(gen, tmp_path):
+    from typer.testing import CliRunner
+
+    from routeplan.cli import app
+
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "mine.txt").write_text("a user's file", encoding="utf-8")
+    done = CliRunner().invoke(app, ["plan", str(gen), "--out", str(out), "--watch"])
+    assert done.exit_code == 2
+    assert "stopped watching" not in done.output
+    assert (out / "mine.txt").read_text(encoding="utf-8") == "a user's file"
