@@ -444,3 +444,13 @@ def test_air_stretch_lengths_of_the_wrong_length_are_refused_naming_them():
         InputError, match=r"^air_length_m must have length 2 \(one per air stretch\)$"
     ):
         size_circuits(inp, _nec(), "nec")
+
+
+def test_a_source_circuit_on_the_690_8_b_1_limit_within_the_tolerance_passes():
+    # as above, Isc 16 A up to the engine's relative 1e-9 (a current computed from factors): the
+    # 690.8(B)(1) requirement 1.25 × 1.25 × Isc = 25.000000025 A is 25 A within 1e-9 of it, so
+    # the 12 AWG 75 °C column (Table 310.16, 25 A) still meets it (at the tolerance's very edge)
+    isc = 16.000000015999998
+    r = _source_circuits(1, isc, 1, ["12 AWG", "10 AWG"])
+    assert r.terminal_required_a[0] * (1.0 - 1e-9) == 25.0 and r.terminal_ampacity_a[0] == 25.0
+    assert size_label(r.size_mm2[0]) == "12 AWG" and r.ok[0]
