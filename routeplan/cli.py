@@ -336,14 +336,20 @@ def _watch(
     site: Path, out_dir: Path, quiet: bool, map_options: dict, use_cache: bool, force: bool
 ) -> None:
     """``routeplan plan --watch``: plan, then plan again at every change of the site's files
-    (:mod:`routeplan.watch`) until Ctrl-C; exit with the last run's status. Bad input or a
+    (:mod:`routeplan.watch`) until Ctrl-C or SIGTERM; exit with the last run's status (a run
+    stopped while writing leaves the last outputs, all or nothing). Bad input or a
     file system failure is reported and waited out, as is an output folder that cannot be used
     after the first run (a file of routeplan's edited since: move it away and save again); an
     output folder that cannot be used at the start ends it, as ``plan`` does."""
+    import signal
     import time
 
     from .watch import Watcher
 
+    def stop(signum: int, frame: Any) -> None:
+        raise KeyboardInterrupt  # SIGTERM (a service manager stopping it) ends it as Ctrl-C does
+
+    before = signal.signal(signal.SIGTERM, stop)
     watcher = Watcher(site, out_dir, map_options, force=force, use_cache=use_cache)
     code, first = 2, True
     try:
@@ -393,6 +399,8 @@ def _watch(
         if not quiet:
             out.print("stopped watching", markup=False)
         raise typer.Exit(code) from None
+    finally:
+        signal.signal(signal.SIGTERM, before)
 
 
 @app.command()

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import os
+import shutil
 import signal
 import subprocess
 import sys
@@ -227,3 +228,22 @@ def test_cli_watch_refuses_an_unusable_folder_at_the_start(gen, tmp_path):
     assert done.exit_code == 2
     assert "stopped watching" not in done.output
     assert (out / "mine.txt").read_text(encoding="utf-8") == "a user's file"
+
+
+def test_cli_watch_stops_on_sigterm_with_the_last_runs_status(tmp_path):
+    """A service manager stops a watching process with SIGTERM: it ends as Ctrl-C does, with
+    the last run's exit status (the invented demo site meets every limit: 0)."""
+    site = tmp_path / "demo"
+    shutil.copytree(Path(__file__).resolve().parents[2] / "demo_site", site)
+    out = tmp_path / "out"
+    cmd = [sys.executable, "-m", "routeplan", "plan", str(site), "--out", str(out), "--watch"]
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        _wait_for(lambda: (out / ".routeplan-cache" / "manifest.json").is_file())
+        time.sleep(0.5)
+    finally:
+        proc.send_signal(signal.SIGTERM)
+        stdout, stderr = proc.communicate(timeout=60)
+    assert proc.returncode == 0, stderr
+    assert "stopped watching" in stdout
+    assert "Traceback" not in stderr
