@@ -21,6 +21,7 @@ from numpy.typing import ArrayLike
 from calc.errors import InputError, TableRangeError, check_option
 from calc.nec.ampacity import nec_rule
 from calc.nec.sizes import size_from_label, size_index, size_labels
+from calc.ratings import smallest_rating_a
 from calc.tables import load_table
 
 __all__ = [
@@ -59,10 +60,7 @@ def next_standard_rating_a(current_a: ArrayLike, fuses: bool = False) -> np.ndar
     >>> next_standard_rating_a([20.3125, 25.0, 6001.0])
     array([25., 25., nan])
     """
-    r = standard_ratings_a(fuses)
-    x = np.asarray(current_a, dtype=float)
-    idx = np.searchsorted(r, x * (1.0 - _REL), side="left")
-    return np.where(idx < len(r), r[np.minimum(idx, len(r) - 1)], np.nan)
+    return smallest_rating_a(standard_ratings_a(fuses), current_a)
 
 
 class PvOcpd(NamedTuple):
