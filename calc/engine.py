@@ -1122,11 +1122,11 @@ def _evaluate(kd: _KindData, a, c, gi, pp, bur, air, budget, design, rs) -> dict
         ok_cap = ok_cap & (cap1 >= req1 * (1.0 - _EPS))
         # the device each size would have: string fuse / a.c. breaker, or the array fuse where
         # the size does not carry the backfeed; protection with the limited ampacity (240.4)
-        ocpd = np.where(carries, c["ocpd"][gi][:, None], c["array_fuse"][gi][:, None])
-        prot = rs.conductor_protected(
-            ocpd, np.minimum(cap_tot, cap1), kd.sizes[None, :], kd.material
-        )
-        if prot is not None:
+        if rs.protection_per_size:
+            ocpd = np.where(carries, c["ocpd"][gi][:, None], c["array_fuse"][gi][:, None])
+            prot = rs.conductor_protected(
+                ocpd, np.minimum(cap_tot, cap1), kd.sizes[None, :], kd.material
+            )
             ok_cap = ok_cap & prot
     ok_vd = pct <= budget[:, None] + _EPS
     ok = ok_cap & ok_vd
@@ -2013,7 +2013,7 @@ def protection_failures(result: SizingResult, rules: str) -> np.ndarray:
     why = failure_causes(result)
     other = np.asarray(why["other"], dtype=bool)
     out = np.zeros(n, dtype=bool)
-    if not other.any():
+    if not other.any() or not rs.protection_per_size:
         return out
     device = np.asarray(result.fuse_a, dtype=float).copy()
     arr = np.asarray(result.array_fuse_a, dtype=float)
@@ -2029,7 +2029,5 @@ def protection_failures(result: SizingResult, rules: str) -> np.ndarray:
         if not m.any():
             continue
         prot = rs.conductor_protected(device[m], amp[m], size[m], mat)
-        if prot is None:
-            return out
         out[np.flatnonzero(m)] = ~np.asarray(prot, dtype=bool)
     return out

@@ -8,7 +8,8 @@ The methods after the abstract ones are *hooks* with the IEC behaviour as their 
 set whose rules differ in structure (NEC 2023: two ampacity conditions, conductors counted for
 grouping, protection by 240.4) overrides them (see :mod:`calc.rules.nec`) and declares so in the
 capability attributes beside them (``terminal_condition``, ``short_section_exception``,
-``buried_review``, ``short_circuit_checked``; ``grouping_uses_spacing`` for every rule set),
+``buried_review``, ``short_circuit_checked``, ``protection_per_size``; ``grouping_uses_spacing``
+for every rule set),
 which the engine and ``routeplan.remedy`` read instead of calling a hook to find out.
 
 >>> get_rules("iec").name, get_rules("nec").name
@@ -239,6 +240,11 @@ class RuleSet(abc.ABC):
     #: :meth:`k_adiabatic`; where False, each a.c. circuit carries :meth:`short_circuit_note`
     #: instead (nec: no adiabatic table)
     short_circuit_checked: ClassVar[bool] = True
+    #: each candidate size is checked against the circuit's overcurrent device
+    #: (:meth:`conductor_protected`; nec: 240.4); where False the cable is held to the device
+    #: through the design current instead (IEC 60364-4-43 433.1). The engine checks it with
+    #: the ampacity limited by the terminations, so it goes with :attr:`terminal_condition`
+    protection_per_size: ClassVar[bool] = False
 
     def breaker_text(self, in_a: float, ib_a: float, iz_a: float, device: str) -> str:
         """The a.c. breaker's line of the schedule's protection text."""
@@ -281,8 +287,9 @@ class RuleSet(abc.ABC):
         self, ocpd_a: np.ndarray, ampacity_a: np.ndarray, sizes_mm2: np.ndarray, material: str
     ) -> np.ndarray | None:
         """Per circuit and size, whether the circuit's overcurrent device (nan = none)
-        protects the conductors (NEC 240.4); ``None`` where the rule set holds the cable to a
-        current instead (IEC 60364-4-43 433.1 through the design current)."""
+        protects the conductors (NEC 240.4); only called where :attr:`protection_per_size`;
+        ``None`` where the rule set holds the cable to a current instead (IEC 60364-4-43 433.1
+        through the design current)."""
         return None
 
     def buried_note(self, env: str) -> str:

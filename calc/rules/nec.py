@@ -103,6 +103,7 @@ class NecRules(RuleSet):
     short_section_exception: ClassVar[bool] = True
     buried_review: ClassVar[bool] = True
     short_circuit_checked: ClassVar[bool] = False
+    protection_per_size: ClassVar[bool] = True
 
     def breaker_text(self, in_a, ib_a, iz_a, device):
         """Breaker ≥ 1.25 × the continuous current; 240.4 against the ampacity."""

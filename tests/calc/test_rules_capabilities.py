@@ -1,5 +1,6 @@
 """The rule sets' declared capabilities (``RuleSet.grouping_uses_spacing``,
-``terminal_condition``, ``short_section_exception``, ``buried_review``, ``short_circuit_checked``)
+``terminal_condition``, ``short_section_exception``, ``buried_review``, ``short_circuit_checked``,
+``protection_per_size``)
 against the hooks they stand for: the engine and ``routeplan.remedy`` read the declarations, so a
 declaration that the hook contradicts would change a plan silently.
 
@@ -109,3 +110,19 @@ def test_iec_checks_the_withstand_and_nec_says_it_does_not():
     assert nec.terminal_condition and not iec.terminal_condition
     assert nec.short_section_exception and not iec.short_section_exception
     assert nec.buried_review and not iec.buried_review
+
+
+@pytest.mark.parametrize("name", rule_names())
+def test_protection_per_size_declared_as_the_hook_gives_it(name):
+    """NEC 2023 240.4(D): 10 AWG Cu protected at no more than 30 A (confirmed,
+    REFERENCE_VALUES §10.1; calc/data/nec_2023_240_4_d_small_conductors.csv): with an
+    ampacity of 35 A, a 25 A device protects it and a 35 A device does not. IEC has no per-size
+    device check (433.1 through the design current)."""
+    rs = get_rules(name)
+    ten = size_from_label(["10 AWG"]) if name == "nec" else np.array([10.0])
+    got = rs.conductor_protected(np.array([25.0, 35.0]), np.array([35.0, 35.0]), ten, "Cu")
+    assert rs.protection_per_size == (got is not None)
+    if got is not None:
+        assert np.asarray(got).reshape(-1).tolist() == [True, False]
+    # the engine checks it with the terminal-limited ampacity
+    assert not rs.protection_per_size or rs.terminal_condition
