@@ -434,8 +434,10 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
     rule_set = calc.get_rules(values["rules"])
     if "design.frequency_hz" in defaulted:  # nec: Chapter 9 Table 9 is for 60 Hz
         values["frequency_hz"] = rule_set.default_frequency_hz
+    # a device no rule set knows is one problem already (_scalars): not a second one here
+    named = any(p.feature_id == "design.ac_breaker_device" for p in problems)
     if values["ac_breaker_device"] not in rule_set.breaker_devices:
-        if "design.ac_breaker_device" in defaulted:
+        if "design.ac_breaker_device" in defaulted or named:
             values["ac_breaker_device"] = rule_set.breaker_devices[0]
         else:
             problems.append(

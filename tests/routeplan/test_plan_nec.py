@@ -95,3 +95,11 @@ def test_a_refused_nec_setting_is_named_by_its_key(tmp_path, extra, rules, messa
     [problem] = exc.value.problems
     assert problem.feature_id == "design." + extra.split("=")[0].strip()
     assert problem.message.startswith(message)
+
+
+def test_an_unknown_breaker_device_is_one_problem_under_nec():
+    """A device no rule set knows is named once (with every known device), not a second time
+    as "not a breaker of rules 'nec'" about the default put in its place."""
+    _, problems = parse_design({"design": {"rules": "nec", "ac_breaker_device": "bogus"}})
+    lines = [str(p) for p in problems if p.feature_id == "design.ac_breaker_device"]
+    assert len(lines) == 1 and "'bogus'" in lines[0], lines
