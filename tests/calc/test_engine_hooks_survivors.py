@@ -44,25 +44,17 @@ from calc.errors import InputError
 from calc.nec.sizes import size_from_label, size_label
 from calc.rules import get_rules
 
+from .test_nec_engine import _design
+
 NAN = math.nan
 I_MAX = 1.25 * 13.0  # 690.8(A)(1)(a)(1), Isc 13 A
 
 
 def _nec(**kw) -> DesignParams:
-    base = dict(
-        insulation_array="90C",
-        insulation_subarray="90C",
-        insulation_ac="90C",
-        ac_breaker_device="nec240.6a",
-        frequency_hz=60.0,
-        ground_temp_c=30.0,
-        air_temp_c=30.0,
-        drop_string_pct=3.0,
-        drop_dc_total_pct=3.0,
-        power_factor=1.0,
-    )
+    """test_nec_engine's NEC design with air at 30 °C and 3 % drop budgets."""
+    base = dict(air_temp_c=30.0, drop_string_pct=3.0, drop_dc_total_pct=3.0)
     base.update(kw)
-    return DesignParams(**base)
+    return _design(**base)
 
 
 def _strings(cable_m, air_m=0.0, **kw) -> SizingInput:

@@ -41,9 +41,10 @@ from hypothesis import strategies as st
 from routeplan.check import load
 from routeplan.errors import DesignError, RoutingError
 from routeplan.localplan import MoveSearch, baseline, moved_features, replan
-from routeplan.network import build_network, retap, site_equipment
+from routeplan.network import retap
 from routeplan.pipeline import plan_site, route_params
 from routeplan.placement import _anchor, candidate_points, moved_site
+from routeplan.routing import site_network
 from routeplan.synth import generate_site
 
 #: cable sizes that force parallel sets on a generated plant's array and a.c. cables
@@ -276,15 +277,7 @@ def test_placement_figures_equal_cold_plan(plants, name, data):
 
 
 def _network(site, design, memo=None):
-    params = route_params(design)
-    return build_network(
-        site.trenches,
-        site_equipment(site),
-        node_tol_m=params.node_tol_m,
-        snap_m=params.snap_m,
-        defaults=params.trench,
-        memo=memo,
-    )
+    return site_network(site, route_params(design), memo)
 
 
 @settings(
