@@ -102,15 +102,6 @@ def test_a_users_matplotlib_settings_do_not_change_the_charts(demo):
     assert styled.html == plain.html
 
 
-@pytest.fixture
-def gen(tmp_path) -> Path:
-    from routeplan.synth import generate_site
-
-    site = tmp_path / "gen"
-    generate_site(20.0, 5, site)
-    return site
-
-
 def test_a_pad_moves_report_equals_a_cold_runs(gen, tmp_path):
     out, cold = tmp_path / "out", tmp_path / "cold"
     run(gen, out)
