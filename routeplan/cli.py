@@ -340,7 +340,8 @@ def _watch(
     stopped while writing leaves the last outputs, all or nothing). Bad input or a
     file system failure is reported and waited out, as is an output folder that cannot be used
     after the first run (a file of routeplan's edited since: move it away and save again); an
-    output folder that cannot be used at the start ends it, as ``plan`` does."""
+    output folder that cannot be used at the start, or a site path that is not a folder, ends
+    it, as ``plan`` does."""
     import signal
     import time
 
@@ -366,12 +367,14 @@ def _watch(
                 )
                 code = 2
             except InputError as exc:
+                if not site.is_dir():  # nothing to watch
+                    _fail_input(exc)
                 problems = getattr(exc, "problems", None) or [exc]
                 for p in problems:
                     err.print(f"error: {p}", markup=False)
                 err.print(
-                    f"{len(problems)} problem(s) in the input; nothing was planned ({out_dir} "
-                    "keeps the last outputs)",
+                    f"{len(problems)} problem(s) in the input; nothing was planned (the outputs "
+                    f"in {out_dir}, if any, are the last run's); waiting for the next change",
                     markup=False,
                 )
                 code = 2

@@ -247,3 +247,20 @@ def test_cli_watch_stops_on_sigterm_with_the_last_runs_status(tmp_path):
     assert proc.returncode == 0, stderr
     assert "stopped watching" in stdout
     assert "Traceback" not in stderr
+
+
+def test_cli_watch_refuses_a_site_that_is_not_a_folder(tmp_path, monkeypatch):
+    from typer.testing import CliRunner
+
+    from routeplan.cli import app
+
+    def wait(self, interval_s: float = 0.1, sleep=None) -> None:
+        raise KeyboardInterrupt  # a watch that waited would print "stopped watching"
+
+    monkeypatch.setattr(Watcher, "wait", wait)
+    out = tmp_path / "out"
+    site = tmp_path / "nowhere"
+    done = CliRunner().invoke(app, ["plan", str(site), "--out", str(out), "--watch"])
+    assert done.exit_code == 2
+    assert "nowhere" in done.output and "stopped watching" not in done.output
+    assert not out.exists()
