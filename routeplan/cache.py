@@ -512,6 +512,10 @@ class Resident:
         self._entries: dict[tuple[str, str, str], Any] = {}
         self._aux: dict[tuple[str, str], Any] = {}
         self._derived: dict[str, tuple[Any, Any]] = {}
+        #: what the writers keep in this process alone, by name (not from the cache's files;
+        #: e.g. ``rows``: the last tables' values and row hashes,
+        #: :class:`routeplan.outputs.reuse.HashMemo`)
+        self.memos: dict[str, Any] = {}
 
     def derived(self, name: str, key: Any) -> Any | None:
         """A value computed from the kept entries (``baseline``: the last plan made ready for

@@ -21,6 +21,7 @@ it is never touched, and a run that fails on bad input writes nothing (the last 
 
 from __future__ import annotations
 
+import importlib
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -101,12 +102,14 @@ class Watcher:
     def prepare(self, design: DesignConfig) -> None:
         """Ready what the next run needs while waiting for an edit (the last run planned under
         ``design``): the last plan as the baseline of a local re-plan
-        (:func:`routeplan.localplan.last_baseline`), and matplotlib loaded for the report's
-        charts (:func:`routeplan.report.plots.warm_up`: the report is drawn in a process
-        forked from this one, which then does not import it again)."""
+        (:func:`routeplan.localplan.last_baseline`), matplotlib loaded for the report's
+        charts (:func:`routeplan.report.plots.warm_up`) and the map's modules imported: the
+        report and the map are drawn in processes forked from this one, which then do not
+        import them again."""
         if self.use_cache:
             last_baseline(PlanCache(self.out_dir, resident=self.resident), design)
         warm_up()
+        importlib.import_module("routeplan.map.page")
 
     def wait(self, interval_s: float = 0.1, sleep: Callable[[float], None] = time.sleep) -> None:
         """Return once the site's files differ from :attr:`state` and have stayed the same

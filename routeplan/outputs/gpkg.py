@@ -34,7 +34,7 @@ import pandas as pd
 import shapely
 
 from .columns import Col
-from .reuse import column_hashes, combine_hashes, layout
+from .reuse import HashMemo, column_hashes, combine_hashes, layout
 from .tables import ordered
 
 #: declared SQLite column types → how a value is bound
@@ -58,16 +58,25 @@ class GpkgLayer:
 
     @classmethod
     def of(
-        cls, frame: gpd.GeoDataFrame, cols: tuple[Col, ...] | None, key: tuple[str, ...]
+        cls,
+        frame: gpd.GeoDataFrame,
+        cols: tuple[Col, ...] | None,
+        key: tuple[str, ...],
+        memo: tuple[HashMemo, str] | None = None,
     ) -> GpkgLayer:
         """The layer of ``frame`` (contract columns ``cols`` first, when given), its features
-        named by the columns ``key``."""
+        named by the columns ``key``; ``memo``: a :class:`~routeplan.outputs.reuse.HashMemo`
+        and the layer's name in it, to hash only what changed since the layer was last
+        hashed there."""
         data = ordered(frame, cols) if cols else frame.drop(columns="geometry")
         data = data.reset_index(drop=True)
         geometry = np.asarray(frame.geometry.values, dtype=object)
         crs = frame.crs.to_wkt() if frame.crs is not None else None
-        columns = [column_hashes(data.iloc[:, j]) for j in range(data.shape[1])]
-        hashes = combine_hashes(columns, len(data), geometry)
+        if memo is None:
+            columns = [column_hashes(data.iloc[:, j]) for j in range(data.shape[1])]
+            hashes = combine_hashes(columns, len(data), geometry)
+        else:
+            columns, hashes = memo[0].hashes(memo[1], data, geometry)
         # the key's hashes are row_hashes(data[key]), from the columns hashed already
         keys = combine_hashes([columns[data.columns.get_loc(k)] for k in key], len(data))
         return cls(data, geometry, frame.crs, hashes, layout(data, crs, key), keys)

@@ -22,6 +22,8 @@ GeoPackage feature for feature.
 from __future__ import annotations
 
 import hashlib
+import operator
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -98,6 +100,11 @@ def combine_hashes(
     """The row hashes of :func:`row_hashes` from its columns' hashes (:func:`column_hashes`,
     in column order) for ``n`` rows: a table's hashes and those of some of its columns (a
     layer's key) share the work of hashing each column."""
+    return _combine(columns, n, None if geometry is None else geometry_hashes(geometry))
+
+
+def _combine(columns: list[np.ndarray], n: int, geometry_h: np.ndarray | None) -> np.ndarray:
+    """:func:`combine_hashes` with the geometries' hashes given (:func:`geometry_hashes`)."""
     h = np.zeros(n, dtype=np.uint64)
     t = np.empty(n, dtype=np.uint64)
     for j, c in enumerate(columns):  # h = _mix(h * _GOLDEN ^ c ^ j), in place
@@ -105,8 +112,8 @@ def combine_hashes(
         h ^= c
         h ^= np.uint64(j)
         _mix_into(h, t)
-    if geometry is not None:
-        h = _mix(h * _GOLDEN ^ geometry_hashes(geometry))
+    if geometry_h is not None:
+        h = _mix(h * _GOLDEN ^ geometry_h)
     return h
 
 
@@ -117,17 +124,35 @@ def column_hashes(column: pd.Series) -> np.ndarray:
     """A uint64 hash per value: numbers by their bits (pandas' mix), text by SipHash-2-4 of
     the text (pandas), missing values apart from every text, other objects by type and
     ``repr`` (so 1, 1.0, True and "1" differ, as their text does)."""
+    kind, values, missing = _column_values(column)
+    return _hash_values(kind, values, missing)
+
+
+def _column_values(column: pd.Series) -> tuple[str, np.ndarray, np.ndarray | None]:
+    """How :func:`column_hashes` hashes ``column`` — ``"number"``, ``"text"`` (str or
+    missing) or ``"object"`` (anything else: by type and ``repr``) — with its values (an
+    object array but for numbers) and, but for numbers, where they are missing."""
     values = column.to_numpy()
     if values.dtype.kind in "biuf":
-        return pd.util.hash_array(values)
+        return "number", values, None
     if isinstance(column.dtype, pd.StringDtype):  # text only
-        return _text_hashes(column.to_numpy(dtype=object))
+        return "text", column.to_numpy(dtype=object), column.isna().to_numpy()
     missing = column.isna().to_numpy()
     values = np.asarray(values, dtype=object)
     present = values[~missing]
     if not len(present) or pd.api.types.infer_dtype(present, skipna=False) == "string":
+        return "text", values, missing
+    return "object", values, missing
+
+
+def _hash_values(kind: str, values: np.ndarray, missing: np.ndarray | None) -> np.ndarray:
+    """The hashes of :func:`column_hashes` of values taken by :func:`_column_values` (or any
+    part of them: each value's hash is its own)."""
+    if kind == "number":
+        return pd.util.hash_array(values)
+    if kind == "text":
         return _text_hashes(np.where(missing, None, values))
-    present = np.array([f"{type(v).__name__}:{v!r}" for v in present], dtype=object)
+    present = np.array([f"{type(v).__name__}:{v!r}" for v in values[~missing]], dtype=object)
     text = np.full(len(values), "", dtype=object)
     text[~missing] = present
     flag = np.where(missing, _MISSING, np.uint64(0)).astype(np.uint64)
@@ -176,3 +201,109 @@ def hashes_key(salt: str, hashes: np.ndarray) -> str:
     """A 128-bit key (BLAKE2b) of ``salt`` and a run of row hashes, in order."""
     data = np.ascontiguousarray(hashes, dtype="<u8").tobytes()
     return hashlib.blake2b(salt.encode("utf-8") + data, digest_size=16).hexdigest()
+
+
+@dataclass
+class _Column:
+    """One column as :class:`HashMemo` keeps it: its kind and values (:func:`_column_values`,
+    copied), where they are missing, and their hashes."""
+
+    kind: str
+    values: np.ndarray
+    missing: np.ndarray | None
+    hashes: np.ndarray
+
+
+@dataclass
+class _Table:
+    names: list[str]
+    columns: list[_Column]
+    geometry: np.ndarray | None
+    geometry_h: np.ndarray | None
+    hashes: np.ndarray
+
+
+class HashMemo:
+    """The last tables hashed, by name, with their columns' values and hashes: a process that
+    writes the outputs again and again (``routeplan plan --watch``) hashes only the values
+    that changed since (:meth:`hashes`). The hashes are those of :func:`column_hashes` and
+    :func:`combine_hashes` whatever the memo holds: a value is reused only where it is the
+    same as the kept one — numbers bit for bit, text character for character, missing where
+    it was missing, geometries the same objects (shapely geometries are immutable) — and a
+    column whose kind, dtype or length differs is hashed whole."""
+
+    def __init__(self) -> None:
+        self._tables: dict[str, _Table] = {}
+
+    def hashes(
+        self, name: str, data: pd.DataFrame, geometry: np.ndarray | None = None
+    ) -> tuple[list[np.ndarray], np.ndarray]:
+        """The hashes of each column of ``data`` (:func:`column_hashes`) and of each row
+        (:func:`combine_hashes`, with ``geometry`` when given), keeping ``data`` as the table
+        ``name`` for the next call."""
+        n, last = len(data), self._tables.get(name)
+        names = [str(c) for c in data.columns]
+        if last is not None and (len(last.hashes) != n or last.names != names):
+            last = None
+        changed = np.zeros(n, dtype=bool) if last is not None else None
+        columns: list[_Column] = []
+        for j in range(data.shape[1]):
+            kind, values, missing = _column_values(data.iloc[:, j])
+            old = last.columns[j] if last is not None else None
+            diff = _differs(kind, values, missing, old)
+            if diff is None:
+                h = _hash_values(kind, values, missing)
+                if changed is not None:
+                    changed[:] = True
+            else:
+                h = old.hashes.copy()
+                at = np.flatnonzero(diff)
+                if len(at):
+                    h[at] = _hash_values(kind, values[at], None if missing is None else missing[at])
+                    changed |= diff
+            columns.append(_Column(kind, values.copy(), missing, h))
+        geometry_h = None
+        if geometry is not None:
+            geometry = np.array(geometry, dtype=object)  # a copy, kept
+            same = None
+            if last is not None and last.geometry is not None:
+                same = np.fromiter(map(operator.is_, geometry, last.geometry), bool, n)
+            if same is None:
+                geometry_h = geometry_hashes(geometry)
+                if changed is not None:
+                    changed[:] = True
+            else:
+                geometry_h = last.geometry_h.copy()
+                at = np.flatnonzero(~same)
+                geometry_h[at] = geometry_hashes(geometry[at])
+                changed |= ~same
+        hashes = [c.hashes for c in columns]
+        if changed is None or changed.all():
+            rows = _combine(hashes, n, geometry_h)
+        else:
+            rows = last.hashes.copy()
+            at = np.flatnonzero(changed)
+            if len(at):
+                part = None if geometry_h is None else geometry_h[at]
+                rows[at] = _combine([h[at] for h in hashes], len(at), part)
+        self._tables[name] = _Table(names, columns, geometry, geometry_h, rows)
+        return hashes, rows
+
+
+def _differs(
+    kind: str, values: np.ndarray, missing: np.ndarray | None, old: _Column | None
+) -> np.ndarray | None:
+    """Where a column's values differ from ``old``'s (None: hash it whole)."""
+    if old is None or old.kind != kind or kind == "object" or len(old.values) != len(values):
+        return None
+    if kind == "number":
+        if old.values.dtype != values.dtype:
+            return None
+        unsigned = np.dtype(f"u{values.dtype.itemsize}")
+        return values.view(unsigned) != old.values.view(unsigned)
+    if not missing.any() and not old.missing.any():
+        return values != old.values  # str against str
+    diff = missing != old.missing
+    both = np.flatnonzero(~missing & ~old.missing)
+    diff[both] = values[both] != old.values[both]
+    return diff

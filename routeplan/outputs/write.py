@@ -37,6 +37,7 @@ from ..report.basis import basis_sheets
 from ..report.html import report_html
 from .columns import CIRCUIT_COLUMNS, INPUT_COLUMNS, QUANTITY_COLUMNS, SEGMENT_COLUMNS
 from .gpkg import GpkgLayer, update_gpkg, write_gpkg
+from .reuse import HashMemo
 from .schedules import Previous, Schedule, write_csv, write_workbook
 from .summary_sheet import summary_rows
 
@@ -415,12 +416,20 @@ def _write_files(
 def _gpkg_layers(
     plan: Plan, rows: gpd.GeoDataFrame, equipment: gpd.GeoDataFrame
 ) -> dict[str, GpkgLayer]:
-    """The GeoPackage's layers, with their rows' hashes (used by every writer)."""
+    """The GeoPackage's layers, with their rows' hashes (used by every writer). A process that
+    keeps the last run's values (:class:`~routeplan.cache.Resident`) hashes only the values
+    that changed since its last run (:class:`~routeplan.outputs.reuse.HashMemo`)."""
+    resident = plan.cache.resident if plan.cache is not None else None
+    memo = resident.memos.setdefault("rows", HashMemo()) if resident is not None else None
+
+    def of(name: str, frame: gpd.GeoDataFrame, cols, key: tuple[str, ...]) -> GpkgLayer:
+        return GpkgLayer.of(frame, cols, key, None if memo is None else (memo, name))
+
     return {
-        "circuits": GpkgLayer.of(plan.circuits, CIRCUIT_COLUMNS, ("circuit_id",)),
-        "segments": GpkgLayer.of(plan.segments, SEGMENT_COLUMNS, ("segment_id",)),
-        "rows": GpkgLayer.of(rows, None, ("id",)),
-        "equipment": GpkgLayer.of(equipment, None, ("kind", "id")),
+        "circuits": of("circuits", plan.circuits, CIRCUIT_COLUMNS, ("circuit_id",)),
+        "segments": of("segments", plan.segments, SEGMENT_COLUMNS, ("segment_id",)),
+        "rows": of("rows", rows, None, ("id",)),
+        "equipment": of("equipment", equipment, None, ("kind", "id")),
     }
 
 

@@ -15,7 +15,15 @@ import pytest
 import shapely
 
 from routeplan.outputs.gpkg import GpkgLayer, encode_geometries, update_gpkg, write_gpkg
-from routeplan.outputs.reuse import CHUNK_MAX, chunk_bounds, chunk_keys, layout, row_hashes
+from routeplan.outputs.reuse import (
+    CHUNK_MAX,
+    HashMemo,
+    chunk_bounds,
+    chunk_keys,
+    column_hashes,
+    layout,
+    row_hashes,
+)
 from routeplan.outputs.xlsx import Piece, crc32_combine, write_zip
 
 
@@ -249,3 +257,85 @@ def test_sheet_rows_and_widths_per_chunk():
     assert whole[0].count(b"<row>") == 4
     assert cell_lengths(t)[:, 0].tolist() == [2, 3, 2, 3]
     assert cell_lengths(t)[:, 1].tolist() == [3, 0, 1, 5]
+
+
+def _edits(frame: pd.DataFrame, geometry: np.ndarray, rng: np.random.Generator):
+    """Edited copies of (frame, geometry): values changed in place of a few rows, -0.0 for
+    0.0, NaN, text made missing, a row added, a column renamed or of another dtype, geometries
+    rebuilt with the same or other coordinates."""
+    n = len(frame)
+    f, g = frame.copy(), geometry.copy()
+    at = rng.choice(n, 5, replace=False)
+    f.loc[at, "size_mm2"] = 16.0
+    f.loc[at[:2], "note"] = None
+    f.loc[at[2:4], "label"] = pd.NA
+    yield "values", f, g
+    f = frame.copy()
+    f.loc[f["size_mm2"] == 0.0, "size_mm2"] = -0.0  # equal as numbers, not as bits
+    yield "negative zero", f, g
+    if "mixed" in frame:  # rows 0-4 hold 1: 1.0 and True compare equal to it, hash apart
+        f = frame.copy()
+        f.loc[[0, 1, 2, 3, 4], "mixed"] = [1.0, True, "1", 2, None]
+        yield "mixed objects", f, g
+    g = geometry.copy()
+    g[at] = [shapely.LineString(shapely.get_coordinates(x)) for x in g[at]]  # same, new objects
+    g[at[0]] = shapely.LineString([(0, 0), (1, 1)])
+    yield "geometries", frame, g
+    f = pd.concat([frame, frame.iloc[:1]], ignore_index=True)
+    yield "one more row", f, np.r_[geometry, geometry[:1]]
+    yield "renamed", frame.rename(columns={"n": "count"}), geometry
+    yield "other dtype", frame.astype({"n": float}), geometry
+    yield "unchanged", frame, geometry
+
+
+def test_hash_memo_gives_the_hashes_of_hashing_whole_after_any_edit():
+    """:class:`HashMemo` hashes only what changed since its last table; its hashes must be
+    those of row_hashes/column_hashes of the whole table (the definition) after every kind of
+    edit, in any order, and a changed row's hash must change."""
+    rng = np.random.default_rng(11)
+    n = 400
+    frame = _frame(n, seed=5)
+    frame["size_mm2"] = np.where(rng.random(n) < 0.1, 0.0, frame["size_mm2"])
+    frame["label"] = pd.array(rng.choice(["a", "b", None], n), dtype="string")
+    frame["mixed"] = pd.Series(rng.choice([1, "x", None], n), dtype=object)
+    frame.loc[:4, "mixed"] = 1
+    geometry = np.array(
+        [shapely.LineString([(i, 0), (i, float(j))]) for i, j in enumerate(rng.random(n))],
+        dtype=object,
+    )
+    # a table whose values the memo compares in every column, and one with objects of mixed
+    # types (hashed whole)
+    for table in (frame.drop(columns="mixed"), frame):
+        _check_memo(table, geometry, rng)
+
+
+def _check_memo(frame: pd.DataFrame, geometry: np.ndarray, rng: np.random.Generator) -> None:
+    n = len(frame)
+    memo = HashMemo()
+    memo.hashes("t", frame, geometry)
+    edits = list(_edits(frame, geometry, rng))
+    for order in (edits, edits[::-1]):
+        last_rows = row_hashes(frame, geometry)
+        memo.hashes("t", frame, geometry)
+        for what, f, g in order:
+            columns, rows = memo.hashes("t", f, g)
+            assert rows.tolist() == row_hashes(f, g).tolist(), what
+            assert [c.tolist() for c in columns] == [
+                column_hashes(f.iloc[:, j]).tolist() for j in range(f.shape[1])
+            ], what
+            if len(rows) == n and what not in ("renamed", "other dtype"):
+                same = (f.reset_index(drop=True).equals(frame)) and all(
+                    a is b for a, b in zip(g, geometry, strict=True)
+                )
+                assert (rows == last_rows).all() == same, what
+            memo.hashes("t", frame, geometry)  # back to the first table
+
+
+def test_hash_memo_keeps_its_own_copy_of_the_values():
+    """A frame changed in place after it was hashed must not be taken as unchanged."""
+    frame = _frame(50, seed=2)
+    memo = HashMemo()
+    memo.hashes("t", frame)
+    frame.loc[3, "size_mm2"] = 99.0
+    frame.loc[4, "id"] = "changed"
+    assert memo.hashes("t", frame)[1].tolist() == row_hashes(frame).tolist()
