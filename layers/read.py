@@ -6,18 +6,19 @@ from pathlib import Path
 
 from .errors import SiteError
 from .model import Site
-from .sources import locate_layers, read_config, read_layer
+from .sources import LayerMemo, locate_layers, read_config, read_layer
 from .validate import build_site
 
 
-def read_site(path: Path | str) -> Site:
+def read_site(path: Path | str, memo: LayerMemo | None = None) -> Site:
     """Read and validate the site folder at ``path``.
 
     Opens ``site.toml`` and each layer file (any format pyogrio reads), reprojects to one metric
     working CRS and validates everything. Raises :class:`~layers.errors.SiteError` listing every
     problem (file, layer, feature id, what is wrong) — never only the first; its ``partial``
     site is set only when every file was read and found and only attributes (or modules) are
-    wrong.
+    wrong. ``memo``: the layers this process read last (:class:`~layers.sources.LayerMemo`),
+    each taken from memory when what it is read from is unchanged.
     """
     root = Path(path)
     config, problems = read_config(root)
@@ -27,7 +28,7 @@ def read_site(path: Path | str) -> Site:
     problems += p
     frames = {}
     for name, spec in sources.items():
-        frame, p = read_layer(root, name, spec)
+        frame, p = read_layer(root, name, spec, memo)
         problems += p
         if frame is not None:
             frames[name] = frame

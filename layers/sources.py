@@ -8,8 +8,10 @@ from __future__ import annotations
 
 import datetime
 import difflib
+import hashlib
 import os
 import re
+import sqlite3
 import tomllib
 import xml.etree.ElementTree as ET
 from collections.abc import Iterable
@@ -163,19 +165,144 @@ def _has_layer_suffix(spec: str) -> bool:
     return bool(sep) and bool(head) and "/" not in tail and "\\" not in tail and len(head) > 1
 
 
-def read_layer(root: Path, name: str, spec: str) -> tuple[gpd.GeoDataFrame | None, list[Problem]]:
-    """Read one layer with pyogrio; a failure is a problem naming the layer and the file."""
+def read_layer(
+    root: Path, name: str, spec: str, memo: LayerMemo | None = None
+) -> tuple[gpd.GeoDataFrame | None, list[Problem]]:
+    """Read one layer with pyogrio; a failure is a problem naming the layer and the file.
+    ``memo``: the layers this process read last (:class:`LayerMemo`), taken from memory when
+    what the layer is read from is the same."""
     if _has_layer_suffix(spec):
         file_part, layer = spec.rsplit(":", 1)
     else:
         file_part, layer = spec, None
     path = root / file_part
+    digest = memo.digest(root, spec) if memo is not None else None
+    if digest is not None:
+        kept = memo.frame(root, spec, digest)
+        if kept is not None:
+            return kept, []
     try:
         kwargs = {"layer": layer} if layer else {}
         frame = gpd.read_file(path, engine="pyogrio", **kwargs)
     except Exception as exc:  # pyogrio/GDAL raise many types for unreadable files
         return None, [Problem(name, None, f"cannot read {spec}: {_short(exc)}")]
+    if digest is not None:
+        memo.keep(root, spec, digest, frame)
     return frame, []
+
+
+class LayerMemo:
+    """The layers a process read last, each with a digest of what it was read from, for a
+    process that reads the same site again and again (``routeplan plan --watch``): a layer
+    whose digest is unchanged is taken from memory (a copy) instead of read and decoded again.
+
+    The digest of a layer that is a table of a SQLite file (a GeoPackage layer named with
+    ``file:layer``) is SHA-256 of the database pages that hold that table, of its schema
+    (the table's, its indexes' and triggers'), of the rows of every GeoPackage metadata
+    table (``gpkg_…``) that concern it or no table (CRS, columns, extent, feature count,
+    extensions), and of the file header but for the counters any write changes, all read
+    under a read transaction (no writer can commit meanwhile): an edit of another layer of
+    the same file leaves it as it was. Equal pages hold equal rows (a table's rows are in its
+    b-tree's pages alone), so a layer taken from memory is the one the file holds. Of any
+    other layer: SHA-256 of its files (:func:`source_files`). No digest (the layer is read)
+    when a GeoPackage has a write-ahead log or a journal beside it, the layer is not a plain
+    table, SQLite cannot list pages (no ``dbstat``), or the files cannot be listed."""
+
+    def __init__(self) -> None:
+        self._kept: dict[tuple[str, str], tuple[str, gpd.GeoDataFrame]] = {}
+
+    def digest(self, root: Path, spec: str) -> str | None:
+        """The digest of what the layer ``spec`` is read from now (None: read it)."""
+        path = layer_file(root, spec)
+        layer = spec.rsplit(":", 1)[1] if _has_layer_suffix(spec) else None
+        try:
+            if layer is not None and path.is_file() and _is_sqlite(path):
+                return _table_digest(path, layer)
+            files = source_files(root, spec)
+            if files is None:
+                return None
+            h = hashlib.sha256()
+            for f in files:
+                h.update(os.fsencode(f) + b"\0")
+                with open(f, "rb") as fh:
+                    h.update(hashlib.file_digest(fh, "sha256").digest())
+            return h.hexdigest()
+        except OSError:
+            return None
+
+    def frame(self, root: Path, spec: str, digest: str) -> gpd.GeoDataFrame | None:
+        """A copy of the frame kept for ``spec`` under ``digest``, or None."""
+        kept = self._kept.get((str(root), spec))
+        return kept[1].copy() if kept is not None and kept[0] == digest else None
+
+    def keep(self, root: Path, spec: str, digest: str, frame: gpd.GeoDataFrame) -> None:
+        """Keep a copy of ``frame``, read from ``spec`` whose digest was ``digest``."""
+        self._kept[(str(root), spec)] = (digest, frame.copy())
+
+
+#: bytes of a SQLite file header that any write changes (file change counter, size in
+#: pages, free-list pages, schema cookie; version-valid-for and the library version) —
+#: https://www.sqlite.org/fileformat.html, 1.3 "The Database Header"
+_SQLITE_HEADER_COUNTERS = ((24, 44), (92, 100))
+
+
+def _is_sqlite(path: Path) -> bool:
+    with open(path, "rb") as fh:
+        return fh.read(16) == b"SQLite format 3\x00"
+
+
+def _table_digest(path: Path, table: str) -> str | None:
+    """:class:`LayerMemo`'s digest of the table ``table`` of the SQLite file ``path``."""
+    if any(path.with_name(path.name + s).exists() for s in ("-wal", "-journal")):
+        return None
+    try:
+        con = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True)
+    except sqlite3.Error:
+        return None
+    try:
+        con.execute("BEGIN")
+        schema = con.execute(
+            "SELECT type, name, tbl_name, sql FROM sqlite_schema WHERE tbl_name = ? "
+            "ORDER BY type, name",
+            (table,),
+        ).fetchall()
+        main = [r for r in schema if r[1] == table]
+        if len(main) != 1 or main[0][0] != "table" or "VIRTUAL" in str(main[0][3]).upper():
+            return None
+        h = hashlib.sha256(repr(schema).encode("utf-8"))
+        # the GeoPackage's records of this table (and those of no table): CRS, columns,
+        # extent, feature count, extensions
+        meta = con.execute(
+            "SELECT name FROM sqlite_schema WHERE type = 'table' AND name LIKE 'gpkg\\_%' "
+            "ESCAPE '\\' ORDER BY name"
+        ).fetchall()
+        for (name,) in meta:
+            columns = [r[1] for r in con.execute(f'PRAGMA table_info("{name}")')]
+            where = (
+                ' WHERE "table_name" = ? OR "table_name" IS NULL' if "table_name" in columns else ""
+            )
+            rows = con.execute(
+                f'SELECT * FROM "{name}"{where} ORDER BY rowid', (table,) if where else ()
+            ).fetchall()
+            h.update(repr((name, rows)).encode("utf-8"))
+        size = int(con.execute("PRAGMA page_size").fetchone()[0])
+        pages = con.execute(
+            "SELECT path, pageno FROM dbstat WHERE name = ? ORDER BY path", (table,)
+        ).fetchall()
+        with open(path, "rb") as fh:  # the read transaction holds writers off meanwhile
+            header = bytearray(fh.read(100))
+            for a, b in _SQLITE_HEADER_COUNTERS:
+                header[a:b] = bytes(b - a)
+            h.update(header)
+            for where, page in pages:
+                fh.seek((int(page) - 1) * size)
+                h.update(f"{where}\0{page}\0".encode())
+                h.update(fh.read(size))
+        return h.hexdigest()
+    except (sqlite3.Error, OSError):
+        return None
+    finally:
+        con.close()
 
 
 def _short(exc: BaseException) -> str:

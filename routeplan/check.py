@@ -14,6 +14,7 @@ import shapely
 
 import layers
 from layers import Problem, Site, SiteError
+from layers.sources import LayerMemo
 
 from .config import DesignConfig, parse_design
 from .errors import RoutingError
@@ -40,19 +41,20 @@ class CheckReport:
         return a[a["rule"] != "given"]
 
 
-def load(path: Path | str) -> tuple[Site, DesignConfig]:
+def load(path: Path | str, memo: LayerMemo | None = None) -> tuple[Site, DesignConfig]:
     """Read the site and its design settings; raise :class:`SiteError` with every problem.
 
     When the layers or the settings have problems but the layers' geometry is sound (the
     site, or :attr:`SiteError.partial` when only attributes are wrong), the network checks
     that need the geometry alone run too (:func:`routeplan.routing.geometry_problems`:
-    overlapping trenches, far equipment), so one run reports everything.
+    overlapping trenches, far equipment), so one run reports everything. ``memo``: the layers
+    this process read last (:class:`layers.sources.LayerMemo`).
     """
     problems: list[Problem] = []
     site: Site | None = None
     partial: Site | None = None
     try:
-        site = layers.read_site(path)
+        site = layers.read_site(path, memo)
     except SiteError as exc:
         problems += exc.problems
         partial = exc.partial

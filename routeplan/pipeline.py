@@ -22,6 +22,7 @@ import pandas as pd
 
 import calc
 from layers import Site
+from layers.sources import LayerMemo
 from layers.validate import MAX_DC_INPUTS
 
 from . import CAUTION, __version__
@@ -392,7 +393,10 @@ def _load(root: Path, cache: PlanCache | None) -> tuple[Site, DesignConfig]:
         return load(root)
     cached = cache.get("site", key)
     if cached is None:
-        site, design = load(root)
+        resident = cache.resident  # a watching process: unchanged layers are not read again
+        site, design = load(
+            root, resident.memos.setdefault("layers", LayerMemo()) if resident else None
+        )
         cache.put("site", key, dataclasses.replace(site, config={}))
         return site, design
     design, problems = parse_design(config)
