@@ -511,15 +511,21 @@ def plan_tables(
     landing: np.ndarray,
     governing: np.ndarray,
     remedy: np.ndarray | None,
+    order: np.ndarray | None = None,
 ) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame, pd.DataFrame, dict[str, Any]]:
     """A plan's cable schedule (in schedule order, :func:`routeplan.order.schedule_order`),
-    trench schedule, bill of quantities and summary, from its routes and sizing."""
+    trench schedule, bill of quantities and summary, from its routes and sizing. ``order``:
+    that order (positions of ``routes.circuits``) where the caller has it — a local re-plan
+    keeps its baseline's circuits, ids and blocks, so their order
+    (:class:`routeplan.localplan.Baseline`)."""
     circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
     segments = segment_table(routes, result)
     quantities = quantity_table(circuits, segments, design)
     summary = summarise(site, design, circuits, segments, result, inputs)
     summary["assigned"] = assigned_destinations(routes)
-    circuits = circuits.iloc[schedule_order(circuits)].reset_index(drop=True)  # block order
+    if order is None:
+        order = schedule_order(circuits)
+    circuits = circuits.iloc[order].reset_index(drop=True)  # block order
     return circuits, segments, quantities, summary
 
 
@@ -661,7 +667,8 @@ def circuit_table(
             ),
         }
     )
-    return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
+    # the frame is this function's own: wrapped, not copied
+    return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs, copy=False)
 
 
 _CONDITIONS = np.array(["", "690.8(B)(1)", "690.8(B)(2)"], dtype=object)
@@ -767,7 +774,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "to_m": s["end_m"].to_numpy(),
         }
     )
-    return gpd.GeoDataFrame(frame, geometry=s.geometry.values, crs=s.crs)
+    return gpd.GeoDataFrame(frame, geometry=s.geometry.values, crs=s.crs, copy=False)
 
 
 def quantity_table(
