@@ -822,17 +822,20 @@ def summarise(
 ) -> dict[str, Any]:
     """The closing summary as plain data (also written as summary.json). Sub-array circuits
     appear only in a plan that has some."""
+    # the columns read per kind, as arrays (one comparison of the text columns each)
+    kind = circuits["kind"].to_numpy(dtype=object)
+    failing = (circuits["status"] == "fail").to_numpy(dtype=bool)
     kinds = ["string", "array", "ac"]
-    if (circuits["kind"] == "subarray").any():
+    if (kind == "subarray").any():
         kinds.insert(1, "subarray")
     inputs = pd.DataFrame(columns=INPUT_COLUMNS) if inputs is None else inputs
     why = calc.failure_causes(r)
     by_kind = {}
     for k in kinds:
-        m = circuits["kind"] == k
+        m = kind == k
         by_kind[k] = {
             "circuits": int(m.sum()),
-            "fail": int((m & (circuits["status"] == "fail")).sum()),
+            "fail": int((m & failing).sum()),
             "fail_capacity": int((m & why["capacity"]).sum()),
             "fail_drop": int((m & why["drop"]).sum()),
             "fail_other": int((m & why["other"]).sum()),
@@ -841,7 +844,7 @@ def summarise(
             "loss_w": float(circuits.loc[m, "loss_w"].sum()),
             "energy_loss_kwh": float(circuits.loc[m, "energy_loss_kwh"].sum()),
         }
-    dc = circuits["kind"] != "ac"
+    dc = kind != "ac"
     metres = (
         circuits.assign(m=circuits["cable_m"] * circuits["conductors"])
         .groupby(["material", "size_mm2"])["m"]
