@@ -31,7 +31,9 @@ site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the e
    sized again, until no outside circuit sees a change (the grouping's fixed point over the
    affected segments). Everything else is carried over from the baseline.
 4. **Tables**: the cable schedule, trench schedule, inputs, bill and summary from the spliced
-   arrays (their row order is the baseline's: the circuits do not change). calc's notes that
+   arrays (their row order is the baseline's: the circuits, their ids and blocks do not change,
+   so the schedule's order is the one the baseline keeps, :attr:`Baseline.order`, computed
+   with it — while a watching process waits for the next edit). calc's notes that
    name a feeder by its position in the sizing input are renumbered to the plan's positions.
    :func:`figures` skips the tables: the columns ``routeplan place`` ranks by, from the spliced
    arrays (:class:`Figures`).
@@ -85,7 +87,7 @@ from .config import DesignConfig
 from .errors import DesignError
 from .inputs import assign_inputs, input_table, landing_input
 from .network import TRENCH_ATTRIBUTES, TrenchNetwork, retap
-from .order import inverter_of
+from .order import inverter_of, schedule_order
 from .pipeline import (
     Plan,
     assigned_destinations,
@@ -138,7 +140,7 @@ class Baseline:
     from_index: np.ndarray
     block: np.ndarray  # each circuit's block (its inverter), as an integer code
     rank: np.ndarray  # each circuit's position in circuit-id order (segments' circuit lists)
-    order: np.ndarray | None  # routes order → schedule order of plan.circuits (None: no table)
+    order: np.ndarray  # routes order → schedule order (of plan.circuits where it has them)
     load_a: np.ndarray  # each circuit's Σ Imp [A] (inverter input balancing)
     kind_code: np.ndarray  # each circuit's kind as its position in KINDS
     free_input: np.ndarray  # circuits landing on an inverter input chosen by route length
@@ -189,11 +191,11 @@ def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=No
     rank = np.empty(len(c), dtype=np.int64)
     rank[np.argsort(cid, kind="stable")] = np.arange(len(c))
     tables = plan.circuits is not None
-    order = (
-        pd.Index(cid).get_indexer(plan.circuits["circuit_id"].to_numpy(dtype=object))
-        if tables
-        else None
-    )
+    if tables:
+        order = pd.Index(cid).get_indexer(plan.circuits["circuit_id"].to_numpy(dtype=object))
+    else:  # the schedule's order, as plan_tables sorts: the local re-plan keeps it
+        keys = c[["circuit_id", "kind", "from_id", "to_id"]].assign(inverter_id=block_ids)
+        order = schedule_order(keys)
     return Baseline(
         plan,
         inp,
@@ -688,7 +690,7 @@ def _local(
     geom = _route_geometry(net, paths, p_from, p_to)
     seg_ids = seg["segment_id"].to_numpy(dtype=object)
     pair_seg_ids = joined(seg_ids[paths.segment].tolist(), paths.offset)
-    c = c0.copy()
+    c = c0.copy(deep=False)  # copy on write: only the columns set below are new
     c["route_m"] = route_m
     c["stub_m"] = stub_m
     c["cable_m"] = cable_m
@@ -785,7 +787,7 @@ def _local(
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]  # the tables' time leaves the remedies out
     circuits, seg_table, quantities, summary = plan_tables(
-        site, design, routes, result, inp, inputs, landing, governing, remedy
+        site, design, routes, result, inp, inputs, landing, governing, remedy, base.order
     )
     t["tables"] = time.perf_counter() - t1
     t["local"] = 1.0

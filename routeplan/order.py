@@ -70,23 +70,34 @@ def inverter_of(kind: pd.Series, from_id: pd.Series, to_id: pd.Series) -> np.nda
 
     AC circuits: their own inverter (``from_id``). Others: ``to_id``, followed up through the
     combiners' own circuits (a sub-array or array circuit leaves its combiner, ``from_id``,
-    for ``to_id``) until it reaches a feature no combiner circuit leaves: the inverter.
+    for ``to_id``; the first such circuit of a combiner counts) until it reaches a feature no
+    combiner circuit leaves: the inverter. The ids are factorised once and followed as
+    integer codes.
     """
     kind = np.asarray(kind, dtype=object)
-    leaving = _among(kind, ("array", "subarray"))
-    up = pd.Series(
-        np.asarray(to_id, dtype=object)[leaving],
-        index=np.asarray(from_id, dtype=object)[leaving],
+    frm = np.asarray(from_id, dtype=object)
+    to = np.asarray(to_id, dtype=object)
+    leaving = np.flatnonzero(_among(kind, ("array", "subarray")))
+    n, m = len(to), len(leaving)
+    # a missing id is an id too (as pandas looks it up), but never a destination
+    codes, ids = pd.factorize(
+        np.concatenate([to, frm[leaving], to[leaving]]), use_na_sentinel=False
     )
-    up = up[~up.index.duplicated()]
-    target = pd.Series(np.asarray(to_id, dtype=object))
+    at, key, value = codes[:n], codes[n : n + m], codes[n + m :]
+    up = np.full(len(ids), -1, dtype=np.int64)
+    first = np.unique(key, return_index=True)[1]  # the first circuit leaving a combiner
+    up[key[first]] = np.where(pd.isna(ids)[value[first]], -1, value[first])
+    moved = np.zeros(n, dtype=bool)
     for _ in range(_MAX_HOPS):
-        nxt = target.map(up)
-        more = nxt.notna().to_numpy()
+        nxt = up[at]
+        more = nxt >= 0
         if not more.any():
             break
-        target = target.where(~more, nxt)
-    return np.where(kind == "ac", np.asarray(from_id, dtype=object), target.to_numpy())
+        at = np.where(more, nxt, at)
+        moved |= more
+    target = to.copy()
+    target[moved] = np.asarray(ids, dtype=object)[at[moved]]
+    return np.where(kind == "ac", frm, target)
 
 
 def combiner_of(kind: pd.Series, from_id: pd.Series, to_id: pd.Series) -> np.ndarray:

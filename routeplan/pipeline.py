@@ -515,15 +515,21 @@ def plan_tables(
     landing: np.ndarray,
     governing: np.ndarray,
     remedy: np.ndarray | None,
+    order: np.ndarray | None = None,
 ) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame, pd.DataFrame, dict[str, Any]]:
     """A plan's cable schedule (in schedule order, :func:`routeplan.order.schedule_order`),
-    trench schedule, bill of quantities and summary, from its routes and sizing."""
+    trench schedule, bill of quantities and summary, from its routes and sizing. ``order``:
+    that order (positions of ``routes.circuits``) where the caller has it — a local re-plan
+    keeps its baseline's circuits, ids and blocks, so their order
+    (:class:`routeplan.localplan.Baseline`)."""
     circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
     segments = segment_table(routes, result)
     quantities = quantity_table(circuits, segments, design)
     summary = summarise(site, design, circuits, segments, result, inputs)
     summary["assigned"] = assigned_destinations(routes)
-    circuits = circuits.iloc[schedule_order(circuits)].reset_index(drop=True)  # block order
+    if order is None:
+        order = schedule_order(circuits)
+    circuits = circuits.iloc[order].reset_index(drop=True)  # block order
     return circuits, segments, quantities, summary
 
 
@@ -665,7 +671,8 @@ def circuit_table(
             ),
         }
     )
-    return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs)
+    # the frame is this function's own: wrapped, not copied
+    return gpd.GeoDataFrame(frame, geometry=c.geometry.values, crs=c.crs, copy=False)
 
 
 _CONDITIONS = np.array(["", "690.8(B)(1)", "690.8(B)(2)"], dtype=object)
@@ -771,7 +778,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "to_m": s["end_m"].to_numpy(),
         }
     )
-    return gpd.GeoDataFrame(frame, geometry=s.geometry.values, crs=s.crs)
+    return gpd.GeoDataFrame(frame, geometry=s.geometry.values, crs=s.crs, copy=False)
 
 
 def quantity_table(
@@ -819,17 +826,20 @@ def summarise(
 ) -> dict[str, Any]:
     """The closing summary as plain data (also written as summary.json). Sub-array circuits
     appear only in a plan that has some."""
+    # the columns read per kind, as arrays (one comparison of the text columns each)
+    kind = circuits["kind"].to_numpy(dtype=object)
+    failing = (circuits["status"] == "fail").to_numpy(dtype=bool)
     kinds = ["string", "array", "ac"]
-    if (circuits["kind"] == "subarray").any():
+    if (kind == "subarray").any():
         kinds.insert(1, "subarray")
     inputs = pd.DataFrame(columns=INPUT_COLUMNS) if inputs is None else inputs
     why = calc.failure_causes(r)
     by_kind = {}
     for k in kinds:
-        m = circuits["kind"] == k
+        m = kind == k
         by_kind[k] = {
             "circuits": int(m.sum()),
-            "fail": int((m & (circuits["status"] == "fail")).sum()),
+            "fail": int((m & failing).sum()),
             "fail_capacity": int((m & why["capacity"]).sum()),
             "fail_drop": int((m & why["drop"]).sum()),
             "fail_other": int((m & why["other"]).sum()),
@@ -838,7 +848,7 @@ def summarise(
             "loss_w": float(circuits.loc[m, "loss_w"].sum()),
             "energy_loss_kwh": float(circuits.loc[m, "energy_loss_kwh"].sum()),
         }
-    dc = circuits["kind"] != "ac"
+    dc = kind != "ac"
     metres = (
         circuits.assign(m=circuits["cable_m"] * circuits["conductors"])
         .groupby(["material", "size_mm2"])["m"]

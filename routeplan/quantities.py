@@ -631,22 +631,26 @@ def _ordered(bill: pd.DataFrame) -> pd.DataFrame:
 
 def _with_totals(bill: pd.DataFrame) -> pd.DataFrame:
     """The bill with a total line after each family's lines (metres or pieces)."""
-    parts = []
+    family_of = bill["family"].to_numpy(dtype=object)
+    quantity, unit = bill["quantity"], bill["unit"]
+    totals, order = [], []  # the total lines; the rows in order (totals after the bill's)
     for family in FAMILIES:
-        lines = bill[bill["family"] == family]
-        if lines.empty:
+        lines = np.flatnonzero(family_of == family)
+        if not lines.size:
             continue
         total = {c: np.nan for c in BILL_COLUMNS}
         total.update(
             item=TOTAL_ITEM[family],
             family=family,
-            quantity=float(lines["quantity"].sum()),
-            unit=lines["unit"].iloc[0],
+            quantity=float(quantity.iloc[lines].sum()),
+            unit=unit.iloc[lines[0]],
         )
-        parts += [lines, pd.DataFrame([total], columns=BILL_COLUMNS)]
-    if not parts:
+        order += [*lines.tolist(), len(bill) + len(totals)]
+        totals.append(total)
+    if not totals:
         return bill
-    out = pd.concat(parts, ignore_index=True)
+    out = pd.concat([bill, pd.DataFrame(totals, columns=BILL_COLUMNS)], ignore_index=True)
+    out = out.take(order).reset_index(drop=True)
     for col in ("size_mm2", "depth_m", "quantity", "rating_a", "poles", "conductor_class"):
         out[col] = pd.to_numeric(out[col]).astype(float)
     return out

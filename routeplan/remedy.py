@@ -51,9 +51,12 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
+import pandas as pd
 
 import calc
 from calc.tables import load_table
+
+from .routing import joined
 
 
 def _common_spacings_m() -> tuple[float, ...]:
@@ -125,6 +128,56 @@ class WhatIfs:
         return r
 
 
+#: each circuit kind's name, by its code (``calc.KIND_NAMES`` as an array to index)
+_KIND_TEXT = np.asarray(calc.KIND_NAMES, dtype=object)
+
+
+def _text(values: np.ndarray) -> np.ndarray:
+    """``str`` of each value, as an object array (what an f-string puts in the text)."""
+    return np.frompyfunc(str, 1, 1)(np.asarray(values, dtype=object))
+
+
+def _each(values: np.ndarray, fmt: Callable[[Any], str]) -> np.ndarray:
+    """``fmt`` of each value, as an object array, called once per distinct value."""
+    values = np.asarray(values)
+    if not values.size:
+        return np.zeros(0, dtype=object)
+    distinct, at = np.unique(values, return_inverse=True)
+    return np.asarray([fmt(v) for v in distinct.tolist()], dtype=object)[at.reshape(-1)]
+
+
+def _joined_nonempty(parts: list[np.ndarray], sep: str) -> np.ndarray:
+    """Per position, ``sep.join`` of the texts of ``parts`` (object arrays of one length) that
+    are not empty, in order.
+
+    >>> a, b = np.array(["x", "", ""], dtype=object), np.array(["y", "z", ""], dtype=object)
+    >>> _joined_nonempty([a, b], "; ").tolist()
+    ['x; y', 'z', '']
+    """
+    out = np.asarray(parts[0], dtype=object)
+    for part in parts[1:]:
+        part = np.asarray(part, dtype=object)
+        both = (out != "") & (part != "")
+        out = np.where(both, out + sep + part, np.where(part != "", part, out))
+    return out
+
+
+def _sorted_codes(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each value's rank among the distinct values sorted as Python sorts them, and those
+    distinct values as text in that order (object array).
+
+    >>> rank, text = _sorted_codes(np.array(["T-2", "T-10", "T-2"], dtype=object))
+    >>> rank.tolist(), text.tolist()
+    ([1, 0, 1], ['T-10', 'T-2'])
+    """
+    codes, uniques = pd.factorize(values, use_na_sentinel=False)
+    text = [str(u) for u in uniques.tolist()]
+    by = sorted(range(len(text)), key=text.__getitem__)
+    rank = np.empty(len(text), dtype=np.int64)
+    rank[by] = np.arange(len(text))
+    return rank[codes], np.asarray([text[k] for k in by], dtype=object)
+
+
 def remedies(
     inp: calc.SizingInput,
     dp: calc.DesignParams,
@@ -162,46 +215,74 @@ def remedies(
     ok = ~fail
 
     listed = {k: calc.size_list_mm2(k, dp, rules) for k in np.unique(kind).tolist()}
+    ids = np.asarray(circuit_ids, dtype=object)
 
-    def apply(r: calc.SizingResult, todo: np.ndarray, extra=lambda i: "") -> np.ndarray:
+    def apply(
+        r: calc.SizingResult, todo: np.ndarray, extra: np.ndarray | None = None
+    ) -> np.ndarray:
         """Write the remedy of each circuit of ``todo`` that passes in the what-if ``r``:
         the new cables of the circuit and of the feeders above it (a string is held by its
-        feeders' drop too), each with the setting it needs, and ``extra(i)`` (a change that is
-        not a cable's). Returns the circuits given a remedy."""
-        hit = todo & np.asarray(r.ok, dtype=bool)
+        feeders' drop too), each with the setting it needs, and ``extra`` (per circuit, a
+        change that is not a cable's; "" for none). Returns the circuits given a remedy."""
+        r_ok = np.asarray(r.ok, dtype=bool)
+        hits = np.flatnonzero(todo & r_ok)
         given = np.zeros(n, dtype=bool)
+        if not hits.size:
+            return given
         r_size, r_par = np.asarray(r.size_mm2, dtype=float), np.asarray(r.parallel)
         moved = (r_size != size) | (r_par != parallel)
-        broken = int((ok & ~np.asarray(r.ok, dtype=bool)).sum())
+        unlisted = np.ones(n, dtype=bool)
+        for k, sizes in listed.items():
+            unlisted[(kind == k) & np.isin(r_size, sizes)] = False
+        broken = int((ok & ~r_ok).sum())
         side = f"; {broken} circuits that pass now would then fail" if broken else ""
-        for i in np.flatnonzero(hit).tolist():
-            cables, settings, sets_needed = [], [], 0
-            j = i
-            while j >= 0:
-                if moved[j]:
-                    sets = int(r_par[j])
-                    text = rs.size_text(float(r_size[j]))
-                    cable = f"{sets} × {text}" if sets > 1 else text
-                    cables.append(
-                        f"with {cable}" if j == i else f"once {circuit_ids[j]} is {cable}"
-                    )
-                    if not np.isin(r_size[j], listed[kind[j]]):
-                        name = calc.KIND_NAMES[kind[j]]
-                        entry = _size_setting(float(r_size[j]), rs)
-                        settings.append(f"add {entry} to design.sizes_mm2.{name}")
-                    sets_needed = max(sets_needed, sets)
-                j = int(parent[j])
-            settings = list(dict.fromkeys(settings))
-            if sets_needed > int(dp.max_parallel):
-                settings.append(f"design.max_parallel = {sets_needed}")
-            settings += [extra(i)] if extra(i) else []
-            if settings:
-                if cables:
-                    text = f"passes {' '.join(cables)} ({'; '.join(settings)}{side})"
-                else:
-                    text = f"passes with {'; '.join(settings)}{side}"
-                found[i] = f"{found[i]}; or {text}" if found[i] else text
-                given[i] = True
+        h = hits.size
+        cables = np.full(h, "", dtype=object)
+        settings: list[np.ndarray] = []  # one per level of the chain, "" where none
+        sets_needed = np.zeros(h, dtype=np.int64)
+        node, level = hits.copy(), 0
+        while True:  # the circuit, then each feeder above it
+            at = np.flatnonzero(node >= 0)
+            if not at.size:
+                break
+            j = node[at]
+            mv = moved[j]
+            at, j = at[mv], j[mv]
+            sets = r_par[j].astype(np.int64)
+            cable = _each(sets, lambda v: f"{v} × " if v > 1 else "") + _each(
+                r_size[j], lambda v: rs.size_text(float(v))
+            )
+            piece = np.full(h, "", dtype=object)
+            if level == 0:
+                piece[at] = "with " + cable
+            else:
+                piece[at] = "once " + _text(ids[j]) + " is " + cable
+            cables = _joined_nonempty([cables, piece], " ")
+            setting = np.full(h, "", dtype=object)
+            add = unlisted[j]
+            entry = _each(r_size[j[add]], lambda v: _size_setting(float(v), rs))
+            names = _KIND_TEXT[kind[j[add]]]
+            setting[at[add]] = "add " + entry + " to design.sizes_mm2." + names
+            for before in settings:  # each setting once, where it first appears
+                setting[setting == before] = ""
+            settings.append(setting)
+            np.maximum.at(sets_needed, at, sets)
+            node = np.where(node >= 0, parent[np.maximum(node, 0)], -1)
+            level += 1
+        over = sets_needed > int(dp.max_parallel)
+        wide_text = np.full(h, "", dtype=object)
+        wide_text[over] = "design.max_parallel = " + _text(sets_needed[over])
+        more = [wide_text] if extra is None else [wide_text, extra[hits]]
+        setting_text = _joined_nonempty([*settings, *more], "; ")
+        has = setting_text != ""
+        text = np.where(
+            cables != "",
+            "passes " + cables + " (" + setting_text + side + ")",
+            "passes with " + setting_text + side,
+        )
+        at = hits[has]
+        found[at] = _joined_nonempty([found[at], text[has]], "; or ")
+        given[at] = True
         return given
 
     # 1. larger sizes for the failing kinds (and the feeders of failing strings); 2. more
@@ -238,8 +319,7 @@ def remedies(
         np.zeros(0, np.int64) if v is None else np.asarray(v).astype(np.int64).ravel()
         for v in (inp.inc_circuit, inp.inc_segment)
     )
-    order = np.argsort(inc_c, kind="stable")  # each circuit's incidences: first[i]:first[i+1]
-    first = np.searchsorted(inc_c[order], np.arange(n + 1))
+    trench_code, trench_names = _sorted_codes(np.asarray(segment_trench, dtype=object))
     for gap in SPACINGS_M:
         used = np.zeros(spacing.size, dtype=bool)
         used[inc_s[grouped[inc_c]]] = True
@@ -249,40 +329,53 @@ def remedies(
         wider = dataclasses.replace(inp, seg_spacing_m=np.where(narrow, gap, spacing))
         r = size_whatif(f"spacing_m {gap!r}", wider, dp)
         hit = grouped & np.asarray(r.ok, dtype=bool)
-
-        def trenches(i: int, gap: float = gap, narrow: np.ndarray = narrow) -> str:
-            own = inc_s[order[first[i] : first[i + 1]]]
-            names = ", ".join(sorted(set(segment_trench[own[narrow[own]]].tolist())))
-            return (
-                f"spacing_m = {gap:g} on trench {names} (design.spacing_m where a trench has none)"
-            )
-
-        apply(r, hit, trenches)
+        # each circuit's own narrow trenches, named once each, in sorted order
+        mine = hit[inc_c] & narrow[inc_s]
+        pair = np.unique(inc_c[mine] * len(trench_names) + trench_code[inc_s[mine]])
+        pair_c, pair_t = pair // max(len(trench_names), 1), pair % max(len(trench_names), 1)
+        hits = np.flatnonzero(hit)
+        names = joined(trench_names[pair_t].tolist(), np.searchsorted(pair_c, np.r_[hits, n]), ", ")
+        extra = np.full(n, "", dtype=object)
+        text = f"spacing_m = {gap:g} on trench " + names
+        extra[hits] = text + " (design.spacing_m where a trench has none)"
+        apply(r, hit, extra)
         grouped &= ~hit
 
     # the cumulative DC drop of a string through its feeders, above the DC total
     path = fail & (kind == calc.KIND_STRING)
     path &= np.asarray(result.vdrop_total_pct) > dp.drop_dc_total_pct + 1e-6
-    for i in np.flatnonzero(fail).tolist():
-        name = calc.KIND_NAMES[kind[i]]
-        parts, limits = [], []
-        if why["capacity"][i]:
-            parts.append(f"governed by {governing[i]}")
-        if unprotected[i]:
-            parts.append("its overcurrent device does not protect the conductor (240.4)")
-        if why["capacity"][i] or why["drop"][i] or unprotected[i]:
-            limits.append(
-                f"largest size in design.sizes_mm2.{name} ({rs.size_text(float(size[i]))})"
-            )
-            if kind[i] != calc.KIND_STRING:
-                limits.append(f"design.max_parallel ({int(parallel[i])})")
-        if why["drop"][i]:
-            limits.append(f"design.drop_pct.{name}")
-        if path[i]:
-            limits.append("design.drop_pct.dc_total (the drop through its feeders)")
-        if limits:
-            parts.append("limited by " + ", ".join(limits))
-        if found[i]:
-            parts.append(found[i])
-        out[i] = "; ".join(parts)
+    f = np.flatnonzero(fail)
+    cap, drop, prot, path = why["capacity"][f], why["drop"][f], unprotected[f], path[f]
+    name = _KIND_TEXT[kind[f]]
+    held = cap | drop | prot
+    limits = _joined_nonempty(
+        [
+            np.where(
+                held,
+                "largest size in design.sizes_mm2."
+                + name
+                + " ("
+                + _each(size[f], lambda v: rs.size_text(float(v)))
+                + ")",
+                "",
+            ),
+            np.where(
+                held & (kind[f] != calc.KIND_STRING),
+                "design.max_parallel (" + _each(parallel[f], lambda v: str(int(v))) + ")",
+                "",
+            ),
+            np.where(drop, "design.drop_pct." + name, ""),
+            np.where(path, "design.drop_pct.dc_total (the drop through its feeders)", ""),
+        ],
+        ", ",
+    )
+    out[f] = _joined_nonempty(
+        [
+            np.where(cap, "governed by " + _text(np.asarray(governing, dtype=object)[f]), ""),
+            np.where(prot, "its overcurrent device does not protect the conductor (240.4)", ""),
+            np.where(limits != "", "limited by " + limits, ""),
+            found[f],
+        ],
+        "; ",
+    )
     return out

@@ -22,6 +22,7 @@ import shapely
 import shapely.geometry
 
 from routeplan.cache import CACHE_DIR, PlanCache
+from routeplan.localplan import last_baseline
 from routeplan.outputs.write import CSV_FILES, write_plan
 from routeplan.pipeline import plan
 from routeplan.synth import generate_site
@@ -109,6 +110,19 @@ def test_a_move_replans_locally_and_equals_a_cold_plan(failing_site, tmp_path, c
     # not make, e.g. a spacing for trenches whose circuits passed then, is sized whole)
     assert p.timings_s["local.whatifs"] >= 1
     _same_as_cold(p, site, out, tmp_path)
+
+
+def test_the_baseline_rebuilt_from_the_cache_keeps_the_last_schedule_order(failing_site, tmp_path):
+    # the local re-plan's cable schedule takes its row order from the baseline, which the
+    # cache rebuilds without the last plan's tables: that order must be the schedule's (block,
+    # combiner, kind, row, string number; routeplan.order) as the last plan sorted it
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    last = _replan(site, out)
+    base = last_baseline(PlanCache(out), last.design)
+    assert base.plan.circuits is None  # no table read back
+    ids = base.plan.routes.circuits["circuit_id"].to_numpy(dtype=object)[base.order]
+    assert ids.tolist() == last.circuits["circuit_id"].tolist()
 
 
 def test_chained_moves_and_an_unchanged_run_reuse_what_the_local_replan_kept(
