@@ -583,7 +583,15 @@ def render_map_bytes(
     review = review_html(failing_html(circuit_ids[fail].tolist(), blocks))
     panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend, review=review)
     panel += review_data_html(
-        review_json(circuits, segments, rows, equipment, drop_limits_pct=drop_limits_pct)
+        review_json(
+            circuits,
+            segments,
+            rows,
+            equipment,
+            drop_limits_pct=drop_limits_pct,
+            memo=memo.review,
+            hashes=(h["circuits"], h["segments"], h["rows"], h["equipment"]),
+        )
     )
 
     spec = {

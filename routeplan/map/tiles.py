@@ -34,6 +34,7 @@ import numpy as np
 import pandas as pd
 import shapely
 
+from routeplan.map.details import ReviewMemo
 from routeplan.map.features import Layer
 from routeplan.map.script import layer_script
 from routeplan.outputs.reuse import hashes_key, row_hashes
@@ -148,6 +149,8 @@ class MapMemo:
     scripts: dict[str, tuple[bytes, int]] = field(default_factory=dict)
     pages: dict[str, list[str]] = field(default_factory=dict)
     shapes: dict[str, bytes] = field(default_factory=dict)
+    #: the review data's tables (:class:`routeplan.map.details.ReviewMemo`)
+    review: ReviewMemo = field(default_factory=ReviewMemo)
     drawn_tiles: int = 0
     reused_tiles: int = 0
 
@@ -175,7 +178,8 @@ class MapMemo:
             shapes = _load_blobs(stored.get("shapes"))  # type: ignore[union-attr]
         except (KeyError, TypeError, ValueError, AttributeError):
             return cls()
-        return cls(last_scripts=scripts, last_pages=pages, last_shapes=shapes)
+        review = ReviewMemo(stored.get("review"))  # type: ignore[union-attr]
+        return cls(last_scripts=scripts, last_pages=pages, last_shapes=shapes, review=review)
 
     def export(self) -> dict:
         """What this run used, for the next one (arrays, no pickle: :mod:`routeplan.cache`)."""
@@ -190,6 +194,7 @@ class MapMemo:
             },
             "pages": dict(self.pages),
             "shapes": _blobs(self.shapes),
+            "review": self.review.export(),
         }
 
     def geometries(self, keys: list[str], make: Callable[[np.ndarray], np.ndarray]) -> np.ndarray:
