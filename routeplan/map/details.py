@@ -164,6 +164,7 @@ class _Column:
     canon: np.ndarray
     _codes: np.ndarray | None = None
     _distinct: list[str] | None = None
+    _json: str | None = None
 
     @property
     def texts(self) -> list[str]:
@@ -227,7 +228,13 @@ class _Column:
 
     def json(self) -> str:
         """The column: a JSON list, or ``{"v": distinct values, "i": indices}`` where shorter
-        (``{"v": [value]}`` when all are equal)."""
+        (``{"v": [value]}`` when all are equal), made safe for ``<script>``
+        (:func:`routeplan.map.script.script_safe`: the lengths compared are those before)."""
+        if self._json is None:
+            self._json = script_safe(self._json_text())
+        return self._json
+
+    def _json_text(self) -> str:
         n, m = len(self.tok), len(self.distinct)
         if n and m == 1:
             return '{"v":[' + self.distinct[0] + "]}"
@@ -269,7 +276,7 @@ def _ranks(values: np.ndarray, bound: int, most: float) -> tuple[np.ndarray, int
 
 def table_json(df: pd.DataFrame, columns: tuple[str, ...]) -> str:
     """A table by column: ``{"n": rows, "k": {name: column}, "p": profile}`` (columns missing
-    in ``df`` are left out; see :meth:`_Column.json`).
+    in ``df`` are left out; see :meth:`_Column.json`), made safe for ``<script>``.
 
     Columns with few distinct values (a plant's strings mostly share size, factors, status,
     protection …) are stored together as a *profile*: ``{"k": names, "v": [[values], …],
@@ -309,12 +316,15 @@ def _table_text(
     def text(name: str) -> str:
         return known[name][0] if name in known else cols[name].json()
 
-    parts = [f"{json.dumps(name)}:{text(name)}" for name in cols if name not in profile]
+    def key_text(name: str) -> str:
+        return script_safe(json.dumps(name))
+
+    parts = [f"{key_text(name)}:{text(name)}" for name in cols if name not in profile]
     out = f'{{"n":{n},"k":{{' + ",".join(parts) + "}"
     if len(profile) > 1:
         _, first, inverse = np.unique(key, return_index=True, return_inverse=True)
         table = zip(*(cols[name].tokens_at(first) for name in profile), strict=True)
-        body = (
+        body = script_safe(
             '{"k":'
             + _list_json(profile)
             + ',"v":['
@@ -324,7 +334,7 @@ def _table_text(
         out += ',"p":' + body[:-1] + ',"i":' + _ints(inverse.reshape(-1)) + "}"
     elif profile:  # one column only: as a column of its own
         name = profile[0]
-        out = out[:-1] + ("," if parts else "") + f"{json.dumps(name)}:{text(name)}}}"
+        out = out[:-1] + ("," if parts else "") + f"{key_text(name)}:{text(name)}}}"
     return out + "}"
 
 
@@ -410,8 +420,13 @@ class ReviewMemo:
     whose rows all have the texts they had keeps its JSON text. The result is the text
     :func:`table_json` gives (-0.0 and 0.0 are one value with two texts, as there)."""
 
+    #: the form of :meth:`export`'s value (a memo of another form is not used)
+    VERSION = 1
+
     def __init__(self, last: object = None) -> None:
-        self.last: dict = last if isinstance(last, dict) else {}
+        self.last: dict = {}
+        if isinstance(last, dict) and last.get("version") == self.VERSION:
+            self.last = {k: v for k, v in last.items() if k != "version"}
         self.now: dict = {}
         #: per table of this run: each row's row in the last run's table (-1: new)
         self.found: dict[str, np.ndarray] = {}
@@ -589,7 +604,7 @@ class ReviewMemo:
 
     def export(self) -> dict:
         """What this run's tables were, for the next one (arrays, no pickle)."""
-        return dict(self.now)
+        return {"version": self.VERSION, **self.now}
 
 
 def _ids(k: _KeptColumn, new: list[str], rows: np.ndarray, *, numbers: bool) -> np.ndarray:
@@ -776,10 +791,12 @@ def review_json(
         *(f'"{key}":{text}' for (key, *_), text in zip(specs, tables, strict=True)),
         '"sc":{"k":' + _ints(counts) + ',"x":' + _ints(flat) + "}",
         '"cs":{"k":' + _ints(c_counts) + ',"x":' + _ints(c_flat) + "}",
-        f'"lim":{json.dumps(limits, sort_keys=True)}',
-        f'"dec":{json.dumps(dec, sort_keys=True, separators=(",", ":"))}',
+        script_safe(f'"lim":{json.dumps(limits, sort_keys=True)}'),
+        script_safe(f'"dec":{json.dumps(dec, sort_keys=True, separators=(",", ":"))}'),
     ]
-    return script_safe("{" + ",".join(parts) + "}")
+    # the tables' texts are safe already (each column and profile made so), the lists hold
+    # integers only
+    return "{" + ",".join(parts) + "}"
 
 
 def review_data_html(text: str) -> str:

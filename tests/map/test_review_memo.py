@@ -181,13 +181,15 @@ def test_the_small_plan_and_a_hostile_one_after_an_edit():
 
 def test_a_damaged_or_foreign_memo_is_an_empty_one(plant):
     text = _review(plant)
-    for last in (None, "garbage", {"c": "x"}, {"c": {"names": ["circuit_id"], "cols": 1}}):
+    for last in (None, "garbage", {"version": 1, "c": "x"}, {"c": {"names": ["circuit_id"]}}):
         assert _review(plant, map_details.ReviewMemo(last)) == text
     _, memo, _ = _replan(plant, None)
     stored = memo.export()
     stored["c"]["cols"]["route_m"]["tok"] = stored["c"]["cols"]["route_m"]["tok"][:-1]
     stored["s"]["cols"]["segment_id"]["count"] = 3  # its texts do not match
     assert _review(plant, map_details.ReviewMemo(stored)) == text
+    older = map_details.ReviewMemo({**memo.export(), "version": 0})  # another form: not used
+    assert _review(plant, older) == text and older.found == {}
     assert MapMemo.load({"scripts": {}, "review": "garbage"}).review.last == {}
     # hashes of other rows than the frames': no memo
     short = tuple(h[:-1] for h in _hashes(plant))
