@@ -459,10 +459,13 @@ class ReviewMemo:
             self.now[key] = _state(hashes, cols, {}, profile, {})
             return text
         last, kcols = kept
-        index = pd.Index(last["hashes"])
-        if not index.is_unique:
-            index = index[~index.duplicated()]  # equal rows: equal texts
+        index = pd.Index(np.asarray(last["hashes"], dtype=np.uint64))
+        at = np.arange(len(index))
+        if not index.is_unique:  # equal rows, equal texts: the first one's
+            keep = ~index.duplicated()
+            index, at = index[keep], at[keep]
         found = index.get_indexer(hashes)
+        found[found >= 0] = at[found[found >= 0]]
         self.found[key] = found
         old = found >= 0
         fresh = np.flatnonzero(~old)
@@ -596,7 +599,6 @@ class ReviewMemo:
         last = self.last.get(key)
         if not isinstance(last, dict) or list(last["names"]) != names:
             return None
-        last["hashes"] = np.asarray(last["hashes"], dtype=np.uint64)
         kcols = {name: _KeptColumn(last["cols"][name]) for name in names}
         if any(len(k.tok) != len(last["hashes"]) for k in kcols.values()):
             return None
@@ -612,7 +614,9 @@ def _ids(k: _KeptColumn, new: list[str], rows: np.ndarray, *, numbers: bool) -> 
     their values in ``k.canon_now``: a number's 0.0 and -0.0 are one value); ``rows``: for
     each, a row holding it (a text is looked for first as that row's last text)."""
     out = np.full(len(new), -1, dtype=np.int64)
-    last = np.where(rows < len(k.tok), k.tok[np.minimum(rows, len(k.tok) - 1)], -1)
+    last = np.full(len(new), -1, dtype=np.int64)
+    if len(k.tok):
+        last = np.where(rows < len(k.tok), k.tok[np.minimum(rows, len(k.tok) - 1)], -1)
     for j, (t, i) in enumerate(zip(new, last.tolist(), strict=True)):
         if i >= 0 and k.text_at(i) == t:
             out[j] = i

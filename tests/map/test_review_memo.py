@@ -166,6 +166,24 @@ def test_segments_inserted_renamed_and_removed_move_the_positions(plant):
     assert got == _review(removed)
 
 
+def test_equal_rows_and_empty_tables(plant):
+    """Two rows alike (one content hash), a table emptied and filled again."""
+    text, _, stored = _replan(plant, None)
+    rows = plant["rows"]
+    twice = pd.concat([rows.iloc[:5], rows.iloc[[2]], rows.iloc[5:]], ignore_index=True)
+    doubled = {**plant, "rows": twice}
+    got, memo, stored = _replan(doubled, stored)
+    assert got == _review(doubled) and _new_rows(memo, "r") == 0  # the copy: a known row
+    edited = _set(doubled, "rows", "module", [3, 5, 9], ["M-600"] * 3)
+    got, memo, stored = _replan(edited, stored)
+    assert got == _review(edited) and _new_rows(memo, "r") == 3
+    empty = {**edited, "equipment": edited["equipment"].iloc[:0]}
+    got, _, stored = _replan(empty, stored)
+    assert got == _review(empty)
+    got, _, _ = _replan(plant, stored)
+    assert got == text
+
+
 def test_the_small_plan_and_a_hostile_one_after_an_edit():
     from .map_fixtures import HOSTILE
 
