@@ -16,6 +16,14 @@ escaped): the page shows them with ``textContent`` only.
 Which circuits run in a trench segment is given once, from the segment's ``circuit_ids``
 (positions in the circuits table, as counts per segment and one flat list): the trench panel
 lists exactly what ``trench_schedule.csv`` says; a circuit's route is the inverse.
+
+A re-plan changes a few hundred of a 1 GW plant's ~70,000 circuits. :class:`ReviewMemo` (kept
+in the map's memo, :class:`routeplan.map.tiles.MapMemo`) holds the last map's tables by their
+rows' content hashes: each column as its distinct texts and each row's index into them, the
+JSON text of each column written on its own, and each row's segment or circuit positions. A
+re-plan encodes only the rows whose hash is new, copies the JSON of a column whose rows all
+kept their texts, and moves the kept positions to where their ids are now; the text is the
+one a map without memo gives, byte for byte (``tests/map/test_review_memo.py``).
 """
 
 from __future__ import annotations

@@ -18,7 +18,8 @@ page a run without it makes. The plant view's block areas are kept as WKB under 
 each block's circuits' and rows' content hashes (:meth:`MapMemo.geometries`,
 :func:`routeplan.map.plantview.block_table`): an edit redraws its blocks' areas only, and
 finds the outline points of those blocks only. Scripts are kept as UTF-8 bytes, so a kept
-tile is copied into the page without being decoded or encoded.
+tile is copied into the page without being decoded or encoded. The review data's tables are
+kept by their rows' content hashes too (:class:`routeplan.map.details.ReviewMemo`).
 
 A tile's key holds flags and plant-wide values, never a count of the plant's features: one
 feature more (a trench split by a moved pad) must leave the other tiles' keys as they were.
