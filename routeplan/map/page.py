@@ -605,7 +605,10 @@ def _render(
     legend += plant.legend_html()
     fail = is_fail(circuits)
     blocks = text_values(circuits, "inverter_id")[fail].tolist()
-    review = review_html(failing_html(circuit_ids[fail].tolist(), blocks))
+    failing = circuit_ids[fail].tolist()
+    # the list of failing circuits, kept with the page parts under a digest of its input
+    listed = hashlib.sha256(json.dumps([failing, blocks]).encode("utf-8")).hexdigest()
+    review = review_html(memo.page(f"failing:{listed}", lambda: [failing_html(failing, blocks)])[0])
     panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend, review=review)
     panel += review_data_html(
         review_json(

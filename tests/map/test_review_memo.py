@@ -216,3 +216,27 @@ def test_a_damaged_or_foreign_memo_is_an_empty_one(plant):
     got = map_details.review_json(*frames, memo=memo, hashes=short)
     assert got == map_details.review_json(*frames)
     assert memo.found == {}
+
+
+def test_a_page_after_edits_equals_a_cold_one_byte_for_byte(plant):
+    """The whole page with the last map's memo (tiles, review data, the list of failing
+    circuits) after edits that change which circuits fail: the page a map without memo gives."""
+    from routeplan.map.page import render_map
+
+    def render(frames: dict, memo: MapMemo | None = None) -> str:
+        return render_map(
+            *(frames[k] for k in LAYERS), site_name="Edited field", memo=memo, hashes=None
+        )
+
+    first = MapMemo()
+    render(plant, first)
+    status = plant["circuits"]["status"].to_numpy()
+    fails = np.flatnonzero(status == "fail")
+    passes = np.flatnonzero(status != "fail")
+    edited = _set(plant, "circuits", "status", [*passes[:2], *fails[:1]], ["fail", "fail", "ok"])
+    memo = MapMemo.load(loads(dumps(first.export())))
+    html = render(edited, memo)
+    assert html == render(edited)
+    assert memo.review.found and _new_rows(memo.review, "c") == 3
+    again = MapMemo.load(loads(dumps(memo.export())))
+    assert render(plant, again) == render(plant)
