@@ -292,8 +292,12 @@ def per_distinct(func, *columns) -> list:
 
 
 def drawable_mask(gdf: gpd.GeoDataFrame) -> np.ndarray:
-    """Which rows of ``gdf`` have a non-empty geometry."""
-    g = gdf.geometry.to_numpy()
+    """Which rows of ``gdf`` have a non-empty geometry (read-only within
+    :func:`shared_columns`)."""
+    return _shared(gdf, ("drawable",), lambda: _drawable(gdf.geometry.to_numpy()))
+
+
+def _drawable(g: np.ndarray) -> np.ndarray:
     return ~shapely.is_missing(g) & ~shapely.is_empty(g)
 
 
