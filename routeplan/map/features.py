@@ -20,9 +20,11 @@ Geometry is simplified lightly in the metric working CRS, reprojected to EPSG:43
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import json
 import re
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
 
@@ -210,9 +212,47 @@ def _num(df: pd.DataFrame, name: str) -> np.ndarray:
     return pd.to_numeric(_column(df, name), errors="coerce").to_numpy(dtype=float)
 
 
+#: the frames whose columns are converted once while a map is drawn (:func:`shared_columns`):
+#: per frame (by id, the frame kept to hold its id), its converted columns by key
+_SHARED: contextvars.ContextVar[dict[int, tuple[pd.DataFrame, dict]] | None] = (
+    contextvars.ContextVar("routeplan_map_shared_columns", default=None)
+)
+
+
+@contextlib.contextmanager
+def shared_columns(*frames: pd.DataFrame) -> Iterator[None]:
+    """Within this context, a column of ``frames`` is converted to text (:func:`_text`) or
+    normalised (:func:`circuit_kind`, :func:`is_fail`) once, however many parts of the map
+    ask for it; the results are read-only (a part that wants to change one makes a copy)."""
+    token = _SHARED.set({id(f): (f, {}) for f in frames})
+    try:
+        yield
+    finally:
+        _SHARED.reset(token)
+
+
+def _shared(df: pd.DataFrame, key: tuple, make):
+    """``make()``, kept for ``df`` under ``key`` within :func:`shared_columns`."""
+    frames = _SHARED.get()
+    entry = frames.get(id(df)) if frames is not None else None
+    if entry is None or entry[0] is not df:
+        return make()
+    kept = entry[1]
+    if key not in kept:
+        value = make()
+        array = value.to_numpy() if isinstance(value, pd.Series) else value
+        if isinstance(array, np.ndarray):
+            array.flags.writeable = False
+        kept[key] = value
+    return kept[key]
+
+
 def _text(df: pd.DataFrame, name: str) -> pd.Series:
     """A column as raw text: NaN/None → ""."""
-    s = _column(df, name, "")
+    return _shared(df, ("text", name), lambda: _as_text(_column(df, name, "")))
+
+
+def _as_text(s: pd.Series) -> pd.Series:
     return s.astype(object).where(s.notna(), "").astype(str)
 
 
@@ -252,8 +292,12 @@ def per_distinct(func, *columns) -> list:
 
 
 def drawable_mask(gdf: gpd.GeoDataFrame) -> np.ndarray:
-    """Which rows of ``gdf`` have a non-empty geometry."""
-    g = gdf.geometry.to_numpy()
+    """Which rows of ``gdf`` have a non-empty geometry (read-only within
+    :func:`shared_columns`)."""
+    return _shared(gdf, ("drawable",), lambda: _drawable(gdf.geometry.to_numpy()))
+
+
+def _drawable(g: np.ndarray) -> np.ndarray:
     return ~shapely.is_missing(g) & ~shapely.is_empty(g)
 
 
@@ -523,6 +567,10 @@ def _between(df: pd.DataFrame) -> list[str]:
 
 def _normalised(df: pd.DataFrame, name: str) -> np.ndarray:
     """A text column stripped and in lower case (each distinct value is converted once)."""
+    return _shared(df, ("normalised", name), lambda: _normalise(df, name))
+
+
+def _normalise(df: pd.DataFrame, name: str) -> np.ndarray:
     codes, uniques = pd.factorize(_text(df, name).to_numpy(dtype=object))
     low = np.array([str(u).strip().lower() for u in uniques] + [""], dtype=object)
     return low[codes]

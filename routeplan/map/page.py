@@ -64,6 +64,7 @@ from routeplan.map.features import (
     row_stats,
     segment_layers,
     segment_values,
+    shared_columns,
     string_group_layers,
     text_values,
 )
@@ -425,7 +426,31 @@ def render_map_bytes(
     frames = {"circuits": circuits, "segments": segments, "rows": rows, "equipment": equipment}
     for name, gdf in frames.items():
         _check_columns(name, gdf)
-    memo = memo if memo is not None else MapMemo()
+    with shared_columns(*frames.values()):  # each text column converted once
+        return _render(
+            frames,
+            site_name=site_name,
+            basemap=basemap,
+            aggregate_strings_above=aggregate_strings_above,
+            memo=memo if memo is not None else MapMemo(),
+            hashes=hashes,
+            drop_limits_pct=drop_limits_pct,
+        )
+
+
+def _render(
+    frames: dict[str, gpd.GeoDataFrame],
+    *,
+    site_name: str,
+    basemap: bool,
+    aggregate_strings_above: int,
+    memo: MapMemo,
+    hashes: dict[str, np.ndarray] | None,
+    drop_limits_pct: dict[str, float] | None,
+) -> bytes:
+    """:func:`render_map_bytes` of checked ``frames``."""
+    circuits, segments = frames["circuits"], frames["segments"]
+    rows, equipment = frames["rows"], frames["equipment"]
     h = {}
     for name, gdf in frames.items():
         given = (hashes or {}).get(name)
@@ -580,10 +605,21 @@ def render_map_bytes(
     legend += plant.legend_html()
     fail = is_fail(circuits)
     blocks = text_values(circuits, "inverter_id")[fail].tolist()
-    review = review_html(failing_html(circuit_ids[fail].tolist(), blocks))
+    failing = circuit_ids[fail].tolist()
+    # the list of failing circuits, kept with the page parts under a digest of its input
+    listed = hashlib.sha256(json.dumps([failing, blocks]).encode("utf-8")).hexdigest()
+    review = review_html(memo.page(f"failing:{listed}", lambda: [failing_html(failing, blocks)])[0])
     panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend, review=review)
     panel += review_data_html(
-        review_json(circuits, segments, rows, equipment, drop_limits_pct=drop_limits_pct)
+        review_json(
+            circuits,
+            segments,
+            rows,
+            equipment,
+            drop_limits_pct=drop_limits_pct,
+            memo=memo.review,
+            hashes=(h["circuits"], h["segments"], h["rows"], h["equipment"]),
+        )
     )
 
     spec = {

@@ -18,7 +18,8 @@ page a run without it makes. The plant view's block areas are kept as WKB under 
 each block's circuits' and rows' content hashes (:meth:`MapMemo.geometries`,
 :func:`routeplan.map.plantview.block_table`): an edit redraws its blocks' areas only, and
 finds the outline points of those blocks only. Scripts are kept as UTF-8 bytes, so a kept
-tile is copied into the page without being decoded or encoded.
+tile is copied into the page without being decoded or encoded. The review data's tables are
+kept by their rows' content hashes too (:class:`routeplan.map.details.ReviewMemo`).
 
 A tile's key holds flags and plant-wide values, never a count of the plant's features: one
 feature more (a trench split by a moved pad) must leave the other tiles' keys as they were.
@@ -34,6 +35,7 @@ import numpy as np
 import pandas as pd
 import shapely
 
+from routeplan.map.details import ReviewMemo
 from routeplan.map.features import Layer
 from routeplan.map.script import layer_script
 from routeplan.outputs.reuse import hashes_key, row_hashes
@@ -148,6 +150,8 @@ class MapMemo:
     scripts: dict[str, tuple[bytes, int]] = field(default_factory=dict)
     pages: dict[str, list[str]] = field(default_factory=dict)
     shapes: dict[str, bytes] = field(default_factory=dict)
+    #: the review data's tables (:class:`routeplan.map.details.ReviewMemo`)
+    review: ReviewMemo = field(default_factory=ReviewMemo)
     drawn_tiles: int = 0
     reused_tiles: int = 0
 
@@ -175,7 +179,8 @@ class MapMemo:
             shapes = _load_blobs(stored.get("shapes"))  # type: ignore[union-attr]
         except (KeyError, TypeError, ValueError, AttributeError):
             return cls()
-        return cls(last_scripts=scripts, last_pages=pages, last_shapes=shapes)
+        review = ReviewMemo(stored.get("review"))  # type: ignore[union-attr]
+        return cls(last_scripts=scripts, last_pages=pages, last_shapes=shapes, review=review)
 
     def export(self) -> dict:
         """What this run used, for the next one (arrays, no pickle: :mod:`routeplan.cache`)."""
@@ -190,6 +195,7 @@ class MapMemo:
             },
             "pages": dict(self.pages),
             "shapes": _blobs(self.shapes),
+            "review": self.review.export(),
         }
 
     def geometries(self, keys: list[str], make: Callable[[np.ndarray], np.ndarray]) -> np.ndarray:
