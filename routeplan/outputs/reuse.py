@@ -68,7 +68,7 @@ def geometry_hashes(geometry: np.ndarray) -> np.ndarray:
     simple = np.isin(types, (0, 1))  # Point, LineString: their coordinates say everything
     if simple.any():
         xy, which = shapely.get_coordinates(g[simple], include_z=True, return_index=True)
-        xy = np.where(np.isnan(xy), np.nan, xy + 0.0)  # one NaN, and -0.0 as 0.0
+        xy = np.where(np.isnan(xy), np.nan, xy)  # one NaN; -0.0 apart (WKB keeps its sign)
         bits = xy.view(np.uint64)
         first = np.searchsorted(which, np.arange(int(simple.sum())))
         position = np.arange(len(which), dtype=np.int64) - first[which]
@@ -121,9 +121,10 @@ _MISSING = np.uint64(0x5D1C3A7E9B0F2468)
 
 
 def column_hashes(column: pd.Series) -> np.ndarray:
-    """A uint64 hash per value: numbers by their bits (pandas' mix), text by SipHash-2-4 of
-    the text (pandas), missing values apart from every text, other objects by type and
-    ``repr`` (so 1, 1.0, True and "1" differ, as their text does)."""
+    """A uint64 hash per value: numbers by their bits (pandas' mix; -0.0 apart from 0.0,
+    every NaN alike), text by SipHash-2-4 of the text (pandas), missing values apart from
+    every text, other objects by type and ``repr`` (so 1, 1.0, True and "1" differ, as their
+    text does)."""
     kind, values, missing = _column_values(column)
     return _hash_values(kind, values, missing)
 
@@ -149,6 +150,9 @@ def _hash_values(kind: str, values: np.ndarray, missing: np.ndarray | None) -> n
     """The hashes of :func:`column_hashes` of values taken by :func:`_column_values` (or any
     part of them: each value's hash is its own)."""
     if kind == "number":
+        if values.dtype.kind == "f":  # by their bits (pandas would hash -0.0 as 0.0), one NaN
+            bits = np.where(np.isnan(values), np.nan, values).astype(values.dtype, copy=False)
+            return pd.util.hash_array(bits.view(f"u{values.dtype.itemsize}"))
         return pd.util.hash_array(values)
     if kind == "text":
         return _text_hashes(np.where(missing, None, values))

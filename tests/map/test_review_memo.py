@@ -94,31 +94,31 @@ def test_a_value_edit_encodes_its_row_only_and_gives_the_fresh_text(plant):
 def test_zero_and_minus_zero_are_one_value_in_each_run(plant):
     """-0.0 and 0.0 are one value of the column (its distinct values, as pandas.factorize
     sees them) but each row keeps its own text: the memo's texts keep that in any order of
-    appearance. (The rows' content hashes do not tell -0.0 from 0.0 — pandas' hash_array
-    hashes them alike —, so each edit here also changes the row's note.)"""
+    appearance. The rows' content hashes tell -0.0 from 0.0 (by their bits), so an edit of
+    the sign alone encodes the rows whose sign changed."""
     rows = np.arange(3)
     zeros = _set(plant, "circuits", "vdrop_v", slice(None), 0.0)  # one value: {"v": [0.0]}
 
-    def edit(values: list[float], note: str) -> dict:
-        out = _set(zeros, "circuits", "vdrop_v", rows, values)
-        return _set(out, "circuits", "note", rows, [note] * 3)
+    def edit(values: list[float]) -> dict:
+        return _set(zeros, "circuits", "vdrop_v", rows, values)
 
-    first = edit([0.0, 0.0, 0.0], "first")
+    last = [0.0, 0.0, 0.0]
+    first = edit(last)
     text, _, stored = _replan(first, None)
     assert text == _review(first)
     steps = ([-0.0, 0.0, 0.0], [0.0, -0.0, -0.0], [-0.0, -0.0, -0.0], [0.0, 0.0, -0.0])
-    for j, values in enumerate(steps):
-        edited = edit(values, f"step {j}")
+    for values in steps:
+        edited = edit(values)
         got, memo, stored = _replan(edited, stored)
         assert got == _review(edited), values
-        assert _new_rows(memo, "c") == 3
+        assert _new_rows(memo, "c") == int((np.signbit(values) != np.signbit(last)).sum())
+        last = values
         column = json.loads(got)["c"]["k"]["vdrop_v"]  # still one value, the first row's
         assert column == {"v": [values[0]]} and np.signbit(column["v"][0]) == np.signbit(values[0])
     # a memo made when only -0.0 was there, then 0.0 added
-    only = _set(edit([-0.0, -0.0, -0.0], "only"), "circuits", "vdrop_v", slice(3, None), -0.0)
+    only = _set(edit([-0.0, -0.0, -0.0]), "circuits", "vdrop_v", slice(3, None), -0.0)
     _, _, stored = _replan(only, None)
     edited = _set(only, "circuits", "vdrop_v", [1], [0.0])
-    edited = _set(edited, "circuits", "note", [1], ["both"])
     got = _replan(edited, stored)[0]
     assert got == _review(edited) and json.loads(got)["c"]["k"]["vdrop_v"] == {"v": [-0.0]}
 
