@@ -537,6 +537,17 @@ class Resident:
         """The kept writer's record ``name`` whose file has ``sha256``."""
         return self._aux.get((name, str(sha256)))
 
+    def load_aux(self, cache: PlanCache, names: Iterable[str]) -> None:
+        """Read and keep the writers' records ``names`` of ``cache``'s folder now (a watching
+        process, while it waits): the processes the next run forks to write (the map, the
+        report) then find them in memory instead of reading and decoding their files."""
+        for name in names:
+            e = cache._outputs().get("aux", {}).get(name)
+            value = cache.output_aux(name)
+            if value is not None and isinstance(e, dict):
+                _freeze(value)
+                self._aux[(name, str(e.get("sha256")))] = value
+
     def keep(self, cache: PlanCache) -> None:
         """Keep the values of the entries and records ``cache`` saved (:meth:`PlanCache.save`)
         that its run computed or read, in place of the last run's."""

@@ -103,11 +103,14 @@ class Watcher:
         """Ready what the next run needs while waiting for an edit (the last run planned under
         ``design``): the last plan as the baseline of a local re-plan
         (:func:`routeplan.localplan.last_baseline`), matplotlib loaded for the report's
-        charts (:func:`routeplan.report.plots.warm_up`) and the map's modules imported: the
+        charts (:func:`routeplan.report.plots.warm_up`), the map's modules imported and the
+        map's and the report's memos read (:meth:`~routeplan.cache.Resident.load_aux`): the
         report and the map are drawn in processes forked from this one, which then do not
-        import them again."""
+        import or read them again."""
         if self.use_cache:
-            last_baseline(PlanCache(self.out_dir, resident=self.resident), design)
+            cache = PlanCache(self.out_dir, resident=self.resident)
+            last_baseline(cache, design)
+            self.resident.load_aux(cache, ("map", "report"))
         warm_up()
         importlib.import_module("routeplan.map.page")
 
