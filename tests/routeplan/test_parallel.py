@@ -66,3 +66,12 @@ def test_cancel_stops_the_child(tmp_path):
         with contextlib.suppress(ProcessLookupError, ChildProcessError):
             os.kill(pid, 9)  # a child cancel left running must not outlive the test
             os.waitpid(pid, 0)
+
+
+def test_a_nice_job_runs_at_a_lower_priority_and_this_process_keeps_its_own(tmp_path):
+    out = tmp_path / "nice.txt"
+    mine = os.nice(0)  # os.nice(0) returns the process's niceness without changing it
+    job = parallel.start(lambda: out.write_text(str(os.nice(0))), nice=5)
+    job.wait()
+    assert int(out.read_text()) == min(mine + 5, 19)  # POSIX: niceness stops at 19
+    assert os.nice(0) == mine
