@@ -55,8 +55,10 @@ class Job:
         self.done = True
 
 
-def start(work: Callable[[], None]) -> Job:
-    """Start ``work`` in a forked child; where that is not possible it runs at ``wait()``."""
+def start(work: Callable[[], None], nice: int = 0) -> Job:
+    """Start ``work`` in a forked child; where that is not possible it runs at ``wait()``.
+    ``nice``: added to the child's niceness (:func:`os.nice`), for a job the others should
+    not wait for while they compete for the cores."""
     job = Job(work)
     if not hasattr(os, "fork") or os.environ.get("ROUTEPLAN_SERIAL"):
         return job
@@ -71,6 +73,8 @@ def start(work: Callable[[], None]) -> Job:
     if pid == 0:  # the child
         code = 1
         try:
+            if nice:
+                os.nice(nice)
             work()
             code = 0
         finally:
