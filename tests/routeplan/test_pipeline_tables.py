@@ -14,6 +14,7 @@ import shapely
 from numpy.testing import assert_allclose
 from shapely.geometry import LineString
 
+from calc.nec.sizes import size_from_label
 from routeplan import CAUTION, __version__
 from routeplan.config import parse_design
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
@@ -465,3 +466,35 @@ def test_bill_lists_sub_arrays_before_arrays_whatever_their_size():
         ("array", 95.0),
         ("ac", 240.0),
     ]
+
+
+def test_summary_in_us_units_gives_feet_and_the_nec_size_labels(small):
+    # the hand circuits sized in AWG / kcmil (NEC 2023 Chapter 9 Table 8 areas, calc.nec.sizes):
+    # S1, S2 10 AWG Cu, S3 8 AWG Cu, U1 1/0 AWG Al, A1 and A2 250 kcmil Cu, AC1 250 kcmil Al.
+    # Conductor metres as in test_summary_counts_and_worst_values_by_kind; feet = m / 0.3048
+    # (the international foot, NIST SP 811 B.8), rounded to 2 decimals:
+    # 80.008 m → 262.4934 ft, 600 → 1968.5039, 61 → 200.1312, 60 → 196.8504, 400 → 1312.3360;
+    # total 1201.008 m → 3940.3150 ft; runs 450.504 m → 1478.0315 ft
+    c = hand_circuits()
+    c["size_mm2"] = size_from_label(
+        ["10 AWG", "10 AWG", "8 AWG", "1/0 AWG", "250 kcmil", "250 kcmil", "250 kcmil"]
+    )
+    none = [False] * 7
+    design = parse_design({"design": {"rules": "nec", "units": "us", "marking": "us"}})[0]
+    s = summarise(small.site, design, c, hand_segments(), Result(c, none, none))
+    assert (s["rules"], s["units"], s["marking"]) == ("nec", "us", "us")
+    assert [(e["material"], e["size_label"], e["conductor_m"], e["conductor_ft"])
+            for e in s["conductor_m"]] == [
+        ("Al", "1/0 AWG", 80.01, 262.49),
+        ("Al", "250 kcmil", 600.0, 1968.5),
+        ("Cu", "10 AWG", 61.0, 200.13),
+        ("Cu", "8 AWG", 60.0, 196.85),
+        ("Cu", "250 kcmil", 400.0, 1312.34),
+    ]  # fmt: skip
+    assert s["conductor_m_total"] == 1201.01 and s["conductor_ft_total"] == 3940.31
+    assert s["run_m_total"] == 450.5 and s["run_ft_total"] == 1478.03
+    # metric units (the default): no feet anywhere in the summary
+    s = summarise(small.site, DESIGN, c, hand_segments(), Result(c, none, none))
+    assert (s["units"], s["marking"]) == ("si", "iec")
+    assert "conductor_ft_total" not in s and "run_ft_total" not in s
+    assert not [e for e in s["conductor_m"] if "conductor_ft" in e]
