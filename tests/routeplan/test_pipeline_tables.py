@@ -20,7 +20,7 @@ from routeplan.config import parse_design
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
 from routeplan.pipeline import circuit_table, plan, quantity_table, sizing_input, summarise
 
-from ..conftest import base_frames, write_site
+from ..conftest import SITE_TOML, base_frames, write_site
 
 # The fixtures plan once per test (0.2 s), not once per module: mutmut runs for a mutant only
 # the tests that called its function, and a module fixture's calls count for the first
@@ -498,3 +498,36 @@ def test_summary_in_us_units_gives_feet_and_the_nec_size_labels(small):
     assert (s["units"], s["marking"]) == ("si", "iec")
     assert "conductor_ft_total" not in s and "run_ft_total" not in s
     assert not [e for e in s["conductor_m"] if "conductor_ft" in e]
+
+
+def test_cable_schedule_under_nec_in_us_units(tmp_path):
+    # the tiny site under rules = "nec", units = "us": sizes labelled as NEC 2023 Chapter 9
+    # Table 8 names them (10 AWG 5.261 mm², 2 AWG 33.63 mm², 300 kcmil 152.0 mm²), lengths also
+    # in international feet (m / 0.3048, NIST SP 811 B.8: 55 m = 180.4462 ft), and the 690.8(B)
+    # condition that governs: the larger of 1.25 × I / the 75 °C terminal ampacity (Table
+    # 310.16, confirmed: 10 AWG 35 A, 2 AWG 115 A, 300 kcmil 285 A) and I / the corrected
+    # ampacity. Strings: 20.3125 / 35 = 0.580 < 16.25 / 21.6 = 0.752: (B)(2); the array cable
+    # 101.5625 / 115 = 0.883 > 81.25 / 140.4 = 0.579: (B)(1); the inverter output
+    # 1.25 × 180.42 / 285 = 0.791 > 180.42 / 280.8 = 0.643: (B)(1)
+    toml = SITE_TOML.replace(
+        "snap_m = 20.0", 'snap_m = 20.0\nrules = "nec"\nunits = "us"\nmarking = "us"'
+    )
+    c = by_id(plan(write_site(tmp_path / "site", base_frames(), toml=toml)).circuits, "circuit_id")
+    assert c["size_label"].to_dict() == {
+        "AC:INV1": "300 kcmil",
+        "A:CB1": "2 AWG",
+        **dict.fromkeys(["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3"], "10 AWG"),
+    }
+    assert_allclose(
+        c["size_mm2"].loc[["R1/S1", "A:CB1", "AC:INV1"]], [5.261, 33.63, 152.0], rtol=1e-3
+    )
+    assert c.loc["AC:INV1", "route_m"] == 55.0
+    assert round(c.loc["AC:INV1", "route_ft"], 4) == 180.4462
+    assert_allclose(c["route_ft"], c["route_m"] / 0.3048, rtol=1e-12)
+    assert_allclose(c["cable_ft"], c["cable_m"] / 0.3048, rtol=1e-12)
+    assert c.loc["A:CB1", "design_current_a"] == 81.25 and c.loc["A:CB1", "ampacity_a"] == 140.4
+    assert c["governing_condition"].to_dict() == {
+        "AC:INV1": "690.8(B)(1)",
+        "A:CB1": "690.8(B)(1)",
+        **dict.fromkeys(["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3"], "690.8(B)(2)"),
+    }
