@@ -193,10 +193,14 @@ TARGETS = {
         ),
     ),
     # what a failing circuit's remedy says: whole plans sized again (the tests plan the demo),
-    # and the exact texts on small hand-built circuits
+    # and the exact texts on small hand-built circuits (iec, and nec's 240.4 and default lists)
     "remedy": Target(
         "routeplan/remedy.py",
-        ("tests/routeplan/test_remedy.py", "tests/routeplan/test_remedy_units.py"),
+        (
+            "tests/routeplan/test_remedy.py",
+            "tests/routeplan/test_remedy_units.py",
+            "tests/routeplan/test_remedy_nec.py",
+        ),
     ),
     # the bill of quantities: the hand-built schedules of test_quantities.py, checked line by
     # line; its tests that plan whole sites (the demo, the small site, through the command line:

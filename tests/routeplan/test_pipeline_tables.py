@@ -14,12 +14,13 @@ import shapely
 from numpy.testing import assert_allclose
 from shapely.geometry import LineString
 
+from calc.nec.sizes import size_from_label
 from routeplan import CAUTION, __version__
 from routeplan.config import parse_design
 from routeplan.outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
 from routeplan.pipeline import circuit_table, plan, quantity_table, sizing_input, summarise
 
-from ..conftest import base_frames, write_site
+from ..conftest import SITE_TOML, base_frames, write_site
 
 # The fixtures plan once per test (0.2 s), not once per module: mutmut runs for a mutant only
 # the tests that called its function, and a module fixture's calls count for the first
@@ -465,3 +466,68 @@ def test_bill_lists_sub_arrays_before_arrays_whatever_their_size():
         ("array", 95.0),
         ("ac", 240.0),
     ]
+
+
+def test_summary_in_us_units_gives_feet_and_the_nec_size_labels(small):
+    # the hand circuits sized in AWG / kcmil (NEC 2023 Chapter 9 Table 8 areas, calc.nec.sizes):
+    # S1, S2 10 AWG Cu, S3 8 AWG Cu, U1 1/0 AWG Al, A1 and A2 250 kcmil Cu, AC1 250 kcmil Al.
+    # Conductor metres as in test_summary_counts_and_worst_values_by_kind; feet = m / 0.3048
+    # (the international foot, NIST SP 811 B.8), rounded to 2 decimals:
+    # 80.008 m → 262.4934 ft, 600 → 1968.5039, 61 → 200.1312, 60 → 196.8504, 400 → 1312.3360;
+    # total 1201.008 m → 3940.3150 ft; runs 450.504 m → 1478.0315 ft
+    c = hand_circuits()
+    c["size_mm2"] = size_from_label(
+        ["10 AWG", "10 AWG", "8 AWG", "1/0 AWG", "250 kcmil", "250 kcmil", "250 kcmil"]
+    )
+    none = [False] * 7
+    design = parse_design({"design": {"rules": "nec", "units": "us", "marking": "us"}})[0]
+    s = summarise(small.site, design, c, hand_segments(), Result(c, none, none))
+    assert (s["rules"], s["units"], s["marking"]) == ("nec", "us", "us")
+    assert [(e["material"], e["size_label"], e["conductor_m"], e["conductor_ft"])
+            for e in s["conductor_m"]] == [
+        ("Al", "1/0 AWG", 80.01, 262.49),
+        ("Al", "250 kcmil", 600.0, 1968.5),
+        ("Cu", "10 AWG", 61.0, 200.13),
+        ("Cu", "8 AWG", 60.0, 196.85),
+        ("Cu", "250 kcmil", 400.0, 1312.34),
+    ]  # fmt: skip
+    assert s["conductor_m_total"] == 1201.01 and s["conductor_ft_total"] == 3940.31
+    assert s["run_m_total"] == 450.5 and s["run_ft_total"] == 1478.03
+    # metric units (the default): no feet anywhere in the summary
+    s = summarise(small.site, DESIGN, c, hand_segments(), Result(c, none, none))
+    assert (s["units"], s["marking"]) == ("si", "iec")
+    assert "conductor_ft_total" not in s and "run_ft_total" not in s
+    assert not [e for e in s["conductor_m"] if "conductor_ft" in e]
+
+
+def test_cable_schedule_under_nec_in_us_units(tmp_path):
+    # the tiny site under rules = "nec", units = "us": sizes labelled as NEC 2023 Chapter 9
+    # Table 8 names them (10 AWG 5.261 mm², 2 AWG 33.63 mm², 300 kcmil 152.0 mm²), lengths also
+    # in international feet (m / 0.3048, NIST SP 811 B.8: 55 m = 180.4462 ft), and the 690.8(B)
+    # condition that governs: the larger of 1.25 × I / the 75 °C terminal ampacity (Table
+    # 310.16, confirmed: 10 AWG 35 A, 2 AWG 115 A, 300 kcmil 285 A) and I / the corrected
+    # ampacity. Strings: 20.3125 / 35 = 0.580 < 16.25 / 21.6 = 0.752: (B)(2); the array cable
+    # 101.5625 / 115 = 0.883 > 81.25 / 140.4 = 0.579: (B)(1); the inverter output
+    # 1.25 × 180.42 / 285 = 0.791 > 180.42 / 280.8 = 0.643: (B)(1)
+    toml = SITE_TOML.replace(
+        "snap_m = 20.0", 'snap_m = 20.0\nrules = "nec"\nunits = "us"\nmarking = "us"'
+    )
+    c = by_id(plan(write_site(tmp_path / "site", base_frames(), toml=toml)).circuits, "circuit_id")
+    assert c["size_label"].to_dict() == {
+        "AC:INV1": "300 kcmil",
+        "A:CB1": "2 AWG",
+        **dict.fromkeys(["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3"], "10 AWG"),
+    }
+    assert_allclose(
+        c["size_mm2"].loc[["R1/S1", "A:CB1", "AC:INV1"]], [5.261, 33.63, 152.0], rtol=1e-3
+    )
+    assert c.loc["AC:INV1", "route_m"] == 55.0
+    assert round(c.loc["AC:INV1", "route_ft"], 4) == 180.4462
+    assert_allclose(c["route_ft"], c["route_m"] / 0.3048, rtol=1e-12)
+    assert_allclose(c["cable_ft"], c["cable_m"] / 0.3048, rtol=1e-12)
+    assert c.loc["A:CB1", "design_current_a"] == 81.25 and c.loc["A:CB1", "ampacity_a"] == 140.4
+    assert c["governing_condition"].to_dict() == {
+        "AC:INV1": "690.8(B)(1)",
+        "A:CB1": "690.8(B)(1)",
+        **dict.fromkeys(["R1/S1", "R1/S2", "R2/S1", "R2/S2", "R2/S3"], "690.8(B)(2)"),
+    }

@@ -826,6 +826,8 @@ def test_a_bill_without_connectors_and_fuses_keeps_the_families_after_them():
     frame["array_fuse_a"] = NAN
     bill = bill_of_quantities(frame, HAND_SEGMENTS.copy(), 1500.0, "iec60947-2")
     assert list(bill.index) == list(range(len(bill)))
+    # the bill's columns are BILL_COLUMNS (its docstring), the total lines added: no other
+    assert list(bill.columns) == list(BILL_COLUMNS)
     totals = bill[bill["item"].str.endswith(" total")]
     assert cells(totals, ["item", "quantity"]) == [
         ("cable total", 240.0 + 800.0 + 3000.0 + 180.0),

@@ -24,7 +24,7 @@ import calc
 from calc import protection_failures
 from calc.nec.sizes import size_from_label, size_label
 from routeplan.pipeline import MAX_PARALLEL
-from routeplan.remedy import remedies
+from routeplan.remedy import WhatIfs, remedies
 from tests.calc.test_nec_engine import _ac, _dc, _design, _inp
 
 UNPROTECTED = "its overcurrent device does not protect the conductor (240.4)"
@@ -134,3 +134,39 @@ def test_no_trench_spacing_is_offered_under_nec():
     assert "spacing_m" not in out[0] and UNPROTECTED not in out[0]
     assert out[0].startswith("governed by seg; limited by largest size in design.sizes_mm2.string")
     assert "passes with " in out[0]
+
+
+def test_an_unlisted_design_takes_the_nec_default_sizes_as_its_list():
+    # test_inverter_output_circuit_at_the_largest_size_takes_more_sets with no a.c. list in the
+    # design: the NEC default list (6 AWG to 1000 kcmil) is the list, so the sets' size is not
+    # a size to add. 2 sets, 18 conductors (0.50), 90 °C column at 16–20 °C (1.08):
+    # 500 kcmil 2 × 430 × 1.08 × 0.50 = 464.4 A, the next 240.6(A) rating above it 500 A < 600 A:
+    # not protected (240.4(B)); 600 kcmil 2 × 475 × 1.08 × 0.50 = 513 A, the next rating above
+    # it 600 A: protected, and 420 A ≤ 513 A (Table 310.16 Cu 90 °C, 500 kcmil 430 A and
+    # 600 kcmil 475 A, confirmed)
+    inp, _ = _three_ac(420.0, "1000 kcmil")
+    d = _design(ground_temp_c=20.0, max_parallel=1, material_ac="Cu")
+    assert size_label(calc.size_list_mm2(calc.KIND_AC, d, "nec"))[[0, -1]].tolist() == [
+        "6 AWG",
+        "1000 kcmil",
+    ]
+    r = calc.size_circuits(inp, d, "nec")
+    assert size_label(r.size_mm2).tolist() == ["1000 kcmil"] * 3 and not r.ok.any()
+    assert _remedies(inp, d, r, ["AC1", "AC2", "AC3"])[0] == (
+        f"{UNPROTECTED}; limited by largest size in design.sizes_mm2.ac (1000 kcmil), "
+        "design.max_parallel (1); passes with 2 × 600 kcmil (design.max_parallel = 2)"
+    )
+
+
+def test_no_spacing_whatif_is_sized_under_nec():
+    # the 12 source circuits of test_no_trench_spacing_is_offered_under_nec: Table
+    # 310.15(C)(1) counts the trench's conductors whatever their spacing, so the remedies size
+    # no spacing what-if (only the larger sizes, more sets and both)
+    inp, _ = _combiner_10_awg()
+    d = _design(ground_temp_c=20.0, sizes_string_mm2=tuple(size_from_label(["12 AWG"])))
+    r = calc.size_circuits(inp, d, "nec")
+    whatifs = WhatIfs("nec")
+    ids = np.array([f"S{i}" for i in range(12)] + ["A"])
+    remedies(inp, d, "nec", r, ids, np.array(["seg"] * 13), np.array(["T1", "T2"]),
+             MAX_PARALLEL, whatifs)  # fmt: skip
+    assert whatifs.kept and not [k for k in whatifs.kept if "spacing" in k]

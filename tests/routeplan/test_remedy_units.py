@@ -35,7 +35,7 @@ import numpy as np
 
 import calc
 from routeplan.pipeline import MAX_PARALLEL
-from routeplan.remedy import remedies
+from routeplan.remedy import WhatIfs, _sorted_codes, remedies
 from tests.calc.test_engine_input_edges import _input as calc_input
 
 SPACING_TEXT = "(design.spacing_m where a trench has none)"
@@ -434,3 +434,142 @@ def test_circuits_grouped_in_air_without_any_trench_are_given_a_size_not_a_spaci
     assert result.factor_group.tolist() == [0.8, 0.8] and not result.ok.any()
     text = f"{STRING_LIMIT}; passes with 6 mm² (add 6 to design.sizes_mm2.string)"
     assert _remedies(inp, dp, segments=0) == [f"governed by G0; {text}", f"governed by G1; {text}"]
+
+
+def _sized_whatifs(inp, dp, segments: int = 1):
+    """The remedy texts of ``inp`` (as :func:`_remedies`) and the what-ifs they sized, by key."""
+    result = calc.size_circuits(inp, dp, rules="iec")
+    n = len(result.ok)
+    whatifs = WhatIfs("iec")
+    texts = remedies(
+        inp,
+        dp,
+        "iec",
+        result,
+        np.array([f"C{i}" for i in range(n)], dtype=object),
+        np.array([f"G{i}" for i in range(n)], dtype=object),
+        np.array([f"T-{k}" for k in range(segments)], dtype=object),
+        MAX_PARALLEL,
+        whatifs,
+    )
+    return texts.tolist(), whatifs.kept
+
+
+def test_a_string_at_index_0_names_its_feeder_above_it():
+    # test_a_string_and_its_feeder_must_both_grow with the two circuits in the other order:
+    # the string (index 0) passes with 10 mm² once its array cable (index 1) is 50 mm²; the
+    # walk up the chain goes on from index 0 like from any other
+    inp = _input(
+        kind=[0, 1],
+        parent=[1, -1],
+        n_strings=[1, 10],
+        cable_m=[100.0, 100.0],
+        inc_circuit=[0, 1],
+        inc_segment=[0, 1],
+        **_segments([0.0, 0.0]),
+    )
+    dp = calc.DesignParams(sizes_array_mm2=(16,), sizes_string_mm2=(4,))
+    assert _remedies(inp, dp, segments=2)[0] == (
+        "limited by largest size in design.sizes_mm2.string (4 mm²), design.drop_pct.string, "
+        "design.drop_pct.dc_total (the drop through its feeders); passes with 10 mm² once C1 "
+        "is 50 mm² (add 10 to design.sizes_mm2.string; add 50 to design.sizes_mm2.array)"
+    )
+
+
+def test_a_circuit_saved_by_another_circuits_change_is_not_credited_with_it():
+    # an array cable C0 of 6 strings of I_SC 20 A (design 6 · 1.25 · 20 = 150 A) and a string
+    # C1 of I_SC 24 A (design 30 A) that is not under it, one touching trench. 16 mm² only,
+    # max_parallel 2: C0 fails with 2 sets (3 circuits 0.65 · 2 · 100 = 130 A < 150 A), and C1
+    # fails (0.65 · 43.78 = 28.46 A < 30 A). With the larger array sizes C0 is one set of
+    # 70 mm² (0.75 · 225 = 168.75 A ≥ 150 A; 50 mm²: 0.75 · 183 = 137.25 A < 150 A): the trench
+    # holds 2 circuits and C1's 4 mm² passes unchanged (0.75 · 43.78 = 32.83 A ≥ 30 A). No cable
+    # of C1's own chain changed and it needs no setting: that what-if gives C1 no remedy (the
+    # array's own text names the change). At 0.25 m, 3 circuits: C0 0.80 · 2 · 100 = 160 A,
+    # C1 0.80 · 43.78 = 35.02 A: both pass.
+    inp = _input(
+        kind=[1, 0],
+        parent=[-1, -1],
+        n_strings=[6, 1],
+        isc_a=[20.0, 24.0],
+        inc_circuit=[0, 1],
+        inc_segment=[0, 0],
+        **_segments([0.0]),
+    )
+    dp = calc.DesignParams(sizes_array_mm2=(16,), sizes_string_mm2=(4,), max_parallel=2)
+    spacing = f"passes with spacing_m = 0.25 on trench T-0 {SPACING_TEXT}"
+    assert _remedies(inp, dp) == [
+        "governed by G0; limited by largest size in design.sizes_mm2.array (16 mm²), "
+        "design.max_parallel (2); passes with 70 mm² (add 70 to design.sizes_mm2.array); "
+        f"or {spacing}",
+        f"governed by G1; {STRING_LIMIT}; {spacing}",
+    ]
+
+
+def test_the_whatifs_sized_are_named_by_what_they_change():
+    # the long string of test_a_long_string_is_given_the_first_larger_size_that_keeps_its_drop:
+    # the larger string sizes (IEC 60228 sizes beyond the list) save it, so no other what-if
+    # is sized (alone in its trench, it fails on drop: no spacing either); the what-if is kept,
+    # under a key naming the setting it changes, in the WhatIfs given
+    inp = _input(
+        kind=[0], cable_m=[400.0], parent=None, inc_circuit=[0], inc_segment=[0], **_segments([0.0])
+    )
+    dp = calc.DesignParams(sizes_string_mm2=(4,))
+    texts, kept = _sized_whatifs(inp, dp)
+    assert texts[0].endswith("passes with 25 mm² (add 25 to design.sizes_mm2.string)")
+    assert list(kept) == [
+        "[('sizes_string_mm2', '(4.0, 6.0, 10.0, 16.0, 25.0, 35.0, 50.0, 70.0, 95.0, 120.0, "
+        "150.0, 185.0, 240.0)')]"
+    ]
+    assert kept[next(iter(kept))]["size_mm2"].tolist() == [25.0]
+
+
+def test_no_wider_setting_is_tried_at_the_highest_max_parallel_nor_spacing_for_a_lone_set():
+    # the a.c. cable of test_a_circuit_no_change_can_save_keeps_only_its_limits (2500 A,
+    # nothing saves it). With max_parallel 1 its one set is alone in the trench (group factor
+    # 1): larger sizes, more sets and both are tried, no spacing (none changes a lone set).
+    # With max_parallel at the highest site.toml accepts no wider setting exists: larger sizes
+    # only, then the spacings for its 12 touching sets (0.36).
+    inp = _input(kind=[2], ac_kva=[1500.0], inc_circuit=[0], inc_segment=[0], **_segments([0.0]))
+    sizes = (
+        "[('sizes_ac_mm2', '(16.0, 25.0, 35.0, 50.0, 70.0, 95.0, 120.0, 150.0, 185.0, 240.0, "
+        "300.0)')]"
+    )
+    wide = f"[('max_parallel', '{MAX_PARALLEL}')]"
+    both = f"[('max_parallel', '{MAX_PARALLEL}'), ('sizes_ac_mm2', " + sizes.split(", ", 1)[1]
+    _, kept = _sized_whatifs(inp, calc.DesignParams(sizes_ac_mm2=(16,), max_parallel=1))
+    assert list(kept) == [sizes, wide, both]
+    dp = calc.DesignParams(sizes_ac_mm2=(16,), max_parallel=MAX_PARALLEL)
+    texts, kept = _sized_whatifs(inp, dp)
+    assert list(kept) == [sizes, "spacing_m 0.25", "spacing_m 0.5"]
+    assert texts == [
+        "governed by G0; limited by largest size in design.sizes_mm2.ac (16 mm²), "
+        f"design.max_parallel ({MAX_PARALLEL}), design.drop_pct.ac"
+    ]
+
+
+def test_a_circuit_failing_for_a_reason_no_setting_here_changes_has_no_limit_nor_remedy():
+    # Ib 5000 A on an a.c. cable in air: above the largest IEC 60947-2 breaker rating (4000 A,
+    # from memory; tests/calc/test_engine_notes.py), so it fails with no protective device,
+    # neither on capacity nor on drop; no size, set or spacing gives it one: an empty text
+    # (the schedule's note says why)
+    inp = calc.SizingInput(
+        kind=np.array([2], dtype=np.int8),
+        cable_m=np.array([10.0]),
+        air_m=np.array([10.0]),
+        ac_kva=np.array([3000.0]),
+        ac_v=np.array([800.0]),
+        ac_max_a=np.array([5000.0]),
+    )
+    dp = calc.DesignParams(max_parallel=8)
+    assert _remedies(inp, dp, segments=0) == [""]
+
+
+def test_trench_names_are_ranked_as_python_sorts_their_text():
+    # the documented behaviour of _sorted_codes: each value's rank among the distinct values
+    # in Python's order of their text ("T-10" before "T-2"); a missing name (None) is a value
+    # of its own, written "nan" (pandas.factorize with use_na_sentinel=False), never given
+    # another name's rank
+    rank, text = _sorted_codes(np.array(["T-2", "T-10", "T-2", "A"], dtype=object))
+    assert rank.tolist() == [2, 1, 2, 0] and text.tolist() == ["A", "T-10", "T-2"]
+    rank, text = _sorted_codes(np.array(["T-2", None, "T-1"], dtype=object))
+    assert rank.tolist() == [1, 2, 0] and text.tolist() == ["T-1", "T-2", "nan"]
