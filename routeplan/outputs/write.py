@@ -14,6 +14,7 @@ from __future__ import annotations
 import hashlib
 import json
 import stat
+import sys
 import time
 from collections.abc import Callable
 from pathlib import Path
@@ -331,7 +332,7 @@ def _write_files(
     copied: dict[str, int] = {}
     say("write report")  # first: it needs only the plan, and runs while the rows are hashed
     summary = dict(plan.summary, inputs=input_digest(plan))
-    report = parallel.start(lambda: _write_report(plan, summary, tmp), nice=_REPORT_NICE)
+    report = parallel.start(lambda: _write_report(plan, summary, tmp), nice=_report_nice())
     jobs.append(report)
     rows, equipment = rows_frame(plan), equipment_frame(plan)
     t0 = time.perf_counter()
@@ -433,10 +434,13 @@ def _gpkg_layers(
     }
 
 
-#: the report's process yields the cores to the map's and this one while they compete: on a
-#: 1 GW pad-move re-plan the commit waits for the map and the files more than for the report
-#: (median of 12 watch re-plans 1.93 s at 0 against 1.77 s at 10; a cold run the same)
-_REPORT_NICE = 10
+def _report_nice() -> int:
+    """The niceness added to the report's process: 10 when this process has drawn a chart
+    already (a watching process warms matplotlib up while it waits), so that the report's
+    short work yields the cores to the map's and this one, which the commit waits for (1 GW
+    pad-move re-plans in a watching process, median of 12: 1.93 s at 0, 1.77 s at 10); 0
+    otherwise, where the report imports matplotlib first and is the longest job."""
+    return 10 if "matplotlib.backends.backend_svg" in sys.modules else 0
 
 #: the files written by child processes (:mod:`routeplan.parallel`) while the main process
 #: writes the others

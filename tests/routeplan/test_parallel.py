@@ -75,3 +75,17 @@ def test_a_nice_job_runs_at_a_lower_priority_and_this_process_keeps_its_own(tmp_
     job.wait()
     assert int(out.read_text()) == min(mine + 5, 19)  # POSIX: niceness stops at 19
     assert os.nice(0) == mine
+
+
+def test_the_report_yields_the_cores_only_once_its_charts_are_warm():
+    """A new process's report imports matplotlib first (the longest job: not niced); after
+    the watching process's warm-up it is short and yields to the map and the main process."""
+    import subprocess
+    import sys
+
+    code = (
+        "import routeplan.outputs.write as w; print(w._report_nice()); "
+        "from routeplan.report.plots import warm_up; warm_up(); print(w._report_nice())"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert done.stdout.split() == ["0", "10"]
