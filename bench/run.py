@@ -93,6 +93,10 @@ def move_pad(site_dir: Path, dy_m: float = 8.0) -> str:
     return str(inv["id"].iloc[0])
 
 
+#: each process measurement of the edit-and-regenerate table is the median of this many runs
+REPEATS = 5
+
+
 def _cli_plan_s(site: Path, out: Path) -> float:
     """Wall time of ``routeplan plan SITE --out OUT -q`` as a new process (imports included);
     exit status 1 (some circuits fail a limit: the generator makes a few on purpose) is fine."""
@@ -106,10 +110,11 @@ def _cli_plan_s(site: Path, out: Path) -> float:
     return seconds
 
 
-def _watch_replan_s(site: Path, out: Path) -> tuple[float, float]:
+def _watch_replan_s(site: Path, out: Path, moves: int = REPEATS) -> tuple[list, list]:
     """A watching process (``routeplan plan SITE --out OUT --watch``) after its first plan:
-    one inverter pad moved and saved; the wall time from the save to the re-plan's summary
-    printed (the poll that sees the change included) and the time the process reports for the
+    one inverter pad moved and saved, ``moves`` times (2 s idle before each, as between a
+    designer's edits); for each, the wall time from the save to the re-plan's summary printed
+    (the poll that sees the change included) and the time the process reports for the
     re-plan itself (from reading the site to the outputs committed)."""
     import signal
 
@@ -125,17 +130,19 @@ def _watch_replan_s(site: Path, out: Path) -> tuple[float, float]:
                 return float(m.group(1))
         raise SystemExit("the watching process stopped: " + proc.stderr.read())
 
+    walls, reported = [], []
     try:
         planned()
-        time.sleep(2.0)  # idle, as between a designer's edits
-        move_pad(site)
-        t0 = time.perf_counter()
-        reported = planned()
-        wall = time.perf_counter() - t0
+        for _ in range(moves):
+            time.sleep(2.0)  # idle, as between a designer's edits
+            move_pad(site)
+            t0 = time.perf_counter()
+            reported.append(planned())
+            walls.append(time.perf_counter() - t0)
     finally:
         proc.send_signal(signal.SIGINT)
         proc.communicate(timeout=120)
-    return wall, reported
+    return walls, reported
 
 
 def edit_and_replan(site_dir: Path, work: Path) -> dict:
@@ -168,15 +175,24 @@ def edit_and_replan(site_dir: Path, work: Path) -> dict:
 
     cli_site, cli_out = work / "edit_site_cli", work / "edit_out_cli"
     shutil.copytree(site_dir, cli_site)
-    cli_full_s = _cli_plan_s(cli_site, cli_out)
-    move_pad(cli_site)
-    cli_replan_s = _cli_plan_s(cli_site, cli_out)
+    cli_full = []
+    for _ in range(REPEATS):  # each into a new folder: a full run
+        shutil.rmtree(cli_out, ignore_errors=True)
+        cli_full.append(_cli_plan_s(cli_site, cli_out))
+    cli_replan = []
+    for _ in range(REPEATS):
+        move_pad(cli_site)
+        cli_replan.append(_cli_plan_s(cli_site, cli_out))
     watch_site = work / "edit_site_watch"
     shutil.copytree(site_dir, watch_site)
-    watch_wall_s, watch_replan_s = _watch_replan_s(watch_site, work / "edit_out_watch")
+    watch_walls, watch_replans = _watch_replan_s(watch_site, work / "edit_out_watch")
+    cli_full_s, cli_replan_s = float(np.median(cli_full)), float(np.median(cli_replan))
     return {
-        "watch_wall_s": watch_wall_s,
-        "watch_replan_s": watch_replan_s,
+        "watch_wall_s": float(np.median(watch_walls)),
+        "watch_replan_s": float(np.median(watch_replans)),
+        "watch_replans_s": watch_replans,
+        "cli_full_runs_s": cli_full,
+        "cli_replans_s": cli_replan,
         "pad": pad,
         "full_s": full_s,
         "replan_s": replan_s,
@@ -715,12 +731,15 @@ def report(res: dict) -> str:
             "output folder. *Full run*: the same plant planned with its cache written, as "
             "`routeplan plan` does it. In-process: plan + write after the imports. As "
             "processes: wall time of `routeplan plan SITE --out OUT -q`, interpreter start and "
-            "imports included. *Watching*: a `routeplan plan SITE --out OUT --watch` process "
-            "left idle after its first plan, the pad moved and saved; the re-plan as the "
-            "process reports it (site read to outputs committed) and the wall time from the "
-            "save to its summary (the 0.1 s polls that see the change and see it settled "
-            "included); its ratio is to the full run as a process. The re-plan's CSV files are "
-            "compared byte for byte with a cold run of the edited site.",
+            f"imports included (full: the median of {REPEATS} runs into a new folder; re-plan: "
+            f"the median of {REPEATS} moves). *Watching*: a `routeplan plan SITE --out OUT "
+            f"--watch` process left idle after its first plan, the pad moved and saved {REPEATS} "
+            "times (2 s "
+            "apart); the median re-plan as the process reports it (site read to outputs "
+            "committed) and the median wall time from the save to its summary (the 0.1 s polls "
+            "that see the change and see it settled included); its ratio is to the full run as "
+            "a process. The re-plan's CSV files are compared byte for byte with a cold run of "
+            "the edited site.",
             "",
             "| plant | full run [s] | re-plan [s] | ratio | · planning [s] | process: full [s] "
             "| process: re-plan [s] | ratio | watching: re-plan [s] | ratio | save → summary [s] "
@@ -806,10 +825,14 @@ def report(res: dict) -> str:
         ratio = e["replan_s"] / e["full_s"]
         cli = e["cli_replan_s"] / e["cli_full_s"]
         watching = e["watch_replan_s"] / e["cli_full_s"]
+        verdict = "yes" if max(ratio, cli) <= 0.25 else "no"
+        if verdict == "no" and watching <= 0.25:
+            verdict = "in a watching process; not as a new process"
         out.append(
             f"| edit and regenerate ≤ 25 % of the full run | {100 * ratio:.0f} % in-process, "
             f"{100 * cli:.0f} % as processes, {100 * watching:.0f} % in a watching process "
-            f"| {'yes' if max(ratio, cli) <= 0.25 else 'no'} |"
+            f"(of the full run as a process) "
+            f"| {verdict} |"
         )
     out.append("")
     return "\n".join(out)
