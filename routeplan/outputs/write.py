@@ -442,6 +442,7 @@ def _report_nice() -> int:
     otherwise, where the report imports matplotlib first and is the longest job."""
     return 10 if "matplotlib.backends.backend_svg" in sys.modules else 0
 
+
 #: the files written by child processes (:mod:`routeplan.parallel`) while the main process
 #: writes the others
 _CHILD_FILES = ("map.html", "report.html")
