@@ -220,6 +220,9 @@ class _Column:
 
 @dataclass
 class _Table:
+    """One table as :class:`HashMemo` keeps it: its column names and columns, its geometries
+    (the objects, copied) and their hashes, and its rows' hashes."""
+
     names: list[str]
     columns: list[_Column]
     geometry: np.ndarray | None
