@@ -277,12 +277,13 @@ def _table_digest(path: Path, table: str) -> str | None:
             "ESCAPE '\\' ORDER BY name"
         ).fetchall()
         for (name,) in meta:
-            columns = [r[1] for r in con.execute(f'PRAGMA table_info("{name}")')]
+            quoted = '"' + str(name).replace('"', '""') + '"'  # an SQL identifier
+            columns = [r[1] for r in con.execute(f"PRAGMA table_info({quoted})")]
             where = (
                 ' WHERE "table_name" = ? OR "table_name" IS NULL' if "table_name" in columns else ""
             )
             rows = con.execute(
-                f'SELECT * FROM "{name}"{where} ORDER BY rowid', (table,) if where else ()
+                f"SELECT * FROM {quoted}{where} ORDER BY rowid", (table,) if where else ()
             ).fetchall()
             h.update(repr((name, rows)).encode("utf-8"))
         size = int(con.execute("PRAGMA page_size").fetchone()[0])

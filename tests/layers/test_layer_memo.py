@@ -139,3 +139,26 @@ def test_a_frame_from_memory_is_a_copy(tmp_path):
     taken.loc[1, "id"] = "changed too"
     assert memo.frame(root, spec, digest)["id"].tolist() == ["R1", "R2"]
     assert memo.frame(root, spec, "another digest") is None
+
+
+def test_a_metadata_table_with_a_quote_in_its_name_is_read_as_data(tmp_path, reads):
+    """Names from the file are SQL identifiers, quoted: a hostile name neither breaks the
+    digest (the memo stays on) nor is run as SQL; an edit of that table's rows is seen."""
+    root = write_site(tmp_path / "s", fmt="site.gpkg")
+    odd = 'gpkg_odd" (x); DROP TABLE rows; --'
+    quoted = '"' + odd.replace('"', '""') + '"'
+    with sqlite3.connect(root / "site.gpkg") as con:
+        con.execute(f"CREATE TABLE {quoted} (table_name TEXT, v INTEGER)")
+        con.execute(f"INSERT INTO {quoted} VALUES ('rows', 1)")
+    memo = LayerMemo()
+    assert memo.digest(root, "site.gpkg:rows") is not None
+    layers.read_site(root, memo)
+    reads.clear()
+    layers.read_site(root, memo)
+    assert reads == []  # every layer from memory
+    with sqlite3.connect(root / "site.gpkg") as con:
+        con.execute(f"UPDATE {quoted} SET v = 2")  # a record of the rows layer
+    reads.clear()
+    site, fresh = _read_twice(root, memo)
+    assert reads.count("rows") == 2 and reads.count("trenches") == 1
+    _same_site(site, fresh)
