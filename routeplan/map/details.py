@@ -122,11 +122,6 @@ def _text_tokens(values: list[str]) -> list[str]:
     ]
 
 
-def _ints(values) -> str:
-    """A JSON list of integers (a list or an integer array)."""
-    return ints_json(values)
-
-
 def _index_digits(m: int) -> np.ndarray:
     """The number of decimal digits of each of 0, 1, …, ``m`` - 1.
 
@@ -253,7 +248,7 @@ class _Column:
         distinct = 2 + max(m - 1, 0) + int(lengths.sum())
         coded = 5 + distinct + 6 + int(counts @ digits) + max(n - 1, 0) + 2
         if coded < plain:
-            return '{"v":[' + ",".join(self.distinct) + '],"i":' + _ints(self.codes) + "}"
+            return '{"v":[' + ",".join(self.distinct) + '],"i":' + ints_json(self.codes) + "}"
         texts = self.texts
         return "[" + ",".join([texts[t] for t in self.tok.tolist()]) + "]"
 
@@ -339,7 +334,7 @@ def _table_text(
             + ",".join("[" + ",".join(r) + "]" for r in table)
             + "]}"
         )
-        out += ',"p":' + body[:-1] + ',"i":' + _ints(inverse.reshape(-1)) + "}"
+        out += ',"p":' + body[:-1] + ',"i":' + ints_json(inverse.reshape(-1)) + "}"
     elif profile:  # one column only: as a column of its own
         name = profile[0]
         out = out[:-1] + ("," if parts else "") + f"{key_text(name)}:{text(name)}}}"
@@ -775,8 +770,7 @@ def review_json(
             tables.append(memo.table(key, df, columns, hashes[i], extra))
         else:
             names = [c for c in columns if c in df.columns]
-            frame = _frame(df, names, extra)
-            tables.append(_table_text(len(df), {c: _Column.of(frame, c) for c in names}, {}))
+            tables.append(table_json(_frame(df, names, extra), columns))
     circuit_ids = _text(circuits, "circuit_id").to_numpy(dtype=object)
     segment_ids = _text(segments, "segment_id").to_numpy(dtype=object)
     if memo is not None and hashes is not None:
@@ -801,8 +795,8 @@ def review_json(
     dec = {k: v for k, v in DECIMALS.items() if v}
     parts = [
         *(f'"{key}":{text}' for (key, *_), text in zip(specs, tables, strict=True)),
-        '"sc":{"k":' + _ints(counts) + ',"x":' + _ints(flat) + "}",
-        '"cs":{"k":' + _ints(c_counts) + ',"x":' + _ints(c_flat) + "}",
+        '"sc":{"k":' + ints_json(counts) + ',"x":' + ints_json(flat) + "}",
+        '"cs":{"k":' + ints_json(c_counts) + ',"x":' + ints_json(c_flat) + "}",
         script_safe(f'"lim":{json.dumps(limits, sort_keys=True)}'),
         script_safe(f'"dec":{json.dumps(dec, sort_keys=True, separators=(",", ":"))}'),
     ]

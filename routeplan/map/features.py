@@ -393,10 +393,6 @@ def _strings_json(bodies: np.ndarray) -> str:
     return '["' + '","'.join(np.asarray(bodies).tolist()) + '"]' if len(bodies) else "[]"
 
 
-def _ints_json(values) -> str:
-    return ints_json(values)
-
-
 def _column_json(bodies: np.ndarray) -> str:
     """One property column: a list of strings, or ``{"v": distinct values, "i": indices}``
     (``{"v": [value]}`` when all are equal) where that is shorter."""
@@ -409,7 +405,7 @@ def _column_json(bodies: np.ndarray) -> str:
     coded = int(np.strings.str_len(np.asarray(uniques, dtype=_STR)).sum()) + 3 * len(uniques)
     if coded + int(digits.sum()) + 12 >= plain:
         return _strings_json(bodies)
-    return '{"v":' + _strings_json(uniques) + ',"i":' + _ints_json(codes) + "}"
+    return '{"v":' + _strings_json(uniques) + ',"i":' + ints_json(codes) + "}"
 
 
 def columns_text(geoms: np.ndarray, props: Props | None, index: np.ndarray) -> str:
@@ -433,7 +429,7 @@ def columns_text(geoms: np.ndarray, props: Props | None, index: np.ndarray) -> s
         if len(uniques) == 1:
             parts.append(f'"t":{json.dumps(uniques[0])}')
         else:
-            parts.append(f'"t":{{"v":{json.dumps(list(uniques))},"i":{_ints_json(codes)}}}')
+            parts.append(f'"t":{{"v":{json.dumps(list(uniques))},"i":{ints_json(codes)}}}')
         # '{"type":"<T>","coordinates":<X>}' -> <X>
         start = np.array([len(f'{{"type":"{t}","coordinates":') for t in uniques])[codes]
         coords = [g[k:-1] for g, k in zip(geo, start.tolist(), strict=True)]
@@ -444,7 +440,7 @@ def columns_text(geoms: np.ndarray, props: Props | None, index: np.ndarray) -> s
     if n and (index == index[0]).all():
         parts.append(f'"s":{int(index[0])}')
     else:
-        parts.append(f'"s":{_ints_json(index)}')
+        parts.append(f'"s":{ints_json(index)}')
     cols = [f"{json.dumps(k)}:{_column_json(_json_bodies(v))}" for k, v in (props or {}).items()]
     parts.append('"p":{' + ",".join(cols) + "}")
     return "{" + ",".join(parts) + "}"
