@@ -10,10 +10,19 @@ site and returns the same :class:`~routeplan.pipeline.Plan` a full plan of the e
    joins it to the network built once without it, :func:`routeplan.network.retap`). Segments
    are matched to the baseline's by ``segment_id`` and length (compared at small shifts of
    position first: the order of segments is kept): a moved tap splits a segment where it now
-   joins and frees the one where it joined before.
+   joins and frees the one where it joined before. After a **trench edit** (a trench added,
+   removed, redrawn or given other attributes, :func:`site_edit`) the trenches are checked
+   as routing checks them (:func:`routeplan.network.trench_problems`) and noded again, and
+   segments match only where their geometry is the same too (a trench moved as a whole
+   keeps its segments' ids and lengths); every segment's attributes are read again, and a
+   segment whose depth, laying, spacing or soil differs counts as changed.
 2. **Routes** of the circuits of a moved feature and of every circuit whose route used a
    segment that no longer exists (same path, new segments); one Dijkstra search per
-   destination, as a full plan searches. The incidence is the baseline's with those circuits'
+   destination, as a full plan searches. After a trench edit every circuit is searched again
+   (an added or redrawn trench can shorten any route) and the circuits whose path differs
+   from their old route, segment for segment, are the rerouted ones; circuits whose ends now
+   lie on separate islands leave it to the full plan, which reports them. The incidence is
+   the baseline's with those circuits'
    rows replaced; segment counts are the carried counts less the old routes plus the new
    ones; circuit lists are joined again only for the segments whose circuits changed. The air
    stretches keep their rows (one per tap and per row): a moved stub's length changes, and
@@ -56,11 +65,12 @@ any circuit's size, so nothing smaller is re-sized.
 Destinations chosen by route length (a row, combiner or inverter without ``to``) are chosen
 again on the edited network, as routing chooses them; where every feature keeps its
 destination the re-plan stays local (with the new route lengths in the plan's ``assignment``),
-where one changes it falls back to a full plan. Anything else — trenches, rows, modules,
-strings, attributes of equipment, settings that route, a move together with a settings
-change — falls back to a full plan. :func:`replan` says which it did in
-``Plan.timings_s["local"]``: 1.0 local, 0.5 routes reused and every circuit sized again, 0.0
-full. The result is a design aid, to be reviewed by a qualified, licensed person.
+where one changes it falls back to a full plan. Moves and trench edits may come together in
+one re-plan. Anything else — rows, modules, strings, attributes of equipment, the grid,
+settings that route, an edit together with a settings change — falls back to a full plan.
+:func:`replan` says which it did in ``Plan.timings_s["local"]``: 1.0 local, 0.5 routes reused
+and every circuit sized again, 0.0 full. The result is a design aid, to be reviewed by a
+qualified, licensed person.
 """
 
 from __future__ import annotations
@@ -86,7 +96,7 @@ from .circuits import KINDS, assign_destinations
 from .config import DesignConfig
 from .errors import DesignError
 from .inputs import assign_inputs, input_table, landing_input
-from .network import TRENCH_ATTRIBUTES, TrenchNetwork, retap
+from .network import TRENCH_ATTRIBUTES, TrenchNetwork, retap, trench_problems
 from .order import inverter_of, schedule_order
 from .pipeline import (
     Plan,
@@ -278,10 +288,19 @@ def _same_modules(a: dict, b: dict) -> bool:
 
 def moved_features(old: Site, new: Site) -> dict[str, np.ndarray] | None:
     """Rows of the combiner and inverter layers whose geometry differs between the sites, or
-    None when anything else differs (a local re-plan does not apply)."""
+    None when anything else differs (a move alone: a local re-plan of moves applies)."""
+    edit = site_edit(old, new)
+    return None if edit is None or edit[1] else edit[0]
+
+
+def site_edit(old: Site, new: Site) -> tuple[dict[str, np.ndarray], bool] | None:
+    """What differs between the sites, where a local re-plan applies: the rows of the combiner
+    and inverter layers whose geometry differs, and whether the trench layer differs in
+    anything (a trench added, removed, redrawn or given other attributes); None when anything
+    else differs (rows, the grid, modules, the CRS, attributes of equipment)."""
     if old.crs != new.crs or not _same_modules(old.modules, new.modules):
         return None
-    for name in ("trenches", "rows", "grid"):
+    for name in ("rows", "grid"):
         if not _same_frame(old.layer(name), new.layer(name)):
             return None
     moved = {}
@@ -294,7 +313,7 @@ def moved_features(old: Site, new: Site) -> dict[str, np.ndarray] | None:
             return None
         ga, gb = np.asarray(a.geometry.array), np.asarray(b.geometry.array)
         moved[name] = np.flatnonzero(~_equal_geometries(ga, gb))
-    return moved
+    return moved, not _same_frame(old.trenches, new.trenches)
 
 
 def replan(
@@ -304,15 +323,16 @@ def replan(
     *,
     network: TrenchNetwork | None = None,
 ) -> Plan:
-    """The plan of ``site`` (the baseline's site with combiners or inverters moved), recomputing
-    only what the move can change (see the module docstring); a full plan where the edit is of
-    another kind. ``network``: the edited site's network when the caller has it
+    """The plan of ``site`` (the baseline's site with combiners or inverters moved, or trenches
+    edited), recomputing only what the edit can change (see the module docstring); a full plan
+    where the edit is of another kind. ``network``: the edited site's network when the caller has it
     (:func:`routeplan.network.retap`). Raises as :func:`routeplan.pipeline.plan_site` does."""
     t0 = time.perf_counter()
     old = base.plan
     design = old.design if design is None else design
-    if _applies(base, site, design):
-        out = _local(base, site, design, t0, network=network, light=False)
+    edit = _edit_of(base, site, design)
+    if edit is not None:
+        out = _local(base, site, design, t0, network=network, light=False, trenches=edit[1])
         if out is not None:
             return out
     if _settings_only(base, site, design):  # the routes hold: every circuit sized again
@@ -335,9 +355,9 @@ def from_cache(
     output folder's :class:`~routeplan.cache.PlanCache`, after :func:`routeplan.pipeline.plan`
     read the site through it), with remedies, as :func:`routeplan.pipeline.plan_site` would
     give it with the same cache; None where a local re-plan does not apply — the last run kept
-    no site, routes or sizing, the site differs by more than moved combiners or inverters
-    (:func:`moved_features`), nothing moved (the cached routes hold), or a design setting that
-    routes or sizes changed — and the caller plans as usual.
+    no site, routes or sizing, the site differs by more than moved combiners or inverters and
+    edited trenches (:func:`site_edit`), nothing changed (the cached routes hold), or a design
+    setting that routes or sizes changed — and the caller plans as usual.
 
     The new routes, sizing and remedies are kept in the cache for the next run, under the keys
     a full plan would use; ``cache.reused["local"]`` says the last plan was re-planned."""
@@ -356,8 +376,8 @@ def from_cache(
     say("route")
     t0 = time.perf_counter()
     old_site = cache.latest("site")
-    moved = moved_features(old_site, site) if old_site is not None else None
-    if moved is None or not any(len(v) for v in moved.values()):
+    edit = site_edit(old_site, site) if old_site is not None else None
+    if edit is None or not (edit[1] or any(len(v) for v in edit[0].values())):
         return None
     base = last_baseline(cache, design, old_site)
     if base is None or repr(base.plan.routes.params) != repr(params):
@@ -371,8 +391,9 @@ def from_cache(
     if cache.last_key("whatif") == digest("whatif", old_size_key):
         before = cache.latest("whatif")
     plan = _local(
-        base, site, design, t0, network=net, light=False, whatifs=whatifs, whatifs_before=before
-    )
+        base, site, design, t0, network=net, light=False, trenches=edit[1], whatifs=whatifs,
+        whatifs_before=before,
+    )  # fmt: skip
     if plan is None:
         return None
     t.update(plan.timings_s)
@@ -441,11 +462,15 @@ def _settings_only(base: Baseline, site: Site, design: DesignConfig) -> bool:
     return moved is not None and not any(len(v) for v in moved.values())
 
 
-def _applies(base: Baseline, site: Site, design: DesignConfig) -> bool:
+def _edit_of(
+    base: Baseline, site: Site, design: DesignConfig
+) -> tuple[dict[str, np.ndarray], bool] | None:
+    """:func:`site_edit` of the baseline's site and ``site``; None also where the design
+    differs from the baseline's (a local re-plan does not apply)."""
     old = base.plan
-    return (design is old.design or design == old.design) and moved_features(
-        old.site, site
-    ) is not None
+    if not (design is old.design or design == old.design):
+        return None
+    return site_edit(old.site, site)
 
 
 @dataclass(frozen=True, eq=False)
@@ -481,8 +506,9 @@ def figures(base: Baseline, site: Site, network: TrenchNetwork | None = None) ->
     re-plan; where one does not apply, the full plan (which has the same columns)."""
     t0 = time.perf_counter()
     old = base.plan
-    if base.figure_static is not None and _applies(base, site, old.design):
-        out = _local(base, site, old.design, t0, network=network, light=True)
+    edit = _edit_of(base, site, old.design) if base.figure_static is not None else None
+    if edit is not None:
+        out = _local(base, site, old.design, t0, network=network, light=True, trenches=edit[1])
         if out is not None:
             return out
     plan = plan_site(site, old.design, noding_memo=old.routes.network.memo, with_remedies=False)
@@ -498,23 +524,31 @@ def _local(
     *,
     network: TrenchNetwork | None,
     light: bool,
+    trenches: bool = False,
     whatifs: WhatIfs | None = None,
     whatifs_before: dict | None = None,
 ) -> Plan | Figures | None:
-    """The local re-plan (see the module docstring); None where it cannot be made (a feature
-    left unconnected, inputs that cannot be assigned: the full plan reports why). ``light``:
-    :class:`Figures` only. ``whatifs``: remedies are computed, their what-ifs re-sized from
-    ``whatifs_before`` (the last run's, :class:`routeplan.remedy.WhatIfs`'s ``kept``) and
-    kept in ``whatifs``."""
+    """The local re-plan (see the module docstring); None where it cannot be made (trench
+    geometry the network refuses, a feature left unconnected, circuits whose ends lie on
+    separate islands, inputs that cannot be assigned: the full plan reports why). ``light``:
+    :class:`Figures` only. ``trenches``: the trench layer differs from the baseline's.
+    ``whatifs``: remedies are computed, their what-ifs re-sized from ``whatifs_before`` (the
+    last run's, :class:`routeplan.remedy.WhatIfs`'s ``kept``) and kept in ``whatifs``."""
     t: dict[str, float] = {}
     old = base.plan
     r0 = old.routes
     params = r0.params
     net0 = r0.network
+    if trenches and trench_problems(site.trenches, params.node_tol_m, params.snap_m):
+        return None  # trench geometry the network refuses: the full plan reports it
     net = network if network is not None else site_network(site, params, net0.memo)
     taps0, taps = net0.taps, net.taps
-    if not taps["connected"].to_numpy(bool).all():
+    if not taps["connected"].to_numpy(bool).all() or not len(net.segments):
         return None  # a feature left unconnected: the full plan reports it
+    node = taps["node"].to_numpy(np.int64)
+    island = net.node_island
+    if np.any(island[node[base.tap_from]] != island[node[base.tap_to]]):
+        return None  # a circuit's ends on separate islands: the full plan reports it
     assignment = r0.assignment
     if assigned_destinations(r0):  # destinations chosen by route length: chosen again
         assignment = _reassigned(site, net, r0.assignment)
@@ -526,11 +560,11 @@ def _local(
     # --- segments: new ↔ old by id (same length), and what no longer exists
     seg0, seg = net0.segments, net.segments
     n_seg = len(seg)
-    new_of_old, old_of_new = _segment_map(seg0, seg)
+    new_of_old, old_of_new = _segment_map(seg0, seg, geometry=trenches)
     born = old_of_new < 0
 
     # --- circuits to route again: a changed tap at either end, or a segment gone
-    node0, node = taps0["node"].to_numpy(np.int64), taps["node"].to_numpy(np.int64)
+    node0 = taps0["node"].to_numpy(np.int64)
     stub0, stub = taps0["stub_m"].to_numpy(float), taps["stub_m"].to_numpy(float)
     tap_changed = (stub0 != stub) | np.any(net0.node_xy[node0] != net.node_xy[node], axis=1)
     tap_changed |= ~shapely.equals_exact(
@@ -542,6 +576,8 @@ def _local(
     gone = np.flatnonzero(new_of_old < 0)
     if len(gone):
         reroute[ic0[np.isin(is0, gone)]] = True
+    if trenches:  # a trench added or redrawn can shorten any route: every route searched
+        reroute |= _new_paths(net, node, base.tap_from, base.tap_to, ic0, new_of_old[is0])
     rr = np.flatnonzero(reroute)
 
     # --- route them (one search per destination)
@@ -617,9 +653,11 @@ def _local(
             own_input[input_rows] = part
             to_id = c0["to_id"].to_numpy(dtype=object)
             n_par, dc_group = input_groups(site, inp0.kind, inp0.parent, to_id, own_input)
-    # segment attributes: carried over, those of new segments read
-    nb = np.flatnonzero(born)
+    # segment attributes: carried over, those of new segments read (after a trench edit,
+    # every segment's: a trench's attributes may have changed, and with them its segments')
+    nb = np.arange(n_seg) if trenches else np.flatnonzero(born)
     seg_cols = {}
+    attr_changed = np.zeros(n_seg, dtype=bool)
     for name, col in (
         ("seg_depth_m", "depth_m"),
         ("seg_laying", "laying"),
@@ -628,7 +666,10 @@ def _local(
     ):
         v = np.asarray(getattr(inp0, name))[np.maximum(old_of_new, 0)]
         fresh = seg[col].iloc[nb]
-        v[nb] = (fresh == "duct").to_numpy(dtype=np.int8) if col == "laying" else fresh
+        fresh = (fresh == "duct").to_numpy(dtype=np.int8) if col == "laying" else fresh
+        if trenches:
+            attr_changed |= ~_same_nan(v, fresh) & ~born
+        v[nb] = fresh
         seg_cols[name] = v
     inp = dataclasses.replace(
         inp0,
@@ -650,7 +691,7 @@ def _local(
 
     # --- the affected circuits, closed over their blocks
     affected = reroute.copy()
-    count_changed = count != count0_new
+    count_changed = (count != count0_new) | attr_changed
     if count_changed.any():
         affected[inc_c[count_changed[inc_s]]] = True
     air_n = np.bincount(air_s, minlength=len(air))
@@ -800,11 +841,46 @@ def _local(
 KINDS_COLUMN = {"string": "strings", "array": "arrays", "ac": "ac", "subarray": "subarrays"}
 
 
-def _segment_map(seg0: pd.DataFrame, seg: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+def _new_paths(
+    net: TrenchNetwork,
+    node: np.ndarray,
+    tap_from: np.ndarray,
+    tap_to: np.ndarray,
+    ic0: np.ndarray,
+    is0_new: np.ndarray,
+) -> np.ndarray:
+    """Which circuits' shortest paths on ``net`` (every circuit's, one Dijkstra search per
+    destination, as routing searches) differ from their old routes: other segments, or the
+    same in another order (``node``: each tap's node; ``ic0``: the old incidence's circuits,
+    by circuit in route order; ``is0_new``: its segments in the new numbering, -1: gone)."""
+    n_c, n_taps = len(tap_from), len(node)
+    key, pair_of = np.unique(tap_from * n_taps + tap_to, return_inverse=True)
+    pair_of = pair_of.reshape(-1)
+    paths = shortest_paths(net, node[key // n_taps], node[key % n_taps])
+    n_new = np.diff(paths.offset)[pair_of]
+    n_old = np.bincount(ic0, minlength=n_c)
+    differ = n_new != n_old
+    same_len = ~differ
+    # circuits of equal length: their segments compared place by place
+    c = np.flatnonzero(same_len)
+    k = n_new[c]
+    within = np.arange(k.sum()) - np.repeat(np.cumsum(k) - k, k)
+    new_s = paths.segment[np.repeat(paths.offset[:-1][pair_of[c]], k) + within]
+    old_s = is0_new[same_len[ic0]]  # ic0 is by circuit: the same circuits, in the same order
+    bad = np.repeat(c, k)[new_s != old_s]
+    differ[bad] = True
+    return differ
+
+
+def _segment_map(
+    seg0: pd.DataFrame, seg: pd.DataFrame, geometry: bool = False
+) -> tuple[np.ndarray, np.ndarray]:
     """Each old segment's index in the new network (-1: gone) and each new one's old index
-    (-1: new), matched by id and length. Segments keep their order, so an equipment edit
-    shifts the others by at most a few places: ids are compared at shifts −2…2 first, and only
-    the few left over are looked up (an id is unique, so a match found is the match)."""
+    (-1: new), matched by id and length (``geometry``: and by geometry, exactly — after a
+    trench edit, a trench moved as a whole keeps its segments' ids and lengths). Segments keep
+    their order, so an equipment edit shifts the others by at most a few places: ids are
+    compared at shifts −2…2 first, and only the few left over are looked up (an id is unique,
+    so a match found is the match)."""
     ids0 = seg0["segment_id"].to_numpy(dtype=object)
     ids = seg["segment_id"].to_numpy(dtype=object)
     len0 = seg0["length_m"].to_numpy(float)
@@ -830,6 +906,10 @@ def _segment_map(seg0: pd.DataFrame, seg: pd.DataFrame) -> tuple[np.ndarray, np.
     ok = new_of_old >= 0
     same = np.zeros(n0, dtype=bool)
     same[ok] = len1[new_of_old[ok]] == len0[ok]
+    if geometry:
+        g0, g1 = np.asarray(seg0.geometry.array), np.asarray(seg.geometry.array)
+        at = np.flatnonzero(same)
+        same[at] = _equal_geometries(g0[at], g1[new_of_old[at]])
     old_of_new[new_of_old[ok & ~same]] = -1
     new_of_old[~same] = -1
     return new_of_old, old_of_new

@@ -40,7 +40,14 @@ from hypothesis import strategies as st
 
 from routeplan.check import load
 from routeplan.errors import DesignError, RoutingError
-from routeplan.localplan import MoveSearch, baseline, moved_features, replan
+from routeplan.localplan import (
+    MoveSearch,
+    _new_paths,
+    baseline,
+    moved_features,
+    replan,
+    site_edit,
+)
 from routeplan.network import retap
 from routeplan.pipeline import plan_site, route_params
 from routeplan.placement import _anchor, candidate_points, moved_site
@@ -215,17 +222,113 @@ def test_a_move_changes_the_plan(plants):
 
 
 def test_other_edits_fall_back_to_a_full_plan(plants):
-    """A trench edit is not a move: a full plan is made; an attribute edit is not a move."""
+    """An equipment attribute or a row's strings edited are not local edits: a full plan is
+    made. A trench edit is not a move (:func:`moved_features`), but is re-planned locally."""
     site, _design, base = plants["plain"]
+    combiners = site.combiners.copy()
+    combiners.loc[combiners.index[0], "fuse_a"] = 20.0
+    edited = dataclasses.replace(site, combiners=combiners)
+    assert moved_features(site, edited) is None and site_edit(site, edited) is None
+    assert replan(base, edited).timings_s["local"] == 0.0
+    rows = site.rows.copy()
+    rows.loc[rows.index[0], "strings"] = int(rows["strings"].iloc[0]) + 1
+    edited = dataclasses.replace(site, rows=rows)
+    assert site_edit(site, edited) is None
+    assert replan(base, edited).timings_s["local"] == 0.0
     trenches = site.trenches.copy()
     trenches.loc[trenches.index[0], "depth_m"] = 1.2
     edited = dataclasses.replace(site, trenches=trenches)
     assert moved_features(site, edited) is None
-    plan = replan(base, edited)
-    assert plan.timings_s["local"] == 0.0
-    combiners = site.combiners.copy()
-    combiners.loc[combiners.index[0], "fuse_a"] = 20.0
-    assert moved_features(site, dataclasses.replace(site, combiners=combiners)) is None
+    moved, trench_edit = site_edit(site, edited)
+    assert trench_edit and not any(len(v) for v in moved.values())
+
+
+def test_a_trench_edit_changes_the_plan_locally(plants):
+    """The trench under the most circuits made a duct (or a direct burial): its segments'
+    grouping factors change (IEC 60364-5-52:2009 Table B.52.19 for ducts, B.52.18 for cables
+    laid direct: other factors for the same circuit count, from memory), the re-plan is local
+    (fewer circuits re-sized than the plant has) and equals a cold plan."""
+    site, design, base = plants["plain"]
+    seg = base.plan.routes.segments
+    busiest = str(seg["trench_id"].iloc[int(np.argmax(seg["circuits"].to_numpy()))])
+    trenches = site.trenches.copy()
+    at = trenches.index[trenches["id"].astype(str) == busiest][0]
+    trenches.loc[at, "laying"] = "duct" if trenches.loc[at, "laying"] != "duct" else "direct"
+    edited = dataclasses.replace(site, trenches=trenches)
+    local = replan(base, edited)
+    assert local.timings_s["local"] == 1.0
+    assert 0 < local.timings_s["local.circuits"] < len(base.plan.routes.circuits)
+    on_it = (local.routes.segments["trench_id"] == busiest).to_numpy()
+    g0 = np.asarray(base.plan.sizing.seg_group_factor)[on_it]
+    g1 = np.asarray(local.sizing.seg_group_factor)[on_it]
+    assert not np.array_equal(g0, g1)
+    assert_same_plan(local, plan_site(edited, design, with_remedies=False))
+
+
+def _shortcut(base) -> tuple[str, shapely.LineString]:
+    """A circuit of ``base`` and a straight line between two nodes of its route whose distance
+    along the route is at least 1.3 times the straight one (a corner cut): a trench drawn there
+    joins existing nodes, so it splits none of that route's segments."""
+    routes = base.plan.routes
+    nodes = {tuple(p) for p in np.round(routes.network.node_xy, 6).tolist()}
+    c = routes.circuits
+    for i in np.argsort(-c["route_m"].to_numpy(float)).tolist():
+        if c["kind"].iloc[i] not in ("array", "ac"):
+            continue
+        xy = shapely.get_coordinates(c.geometry.iloc[i])
+        along = np.r_[0.0, np.cumsum(np.hypot(*np.diff(xy, axis=0).T))]
+        on = [k for k, p in enumerate(np.round(xy, 6).tolist()) if tuple(p) in nodes]
+        for a in on:
+            for b in on:
+                d = float(np.hypot(*(xy[b] - xy[a])))
+                if b > a and d >= 20.0 and along[b] - along[a] >= 1.3 * d:
+                    return str(c["circuit_id"].iloc[i]), shapely.LineString([xy[a], xy[b]])
+    raise AssertionError("no route with a corner to cut")
+
+
+def test_a_trench_that_shortens_an_untouched_route_reroutes_it(plants):
+    """A trench added between two nodes of an array or a.c. route, cutting its corner: none of
+    that route's segments is split or removed, yet its shortest path is now the new trench
+    (Dijkstra on the edited network: every route is searched again after a trench edit). The
+    local re-plan takes the shorter route and equals a cold plan."""
+    site, design, base = plants["plain"]
+    cid, line = _shortcut(base)
+    tr = site.trenches
+    new = tr.iloc[[0]].copy()
+    new["id"] = "T-shortcut"
+    new = new.set_geometry(gpd.GeoSeries([line], index=new.index, crs=tr.crs))
+    edited = _with_trenches(site, pd.concat([tr, new]))
+    local = replan(base, edited)
+    assert local.timings_s["local"] == 1.0
+    before = base.plan.circuits.set_index("circuit_id")["route_m"]
+    after = local.circuits.set_index("circuit_id")["route_m"]
+    assert after[cid] < before[cid]
+    assert_same_plan(local, plan_site(edited, design, with_remedies=False))
+
+
+def test_routes_that_differ_are_found_segment_by_segment(plants):
+    """``_new_paths`` flags a circuit whose old route differs from its shortest path on the
+    network in any way — one segment swapped for another (same count), the same segments in
+    another order, one segment fewer — and no other: on the baseline's own network every
+    route is its shortest path, so none differs."""
+    _, _, base = plants["plain"]
+    r = base.plan.routes
+    node = r.network.taps["node"].to_numpy(np.int64)
+    ic, seg = r.incidence_circuit, r.incidence_segment
+    args = (r.network, node, base.tap_from, base.tap_to, ic)
+    assert not _new_paths(*args, seg).any()
+    n = np.bincount(ic, minlength=len(r.circuits))
+    long = np.flatnonzero(n >= 3)
+    a, b, c = (int(long[k]) for k in (0, len(long) // 2, len(long) - 1))
+    at = {k: np.flatnonzero(ic == k) for k in (a, b, c)}
+    swapped = seg.copy()
+    swapped[at[a][1]] = (seg[at[a][1]] + 1) % len(r.segments)  # another segment, same count
+    swapped[at[b]] = seg[at[b]][::-1]  # the same segments, the other way round
+    shorter = np.delete(seg, at[c][-1])  # one segment fewer
+    assert np.flatnonzero(_new_paths(*args, swapped)).tolist() == sorted({a, b})
+    assert np.flatnonzero(
+        _new_paths(r.network, node, base.tap_from, base.tap_to, np.delete(ic, at[c][-1]), shorter)
+    ).tolist() == [c]
 
 
 _searches: dict[tuple[str, str, int], MoveSearch] = {}
@@ -340,16 +443,19 @@ def _with_trenches(site, trenches):
 @st.composite
 def other_edit(draw, site, design):
     """One edit that is not a move, as an :class:`_Edit`: a trench added (a spur off a
-    point along a trench, or a link between points of two nearby trenches), removed, or
-    redrawn (a vertex shifted a few metres, the line reversed, or a vertex inserted on it);
-    one row's strings changed; or a design setting changed (ground temperature, air
-    temperature, a voltage-drop limit, a conductor material; the cable slack, which routes)."""
+    point along a trench, or a link between points of two nearby trenches), removed,
+    redrawn (a vertex shifted a few metres, the line reversed, a vertex inserted on it, or
+    the whole line moved) or given another attribute (depth, laying, spacing, soil thermal
+    resistivity, capacity); one row's strings changed; or a design setting changed (ground
+    temperature, air temperature, a voltage-drop limit, a conductor material; the cable slack,
+    which routes)."""
     how = draw(
         st.sampled_from(
             [
                 "trench_add",
                 "trench_remove",
                 "trench_redraw",
+                "trench_attribute",
                 "strings",
                 "setting",
                 "drop",
@@ -385,8 +491,10 @@ def other_edit(draw, site, design):
     if how == "trench_redraw":
         i = draw(st.integers(0, len(tr) - 1))
         xy = shapely.get_coordinates(geoms[i])
-        way = draw(st.sampled_from(["shift", "reverse", "insert"]))
-        if way == "shift":
+        way = draw(st.sampled_from(["shift", "reverse", "insert", "translate"]))
+        if way == "translate":  # the whole line moved: its segments keep their ids and lengths
+            xy = xy + np.array(draw(st.sampled_from([(0.5, 0.0), (0.0, -2.0), (1.5, 1.5)])))
+        elif way == "shift":
             k = draw(st.integers(0, len(xy) - 1))
             d = draw(st.tuples(*[st.sampled_from([-5.0, -2.5, -0.5, 0.5, 2.5, 5.0])] * 2))
             xy = xy.copy()
@@ -400,6 +508,24 @@ def other_edit(draw, site, design):
         out[i] = shapely.LineString(xy)
         redrawn = tr.set_geometry(gpd.GeoSeries(out, index=tr.index, crs=tr.crs))
         return _Edit(f"{how}:{way}", _with_trenches(site, redrawn), design)
+    if how == "trench_attribute":  # the same line, another depth, laying, spacing, soil, fill
+        i = draw(st.integers(0, len(tr) - 1))
+        col, value = draw(
+            st.sampled_from(
+                [
+                    ("depth_m", 1.2),
+                    ("depth_m", float("nan")),
+                    ("laying", "duct"),
+                    ("laying", "direct"),
+                    ("spacing_m", 0.0),
+                    ("soil_k_m_w", 2.5),
+                    ("max_circuits", 1.0),
+                ]
+            )
+        )
+        edited = tr.copy()
+        edited.loc[edited.index[i], col] = value
+        return _Edit(f"{how}:{col}", _with_trenches(site, edited), design)
     if how == "strings":
         rows = site.rows.copy()
         i = draw(st.integers(0, len(rows) - 1))
@@ -430,6 +556,17 @@ def other_edit(draw, site, design):
 
 #: edits of design settings that do not route (the baseline's routes are reused)
 SIZING_ONLY = ("setting", "drop", "material")
+#: edits of the trench layer (re-planned locally, with any moves)
+TRENCH_EDITS = ("trench_add", "trench_remove", "trench_redraw", "trench_attribute")
+
+
+def _path(kind: str, unmoved: bool) -> float:
+    """The path a re-plan of an edit of ``kind`` takes (``timings_s["local"]``): 1.0 local
+    (a trench edit, with or without moves), 0.5 the routes reused (a sizing setting alone;
+    ``unmoved``: no feature moved, or one moved back onto itself), 0.0 a full plan."""
+    if kind in TRENCH_EDITS:
+        return 1.0
+    return 0.5 if kind in SIZING_ONLY and unmoved else 0.0
 
 
 def _unmoved(a, b) -> bool:
@@ -454,13 +591,14 @@ def _check_fallback(base, site, design, expect: float) -> None:
             replan(base, site, design)
         return
     local = replan(base, site, design)
+    event(f"path: {local.timings_s['local']}")
     assert local.timings_s["local"] == expect
     if expect == 0.5:
         assert local.routes is base.plan.routes
     assert_same_plan(local, cold)
 
 
-@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs", "nec"])
 @settings(
     max_examples=20, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
 )
@@ -473,7 +611,7 @@ def test_other_edits_equal_cold_plan(plants, name, data):
     edit = data.draw(other_edit(site, design))
     kind = edit.label.split(":")[0]
     event(kind)
-    _check_fallback(base, edit.site, edit.design, 0.5 if kind in SIZING_ONLY else 0.0)
+    _check_fallback(base, edit.site, edit.design, _path(kind, True))
 
 
 @pytest.mark.parametrize("name", ["plain", "inputs"])
@@ -488,8 +626,7 @@ def test_a_move_and_another_edit_equal_cold_plan(plants, name, data):
     edit = data.draw(other_edit(moved, design))
     kind = edit.label.split(":")[0]
     event(kind)
-    sizing_only = kind in SIZING_ONLY and _unmoved(site, moved)  # a move back onto itself
-    _check_fallback(base, edit.site, edit.design, 0.5 if sizing_only else 0.0)
+    _check_fallback(base, edit.site, edit.design, _path(kind, _unmoved(site, moved)))
 
 
 def test_a_setting_change_resizes_on_the_same_routes(plants):

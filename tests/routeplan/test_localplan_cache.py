@@ -1,6 +1,6 @@
 """``routeplan plan`` into the same output folder after a pad or combiner move: the last run's
 plan, kept in the folder's cache, is re-planned locally (:func:`routeplan.localplan.from_cache`)
-and every output equals a cold plan of the edited site.
+and every output equals a cold plan of the edited site; so is a trench edit.
 
 The sites are invented scenarios (:func:`routeplan.synth.generate_site`). The reference is a
 cold plan of the same edited files, without a cache: the output CSV files and summary.json are
@@ -159,7 +159,28 @@ def _with_setting(site: Path, old: str, new: str) -> None:
     toml.write_text(text.replace(old, new, 1))
 
 
-@pytest.mark.parametrize("edit", ["drop limit", "routing allowance", "trench", "nothing"])
+@pytest.mark.parametrize(
+    ("case", "moves"),
+    [
+        ("trench moved", [("trenches", 0, 0.5, 0.0)]),
+        ("trench and pad", [("trenches", 3, 0.0, -1.0), ("inverters", 0, 0.0, 6.0)]),
+    ],
+)
+def test_a_trench_edit_replans_locally_and_equals_a_cold_plan(failing_site, tmp_path, case, moves):
+    """A trench redrawn (moved as a whole, alone or with a pad move) is re-planned locally from
+    the cache, remedies included, as a cold plan plans it."""
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    for layer, row, dx, dy in moves:
+        _move(site, layer, row, dx, dy)
+    p = _replan(site, out)
+    assert p.cache.reused.get("local") is True
+    assert p.timings_s["local"] == 1.0
+    _same_as_cold(p, site, out, tmp_path)
+
+
+@pytest.mark.parametrize("edit", ["drop limit", "routing allowance", "nothing"])
 def test_other_edits_with_a_move_plan_in_full(failing_site, tmp_path, edit):
     site, out = tmp_path / "site", tmp_path / "out"
     shutil.copytree(failing_site, site)
@@ -170,8 +191,6 @@ def test_other_edits_with_a_move_plan_in_full(failing_site, tmp_path, edit):
         _with_setting(site, "dc_total = 2.0\nac = 1.0", "dc_total = 2.0\nac = 0.9")
     elif edit == "routing allowance":  # a setting that routes
         _with_setting(site, "termination_m = 1.5", "termination_m = 2.25")
-    elif edit == "trench":
-        _move(site, "trenches", 0, 0.5, 0.0)
     p = _replan(site, out)
     assert not p.cache.reused.get("local")
     _same_as_cold(p, site, out, tmp_path)
