@@ -238,6 +238,23 @@ def _move_json(site: Path, layer_file: str, fid: str, dx: float, dy: float) -> N
     path.write_text(json.dumps(data), encoding="utf-8")
 
 
+def test_a_trench_edit_that_splits_the_network_is_refused_as_a_cold_plan_refuses_it(tmp_path):
+    """Block B's duct trench moved 1 ft east leaves its ends off the network: combiners can no
+    longer reach their inverter. The re-plan from the cache refuses it with the cold plan's
+    words (the local re-plan leaves it to the full plan, which names the circuits)."""
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(US_DEMO, site)
+    _replan(site, out)
+    _move_json(site, "trenches.geojson", "T-B-DUCT", 1.0, 0.0)
+    messages = []
+    for cache in (PlanCache(out), None):
+        with pytest.raises(Exception) as caught:
+            plan(site, cache=cache)
+        messages.append((type(caught.value).__name__, str(caught.value)))
+    assert messages[0] == messages[1]
+    assert messages[0][0] == "UnreachableError" and "CB-B1" in messages[0][1]
+
+
 @pytest.mark.parametrize(
     ("layer_file", "fid", "dx", "dy", "local"),
     [
@@ -249,6 +266,9 @@ def _move_json(site: Path, layer_file: str, fid: str, dx: float, dy: float) -> N
         # CB-B2 250 ft along: B2-T5 keeps it only as the nearest with room — the rule that
         # chose it changed: planned in full
         ("combiners.geojson", "CB-B2", 250.0, 0.0, False),
+        # block B's ring trench redrawn 2 ft north: every route searched again, B2-T5 keeps
+        # CB-B2 (re-planned locally)
+        ("trenches.geojson", "T-B-RING", 0.0, 2.0, True),
     ],
 )
 def test_a_move_with_destinations_chosen_by_route(tmp_path, layer_file, fid, dx, dy, local):
