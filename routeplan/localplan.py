@@ -100,6 +100,7 @@ from .network import TRENCH_ATTRIBUTES, TrenchNetwork, retap, trench_problems
 from .order import inverter_of, schedule_order
 from .pipeline import (
     Plan,
+    _shallow_trenches,
     assigned_destinations,
     conductor_poles,
     design_params,
@@ -530,7 +531,8 @@ def _local(
 ) -> Plan | Figures | None:
     """The local re-plan (see the module docstring); None where it cannot be made (trench
     geometry the network refuses, a feature left unconnected, circuits whose ends lie on
-    separate islands, inputs that cannot be assigned: the full plan reports why). ``light``:
+    separate islands, a trench too shallow, inputs that cannot be assigned: the full plan
+    reports why). ``light``:
     :class:`Figures` only. ``trenches``: the trench layer differs from the baseline's.
     ``whatifs``: remedies are computed, their what-ifs re-sized from ``whatifs_before`` (the
     last run's, :class:`routeplan.remedy.WhatIfs`'s ``kept``) and kept in ``whatifs``."""
@@ -559,6 +561,8 @@ def _local(
 
     # --- segments: new ↔ old by id (same length), and what no longer exists
     seg0, seg = net0.segments, net.segments
+    if trenches and _shallow_trenches(seg, base.dp):
+        return None  # a trench too shallow for its cables: the full plan reports it
     n_seg = len(seg)
     new_of_old, old_of_new = _segment_map(seg0, seg, geometry=trenches)
     born = old_of_new < 0

@@ -265,6 +265,21 @@ def test_a_trench_edit_changes_the_plan_locally(plants):
     assert_same_plan(local, plan_site(edited, design, with_remedies=False))
 
 
+def test_a_trench_made_too_shallow_is_refused_as_a_cold_plan_refuses_it(plants):
+    """A trench 0.01 m deep cannot bury a cable (its depth does not exceed half the cable's
+    outer diameter): the cold plan refuses it naming the trench, and so does the re-plan."""
+    site, design, base = plants["plain"]
+    trenches = site.trenches.copy()
+    trenches.loc[trenches.index[0], "depth_m"] = 0.01
+    edited = dataclasses.replace(site, trenches=trenches)
+    with pytest.raises(DesignError) as cold:
+        plan_site(edited, design, with_remedies=False)
+    with pytest.raises(DesignError) as local:
+        replan(base, edited)
+    assert str(local.value) == str(cold.value)
+    assert str(trenches["id"].iloc[0]) in str(local.value)
+
+
 def _shortcut(base) -> tuple[str, shapely.LineString]:
     """A circuit of ``base`` and a straight line between two nodes of its route whose distance
     along the route is at least 1.3 times the straight one (a corner cut): a trench drawn there
@@ -515,6 +530,7 @@ def other_edit(draw, site, design):
                 [
                     ("depth_m", 1.2),
                     ("depth_m", float("nan")),
+                    ("depth_m", 0.01),  # too shallow for a cable: refused
                     ("laying", "duct"),
                     ("laying", "direct"),
                     ("spacing_m", 0.0),
