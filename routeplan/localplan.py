@@ -65,12 +65,22 @@ any circuit's size, so nothing smaller is re-sized.
 Destinations chosen by route length (a row, combiner or inverter without ``to``) are chosen
 again on the edited network, as routing chooses them; where every feature keeps its
 destination the re-plan stays local (with the new route lengths in the plan's ``assignment``),
-where one changes it falls back to a full plan. Moves and trench edits may come together in
-one re-plan. Anything else — rows, modules, strings, attributes of equipment, the grid,
-settings that route, an edit together with a settings change — falls back to a full plan.
-:func:`replan` says which it did in ``Plan.timings_s["local"]``: 1.0 local, 0.5 routes reused
-and every circuit sized again, 0.0 full. The result is a design aid, to be reviewed by a
-qualified, licensed person.
+where one changes it the site is routed in full and sized locally (below). Moves and trench
+edits may come together in one re-plan.
+
+Any other edit of the site under the same design settings — a row's strings or module, rows
+added or removed, attributes of equipment, the module table, the grid — is **routed in full
+and sized locally** (:func:`_resized`): the site is routed as a full plan routes it (the last
+noding reused where the trenches are the same), circuits are matched to the last plan's by
+``circuit_id`` (segments by id, length and geometry; air stretches by kind and feature), and
+only the blocks of the circuits whose sizing input differs (a new circuit, another route, any
+other per-circuit value of :class:`calc.SizingInput`, another parent) or that share a segment
+or stretch whose figures differ are sized again, by the same fixed point; the last sizing and
+its remedies' what-ifs are renumbered to the new circuits first. Settings that route, or an
+edit together with a settings change, fall back to a full plan. :func:`replan` says which it
+did in ``Plan.timings_s["local"]``: 1.0 local, 0.75 routed in full and sized locally, 0.5
+routes reused and every circuit sized again, 0.0 full. The result is a design aid, to be
+reviewed by a qualified, licensed person.
 """
 
 from __future__ import annotations
@@ -94,9 +104,9 @@ from layers import Site
 from .cache import PlanCache, digest
 from .circuits import KINDS, assign_destinations
 from .config import DesignConfig
-from .errors import DesignError
+from .errors import DesignError, RoutingError
 from .inputs import assign_inputs, input_table, landing_input
-from .network import TRENCH_ATTRIBUTES, TrenchNetwork, retap, trench_problems
+from .network import TRENCH_ATTRIBUTES, NetworkMemo, TrenchNetwork, retap, trench_problems
 from .order import inverter_of, schedule_order
 from .pipeline import (
     Plan,
@@ -119,6 +129,7 @@ from .routing import (
     _route_geometry,
     _route_lengths_fn,
     joined,
+    route_site,
     shortest_paths,
     site_network,
 )
@@ -325,15 +336,21 @@ def replan(
     network: TrenchNetwork | None = None,
 ) -> Plan:
     """The plan of ``site`` (the baseline's site with combiners or inverters moved, or trenches
-    edited), recomputing only what the edit can change (see the module docstring); a full plan
-    where the edit is of another kind. ``network``: the edited site's network when the caller has it
-    (:func:`routeplan.network.retap`). Raises as :func:`routeplan.pipeline.plan_site` does."""
+    edited), recomputing only what the edit can change (see the module docstring); after any
+    other edit of the site under the same design, routed in full and sized locally; a full
+    plan after a change of settings that route. ``network``: the edited site's network when
+    the caller has it (:func:`routeplan.network.retap`). Raises as
+    :func:`routeplan.pipeline.plan_site` does."""
     t0 = time.perf_counter()
     old = base.plan
     design = old.design if design is None else design
     edit = _edit_of(base, site, design)
     if edit is not None:
         out = _local(base, site, design, t0, network=network, light=False, trenches=edit[1])
+        if out is not None:
+            return out
+    if design is old.design or design == old.design:  # routed in full, sized locally
+        out = _resized(base, site, design, t0, memo=old.routes.network.memo)
         if out is not None:
             return out
     if _settings_only(base, site, design):  # the routes hold: every circuit sized again
@@ -356,9 +373,11 @@ def from_cache(
     output folder's :class:`~routeplan.cache.PlanCache`, after :func:`routeplan.pipeline.plan`
     read the site through it), with remedies, as :func:`routeplan.pipeline.plan_site` would
     give it with the same cache; None where a local re-plan does not apply — the last run kept
-    no site, routes or sizing, the site differs by more than moved combiners or inverters and
-    edited trenches (:func:`site_edit`), nothing changed (the cached routes hold), or a design
-    setting that routes or sizes changed — and the caller plans as usual.
+    no site, routes or sizing, nothing changed that routes (the cached routes hold), a design
+    setting that routes or sizes changed, or the edited site is refused (the full plan says
+    why) — and the caller plans as usual. Moves and trench edits (:func:`site_edit`) are
+    re-planned locally; any other edit of the site is routed in full and sized locally
+    (:func:`_resized`), remedies' what-ifs re-sized from the last run's alike.
 
     The new routes, sizing and remedies are kept in the cache for the next run, under the keys
     a full plan would use; ``cache.reused["local"]`` says the last plan was re-planned."""
@@ -377,26 +396,34 @@ def from_cache(
     say("route")
     t0 = time.perf_counter()
     old_site = cache.latest("site")
-    edit = site_edit(old_site, site) if old_site is not None else None
-    if edit is None or not (edit[1] or any(len(v) for v in edit[0].values())):
+    if old_site is None:
         return None
+    edit = site_edit(old_site, site)
+    if edit is not None and not (edit[1] or any(len(v) for v in edit[0].values())):
+        return None  # nothing changed that routes: the cached routes hold
     base = last_baseline(cache, design, old_site)
     if base is None or repr(base.plan.routes.params) != repr(params):
         return None
     t["local.baseline"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     memo0 = cache.latest("noding")  # the route entry keeps no memo
-    net = site_network(site, params, memo0)
     whatifs = WhatIfs(rules)
     before = None
     if cache.last_key("whatif") == digest("whatif", old_size_key):
         before = cache.latest("whatif")
-    plan = _local(
-        base, site, design, t0, network=net, light=False, trenches=edit[1], whatifs=whatifs,
-        whatifs_before=before,
-    )  # fmt: skip
+    plan = None
+    if edit is not None:
+        net = site_network(site, params, memo0)
+        plan = _local(
+            base, site, design, t0, network=net, light=False, trenches=edit[1],
+            whatifs=whatifs, whatifs_before=before,
+        )  # fmt: skip
+    if plan is None:  # another edit, or a move the local re-plan leaves: sized locally
+        whatifs = WhatIfs(rules)
+        plan = _resized(base, site, design, t0, memo=memo0, whatifs=whatifs, whatifs_before=before)
     if plan is None:
         return None
+    net = plan.routes.network
     t.update(plan.timings_s)
     t["local.whatifs"] = float(whatifs.resized)  # what-ifs re-sized locally
     t["local.whatifs_whole"] = float(len(whatifs.kept) - whatifs.resized)
@@ -841,6 +868,191 @@ def _local(
     )
 
 
+def _resized(
+    base: Baseline,
+    site: Site,
+    design: DesignConfig,
+    t0: float,
+    *,
+    memo: NetworkMemo | None,
+    whatifs: WhatIfs | None = None,
+    whatifs_before: dict | None = None,
+) -> Plan | None:
+    """The plan of ``site`` under the baseline's design after any edit of the site (rows,
+    their strings or modules, attributes of equipment, the module table, the grid, besides
+    moves and trench edits): routed in full, as a full plan routes it (the last noding
+    reused where the trenches are the same), and sized locally — only the blocks of the
+    circuits whose sizing input differs from the last plan's (a new circuit, another route,
+    other electrical values, another input or parent) or that share a trench segment or air
+    stretch whose figures differ (count, length, depth, laying, spacing, soil) are sized
+    again, by the same fixed point as :func:`replan` (:class:`_Edit`); circuits are matched
+    to the last plan's by ``circuit_id``, segments by id, length and geometry, air stretches
+    by kind and feature. None where it cannot be made (the routing or the sizing refuses the
+    site, ids not unique: the full plan reports why). ``memo``: the last noding
+    (:func:`routeplan.network.build_network`); ``whatifs``: as :func:`_local`."""
+    t: dict[str, float] = {}
+    old = base.plan
+    r0 = old.routes
+    try:
+        routes = route_site(site, r0.params, memo=memo)
+    except RoutingError:
+        return None
+    t["route"] = time.perf_counter() - t0
+    t1 = time.perf_counter()
+    dp, rules = base.dp, design.values["rules"]
+    seg = routes.network.segments
+    if _shallow_trenches(seg, dp):
+        return None
+    c0, c = r0.circuits, routes.circuits
+    ids0 = pd.Index(c0["circuit_id"].to_numpy(dtype=object))
+    air0, air = r0.air, routes.air
+    air_key0, air_key = (
+        pd.Index(a["kind"].astype(str) + "\x00" + a["layer"].astype(str) + "\x00"
+                 + a["feature_id"].astype(str))
+        for a in (air0, air)
+    )  # fmt: skip
+    if not (ids0.is_unique and air_key0.is_unique):
+        return None
+    try:
+        inp, own_input = sizing_input(site, routes)
+    except DesignError:
+        return None
+    n_c, n_c0 = len(c), len(c0)
+    c_old = ids0.get_indexer(c["circuit_id"].to_numpy(dtype=object))  # -1: a new circuit
+    has = c_old >= 0
+    c_new = np.full(n_c0, -1, dtype=np.int64)
+    c_new[c_old[has]] = np.flatnonzero(has)
+    new_of_old, old_of_new = _segment_map(r0.network.segments, seg, geometry=True)
+    air_old_of_new = air_key0.get_indexer(air_key)
+    air_new_of_old = np.full(len(air0), -1, dtype=np.int64)
+    air_new_of_old[air_old_of_new[air_old_of_new >= 0]] = np.flatnonzero(air_old_of_new >= 0)
+
+    # --- circuits whose sizing input differs: new, other per-circuit values, other routes
+    inp0 = base.inp
+    affected = ~has
+    at = np.maximum(c_old, 0)
+    for f in dataclasses.fields(inp):
+        if f.name in _NOT_PER_CIRCUIT:
+            continue
+        a, b = getattr(inp, f.name), getattr(inp0, f.name)
+        if a is None or b is None:
+            if (a is None) != (b is None):
+                return None  # another set of inputs given: the full plan
+            continue
+        b = np.asarray(b)[at]
+        a = np.asarray(a)
+        if f.name == "parent":  # positions: compared in the new numbering
+            b = np.where(b >= 0, c_new[np.maximum(b, 0)], -1)
+        affected |= ~(_same_nan(a, b) if a.dtype.kind == "f" else a == b)
+    old_in = c_new[r0.incidence_circuit]
+    keep = old_in >= 0
+    order = np.argsort(old_in[keep], kind="stable")  # by new circuit, route order kept
+    affected |= _sequences_differ(
+        n_c, routes.incidence_circuit, routes.incidence_segment,
+        old_in[keep][order], new_of_old[r0.incidence_segment][keep][order],
+    )  # fmt: skip
+    old_air = c_new[r0.air_incidence_circuit]
+    keep = old_air >= 0
+    order = np.argsort(old_air[keep], kind="stable")
+    affected |= _sequences_differ(
+        n_c, routes.air_incidence_circuit, routes.air_incidence_stretch,
+        old_air[keep][order], air_new_of_old[r0.air_incidence_stretch][keep][order],
+    )  # fmt: skip
+
+    # --- segments and air stretches whose figures differ: their circuits too
+    born = old_of_new < 0
+    o = np.maximum(old_of_new, 0)
+    seg_changed = born.copy()
+    for name in ("seg_depth_m", "seg_laying", "seg_spacing_m", "seg_soil_k_m_w", "seg_count"):
+        seg_changed |= ~_same_nan(getattr(inp, name), np.asarray(getattr(inp0, name))[o])
+    if inp.seg_length_m is not None and inp0.seg_length_m is not None:
+        seg_changed |= ~_same_nan(inp.seg_length_m, np.asarray(inp0.seg_length_m)[o])
+    air_born = air_old_of_new < 0
+    a_o = np.maximum(air_old_of_new, 0)
+    n_air0 = np.bincount(r0.air_incidence_stretch, minlength=len(air0))[a_o]
+    n_air = np.bincount(routes.air_incidence_stretch, minlength=len(air))
+    air_changed = air_born | (n_air != n_air0)
+    air_changed |= ~_same_nan(air["length_m"], air0["length_m"].to_numpy(float)[a_o])
+    air_changed |= np.asarray(inp.air_behind_modules) != np.asarray(inp0.air_behind_modules)[a_o]
+    inc_c, inc_s = routes.incidence_circuit, routes.incidence_segment
+    air_c, air_s = routes.air_incidence_circuit, routes.air_incidence_stretch
+    affected[inc_c[seg_changed[inc_s]]] = True
+    affected[air_c[air_changed[air_s]]] = True
+
+    # --- the last sizing in the new numbering; the affected blocks sized again
+    block_ids = inverter_of(c["kind"], c["from_id"], c["to_id"])
+    _, block = np.unique(block_ids.astype(str), return_inverse=True)
+    edit = _Edit(
+        block.reshape(-1).astype(np.int64), inc_c, inc_s, air_c, air_s, seg_changed,
+        air_changed, new_of_old, old_of_new, air_old_of_new, affected,
+    )  # fmt: skip
+    prev = _renumbered(old.sizing, c_old, c_new)
+    try:
+        result, sub, passes = edit.resize(inp, dp, rules, prev)
+    except (calc.InputError, calc.UnknownOptionError, calc.TableRangeError):
+        return None
+    t["size"] = time.perf_counter() - t1
+    t["local.passes"] = float(passes)
+    t["local.circuits"] = float(len(sub))
+    t1 = time.perf_counter()
+    governing = governing_ids(routes, result)
+    remedy = None
+    if whatifs is not None:
+        t2 = time.perf_counter()
+        own = {k: getattr(prev, k) for k in WHATIF_FIELDS}
+        own["seg_spacing_m"] = inp0.seg_spacing_m
+        dp_text = repr(dp)
+        before = {
+            k: {**v, **{f: np.asarray(v[f])[at] for f in _CIRCUIT_WHATIF_FIELDS}}
+            for k, v in (whatifs_before or {}).items()
+        }
+
+        def resize(key: str, i: calc.SizingInput, d: calc.DesignParams):
+            return edit.whatif(before.get(key, own if repr(d) == dp_text else None), i, d, rules)
+
+        whatifs.resize = resize
+        remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
+        t["remedy"] = time.perf_counter() - t2
+        t1 += t["remedy"]
+    landing = landing_input(inp.parent, own_input)
+    inputs = input_table(
+        site, c, own_input, inp.imp_a * inp.n_strings, np.asarray(result.isc_design_a),
+        inp.n_strings,
+    )  # fmt: skip
+    circuits, seg_table, quantities, summary = plan_tables(
+        site, design, routes, result, inp, inputs, landing, governing, remedy
+    )
+    t["tables"] = time.perf_counter() - t1
+    t["local"] = 0.75
+    return Plan(
+        site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs
+    )
+
+
+#: the what-if fields kept per circuit (the others are per segment or air stretch)
+_CIRCUIT_WHATIF_FIELDS = ("ok", "size_mm2", "parallel")
+
+
+def _renumbered(r: calc.SizingResult, c_old: np.ndarray, c_new: np.ndarray) -> calc.SizingResult:
+    """The per-circuit fields of sizing ``r`` in a new circuit numbering (``c_old``: each new
+    circuit's old position, -1 for a new one, which takes the first circuit's values until it
+    is sized; ``c_new``: each old circuit's new position), notes naming a feeder by its
+    position renumbered; per-segment and per-stretch fields and totals as they are."""
+    at = np.maximum(c_old, 0)
+    out = {}
+    for f in dataclasses.fields(r):
+        v = getattr(r, f.name)
+        if f.name in ("iterations", "rules", "air_count_final") or f.name.startswith(
+            ("seg_", "total_")
+        ):
+            out[f.name] = v
+        elif f.name == "note":
+            out[f.name] = _global_notes(np.asarray(v)[at], c_new)
+        else:
+            out[f.name] = np.asarray(v)[at]
+    return calc.SizingResult(**out)
+
+
 #: the trench schedule's count column of each circuit kind
 KINDS_COLUMN = {"string": "strings", "array": "arrays", "ac": "ac", "subarray": "subarrays"}
 
@@ -861,17 +1073,22 @@ def _new_paths(
     key, pair_of = np.unique(tap_from * n_taps + tap_to, return_inverse=True)
     pair_of = pair_of.reshape(-1)
     paths = shortest_paths(net, node[key // n_taps], node[key % n_taps])
-    n_new = np.diff(paths.offset)[pair_of]
-    n_old = np.bincount(ic0, minlength=n_c)
-    differ = n_new != n_old
-    same_len = ~differ
-    # circuits of equal length: their segments compared place by place
-    c = np.flatnonzero(same_len)
-    k = n_new[c]
+    k = np.diff(paths.offset)[pair_of]
     within = np.arange(k.sum()) - np.repeat(np.cumsum(k) - k, k)
-    new_s = paths.segment[np.repeat(paths.offset[:-1][pair_of[c]], k) + within]
-    old_s = is0_new[same_len[ic0]]  # ic0 is by circuit: the same circuits, in the same order
-    bad = np.repeat(c, k)[new_s != old_s]
+    new_s = paths.segment[np.repeat(paths.offset[:-1][pair_of], k) + within]
+    return _sequences_differ(n_c, np.repeat(np.arange(n_c), k), new_s, ic0, is0_new)
+
+
+def _sequences_differ(
+    n: int, ic_a: np.ndarray, s_a: np.ndarray, ic_b: np.ndarray, s_b: np.ndarray
+) -> np.ndarray:
+    """Per circuit (of ``n``), whether its sequence in incidence ``a`` (``ic_a``, ``s_a``:
+    by circuit, in route order) differs from that in ``b``: another length, or another
+    element at some place."""
+    n_a, n_b = np.bincount(ic_a, minlength=n), np.bincount(ic_b, minlength=n)
+    differ = n_a != n_b
+    same_len = ~differ
+    bad = ic_a[same_len[ic_a]][s_a[same_len[ic_a]] != s_b[same_len[ic_b]]]
     differ[bad] = True
     return differ
 

@@ -221,20 +221,28 @@ def test_a_move_changes_the_plan(plants):
     assert (before != after.reindex(before.index)).sum() > 0
 
 
-def test_other_edits_fall_back_to_a_full_plan(plants):
-    """An equipment attribute or a row's strings edited are not local edits: a full plan is
-    made. A trench edit is not a move (:func:`moved_features`), but is re-planned locally."""
-    site, _design, base = plants["plain"]
+def test_other_site_edits_are_routed_in_full_and_sized_locally(plants):
+    """A combiner's fuse rating given, a row's strings changed: not moves nor trench edits
+    (:func:`site_edit` is None), so the site is routed in full — but only the blocks whose
+    circuits' sizing input changed are sized again (``timings_s["local"] == 0.75``), fewer
+    circuits than the plant has, and the plan equals a cold plan. A trench edit is not a move
+    (:func:`moved_features`) but a local edit of its own."""
+    site, design, base = plants["plain"]
+    n = len(base.plan.routes.circuits)
     combiners = site.combiners.copy()
+    combiners["fuse_a"] = np.nan
     combiners.loc[combiners.index[0], "fuse_a"] = 20.0
-    edited = dataclasses.replace(site, combiners=combiners)
-    assert moved_features(site, edited) is None and site_edit(site, edited) is None
-    assert replan(base, edited).timings_s["local"] == 0.0
     rows = site.rows.copy()
-    rows.loc[rows.index[0], "strings"] = int(rows["strings"].iloc[0]) + 1
-    edited = dataclasses.replace(site, rows=rows)
-    assert site_edit(site, edited) is None
-    assert replan(base, edited).timings_s["local"] == 0.0
+    rows.loc[rows.index[0], "strings"] = int(rows["strings"].iloc[0]) - 1
+    for edited in (
+        dataclasses.replace(site, combiners=combiners),
+        dataclasses.replace(site, rows=rows),
+    ):
+        assert moved_features(site, edited) is None and site_edit(site, edited) is None
+        local = replan(base, edited)
+        assert local.timings_s["local"] == 0.75
+        assert 0 < local.timings_s["local.circuits"] < n
+        assert_same_plan(local, plan_site(edited, design, with_remedies=False))
     trenches = site.trenches.copy()
     trenches.loc[trenches.index[0], "depth_m"] = 1.2
     edited = dataclasses.replace(site, trenches=trenches)
@@ -461,7 +469,8 @@ def other_edit(draw, site, design):
     point along a trench, or a link between points of two nearby trenches), removed,
     redrawn (a vertex shifted a few metres, the line reversed, a vertex inserted on it, or
     the whole line moved) or given another attribute (depth, laying, spacing, soil thermal
-    resistivity, capacity); one row's strings changed; or a design setting changed (ground
+    resistivity, capacity); one row's strings changed, an inverter's rating or a combiner's
+    room for strings, or a module's short-circuit current; or a design setting changed (ground
     temperature, air temperature, a voltage-drop limit, a conductor material; the cable slack,
     which routes)."""
     how = draw(
@@ -472,6 +481,8 @@ def other_edit(draw, site, design):
                 "trench_redraw",
                 "trench_attribute",
                 "strings",
+                "equipment",
+                "module",
                 "setting",
                 "drop",
                 "material",
@@ -542,6 +553,21 @@ def other_edit(draw, site, design):
         edited = tr.copy()
         edited.loc[edited.index[i], col] = value
         return _Edit(f"{how}:{col}", _with_trenches(site, edited), design)
+    if how == "equipment":  # an inverter's rating, or a combiner's room for strings
+        if draw(st.booleans()):
+            inv = site.inverters.copy()
+            i = draw(st.integers(0, len(inv) - 1))
+            inv.loc[inv.index[i], "ac_kva"] = float(inv["ac_kva"].iloc[i]) * 1.25
+            return _Edit(f"{how}:ac_kva", dataclasses.replace(site, inverters=inv), design)
+        cb = site.combiners.copy()
+        i = draw(st.integers(0, len(cb) - 1))
+        cb.loc[cb.index[i], "max_strings"] = draw(st.sampled_from([8, 30, 60]))
+        return _Edit(f"{how}:max_strings", dataclasses.replace(site, combiners=cb), design)
+    if how == "module":  # the module table: a module's short-circuit current 5 % higher
+        name = draw(st.sampled_from(sorted(site.modules)))
+        m = site.modules[name]
+        modules = {**site.modules, name: dataclasses.replace(m, isc_a=round(m.isc_a * 1.05, 3))}
+        return _Edit(how, dataclasses.replace(site, modules=modules), design)
     if how == "strings":
         rows = site.rows.copy()
         i = draw(st.integers(0, len(rows) - 1))
@@ -576,12 +602,19 @@ SIZING_ONLY = ("setting", "drop", "material")
 TRENCH_EDITS = ("trench_add", "trench_remove", "trench_redraw", "trench_attribute")
 
 
+#: edits of the site that a local re-plan takes only by routing in full and sizing locally
+ROUTED_IN_FULL = ("strings", "equipment", "module")
+
+
 def _path(kind: str, unmoved: bool) -> float:
     """The path a re-plan of an edit of ``kind`` takes (``timings_s["local"]``): 1.0 local
-    (a trench edit, with or without moves), 0.5 the routes reused (a sizing setting alone;
-    ``unmoved``: no feature moved, or one moved back onto itself), 0.0 a full plan."""
+    (a trench edit, with or without moves), 0.75 routed in full and sized locally (a row's
+    strings changed), 0.5 the routes reused (a sizing setting alone; ``unmoved``: no feature
+    moved, or one moved back onto itself), 0.0 a full plan."""
     if kind in TRENCH_EDITS:
         return 1.0
+    if kind in ROUTED_IN_FULL:
+        return 0.75
     return 0.5 if kind in SIZING_ONLY and unmoved else 0.0
 
 

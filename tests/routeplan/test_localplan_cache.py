@@ -180,6 +180,39 @@ def test_a_trench_edit_replans_locally_and_equals_a_cold_plan(failing_site, tmp_
     _same_as_cold(p, site, out, tmp_path)
 
 
+def _set(site: Path, layer: str, row: int, column: str, value) -> None:
+    frame = pyogrio.read_dataframe(site / "site.gpkg", layer=layer)
+    frame.loc[frame.index[row], column] = value
+    pyogrio.write_dataframe(frame, site / "site.gpkg", layer=layer, driver="GPKG")
+
+
+@pytest.mark.parametrize(
+    ("case", "layer", "row", "column", "value"),
+    [
+        ("a row's strings", "rows", 2, "strings", 1),
+        ("an inverter's rating", "inverters", 0, "ac_kva", 4000.0),
+    ],
+)
+def test_other_site_edits_are_sized_locally_from_the_cache(
+    failing_site, tmp_path, case, layer, row, column, value
+):
+    """A row's strings changed (circuits removed), an inverter's rating changed: routed in
+    full, only the blocks whose sizing input changed sized again — remedies included, each
+    what-if re-sized from the last run's — and every output equals a cold plan's."""
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    first = _replan(site, out)
+    _set(site, layer, row, column, value)
+    p = _replan(site, out)
+    assert p.cache.reused.get("local") is True
+    assert p.timings_s["local"] == 0.75
+    assert p.timings_s["local.circuits"] < len(first.circuits)
+    assert p.timings_s["local.whatifs"] >= 1
+    if column == "strings":
+        assert len(p.circuits) < len(first.circuits)
+    _same_as_cold(p, site, out, tmp_path)
+
+
 @pytest.mark.parametrize("edit", ["drop limit", "routing allowance", "nothing"])
 def test_other_edits_with_a_move_plan_in_full(failing_site, tmp_path, edit):
     site, out = tmp_path / "site", tmp_path / "out"
@@ -256,29 +289,30 @@ def test_a_trench_edit_that_splits_the_network_is_refused_as_a_cold_plan_refuses
 
 
 @pytest.mark.parametrize(
-    ("layer_file", "fid", "dx", "dy", "local"),
+    ("layer_file", "fid", "dx", "dy", "path"),
     [
         # the pad of block A: B2-T5 keeps CB-B2, the nearest
-        ("inverters.geojson", "INV-A", 0.0, 10.0, True),
+        ("inverters.geojson", "INV-A", 0.0, 10.0, 1.0),
         # CB-B2 40 ft along its trench: B2-T5 keeps it, by a longer route (the assignment's
         # route length changes, and the summary says so)
-        ("combiners.geojson", "CB-B2", 40.0, 0.0, True),
+        ("combiners.geojson", "CB-B2", 40.0, 0.0, 1.0),
         # CB-B2 250 ft along: B2-T5 keeps it only as the nearest with room — the rule that
-        # chose it changed: planned in full
-        ("combiners.geojson", "CB-B2", 250.0, 0.0, False),
+        # chose it changed: routed in full, and sized locally
+        ("combiners.geojson", "CB-B2", 250.0, 0.0, 0.75),
         # block B's ring trench redrawn 2 ft north: every route searched again, B2-T5 keeps
         # CB-B2 (re-planned locally)
-        ("trenches.geojson", "T-B-RING", 0.0, 2.0, True),
+        ("trenches.geojson", "T-B-RING", 0.0, 2.0, 1.0),
     ],
 )
-def test_a_move_with_destinations_chosen_by_route(tmp_path, layer_file, fid, dx, dy, local):
+def test_a_move_with_destinations_chosen_by_route(tmp_path, layer_file, fid, dx, dy, path):
     site, out = tmp_path / "site", tmp_path / "out"
     shutil.copytree(US_DEMO, site)
     before = _replan(site, out).summary["assigned"]
     assert [a["id"] for a in before] == ["B2-T5"]
     _move_json(site, layer_file, fid, dx, dy)
     p = _replan(site, out)
-    assert bool(p.cache.reused.get("local")) is local
+    assert p.cache.reused.get("local") is True
+    assert p.timings_s["local"] == path
     _same_as_cold(p, site, out, tmp_path)
     if fid == "CB-B2":
         assert p.summary["assigned"][0]["route_m"] > before[0]["route_m"]
