@@ -904,6 +904,8 @@ def _resized(
     if _shallow_trenches(seg, dp):
         return None
     c0, c = r0.circuits, routes.circuits
+    if not len(c0):
+        return None
     ids0 = pd.Index(c0["circuit_id"].to_numpy(dtype=object))
     air0, air = r0.air, routes.air
     air_key0, air_key = (
@@ -929,21 +931,10 @@ def _resized(
 
     # --- circuits whose sizing input differs: new, other per-circuit values, other routes
     inp0 = base.inp
-    affected = ~has
     at = np.maximum(c_old, 0)
-    for f in dataclasses.fields(inp):
-        if f.name in _NOT_PER_CIRCUIT:
-            continue
-        a, b = getattr(inp, f.name), getattr(inp0, f.name)
-        if a is None or b is None:
-            if (a is None) != (b is None):
-                return None  # another set of inputs given: the full plan
-            continue
-        b = np.asarray(b)[at]
-        a = np.asarray(a)
-        if f.name == "parent":  # positions: compared in the new numbering
-            b = np.where(b >= 0, c_new[np.maximum(b, 0)], -1)
-        affected |= ~(_same_nan(a, b) if a.dtype.kind == "f" else a == b)
+    affected = _inputs_differ(inp, inp0, c_old, c_new)
+    if affected is None:
+        return None  # another set of inputs given: the full plan
     old_in = c_new[r0.incidence_circuit]
     keep = old_in >= 0
     order = np.argsort(old_in[keep], kind="stable")  # by new circuit, route order kept
@@ -1027,6 +1018,30 @@ def _resized(
     return Plan(
         site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs
     )
+
+
+def _inputs_differ(
+    inp: calc.SizingInput, inp0: calc.SizingInput, c_old: np.ndarray, c_new: np.ndarray
+) -> np.ndarray | None:
+    """Per circuit of ``inp``, whether its own sizing input differs from that of the circuit it
+    was in ``inp0`` (``c_old``: each circuit's old position, -1: new, which differs; ``c_new``:
+    each old circuit's new position): any per-circuit value (NaN equals NaN), or its parent
+    (compared in the new numbering). None where one gives an optional input the other lacks."""
+    at = np.maximum(c_old, 0)
+    parent0 = np.asarray(inp0.parent)[at]
+    parent0 = np.where(parent0 >= 0, c_new[np.maximum(parent0, 0)], -1)
+    differ = (c_old < 0) | (np.asarray(inp.parent) != parent0)
+    for f in dataclasses.fields(inp):
+        if f.name in _NOT_PER_CIRCUIT:
+            continue
+        a, b = getattr(inp, f.name), getattr(inp0, f.name)
+        if a is None or b is None:
+            if (a is None) != (b is None):
+                return None
+            continue
+        a, b = np.asarray(a), np.asarray(b)[at]
+        differ |= ~(_same_nan(a, b) if a.dtype.kind == "f" else a == b)
+    return differ
 
 
 #: the what-if fields kept per circuit (the others are per segment or air stretch)

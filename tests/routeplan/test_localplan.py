@@ -41,7 +41,9 @@ from hypothesis import strategies as st
 from routeplan.check import load
 from routeplan.errors import DesignError, RoutingError
 from routeplan.localplan import (
+    _NOT_PER_CIRCUIT,
     MoveSearch,
+    _inputs_differ,
     _new_paths,
     baseline,
     moved_features,
@@ -249,6 +251,71 @@ def test_other_site_edits_are_routed_in_full_and_sized_locally(plants):
     assert moved_features(site, edited) is None
     moved, trench_edit = site_edit(site, edited)
     assert trench_edit and not any(len(v) for v in moved.values())
+
+
+def _permuted(inp, perm: np.ndarray):
+    """``inp`` with its circuits in another order: new circuit ``k`` is old circuit
+    ``perm[k]``, parents renumbered (segments and stretches as they are)."""
+    new_of_old = np.empty_like(perm)
+    new_of_old[perm] = np.arange(len(perm))
+    per = {
+        f.name: np.asarray(getattr(inp, f.name))[perm]
+        for f in dataclasses.fields(inp)
+        if f.name not in _NOT_PER_CIRCUIT and getattr(inp, f.name) is not None
+    }
+    parent = np.asarray(inp.parent)[perm]
+    per["parent"] = np.where(parent >= 0, new_of_old[np.maximum(parent, 0)], -1)
+    return dataclasses.replace(inp, **per), new_of_old
+
+
+def test_inputs_that_differ_are_found_in_a_new_circuit_order(plants):
+    """``_inputs_differ`` on the same circuits in reverse order (parents renumbered) finds
+    none; a circuit given another parent, another current, or made new is found, alone."""
+    _, _, base = plants["plain"]
+    inp0 = base.inp
+    n = len(inp0.kind)
+    perm = np.arange(n)[::-1].copy()
+    inp, new_of_old = _permuted(inp0, perm)
+    assert not _inputs_differ(inp, inp0, perm, new_of_old).any()
+    child = int(np.flatnonzero(np.asarray(inp.parent) >= 0)[0])
+    others = np.flatnonzero(
+        (np.asarray(inp.kind) == np.asarray(inp.kind)[np.asarray(inp.parent)[child]])
+        & (np.arange(n) != np.asarray(inp.parent)[child])
+    )
+    parent = np.asarray(inp.parent).copy()
+    parent[child] = others[0]  # another feeder of the same kind
+    moved = dataclasses.replace(inp, parent=parent)
+    assert np.flatnonzero(_inputs_differ(moved, inp0, perm, new_of_old)).tolist() == [child]
+    isc = np.asarray(inp.isc_a).copy()
+    isc[3] *= 1.05
+    hotter = dataclasses.replace(inp, isc_a=isc)
+    assert np.flatnonzero(_inputs_differ(hotter, inp0, perm, new_of_old)).tolist() == [3]
+    fresh = perm.copy()  # the last circuit, old circuit 0, taken as new: it differs although
+    fresh[n - 1] = -1  # a new circuit is compared with old circuit 0's values
+    assert np.flatnonzero(_inputs_differ(inp, inp0, fresh, new_of_old)).tolist() == [n - 1]
+
+
+def test_a_soil_survey_for_every_trench_resizes_every_buried_circuit(plants):
+    """Every trench given a soil thermal resistivity of 3.0 K·m/W together with a row's strings
+    changed (routed in full, sized locally): every segment's soil factor changes (IEC
+    60364-5-52:2009 Table B.52.16, from memory: other factors above the 2.5 K·m/W reference),
+    so every circuit on a segment is sized again, whichever block it belongs to — most array
+    and a.c. circuits get another utilisation — and the plan equals a cold plan."""
+    site, design, base = plants["plain"]
+    trenches = site.trenches.copy()
+    trenches["soil_k_m_w"] = 3.0
+    rows = site.rows.copy()
+    rows.loc[rows.index[0], "strings"] = int(rows["strings"].iloc[0]) - 1
+    edited = dataclasses.replace(site, trenches=trenches, rows=rows)
+    local = replan(base, edited)
+    assert local.timings_s["local"] == 0.75
+    buried = np.unique(local.routes.incidence_circuit)
+    assert local.timings_s["local.circuits"] >= len(buried)
+    u0 = base.plan.circuits.set_index("circuit_id")["utilisation"]
+    c1 = local.circuits.set_index("circuit_id")
+    fed = c1.index[(c1["kind"] != "string").to_numpy()]  # buried all along: strings run in air
+    assert (c1.loc[fed, "utilisation"] != u0.reindex(fed)).sum() > len(fed) // 2
+    assert_same_plan(local, plan_site(edited, design, with_remedies=False))
 
 
 def test_a_trench_edit_changes_the_plan_locally(plants):
@@ -464,7 +531,7 @@ def _with_trenches(site, trenches):
 
 
 @st.composite
-def other_edit(draw, site, design):
+def other_edit(draw, site, design, kinds: tuple[str, ...] | None = None):
     """One edit that is not a move, as an :class:`_Edit`: a trench added (a spur off a
     point along a trench, or a link between points of two nearby trenches), removed,
     redrawn (a vertex shifted a few metres, the line reversed, a vertex inserted on it, or
@@ -472,10 +539,12 @@ def other_edit(draw, site, design):
     resistivity, capacity); one row's strings changed, an inverter's rating or a combiner's
     room for strings, or a module's short-circuit current; or a design setting changed (ground
     temperature, air temperature, a voltage-drop limit, a conductor material; the cable slack,
-    which routes)."""
+    which routes). ``kinds``: drawn from these kinds only."""
     how = draw(
         st.sampled_from(
-            [
+            list(kinds)
+            if kinds
+            else [
                 "trench_add",
                 "trench_remove",
                 "trench_redraw",
@@ -676,6 +745,22 @@ def test_a_move_and_another_edit_equal_cold_plan(plants, name, data):
     kind = edit.label.split(":")[0]
     event(kind)
     _check_fallback(base, edit.site, edit.design, _path(kind, _unmoved(site, moved)))
+
+
+@pytest.mark.parametrize("name", ["plain", "tight", "inputs"])
+@settings(
+    max_examples=12, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(data=st.data())
+def test_a_trench_edit_and_another_site_edit_equal_cold_plan(plants, name, data):
+    """A trench edit together with a row's strings, an equipment attribute or a module edit:
+    routed in full and sized locally (a segment whose count or attributes changed re-sizes
+    every circuit on it, whichever block it belongs to), equal to a cold plan."""
+    site, design, base = plants[name]
+    first = data.draw(other_edit(site, design, TRENCH_EDITS))
+    edit = data.draw(other_edit(first.site, design, ROUTED_IN_FULL))
+    event(f"{first.label.split(':')[0]} + {edit.label.split(':')[0]}")
+    _check_fallback(base, edit.site, edit.design, 0.75)
 
 
 def test_a_setting_change_resizes_on_the_same_routes(plants):
