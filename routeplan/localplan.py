@@ -953,18 +953,21 @@ def _resized(
     # --- segments and air stretches whose figures differ: their circuits too
     born = old_of_new < 0
     o = np.maximum(old_of_new, 0)
-    seg_changed = born.copy()
-    for name in ("seg_depth_m", "seg_laying", "seg_spacing_m", "seg_soil_k_m_w", "seg_count"):
-        seg_changed |= ~_same_nan(getattr(inp, name), np.asarray(getattr(inp0, name))[o])
-    if inp.seg_length_m is not None and inp0.seg_length_m is not None:
-        seg_changed |= ~_same_nan(inp.seg_length_m, np.asarray(inp0.seg_length_m)[o])
     air_born = air_old_of_new < 0
     a_o = np.maximum(air_old_of_new, 0)
     n_air0 = np.bincount(r0.air_incidence_stretch, minlength=len(air0))[a_o]
     n_air = np.bincount(routes.air_incidence_stretch, minlength=len(air))
-    air_changed = air_born | (n_air != n_air0)
-    air_changed |= ~_same_nan(air["length_m"], air0["length_m"].to_numpy(float)[a_o])
-    air_changed |= np.asarray(inp.air_behind_modules) != np.asarray(inp0.air_behind_modules)[a_o]
+    seg_changed, air_changed = born.copy(), air_born | (n_air != n_air0)
+    for name in sorted(_NOT_PER_CIRCUIT - _INCIDENCE):  # per-segment and per-stretch values
+        a, b = getattr(inp, name), getattr(inp0, name)
+        if a is None or b is None:
+            if (a is None) != (b is None):
+                return None
+            continue
+        if name.startswith("seg_"):
+            seg_changed |= ~_same_nan(a, np.asarray(b, dtype=float)[o])
+        else:
+            air_changed |= ~_same_nan(a, np.asarray(b, dtype=float)[a_o])
     inc_c, inc_s = routes.incidence_circuit, routes.incidence_segment
     air_c, air_s = routes.air_incidence_circuit, routes.air_incidence_stretch
     affected[inc_c[seg_changed[inc_s]]] = True
@@ -1480,6 +1483,9 @@ def _part(values: np.ndarray | None, which: np.ndarray) -> np.ndarray | None:
     """``values[which]``; None (not given) stays None."""
     return None if values is None else np.asarray(values)[which]
 
+
+#: the fields of calc.SizingInput that relate circuits, segments and stretches (not values)
+_INCIDENCE = {"parent", "inc_circuit", "inc_segment", "air_inc_circuit", "air_inc_stretch"}
 
 _NOT_PER_CIRCUIT = {
     "parent",
