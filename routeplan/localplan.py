@@ -559,8 +559,8 @@ def _local(
     """The local re-plan (see the module docstring); None where it cannot be made (trench
     geometry the network refuses, a feature left unconnected, circuits whose ends lie on
     separate islands, a trench too shallow, inputs that cannot be assigned: the full plan
-    reports why). ``light``:
-    :class:`Figures` only. ``trenches``: the trench layer differs from the baseline's.
+    reports why). ``light``: :class:`Figures` only. ``trenches``: the trench layer differs
+    from the baseline's.
     ``whatifs``: remedies are computed, their what-ifs re-sized from ``whatifs_before`` (the
     last run's, :class:`routeplan.remedy.WhatIfs`'s ``kept``) and kept in ``whatifs``."""
     t: dict[str, float] = {}
@@ -842,19 +842,7 @@ def _local(
     remedy = None
     if whatifs is not None:  # each what-if re-sized from the last run's, where it has one
         t2 = time.perf_counter()
-        # a what-if of the plan's own settings (wider spacing: the inputs alone change) that
-        # the last run did not make starts from the last plan's sizing, the same what-if with
-        # no spacing widened
-        own = {k: getattr(old.sizing, k) for k in WHATIF_FIELDS}
-        own["seg_spacing_m"] = inp0.seg_spacing_m
-        dp_text = repr(dp)
-
-        def resize(key: str, i: calc.SizingInput, d: calc.DesignParams):
-            kept = whatifs_before or {}
-            prev = kept.get(key, own if repr(d) == dp_text else None)
-            return edit.whatif(prev, i, d, rules)
-
-        whatifs.resize = resize
+        whatifs.resize = _whatif_resizer(edit, whatifs_before or {}, old.sizing, inp0, dp, rules)
         remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]  # the tables' time leaves the remedies out
@@ -993,18 +981,11 @@ def _resized(
     remedy = None
     if whatifs is not None:
         t2 = time.perf_counter()
-        own = {k: getattr(prev, k) for k in WHATIF_FIELDS}
-        own["seg_spacing_m"] = inp0.seg_spacing_m
-        dp_text = repr(dp)
-        before = {
+        before = {  # the last run's what-ifs in the new circuit numbering
             k: {**v, **{f: np.asarray(v[f])[at] for f in _CIRCUIT_WHATIF_FIELDS}}
             for k, v in (whatifs_before or {}).items()
         }
-
-        def resize(key: str, i: calc.SizingInput, d: calc.DesignParams):
-            return edit.whatif(before.get(key, own if repr(d) == dp_text else None), i, d, rules)
-
-        whatifs.resize = resize
+        whatifs.resize = _whatif_resizer(edit, before, prev, inp0, dp, rules)
         remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]
@@ -1045,6 +1026,28 @@ def _inputs_differ(
         a, b = np.asarray(a), np.asarray(b)[at]
         differ |= ~(_same_nan(a, b) if a.dtype.kind == "f" else a == b)
     return differ
+
+
+def _whatif_resizer(
+    edit: _Edit,
+    before: dict,
+    sizing: calc.SizingResult,
+    inp0: calc.SizingInput,
+    dp: calc.DesignParams,
+    rules: str,
+) -> Callable:
+    """The ``resize`` of :class:`routeplan.remedy.WhatIfs` for a re-plan: each what-if re-sized
+    by ``edit`` from the last run's (``before``, by key). A what-if of the plan's own settings
+    (wider spacing: the inputs alone change) that the last run did not make starts from the
+    last plan's ``sizing``, the same what-if with no spacing widened (``inp0``'s spacings)."""
+    own = {k: getattr(sizing, k) for k in WHATIF_FIELDS}
+    own["seg_spacing_m"] = inp0.seg_spacing_m
+    dp_text = repr(dp)
+
+    def resize(key: str, i: calc.SizingInput, d: calc.DesignParams):
+        return edit.whatif(before.get(key, own if repr(d) == dp_text else None), i, d, rules)
+
+    return resize
 
 
 #: the what-if fields kept per circuit (the others are per segment or air stretch)
