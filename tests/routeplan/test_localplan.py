@@ -536,7 +536,8 @@ def other_edit(draw, site, design, kinds: tuple[str, ...] | None = None):
     point along a trench, or a link between points of two nearby trenches), removed,
     redrawn (a vertex shifted a few metres, the line reversed, a vertex inserted on it, or
     the whole line moved) or given another attribute (depth, laying, spacing, soil thermal
-    resistivity, capacity); one row's strings changed, an inverter's rating or a combiner's
+    resistivity, capacity); one row's strings changed, a row added beside another or removed,
+    an inverter's rating or a combiner's
     room for strings, or a module's short-circuit current; or a design setting changed (ground
     temperature, air temperature, a voltage-drop limit, a conductor material; the cable slack,
     which routes). ``kinds``: drawn from these kinds only."""
@@ -550,6 +551,8 @@ def other_edit(draw, site, design, kinds: tuple[str, ...] | None = None):
                 "trench_redraw",
                 "trench_attribute",
                 "strings",
+                "row_add",
+                "row_remove",
                 "equipment",
                 "module",
                 "setting",
@@ -622,6 +625,20 @@ def other_edit(draw, site, design, kinds: tuple[str, ...] | None = None):
         edited = tr.copy()
         edited.loc[edited.index[i], col] = value
         return _Edit(f"{how}:{col}", _with_trenches(site, edited), design)
+    if how == "row_add":  # a copy of a row a few metres aside, feeding the same combiner
+        rows = site.rows
+        i = draw(st.integers(0, len(rows) - 1))
+        new = rows.iloc[[i]].copy()
+        new["id"] = "R-added"
+        d = draw(st.sampled_from([(0.0, 3.0), (4.0, 0.0), (-2.0, -2.0)]))
+        new = new.set_geometry(new.geometry.translate(*d))
+        added = pd.concat([rows, new], ignore_index=True)
+        return _Edit(how, dataclasses.replace(site, rows=added), design)
+    if how == "row_remove":
+        rows = site.rows
+        i = draw(st.integers(0, len(rows) - 1))
+        kept = rows.drop(index=rows.index[i]).reset_index(drop=True)
+        return _Edit(how, dataclasses.replace(site, rows=kept), design)
     if how == "equipment":  # an inverter's rating, or a combiner's room for strings
         if draw(st.booleans()):
             inv = site.inverters.copy()
@@ -672,7 +689,7 @@ TRENCH_EDITS = ("trench_add", "trench_remove", "trench_redraw", "trench_attribut
 
 
 #: edits of the site that a local re-plan takes only by routing in full and sizing locally
-ROUTED_IN_FULL = ("strings", "equipment", "module")
+ROUTED_IN_FULL = ("strings", "row_add", "row_remove", "equipment", "module")
 
 
 def _path(kind: str, unmoved: bool) -> float:
