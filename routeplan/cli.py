@@ -507,7 +507,7 @@ def place(
 #: how the cache line names a stage, where its name alone says too little
 _STAGE_WORDS = {
     "noding": "trench noding",
-    "local": "the last plan (re-planned locally: only the moved equipment's blocks)",
+    "local": "the last plan (re-planned locally: only the blocks the edit changes sized again)",
 }
 
 

@@ -353,8 +353,8 @@ def plan(
     ``progress(stage)`` is called as each stage starts (for the CLI's display). With
     ``cache`` (the output folder's :class:`routeplan.cache.PlanCache`), stages whose inputs
     did not change since the run that wrote it are reused, and the new results are kept for
-    the next run; after a move of combiners or inverters alone, the last run's plan is
-    re-planned locally (:func:`routeplan.localplan.from_cache`). The results are the same as
+    the next run; after an edit of the site alone (settings unchanged), the last run's plan
+    is re-planned locally (:func:`routeplan.localplan.from_cache`). The results are the same as
     without it. Raises :class:`layers.SiteError` /
     :class:`routeplan.errors.RoutingError` on bad input.
     """

@@ -342,8 +342,8 @@ def test_the_command_says_what_an_edit_reused(demo, tmp_path):
     # the trenches did not change: their noding is reused, and only the pad moved: the last
     # plan is re-planned locally
     assert line.startswith(
-        "cache: reused trench noding, the last plan (re-planned locally: only the moved "
-        "equipment's blocks); outputs updated: "
+        "cache: reused trench noding, the last plan (re-planned locally: only the blocks the "
+        "edit changes sized again); outputs updated: "
     )
     assert "GeoPackage rows rewritten" in line
 
