@@ -95,6 +95,9 @@ def test_failing_site_has_remedies(failing_site, tmp_path):
         ("pad", [("inverters", 0, 0.0, 6.0)]),
         ("combiner", [("combiners", 1, -4.0, 3.0)]),
         ("both", [("inverters", 1, 5.0, 0.0), ("combiners", 0, 0.0, -5.0)]),
+        # a trench redrawn (moved as a whole), alone or with a pad move
+        ("trench moved", [("trenches", 0, 0.5, 0.0)]),
+        ("trench and pad", [("trenches", 3, 0.0, -1.0), ("inverters", 0, 0.0, 6.0)]),
     ],
 )
 def test_a_move_replans_locally_and_equals_a_cold_plan(failing_site, tmp_path, case, moves):
@@ -157,27 +160,6 @@ def _with_setting(site: Path, old: str, new: str) -> None:
     text = toml.read_text()
     assert old in text
     toml.write_text(text.replace(old, new, 1))
-
-
-@pytest.mark.parametrize(
-    ("case", "moves"),
-    [
-        ("trench moved", [("trenches", 0, 0.5, 0.0)]),
-        ("trench and pad", [("trenches", 3, 0.0, -1.0), ("inverters", 0, 0.0, 6.0)]),
-    ],
-)
-def test_a_trench_edit_replans_locally_and_equals_a_cold_plan(failing_site, tmp_path, case, moves):
-    """A trench redrawn (moved as a whole, alone or with a pad move) is re-planned locally from
-    the cache, remedies included, as a cold plan plans it."""
-    site, out = tmp_path / "site", tmp_path / "out"
-    shutil.copytree(failing_site, site)
-    _replan(site, out)
-    for layer, row, dx, dy in moves:
-        _move(site, layer, row, dx, dy)
-    p = _replan(site, out)
-    assert p.cache.reused.get("local") is True
-    assert p.timings_s["local"] == 1.0
-    _same_as_cold(p, site, out, tmp_path)
 
 
 def _set(site: Path, layer: str, row: int, column: str, value) -> None:
@@ -247,13 +229,20 @@ def test_a_move_off_the_network_is_refused_as_a_cold_plan_refuses_it(failing_sit
     shutil.copytree(failing_site, site)
     _replan(site, out)
     _move(site, "inverters", 0, 3000.0, 0.0)  # far beyond snap_m of every trench
+    _, message = _refused_alike(site, out)
+    assert "INV001" in message and "snap_m" in message
+
+
+def _refused_alike(site: Path, out: Path) -> tuple[str, str]:
+    """The error a plan of ``site`` raises with the folder's cache, which must be the one a
+    plan without it raises: its class name and message."""
     messages = []
     for cache in (PlanCache(out), None):
         with pytest.raises(Exception) as caught:
             plan(site, cache=cache)
         messages.append((type(caught.value).__name__, str(caught.value)))
     assert messages[0] == messages[1]
-    assert "INV001" in messages[0][1] and "snap_m" in messages[0][1]
+    return messages[0]
 
 
 # -- destinations chosen by route length (the US demo: row B2-T5 has no ``to``) --------------
@@ -279,13 +268,8 @@ def test_a_trench_edit_that_splits_the_network_is_refused_as_a_cold_plan_refuses
     shutil.copytree(US_DEMO, site)
     _replan(site, out)
     _move_json(site, "trenches.geojson", "T-B-DUCT", 1.0, 0.0)
-    messages = []
-    for cache in (PlanCache(out), None):
-        with pytest.raises(Exception) as caught:
-            plan(site, cache=cache)
-        messages.append((type(caught.value).__name__, str(caught.value)))
-    assert messages[0] == messages[1]
-    assert messages[0][0] == "UnreachableError" and "CB-B1" in messages[0][1]
+    name, message = _refused_alike(site, out)
+    assert name == "UnreachableError" and "CB-B1" in message
 
 
 @pytest.mark.parametrize(
