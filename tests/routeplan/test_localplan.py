@@ -537,7 +537,7 @@ def other_edit(draw, site, design, kinds: tuple[str, ...] | None = None):
     redrawn (a vertex shifted a few metres, the line reversed, a vertex inserted on it, or
     the whole line moved) or given another attribute (depth, laying, spacing, soil thermal
     resistivity, capacity); one row's strings changed, a row added beside another or removed,
-    an inverter's rating or a combiner's
+    the rows in reverse order, an inverter's rating or a combiner's
     room for strings, or a module's short-circuit current; or a design setting changed (ground
     temperature, air temperature, a voltage-drop limit, a conductor material; the cable slack,
     which routes). ``kinds``: drawn from these kinds only."""
@@ -553,6 +553,7 @@ def other_edit(draw, site, design, kinds: tuple[str, ...] | None = None):
                 "strings",
                 "row_add",
                 "row_remove",
+                "row_order",
                 "equipment",
                 "module",
                 "setting",
@@ -634,6 +635,9 @@ def other_edit(draw, site, design, kinds: tuple[str, ...] | None = None):
         new = new.set_geometry(new.geometry.translate(*d))
         added = pd.concat([rows, new], ignore_index=True)
         return _Edit(how, dataclasses.replace(site, rows=added), design)
+    if how == "row_order":  # the same rows in reverse order (circuits numbered anew)
+        rows = site.rows.iloc[::-1].reset_index(drop=True)
+        return _Edit(how, dataclasses.replace(site, rows=rows), design)
     if how == "row_remove":
         rows = site.rows
         i = draw(st.integers(0, len(rows) - 1))
@@ -689,7 +693,7 @@ TRENCH_EDITS = ("trench_add", "trench_remove", "trench_redraw", "trench_attribut
 
 
 #: edits of the site that a local re-plan takes only by routing in full and sizing locally
-ROUTED_IN_FULL = ("strings", "row_add", "row_remove", "equipment", "module")
+ROUTED_IN_FULL = ("strings", "row_add", "row_remove", "row_order", "equipment", "module")
 
 
 def _path(kind: str, unmoved: bool) -> float:
