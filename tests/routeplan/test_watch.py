@@ -16,6 +16,7 @@ import sys
 import time
 from pathlib import Path
 
+import pyogrio
 import pytest
 
 from layers import LayerError
@@ -78,8 +79,8 @@ def test_a_pad_move_is_replanned_from_memory(gen, tmp_path, monkeypatch):
 
 def test_edits_undone_and_repeated_give_cold_outputs(gen, tmp_path):
     """Move, move back (the first run's site again: its entries come from memory, from the
-    run before last), an unchanged run, a trench edit (re-planned locally too), each against a
-    cold run."""
+    run before last), an unchanged run, a trench edit (re-planned locally too), a row's strings
+    changed (routed in full, sized locally), each against a cold run."""
     out = tmp_path / "out"
     original = (gen / "site.gpkg").read_bytes()
     watcher = Watcher(gen, out)
@@ -100,6 +101,12 @@ def test_edits_undone_and_repeated_give_cold_outputs(gen, tmp_path):
     plan, _ = watcher.run()
     assert plan.cache.reused.get("local") is True
     same_as_cold(gen, out, tmp_path / "cold4")
+    rows = pyogrio.read_dataframe(gen / "site.gpkg", layer="rows")  # a row's strings: one fewer
+    rows.loc[rows.index[3], "strings"] = int(rows["strings"].iloc[3]) - 1
+    pyogrio.write_dataframe(rows, gen / "site.gpkg", layer="rows", driver="GPKG")
+    plan, _ = watcher.run()
+    assert plan.cache.reused.get("local") is True and plan.timings_s["local"] == 0.75
+    same_as_cold(gen, out, tmp_path / "cold5")
 
 
 def test_bad_input_keeps_the_last_outputs_and_the_next_fix_plans(gen, tmp_path):
