@@ -110,7 +110,6 @@ from .network import TRENCH_ATTRIBUTES, NetworkMemo, TrenchNetwork, retap, trenc
 from .order import inverter_of, schedule_order
 from .pipeline import (
     Plan,
-    _shallow_trenches,
     assigned_destinations,
     conductor_poles,
     design_params,
@@ -121,6 +120,7 @@ from .pipeline import (
     plan_tables,
     route_params,
     segment_fill,
+    shallow_trenches,
     sizing_input,
 )
 from .remedy import WHATIF_FIELDS, WhatIfs
@@ -588,7 +588,7 @@ def _local(
 
     # --- segments: new ↔ old by id (same length), and what no longer exists
     seg0, seg = net0.segments, net.segments
-    if trenches and _shallow_trenches(seg, base.dp):
+    if trenches and shallow_trenches(seg, base.dp):
         return None  # a trench too shallow for its cables: the full plan reports it
     n_seg = len(seg)
     new_of_old, old_of_new = _segment_map(seg0, seg, geometry=trenches)
@@ -889,7 +889,7 @@ def _resized(
     t1 = time.perf_counter()
     dp, rules = base.dp, design.values["rules"]
     seg = routes.network.segments
-    if _shallow_trenches(seg, dp):
+    if shallow_trenches(seg, dp):
         return None
     c0, c = r0.circuits, routes.circuits
     if not len(c0):

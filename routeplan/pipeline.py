@@ -451,7 +451,7 @@ def plan_site(
     t0 = time.perf_counter()
     inp, own_input = sizing_input(site, routes)
     dp = design_params(design)
-    shallow = _shallow_trenches(routes.segments, dp)
+    shallow = shallow_trenches(routes.segments, dp)
     if shallow:
         raise DesignError(shallow)
     rules = design.values["rules"]
@@ -558,7 +558,7 @@ def _design_key_of(message: str) -> str:
     return "design"
 
 
-def _shallow_trenches(segments: pd.DataFrame, dp: calc.DesignParams) -> list[Problem]:
+def shallow_trenches(segments: pd.DataFrame, dp: calc.DesignParams) -> list[Problem]:
     """Trenches whose depth does not exceed half the outer diameter of what lies in them (a
     direct-buried circuit or a duct, ``cable_od_m`` / ``duct_od_m``): the cable would not be
     buried. One problem per trench, naming it."""
