@@ -535,8 +535,8 @@ def figures(base: Baseline, site: Site, network: TrenchNetwork | None = None) ->
     t0 = time.perf_counter()
     old = base.plan
     edit = _edit_of(base, site, old.design) if base.figure_static is not None else None
-    if edit is not None:
-        out = _local(base, site, old.design, t0, network=network, light=True, trenches=edit[1])
+    if edit is not None and not edit[1]:  # moves alone (the candidates of a placement search)
+        out = _local(base, site, old.design, t0, network=network, light=True)
         if out is not None:
             return out
     plan = plan_site(site, old.design, noding_memo=old.routes.network.memo, with_remedies=False)
