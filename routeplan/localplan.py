@@ -419,7 +419,6 @@ def from_cache(
             whatifs=whatifs, whatifs_before=before,
         )  # fmt: skip
     if plan is None:  # another edit, or a move the local re-plan leaves: sized locally
-        whatifs = WhatIfs(rules)
         plan = _resized(base, site, design, t0, memo=memo0, whatifs=whatifs, whatifs_before=before)
     if plan is None:
         return None

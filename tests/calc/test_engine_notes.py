@@ -83,11 +83,10 @@ def test_short_circuit_note():
     ]
 
 
-def test_no_breaker_and_parallel_sets_in_the_note():
-    # Ib 5000 A (datasheet maximum) is above the largest IEC 60947-2 rating (4000 A, from
-    # memory); the cable is held to Ib: 4 × 300 mm² in trefoil, 703 A (B.52.12 method F, from
-    # memory) × 0.91 = 639.7 A per set, 2559 A in all
-    inp = SizingInput(
+def beyond_breakers() -> SizingInput:
+    """An a.c. circuit of 10 m in air whose Ib (5000 A, the datasheet maximum) is above the
+    largest IEC 60947-2 breaker rating (4000 A, from memory): no protective device fits it."""
+    return SizingInput(
         kind=np.array([2], dtype=np.int8),
         cable_m=np.array([10.0]),
         air_m=np.array([10.0]),
@@ -95,7 +94,13 @@ def test_no_breaker_and_parallel_sets_in_the_note():
         ac_v=np.array([800.0]),
         ac_max_a=np.array([5000.0]),
     )
-    r = size_circuits(inp)
+
+
+def test_no_breaker_and_parallel_sets_in_the_note():
+    # Ib 5000 A (datasheet maximum) is above the largest IEC 60947-2 rating (4000 A, from
+    # memory); the cable is held to Ib: 4 × 300 mm² in trefoil, 703 A (B.52.12 method F, from
+    # memory) × 0.91 = 639.7 A per set, 2559 A in all
+    r = size_circuits(beyond_breakers())
     assert r.parallel.tolist() == [4] and r.size_mm2.tolist() == [300.0]
     assert_allclose(r.ampacity_a, [4 * 703.0 * 0.91])
     assert np.isnan(r.ac_breaker_a[0]) and r.ac_ib_a.tolist() == [5000.0]

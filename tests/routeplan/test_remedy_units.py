@@ -37,6 +37,7 @@ import calc
 from routeplan.pipeline import MAX_PARALLEL
 from routeplan.remedy import WhatIfs, _sorted_codes, remedies
 from tests.calc.test_engine_input_edges import _input as calc_input
+from tests.calc.test_engine_notes import beyond_breakers
 
 SPACING_TEXT = "(design.spacing_m where a trench has none)"
 STRING_LIMIT = "limited by largest size in design.sizes_mm2.string (4 mm²)"
@@ -552,16 +553,8 @@ def test_a_circuit_failing_for_a_reason_no_setting_here_changes_has_no_limit_nor
     # from memory; tests/calc/test_engine_notes.py), so it fails with no protective device,
     # neither on capacity nor on drop; no size, set or spacing gives it one: an empty text
     # (the schedule's note says why)
-    inp = calc.SizingInput(
-        kind=np.array([2], dtype=np.int8),
-        cable_m=np.array([10.0]),
-        air_m=np.array([10.0]),
-        ac_kva=np.array([3000.0]),
-        ac_v=np.array([800.0]),
-        ac_max_a=np.array([5000.0]),
-    )
     dp = calc.DesignParams(max_parallel=8)
-    assert _remedies(inp, dp, segments=0) == [""]
+    assert _remedies(beyond_breakers(), dp, segments=0) == [""]
 
 
 def test_trench_names_are_ranked_as_python_sorts_their_text():
