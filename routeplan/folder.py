@@ -28,6 +28,9 @@ leaves the previous outputs as they were, and a work folder that the next run re
 kill after it leaves a committed work folder that the next command opening the folder
 completes before anything else (rolling forward: the folder then holds the new outputs, as
 the manifest says). So the folder always holds one complete run once it is opened again.
+A run may add files in a second commit before it releases the folder
+(:meth:`OutputFolder.follow_up`, keeping the first commit's files: a watching process's cache
+entries); a kill between the two leaves the first commit complete.
 (A kill is a killed process; a power cut can lose what the operating system had not yet
 written to disk.)
 
@@ -209,6 +212,7 @@ class OutputFolder:
         self._created = created
         self._lock = lock
         self._work: Path | None = None
+        self._next: Path | None = None  # the second commit's work folder (next_work)
         self.committed: Manifest | None = None
 
     # -- opening ------------------------------------------------------------------------
@@ -439,6 +443,26 @@ class OutputFolder:
         self.committed = manifest
         return manifest
 
+    def next_work(self) -> Path:
+        """The work folder of this run's second commit (:meth:`follow_up`), made now, so
+        that a child process can write into it before the first commit (a watching process's
+        map memo)."""
+        if self._next is None:
+            self._next = self._new_work()
+        return self._next
+
+    def follow_up(self) -> None:
+        """Make :meth:`next_work` (made now if it was not) this run's work folder after
+        :meth:`commit`, the folder still locked, for a second commit of the same run
+        (``keep_others=True``: the files just committed stay; a watching process's cache
+        entries, :meth:`routeplan.cache.PlanCache.save_deferred`). A kill before that commit
+        leaves the first one's folder, complete, and a work folder the next run removes."""
+        if self.committed is None or self._work is not None or self._lock is None:
+            raise RuntimeError("follow_up() comes after a commit, before close()")
+        self.previous = self.committed
+        self._work = self.next_work()
+        self._next = None
+
     # -- recovery and closing -------------------------------------------------------------
     def _recover(self) -> None:
         """Complete a killed run's committed work folder; remove an uncommitted one."""
@@ -456,9 +480,10 @@ class OutputFolder:
     def close(self) -> None:
         """Release the folder: remove the work folder of a run that did not commit, remove
         folders this run created if they are still empty, and release the lock."""
-        if self._work is not None:
-            shutil.rmtree(self._work, ignore_errors=True)
-            self._work = None
+        for work in (self._work, self._next):
+            if work is not None:
+                shutil.rmtree(work, ignore_errors=True)
+        self._work = self._next = None
         if self.committed is None:
             _remove_created(self._created)
         _release_lock(self._lock)

@@ -24,14 +24,43 @@ from dataclasses import dataclass
 
 @dataclass
 class Job:
-    """A job running in a child process (``pid``), or to run in this one (``pid`` None)."""
+    """A job running in a child process (``pid``), or to run in this one (``pid`` None).
+
+    ``then``: a second part, run after ``work`` in the same child once the child has said
+    that ``work`` is done (:meth:`wait_first` returns then, while ``then`` still runs)."""
 
     work: Callable[[], None]
     pid: int | None = None
     done: bool = False
+    then: Callable[[], None] | None = None
+    #: the read end of the pipe the child writes one byte to once ``work`` is done
+    ready_fd: int | None = None
+    first_done: bool = False
+
+    def _read_signal(self) -> None:
+        """Read the child's byte (blocks until it comes or the child has exited)."""
+        if self.ready_fd is not None:
+            if os.read(self.ready_fd, 1):
+                self.first_done = True
+            os.close(self.ready_fd)
+            self.ready_fd = None
+
+    def wait_first(self) -> None:
+        """Return once ``work`` is done (in the child, which may still run ``then``); run it
+        here if the child failed before."""
+        if self.first_done or self.done:
+            return
+        self._read_signal()
+        if self.first_done:
+            return
+        if self.pid is not None:  # the child failed before the signal: reap it
+            os.waitpid(self.pid, 0)
+            self.pid = None
+        self.work()
+        self.first_done = True
 
     def wait(self) -> None:
-        """Wait for the child; run the job here if it failed or never ran."""
+        """Wait for the child; run here what it failed to do or never ran."""
         if self.done:
             return
         ok = False
@@ -39,8 +68,13 @@ class Job:
             _, status = os.waitpid(self.pid, 0)
             ok = os.waitstatus_to_exitcode(status) == 0
             self.pid = None
+        self._read_signal()
         if not ok:
-            self.work()
+            if not self.first_done:
+                self.work()
+                self.first_done = True
+            if self.then is not None:
+                self.then()
         self.done = True
 
     def cancel(self) -> None:
@@ -52,23 +86,32 @@ class Job:
             except OSError:
                 pass
             self.pid = None
+        if self.ready_fd is not None:
+            os.close(self.ready_fd)
+            self.ready_fd = None
         self.done = True
 
 
-def start(work: Callable[[], None], nice: int = 0) -> Job:
+def start(work: Callable[[], None], nice: int = 0, then: Callable[[], None] | None = None) -> Job:
     """Start ``work`` in a forked child; where that is not possible it runs at ``wait()``.
     ``nice``: added to the child's niceness (:func:`os.nice`), for a job the others should
-    not wait for while they compete for the cores."""
-    job = Job(work)
+    not wait for while they compete for the cores. ``then``: run in the child after
+    ``work``, once the child has told the parent that ``work`` is done (:meth:`Job.wait_first`:
+    e.g. a file the parent waits for, then a record it can commit later)."""
+    job = Job(work, then=then)
     if not hasattr(os, "fork") or os.environ.get("ROUTEPLAN_SERIAL"):
         return job
     sys.stdout.flush()
     sys.stderr.flush()
+    read_fd, write_fd = os.pipe() if then is not None else (None, None)
     try:
         with warnings.catch_warnings():  # Python 3.12+ warns of fork with threads (see above)
             warnings.simplefilter("ignore", DeprecationWarning)
             pid = os.fork()
     except OSError:
+        if read_fd is not None:
+            os.close(read_fd)
+            os.close(write_fd)
         return job
     if pid == 0:  # the child
         code = 1
@@ -76,8 +119,16 @@ def start(work: Callable[[], None], nice: int = 0) -> Job:
             if nice:
                 os.nice(nice)
             work()
+            if then is not None:
+                os.close(read_fd)
+                os.write(write_fd, b"1")
+                os.close(write_fd)
+                then()
             code = 0
         finally:
             os._exit(code)
     job.pid = pid
+    if write_fd is not None:
+        os.close(write_fd)
+        job.ready_fd = read_fd
     return job

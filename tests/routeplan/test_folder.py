@@ -590,3 +590,49 @@ def test_a_kill_at_any_time_during_a_plan(plant, tmp_path):
             child.send_signal(signal.SIGKILL)
         child.communicate(timeout=600)
         _check_after_kill(out, before, after, mine)
+
+
+def _listed(out: Path) -> set[str]:
+    return set(json.loads((out / MANIFEST).read_text(encoding="utf-8"))["files"])
+
+
+def test_a_second_commit_of_one_run_adds_its_files_and_a_kill_before_it_leaves_the_first(
+    tmp_path,
+):
+    """OutputFolder.next_work / follow_up (a watching process's cache after its outputs)."""
+    out = tmp_path / "out"
+    folder = OutputFolder.open(out, "plan")
+    with pytest.raises(RuntimeError):
+        folder.follow_up()  # only after a commit
+    (folder.work / "a.txt").write_text("first commit", encoding="utf-8")
+    later = folder.next_work()  # made now: a child may write into it before the first commit
+    (later / "b.txt").write_text("second commit", encoding="utf-8")
+    folder.commit(["a.txt"])
+    assert _listed(out) == {"a.txt"} and not (out / "b.txt").exists() and later.is_dir()
+    folder.follow_up()
+    assert folder.work == later
+    folder.commit(["b.txt"], keep_others=True)
+    folder.close()
+    assert _listed(out) == {"a.txt", "b.txt"} and not list(out.glob(f"{WORK_PREFIX}*"))
+    assert_complete_except_work(out)
+
+    # a kill between the two commits: the next open removes the reserved work folder and
+    # keeps the first commit's files, as listed
+    folder = OutputFolder.open(out, "plan")
+    (folder.work / "c.txt").write_text("a later run", encoding="utf-8")
+    later = folder.next_work()
+    (later / "d.txt").write_text("never committed", encoding="utf-8")
+    folder.commit(["c.txt"])
+    folder_mod._release_lock(folder._lock)  # the process dies here: no close, no clean-up
+    folder._lock = None
+    with OutputFolder.open(out, "plan"):
+        pass
+    assert not later.exists() and not (out / "d.txt").exists()
+    assert _listed(out) == {"c.txt"} and (out / "c.txt").read_text() == "a later run"
+    assert_complete_except_work(out)
+
+    # a run that fails before its first commit removes both work folders
+    folder = OutputFolder.open(out, "plan")
+    work, later = folder.work, folder.next_work()
+    folder.close()
+    assert not work.exists() and not later.exists() and _listed(out) == {"c.txt"}

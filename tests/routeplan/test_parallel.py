@@ -89,3 +89,82 @@ def test_the_report_yields_the_cores_only_once_its_charts_are_warm():
     )
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert done.stdout.split() == ["0", "10"]
+
+
+def _stamp(path):
+    """A job part that writes this process's id into ``path``."""
+    return lambda: path.write_text(str(os.getpid()))
+
+
+def _wait_file(path, timeout_s: float = 60.0) -> None:
+    end = time.monotonic() + timeout_s
+    while not path.exists():
+        if time.monotonic() > end:
+            raise TimeoutError(path)
+        time.sleep(0.01)
+
+
+def test_wait_first_returns_while_the_second_part_still_runs(tmp_path):
+    first, go, second = tmp_path / "first", tmp_path / "go", tmp_path / "second"
+
+    def then():
+        _wait_file(go)  # held until the parent has seen the first part done
+        second.write_text(str(os.getpid()))
+
+    job = parallel.start(_stamp(first), then=then)
+    try:
+        job.wait_first()
+        assert first.read_text() not in ("", str(os.getpid()))  # the child wrote it
+        assert not second.exists()  # the second part has not run: wait_first did not wait
+        go.touch()
+        job.wait()
+        assert second.read_text() == first.read_text()  # the same child, after the signal
+    finally:
+        job.cancel()
+
+
+def test_a_child_failing_before_its_signal_leaves_both_parts_to_this_process(tmp_path):
+    parent = os.getpid()
+    first, second = tmp_path / "first", tmp_path / "second"
+
+    def work():
+        if os.getpid() != parent:
+            raise OSError("the child fails")
+        first.write_text(str(os.getpid()))
+
+    job = parallel.start(work, then=_stamp(second))
+    job.wait_first()
+    assert first.read_text() == str(parent) and not second.exists()
+    job.wait()
+    assert second.read_text() == str(parent)
+
+
+def test_a_child_failing_in_its_second_part_leaves_that_part_alone_to_this_process(tmp_path):
+    parent = os.getpid()
+    first, second, calls = tmp_path / "first", tmp_path / "second", tmp_path / "calls"
+
+    def work():
+        with open(calls, "a") as fh:
+            fh.write(f"{os.getpid()}\n")
+        first.write_text(str(os.getpid()))
+
+    def then():
+        if os.getpid() != parent:
+            raise OSError("the child fails")
+        second.write_text(str(os.getpid()))
+
+    job = parallel.start(work, then=then)
+    job.wait_first()
+    job.wait()
+    assert len(calls.read_text().split()) == 1  # the first part ran once, in the child
+    assert first.read_text() != str(parent) and second.read_text() == str(parent)
+
+
+def test_both_parts_run_here_when_serial(tmp_path, monkeypatch):
+    monkeypatch.setenv("ROUTEPLAN_SERIAL", "1")
+    first, second = tmp_path / "first", tmp_path / "second"
+    job = parallel.start(_stamp(first), then=_stamp(second))
+    job.wait_first()
+    assert first.read_text() == str(os.getpid()) and not second.exists()
+    job.wait()
+    assert second.read_text() == str(os.getpid())
