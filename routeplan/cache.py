@@ -5,8 +5,12 @@ Where it lives
     stored stage result. It is written with the outputs, into the output folder's work
     folder, and committed with them (all or nothing, :mod:`routeplan.folder`), so a cache
     always belongs to the outputs beside it; new entries are packed in a staging folder inside
-    that work folder. ``routeplan plan --no-cache`` neither reads nor writes it (the previous
-    run's cache files are then removed with its outputs).
+    that work folder. A watching process (:mod:`routeplan.watch`) commits its outputs first
+    and its new entries just after, in a second commit of the same run, the folder still
+    locked (:meth:`PlanCache.save_deferred`): a kill between the two leaves outputs whose
+    cache lacks those entries, so the next run computes them afresh. ``routeplan plan
+    --no-cache`` neither reads nor writes it (the previous run's cache files are then
+    removed with its outputs).
 
 What is reused, and when (every key is a SHA-256 of everything the stage's result depends on)
     ``site``
@@ -598,9 +602,23 @@ class PlanCache:
     are hard-linked from the old folder when possible, never copied through memory.
     """
 
-    def __init__(self, out: Path | str | OutputFolder, resident: Resident | None = None) -> None:
+    def __init__(
+        self,
+        out: Path | str | OutputFolder,
+        resident: Resident | None = None,
+        *,
+        defer: bool = False,
+    ) -> None:
         #: the values a watching process kept from its last run (:class:`Resident`)
         self.resident = resident
+        #: pack the new entries only once the outputs are committed (:meth:`save_deferred`):
+        #: a watching process, whose designer waits for the outputs, not for the cache
+        self.defer = defer
+        self._deferred: list[str] = []  # stages save() left to save_deferred()
+        #: jobs still writing writers' records into the second commit's work folder
+        #: (:meth:`routeplan.folder.OutputFolder.next_work`: the map's memo), for
+        #: :meth:`save_deferred` to wait for
+        self.later_jobs: list[parallel.Job] = []
         #: the open output folder, whose work folder holds the staging folder (None: a
         #: cache opened on a path, staged in the system's temporary folder)
         self.folder = out if isinstance(out, OutputFolder) else None
@@ -707,6 +725,8 @@ class PlanCache:
         goes on, into a staging folder beside the output folder (removed with this object)."""
         self.keys[stage] = key
         self._new[stage] = value
+        if self.defer:
+            return
         path = self._staging_dir() / _entry_name(stage, key)
         self._jobs[stage] = parallel.start(lambda: _dump_entry(value, path))
 
@@ -714,6 +734,10 @@ class PlanCache:
         """:meth:`put` each ``(stage, key, value)``, packed one after another in one child
         process (one fork instead of one per entry)."""
         entries = list(entries)
+        if self.defer:
+            for stage, key, value in entries:
+                self.put(stage, key, value)
+            return
         paths = []
         for stage, key, value in entries:
             self.keys[stage] = key
@@ -817,7 +841,7 @@ class PlanCache:
         """Store a writer's record ``value`` as ``name`` (see :meth:`output_aux`)."""
         self._aux_values[name] = value
         target = Path(new_out) / CACHE_DIR
-        target.mkdir(parents=True, exist_ok=True)
+        target.mkdir(exist_ok=True)  # in a work folder that exists (not made again if removed)
         _dump_entry(value, target / f"{name}.npz")
 
     def save(
@@ -833,13 +857,18 @@ class PlanCache:
         records beside them (:meth:`save_aux`). New entries come from the staging folder
         (hard-linked: the plan can be saved again; the staging folder goes with this object;
         values that cannot be stored exactly are left out); entries that were reused are
-        hard-linked from the old folder when possible. Returns the SHA-256 of every file of
-        the cache folder, by name relative to ``new_out``."""
+        hard-linked from the old folder when possible; with :attr:`defer`, new entries are
+        left to :meth:`save_deferred` (this manifest does not name them). Returns the
+        SHA-256 of every file of the cache folder, by name relative to ``new_out``."""
         target = Path(new_out) / CACHE_DIR
         target.mkdir(parents=True, exist_ok=True)
         entries = {}
+        self._deferred = []
         for stage, key in self.keys.items():
             name = _entry_name(stage, key)
+            if stage in self._new and self.defer:
+                self._deferred.append(stage)
+                continue
             if stage in self._new:
                 self._jobs[stage].wait()
                 src = self._staging_dir() / name
@@ -869,12 +898,76 @@ class PlanCache:
             "entries": entries,
             "outputs": {"key": outputs_key, "files": files, "aux": aux},
         }
+        written = {e["file"]: e["sha256"] for e in (*entries.values(), *aux.values())}
+        written[MANIFEST] = self._write_manifest(target, manifest)
+        return {f"{CACHE_DIR}/{name}": sha for name, sha in written.items()}
+
+    @property
+    def deferred(self) -> bool:
+        """Whether :meth:`save` left new entries or records for :meth:`save_deferred`."""
+        return bool(self._deferred or self.later_jobs)
+
+    def save_deferred(self, new_out: Path) -> dict[str, str]:
+        """Pack the new entries :meth:`save` left (:attr:`defer`) into
+        ``new_out/.routeplan-cache`` (the work folder of a second commit of the same run, made
+        after the outputs' own, the folder still locked: commit them with the others kept),
+        wait for the writers' records written there (:attr:`later_jobs`) and write the
+        manifest again, naming them beside what it named. The route entry (the largest) is
+        packed in a child process while this one packs the others. Returns the SHA-256 of the
+        files written, by name relative to ``new_out`` (empty: none left)."""
+        if not self.deferred:
+            return {}
+        target = Path(new_out) / CACHE_DIR
+        target.mkdir(parents=True, exist_ok=True)
+        paths = {s: target / _entry_name(s, self.keys[s]) for s in self._deferred}
+        jobs = [
+            parallel.start(lambda s=s: _dump_entry(self._new[s], paths[s]))
+            for s in self._deferred
+            if s == "route"
+        ]
+        for s in self._deferred:
+            if s != "route":
+                _dump_entry(self._new[s], paths[s])
+        for job in (*jobs, *self.later_jobs):
+            job.wait()
+        added = {
+            s: {"key": self.keys[s], "file": p.name, "sha256": _entry_digest(p)}
+            for s, p in paths.items()
+            if p.is_file()  # else not storable
+        }
+        aux = {
+            p.stem: {"file": p.name, "sha256": _entry_digest(p)}
+            for p in sorted(target.glob("*.npz"))
+            if p.stem in AUX
+        }
+        for side in target.glob("*.sha256"):
+            side.unlink()
+        old = self._saved["entries"]
+        entries = {s: added.get(s) or old[s] for s in self.keys if s in added or s in old}
+        outputs = self._saved["outputs"]
+        manifest = {
+            **self._saved,
+            "entries": entries,
+            "outputs": {**outputs, "aux": {**outputs["aux"], **aux}},
+        }
+        written = {e["file"]: e["sha256"] for e in (*added.values(), *aux.values())}
+        written[MANIFEST] = self._write_manifest(target, manifest)
+        self._deferred, self.later_jobs = [], []
+        return {f"{CACHE_DIR}/{name}": sha for name, sha in written.items()}
+
+    def cancel_deferred(self) -> None:
+        """Stop the jobs :meth:`save_deferred` would wait for (a run that ends without it)."""
+        for job in self.later_jobs:
+            job.cancel()
+        self.later_jobs = []
+
+    def _write_manifest(self, target: Path, manifest: dict) -> str:
+        """Write ``manifest`` as ``target/manifest.json``, keep it as the one saved; its
+        SHA-256."""
         text = json.dumps(manifest, indent=1) + "\n"
         (target / MANIFEST).write_text(text, encoding="utf-8")
         self._saved = manifest
-        written = {e["file"]: e["sha256"] for e in (*entries.values(), *aux.values())}
-        written[MANIFEST] = hashlib.sha256(text.encode("utf-8")).hexdigest()
-        return {f"{CACHE_DIR}/{name}": sha for name, sha in written.items()}
+        return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
 def _entry_name(stage: str, key: str) -> str:

@@ -403,6 +403,7 @@ def _watch(
             out.print("stopped watching", markup=False)
         raise typer.Exit(code) from None
     finally:
+        watcher.close()
         signal.signal(signal.SIGTERM, before)
 
 

@@ -18,6 +18,7 @@ import sys
 import time
 from collections.abc import Callable
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import geopandas as gpd
 import pandas as pd
@@ -41,6 +42,9 @@ from .gpkg import GpkgLayer, update_gpkg, write_gpkg
 from .reuse import HashMemo
 from .schedules import Previous, Schedule, write_csv, write_workbook
 from .summary_sheet import summary_rows
+
+if TYPE_CHECKING:
+    from ..map.tiles import MapMemo
 
 FILES: tuple[str, ...] = (
     "cable_schedule.csv",
@@ -339,8 +343,22 @@ def _write_files(
     layers = _gpkg_layers(plan, rows, equipment)  # the rows' hashes, for every writer
     t["hash rows"] = time.perf_counter() - t0
     say("draw map")
-    job = parallel.start(lambda: _write_map(plan, tmp, map_options, rows, equipment, layers))
+    # A watching process commits the map's memo after the outputs (PlanCache.defer): the
+    # map's child writes it into the second commit's work folder once map.html is written.
+    later = folder.next_work() if cache is not None and cache.defer and folder else None
+    drawn: list[MapMemo] = []  # in the map's child: the memo its second part saves
+
+    def draw() -> None:
+        drawn.append(_write_map(plan, tmp, map_options, rows, equipment, layers, later is None))
+
+    def save_memo() -> None:
+        if drawn and later is not None:  # else the child that drew it failed: none kept
+            cache.save_aux(later, "map", drawn[0].export())
+
+    job = parallel.start(draw, then=save_memo if later is not None else None)
     jobs.append(job)
+    if later is not None:
+        cache.later_jobs.append(job)
 
     say("write GeoPackage")
     t0 = time.perf_counter()
@@ -393,7 +411,7 @@ def _write_files(
         digests["report.html"] = file_sha256(tmp / "report.html")
     t["report (wait)"] = time.perf_counter() - t0
     t0 = time.perf_counter()
-    job.wait()
+    job.wait_first()
     t["map (wait)"] = time.perf_counter() - t0
     stats_file = tmp / _MAP_STATS
     try:
@@ -477,8 +495,10 @@ def _write_map(
     rows: gpd.GeoDataFrame,
     equipment: gpd.GeoDataFrame,
     layers: dict[str, GpkgLayer],
-) -> None:
-    """Write ``map.html`` (and, with a cache, the map's memo for the next run)."""
+    save_memo: bool = True,
+) -> MapMemo:
+    """Write ``map.html`` (and, with a cache and ``save_memo``, the map's memo for the next
+    run, :meth:`~routeplan.cache.PlanCache.save_aux`); the memo."""
     from routeplan.map.page import render_map_bytes
     from routeplan.map.tiles import MapMemo
 
@@ -497,7 +517,7 @@ def _write_map(
         **(map_options or {}),
     )
     (tmp / "map.html").write_bytes(data)
-    if cache is not None:
+    if cache is not None and save_memo:
         cache.save_aux(tmp, "map", memo.export())
     stats = {
         "seconds": time.perf_counter() - t0,
@@ -505,6 +525,7 @@ def _write_map(
         "sha256": hashlib.sha256(data).hexdigest(),
     }
     (tmp / _MAP_STATS).write_text(json.dumps(stats), encoding="utf-8")
+    return memo
 
 
 def _json(value):

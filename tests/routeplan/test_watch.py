@@ -22,7 +22,8 @@ import pytest
 from layers import LayerError
 from routeplan import cache as cache_mod
 from routeplan import localplan
-from routeplan.errors import RoutingError
+from routeplan.errors import FolderError, RoutingError
+from routeplan.folder import OutputFolder
 from routeplan.watch import Watcher, site_state
 
 from .test_cache import (
@@ -35,6 +36,7 @@ from .test_cache import (
     same_csvs,
     same_gpkg,
 )
+from .test_folder import assert_complete
 
 STAGE_ENTRIES = ("site-", "route-", "size-", "noding-", "whatif-", "remedy-")
 
@@ -107,6 +109,90 @@ def test_edits_undone_and_repeated_give_cold_outputs(gen, tmp_path):
     plan, _ = watcher.run()
     assert plan.cache.reused.get("local") is True and plan.timings_s["local"] == 0.75
     same_as_cold(gen, out, tmp_path / "cold5")
+
+
+def cache_manifest(out: Path) -> dict:
+    return json.loads((out / cache_mod.CACHE_DIR / cache_mod.MANIFEST).read_text("utf-8"))
+
+
+def test_the_cache_is_committed_after_the_outputs_the_folder_locked_until_then(
+    gen, tmp_path, monkeypatch
+):
+    """The outputs first (what the designer waits for), the run's new cache entries and the
+    map's memo in a second commit while the process waits (Watcher.settle); nobody else
+    writes the folder in between; a new process then re-plans from those entries."""
+    out = tmp_path / "out"
+    watcher = Watcher(gen, out)
+    first, _ = watcher.run()
+    watcher.prepare(first.design)
+    move_gpkg_pad(gen)
+    save_aux = cache_mod.PlanCache.save_aux
+
+    def slow_map_memo(self, new_out, name, value):  # in the map's child: settle waits for it
+        if name == "map":
+            time.sleep(1.5)
+        save_aux(self, new_out, name, value)
+
+    monkeypatch.setattr(cache_mod.PlanCache, "save_aux", slow_map_memo)
+    plan, _ = watcher.run()
+    assert plan.cache.reused["local"]
+    same_as_cold(gen, out, tmp_path / "cold1")  # committed: a cold run's outputs
+    before = cache_manifest(out)
+    assert not set(before["entries"]) & {"site", "route", "size", "noding"}
+    assert set(before["outputs"]["aux"]) == {"index", "report"}  # not yet the map's memo
+    with pytest.raises(FolderError, match="another routeplan run is writing"):
+        OutputFolder.open(out, "plan")
+    watcher.settle()
+    after = cache_manifest(out)
+    assert {"site", "route", "size", "noding"} <= set(after["entries"])
+    assert set(after["outputs"]["aux"]) == {"index", "map", "report"}
+    assert after["outputs"] == {**before["outputs"], "aux": after["outputs"]["aux"]}
+    manifest = assert_complete(out)  # every file as recorded (hashlib), no work folder left
+    for e in (*after["entries"].values(), *after["outputs"]["aux"].values()):
+        assert manifest["files"][f"{cache_mod.CACHE_DIR}/{e['file']}"]["sha256"] == e["sha256"]
+    move_gpkg_pad(gen, dy=-5.0)
+    again = run(gen, out)  # another process, from the files alone
+    assert again.cache.reused["local"] and again.cache.output_reuse.map_tiles_reused > 0
+    same_as_cold(gen, out, tmp_path / "cold2")
+
+
+def test_a_watch_stopped_before_its_cache_is_committed_leaves_complete_outputs(gen, tmp_path):
+    out = tmp_path / "out"
+    watcher = Watcher(gen, out)
+    first, _ = watcher.run()
+    watcher.prepare(first.design)
+    move_gpkg_pad(gen)
+    watcher.run()
+    watcher.close()  # stopped (Ctrl-C) before the second commit
+    assert_complete(out)
+    assert "route" not in cache_manifest(out)["entries"]
+    same_as_cold(gen, out, tmp_path / "cold1")
+    move_gpkg_pad(gen, dy=-5.0)
+    again = run(gen, out)  # the entries are missing: planned in full, never from stale ones
+    assert not again.cache.reused.get("local") and not again.cache.reused["route"]
+    same_as_cold(gen, out, tmp_path / "cold2")
+
+
+def test_a_users_file_put_where_a_cache_entry_goes_is_never_replaced(gen, tmp_path):
+    out = tmp_path / "out"
+    watcher = Watcher(gen, out)
+    first, _ = watcher.run()
+    watcher.prepare(first.design)
+    move_gpkg_pad(gen)
+    plan, _ = watcher.run()
+    name = cache_mod._entry_name("route", plan.cache.keys["route"])
+    mine = out / cache_mod.CACHE_DIR / name  # put there between the two commits
+    mine.write_bytes(b"the user's own file")
+    watcher.settle()  # the second commit is refused; the outputs stay as committed
+    assert mine.read_bytes() == b"the user's own file"
+    assert "route" not in cache_manifest(out)["entries"]
+    same_as_cold(gen, out, tmp_path / "cold1")
+    move_gpkg_pad(gen, dy=-5.0)
+    plan, _ = watcher.run()  # planned in full (nothing kept from the refused commit)
+    watcher.settle()
+    assert not plan.cache.reused.get("local")
+    assert mine.read_bytes() == b"the user's own file"
+    same_as_cold(gen, out, tmp_path / "cold2")
 
 
 def test_bad_input_keeps_the_last_outputs_and_the_next_fix_plans(gen, tmp_path):
