@@ -47,7 +47,10 @@ class Job:
 
     def wait_first(self) -> None:
         """Return once ``work`` is done (in the child, which may still run ``then``); run it
-        here if the child failed before."""
+        here if the child failed before. A job without ``then``: :meth:`wait`."""
+        if self.then is None:
+            self.wait()
+            return
         if self.first_done or self.done:
             return
         self._read_signal()

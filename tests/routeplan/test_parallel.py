@@ -168,3 +168,20 @@ def test_both_parts_run_here_when_serial(tmp_path, monkeypatch):
     assert first.read_text() == str(os.getpid()) and not second.exists()
     job.wait()
     assert second.read_text() == str(os.getpid())
+
+
+def test_wait_first_of_a_job_without_a_second_part_waits_for_it_and_runs_it_once(tmp_path):
+    calls = tmp_path / "calls"
+
+    def work():
+        time.sleep(0.2)
+        with open(calls, "a") as fh:
+            fh.write(f"{os.getpid()}\n")
+
+    job = parallel.start(work)
+    job.wait_first()
+    assert job.done and job.pid is None  # reaped
+    pids = calls.read_text().split()
+    assert len(pids) == 1 and pids[0] != str(os.getpid())  # once, in the child
+    job.wait()
+    assert len(calls.read_text().split()) == 1
