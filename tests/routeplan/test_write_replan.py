@@ -124,3 +124,28 @@ def test_a_pad_moves_map_is_a_cold_runs_map_byte_for_byte(tmp_path):
     assert b"Plant view:" in html  # the block areas and the squares' tiles are drawn
     assert reused > 10  # most tiles taken from the memo …
     assert (out / "map.html").read_bytes() == html  # … and the same bytes
+
+
+def test_each_run_draws_its_map_once_in_a_child_process(gen, tmp_path, monkeypatch):
+    """One plan, one map drawn, by the map's child (a plain run and a watching process's run:
+    the map's memo is written by the same child after map.html in the second)."""
+    import os
+
+    from routeplan.outputs import write as write_mod
+    from routeplan.watch import Watcher
+
+    drawn = tmp_path / "drawn"
+    real = write_mod._write_map
+
+    def counting(*args, **kwargs):
+        with open(drawn, "a") as fh:
+            fh.write(f"{os.getpid()}\n")
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(write_mod, "_write_map", counting)
+    run(gen, tmp_path / "out")
+    watcher = Watcher(gen, tmp_path / "watched")
+    watcher.run()
+    watcher.settle()
+    pids = drawn.read_text().split()
+    assert len(pids) == 2 and str(os.getpid()) not in pids
