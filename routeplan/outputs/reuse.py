@@ -234,10 +234,13 @@ class HashMemo:
     """The last tables hashed, by name, with their columns' values and hashes: a process that
     writes the outputs again and again (``routeplan plan --watch``) hashes only the values
     that changed since (:meth:`hashes`). The hashes are those of :func:`column_hashes` and
-    :func:`combine_hashes` whatever the memo holds: a value is reused only where it is the
-    same as the kept one — numbers bit for bit, text character for character, missing where
-    it was missing, geometries the same objects (shapely geometries are immutable) — and a
-    column whose kind, dtype or length differs is hashed whole."""
+    :func:`combine_hashes` whatever the memo holds: a value's hash is its own, so a kept hash
+    is reused only where the value is the same as the kept one — numbers bit for bit, text
+    character for character, missing where it was missing, geometries the same objects
+    (shapely geometries are immutable) — and a column whose kind or dtype differs is hashed
+    whole. A table of another length (rows added or removed: a row's strings changed) is
+    compared both at the same positions and shifted by the difference, so the rows before the
+    change and those after it keep their values' hashes."""
 
     def __init__(self) -> None:
         self._tables: dict[str, _Table] = {}
@@ -250,42 +253,50 @@ class HashMemo:
         ``name`` for the next call."""
         n, last = len(data), self._tables.get(name)
         names = [str(c) for c in data.columns]
-        if last is not None and (len(last.hashes) != n or last.names != names):
+        if last is not None and last.names != names:
             last = None
-        changed = np.zeros(n, dtype=bool) if last is not None else None
+        # where a row's values are looked for in the last table: the same position, and
+        # shifted by the difference in length (the rows after an insertion or a removal)
+        offsets = [] if last is None else sorted({0, len(last.hashes) - n}, key=abs)
+        changed = np.zeros(n, dtype=bool)  # a value or the geometry not found at offset 0
         columns: list[_Column] = []
         for j in range(data.shape[1]):
             kind, values, missing = _column_values(data.iloc[:, j])
             old = last.columns[j] if last is not None else None
-            diff = _differs(kind, values, missing, old)
-            if diff is None:
-                h = _hash_values(kind, values, missing)
-                if changed is not None:
-                    changed[:] = True
-            else:
-                h = old.hashes.copy()
-                at = np.flatnonzero(diff)
-                if len(at):
-                    h[at] = _hash_values(kind, values[at], None if missing is None else missing[at])
-                    changed |= diff
+            h, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
+            for off in offsets:
+                same = _same(kind, values, missing, old, off)
+                take = np.flatnonzero(todo & same)
+                h[take] = old.hashes[take + off]
+                todo &= ~same
+                if off == 0:
+                    changed |= ~same
+            at = np.flatnonzero(todo)
+            if len(at):
+                h[at] = _hash_values(kind, values[at], None if missing is None else missing[at])
             columns.append(_Column(kind, values.copy(), missing, h))
         geometry_h = None
         if geometry is not None:
             geometry = np.array(geometry, dtype=object)  # a copy, kept
-            same = None
-            if last is not None and last.geometry is not None:
-                same = np.fromiter(map(operator.is_, geometry, last.geometry), bool, n)
-            if same is None:
-                geometry_h = geometry_hashes(geometry)
-                if changed is not None:
-                    changed[:] = True
-            else:
-                geometry_h = last.geometry_h.copy()
-                at = np.flatnonzero(~same)
+            geometry_h, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
+            old_g = last.geometry if last is not None else None
+            for off in offsets if old_g is not None else []:
+                same = _same_objects(geometry, old_g, off)
+                take = np.flatnonzero(todo & same)
+                geometry_h[take] = last.geometry_h[take + off]
+                todo &= ~same
+                if off == 0:
+                    changed |= ~same
+            at = np.flatnonzero(todo)
+            if len(at):
                 geometry_h[at] = geometry_hashes(geometry[at])
-                changed |= ~same
         hashes = [c.hashes for c in columns]
-        if changed is None or changed.all():
+        aligned = (
+            last is not None
+            and len(last.hashes) == n
+            and (geometry is None) == (last.geometry is None)
+        )
+        if not aligned:  # every row hashed from its values' hashes
             rows = _combine(hashes, n, geometry_h)
         else:
             rows = last.hashes.copy()
@@ -297,20 +308,48 @@ class HashMemo:
         return hashes, rows
 
 
-def _differs(
-    kind: str, values: np.ndarray, missing: np.ndarray | None, old: _Column | None
-) -> np.ndarray | None:
-    """Where a column's values differ from ``old``'s (None: hash it whole)."""
-    if old is None or old.kind != kind or kind == "object" or len(old.values) != len(values):
-        return None
+def _aligned(n: int, m: int, off: int) -> tuple[int, int]:
+    """The positions ``lo:hi`` of a table of ``n`` rows whose row ``i`` has a row ``i + off``
+    in a table of ``m`` rows."""
+    lo, hi = max(0, -off), min(n, m - off)
+    return lo, max(lo, hi)
+
+
+def _same(
+    kind: str, values: np.ndarray, missing: np.ndarray | None, old: _Column | None, off: int
+) -> np.ndarray:
+    """Where each value equals ``old``'s value ``off`` rows further (False beyond its ends,
+    and everywhere when the kind or dtype differs, or for values hashed by ``repr``)."""
+    n = len(values)
+    same = np.zeros(n, dtype=bool)
+    if old is None or old.kind != kind or kind == "object":
+        return same
+    lo, hi = _aligned(n, len(old.values), off)
+    if hi == lo:
+        return same
+    new_v, old_v = values[lo:hi], old.values[lo + off : hi + off]
     if kind == "number":
         if old.values.dtype != values.dtype:
-            return None
+            return same
         unsigned = np.dtype(f"u{values.dtype.itemsize}")
-        return values.view(unsigned) != old.values.view(unsigned)
-    if not missing.any() and not old.missing.any():
-        return values != old.values  # str against str
-    diff = missing != old.missing
-    both = np.flatnonzero(~missing & ~old.missing)
-    diff[both] = values[both] != old.values[both]
-    return diff
+        same[lo:hi] = new_v.view(unsigned) == old_v.view(unsigned)
+        return same
+    new_m, old_m = missing[lo:hi], old.missing[lo + off : hi + off]
+    if not new_m.any() and not old_m.any():
+        same[lo:hi] = new_v == old_v  # str against str
+        return same
+    part = new_m & old_m  # missing in both: the same missing hash
+    both = np.flatnonzero(~new_m & ~old_m)
+    part[both] = new_v[both] == old_v[both]
+    same[lo:hi] = part
+    return same
+
+
+def _same_objects(geometry: np.ndarray, old: np.ndarray, off: int) -> np.ndarray:
+    """Where each geometry is the very object ``old`` holds ``off`` rows further."""
+    same = np.zeros(len(geometry), dtype=bool)
+    lo, hi = _aligned(len(geometry), len(old), off)
+    same[lo:hi] = np.fromiter(
+        map(operator.is_, geometry[lo:hi], old[lo + off : hi + off]), bool, hi - lo
+    )
+    return same

@@ -291,6 +291,18 @@ def _edits(frame: pd.DataFrame, geometry: np.ndarray, rng: np.random.Generator):
     yield "geometries", frame, g
     f = pd.concat([frame, frame.iloc[:1]], ignore_index=True)
     yield "one more row", f, np.r_[geometry, geometry[:1]]
+    keep = np.r_[0:100, 103:n]  # rows removed or inserted: the others shift
+    yield "rows removed", frame.iloc[keep].reset_index(drop=True), geometry[keep]
+    mid = n // 2
+    f = pd.concat([frame.iloc[:mid], frame.iloc[[7, 8]], frame.iloc[mid:]], ignore_index=True)
+    yield "rows inserted", f, np.r_[geometry[:mid], geometry[[7, 8]], geometry[mid:]]
+    yield "first row removed", frame.iloc[1:].reset_index(drop=True), geometry[1:]
+    f = frame.iloc[keep].reset_index(drop=True)
+    f.loc[200, "size_mm2"], f.loc[250, "label"], f.loc[5, "note"] = 95.0, pd.NA, "edited"
+    g = geometry[keep].copy()
+    g[300] = shapely.LineString([(5, 5), (6, 6)])
+    yield "rows removed, values and a geometry changed", f, g
+    yield "half the rows", frame.iloc[: n // 2].reset_index(drop=True), geometry[: n // 2]
     yield "renamed", frame.rename(columns={"n": "count"}), geometry
     yield "other dtype", frame.astype({"n": float}), geometry
     yield "unchanged", frame, geometry
@@ -349,3 +361,37 @@ def test_hash_memo_keeps_its_own_copy_of_the_values():
     frame.loc[3, "size_mm2"] = 99.0
     frame.loc[4, "id"] = "changed"
     assert memo.hashes("t", frame)[1].tolist() == row_hashes(frame).tolist()
+
+
+def test_hash_memo_hashes_only_the_new_rows_after_rows_are_removed_or_inserted(monkeypatch):
+    """The rows after a removal or an insertion keep their values' hashes (a row's strings
+    changed: the circuits after it move up); only the inserted rows' values are hashed."""
+    from routeplan.outputs import reuse
+
+    frame = _frame(1000, seed=4)
+    memo = HashMemo()
+    memo.hashes("t", frame)
+    hashed: list[int] = []
+    real = reuse._hash_values
+
+    def counting(kind, values, missing):
+        hashed.append(len(values))
+        return real(kind, values, missing)
+
+    removed = frame.drop(index=[400, 401]).reset_index(drop=True)
+    inserted = pd.concat([removed.iloc[:600], _frame(3, seed=9), removed.iloc[600:]])
+    inserted = inserted.reset_index(drop=True)
+    expected = [row_hashes(removed).tolist(), row_hashes(inserted).tolist()]
+    monkeypatch.setattr(reuse, "_hash_values", counting)
+    assert memo.hashes("t", removed)[1].tolist() == expected[0]
+    assert sum(hashed) == 0
+    assert memo.hashes("t", inserted)[1].tolist() == expected[1]
+    assert 0 < sum(hashed) <= 3 * frame.shape[1]
+
+
+def test_hash_memo_with_and_without_geometry_in_turn():
+    frame = _frame(60, seed=3)
+    geometry = np.array([shapely.Point(i, 0) for i in range(60)], dtype=object)
+    memo = HashMemo()
+    for g in (geometry, None, geometry, None):
+        assert memo.hashes("t", frame, g)[1].tolist() == row_hashes(frame, g).tolist()
