@@ -226,9 +226,7 @@ def edit_and_replan(site_dir: Path, work: Path) -> dict:
         cli_replan.append(_cli_plan_s(cli_site, cli_out))
     watch_site = work / "edit_site_watch"
     shutil.copytree(site_dir, watch_site)
-    watch_walls, watch_replans, watch_ready = _watch_replan_s(
-        watch_site, work / "edit_out_watch"
-    )
+    watch_walls, watch_replans, watch_ready = _watch_replan_s(watch_site, work / "edit_out_watch")
     trench_site = work / "edit_site_trench"
     shutil.copytree(site_dir, trench_site)
     _, trench_replans, _ = _watch_replan_s(trench_site, work / "edit_out_trench", edit="trench")
@@ -783,28 +781,28 @@ def report(res: dict) -> str:
         out += [
             "The first inverter pad of each plant moved 8 m, then planned again into the same "
             "output folder. *Full run*: the same plant planned with its cache written, as "
-            "`routeplan plan` does it. In-process: plan + write after the imports. As "
-            "processes: wall time of `routeplan plan SITE --out OUT -q`, interpreter start and "
-            f"imports included (full: the median of {REPEATS} runs into a new folder; re-plan: "
-            f"the median of {REPEATS} moves). *Watching*: a `routeplan plan SITE --out OUT "
-            f"--watch` process left idle after its first plan, the pad moved and saved {REPEATS} "
-            "times (2 s "
-            "apart); the median re-plan as the process reports it (site read to outputs "
-            "committed) and the median wall time from the save to its summary (the 0.1 s polls "
-            "that see the change and see it settled included); its ratio is to the full run as "
-            "a process. *Ready again*: from the save to the process watching again: the run's "
-            "cache entries and the map's memo are committed after the outputs, in a second "
-            "commit of the same run (the folder stays locked until then), and the next "
-            "re-plan's baseline is made. *Trench edit*: another watching process, the trench nearest the first "
-            f"pad moved 0.5 m (back and forth, {REPEATS} times; re-planned locally too: every "
-            "route searched again, the blocks whose routes or segments change sized again); the "
-            "median re-plan. *Row's strings*: another, the sixth row given one string fewer and "
-            "back (circuits go and come: routed in full, the changed blocks sized again). The "
-            "re-plan's CSV files are compared byte for byte with a cold run of the edited site.",
+            "`routeplan plan` does it. In-process: plan + write after the imports. As processes: "
+            "wall time of `routeplan plan SITE --out OUT -q`, interpreter start and imports "
+            f"included (full: the median of {REPEATS} runs into a new folder; re-plan: the median "
+            f"of {REPEATS} moves). *Watching*: a `routeplan plan SITE --out OUT --watch` process "
+            f"left idle after its first plan, the pad moved and saved {REPEATS} times (2 s apart);"
+            " the median re-plan as the process reports it (site read to outputs committed) and "
+            "the median wall time from the save to its summary (the 0.1 s polls that see the "
+            "change and see it settled included); its ratio is to the full run as a process. "
+            "*Ready again*: from the save to the process watching again: the run's cache entries "
+            "and the map's memo are committed after the outputs, in a second commit of the same "
+            "run (the folder stays locked until then), and the next re-plan's baseline is made. "
+            "*Trench edit*: another watching process, the trench nearest the first pad moved 0.5 "
+            f"m (back and forth, {REPEATS} times; re-planned locally too: every route searched "
+            "again, the blocks whose routes or segments change sized again); the median re-plan. "
+            "*Row's strings*: another, the sixth row given one string fewer and back (circuits go"
+            " and come: routed in full, the changed blocks sized again). The re-plan's CSV files "
+            "are compared byte for byte with a cold run of the edited site.",
             "",
             "| plant | full run [s] | re-plan [s] | ratio | · planning [s] | process: full [s] "
             "| process: re-plan [s] | ratio | watching: re-plan [s] | ratio | save → summary [s] "
-            "| save → ready again [s] | watching: trench edit [s] | ratio | watching: row's strings [s] | ratio "
+            "| save → ready again [s] | watching: trench edit [s] | ratio "
+            "| watching: row's strings [s] | ratio "
             "| routes.gpkg rows rewritten | CSV chunks copied "
             "| workbook chunks copied | map tiles reused | CSVs = cold run |",
             "|---|" + "---:|" * 19 + "---|",
