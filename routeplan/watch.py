@@ -25,7 +25,8 @@ second commit of the same run (:meth:`Watcher.settle`, at the start of :meth:`Wa
 and of the next run), the folder locked throughout, so no other run writes it in between. A
 process stopped between the two leaves the outputs committed and a cache without those
 entries: the next run plans what they held afresh. (A 1 GW pad move: outputs committed in
-1.3–1.5 s instead of 1.6–1.9 s; the second commit about 0.4 s more, while the process waits.)
+1.3 s instead of 1.8 s, medians of 5; the second commit about 0.4 s more, while the process
+waits.)
 """
 
 from __future__ import annotations
