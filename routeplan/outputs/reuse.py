@@ -23,7 +23,9 @@ from __future__ import annotations
 
 import hashlib
 import operator
+from collections.abc import Callable
 from dataclasses import dataclass
+from functools import partial
 
 import numpy as np
 import pandas as pd
@@ -263,14 +265,8 @@ class HashMemo:
         for j in range(data.shape[1]):
             kind, values, missing = _column_values(data.iloc[:, j])
             old = last.columns[j] if last is not None else None
-            h, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
-            for off in offsets:
-                same = _same(kind, values, missing, old, off)
-                take = np.flatnonzero(todo & same)
-                h[take] = old.hashes[take + off]
-                todo &= ~same
-                if off == 0:
-                    changed |= ~same
+            same_at = partial(_same, kind, values, missing, old)
+            h, todo = _kept(n, offsets, same_at, None if old is None else old.hashes, changed)
             at = np.flatnonzero(todo)
             if len(at):
                 h[at] = _hash_values(kind, values[at], None if missing is None else missing[at])
@@ -278,15 +274,14 @@ class HashMemo:
         geometry_h = None
         if geometry is not None:
             geometry = np.array(geometry, dtype=object)  # a copy, kept
-            geometry_h, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
             old_g = last.geometry if last is not None else None
-            for off in offsets if old_g is not None else []:
-                same = _same_objects(geometry, old_g, off)
-                take = np.flatnonzero(todo & same)
-                geometry_h[take] = last.geometry_h[take + off]
-                todo &= ~same
-                if off == 0:
-                    changed |= ~same
+            geometry_h, todo = _kept(
+                n,
+                offsets if old_g is not None else [],
+                partial(_same_objects, geometry, old_g),
+                None if old_g is None else last.geometry_h,
+                changed,
+            )
             at = np.flatnonzero(todo)
             if len(at):
                 geometry_h[at] = geometry_hashes(geometry[at])
@@ -306,6 +301,28 @@ class HashMemo:
                 rows[at] = _combine([h[at] for h in hashes], len(at), part)
         self._tables[name] = _Table(names, columns, geometry, geometry_h, rows)
         return hashes, rows
+
+
+def _kept(
+    n: int,
+    offsets: list[int],
+    same_at: Callable[[int], np.ndarray],
+    old_hashes: np.ndarray | None,
+    changed: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The hashes of ``n`` values taken from the last table's (``old_hashes``) where
+    ``same_at(off)`` finds the value the same ``off`` rows further there (the first of
+    ``offsets`` that does), and which are left to hash; marks in ``changed`` the rows whose
+    value is not the same at offset 0."""
+    h, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
+    for off in offsets:
+        same = same_at(off)
+        take = np.flatnonzero(todo & same)
+        h[take] = old_hashes[take + off]
+        todo &= ~same
+        if off == 0:
+            changed |= ~same
+    return h, todo
 
 
 def _aligned(n: int, m: int, off: int) -> tuple[int, int]:

@@ -115,6 +115,17 @@ def cache_manifest(out: Path) -> dict:
     return json.loads((out / cache_mod.CACHE_DIR / cache_mod.MANIFEST).read_text("utf-8"))
 
 
+def watched_move(site: Path, out: Path) -> tuple[Watcher, object]:
+    """A watching process's first run, its wait, then a pad moved and planned again (the
+    run's cache entries not yet committed); the watcher and the re-plan's Plan."""
+    watcher = Watcher(site, out)
+    first, _ = watcher.run()
+    watcher.prepare(first.design)
+    move_gpkg_pad(site)
+    plan, _ = watcher.run()
+    return watcher, plan
+
+
 def test_the_cache_is_committed_after_the_outputs_the_folder_locked_until_then(
     gen, tmp_path, monkeypatch
 ):
@@ -122,10 +133,6 @@ def test_the_cache_is_committed_after_the_outputs_the_folder_locked_until_then(
     map's memo in a second commit while the process waits (Watcher.settle); nobody else
     writes the folder in between; a new process then re-plans from those entries."""
     out = tmp_path / "out"
-    watcher = Watcher(gen, out)
-    first, _ = watcher.run()
-    watcher.prepare(first.design)
-    move_gpkg_pad(gen)
     save_aux = cache_mod.PlanCache.save_aux
 
     def slow_map_memo(self, new_out, name, value):  # in the map's child: settle waits for it
@@ -134,7 +141,7 @@ def test_the_cache_is_committed_after_the_outputs_the_folder_locked_until_then(
         save_aux(self, new_out, name, value)
 
     monkeypatch.setattr(cache_mod.PlanCache, "save_aux", slow_map_memo)
-    plan, _ = watcher.run()
+    watcher, plan = watched_move(gen, out)
     assert plan.cache.reused["local"]
     same_as_cold(gen, out, tmp_path / "cold1")  # committed: a cold run's outputs
     before = cache_manifest(out)
@@ -158,11 +165,7 @@ def test_the_cache_is_committed_after_the_outputs_the_folder_locked_until_then(
 
 def test_a_watch_stopped_before_its_cache_is_committed_leaves_complete_outputs(gen, tmp_path):
     out = tmp_path / "out"
-    watcher = Watcher(gen, out)
-    first, _ = watcher.run()
-    watcher.prepare(first.design)
-    move_gpkg_pad(gen)
-    watcher.run()
+    watcher, _ = watched_move(gen, out)
     watcher.close()  # stopped (Ctrl-C) before the second commit
     assert_complete(out)
     assert "route" not in cache_manifest(out)["entries"]
@@ -175,11 +178,7 @@ def test_a_watch_stopped_before_its_cache_is_committed_leaves_complete_outputs(g
 
 def test_a_users_file_put_where_a_cache_entry_goes_is_never_replaced(gen, tmp_path):
     out = tmp_path / "out"
-    watcher = Watcher(gen, out)
-    first, _ = watcher.run()
-    watcher.prepare(first.design)
-    move_gpkg_pad(gen)
-    plan, _ = watcher.run()
+    watcher, plan = watched_move(gen, out)
     name = cache_mod._entry_name("route", plan.cache.keys["route"])
     mine = out / cache_mod.CACHE_DIR / name  # put there between the two commits
     mine.write_bytes(b"the user's own file")
