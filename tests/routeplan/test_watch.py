@@ -253,7 +253,12 @@ def test_cli_watch_replans_on_save_and_stops_on_interrupt(gen, tmp_path):
     proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
     try:
         manifest = out / ".routeplan-cache" / "manifest.json"
-        first = _wait_for(lambda: manifest.is_file() and json.loads(manifest.read_text()))
+
+        def settled() -> dict | None:  # the entries come just after the outputs (settle)
+            m = json.loads(manifest.read_text())
+            return m if "site" in m["entries"] else None
+
+        first = _wait_for(settled)
         move_gpkg_pad(gen)
         _wait_for(
             lambda: (
