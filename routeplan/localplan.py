@@ -922,19 +922,13 @@ def _resized(
     affected = _inputs_differ(inp, inp0, c_old, c_new)
     if affected is None:
         return None  # another set of inputs given: the full plan
-    old_in = c_new[r0.incidence_circuit]
-    keep = old_in >= 0
-    order = np.argsort(old_in[keep], kind="stable")  # by new circuit, route order kept
-    affected |= _sequences_differ(
+    affected |= _routes_differ(
         n_c, routes.incidence_circuit, routes.incidence_segment,
-        old_in[keep][order], new_of_old[r0.incidence_segment][keep][order],
+        c_new[r0.incidence_circuit], new_of_old[r0.incidence_segment],
     )  # fmt: skip
-    old_air = c_new[r0.air_incidence_circuit]
-    keep = old_air >= 0
-    order = np.argsort(old_air[keep], kind="stable")
-    affected |= _sequences_differ(
+    affected |= _routes_differ(
         n_c, routes.air_incidence_circuit, routes.air_incidence_stretch,
-        old_air[keep][order], air_new_of_old[r0.air_incidence_stretch][keep][order],
+        c_new[r0.air_incidence_circuit], air_new_of_old[r0.air_incidence_stretch],
     )  # fmt: skip
 
     # --- segments and air stretches whose figures differ: their circuits too
@@ -1097,6 +1091,18 @@ def _new_paths(
     within = np.arange(k.sum()) - np.repeat(np.cumsum(k) - k, k)
     new_s = paths.segment[np.repeat(paths.offset[:-1][pair_of], k) + within]
     return _sequences_differ(n_c, np.repeat(np.arange(n_c), k), new_s, ic0, is0_new)
+
+
+def _routes_differ(
+    n: int, ic: np.ndarray, s: np.ndarray, ic_old: np.ndarray, s_old: np.ndarray
+) -> np.ndarray:
+    """Per circuit (of ``n``), whether its route in incidence ``ic``/``s`` differs from its
+    old route (``ic_old``/``s_old``: the old incidence in the new numbering of circuits and
+    segments or stretches; -1: a circuit gone); :func:`_sequences_differ` after putting the
+    old incidence in circuit order, route order kept."""
+    keep = ic_old >= 0
+    order = np.argsort(ic_old[keep], kind="stable")
+    return _sequences_differ(n, ic, s, ic_old[keep][order], s_old[keep][order])
 
 
 def _sequences_differ(

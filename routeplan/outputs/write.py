@@ -345,7 +345,7 @@ def _write_files(
     say("draw map")
     # A watching process commits the map's memo after the outputs (PlanCache.defer): the
     # map's child writes it into the second commit's work folder once map.html is written.
-    later = folder.next_work() if cache is not None and cache.defer and folder else None
+    later = folder.next_work() if cache is not None and cache.defer and folder is not None else None
     drawn: list[MapMemo] = []  # in the map's child: the memo its second part saves
 
     def draw() -> None:
