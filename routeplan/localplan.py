@@ -106,7 +106,14 @@ from .circuits import KINDS, assign_destinations
 from .config import DesignConfig
 from .errors import DesignError, RoutingError
 from .inputs import assign_inputs, input_table, landing_input
-from .network import TRENCH_ATTRIBUTES, NetworkMemo, TrenchNetwork, retap, trench_problems
+from .network import (
+    TRENCH_ATTRIBUTES,
+    NetworkMemo,
+    TrenchNetwork,
+    retap,
+    site_equipment,
+    trench_problems,
+)
 from .order import inverter_of, schedule_order
 from .pipeline import (
     Plan,
@@ -326,6 +333,22 @@ def site_edit(old: Site, new: Site) -> tuple[dict[str, np.ndarray], bool] | None
         ga, gb = np.asarray(a.geometry.array), np.asarray(b.geometry.array)
         moved[name] = np.flatnonzero(~_equal_geometries(ga, gb))
     return moved, not _same_frame(old.trenches, new.trenches)
+
+
+def _same_network(old: Site, new: Site) -> bool:
+    """Whether the sites give one trench network under the same routing settings
+    (:func:`routeplan.routing.site_network`): the same CRS, trench layer and equipment
+    features (layer, id and geometry, exactly, in order)."""
+    if old.crs != new.crs or not _same_frame(old.trenches, new.trenches):
+        return False
+    a, b = site_equipment(old), site_equipment(new)
+    ga, gb = np.asarray(a.geometry.array), np.asarray(b.geometry.array)
+    return (
+        len(a) == len(b)
+        and a["layer"].equals(b["layer"])
+        and a["feature_id"].equals(b["feature_id"])
+        and bool(_equal_geometries(ga, gb).all())
+    )
 
 
 def replan(
@@ -880,8 +903,13 @@ def _resized(
     t: dict[str, float] = {}
     old = base.plan
     r0 = old.routes
+    net = None  # the last network where the edit leaves it as it was (a row's strings …)
+    if _same_network(old.site, site):
+        net = r0.network
+        if net.memo is None and memo is not None:  # the route entry keeps no memo
+            net = dataclasses.replace(net, memo=memo)
     try:
-        routes = route_site(site, r0.params, memo=memo)
+        routes = route_site(site, r0.params, memo=memo, network=net)
     except RoutingError:
         return None
     t["route"] = time.perf_counter() - t0

@@ -535,9 +535,14 @@ def site_network(site: Site, params: RouteParams, memo: NetworkMemo | None = Non
     )
 
 
-def _prepare(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -> _Prepared:
+def _prepare(
+    site: Site,
+    params: RouteParams,
+    memo: NetworkMemo | None = None,
+    network: TrenchNetwork | None = None,
+) -> _Prepared:
     """Network, destinations and circuits of ``site``, and every problem found on the way
-    (``memo``: see :func:`routeplan.network.build_network`)."""
+    (``memo``, ``network``: see :func:`route_site`)."""
     timings: dict[str, float] = {}
     found: list[tuple[type[RoutingError], Problem]] = [
         (RoutingError, p) for p in check_metric_crs(site.crs)
@@ -551,7 +556,7 @@ def _prepare(site: Site, params: RouteParams, memo: NetworkMemo | None = None) -
     ]
     timings["trench_check"] = time.perf_counter() - t
     t = time.perf_counter()
-    network = site_network(site, params, memo)
+    network = site_network(site, params, memo) if network is None else network
     timings["network"] = time.perf_counter() - t
     found += [(NotConnectedError, p) for p in far_problems(network)]
     taps = network.taps
@@ -719,7 +724,10 @@ def assignment_check(
 
 @paused_gc()
 def route_site(
-    site: Site, params: RouteParams | None = None, memo: NetworkMemo | None = None
+    site: Site,
+    params: RouteParams | None = None,
+    memo: NetworkMemo | None = None,
+    network: TrenchNetwork | None = None,
 ) -> RoutePlan:
     """Route every circuit of ``site`` along its trenches.
 
@@ -732,6 +740,9 @@ def route_site(
     memo : routeplan.network.NetworkMemo, optional
         The last run's ``network.memo``: the noding and taps it still holds good for are
         reused (the result is the same as without it).
+    network : routeplan.network.TrenchNetwork, optional
+        The network :func:`site_network` gives for ``site`` under ``params``, where the caller
+        has it (a network built before from the same trenches and equipment): not built again.
 
     Returns
     -------
@@ -753,7 +764,7 @@ def route_site(
     :func:`row_length_m`) and 0 for the others.
     """
     params = RouteParams() if params is None else params
-    prep = _prepare(site, params, memo)
+    prep = _prepare(site, params, memo, network)
     raise_for(prep.problems)
     network, circuits = prep.network, prep.circuits
     timings = dict(prep.timings_s)

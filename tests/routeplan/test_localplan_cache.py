@@ -21,6 +21,7 @@ import pytest
 import shapely
 import shapely.geometry
 
+from routeplan import routing
 from routeplan.cache import CACHE_DIR, PlanCache
 from routeplan.localplan import last_baseline
 from routeplan.outputs.write import CSV_FILES, write_plan
@@ -192,6 +193,57 @@ def test_other_site_edits_are_sized_locally_from_the_cache(
     assert p.timings_s["local.whatifs"] >= 1
     if column == "strings":
         assert len(p.circuits) < len(first.circuits)
+    _same_as_cold(p, site, out, tmp_path)
+
+
+def _networks_built(monkeypatch) -> list[int]:
+    """Count the trench networks routing builds from here on (one entry per build)."""
+    built: list[int] = []
+    build = routing.site_network
+
+    def counted(*args, **kwargs):
+        built.append(1)
+        return build(*args, **kwargs)
+
+    monkeypatch.setattr(routing, "site_network", counted)
+    return built
+
+
+def test_a_row_edit_keeps_the_network_and_its_noding_for_the_next_move(
+    failing_site, tmp_path, monkeypatch
+):
+    """A row's strings changed: the trenches and equipment are the last run's, so the re-plan
+    routes on the last run's network (none built) and keeps its noding; the next pad move
+    then re-plans locally on that noding, equal to a cold plan."""
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    _set(site, "rows", 4, "strings", 1)
+    built = _networks_built(monkeypatch)
+    p = _replan(site, out)
+    assert p.timings_s["local"] == 0.75
+    assert not built
+    _same_as_cold(p, site, out, tmp_path)
+    _move(site, "inverters", 0, 0.0, 5.0)
+    moved = _replan(site, out)
+    assert moved.timings_s["local"] == 1.0
+    assert moved.cache.reused["noding"] is True
+    _same_as_cold(moved, site, out, tmp_path)
+
+
+def test_a_row_edit_with_a_move_builds_the_network_again(failing_site, tmp_path, monkeypatch):
+    """A row's strings changed and a pad moved: not a move alone, so routed in full and sized
+    locally — on a network built again for the moved pad (the last one would route its
+    circuits from where it stood), equal to a cold plan."""
+    site, out = tmp_path / "site", tmp_path / "out"
+    shutil.copytree(failing_site, site)
+    _replan(site, out)
+    _set(site, "rows", 4, "strings", 1)
+    _move(site, "inverters", 0, 0.0, 6.0)
+    built = _networks_built(monkeypatch)
+    p = _replan(site, out)
+    assert p.timings_s["local"] == 0.75
+    assert built
     _same_as_cold(p, site, out, tmp_path)
 
 
