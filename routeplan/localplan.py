@@ -70,8 +70,9 @@ edits may come together in one re-plan.
 
 Any other edit of the site under the same design settings — a row's strings or module, rows
 added or removed, attributes of equipment, the module table, the grid — is **routed in full
-and sized locally** (:func:`_resized`): the site is routed as a full plan routes it (the last
-noding reused where the trenches are the same), circuits are matched to the last plan's by
+and sized locally** (:func:`_resized`): the site is routed as a full plan routes it (on the
+last run's network where the trenches and equipment features are the same, else with the last
+noding reused where the trenches are), circuits are matched to the last plan's by
 ``circuit_id`` (segments by id, length and geometry; air stretches by kind and feature), and
 only the blocks of the circuits whose sizing input differs (a new circuit, another route, any
 other per-circuit value of :class:`calc.SizingInput`, another parent) or that share a segment
@@ -890,8 +891,9 @@ def _resized(
 ) -> Plan | None:
     """The plan of ``site`` under the baseline's design after any edit of the site (rows,
     their strings or modules, attributes of equipment, the module table, the grid, besides
-    moves and trench edits): routed in full, as a full plan routes it (the last noding
-    reused where the trenches are the same), and sized locally — only the blocks of the
+    moves and trench edits): routed in full, as a full plan routes it (on the last network
+    where :func:`_same_network`, else with the last noding reused where the trenches are the
+    same), and sized locally — only the blocks of the
     circuits whose sizing input differs from the last plan's (a new circuit, another route,
     other electrical values, another input or parent) or that share a trench segment or air
     stretch whose figures differ (count, length, depth, laying, spacing, soil) are sized
