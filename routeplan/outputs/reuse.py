@@ -242,7 +242,8 @@ class HashMemo:
     (shapely geometries are immutable) — and a column whose kind or dtype differs is hashed
     whole. A table of another length (rows added or removed: a row's strings changed) is
     compared both at the same positions and shifted by the difference, so the rows before the
-    change and those after it keep their values' hashes."""
+    change and those after it keep their values' hashes, and their rows' hashes where every
+    value of the row (and its geometry) is found at one offset."""
 
     def __init__(self) -> None:
         self._tables: dict[str, _Table] = {}
@@ -260,13 +261,15 @@ class HashMemo:
         # where a row's values are looked for in the last table: the same position, and
         # shifted by the difference in length (the rows after an insertion or a removal)
         offsets = [] if last is None else sorted({0, len(last.hashes) - n}, key=abs)
-        changed = np.zeros(n, dtype=bool)  # a value or the geometry not found at offset 0
+        # per offset: the rows whose every value (and geometry) is found that far in the last
+        # table, whose row hash is then the last one's there
+        found = {off: np.ones(n, dtype=bool) for off in offsets}
         columns: list[_Column] = []
         for j in range(data.shape[1]):
             kind, values, missing = _column_values(data.iloc[:, j])
             old = last.columns[j] if last is not None else None
             same_at = partial(_same, kind, values, missing, old)
-            h, todo = _kept(n, offsets, same_at, None if old is None else old.hashes, changed)
+            h, todo = _kept(n, offsets, same_at, None if old is None else old.hashes, found)
             at = np.flatnonzero(todo)
             if len(at):
                 h[at] = _hash_values(kind, values[at], None if missing is None else missing[at])
@@ -280,25 +283,22 @@ class HashMemo:
                 offsets if old_g is not None else [],
                 partial(_same_objects, geometry, old_g),
                 None if old_g is None else last.geometry_h,
-                changed,
+                found,
             )
             at = np.flatnonzero(todo)
             if len(at):
                 geometry_h[at] = geometry_hashes(geometry[at])
         hashes = [c.hashes for c in columns]
-        aligned = (
-            last is not None
-            and len(last.hashes) == n
-            and (geometry is None) == (last.geometry is None)
-        )
-        if not aligned:  # every row hashed from its values' hashes
-            rows = _combine(hashes, n, geometry_h)
-        else:
-            rows = last.hashes.copy()
-            at = np.flatnonzero(changed)
-            if len(at):
-                part = None if geometry_h is None else geometry_h[at]
-                rows[at] = _combine([h[at] for h in hashes], len(at), part)
+        rows, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
+        if last is not None and (geometry is None) == (last.geometry is None):
+            for off in offsets:
+                take = np.flatnonzero(todo & found[off])
+                rows[take] = last.hashes[take + off]
+                todo &= ~found[off]
+        at = np.flatnonzero(todo)
+        if len(at):  # the other rows hashed from their values' hashes
+            part = None if geometry_h is None else geometry_h[at]
+            rows[at] = _combine([h[at] for h in hashes], len(at), part)
         self._tables[name] = _Table(names, columns, geometry, geometry_h, rows)
         return hashes, rows
 
@@ -308,20 +308,19 @@ def _kept(
     offsets: list[int],
     same_at: Callable[[int], np.ndarray],
     old_hashes: np.ndarray | None,
-    changed: np.ndarray,
+    found: dict[int, np.ndarray],
 ) -> tuple[np.ndarray, np.ndarray]:
     """The hashes of ``n`` values taken from the last table's (``old_hashes``) where
     ``same_at(off)`` finds the value the same ``off`` rows further there (the first of
-    ``offsets`` that does), and which are left to hash; marks in ``changed`` the rows whose
-    value is not the same at offset 0."""
+    ``offsets`` that does), and which are left to hash; clears in ``found[off]`` the rows
+    whose value is not the same ``off`` rows further."""
     h, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
     for off in offsets:
         same = same_at(off)
         take = np.flatnonzero(todo & same)
         h[take] = old_hashes[take + off]
         todo &= ~same
-        if off == 0:
-            changed |= ~same
+        found[off] &= same
     return h, todo
 
 

@@ -364,8 +364,9 @@ def test_hash_memo_keeps_its_own_copy_of_the_values():
 
 
 def test_hash_memo_hashes_only_the_new_rows_after_rows_are_removed_or_inserted(monkeypatch):
-    """The rows after a removal or an insertion keep their values' hashes (a row's strings
-    changed: the circuits after it move up); only the inserted rows' values are hashed."""
+    """The rows after a removal or an insertion keep their values' hashes and their own (a
+    row's strings changed: the circuits after it move up); only the inserted rows' values are
+    hashed, and only their row hashes made again."""
     from routeplan.outputs import reuse
 
     frame = _frame(1000, seed=4)
@@ -382,11 +383,21 @@ def test_hash_memo_hashes_only_the_new_rows_after_rows_are_removed_or_inserted(m
     inserted = pd.concat([removed.iloc[:600], _frame(3, seed=9), removed.iloc[600:]])
     inserted = inserted.reset_index(drop=True)
     expected = [row_hashes(removed).tolist(), row_hashes(inserted).tolist()]
+    combined: list[int] = []
+    real_combine = reuse._combine
+
+    def combining(hashes, n, geometry):
+        combined.append(n)
+        return real_combine(hashes, n, geometry)
+
     monkeypatch.setattr(reuse, "_hash_values", counting)
+    monkeypatch.setattr(reuse, "_combine", combining)
     assert memo.hashes("t", removed)[1].tolist() == expected[0]
     assert sum(hashed) == 0
+    assert sum(combined) == 0  # every row found whole, before the gap or after it
     assert memo.hashes("t", inserted)[1].tolist() == expected[1]
     assert 0 < sum(hashed) <= 3 * frame.shape[1]
+    assert sum(combined) == 3  # the inserted rows' hashes alone made from their values'
 
 
 def test_hash_memo_with_and_without_geometry_in_turn():
