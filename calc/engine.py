@@ -789,7 +789,7 @@ def _kind_data(kind: int, idx: np.ndarray, design: DesignParams, rs: RuleSet) ->
         k_sc = rs.k_adiabatic(material, insulation, s)
     term = None  # the terminations' capacity: the same in every environment (nec 110.14(C)(1))
     if rs.terminal_condition:
-        term = rs.terminal_capacity_a(kind, material, insulation, ENV_NAMES[0], s, design)
+        term = rs.terminal_capacity_a(kind, material, insulation, s, design)
     return _KindData(
         kind=kind,
         idx=idx,

@@ -359,10 +359,6 @@ class DesignConfig:
         return self.values[key]
 
 
-#: relative tolerance of a candidate size against the rule set's standard sizes (that of
-#: calc.nec.sizes.size_index: NEC sizes are written as labels, their areas from the definitions)
-_SIZE_RTOL = 1e-6
-
 #: a candidate size written as an AWG or kcmil label (NEC sizes) rather than in mm²
 _AWG_LABEL = re.compile(r"(awg|kcmil)\s*$", re.IGNORECASE)
 
@@ -632,8 +628,9 @@ def _sizes(
             problems.append(Problem(SITE_TOML, where, f"{item} {i}: {x:g} {unit} must be > 0"))
             return None
         if rule_set is not None:
-            nominal = rule_set.nominal_sizes_mm2()
-            if not np.isclose(x, nominal, rtol=_SIZE_RTOL, atol=0.0).any():
+            x = float(rule_set.standard_size_mm2(x))  # its nominal value, nan: none
+            if np.isnan(x):
+                nominal = rule_set.nominal_sizes_mm2()
                 first, last = rule_set.size_text(nominal[0]), rule_set.size_text(nominal[-1])
                 problems.append(
                     Problem(

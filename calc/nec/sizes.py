@@ -34,6 +34,7 @@ __all__ = [
 _UNITS = "us_customary_units.csv"
 _B258 = "astm_b258_awg.csv"
 _T8 = "nec_2023_chapter9_table8_conductors.csv"
+#: relative tolerance of a size against the NEC sizes (that of calc.rules.SIZE_RTOL)
 _REL = 1e-6
 
 

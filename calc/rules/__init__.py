@@ -28,12 +28,17 @@ import importlib
 from typing import ClassVar
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from calc import pv, resistance
 from calc.errors import InputError, check_option
 from calc.kinds import KIND_AC
 
-__all__ = ["RuleSet", "get_rules", "rule_names"]
+__all__ = ["SIZE_RTOL", "RuleSet", "get_rules", "rule_names"]
+
+#: relative tolerance of a conductor size against a rule set's standard sizes
+#: (:meth:`RuleSet.standard_size_mm2`; :func:`calc.nec.sizes.size_index` matches alike)
+SIZE_RTOL = 1e-6
 
 # rule set name -> "module:class"
 _MODULES: dict[str, str] = {"iec": "calc.rules.iec:IecRules", "nec": "calc.rules.nec:NecRules"}
@@ -269,13 +274,13 @@ class RuleSet(abc.ABC):
         return np.where((np.asarray(kind) == KIND_AC) & (np.asarray(phases) == 3), 3, 2)
 
     def terminal_capacity_a(
-        self, kind: int, material: str, insulation: str, env: str, sizes_mm2: np.ndarray, design
+        self, kind: int, material: str, insulation: str, sizes_mm2: np.ndarray, design
     ) -> np.ndarray | None:
         """Capacity one conductor set must have *before* correction and adjustment [A] (e.g.
         NEC 690.8(B)(1) with the 110.14(C) termination column), per size; ``None`` where the
         rule set has no such condition (IEC; :attr:`terminal_condition` False). It is the
-        terminations' capacity and must not depend on ``env`` (one of the route's
-        environments, checked): the engine asks for it once per kind."""
+        terminations' capacity, the same wherever the cable runs (in the ground or in air):
+        the engine asks for it once per kind."""
         return None
 
     def terminal_required_a(self, i_design_a: np.ndarray) -> np.ndarray:
@@ -320,6 +325,16 @@ class RuleSet(abc.ABC):
         from calc.tables import load_table
 
         return np.unique(load_table("iec60228_2004_conductor_resistance.csv")["size_mm2"])
+
+    def standard_size_mm2(self, sizes_mm2: ArrayLike) -> np.ndarray:
+        """The standard size (:meth:`nominal_sizes_mm2`) each given size is [mm²], nan where
+        it is none: equal within a relative :data:`SIZE_RTOL`, so that a size converted from
+        other units, or an area computed from its definition (NEC: the AWG diameters),
+        matches its nominal value."""
+        s = np.asarray(sizes_mm2, dtype=float)
+        nominal = self.nominal_sizes_mm2()
+        match = np.isclose(s[..., None], nominal, rtol=SIZE_RTOL, atol=0.0)
+        return np.where(match.any(axis=-1), nominal[match.argmax(axis=-1)], np.nan)
 
     def size_text(self, size_mm2: float) -> str:
         """A size as the schedule's notes name it (IEC: ``"16 mm²"``)."""

@@ -191,12 +191,11 @@ class NecRules(RuleSet):
         loc = "free_air" if env == "air" else "raceway"
         return ampacity.table_ampacity_a(sizes_mm2, material, self._rating(insulation), loc)
 
-    def terminal_capacity_a(self, kind, material, insulation, env, sizes_mm2, design):
+    def terminal_capacity_a(self, kind, material, insulation, sizes_mm2, design):
         """690.8(B)(1) with 110.14(C): the Table 310.16 value in the column of min(insulation
-        rating, termination temperature), uncorrected; in every environment, also in air
+        rating, termination temperature), uncorrected; wherever the cable runs, also in air
         (110.14(C)(1): termination provisions are based on Table 310.16 unless the equipment is
         listed and marked otherwise)."""
-        check_option("environment", env, ("air", "D1", "D2"))
         col = min(self._rating(insulation), self.terminal_c(design))
         return ampacity.table_ampacity_a(sizes_mm2, material, col, "raceway")
 

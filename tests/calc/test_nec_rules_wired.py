@@ -322,12 +322,10 @@ def test_terminal_capacity_is_table_310_16_in_the_lower_of_the_two_columns():
     # 310.16: 60/75/90 °C 30/35/40 A
     ten = size_from_label(["10 AWG"])
     d75, d90 = DesignParams(), DesignParams(terminal_temp_c=90)
-    assert R.terminal_capacity_a(0, "Cu", "90C", "D1", ten, d75).tolist() == [35.0]
-    assert R.terminal_capacity_a(0, "Cu", "90C", "D2", ten, d90).tolist() == [40.0]
-    assert R.terminal_capacity_a(0, "Cu", "60C", "D1", ten, d90).tolist() == [30.0]
-    assert R.terminal_capacity_a(0, "Cu", "PV", "D1", ten, d90).tolist() == [40.0]
-    with pytest.raises(UnknownOptionError, match=r"^environment must be one of 'air', 'D1', 'D2'"):
-        R.terminal_capacity_a(0, "Cu", "90C", "D3", ten, d75)
+    assert R.terminal_capacity_a(0, "Cu", "90C", ten, d75).tolist() == [35.0]
+    assert R.terminal_capacity_a(0, "Cu", "90C", ten, d90).tolist() == [40.0]
+    assert R.terminal_capacity_a(0, "Cu", "60C", ten, d90).tolist() == [30.0]
+    assert R.terminal_capacity_a(0, "Cu", "PV", ten, d90).tolist() == [40.0]
     # 690.8(B)(1): 1.25 × the maximum current
     assert_allclose(R.terminal_required_a([16.25, 195.0]), [20.3125, 243.75])
 
@@ -339,7 +337,7 @@ def test_terminal_capacity_in_free_air_is_table_310_16():
     # a conductor in free air is rated by Table 310.17, but its terminations by Table 310.16
     # (110.14(C)(1)): 10 AWG Cu at a 75 °C termination 35 A (Table 310.16), not 50 A (310.17)
     ten = size_from_label(["10 AWG"])
-    assert R.terminal_capacity_a(0, "Cu", "90C", "air", ten, DesignParams()).tolist() == [35.0]
+    assert R.terminal_capacity_a(0, "Cu", "90C", ten, DesignParams()).tolist() == [35.0]
     assert R.base_capacity_a(0, "Cu", "90C", 2, "air", ten, "").tolist() == [55.0]
 
 
