@@ -406,6 +406,17 @@ def test_a_size_the_rule_set_does_not_have_is_named_as_written(rules, sizes, mes
     assert [(p.feature_id, p.message) for p in problems] == [("design.sizes_mm2.string", message)]
 
 
+def test_a_size_close_to_a_nominal_size_is_kept_as_that_size():
+    # 2.5000001 is within 1e-6 of the IEC 60228:2004 nominal size 2.5 mm² (a value carried
+    # through a unit conversion or a spreadsheet): the design keeps 2.5 exactly, the size the
+    # rule set's tables are read at; 0.04 cm² is 4 mm²
+    cfg, problems = parse_design(
+        {"design": {"rules": "iec", "sizes_mm2": {"string": [2.5000001, "0.04 cm^2"]}}}
+    )
+    assert not problems
+    assert [repr(v) for v in cfg.sizes_mm2["string"]] == ["2.5", "4.0"]
+
+
 def test_diff_of_the_same_site_in_si_and_us_shows_no_cable_change(us_plan, tmp_path):
     # the plant block compares conductor metres: a bill in feet is read back × 0.3048
     from routeplan.diff import diff_outputs
