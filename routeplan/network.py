@@ -678,12 +678,8 @@ def build_network(
         known, eq_part, eq_dist = memo.nearest(eq_geoms)
         todo = np.flatnonzero(~known)
     if len(todo) and n_parts:
-        # growing radii up to snap_m (a feature with a part within r has its nearest among
-        # the parts within r; small radii meet few candidates), then the far ones without a
-        # limit, for their distance
-        for radius in [r for r in _NEAREST_RADII_M if r < snap_m] + [max(snap_m, MIN_TOL_M)]:
-            _nearest(noded.tree, eq_geoms[todo], todo, radius, eq_part, eq_dist)
-            todo = todo[eq_part[todo] < 0]
+        # within snap_m, then the far ones without a limit, for their distance
+        todo = _nearest_within(noded.tree, eq_geoms, todo, snap_m, eq_part, eq_dist)
         _nearest(noded.tree, eq_geoms[todo], todo, None, eq_part, eq_dist)
     connected = (eq_part >= 0) & (eq_dist <= snap_m)
     ceq = np.flatnonzero(connected)
@@ -846,12 +842,7 @@ def retap(network: TrenchNetwork, row: int, geometry: shapely.Geometry) -> Trenc
     tol, snap = noded.tol_m, network.snap_m
     geom = np.array([geometry], dtype=object)
     part, dist = np.full(1, -1, dtype=np.int64), np.full(1, np.inf)
-    todo = np.arange(1)
-    for radius in [r for r in _NEAREST_RADII_M if r < snap] + [max(snap, MIN_TOL_M)]:
-        _nearest(noded.tree, geom[todo], todo, radius, part, dist)
-        todo = todo[part[todo] < 0]
-        if not len(todo):
-            break
+    _nearest_within(noded.tree, geom, np.arange(1), snap, part, dist)
     if part[0] < 0 or not dist[0] <= snap:
         return None
     j = int(part[0])
@@ -963,6 +954,25 @@ def _tap_pairs(
     i, j = near["i"].astype(np.int64), near["j"].astype(np.int64)
     ok = shapely.dwithin(shapely.points(t_xy[j]), tap_pts[i], tol)
     return np.r_[j[ok], a_tt + n_t], np.r_[i[ok] + n_t, b_tt + n_t]
+
+
+def _nearest_within(
+    tree: shapely.STRtree,
+    geoms: np.ndarray,
+    rows: np.ndarray,
+    snap_m: float,
+    part: np.ndarray,
+    dist: np.ndarray,
+) -> np.ndarray:
+    """:func:`_nearest` for ``geoms[rows]`` within ``snap_m`` (at least :data:`MIN_TOL_M`),
+    searched at growing radii (a geometry with a part within r has its nearest among the parts
+    within r; small radii meet few candidates). Returns the rows with no part within reach."""
+    for radius in [r for r in _NEAREST_RADII_M if r < snap_m] + [max(snap_m, MIN_TOL_M)]:
+        if not len(rows):
+            break
+        _nearest(tree, geoms[rows], rows, radius, part, dist)
+        rows = rows[part[rows] < 0]
+    return rows
 
 
 def _nearest(
