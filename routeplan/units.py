@@ -1,10 +1,12 @@
 """How the outputs name conductor sizes and lengths: size labels per rule set, and feet.
 
-- **Size labels** (``size_label``): under ``rules = "iec"`` the IEC 60228 nominal cross-section,
-  ``"10 mm²"``; under ``rules = "nec"`` the NEC 2023 Chapter 9 Table 8 designation, ``"10 AWG"``,
-  ``"1/0 AWG"``, ``"250 kcmil"`` (:func:`calc.nec.sizes.size_label`, areas from circular mils).
-  A size outside the NEC list (none the NEC rule set chooses) keeps its mm² label rather than a
-  wrong AWG one. Labels are built once per distinct size (``np.unique``), never per circuit.
+- **Size labels** (``size_labels``): each rule set names its own standard sizes
+  (``RuleSet.size_text`` of :meth:`calc.rules.RuleSet.standard_size_mm2`): under
+  ``rules = "iec"`` the IEC 60228 nominal cross-section, ``"10 mm²"``; under ``rules = "nec"``
+  the NEC 2023 Chapter 9 Table 8 designation, ``"10 AWG"``, ``"1/0 AWG"``, ``"250 kcmil"``
+  (:func:`calc.nec.sizes.size_label`, areas from circular mils). A size outside the rule set's
+  list (none its sizing chooses) keeps its mm² label rather than a wrong AWG one. Labels are
+  built once per distinct size (``np.unique``), never per circuit.
 - **Feet**: the international foot, exactly 0.3048 m (the 1959 international yard and pound
   agreement; NIST SP 811 — the US survey foot, 1200/3937 m, was retired for new work by NIST at
   the end of 2022 and is used here only where a layer's CRS is in it, which ``layers``
@@ -21,6 +23,7 @@ from numpy.typing import ArrayLike
 
 from calc.errors import check_option
 from calc.nec import sizes as nec_sizes
+from calc.rules import get_rules
 
 __all__ = ["FOOT_M", "UNIT_SYSTEMS", "feet", "length_unit", "size_labels"]
 
@@ -67,12 +70,14 @@ def size_labels(sizes_mm2: ArrayLike, rules: str) -> np.ndarray:
     if not ok.any():
         return out
     uniq, inverse = np.unique(s[ok], return_inverse=True)
-    labels = np.array([_mm2_text(float(v)) for v in uniq], dtype=object)
-    if rules == "nec":
-        ref = nec_sizes.sizes_mm2()
-        near = np.isclose(uniq[:, None], ref[None, :], rtol=1e-6, atol=0.0)
-        known = near.any(axis=1)
-        if known.any():
-            labels[known] = nec_sizes.size_label(uniq[known]).astype(object)
+    rule_set = get_rules(rules)
+    standard = rule_set.standard_size_mm2(uniq)  # nan: none of the rule set's sizes
+    labels = np.array(
+        [
+            _mm2_text(float(v)) if np.isnan(n) else rule_set.size_text(float(n))
+            for v, n in zip(uniq.tolist(), standard.tolist(), strict=True)
+        ],
+        dtype=object,
+    )
     out[ok] = labels[inverse.ravel()]
     return out
