@@ -204,12 +204,15 @@ DESIGN_KEYS: tuple[Key, ...] = (
 
 #: per-kind tables under ``[design]``
 MATERIAL_DEFAULT: dict[str, str] = {"string": "Cu", "subarray": "Cu", "array": "Cu", "ac": "Al"}
-INSULATION_DEFAULT: dict[str, str] = {
-    "string": "PV",
-    "subarray": "XLPE",
-    "array": "XLPE",
-    "ac": "XLPE",
-}
+
+
+def insulation_default(rule_set: calc.rules.RuleSet) -> dict[str, str]:
+    """Each kind's insulation unless site.toml sets one: the rule set's PV string cable
+    (``"PV"``) for strings, its first insulation for the others (iec: XLPE; nec: 90C)."""
+    feeders = dict.fromkeys(("subarray", "array", "ac"), rule_set.insulations[0])
+    return {"string": "PV", **feeders}
+
+
 #: how each kind's cables run where they share a stretch in air (IEC 60364-5-52 Table B.52.17
 #: item): bunched, the most onerous, unless the site says otherwise
 AIR_ARRANGEMENT_DEFAULT: dict[str, str] = dict.fromkeys(KINDS, "bunched")
@@ -374,28 +377,9 @@ DESIGN_SUBTABLES: tuple[str, ...] = (
     "ratings_a",
 )
 MATERIALS: tuple[str, ...] = ("Cu", "Al")
-INSULATIONS: tuple[str, ...] = ("XLPE", "PVC", "PV")
 #: most candidate sizes per kind (common practice: IEC 60228's series of nominal
 #: cross-sections has a few tens of sizes, and no cable type is made in more)
 MAX_SIZES = 64
-
-
-#: the string cable each rule set names, and why it is copper (the bill's designations,
-#: routeplan/data/bill_designations.csv: pv_cable, nec_pv_wire)
-_PV_CABLE: dict[str, tuple[str, str]] = {
-    "iec": (
-        "PV cable (EN 50618 / IEC 62930)",
-        "PV cable, whose tabulated ratings are for copper conductors",
-    ),
-    "nec": (
-        "PV wire (UL 4703, NEC 2023 690.31(C)(1))",
-        "PV wire (UL 4703, NEC 2023 690.31(C)(1)), sized here as copper conductors",
-    ),
-}
-#: the feeder conductor types a rule set's insulation names stand for (nec: Table 310.4(A))
-_FEEDER_TYPES: dict[str, str] = {
-    "nec": " (e.g. USE-2, XHHW-2 or THWN-2 at 90 °C, NEC 2023 Table 310.4(A))",
-}
 
 
 def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
@@ -457,14 +441,13 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
             )
         )
     material = _choices("material", design, MATERIAL_DEFAULT, MATERIALS, problems)
-    insulation_default = dict(INSULATION_DEFAULT)
-    insulations = INSULATIONS
-    if values["rules"] != "iec":  # the rule set's names (nec: temperature ratings "90C" …)
-        feeders = ("subarray", "array", "ac")
-        insulation_default.update(dict.fromkeys(feeders, rule_set.insulations[0]))
-        insulations = (*rule_set.insulations, "PV")
-    insulation = _choices("insulation", design, insulation_default, insulations, problems)
-    cable, copper = _PV_CABLE.get(values["rules"], _PV_CABLE["iec"])
+    # the rule set's insulation names (iec: XLPE, PVC; nec: temperature ratings "90C" …) and
+    # its PV string cable
+    insulations = (*rule_set.insulations, "PV")
+    default = insulation_default(rule_set)
+    insulation = _choices("insulation", design, default, insulations, problems)
+    cable, copper = rule_set.pv_cable, rule_set.pv_cable_copper
+    types = f" (e.g. {rule_set.feeder_types})" if rule_set.feeder_types else ""
     if insulation["string"] != "PV":
         problems.append(
             Problem(
@@ -480,8 +463,7 @@ def parse_design(config: dict[str, Any]) -> tuple[DesignConfig, list[Problem]]:
                     SITE_TOML,
                     f"design.insulation.{kind}",
                     f"{cable} is rated here for string circuits only: "
-                    f"set {' or '.join(repr(x) for x in insulations if x != 'PV')}"
-                    + _FEEDER_TYPES.get(values["rules"], ""),
+                    f"set {' or '.join(repr(x) for x in insulations if x != 'PV')}" + types,
                 )
             )
     if material["string"] != "Cu":

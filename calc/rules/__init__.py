@@ -157,6 +157,9 @@ class RuleSet(abc.ABC):
     # grouping in air
     #: names of the arrangements of cables in air that :meth:`air_group_factor` accepts
     air_arrangements: ClassVar[tuple[str, ...]]
+    #: where :meth:`air_group_factor` takes each arrangement's factors from (the design
+    #: basis names it beside the setting)
+    air_arrangement_source: ClassVar[str] = "IEC 60364-5-52 Table B.52.17 item"
 
     @abc.abstractmethod
     def air_group_factor(self, count: np.ndarray, arrangement) -> np.ndarray:
@@ -228,6 +231,13 @@ class RuleSet(abc.ABC):
     default_frequency_hz: ClassVar[float] = 50.0
     #: the PV fuses' designation in the protection text
     fuse_word: ClassVar[str] = "gPV"
+    #: the PV string cable the rule set rates (insulation "PV"), as settings' messages name it
+    pv_cable: ClassVar[str] = "PV cable (EN 50618 / IEC 62930)"
+    #: why the string cable is copper (the messages of a string material set otherwise)
+    pv_cable_copper: ClassVar[str] = "PV cable, whose tabulated ratings are for copper conductors"
+    #: the conductor types the feeder insulation names stand for, where the names alone do not
+    #: say it ("" for none; nec: Table 310.4(A))
+    feeder_types: ClassVar[str] = ""
 
     # which hooks below change the IEC steps, declared: the engine reads these rather than
     # calling a hook to find out

@@ -92,9 +92,17 @@ class NecRules(RuleSet):
     insulations: ClassVar[tuple[str, ...]] = ("90C", "75C", "60C")
     breaker_devices: ClassVar[tuple[str, ...]] = ("nec240.6a",)
     air_arrangements: ClassVar[tuple[str, ...]] = ("bunched", "spaced")
+    air_arrangement_source: ClassVar[str] = (
+        "bunched: NEC 2023 Table 310.15(C)(1) adjustment; spaced: none"
+    )
     group_counts: ClassVar[str] = "conductors"
     voc_source: ClassVar[str] = "NEC 2023 690.7"
     fuse_word: ClassVar[str] = "(240.6(A), 690.9)"
+    pv_cable: ClassVar[str] = "PV wire (UL 4703, NEC 2023 690.31(C)(1))"
+    pv_cable_copper: ClassVar[str] = (
+        "PV wire (UL 4703, NEC 2023 690.31(C)(1)), sized here as copper conductors"
+    )
+    feeder_types: ClassVar[str] = "USE-2, XHHW-2 or THWN-2 at 90 °C, NEC 2023 Table 310.4(A)"
     #: Chapter 9 Table 9 is for 60 Hz
     default_frequency_hz: ClassVar[float] = 60.0
     #: Table 310.15(C)(1) takes a trench's conductors as one bundle, whatever the spacing

@@ -24,11 +24,11 @@ from ..config import (
     ALLOWANCE_KEYS,
     DESIGN_KEYS,
     DROP_PCT_DEFAULT,
-    INSULATION_DEFAULT,
     KINDS,
     MATERIAL_DEFAULT,
     RATING_KEYS,
     DesignConfig,
+    insulation_default,
 )
 
 #: unit of a setting or module value, by the ending of its name (the glossary's convention:
@@ -148,7 +148,7 @@ def settings(design: DesignConfig, config: dict[str, Any]) -> list[Setting]:
             "insulation",
             design.insulation,
             "",
-            "insulation (default: " + _kinds(INSULATION_DEFAULT) + ")",
+            "insulation (default: " + _kinds(insulation_default(rules)) + ")",
         ),
         (
             "drop_pct",
@@ -160,8 +160,11 @@ def settings(design: DesignConfig, config: dict[str, Any]) -> list[Setting]:
             "air_arrangement",
             design.air_arrangement,
             "",
-            "arrangement where the kind's cables share a stretch in air, IEC 60364-5-52 Table "
-            "B.52.17 item (default: " + _kinds(AIR_ARRANGEMENT_DEFAULT) + ")",
+            "arrangement where the kind's cables share a stretch in air, "
+            + rules.air_arrangement_source
+            + " (default: "
+            + _kinds(AIR_ARRANGEMENT_DEFAULT)
+            + ")",
         ),
     ]
     for name, values, unit, note in sub:

@@ -1,7 +1,8 @@
 """Design settings' messages under ``rules = "nec"`` name the rule set's cable (NFPA 70 NEC 2023:
 PV wire listed to UL 4703 for PV source circuits, 690.31(C)(1); feeder conductor types of Table
 310.4(A) such as USE-2, XHHW-2 at 90 °C — the bill's designations, routeplan/data/
-bill_designations.csv), not the IEC / EN products; under ``rules = "iec"`` they are unchanged."""
+bill_designations.csv), not the IEC / EN products; under ``rules = "iec"`` they are unchanged.
+The design basis gives each rule set's own defaults and sources."""
 
 from __future__ import annotations
 
@@ -36,3 +37,29 @@ def test_iec_messages_are_unchanged():
         "'PVC'",
         "string circuits use PV cable, whose tabulated ratings are for copper conductors: set 'Cu'",
     ]
+
+
+def _basis_notes(rules: str) -> dict[str, tuple[str, str]]:
+    from routeplan.report.basis import settings
+
+    config = {"design": {"rules": rules}}
+    design, problems = parse_design(config)
+    assert not problems
+    return {s.key: (s.value, s.note) for s in settings(design, config)}
+
+
+def test_the_design_basis_gives_each_rule_sets_own_defaults_and_air_source():
+    """The design basis shows the defaults in force: under nec the feeders' insulation is the
+    90 °C column (Table 310.16, the rule set's first), not XLPE; and the air arrangement's
+    factors come from Table 310.15(C)(1) (bunched) under nec, from IEC 60364-5-52 Table
+    B.52.17 under iec."""
+    nec = _basis_notes("nec")
+    assert nec["design.insulation.array"][0] == "90C"
+    assert "default: string PV, subarray 90C, array 90C, ac 90C" in nec["design.insulation.ac"][1]
+    assert "XLPE" not in nec["design.insulation.ac"][1]
+    air = nec["design.air_arrangement.string"][1]
+    assert "Table 310.15(C)(1)" in air and "B.52.17" not in air
+    iec = _basis_notes("iec")
+    note = iec["design.insulation.ac"][1]
+    assert "default: string PV, subarray XLPE, array XLPE, ac XLPE" in note
+    assert "IEC 60364-5-52 Table B.52.17" in iec["design.air_arrangement.string"][1]
