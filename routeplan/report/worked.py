@@ -21,6 +21,7 @@ from __future__ import annotations
 import html
 import math
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -35,11 +36,14 @@ from routeplan.config import DesignConfig
 from routeplan.pipeline import design_params
 
 __all__ = [
+    "IEC_TEXTS",
     "KIND_LABELS",
+    "RuleTexts",
     "Step",
     "WorkedCalculation",
     "WorkedCircuit",
     "governing_circuits",
+    "rule_texts",
     "worked_calculation",
     "worked_circuit",
     "worked_html",
@@ -852,6 +856,49 @@ def _protection_steps(row: pd.Series, design: DesignConfig) -> list[Step]:
     return steps
 
 
+@dataclass(frozen=True)
+class RuleTexts:
+    """What a worked calculation takes from its rule set: ``steps(row, segments, circuits,
+    design)`` (every step of one circuit), each kind's section ``titles``, which values are
+    ``read`` from calc's tables rather than the schedule, and the ``review`` note."""
+
+    steps: Callable[[pd.Series, pd.DataFrame, pd.DataFrame, DesignConfig], list[Step]]
+    titles: dict[str, str]
+    read: str
+    review: str
+
+
+def _iec_steps(
+    row: pd.Series, segments: pd.DataFrame, circuits: pd.DataFrame, design: DesignConfig
+) -> list[Step]:
+    return (
+        _design_current_steps(row, design)
+        + _capacity_steps(row, segments, design)
+        + _drop_steps(row, segments, design)
+        + _protection_steps(row, design)
+    )
+
+
+#: the IEC rule set's worked calculation
+IEC_TEXTS = RuleTexts(
+    steps=_iec_steps,
+    titles={k: f"{label} circuit" for k, label in KIND_LABELS.items()},
+    read="R20, R at θ, AC resistance and reactance",
+    review=(
+        "routeplan is a design aid: check with local codes and have the design reviewed by a "
+        "qualified, licensed person."
+    ),
+)
+
+
+def rule_texts(rules: str) -> RuleTexts:
+    """The worked calculation of a rule set (``design.values["rules"]``); a rule set of calc
+    without one raises KeyError (a test asks it of every rule set)."""
+    from routeplan.report.worked_nec import NEC_TEXTS  # it builds on this module's steps
+
+    return {"iec": IEC_TEXTS, "nec": NEC_TEXTS}[rules]
+
+
 def _worked_circuit(
     row: pd.Series,
     reason: str,
@@ -859,17 +906,8 @@ def _worked_circuit(
     design: DesignConfig,
     circuits: pd.DataFrame | None = None,
 ) -> WorkedCircuit:
-    if design.values["rules"] == "nec":  # NEC 2023: routeplan.report.worked_nec
-        from routeplan.report.worked_nec import nec_steps
-
-        steps = nec_steps(row, row.to_frame().T if circuits is None else circuits, design)
-        return WorkedCircuit(str(row["kind"]), str(row["circuit_id"]), reason, tuple(steps))
-    steps = (
-        _design_current_steps(row, design)
-        + _capacity_steps(row, segments, design)
-        + _drop_steps(row, segments, design)
-        + _protection_steps(row, design)
-    )
+    frame = row.to_frame().T if circuits is None else circuits
+    steps = rule_texts(design.values["rules"]).steps(row, segments, frame, design)
     return WorkedCircuit(str(row["kind"]), str(row["circuit_id"]), reason, tuple(steps))
 
 
@@ -893,20 +931,13 @@ text-align:left}
 
 def _html(worked: list[WorkedCircuit], rules: str = "iec") -> str:
     e = html.escape
-    nec = rules == "nec"
-    if nec:
-        from routeplan.report.worked_nec import KIND_LABELS_NEC
-
-        labels = KIND_LABELS_NEC
-    else:
-        labels = KIND_LABELS
+    texts = rule_texts(rules)
     parts = ['<div class="rp-worked">', _STYLE]
     if not worked:
         parts.append("<p>No circuits: nothing to work out.</p>")
     for w in worked:
         parts.append('<section class="rp-worked-circuit">')
-        title = labels[w.kind] if nec else f"{labels[w.kind]} circuit"
-        parts.append(f"<h3>{e(title)} {e(w.circuit_id)}</h3>")
+        parts.append(f"<h3>{e(texts.titles[w.kind])} {e(w.circuit_id)}</h3>")
         parts.append(f"<p>Chosen for the {e(w.reason)}.</p>")
         parts.append(
             '<table><colgroup><col style="width:12%"><col style="width:20%">'
@@ -922,25 +953,10 @@ def _html(worked: list[WorkedCircuit], rules: str = "iec") -> str:
                 f'<td>{e(s.unit)}</td><td class="rp-source">{e(s.source)}</td></tr>'
             )
         parts.append("</tbody></table></section>")
-    if nec:
-        read = (
-            "the NEC 2023 table values (Tables 310.16 / 310.17 cells, the 310.15(B)(1) and "
-            "310.15(C)(1) factors, Chapter 9 Tables 8 and 9, the 240.6(A) ratings)"
-        )
-        review = (
-            "routeplan is a design aid: the NEC as adopted by the authority having "
-            "jurisdiction, the equipment listings and a qualified, licensed engineer of "
-            "record govern."
-        )
-    else:
-        read = "R20, R at θ, AC resistance and reactance"
-        review = (
-            "routeplan is a design aid: check with local codes and have the design reviewed "
-            "by a qualified, licensed person."
-        )
     parts.append(
-        f"<p><small>Values are the engine's, from the cable schedule, except {read}, which "
-        f"are read from calc's tables as the engine reads them. {review}</small></p></div>"
+        f"<p><small>Values are the engine's, from the cable schedule, except {texts.read}, "
+        f"which are read from calc's tables as the engine reads them. {texts.review}"
+        "</small></p></div>"
     )
     return "\n".join(parts)
 

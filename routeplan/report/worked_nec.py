@@ -35,10 +35,10 @@ from calc.tables import load_table
 from calc.vdrop import vdrop_v
 from routeplan.config import DesignConfig
 from routeplan.pipeline import design_params, governing_condition
-from routeplan.report.worked import Step, _rows, _source
+from routeplan.report.worked import RuleTexts, Step, _rows, _source
 from routeplan.report.worked import _num as n
 
-__all__ = ["KIND_LABELS_NEC", "governing_condition", "nec_steps"]
+__all__ = ["KIND_LABELS_NEC", "NEC_TEXTS", "governing_condition", "nec_steps"]
 
 #: the kinds as NEC 690 names them
 KIND_LABELS_NEC: dict[str, str] = {
@@ -535,3 +535,18 @@ def nec_steps(row: pd.Series, circuits: pd.DataFrame, design: DesignConfig) -> l
         + _drop_steps(row, design)
         + _protection_steps(row, design)
     )
+
+
+#: the NEC rule set's worked calculation (:func:`routeplan.report.worked.rule_texts`)
+NEC_TEXTS = RuleTexts(
+    steps=lambda row, segments, circuits, design: nec_steps(row, circuits, design),
+    titles=KIND_LABELS_NEC,
+    read=(
+        "the NEC 2023 table values (Tables 310.16 / 310.17 cells, the 310.15(B)(1) and "
+        "310.15(C)(1) factors, Chapter 9 Tables 8 and 9, the 240.6(A) ratings)"
+    ),
+    review=(
+        "routeplan is a design aid: the NEC as adopted by the authority having jurisdiction, "
+        "the equipment listings and a qualified, licensed engineer of record govern."
+    ),
+)

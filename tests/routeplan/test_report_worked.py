@@ -415,3 +415,27 @@ def test_single_phase_ac_by_hand(tmp_path):
     assert w.step("Voltage drop ΔU").formula == "ΔU = 2 · L · I · (R cos φ + X sin φ) / p"
     with pytest.raises(KeyError):
         worked_circuit(p.circuits, p.segments, p.design, "AC:NOWHERE")
+
+
+def test_every_rule_set_has_its_worked_calculation():
+    """A rule set added to calc without its worked calculation would otherwise be worked out
+    under another's formulas and clauses: each must have its own steps, a title per kind and
+    its review note (the safety caution)."""
+    from calc.rules import rule_names
+    from routeplan.report.worked import rule_texts
+
+    texts = {name: rule_texts(name) for name in rule_names()}
+    assert len({id(t) for t in texts.values()}) == len(texts)
+    for name, t in texts.items():
+        assert set(t.titles) == {"string", "subarray", "array", "ac"}, name
+        assert "design aid" in t.review and "qualified, licensed" in t.review, name
+
+
+def test_every_rule_set_has_its_own_methods_and_assumptions():
+    from calc.rules import rule_names
+    from routeplan.report.basis import assumptions, methods
+
+    for name in rule_names():
+        others = [n for n in rule_names() if n != name]
+        assert all(methods(name) != methods(o) for o in others), name
+        assert all(assumptions(name) != assumptions(o) for o in others), name
