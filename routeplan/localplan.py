@@ -115,7 +115,7 @@ from .network import (
     site_equipment,
     trench_problems,
 )
-from .order import inverter_of, schedule_order
+from .order import inverter_of, schedule_order, spliced_order
 from .pipeline import (
     Plan,
     assigned_destinations,
@@ -169,6 +169,7 @@ class Baseline:
     tap_to: np.ndarray
     from_index: np.ndarray
     block: np.ndarray  # each circuit's block (its inverter), as an integer code
+    block_ids: np.ndarray  # each circuit's block: its inverter's id (object)
     rank: np.ndarray  # each circuit's position in circuit-id order (segments' circuit lists)
     order: np.ndarray  # routes order → schedule order (of plan.circuits where it has them)
     load_a: np.ndarray  # each circuit's Σ Imp [A] (inverter input balancing)
@@ -234,6 +235,7 @@ def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=No
         tap_to.astype(np.int64),
         from_index.astype(np.int64),
         block.reshape(-1).astype(np.int64),
+        block_ids,
         rank,
         order,
         inp.imp_a * inp.n_strings,
@@ -1017,8 +1019,15 @@ def _resized(
         site, c, own_input, inp.imp_a * inp.n_strings, np.asarray(result.isc_design_a),
         inp.n_strings,
     )  # fmt: skip
+    key_columns = ["circuit_id", "kind", "from_id", "to_id"]
+    order = spliced_order(  # the schedule's order, the last run's for unchanged blocks
+        c[key_columns].assign(inverter_id=block_ids),
+        c0[key_columns].assign(inverter_id=base.block_ids),
+        base.order,
+        c_old,
+    )
     circuits, seg_table, quantities, summary = plan_tables(
-        site, design, routes, result, inp, inputs, landing, governing, remedy
+        site, design, routes, result, inp, inputs, landing, governing, remedy, order
     )
     t["tables"] = time.perf_counter() - t1
     t["local"] = 0.75

@@ -170,3 +170,63 @@ def schedule_order(circuits: pd.DataFrame) -> np.ndarray:
         natural_rank(circuits["inverter_id"]),
     )
     return np.lexsort(keys)
+
+
+def spliced_order(
+    keys: pd.DataFrame, last_keys: pd.DataFrame, last_order: np.ndarray, last_of: np.ndarray
+) -> np.ndarray:
+    """:func:`schedule_order` of ``keys``, taken from the last order where a block is unchanged.
+
+    ``keys`` and ``last_keys``: the columns :func:`schedule_order` reads (``inverter_id``,
+    ``kind``, ``from_id``, ``to_id``, ``circuit_id``), in routes order; ``last_order`` =
+    ``schedule_order(last_keys)``; ``last_of``: each circuit's row in ``last_keys`` (-1: a new
+    circuit). The order is a function of the keys, block by block (the inverter first), and of
+    the routes order between equal keys: a block whose circuits are all the last run's with
+    the same keys keeps its last order, the other blocks are sorted again. Where the blocks
+    are not the last run's (one added or removed) or the circuits carried over change their
+    relative routes order, the whole table is sorted (the result is the same either way)."""
+    n, m = len(keys), len(last_keys)
+    if n == 0 or m == 0:
+        return schedule_order(keys)
+    has = last_of >= 0
+    new_of = np.full(m, -1, dtype=np.int64)
+    new_of[last_of[has]] = np.flatnonzero(has)
+    kept = new_of[new_of >= 0]  # in the last routes order
+    if np.any(np.diff(kept) <= 0):
+        return schedule_order(keys)
+    same = has.copy()
+    at = last_of[has]
+    for col in ("inverter_id", "kind", "from_id", "to_id"):
+        a = keys[col].to_numpy(dtype=object)[has]
+        b = last_keys[col].to_numpy(dtype=object)[at]
+        same[has] &= a == b
+    codes = pd.factorize(
+        np.concatenate(
+            [
+                keys["inverter_id"].to_numpy(dtype=object),
+                last_keys["inverter_id"].to_numpy(dtype=object),
+            ]
+        ),
+        use_na_sentinel=False,
+    )[0]
+    block, last_block = codes[:n], codes[n:]
+    if not np.array_equal(np.unique(block), np.unique(last_block)):
+        return schedule_order(keys)
+    changed = np.zeros(int(codes.max(initial=-1)) + 1, dtype=bool)
+    changed[block[~same]] = True  # a new circuit, or one with other keys: its block now …
+    changed[last_block[last_of[has & ~same]]] = True  # … and the one it left
+    changed[last_block[new_of < 0]] = True  # a circuit removed
+    runs = last_block[last_order]
+    starts = np.flatnonzero(np.r_[True, runs[1:] != runs[:-1]])
+    if len(np.unique(runs[starts])) != len(starts):  # a block in two places: sort it all
+        return schedule_order(keys)
+    bounds = np.r_[starts, m]
+    parts = []
+    for s, e in zip(bounds[:-1].tolist(), bounds[1:].tolist(), strict=True):
+        k = runs[s]
+        if not changed[k]:
+            parts.append(new_of[last_order[s:e]])
+        else:
+            sub = np.flatnonzero(block == k)
+            parts.append(sub[schedule_order(keys.iloc[sub])])
+    return np.concatenate(parts) if parts else np.zeros(0, dtype=np.int64)

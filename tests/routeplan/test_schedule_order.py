@@ -158,3 +158,73 @@ def test_string_number_of_long_and_odd_ids():
     assert string_number(np.array(ids, dtype=object)).tolist() == [
         17, 999_999_999_999_999, -1, 3, -1, 3, -1,
     ]  # fmt: skip
+
+
+def _plant(rng: np.random.Generator, strings: dict[str, int] | None = None):
+    """An invented plant's schedule keys in routes order (rows' strings, then the combiners'
+    array circuits, then AC): inverters INV1…INV4, two combiners each, three rows per
+    combiner; ``strings`` overrides a row's number of strings."""
+    import pandas as pd
+
+    rows = []
+    for i in range(1, 5):
+        for c in (1, 2):
+            cb = f"CB{i}.{c}"
+            for r in range(1, 4):
+                row = f"R{i}.{c}.{r}"
+                n = (strings or {}).get(row, 2 + (i + c + r) % 3)
+                rows += [(f"{row}/S{k}", "string", row, cb, f"INV{i}") for k in range(1, n + 1)]
+    arrays = [
+        (f"A:CB{i}.{c}", "array", f"CB{i}.{c}", f"INV{i}", f"INV{i}")
+        for i in range(1, 5)
+        for c in (1, 2)
+    ]
+    ac = [(f"AC:INV{i}", "ac", f"INV{i}", "GRID", f"INV{i}") for i in range(1, 5)]
+    table = rows + arrays + ac
+    frame = pd.DataFrame(table, columns=["circuit_id", "kind", "from_id", "to_id", "inverter_id"])
+    return frame.iloc[rng.permutation(len(frame)) if rng.random() < 0.3 else np.arange(len(frame))]
+
+
+def test_spliced_order_is_the_schedule_order_after_any_edit():
+    """The order taken from the last one where a block is unchanged (a watching process after
+    a row's strings edit) must be :func:`schedule_order` of the new table, whatever changed:
+    strings removed or added, a row moved to another block, a block added or removed, routes
+    order shuffled, circuits with equal keys (ties keep the routes order)."""
+    import pandas as pd
+
+    from routeplan.order import spliced_order
+
+    rng = np.random.default_rng(7)
+    for trial in range(60):
+        last = _plant(rng).reset_index(drop=True)
+        if trial % 5 == 0:  # a second array circuit of one combiner: equal keys, a tie
+            twin = last[last["kind"] == "array"].iloc[:1].assign(circuit_id="A:twin")
+            last = pd.concat([last, twin], ignore_index=True)
+        edit = trial % 6
+        new = last.copy()
+        if edit == 0:  # a row's last string removed
+            new = new[new["circuit_id"] != "R2.1.2/S2"]
+        elif edit == 1:  # a string added to a row, at the row's place in routes order
+            at = int(np.flatnonzero(new["circuit_id"] == "R3.2.1/S1")[0])
+            extra = new.iloc[[at]].assign(circuit_id="R3.2.1/S9")
+            new = pd.concat([new.iloc[:at], extra, new.iloc[at:]])
+        elif edit == 2:  # a row moved to another combiner and block
+            m = new["from_id"] == "R1.1.1"
+            new.loc[m, "to_id"], new.loc[m, "inverter_id"] = "CB4.2", "INV4"
+        elif edit == 3:  # a block removed
+            new = new[new["inverter_id"] != "INV3"]
+        elif edit == 4:  # a block added
+            extra = pd.DataFrame([("AC:INV0", "ac", "INV0", "GRID", "INV0")], columns=new.columns)
+            new = pd.concat([new, extra])
+        elif edit == 5 and "A:twin" in set(new["circuit_id"]):  # the tie's routes order swapped
+            twin = int(np.flatnonzero(new["circuit_id"] == "A:twin")[0])
+            first = int(np.flatnonzero(new["kind"] == "array")[0])
+            order = np.arange(len(new))
+            order[[first, twin]] = order[[twin, first]]
+            new = new.iloc[order]
+        new = new.reset_index(drop=True)
+        if rng.random() < 0.2:  # the carried circuits in another routes order
+            new = new.iloc[rng.permutation(len(new))].reset_index(drop=True)
+        last_of = pd.Index(last["circuit_id"]).get_indexer(new["circuit_id"])
+        got = spliced_order(new, last, schedule_order(last), last_of)
+        assert got.tolist() == schedule_order(new).tolist(), (trial, edit)
