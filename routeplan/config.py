@@ -59,7 +59,13 @@ DESIGN_KEYS: tuple[Key, ...] = (
         choices=calc.rule_names(),
         note="rule set; 'iec' = IEC 60364-5-52/62548/60228/60287, 'nec' = NFPA 70 NEC 2023",
     ),
-    Key("ground_temp_c", 20.0, -20, 60, note="IEC 60364-5-52 reference ground temperature"),
+    Key(
+        "ground_temp_c",
+        20.0,
+        -20,
+        60,
+        note="ground temperature at cable depth (default: 20 °C, the IEC 60364-5-52 reference)",
+    ),
     Key(
         "air_temp_c",
         40.0,
@@ -74,8 +80,20 @@ DESIGN_KEYS: tuple[Key, ...] = (
         100,
         note="air around string cables run behind the modules (common practice)",
     ),
-    Key("soil_k_m_w", 2.5, 0.3, 6.0, note="IEC 60364-5-52 reference soil thermal resistivity"),
-    Key("depth_m", 0.7, 0.2, 5.0, note="IEC 60364-5-52 reference laying depth"),
+    Key(
+        "soil_k_m_w",
+        2.5,
+        0.3,
+        6.0,
+        note="soil thermal resistivity (default: 2.5 K·m/W, the IEC 60364-5-52 reference)",
+    ),
+    Key(
+        "depth_m",
+        0.7,
+        0.2,
+        5.0,
+        note="depth to the cables (default: 0.7 m, the IEC 60364-5-52 reference)",
+    ),
     Key(
         "laying", "direct", choices=("direct", "duct"), note="trench laying where a trench has none"
     ),
