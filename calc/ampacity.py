@@ -16,8 +16,11 @@ Stated extensions beyond the tables (each conservative, see the function docstri
 * temperatures below the first tabulated row take that row's factor; above the last row → error;
 * soil resistivity below 0.5 K·m/W takes the 0.5 value; above 3 K·m/W the 3 K·m/W factor is scaled
   by √(3/ρ) (IEC 60287 method with the cable's internal thermal resistance neglected);
-* grouping: linear interpolation in spacing and in circuit count; beyond the last tabulated count,
-  1/F² is extrapolated linearly in the count from the last two rows;
+* grouping: counts rounded up to whole circuits; between tabulated counts the factor of the next
+  larger tabulated count (the factor falls with the count, so the next row never overstates the
+  capacity, where interpolating between rows would: derived, see :func:`group_factor`); beyond
+  the last tabulated count, 1/F² is extrapolated linearly in the count from the last two rows;
+  linear interpolation in spacing;
 * grouping in air (B.52.17): counts rounded up to whole circuits, between rows the next larger
   tabulated count; beyond 20 bunched circuits the same 1/F² extrapolation as buried; single-layer
   items constant beyond 9 circuits (the table's own rule);
@@ -212,14 +215,16 @@ def depth_factor(depth_m: ArrayLike, diameter_m: ArrayLike, ref_depth_m: float =
 
 
 def _by_count(counts: np.ndarray, col: np.ndarray, n: np.ndarray) -> np.ndarray:
-    """Factor at circuit count n for one spacing column: linear within, 1/F² linear beyond."""
+    """Factor at circuit count n for one spacing column: counts rounded up to whole circuits,
+    between tabulated counts the next larger one, 1/F² linear beyond the last."""
     xs = np.concatenate([[1.0], counts])
     ys = np.concatenate([[1.0], col])
-    inside = np.interp(np.maximum(n, 1.0), xs, ys)
+    k = np.ceil(np.maximum(n, 1.0) - 1e-9)  # whole circuits (a float count of 3.0000001 is 3)
+    inside = ys[np.minimum(np.searchsorted(xs, k, side="left"), xs.size - 1)]
     inv_a, inv_b = 1.0 / ys[-2] ** 2, 1.0 / ys[-1] ** 2
     slope = (inv_b - inv_a) / (xs[-1] - xs[-2])
-    beyond = 1.0 / np.sqrt(inv_b + slope * np.maximum(n - xs[-1], 0.0))
-    return np.where(n > xs[-1], beyond, inside)
+    beyond = 1.0 / np.sqrt(inv_b + slope * np.maximum(k - xs[-1], 0.0))
+    return np.where(np.isnan(n), np.nan, np.where(k > xs[-1], beyond, inside))
 
 
 def _by_spacing(nodes: np.ndarray, vals: np.ndarray, s: np.ndarray) -> np.ndarray:
@@ -244,7 +249,8 @@ _B19_COLUMNS: dict[str, float] = {"s_nil": 0.0, "s_0_25_m": 0.25, "s_0_5_m": 0.5
 
 
 def _group_by_spacing(t, columns: dict[str, float], count: np.ndarray, spacing: np.ndarray):
-    """Grouping factor interpolated by count in each clearance column, then by clearance."""
+    """Grouping factor read by count in each clearance column (:func:`_by_count`), then
+    interpolated by clearance."""
     vals = np.stack([_by_count(t["circuits"], t[col], count) for col in columns])
     return _by_spacing(np.array(list(columns.values())), vals, spacing)
 
@@ -264,11 +270,17 @@ def group_factor(count: ArrayLike, spacing_m: ArrayLike, laying: ArrayLike) -> n
 
     Notes
     -----
-    * count ≤ 1 → 1.0. Between tabulated counts: linear interpolation in the count.
+    * Counts are rounded up to whole circuits; count ≤ 1 → 1.0.
+    * Between tabulated counts (the tables give 2–9, 12, 16, 20): the factor of the next larger
+      tabulated count (10 circuits touching, direct: the 12-circuit 0.36). 1/F² − 1 is the
+      mutual heating relative to self-heating (IEC 60287-2-1 image method, equal losses); each
+      further circuit adds less mutual heating than the one before, so a straight line between
+      two rows — in F or in 1/F² — lies on the side of too little mutual heating, too high a
+      factor; the next larger row cannot overstate the factor, whatever the curve (derived; the
+      tables give no reading between their rows; :func:`air_group_factor` reads B.52.17 so).
     * Beyond the last tabulated count (20): 1/F² extrapolated linearly in the count from the last
-      two rows. 1/F² − 1 is the mutual heating relative to self-heating (IEC 60287-2-1 image method,
-      equal losses); each further circuit adds less mutual heating than the one before, so the
-      linear extension overstates it (conservative; derived).
+      two rows: by the same argument the linear extension overstates the mutual heating
+      (conservative; derived).
     * Spacing: linear interpolation between the tabulated clearances (direct: 0, 0.125, 0.25, 0.5 m;
       duct: 0, 0.25, 0.5, 1.0 m); beyond the widest column its value. Direct in ground, for
       0 < spacing < 0.125 m the value is further capped at the "one cable diameter" column, since
@@ -369,8 +381,7 @@ def air_group_factor(count: ArrayLike, arrangement: str | ArrayLike) -> np.ndarr
       one-circuit value in the table is 0.95.
     * Between tabulated counts (the table gives 1–9, 12, 16, 20): the factor of the next larger
       tabulated count (10 bunched circuits take the 12-circuit 0.45). Factors fall with the count,
-      so this is the conservative choice. (The buried :func:`group_factor` interpolates linearly
-      in the count instead; the two agree at every tabulated count.)
+      so this is the conservative choice, as the buried :func:`group_factor` reads its tables.
     * ``"wall"``, ``"ceiling"``, ``"tray"``, ``"ladder"``: the table gives no further reduction
       beyond 9 circuits, so the 9-circuit value holds for any larger count.
     * ``"bunched"`` beyond 20 circuits: the buried policy of :func:`group_factor` — 1/F²

@@ -20,22 +20,25 @@ from calc.ampacity import (
 from calc.errors import InputError, TableRangeError, UnknownOptionError
 
 
-def test_buried_group_factor_is_linear_in_the_count_between_rows_and_from_one_circuit():
-    # B.52.18, cables touching (nil clearance): 1 circuit 1.0 (by definition), 2 circuits 0.75,
-    # 16 circuits 0.32, 20 circuits 0.29. Linear in the count (calc.ampacity.group_factor Notes):
-    # 1.5 circuits -> (1.0 + 0.75) / 2 = 0.875; 18 circuits -> (0.32 + 0.29) / 2 = 0.305.
-    got = group_factor([1.5, 18.0], [0.0, 0.0], 0)
-    assert_allclose(got, [0.875, 0.305], rtol=1e-12)
+def test_buried_group_factor_takes_the_next_larger_row_between_rows():
+    # B.52.18, cables touching (nil clearance): 2 circuits 0.75, 3 circuits 0.65, 9 circuits
+    # 0.41, 12 circuits 0.36, 16 circuits 0.32, 20 circuits 0.29. Between rows the next larger
+    # tabulated count, counts rounded up to whole circuits (calc.ampacity.group_factor Notes):
+    # 1.5 -> 2; 3 + 1e-12 (a float count of 3) -> 3; 10 and 11 -> 12; 13 -> 16; 18 -> 20.
+    got = group_factor([1.5, 3.0 + 1e-12, 9.0, 10.0, 11.0, 12.0, 13.0, 18.0], [0.0] * 8, 0)
+    assert_allclose(got, [0.75, 0.65, 0.41, 0.36, 0.36, 0.36, 0.32, 0.29], rtol=1e-12)
+    # B.52.19 part B, single-core in ducts, 0.25 m apart: 6 ducts 0.70 (from memory) for 5.5
+    assert_allclose(group_factor([5.5], [0.25], 1), group_factor([6.0], [0.25], 1), rtol=1e-12)
 
 
 def test_buried_group_factor_beyond_20_circuits_extends_one_over_f_squared():
     # Beyond the last row, 1/F² is extended linearly in the count from the 16- and 20-circuit rows
     # (calc.ampacity.group_factor Notes; derived). Hand calculation, nil clearance:
     #   1/0.32² = 9.765625, 1/0.29² = 11.890606, slope = (11.890606 − 9.765625) / 4 = 0.531245
-    #   20.5 circuits: 1/F² = 11.890606 + 0.5 · 0.531245 = 12.156229 -> F = 0.286814
+    #   20.5 circuits, rounded up to 21: 1/F² = 11.890606 + 0.531245 = 12.421851 -> F = 0.283731
     #   24 circuits:   1/F² = 11.890606 + 4 · 0.531245 = 14.015587 -> F = 0.267113
     got = group_factor([20.5, 24.0], [0.0, 0.0], 0)
-    assert_allclose(got, [0.286814, 0.267113], atol=2e-6)
+    assert_allclose(got, [0.283731, 0.267113], atol=2e-6)
 
 
 def test_a_missing_circuit_count_gives_an_unknown_factor():

@@ -7,9 +7,10 @@ beside it. The schedules give the geometry (trench segments, their laying, depth
 and soil, the cable sets sharing them); everything electrical is recomputed here.
 
 The readings between tabulated rows are routeplan's documented ones (``calc.ampacity``): linear
-in the circuit count and in the ground/air temperature and soil resistivity for the buried tables
-B.52.15, B.52.16, B.52.18, B.52.19; the depth factor from IEC 60287-2-1's T4 (derived, from
-memory); the next larger tabulated count for B.52.17 in air.
+in the ground/air temperature and soil resistivity (B.52.15, B.52.16) and in the clearance; the
+next larger tabulated circuit count for the grouping tables B.52.17, B.52.18 and B.52.19 (a
+line between rows would overstate the factor); the depth factor from IEC 60287-2-1's T4
+(derived, from memory).
 """
 
 from __future__ import annotations
@@ -34,8 +35,11 @@ XLPE_IT = {
     ("Cu", 4): {"2_D1": 43, "2_D2": 46},
     ("Cu", 6): {"2_D1": 53, "2_D2": 58},
     ("Cu", 10): {"2_D1": 71, "2_D2": 77},
+    ("Cu", 16): {"2_D1": 91, "2_D2": 100},
+    ("Al", 95): {"2_D1": 185, "2_D2": 204, "3_D1": 154, "3_D2": 172},
     ("Al", 120): {"2_D1": 211, "2_D2": 233, "3_D1": 174, "3_D2": 197},
     ("Al", 150): {"2_D1": 237, "2_D2": 261, "3_D1": 197, "3_D2": 220},
+    ("Al", 185): {"2_D1": 266, "2_D2": 296, "3_D1": 220, "3_D2": 250},
     ("Al", 240): {"2_D1": 307, "2_D2": 343, "3_D1": 253, "3_D2": 290},
     ("Al", 300): {"2_D1": 347, "2_D2": 386, "3_D1": 286, "3_D2": 326},
 }
@@ -98,9 +102,10 @@ def nec(tmp_path_factory):
 
 
 def _by_count(table: dict, n: float, col: int) -> float:
-    """Linear in the count between tabulated rows (routeplan's reading of B.52.18/19)."""
-    ns = sorted(table)
-    return float(np.interp(n, ns, [table[k][col] for k in ns]))
+    """The next larger tabulated count between rows (routeplan's reading of B.52.18/19, as of
+    B.52.17); the demos have no trench beyond the last row."""
+    row = min(k for k in table if k >= math.ceil(n))
+    return float(table[row][col])
 
 
 def _group_direct(n: int, spacing_m: float) -> float:
