@@ -271,13 +271,14 @@ def group_factor(count: ArrayLike, spacing_m: ArrayLike, laying: ArrayLike) -> n
     Notes
     -----
     * Counts are rounded up to whole circuits; count ≤ 1 → 1.0.
-    * Between tabulated counts (the tables give 2–9, 12, 16, 20): the factor of the next larger
-      tabulated count (10 circuits touching, direct: the 12-circuit 0.36). 1/F² − 1 is the
-      mutual heating relative to self-heating (IEC 60287-2-1 image method, equal losses); each
-      further circuit adds less mutual heating than the one before, so a straight line between
-      two rows — in F or in 1/F² — lies on the side of too little mutual heating, too high a
-      factor; the next larger row cannot overstate the factor, whatever the curve (derived; the
-      tables give no reading between their rows; :func:`air_group_factor` reads B.52.17 so).
+    * Between tabulated counts (B.52.18 gives 2–9, 12, 16, 20; B.52.19 2–10, 12, 16, 20): the
+      factor of the next larger tabulated count (11 circuits touching, direct: the 12-circuit
+      0.36). 1/F² − 1 is the mutual heating relative to self-heating (IEC 60287-2-1 image
+      method, equal losses); each further circuit adds less mutual heating than the one
+      before, so a straight line between two rows — in F or in 1/F² — lies on the side of too
+      little mutual heating, too high a factor; the next larger row cannot overstate the
+      factor, whatever the curve (derived; the tables give no reading between their rows;
+      :func:`air_group_factor` reads B.52.17 so).
     * Beyond the last tabulated count (20): 1/F² extrapolated linearly in the count from the last
       two rows: by the same argument the linear extension overstates the mutual heating
       (conservative; derived).
