@@ -161,6 +161,34 @@ def _bracket(values: np.ndarray, x: float) -> np.ndarray:
     return (v == v[hi]) | (v == v[hi - 1]) if v[hi] != x else v == x
 
 
+def _count_row(
+    counts: np.ndarray, count: float, column: np.ndarray | None = None, factor: float = math.nan
+) -> tuple[np.ndarray, str]:
+    """The row of a grouping table read at ``count`` (its ascending ``circuits``; ``column``:
+    the factor column, whose empty cells are not rows of it), as calc.ampacity reads the
+    grouping tables, and what the step adds where the count is not a row: the first tabulated
+    count at or above the count rounded up to whole circuits; beyond the last row that row,
+    the factor held (``factor``, the one applied, is that row's: single-layer items, spaced)
+    or 1/k² extrapolated from it."""
+    v = np.asarray(counts, dtype=float)
+    valid = np.ones(len(v), bool) if column is None else ~np.isnan(np.asarray(column, float))
+    k = math.ceil(max(count, 1.0) - 1e-9)
+    rows = v[valid]
+    at = float(rows[min(int(np.searchsorted(rows, k, side="left")), len(rows) - 1)])
+    held = column is not None and factor == float(np.asarray(column, float)[v == at][0])
+    if k > at:
+        note = (
+            f" (no further reduction beyond {_num(at)} circuits)"
+            if held
+            else " (beyond the table: 1/k² extrapolated linearly, derived)"
+        )
+    elif count > 1.0 and count != at:
+        note = f" (between the table's rows: the next larger, {_num(at)})"
+    else:
+        note = ""
+    return (v == at) & valid, note
+
+
 def _rows(table_name: str, **equal: float | str) -> np.ndarray:
     t = load_table(table_name)
     mask = np.ones(len(t), bool)
@@ -512,16 +540,15 @@ def _capacity_steps(row: pd.Series, segments: pd.DataFrame, design: DesignConfig
         )
         t = load_table(name)
         count = float(row["group_count"])
-        beyond = count > float(t["circuits"][-1])
+        rows, note = _count_row(t["circuits"], count)
         steps.append(
             Step(
                 "Grouping factor kG",
                 "k_G read at the cable sets in the segment and the clear spacing",
-                f"{_num(count)} cable sets, spacing {_num(env['spacing_m'])} m"
-                + (" (beyond the table: 1/k² extrapolated linearly, derived)" if beyond else ""),
+                f"{_num(count)} cable sets, spacing {_num(env['spacing_m'])} m{note}",
                 float(row["factor_group"]),
                 "",
-                _source(name, _bracket(t["circuits"], count)),
+                _source(name, rows),
             )
         )
     else:
@@ -531,14 +558,15 @@ def _capacity_steps(row: pd.Series, segments: pd.DataFrame, design: DesignConfig
         t = load_table(name)
         count = float(row["group_count"])
         arrangement = design.air_arrangement[kind]
+        rows, note = _count_row(t["circuits"], count, t[arrangement], float(row["factor_group"]))
         steps.append(
             Step(
                 "Grouping factor kG",
                 "k_G read at the circuits sharing the stretch and the arrangement",
-                f"{_num(max(count, 1.0))} circuit(s), arrangement {arrangement}",
+                f"{_num(max(count, 1.0))} circuit(s), arrangement {arrangement}{note}",
                 float(row["factor_group"]),
                 "",
-                _source(name, _bracket(t["circuits"], max(count, 1.0))),
+                _source(name, rows),
             )
         )
     k = [float(row[c]) for c in ("factor_temp", "factor_soil", "factor_depth", "factor_group")]

@@ -439,3 +439,42 @@ def test_every_rule_set_has_its_own_methods_and_assumptions():
         others = [n for n in rule_names() if n != name]
         assert all(methods(name) != methods(o) for o in others), name
         assert all(assumptions(name) != assumptions(o) for o in others), name
+
+
+def test_a_count_between_the_table_rows_is_worked_at_the_next_larger_row():
+    """The demo's busiest trench holds 10 cable sets touching, direct in the ground: IEC
+    60364-5-52:2009 Table B.52.18 gives 9 (0.41) and 12 circuits (0.36, from memory) and no
+    reading between; the worked step says the next larger row is read and shows 0.36."""
+    demo = Path(__file__).resolve().parents[2] / "demo_site"
+    p = plan(demo)
+    c = p.circuits
+    cid = c.loc[c["group_count"] == 10, "circuit_id"].iloc[0]
+    w = worked_circuit(c, p.segments, p.design, cid)
+    (step,) = [s for s in w.steps if s.label == "Grouping factor kG"]
+    assert (
+        step.substituted
+        == "10 cable sets, spacing 0 m (between the table's rows: the next larger, 12)"
+    )
+    assert step.value == pytest.approx(0.36, abs=1e-12)
+
+
+def test_the_air_table_is_worked_at_its_own_rows():
+    """IEC 60364-5-52:2009 Table B.52.17 (confirmed): the single-layer items (here a perforated
+    tray, item 4) give no further reduction beyond 9 circuits, bunched circuits (item 1) are
+    tabulated to 20; the worked step names the row read and why."""
+    from calc.tables import load_table
+    from routeplan.report.worked import _count_row
+
+    t = load_table("iec60364_5_52_2009_b52_17_group_air.csv")
+    tray_9 = float(t["tray"][t["circuits"] == 9][0])
+    rows, note = _count_row(t["circuits"], 12.0, t["tray"], tray_9)
+    assert (
+        t["circuits"][rows].tolist() == [9] and note == " (no further reduction beyond 9 circuits)"
+    )
+    rows, note = _count_row(t["circuits"], 10.0, t["bunched"], 0.45)
+    assert t["circuits"][rows].tolist() == [12]
+    assert note == " (between the table's rows: the next larger, 12)"
+    rows, note = _count_row(t["circuits"], 24.0, t["bunched"], 0.35)
+    assert t["circuits"][rows].tolist() == [20]
+    assert note == " (beyond the table: 1/k² extrapolated linearly, derived)"
+    assert _count_row(t["circuits"], 4.0, t["bunched"], 0.65)[1] == ""
