@@ -88,6 +88,10 @@ def straight_site(root: Path, toml: str = TOML, second_block: bool = False) -> P
     )
     grid = gpd.GeoDataFrame({"id": ["G1"]}, geometry=[Point(xy(GRID_X, 3))], crs=UTM33)
     if second_block:
+        # 11 circuits then share T1 around x = 55 m: laid 0.02 m apart (IEC 60364-5-52 Table
+        # B.52.18, read at 12 circuits: 0.384 between touching, 0.36, and 0.125 m, 0.51, from
+        # memory) INV1's strings keep within their 6 mm² but at the far candidate
+        trenches["spacing_m"] = [0.02]
         rows.loc[3] = ["R9", 4, "mod1", "C9", LineString([xy(140, -12), xy(160, -12)])]
         combiners.loc[3] = ["C9", "INV2", 8, Point(xy(0, -3))]
         inverters.loc[1] = ["INV2", 60.0, 800.0, 3, "G1", Point(xy(5, 3))]
