@@ -209,7 +209,10 @@ DESIGN_KEYS: tuple[Key, ...] = (
         math.nan,
         60.0,
         90.0,
-        note="nec: temperature rating of the terminations (110.14(C)): 60, 75 or 90; unset = 75",
+        note="nec: temperature rating of the terminations (110.14(C)): 60, 75 or 90; unset = 75, "
+        "the equipment taken as listed for 75 °C terminations (common practice for PV "
+        "equipment) — where it is not, 110.14(C)(1)(a) holds circuits of 100 A or less and "
+        "14–1 AWG conductors to 60 °C: confirm the marking",
     ),
     Key(
         "buried_rating",
