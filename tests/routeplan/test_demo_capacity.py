@@ -79,26 +79,23 @@ GPV = [25, 32, 40, 50, 63, 80, 100, 125, 160, 200, 250, 315, 355, 400, 500, 630]
 BREAKERS = [63, 80, 100, 125, 160, 200, 250, 315, 400, 500, 630, 800, 1000, 1250, 1600]
 
 
-def _plan(site: str, out: Path) -> Path:
+def _schedules(site: str, out: Path) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Plan the demo ``site`` with the CLI; its cable and trench schedules as written."""
     result = runner.invoke(app, ["plan", str(ROOT / site), "--out", str(out), "--no-cache"])
     assert result.exit_code == 0, result.output
-    return out
+    cs = pd.read_csv(out / "cable_schedule.csv")
+    ts = pd.read_csv(out / "trench_schedule.csv").set_index("segment_id")
+    return cs, ts
 
 
 @pytest.fixture(scope="module")
 def iec(tmp_path_factory):
-    out = _plan("demo_site", tmp_path_factory.mktemp("iec") / "out")
-    cs = pd.read_csv(out / "cable_schedule.csv")
-    ts = pd.read_csv(out / "trench_schedule.csv").set_index("segment_id")
-    return cs, ts
+    return _schedules("demo_site", tmp_path_factory.mktemp("iec") / "out")
 
 
 @pytest.fixture(scope="module")
 def nec(tmp_path_factory):
-    out = _plan("demo_site_us", tmp_path_factory.mktemp("nec") / "out")
-    cs = pd.read_csv(out / "cable_schedule.csv")
-    ts = pd.read_csv(out / "trench_schedule.csv").set_index("segment_id")
-    return cs, ts
+    return _schedules("demo_site_us", tmp_path_factory.mktemp("nec") / "out")
 
 
 def _by_count(table: dict, n: float, col: int) -> float:
