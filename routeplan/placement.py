@@ -120,6 +120,9 @@ DECIMALS: dict[str, int] = {
 #: most candidate positions one search plans (a larger request is refused with the count,
 #: before any planning)
 MAX_CANDIDATES = 2000
+#: most points :func:`candidate_points` makes along the trenches near the current position
+#: before keeping those within the radius (a finer step is refused before any point is made)
+MAX_POINTS = 500_000
 
 
 class PlacementError(ValueError):
@@ -196,14 +199,48 @@ def candidate_points(
     """Points every ``step_m`` along each trench (from its first vertex, and its end point),
     within ``radius_m`` of ``origin`` (straight-line distance); coordinates rounded to 1 cm and
     de-duplicated (trench ends shared). Returns ``(xy (n, 2), trench ids (n,))`` sorted by
-    distance from ``origin``, then x, then y (deterministic)."""
+    distance from ``origin``, then x, then y (deterministic). A step so fine that the trenches
+    passing within the radius would hold more than :data:`MAX_POINTS` points is refused
+    (:class:`PlacementError`, with the estimated count) before any point is made."""
     if not (step_m > 0 and math.isfinite(step_m)):
         raise PlacementError(f"--step must be > 0 m, got {step_m}")
     if not (radius_m >= 0 and math.isfinite(radius_m)):
         raise PlacementError(f"--radius must be ≥ 0 m, got {radius_m}")
     parts, owner = shapely.get_parts(trenches.geometry.to_numpy(), return_index=True)
+    # only a trench part that comes within the radius (and the 1 cm rounding) holds a candidate
+    centre = shapely.Point(origin)
+    near = shapely.dwithin(parts, centre, radius_m + 0.01)
+    parts, owner = parts[near], owner[near]
     lengths = shapely.length(parts)
-    counts = np.floor(lengths / step_m).astype(int) + 1
+    with np.errstate(over="ignore"):  # a tiny step: counts beyond any integer
+        counts_f = np.floor(lengths / step_m) + 1
+    generated = float(counts_f.sum())
+    if not generated <= MAX_POINTS:  # refused before any point is made (memory, time)
+        # the disk no larger than the farthest trench corner (a huge radius stays finite)
+        box = shapely.bounds(parts).reshape(-1, 2, 2) - np.asarray(origin)
+        reach = float(np.hypot(np.abs(box[:, :, 0]).max(1), np.abs(box[:, :, 1]).max(1)).max())
+        disk = centre.buffer(min(radius_m, reach + 1.0))
+        inside = float(shapely.length(shapely.intersection(parts, disk)).sum())
+        with np.errstate(over="ignore"):
+            estimate = inside / step_m
+        if estimate > MAX_CANDIDATES:
+            about = (
+                f"{estimate:,.0f}"
+                if estimate < 1e12
+                else f"{estimate:.1e}"
+                if math.isfinite(estimate)
+                else "more than 1e+308"
+            )
+            raise PlacementError(
+                f"about {about} candidate positions within {radius_m:g} m every {step_m:g} m; "
+                f"at most {MAX_CANDIDATES:,} are planned: use a smaller --radius or a larger "
+                "--step"
+            )
+        raise PlacementError(
+            f"--step {step_m:g} m makes {generated:,.0f} points along the trenches that pass "
+            f"within {radius_m:g} m; at most {MAX_POINTS:,} are looked at: use a larger --step"
+        )
+    counts = counts_f.astype(np.int64)
     line = np.repeat(np.arange(parts.size), counts)
     first = np.repeat(np.cumsum(counts) - counts, counts)
     distance = (np.arange(line.size) - first) * step_m

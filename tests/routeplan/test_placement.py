@@ -282,6 +282,25 @@ def test_a_search_too_large_is_refused_before_planning(tmp_path):
         search(site, design, "inverter", "INV1", radius_m=500.0, step_m=0.05)
 
 
+@pytest.mark.parametrize(
+    ("radius_m", "step_m", "message"),
+    [
+        # 200 m every 1e-4 m: 2,000,001 points, refused before they are made
+        (500.0, 1e-4, r"about 2,000,000 candidate positions within 500 m .* at most 2,000"),
+        # a step so small that the count of points is no integer (it failed in numpy)
+        (500.0, 1e-300, r"about 2\.0e\+302 candidate positions .* at most 2,000"),
+        (500.0, 5e-324, r"about more than 1e\+308 candidate positions"),
+        # 3.001 m around INV1, 3 m from the trench: 0.155 m of it in the disk, 1,549 points
+        # every 1e-4 m there, but 2,000,001 along the whole trench
+        (3.001, 1e-4, r"--step 0\.0001 m makes 2,000,001 points along the trenches that pass"),
+    ],
+)
+def test_a_step_too_fine_is_refused_before_any_point_is_made(tmp_path, radius_m, step_m, message):
+    site, design = load(straight_site(tmp_path / "s"))
+    with pytest.raises(PlacementError, match=message):
+        search(site, design, "inverter", "INV1", radius_m=radius_m, step_m=step_m)
+
+
 def test_a_folder_holding_a_users_file_is_refused_before_planning(tmp_path):
     site = straight_site(tmp_path / "s")
     out = tmp_path / "out"
