@@ -332,6 +332,7 @@ def parse_costs(raw: dict[str, Any], problems: list[Problem]) -> CostConfig:
         )
         currency = ""
     prices: dict[tuple[str, float], float] = {}
+    given: dict[tuple[str, float], str] = {}  # the key that priced each conductor
     table = raw.get("conductor_per_m", {})
     if not isinstance(table, dict):
         problems.append(
@@ -351,8 +352,18 @@ def parse_costs(raw: dict[str, Any], problems: list[Problem]) -> CostConfig:
             )
         elif isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v) or v < 0:
             problems.append(Problem(SITE_TOML, where, "must be a price ≥ 0 (a number)"))
+        elif (material, size_mm2) in given:
+            problems.append(
+                Problem(
+                    SITE_TOML,
+                    where,
+                    f'prices the same conductor as "{given[(material, size_mm2)]}": give one price '
+                    "per material and size",
+                )
+            )
         else:
             prices[(material, size_mm2)] = float(v)
+            given[(material, size_mm2)] = str(key)
     return CostConfig(
         prices,
         numbers.get("energy_price_per_kwh", math.nan),

@@ -317,7 +317,14 @@ def evaluate(plan: Plan, costs: CostConfig, ref: Reference) -> Evaluation:
         price = np.array(
             [costs.conductor_per_m[(m, float(s))] for m, s in zip(material, size, strict=True)]
         )
-        cost = float((price * conductor_m).sum())
+        with np.errstate(over="ignore"):
+            cost = float((price * conductor_m).sum())
+        if not math.isfinite(cost):
+            raise PlacementError(
+                "site.toml: costs.conductor_per_m: the plant's conductor cost exceeds the "
+                f"largest number (prices up to {max(costs.conductor_per_m.values()):g} per "
+                "metre): check the prices"
+            )
     energy = float(c["energy_loss_kwh"].sum())
     capital = math.nan
     if costs.energy_priced:

@@ -201,6 +201,15 @@ def test_a_size_without_a_price_is_refused_before_planning(tmp_path):
         search(site, design, "inverter", "INV1", radius_m=30.0, step_m=10.0)
 
 
+def test_prices_whose_total_exceeds_any_number_are_refused(tmp_path):
+    # 1e308 per metre × hundreds of conductor metres: the sum was inf (numpy warned), every
+    # candidate tied at inf and the delta was nan
+    toml = TOML + '\n[costs.conductor_per_m]\n"Cu 6" = 1e308\n"Al 95" = 1e308\n"Cu 50" = 1e308\n'
+    site, design = load(straight_site(tmp_path / "s", toml))
+    with pytest.raises(PlacementError, match=r"conductor cost exceeds the largest number"):
+        search(site, design, "inverter", "INV1", radius_m=30.0, step_m=10.0)
+
+
 @pytest.mark.parametrize(
     ("extra", "where"),
     [
@@ -209,6 +218,11 @@ def test_a_size_without_a_price_is_refused_before_planning(tmp_path):
         ("[costs]\ndiscount = 5\n", "costs.discount"),
         ('[costs.conductor_per_m]\n"Fe 10" = 1.0\n', "costs.conductor_per_m.Fe 10"),
         ('[costs.conductor_per_m]\n"Cu 10" = -1\n', "costs.conductor_per_m.Cu 10"),
+        # two keys for one conductor: which price counts was the last key's, silently
+        (
+            '[costs.conductor_per_m]\n"Cu 6" = 0.9\n"Cu 6.0" = 9\n',
+            'costs.conductor_per_m.Cu 6.0\': prices the same conductor as "Cu 6"',
+        ),
     ],
 )
 def test_bad_costs_are_named_by_key(tmp_path, extra, where):
