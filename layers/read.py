@@ -15,14 +15,18 @@ def read_site(path: Path | str, memo: LayerMemo | None = None) -> Site:
 
     Opens ``site.toml`` and each layer file (any format pyogrio reads), reprojects to one metric
     working CRS and validates everything. Raises :class:`~layers.errors.SiteError` listing every
-    problem (file, layer, feature id, what is wrong) — never only the first; its ``partial``
+    problem (file, layer, feature id, what is wrong) — never only the first, except that a
+    site.toml missing or unreadable is reported alone (nothing else can be checked without
+    its settings and layer names); its ``partial``
     site is set only when every file was read and found and only attributes (or modules) are
     wrong. ``memo``: the layers this process read last (:class:`~layers.sources.LayerMemo`),
     each taken from memory when what it is read from is unchanged.
     """
     root = Path(path)
     config, problems = read_config(root)
-    if problems and not root.is_dir():
+    if problems:
+        # no settings (site.toml missing or unreadable): whatever else is found would only
+        # follow from that (no [modules], a layer mapped in [layers] reported missing)
         raise SiteError(problems)
     sources, p = locate_layers(root, config)
     problems += p

@@ -34,6 +34,28 @@ def test_unparsable_site_toml(tmp_path):
     assert any(p.startswith("site.toml: cannot be parsed") for p in problems_of(root))
 
 
+@pytest.mark.parametrize(
+    "toml", [None, "[site\nname = 1", b"\x00\xff[[["], ids=["missing", "syntax", "not text"]
+)
+def test_a_site_toml_that_cannot_be_read_is_the_one_problem(tmp_path, toml):
+    # the site maps its grid layer in [layers]; without site.toml's settings, the missing
+    # [modules] and the grid 'to' of every inverter were reported too, as if they were wrong
+    frames = base_frames()
+    root = write(tmp_path, frames)
+    (root / "grid.geojson").rename(root / "substation.geojson")
+    text = (root / "site.toml").read_text(encoding="utf-8")
+    (root / "site.toml").write_text(text + '\n[layers]\ngrid = "substation.geojson"\n', "utf-8")
+    layers.read_site(root)  # valid as it is
+    if toml is None:
+        (root / "site.toml").unlink()
+    elif isinstance(toml, bytes):
+        (root / "site.toml").write_bytes(toml)
+    else:
+        (root / "site.toml").write_text(toml, encoding="utf-8")
+    (problem,) = problems_of(root)
+    assert problem.startswith("site.toml: ")
+
+
 def test_missing_required_layer(tmp_path):
     frames = base_frames()
     del frames["trenches"]
