@@ -478,7 +478,14 @@ def place(
             progress=(lambda i, n: status.update(f"candidate {i + 1} of {n}")) if status else None,
         )
         if not plans:
-            raise PlacementError(f"{kind} {feature!r}: no candidate position could be routed")
+            current = table.loc[table["candidate"] == 0, "note"].astype(str)
+            why = current.iloc[0].removeprefix("not routable here: ") if len(current) else ""
+            where = (
+                f"no trench passes within {radius:g} m"
+                if len(table) == 1
+                else f"none of the {len(table)} candidate positions could be routed"
+            )
+            raise PlacementError(f"{kind} {feature!r}: {where}; at the current position: {why}")
         best = next(iter(plans.values()))
         write_plan(best, folder, extra=placement_files)
     if not quiet:
@@ -490,11 +497,19 @@ def place(
             markup=False,
         )
         unit = str(top["objective_unit"])
+        delta = float(top["delta_objective"])
+        if delta == delta:  # not nan: the current position was planned
+            against = f"{delta:+,.1f} {unit} against the current position"
+        else:
+            note = str(table.loc[table["candidate"] == 0, "note"].iloc[0])
+            against = "the current position cannot be routed: " + note.removeprefix(
+                "not routable here: "
+            )
         out.print(
             f"best: candidate {int(top['candidate'])} at ({top['x']:.2f}, {top['y']:.2f}), "
             f"{top['moved_m']:.1f} m from the current position on trench "
             f"{top['trench_id'] or '(current)'}; objective {top['objective']:,.1f} {unit} "
-            f"({top['delta_objective']:+,.1f} {unit} against the current position)",
+            f"({against})",
             markup=False,
         )
         out.print(

@@ -267,6 +267,38 @@ def test_requests_that_name_no_feature_are_refused(tmp_path):
     assert r.exit_code == 2 and "--step must be > 0 m" in r.output
 
 
+def test_a_feature_no_candidate_can_route_is_refused_with_the_reason(tmp_path):
+    # INV1 60 m north of the only trench, beyond snap_m (20 m, tests/conftest.py): the line
+    # said "no candidate position could be routed", not why
+    site = straight_site(tmp_path / "s")
+    inverters = gpd.read_file(site / "inverters.geojson")
+    inverters.geometry = [Point(xy(100, 60))]
+    inverters.to_file(site / "inverters.geojson", engine="pyogrio")
+    out = str(tmp_path / "out")
+    args = ["place", str(site), "--inverter", "INV1", "--out", out]
+    r = runner.invoke(app, [*args, "--radius", "40"])
+    assert r.exit_code == 2, r.output
+    line = " ".join(r.output.split())
+    assert "inverter 'INV1': no trench passes within 40 m; at the current position:" in line
+    assert "nearest trench 'T1' is 60.00 m away" in line
+    # within 70 m, positions on T1 route: the best is compared with a current position that
+    # does not (the summary said "+nan kg against the current position")
+    r = runner.invoke(app, [*args, "--radius", "70"])
+    assert r.exit_code == 0, r.output
+    line = " ".join(r.output.split())
+    assert "nan" not in line
+    assert "(the current position cannot be routed: inverters 'INV1': nearest trench" in line
+    # a lone trench beside it: every position on it joins an island
+    trenches = gpd.read_file(site / "trenches.geojson")
+    trenches.loc[1] = ["T2", 0.8, "direct", LineString([xy(90, 58), xy(110, 58)])]
+    trenches.to_file(site / "trenches.geojson", engine="pyogrio")
+    r = runner.invoke(app, [*args, "--radius", "15"])
+    assert r.exit_code == 2, r.output
+    line = " ".join(r.output.split())
+    assert "inverter 'INV1': none of the 4 candidate positions could be routed" in line
+    assert "cannot reach" in line
+
+
 def test_a_combiner_can_be_placed(tmp_path):
     site, design = load(straight_site(tmp_path / "s"))
     table, plans = search(site, design, "combiner", "C2", radius_m=25.0, step_m=10.0)
