@@ -40,6 +40,7 @@ It is a local search around the current position, not a layout optimiser.
 from __future__ import annotations
 
 import dataclasses
+import difflib
 import math
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
@@ -181,10 +182,17 @@ def _layer(site: Site, kind: str) -> gpd.GeoDataFrame:
 def feature_index(site: Site, kind: str, feature_id: str) -> int:
     """Row of the inverter or combiner ``feature_id``; a one-line error when there is none."""
     frame = _layer(site, kind)
-    hits = np.flatnonzero(frame["id"].astype(str).to_numpy() == feature_id)
+    ids = frame["id"].astype(str).to_numpy()
+    hits = np.flatnonzero(ids == feature_id)
     if not hits.size:
         layer = "inverters" if kind == "inverter" else "combiners"
-        raise PlacementError(f"{layer}: no feature with id {feature_id!r}")
+        other = "combiner" if kind == "inverter" else "inverter"
+        if (_layer(site, other)["id"].astype(str).to_numpy() == feature_id).any():
+            hint = f": {feature_id!r} is a {other} (--{other} {feature_id})"
+        else:
+            close = difflib.get_close_matches(feature_id.strip(), ids.tolist(), n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+        raise PlacementError(f"{layer}: no feature with id {feature_id!r}{hint}")
     return int(hits[0])
 
 

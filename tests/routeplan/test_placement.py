@@ -259,6 +259,13 @@ def test_requests_that_name_no_feature_are_refused(tmp_path):
     assert r.exit_code == 2 and "inverters: no feature with id 'NOPE'" in r.output
     r = runner.invoke(app, ["place", str(site), "--out", out])
     assert r.exit_code == 2 and "exactly one of --inverter" in r.output
+    # an id of the other kind, or one that differs by a space, says which was meant
+    r = runner.invoke(app, ["place", str(site), "--inverter", "C1", "--out", out])
+    assert r.exit_code == 2
+    assert "inverters: no feature with id 'C1': 'C1' is a combiner (--combiner C1)" in r.output
+    r = runner.invoke(app, ["place", str(site), "--inverter", "INV1 ", "--out", out])
+    assert r.exit_code == 2
+    assert "no feature with id 'INV1 ' (did you mean 'INV1'?)" in r.output
     r = runner.invoke(app, ["place", str(site), "--combiner", "C0", "--inverter", "INV1",
                             "--out", out])  # fmt: skip
     assert r.exit_code == 2
