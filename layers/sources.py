@@ -184,11 +184,74 @@ def read_layer(
     try:
         kwargs = {"layer": layer} if layer else {}
         frame = gpd.read_file(path, engine="pyogrio", **kwargs)
+        stored = _stored_numbers(path, layer, name) if _is_sqlite(path) else []
     except Exception as exc:  # pyogrio/GDAL raise many types for unreadable files
         return None, [Problem(name, None, f"cannot read {spec}: {_short(exc)}")]
-    if digest is not None:
+    if digest is not None and not stored:
         memo.keep(root, spec, digest, frame)
-    return frame, []
+    return frame, stored
+
+
+def _stored_numbers(path: Path, layer: str | None, name: str) -> list[Problem]:
+    """The values of a GeoPackage (SQLite) layer's number attributes that GDAL reads as other
+    numbers without a word: SQLite stores any type in any column, and GDAL reads a real
+    stored in an INTEGER column as its integer part (2.5 → 2, 1e30 → the largest int64), text
+    or a blob in a number column as 0. One problem per value, naming the feature by its id.
+    Only the attributes :mod:`layers.validate` reads as numbers are looked at."""
+    from .validate import FIELDS  # validate imports this module
+
+    fields = {f.name: f.kind for f in FIELDS.get(name, ()) if f.kind in ("int", "float")}
+    if not fields:
+        return []
+    table = layer or str(pyogrio.list_layers(path)[0][0])
+    try:
+        con = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True)
+    except sqlite3.Error:  # GDAL read it: what it read is validated as usual
+        return []
+    try:
+        quoted = '"' + table.replace('"', '""') + '"'
+        declared = {
+            str(r[1]): str(r[2]).upper() for r in con.execute(f"PRAGMA table_info({quoted})")
+        }
+        ids = [c for c in declared if c.lower() == "id"]
+        problems = []
+        for column, kind in declared.items():
+            want = fields.get(column.lower())
+            if want is None:
+                continue
+            # what the column's affinity could not make a number of its declared type (SQLite
+            # 3 "Datatypes", 3.1: INT → integer, REAL/FLOA/DOUB → real); a text column's
+            # values are read as text (a quantity such as "800 mm")
+            if "INT" in kind:
+                odd: tuple[str, ...] = ("real", "text", "blob")
+            elif any(t in kind for t in ("REAL", "FLOA", "DOUB")):
+                odd = ("text", "blob")
+            else:
+                continue
+            col = '"' + column.replace('"', '""') + '"'
+            who = '"' + ids[0].replace('"', '""') + '"' if ids else "NULL"
+            rows = con.execute(
+                f"SELECT {who}, {col}, typeof({col}) FROM {quoted} WHERE typeof({col}) IN "
+                f"({', '.join('?' * len(odd))}) ORDER BY rowid",
+                odd,
+            ).fetchall()
+            what = "a whole number" if want == "int" else "a number"
+            for fid, value, stored in rows:
+                shown = repr(value) if not isinstance(value, bytes) else f"{len(value)} bytes"
+                as_ = {"real": "a real", "text": "text", "blob": "a blob"}[stored]
+                problems.append(
+                    Problem(
+                        name,
+                        None if fid is None else str(fid),
+                        f"{column} is {shown} in the file ({as_} in a column of type "
+                        f"{kind or 'none'}), expected {what}",
+                    )
+                )
+        return problems
+    except sqlite3.Error:
+        return []
+    finally:
+        con.close()
 
 
 class LayerMemo:

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import sqlite3
+
 import numpy as np
 import pyproj
 import pytest
@@ -106,3 +108,50 @@ def test_units_in_values_are_converted():
     assert to_number("2.5 MVA", "ac_kva") == 2500.0
     with pytest.raises(ValueError, match="not a quantity in A"):
         to_number("3 m", "isc_a")
+
+
+@pytest.mark.parametrize(
+    ("table", "column", "value", "message"),
+    [
+        # SQLite keeps a real in an INTEGER column (type affinity: 2.5 is not an integer) and
+        # GDAL reads it as 2, silently; GeoJSON's 2.5 was refused
+        ("rows", "strings", 2.5, "strings is 2.5 in the file (a real in a column of type"),
+        ("rows", "strings", "abc", "strings is 'abc' in the file (text in a column of type"),
+        ("rows", "strings", 1e30, "strings is 1e+30 in the file"),
+        ("inverters", "ac_kva", "big", "ac_kva is 'big' in the file (text in a column of type"),
+    ],
+)
+def test_a_geopackage_value_gdal_would_read_as_another_number_is_refused(
+    tmp_path, table, column, value, message
+):
+    # SQLite 3 "Datatypes In SQLite", 3.1 (type affinity): a value stored in a column of
+    # another type keeps its own type when it cannot be converted losslessly
+    frames = base_frames()
+    root = write_site(tmp_path / "s", frames, fmt="gpkg")
+    assert layers.read_site(root)  # valid as written
+    path = root / f"{table}.gpkg"
+    frames[table].to_file(path, engine="pyogrio", layer_options={"SPATIAL_INDEX": "NO"})
+    con = sqlite3.connect(path)
+    first = con.execute(f'SELECT id FROM "{table}" ORDER BY fid LIMIT 1').fetchone()[0]
+    con.execute(f'UPDATE "{table}" SET "{column}" = ? WHERE id = ?', (value, first))
+    con.commit()
+    con.close()
+    with pytest.raises(layers.SiteError) as info:
+        layers.read_site(root)
+    found = [str(p) for p in info.value.problems]
+    assert len(found) == 1, found  # the value GDAL read from it is not reported again
+    assert found[0].startswith(f"{table} '{first}': {message}")
+    assert found[0].endswith("expected a whole number" if column == "strings" else "a number")
+
+
+def test_a_whole_real_or_a_numeric_text_in_a_geopackage_is_its_number(tmp_path):
+    # SQLite converts 3.0 and '3' to the integer 3 in an INTEGER column (type affinity)
+    root = write_site(tmp_path / "s", base_frames(), fmt="gpkg")
+    base_frames()["rows"].to_file(
+        root / "rows.gpkg", engine="pyogrio", layer_options={"SPATIAL_INDEX": "NO"}
+    )
+    con = sqlite3.connect(root / "rows.gpkg")
+    con.execute("UPDATE rows SET strings = '3' WHERE id = 'R1'")
+    con.commit()
+    con.close()
+    assert layers.read_site(root).rows["strings"].tolist() == [3, 3]
