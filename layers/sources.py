@@ -13,6 +13,7 @@ import os
 import re
 import sqlite3
 import tomllib
+import warnings
 import xml.etree.ElementTree as ET
 from collections.abc import Iterable
 from pathlib import Path
@@ -183,7 +184,14 @@ def read_layer(
             return kept, []
     try:
         kwargs = {"layer": layer} if layer else {}
-        frame = gpd.read_file(path, engine="pyogrio", **kwargs)
+        with warnings.catch_warnings():
+            # a GeoJSON attribute of mixed types (an id 12 among "W1-R1"s) is a JSON column
+            # to GDAL; geopandas tries to parse its values as JSON and warns when it cannot,
+            # on the user's terminal: the values stay text, which validation reads
+            warnings.filterwarnings(
+                "ignore", message="Could not parse column .* as JSON", category=UserWarning
+            )
+            frame = gpd.read_file(path, engine="pyogrio", **kwargs)
         stored = _stored_numbers(path, layer, name) if _is_sqlite(path) else []
     except Exception as exc:  # pyogrio/GDAL raise many types for unreadable files
         return None, [Problem(name, None, f"cannot read {spec}: {_short(exc)}")]

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import json
 import sqlite3
+import warnings
 
 import numpy as np
 import pyproj
@@ -155,3 +157,18 @@ def test_a_whole_real_or_a_numeric_text_in_a_geopackage_is_its_number(tmp_path):
     con.commit()
     con.close()
     assert layers.read_site(root).rows["strings"].tolist() == [3, 3]
+
+
+def test_a_geojson_attribute_of_mixed_types_is_read_without_a_warning(tmp_path):
+    # GDAL types a GeoJSON property holding a number and strings as JSON; geopandas warned
+    # "Could not parse column 'id' as JSON" (two lines of library code on the terminal)
+    frames = base_frames()
+    root = write_site(tmp_path / "s", frames)
+    path = root / "rows.geojson"
+    data = json.loads(path.read_text(encoding="utf-8"))
+    data["features"][0]["properties"]["id"] = 12
+    path.write_text(json.dumps(data), encoding="utf-8")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        site = layers.read_site(root)
+    assert site.rows["id"].tolist() == ["12", "R2"]
