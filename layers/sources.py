@@ -191,6 +191,11 @@ def read_layer(
             warnings.filterwarnings(
                 "ignore", message="Could not parse column .* as JSON", category=UserWarning
             )
+            # GDAL renumbers GeoJSON features whose "id" members repeat (the features' own
+            # ids are the "id" attribute in their properties, validated as every attribute)
+            warnings.filterwarnings(
+                "ignore", message="Several features with id = ", category=RuntimeWarning
+            )
             frame = gpd.read_file(path, engine="pyogrio", **kwargs)
         stored = _stored_numbers(path, layer, name) if _is_sqlite(path) else []
     except Exception as exc:  # pyogrio/GDAL raise many types for unreadable files

@@ -168,7 +168,24 @@ def test_a_geojson_attribute_of_mixed_types_is_read_without_a_warning(tmp_path):
     data = json.loads(path.read_text(encoding="utf-8"))
     data["features"][0]["properties"]["id"] = 12
     path.write_text(json.dumps(data), encoding="utf-8")
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")
+    with warnings.catch_warnings(record=True) as shown:
+        warnings.simplefilter("always")
         site = layers.read_site(root)
+    assert [str(w.message) for w in shown] == []
     assert site.rows["id"].tolist() == ["12", "R2"]
+
+
+def test_repeated_geojson_feature_ids_are_read_without_a_warning(tmp_path):
+    # RFC 7946, 3.2: a Feature's "id" member is optional and not the "id" property; GDAL
+    # renumbers repeated ones and warned on the terminal ("Several features with id = 1")
+    root = write_site(tmp_path / "s", base_frames())
+    path = root / "rows.geojson"
+    data = json.loads(path.read_text(encoding="utf-8"))
+    for feature in data["features"]:
+        feature["id"] = 1
+    path.write_text(json.dumps(data), encoding="utf-8")
+    with warnings.catch_warnings(record=True) as shown:
+        warnings.simplefilter("always")
+        site = layers.read_site(root)
+    assert [str(w.message) for w in shown] == []
+    assert site.rows["id"].tolist() == ["R1", "R2"]
