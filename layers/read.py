@@ -42,7 +42,11 @@ def read_site(path: Path | str, memo: LayerMemo | None = None) -> Site:
         # a layer already reported missing/unreadable is not reported again, nor a value
         # already reported as stored in the file as another type (what GDAL read of it)
         reported = {p.layer for p in problems}
-        values = {(p.layer, p.feature_id, _attribute(p.message)) for p in problems}
+        values = {
+            (p.layer, p.feature_id, _attribute(p.message))
+            for p in problems
+            if _attribute(p.message)
+        }
         later = [
             q
             for q in exc.problems
