@@ -293,7 +293,8 @@ class CostConfig:
 
 #: ``[costs]`` number keys: (name, low, high, note)
 COST_KEYS: tuple[tuple[str, float, float, str], ...] = (
-    ("energy_price_per_kwh", 0.0, 10.0, "price of a lost kWh, in the currency"),
+    # any currency: a kWh costs well under 1e6 in every one (a guard against a typo, no more)
+    ("energy_price_per_kwh", 0.0, 1e6, "price of a lost kWh, in the currency"),
     ("lifetime_years", 1.0, 100.0, "years over which losses are capitalised"),
     ("discount_rate_pct", 0.0, 50.0, "yearly discount rate for the present value, %"),
 )

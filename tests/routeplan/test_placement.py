@@ -210,10 +210,20 @@ def test_prices_whose_total_exceeds_any_number_are_refused(tmp_path):
         search(site, design, "inverter", "INV1", radius_m=30.0, step_m=10.0)
 
 
+def test_an_energy_price_in_any_currency_is_accepted(tmp_path):
+    # a lost kWh at 25 (a price in a currency of small units; the currency is a label only)
+    costs = "energy_price_per_kwh = 25\nlifetime_years = 25\ndiscount_rate_pct = 6\n"
+    toml = TOML + "\n[costs]\n" + costs
+    site, design = load(straight_site(tmp_path / "s", toml))
+    table, _ = search(site, design, "inverter", "INV1", radius_m=20.0, step_m=20.0)
+    assert (table["capitalised_loss"] > 0).all()
+
+
 @pytest.mark.parametrize(
     ("extra", "where"),
     [
         ("[costs]\nenergy_price_per_kwh = 0.05\n", "costs.lifetime_years"),
+        ("[costs]\nenergy_price_per_kwh = 1e9\n", "costs.energy_price_per_kwh"),
         ('[costs]\nenergy_price_per_kwh = "cheap"\n', "costs.energy_price_per_kwh"),
         ("[costs]\ndiscount = 5\n", "costs.discount"),
         ('[costs.conductor_per_m]\n"Fe 10" = 1.0\n', "costs.conductor_per_m.Fe 10"),
