@@ -943,6 +943,7 @@ def _resized(
     has = c_old >= 0
     c_new = np.full(n_c0, -1, dtype=np.int64)
     c_new[c_old[has]] = np.flatnonzero(has)
+    routes, c = _kept_geometries(routes, c0, c_old)
     new_of_old, old_of_new = _segment_map(r0.network.segments, seg, geometry=True)
     air_old_of_new = air_key0.get_indexer(air_key)
     air_new_of_old = np.full(len(air0), -1, dtype=np.int64)
@@ -1034,6 +1035,26 @@ def _resized(
     return Plan(
         site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs
     )
+
+
+def _kept_geometries(
+    routes: RoutePlan, c0: gpd.GeoDataFrame, c_old: np.ndarray
+) -> tuple[RoutePlan, gpd.GeoDataFrame]:
+    """``routes`` with each circuit's route geometry the last plan's object where it is the
+    same (exactly: :func:`_equal_geometries`), so that what is keyed by the geometry objects
+    (the watching process's row hashes, :class:`routeplan.outputs.reuse.HashMemo`) sees an
+    unchanged route as unchanged; and its circuits."""
+    c = routes.circuits
+    at = np.flatnonzero(c_old >= 0)
+    geoms = np.asarray(c.geometry.array, dtype=object)
+    old = np.asarray(c0.geometry.array, dtype=object)[c_old[at]]
+    same = _equal_geometries(geoms[at], old)
+    if not same.any():
+        return routes, c
+    geoms = geoms.copy()
+    geoms[at[same]] = old[same]
+    c = c.set_geometry(gpd.GeoSeries(geoms, index=c.index, crs=c.crs))
+    return dataclasses.replace(routes, circuits=c), c
 
 
 def _inputs_differ(

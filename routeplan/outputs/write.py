@@ -365,9 +365,7 @@ def _write_files(
     t0 = time.perf_counter()
     tables = schedules(plan, layers)
     for name, table in zip(CSV_FILES, tables.values(), strict=True):
-        index[name], copied[name] = write_csv(
-            table, tmp / name, _previous(plan, name, last)
-        )
+        index[name], copied[name] = write_csv(table, tmp / name, _previous(plan, name, last))
     t["csv"] = time.perf_counter() - t0
 
     say("write workbook")

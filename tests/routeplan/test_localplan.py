@@ -253,6 +253,26 @@ def test_other_site_edits_are_routed_in_full_and_sized_locally(plants):
     assert trench_edit and not any(len(v) for v in moved.values())
 
 
+def test_a_row_edit_keeps_the_unchanged_routes_geometry_objects(plants):
+    """A row's strings changed: every other circuit's route is the last one's, and its
+    geometry is the last plan's object (a watching process's row hashes take a geometry as
+    unchanged by identity); the edited row's strings keep theirs too (same path), the plan
+    equal to a cold plan."""
+    site, design, base = plants["plain"]
+    rows = site.rows.copy()
+    rows.loc[rows.index[0], "strings"] = int(rows["strings"].iloc[0]) - 1
+    edited = dataclasses.replace(site, rows=rows)
+    local = replan(base, edited)
+    assert local.timings_s["local"] == 0.75
+    old = base.plan.routes.circuits
+    new = local.routes.circuits
+    at = pd.Index(old["circuit_id"]).get_indexer(new["circuit_id"])
+    assert (at >= 0).all() and len(new) == len(old) - 1
+    g_old, g_new = old.geometry.to_numpy(), new.geometry.to_numpy()
+    assert all(a is b for a, b in zip(g_new, g_old[at], strict=True))
+    assert_same_plan(local, plan_site(edited, design, with_remedies=False))
+
+
 def _permuted(inp, perm: np.ndarray):
     """``inp`` with its circuits in another order: new circuit ``k`` is old circuit
     ``perm[k]``, parents renumbered (segments and stretches as they are)."""
