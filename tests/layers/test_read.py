@@ -159,33 +159,34 @@ def test_a_whole_real_or_a_numeric_text_in_a_geopackage_is_its_number(tmp_path):
     assert layers.read_site(root).rows["strings"].tolist() == [3, 3]
 
 
-def test_a_geojson_attribute_of_mixed_types_is_read_without_a_warning(tmp_path):
-    # GDAL types a GeoJSON property holding a number and strings as JSON; geopandas warned
-    # "Could not parse column 'id' as JSON" (two lines of library code on the terminal)
-    frames = base_frames()
-    root = write_site(tmp_path / "s", frames)
+def _rows_read_quietly(tmp_path, edit) -> tuple[list, list[str]]:
+    """The test site with its rows.geojson edited by ``edit(data)`` (the parsed JSON), read:
+    the rows' ids and every warning shown while reading."""
+    root = write_site(tmp_path / "s", base_frames())
     path = root / "rows.geojson"
     data = json.loads(path.read_text(encoding="utf-8"))
-    data["features"][0]["properties"]["id"] = 12
+    edit(data)
     path.write_text(json.dumps(data), encoding="utf-8")
     with warnings.catch_warnings(record=True) as shown:
         warnings.simplefilter("always")
         site = layers.read_site(root)
-    assert [str(w.message) for w in shown] == []
-    assert site.rows["id"].tolist() == ["12", "R2"]
+    return site.rows["id"].tolist(), [str(w.message) for w in shown]
+
+
+def test_a_geojson_attribute_of_mixed_types_is_read_without_a_warning(tmp_path):
+    # GDAL types a GeoJSON property holding a number and strings as JSON; geopandas warned
+    # "Could not parse column 'id' as JSON" (two lines of library code on the terminal)
+    def number_id(data):
+        data["features"][0]["properties"]["id"] = 12
+
+    assert _rows_read_quietly(tmp_path, number_id) == (["12", "R2"], [])
 
 
 def test_repeated_geojson_feature_ids_are_read_without_a_warning(tmp_path):
     # RFC 7946, 3.2: a Feature's "id" member is optional and not the "id" property; GDAL
     # renumbers repeated ones and warned on the terminal ("Several features with id = 1")
-    root = write_site(tmp_path / "s", base_frames())
-    path = root / "rows.geojson"
-    data = json.loads(path.read_text(encoding="utf-8"))
-    for feature in data["features"]:
-        feature["id"] = 1
-    path.write_text(json.dumps(data), encoding="utf-8")
-    with warnings.catch_warnings(record=True) as shown:
-        warnings.simplefilter("always")
-        site = layers.read_site(root)
-    assert [str(w.message) for w in shown] == []
-    assert site.rows["id"].tolist() == ["R1", "R2"]
+    def repeated(data):
+        for feature in data["features"]:
+            feature["id"] = 1
+
+    assert _rows_read_quietly(tmp_path, repeated) == (["R1", "R2"], [])
