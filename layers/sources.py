@@ -323,6 +323,9 @@ _SQLITE_HEADER_COUNTERS = ((24, 44), (92, 100))
 
 
 def _is_sqlite(path: Path) -> bool:
+    """Whether ``path`` is a file in the SQLite format (a GeoPackage); a folder dataset is not."""
+    if not path.is_file():
+        return False
     with open(path, "rb") as fh:
         return fh.read(16) == b"SQLite format 3\x00"
 
