@@ -448,7 +448,7 @@ def place(
     from .check import load
     from .map.placement import write_placement_map
     from .outputs.write import PLACE_FILES, write_plan
-    from .placement import PlacementError, search, write_placement
+    from .placement import PlacementError, current_unroutable, search, write_placement
 
     if (inverter is None) == (combiner is None):
         err.print("error: give exactly one of --inverter ID and --combiner ID", markup=False)
@@ -478,8 +478,7 @@ def place(
             progress=(lambda i, n: status.update(f"candidate {i + 1} of {n}")) if status else None,
         )
         if not plans:
-            current = table.loc[table["candidate"] == 0, "note"].astype(str)
-            why = current.iloc[0].removeprefix("not routable here: ") if len(current) else ""
+            why = current_unroutable(table)
             where = (
                 f"no trench passes within {radius:g} m"
                 if len(table) == 1
@@ -501,10 +500,7 @@ def place(
         if delta == delta:  # not nan: the current position was planned
             against = f"{delta:+,.1f} {unit} against the current position"
         else:
-            note = str(table.loc[table["candidate"] == 0, "note"].iloc[0])
-            against = "the current position cannot be routed: " + note.removeprefix(
-                "not routable here: "
-            )
+            against = "the current position cannot be routed: " + current_unroutable(table)
         out.print(
             f"best: candidate {int(top['candidate'])} at ({top['x']:.2f}, {top['y']:.2f}), "
             f"{top['moved_m']:.1f} m from the current position on trench "

@@ -124,6 +124,8 @@ MAX_CANDIDATES = 2000
 #: most points :func:`candidate_points` makes along the trenches near the current position
 #: before keeping those within the radius (a finer step is refused before any point is made)
 MAX_POINTS = 500_000
+#: how a candidate's ``note`` begins where it cannot be routed (the reason follows)
+UNROUTABLE = "not routable here: "
 
 
 class PlacementError(ValueError):
@@ -483,8 +485,15 @@ def _unroutable(i, x, y, trench, origin, reason: str) -> dict:
         "objective_unit": "",
         **{f.name: math.nan for f in dataclasses.fields(Evaluation)},
         "feasible": False,
-        "note": "not routable here: " + " ".join(reason.split())[:200],
+        "note": UNROUTABLE + " ".join(reason.split())[:200],
     }
+
+
+def current_unroutable(table: pd.DataFrame) -> str:
+    """Why the current position (candidate 0) of a ranked ``table`` cannot be routed ("" where
+    it can, or is not in the table)."""
+    note = table.loc[table["candidate"] == 0, "note"].astype(str)
+    return note.iloc[0].removeprefix(UNROUTABLE) if len(note) else ""
 
 
 def candidate_layer(table: pd.DataFrame, crs) -> gpd.GeoDataFrame:
