@@ -222,7 +222,7 @@ def _stored_numbers(path: Path, layer: str | None, name: str) -> list[Problem]:
     except sqlite3.Error:  # GDAL read it: what it read is validated as usual
         return []
     try:
-        quoted = '"' + table.replace('"', '""') + '"'
+        quoted = _sql_name(table)
         declared = {
             str(r[1]): str(r[2]).upper() for r in con.execute(f"PRAGMA table_info({quoted})")
         }
@@ -241,8 +241,8 @@ def _stored_numbers(path: Path, layer: str | None, name: str) -> list[Problem]:
                 odd = ("text", "blob")
             else:
                 continue
-            col = '"' + column.replace('"', '""') + '"'
-            who = '"' + ids[0].replace('"', '""') + '"' if ids else "NULL"
+            col = _sql_name(column)
+            who = _sql_name(ids[0]) if ids else "NULL"
             rows = con.execute(
                 f"SELECT {who}, {col}, typeof({col}) FROM {quoted} WHERE typeof({col}) IN "
                 f"({', '.join('?' * len(odd))}) ORDER BY rowid",
@@ -322,6 +322,11 @@ class LayerMemo:
 _SQLITE_HEADER_COUNTERS = ((24, 44), (92, 100))
 
 
+def _sql_name(name: str) -> str:
+    """``name`` as an SQL identifier (double-quoted, its quotes doubled)."""
+    return '"' + name.replace('"', '""') + '"'
+
+
 def _is_sqlite(path: Path) -> bool:
     """Whether ``path`` is a file in the SQLite format (a GeoPackage); a folder dataset is not."""
     if not path.is_file():
@@ -356,7 +361,7 @@ def _table_digest(path: Path, table: str) -> str | None:
             "ESCAPE '\\' ORDER BY name"
         ).fetchall()
         for (name,) in meta:
-            quoted = '"' + str(name).replace('"', '""') + '"'  # an SQL identifier
+            quoted = _sql_name(str(name))
             columns = [r[1] for r in con.execute(f"PRAGMA table_info({quoted})")]
             where = (
                 ' WHERE "table_name" = ? OR "table_name" IS NULL' if "table_name" in columns else ""
