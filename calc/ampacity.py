@@ -58,6 +58,7 @@ __all__ = [
     "pv_cable_capacity_a",
     "reference_condition",
     "soil_factor",
+    "table_count",
 ]
 
 LAYING_DIRECT = 0  # method D2, cable direct in the ground
@@ -214,13 +215,28 @@ def depth_factor(depth_m: ArrayLike, diameter_m: ArrayLike, ref_depth_m: float =
     return np.minimum(1.0, np.sqrt(t4_ref / t4))
 
 
+def table_count(counts: ArrayLike, n: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+    """How a grouping table (B.52.17, B.52.18, B.52.19) is read for ``n`` circuits: the count
+    rounded up to whole circuits, at least 1 (a count within 1e-9 of a whole number is that
+    number: float noise), and the row read for it — the first tabulated count at or above it
+    (the next larger row between rows), the last row beyond the table. ``counts``: the
+    table's tabulated counts, ascending. Returns ``(whole counts, row counts)``.
+
+    >>> table_count([2, 3, 9, 12, 16, 20], [1.5, 3 + 1e-12, 10, 24])
+    (array([ 2.,  3., 10., 24.]), array([ 2.,  3., 12., 20.]))
+    """
+    xs = np.asarray(counts, dtype=float)
+    k = np.ceil(np.maximum(np.asarray(n, dtype=float), 1.0) - 1e-9)
+    return k, xs[np.minimum(np.searchsorted(xs, k, side="left"), xs.size - 1)]
+
+
 def _by_count(counts: np.ndarray, col: np.ndarray, n: np.ndarray) -> np.ndarray:
-    """Factor at circuit count n for one spacing column: counts rounded up to whole circuits,
-    between tabulated counts the next larger one, 1/F² linear beyond the last."""
+    """Factor at circuit count n for one spacing column (:func:`table_count`: the next larger
+    row between rows), 1/F² linear beyond the last."""
     xs = np.concatenate([[1.0], counts])
     ys = np.concatenate([[1.0], col])
-    k = np.ceil(np.maximum(n, 1.0) - 1e-9)  # whole circuits (a float count of 3.0000001 is 3)
-    inside = ys[np.minimum(np.searchsorted(xs, k, side="left"), xs.size - 1)]
+    k, row = table_count(xs, n)
+    inside = ys[np.searchsorted(xs, row)]
     inv_a, inv_b = 1.0 / ys[-2] ** 2, 1.0 / ys[-1] ** 2
     slope = (inv_b - inv_a) / (xs[-1] - xs[-2])
     beyond = 1.0 / np.sqrt(inv_b + slope * np.maximum(k - xs[-1], 0.0))
@@ -331,8 +347,7 @@ def _air_by_count(counts: np.ndarray, col: np.ndarray, k: np.ndarray, hold: bool
     """Factor at whole circuit counts k >= 1 for one B.52.17 item (see :func:`air_group_factor`)."""
     ok = ~np.isnan(col)
     xs, ys = counts[ok], col[ok]
-    # first tabulated count >= k (the next larger row); past the last row: the last row
-    f = ys[np.minimum(np.searchsorted(xs, k, side="left"), xs.size - 1)]
+    f = ys[np.searchsorted(xs, table_count(xs, k)[1])]  # the next larger row; the last past it
     if hold:
         return f
     several = xs > 1  # rows of 2+ circuits: _by_count supplies the one-circuit 1.0 itself
@@ -425,7 +440,7 @@ def air_group_factor(count: ArrayLike, arrangement: str | ArrayLike) -> np.ndarr
             check_option("air arrangement", str(names[~known][0]), AIR_ARRANGEMENTS)
     if np.any(~(n >= 0)):
         raise InputError("number of circuits in air must be >= 0")
-    k = np.ceil(np.maximum(n, 1.0))
+    k = table_count([1.0], n)[0]  # whole circuits
     t = load_table(_B17)
     out = np.empty(n.shape, dtype=float)
     for name, m in groups.items():  # at most five arrangements, each vectorised over its circuits

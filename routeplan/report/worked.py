@@ -165,16 +165,14 @@ def _count_row(
     counts: np.ndarray, count: float, column: np.ndarray | None = None, factor: float = math.nan
 ) -> tuple[np.ndarray, str]:
     """The row of a grouping table read at ``count`` (its ascending ``circuits``; ``column``:
-    the factor column, whose empty cells are not rows of it), as calc.ampacity reads the
-    grouping tables, and what the step adds where the count is not a row: the first tabulated
-    count at or above the count rounded up to whole circuits; beyond the last row that row,
-    the factor held (``factor``, the one applied, is that row's: single-layer items, spaced)
-    or 1/k² extrapolated from it."""
+    the factor column, whose empty cells are not rows of it), as calc reads the grouping
+    tables (:func:`calc.ampacity.table_count`), and what the step adds where the count is not
+    a row: between rows the next larger; beyond the last row that row, the factor held
+    (``factor``, the one applied, is that row's: single-layer items, spaced) or 1/k²
+    extrapolated from it."""
     v = np.asarray(counts, dtype=float)
     valid = np.ones(len(v), bool) if column is None else ~np.isnan(np.asarray(column, float))
-    k = math.ceil(max(count, 1.0) - 1e-9)
-    rows = v[valid]
-    at = float(rows[min(int(np.searchsorted(rows, k, side="left")), len(rows) - 1)])
+    k, at = (float(x[0]) for x in ampacity.table_count(v[valid], [count]))
     held = column is not None and factor == float(np.asarray(column, float)[v == at][0])
     if k > at:
         note = (
