@@ -162,6 +162,9 @@ EQUIPMENT_POLYGON_STYLE = {
 
 #: Property holding a feature's index in its layer's style table.
 STYLE_KEY = "s"
+#: Key of a style whose colour the page looks up by a count (``rpCounted``,
+#: :func:`count_colours`) instead of holding it.
+COUNT_KEY = "count"
 
 
 @dataclass(eq=False)
@@ -828,6 +831,12 @@ def segment_values(
     return t, over, ref
 
 
+def has_capacity(df: pd.DataFrame) -> np.ndarray:
+    """Which segments have a capacity (``max_circuits``, or ``max_cable_sets`` where only that
+    is given; see :func:`_capacity`)."""
+    return _capacity(df)[1] > 0  # NaN: none
+
+
 def _capacity(df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     """What each segment's fill counts and its capacity: circuits and ``max_circuits``, or
     cable sets and ``max_cable_sets`` where only that is given (NaN capacity: none)."""
@@ -912,18 +921,53 @@ class SegmentLayers:
         return len(self.ok) + len(self.over)
 
 
-def segment_layers(df: gpd.GeoDataFrame, reference: int | None = None) -> SegmentLayers:
+def _count_keys(circuits: np.ndarray) -> np.ndarray:
+    """Each segment's circuit count as the text that keys its colour (``repr`` of the float:
+    two different counts never share a key; NaN is ``"nan"``)."""
+    return np.asarray(per_distinct(lambda c: repr(float(c)), circuits), dtype=object)
+
+
+def count_colours(df: pd.DataFrame, reference: int) -> dict[str, str]:
+    """The ``FILL`` colour of each circuit count of the segments without a capacity, keyed as
+    their styles are (:data:`COUNT_KEY`): what :func:`segment_layers` with ``by_count`` leaves
+    to the page (``rpCountColours``), the colour it would give without."""
+    df = drawable(df)
+    circuits = _num(df, "circuits")[~has_capacity(df)]
+    distinct = pd.unique(circuits)
+    t = distinct / reference if reference else np.full(len(distinct), np.nan)
+    colours = FILL.colours(t)
+    keys = _count_keys(distinct)
+    return dict(zip(keys.tolist(), colours.tolist(), strict=True))
+
+
+def segment_layers(
+    df: gpd.GeoDataFrame, reference: int | None = None, *, by_count: bool = False
+) -> SegmentLayers:
     """Layers of trench segments coloured by fill, over-capacity ones on a vermillion halo
-    (``reference``: see :func:`segment_values`)."""
+    (``reference``: see :func:`segment_values`).
+
+    Segments are drawn in order of circuits where no capacity is set, then in order of fill
+    where one is (the fuller on top at a junction), an order that does not depend on the
+    plant's busiest segment. With ``by_count``, a segment without a capacity gets no colour in
+    its style but its circuit count (:data:`COUNT_KEY`); the page gives the colour
+    (:func:`count_colours`): the layers then do not depend on the busiest segment at all."""
     df = drawable(df)
     t, over, ref = segment_values(df, reference)
-    order = np.argsort(np.nan_to_num(t, nan=-1.0), kind="stable")
-    df, t, over = df.iloc[order], t[order], over[order]
+    capped = has_capacity(df)
+    value = np.where(capped, t, _num(df, "circuits"))
+    order = np.lexsort((np.nan_to_num(value, nan=-1.0), capped))
+    df, t, over, capped = df.iloc[order], t[order], over[order], capped[order]
     geoms = display_geometry(df)
     props = segment_props(df, t, over)
+    colours = FILL.colours(t).astype(object)
+    counts = np.full(len(t), "", dtype=object)
+    if by_count:
+        counts[~capped] = _count_keys(_num(df, "circuits")[~capped])
+        colours[~capped] = ""
+    base = {"weight": SEGMENT_WEIGHT, "opacity": 0.55, "lineCap": "butt"}
     styles = _keyed_styles(
-        [FILL.colours(t)],
-        lambda c: {"color": str(c), "weight": SEGMENT_WEIGHT, "opacity": 0.55, "lineCap": "butt"},
+        [colours, counts],
+        lambda c, n: {"color": str(c), **base} if c else {COUNT_KEY: str(n), **base},
     )
     halo = {"color": PROBLEM_COLOUR, "weight": SEGMENT_HALO_WEIGHT, "opacity": 0.9,
             "dashArray": HALO_DASH, "lineCap": "butt"}  # fmt: skip

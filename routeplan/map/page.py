@@ -56,6 +56,7 @@ from routeplan.map.features import (
     CircuitLayers,
     circuit_kind,
     circuit_layers,
+    count_colours,
     drawable_mask,
     equipment_layer,
     equipment_stats,
@@ -70,6 +71,7 @@ from routeplan.map.features import (
 )
 from routeplan.map.panel import failing_html, legend_html, panel_html, plan_totals, review_html
 from routeplan.map.plantview import BLOCK_GROUP, BLOCK_GROUP_NAME, DETAIL_GROUPS, plant_view
+from routeplan.map.script import script_json
 from routeplan.map.text import escape_text
 from routeplan.map.tiles import MapMemo, Role, mixed, tiles
 from routeplan.network import paused_gc
@@ -501,19 +503,23 @@ def _render(
     n_rows = n["ok"]
     drawn += n_rows
 
-    # trench segments, coloured against the whole plant's busiest segment
+    # trench segments, coloured against the whole plant's busiest segment: one without a
+    # capacity by the page's colour of its count, so that the tiles are kept when only the
+    # busiest count changes
     seg = segments[ok["segments"]]
     _, over, reference = segment_values(seg)
     if len(seg) < len(segments):  # the totals count every segment over capacity
         over = segment_values(segments)[1]
     seg_h = h["segments"][ok["segments"]]
     s, n = memo.group(
-        "segments", (reference, wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
+        "segments", ("by count", wkt["segments"]), group_var("segments"), _SEGMENT_ROLES,
         _parts(text_values(seg, "segment_id"), seg_h, _cells(seg, box)),
-        lambda p: vars(segment_layers(seg.iloc[p], reference)), lazy=lazy,
+        lambda p: vars(segment_layers(seg.iloc[p], reference, by_count=True)), lazy=lazy,
     )  # fmt: skip
     if n["ok"] + n["over"]:
         groups.append(("segments", LAYER_NAMES["segments"], True))
+        colours = script_json(count_colours(seg, reference))
+        scripts.append(f"rpCountColours = {colours};".encode())
         scripts += s
         drawn += n["ok"] + n["over"]
 

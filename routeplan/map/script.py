@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import json
 
-from routeplan.map.features import STYLE_KEY, Layer
+from routeplan.map.features import COUNT_KEY, STYLE_KEY, Layer
 
 #: Functions shared by every layer, placed in the page header after Leaflet.
 #: rpFeatures(d) rebuilds a layer's FeatureCollection from its columns
@@ -23,7 +23,21 @@ from routeplan.map.features import STYLE_KEY, Layer
 #: remaining tiles.
 #: rpHover thickens a shape under the pointer and gives it back its weight after; it is bound
 #: once per layer (events of its shapes reach it), not once per shape.
+#: rpCounted(t) gives a layer's style table with the colour of each style that holds a count
+#: instead (COUNT_KEY: a trench segment without a capacity) from rpCountColours, which the page
+#: sets before its layers (routeplan.map.features.count_colours): a tile's script then does
+#: not change when only the plant's busiest segment does.
 PAGE_SCRIPT = """<script>
+var rpCountColours = {};
+function rpCounted(t) {
+    return t.map(function(s) {
+        if (s.COUNT_KEY === undefined) { return s; }
+        var c = {}, k;
+        for (k in s) { if (k !== 'COUNT_KEY') { c[k] = s[k]; } }
+        c.color = rpCountColours[s.COUNT_KEY];
+        return c;
+    });
+}
 function rpTooltip(fields) {
     return function(layer) {
         var p = layer.feature.properties, h = '<table>';
@@ -101,7 +115,7 @@ var rpHover = {
         if (t && t.setStyle && t._rpWeight !== undefined) { t.setStyle({weight: t._rpWeight}); }
     }
 };
-</script>"""
+</script>""".replace("COUNT_KEY", COUNT_KEY)
 
 
 def script_json(obj) -> str:
@@ -135,7 +149,8 @@ def layer_script(
 ) -> str:
     """The script of one Leaflet GeoJSON layer ``name`` added to the group ``parent``.
 
-    Each feature's style is ``styles[properties.s]`` of the layer's table. Points become circle
+    Each feature's style is ``styles[properties.s]`` of the layer's table (a style holding a
+    count takes its colour from the page's ``rpCountColours``). Points become circle
     markers. An interactive layer shows a tooltip of the layer's fields and thickens a shape
     under the pointer; a non-interactive one (casings, halos) takes no pointer events and so
     gets no ``leaflet-interactive`` class. Every path gets the CSS classes ``class_name``.
@@ -145,10 +160,13 @@ def layer_script(
     """
     cls = script_json(class_name)
     inter = "true" if interactive else "false"
+    table = script_json(layer.styles)
+    if any(COUNT_KEY in st for st in layer.styles):  # colours the page gives (rpCounted)
+        table = f"rpCounted({table})"
     lines = [
         f"var {name} = L.geoJson(null, {{",
         "    style: (function() {",
-        f"        var t = {script_json(layer.styles)};",
+        f"        var t = {table};",
         f"        return function(f) {{ return t[f.properties.{STYLE_KEY}]; }};",
         "    })(),",
         "    pointToLayer: function(f, ll) {",

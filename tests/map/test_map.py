@@ -724,6 +724,73 @@ def test_a_pad_move_redraws_its_tiles_only_and_the_page_equals_a_cold_one():
     assert html == render(edited, site, aggregate_strings_above=1000)  # byte for byte
 
 
+def _count_colours(html: str) -> dict[str, str]:
+    """The page's colour of each circuit count (``rpCountColours``)."""
+    m = re.search(r"^rpCountColours = (\{.*?\});$", html, re.M)  # not the page script's {}
+    assert m is not None
+    return json.loads(m.group(1))
+
+
+def test_a_new_busiest_segment_redraws_only_its_own_tile():
+    """Segments without a capacity are coloured against the busiest segment: a trench edit
+    that makes a new busiest one changes every such colour, but not the tiles' scripts (the
+    page gives the colour of each count). The page equals a cold one byte for byte; the
+    busiest count takes ColorBrewer Blues 9's darkest class #08306b, a count of 1 out of 20
+    the colour at 1/20 (Harrower & Brewer 2003; FILL's stops are checked against it above)."""
+    from routeplan.map.tiles import MapMemo
+
+    frames, site = synthetic_frames(n_blocks=600)
+    seg = frames["segments"].copy()
+    seg["max_circuits"] = np.nan  # no capacity set: coloured by circuits ÷ the busiest
+    seg["fill"] = np.nan
+    seg["status"] = "ok"
+    frames = {**frames, "segments": seg}
+    first = MapMemo()
+    before = render(frames, site, aggregate_strings_above=1000, memo=first)
+    assert _count_colours(before)[repr(13.0)] == "#08306b"  # counts 1…13: 13 is the busiest
+    edited_seg = seg.copy()
+    edited_seg.loc[edited_seg.index[17], "circuits"] = 20
+    edited = {**frames, "segments": edited_seg}
+    memo = MapMemo.load(first.export())
+    html = render(edited, site, aggregate_strings_above=1000, memo=memo)
+    assert memo.drawn_tiles == 1 and memo.reused_tiles > 10
+    assert html == render(edited, site, aggregate_strings_above=1000)  # byte for byte
+    colours = _count_colours(html)
+    assert colours[repr(20.0)] == "#08306b" and colours[repr(13.0)] != "#08306b"
+    assert colours[repr(1.0)] == FILL.colour(1 / 20)
+    # the tiles' style tables hold counts, no colour (every segment lacks a capacity here)
+    tables = [json.loads(t) for t in re.findall(r"var t = rpCounted\((\[.*?\])\);", html)]
+    assert tables and all("color" not in st and "count" in st for t in tables for st in t)
+
+
+def test_a_new_busiest_segment_among_capped_ones_keeps_the_other_tiles():
+    """Where some segments have a capacity and some not, those without are drawn under those
+    with (each kind in its own order: circuits, fill), so the busiest count orders nothing:
+    the other tiles are kept and the page equals a cold one."""
+    from routeplan.map.tiles import MapMemo
+
+    frames, site = synthetic_frames(n_blocks=600)
+    first = MapMemo()
+    render(frames, site, aggregate_strings_above=1000, memo=first)
+    seg = frames["segments"].copy()
+    uncapped = np.flatnonzero(seg["max_circuits"].isna().to_numpy())
+    seg.loc[seg.index[uncapped[3]], "circuits"] = 40
+    edited = {**frames, "segments": seg}
+    memo = MapMemo.load(first.export())
+    html = render(edited, site, aggregate_strings_above=1000, memo=memo)
+    assert memo.drawn_tiles == 1
+    assert html == render(edited, site, aggregate_strings_above=1000)
+    assert _count_colours(html)[repr(40.0)] == "#08306b"
+    # within a tile: every segment without a capacity before every one with
+    mixed = 0
+    for fc in layer_data(html):
+        if fc["class"] == "rp-segment":
+            capped = [f["properties"]["capacity"] != "not set" for f in fc["features"]]
+            assert capped == sorted(capped)
+            mixed += len(set(capped)) == 2
+    assert mixed > 1
+
+
 # --------------------------------------------------------------------------------------------
 # review data (routeplan.map.details)
 

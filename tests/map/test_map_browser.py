@@ -17,7 +17,7 @@ import pytest
 from routeplan.map import page as rpmap
 from routeplan.map.features import expand
 from routeplan.map.page import render_folder, write_map
-from routeplan.map.scales import PROBLEM_COLOUR, UTILISATION
+from routeplan.map.scales import FILL, PROBLEM_COLOUR, UTILISATION
 from routeplan.map.text import escape_text
 
 from .map_fixtures import HOSTILE, expected_counts, make_frames, write_output_folder
@@ -248,6 +248,25 @@ def test_over_capacity_segment_is_flagged(demo: Page):
     text = demo.hover_tooltip(seg["x"] + 4, seg["y"])
     assert "T1#3" in text and "OVER CAPACITY" in text and "max 3 circuits" in text
     assert "Grouping factor" in text and "0.73" in text
+
+
+def test_segments_without_a_capacity_take_their_colour_from_the_page(demo: Page):
+    """A segment without a capacity is coloured in the browser (rpCounted) by its circuits
+    over the busiest segment's; its tile's script holds only the count. The darkest is
+    ColorBrewer Blues 9's last class, #08306b (Harrower & Brewer 2003); one with a capacity
+    keeps its own colour, by fill."""
+    frames, _ = make_frames()
+    seg = frames["segments"]
+    busiest = seg["circuits"].max()
+    columns = (seg["segment_id"], seg["circuits"], seg["max_circuits"])
+    for sid, circuits, cap in zip(*columns, strict=True):
+        drawn = demo.find("segment", sid)["stroke"].lower()
+        if cap > 0:
+            assert drawn == FILL.colour(circuits / cap).lower(), sid
+        else:
+            assert drawn == FILL.colour(circuits / busiest).lower(), sid
+            assert (drawn == "#08306b") == (circuits == busiest), sid
+    demo.assert_clean()
 
 
 def test_row_and_equipment_tooltips(demo: Page):
