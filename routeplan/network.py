@@ -567,6 +567,11 @@ def node_trenches(
 _PART_CACHE = frozenset({"n_parts", "parts", "tree", "first", "last", "inner", "_chainage"})
 
 
+#: most redrawn trench parts :meth:`NetworkMemo.redrawn` checks the equipment against (one
+#: distance per feature and part); beyond, every feature is searched again
+REDRAWN_MAX = 64
+
+
 @dataclass(frozen=True, eq=False)
 class NetworkMemo:
     """What one network build hands to the next (kept in the plan cache, :mod:`routeplan.cache`):
@@ -577,7 +582,9 @@ class NetworkMemo:
     (:func:`shapely.equals_exact`, tolerance 0: the nearest part depends on nothing else) — so
     a build with a memo gives the same network as one without. (Features are matched by
     position: an edit that keeps the layers' order, such as moving a pad, keeps every other
-    feature's match.)
+    feature's match.) After a trench edit that keeps the parts' number and order, the nearest
+    parts are carried where the redrawn parts cannot have changed them
+    (:meth:`redrawn`).
 
     Attributes
     ----------
@@ -592,6 +599,32 @@ class NetworkMemo:
     noded: NodedTrenches
     snap_m: float
     equipment: gpd.GeoDataFrame
+
+    def redrawn(self, noded: NodedTrenches) -> NetworkMemo | None:
+        """This memo for a build on ``noded``, trenches whose parts are this memo's, in the same
+        order and number per trench, some of them redrawn (a trench moved or reshaped): a
+        feature keeps its nearest part where that part is not one redrawn and every redrawn
+        part is farther (or as far and later: ties go to the lowest part). None where the
+        parts differ otherwise, or more than :data:`REDRAWN_MAX` of them are redrawn."""
+        old = self.noded
+        if not np.array_equal(old.owner, noded.owner) or old.tol_m != noded.tol_m:
+            return None
+        redrawn = np.flatnonzero(~shapely.equals_exact(old.parts, noded.parts, tolerance=0))
+        if len(redrawn) > REDRAWN_MAX:
+            return None
+        part = self.equipment["part"].to_numpy(np.int64)
+        dist = self.equipment["distance_m"].to_numpy(float)
+        geoms = np.asarray(self.equipment.geometry.array, dtype=object)
+        keep = (part >= 0) & ~np.isin(part, redrawn)
+        for c in redrawn.tolist():
+            d = shapely.distance(geoms, noded.parts[c])
+            keep &= (d > dist) | ((d == dist) & (c > part))
+        # a feature not kept is searched again: no geometry matches it (see nearest)
+        geoms = np.where(keep, geoms, None)
+        equipment = gpd.GeoDataFrame(
+            {"part": part, "distance_m": dist}, geometry=geoms, crs=self.equipment.crs
+        )
+        return NetworkMemo(noded=noded, snap_m=self.snap_m, equipment=equipment)
 
     def nearest(self, geoms: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """For each geometry: whether its nearest part is remembered, the part and the
@@ -661,7 +694,8 @@ def build_network(
     if memo is not None and memo.noded.fingerprint == fingerprint:
         noded = memo.noded
     else:
-        noded, memo = node_trenches(trenches, node_tol_m, defaults, fingerprint), None
+        noded = node_trenches(trenches, node_tol_m, defaults, fingerprint)
+        memo = memo.redrawn(noded) if memo is not None else None
     tol = noded.tol_m
     xy, owner, trench_ids = noded.xy, noded.owner, noded.trench_ids
     parts, n_parts = noded.parts, noded.n_parts

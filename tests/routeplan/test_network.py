@@ -485,6 +485,40 @@ def test_a_build_with_the_last_builds_memo_equals_a_cold_build(geoms, before, af
     assert_same_network(
         build(geoms, moved, last.memo, snap_m=snap), build(geoms, moved, snap_m=snap)
     )
+    # a trench redrawn (moved, its parts as they were): nearest parts carried where right
+    k = data.draw(st.integers(0, len(geoms) - 1))
+    dx, dy = data.draw(st.sampled_from([(0.0, 4.0), (3.0, 0.0), (0.05, 0.0), (0.0, -10.0)]))
+    redrawn = [*geoms[:k], shapely.affinity.translate(geoms[k], dx, dy), *geoms[k + 1 :]]
+    memo = build(geoms, moved).memo
+    assert_same_network(build(redrawn, moved, memo), build(redrawn, moved))
+
+
+def test_a_redrawn_trench_takes_over_the_features_now_nearer_it():
+    """Hand: C1 is 8 m from T1 and 12 m from T2; T2 redrawn 5 m nearer (7 m) takes it. P1,
+    2 m from T1, keeps its remembered part. A tie (8 m from both) goes to the lower part, T1,
+    also when T1 is the trench redrawn to tie."""
+    geoms = [line((0, 0), (100, 0)), line((0, 20), (100, 20))]
+    items = [("combiners", "C1", pt(10, 8)), ("inverters", "P1", pt(50, 2))]
+    last = build(geoms, items)
+    assert last.taps["trench_id"].tolist() == ["T1", "T1"]
+    redrawn = [geoms[0], line((0, 15), (100, 15))]
+    carried = last.memo.redrawn(build(redrawn, items).memo.noded)
+    known, _, _ = carried.nearest(np.asarray(equipment(*items).geometry.array))
+    assert known.tolist() == [False, True]  # C1 searched again, P1 carried
+    net = build(redrawn, items, last.memo)
+    assert net.taps["trench_id"].tolist() == ["T2", "T1"]
+    assert_same_network(net, build(redrawn, items))
+    # the tie: C2 8 m from T2 (part 1); T1 redrawn to 8 m from it (part 0) wins the tie
+    items = [("combiners", "C2", pt(10, 12))]
+    last = build(geoms, items)
+    assert last.taps["trench_id"].tolist() == ["T2"]
+    tied = [line((0, 4), (100, 4)), geoms[1]]
+    net = build(tied, items, last.memo)
+    assert net.taps["trench_id"].tolist() == ["T1"]
+    assert_same_network(net, build(tied, items))
+    # parts in another number: nothing carried
+    split = [geoms[0], shapely.MultiLineString([[(0, 20), (40, 20)], [(60, 20), (100, 20)]])]
+    assert last.memo.redrawn(build(split, items).memo.noded) is None
 
 
 def test_the_memo_takes_a_features_nearest_part_only_for_the_same_geometry():
