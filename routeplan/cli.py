@@ -391,7 +391,7 @@ def _watch(
                 if not quiet:
                     _print_plan(result, out_dir, result.cache)
                     out.print(
-                        f"{time.strftime('%H:%M:%S')} planned in {seconds:.1f} s", markup=False
+                        f"{time.strftime('%H:%M:%S')} planned in {seconds:.2f} s", markup=False
                     )
                 watcher.prepare(result.design)
             first = False
