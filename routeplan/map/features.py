@@ -933,10 +933,9 @@ def count_colours(df: pd.DataFrame, reference: int) -> dict[str, str]:
     to the page (``rpCountColours``), the colour it would give without."""
     df = drawable(df)
     circuits = _num(df, "circuits")[~has_capacity(df)]
-    distinct = pd.unique(circuits)
-    t = distinct / reference if reference else np.full(len(distinct), np.nan)
-    colours = FILL.colours(t)
-    keys = _count_keys(distinct)
+    keys, first = np.unique(_count_keys(circuits).astype(str), return_index=True)
+    count = circuits[first]  # one of each key (-0.0 and 0.0 are two keys, one colour)
+    colours = FILL.colours(count / reference if reference else np.full(len(count), np.nan))
     return dict(zip(keys.tolist(), colours.tolist(), strict=True))
 
 

@@ -9,6 +9,7 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 import folium
+import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pytest
@@ -761,6 +762,44 @@ def test_a_new_busiest_segment_redraws_only_its_own_tile():
     # the tiles' style tables hold counts, no colour (every segment lacks a capacity here)
     tables = [json.loads(t) for t in re.findall(r"var t = rpCounted\((\[.*?\])\);", html)]
     assert tables and all("color" not in st and "count" in st for t in tables for st in t)
+
+
+def test_segments_without_a_capacity_are_styled_by_their_count():
+    """With ``by_count`` a segment without a capacity carries its count, and the page's table
+    gives each count its colour against the busiest (3 here): ColorBrewer Blues 9's darkest
+    class #08306b at 3, its second class #deebf7 at 0 (also -0.0), grey for a missing count
+    (Harrower & Brewer 2003; the scale's ends, checked above); a segment with a capacity keeps
+    its colour by fill (1 of 2: half way)."""
+    geoms = [shapely.LineString([(0, i), (10, i)]) for i in range(5)]
+    df = gpd.GeoDataFrame(
+        {
+            "segment_id": ["S1", "S2", "S3", "S4", "S5"],
+            "circuits": [3.0, np.nan, 0.0, -0.0, 1.0],
+            "max_circuits": [np.nan, np.nan, np.nan, np.nan, 2.0],
+        },
+        geometry=geoms,
+        crs="EPSG:32633",
+    )
+    layers = segment_layers(df, by_count=True).ok
+    styles = {
+        f["properties"]["segment"]: layers.styles[f["properties"]["s"]]
+        for f in layers.features["features"]
+    }
+    assert [f["properties"]["segment"] for f in layers.features["features"]] == [
+        "S2",
+        "S3",
+        "S4",
+        "S1",
+        "S5",
+    ]  # fmt: skip  (no capacity first, by circuits; then by fill)
+    assert styles["S5"]["color"] == FILL.colour(0.5) and "count" not in styles["S5"]
+    colours = map_features.count_colours(df, 3)
+    for sid in ("S1", "S2", "S3", "S4"):
+        assert "color" not in styles[sid]
+    assert colours[styles["S1"]["count"]] == "#08306b"
+    assert colours[styles["S3"]["count"]] == colours[styles["S4"]["count"]] == "#deebf7"
+    assert colours[styles["S2"]["count"]] == NAN_COLOUR.lower()
+    assert set(colours) == {styles[s]["count"] for s in ("S1", "S2", "S3", "S4")}
 
 
 def test_a_new_busiest_segment_among_capped_ones_keeps_the_other_tiles():
