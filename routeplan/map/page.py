@@ -357,6 +357,7 @@ def render_map(
     aggregate_strings_above: int = 20000,
     memo: MapMemo | None = None,
     hashes: dict[str, np.ndarray] | None = None,
+    geometry_hashes: dict[str, np.ndarray] | None = None,
     drop_limits_pct: dict[str, float] | None = None,
 ) -> str:
     """Draw a plan as one self-contained HTML page: :func:`render_map_bytes` as text (see
@@ -371,6 +372,7 @@ def render_map(
         aggregate_strings_above=aggregate_strings_above,
         memo=memo,
         hashes=hashes,
+        geometry_hashes=geometry_hashes,
         drop_limits_pct=drop_limits_pct,
     ).decode("utf-8")
 
@@ -387,6 +389,7 @@ def render_map_bytes(
     aggregate_strings_above: int = 20000,
     memo: MapMemo | None = None,
     hashes: dict[str, np.ndarray] | None = None,
+    geometry_hashes: dict[str, np.ndarray] | None = None,
     drop_limits_pct: dict[str, float] | None = None,
 ) -> bytes:
     """Draw a plan as one self-contained HTML page, its UTF-8 bytes (the scripts of the tiles
@@ -411,6 +414,11 @@ def render_map_bytes(
     hashes : dict, optional
         Content hashes of the frames' rows (:func:`routeplan.outputs.reuse.row_hashes` of
         attributes and geometry, by layer name), when the caller has them already.
+    geometry_hashes : dict, optional
+        The hashes of the frames' geometries alone
+        (:func:`routeplan.outputs.reuse.geometry_hashes`, by layer name), when the caller has
+        them: the plant view's block areas are then kept by the geometries they are drawn
+        from (re-sizing a block's circuits leaves its area as it was), else by ``hashes``.
     drop_limits_pct : dict, optional
         Voltage-drop limits [%] by circuit kind and ``dc_total`` (``summary.json``'s
         ``drop_limits_pct``), for the view "voltage drop ÷ its limit".
@@ -436,6 +444,7 @@ def render_map_bytes(
             aggregate_strings_above=aggregate_strings_above,
             memo=memo if memo is not None else MapMemo(),
             hashes=hashes,
+            geometry_hashes=geometry_hashes,
             drop_limits_pct=drop_limits_pct,
         )
 
@@ -448,6 +457,7 @@ def _render(
     aggregate_strings_above: int,
     memo: MapMemo,
     hashes: dict[str, np.ndarray] | None,
+    geometry_hashes: dict[str, np.ndarray] | None,
     drop_limits_pct: dict[str, float] | None,
 ) -> bytes:
     """:func:`render_map_bytes` of checked ``frames``."""
@@ -459,6 +469,12 @@ def _render(
         if given is None or len(given) != len(gdf):
             given = row_hashes(gdf.drop(columns=gdf.geometry.name), gdf.geometry.to_numpy())
         h[name] = np.asarray(given, dtype=np.uint64)
+    # what the plant view's block areas are kept by: their geometries' hashes where given
+    area_h = {}
+    for name in ("circuits", "rows"):
+        given = (geometry_hashes or {}).get(name)
+        ok_length = given is not None and len(given) == len(frames[name])
+        area_h[name] = np.asarray(given, dtype=np.uint64) if ok_length else h[name]
     ok = {name: drawable_mask(gdf) for name, gdf in frames.items()}
     # what a tile's drawing depends on besides its rows: the CRS its coordinates are in
     wkt = {name: gdf.crs.to_wkt() if gdf.crs is not None else None for name, gdf in frames.items()}
@@ -597,7 +613,7 @@ def _render(
         groups=groups,
         bounds=bounds,
         areas=memo.geometries,
-        hashes=(h["circuits"], h["rows"]),
+        hashes=(area_h["circuits"], area_h["rows"]),
     )
     if plant.note():
         totals.extra.append(plant.note())

@@ -72,6 +72,12 @@ BLOCK_BUFFER_M = 4.0
 HULL_RATIO = 0.3
 #: Simplification of a block's outline [m].
 BLOCK_SIMPLIFY_M = 1.0
+#: The outline points are taken one per square metre of a grid whose origin is the smallest
+#: coordinates of the plant's points rounded down to a multiple of this [m] (2**20 m): a
+#: trench moved at the plant's edge leaves the grid (and so every other block's area) as it
+#: was, unless the plant straddles a line of that coarse grid. Points lie within 2**21 m of
+#: the origin, as the points' keys need, for any plant smaller than 1,000 km.
+ORIGIN_STEP_M = float(1 << 20)
 #: The layer groups shown only from the detail zoom in (page.py's group keys).
 DETAIL_GROUPS = ("rows", "segments", "string", "subarray", "array", "equipment")
 #: The layer group of the block areas.
@@ -204,15 +210,19 @@ def block_table(
     circuit_block, row_block_code = renumber[block_code], renumber[row_code]
     inverter = shapely.get_point(g[ac], 0)
     # one point per square metre per block is enough for its outline: a key of the block and
-    # the coordinates rounded from the smallest of all points (each within 2**21 m of it)
-    low = np.concatenate(
+    # the coordinates rounded on a grid from the smallest of all points rounded down to
+    # ORIGIN_STEP_M (each point within 2**21 m of it)
+    box = np.concatenate(
         [
-            shapely.bounds(g[~ac])[:, :2],
-            shapely.get_coordinates(inverter)[:, :2],
-            shapely.bounds(row_g)[:, :2],
+            shapely.bounds(g[~ac]),
+            np.tile(shapely.get_coordinates(inverter)[:, :2], 2),
+            shapely.bounds(row_g),
         ]
     )
-    origin = np.nanmin(low, axis=0)
+    low, high = np.nanmin(box[:, :2], axis=0), np.nanmax(box[:, 2:], axis=0)
+    origin = np.floor(low / ORIGIN_STEP_M) * ORIGIN_STEP_M
+    if (high - origin >= 1 << 21).any():  # a plant of 1,000 km or more: its own corner
+        origin = low
 
     def outline_points(which: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """The outline points of the blocks ``which`` (codes, ascending) and their blocks,

@@ -34,7 +34,7 @@ import pandas as pd
 import shapely
 
 from .columns import Col
-from .reuse import HashMemo, column_hashes, combine_hashes, layout
+from .reuse import HashMemo, column_hashes, combine_hashes, geometry_hashes, layout
 from .tables import ordered
 
 #: declared SQLite column types → how a value is bound
@@ -46,8 +46,8 @@ _TEXT = ("TEXT",)
 @dataclass(frozen=True, eq=False)
 class GpkgLayer:
     """One layer as written: attribute columns in output order, geometries, CRS, the content
-    hash of each row (attributes and geometry) with the layout they hold for, and a hash of
-    each row's key (the columns that name a feature)."""
+    hash of each row (attributes and geometry) with the layout they hold for, a hash of
+    each row's key (the columns that name a feature) and of each row's geometry alone."""
 
     data: pd.DataFrame
     geometry: np.ndarray
@@ -55,6 +55,7 @@ class GpkgLayer:
     hashes: np.ndarray
     layout: str
     keys: np.ndarray
+    geometry_h: np.ndarray
 
     @classmethod
     def of(
@@ -74,12 +75,14 @@ class GpkgLayer:
         crs = frame.crs.to_wkt() if frame.crs is not None else None
         if memo is None:
             columns = [column_hashes(data.iloc[:, j]) for j in range(data.shape[1])]
-            hashes = combine_hashes(columns, len(data), geometry)
+            geometry_h = geometry_hashes(geometry)
+            hashes = combine_hashes(columns, len(data), geometry_h=geometry_h)
         else:
             columns, hashes = memo[0].hashes(memo[1], data, geometry)
+            geometry_h = memo[0].geometry_hashes(memo[1])
         # the key's hashes are row_hashes(data[key]), from the columns hashed already
         keys = combine_hashes([columns[data.columns.get_loc(k)] for k in key], len(data))
-        return cls(data, geometry, frame.crs, hashes, layout(data, crs, key), keys)
+        return cls(data, geometry, frame.crs, hashes, layout(data, crs, key), keys, geometry_h)
 
 
 def write_gpkg(layers: dict[str, GpkgLayer], path: Path) -> dict:

@@ -97,12 +97,19 @@ def row_hashes(frame: pd.DataFrame, geometry: np.ndarray | None = None) -> np.nd
 
 
 def combine_hashes(
-    columns: list[np.ndarray], n: int, geometry: np.ndarray | None = None
+    columns: list[np.ndarray],
+    n: int,
+    geometry: np.ndarray | None = None,
+    *,
+    geometry_h: np.ndarray | None = None,
 ) -> np.ndarray:
     """The row hashes of :func:`row_hashes` from its columns' hashes (:func:`column_hashes`,
     in column order) for ``n`` rows: a table's hashes and those of some of its columns (a
-    layer's key) share the work of hashing each column."""
-    return _combine(columns, n, None if geometry is None else geometry_hashes(geometry))
+    layer's key) share the work of hashing each column. ``geometry_h``: the geometries'
+    hashes (:func:`geometry_hashes`) in place of ``geometry``, where the caller has them."""
+    if geometry_h is None and geometry is not None:
+        geometry_h = geometry_hashes(geometry)
+    return _combine(columns, n, geometry_h)
 
 
 def _combine(columns: list[np.ndarray], n: int, geometry_h: np.ndarray | None) -> np.ndarray:
@@ -301,6 +308,12 @@ class HashMemo:
             rows[at] = _combine([h[at] for h in hashes], len(at), part)
         self._tables[name] = _Table(names, columns, geometry, geometry_h, rows)
         return hashes, rows
+
+    def geometry_hashes(self, name: str) -> np.ndarray | None:
+        """The geometries' hashes (:func:`geometry_hashes`) of the table ``name`` as last
+        hashed (None: hashed without geometry, or never)."""
+        table = self._tables.get(name)
+        return None if table is None else table.geometry_h
 
 
 def _kept(

@@ -501,6 +501,7 @@ def _write_map(
         site_name=plan.site.name,
         memo=memo,
         hashes={name: layer.hashes for name, layer in layers.items()},
+        geometry_hashes={name: layer.geometry_h for name, layer in layers.items()},
         drop_limits_pct=dict(plan.design.drop_pct),
         **(map_options or {}),
     )

@@ -830,6 +830,35 @@ def test_a_new_busiest_segment_among_capped_ones_keeps_the_other_tiles():
     assert mixed > 1
 
 
+def test_block_areas_are_kept_by_their_geometries_when_given():
+    """A block whose circuits are re-sized (other values, the same routes) keeps its area when
+    the geometries' hashes are given (routeplan.outputs.reuse.geometry_hashes, as the writer
+    passes them); by the rows' content hashes it is drawn again. The page equals a cold one
+    byte for byte either way."""
+    from routeplan.map.tiles import MapMemo
+    from routeplan.outputs.reuse import geometry_hashes
+
+    frames, site = synthetic_frames(n_blocks=600)
+    c = frames["circuits"].copy()
+    strings = np.flatnonzero(c["kind"].to_numpy() == "string")
+    c.loc[c.index[strings[:40]], "utilisation"] = 0.99  # re-sized, routes unchanged
+    edited = {**frames, "circuits": c}
+    for by_geometry in (True, False):
+
+        def kw(f, by_geometry=by_geometry):
+            if not by_geometry:
+                return {}
+            return {"geometry_hashes": {k: geometry_hashes(f[k].geometry.to_numpy()) for k in f}}
+
+        first = MapMemo()
+        render(frames, site, aggregate_strings_above=1000, memo=first, **kw(frames))
+        memo = MapMemo.load(first.export())
+        html = render(edited, site, aggregate_strings_above=1000, memo=memo, **kw(edited))
+        kept = set(memo.shapes) == set(first.shapes)
+        assert kept == by_geometry
+        assert html == render(edited, site, aggregate_strings_above=1000, **kw(edited))
+
+
 # --------------------------------------------------------------------------------------------
 # review data (routeplan.map.details)
 

@@ -210,12 +210,16 @@ def test_a_memo_of_the_last_areas_draws_only_the_changed_block(synthetic, crs):
 
 
 @pytest.mark.parametrize("with_row_hashes", [False, True])
-def test_a_shift_of_the_sites_lowest_point_draws_every_area_again(synthetic, with_row_hashes):
-    """Each block's outline points are rounded from the smallest coordinates of the whole
-    site: a circuit moved below them (by a fraction of a metre's grid) changes every block's
-    points, so no area is kept from the memo, and each is the one a fresh drawing gives, bit
-    for bit (shapely WKB). With the writer's row hashes (routeplan.outputs.reuse.row_hashes)
-    or the geometries' own."""
+def test_a_shift_of_the_sites_lowest_point_keeps_the_other_areas(synthetic, with_row_hashes):
+    """Each block's outline points are rounded on a grid whose origin is the site's smallest
+    coordinates rounded down to ``ORIGIN_STEP_M`` (2**20 m): a circuit moved below them (by a
+    fraction of a metre) redraws its own block's area only (a trench moved at the edge of a
+    site changed every block's points before). A circuit moved 2,000 km east makes the site
+    wider than the grid allows (its points must lie within 2**21 m of the origin): the origin
+    is then its lowest point, every area is drawn again and the moved circuit's block still
+    covers it (shapely; clipped points would leave it out). Either way each area is the one a
+    fresh drawing gives, bit for bit (shapely WKB). With the writer's row hashes
+    (routeplan.outputs.reuse.row_hashes) or the geometries' own."""
     from routeplan.map.tiles import MapMemo
     from routeplan.outputs.reuse import row_hashes
 
@@ -231,17 +235,24 @@ def test_a_shift_of_the_sites_lowest_point_draws_every_area_again(synthetic, wit
 
     first = MapMemo()
     block_table(c, rows, areas=first.geometries, hashes=hashes(c))
-    moved = c.copy()
     i = int(np.flatnonzero(circuit_kind(c) == "string")[3])
-    g = moved.geometry.to_numpy().copy()
+    g = c.geometry.to_numpy()
     x0, y0 = shapely.total_bounds(g)[:2]
     low = shapely.bounds(g[i])
-    g[i] = shapely.affinity.translate(g[i], x0 - low[0] - 3.7, y0 - low[1] - 2.4)
-    moved = moved.set_geometry(g, crs=c.crs)
-    memo = MapMemo.load(first.export())
-    kept = block_table(moved, rows, areas=memo.geometries, hashes=hashes(moved))
-    fresh = block_table(moved, rows)
-    assert not set(memo.shapes) & set(first.shapes)  # every area drawn again
-    assert shapely.to_wkb(kept.geometry.to_numpy()).tolist() == (
-        shapely.to_wkb(fresh.geometry.to_numpy()).tolist()
-    )
+    for dx, dy, kept_areas in ((x0 - low[0] - 3.7, y0 - low[1] - 2.4, True), (2.0e6, 0.0, False)):
+        moved_g = g.copy()
+        moved_g[i] = shapely.affinity.translate(g[i], dx, dy)
+        moved = c.set_geometry(moved_g, crs=c.crs)
+        memo = MapMemo.load(first.export())
+        kept = block_table(moved, rows, areas=memo.geometries, hashes=hashes(moved))
+        fresh = block_table(moved, rows)
+        same = set(memo.shapes) & set(first.shapes)
+        if kept_areas:  # every block's but the moved circuit's
+            assert len(same) == len(first.shapes) - 1
+        else:
+            assert not same
+        assert shapely.to_wkb(kept.geometry.to_numpy()).tolist() == (
+            shapely.to_wkb(fresh.geometry.to_numpy()).tolist()
+        )
+        area = kept.geometry.to_numpy()[kept["block"].to_numpy() == block_of(moved)[i]][0]
+        assert shapely.covers(area, moved_g[i])

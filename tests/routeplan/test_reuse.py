@@ -21,6 +21,7 @@ from routeplan.outputs.reuse import (
     chunk_bounds,
     chunk_keys,
     column_hashes,
+    geometry_hashes,
     layout,
     row_hashes,
 )
@@ -133,6 +134,22 @@ def _as_layers(lines, eq):
         "lines": GpkgLayer.of(lines, None, ("id",)),
         "equipment": GpkgLayer.of(eq, None, ("id",)),
     }
+
+
+def test_a_layer_hashed_with_a_memo_is_the_layer_hashed_whole(layers):
+    """GpkgLayer.of with a HashMemo (a watching process) gives the row, key and geometry
+    hashes of hashing the layer whole, after a geometry moved and a row removed."""
+    lines, eq = layers
+    memo = HashMemo()
+    GpkgLayer.of(lines, None, ("id",), (memo, "lines"))
+    g = lines.geometry.to_numpy().copy()
+    g[7] = shapely.affinity.translate(g[7], 0.5, 0.0)
+    edited = lines.set_geometry(g, crs=lines.crs).drop(index=3).reset_index(drop=True)
+    kept = GpkgLayer.of(edited, None, ("id",), (memo, "lines"))
+    whole = _as_layers(edited, eq)["lines"]
+    for name in ("hashes", "keys", "geometry_h"):
+        assert getattr(kept, name).tolist() == getattr(whole, name).tolist(), name
+    assert whole.geometry_h.tolist() == geometry_hashes(edited.geometry.to_numpy()).tolist()
 
 
 def test_geometry_blobs_are_the_ones_gdal_writes(tmp_path, layers):
@@ -340,6 +357,8 @@ def _check_memo(frame: pd.DataFrame, geometry: np.ndarray, rng: np.random.Genera
         for what, f, g in order:
             columns, rows = memo.hashes("t", f, g)
             assert rows.tolist() == row_hashes(f, g).tolist(), what
+            # the geometries' own hashes (the map keeps block areas by them)
+            assert memo.geometry_hashes("t").tolist() == geometry_hashes(g).tolist(), what
             assert [c.tolist() for c in columns] == [
                 column_hashes(f.iloc[:, j]).tolist() for j in range(f.shape[1])
             ], what
