@@ -15,9 +15,10 @@ depends only on a few values (title, basemap, canvas, view, groups): the memo ke
 a re-plan that does not change those does not even import folium. Its folium elements are
 named from those values (not at random), so a page made with the memo is byte for byte the
 page a run without it makes. The plant view's block areas are kept as WKB under a digest of
-each block's circuits' and rows' content hashes (:meth:`MapMemo.geometries`,
-:func:`routeplan.map.plantview.block_table`): an edit redraws its blocks' areas only, and
-finds the outline points of those blocks only. Scripts are kept as UTF-8 bytes, so a kept
+each block's circuits' and rows' geometry hashes, or content hashes where the caller has no
+geometry hashes (:meth:`MapMemo.geometries`, :func:`routeplan.map.plantview.block_table`):
+an edit redraws the areas of the blocks whose routes or rows moved only, and finds the
+outline points of those blocks only. Scripts are kept as UTF-8 bytes, so a kept
 tile is copied into the page without being decoded or encoded. The review data's tables are
 kept by their rows' content hashes too (:class:`routeplan.map.details.ReviewMemo`).
 
