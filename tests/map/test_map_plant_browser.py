@@ -22,6 +22,7 @@ from typer.testing import CliRunner
 from routeplan.cli import app
 from routeplan.map import plantview
 from routeplan.map.page import render_map
+from routeplan.map.scales import FILL
 
 from .map_fixtures import HOSTILE, make_frames
 from .test_map_browser import (  # noqa: F401  (fixtures)
@@ -172,6 +173,42 @@ def test_a_block_label_zooms_in_by_keyboard_to_the_details(plant_page, screensho
     texts = set(labels.all_inner_texts())
     assert any(t.startswith("INV") for t in texts)
     pg.screenshot(path=screenshots / "plant_1gw_detail.png", animations="disabled")
+    plant_page.assert_clean()
+
+
+#: The colour each drawn trench segment without a capacity was given, by segment id.
+SEGMENT_COLOURS = """() => {
+    const map = window[document.querySelector('.folium-map').id], out = {};
+    map.eachLayer(l => {
+        const p = l.feature && l.feature.properties;
+        if (p && p.segment !== undefined && p.capacity === 'not set') {
+            out[p.segment] = l.options.color;
+        }
+    });
+    return out;
+}"""
+
+
+def test_segment_tiles_made_near_the_view_take_the_pages_colours(plant_page, plant):
+    """At 1 GW the segments' tiles are made when the view comes near them (lazily, after the
+    page has set its colour of each count): each segment without a capacity drawn is coloured
+    by its circuits over the busiest segment's, as trench_schedule.csv gives them."""
+    pg = plant_page.page
+    label = pg.locator(".rp-block-label").first
+    label.focus()
+    pg.keyboard.press("Enter")
+    pg.wait_for_function(
+        "window[document.querySelector('.folium-map').id].getZoom()"
+        " >= window.rpPlantView.detailZoom"
+    )
+    pg.evaluate(RAF)
+    drawn = pg.evaluate(SEGMENT_COLOURS)
+    schedule = pd.read_csv(plant / "trench_schedule.csv", dtype={"segment_id": str})
+    busiest = schedule["circuits"].max()
+    circuits = schedule.set_index("segment_id")["circuits"]
+    assert len(drawn) > 100
+    for sid, colour in drawn.items():
+        assert colour == FILL.colour(circuits[sid] / busiest), sid
     plant_page.assert_clean()
 
 
