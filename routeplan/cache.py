@@ -633,6 +633,7 @@ class PlanCache:
         self._new: dict[str, Any] = {}
         self._jobs: dict[str, parallel.Job] = {}
         self._staging: Path | None = None
+        self._finalizer: weakref.finalize | None = None  # stops the jobs, removes the staging
         self._carried: set[str] = set()
         self._values: dict[str, Any] = {}  # values read this run, by stage (for Resident)
         self._aux_values: dict[str, Any] = {}  # writers' records read or saved this run
@@ -761,8 +762,17 @@ class PlanCache:
                 self._staging = Path(tempfile.mkdtemp(prefix=".entries-", dir=self.folder.work))
             else:
                 self._staging = Path(tempfile.mkdtemp(prefix="routeplan-entries-"))
-            weakref.finalize(self, _discard, self._staging, self._jobs)
+            self._finalizer = weakref.finalize(self, _discard, self._staging, self._jobs)
         return self._staging
+
+    def discard(self) -> None:
+        """Stop every child still packing an entry or writing a record for this run and remove
+        the staging folder: a run that fails calls this before its output folder is closed, so
+        that no child writes into the work folder while it is removed (a write after the
+        removal left the folder, and a folder the run created, behind)."""
+        if self._finalizer is not None:
+            self._finalizer()
+        self.cancel_deferred()
 
     # -- outputs
     def _outputs(self) -> dict:

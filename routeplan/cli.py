@@ -314,8 +314,13 @@ def plan(
         if status:
             status.start()
         cache = PlanCache(folder) if use_cache else None
-        result = run_plan(site, progress=say, cache=cache)
-        write_plan(result, folder, progress=say, map_options=map_options)
+        try:
+            result = run_plan(site, progress=say, cache=cache)
+            write_plan(result, folder, progress=say, map_options=map_options)
+        except BaseException:
+            if cache is not None:  # its children stopped before the folder is cleaned up
+                cache.discard()
+            raise
     if not quiet:
         _print_plan(result, out_dir, cache)
     raise typer.Exit(0 if result.ok else 1)

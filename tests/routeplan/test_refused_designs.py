@@ -120,3 +120,31 @@ def test_diff_refuses_a_trench_schedule_without_sub_array_counts(tmp_path):
     assert result.stderr.splitlines() == [
         f"error: {path}: no column strings (a schedule of 'routeplan plan' has it)"
     ]
+
+
+def test_a_refused_run_stops_its_packing_children_before_it_cleans_up(tmp_path, monkeypatch):
+    """The cache packs its entries in child processes while the plan goes on. A refused run
+    (a trench too shallow) closes the output folder it created and removes it; a child still
+    writing then (here slowed down: it sleeps 1.5 s, then makes its folder again and writes
+    its entry) left that folder behind — seen once under load in CI. The run stops its
+    children first: 2 s after it ended the folder is still gone."""
+    import time
+
+    import routeplan.cache as cache_module
+
+    dump = cache_module._dump_entry
+
+    def slow(value, path):
+        time.sleep(1.5)
+        path.parent.mkdir(parents=True, exist_ok=True)
+        dump(value, path)
+
+    monkeypatch.setattr(cache_module, "_dump_entry", slow)
+    frames = base_frames()
+    frames["trenches"]["depth_m"] = [0.01, None]
+    root = write_site(tmp_path / "s", frames)
+    out = tmp_path / "out"
+    result = runner.invoke(app, ["plan", str(root), "--out", str(out)])
+    assert result.exit_code == 2, result.output
+    time.sleep(2.0)
+    assert not out.exists()
