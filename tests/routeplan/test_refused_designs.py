@@ -125,9 +125,10 @@ def test_diff_refuses_a_trench_schedule_without_sub_array_counts(tmp_path):
 def test_a_refused_run_stops_its_packing_children_before_it_cleans_up(tmp_path, monkeypatch):
     """The cache packs its entries in child processes while the plan goes on. A refused run
     (a trench too shallow) closes the output folder it created and removes it; a child still
-    writing then (here slowed down: it sleeps 1.5 s, then makes its folder again and writes
-    its entry) left that folder behind — seen once under load in CI. The run stops its
-    children first: 2 s after it ended the folder is still gone."""
+    writing its file meanwhile kept the folder from being removed — seen once under load in
+    CI. Here the child is slowed down so that it writes after the run has ended (it sleeps
+    1.5 s, then makes its folder again and writes its entry): the run stops its children
+    first, so 2 s after it ended the folder is still gone."""
     import time
 
     import routeplan.cache as cache_module
