@@ -149,8 +149,8 @@ def test_the_site_is_not_covered_at_the_opening_view(plant_page):
             assert not _overlap(boxes["site"], rect), name
 
 
-def test_a_block_label_zooms_in_by_keyboard_to_the_details(plant_page, screenshots):  # noqa: F811
-    pg = plant_page.page
+def _zoom_in_from_a_block_label(pg) -> None:
+    """Focus the first block's label, press Enter, wait for the detail zoom and two frames."""
     label = pg.locator(".rp-block-label").first
     label.focus()
     pg.keyboard.press("Enter")
@@ -159,6 +159,11 @@ def test_a_block_label_zooms_in_by_keyboard_to_the_details(plant_page, screensho
         " >= window.rpPlantView.detailZoom"
     )
     pg.evaluate(RAF)
+
+
+def test_a_block_label_zooms_in_by_keyboard_to_the_details(plant_page, screenshots):  # noqa: F811
+    pg = plant_page.page
+    _zoom_in_from_a_block_label(pg)
     for key in ("equipment", "string", "array", "segments"):
         assert pg.evaluate(f"() => window['feature_group_{key}']._map != null"), key
     assert not pg.evaluate("() => feature_group_blocks._map != null")
@@ -194,14 +199,7 @@ def test_segment_tiles_made_near_the_view_take_the_pages_colours(plant_page, pla
     page has set its colour of each count): each segment without a capacity drawn is coloured
     by its circuits over the busiest segment's, as trench_schedule.csv gives them."""
     pg = plant_page.page
-    label = pg.locator(".rp-block-label").first
-    label.focus()
-    pg.keyboard.press("Enter")
-    pg.wait_for_function(
-        "window[document.querySelector('.folium-map').id].getZoom()"
-        " >= window.rpPlantView.detailZoom"
-    )
-    pg.evaluate(RAF)
+    _zoom_in_from_a_block_label(pg)
     drawn = pg.evaluate(SEGMENT_COLOURS)
     schedule = pd.read_csv(plant / "trench_schedule.csv", dtype={"segment_id": str})
     busiest = schedule["circuits"].max()
