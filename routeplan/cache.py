@@ -768,8 +768,8 @@ class PlanCache:
     def discard(self) -> None:
         """Stop every child still packing an entry or writing a record for this run and remove
         the staging folder: a run that fails calls this before its output folder is closed, so
-        that no child writes into the work folder while it is removed (a write after the
-        removal left the folder, and a folder the run created, behind)."""
+        that no child writes into the work folder while it is removed (a child writing then
+        kept the work folder, and so a folder the run created, from being removed)."""
         if self._finalizer is not None:
             self._finalizer()
         self.cancel_deferred()
