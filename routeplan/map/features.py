@@ -816,7 +816,7 @@ def segment_values(
     circuits = _num(df, "circuits")
     count, cap = _capacity(df)
     fill = _num(df, "fill")
-    has_cap = ~np.isnan(cap) & (cap > 0)
+    has_cap = cap > 0  # NaN: none (as has_capacity)
     with np.errstate(divide="ignore", invalid="ignore"):
         fill = np.where(np.isnan(fill) & has_cap, count / cap, fill)
     if reference is None:
@@ -876,7 +876,7 @@ def segment_props(df: pd.DataFrame, t: np.ndarray, over: np.ndarray) -> Props:
         _num(df, "arrays"), _num(df, "ac"),
     )  # fmt: skip
     _, cap = _capacity(df)
-    has_cap = ~np.isnan(cap) & (cap > 0)
+    has_cap = cap > 0  # NaN: none (as has_capacity)
     unit = np.where(np.isnan(_num(df, "max_circuits")), 1.0, 0.0)  # 1: cable sets
     capacity = per_distinct(
         lambda c, h, u: f"max {c:g} {'cable sets' if u else 'circuits'}" if h else "not set",
