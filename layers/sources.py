@@ -9,6 +9,7 @@ from __future__ import annotations
 import datetime
 import difflib
 import hashlib
+import json
 import os
 import re
 import sqlite3
@@ -197,7 +198,10 @@ def read_layer(
                 "ignore", message="Several features with id = ", category=RuntimeWarning
             )
             frame = gpd.read_file(path, engine="pyogrio", **kwargs)
-        stored = _stored_numbers(path, layer, name) if _is_sqlite(path) else []
+        if _is_sqlite(path):
+            stored = _stored_numbers(path, layer, name)
+        else:
+            stored = _json_booleans(path, name) if layer is None else []
     except Exception as exc:  # pyogrio/GDAL raise many types for unreadable files
         return None, [Problem(name, None, f"cannot read {spec}: {_short(exc)}")]
     if digest is not None and not stored:
@@ -211,9 +215,7 @@ def _stored_numbers(path: Path, layer: str | None, name: str) -> list[Problem]:
     stored in an INTEGER column as its integer part (2.5 → 2, 1e30 → the largest int64), text
     or a blob in a number column as 0. One problem per value, naming the feature by its id.
     Only the attributes :mod:`layers.validate` reads as numbers are looked at."""
-    from .validate import FIELDS  # validate imports this module
-
-    fields = {f.name: f.kind for f in FIELDS.get(name, ()) if f.kind in ("int", "float")}
+    fields = _number_fields(name)
     if not fields:
         return []
     table = layer or str(pyogrio.list_layers(path)[0][0])
@@ -265,6 +267,60 @@ def _stored_numbers(path: Path, layer: str | None, name: str) -> list[Problem]:
         return []
     finally:
         con.close()
+
+
+def _number_fields(name: str) -> dict[str, str]:
+    """The attributes of layer ``name`` that :mod:`layers.validate` reads as numbers, by name:
+    ``"int"`` or ``"float"``."""
+    from .validate import FIELDS  # validate imports this module
+
+    return {f.name: f.kind for f in FIELDS.get(name, ()) if f.kind in ("int", "float")}
+
+
+def _json_booleans(path: Path, name: str) -> list[Problem]:
+    """The JSON booleans of a GeoJSON file's number attributes (RFC 7946 features): where a
+    property holds numbers in some features and ``true``/``false`` in others, GDAL's GeoJSON
+    driver makes it an integer or real field and reads ``true`` as 1, ``false`` as 0, without a
+    word (a property of booleans alone is read as booleans, refused by validation). One problem
+    per value, naming the feature by its ``id`` property (``#n``, its position, without one).
+    Files that are not one JSON document with a ``features`` array (GeoJSON sequences, other
+    formats) are left to GDAL; a file without the words ``true`` and ``false`` is not parsed."""
+    from .validate import _id_text  # validate imports this module
+
+    fields = _number_fields(name)
+    if not fields or not path.is_file():
+        return []
+    with open(path, "rb") as fh:
+        data = fh.read()
+    if b"true" not in data and b"false" not in data:
+        return []
+    try:
+        doc = json.loads(data)
+    except (ValueError, RecursionError):  # not one JSON document: GDAL read it as it could
+        return []
+    features = doc.get("features") if isinstance(doc, dict) else None
+    if not isinstance(features, list):
+        return []
+    problems = []
+    for i, feature in enumerate(features):
+        props = feature.get("properties") if isinstance(feature, dict) else None
+        if not isinstance(props, dict):
+            continue
+        for column, kind in fields.items():
+            value = props.get(column)
+            if isinstance(value, bool):
+                fid = props.get("id")
+                fid = "" if isinstance(fid, dict | list) else _id_text(fid)
+                what = "a whole number" if kind == "int" else "a number"
+                problems.append(
+                    Problem(
+                        name,
+                        fid or f"#{i + 1}",
+                        f"{column} is {json.dumps(value)} in the file (a JSON boolean, which "
+                        f"GDAL would read as {int(value)}), expected {what}",
+                    )
+                )
+    return problems
 
 
 class LayerMemo:

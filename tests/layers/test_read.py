@@ -190,3 +190,67 @@ def test_repeated_geojson_feature_ids_are_read_without_a_warning(tmp_path):
             feature["id"] = 1
 
     assert _rows_read_quietly(tmp_path, repeated) == (["R1", "R2"], [])
+
+
+@pytest.mark.parametrize(
+    ("table", "column", "value", "want"),
+    [
+        (
+            "rows",
+            "strings",
+            True,
+            "strings is true in the file (a JSON boolean, which GDAL "
+            "would read as 1), expected a whole number",
+        ),
+        # false would be read as 0 strings: reported once, as what the file holds
+        (
+            "rows",
+            "strings",
+            False,
+            "strings is false in the file (a JSON boolean, which GDAL "
+            "would read as 0), expected a whole number",
+        ),
+        (
+            "inverters",
+            "ac_kva",
+            True,
+            "ac_kva is true in the file (a JSON boolean, which GDAL "
+            "would read as 1), expected a number",
+        ),
+    ],
+)
+def test_a_geojson_boolean_among_numbers_is_refused(tmp_path, table, column, value, want):
+    # RFC 8259: true and false are literals of their own, not numbers; GDAL's GeoJSON driver
+    # makes a property of numbers and booleans a number field and reads true as 1, false as 0
+    root = write_site(tmp_path / "s", base_frames())
+    path = root / f"{table}.geojson"
+    data = json.loads(path.read_text(encoding="utf-8"))
+    data["features"][0]["properties"][column] = value
+    path.write_text(json.dumps(data), encoding="utf-8")
+    import pyogrio
+
+    read = pyogrio.read_dataframe(path)[column].tolist()
+    assert read[0] == int(value)  # what GDAL makes of it, silently
+    first = str(data["features"][0]["properties"]["id"])
+    with pytest.raises(layers.SiteError) as info:
+        layers.read_site(root)
+    found = [str(p) for p in info.value.problems]
+    assert found == [f"{table} '{first}': {want}"]
+
+
+def test_a_geojson_boolean_elsewhere_or_a_feature_without_id_is_named_by_position(tmp_path):
+    root = write_site(tmp_path / "s", base_frames())
+    path = root / "rows.geojson"
+    data = json.loads(path.read_text(encoding="utf-8"))
+    data["features"][0]["properties"]["checked"] = True  # not an attribute read as a number
+    path.write_text(json.dumps(data), encoding="utf-8")
+    expected = [f["properties"]["strings"] for f in data["features"]]
+    assert layers.read_site(root).rows["strings"].tolist() == expected
+    data["features"][1]["properties"].pop("id")
+    data["features"][1]["properties"]["strings"] = True
+    path.write_text(json.dumps(data), encoding="utf-8")
+    with pytest.raises(layers.SiteError) as info:
+        layers.read_site(root)
+    assert any(
+        str(p).startswith("rows '#2': strings is true in the file") for p in info.value.problems
+    )
