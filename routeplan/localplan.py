@@ -302,6 +302,22 @@ def _equal_geometries(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return shapely.equals_exact(a, b, 0.0) | (shapely.is_missing(a) & shapely.is_missing(b))
 
 
+def _redrawn(old: Site, new: Site) -> np.ndarray | None:
+    """Per trench of ``new``, whether ``old`` has no trench of its id with its geometry,
+    exactly (added, redrawn or renamed); None where ``old``'s ids repeat. The others are the
+    last plan's, whose trenches had no problem (:func:`routeplan.network.trench_problems`)
+    under the same settings."""
+    ids0 = pd.Index(old.trenches["id"].astype(str).to_numpy(dtype=object))
+    if not ids0.is_unique:
+        return None
+    at = ids0.get_indexer(new.trenches["id"].astype(str).to_numpy(dtype=object))
+    g0 = np.asarray(old.trenches.geometry.array, dtype=object)
+    g = np.asarray(new.trenches.geometry.array, dtype=object)
+    same = at >= 0
+    same[same] = _equal_geometries(g[same], g0[at[same]])
+    return ~same
+
+
 def _same_modules(a: dict, b: dict) -> bool:
     """The same module table: compared by each module's ``repr`` (exact for floats, and a
     ``nan`` field — no bifacial data — equals a ``nan`` read again, which ``==`` denies)."""
@@ -593,7 +609,9 @@ def _local(
     r0 = old.routes
     params = r0.params
     net0 = r0.network
-    if trenches and trench_problems(site.trenches, params.node_tol_m, params.snap_m):
+    if trenches and trench_problems(
+        site.trenches, params.node_tol_m, params.snap_m, only=_redrawn(old.site, site)
+    ):
         return None  # trench geometry the network refuses: the full plan reports it
     net = network if network is not None else site_network(site, params, net0.memo)
     taps0, taps = net0.taps, net.taps
@@ -913,7 +931,10 @@ def _resized(
         if net.memo is None and memo is not None:  # the route entry keeps no memo
             net = dataclasses.replace(net, memo=memo)
     try:
-        routes = route_site(site, r0.params, memo=memo, network=net)
+        # the same trenches as the last plan's, which had no trench problem: not checked again
+        routes = route_site(
+            site, r0.params, memo=memo, network=net, trenches_checked=net is not None
+        )
     except RoutingError:
         return None
     t["route"] = time.perf_counter() - t0

@@ -1265,7 +1265,10 @@ def overlap_min_m(node_tol_m: float) -> float:
 
 
 def trench_problems(
-    trenches: gpd.GeoDataFrame, node_tol_m: float = 0.1, snap_m: float = 30.0
+    trenches: gpd.GeoDataFrame,
+    node_tol_m: float = 0.1,
+    snap_m: float = 30.0,
+    only: np.ndarray | None = None,
 ) -> list[Problem]:
     """Trench geometry that would corrupt the network: corridors drawn twice, far parts.
 
@@ -1297,6 +1300,12 @@ def trench_problems(
         The network's joining tolerance [m] (below :data:`MIN_TOL_M` it is raised to it).
     snap_m : float
         Longest stub from equipment to a trench [m]: the far-part limit.
+    only : numpy.ndarray of bool, optional
+        Per trench, whether to look for its problems: the others are known to have none
+        among themselves (a local re-plan after a trench edit: the trenches the last plan
+        had, unchanged). Only the trenches marked and those whose envelopes come within
+        twice the tolerance of theirs (the farthest two edges can be and still be paired)
+        are looked at, whole; without it, every trench.
 
     Returns
     -------
@@ -1330,6 +1339,9 @@ def trench_problems(
         return []
     ids = np.array([str(v) for v in trenches["id"].to_numpy(dtype=object).tolist()], dtype=object)
     geoms = np.asarray(trenches.geometry.array, dtype=object)
+    if only is not None:
+        near = _near(geoms, np.asarray(only, dtype=bool), 2 * tol + MIN_TOL_M)
+        ids, geoms = ids[near], geoms[near]
     parts, owner = shapely.get_parts(geoms, return_index=True)
     number = np.arange(len(owner)) - np.searchsorted(owner, owner) + 1  # part number in trench
     keep = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
@@ -1337,6 +1349,23 @@ def trench_problems(
     problems = _overlap_problems(parts, owner, number, ids, tol, minimum)
     problems += _far_part_problems(parts, owner, number, ids, float(snap_m))
     return problems
+
+
+def _near(geoms: np.ndarray, marked: np.ndarray, margin_m: float) -> np.ndarray:
+    """The geometries marked and those whose envelopes come within ``margin_m`` of a marked
+    one's (missing or empty geometries: not near)."""
+    if not marked.any():
+        return marked.copy()
+    box = shapely.bounds(geoms)  # NaN for a missing or empty geometry
+    has = np.isfinite(box).all(axis=1)
+    mark = marked & has
+    lo, hi = box[mark, :2] - margin_m, box[mark, 2:] + margin_m
+    tree = shapely.STRtree(shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1]))
+    at = np.flatnonzero(has)
+    hit, _ = tree.query(shapely.box(box[at, 0], box[at, 1], box[at, 2], box[at, 3]))
+    out = marked.copy()
+    out[at[hit]] = True
+    return out
 
 
 def _overlap_problems(

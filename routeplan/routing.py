@@ -540,9 +540,10 @@ def _prepare(
     params: RouteParams,
     memo: NetworkMemo | None = None,
     network: TrenchNetwork | None = None,
+    trenches_checked: bool = False,
 ) -> _Prepared:
     """Network, destinations and circuits of ``site``, and every problem found on the way
-    (``memo``, ``network``: see :func:`route_site`)."""
+    (``memo``, ``network``, ``trenches_checked``: see :func:`route_site`)."""
     timings: dict[str, float] = {}
     found: list[tuple[type[RoutingError], Problem]] = [
         (RoutingError, p) for p in check_metric_crs(site.crs)
@@ -550,10 +551,13 @@ def _prepare(
     if found:
         raise_for(found)
     t = time.perf_counter()
-    found += [
-        (RoutingError, p)
-        for p in trench_problems(site.trenches, node_tol_m=params.node_tol_m, snap_m=params.snap_m)
-    ]
+    if not trenches_checked:
+        found += [
+            (RoutingError, p)
+            for p in trench_problems(
+                site.trenches, node_tol_m=params.node_tol_m, snap_m=params.snap_m
+            )
+        ]
     timings["trench_check"] = time.perf_counter() - t
     t = time.perf_counter()
     network = site_network(site, params, memo) if network is None else network
@@ -728,6 +732,7 @@ def route_site(
     params: RouteParams | None = None,
     memo: NetworkMemo | None = None,
     network: TrenchNetwork | None = None,
+    trenches_checked: bool = False,
 ) -> RoutePlan:
     """Route every circuit of ``site`` along its trenches.
 
@@ -743,6 +748,10 @@ def route_site(
     network : routeplan.network.TrenchNetwork, optional
         The network :func:`site_network` gives for ``site`` under ``params``, where the caller
         has it (a network built before from the same trenches and equipment): not built again.
+    trenches_checked : bool, optional
+        The caller has found no :func:`routeplan.network.trench_problems` in these trenches
+        (ids and geometry) under these ``node_tol_m`` and ``snap_m`` (a local re-plan whose
+        last plan had the same trenches): not checked again.
 
     Returns
     -------
@@ -764,7 +773,7 @@ def route_site(
     :func:`row_length_m`) and 0 for the others.
     """
     params = RouteParams() if params is None else params
-    prep = _prepare(site, params, memo, network)
+    prep = _prepare(site, params, memo, network, trenches_checked)
     raise_for(prep.problems)
     network, circuits = prep.network, prep.circuits
     timings = dict(prep.timings_s)

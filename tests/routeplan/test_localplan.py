@@ -375,6 +375,30 @@ def test_a_trench_made_too_shallow_is_refused_as_a_cold_plan_refuses_it(plants):
     assert str(trenches["id"].iloc[0]) in str(local.value)
 
 
+@pytest.mark.parametrize("and_strings", [False, True])
+def test_a_trench_redrawn_along_another_is_refused_as_a_cold_plan_refuses_it(plants, and_strings):
+    """A trench redrawn 5 cm beside another, along its whole length, draws one corridor twice:
+    the cold plan refuses it naming both, and so does the re-plan, which checks only the
+    redrawn trench and those near it (the others passed in the last plan); with a row's
+    strings changed too (routed in full: the trenches checked in full, as they differ)."""
+    site, design, base = plants["plain"]
+    tr = site.trenches.copy()
+    geoms = np.asarray(tr.geometry.array, dtype=object).copy()
+    geoms[1] = shapely.affinity.translate(geoms[0], yoff=0.05)
+    edited = _with_trenches(site, tr.set_geometry(geoms, crs=tr.crs))
+    if and_strings:
+        rows = edited.rows.copy()
+        rows.loc[rows.index[0], "strings"] = int(rows["strings"].iloc[0]) - 1
+        edited = dataclasses.replace(edited, rows=rows)
+    with pytest.raises(RoutingError) as cold:
+        plan_site(edited, design, with_remedies=False)
+    with pytest.raises(RoutingError) as local:
+        replan(base, edited)
+    assert str(local.value) == str(cold.value)
+    assert "a corridor must be drawn once" in str(local.value)
+    assert str(tr["id"].iloc[0]) in str(local.value) and str(tr["id"].iloc[1]) in str(local.value)
+
+
 def _shortcut(base) -> tuple[str, shapely.LineString]:
     """A circuit of ``base`` and a straight line between two nodes of its route whose distance
     along the route is at least 1.3 times the straight one (a corner cut): a trench drawn there

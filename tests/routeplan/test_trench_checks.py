@@ -18,6 +18,8 @@ import numpy as np
 import pandas as pd
 import pytest
 import shapely
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from shapely.geometry import LineString, MultiLineString, Point
 from typer.testing import CliRunner
 
@@ -227,6 +229,65 @@ def test_far_group_of_parts_is_one_problem():
 def test_features_sharing_an_id_are_left_to_validation():
     a = LineString([(0, 0), (100, 0)])
     assert messages(trenches(a, a, ids=["T1", "T1"])) == []
+
+
+# ---- the check of a local re-plan: only the redrawn trenches and those near them -----------
+
+
+def _clean_grid() -> list[LineString]:
+    """Six trenches that pass: four parallel lines 12 m apart, crossed by two others."""
+    rows = [LineString([(0, 12 * k), (120, 12 * k)]) for k in range(4)]
+    return [*rows, LineString([(30, -10), (30, 50)]), LineString([(90, -10), (90, 50)])]
+
+
+_EDITS = st.tuples(
+    st.integers(0, 5),  # the trench redrawn
+    st.sampled_from(["shift", "copy", "far part", "retrace"]),
+    st.floats(-13.0, 13.0, allow_nan=False),  # across the rows: onto a neighbour and beyond
+    st.floats(-40.0, 40.0, allow_nan=False),  # along them
+)
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(edits=st.lists(_EDITS, min_size=1, max_size=3))
+def test_the_redrawn_trenches_alone_give_every_problem_of_the_layer(edits):
+    # the partial check of a local re-plan (only the redrawn trenches and those within twice
+    # the tolerance of them) against the whole layer checked, where the others passed before
+    base = _clean_grid()
+    assert messages(trenches(*base)) == []
+    geoms, changed = list(base), [False] * len(base)
+    for i, how, dy, dx in edits:
+        g = base[i]
+        moved = shapely.affinity.translate(g, xoff=dx if how != "retrace" else 0.0, yoff=dy)
+        if how == "shift":
+            geoms[i] = moved
+        elif how == "copy":  # a new trench: the corridor (or one beside it) drawn again
+            geoms.append(moved)
+            changed.append(True)
+            continue
+        elif how == "far part":
+            geoms[i] = MultiLineString([g, shapely.affinity.translate(g, yoff=30 + abs(dy))])
+        else:  # back over its own path for part of the way
+            xy = list(g.coords)
+            geoms[i] = LineString([*xy, xy[0]]) if abs(dx) > 20 else g
+        changed[i] = True
+    frame = trenches(*geoms)
+    every = messages(frame)
+    only = np.array(changed)
+    got = [str(p) for p in trench_problems(frame, node_tol_m=TOL, snap_m=30.0, only=only)]
+    assert got == every
+
+
+def test_a_trench_redrawn_onto_another_is_found_from_it_alone():
+    base = _clean_grid()
+    geoms = [*base[:1], shapely.affinity.translate(base[0], yoff=0.05), *base[2:]]
+    frame = trenches(*geoms)
+    only = np.zeros(len(geoms), dtype=bool)
+    only[1] = True
+    got = [str(p) for p in trench_problems(frame, node_tol_m=TOL, snap_m=30.0, only=only)]
+    assert got == [overlap_line("T1", "T2", 120.0)] == messages(frame)
+    # none marked: nothing looked at
+    assert trench_problems(frame, node_tol_m=TOL, only=np.zeros(len(geoms), dtype=bool)) == []
 
 
 @pytest.mark.parametrize("mount", ["tracker", "fixed"])
