@@ -118,12 +118,12 @@ from .network import (
 from .order import inverter_of, schedule_order, spliced_order
 from .pipeline import (
     Plan,
+    RemedyJob,
     assigned_destinations,
     conductor_poles,
     design_params,
     governing_ids,
     input_groups,
-    plan_remedies,
     plan_site,
     plan_tables,
     route_params,
@@ -886,13 +886,15 @@ def _local(
     if whatifs is not None:  # each what-if re-sized from the last run's, where it has one
         t2 = time.perf_counter()
         whatifs.resize = _whatif_resizer(edit, whatifs_before or {}, old.sizing, inp0, dp, rules)
-        remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
+        remedy = RemedyJob(routes, inp, dp, rules, result, governing, whatifs)
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]  # the tables' time leaves the remedies out
     circuits, seg_table, quantities, summary = plan_tables(
         site, design, routes, result, inp, inputs, landing, governing, remedy, base.order
     )
     t["tables"] = time.perf_counter() - t1
+    if remedy is not None:
+        remedy.account(t)
     t["local"] = 1.0
     return Plan(
         site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs
@@ -1033,7 +1035,7 @@ def _resized(
             for k, v in (whatifs_before or {}).items()
         }
         whatifs.resize = _whatif_resizer(edit, before, prev, inp0, dp, rules)
-        remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
+        remedy = RemedyJob(routes, inp, dp, rules, result, governing, whatifs)
         t["remedy"] = time.perf_counter() - t2
         t1 += t["remedy"]
     landing = landing_input(inp.parent, own_input)
@@ -1052,6 +1054,8 @@ def _resized(
         site, design, routes, result, inp, inputs, landing, governing, remedy, order
     )
     t["tables"] = time.perf_counter() - t1
+    if remedy is not None:
+        remedy.account(t)
     t["local"] = 0.75
     return Plan(
         site, design, routes, result, circuits, seg_table, quantities, summary, t, None, inputs

@@ -3,7 +3,9 @@
 Writing a plan's outputs is several independent jobs (the map, the cache entries, the
 GeoPackage, the schedules). A forked child sees the parent's data without copying or
 pickling it, so a job that only writes files can run in one: :func:`start` forks, the child
-runs the job and exits, :meth:`Job.wait` reaps it. A job whose child failed (or that could not
+runs the job and exits, :meth:`Job.wait` reaps it. A value the parent needs back (a plan's
+remedies, computed while it builds the tables) comes through a pipe, pickled
+(:func:`compute`, :meth:`Pending.result`). A job whose child failed (or that could not
 be forked: no ``fork`` on this system, or ``ROUTEPLAN_SERIAL`` set) is run again in the main
 process, so its exceptions are raised there as usual and nothing depends on the child.
 
@@ -16,10 +18,12 @@ across ``fork`` (PROJ pull request 2845); the children never use GDAL.
 from __future__ import annotations
 
 import os
+import pickle
 import sys
 import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 
 @dataclass
@@ -102,16 +106,9 @@ def start(work: Callable[[], None], nice: int = 0, then: Callable[[], None] | No
     ``work``, once the child has told the parent that ``work`` is done (:meth:`Job.wait_first`:
     e.g. a file the parent waits for, then a record it can commit later)."""
     job = Job(work, then=then)
-    if not hasattr(os, "fork") or os.environ.get("ROUTEPLAN_SERIAL"):
-        return job
-    sys.stdout.flush()
-    sys.stderr.flush()
     read_fd, write_fd = os.pipe() if then is not None else (None, None)
-    try:
-        with warnings.catch_warnings():  # Python 3.12+ warns of fork with threads (see above)
-            warnings.simplefilter("ignore", DeprecationWarning)
-            pid = os.fork()
-    except OSError:
+    pid = _fork()
+    if pid is None:
         if read_fd is not None:
             os.close(read_fd)
             os.close(write_fd)
@@ -135,3 +132,96 @@ def start(work: Callable[[], None], nice: int = 0, then: Callable[[], None] | No
         os.close(write_fd)
         job.ready_fd = read_fd
     return job
+
+
+def _fork() -> int | None:
+    """:func:`os.fork` (0 in the child, the child's pid in the parent), the standard streams
+    flushed first; None where there is no child: no ``fork`` on this system,
+    ``ROUTEPLAN_SERIAL`` set, or the fork failed."""
+    if not hasattr(os, "fork") or os.environ.get("ROUTEPLAN_SERIAL"):
+        return None
+    sys.stdout.flush()
+    sys.stderr.flush()
+    try:
+        with warnings.catch_warnings():  # Python 3.12+ warns of fork with threads (see above)
+            warnings.simplefilter("ignore", DeprecationWarning)
+            return os.fork()
+    except OSError:
+        return None
+
+
+@dataclass
+class Pending:
+    """A value computed by ``work`` in a child process (``pid``, its pickle coming through the
+    pipe ``fd``), or to compute in this one (``pid`` None)."""
+
+    work: Callable[[], Any]
+    pid: int | None = None
+    fd: int | None = None
+    done: bool = False
+    value: Any = None
+
+    def result(self) -> Any:
+        """The value: the child's, read whole before the child is reaped (it may be larger
+        than the pipe holds); ``work()`` run here where the child failed or never ran, so that
+        its exceptions are raised here as usual. Kept for later calls."""
+        if self.done:
+            return self.value
+        ok, value = False, None
+        if self.fd is not None:
+            with os.fdopen(self.fd, "rb") as fh:
+                data = fh.read()
+            self.fd = None
+            try:
+                ok, value = True, pickle.loads(data)
+            except Exception:  # a child that died while writing: an incomplete pickle
+                ok = False
+        if self.pid is not None:
+            _, status = os.waitpid(self.pid, 0)
+            ok = ok and os.waitstatus_to_exitcode(status) == 0
+            self.pid = None
+        if not ok:
+            value = self.work()
+        self.value, self.done = value, True
+        return value
+
+    def cancel(self) -> None:
+        """Stop the child and reap it (its value is not needed)."""
+        if self.pid is not None:
+            try:
+                os.kill(self.pid, 9)
+                os.waitpid(self.pid, 0)
+            except OSError:
+                pass
+            self.pid = None
+        if self.fd is not None:
+            os.close(self.fd)
+            self.fd = None
+        self.done = True
+
+
+def compute(work: Callable[[], Any]) -> Pending:
+    """Start computing ``work()`` in a forked child, whose value :meth:`Pending.result` returns
+    (pickled through a pipe: ``work`` must return a picklable value, and whatever else it
+    changes stays in the child); where forking is not possible or ``ROUTEPLAN_SERIAL`` is set,
+    it is computed by :meth:`Pending.result`, here."""
+    pending = Pending(work)
+    read_fd, write_fd = os.pipe()
+    pid = _fork()
+    if pid is None:
+        os.close(read_fd)
+        os.close(write_fd)
+        return pending
+    if pid == 0:  # the child
+        code = 1
+        try:
+            os.close(read_fd)
+            data = pickle.dumps(work(), protocol=pickle.HIGHEST_PROTOCOL)
+            with os.fdopen(write_fd, "wb") as fh:
+                fh.write(data)
+            code = 0
+        finally:
+            os._exit(code)
+    os.close(write_fd)
+    pending.pid, pending.fd = pid, read_fd
+    return pending

@@ -25,7 +25,7 @@ from layers import Site
 from layers.sources import LayerMemo
 from layers.validate import MAX_DC_INPUTS
 
-from . import CAUTION, __version__
+from . import CAUTION, __version__, parallel
 from .cache import PlanCache, digest, site_key, uncacheable_layers
 from .check import load
 from .config import DESIGN_KEYS, DesignConfig, parse_design
@@ -474,16 +474,10 @@ def plan_site(
         remedy = cache.get("remedy", digest("remedy", size_key))
         if remedy is not None:
             cache.carry("whatif")  # the what-ifs of those remedies, for a local re-plan
-    if remedy is None and with_remedies:
-        whatifs = WhatIfs(rules)
-        remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
-        if cache is not None and not np.all(result.ok):
-            cache.put_all(
-                [
-                    ("remedy", digest("remedy", size_key), remedy),
-                    ("whatif", digest("whatif", size_key), whatifs.kept),
-                ]
-            )
+    job = None
+    if remedy is None and with_remedies:  # computed beside the tables
+        job = RemedyJob(routes, inp, dp, rules, result, governing, WhatIfs(rules))
+        remedy = job
     t["remedy"] = time.perf_counter() - t0
     say("tables")
     t0 = time.perf_counter()
@@ -500,6 +494,15 @@ def plan_site(
         site, design, routes, result, inp, inputs, landing, governing, remedy
     )
     t["tables"] = time.perf_counter() - t0
+    if job is not None:
+        job.account(t)
+        if cache is not None and not np.all(result.ok):
+            cache.put_all(
+                [
+                    ("remedy", digest("remedy", size_key), job()),
+                    ("whatif", digest("whatif", size_key), job.whatifs.kept),
+                ]
+            )
     return Plan(
         site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
     )
@@ -514,23 +517,84 @@ def plan_tables(
     inputs: pd.DataFrame,
     landing: np.ndarray,
     governing: np.ndarray,
-    remedy: np.ndarray | None,
+    remedy: np.ndarray | RemedyJob | None,
     order: np.ndarray | None = None,
 ) -> tuple[gpd.GeoDataFrame, gpd.GeoDataFrame, pd.DataFrame, dict[str, Any]]:
     """A plan's cable schedule (in schedule order, :func:`routeplan.order.schedule_order`),
     trench schedule, bill of quantities and summary, from its routes and sizing. ``order``:
     that order (positions of ``routes.circuits``) where the caller has it — a local re-plan
     keeps its baseline's circuits, ids and blocks, so their order
-    (:class:`routeplan.localplan.Baseline`)."""
-    circuits = circuit_table(routes, result, inp, design, landing, governing, remedy)
-    segments = segment_table(routes, result)
-    quantities = quantity_table(circuits, segments, design)
-    summary = summarise(site, design, circuits, segments, result, inputs)
-    summary["assigned"] = assigned_destinations(routes)
-    if order is None:
-        order = schedule_order(circuits)
+    (:class:`routeplan.localplan.Baseline`). ``remedy``: each circuit's remedy in routes
+    order, or the :class:`RemedyJob` computing them meanwhile (waited for last: no other
+    table holds them)."""
+    job = remedy if isinstance(remedy, RemedyJob) else None
+    try:
+        given = None if job is not None else remedy
+        circuits = circuit_table(routes, result, inp, design, landing, governing, given)
+        segments = segment_table(routes, result)
+        quantities = quantity_table(circuits, segments, design)
+        summary = summarise(site, design, circuits, segments, result, inputs)
+        summary["assigned"] = assigned_destinations(routes)
+        if order is None:
+            order = schedule_order(circuits)
+        if job is not None:
+            circuits["remedy"] = job()
+    finally:
+        if job is not None:
+            job.cancel()  # a table that failed: the child is not waited for
     circuits = circuits.iloc[order].reset_index(drop=True)  # block order
     return circuits, segments, quantities, summary
+
+
+class RemedyJob:
+    """:func:`plan_remedies` computed in a child process (:func:`routeplan.parallel.compute`)
+    while this one builds the tables (:func:`plan_tables`), which need the remedies for their
+    last column only. Calling it returns the remedies (waiting for the child) and sets
+    ``whatifs``' record of the what-ifs (``kept``, ``resized``) from the child's; where the
+    child fails they are computed here, and their exceptions raised here. ``started_s``,
+    ``waited_s``: this process's time spent starting the child and waiting for it [s]."""
+
+    def __init__(
+        self,
+        routes: RoutePlan,
+        inp: calc.SizingInput,
+        dp: calc.DesignParams,
+        rules: str,
+        result: calc.SizingResult,
+        governing: np.ndarray,
+        whatifs: WhatIfs,
+    ) -> None:
+        t0 = time.perf_counter()
+        self.whatifs = whatifs
+
+        def work() -> tuple[np.ndarray, dict, int]:
+            remedy = plan_remedies(routes, inp, dp, rules, result, governing, whatifs)
+            return remedy, whatifs.kept, whatifs.resized
+
+        # a plan that passes needs no remedy, nor a child to find none
+        passes = bool(np.all(result.ok))
+        self._pending = parallel.Pending(work) if passes else parallel.compute(work)
+        self.started_s = time.perf_counter() - t0
+        self.waited_s = 0.0
+
+    def __call__(self) -> np.ndarray:
+        t0 = time.perf_counter()
+        remedy, kept, resized = self._pending.result()
+        self.whatifs.kept, self.whatifs.resized = kept, resized
+        self.waited_s += time.perf_counter() - t0
+        return remedy
+
+    def account(self, timings: dict[str, float]) -> None:
+        """Move the wait for the remedies from ``timings["tables"]`` (they were waited for
+        there) to ``timings["remedy"]``."""
+        timings["remedy"] = timings.get("remedy", 0.0) + self.waited_s
+        timings["tables"] = timings.get("tables", 0.0) - self.waited_s
+
+    def cancel(self) -> None:
+        """Stop the child where its remedies were not taken
+        (:meth:`routeplan.parallel.Pending.cancel`)."""
+        if not self._pending.done:
+            self._pending.cancel()
 
 
 def plan_remedies(

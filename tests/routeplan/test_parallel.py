@@ -185,3 +185,66 @@ def test_wait_first_of_a_job_without_a_second_part_waits_for_it_and_runs_it_once
     assert len(pids) == 1 and pids[0] != str(os.getpid())  # once, in the child
     job.wait()
     assert len(calls.read_text().split()) == 1
+
+
+# ---- values computed in a child (parallel.compute) ------------------------------------------
+
+
+def test_a_value_larger_than_the_pipe_comes_back_from_the_child():
+    import numpy as np
+
+    def work():
+        # 8 MB, far more than a pipe holds (64 KiB on Linux): read whole before the child is
+        # reaped, or both would wait for ever
+        return os.getpid(), np.arange(1_000_000, dtype=np.float64)
+
+    pending = parallel.compute(work)
+    assert pending.pid is not None
+    pid, values = pending.result()
+    assert pid != os.getpid()  # computed by the child
+    assert np.array_equal(values, np.arange(1_000_000, dtype=np.float64))
+    assert pending.result()[0] == pid  # kept: not computed again
+
+
+def test_a_failed_child_computes_the_value_again_here_and_raises_here(tmp_path):
+    calls = tmp_path / "calls"
+
+    def work():
+        with open(calls, "a") as fh:
+            fh.write(f"{os.getpid()}\n")
+        raise ValueError("bad input")
+
+    pending = parallel.compute(work)
+    with pytest.raises(ValueError, match="bad input"):
+        pending.result()
+    pids = calls.read_text().split()
+    assert len(pids) == 2 and pids[1] == str(os.getpid()) and pids[0] != pids[1]
+
+
+def test_a_child_that_dies_while_writing_leaves_the_value_to_this_process():
+    parent = os.getpid()
+
+    class Dies:
+        def __reduce__(self):  # pickled in the child: it dies there, halfway
+            os._exit(3)
+
+    def work():
+        return Dies() if os.getpid() != parent else "computed here"
+
+    assert parallel.compute(work).result() == "computed here"
+
+
+def test_a_value_is_computed_here_when_serial(monkeypatch):
+    monkeypatch.setenv("ROUTEPLAN_SERIAL", "1")
+    pending = parallel.compute(os.getpid)
+    assert pending.pid is None
+    assert pending.result() == os.getpid()
+
+
+def test_cancel_stops_a_computing_child():
+    pending = parallel.compute(lambda: time.sleep(600))
+    pid = pending.pid
+    assert pid is not None
+    pending.cancel()
+    with pytest.raises(ProcessLookupError):
+        os.kill(pid, 0)

@@ -182,3 +182,30 @@ def test_a_spacing_remedy_widens_the_trench_and_passes(narrow, tmp_path):
     assert after["status"] == "ok", after["note"]
     assert after["size_mm2"] == 4.0
     assert after["factor_group"] > before["factor_group"]
+
+
+def test_remedies_found_beside_the_tables_are_those_found_here(narrow, monkeypatch):
+    # the remedies are computed in a child process while the tables are built
+    # (pipeline.RemedyJob); computed in this process they are the same, value for value
+    root, c = narrow
+    assert (c["remedy"] != "").any()
+    monkeypatch.setenv("ROUTEPLAN_SERIAL", "1")
+    assert plan(root).circuits["remedy"].tolist() == c["remedy"].tolist()
+
+
+def test_a_remedy_child_that_fails_leaves_the_remedies_to_this_process(narrow, monkeypatch):
+    import os
+
+    from routeplan import pipeline
+
+    root, c = narrow
+    parent = os.getpid()
+    real = pipeline.plan_remedies
+
+    def dies_in_a_child(*args, **kwargs):
+        if os.getpid() != parent:
+            os._exit(1)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(pipeline, "plan_remedies", dies_in_a_child)
+    assert plan(root).circuits["remedy"].tolist() == c["remedy"].tolist()
