@@ -327,6 +327,10 @@ def _kept(
     ``same_at(off)`` finds the value the same ``off`` rows further there (the first of
     ``offsets`` that does), and which are left to hash; clears in ``found[off]`` the rows
     whose value is not the same ``off`` rows further."""
+    if offsets == [0] and len(old_hashes) == n:  # one table of one length: no index arrays
+        same = same_at(0)
+        found[0] &= same
+        return np.where(same, old_hashes, np.uint64(0)), ~same
     h, todo = np.zeros(n, dtype=np.uint64), np.ones(n, dtype=bool)
     for off in offsets:
         same = same_at(off)
