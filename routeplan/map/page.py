@@ -51,6 +51,7 @@ import pandas as pd
 import pyproj
 import shapely
 
+from routeplan import parallel
 from routeplan.map.details import review_data_html, review_json
 from routeplan.map.features import (
     CircuitLayers,
@@ -461,8 +462,6 @@ def _render(
     drop_limits_pct: dict[str, float] | None,
 ) -> bytes:
     """:func:`render_map_bytes` of checked ``frames``."""
-    circuits, segments = frames["circuits"], frames["segments"]
-    rows, equipment = frames["rows"], frames["equipment"]
     h = {}
     for name, gdf in frames.items():
         given = (hashes or {}).get(name)
@@ -475,6 +474,31 @@ def _render(
         given = (geometry_hashes or {}).get(name)
         ok_length = given is not None and len(given) == len(frames[name])
         area_h[name] = np.asarray(given, dtype=np.uint64) if ok_length else h[name]
+    review_data = _ReviewData(frames, h, memo, drop_limits_pct)
+    try:
+        return _draw(
+            frames, h, area_h, review_data, site_name=site_name, basemap=basemap,
+            aggregate_strings_above=aggregate_strings_above, memo=memo,
+        )  # fmt: skip
+    finally:
+        review_data.cancel()  # a drawing that failed: the review's child is not waited for
+
+
+def _draw(
+    frames: dict[str, gpd.GeoDataFrame],
+    h: dict[str, np.ndarray],
+    area_h: dict[str, np.ndarray],
+    review_data: _ReviewData,
+    *,
+    site_name: str,
+    basemap: bool,
+    aggregate_strings_above: int,
+    memo: MapMemo,
+) -> bytes:
+    """The page of :func:`_render`, its rows' hashes ``h`` and block areas' ``area_h`` known,
+    its review data made meanwhile (``review_data``)."""
+    circuits, segments = frames["circuits"], frames["segments"]
+    rows, equipment = frames["rows"], frames["equipment"]
     ok = {name: drawable_mask(gdf) for name, gdf in frames.items()}
     # what a tile's drawing depends on besides its rows: the CRS its coordinates are in
     wkt = {name: gdf.crs.to_wkt() if gdf.crs is not None else None for name, gdf in frames.items()}
@@ -630,19 +654,11 @@ def _render(
     failing = circuit_ids[fail].tolist()
     # the list of failing circuits, kept with the page parts under a digest of its input
     listed = hashlib.sha256(json.dumps([failing, blocks]).encode("utf-8")).hexdigest()
-    review = review_html(memo.page(f"failing:{listed}", lambda: [failing_html(failing, blocks)])[0])
-    panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend, review=review)
-    panel += review_data_html(
-        review_json(
-            circuits,
-            segments,
-            rows,
-            equipment,
-            drop_limits_pct=drop_limits_pct,
-            memo=memo.review,
-            hashes=(h["circuits"], h["segments"], h["rows"], h["equipment"]),
-        )
+    listing = review_html(
+        memo.page(f"failing:{listed}", lambda: [failing_html(failing, blocks)])[0]
     )
+    panel = panel_html(site_name, totals, crs_name=crs_name, legend=legend, review=listing)
+    panel += review_data_html(review_data())
 
     spec = {
         "title": f"{site_name} – cable routes",
@@ -658,6 +674,50 @@ def _render(
     )
     page = [t.encode("utf-8") for t in (head, panel, middle, between, plant.script, tail)]
     return b"".join([*page[:3], b"\n".join(scripts), *page[3:]])
+
+
+class _ReviewData:
+    """The page's review data (:func:`review_json` of the four tables, with ``memo``'s review
+    tables) made in a child process (:func:`routeplan.parallel.compute`) while this one draws
+    the tiles: the map's two parts share the cores with the other writers (1 GW, a trench
+    moved: the review data is about a third of the map's work). Calling it waits for the text
+    and takes the child's review tables (this run's state of ``memo.review``) into ``memo``,
+    for the next run (made here where the child fails)."""
+
+    def __init__(
+        self,
+        frames: dict[str, gpd.GeoDataFrame],
+        h: dict[str, np.ndarray],
+        memo: MapMemo,
+        drop_limits_pct: dict[str, float] | None,
+    ) -> None:
+        self.memo = memo
+
+        def work() -> tuple[str, dict]:
+            text = review_json(
+                frames["circuits"],
+                frames["segments"],
+                frames["rows"],
+                frames["equipment"],
+                drop_limits_pct=drop_limits_pct,
+                memo=memo.review,
+                hashes=(h["circuits"], h["segments"], h["rows"], h["equipment"]),
+            )
+            r = memo.review
+            return text, (r.now, r.found, r.ids)
+
+        self._pending = parallel.compute(work)
+
+    def __call__(self) -> str:
+        text, (now, found, ids) = self._pending.result()
+        r = self.memo.review
+        r.now, r.found, r.ids = now, found, ids
+        return text
+
+    def cancel(self) -> None:
+        """Stop the child where its text was not taken."""
+        if not self._pending.done:
+            self._pending.cancel()
 
 
 def _read_layer(path: Path, layer: str) -> gpd.GeoDataFrame:

@@ -240,3 +240,41 @@ def test_a_page_after_edits_equals_a_cold_one_byte_for_byte(plant):
     assert memo.review.found and _new_rows(memo.review, "c") == 3
     again = MapMemo.load(loads(dumps(memo.export())))
     assert render(plant, again) == render(plant)
+
+
+def test_the_review_data_made_in_a_child_is_the_one_made_here(plant, monkeypatch):
+    """The page's review data is made in a child process while the tiles are drawn
+    (page._ReviewData): the page and the memo it leaves equal those made in this process
+    alone (ROUTEPLAN_SERIAL), after an edit too; a child that fails leaves it to this
+    process."""
+    import os
+
+    from routeplan.map import page as map_page
+
+    def render(frames: dict, memo: MapMemo) -> str:
+        return map_page.render_map(
+            *(frames[k] for k in LAYERS), site_name="Edited field", memo=memo, hashes=None
+        )
+
+    def twice() -> tuple[list[str], bytes]:
+        first = MapMemo()
+        one = render(plant, first)
+        status = plant["circuits"]["status"].to_numpy()
+        edited = _set(plant, "circuits", "status", [int(np.argmax(status != "fail"))], ["fail"])
+        memo = MapMemo.load(loads(dumps(first.export())))
+        two = render(edited, memo)
+        return [one, two], dumps(memo.export())
+
+    forked = twice()
+    monkeypatch.setenv("ROUTEPLAN_SERIAL", "1")
+    assert twice() == forked
+    monkeypatch.delenv("ROUTEPLAN_SERIAL")
+    parent, real = os.getpid(), map_page.review_json
+
+    def dies_in_a_child(*args, **kwargs):
+        if os.getpid() != parent:
+            os._exit(1)
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(map_page, "review_json", dies_in_a_child)
+    assert twice() == forked
