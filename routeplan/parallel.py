@@ -17,6 +17,7 @@ across ``fork`` (PROJ pull request 2845); the children never use GDAL.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import pickle
 import sys
@@ -87,11 +88,7 @@ class Job:
     def cancel(self) -> None:
         """Stop the child (the job's files are then unfinished) and reap it."""
         if self.pid is not None:
-            try:
-                os.kill(self.pid, 9)
-                os.waitpid(self.pid, 0)
-            except OSError:
-                pass
+            _kill(self.pid)
             self.pid = None
         if self.ready_fd is not None:
             os.close(self.ready_fd)
@@ -107,7 +104,7 @@ def start(work: Callable[[], None], nice: int = 0, then: Callable[[], None] | No
     e.g. a file the parent waits for, then a record it can commit later)."""
     job = Job(work, then=then)
     read_fd, write_fd = os.pipe() if then is not None else (None, None)
-    pid = _fork()
+    pid = _fork(group=True)
     if pid is None:
         if read_fd is not None:
             os.close(read_fd)
@@ -134,10 +131,16 @@ def start(work: Callable[[], None], nice: int = 0, then: Callable[[], None] | No
     return job
 
 
-def _fork() -> int | None:
+def _fork(group: bool) -> int | None:
     """:func:`os.fork` (0 in the child, the child's pid in the parent), the standard streams
     flushed first; None where there is no child: no ``fork`` on this system,
-    ``ROUTEPLAN_SERIAL`` set, or the fork failed."""
+    ``ROUTEPLAN_SERIAL`` set, or the fork failed.
+
+    ``group``: the child leads a process group of its own (set by both, as shells do, so
+    that it is set whichever runs first), which the children it forks for values
+    (:func:`compute`, ``group=False``) join: a job's child is stopped with all it started
+    (:func:`_kill`). The map's child makes its review data in a child of its own; left
+    running, that one would keep the output folder's lock (inherited) after its run."""
     if not hasattr(os, "fork") or os.environ.get("ROUTEPLAN_SERIAL"):
         return None
     sys.stdout.flush()
@@ -145,9 +148,26 @@ def _fork() -> int | None:
     try:
         with warnings.catch_warnings():  # Python 3.12+ warns of fork with threads (see above)
             warnings.simplefilter("ignore", DeprecationWarning)
-            return os.fork()
+            pid = os.fork()
     except OSError:
         return None
+    if group:  # where the other has set it already (or the child has exited): nothing to do
+        with contextlib.suppress(OSError):
+            os.setpgid(0 if pid == 0 else pid, 0 if pid == 0 else pid)
+    return pid
+
+
+def _kill(pid: int) -> None:
+    """Stop the child ``pid`` and every process it started (its process group, see
+    :func:`_fork`; the child alone where it leads none: a :func:`compute` child), and reap
+    it."""
+    try:
+        os.killpg(pid, 9)
+    except OSError:
+        with contextlib.suppress(OSError):
+            os.kill(pid, 9)
+    with contextlib.suppress(OSError):
+        os.waitpid(pid, 0)
 
 
 @dataclass
@@ -188,11 +208,7 @@ class Pending:
     def cancel(self) -> None:
         """Stop the child and reap it (its value is not needed)."""
         if self.pid is not None:
-            try:
-                os.kill(self.pid, 9)
-                os.waitpid(self.pid, 0)
-            except OSError:
-                pass
+            _kill(self.pid)
             self.pid = None
         if self.fd is not None:
             os.close(self.fd)
@@ -207,7 +223,7 @@ def compute(work: Callable[[], Any]) -> Pending:
     it is computed by :meth:`Pending.result`, here."""
     pending = Pending(work)
     read_fd, write_fd = os.pipe()
-    pid = _fork()
+    pid = _fork(group=False)
     if pid is None:
         os.close(read_fd)
         os.close(write_fd)

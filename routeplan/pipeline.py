@@ -495,7 +495,6 @@ def plan_site(
     )
     t["tables"] = time.perf_counter() - t0
     if job is not None:
-        job.account(t)
         if cache is not None and not np.all(result.ok):
             cache.put_all(
                 [
@@ -503,6 +502,7 @@ def plan_site(
                     ("whatif", digest("whatif", size_key), job.whatifs.kept),
                 ]
             )
+        job.account(t)
     return Plan(
         site, design, routes, result, circuits, segments, quantities, summary, t, cache, inputs
     )
@@ -551,8 +551,8 @@ class RemedyJob:
     while this one builds the tables (:func:`plan_tables`), which need the remedies for their
     last column only. Calling it returns the remedies (waiting for the child) and sets
     ``whatifs``' record of the what-ifs (``kept``, ``resized``) from the child's; where the
-    child fails they are computed here, and their exceptions raised here. ``started_s``,
-    ``waited_s``: this process's time spent starting the child and waiting for it [s]."""
+    child fails they are computed here, and their exceptions raised here. ``waited_s``: this
+    process's time spent waiting for them [s]."""
 
     def __init__(
         self,
@@ -564,7 +564,6 @@ class RemedyJob:
         governing: np.ndarray,
         whatifs: WhatIfs,
     ) -> None:
-        t0 = time.perf_counter()
         self.whatifs = whatifs
 
         def work() -> tuple[np.ndarray, dict, int]:
@@ -574,7 +573,6 @@ class RemedyJob:
         # a plan that passes needs no remedy, nor a child to find none
         passes = bool(np.all(result.ok))
         self._pending = parallel.Pending(work) if passes else parallel.compute(work)
-        self.started_s = time.perf_counter() - t0
         self.waited_s = 0.0
 
     def __call__(self) -> np.ndarray:

@@ -248,3 +248,39 @@ def test_cancel_stops_a_computing_child():
     pending.cancel()
     with pytest.raises(ProcessLookupError):
         os.kill(pid, 0)
+
+
+def _alive(pid: int) -> bool:
+    """Whether process ``pid`` still runs (a zombie, killed and not yet reaped by its new
+    parent, does not): Linux's /proc/PID/stat, third field."""
+    try:
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().rsplit(")", 1)[1].split()[0] != "Z"
+    except FileNotFoundError:
+        return False
+
+
+@pytest.mark.skipif(not os.path.isdir("/proc/self"), reason="reads /proc (Linux)")
+def test_cancel_stops_what_the_child_started(tmp_path):
+    # the map's child makes the review data in a child of its own (parallel.compute): a run
+    # that fails stops the map's child, and the grandchild with it, or the grandchild would
+    # keep the output folder's lock (inherited) after the run
+    told = tmp_path / "grandchild"
+
+    def work():
+        pending = parallel.compute(lambda: time.sleep(600))
+        told.write_text(str(pending.pid))
+        time.sleep(600)
+
+    job = parallel.start(work)
+    deadline = time.monotonic() + 30
+    while not told.exists() or not told.read_text():
+        assert time.monotonic() < deadline, "the child did not start its own"
+        time.sleep(0.01)
+    grandchild = int(told.read_text())
+    assert _alive(grandchild)
+    job.cancel()
+    deadline = time.monotonic() + 10
+    while _alive(grandchild):
+        assert time.monotonic() < deadline, "the grandchild still runs"
+        time.sleep(0.01)
