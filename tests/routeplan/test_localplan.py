@@ -360,6 +360,17 @@ def test_a_trench_edit_changes_the_plan_locally(plants):
     assert_same_plan(local, plan_site(edited, design, with_remedies=False))
 
 
+def _refused_alike(base, edited, design, error: type[Exception]) -> str:
+    """The message with which a cold plan of ``edited`` and its local re-plan are both
+    refused (``error``), the same."""
+    with pytest.raises(error) as cold:
+        plan_site(edited, design, with_remedies=False)
+    with pytest.raises(error) as local:
+        replan(base, edited)
+    assert str(local.value) == str(cold.value)
+    return str(local.value)
+
+
 def test_a_trench_made_too_shallow_is_refused_as_a_cold_plan_refuses_it(plants):
     """A trench 0.01 m deep cannot bury a cable (its depth does not exceed half the cable's
     outer diameter): the cold plan refuses it naming the trench, and so does the re-plan."""
@@ -367,12 +378,8 @@ def test_a_trench_made_too_shallow_is_refused_as_a_cold_plan_refuses_it(plants):
     trenches = site.trenches.copy()
     trenches.loc[trenches.index[0], "depth_m"] = 0.01
     edited = dataclasses.replace(site, trenches=trenches)
-    with pytest.raises(DesignError) as cold:
-        plan_site(edited, design, with_remedies=False)
-    with pytest.raises(DesignError) as local:
-        replan(base, edited)
-    assert str(local.value) == str(cold.value)
-    assert str(trenches["id"].iloc[0]) in str(local.value)
+    refused = _refused_alike(base, edited, design, DesignError)
+    assert str(trenches["id"].iloc[0]) in refused
 
 
 @pytest.mark.parametrize("and_strings", [False, True])
@@ -390,13 +397,9 @@ def test_a_trench_redrawn_along_another_is_refused_as_a_cold_plan_refuses_it(pla
         rows = edited.rows.copy()
         rows.loc[rows.index[0], "strings"] = int(rows["strings"].iloc[0]) - 1
         edited = dataclasses.replace(edited, rows=rows)
-    with pytest.raises(RoutingError) as cold:
-        plan_site(edited, design, with_remedies=False)
-    with pytest.raises(RoutingError) as local:
-        replan(base, edited)
-    assert str(local.value) == str(cold.value)
-    assert "a corridor must be drawn once" in str(local.value)
-    assert str(tr["id"].iloc[0]) in str(local.value) and str(tr["id"].iloc[1]) in str(local.value)
+    refused = _refused_alike(base, edited, design, RoutingError)
+    assert "a corridor must be drawn once" in refused
+    assert str(tr["id"].iloc[0]) in refused and str(tr["id"].iloc[1]) in refused
 
 
 def _shortcut(base) -> tuple[str, shapely.LineString]:

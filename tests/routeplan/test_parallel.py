@@ -21,7 +21,12 @@ def test_a_job_runs_in_a_child_and_its_file_is_there_after_wait(tmp_path):
     assert out.read_text() != str(os.getpid())  # written by the child
 
 
-def test_a_failed_child_runs_the_job_again_here_and_raises_here(tmp_path):
+@pytest.mark.parametrize(
+    "run",
+    [lambda work: parallel.start(work).wait(), lambda work: parallel.compute(work).result()],
+    ids=["job", "value"],
+)
+def test_a_failed_child_runs_the_work_again_here_and_raises_here(tmp_path, run):
     calls = tmp_path / "calls"
 
     def work():
@@ -29,9 +34,8 @@ def test_a_failed_child_runs_the_job_again_here_and_raises_here(tmp_path):
             fh.write(f"{os.getpid()}\n")
         raise ValueError("bad input")
 
-    job = parallel.start(work)
     with pytest.raises(ValueError, match="bad input"):
-        job.wait()
+        run(work)
     pids = calls.read_text().split()
     assert len(pids) == 2 and pids[1] == str(os.getpid()) and pids[0] != pids[1]
 
@@ -204,21 +208,6 @@ def test_a_value_larger_than_the_pipe_comes_back_from_the_child():
     assert pid != os.getpid()  # computed by the child
     assert np.array_equal(values, np.arange(1_000_000, dtype=np.float64))
     assert pending.result()[0] == pid  # kept: not computed again
-
-
-def test_a_failed_child_computes_the_value_again_here_and_raises_here(tmp_path):
-    calls = tmp_path / "calls"
-
-    def work():
-        with open(calls, "a") as fh:
-            fh.write(f"{os.getpid()}\n")
-        raise ValueError("bad input")
-
-    pending = parallel.compute(work)
-    with pytest.raises(ValueError, match="bad input"):
-        pending.result()
-    pids = calls.read_text().split()
-    assert len(pids) == 2 and pids[1] == str(os.getpid()) and pids[0] != pids[1]
 
 
 def test_a_child_that_dies_while_writing_leaves_the_value_to_this_process():
