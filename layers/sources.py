@@ -284,13 +284,19 @@ def _json_booleans(path: Path, name: str) -> list[Problem]:
     word (a property of booleans alone is read as booleans, refused by validation). One problem
     per value, naming the feature by its ``id`` property (``#n``, its position, without one).
     Files that are not one JSON document with a ``features`` array (GeoJSON sequences, other
-    formats) are left to GDAL; a file without the words ``true`` and ``false`` is not parsed."""
+    formats, a file that does not begin with ``{``) are left to GDAL; a file without the words
+    ``true`` and ``false`` is not parsed."""
     from .validate import _id_text  # validate imports this module
 
     fields = _number_fields(name)
     if not fields or not path.is_file():
         return []
     with open(path, "rb") as fh:
+        # a JSON document is an object first (after a byte-order mark or blanks): a file of
+        # another format (a shapefile, a FlatGeobuf …) is not read again here
+        if not fh.read(4096).removeprefix(UTF8_BOM).lstrip().startswith(b"{"):
+            return []
+        fh.seek(0)
         data = fh.read()
     if b"true" not in data and b"false" not in data:
         return []

@@ -206,7 +206,8 @@ class Pending:
         return value
 
     def cancel(self) -> None:
-        """Stop the child and reap it (its value is not needed)."""
+        """Stop the child and reap it (its value is not needed); nothing to do once the value
+        was taken."""
         if self.pid is not None:
             _kill(self.pid)
             self.pid = None

@@ -591,8 +591,7 @@ class RemedyJob:
     def cancel(self) -> None:
         """Stop the child where its remedies were not taken
         (:meth:`routeplan.parallel.Pending.cancel`)."""
-        if not self._pending.done:
-            self._pending.cancel()
+        self._pending.cancel()  # nothing left to stop once the value was taken
 
 
 def plan_remedies(

@@ -716,8 +716,7 @@ class _ReviewData:
 
     def cancel(self) -> None:
         """Stop the child where its text was not taken."""
-        if not self._pending.done:
-            self._pending.cancel()
+        self._pending.cancel()  # nothing left to stop once the value was taken
 
 
 def _read_layer(path: Path, layer: str) -> gpd.GeoDataFrame:

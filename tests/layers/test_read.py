@@ -254,3 +254,21 @@ def test_a_geojson_boolean_elsewhere_or_a_feature_without_id_is_named_by_positio
     assert any(
         str(p).startswith("rows '#2': strings is true in the file") for p in info.value.problems
     )
+
+
+@pytest.mark.parametrize("lead", [b"\n  ", b"\xef\xbb\xbf"], ids=["blanks", "bom"])
+def test_a_geojson_boolean_is_found_after_blanks_or_a_byte_order_mark(tmp_path, lead):
+    # RFC 8259 section 2: blanks may precede the document's object; RFC 7946 files written
+    # by some editors start with a UTF-8 byte-order mark, which GDAL skips
+    root = write_site(tmp_path / "s", base_frames())
+    path = root / "rows.geojson"
+    data = json.loads(path.read_text(encoding="utf-8"))
+    data["features"][0]["properties"]["strings"] = True
+    path.write_bytes(lead + json.dumps(data).encode("utf-8"))
+    with pytest.raises(layers.SiteError) as info:
+        layers.read_site(root)
+    first = str(data["features"][0]["properties"]["id"])
+    assert [str(p) for p in info.value.problems] == [
+        f"rows '{first}': strings is true in the file (a JSON boolean, which GDAL would read "
+        "as 1), expected a whole number"
+    ]
