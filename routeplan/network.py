@@ -413,14 +413,21 @@ class NodedTrenches:
     xy, cidx : numpy.ndarray
         The parts' vertices [m] and the part of each.
     cross_xy : numpy.ndarray
-        Crossing and touching points of pairs of parts [m].
+        Crossing and touching points of pairs of parts [m], pair by pair in the order of
+        ``(cross_i, cross_j)`` (each pair's points in GEOS's order).
+    cross_i, cross_j : numpy.ndarray of int
+        The two parts (``cross_i < cross_j``) each crossing belongs to.
     split_ci, split_pj, split_pos_m : numpy.ndarray
-        Each (candidate, other part within the tolerance) pair and the candidate's position
-        along that part [m].
+        Each (candidate, other part within the tolerance) pair, sorted by candidate then part,
+        and the candidate's position along that part [m].
     active : numpy.ndarray of bool
         Which candidates become nodes (all but inner vertices near no other part).
     pair_a, pair_b : numpy.ndarray of int
-        Pairs of active candidates closer than the tolerance (positions among the active).
+        Pairs of active candidates closer than the tolerance (positions among the active,
+        ``pair_a < pair_b``, sorted).
+
+    Every array is in an order fixed by the trenches alone (not by a spatial index's), so a
+    noding carried over from the last one by :func:`node_trenches` equals a fresh one.
     """
 
     fingerprint: str
@@ -431,6 +438,8 @@ class NodedTrenches:
     xy: np.ndarray
     cidx: np.ndarray
     cross_xy: np.ndarray
+    cross_i: np.ndarray
+    cross_j: np.ndarray
     split_ci: np.ndarray
     split_pj: np.ndarray
     split_pos_m: np.ndarray
@@ -488,8 +497,7 @@ class NodedTrenches:
     @cached_property
     def cand_xy(self) -> np.ndarray:
         """Every trench candidate's coordinates [m]."""
-        xy = self.xy
-        return np.concatenate([self.cross_xy, xy[self.first], xy[self.last], xy[self.inner]])
+        return _candidates(self, self.cross_xy)[0]
 
 
 def node_trenches(
@@ -497,8 +505,15 @@ def node_trenches(
     node_tol_m: float = 0.1,
     defaults: TrenchDefaults | None = None,
     fingerprint: str | None = None,
+    last: NodedTrenches | None = None,
 ) -> NodedTrenches:
-    """The trench-only part of :func:`build_network` (see there for the parameters)."""
+    """The trench-only part of :func:`build_network` (see there for the parameters).
+
+    ``last``, the noding of the trenches before an edit, is carried over where the edit
+    redrew some parts of the trenches and kept the others (:func:`_renode`): only what
+    involves a redrawn part is computed again. The result equals a fresh noding, array for
+    array.
+    """
     defaults = TrenchDefaults() if defaults is None else defaults
     if fingerprint is None:
         fingerprint = trench_fingerprint(trenches, node_tol_m, defaults)
@@ -511,6 +526,7 @@ def node_trenches(
     keep = (shapely.get_type_id(parts) == 1) & (shapely.length(parts) > 0)
     parts, owner = parts[keep], owner[keep]
     xy, cidx = shapely.get_coordinates(parts, return_index=True)
+    empty = np.zeros(0, dtype=np.int64)
     noded = NodedTrenches(
         fingerprint=fingerprint,
         tol_m=tol,
@@ -520,47 +536,207 @@ def node_trenches(
         xy=xy,
         cidx=cidx.astype(np.int64),
         cross_xy=np.zeros((0, 2)),
-        split_ci=np.zeros(0, dtype=np.int64),
-        split_pj=np.zeros(0, dtype=np.int64),
+        cross_i=empty,
+        cross_j=empty,
+        split_ci=empty,
+        split_pj=empty,
         split_pos_m=np.zeros(0),
         active=np.zeros(0, dtype=bool),
-        pair_a=np.zeros(0, dtype=np.int64),
-        pair_b=np.zeros(0, dtype=np.int64),
+        pair_a=empty,
+        pair_b=empty,
     )
-    parts, tree = noded.parts, noded.tree
-    first, last = noded.first, noded.last
+    done = _renode(last, noded) if last is not None else None
+    if done is None:
+        done = _node(noded)
+    # the parts, their index and vertex masks depend on xy and cidx only: keep those computed
+    done.__dict__.update({k: v for k, v in noded.__dict__.items() if k in _PART_CACHE})
+    return done
 
+
+def _node(noded: NodedTrenches) -> NodedTrenches:
+    """``noded`` (its parts only) noded afresh."""
+    parts, tree, tol = noded.parts, noded.tree, noded.tol_m
+    n_parts = len(parts)
     # candidate nodes: crossings (0), ends (1), vertices (2); which other parts each splits
     ii, jj = tree.query(parts, predicate="intersects")
-    pair = ii < jj
-    cross_xy = _crossings(parts, xy, first, last, ii[pair], jj[pair])
-    n_cross, n_parts = len(cross_xy), len(parts)
-    cand_xy = np.concatenate([cross_xy, xy[first], xy[last], xy[noded.inner]])
-    cand_part = np.concatenate(
-        [np.full(n_cross, -1), np.arange(n_parts), np.arange(n_parts), cidx[noded.inner]]
-    )
+    ii, jj = _sorted_pairs(ii[ii < jj], jj[ii < jj], n_parts)
+    cross_xy, k = _crossings(parts, noded.xy, noded.first, noded.last, ii, jj)
+    n_cross = len(cross_xy)
+    cand_xy, cand_part = _candidates(noded, cross_xy)
     cand_pts = shapely.points(cand_xy)
     ci, pj = tree.query(cand_pts, predicate="dwithin", distance=tol)
     other = cand_part[ci] != pj
-    ci, pj = ci[other], pj[other]
-    active = np.ones(len(cand_xy), dtype=bool)
-    active[n_cross + 2 * n_parts :] = False
-    active[ci] = True
+    ci, pj = _sorted_pairs(ci[other], pj[other], n_parts)
+    active = _active(len(cand_xy), n_cross + 2 * n_parts, ci)
     act = np.flatnonzero(active)
     a, b = _close_pairs(cand_pts[act], cand_xy[act], tol)
-    done = dataclasses.replace(
+    a, b = _sorted_pairs(a, b, len(act))
+    return dataclasses.replace(
         noded,
         cross_xy=cross_xy,
-        split_ci=ci.astype(np.int64),
-        split_pj=pj.astype(np.int64),
+        cross_i=ii[k],
+        cross_j=jj[k],
+        split_ci=ci,
+        split_pj=pj,
         split_pos_m=shapely.line_locate_point(parts[pj], cand_pts[ci]),
         active=active,
         pair_a=a,
         pair_b=b,
     )
-    # the parts, their index and vertex masks depend on xy and cidx only: keep those computed
-    done.__dict__.update({k: v for k, v in noded.__dict__.items() if k in _PART_CACHE})
-    return done
+
+
+def _renode(last: NodedTrenches, noded: NodedTrenches) -> NodedTrenches | None:
+    """``noded`` (its parts only) noded by carrying over ``last``, the noding before an edit
+    that kept every trench's number of parts and redrew at most :data:`REDRAWN_MAX` of them
+    (None otherwise).
+
+    A crossing of two parts not redrawn, a candidate's split of a part where neither moved,
+    and two active candidates closer than the tolerance where neither moved are kept as they
+    were (their coordinates are the same); what involves a redrawn part or a candidate that
+    moved, appeared or became active is decided again by the GEOS predicates of
+    :func:`_node`: a split queried the same way round (the candidate as the query geometry,
+    the part in the index), so a borderline distance falls alike; a crossing by
+    ``intersects``, which is exact (either way round).
+    """
+    if last.tol_m != noded.tol_m or not np.array_equal(last.owner, noded.owner):
+        return None
+    n_parts = noded.n_parts
+    if n_parts == 0:
+        return None
+    same = shapely.equals_exact(last.parts, noded.parts, tolerance=0)
+    redrawn = np.flatnonzero(~same)
+    if len(redrawn) > REDRAWN_MAX:
+        return None
+    if len(redrawn) == 0:  # the attributes or ids changed, no part: the noding is the last
+        kept = ("cross_xy", "cross_i", "cross_j", "split_ci", "split_pj", "split_pos_m",
+                "active", "pair_a", "pair_b")  # fmt: skip
+        return dataclasses.replace(noded, **{name: getattr(last, name) for name in kept})
+    parts, tree, tol, xy = noded.parts, noded.tree, noded.tol_m, noded.xy
+
+    # crossings: the kept pairs', then those of every pair with a redrawn part
+    keep_x = same[last.cross_i] & same[last.cross_j]
+    qi, qj = tree.query(parts[redrawn], predicate="intersects")
+    qi = redrawn[qi]
+    key = np.unique((np.minimum(qi, qj) * n_parts + np.maximum(qi, qj))[qi != qj])
+    ii, jj = key // n_parts, key % n_parts  # two redrawn parts find each other: once
+    new_xy, k = _crossings(parts, xy, noded.first, noded.last, ii, jj)
+    cross_i = np.r_[last.cross_i[keep_x], ii[k]]
+    cross_j = np.r_[last.cross_j[keep_x], jj[k]]
+    order = np.argsort(cross_i * n_parts + cross_j, kind="stable")  # each pair's points kept
+    cross_xy = np.concatenate([last.cross_xy[keep_x], new_xy])[order]
+    cross_i, cross_j = cross_i[order], cross_j[order]
+    n_cross, n_old = len(cross_xy), len(last.cross_xy)
+
+    # where each of the last candidates is now (-1: gone or moved)
+    now = np.full(len(last.cand_xy), -1, dtype=np.int64)
+    placed = np.empty(len(order), dtype=np.int64)
+    placed[order] = np.arange(len(order))
+    now[np.flatnonzero(keep_x)] = placed[: int(keep_x.sum())]
+    kept_parts = np.flatnonzero(same)
+    now[n_old + kept_parts] = n_cross + kept_parts
+    now[n_old + n_parts + kept_parts] = n_cross + n_parts + kept_parts
+    vertex = np.full(len(last.xy), -1, dtype=np.int64)  # last vertex -> vertex now
+    v_kept = same[last.cidx]
+    vertex[v_kept] = (noded.first[last.cidx] + np.arange(len(last.xy)) - last.first[last.cidx])[
+        v_kept
+    ]
+    inner_rank = np.cumsum(noded.inner) - 1
+    v_now = vertex[last.inner]
+    now[n_old + 2 * n_parts :] = np.where(
+        v_now >= 0, n_cross + 2 * n_parts + inner_rank[np.maximum(v_now, 0)], -1
+    )
+    cand_xy, cand_part = _candidates(noded, cross_xy)
+    moved = np.ones(len(cand_xy), dtype=bool)
+    moved[now[now >= 0]] = False
+
+    # splits: kept; those of moved candidates (any part); those of the others (redrawn parts)
+    keep_s = (now[last.split_ci] >= 0) & same[last.split_pj]
+    fresh = np.flatnonzero(moved)
+    a_ci, a_pj = tree.query(shapely.points(cand_xy[fresh]), predicate="dwithin", distance=tol)
+    a_ci = fresh[a_ci]
+    box = shapely.bounds(parts[redrawn])
+    reach = tol * (1 + 1e-6) + 1e-9
+    near = ~moved & _in_box(cand_xy, box.min(axis=0)[:2] - reach, box.max(axis=0)[2:] + reach)
+    near = np.flatnonzero(near)
+    b_ci, b_pj = shapely.STRtree(parts[redrawn]).query(
+        shapely.points(cand_xy[near]), predicate="dwithin", distance=tol
+    )
+    ci = np.r_[a_ci, near[b_ci]]
+    pj = np.r_[a_pj, redrawn[b_pj]]
+    other = cand_part[ci] != pj
+    ci, pj = ci[other], pj[other]
+    pos = shapely.line_locate_point(parts[pj], shapely.points(cand_xy[ci]))
+    ci = np.r_[now[last.split_ci[keep_s]], ci]
+    pj = np.r_[last.split_pj[keep_s], pj]
+    pos = np.r_[last.split_pos_m[keep_s], pos]
+    order = np.lexsort((pj, ci))
+    ci, pj, pos = ci[order], pj[order], pos[order]
+    active = _active(len(cand_xy), n_cross + 2 * n_parts, ci)
+
+    # close pairs of active candidates: kept where neither moved nor became active
+    act = np.flatnonzero(active)
+    at = np.full(len(cand_xy), -1, dtype=np.int64)
+    at[act] = np.arange(len(act))
+    was = np.flatnonzero(last.active)
+    a, b = now[was[last.pair_a]], now[was[last.pair_b]]
+    keep_p = (a >= 0) & (b >= 0)  # neither moved
+    a, b = at[a[keep_p]], at[b[keep_p]]
+    keep_p = (a >= 0) & (b >= 0)  # both still active
+    a, b = a[keep_p], b[keep_p]
+    new_act = active.copy()  # active now, and moved or not active before
+    new_act[now[was][now[was] >= 0]] = False
+    new_act = new_act[act]
+    if new_act.any():
+        new_xy = cand_xy[act[new_act]]
+        sub = np.flatnonzero(
+            _in_box(cand_xy[act], new_xy.min(axis=0) - reach, new_xy.max(axis=0) + reach)
+        )
+        pa, pb = _close_pairs(shapely.points(cand_xy[act[sub]]), cand_xy[act[sub]], tol)
+        touch = new_act[sub[pa]] | new_act[sub[pb]]
+        a, b = np.r_[a, sub[pa[touch]]], np.r_[b, sub[pb[touch]]]
+    a, b = _sorted_pairs(a, b, len(act))
+    return dataclasses.replace(
+        noded,
+        cross_xy=cross_xy,
+        cross_i=cross_i,
+        cross_j=cross_j,
+        split_ci=ci,
+        split_pj=pj,
+        split_pos_m=pos,
+        active=active,
+        pair_a=a,
+        pair_b=b,
+    )
+
+
+def _sorted_pairs(i: np.ndarray, j: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """The pairs ``(i, j)`` (values below ``n``) sorted by ``i`` then ``j``."""
+    n = max(n, 1)
+    key = np.sort(i.astype(np.int64) * n + j.astype(np.int64))
+    return key // n, key % n
+
+
+def _candidates(noded: NodedTrenches, cross_xy: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The trench candidates of ``noded``'s parts with the crossings ``cross_xy``: their
+    coordinates [m] and the part each lies on (-1 for a crossing)."""
+    xy, n = noded.xy, noded.n_parts
+    cand_xy = np.concatenate([cross_xy, xy[noded.first], xy[noded.last], xy[noded.inner]])
+    part = [np.full(len(cross_xy), -1), np.arange(n), np.arange(n), noded.cidx[noded.inner]]
+    return cand_xy, np.concatenate(part)
+
+
+def _active(n_cand: int, n_always: int, split_ci: np.ndarray) -> np.ndarray:
+    """Which candidates become nodes: the first ``n_always`` (crossings and ends) and every
+    inner vertex that splits another part."""
+    active = np.zeros(n_cand, dtype=bool)
+    active[:n_always] = True
+    active[split_ci] = True
+    return active
+
+
+def _in_box(xy: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Which points lie in the box from ``lo`` to ``hi`` (edges included)."""
+    return (xy[:, 0] >= lo[0]) & (xy[:, 1] >= lo[1]) & (xy[:, 0] <= hi[0]) & (xy[:, 1] <= hi[1])
 
 
 #: cached properties of NodedTrenches that depend on its vertices alone
@@ -694,7 +870,8 @@ def build_network(
     if memo is not None and memo.noded.fingerprint == fingerprint:
         noded = memo.noded
     else:
-        noded = node_trenches(trenches, node_tol_m, defaults, fingerprint)
+        last = memo.noded if memo is not None else None
+        noded = node_trenches(trenches, node_tol_m, defaults, fingerprint, last)
         memo = memo.redrawn(noded) if memo is not None else None
     tol = noded.tol_m
     xy, owner, trench_ids = noded.xy, noded.owner, noded.trench_ids
@@ -1050,8 +1227,9 @@ def _crossings(
     last: np.ndarray,
     ii: np.ndarray,
     jj: np.ndarray,
-) -> np.ndarray:
-    """Coordinates of the intersections of the part pairs ``(ii, jj)``, pair by pair.
+) -> tuple[np.ndarray, np.ndarray]:
+    """Coordinates of the intersections of the part pairs ``(ii, jj)``, pair by pair, and the
+    pair (its position in ``ii``, ``jj``) of each.
 
     Two straight parts (two vertices each) that share exactly one end and are not parallel
     meet only at that end: its coordinates are taken as they are, without computing the
@@ -1072,7 +1250,7 @@ def _crossings(
     end = np.where((s00 | s01)[:, None], a0, a1)
     which = np.concatenate([np.flatnonzero(fast), slow[k]])
     order = np.argsort(which, kind="stable")  # pair by pair, each pair's points in order
-    return np.concatenate([end[fast], slow_xy])[order].reshape(-1, 2)
+    return np.concatenate([end[fast], slow_xy])[order].reshape(-1, 2), which[order]
 
 
 def _close_pairs(points: np.ndarray, xy: np.ndarray, tol: float) -> tuple[np.ndarray, np.ndarray]:

@@ -7,11 +7,13 @@ implementation), "networkx" (graph algorithms).
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import geopandas as gpd
 import networkx as nx
 import numpy as np
+import pandas as pd
 import pyproj
 import pytest
 import shapely
@@ -19,12 +21,16 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
+from routeplan import network
 from routeplan.errors import ParameterError
 from routeplan.network import (
+    REDRAWN_MAX,
+    NodedTrenches,
     TrenchDefaults,
     build_network,
     check_metric_crs,
     far_problems,
+    node_trenches,
     segment_ids,
 )
 
@@ -519,6 +525,101 @@ def test_a_redrawn_trench_takes_over_the_features_now_nearer_it():
     # parts in another number: nothing carried
     split = [geoms[0], shapely.MultiLineString([[(0, 20), (40, 20)], [(60, 20), (100, 20)]])]
     assert last.memo.redrawn(build(split, items).memo.noded) is None
+
+
+def assert_same_noding(a: NodedTrenches, b: NodedTrenches) -> None:
+    """Two nodings are the same, field by field and value for value (order included)."""
+    for field in dataclasses.fields(NodedTrenches):
+        x, y = getattr(a, field.name), getattr(b, field.name)
+        if isinstance(x, pd.DataFrame):
+            pd.testing.assert_frame_equal(x, y)
+        elif isinstance(x, np.ndarray):
+            assert x.dtype == y.dtype, field.name
+            np.testing.assert_array_equal(x, y, err_msg=field.name)
+        else:
+            assert x == y, field.name
+
+
+def _redraw(geom, how: str, dx: float, dy: float):
+    """One trench redrawn: moved, reversed, a vertex added on it, or bent."""
+    if how == "move":
+        return shapely.affinity.translate(geom, dx, dy)
+    if how == "reverse":
+        return shapely.reverse(geom)
+    coords = shapely.get_coordinates(geom)
+    mid = (coords[0] + coords[1]) / 2
+    if how == "bend":
+        mid = mid + np.array([dx, dy])
+    return shapely.LineString([coords[0], mid, *coords[1:]])
+
+
+@st.composite
+def redrawn_trenches(draw):
+    """Lattice trenches (one of them, at times, in two parts), and the same trenches with one
+    to three redrawn: moved by a hair, by less than, exactly or more than the tolerance, onto
+    another lattice line (where trenches overlap, cross and touch), reversed, given a vertex
+    or bent."""
+    geoms = draw(grid_trenches())
+    if len(geoms) > 2 and draw(st.booleans()):
+        geoms = [shapely.MultiLineString([geoms[0], geoms[1]]), *geoms[2:]]
+    after = list(geoms)
+    for k in draw(st.lists(st.integers(0, len(geoms) - 1), min_size=1, max_size=3)):
+        how = draw(st.sampled_from(["move", "move", "reverse", "vertex", "bend"]))
+        dx, dy = draw(
+            st.sampled_from(
+                [(0.0, 1e-7), (0.05, 0.0), (0.1, 0.0), (0.0, -0.1), (0.15, 0.1), (3.0, 0.0),
+                 (0.0, 10.0), (-10.0, 0.0), (10.0, -10.0), (5.0, 5.0)]
+            )
+        )  # fmt: skip
+        if how in ("vertex", "bend") and isinstance(after[k], shapely.MultiLineString):
+            how = "move"
+        after[k] = _redraw(after[k], how, dx, dy)
+    return geoms, after
+
+
+@settings(max_examples=150, deadline=None)
+@given(redrawn_trenches(), equipment_near())
+def test_a_noding_carried_over_a_redraw_equals_a_fresh_one(pair, items):
+    # hand: the carried noding only skips work; it must be the fresh noding, array for array
+    before, after = pair
+    last = node_trenches(trenches(*before))
+    fresh = node_trenches(trenches(*after))
+    carried = network._renode(last, fresh)  # the redraw keeps every trench's parts' number
+    assert carried is not None
+    assert_same_noding(carried, fresh)
+    assert_same_noding(node_trenches(trenches(*after), last=last), fresh)
+    # and the network built with the last build's memo is the cold build's
+    memo = build(before, items).memo
+    assert_same_network(build(after, items, memo), build(after, items))
+
+
+def test_a_noding_is_carried_over_only_for_parts_alike():
+    """Hand: T2 crosses T1 at (50, 0); moved 60 m east it crosses nothing. Carried over: the
+    crossing goes; with the parts of a trench in another number, or more than REDRAWN_MAX
+    parts redrawn, nothing is carried (a fresh noding is made)."""
+    before = [line((0, 0), (100, 0)), line((50, -10), (50, 10))]
+    last = node_trenches(trenches(*before))
+    assert last.cross_xy.tolist() == [[50.0, 0.0]]
+    assert (last.cross_i.tolist(), last.cross_j.tolist()) == ([0], [1])
+    # no part redrawn, an attribute changed: the last noding, the new attributes
+    deeper = node_trenches(trenches(*before, depth_m=[1.2, 1.2]))
+    assert_same_noding(network._renode(last, deeper), deeper)
+    after = [before[0], line((110, -10), (110, 10))]
+    carried = network._renode(last, node_trenches(trenches(*after)))
+    assert len(carried.cross_xy) == 0 and len(carried.split_ci) == 0
+    assert_same_noding(carried, node_trenches(trenches(*after)))
+    # back: the crossing and T2's split of T1 (its centre, 50 m along T1) come back
+    back = network._renode(carried, last)
+    assert_same_noding(back, last)
+    assert back.split_pos_m.tolist() == [50.0, 10.0]  # along T1, then along T2
+    split = [shapely.MultiLineString([[(0, 0), (40, 0)], [(60, 0), (100, 0)]]), before[1]]
+    assert network._renode(last, node_trenches(trenches(*split))) is None
+    many = [line((0, y), (100, y)) for y in range(REDRAWN_MAX + 1)]
+    last = node_trenches(trenches(*many))
+    moved = node_trenches(trenches(*[shapely.affinity.translate(g, 0, 0.5) for g in many]))
+    assert network._renode(last, moved) is None
+    one = node_trenches(trenches(*many[:-1], line((0, 0), (1, 0))))
+    assert network._renode(last, one) is not None
 
 
 def test_the_memo_takes_a_features_nearest_part_only_for_the_same_geometry():

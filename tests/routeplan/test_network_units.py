@@ -284,8 +284,9 @@ def test_segments_of_a_small_network(small):
     }
     assert {tuple(p) for p in net.node_xy.round(9).tolist()} == expected
     assert net.n_nodes == 9
-    # nodes numbered by first candidate: crossings first, then the parts' first ends
-    assert_allclose(net.node_xy[0], [60, 0])
+    # nodes numbered by first candidate: crossings first, pair by pair (T1-T2 touch at
+    # (40, 0), T1-T3 cross at (60, 0)), then the parts' first ends (T1's (0, 0))
+    assert_allclose(net.node_xy[:3], [[40, 0], [60, 0], [0, 0]])
 
 
 def test_taps_of_a_small_network(small):
@@ -353,7 +354,8 @@ def test_graph_distances_match_networkx(small):
     with pytest.raises(ValueError, match=r"^a node pair is not joined by any segment$"):
         net.segment_between(np.array([far]), np.array([far + 100]))  # beyond the last key
     # hand: (60, 0)–(100, 0) is T1's fourth segment, either way round
-    assert net.segment_between(np.array([0, far]), np.array([far, 0])).tolist() == [3, 3]
+    cross = int(np.flatnonzero((net.node_xy == [60.0, 0.0]).all(axis=1))[0])
+    assert net.segment_between(np.array([cross, far]), np.array([far, cross])).tolist() == [3, 3]
     assert net.segment_between(np.zeros(0, np.int64), np.zeros(0, np.int64)).tolist() == []
 
 
