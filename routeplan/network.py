@@ -341,7 +341,10 @@ def _fill(trenches: gpd.GeoDataFrame, defaults: TrenchDefaults) -> pd.DataFrame:
             col = pd.Series([default] * len(trenches), index=trenches.index)
         elif name == "laying":
             col = trenches[name].astype(object).where(trenches[name].notna(), default)
-            col = col.map(lambda v: v.strip().lower() if isinstance(v, str) else v)
+            # each distinct text once (a layer holds a few), then the column by lookup
+            values = col.to_numpy(dtype=object).tolist()
+            texts = {v: v.strip().lower() for v in set(filter(_is_str, values))}
+            col = pd.Series([texts[v] if _is_str(v) else v for v in values], dtype=object)
         else:
             col = pd.to_numeric(trenches[name], errors="coerce").astype(float).fillna(default)
         out[name] = col.to_numpy()
@@ -356,6 +359,10 @@ def _fill(trenches: gpd.GeoDataFrame, defaults: TrenchDefaults) -> pd.DataFrame:
     out[a] = np.where(given[b] & ~given[a], np.nan, out[a].astype(float))
     out[b] = np.where(given[a] & ~given[b], np.nan, out[b].astype(float))
     return pd.DataFrame(out)
+
+
+def _is_str(value: object) -> bool:
+    return isinstance(value, str)
 
 
 def _first_per(group: np.ndarray, n: int) -> np.ndarray:
