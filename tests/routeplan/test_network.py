@@ -622,6 +622,25 @@ def test_a_noding_is_carried_over_only_for_parts_alike():
     assert network._renode(last, one) is not None
 
 
+def test_a_vertex_near_its_own_end_that_a_redraw_makes_a_node():
+    """Hand: T1's inner vertex (10, 0) lies 0.05 m from its own last end (10, 0.05), within
+    the 0.1 m tolerance, but splits no other part: no node. T2 redrawn 0.08 m beside both
+    makes the vertex a node, which joins that end (a close pair of two candidates neither of
+    which moved); T2 redrawn away again undoes it."""
+    t1 = line((0, 0), (10, 0), (10, 0.05))
+    far, near = line((50, -5), (50, 5)), line((10.08, -5), (10.08, 5))
+    apart = node_trenches(trenches(t1, far))
+    beside = node_trenches(trenches(t1, near))
+    vertex = len(beside.cross_xy) + 2 * beside.n_parts  # the first inner vertex: T1's
+    assert not apart.active[vertex] and beside.active[vertex]
+    act = np.flatnonzero(beside.active).tolist()
+    end = len(beside.cross_xy) + beside.n_parts  # T1's last end
+    pairs = list(zip(beside.pair_a.tolist(), beside.pair_b.tolist(), strict=True))
+    assert (act.index(end), act.index(vertex)) in pairs
+    assert_same_noding(network._renode(apart, beside), beside)
+    assert_same_noding(network._renode(beside, apart), apart)
+
+
 def test_the_memo_takes_a_features_nearest_part_only_for_the_same_geometry():
     geoms = [line((0, 0), (100, 0)), line((0, 20), (100, 20))]
     last = build(geoms, [("inverters", "P1", pt(50, 4)), ("combiners", "C1", pt(10, 1))])
