@@ -556,6 +556,7 @@ def node_trenches(
     if done is None:
         done = _node(noded)
     # the parts, their index and vertex masks depend on xy and cidx only: keep those computed
+    # (and the parts redrawn since ``last``, which the build asks for again)
     done.__dict__.update({k: v for k, v in noded.__dict__.items() if k in _PART_CACHE})
     return done
 
@@ -605,15 +606,12 @@ def _renode(last: NodedTrenches, noded: NodedTrenches) -> NodedTrenches | None:
     the part in the index), so a borderline distance falls alike; a crossing by
     ``intersects``, which is exact (either way round).
     """
-    if last.tol_m != noded.tol_m or not np.array_equal(last.owner, noded.owner):
-        return None
     n_parts = noded.n_parts
-    if n_parts == 0:
+    redrawn = _redrawn_parts(last, noded) if n_parts else None
+    if redrawn is None or len(redrawn) > REDRAWN_MAX:
         return None
-    same = shapely.equals_exact(last.parts, noded.parts, tolerance=0)
-    redrawn = np.flatnonzero(~same)
-    if len(redrawn) > REDRAWN_MAX:
-        return None
+    same = np.ones(n_parts, dtype=bool)
+    same[redrawn] = False
     if len(redrawn) == 0:  # the attributes or ids changed, no part: the noding is the last
         kept = ("cross_xy", "cross_i", "cross_j", "split_ci", "split_pj", "split_pos_m",
                 "active", "pair_a", "pair_b")  # fmt: skip
@@ -747,11 +745,29 @@ def _in_box(xy: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
 
 
 #: cached properties of NodedTrenches that depend on its vertices alone
-_PART_CACHE = frozenset({"n_parts", "parts", "tree", "first", "last", "inner", "_chainage"})
+_PART_CACHE = frozenset(
+    {"n_parts", "parts", "tree", "first", "last", "inner", "_chainage", "_redrawn_since"}
+)
+
+
+def _redrawn_parts(old: NodedTrenches, new: NodedTrenches) -> np.ndarray | None:
+    """The parts of ``new`` that differ from ``old``'s (exact coordinates, sorted), where both
+    have as many parts per trench at the same tolerance; None otherwise. Remembered on ``new``
+    for ``old``'s fingerprint (which fixes ``old``'s parts): a build asks twice, to carry the
+    noding over (:func:`_renode`) and the nearest parts (:meth:`NetworkMemo.redrawn`)."""
+    known = new.__dict__.get("_redrawn_since")
+    if known is not None and known[0] == old.fingerprint:
+        return known[1]
+    redrawn = None
+    if old.tol_m == new.tol_m and np.array_equal(old.owner, new.owner):
+        redrawn = np.flatnonzero(~shapely.equals_exact(old.parts, new.parts, tolerance=0))
+    new.__dict__["_redrawn_since"] = (old.fingerprint, redrawn)
+    return redrawn
 
 
 #: most redrawn trench parts :meth:`NetworkMemo.redrawn` checks the equipment against (one
-#: distance per feature and part); beyond, every feature is searched again
+#: distance per feature and part; beyond, every feature is searched again) and
+#: :func:`_renode` carries a noding over (beyond, the trenches are noded afresh)
 REDRAWN_MAX = 64
 
 
@@ -789,11 +805,8 @@ class NetworkMemo:
         feature keeps its nearest part where that part is not one redrawn and every redrawn
         part is farther (or as far and later: ties go to the lowest part). None where the
         parts differ otherwise, or more than :data:`REDRAWN_MAX` of them are redrawn."""
-        old = self.noded
-        if not np.array_equal(old.owner, noded.owner) or old.tol_m != noded.tol_m:
-            return None
-        redrawn = np.flatnonzero(~shapely.equals_exact(old.parts, noded.parts, tolerance=0))
-        if len(redrawn) > REDRAWN_MAX:
+        redrawn = _redrawn_parts(self.noded, noded)
+        if redrawn is None or len(redrawn) > REDRAWN_MAX:
             return None
         part = self.equipment["part"].to_numpy(np.int64)
         dist = self.equipment["distance_m"].to_numpy(float)

@@ -608,6 +608,12 @@ def test_a_noding_is_carried_over_only_for_parts_alike():
     carried = network._renode(last, node_trenches(trenches(*after)))
     assert len(carried.cross_xy) == 0 and len(carried.split_ci) == 0
     assert_same_noding(carried, node_trenches(trenches(*after)))
+    # the parts redrawn, asked of one noding against two others (each answer its own):
+    # T2 (part 1) against the first, none against itself
+    now = node_trenches(trenches(*after))
+    assert network._redrawn_parts(last, now).tolist() == [1]
+    assert network._redrawn_parts(carried, now).tolist() == []
+    assert network._redrawn_parts(last, now).tolist() == [1]
     # back: the crossing and T2's split of T1 (its centre, 50 m along T1) come back
     back = network._renode(carried, last)
     assert_same_noding(back, last)
