@@ -11,10 +11,11 @@ Not part of the test suite. It generates a plant with :func:`routeplan.synth.gen
   against a full plan of the same site (``plan_site(..., with_remedies=False)``);
 * **placement**: ``routeplan place``'s search (:func:`routeplan.placement.search`) for one
   inverter of the plant, the radius the smallest that gives at least ``--candidates``
-  positions every 5 m: the current position planned in full, each other a local re-plan, the
-  best planned again with its remedies.
+  positions every 5 m: the current position planned in full, each other a local re-plan (spread
+  over the cores in forked processes), the best planned again with its remedies.
 
-Each figure is given as wall-clock and as CPU seconds of this process: on a shared machine
+Each figure is given as wall-clock and as CPU seconds (of this process, and for the search of
+its forked children too): on a shared machine
 the CPU seconds are what the work costs, the wall-clock what it took there. Every plant is
 invented; the numbers are timings of a design aid.
 """
@@ -24,14 +25,13 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import resource
 import shutil
 import sys
 import tempfile
 import time
 import types
 from pathlib import Path
-
-import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
 if str(ROOT) not in sys.path:  # run from a clone without installing
@@ -90,9 +90,23 @@ def pad_move(site_dir: Path) -> dict:
     }
 
 
+def _cpu_with_children() -> float:
+    """CPU seconds of this process and of its reaped children (the search's forked ones)."""
+    me = resource.getrusage(resource.RUSAGE_SELF)
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return me.ru_utime + me.ru_stime + kids.ru_utime + kids.ru_stime
+
+
 def placement(site_dir: Path, candidates: int) -> dict:
-    """One inverter's placement search with at least ``candidates`` positions."""
+    """One inverter's placement search with at least ``candidates`` positions: the whole
+    search, and within it the two full plans (the current position's, first, with the local
+    re-plans' baseline made from it; the best position's with its remedies, last) timed
+    apart from the candidates' local re-plans between them, which run spread over the cores
+    (:func:`routeplan.parallel.spread`; CPU seconds here include the forked children's)."""
+    import routeplan.placement as pm
+    from routeplan import parallel
     from routeplan.check import load
+    from routeplan.localplan import MoveSearch
     from routeplan.placement import _anchor, candidate_points, search
 
     site, design = load(site_dir)
@@ -102,26 +116,50 @@ def placement(site_dir: Path, candidates: int) -> dict:
     radius = 20.0
     while len(candidate_points(site.trenches, (a.x, a.y), radius, 5.0)[0]) + 1 < candidates:
         radius += 2.0
-    ticks: list[tuple[float, float]] = []
-    t = _clock()
-    table, _ = search(
-        site, design, "inverter", inv, radius, 5.0, lambda i, n: ticks.append(_clock())
-    )
-    ticks.append(_clock())
-    total = _since(t)
-    w = np.diff([x[0] for x in ticks])
-    c = np.diff([x[1] for x in ticks])
-    lw, lc = w[1:-1], c[1:-1]  # the local candidates
+    full_plans: list[tuple[float, float]] = []
+    setups: list[tuple[float, float]] = []
+    best: list[tuple[float, float]] = []
+
+    def timed(f, into):
+        def call(*args, **kwargs):
+            t0 = time.perf_counter(), _cpu_with_children()
+            try:
+                return f(*args, **kwargs)
+            finally:
+                into.append((time.perf_counter() - t0[0], _cpu_with_children() - t0[1]))
+
+        return call
+
+    plan_site, init, plan = pm.plan_site, MoveSearch.__init__, MoveSearch.plan
+    pm.plan_site = timed(plan_site, full_plans)
+    MoveSearch.__init__, MoveSearch.plan = timed(init, setups), timed(plan, best)
+    try:
+        t = time.perf_counter(), _cpu_with_children()
+        table, _ = search(site, design, "inverter", inv, radius, 5.0)
+        total = {"wall_s": time.perf_counter() - t[0], "cpu_s": _cpu_with_children() - t[1]}
+    finally:
+        pm.plan_site, MoveSearch.__init__, MoveSearch.plan = plan_site, init, plan
+    # the current position's plan and the baseline made from it; the best position's plan
+    # (a local re-plan of that baseline, or where there is none a full plan)
+    (cw, cc), (bw, bc) = full_plans[0], (best or full_plans[1:])[-1]
+    cw, cc = cw + setups[0][0], cc + setups[0][1]
+    local = len(table) - 1
+    lw = total["wall_s"] - cw - bw
+    lc = total["cpu_s"] - cc - bc
     return {
         "inverter": inv,
         "radius_m": radius,
         "positions": len(table),
+        "cores": parallel.cores(),
         "search": total,
-        "current_plan_and_setup": {"wall_s": float(w[0]), "cpu_s": float(c[0])},
-        "local_candidates": len(w) - 2,
-        "local_candidates_total": {"wall_s": float(lw.sum()), "cpu_s": float(lc.sum())},
-        "local_candidate_median": {"wall_s": float(np.median(lw)), "cpu_s": float(np.median(lc))},
-        "best_plan_with_remedies": {"wall_s": float(w[-1]), "cpu_s": float(c[-1])},
+        "current_plan_and_setup": {"wall_s": cw, "cpu_s": cc},
+        "local_candidates": local,
+        "local_candidates_total": {"wall_s": lw, "cpu_s": lc},
+        "local_candidate_mean": {"wall_s": lw / local, "cpu_s": lc / local},
+        "best_plan_with_remedies": {"wall_s": bw, "cpu_s": bc},
+        # the forked children's peak resident memory (pages shared with this process counted)
+        "largest_child_gib": resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 2**20,
+        "this_process_gib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20,
     }
 
 

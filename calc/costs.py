@@ -39,19 +39,38 @@ def density_kg_m3(material: ArrayLike) -> np.ndarray:
 
 
 def conductor_mass_kg(
-    size_mm2: ArrayLike, conductor_m: ArrayLike, material: ArrayLike
+    size_mm2: ArrayLike,
+    conductor_m: ArrayLike,
+    material: ArrayLike,
+    materials: ArrayLike | None = None,
 ) -> np.ndarray:
     """Mass [kg] of conductors of nominal cross-section ``size_mm2`` [mm²] and total conductor
-    length ``conductor_m`` [m] (cable length × conductors), per element.
+    length ``conductor_m`` [m] (cable length × conductors), per element. ``material``: each
+    element's material name, or, with ``materials`` (the names), its index into
+    ``materials`` (codes, as a categorical column has them: each name looked up once).
 
     >>> conductor_mass_kg([240.0], [1000.0], ["Al"]).round(1).tolist()
     [648.7]
+    >>> conductor_mass_kg([240.0, 10.0], [1000.0, 1000.0], [1, 0], ["Cu", "Al"]).round(1).tolist()
+    [648.7, 88.9]
     """
     s = np.asarray(size_mm2, dtype=float)
     length = np.asarray(conductor_m, dtype=float)
     if np.any(s < 0) or np.any(length < 0):
         raise InputError("conductor size and length must be ≥ 0")
-    return s * 1e-6 * length * density_kg_m3(material)
+    if materials is None:
+        density = density_kg_m3(material)
+    else:
+        names = np.asarray(materials, dtype=str)
+        codes = np.asarray(material)
+        if codes.size and (
+            not np.issubdtype(codes.dtype, np.integer)
+            or codes.min() < 0
+            or codes.max() >= names.size
+        ):
+            raise InputError(f"material codes must index the {names.size} materials given")
+        density = density_kg_m3(names)[codes]
+    return s * 1e-6 * length * density
 
 
 def annuity_factor(rate_pct: float, years: float) -> float:

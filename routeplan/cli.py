@@ -445,7 +445,8 @@ def place(
     force: ForceOption = False,
 ) -> None:
     """Rank candidate positions of one inverter pad or combiner along the trenches: each is
-    planned in full and ranked by conductor cost and capitalised losses (\\[costs] in site.toml;
+    planned (the whole plant, every limit checked; the candidates shared among the cores) and
+    ranked by conductor cost and capitalised losses (\\[costs] in site.toml;
     without prices, by conductor mass), feasible positions first. Writes placement.csv,
     placement.gpkg, the map placement.html and the best position's plan. Exit 0 when the
     best position meets every limit, 1 when none does, 2 on bad input or an unusable output

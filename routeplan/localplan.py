@@ -87,6 +87,7 @@ reviewed by a qualified, licensed person.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import re
 import time
 from collections.abc import Callable
@@ -119,9 +120,9 @@ from .order import inverter_of, schedule_order, spliced_order
 from .pipeline import (
     Plan,
     RemedyJob,
-    assigned_destinations,
     conductor_poles,
     design_params,
+    destinations_chosen,
     governing_ids,
     input_groups,
     plan_site,
@@ -182,6 +183,12 @@ class Baseline:
     #: the schedule's columns a move does not change (:class:`Figures`; None: a baseline
     #: rebuilt from a cache, without the last plan's tables, :func:`from_cache`)
     figure_static: pd.DataFrame | None
+
+    @functools.cached_property
+    def material_codes(self) -> tuple[np.ndarray, pd.Index]:
+        """The baseline's conductor materials (routes order) as codes into sorted names."""
+        cat = pd.Categorical(np.asarray(self.plan.sizing.material, dtype=object))
+        return np.asarray(cat.codes), cat.categories
 
 
 def baseline(site: Site, design: DesignConfig, plan: Plan | None = None, memo=None) -> Baseline:
@@ -622,7 +629,7 @@ def _local(
     if np.any(island[node[base.tap_from]] != island[node[base.tap_to]]):
         return None  # a circuit's ends on separate islands: the full plan reports it
     assignment = r0.assignment
-    if assigned_destinations(r0):  # destinations chosen by route length: chosen again
+    if destinations_chosen(r0):  # destinations chosen by route length: chosen again
         assignment = _reassigned(site, net, r0.assignment)
         if assignment is None:
             return None  # a feature's destination changed: other circuits, a full plan
@@ -796,7 +803,7 @@ def _local(
     t["local.circuits"] = float(len(sub))
     t1 = time.perf_counter()
     if light:
-        out = _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site)
+        out = _figures(base, result, sub, inp, cable_m, count, seg, own_input, input_rows, site)
         t["tables"] = time.perf_counter() - t1
         t["local"] = 1.0
         return dataclasses.replace(out, timings_s=t)
@@ -1315,8 +1322,9 @@ def _air(
     return air, c, k
 
 
-def _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site) -> Figures:
-    """:class:`Figures` from the spliced sizing (the schedule's order and columns)."""
+def _figures(base, result, sub, inp, cable_m, count, seg, own_input, input_rows, site) -> Figures:
+    """:class:`Figures` from the spliced sizing (the schedule's order and columns); ``sub``:
+    the circuits sized again (routes order; the others keep the baseline's sizing)."""
     old = base.plan
     o = base.order
     parallel = np.asarray(result.parallel)
@@ -1324,7 +1332,7 @@ def _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site
     circuits = base.figure_static.copy(deep=False)
     idx = circuits.index
     for name, values in (
-        ("material", pd.Categorical(np.asarray(result.material, dtype=object)[o])),
+        ("material", _materials(base, result.material, sub)[o]),
         ("size_mm2", np.asarray(result.size_mm2)[o]),
         ("parallel", parallel[o]),
         ("cable_m", cable_m[o]),
@@ -1366,6 +1374,19 @@ def _figures(base, result, inp, cable_m, count, seg, own_input, input_rows, site
 
 #: calc's notes name a circuit by its position in the sizing input (the subset's, here)
 _FEEDER = re.compile(r"\(feeder circuit (\d+)\)")
+
+
+def _materials(base: Baseline, material: np.ndarray, sub: np.ndarray) -> pd.Categorical:
+    """Each circuit's conductor material (routes order) as a categorical: the baseline's
+    codes with those of the circuits in ``sub`` (sized again) looked up, not the plant's
+    texts hashed again; the texts hashed where ``sub`` holds a material the baseline does not."""
+    codes, names = base.material_codes
+    at = names.get_indexer(np.asarray(material)[sub].astype(object))
+    if np.any(at < 0):
+        return pd.Categorical(np.asarray(material, dtype=object))
+    codes = codes.copy()
+    codes[sub] = at
+    return pd.Categorical.from_codes(codes, dtype=pd.CategoricalDtype(names))
 
 
 def _global_notes(notes: np.ndarray, sub: np.ndarray) -> np.ndarray:
@@ -1681,12 +1702,30 @@ class MoveSearch:
 
     The network without the feature is built once (the feature set beyond reach of every
     trench); each position then joins it by :func:`routeplan.network.retap` where it can (a
-    node of its own), else the network is built with the memo."""
+    node of its own), else the network is built with the memo. ``remedies``: the baseline's
+    remedies are computed now, in a child process (:class:`routeplan.pipeline.RemedyJob`),
+    while the caller goes on: :meth:`plan` then re-sizes their what-ifs locally, as a
+    re-plan after an edit re-sizes the last run's (:meth:`cancel` stops the child where no
+    plan is asked for)."""
 
     def __init__(
-        self, site: Site, design: DesignConfig, layer: str, row: int, plan: Plan | None = None
+        self,
+        site: Site,
+        design: DesignConfig,
+        layer: str,
+        row: int,
+        plan: Plan | None = None,
+        remedies: bool = False,
     ) -> None:
         self.base = baseline(site, design, plan)
+        self.remedies: RemedyJob | None = None
+        if remedies:
+            old, rules = self.base.plan, design.values["rules"]
+            governing = governing_ids(old.routes, old.sizing)
+            self.remedies = RemedyJob(
+                old.routes, self.base.inp, self.base.dp, rules, old.sizing, governing,
+                WhatIfs(rules),
+            )  # fmt: skip
         self.layer, self.row = layer, row
         net = self.base.plan.routes.network
         feature_id = str(site.layer(layer)["id"].iloc[row])
@@ -1702,9 +1741,37 @@ class MoveSearch:
 
     def figures(self, site: Site) -> Figures | Plan:
         """:func:`figures` of ``site`` (the feature moved, nothing else)."""
-        geom = site.layer(self.layer).geometry.iloc[self.row]
-        net = retap(self.minus, self.tap, geom)
-        return figures(self.base, site, network=net)
+        return figures(self.base, site, network=self._network(site))
+
+    def plan(self, site: Site) -> Plan:
+        """The whole plan of ``site`` (the feature moved, nothing else), its tables and
+        remedies included, as :func:`routeplan.pipeline.plan_site` gives it: a local re-plan
+        (each remedy's what-if re-sized from the baseline's where they were computed, else
+        sized whole), or where one does not apply the full plan."""
+        design = self.base.plan.design
+        before = None
+        if self.remedies is not None:
+            self.remedies()  # the child's remedies and what-ifs (computed here if it failed)
+            before = self.remedies.whatifs.kept
+        whatifs = WhatIfs(design.values["rules"])
+        t0 = time.perf_counter()
+        net = self._network(site)
+        out = _local(
+            self.base, site, design, t0, network=net, light=False, whatifs=whatifs,
+            whatifs_before=before,
+        )  # fmt: skip
+        if out is None:
+            out = plan_site(site, design, noding_memo=self.base.plan.routes.network.memo)
+        return out
+
+    def cancel(self) -> None:
+        """Stop the remedies' child, if any, where its what-ifs were not taken."""
+        if self.remedies is not None:
+            self.remedies.cancel()
+
+    def _network(self, site: Site) -> TrenchNetwork:
+        """The network with the feature joined where ``site`` has it."""
+        return retap(self.minus, self.tap, site.layer(self.layer).geometry.iloc[self.row])
 
 
 def _with_anchor(site: Site, layer: str, row: int, xy: tuple[float, float]) -> Site:

@@ -1164,9 +1164,18 @@ def retap(network: TrenchNetwork, row: int, geometry: shapely.Geometry) -> Trenc
         "seg_b": np.r_[seg_b[:s], pos, seg_b[s], seg_b[s + 1 :]],
         "tap_xy": tap_all,
     }
-    return dataclasses.replace(
+    out = dataclasses.replace(
         network, node_xy=node_xy, segments=segments, taps=taps, build=build, memo=memo
     )
+    # the islands: the new node joins the split segment's; labelled, as
+    # scipy.sparse.csgraph.connected_components labels them, in the order of each island's
+    # lowest node (not searched again: a placement search retaps once per candidate)
+    island = np.insert(network.node_island, k, network.node_island[u_old])
+    _, first = np.unique(island, return_index=True)
+    label = np.empty(len(first), dtype=np.int64)
+    label[np.argsort(first)] = np.arange(len(first))
+    out.__dict__["node_island"] = label[island]
+    return out
 
 
 def _tap_pairs(

@@ -242,3 +242,48 @@ def compute(work: Callable[[], Any]) -> Pending:
     os.close(write_fd)
     pending.pid, pending.fd = pid, read_fd
     return pending
+
+
+def cores() -> int:
+    """The cores this process may run on (its CPU affinity where the system tells it)."""
+    if hasattr(os, "sched_getaffinity"):
+        return max(1, len(os.sched_getaffinity(0)))
+    return max(1, os.cpu_count() or 1)
+
+
+def spread(
+    work: Callable[[Any], Any],
+    items: list,
+    workers: int | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> list:
+    """``[work(x) for x in items]``, the items dealt in turn to ``workers`` processes (this
+    one and forked children: :func:`compute`; default :func:`cores`), so that items of
+    unequal cost in a row spread evenly. The values come back in the items' order. Each
+    ``work(x)`` must not depend on another's side effects (a child's stay in the child).
+    ``progress(k, n)``: called here before this process's items, ``k`` the item's position
+    in ``items`` (the children, working alongside, are about as far). A child that fails has
+    its items computed here again (:meth:`Pending.result`), so that its exception is raised
+    here; if this process's own items raise, the children are stopped."""
+    n = len(items)
+    k = max(1, min(workers if workers is not None else cores(), n))
+
+    def share(w: int) -> list:
+        return [work(items[j]) for j in range(w, n, k)]
+
+    pending = [compute(lambda w=w: share(w)) for w in range(1, k)]
+    try:
+        own = []
+        for j in range(0, n, k):
+            if progress:
+                progress(j, n)
+            own.append(work(items[j]))
+        shares = [own] + [p.result() for p in pending]
+    except BaseException:
+        for p in pending:
+            p.cancel()
+        raise
+    out: list = [None] * n
+    for w, values in enumerate(shares):
+        out[w::k] = values
+    return out

@@ -859,12 +859,24 @@ def quantity_table(
     )
 
 
+def _chosen(routes: RoutePlan) -> pd.Series | None:
+    """Which rows of the routes' destination assignment the planner chose (not ``given``)."""
+    a = routes.assignment
+    return None if a is None or a.empty else a["rule"] != "given"
+
+
+def destinations_chosen(routes: RoutePlan) -> bool:
+    """Whether the planner filled any feature's empty ``to`` (:func:`assigned_destinations`)."""
+    chosen = _chosen(routes)
+    return chosen is not None and bool(chosen.any())
+
+
 def assigned_destinations(routes: RoutePlan) -> list[dict[str, Any]]:
     """Features whose empty ``to`` the planner filled, with the rule and the route length."""
-    a = routes.assignment
-    if a is None or a.empty:
+    chosen = _chosen(routes)
+    if chosen is None:
         return []
-    a = a[a["rule"] != "given"]
+    a = routes.assignment[chosen]
     return [
         {
             "layer": r.layer,

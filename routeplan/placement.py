@@ -7,8 +7,7 @@
    current position. The feature is moved there (a pad polygon by its centroid) and joins the
    network as the site's rules join any equipment (the nearest trench, a straight stub).
 2. **Evaluation**: the whole site is planned for each candidate (routing, sizing, protection,
-   drop, trench fill: :func:`routeplan.pipeline.plan_site`); the trench noding of the site is
-   reused between candidates, since only the moved feature's tap changes.
+   drop, trench fill, as :func:`routeplan.pipeline.plan_site` plans it; locally, see *Speed*).
 3. **Objective** (smaller is better; plant totals):
 
    * with conductor prices (``[costs] conductor_per_m``): conductor cost = Σ conductor metres
@@ -30,7 +29,12 @@ Speed: the current position is planned in full; every other candidate is a local
 that plan (:class:`routeplan.localplan.MoveSearch`): the feature joins the network built once
 without it, only its circuits are routed again and only the blocks whose circuits, trench
 segments or air stretches change are sized again; the objective's columns come from the
-spliced arrays (the same values as a full plan of the candidate, which the tests check).
+spliced arrays (the same values as a full plan of the candidate, which the tests check). The
+candidates are independent, so they are dealt in turn to as many processes as the machine
+has cores (forked: :func:`routeplan.parallel.spread`), the table is the same in any order.
+The current position's remedies are computed in another child meanwhile; the best
+position's plan, delivered with its remedies, is a local re-plan too, each remedy's what-if
+re-sized from the current position's (a full plan's tables, value for value: tested).
 
 What the search does not consider: terrain, access roads, civil works and their cost, the
 pad's footprint clashing with rows, cable pulling limits, and any position off the trenches.
@@ -55,6 +59,7 @@ import calc
 import calc.costs
 from layers import Site
 
+from . import parallel
 from .config import KINDS, CostConfig, DesignConfig
 from .errors import RoutingError
 from .localplan import MoveSearch
@@ -320,15 +325,20 @@ def evaluate(plan: Plan, costs: CostConfig, ref: Reference) -> Evaluation:
     c = plan.circuits
     conductor_m = (c["cable_m"] * c["conductors"]).to_numpy(dtype=float)
     size = c["size_mm2"].to_numpy(dtype=float)
-    material = c["material"].astype(str).to_numpy()
-    mass = float(calc.costs.conductor_mass_kg(size, conductor_m, material).sum())
+    # each material and size looked up once (67,200 circuits of two materials at 1 GW)
+    material, materials = pd.factorize(c["material"])
+    materials = np.asarray(materials, dtype=str)
+    mass = float(calc.costs.conductor_mass_kg(size, conductor_m, material, materials).sum())
     cost = math.nan
     if costs.priced:
-        price = np.array(
-            [costs.conductor_per_m[(m, float(s))] for m, s in zip(material, size, strict=True)]
+        sized, sizes = pd.factorize(size)
+        n = len(sizes)
+        pair, pairs = pd.factorize(material * n + sized)  # each (material, size) once
+        per_m = np.array(
+            [costs.conductor_per_m[(str(materials[p // n]), float(sizes[p % n]))] for p in pairs]
         )
         with np.errstate(over="ignore"):
-            cost = float((price * conductor_m).sum())
+            cost = float((per_m[pair] * conductor_m).sum())
         if not math.isfinite(cost):
             raise PlacementError(
                 "site.toml: costs.conductor_per_m: the plant's conductor cost exceeds the "
@@ -343,10 +353,10 @@ def evaluate(plan: Plan, costs: CostConfig, ref: Reference) -> Evaluation:
                 energy, costs.energy_price_per_kwh, costs.discount_rate_pct, costs.lifetime_years
             )
         )
-    failing = c["status"] != "ok"
-    ids = c.loc[failing, "circuit_id"].astype(str)
-    in_block = int((failing & (c["inverter_id"].astype(str) == ref.block)).sum())
-    new = int((~ids.isin(ref.failing)).sum())
+    failing = (c["status"] != "ok").to_numpy()
+    fails = c.loc[failing]  # a few rows: their texts compared, not the plant's
+    in_block = int((fails["inverter_id"].astype(str) == ref.block).sum())
+    new = int((~fails["circuit_id"].astype(str).isin(ref.failing)).sum())
     seg_over = int((plan.segments["status"] != "ok").sum())
     inp_over = int((plan.inputs["status"] != "ok").sum())
     return Evaluation(
@@ -357,7 +367,7 @@ def evaluate(plan: Plan, costs: CostConfig, ref: Reference) -> Evaluation:
         capitalised_loss=capital,
         failing_in_block=in_block,
         new_failures=new,
-        failing_circuits=int(failing.sum()),
+        failing_circuits=len(fails),
         segments_over=seg_over,
         inputs_over=inp_over,
         worst_utilisation=float(c["utilisation"].max()),
@@ -419,59 +429,79 @@ def search(
         )
     xy = np.vstack([np.array([origin]), xy])
     trench = np.concatenate([np.array([""]), trench])
-    records = []
-    ref: Reference | None = None
-    best: tuple[tuple, int] | None = None
-    memo = None
-    mover: MoveSearch | None = None
     layer = "inverters" if kind == "inverter" else "combiners"
-    for i, (x, y) in enumerate(xy):
-        if progress:
-            progress(i, len(xy))
-        candidate = site if i == 0 else moved_site(site, kind, row, (float(x), float(y)))
-        note = "current position" if i == 0 else ""
+    # state set by the first plan that routes (the current position's, normally): the
+    # reference every candidate is judged against, and the baseline of the local re-plans
+    first: dict = {"ref": None, "mover": None, "memo": None}
+
+    def at(i: int) -> Site:
+        """The site with the feature at candidate ``i``."""
+        return site if i == 0 else moved_site(site, kind, row, (float(xy[i, 0]), float(xy[i, 1])))
+
+    def one(i: int) -> dict:
+        x, y = xy[i]
+        candidate = at(i)
         try:
-            if mover is not None:  # a local re-plan of the current position's plan
-                plan = mover.figures(candidate)
+            if first["mover"] is not None:  # a local re-plan of the current position's plan
+                plan = first["mover"].figures(candidate)
             else:
-                plan = plan_site(candidate, design, noding_memo=memo, with_remedies=False)
-                memo = plan.routes.network.memo
+                plan = plan_site(candidate, design, noding_memo=first["memo"], with_remedies=False)
+                first["memo"] = plan.routes.network.memo
         except RoutingError as exc:
-            records.append(_unroutable(i, x, y, trench[i], origin, str(exc)))
-            continue
-        if ref is None:  # the first plan that routes: the kinds the site has, the reference
+            return _unroutable(i, x, y, trench[i], origin, str(exc))
+        if first["ref"] is None:  # the kinds the site has, the reference
             check_prices(design, plan.circuits["kind"].unique())
-            ref = Reference.of(plan, kind, feature_id)
+            first["ref"] = Reference.of(plan, kind, feature_id)
             if i == 0:  # the current position's plan is the baseline of every other
-                mover = MoveSearch(site, design, layer, row, plan)
-        e = evaluate(plan, design.costs, ref)
+                first["mover"] = MoveSearch(site, design, layer, row, plan, remedies=True)
+        e = evaluate(plan, design.costs, first["ref"])
         value, unit = objective(e, design.costs)
-        records.append(
-            {
-                "candidate": i,
-                "x": float(x),
-                "y": float(y),
-                "trench_id": trench[i],
-                "moved_m": float(np.hypot(x - origin[0], y - origin[1])),
-                "objective": value,
-                "objective_unit": unit,
-                **{f.name: getattr(e, f.name) for f in dataclasses.fields(Evaluation)},
-                "note": note,
-            }
+        return {
+            "candidate": i,
+            "x": float(x),
+            "y": float(y),
+            "trench_id": trench[i],
+            "moved_m": float(np.hypot(x - origin[0], y - origin[1])),
+            "objective": value,
+            "objective_unit": unit,
+            **{f.name: getattr(e, f.name) for f in dataclasses.fields(Evaluation)},
+            "note": "current position" if i == 0 else "",
+        }
+
+    # in turn until a plan routes (the reference); then the rest, spread over the cores
+    records = []
+    try:
+        while len(records) < len(xy) and first["ref"] is None:
+            if progress:
+                progress(len(records), len(xy))
+            records.append(one(len(records)))
+        rest = list(range(len(records), len(xy)))
+        records += parallel.spread(
+            one, rest, progress=(lambda j, n: progress(rest[j], len(xy))) if progress else None
         )
-        key = (not e.feasible, 0 if e.feasible else e.failing_in_block + e.new_failures, value, i)
-        if best is None or key < best[0]:
-            best = (key, i)
+        table = _ranked(records)
+        plans = {}
+        routed = table[~table["note"].astype(str).str.startswith(UNROUTABLE)]
+        if len(routed):  # the best (ranked first of those that route), planned with its remedies
+            i = int(routed["candidate"].iloc[0])
+            chosen = at(i)
+            if first["mover"] is not None:  # a local re-plan of the current position's plan
+                plans[i] = first["mover"].plan(chosen)
+            else:
+                plans[i] = plan_site(chosen, design, noding_memo=first["memo"])
+    finally:  # the current position's remedies, computed for the best position's plan
+        if first["mover"] is not None:
+            first["mover"].cancel()
+    return table[list(CANDIDATE_COLUMNS)], plans
+
+
+def _ranked(records: list[dict]) -> pd.DataFrame:
+    """The candidates' records as a table, with their difference to the current position's
+    objective, ranked (:func:`rank`)."""
     table = pd.DataFrame.from_records(records)
     current = table.loc[table["candidate"] == 0, "objective"]
     table["delta_objective"] = table["objective"] - (current.iloc[0] if len(current) else np.nan)
-    table = rank(table)
-    plans = {}
-    if best is not None:  # the plan delivered: sized again with its remedies
-        i = best[1]
-        chosen = site if i == 0 else moved_site(site, kind, row, (float(xy[i][0]), float(xy[i][1])))
-        plans[i] = plan_site(chosen, design, noding_memo=memo)
-    return table[list(CANDIDATE_COLUMNS)], plans
+    return rank(table)
 
 
 def _unroutable(i, x, y, trench, origin, reason: str) -> dict:

@@ -47,6 +47,20 @@ def test_conductor_mass_from_density():
     ]
 
 
+def test_conductor_mass_of_materials_given_as_codes():
+    # the same densities (IEC 60028 copper, aluminium from memory) read through codes into a
+    # list of names: 10 mm² Cu × 1000 m = 88.9 kg, 240 mm² Al × 1000 m = 648.72 kg
+    got = conductor_mass_kg([10.0, 240.0, 10.0], [1000.0] * 3, [1, 0, 1], ["Al", "Cu"])
+    np.testing.assert_allclose(got, [88.9, 240e-6 * 1000 * 2703.0, 88.9], rtol=1e-12)
+    assert conductor_mass_kg([], [], np.array([], dtype=int), ["Cu"]).size == 0
+    # a code outside the names, a negative one (numpy would read it from the end) or a text
+    for codes in ([2], [-1], ["Cu"]):
+        with pytest.raises(InputError, match="material codes must index the 2 materials"):
+            conductor_mass_kg([10.0], [1.0], codes, ["Al", "Cu"])
+    with pytest.raises(UnknownOptionError):
+        conductor_mass_kg([10.0], [1.0], [0], ["Fe"])
+
+
 def test_bad_inputs_are_refused():
     with pytest.raises(UnknownOptionError):
         density_kg_m3(["Fe"])

@@ -273,3 +273,77 @@ def test_cancel_stops_what_the_child_started(tmp_path):
     while _alive(grandchild):
         assert time.monotonic() < deadline, "the grandchild still runs"
         time.sleep(0.01)
+
+
+# --- spread: independent items dealt to one process per core -------------------------------
+
+
+def test_spread_deals_the_items_in_turn_and_returns_them_in_order():
+    me = os.getpid()
+    seen: list[int] = []
+    got = parallel.spread(
+        lambda x: (x * x, os.getpid()),
+        list(range(7)),
+        workers=3,
+        progress=lambda k, n: seen.append(k),
+    )
+    assert [v for v, _ in got] == [x * x for x in range(7)]
+    pids = [p for _, p in got]
+    # item j to process j mod 3: this one takes 0, 3, 6 (and says so), two children the rest
+    assert pids[0] == pids[3] == pids[6] == me and seen == [0, 3, 6]
+    assert pids[1] == pids[4] and pids[2] == pids[5]
+    assert len({me, pids[1], pids[2]}) == 3
+
+
+@pytest.mark.parametrize(("n", "workers"), [(0, 2), (1, 4), (5, 1), (5, 8)])
+def test_spread_of_few_items_or_one_worker(n, workers):
+    assert parallel.spread(lambda x: -x, list(range(n)), workers=workers) == [-x for x in range(n)]
+
+
+def test_spread_runs_here_when_serial(monkeypatch):
+    monkeypatch.setenv("ROUTEPLAN_SERIAL", "1")
+    assert {p for p in parallel.spread(lambda x: os.getpid(), [1, 2, 3, 4], workers=2)} == {
+        os.getpid()
+    }
+
+
+def test_spread_raises_here_what_a_childs_item_raised(tmp_path):
+    calls = tmp_path / "calls"
+
+    def work(x):
+        with open(calls, "a") as fh:
+            fh.write(f"{x} {os.getpid()}\n")
+        if x == 1:
+            raise ValueError("item 1 is bad")
+        return x
+
+    with pytest.raises(ValueError, match="item 1 is bad"):
+        parallel.spread(work, [0, 1, 2, 3], workers=2)
+    # item 1 failed in the child, and again here, where its exception is raised
+    by = [line.split() for line in calls.read_text().splitlines()]
+    assert [p for x, p in by if x == "1"][-1] == str(os.getpid())
+    assert len([x for x, _ in by if x == "1"]) == 2
+
+
+def test_spread_stops_the_children_when_this_process_fails(tmp_path):
+    told = tmp_path / "pids"
+
+    def work(x):
+        if x == 0:  # this process's item: fails once both children work on theirs
+            t = time.perf_counter()
+            while time.perf_counter() - t < 30 and (
+                not told.exists() or len(told.read_text().split()) < 2
+            ):
+                time.sleep(0.01)
+            raise RuntimeError("stop")
+        with open(told, "a") as fh:
+            fh.write(f"{os.getpid()}\n")
+        time.sleep(600)
+
+    t0 = time.perf_counter()
+    with pytest.raises(RuntimeError, match="stop"):
+        parallel.spread(work, [0, 1, 2], workers=3)
+    assert time.perf_counter() - t0 < 60
+    for pid in {int(p) for p in told.read_text().split()}:
+        with pytest.raises(ProcessLookupError):
+            os.kill(pid, 0)

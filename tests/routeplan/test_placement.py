@@ -12,10 +12,12 @@ weighted median of the cable ends minimises it (a classical result of location t
 from __future__ import annotations
 
 import csv
+import dataclasses
 from pathlib import Path
 
 import geopandas as gpd
 import numpy as np
+import pandas as pd
 import pytest
 import shapely
 from shapely.geometry import LineString, Point
@@ -23,7 +25,10 @@ from typer.testing import CliRunner
 
 from routeplan.check import load
 from routeplan.cli import app
-from routeplan.placement import PlacementError, candidate_points, search
+from routeplan.localplan import MoveSearch
+from routeplan.network import retap
+from routeplan.pipeline import plan_site
+from routeplan.placement import PlacementError, candidate_points, moved_site, search
 
 from ..conftest import E0, N0, SITE_TOML, UTM33, write_site
 
@@ -379,3 +384,70 @@ def test_a_folder_holding_a_users_file_is_refused_before_planning(tmp_path):
     r = runner.invoke(app, ["place", str(site), "--inverter", "INV1", "--radius", "-5",
                             "--out", str(tmp_path / "o2")])  # fmt: skip
     assert r.exit_code == 2 and "--radius must be ≥ 0 m" in r.output
+
+
+def _same_plan(got, want) -> None:
+    """Every table of two plans alike, value for value (the remedies included)."""
+    for name in ("circuits", "segments", "quantities", "inputs"):
+        a, b = getattr(got, name), getattr(want, name)
+        pd.testing.assert_frame_equal(
+            a.reset_index(drop=True), b.reset_index(drop=True), check_exact=True, obj=name
+        )
+    assert got.summary == want.summary
+
+
+def test_the_delivered_plan_is_the_full_plan_of_the_best_position(tmp_path):
+    # the best position's plan comes from a local re-plan of the current position's, its
+    # remedies' what-ifs sized whole: every table as a full plan of that position gives it
+    site, design = load(straight_site(tmp_path / "s", second_block=True))
+    table, plans = search(site, design, "inverter", "INV1", radius_m=120.0, step_m=20.0)
+    ((i, plan),) = plans.items()
+    best = table.iloc[0]
+    assert i == best["candidate"] != 0
+    moved = moved_site(site, "inverter", 0, (float(best["x"]), float(best["y"])))
+    want = plan_site(moved, design)
+    assert (want.circuits["remedy"].str.len() > 0).sum() >= 4  # INV2's failing strings
+    _same_plan(plan, want)
+
+
+@pytest.mark.parametrize("remedies", [False, True])
+@pytest.mark.parametrize("where", ["current", "moved"])
+def test_a_position_planned_whole_by_the_local_re_plan(tmp_path, where, remedies):
+    # remedies: the current position's what-ifs computed in a child first, and re-sized
+    # locally for the position planned; without them, each what-if sized whole
+    site, design = load(straight_site(tmp_path / "s", second_block=True))
+    mover = MoveSearch(site, design, "inverters", 0, remedies=remedies)
+    at = site if where == "current" else moved_site(site, "inverter", 0, xy(150.0, 0.0))
+    got = mover.plan(at)
+    if remedies:
+        assert got.timings_s["remedy"] >= 0 and mover.remedies.whatifs.kept
+    _same_plan(got, plan_site(at, design))
+
+
+@pytest.mark.parametrize("to_x", [45.0, 150.0])
+def test_a_retapped_network_labels_its_islands_as_a_search_of_its_graph(tmp_path, to_x):
+    # a second trench, joined to nothing, makes a second island; the pad retapped onto either
+    # trench: the islands retap carries over are those scipy's connected_components finds
+    # in the retapped graph (each labelled in the order of its lowest node) and in a build
+    from scipy.sparse import csgraph
+
+    from routeplan.pipeline import route_params
+    from routeplan.routing import site_network
+
+    site, design = load(straight_site(tmp_path / "s"))
+    far = gpd.GeoDataFrame(
+        {"id": ["T2"], "depth_m": [0.8], "laying": ["direct"]},
+        geometry=[LineString([xy(0, 80), xy(GRID_X, 80)])],
+        crs=UTM33,
+    )
+    site = dataclasses.replace(site, trenches=pd.concat([site.trenches, far], ignore_index=True))
+    mover = MoveSearch(site, design, "inverters", 0)
+    for y in (0.0, 80.0):
+        moved = mover.site_at(xy(to_x, y))
+        got = retap(mover.minus, mover.tap, moved.inverters.geometry.iloc[0])
+        assert got is not None
+        n, labels = csgraph.connected_components(got.graph, directed=False)
+        assert n == 2
+        np.testing.assert_array_equal(got.node_island, labels)
+        want = site_network(moved, route_params(design), mover.base.plan.routes.network.memo)
+        np.testing.assert_array_equal(got.node_island, want.node_island)
