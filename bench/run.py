@@ -26,7 +26,10 @@ memory, the size of ``map.html``, and three ratios measured in the same run:
   ``routeplan synth`` (``subarray``: string combiners to recombiners at the skid; ``string``:
   rows to string inverters — same seed, same layout), planned and written end to end in a
   fresh process like the others (without the ratios above), against the same end-to-end
-  target.
+  target;
+* **placement**: ``bench/place.py`` in a fresh process on the largest plant: ``routeplan
+  place``'s search of 200 positions for one inverter pad (goal ≤ 20 s) and the planning part
+  (read, route, size) of the local re-plan after a pad move (goal ≤ 1 s).
 
 The plants of the sizes are ``central`` ones (string combiners to one inverter skid per
 block), the generator's default.
@@ -566,6 +569,22 @@ def _bench_plant(
     return r
 
 
+def placement_bench(mw: float, seed: int, work: Path) -> dict:
+    """``bench/place.py`` in a fresh process on a plant of ``mw`` (its own generated site):
+    its JSON numbers."""
+    out = work / "place.json"
+    cmd = [
+        sys.executable, str(Path(__file__).with_name("place.py")), "--mw", f"{mw:g}",
+        "--seed", str(seed), "--work", str(work / "place"), "--json", str(out),
+    ]  # fmt: skip
+    print(f"placement search ({mw:g} MW) …", file=sys.stderr)
+    done = subprocess.run(cmd, capture_output=True, text=True, check=False)
+    if done.returncode != 0:
+        sys.stderr.write(done.stdout + done.stderr)
+        raise SystemExit(f"failed: {' '.join(cmd)}")
+    return json.loads(out.read_text(encoding="utf-8"))
+
+
 def run(
     sizes: list[float],
     seed: int,
@@ -573,6 +592,7 @@ def run(
     with_nx: bool,
     long_routes: bool,
     topologies: tuple[str, ...] = ("subarray", "string"),
+    placement: bool = True,
 ) -> dict:
 
     load_start = _load()
@@ -593,6 +613,7 @@ def run(
         site_dir = work / f"site_{mw:g}MW_{topology}"
         out = work / f"run_{mw:g}MW_{topology}"
         others.append(_bench_plant(mw, seed, site_dir, out, topology, ["--light"]))
+    place = placement_bench(mw, seed, work) if placement else None
     return {
         "machine": {
             **machine(),
@@ -603,6 +624,7 @@ def run(
         "plants": plants,
         "variants": variants,
         "topologies": others,
+        "placement": place,
     }
 
 
@@ -867,6 +889,9 @@ def report(res: dict) -> str:
     others = res.get("topologies", [])
     if others:
         out += topology_report(big, others)
+    place = res.get("placement")
+    if place:
+        out += placement_report(place)
     e2e = big["plan_s"] + big["write_s"]
     out += ["", "## Targets at the largest plant", ""]
     out += [
@@ -901,8 +926,51 @@ def report(res: dict) -> str:
             f"{100 * e['watch_strings_replan_s'] / e['cli_full_s']:.0f} %) "
             f"| {verdict} |"
         )
+    if place:
+        search = place["placement"]["search"]["wall_s"]
+        planning = place["pad_move"]["replan_planning_cpu_s"]
+        out += [
+            f"| placement: {place['placement']['positions']} positions for one pad ≤ 20 s "
+            f"| {search:.1f} s | {'yes' if search <= 20 else 'no'} |",
+            f"| local re-plan after a pad move, planning part (read, route, size) ≤ 1 s "
+            f"| {planning:.2f} s (CPU) | {'yes' if planning <= 1 else 'no'} |",
+        ]
     out.append("")
     return "\n".join(out)
+
+
+def placement_report(place: dict) -> list[str]:
+    """The section of ``bench/place.py``'s numbers (:func:`placement_bench`)."""
+    p, m = place["placement"], place["pad_move"]
+    parts = ("search", "current_plan_and_setup", "local_candidates_total")
+    wall = {k: p[k]["wall_s"] for k in (*parts, "best_plan_with_remedies")}
+    out = ["", f"## Placement search and local re-plan at {place['mw']:g} MW", ""]
+    out += [
+        f"`bench/place.py` in a fresh process, on the {place['mw']:g} MW plant generated again "
+        "(same seed): `routeplan place`'s search for one inverter "
+        f"({p['inverter']}), every 5 m along the trenches within {p['radius_m']:g} m "
+        f"({p['positions']} positions): the current position planned in full and the "
+        "baseline of the local re-plans made from it, the other positions re-planned locally "
+        f"and shared among {p['cores']} processes (one per core), the best position planned "
+        "with its remedies (a local re-plan too, the current position's remedies computed in "
+        "a child meanwhile). CPU seconds include the children's. Then the first pad moved "
+        "8 m and the site read and re-planned locally in this process.",
+        "",
+        "| search [s] | current position + baseline [s] | candidates [s] | CPU per candidate "
+        "[s] | best position with remedies [s] | largest child [GiB] |",
+        "|---:|---:|---:|---:|---:|---:|",
+        f"| **{wall['search']:.1f}** | {wall['current_plan_and_setup']:.2f} "
+        f"| {wall['local_candidates_total']:.2f} | {p['local_candidate_mean']['cpu_s']:.3f} "
+        f"| {wall['best_plan_with_remedies']:.2f} | {p.get('largest_child_gib', np.nan):.2f} |",
+        "",
+        "| pad move: full plan [s] | read [s] | local re-plan [s] | planning part: read, route, "
+        "size (CPU) [s] | circuits sized again |",
+        "|---:|---:|---:|---:|---:|",
+        f"| {m['full_plan']['wall_s']:.2f} | {m['replan_read']['wall_s']:.2f} "
+        f"| {m['replan']['wall_s']:.2f} | **{m['replan_planning_cpu_s']:.2f}** "
+        f"| {m['circuits_sized_again']:,} of {m['circuits']:,} |",
+    ]
+    return out
 
 
 TOPOLOGY_LABELS = {
@@ -980,6 +1048,7 @@ def main(argv: list[str] | None = None) -> None:
         default="central,subarray,string",
         help="DC topologies of the largest plant, comma list (central: the sizes' plants)",
     )
+    parser.add_argument("--no-place", action="store_true", help="skip bench/place.py")
     parser.add_argument("--json", type=Path, help="also write the raw numbers as JSON")
     parser.add_argument("--worker-plan", nargs=2, metavar=("SITE", "WORK"), help=argparse.SUPPRESS)
     parser.add_argument(
@@ -1005,7 +1074,10 @@ def main(argv: list[str] | None = None) -> None:
         work = args.work or Path(tmp)
         work.mkdir(parents=True, exist_ok=True)
         topologies = tuple(t.strip() for t in args.topologies.split(",") if t.strip())
-        res = run(sizes, args.seed, work, not args.no_nx, not args.no_long, topologies)
+        res = run(
+            sizes, args.seed, work, not args.no_nx, not args.no_long, topologies,
+            placement=not args.no_place,
+        )  # fmt: skip
     text = report(res)
     text += f"Benchmark wall time: {time.perf_counter() - start:.0f} s.\n"
     args.out.write_text(text, encoding="utf-8")
