@@ -12,7 +12,7 @@ problem and exits with status 2.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
@@ -21,11 +21,14 @@ if TYPE_CHECKING:
 
 @dataclass(frozen=True, order=True)
 class Problem:
-    """One thing wrong with the input: which layer (or file), which feature, what is wrong."""
+    """One thing wrong with the input: which layer (or file), which feature, what is wrong;
+    ``attribute``: the feature's attribute whose value is wrong, where the problem is about
+    one (not compared: the message names it too)."""
 
     layer: str
     feature_id: str | None
     message: str
+    attribute: str | None = field(default=None, compare=False)
 
     def __str__(self) -> str:
         where = self.layer if self.feature_id is None else f"{self.layer} {self.feature_id!r}"

@@ -42,11 +42,7 @@ def read_site(path: Path | str, memo: LayerMemo | None = None) -> Site:
         # a layer already reported missing/unreadable is not reported again, nor a value
         # already reported as stored in the file as another type (what GDAL read of it)
         reported = {p.layer for p in problems}
-        values = {
-            (p.layer, p.feature_id, _attribute(p.message))
-            for p in problems
-            if _attribute(p.message)
-        }
+        values = {(p.layer, p.feature_id, p.attribute) for p in problems if p.attribute}
         later = [
             q
             for q in exc.problems
@@ -55,7 +51,7 @@ def read_site(path: Path | str, memo: LayerMemo | None = None) -> Site:
                 and q.layer in reported
                 and q.message == "required layer missing"
             )
-            and (q.layer, q.feature_id, _attribute(q.message)) not in values
+            and (q.layer, q.feature_id, q.attribute) not in values
         ]
         # the geometry-only checks may run on the partial site only when every file was read
         partial = exc.partial if not problems else None
@@ -63,9 +59,3 @@ def read_site(path: Path | str, memo: LayerMemo | None = None) -> Site:
     if problems:
         raise SiteError(problems)
     return site
-
-
-def _attribute(message: str) -> str:
-    """The attribute a problem's message starts with (``strings is 0, …`` → ``strings``)."""
-    head, sep, _ = message.partition(" is ")
-    return head.lower() if sep and " " not in head else ""

@@ -260,6 +260,7 @@ def _stored_numbers(path: Path, layer: str | None, name: str) -> list[Problem]:
                         None if fid is None else str(fid),
                         f"{column} is {shown} in the file ({as_} in a column of type "
                         f"{kind or 'none'}), expected {what}",
+                        attribute=column,
                     )
                 )
         return problems
@@ -324,6 +325,7 @@ def _json_booleans(path: Path, name: str) -> list[Problem]:
                         fid or f"#{i + 1}",
                         f"{column} is {json.dumps(value)} in the file (a JSON boolean, which "
                         f"GDAL would read as {int(value)}), expected {what}",
+                        attribute=column,
                     )
                 )
     return problems

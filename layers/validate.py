@@ -547,7 +547,9 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
         out, bad = _parse_column(fld, frame[fld.name])
         if bad:
             labeller = _labeller(frame)
-            problems += [Problem(name, labeller(i), message) for i, message in bad]
+            problems += [
+                Problem(name, labeller(i), message, attribute=fld.name) for i, message in bad
+            ]
         if fld.kind in ("int", "float"):
             frame[fld.name] = pd.Series(out, index=frame.index, dtype=float)
             if fld.kind == "int" and fld.required and not frame[fld.name].isna().any():
