@@ -12,12 +12,13 @@ Not part of the test suite. It generates a plant with :func:`routeplan.synth.gen
 * **placement**: ``routeplan place``'s search (:func:`routeplan.placement.search`) for one
   inverter of the plant, the radius the smallest that gives at least ``--candidates``
   positions every 5 m: the current position planned in full, each other a local re-plan (spread
-  over the cores in forked processes), the best planned again with its remedies.
+  over the cores in forked processes), the best planned with its remedies (a local re-plan,
+  the current position's remedies computed in a child meanwhile).
 
 Each figure is given as wall-clock and as CPU seconds (of this process, and for the search of
-its forked children too): on a shared machine
-the CPU seconds are what the work costs, the wall-clock what it took there. Every plant is
-invented; the numbers are timings of a design aid.
+its forked children too): on a shared machine the CPU seconds are what the work costs, the
+wall-clock what it took there. Every plant is invented; the numbers are timings of a design
+aid.
 """
 
 from __future__ import annotations
