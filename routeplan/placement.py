@@ -63,6 +63,7 @@ from . import parallel
 from .config import KINDS, CostConfig, DesignConfig
 from .errors import RoutingError
 from .localplan import MoveSearch
+from .network import NetworkMemo
 from .pipeline import KIND_CODE, Plan, design_params, plan_site
 
 __all__ = [
@@ -430,9 +431,7 @@ def search(
     xy = np.vstack([np.array([origin]), xy])
     trench = np.concatenate([np.array([""]), trench])
     layer = "inverters" if kind == "inverter" else "combiners"
-    # state set by the first plan that routes (the current position's, normally): the
-    # reference every candidate is judged against, and the baseline of the local re-plans
-    first: dict = {"ref": None, "mover": None, "memo": None}
+    first = _First()
 
     def at(i: int) -> Site:
         """The site with the feature at candidate ``i``."""
@@ -442,19 +441,19 @@ def search(
         x, y = xy[i]
         candidate = at(i)
         try:
-            if first["mover"] is not None:  # a local re-plan of the current position's plan
-                plan = first["mover"].figures(candidate)
+            if first.mover is not None:  # a local re-plan of the current position's plan
+                plan = first.mover.figures(candidate)
             else:
-                plan = plan_site(candidate, design, noding_memo=first["memo"], with_remedies=False)
-                first["memo"] = plan.routes.network.memo
+                plan = plan_site(candidate, design, noding_memo=first.memo, with_remedies=False)
+                first.memo = plan.routes.network.memo
         except RoutingError as exc:
             return _unroutable(i, x, y, trench[i], origin, str(exc))
-        if first["ref"] is None:  # the kinds the site has, the reference
+        if first.ref is None:  # the kinds the site has, the reference
             check_prices(design, plan.circuits["kind"].unique())
-            first["ref"] = Reference.of(plan, kind, feature_id)
+            first.ref = Reference.of(plan, kind, feature_id)
             if i == 0:  # the current position's plan is the baseline of every other
-                first["mover"] = MoveSearch(site, design, layer, row, plan, remedies=True)
-        e = evaluate(plan, design.costs, first["ref"])
+                first.mover = MoveSearch(site, design, layer, row, plan, remedies=True)
+        e = evaluate(plan, design.costs, first.ref)
         value, unit = objective(e, design.costs)
         return {
             "candidate": i,
@@ -471,7 +470,7 @@ def search(
     # in turn until a plan routes (the reference); then the rest, spread over the cores
     records = []
     try:
-        while len(records) < len(xy) and first["ref"] is None:
+        while len(records) < len(xy) and first.ref is None:
             if progress:
                 progress(len(records), len(xy))
             records.append(one(len(records)))
@@ -485,14 +484,25 @@ def search(
         if len(routed):  # the best (ranked first of those that route), planned with its remedies
             i = int(routed["candidate"].iloc[0])
             chosen = at(i)
-            if first["mover"] is not None:  # a local re-plan of the current position's plan
-                plans[i] = first["mover"].plan(chosen)
+            if first.mover is not None:  # a local re-plan of the current position's plan
+                plans[i] = first.mover.plan(chosen)
             else:
-                plans[i] = plan_site(chosen, design, noding_memo=first["memo"])
+                plans[i] = plan_site(chosen, design, noding_memo=first.memo)
     finally:  # the current position's remedies, computed for the best position's plan
-        if first["mover"] is not None:
-            first["mover"].cancel()
+        if first.mover is not None:
+            first.mover.cancel()
     return table[list(CANDIDATE_COLUMNS)], plans
+
+
+@dataclass
+class _First:
+    """What the first plan of a search that routes (the current position's, normally) sets:
+    the reference every candidate is judged against, the baseline of the local re-plans (the
+    current position's plan only) and the trench noding the full plans reuse."""
+
+    ref: Reference | None = None
+    mover: MoveSearch | None = None
+    memo: NetworkMemo | None = None
 
 
 def _ranked(records: list[dict]) -> pd.DataFrame:
