@@ -40,7 +40,11 @@ if str(ROOT) not in sys.path:  # run from a clone without installing
 
 
 def _clock() -> tuple[float, float]:
-    return time.perf_counter(), time.process_time()
+    """Wall-clock and CPU seconds: this process's and its reaped children's (the search's
+    forked ones; a re-plan without children counts this process alone)."""
+    me = resource.getrusage(resource.RUSAGE_SELF)
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return time.perf_counter(), me.ru_utime + me.ru_stime + kids.ru_utime + kids.ru_stime
 
 
 def _since(t: tuple[float, float]) -> dict[str, float]:
@@ -91,13 +95,6 @@ def pad_move(site_dir: Path) -> dict:
     }
 
 
-def _cpu_with_children() -> float:
-    """CPU seconds of this process and of its reaped children (the search's forked ones)."""
-    me = resource.getrusage(resource.RUSAGE_SELF)
-    kids = resource.getrusage(resource.RUSAGE_CHILDREN)
-    return me.ru_utime + me.ru_stime + kids.ru_utime + kids.ru_stime
-
-
 def placement(site_dir: Path, candidates: int) -> dict:
     """One inverter's placement search with at least ``candidates`` positions: the whole
     search, and within it the two full plans (the current position's, first, with the local
@@ -117,17 +114,17 @@ def placement(site_dir: Path, candidates: int) -> dict:
     radius = 20.0
     while len(candidate_points(site.trenches, (a.x, a.y), radius, 5.0)[0]) + 1 < candidates:
         radius += 2.0
-    full_plans: list[tuple[float, float]] = []
-    setups: list[tuple[float, float]] = []
-    best: list[tuple[float, float]] = []
+    full_plans: list[dict[str, float]] = []
+    setups: list[dict[str, float]] = []
+    best: list[dict[str, float]] = []
 
     def timed(f, into):
         def call(*args, **kwargs):
-            t0 = time.perf_counter(), _cpu_with_children()
+            t0 = _clock()
             try:
                 return f(*args, **kwargs)
             finally:
-                into.append((time.perf_counter() - t0[0], _cpu_with_children() - t0[1]))
+                into.append(_since(t0))
 
         return call
 
@@ -135,29 +132,28 @@ def placement(site_dir: Path, candidates: int) -> dict:
     pm.plan_site = timed(plan_site, full_plans)
     MoveSearch.__init__, MoveSearch.plan = timed(init, setups), timed(plan, best)
     try:
-        t = time.perf_counter(), _cpu_with_children()
+        t = _clock()
         table, _ = search(site, design, "inverter", inv, radius, 5.0)
-        total = {"wall_s": time.perf_counter() - t[0], "cpu_s": _cpu_with_children() - t[1]}
+        total = _since(t)
     finally:
         pm.plan_site, MoveSearch.__init__, MoveSearch.plan = plan_site, init, plan
     # the current position's plan and the baseline made from it; the best position's plan
     # (a local re-plan of that baseline, or where there is none a full plan)
-    (cw, cc), (bw, bc) = full_plans[0], (best or full_plans[1:])[-1]
-    cw, cc = cw + setups[0][0], cc + setups[0][1]
+    current = {k: full_plans[0][k] + setups[0][k] for k in total}
+    last = (best or full_plans[1:])[-1]
     local = len(table) - 1
-    lw = total["wall_s"] - cw - bw
-    lc = total["cpu_s"] - cc - bc
+    between = {k: total[k] - current[k] - last[k] for k in total}
     return {
         "inverter": inv,
         "radius_m": radius,
         "positions": len(table),
         "cores": parallel.cores(),
         "search": total,
-        "current_plan_and_setup": {"wall_s": cw, "cpu_s": cc},
+        "current_plan_and_setup": current,
         "local_candidates": local,
-        "local_candidates_total": {"wall_s": lw, "cpu_s": lc},
-        "local_candidate_mean": {"wall_s": lw / local, "cpu_s": lc / local},
-        "best_plan_with_remedies": {"wall_s": bw, "cpu_s": bc},
+        "local_candidates_total": between,
+        "local_candidate_mean": {k: v / local for k, v in between.items()},
+        "best_plan_with_remedies": last,
         # the forked children's peak resident memory (pages shared with this process counted)
         "largest_child_gib": resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 2**20,
         "this_process_gib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20,

@@ -355,7 +355,7 @@ def evaluate(plan: Plan, costs: CostConfig, ref: Reference) -> Evaluation:
             )
         )
     failing = (c["status"] != "ok").to_numpy()
-    fails = c.loc[failing]  # a few rows: their texts compared, not the plant's
+    fails = c.loc[failing, ["inverter_id", "circuit_id"]]  # their texts, not the plant's
     in_block = int((fails["inverter_id"].astype(str) == ref.block).sum())
     new = int((~fails["circuit_id"].astype(str).isin(ref.failing)).sum())
     seg_over = int((plan.segments["status"] != "ok").sum())
