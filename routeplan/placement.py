@@ -219,9 +219,9 @@ def candidate_points(
     passing within the radius would hold more than :data:`MAX_POINTS` points is refused
     (:class:`PlacementError`, with the estimated count) before any point is made."""
     if not (step_m > 0 and math.isfinite(step_m)):
-        raise PlacementError(f"--step must be > 0 m, got {step_m}")
+        raise PlacementError(f"--step must be a finite number > 0 m, got {step_m}")
     if not (radius_m >= 0 and math.isfinite(radius_m)):
-        raise PlacementError(f"--radius must be ≥ 0 m, got {radius_m}")
+        raise PlacementError(f"--radius must be a finite number ≥ 0 m, got {radius_m}")
     parts, owner = shapely.get_parts(trenches.geometry.to_numpy(), return_index=True)
     # only a trench part that comes within the radius (and the 1 cm rounding) holds a candidate
     centre = shapely.Point(origin)

@@ -383,7 +383,16 @@ def test_a_folder_holding_a_users_file_is_refused_before_planning(tmp_path):
     # a negative radius, in a folder of its own, is one line naming the option
     r = runner.invoke(app, ["place", str(site), "--inverter", "INV1", "--radius", "-5",
                             "--out", str(tmp_path / "o2")])  # fmt: skip
-    assert r.exit_code == 2 and "--radius must be ≥ 0 m" in r.output
+    assert r.exit_code == 2 and "--radius must be a finite number ≥ 0 m, got -5.0" in r.output
+    # not a number, or infinite: refused the same way, never a traceback
+    for option, value in (("--radius", "inf"), ("--radius", "nan"), ("--step", "inf"),
+                          ("--step", "0")):  # fmt: skip
+        r = runner.invoke(app, ["place", str(site), "--inverter", "INV1", option, value,
+                                "--out", str(tmp_path / "o3")])  # fmt: skip
+        assert r.exit_code == 2, (option, value, r.output)
+        assert f"{option} must be a finite number" in r.output
+        assert "Traceback" not in r.output
+        assert not (tmp_path / "o3").exists()
 
 
 def _same_plan(got, want) -> None:
