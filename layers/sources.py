@@ -126,6 +126,9 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
                 )
                 continue
             file_part = spec.rsplit(":", 1)[0] if _has_layer_suffix(spec) else spec
+            if (root / file_part).is_symlink() and not (root / file_part).exists():
+                problems.append(_dangling(name, file_part))
+                continue
             if not (root / file_part).exists():  # a file, or a folder dataset (.gdb)
                 problems.append(
                     Problem(name, None, f"file {file_part!r} named in [layers] not found")
@@ -148,6 +151,12 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
                     "keep one or name it in [layers]",
                 )
             )
+        elif (
+            candidates
+            and (root / candidates[0]).is_symlink()
+            and not (root / candidates[0]).exists()
+        ):
+            problems.append(_dangling(name, candidates[0]))
         elif candidates:
             found[name] = candidates[0]
         elif name in REQUIRED_LAYERS:
@@ -160,6 +169,15 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
                 )
             )
     return found, problems
+
+
+def _dangling(name: str, file: str) -> Problem:
+    """The problem of a layer whose file is a symbolic link that leads to no file."""
+    return Problem(
+        name,
+        None,
+        f"{file!r} is a symbolic link that leads to no file (a loop or a missing target)",
+    )
 
 
 def _has_layer_suffix(spec: str) -> bool:
@@ -183,9 +201,16 @@ def read_layer(
         kept = memo.frame(root, spec, digest)
         if kept is not None:
             return kept, []
+    if path.is_file() and path.stat().st_size == 0:
+        return None, [Problem(name, None, f"cannot read {spec}: the file is empty")]
     try:
         kwargs = {"layer": layer} if layer else {}
         with warnings.catch_warnings():
+            # GDAL reads an unclosed polygon ring with a warning on the user's terminal; the
+            # geometry is then reported as a problem of its feature
+            warnings.filterwarnings(
+                "ignore", message="Non closed ring detected", category=RuntimeWarning
+            )
             # a GeoJSON attribute of mixed types (an id 12 among "W1-R1"s) is a JSON column
             # to GDAL; geopandas tries to parse its values as JSON and warns when it cannot,
             # on the user's terminal: the values stay text, which validation reads
@@ -455,8 +480,14 @@ def _table_digest(path: Path, table: str) -> str | None:
 
 
 def _short(exc: BaseException) -> str:
+    """A reader's error on one line, at most 200 characters, without GDAL's advice to prefix
+    the path with a driver name (a layer is named by its file in site.toml)."""
     text = " ".join(str(exc).split())
+    text = _DRIVER_ADVICE.sub("", text).rstrip(" ;")
     return text if len(text) <= 200 else text[:197] + "..."
+
+
+_DRIVER_ADVICE = re.compile(r";?\s*It might help to specify the correct driver explicitly.*$")
 
 
 #: most files one layer source may consist of before it counts as not listable (a folder

@@ -483,7 +483,8 @@ def _check_geometry(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFram
         single = multi & (shapely.get_num_geometries(geoms) == 1)
         geoms[single] = shapely.get_geometry(geoms[single], 0)
     tid = shapely.get_type_id(geoms)
-    valid = shapely.is_valid(geoms)
+    with np.errstate(over="ignore", invalid="ignore"):  # huge coordinates: the problem
+        valid = shapely.is_valid(geoms)  # is reported, not a numpy warning on the terminal
     # only features with a problem are looked at one by one
     allowed_ids = [k for k, v in TYPE_NAMES.items() if v in allowed]
     lines = np.isin(tid, [k for k, v in TYPE_NAMES.items() if v in LINE_TYPES])
@@ -503,7 +504,8 @@ def _check_geometry(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFram
             )
             continue
         if not valid[i]:
-            reason = shapely.is_valid_reason(geoms[i])
+            with np.errstate(over="ignore", invalid="ignore"):
+                reason = shapely.is_valid_reason(geoms[i])
             problems.append(Problem(name, label, f"invalid geometry: {reason}"))
             continue
         if tname in LINE_TYPES and shapely.length(geoms[i]) <= 0:

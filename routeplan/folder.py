@@ -46,6 +46,7 @@ from __future__ import annotations
 import contextlib
 import dataclasses
 import datetime as dt
+import errno
 import hashlib
 import json
 import os
@@ -518,16 +519,25 @@ def _check_path(path: Path) -> Path:
                 raise FolderError(path, f"cannot be made: {parent} is a file, not a folder")
             break
     try:
-        return path.resolve()
+        return _resolved(path)
     except OSError as exc:
         raise FolderError(path, f"cannot be resolved ({exc.strerror or exc})") from None
+
+
+def _resolved(path: Path) -> Path:
+    """``path.resolve()``, a symbolic-link loop raised as OSError (ELOOP) as Python 3.13
+    raises it (3.11 and 3.12 raise RuntimeError)."""
+    try:
+        return Path(path).resolve()
+    except RuntimeError as exc:
+        raise OSError(errno.ELOOP, os.strerror(errno.ELOOP), str(path)) from exc
 
 
 def _check_protected(path: Path, real: Path, protect: Iterable[Path], root: Path | None) -> None:
     """Refuse a folder that is the site folder or holds it, or that is, holds or lies
     inside one of the input files / datasets ``protect``."""
     if root is not None:
-        site = Path(root).resolve()
+        site = _resolved(Path(root))
         if real == site:
             raise FolderError(
                 path,
@@ -541,7 +551,10 @@ def _check_protected(path: Path, real: Path, protect: Iterable[Path], root: Path
                 "choose a folder that holds none of them",
             )
     for p in protect:
-        q = Path(p).resolve()
+        try:
+            q = _resolved(Path(p))
+        except OSError:  # an input that leads nowhere (a link loop): none to write over
+            continue  # there, and the reader names it
         if real == q or real in q.parents:
             raise FolderError(
                 path,

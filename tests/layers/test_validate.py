@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 import pytest
 from shapely.geometry import LineString, Point, Polygon
 
@@ -68,6 +70,50 @@ def test_unreadable_file(tmp_path):
     (root / "combiners.geojson").write_text("this is not GeoJSON")
     msgs = problems_of(root)
     assert any(p.startswith("combiners: cannot read combiners.geojson") for p in msgs)
+
+
+def test_an_empty_file_is_named_as_empty(tmp_path):
+    root = write(tmp_path)
+    (root / "combiners.geojson").write_bytes(b"")
+    assert "combiners: cannot read combiners.geojson: the file is empty" in problems_of(root)
+
+
+def test_gdal_advice_to_prefix_a_driver_is_left_out(tmp_path):
+    # GDAL suggests "prefixing the file path with '<DRIVER>:'": a site.toml names files, so
+    # the advice would mislead; the reason itself stays
+    root = write(tmp_path)
+    (root / "combiners.geojson").write_bytes(bytes(range(256)) * 4)
+    (msg,) = [p for p in problems_of(root) if p.startswith("combiners:")]
+    assert "not recognized as being in a supported file format" in msg
+    assert "DRIVER" not in msg and "might help" not in msg
+
+
+@pytest.mark.parametrize("named", [False, True], ids=["found by name", "named in [layers]"])
+@pytest.mark.parametrize("target", ["loop", "missing"])
+def test_a_layer_file_that_is_a_link_to_nothing_is_one_problem(tmp_path, named, target):
+    root = write(tmp_path)
+    file = "substation.geojson" if named else "grid.geojson"
+    (root / "grid.geojson").unlink()
+    (root / file).symlink_to(file if target == "loop" else "gone.geojson")
+    if named:
+        text = (root / "site.toml").read_text(encoding="utf-8")
+        (root / "site.toml").write_text(text + f'\n[layers]\ngrid = "{file}"\n', "utf-8")
+    msgs = problems_of(root)
+    want = f"grid: {file!r} is a symbolic link that leads to no file (a loop or a missing target)"
+    assert want in msgs
+
+
+def test_an_unclosed_ring_is_a_problem_without_a_warning(tmp_path, recwarn):
+    root = write(tmp_path)
+    path = root / "rows.geojson"
+    data = json.loads(path.read_text(encoding="utf-8"))
+    (x0, y0), (x1, _) = data["features"][0]["geometry"]["coordinates"][:2]
+    # a rectangle whose last corner is not a number: the ring no longer closes
+    ring = [[x0, y0], [x1, y0], [x1, y0 + 4.0], [x0, y0 + 4.0], [float("nan"), y0]]
+    data["features"][0]["geometry"] = {"type": "Polygon", "coordinates": [ring]}
+    path.write_text(json.dumps(data).replace("NaN", "nan"), encoding="utf-8")
+    assert any(p.startswith("rows: cannot read rows.geojson") for p in problems_of(root))
+    assert not [w for w in recwarn if "ring" in str(w.message).lower()]
 
 
 def test_truncated_file(tmp_path):

@@ -9,6 +9,8 @@ from importlib.metadata import version
 from typer.testing import CliRunner
 
 from routeplan.cli import app
+from routeplan.errors import FolderError
+from routeplan.folder import OutputFolder
 from tests.conftest import write_site
 
 runner = CliRunner()
@@ -70,3 +72,44 @@ def test_control_characters_of_the_users_text_never_reach_the_terminal(tmp_path)
     assert result.exit_code == 0, result.output
     assert "\x1b" not in result.output
     assert "site     Field\\x1b[2J\\x0aB\n" in result.output
+
+
+def test_a_link_loop_among_the_inputs_is_named_not_an_internal_error(tmp_path):
+    # Python 3.11 resolves a symbolic-link loop with RuntimeError: the output folder's guard
+    # of the inputs met it first and reported routeplan's fault; the layer is named instead
+    site = write_site(tmp_path / "site")
+    (site / "grid.geojson").unlink()
+    (site / "grid.geojson").symlink_to("grid.geojson")
+    for command in ("plan", "place"):
+        extra = ["--inverter", "INV1"] if command == "place" else []
+        result = runner.invoke(app, [command, str(site), "--out", str(tmp_path / "out"), *extra])
+        assert result.exit_code == 2, result.output
+        assert "internal error" not in result.output
+        assert (
+            "error: grid: 'grid.geojson' is a symbolic link that leads to no file (a loop or a "
+            "missing target)" in result.stderr.splitlines()
+        )
+        assert not (tmp_path / "out").exists()
+    # an output folder that is a link loop: one line naming it
+    (tmp_path / "loop").symlink_to("loop")
+    site2 = write_site(tmp_path / "site2")
+    result = runner.invoke(app, ["plan", str(site2), "--out", str(tmp_path / "loop")])
+    assert result.exit_code == 2 and "internal error" not in result.output
+    assert result.stderr.startswith(f"error: {tmp_path / 'loop'}")
+
+
+def test_an_input_file_that_is_a_link_loop_does_not_stop_the_folder_guard(tmp_path):
+    # a file of a folder dataset may be a link loop: the guard of the inputs resolved it with
+    # RuntimeError (Python 3.11); it guards the others and leaves that one to the reader
+    data = tmp_path / "dataset"
+    data.mkdir()
+    (data / "loop.dbf").symlink_to("loop.dbf")
+    (data / "kept.shp").write_bytes(b"")
+    for out, refused in ((tmp_path / "out", False), (data, True)):
+        try:
+            folder = OutputFolder.open(out, "plan", protect=[data / "loop.dbf", data / "kept.shp"])
+        except FolderError as exc:
+            assert refused and "never writes over its inputs" in str(exc)
+        else:
+            assert not refused
+            folder.close()
