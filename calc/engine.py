@@ -111,6 +111,9 @@ class SizingInput:
         Default NaN. (A feeder's is taken from its strings.)
     voc_coeff_pct_per_c : *DC* temperature coefficient of the module's Voc [%/°C] (negative);
         NaN = not given (the rule set's factor for missing data applies). Default NaN.
+    modules_in_series : *DC* strings: the modules in series; NaN = not given. Default NaN. Not
+        used in the sizing: a remedy of a Voc above the rated voltage reads it
+        (:func:`calc.pv.max_modules_in_series`).
     n_strings : *DC* strings carried (1 for a string, N for an array). Default 1.
     strings_in_parallel : *DC* strings paralleled without an overcurrent device at the string's
         destination (IEC 62548 S). Default 1.
@@ -165,6 +168,7 @@ class SizingInput:
     isc_bifacial_a: np.ndarray | None = None
     voc_v: np.ndarray | None = None
     voc_coeff_pct_per_c: np.ndarray | None = None
+    modules_in_series: np.ndarray | None = None
     dc_group: np.ndarray | None = None
     ac_max_a: np.ndarray | None = None
     seg_depth_m: np.ndarray | None = None
@@ -440,6 +444,7 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
         ("isc_bifacial_a", np.nan),
         ("voc_v", np.nan),
         ("voc_coeff_pct_per_c", np.nan),
+        ("modules_in_series", np.nan),
         ("ac_max_a", np.nan),
     ):
         a[name] = _arr(getattr(inp, name), n, default)
@@ -488,6 +493,10 @@ def _prepare(inp: SizingInput, design: DesignParams) -> dict:
     bad = dc & ~np.isnan(a["bifaciality"]) & ~((a["bifaciality"] >= 0) & (a["bifaciality"] <= 1))
     if np.any(bad):
         problems.append(f"bifaciality must be within 0-1 at d.c. circuits {_where(bad)}")
+    m = a["modules_in_series"]
+    bad = ~np.isnan(m) & ~((m >= 1) & (m == np.floor(m)))
+    if np.any(bad):
+        problems.append(f"modules_in_series must be a whole number >= 1 at circuits {_where(bad)}")
     bad = dc & ~np.isnan(a["voc_v"]) & ~(a["voc_v"] > 0)
     if np.any(bad):
         problems.append(f"voc_v must be > 0 (or NaN: not checked) at d.c. circuits {_where(bad)}")

@@ -44,6 +44,7 @@ __all__ = [
     "ac_max_current_a",
     "array_design_current_a",
     "fuse_ratings_a",
+    "max_modules_in_series",
     "pv_rule",
     "string_design_current_a",
     "string_protection",
@@ -288,3 +289,39 @@ def voc_max_v(
     beta = np.asarray(voc_coeff_pct_per_c, dtype=float)
     corrected = voc * (1.0 + beta / 100.0 * (float(min_temp_c) - stc_temp_c))
     return np.where(np.isnan(beta), pv_rule("voc_factor_no_data") * voc, corrected)
+
+
+def max_modules_in_series(
+    voc_max_v: ArrayLike, modules_in_series: ArrayLike, rated_v: float
+) -> np.ndarray:
+    """Most modules a string of the same module may hold in series with its highest
+    open-circuit voltage at or below the rated d.c. voltage: ⌊U_rated / V_OC,max per module⌋.
+
+    A string's V_OC,max is its modules' V_OC,max summed (:func:`voc_max_v` is linear in the
+    string's V_OC: the coefficient or the factor for missing data applies per module), so one
+    module's is ``voc_max_v / modules_in_series``; IEC 62548:2016 (from memory) and NEC 690.7(A)
+    bound the string's V_OC,max by the rated voltage of the equipment and cables. NaN where the
+    count or the voltage is not known (or not positive).
+
+    Parameters
+    ----------
+    voc_max_v : array_like
+        The string's highest open-circuit voltage [V] (:func:`voc_max_v`).
+    modules_in_series : array_like
+        Modules in series in the string.
+    rated_v : float
+        Rated d.c. voltage of the cables and equipment [V].
+
+    Examples
+    --------
+    >>> max_modules_in_series([1565.5, 1400.0], [27, 28], 1500.0)  # 57.98 V, 50 V per module
+    array([25., 30.])
+    """
+    voc = np.asarray(voc_max_v, dtype=float)
+    n = np.asarray(modules_in_series, dtype=float)
+    known = (voc > 0) & (n > 0)
+    per_module = np.where(known, voc, 1.0) / np.where(known, n, 1.0)
+    # a count whose string meets the rating exactly fits: a relative margin of 1e-9 keeps
+    # 1500.0000000001 V from the division's last digit off
+    most = np.floor(float(rated_v) / per_module * (1.0 + 1e-9))
+    return np.where(known, most, np.nan)

@@ -188,6 +188,7 @@ def sizing_input(
             "isc_bif": {k: m.isc_bifacial_a for k, m in site.modules.items()},
             "voc": {k: m.voc_v * m.per_string for k, m in site.modules.items()},
             "beta": {k: m.voc_temp_coeff_pct_per_c for k, m in site.modules.items()},
+            "n": {k: float(m.per_string) for k, m in site.modules.items()},
         }
     )
     module_of = pd.Series(site.rows["module"].to_numpy(), index=site.rows["id"].to_numpy())
@@ -199,6 +200,8 @@ def sizing_input(
     phi[s_idx], isc_bif[s_idx] = per_string["phi"].to_numpy(), per_string["isc_bif"].to_numpy()
     voc, beta = np.full(n, np.nan), np.full(n, np.nan)
     voc[s_idx], beta[s_idx] = per_string["voc"].to_numpy(), per_string["beta"].to_numpy()
+    series = np.full(n, np.nan)
+    series[s_idx] = per_string["n"].to_numpy()
 
     # the combiner tree: each combiner's cable; a string's and a sub-array cable's parent
     feeder_of = pd.Series(np.flatnonzero(is_feed), index=from_id[is_feed])
@@ -267,6 +270,7 @@ def sizing_input(
         isc_bifacial_a=isc_bif,
         voc_v=voc,
         voc_coeff_pct_per_c=beta,
+        modules_in_series=series,
         dc_group=dc_group,
         ac_kva=ac_kva,
         ac_v=ac_v,

@@ -54,6 +54,7 @@ import numpy as np
 import pandas as pd
 
 import calc
+from calc.pv import max_modules_in_series
 from calc.tables import load_table
 
 from .routing import joined
@@ -375,7 +376,50 @@ def remedies(
             np.where(prot, "its overcurrent device does not protect the conductor (240.4)", ""),
             np.where(limits != "", "limited by " + limits, ""),
             found[f],
+            _over_voltage(inp, dp, result, kind)[f],
         ],
         "; ",
+    )
+    return out
+
+
+def _over_voltage(
+    inp: calc.SizingInput, dp: calc.DesignParams, result: calc.SizingResult, kind: np.ndarray
+) -> np.ndarray:
+    """The remedy of each d.c. circuit whose highest Voc is above the rated d.c. voltage ("" for
+    the others): no cable changes it. A string passes with fewer modules in series
+    (:func:`calc.pv.max_modules_in_series`: "at most 25 modules per string (27 now)"), or with
+    cables and equipment rated for its Voc; a feeder is sent to its strings' remedies."""
+    n = len(kind)
+    voc = np.asarray(result.voc_max_v, dtype=float)
+    over = np.isfinite(voc) & (voc > dp.dc_rated_v * (1.0 + 1e-9))
+    out = np.full(n, "", dtype=object)
+    if not over.any():
+        return out
+    series = inp.modules_in_series
+    series = np.full(n, np.nan) if series is None else np.asarray(series, dtype=float)
+    most = max_modules_in_series(voc, series, dp.dc_rated_v)
+    volts = _each(voc[over], lambda v: f"{v:.0f} V")  # as the note gives it
+    needed = _each(np.ceil(voc[over]), lambda v: f"{v:.0f} V")  # a rating at or above it
+    where = f" at {dp.min_ambient_c:g} °C is above design.dc_rated_v ({dp.dc_rated_v:g} V)"
+    string = kind[over] == calc.KIND_STRING
+    fewer = np.where(
+        np.isfinite(most[over]) & (most[over] >= 1),
+        "passes with at most "
+        + _each(np.nan_to_num(most[over]), lambda v: str(int(v)))
+        + " modules per string ("
+        + _each(np.nan_to_num(series[over]), lambda v: str(int(v)))
+        + " now: per_string of its module)",
+        np.where(
+            np.isfinite(most[over]),
+            "one module alone is above it",
+            "passes with fewer modules per string",
+        ),
+    )
+    rated = ", or with cables and equipment rated for " + needed + " (design.dc_rated_v)"
+    out[over] = np.where(
+        string,
+        "its Voc " + volts + where + ": " + fewer + rated,
+        "its strings' Voc (up to " + volts + ")" + where + ": see their remedies",
     )
     return out

@@ -61,3 +61,11 @@ def test_an_open_circuit_voltage_of_zero_or_below_is_refused():
     # common practice): 0.5 V and 1 V are accepted
     small = size_circuits(_input(kind=[1, 0, 0], parent=[-1, 0, 0], voc_v=[np.nan, 0.5, 1.0]))
     assert (small.voc_max_v[1:] > [0.5, 1.0]).all()
+
+
+def test_a_count_of_modules_in_series_below_one_or_not_whole_is_refused():
+    # modules in series are counted: 1, 2, … (NaN: not given)
+    inp = _input(kind=[1, 0, 0, 0], parent=[-1, 0, 0, 0], modules_in_series=[np.nan, 0, 2.5, 27])
+    assert _refusal(inp) == "modules_in_series must be a whole number >= 1 at circuits [1, 2]"
+    ok = size_circuits(_input(kind=[1, 0], parent=[-1, 0], modules_in_series=[np.nan, 27]))
+    assert ok.ok.all()  # not used in the sizing

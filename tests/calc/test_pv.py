@@ -13,8 +13,10 @@ from calc.pv import (
     ac_current_a,
     ac_max_current_a,
     array_design_current_a,
+    max_modules_in_series,
     string_design_current_a,
     string_protection,
+    voc_max_v,
 )
 
 
@@ -89,3 +91,26 @@ def test_phases_other_than_one_or_three_are_refused():
     with pytest.raises(InputError) as e:
         ac_current_a([100.0, 100.0], [400.0, 400.0], [3, 2])
     assert str(e.value) == "phases must be 1 or 3"
+
+
+def test_most_modules_in_series_under_the_rated_voltage():
+    # IEC 62548:2016 (from memory; NEC 2023 690.7(A)(1) alike): a string's V_OC,max is each
+    # module's V_OC at STC corrected with the maker's coefficient to the lowest temperature,
+    # V_OC,max = V_OC · (1 + β/100 · (T_min − 25 °C)), summed over the modules in series; the
+    # most modules are the largest n with n · V_OC,max(module) ≤ U_rated. Worked here from the
+    # formula, not from calc: a 49.6 V module at β = −0.26 %/°C and −40 °C gives
+    # 49.6 · (1 + 0.0026 · 65) = 57.9824 V, and 1500 / 57.9824 = 25.87 → 25.
+    per_module = 49.6 * (1 + (-0.26 / 100) * (-40 - 25))
+    assert per_module == pytest.approx(57.9824)
+    strings = np.array([27, 27, 25, 1])
+    got = max_modules_in_series(strings * per_module, strings, 1500.0)
+    assert got.tolist() == [25.0, 25.0, 25.0, 25.0]  # the same module: the same answer
+    # a string exactly at the rating fits; a module alone above it leaves none
+    assert max_modules_in_series([1500.0], [30], 1500.0).tolist() == [30.0]
+    assert max_modules_in_series([2999.0], [2], 1500.0).tolist() == [1.0]
+    assert max_modules_in_series([1600.0], [1], 1500.0).tolist() == [0.0]
+    # unknown count or voltage: no answer
+    assert np.isnan(max_modules_in_series([1600.0, np.nan, 1600.0], [np.nan, 27, 0], 1500.0)).all()
+    # what calc's own V_OC,max gives (the string's V_OC at STC and the coefficient), the same n
+    voc = voc_max_v([27 * 49.6], [-0.26], -40.0)
+    assert max_modules_in_series(voc, [27], 1500.0).tolist() == [25.0]

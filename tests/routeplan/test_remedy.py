@@ -209,3 +209,39 @@ def test_a_remedy_child_that_fails_leaves_the_remedies_to_this_process(narrow, m
 
     monkeypatch.setattr(pipeline, "plan_remedies", dies_in_a_child)
     assert plan(root).circuits["remedy"].tolist() == c["remedy"].tolist()
+
+
+@pytest.mark.parametrize("demo", ["demo_site", "demo_site_us"])
+def test_a_voc_above_the_rating_is_remedied_by_the_most_modules_that_fit(tmp_path, demo):
+    # The invented demo sites on a colder record low (−40 °C): every string's V_OC,max is
+    # above design.dc_rated_v (IEC 62548:2016 / NEC 2023 690.7(A), from memory), which no
+    # cable changes. Each string's remedy names the most modules per string that fit; applied
+    # in site.toml, no string is above the rating, and one module more is.
+    def planned(per_string: int):
+        root = tmp_path / f"{demo}-{per_string}"
+        shutil.copytree(DEMO.parent / demo, root)
+        toml = (root / "site.toml").read_text(encoding="utf-8")
+        toml, n = re.subn(r"(?m)^min_ambient_c = .*$", "min_ambient_c = -40.0", toml)
+        toml, m = re.subn(r"(?m)^per_string = 27", f"per_string = {per_string}", toml)
+        assert n == m == 1
+        (root / "site.toml").write_text(toml, encoding="utf-8")
+        return plan(root).circuits
+
+    c = planned(27)
+    voc = c["note"].str.contains("exceeds the rated 1500 V")
+    strings = c["kind"] == "string"
+    assert (voc & strings).sum() == strings.sum()  # every string, and their feeders
+    found = c.loc[strings, "remedy"].str.extract(r"at most (\d+) modules per string \(27 now")[0]
+    assert found.notna().all(), c.loc[strings, "remedy"].iloc[0]
+    (most,) = set(found.astype(int))
+    assert (
+        c.loc[strings, "remedy"]
+        .str.contains(r"or with cables and equipment rated for \d+ V \(design.dc_rated_v\)")
+        .all()
+    )
+    feeders = voc & ~strings
+    assert feeders.any() and c.loc[feeders, "remedy"].str.endswith("see their remedies").all()
+    # the remedy applied: no Voc above the rating (nor any failure it caused); one more fails
+    fits, over = planned(most), planned(most + 1)
+    assert not fits["note"].str.contains("exceeds the rated").any()
+    assert over.loc[over["kind"] == "string", "note"].str.contains("exceeds the rated 1500").all()
