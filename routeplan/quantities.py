@@ -4,10 +4,11 @@ One line per cable type (kind, conductor material and size) with its designation
 standard — EN 50618 PV cable for strings, a single-core cable of IEC 60502-1 construction for
 the feeders (sub-array, array and a.c. circuits) — its conductor class (IEC 60228),
 insulation, rated voltage and conductor metres (allowances included); the terminations and PV
-connectors per size; fuses and breakers by rating; trench metres by laying and depth; a total
-per item family. The designations' texts and the rated voltages come from data files beside
-this module (``routeplan/data/``), each naming its standard, edition and clause and tagged
-``memory`` where recalled.
+connectors per size; fuses and breakers by rating; trench metres by laying and depth (those
+that carry circuits, and apart, as ``unused trench``, those the site's trench layer draws where
+no circuit of the plan runs); a total per item family. The designations' texts and the rated
+voltages come from data files beside this module (``routeplan/data/``), each naming its
+standard, edition and clause and tagged ``memory`` where recalled.
 
 Counting rules (each a stated convention the tests check):
 
@@ -71,6 +72,7 @@ FAMILIES: tuple[str, ...] = (
     "termination",
     "connector",
     "trench",
+    "unused trench",
     "fuse",
     "breaker",
 )
@@ -523,23 +525,34 @@ def _over_1500(dc_v: float, standard: str) -> str:
 
 
 def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
+    """Trench metres by laying and depth: those that carry a circuit of the plan (item
+    ``trench``), and apart, those the site's trench layer draws where no circuit runs (item
+    ``unused trench``, its own total: a buyer decides whether to dig them). A trench schedule
+    without a ``circuits`` column counts every segment as carrying circuits."""
     d = designation("trench_us" if unit == "ft" else "trench")
-    t = segments.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
-    return [
-        {
-            "item": "trench",
-            "family": "trench",
-            "laying": r.laying,
-            "depth_m": float(r.depth_m),
-            "quantity": float(r.length_m),
-            "unit": "m",
-            "designation": d["text"].format(
-                laying=r.laying, depth=f"{r.depth_m:g}", depth_ft=f"{r.depth_m / FOOT_M:.2f}"
-            ),
-            "tag": d["tag"],
-        }
-        for r in t.itertuples(index=False)
-    ]
+    count = segments["circuits"] if "circuits" in segments else pd.Series(1, segments.index)
+    used = count.to_numpy(dtype=float) > 0
+    lines = []
+    for item, part in (("trench", segments[used]), ("unused trench", segments[~used])):
+        t = part.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
+        note = np.nan if item == "trench" else "no circuit of this plan runs here"
+        lines += [
+            {
+                "item": item,
+                "family": item,
+                "laying": r.laying,
+                "depth_m": float(r.depth_m),
+                "quantity": float(r.length_m),
+                "unit": "m",
+                "designation": d["text"].format(
+                    laying=r.laying, depth=f"{r.depth_m:g}", depth_ft=f"{r.depth_m / FOOT_M:.2f}"
+                ),
+                "tag": d["tag"],
+                "note": note,
+            }
+            for r in t.itertuples(index=False)
+        ]
+    return lines
 
 
 def _fuse_lines(circuits: pd.DataFrame, dc_v: float, nec: bool = False) -> list[dict]:

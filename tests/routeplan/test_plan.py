@@ -73,7 +73,8 @@ def test_file_set_and_contract_columns(demo_out):
         "array fuse",
         "AC breaker",
         *(f"{family} total" for family in ("cable", "termination", "connector pair")),
-        *(f"{family} total" for family in ("trench", "fuse", "breaker")),
+        "unused trench",  # the demo's trench layer draws corridors no circuit takes
+        *(f"{family} total" for family in ("trench", "unused trench", "fuse", "breaker")),
     }
     # the demo collects DC three ways: combiners, recombiners (sub-arrays), string inverters
     assert set(sched["kind"]) == {"string", "subarray", "array", "ac"}

@@ -36,7 +36,7 @@ from ..conftest import SITE_TOML, base_frames, write_site
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_site"
 runner = CliRunner()
-FAMILIES = ["cable", "termination", "connector", "trench", "fuse", "breaker"]
+FAMILIES = ["cable", "termination", "connector", "trench", "unused trench", "fuse", "breaker"]
 KINDS = ["string", "subarray", "array", "ac"]
 FUSE_ITEM = {"string": "string fuse", "subarray": "sub-array fuse", "array": "array fuse"}
 
@@ -89,8 +89,8 @@ def written_bill(out: Path) -> list[tuple[tuple, float, dict]]:
         item = q["item"]
         if item.endswith(" total"):
             key = (item,)
-        elif item == "trench":
-            key = ("trench", q["laying"], float(q["depth_m"]))
+        elif item in ("trench", "unused trench"):
+            key = (item, q["laying"], float(q["depth_m"]))
         elif item in ("cable", "termination", "connector pair"):
             key = (item, q["kind"], q["material"], float(q["size_mm2"]))
         elif item == "AC breaker":
@@ -107,9 +107,10 @@ def check_bill(out: Path) -> None:
     lines = written_bill(out)
     keys = [k for k, _, _ in lines]
     assert len(keys) == len(set(keys))  # one line per key
-    assert {k for k in keys if k[0] != "trench" and len(k) > 1} == set(bill)
+    trench = ("trench", "unused trench")
+    assert {k for k in keys if k[0] not in trench and len(k) > 1} == set(bill)
     for key, quantity, q in lines:
-        if len(key) == 1 or key[0] == "trench":
+        if len(key) == 1 or key[0] in trench:
             continue
         if key[0] == "cable":
             assert quantity == pytest.approx(bill[key], abs=tol[key] + 0.005), key
@@ -146,14 +147,27 @@ def trench_lengths(site: Path, defaults: dict[str, object]) -> dict[tuple, float
 
 def check_trench(out: Path, site: Path, defaults: dict[str, object]) -> None:
     expected = trench_lengths(site, defaults)
-    got = {(k[1], k[2]): v for k, v, _ in written_bill(out) if k[0] == "trench"}
+    got: dict[tuple, float] = {}  # where circuits run and where none does, together
+    for k, v, _ in written_bill(out):
+        if k[0] in ("trench", "unused trench"):
+            got[(k[1], k[2])] = got.get((k[1], k[2]), 0.0) + v
     assert set(got) == set(expected)
     for key, metres in expected.items():
         # shapely's length of the trench features; the segments' lengths are summed in the
         # bill (noding moves vertices by at most node_tol_m: 1 cm per metre of rounding is ample)
         assert got[key] == pytest.approx(metres, rel=1e-6, abs=0.01), key
-    total = next(v for k, v, _ in written_bill(out) if k == ("trench total",))
+    total = sum(
+        v for k, v, _ in written_bill(out) if k in (("trench total",), ("unused trench total",))
+    )
     assert total == pytest.approx(sum(expected.values()), abs=0.01 * len(expected))
+    # the unused part: the trench segments of routes.gpkg along which no circuit's route runs
+    # (shapely: the segment's middle more than 1 cm from every route), not the schedule's counts
+    segments = gpd.read_file(out / "routes.gpkg", layer="segments").geometry
+    routes = gpd.read_file(out / "routes.gpkg", layer="circuits").geometry.union_all()
+    middle = segments.interpolate(0.5, normalized=True)
+    unused = float(segments[middle.distance(routes) > 0.01].length.sum())
+    bill_unused = sum(v for k, v, _ in written_bill(out) if k == ("unused trench total",))
+    assert unused > 0 and bill_unused == pytest.approx(unused, abs=0.01)
 
 
 @pytest.fixture(scope="module")
@@ -408,6 +422,7 @@ HAND_SEGMENTS = pd.DataFrame(
         "laying": ["direct", "duct", "direct", "direct"],
         "depth_m": [0.8, 1.0, 0.8, 0.6],
         "length_m": [100.0, 30.0, 50.0, 20.0],
+        "circuits": [3, 1, 2, 0],  # the last carries none: apart, as unused trench
     }
 )
 
@@ -452,11 +467,13 @@ def test_hand_built_bill_line_by_line():
         ("connector pair", "string", "Cu", 4.0, n, n, 4.0, "pcs", n, n, "connector", "1×4", n),
         ("connector pair", "string", "Cu", 6.0, n, n, 4.0, "pcs", n, n, "connector", "1×6", n),
         ("connector pair total", n, n, n, n, n, 8.0, "pcs", n, n, "connector", n, n),
-        # trench metres by laying and depth: 20; 100 + 50; 30
-        ("trench", n, n, n, "direct", 0.6, 20.0, "m", n, n, "trench", n, n),
+        # trench metres by laying and depth where circuits run: 100 + 50; 30; apart, the 20 m
+        # that carry none
         ("trench", n, n, n, "direct", 0.8, 150.0, "m", n, n, "trench", n, n),
         ("trench", n, n, n, "duct", 1.0, 30.0, "m", n, n, "trench", n, n),
-        ("trench total", n, n, n, n, n, 200.0, "m", n, n, "trench", n, n),
+        ("trench total", n, n, n, n, n, 180.0, "m", n, n, "trench", n, n),
+        ("unused trench", n, n, n, "direct", 0.6, 20.0, "m", n, n, "unused trench", n, n),
+        ("unused trench total", n, n, n, n, n, 20.0, "m", n, n, "unused trench", n, n),
         # fuses: 2 poles × protected circuits: R1 and R2 at 20 A; CB1's 125 A; CB2's 400 A
         ("string fuse", "string", n, n, n, n, 4.0, "pcs", 20.0, n, "fuse", n, n),
         ("sub-array fuse", "subarray", n, n, n, n, 2.0, "pcs", 125.0, n, "fuse", n, n),
@@ -567,9 +584,10 @@ def test_hand_built_bill_designations():
         (pair.format(4, 13), "1500 V DC", n, "IEC 62852", IEC62852, mem, ""),
         (pair.format(6, 15), "1500 V DC", n, "IEC 62852", IEC62852, mem, ""),
         total,
-        (trench.format("direct", "0.6"), n, n, n, n, cp, n),
         (trench.format("direct", "0.8"), n, n, n, n, cp, n),
         (trench.format("duct", "1"), n, n, n, n, cp, n),
+        total,
+        (trench.format("direct", "0.6"), n, n, n, n, cp, "no circuit of this plan runs here"),
         total,
         (fuse.format(20), "1500 V DC", n, "IEC 60269-6", IEC60269, mem, ""),
         (fuse.format(125), "1500 V DC", n, "IEC 60269-6", IEC60269, mem, ""),
@@ -832,7 +850,8 @@ def test_a_bill_without_connectors_and_fuses_keeps_the_families_after_them():
     assert cells(totals, ["item", "quantity"]) == [
         ("cable total", 240.0 + 800.0 + 3000.0 + 180.0),
         ("termination total", 4.0 + 8.0 + 12.0 + 6.0),
-        ("trench total", 200.0),
+        ("trench total", 180.0),
+        ("unused trench total", 20.0),
         ("breaker total", 2.0),
     ]
 

@@ -174,7 +174,8 @@ def test_bill_in_feet_equals_the_schedules_metres_over_0_3048(us_plan):
         tol[key] += 0.005 * int(r["conductors"])
     trench_m: dict[tuple, float] = defaultdict(float)
     for s in read_csv(us_plan / "trench_schedule.csv"):
-        trench_m[(s["laying"], float(s["depth_m"]))] += float(s["length_m"])
+        item = "trench" if int(s["circuits"]) > 0 else "unused trench"
+        trench_m[(item, s["laying"], float(s["depth_m"]))] += float(s["length_m"])
     bill = read_csv(us_plan / "quantities.csv")
     seen_cable, seen_trench = set(), set()
     for q in bill:
@@ -185,8 +186,8 @@ def test_bill_in_feet_equals_the_schedules_metres_over_0_3048(us_plan):
                 cable_m[key] / 0.3048, abs=(tol[key] + 0.005) / 0.3048
             )
             seen_cable.add(key)
-        elif q["item"] == "trench":
-            key = (q["laying"], float(q["depth_m"]))
+        elif q["item"] in ("trench", "unused trench"):
+            key = (q["item"], q["laying"], float(q["depth_m"]))
             assert q["unit"] == "ft"
             assert float(q["quantity"]) == pytest.approx(trench_m[key] / 0.3048, abs=0.1)
             # the depth in feet, then metres: 0.8 m = 2.62 ft
