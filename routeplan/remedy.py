@@ -37,6 +37,11 @@ Each what-if sizing goes through a :class:`WhatIfs` (by default: the whole plan 
 which keeps what a remedy reads of it: a local re-plan (:mod:`routeplan.localplan`) re-sizes
 only the circuits an edit can change in each what-if, from the last run's.
 
+A Voc above ``design.dc_rated_v`` (at the record low, :func:`calc.pv.voc_max_v`) is changed by
+no cable: a string's remedy gives the most modules in series that fit
+(:func:`calc.pv.max_modules_in_series`), or a rating for cables and equipment at or above its
+Voc; its feeders' remedies point to their strings'.
+
 Before the change, a remedy names the stretch that governs the capacity (a trench segment id,
 a row run or stub) and the settings that stop the sizing (the size list, ``max_parallel``,
 the drop limit). A circuit that none of the changes makes pass keeps only these: a shorter
@@ -387,8 +392,8 @@ def _over_voltage(
     inp: calc.SizingInput, dp: calc.DesignParams, result: calc.SizingResult, kind: np.ndarray
 ) -> np.ndarray:
     """The remedy of each d.c. circuit whose highest Voc is above the rated d.c. voltage ("" for
-    the others): no cable changes it. A string passes with fewer modules in series
-    (:func:`calc.pv.max_modules_in_series`: "at most 25 modules per string (27 now)"), or with
+    the others): no cable changes it. A string is told the most modules in series that fit
+    (:func:`calc.pv.max_modules_in_series`: "at most 25 modules per string fit (27 now …)"), or
     cables and equipment rated for its Voc; a feeder is sent to its strings' remedies."""
     n = len(kind)
     voc = np.asarray(result.voc_max_v, dtype=float)
@@ -405,15 +410,15 @@ def _over_voltage(
     string = kind[over] == calc.KIND_STRING
     fewer = np.where(
         np.isfinite(most[over]) & (most[over] >= 1),
-        "passes with at most "
+        "at most "
         + _each(np.nan_to_num(most[over]), lambda v: str(int(v)))
-        + " modules per string ("
+        + " modules per string fit ("
         + _each(np.nan_to_num(series[over]), lambda v: str(int(v)))
         + " now: per_string of its module)",
         np.where(
             np.isfinite(most[over]),
             "one module alone is above it",
-            "passes with fewer modules per string",
+            "fewer modules per string",
         ),
     )
     rated = ", or with cables and equipment rated for " + needed + " (design.dc_rated_v)"

@@ -231,7 +231,9 @@ def test_a_voc_above_the_rating_is_remedied_by_the_most_modules_that_fit(tmp_pat
     voc = c["note"].str.contains("exceeds the rated 1500 V")
     strings = c["kind"] == "string"
     assert (voc & strings).sum() == strings.sum()  # every string, and their feeders
-    found = c.loc[strings, "remedy"].str.extract(r"at most (\d+) modules per string \(27 now")[0]
+    found = c.loc[strings, "remedy"].str.extract(r"at most (\d+) modules per string fit \(27 now")[
+        0
+    ]
     assert found.notna().all(), c.loc[strings, "remedy"].iloc[0]
     (most,) = set(found.astype(int))
     assert (
