@@ -368,6 +368,11 @@ ASSUMPTIONS: tuple[str, ...] = (
     "(bunched, the most onerous, unless site.toml says otherwise).",
     "The depth factor uses a common-practice outer diameter of the buried circuit and duct "
     "where the design gives none (calc/data/design_defaults.csv).",
+    "The depth factor is that of one isolated cable (IEC 60287-2-1 external thermal "
+    "resistance against 0.7 m) and multiplies the grouping factors tabulated at 0.7 m: the "
+    "mutual heating of a group laid much deeper is not derived again, so for grouped trenches "
+    "deeper than about 1 m the capacity may be optimistic; have them rated by the full "
+    "IEC 60287 method.",
     "Grouping factors use each stretch's actual circuit count, parallel sets counted; "
     "circuits in one trench are spaced spacing_m apart (0 = touching, conservative).",
     "Values tagged 'memory' or 'memory-low' were recalled rather than read in the standard; "
