@@ -85,14 +85,16 @@ DESIGN_KEYS: tuple[Key, ...] = (
         2.5,
         0.3,
         6.0,
-        note="soil thermal resistivity (default: 2.5 K·m/W, the IEC 60364-5-52 reference)",
+        note="soil thermal resistivity where a trench has none (default: 2.5 K·m/W, the "
+        "IEC 60364-5-52 reference)",
     ),
     Key(
         "depth_m",
         0.7,
         0.2,
         5.0,
-        note="depth to the cables (default: 0.7 m, the IEC 60364-5-52 reference)",
+        note="depth to the cables where a trench has none (default: 0.7 m, the IEC 60364-5-52 "
+        "reference)",
     ),
     Key(
         "laying", "direct", choices=("direct", "duct"), note="trench laying where a trench has none"
@@ -102,7 +104,7 @@ DESIGN_KEYS: tuple[Key, ...] = (
         0.0,
         0.0,
         2.0,
-        note="clear distance between circuits; 0 = touching (conservative)",
+        note="clear distance between circuits where a trench has none; 0 = touching (conservative)",
     ),
     Key(
         "max_circuits",
