@@ -734,6 +734,7 @@ def circuit_table(
             "governing_condition": governing_condition(
                 r.design_current_a, r.ampacity_a, r.terminal_required_a, r.terminal_ampacity_a
             ),
+            "sc_min_mm2": r.sc_min_mm2,
         }
     )
     # the frame is this function's own: wrapped, not copied

@@ -111,6 +111,13 @@ CIRCUIT_COLUMNS: tuple[Col, ...] = (
         "the maximum current in the 110.14(C) terminal column, uncorrected) or '690.8(B)(2)' "
         "(the maximum current after correction and adjustment); empty under iec",
     ),
+    Col(
+        "sc_min_mm2",
+        "mm²",
+        1,
+        "AC circuits, when fault_ka is set: the smallest cross-section per conductor that "
+        "withstands the fault (adiabatic, IEC 60364-4-43 434.5.2: fault_ka · √clear_s / k)",
+    ),
 )
 
 SEGMENT_COLUMNS: tuple[Col, ...] = (

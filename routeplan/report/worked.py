@@ -846,6 +846,7 @@ def _protection_steps(row: pd.Series, design: DesignConfig) -> list[Step]:
                 "calc.protection.overload_check; schedule column protection",
             )
         )
+        steps += _short_circuit_steps(row, design)
     else:
         string = kind == "string"
         fuse_col = "fuse_a" if string else "array_fuse_a"
@@ -880,6 +881,31 @@ def _protection_steps(row: pd.Series, design: DesignConfig) -> list[Step]:
             )
         )
     return steps
+
+
+def _short_circuit_steps(row: pd.Series, design: DesignConfig) -> list[Step]:
+    """The adiabatic withstand of an AC circuit (IEC 60364-4-43:2008 434.5.2), when the design
+    gives a fault level: S_min = I_k · √t / k, k of Table 43A for the cable's material,
+    insulation and size; each conductor carries the whole fault current (conservative)."""
+    fault_ka, clear_s = float(design.values["fault_ka"]), float(design.values["clear_s"])
+    if not (math.isfinite(fault_ka) and math.isfinite(clear_s)) or pd.isna(row["sc_min_mm2"]):
+        return []
+    size = float(row["size_mm2"])
+    rules = calc.get_rules(design.values["rules"])
+    k = float(rules.k_adiabatic(str(row["material"]), str(row["insulation"]), np.array([size]))[0])
+    s_min = fault_ka * 1e3 * math.sqrt(clear_s) / k
+    ok = size >= s_min * (1 - 1e-9)
+    return [
+        Step(
+            "Short-circuit withstand",
+            "S ≥ S_min = I_k · √t / k (IEC 60364-4-43:2008 434.5.2, adiabatic)",
+            f"{_num(fault_ka * 1e3)} × √{_num(clear_s)} / {_num(k)} = {_num(s_min)} mm² ≤ "
+            f"{_num(size)} mm²: {'passes' if ok else 'FAILS'}",
+            s_min,
+            "mm²",
+            _source("iec60364_4_43_2008_table_43a_k.csv") + "; schedule column sc_min_mm2",
+        )
+    ]
 
 
 @dataclass(frozen=True)

@@ -478,3 +478,24 @@ def test_the_air_table_is_worked_at_its_own_rows():
     assert t["circuits"][rows].tolist() == [20]
     assert note == " (beyond the table: 1/k² extrapolated linearly, derived)"
     assert _count_row(t["circuits"], 4.0, t["bunched"], 0.65)[1] == ""
+
+
+def test_ac_short_circuit_withstand_by_hand(demo):
+    """The demo gives fault_ka = 25 kA and clear_s = 0.2 s: the adiabatic minimum of
+    IEC 60364-4-43:2008 434.5.2, S = I·√t / k, with k = 94 for aluminium under XLPE (Table 43A,
+    confirmed; BS 7671 Table 43.1 alike): 25 000 × √0.2 / 94 = 118.94 mm² for every AC circuit
+    (the whole fault current in each conductor, conservative); its 120 mm² cables pass by 1 %."""
+    rows, worked = demo
+    s_min = 25_000 * math.sqrt(0.2) / 94
+    assert s_min == pytest.approx(118.94, abs=0.005)
+    ac = {cid: r for cid, r in rows.items() if r["kind"] == "ac"}
+    assert ac and all(float(r["sc_min_mm2"]) == pytest.approx(s_min, abs=0.05) for r in ac.values())
+    assert all(r["sc_min_mm2"] == "" for r in rows.values() if r["kind"] != "ac")
+    shown = [c for c in worked.circuits if c.kind == "ac"]
+    assert shown
+    for w in shown:  # each AC circuit the report works through
+        step = w.step("Short-circuit withstand")
+        assert step.value == pytest.approx(s_min, rel=1e-9) and step.unit == "mm²"
+        size = float(rows[w.circuit_id]["size_mm2"])
+        assert step.substituted == f"25000 × √0.2 / 94 = 118.94 mm² ≤ {size:g} mm²: passes"
+        assert "Table 43A" in step.source
