@@ -440,6 +440,11 @@ NEC_ASSUMPTIONS: tuple[str, ...] = (
     "calculation): every such circuit carries a review note.",
     "Where conductors share a stretch in air their arrangement is the kind's air_arrangement "
     "(bunched: Table 310.15(C)(1) applies; spaced: not adjusted).",
+    "Conductors in air, bunched ones included, start from Table 310.17 (single insulated "
+    "conductors in free air) before the 310.15(C)(1) adjustment; some authorities rate "
+    "bundled conductors from Table 310.16 instead, which gives lower ampacities: where the "
+    "authority having jurisdiction does, check the bunched string and feeder runs in air "
+    "against it.",
     ASSUMPTIONS[-1],
 )
 
