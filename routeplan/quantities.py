@@ -21,7 +21,8 @@ Counting rules (each a stated convention the tests check):
   conductors for strings to an inverter (a pair: plug and socket of one type and maker, since
   mated halves must match — IEC 62548:2016, from memory);
 - fuses: one per pole (2) of each protected d.c. circuit (unearthed PV arrays are protected in
-  both poles — IEC 62548, from memory); breakers: one per a.c. circuit, by rating and poles.
+  both poles — IEC 62548, from memory; under nec the line notes that 690.9(C) permits one per
+  circuit, all in one polarity); breakers: one per a.c. circuit, by rating and poles.
 - equipment grounding conductors (``rules = "nec"`` only; family ``grounding``): one per circuit
   and parallel set (250.122(F), one EGC in each parallel raceway or cable), ``cable_m`` long, sized
   by NEC 2023 Table 250.122 for the rating of the circuit's overcurrent device — the string fuse
@@ -577,10 +578,17 @@ def _fuse_lines(circuits: pd.DataFrame, dc_v: float, nec: bool = False) -> list[
                     "standard": "UL 2579" if nec else "IEC 60269-6",
                     "source": _source(d),
                     "tag": d["tag"],
-                    "note": "" if nec else _over_1500(dc_v, "IEC 60269-6"),
+                    "note": _NEC_ONE_POLE if nec else _over_1500(dc_v, "IEC 60269-6"),
                 }
             )
     return lines
+
+
+#: the note of a NEC fuse line: the bill counts both poles, the code permits one
+_NEC_ONE_POLE = (
+    "two per circuit (both poles); NEC 2023 690.9(C) permits one per circuit where every "
+    "such device of the system is in the same polarity (from memory): half as many then"
+)
 
 
 def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> list[dict]:
