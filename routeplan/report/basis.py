@@ -375,6 +375,10 @@ ASSUMPTIONS: tuple[str, ...] = (
     "IEC 60287 method.",
     "Grouping factors use each stretch's actual circuit count, parallel sets counted; "
     "circuits in one trench are spaced spacing_m apart (0 = touching, conservative).",
+    "The parallel sets of one circuit share its current equally (same material, size, length "
+    "and route, as IEC 60364-4-43:2008 433.4.1 asks); a fault on one set fed from both ends by "
+    "the others (434.4) is not checked: review circuits of several sets without protection "
+    "of each set.",
     "Values tagged 'memory' or 'memory-low' were recalled rather than read in the standard; "
     "'common practice' marks rules of thumb without a published source. Check them against "
     "the standards in force before relying on them.",
