@@ -18,6 +18,8 @@ depth are not represented; engineered ratings (310.14(B)) are not provided here 
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from numpy.typing import ArrayLike
 
@@ -120,6 +122,18 @@ def ambient_factor(ambient_c: ArrayLike, rating_c: int) -> np.ndarray:
     inside = idx < len(upper)
     out[inside] = t[col][idx[inside]]
     return out
+
+
+def ambient_limit_c(rating_c: int) -> float:
+    """The highest ambient [°C] the 310.15(B)(1) table corrects a conductor of this
+    temperature rating for (the upper end of its last row with a factor; NEC 2023).
+
+    >>> ambient_limit_c(90), ambient_limit_c(60)
+    (85.0, 55.0)
+    """
+    t = load_table(_AMB)
+    given = np.flatnonzero(np.isfinite(t[f"f_{_rating(rating_c)}"]))
+    return float(t["temp_max_c"][given[-1]]) if len(given) else math.nan
 
 
 def ambient_factor_formula(

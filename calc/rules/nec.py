@@ -218,7 +218,8 @@ class NecRules(RuleSet):
         if np.isnan(f):
             raise InputError(
                 f"NEC 2023 310.15(B)(1): no ambient correction for {insulation} conductors at "
-                f"{temp_c:g} °C (the ambient reaches the conductor's rating)"
+                f"{temp_c:g} °C (the table corrects a {self._rating(insulation)} °C conductor up "
+                f"to {ampacity.ambient_limit_c(self._rating(insulation)):g} °C ambient)"
             )
         return f
 

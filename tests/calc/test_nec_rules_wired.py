@@ -400,13 +400,17 @@ def test_depth_factor_takes_the_shape_of_both_inputs():
 
 
 def test_ambient_beyond_the_column_is_refused_in_one_line():
-    # 310.15(B)(1): the 60 °C column has no factor above 55 °C
+    # 310.15(B)(1): the 60 °C column has no factor above 55 °C, the 90 °C one above 85 °C
+    # (its last row 81–85 °C; from memory): the message names the column's end
     with pytest.raises(InputError) as e:
         R.air_temp_factor(58.0, "60C")
     assert str(e.value) == (
-        "NEC 2023 310.15(B)(1): no ambient correction for 60C conductors at 58 °C (the ambient "
-        "reaches the conductor's rating)"
+        "NEC 2023 310.15(B)(1): no ambient correction for 60C conductors at 58 °C (the table "
+        "corrects a 60 °C conductor up to 55 °C ambient)"
     )
+    assert R.air_temp_factor(85.0, "PV") > 0
+    with pytest.raises(InputError, match=r"at 87 °C \(the table corrects a 90 °C conductor up "):
+        R.air_temp_factor(87.0, "PV")
 
 
 def test_resistance_at_75_c_is_chapter_9_table_8():
