@@ -533,8 +533,10 @@ def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
     d = designation("trench_us" if unit == "ft" else "trench")
     count = segments["circuits"] if "circuits" in segments else pd.Series(1, segments.index)
     used = count.to_numpy(dtype=float) > 0
+    # the three columns summed, not the whole trench schedule (geometries included)
+    table = pd.DataFrame({c: segments[c].to_numpy() for c in ("laying", "depth_m", "length_m")})
     lines = []
-    for item, part in (("trench", segments[used]), ("unused trench", segments[~used])):
+    for item, part in (("trench", table[used]), ("unused trench", table[~used])):
         t = part.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
         note = np.nan if item == "trench" else "no circuit of this plan runs here"
         lines += [
