@@ -966,6 +966,8 @@ def summarise(
             "count": len(segments),
             "over_capacity": int((segments["status"] == "over").sum()),
             "trench_m": float(segments["length_m"].sum()),
+            # drawn trench along which no circuit runs (billed apart: routeplan.quantities)
+            "unused_trench_m": float(segments.loc[segments["circuits"] == 0, "length_m"].sum()),
         },
         "inverter_inputs": {
             "count": len(inputs),

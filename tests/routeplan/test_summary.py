@@ -116,6 +116,10 @@ def check_summary(summary: dict, circuits: list[dict], segments: list[dict], con
     assert summary["segments"]["over_capacity"] == len(over)
     trench = sum(num(s["length_m"]) for s in segments)
     assert summary["segments"]["trench_m"] == pytest.approx(trench, abs=0.005 * len(segments))
+    unused = [s for s in segments if int(s["circuits"]) == 0]  # no circuit runs along them
+    assert summary["segments"]["unused_trench_m"] == pytest.approx(
+        sum(num(s["length_m"]) for s in unused), abs=0.005 * max(len(unused), 1)
+    )
     # conductor metres by material and size, in that order
     metres: dict[tuple[str, float], float] = defaultdict(float)
     conductors: dict[tuple[str, float], int] = defaultdict(int)
