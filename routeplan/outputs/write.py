@@ -375,7 +375,7 @@ def _write_files(
         "summary": Schedule.of(summary_rows(summary)),
         **{
             name: Schedule.of(frame)
-            for name, frame in basis_sheets(plan.design, plan.site.config).items()
+            for name, frame in basis_sheets(plan.design, plan.site.config, plan.site).items()
         },
         "caution": Schedule.of(pd.DataFrame({"caution": [CAUTION]})),
     }

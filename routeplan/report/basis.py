@@ -14,6 +14,7 @@ from collections import Counter
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 import calc
@@ -120,16 +121,55 @@ def _given(config: dict[str, Any], *path: str) -> bool:
     return True
 
 
-def settings(design: DesignConfig, config: dict[str, Any]) -> list[Setting]:
+#: ``[design]`` keys that are the default of a layer's attribute: the layer and the attributes
+#: a feature gives its own value in (any of them)
+LAYER_DEFAULTS: dict[str, tuple[str, tuple[str, ...]]] = {
+    "soil_k_m_w": ("trenches", ("soil_k_m_w",)),
+    "depth_m": ("trenches", ("depth_m",)),
+    "laying": ("trenches", ("laying",)),
+    "spacing_m": ("trenches", ("spacing_m",)),
+    "max_circuits": ("trenches", ("max_circuits", "max_cable_sets")),
+    "power_factor": ("inverters", ("pf",)),
+}
+
+
+def layer_default_use(site: Any) -> dict[str, str]:
+    """For each key of :data:`LAYER_DEFAULTS`, how many of the layer's features take the
+    default (a sentence for the settings' note): "here for 4 of 52 trenches (the others give
+    their own laying)". ``site``: a :class:`layers.Site`."""
+    out = {}
+    for key, (layer, attrs) in LAYER_DEFAULTS.items():
+        frame = site.layer(layer)
+        n = len(frame)
+        own = np.zeros(n, dtype=bool)
+        for a in attrs:
+            if a in frame.columns:
+                own |= frame[a].notna().to_numpy()
+        k = int(n - own.sum())
+        given = " or ".join(attrs)
+        if k == n:
+            out[key] = f"here for all {n:,} {layer}"
+        elif k == 0:
+            out[key] = f"here for none of the {n:,} {layer}: each gives its own {given}"
+        else:
+            out[key] = f"here for {k:,} of {n:,} {layer} (the others give their own {given})"
+    return out
+
+
+def settings(design: DesignConfig, config: dict[str, Any], site: Any = None) -> list[Setting]:
     """Every setting in force, in the order of the README's settings table: ``[design]``
     scalars, its sub-tables per kind, then ``[allowances]``. ``config`` is the parsed
     site.toml (:attr:`layers.Site.config`), which tells a sub-table entry set there from a
-    default; a scalar's source is :attr:`DesignConfig.defaulted`."""
+    default; a scalar's source is :attr:`DesignConfig.defaulted`. With the ``site``, the note
+    of a key that is a layer attribute's default says how many features take it
+    (:func:`layer_default_use`)."""
     out: list[Setting] = []
+    use = layer_default_use(site) if site is not None else {}
     for k in DESIGN_KEYS:
         key = f"design.{k.name}"
         source = "default" if key in design.defaulted else "site.toml"
-        out.append(Setting(key, show_value(design.values[k.name]), unit_of(k.name), source, k.note))
+        note = f"{k.note}; {use[k.name]}" if k.name in use else k.note
+        out.append(Setting(key, show_value(design.values[k.name]), unit_of(k.name), source, note))
     rules = calc.get_rules(design.values["rules"])
     code = {
         "string": calc.KIND_STRING,
@@ -473,11 +513,14 @@ def _number_or_text(value: str) -> float | str:
         return value
 
 
-def basis_sheets(design: DesignConfig, config: dict[str, Any]) -> dict[str, pd.DataFrame]:
+def basis_sheets(
+    design: DesignConfig, config: dict[str, Any], site: Any = None
+) -> dict[str, pd.DataFrame]:
     """The design basis as workbook sheets: ``design basis`` (every setting in force: key,
-    value — a number where it is one —, unit, source, note) and ``data tables`` (every calc
-    data table: file, source, tag statement, rows per tag, used by this plan)."""
-    rows = settings(design, config)
+    value — a number where it is one —, unit, source, note; with the ``site``, how many
+    features take a layer attribute's default) and ``data tables`` (every calc data table:
+    file, source, tag statement, rows per tag, used by this plan)."""
+    rows = settings(design, config, site)
     tables = data_tables(design)
     return {
         "design basis": pd.DataFrame(

@@ -267,7 +267,7 @@ def _basis(plan: Any, summary: dict) -> str:
             ("key", "value", "unit", "source", "note"),
             (
                 [("key", esc(s.key)), _t(s.value), _t(s.unit), _t(s.source), _t(s.note)]
-                for s in settings(design, site.config)
+                for s in settings(design, site.config, site)
             ),
             ident="settings",
         )

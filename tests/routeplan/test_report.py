@@ -19,6 +19,7 @@ import tomllib
 from collections import Counter, defaultdict
 from pathlib import Path
 
+import geopandas as gpd
 import pandas as pd
 import pytest
 from typer.testing import CliRunner
@@ -93,6 +94,27 @@ def test_every_setting_key_is_shown_with_its_source(planned):
     assert shown["allowances.termination_m"][1:4] == ["1.5", "m", "site.toml"]
     # a default's note says where the default comes from (routeplan/config.py's Key.note)
     assert "reference" in shown["design.ground_temp_c"][4]
+    # a layer attribute's default says how many features take it: counted here in the demo's
+    # layer files (geopandas), a feature without the attribute takes it
+    trenches = gpd.read_file(DEMO / "trenches.geojson")
+    inverters = gpd.read_file(DEMO / "inverters.geojson")
+    for key, frame, layer, attrs in (
+        ("depth_m", trenches, "trenches", ["depth_m"]),
+        ("laying", trenches, "trenches", ["laying"]),
+        ("soil_k_m_w", trenches, "trenches", ["soil_k_m_w"]),
+        ("max_circuits", trenches, "trenches", ["max_circuits", "max_cable_sets"]),
+        ("power_factor", inverters, "inverters", ["pf"]),
+    ):
+        present = [a for a in attrs if a in frame.columns]
+        own = frame[present].notna().any(axis=1) if present else pd.Series(False, frame.index)
+        k, n = int((~own).sum()), len(frame)
+        note = shown[f"design.{key}"][4]
+        if k == 0:
+            assert f"here for none of the {n} {layer}" in note, key
+        elif k == n:
+            assert f"here for all {n} {layer}" in note, key
+        else:
+            assert f"here for {k} of {n} {layer}" in note, key
 
 
 def test_every_data_table_is_shown_with_its_tags(planned):
