@@ -286,7 +286,7 @@ def test_requests_that_name_no_feature_are_refused(tmp_path):
     assert r.exit_code == 2
     r = runner.invoke(app, ["place", str(site), "--inverter", "INV1", "--step", "0",
                             "--out", out])  # fmt: skip
-    assert r.exit_code == 2 and "--step must be > 0 m" in r.output
+    assert r.exit_code == 2 and "--step must be a finite number > 0 m, got 0.0" in r.output
 
 
 def test_a_feature_no_candidate_can_route_is_refused_with_the_reason(tmp_path):
