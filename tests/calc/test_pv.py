@@ -107,6 +107,8 @@ def test_most_modules_in_series_under_the_rated_voltage():
     assert got.tolist() == [25.0, 25.0, 25.0, 25.0]  # the same module: the same answer
     # a string exactly at the rating fits; a module alone above it leaves none
     assert max_modules_in_series([1500.0], [30], 1500.0).tolist() == [30.0]
+    # … also where the division's last digit falls short: 1181.1 / (1181.1 / 25) = 24.999…
+    assert max_modules_in_series([1181.1], [25], 1181.1).tolist() == [25.0]
     assert max_modules_in_series([2999.0], [2], 1500.0).tolist() == [1.0]
     assert max_modules_in_series([1600.0], [1], 1500.0).tolist() == [0.0]
     # unknown count or voltage: no answer
