@@ -21,8 +21,10 @@ Counting rules (each a stated convention the tests check):
   conductors for strings to an inverter (a pair: plug and socket of one type and maker, since
   mated halves must match — IEC 62548:2016, from memory);
 - fuses: one per pole (2) of each protected d.c. circuit (unearthed PV arrays are protected in
-  both poles — IEC 62548, from memory; under nec the line notes that 690.9(C) permits one per
-  circuit, all in one polarity); breakers: one per a.c. circuit, by rating and poles.
+  both poles — IEC 62548, from memory; under nec too, although 690.9(C) permits one device per
+  circuit where all are in one polarity: such a design needs half the count); breakers: one
+  per a.c. circuit, by rating and poles. A line's ``note`` is a warning (a rated voltage beyond
+  the designation's standard), which ``routeplan plan`` also prints.
 - equipment grounding conductors (``rules = "nec"`` only; family ``grounding``): one per circuit
   and parallel set (250.122(F), one EGC in each parallel raceway or cable), ``cable_m`` long, sized
   by NEC 2023 Table 250.122 for the rating of the circuit's overcurrent device — the string fuse
@@ -538,7 +540,6 @@ def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
     lines = []
     for item, part in (("trench", table[used]), ("unused trench", table[~used])):
         t = part.groupby(["laying", "depth_m"], sort=False)["length_m"].sum().reset_index()
-        note = np.nan if item == "trench" else "no circuit of this plan runs here"
         lines += [
             {
                 "item": item,
@@ -551,7 +552,6 @@ def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
                     laying=r.laying, depth=f"{r.depth_m:g}", depth_ft=f"{r.depth_m / FOOT_M:.2f}"
                 ),
                 "tag": d["tag"],
-                "note": note,
             }
             for r in t.itertuples(index=False)
         ]
@@ -580,17 +580,10 @@ def _fuse_lines(circuits: pd.DataFrame, dc_v: float, nec: bool = False) -> list[
                     "standard": "UL 2579" if nec else "IEC 60269-6",
                     "source": _source(d),
                     "tag": d["tag"],
-                    "note": _NEC_ONE_POLE if nec else _over_1500(dc_v, "IEC 60269-6"),
+                    "note": "" if nec else _over_1500(dc_v, "IEC 60269-6"),
                 }
             )
     return lines
-
-
-#: the note of a NEC fuse line: the bill counts both poles, the code permits one
-_NEC_ONE_POLE = (
-    "two per circuit (both poles); NEC 2023 690.9(C) permits one per circuit where every "
-    "such device of the system is in the same polarity (from memory): half as many then"
-)
 
 
 def _breaker_lines(circuits: pd.DataFrame, phases: np.ndarray, device: str) -> list[dict]:
