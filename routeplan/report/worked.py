@@ -899,8 +899,8 @@ def _short_circuit_steps(row: pd.Series, design: DesignConfig) -> list[Step]:
         Step(
             "Short-circuit withstand",
             "S ≥ S_min = I_k · √t / k (IEC 60364-4-43:2008 434.5.2, adiabatic)",
-            f"{_num(fault_ka * 1e3)} × √{_num(clear_s)} / {_num(k)} = {_num(s_min)} mm² ≤ "
-            f"{_num(size)} mm²: {'passes' if ok else 'FAILS'}",
+            f"{_num(fault_ka * 1e3)} × √{_num(clear_s)} / {_num(k)} = {_num(s_min)} mm² "
+            f"{'≤' if ok else '>'} {_num(size)} mm²: {'passes' if ok else 'FAILS'}",
             s_min,
             "mm²",
             _source("iec60364_4_43_2008_table_43a_k.csv") + "; schedule column sc_min_mm2",

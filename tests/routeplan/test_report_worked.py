@@ -499,3 +499,17 @@ def test_ac_short_circuit_withstand_by_hand(demo):
         size = float(rows[w.circuit_id]["size_mm2"])
         assert step.substituted == f"25000 × √0.2 / 94 = 118.94 mm² ≤ {size:g} mm²: passes"
         assert "Table 43A" in step.source
+
+
+def test_a_short_circuit_step_that_fails_says_so():
+    # the same check on a 95 mm² Al/XLPE conductor: 118.94 mm² needed (k = 94, IEC 60364-4-43
+    # Table 43A), so it fails, and the comparison reads ">"
+    import pandas as pd
+
+    from routeplan.report.worked import _short_circuit_steps
+
+    row = pd.Series({"size_mm2": 95.0, "material": "Al", "insulation": "XLPE",
+                     "sc_min_mm2": 118.94})  # fmt: skip
+    design = plan(DEMO).design
+    (step,) = _short_circuit_steps(row, design)
+    assert step.substituted == "25000 × √0.2 / 94 = 118.94 mm² > 95 mm²: FAILS"
