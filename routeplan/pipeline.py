@@ -966,8 +966,13 @@ def summarise(
             "count": len(segments),
             "over_capacity": int((segments["status"] == "over").sum()),
             "trench_m": float(segments["length_m"].sum()),
-            # drawn trench along which no circuit runs (billed apart: routeplan.quantities)
-            "unused_trench_m": float(segments.loc[segments["circuits"] == 0, "length_m"].sum()),
+            # drawn trench along which no circuit runs (billed apart: routeplan.quantities; a
+            # schedule without counts, every segment used)
+            "unused_trench_m": float(
+                segments.loc[segments["circuits"] == 0, "length_m"].sum()
+                if "circuits" in segments
+                else 0.0
+            ),
         },
         "inverter_inputs": {
             "count": len(inputs),

@@ -176,7 +176,10 @@ def test_trench_schedule_fill_against_capacity(small):
     assert_allclose(s["from_m"], located[0], rtol=0, atol=1e-9)
     assert_allclose(s["to_m"], located[1], rtol=0, atol=1e-9)
     assert s["laying"].tolist() == ["direct"] * 3 + ["duct"] * 3
-    assert small.summary["segments"] == {"count": 6, "over_capacity": 1, "trench_m": 138.0}
+    # the 10 m of T1@0.0-10.0 carry no circuit (counted above)
+    assert small.summary["segments"] == {
+        "count": 6, "over_capacity": 1, "trench_m": 138.0, "unused_trench_m": 10.0,
+    }  # fmt: skip
     assert small.summary["ok"] is False
 
 
@@ -359,7 +362,10 @@ def test_summary_counts_and_worst_values_by_kind(small):
         "ac": 0.8,
     }
     assert list(s["worst_vdrop_pct"]) == ["string", "subarray", "array", "dc_total", "ac"]
-    assert s["segments"] == {"count": 3, "over_capacity": 0, "trench_m": 60.0}
+    # a hand-made schedule without circuit counts: every segment taken as used
+    assert s["segments"] == {
+        "count": 3, "over_capacity": 0, "trench_m": 60.0, "unused_trench_m": 0.0,
+    }  # fmt: skip
     assert s["inverter_inputs"] == {"count": 2, "over_limit": 0}
     # conductor metres by material and size (sorted), rounded to the centimetre
     assert s["conductor_m"] == [
