@@ -59,6 +59,7 @@ from calc.errors import ConvergenceError, InputError, TableRangeError, check_opt
 from calc.kinds import FEEDER_KINDS, KIND_AC, KIND_ARRAY, KIND_NAMES, KIND_STRING, KIND_SUBARRAY
 from calc.losses import energy_loss_kwh, loss_w
 from calc.marking import MARKING_SYSTEMS, conductor_marking
+from calc.pv import voc_above_rating
 from calc.rules import RuleSet, get_rules
 from calc.tables import load_table
 from calc.vdrop import CONDUCTOR_TEMP_MODES, conductor_temp_c, vdrop_pct, vdrop_v
@@ -1722,7 +1723,7 @@ def _assemble(a, c, kd, kinds, settled: _Settled, design, rs) -> SizingResult:
     ac_check = _check(is_ac, lambda i: rs.overload_check(c["ib"][i], b_in[i], iz[i], b_i2[i]))
     prot_ok = np.where(is_str, prot.ok, np.where(is_ac, c["breaker_ok"], True))
     voc_max = _voc_max(a, design, rs)
-    over_voltage = voc_max > design.dc_rated_v * (1.0 + _EPS)
+    over_voltage = voc_above_rating(voc_max, design.dc_rated_v)
     prot_ok &= ~over_voltage
     ok = ~(fail_cap | fail_vd | fail_sc | fail_path) & prot_ok & arr_check[0] & ac_check[0]
     notes = np.where(is_str, prot.note, "").astype(object)

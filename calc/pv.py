@@ -48,6 +48,7 @@ __all__ = [
     "pv_rule",
     "string_design_current_a",
     "string_protection",
+    "voc_above_rating",
     "voc_max_v",
 ]
 
@@ -289,6 +290,18 @@ def voc_max_v(
     beta = np.asarray(voc_coeff_pct_per_c, dtype=float)
     corrected = voc * (1.0 + beta / 100.0 * (float(min_temp_c) - stc_temp_c))
     return np.where(np.isnan(beta), pv_rule("voc_factor_no_data") * voc, corrected)
+
+
+def voc_above_rating(voc_max_v: ArrayLike, rated_v: float) -> np.ndarray:
+    """Where a d.c. circuit's highest open-circuit voltage is above the rated d.c. voltage of
+    its cables and equipment (IEC 62548:2016, NEC 2023 690.7(A); from memory): True beyond a
+    relative 1e-9 (a string exactly at the rating passes); False where the Voc is not known.
+
+    >>> voc_above_rating([1500.0, 1500.1, np.nan], 1500.0).tolist()
+    [False, True, False]
+    """
+    voc = np.asarray(voc_max_v, dtype=float)
+    return np.isfinite(voc) & (voc > float(rated_v) * (1.0 + 1e-9))
 
 
 def max_modules_in_series(

@@ -126,7 +126,7 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
                 )
                 continue
             file_part = spec.rsplit(":", 1)[0] if _has_layer_suffix(spec) else spec
-            if (root / file_part).is_symlink() and not (root / file_part).exists():
+            if _leads_nowhere(root / file_part):
                 problems.append(_dangling(name, file_part))
                 continue
             if not (root / file_part).exists():  # a file, or a folder dataset (.gdb)
@@ -151,11 +151,7 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
                     "keep one or name it in [layers]",
                 )
             )
-        elif (
-            candidates
-            and (root / candidates[0]).is_symlink()
-            and not (root / candidates[0]).exists()
-        ):
+        elif candidates and _leads_nowhere(root / candidates[0]):
             problems.append(_dangling(name, candidates[0]))
         elif candidates:
             found[name] = candidates[0]
@@ -169,6 +165,11 @@ def locate_layers(root: Path, config: dict[str, Any]) -> tuple[dict[str, str], l
                 )
             )
     return found, problems
+
+
+def _leads_nowhere(path: Path) -> bool:
+    """Whether ``path`` is a symbolic link that leads to no file (a loop or a missing target)."""
+    return path.is_symlink() and not path.exists()
 
 
 def _dangling(name: str, file: str) -> Problem:

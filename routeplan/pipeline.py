@@ -33,7 +33,7 @@ from .errors import DesignError, Problem
 from .inputs import INPUT_COLUMNS, assign_inputs, input_table, landing_input
 from .network import NetworkMemo
 from .order import inverter_of, schedule_order
-from .quantities import bill_of_quantities
+from .quantities import bill_of_quantities, unused_segments
 from .remedy import WhatIfs, remedies
 from .routing import RouteParams, RoutePlan, TrenchDefaults, route_site
 from .units import feet, size_labels
@@ -966,13 +966,8 @@ def summarise(
             "count": len(segments),
             "over_capacity": int((segments["status"] == "over").sum()),
             "trench_m": float(segments["length_m"].sum()),
-            # drawn trench along which no circuit runs (billed apart: routeplan.quantities; a
-            # schedule without counts, every segment used)
-            "unused_trench_m": float(
-                segments.loc[segments["circuits"] == 0, "length_m"].sum()
-                if "circuits" in segments
-                else 0.0
-            ),
+            # drawn trench along which no circuit runs (billed apart, as the bill finds it)
+            "unused_trench_m": float(segments.loc[unused_segments(segments), "length_m"].sum()),
         },
         "inverter_inputs": {
             "count": len(inputs),

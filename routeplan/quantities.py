@@ -527,14 +527,21 @@ def _over_1500(dc_v: float, standard: str) -> str:
     return f"design.dc_rated_v {dc_v:g} V is beyond {standard}'s 1500 V DC scope: check the product"
 
 
+def unused_segments(segments: pd.DataFrame) -> np.ndarray:
+    """Where a trench segment carries no circuit of the plan (its ``circuits`` count is 0);
+    a trench schedule without that column counts every segment as carrying circuits."""
+    if "circuits" not in segments:
+        return np.zeros(len(segments), dtype=bool)
+    return segments["circuits"].to_numpy(dtype=float) == 0
+
+
 def _trench_lines(segments: pd.DataFrame, unit: str = "m") -> list[dict]:
     """Trench metres by laying and depth: those that carry a circuit of the plan (item
     ``trench``), and apart, those the site's trench layer draws where no circuit runs (item
-    ``unused trench``, its own total: a buyer decides whether to dig them). A trench schedule
-    without a ``circuits`` column counts every segment as carrying circuits."""
+    ``unused trench``, its own total: a buyer decides whether to dig them;
+    :func:`unused_segments`)."""
     d = designation("trench_us" if unit == "ft" else "trench")
-    count = segments["circuits"] if "circuits" in segments else pd.Series(1, segments.index)
-    used = count.to_numpy(dtype=float) > 0
+    used = ~unused_segments(segments)
     # the three columns summed, not the whole trench schedule (geometries included)
     table = pd.DataFrame({c: segments[c].to_numpy() for c in ("laying", "depth_m", "length_m")})
     lines = []

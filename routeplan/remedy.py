@@ -59,7 +59,7 @@ import numpy as np
 import pandas as pd
 
 import calc
-from calc.pv import max_modules_in_series
+from calc.pv import max_modules_in_series, voc_above_rating
 from calc.tables import load_table
 
 from .routing import joined
@@ -397,7 +397,7 @@ def _over_voltage(
     cables and equipment rated for its Voc; a feeder is sent to its strings' remedies."""
     n = len(kind)
     voc = np.asarray(result.voc_max_v, dtype=float)
-    over = np.isfinite(voc) & (voc > dp.dc_rated_v * (1.0 + 1e-9))
+    over = voc_above_rating(voc, dp.dc_rated_v)  # as calc judged it
     out = np.full(n, "", dtype=object)
     if not over.any():
         return out

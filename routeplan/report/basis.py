@@ -19,6 +19,7 @@ import pandas as pd
 
 import calc
 from calc.tables import load_table, table_names
+from layers import Site
 
 from ..config import (
     AIR_ARRANGEMENT_DEFAULT,
@@ -31,6 +32,7 @@ from ..config import (
     DesignConfig,
     insulation_default,
 )
+from ..network import CAPACITY_ATTRIBUTES
 
 #: unit of a setting or module value, by the ending of its name (the glossary's convention:
 #: the unit in every name)
@@ -128,15 +130,15 @@ LAYER_DEFAULTS: dict[str, tuple[str, tuple[str, ...]]] = {
     "depth_m": ("trenches", ("depth_m",)),
     "laying": ("trenches", ("laying",)),
     "spacing_m": ("trenches", ("spacing_m",)),
-    "max_circuits": ("trenches", ("max_circuits", "max_cable_sets")),
+    "max_circuits": ("trenches", CAPACITY_ATTRIBUTES),
     "power_factor": ("inverters", ("pf",)),
 }
 
 
-def layer_default_use(site: Any) -> dict[str, str]:
+def layer_default_use(site: Site) -> dict[str, str]:
     """For each key of :data:`LAYER_DEFAULTS`, how many of the layer's features take the
     default (a sentence for the settings' note): "here for 4 of 52 trenches (the others give
-    their own laying)". ``site``: a :class:`layers.Site`."""
+    their own laying)"."""
     out = {}
     for key, (layer, attrs) in LAYER_DEFAULTS.items():
         frame = site.layer(layer)
@@ -156,7 +158,9 @@ def layer_default_use(site: Any) -> dict[str, str]:
     return out
 
 
-def settings(design: DesignConfig, config: dict[str, Any], site: Any = None) -> list[Setting]:
+def settings(
+    design: DesignConfig, config: dict[str, Any], site: Site | None = None
+) -> list[Setting]:
     """Every setting in force, in the order of the README's settings table: ``[design]``
     scalars, its sub-tables per kind, then ``[allowances]``. ``config`` is the parsed
     site.toml (:attr:`layers.Site.config`), which tells a sub-table entry set there from a
@@ -514,7 +518,7 @@ def _number_or_text(value: str) -> float | str:
 
 
 def basis_sheets(
-    design: DesignConfig, config: dict[str, Any], site: Any = None
+    design: DesignConfig, config: dict[str, Any], site: Site | None = None
 ) -> dict[str, pd.DataFrame]:
     """The design basis as workbook sheets: ``design basis`` (every setting in force: key,
     value — a number where it is one —, unit, source, note; with the ``site``, how many
