@@ -352,29 +352,53 @@ def _watch(
 
     from .watch import Watcher
 
-    stopping: list[int] = []  # the signal, once asked to stop
+    # Ctrl-C and SIGTERM (a service manager stopping it) stop the watch alike. While a run
+    # plans, the signal interrupts it at once (its outputs stay all or nothing); between runs
+    # it is only recorded and ends the watch at the next poll (``check``): an interrupt
+    # raised there could land in a weakref callback, which Python ignores, or in an
+    # extension's import, after which Python ends the process by SIGINT whatever its status.
+    stopping: list[int] = []  # the signals received
+    running = [False]
 
     def stop(signum: int, frame: Any) -> None:
         stopping.append(signum)
-        raise KeyboardInterrupt  # SIGTERM (a service manager stopping it) ends it as Ctrl-C does
+        if running[0]:
+            raise KeyboardInterrupt
+
+    def check() -> None:
+        if stopping:
+            raise KeyboardInterrupt
 
     def sleep(seconds: float) -> None:
-        # Python ignores an exception raised while a finalizer or a weakref callback runs
-        # ("Exception ignored in ..."): a SIGTERM that lands there is remembered and ends the
-        # watch at the next poll (1 stop in about 15 hung before, in a test's measurements)
-        if stopping:
-            raise KeyboardInterrupt
+        check()
         time.sleep(seconds)
-        if stopping:
-            raise KeyboardInterrupt
+        check()
 
-    before = signal.signal(signal.SIGTERM, stop)
+    def run() -> tuple[Any, float]:
+        running[0] = True
+        try:
+            return watcher.run()
+        finally:
+            running[0] = False
+
+    def unraisable(info: Any) -> None:
+        # an interrupt of a run that landed in a weakref callback or a finalizer: Python goes
+        # on without it, the watch stops at its next poll; no traceback for the user
+        if not (stopping and info.exc_type is KeyboardInterrupt):
+            hook_before(info)
+
+    hook_before = sys.unraisablehook
+    sys.unraisablehook = unraisable
+    handlers = {signal.SIGTERM: signal.signal(signal.SIGTERM, stop)}
+    if signal.getsignal(signal.SIGINT) is signal.default_int_handler:  # not if ignored
+        handlers[signal.SIGINT] = signal.signal(signal.SIGINT, stop)
     watcher = Watcher(site, out_dir, map_options, force=force, use_cache=use_cache)
     code, first = 2, True
     try:
         while True:
+            check()
             try:
-                result, seconds = watcher.run()
+                result, seconds = run()
             except FolderError as exc:
                 if first:
                     _fail_input(exc)
@@ -422,7 +446,9 @@ def _watch(
         raise typer.Exit(code) from None
     finally:
         watcher.close()
-        signal.signal(signal.SIGTERM, before)
+        for signum, handler in handlers.items():
+            signal.signal(signum, handler)
+        sys.unraisablehook = hook_before
 
 
 @app.command()
