@@ -932,7 +932,8 @@ def synth(
     ] = "central",
     force: ForceOption = False,
 ) -> None:
-    """Write an invented, valid utility-scale site folder for trials and benchmarks."""
+    """Write an invented utility-scale site folder for trials and benchmarks: its layers
+    pass `check`; a few of its circuits may fail a limit, as in a first layout."""
     from .synth import generate_site
 
     try:

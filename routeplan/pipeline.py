@@ -805,7 +805,9 @@ def _pf(pf: np.ndarray, design: DesignConfig) -> np.ndarray:
 
 def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
     """The trench schedule: one line per segment. ``circuits`` counts circuits, ``cable_sets``
-    counts a circuit laid as n parallel sets n times (the count the grouping factor uses).
+    counts a circuit laid as n parallel sets n times (the count the grouping factor uses), and
+    ``spread_m`` [m] is the clear spacing across them laid side by side, (cable sets − 1) ×
+    ``spacing_m``: the width the grouping factor's single layer needs besides the cables.
     ``fill`` is measured against the capacity the trench gives (``fill_basis``): ``circuits /
     max_circuits``, or ``cable_sets / max_cable_sets`` (a trench gives at most one)."""
     s = routes.segments
@@ -839,6 +841,7 @@ def segment_table(routes: RoutePlan, r: calc.SizingResult) -> gpd.GeoDataFrame:
             "soil_k_m_w": s["soil_k_m_w"].to_numpy(),
             "group_factor": r.seg_group_factor,
             "cable_sets": sets,
+            "spread_m": np.maximum(sets - 1, 0) * s["spacing_m"].to_numpy(dtype=float),
             "subarrays": s["subarrays"].to_numpy(),
             "from_m": s["start_m"].to_numpy(),
             "to_m": s["end_m"].to_numpy(),

@@ -62,8 +62,9 @@ invented origin.
   (central-inverter LV links), string laterals spaced 0.1 m, feeder trenches 0.25 m. The
   end combiners' strings fail where ``max_strings`` and the soil make their grouping too
   tight (at 1 GW, seed 1: 4,800 strings, about 7 % of the circuits, in the ``central`` and
-  ``subarray`` topologies; 4,320 strings, about 6 %, in ``string``); other seeds plan with
-  no failure at all. Soil zones range up to dry sand (3.0 K·m/W, ``SOIL_K_CHOICES``).
+  ``subarray`` topologies; 4,320 strings, about 6 %, in ``string``); how many varies with
+  the size and the seed (an audit found 18 strings at 5 MW, seed 1), and some plan with none.
+  Soil zones range up to dry sand (3.0 K·m/W, ``SOIL_K_CHOICES``).
 
 Topologies
 ----------

@@ -55,7 +55,7 @@ CIRCUIT_DETAIL_COLUMNS = (
 SEGMENT_DETAIL_COLUMNS = (
     "segment_id", "trench_id", "length_m", "circuits", "cable_sets", "max_circuits",
     "max_cable_sets", "fill", "fill_basis", "status", "depth_m", "laying", "spacing_m",
-    "soil_k_m_w", "group_factor",
+    "spread_m", "soil_k_m_w", "group_factor",
 )  # fmt: skip
 #: Text columns (everything else is a number).
 TEXT_COLUMNS = {

@@ -544,6 +544,7 @@ var rpReview = (function() {
             ['Depth', fmt('s', 'depth_m', s, 'm'), 'depth_m'],
             ['Laying', fmt('s', 'laying', s), 'laying'],
             ['Spacing', fmt('s', 'spacing_m', s, 'm'), 'spacing_m'],
+            ['Spread across the cable sets', fmt('s', 'spread_m', s, 'm'), 'spread_m'],
             ['Soil thermal resistivity', fmt('s', 'soil_k_m_w', s, 'K·m/W'), 'soil_k_m_w']
         ]);
         body.appendChild(el('div', 'Circuits in this segment:', 'rp-note'));

@@ -150,6 +150,13 @@ SEGMENT_COLUMNS: tuple[Col, ...] = (
     Col("soil_k_m_w", "K·m/W", 2, "soil thermal resistivity"),
     Col("group_factor", "", 3, "grouping factor in force for the segment's cable sets"),
     Col("cable_sets", doc="circuits counting each parallel set; used for grouping and fill"),
+    Col(
+        "spread_m",
+        "m",
+        2,
+        "clear spacing across the cable sets laid side by side: (cable_sets − 1) × spacing_m; "
+        "the width the grouping factor's single layer needs besides the cables themselves",
+    ),
     Col("subarrays", doc="sub-array circuits"),
     Col("from_m", "m", 2, "chainage of the segment's start along its trench"),
     Col("to_m", "m", 2, "chainage of the segment's end along its trench"),

@@ -401,6 +401,22 @@ METHODS: tuple[tuple[str, str], ...] = (
     ),
 )
 
+#: the row run of strings, under every rule set
+_ROW_RUN = (
+    "Every string of a row runs row_run_factor × the row's length along it (default 0.5, the "
+    "average of strings spread along the row): the bill is right on average, but the voltage "
+    "drop of a row's farthest string is understated by up to half the row's length of cable; "
+    "set row_run_factor = 1 to check the farthest string."
+)
+
+#: the inverter's DC inputs, under every rule set
+_DC_INPUTS = (
+    "An inverter's DC inputs (dc_inputs) are independent: what lands on one input cannot feed "
+    "a fault on another, so the backfeed and the string-fuse rule count only the circuits of "
+    "the same input. Inputs joined on one DC busbar inside the inverter are one input: give "
+    "dc_inputs = 1 for such an inverter, as its datasheet shows."
+)
+
 #: assumptions the engine makes that a reviewer should know (each stated in the code)
 ASSUMPTIONS: tuple[str, ...] = (
     "Current-carrying conductors per circuit: DC + and −; three-phase AC L1, L2, L3 (PV "
@@ -418,11 +434,16 @@ ASSUMPTIONS: tuple[str, ...] = (
     "deeper than about 1 m the capacity may be optimistic; have them rated by the full "
     "IEC 60287 method.",
     "Grouping factors use each stretch's actual circuit count, parallel sets counted; "
-    "circuits in one trench are spaced spacing_m apart (0 = touching, conservative).",
+    "circuits in one trench lie side by side in one layer, spaced spacing_m apart (0 = "
+    "touching, conservative). The trench schedule's spread_m is the width that layer needs "
+    "besides the cables; a trench narrower than that holds them in several layers or closer "
+    "together, which rates them lower than computed.",
     "The parallel sets of one circuit share its current equally (same material, size, length "
     "and route, as IEC 60364-4-43:2008 433.4.1 asks); a fault on one set fed from both ends by "
     "the others (434.4) is not checked: review circuits of several sets without protection "
     "of each set.",
+    _ROW_RUN,
+    _DC_INPUTS,
     "Values tagged 'memory' or 'memory-low' were recalled rather than read in the standard; "
     "'common practice' marks rules of thumb without a published source. Check them against "
     "the standards in force before relying on them.",
@@ -493,6 +514,8 @@ NEC_ASSUMPTIONS: tuple[str, ...] = (
     "bundled conductors from Table 310.16 instead, which gives lower ampacities: where the "
     "authority having jurisdiction does, check the bunched string and feeder runs in air "
     "against it.",
+    _ROW_RUN,
+    _DC_INPUTS,
     ASSUMPTIONS[-1],
 )
 

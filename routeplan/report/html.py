@@ -491,6 +491,16 @@ def _results(res: Results, design: Any) -> str:
                 ident="over",
             )
         )
+    if res.widest is not None and not nec:  # nec: spacing is not represented
+        seg, n, spacing, spread = res.widest
+        parts.append(
+            f"<p>Widest layer: segment {esc(seg)}, {n:,} cable sets {_num(spacing, 2)} m apart, "
+            f"at least {_num(spread, 2)} m across besides the cables (<code>spread_m</code> "
+            "of the trench schedule). The grouping factors take each trench's cable sets "
+            "side by side in one layer at its <code>spacing_m</code>; a trench narrower than "
+            "that holds them in several layers or closer together, which rates them lower "
+            "than computed.</p>"
+        )
     if res.inputs_over_count:
         parts.append(
             f"<h3>Inverter inputs over a limit</h3><p>{res.inputs_over_count} input(s)"

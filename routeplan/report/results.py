@@ -62,6 +62,9 @@ class Results:
     fill: list[tuple[str, int, float]]  # band, segments, trench metres
     over: list[tuple[str, int, float]]  # segment id, cable sets, fill
     over_count: int
+    #: the segment whose cable sets spread widest at their spacing: id, cable sets,
+    #: spacing_m, spread_m; None where no segment spaces two or more
+    widest: tuple[str, int, float, float] | None
     failing: list[tuple[str, str, str, str, str]]  # circuit id, kind, block, note, remedy
     failing_count: int
     inputs_over: list[tuple[str, str, str]]  # inverter id, input, note
@@ -194,6 +197,18 @@ def results(
         for i in over_idx
     ]
 
+    widest = None
+    if "spread_m" in segments and len(segments):
+        spread = segments["spread_m"].to_numpy(dtype=float)
+        i = int(np.argmax(np.nan_to_num(spread, nan=0.0)))
+        if spread[i] > 0:
+            widest = (
+                str(segments["segment_id"].iloc[i]),
+                int(np.asarray(sets)[i]),
+                float(segments["spacing_m"].iloc[i]),
+                float(spread[i]),
+            )
+
     bad = np.flatnonzero(fails)
     kind_all = circuits["kind"].to_numpy(dtype=object)
     note = circuits["note"].to_numpy(dtype=object)
@@ -220,6 +235,7 @@ def results(
         fill=bands,
         over=over,
         over_count=int(over_mask.sum()),
+        widest=widest,
         failing=failing,
         failing_count=len(bad),
         inputs_over=inputs_over,

@@ -218,6 +218,9 @@ def test_clicking_a_trench_segment_lists_its_circuits(browser, demo_out, screens
         shown = page.details()
         assert shown["_title"] == busy["segment_id"]
         assert page.listed() == busy["circuit_ids"].split(";")
+        # its values as the trench schedule writes them, the spread across its cable sets too
+        for k in ("cable_sets", "group_factor", "spread_m"):
+            assert shown[k].split(" ")[0] == busy[k], k
         page.page.screenshot(path=screenshots / "demo_trench_panel.png", animations="disabled")
         # the segment's circuits are drawn side by side across it, one line each; pointing
         # at one names it, clicking it selects it
