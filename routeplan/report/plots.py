@@ -200,14 +200,23 @@ def warm_up() -> None:
     _draw_bars("", {"": 1.0})
 
 
+#: the most bins a histogram has: beyond, its step is a whole multiple of the usual one
+MAX_BINS = 200
+
+
 def histogram_edges(values: np.ndarray, step: float, upper: float) -> np.ndarray:
-    """Bin edges from 0 in ``step`` up to at least ``upper`` and the largest value.
+    """Bin edges from 0 in ``step`` up to at least ``upper`` and the largest value; where that
+    would take more than :data:`MAX_BINS` bins (a circuit loaded far beyond its capacity), in
+    the least whole multiple of ``step`` that takes at most as many.
 
     >>> histogram_edges(np.array([0.2, 1.31]), 0.25, 1.0).tolist()
     [0.0, 0.25, 0.5, 0.75, 1.0, 1.25, 1.5]
+    >>> len(histogram_edges(np.array([0.5, 30305.2]), 0.05, 1.2)) - 1 <= MAX_BINS
+    True
     """
     v = np.asarray(values, dtype=float)
     top = max(upper, float(v.max()) if v.size else 0.0)
+    step *= max(math.ceil(top / step / MAX_BINS - 1e-9), 1)
     n = max(math.ceil(top / step - 1e-9), 1)
     while n * step < top:  # every value within the edges (the last bin is closed)
         n += 1
