@@ -82,6 +82,12 @@ def annuity_factor(rate_pct: float, years: float) -> float:
     12.4622
     >>> annuity_factor(0.0, 25)
     25.0
+
+    Computed as ``−expm1(−n · log1p(r)) / r``, the same value without the cancellation of
+    ``1 − (1 + r)^−n`` at a tiny rate (which gave 0 below about 1e-14 %):
+
+    >>> annuity_factor(1e-300, 25)
+    25.0
     """
     r = float(rate_pct) / 100.0
     n = float(years)
@@ -89,7 +95,7 @@ def annuity_factor(rate_pct: float, years: float) -> float:
         raise InputError(f"discount rate {rate_pct} % and {years} years must be ≥ 0")
     if r == 0.0:
         return n
-    return (1.0 - (1.0 + r) ** -n) / r
+    return float(-np.expm1(-n * np.log1p(r)) / r)
 
 
 def capitalised_loss(

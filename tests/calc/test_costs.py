@@ -29,6 +29,15 @@ def test_without_discounting_the_factor_is_the_number_of_years():
     assert annuity_factor(1e-6, 25) == pytest.approx(25.0, rel=1e-5)
 
 
+@pytest.mark.parametrize("rate_pct", [1e-8, 1e-12, 1e-300])
+def test_a_tiny_rate_keeps_its_digits(rate_pct):
+    # the factor's series in i: n − n(n + 1)/2 · i + O(i²); (1 − (1 + i)^−n) / i written as it
+    # stands loses every digit to cancellation (0 at 1e-300 %, which ranked placements by
+    # conductor cost alone)
+    i, n = rate_pct / 100.0, 25
+    assert annuity_factor(rate_pct, n) == pytest.approx(n - n * (n + 1) / 2 * i, abs=1e-12)
+
+
 def test_capitalised_loss_worked_example():
     # 12,000 kWh lost a year at 0.08 per kWh for 20 years at 5 %:
     # 12,000 × 0.08 = 960 a year; × (P/A, 5 %, 20) = 12.4622 → 11,963.7
