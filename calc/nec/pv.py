@@ -198,6 +198,12 @@ def max_voltage_v(
     1300.266
     >>> float(max_voltage_v(49.5, 24, -10))  # 24 × 49.5 × 1.14
     1354.32
+    >>> max_voltage_v([49.5, 49.5], 24, -45, [-0.27, np.nan])  # a string without a coefficient
+    Traceback (most recent call last):
+    ...
+    calc.errors.TableRangeError: Table 690.7(A) ends at -40 °C; use the module's coefficient
+    >>> max_voltage_v([49.5, np.nan], 24, -45, [-0.27, np.nan]).round(3)  # 1188 × 1.189
+    array([1412.532,      nan])
     """
     voc = np.asarray(voc_v, dtype=float) * np.asarray(modules_in_series, dtype=float)
     t = np.asarray(t_min_c, dtype=float)
@@ -206,6 +212,12 @@ def max_voltage_v(
         return voc * voc_table_factor(t)
     beta = np.asarray(voc_coeff_pct_per_k, dtype=float)
     by_coeff = voc * (1.0 + np.nan_to_num(beta) / 100.0 * (t - ref))
-    if np.any(np.isnan(beta)):
-        return np.where(np.isnan(beta), voc * voc_table_factor(t), by_coeff)
-    return by_coeff
+    # the table only where a voltage has no coefficient (a string of a module without one; not
+    # a circuit without Voc): beyond the table's range with a coefficient is no error
+    voc_b, t_b, beta_b, out = np.broadcast_arrays(voc, t, beta, by_coeff)
+    table = np.isnan(beta_b) & ~np.isnan(voc_b)
+    if not np.any(table):
+        return by_coeff
+    out = out.copy()
+    out[table] = voc_b[table] * voc_table_factor(t_b[table])
+    return out
