@@ -52,6 +52,7 @@ import json
 import os
 import secrets
 import shutil
+import time
 from collections.abc import Iterable, Iterator, Mapping
 from pathlib import Path
 
@@ -611,6 +612,13 @@ def _owner_text(real: Path) -> str:
     return f" (process {best.get('pid')}, started {best.get('started')})"
 
 
+#: how long a run waits for the output folder's lock before it calls the folder busy [s]: the
+#: child processes of a run that has just failed (stopped with it) hold the lock until the
+#: kernel has torn them down, a moment after the run ends (a test starting the next run at
+#: once met it under load)
+LOCK_WAIT_S = 1.0
+
+
 def _take_lock(path: Path, real: Path) -> int | Path:
     busy = (
         "another routeplan run is writing into this folder{who}: wait for it to finish, "
@@ -621,12 +629,16 @@ def _take_lock(path: Path, real: Path) -> int | Path:
             fd = os.open(real, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
         except OSError as exc:
             raise FolderError(path, f"cannot be opened ({exc.strerror})") from None
-        try:
-            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-        except OSError:
-            os.close(fd)
-            raise FolderError(path, busy.format(who=_owner_text(real))) from None
-        return fd
+        deadline = time.monotonic() + LOCK_WAIT_S
+        while True:
+            try:
+                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+                return fd
+            except OSError:
+                if time.monotonic() >= deadline:
+                    os.close(fd)
+                    raise FolderError(path, busy.format(who=_owner_text(real))) from None
+                time.sleep(0.02)
     lock = real / LOCK_FILE  # pragma: no cover - Windows
     try:  # pragma: no cover
         os.close(os.open(lock, os.O_CREAT | os.O_EXCL | os.O_WRONLY))
