@@ -344,9 +344,10 @@ def _watch(
     (:mod:`routeplan.watch`) until Ctrl-C or SIGTERM; exit with the last run's status (a run
     stopped while writing leaves the last outputs, all or nothing). Bad input or a
     file system failure is reported and waited out, as is an output folder that cannot be used
-    after the first run (a file of routeplan's edited since: move it away and save again); an
-    output folder that cannot be used at the start, or a site path that is not a folder, ends
-    it, as ``plan`` does."""
+    after the first run (a file of routeplan's edited since: move it away and save again), or
+    a site folder gone for a while (renamed, replaced by a sync tool); an output folder that
+    cannot be used at the start, or a site path that is not a folder then, ends it, as
+    ``plan`` does."""
     import signal
     import time
 
@@ -409,7 +410,7 @@ def _watch(
                 )
                 code = 2
             except InputError as exc:
-                if not site.is_dir():  # nothing to watch
+                if first and not site.is_dir():  # nothing to watch (later: moved, say)
                     _fail_input(exc)
                 problems = getattr(exc, "problems", None) or [exc]
                 for p in problems:

@@ -201,10 +201,11 @@ DESIGN_KEYS: tuple[Key, ...] = (
     Key(
         "frequency_hz",
         50.0,
-        0.0,
+        50.0,
         60.0,
-        note="AC frequency for the skin and proximity effect (IEC 60287-1-1; power grids: 50 or "
-        "60 Hz; nec: 60, the default under nec, Chapter 9 Table 9)",
+        note="AC frequency of the grid for the skin and proximity effect and the reactance "
+        "(IEC 60287-1-1; power grids: 50 or 60 Hz; nec: 60, the default under nec, Chapter 9 "
+        "Table 9)",
     ),
     Key(
         "terminal_temp_c",

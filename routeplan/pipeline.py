@@ -221,6 +221,20 @@ def sizing_input(
             np.add.at(arr, j, arr[step])
         np.minimum.at(low_vmp, j, low_vmp[step])
         np.minimum.at(low_fuse, j, low_fuse[step])
+    empty = np.flatnonzero(is_feed & (count == 0))
+    if len(empty):  # rows deleted, a phase not built yet: nothing for its cable to carry
+        raise DesignError(
+            [
+                Problem(
+                    "combiners",
+                    str(from_id[i]),
+                    "no strings reach it (no row or combiner names it in `to`, and every row "
+                    "without one went to a nearer destination with room): remove it or give "
+                    "it rows",
+                )
+                for i in empty
+            ]
+        )
     carried = is_feed & (count > 0)
     isc[carried] = sums["isc"][carried] / count[carried]
     imp[carried] = sums["imp"][carried] / count[carried]
@@ -252,6 +266,25 @@ def sizing_input(
         phases[ac_idx] = rows["phases"].to_numpy(dtype=np.int64)
         pf[ac_idx] = rows["pf"].to_numpy(dtype=float)
         ac_max[ac_idx] = rows["ac_max_a"].to_numpy(dtype=float)
+        # a plausibility check (common practice, no published source): an inverter whose
+        # maximum output current is under half the current of its rating (a digit lost)
+        rated = calc.pv.ac_current_a(ac_kva[ac_idx], ac_v[ac_idx], phases[ac_idx])
+        low = np.flatnonzero(ac_max[ac_idx] < 0.5 * rated)
+        formula = {3: "ac_kva / (√3 × ac_v)", 1: "ac_kva / ac_v"}
+        if len(low):
+            raise DesignError(
+                [
+                    Problem(
+                        "inverters",
+                        str(from_id[ac_idx[k]]),
+                        f"ac_max_a {ac_max[ac_idx[k]]:g} A is less than half the current of "
+                        f"its rating, {rated[k]:.0f} A ({formula[phases[ac_idx[k]]]}): the AC "
+                        "cable is sized for ac_max_a; check the datasheet",
+                        "ac_max_a",
+                    )
+                    for k in low
+                ]
+            )
 
     seg = routes.segments
     inp = calc.SizingInput(

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import shutil
+from pathlib import Path
 
 import pytest
 from typer.testing import CliRunner
@@ -19,6 +20,7 @@ from tests.conftest import SITE_TOML, base_frames, write_site
 from .test_settings_strict import in_design, run_check
 
 runner = CliRunner()
+ROOT = Path(__file__).resolve().parents[2]
 
 
 @pytest.mark.parametrize(
@@ -57,8 +59,14 @@ runner = CliRunner()
         pytest.param(
             # IEC 60287-1-1's skin and proximity formulas are for power frequencies (50/60 Hz)
             in_design("frequency_hz = 400"),
-            "error: site.toml 'design.frequency_hz': 400 is outside 0–60",
+            "error: site.toml 'design.frequency_hz': 400 is outside 50–60",
             id="frequency-beyond-power-grids",
+        ),
+        pytest.param(
+            # 0 Hz is no a.c. grid: it took the reactance and skin effect away (lower drops)
+            in_design("frequency_hz = 0"),
+            "error: site.toml 'design.frequency_hz': 0 is outside 50–60",
+            id="frequency-zero",
         ),
     ],
 )
@@ -83,6 +91,61 @@ def test_a_trench_too_shallow_for_its_cable_is_named(tmp_path):
     result = runner.invoke(app, ["plan", str(root), "--out", str(tmp_path / "out")])
     assert result.exit_code == 2 and errors[0] in result.stderr.splitlines()
     assert not (tmp_path / "out").exists()
+
+
+def test_a_combiner_no_string_reaches_is_named(tmp_path):
+    # the demo's west combiner CB-W2 with its rows deleted (a phase not built yet): its array
+    # cable would carry nothing; it was refused as a fault of site.toml's design settings
+    import json
+
+    site = tmp_path / "demo"
+    shutil.copytree(ROOT / "demo_site", site)
+    path = site / "rows.geojson"
+    rows = json.loads(path.read_text(encoding="utf-8"))
+    rows["features"] = [
+        f for f in rows["features"] if not str(f["properties"]["id"]).startswith("W2-")
+    ]
+    path.write_text(json.dumps(rows), encoding="utf-8")
+    line = (
+        "error: combiners 'CB-W2': no strings reach it (no row or combiner names it in `to`, "
+        "and every row without one went to a nearer destination with room): remove it or give "
+        "it rows"
+    )
+    code, errors = run_check(site)
+    assert code == 2 and errors == [line]
+    result = runner.invoke(app, ["plan", str(site), "--out", str(tmp_path / "out")])
+    assert result.exit_code == 2 and line in result.stderr.splitlines()
+    assert "site.toml" not in result.stderr
+    assert not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize(("ac_max_a", "refused"), [(10.0, True), (577.0, True), (578.0, False)])
+def test_an_inverter_maximum_current_under_half_its_rating_is_named(tmp_path, ac_max_a, refused):
+    # the demo's INV-W, 1600 kVA at 800 V three-phase: I = S / (√3 · U) = 1,600,000 / (1.7321
+    # × 800) = 1154.7 A (IEC 60364 / Ohm's law); half of it 577.4 A (the plausibility line,
+    # common practice). A lost digit (122 for 1220) sized the AC cable for a tenth of its
+    # current, marked ok.
+    import json
+
+    site = tmp_path / "demo"
+    shutil.copytree(ROOT / "demo_site", site)
+    path = site / "inverters.geojson"
+    inverters = json.loads(path.read_text(encoding="utf-8"))
+    for f in inverters["features"]:
+        if f["properties"]["id"] == "INV-W":
+            assert (f["properties"]["ac_kva"], f["properties"]["ac_v"]) == (1600.0, 800.0)
+            f["properties"]["ac_max_a"] = ac_max_a
+    path.write_text(json.dumps(inverters), encoding="utf-8")
+    code, errors = run_check(site)
+    if not refused:
+        assert code == 0, errors
+        return
+    assert code == 2
+    assert errors == [
+        f"error: inverters 'INV-W': ac_max_a {ac_max_a:g} A is less than half the current of "
+        "its rating, 1155 A (ac_kva / (√3 × ac_v)): the AC cable is sized for ac_max_a; check "
+        "the datasheet"
+    ]
 
 
 def test_diff_refuses_a_trench_schedule_without_sub_array_counts(tmp_path):

@@ -490,3 +490,33 @@ def test_a_stop_that_lands_in_a_weakref_callback_prints_no_traceback(tmp_path, m
     assert "stopped watching" in done.output
     assert unraisable == []
     assert sys.unraisablehook is hook  # restored
+
+
+def test_a_site_folder_gone_for_a_while_is_waited_out(tmp_path, monkeypatch):
+    # a sync tool or an editor replacing the folder: after the first run the watch reports the
+    # missing folder and plans again once it is back (it ended with exit 2 before)
+    from typer.testing import CliRunner
+
+    from routeplan.cli import app
+
+    site = tmp_path / "demo"
+    shutil.copytree(Path(__file__).resolve().parents[2] / "demo_site", site)
+    away = tmp_path / "demo-away"
+    waits: list[int] = []
+
+    def wait(self, interval_s: float = 0.1, sleep=None) -> None:
+        waits.append(1)
+        if len(waits) == 1:
+            site.rename(away)  # gone: the next run finds no folder
+        elif len(waits) == 2:
+            away.rename(site)  # back: planned again
+        else:
+            raise KeyboardInterrupt
+
+    monkeypatch.setattr(Watcher, "wait", wait)
+    done = CliRunner().invoke(app, ["plan", str(site), "--out", str(tmp_path / "out"),
+                                    "--watch"])  # fmt: skip
+    assert len(waits) == 3, done.output  # three runs: planned, refused, planned
+    assert done.exit_code == 0, done.output  # the last run's status
+    assert done.output.count("planned in") == 2
+    assert "nothing was planned" in done.output and "stopped watching" in done.output
