@@ -71,6 +71,10 @@ MAX_CAPACITY = 10_000
 #: 100 MVA is a whole plant's grid connection). Beyond it the loss estimate (current²)
 #: overflows to infinity for absurd values such as 1e300.
 MAX_AC_KVA = 100_000.0
+#: longest id, characters (common practice: ids label drawings and cable tags, a few tens of
+#: characters at most). A longer one is a slip (a pasted text), and spreadsheets cap a cell
+#: (Excel: 32,767 characters, from memory), which a circuit id is in the workbook.
+MAX_ID_CHARS = 200
 #: most DC inputs of one inverter (common practice: string inverters have a few to a few tens
 #: of MPPT inputs, central inverters one to a few DC busbars)
 MAX_DC_INPUTS = 100
@@ -539,6 +543,17 @@ def _check_attributes(name: str, frame: gpd.GeoDataFrame) -> tuple[gpd.GeoDataFr
         ids = _id_texts(frame["id"].to_numpy(dtype=object))
         for i in np.flatnonzero(ids == "").tolist():
             problems.append(Problem(name, f"#{i + 1}", "missing or empty id"))
+        lengths = np.strings.str_len(ids.astype(StringDType()))
+        for i in np.flatnonzero(lengths > MAX_ID_CHARS).tolist():
+            problems.append(
+                Problem(
+                    name,
+                    f"#{i + 1}",
+                    f"id {ids[i][:20]!r}… has {lengths[i]:,} characters: at most "
+                    f"{MAX_ID_CHARS} (ids name circuits, cable tags and spreadsheet cells)",
+                    "id",
+                )
+            )
         frame["id"] = pd.Series(ids, index=frame.index, dtype=object)
     for fld in FIELDS[name]:
         if fld.name not in frame.columns:

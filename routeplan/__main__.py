@@ -1,5 +1,5 @@
-"""``python -m routeplan``: the command line (:mod:`routeplan.cli`)."""
+"""``python -m routeplan``: the command line (:mod:`routeplan.entry`)."""
 
-from .cli import run
+from .entry import main
 
-run()
+main()

@@ -971,9 +971,5 @@ def _fmt(v: object) -> str:
     return str(v)
 
 
-def run() -> None:  # pragma: no cover - console entry for `python -m routeplan`
-    app()
-
-
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(app())

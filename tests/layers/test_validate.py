@@ -131,6 +131,22 @@ def test_two_candidate_files_for_one_layer(tmp_path):
     assert any("several files could be this layer" in p for p in problems_of(root))
 
 
+@pytest.mark.parametrize(("length", "refused"), [(200, False), (201, True), (100_000, True)])
+def test_an_id_longer_than_200_characters_is_refused(tmp_path, length, refused):
+    # a pasted text as an id: it became a circuit id and a workbook cell past a spreadsheet's
+    # cell limit (Excel 32,767 characters, from memory)
+    frames = base_frames()
+    frames["rows"].loc[1, "id"] = "R" * length
+    root = write(tmp_path, frames, fmt="gpkg")
+    if not refused:
+        assert "R" * length in layers.read_site(root).rows["id"].tolist()
+        return
+    assert problems_of(root) == [
+        f"rows '#2': id {'R' * 20!r}… has {length:,} characters: at most 200 (ids name "
+        "circuits, cable tags and spreadsheet cells)"
+    ]
+
+
 def test_missing_and_empty_ids(tmp_path):
     frames = base_frames()
     frames["rows"].loc[1, "id"] = ""

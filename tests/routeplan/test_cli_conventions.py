@@ -343,3 +343,31 @@ def test_summary_on_a_real_terminal(tmp_path, columns):
         ]  # fmt: skip
         assert [c.strip() for c in lines[i + 4].split("│")[1:-1]] == rows[0]
     assert "…" not in shown
+
+
+def test_ctrl_c_while_the_command_line_imports_is_one_line_and_exit_130():
+    # Ctrl-C in the first half second, while numpy, pandas and geopandas load, printed a
+    # traceback of 20-34 lines (a hostile-input sweep). Here the interrupt comes as geopandas
+    # is imported, in a process of its own, as `routeplan` and `python -m routeplan` start.
+    code = (
+        "import builtins\n"
+        "real = builtins.__import__\n"
+        "def imp(name, *a, **k):\n"
+        "    if name == 'geopandas':\n"
+        "        raise KeyboardInterrupt\n"
+        "    return real(name, *a, **k)\n"
+        "builtins.__import__ = imp\n"
+        "from routeplan.entry import main\n"
+        "main()\n"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", code, "plan", "x", "--out", "y"],
+        cwd=ROOT,
+        capture_output=True,
+        text=True,
+        check=False,
+        timeout=120,
+    )
+    assert done.returncode == 130, done.stderr
+    assert done.stderr == "interrupted: nothing was written\n"
+    assert done.stdout == ""
