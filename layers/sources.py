@@ -223,6 +223,11 @@ def read_layer(
             warnings.filterwarnings(
                 "ignore", message="Several features with id = ", category=RuntimeWarning
             )
+            # GDAL reads a GeoJSON position of four numbers (x, y, z, m) as x, y, z with a
+            # warning naming pyogrio's source line; routeplan drops z (and so m) anyway
+            warnings.filterwarnings(
+                "ignore", message=".*too many members in array", category=RuntimeWarning
+            )
             frame = gpd.read_file(path, engine="pyogrio", **kwargs)
         if _is_sqlite(path):
             stored = _stored_numbers(path, layer, name)

@@ -116,6 +116,22 @@ def test_an_unclosed_ring_is_a_problem_without_a_warning(tmp_path, recwarn):
     assert not [w for w in recwarn if "ring" in str(w.message).lower()]
 
 
+def test_four_numbers_per_position_are_read_without_a_warning(tmp_path, recwarn):
+    # GeoJSON positions x, y, z, m (RFC 7946 3.1.1 allows more than three numbers): GDAL reads
+    # x, y, z and warned on the user's terminal with pyogrio's source line; z is dropped too
+    root = write(tmp_path)
+    path = root / "trenches.geojson"
+    data = json.loads(path.read_text(encoding="utf-8"))
+    geometry = data["features"][0]["geometry"]
+    geometry["coordinates"] = [[*c[:2], 1.5, 7.0] for c in geometry["coordinates"]]
+    path.write_text(json.dumps(data), encoding="utf-8")
+    site = layers.read_site(root)
+    first = site.trenches.geometry.iloc[0]
+    assert not first.has_z
+    assert [list(c) for c in first.coords] == [c[:2] for c in geometry["coordinates"]]
+    assert not [w for w in recwarn if "members" in str(w.message)]
+
+
 def test_truncated_file(tmp_path):
     root = write(tmp_path, fmt="gpkg")
     path = root / "rows.gpkg"
