@@ -23,6 +23,7 @@ trench; a segment that overlaps nothing was *added* or *removed*.
 
 from __future__ import annotations
 
+import json
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -31,16 +32,19 @@ import pandas as pd
 from scipy import sparse
 from scipy.sparse import csgraph
 
-from ..folder import reading
+from ..folder import MANIFEST, Manifest, reading
 from ..outputs.columns import CIRCUIT_COLUMNS, SEGMENT_COLUMNS
 from ..units import FOOT_M
 from .core import (
     CHANGE_COLUMNS,
     CIRCUIT_FIELDS,
+    CIRCUITS,
     NUMBER_FIELDS,
+    QUANTITIES,
     QUANTITY_KEYS,
     ROUTE_FIELDS,
     SEGMENT_FIELDS,
+    SEGMENTS,
     VALUE_FIELDS,
     read_plan,
 )
@@ -94,6 +98,9 @@ class PlanDiff:
     notes : tuple of str
         What differs between the two plans' bases (routeplan version, rule set, site name):
         each a reason values may differ besides the layout.
+    edited : tuple of str
+        The files read that were edited since routeplan wrote them (they no longer match
+        their folder's manifest): the comparison shows the edits as changes of the plan.
     """
 
     old_dir: Path
@@ -103,6 +110,7 @@ class PlanDiff:
     segments: pd.DataFrame
     plant: pd.DataFrame
     notes: tuple[str, ...] = ()
+    edited: tuple[str, ...] = ()
 
     def ids(self, section: str, change: str | None = None) -> list[str]:
         """Sorted unique ids of a section (optionally one kind of change)."""
@@ -125,6 +133,7 @@ def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
     old_dir, new_dir = Path(old_dir), Path(new_dir)
     with reading(old_dir), reading(new_dir):  # a run killed mid-commit completed first
         old, new = read_plan(old_dir), read_plan(new_dir)
+        edited = (*edited_files(old_dir), *edited_files(new_dir))
     circuit_rows, circuits = compare_circuits(
         old["circuits"], new["circuits"], old["segments"], new["segments"]
     )
@@ -137,9 +146,24 @@ def diff_outputs(old_dir: Path | str, new_dir: Path | str) -> PlanDiff:
         *_plant_rows(plant),
     ]
     changes = pd.DataFrame(rows, columns=list(CHANGE_COLUMNS)).fillna("")
-    return PlanDiff(
-        old_dir, new_dir, changes, circuits, segments, plant, _notes(old["summary"], new["summary"])
-    )
+    notes = _notes(old["summary"], new["summary"])
+    return PlanDiff(old_dir, new_dir, changes, circuits, segments, plant, notes, edited)
+
+
+def edited_files(folder: Path) -> list[str]:
+    """The schedules and summary of a plan's output ``folder`` that its manifest records but
+    that no longer hold the bytes routeplan wrote (edited by hand or by another program); none
+    where the folder has no readable manifest (a plan written before manifests)."""
+    try:
+        manifest = Manifest.from_data(json.loads((folder / MANIFEST).read_text(encoding="utf-8")))
+    except (OSError, ValueError, KeyError, TypeError):
+        return []
+    names = (CIRCUITS.name, SEGMENTS.name, QUANTITIES.name, "summary.json")
+    return [
+        str(folder / n)
+        for n in names
+        if n in manifest.files and not manifest.files[n].matches(folder / n)
+    ]
 
 
 def _notes(old: dict, new: dict) -> tuple[str, ...]:

@@ -15,9 +15,14 @@ LISTED = 200
 
 def diff_lines(diff: PlanDiff, listed: int = LISTED) -> list[str]:
     """What ``routeplan diff`` prints (without the closing caution)."""
+    lines = [
+        f"warning: {f} was edited since routeplan wrote it (it no longer matches its folder's "
+        "manifest): the comparison shows the edits as changes"
+        for f in diff.edited
+    ]
     if diff.empty:
-        return ["no changes"]
-    lines = [f"note: the plans differ in {n}" for n in diff.notes]
+        return [*lines, "no changes"]
+    lines += [f"note: the plans differ in {n}" for n in diff.notes]
     lines += _plant(diff.plant)
     lines += _circuits(diff, listed)
     lines += _segments(diff.segments, listed)

@@ -409,3 +409,23 @@ def test_a_file_that_is_no_schedule_is_not_called_an_earlier_versions(plans, tmp
         "circuits, strings, subarrays, arrays, ac, cable_sets, max_circuits, fill, "
         "group_factor, status (a schedule of 'routeplan plan' has it)\n"
     )
+
+
+def test_a_schedule_edited_since_routeplan_wrote_it_is_named(plans, tmp_path):
+    # a size changed by hand in a copy of the plan: diff showed it as a change of the plan
+    # (a hostile-input sweep), while the folder's manifest records the bytes routeplan wrote
+    copy = tmp_path / "copy"
+    shutil.copytree(plans["base"], copy, copy_function=shutil.copy2)
+    unedited = diff(plans["base"], copy)
+    assert unedited.exit_code == 0 and "warning" not in unedited.output
+    rows = rows_of(copy / "cable_schedule.csv")
+    col = rows[0].index("size_mm2")
+    rows[1][col] = "16.0" if rows[1][col] != "16.0" else "25.0"
+    write_rows(copy / "cable_schedule.csv", rows)
+    done = diff(plans["base"], copy)
+    assert done.exit_code == 0, done.output
+    assert done.output.splitlines()[0] == (
+        f"warning: {copy / 'cable_schedule.csv'} was edited since routeplan wrote it (it no "
+        "longer matches its folder's manifest): the comparison shows the edits as changes"
+    )
+    assert diff_outputs(plans["base"], copy).edited == (str(copy / "cable_schedule.csv"),)
