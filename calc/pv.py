@@ -42,6 +42,7 @@ __all__ = [
     "StringProtection",
     "ac_current_a",
     "ac_max_current_a",
+    "ac_max_implausible",
     "array_design_current_a",
     "fuse_ratings_a",
     "max_modules_in_series",
@@ -53,6 +54,7 @@ __all__ = [
 ]
 
 _RULES = "iec62548_2016_pv_dc_rules.csv"
+_INVERTER = "inverter_plausibility.csv"
 _FUSES = "iec60269_1_fuse_ratings.csv"
 
 
@@ -137,6 +139,24 @@ def ac_max_current_a(
         rated = ac_current_a(ac_kva, ac_v, phases)
     imax, rated = np.broadcast_arrays(imax, rated)
     return np.where(np.isfinite(imax), imax, rated)
+
+
+def ac_max_implausible(
+    ac_max_a: ArrayLike, ac_kva: ArrayLike, ac_v: ArrayLike, phases: ArrayLike
+) -> np.ndarray:
+    """Where an inverter's maximum continuous output current ``ac_max_a`` [A] is below
+    ``ac_max_min_x_rated`` (0.5, ``inverter_plausibility.csv``, common practice) × the current
+    of its rating (:func:`ac_current_a`): an inverter that could not deliver its rating, most
+    likely a lost digit. False where ``ac_max_a`` is not given (nan).
+
+    >>> ac_max_implausible([10.0, 578.0, 577.0, np.nan], 1600.0, 800.0, 3).tolist()
+    [True, False, True, False]
+    """
+    t = load_table(_INVERTER)
+    share = float(t["value"][t.where(name="ac_max_min_x_rated")][0])
+    imax = np.asarray(ac_max_a, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return imax < share * ac_current_a(ac_kva, ac_v, phases)
 
 
 @dataclass(frozen=True)

@@ -266,10 +266,11 @@ def sizing_input(
         phases[ac_idx] = rows["phases"].to_numpy(dtype=np.int64)
         pf[ac_idx] = rows["pf"].to_numpy(dtype=float)
         ac_max[ac_idx] = rows["ac_max_a"].to_numpy(dtype=float)
-        # a plausibility check (common practice, no published source): an inverter whose
-        # maximum output current is under half the current of its rating (a digit lost)
-        rated = calc.pv.ac_current_a(ac_kva[ac_idx], ac_v[ac_idx], phases[ac_idx])
-        low = np.flatnonzero(ac_max[ac_idx] < 0.5 * rated)
+        # an inverter whose maximum output current is under half the current of its rating
+        # (calc.pv.ac_max_implausible: a lost digit, common practice)
+        args = (ac_kva[ac_idx], ac_v[ac_idx], phases[ac_idx])
+        rated = calc.pv.ac_current_a(*args)
+        low = np.flatnonzero(calc.pv.ac_max_implausible(ac_max[ac_idx], *args))
         formula = {3: "ac_kva / (√3 × ac_v)", 1: "ac_kva / ac_v"}
         if len(low):
             raise DesignError(

@@ -359,6 +359,40 @@ def test_a_second_run_into_a_locked_folder_is_refused(site, tmp_path):
     assert plan(site, out).exit_code in (0, 1)  # free again
 
 
+def test_a_lock_released_within_the_wait_lets_the_run_in(tmp_path):
+    # the children of a run that has just failed hold the folder's lock until the kernel has
+    # torn them down: a run started meanwhile waits for it (up to folder.LOCK_WAIT_S) instead
+    # of calling the folder busy. Here another process holds the lock for 0.3 s.
+    import fcntl
+
+    from routeplan import folder as folder_mod
+
+    out = tmp_path / "out"
+    out.mkdir()
+    read_fd, write_fd = os.pipe()
+    pid = os.fork()
+    if pid == 0:  # the holder
+        code = 1
+        try:
+            fd = os.open(out, os.O_RDONLY)
+            fcntl.flock(fd, fcntl.LOCK_EX)
+            os.write(write_fd, b"1")
+            time.sleep(0.3)
+            code = 0
+        finally:
+            os._exit(code)
+    os.close(write_fd)
+    assert os.read(read_fd, 1) == b"1"  # held now
+    os.close(read_fd)
+    t0 = time.monotonic()
+    try:
+        with OutputFolder.open(out, "plan"):
+            waited = time.monotonic() - t0
+    finally:
+        os.waitpid(pid, 0)
+    assert 0.1 < waited < folder_mod.LOCK_WAIT_S + 0.5
+
+
 def test_the_users_umask_is_kept(site, tmp_path):
     old = os.umask(0o027)
     try:
